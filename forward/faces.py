@@ -1,0 +1,170 @@
+"""Face conditions of the cylinder (SI units: K, W/m^2, W/(m^2 K)).
+
+Each face has an outward normal n.  The conditions are
+
+    temperature          T = g                       g [K]
+    flux                 k dT/dn = q_in              q_in [W/m^2], heat INTO the part
+    insulated            k dT/dn = 0
+    convection           -k dT/dn = h (T - T_amb)    h [W/(m^2 K)], T_amb [K]
+    unknown-temperature  T unknown (to be estimated)
+    unknown-flux         q_in unknown (to be estimated)
+
+A face datum is either a number (uniform) or a *profile*: a vectorized callable of the
+face coordinates in SI units, ``f(r, theta)`` on the end faces (r [m], theta [rad]) and
+``f(theta, z)`` on the side (theta [rad], z [m]), returning the datum in SI units.
+
+For superposition every face also has a *homogeneous kind*: 'D' (T = 0), 'N'
+(dT/dn = 0) or 'R' (k dT/dn + h T = 0).  An unknown face is homogeneous as 'D'
+(unknown-temperature) or 'N' (unknown-flux) in the other sub-problems.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Callable, Union
+
+import numpy as np
+
+from .errors import ForwardModelError
+
+Profile = Callable[[np.ndarray, np.ndarray], np.ndarray]
+Datum = Union[float, Profile]
+
+
+def _check_datum(datum, what: str):
+    if callable(datum):
+        return datum
+    try:
+        value = float(datum)
+    except (TypeError, ValueError):
+        raise ForwardModelError(f"{what} must be a number or a profile, got {datum!r}") from None
+    if not math.isfinite(value):
+        raise ForwardModelError(f"{what} must be finite, got {datum!r}")
+    return value
+
+
+def evaluate_datum(datum: Datum, u, v) -> np.ndarray:
+    """Datum on face coordinates (u, v) as an array broadcast to their shape."""
+    u, v = np.broadcast_arrays(np.asarray(u, float), np.asarray(v, float))
+    if callable(datum):
+        out = np.asarray(datum(u, v), dtype=float)
+        return np.broadcast_to(out, u.shape).astype(float)
+    return np.full(u.shape, float(datum))
+
+
+class FaceCondition:
+    """Base class; `kind` is the homogeneous kind ('D', 'N' or 'R') of the face."""
+
+    kind: str = ""
+    condition: str = ""
+    unknown: bool = False
+
+    def data(self, u, v) -> np.ndarray:
+        """Right-hand side of the face operator B[T] on this face, in SI units.
+
+        B[T] = T ('D'), k dT/dn ('N'), k dT/dn + h T ('R'); data = g, q_in, h T_amb.
+        Unknown faces have no data (zero: their part is the unknown basis).
+        """
+        return np.zeros(np.broadcast(np.asarray(u), np.asarray(v)).shape)
+
+    @property
+    def h(self) -> float:
+        return 0.0
+
+    @property
+    def is_uniform(self) -> bool:
+        return True
+
+
+@dataclass(frozen=True)
+class Temperature(FaceCondition):
+    value: Datum
+    kind = "D"
+    condition = "temperature"
+
+    def __post_init__(self):
+        object.__setattr__(self, "value", _check_datum(self.value, "temperature value"))
+        if not callable(self.value) and self.value <= 0:
+            raise ForwardModelError(f"temperature must be above absolute zero, got {self.value} K")
+
+    def data(self, u, v):
+        return evaluate_datum(self.value, u, v)
+
+    @property
+    def is_uniform(self):
+        return not callable(self.value)
+
+
+@dataclass(frozen=True)
+class Flux(FaceCondition):
+    value: Datum
+    kind = "N"
+    condition = "flux"
+
+    def __post_init__(self):
+        object.__setattr__(self, "value", _check_datum(self.value, "heat-flux value"))
+
+    def data(self, u, v):
+        return evaluate_datum(self.value, u, v)
+
+    @property
+    def is_uniform(self):
+        return not callable(self.value)
+
+
+@dataclass(frozen=True)
+class Insulated(FaceCondition):
+    kind = "N"
+    condition = "insulated"
+
+
+@dataclass(frozen=True)
+class Convection(FaceCondition):
+    h_value: float
+    ambient: Datum
+    kind = "R"
+    condition = "convection"
+
+    def __post_init__(self):
+        h = _check_datum(self.h_value, "heat-transfer coefficient h")
+        if callable(h) or h <= 0:
+            raise ForwardModelError(
+                f"heat-transfer coefficient h must be a positive number in W/(m^2*K), got {self.h_value!r}")
+        object.__setattr__(self, "h_value", h)
+        object.__setattr__(self, "ambient", _check_datum(self.ambient, "ambient temperature"))
+
+    @property
+    def h(self):
+        return self.h_value
+
+    def data(self, u, v):
+        return self.h_value * evaluate_datum(self.ambient, u, v)
+
+    @property
+    def is_uniform(self):
+        return not callable(self.ambient)
+
+
+@dataclass(frozen=True)
+class UnknownTemperature(FaceCondition):
+    kind = "D"
+    condition = "unknown-temperature"
+    unknown = True
+
+
+@dataclass(frozen=True)
+class UnknownFlux(FaceCondition):
+    kind = "N"
+    condition = "unknown-flux"
+    unknown = True
+
+
+CONDITIONS = {
+    "temperature": Temperature,
+    "flux": Flux,
+    "insulated": Insulated,
+    "convection": Convection,
+    "unknown-temperature": UnknownTemperature,
+    "unknown-flux": UnknownFlux,
+}

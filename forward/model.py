@@ -1,0 +1,354 @@
+"""The cylinder model: superposition of one sub-problem per face with data, plus a lifting.
+
+T = w + sum_F u_F, where u_F carries the residual data of face F (data minus B_F[w])
+with the other faces homogeneous of their own kinds, and an unknown face (if any) is
+homogeneous in all of them: T = 0 (unknown-temperature) or dT/dn = 0 (unknown-flux).
+Its own field is the basis `CylinderModel.basis(...)`, one column per eigenfunction.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from .errors import ForwardModelError, IllPosedError
+from .faces import FaceCondition, Flux, Temperature
+from .geometry import Cylinder
+from .harmonics import harmonic_amplitudes, theta_nodes
+from .lifting import Lifting
+from .modes import EndCondition, EndFaceModes, SideModes
+from .roots import axial_eigenvalues, radial_eigenvalues
+from .series import KnownSeries, _gauss
+
+
+@dataclass
+class FieldValues:
+    """Field at points: temperature [K] (P,), gradient [K/m] (3, P) as (d/dr, (1/r) d/dtheta,
+    d/dz), heat_flux = -k grad T [W/m^2] (3, P) (NaN when no conductivity is given) and the
+    truncation estimate [K] (P,)."""
+
+    temperature: np.ndarray
+    gradient: np.ndarray
+    heat_flux: np.ndarray
+    truncation_error: np.ndarray
+
+
+def _needs_conductivity(cond: FaceCondition) -> bool:
+    return cond.kind == "R" or cond.condition in ("flux", "unknown-flux")
+
+
+class CylinderModel:
+    """Exact steady field of a solid cylinder for given face conditions.
+
+    tolerance: relative truncation tolerance of each series (against its leading term).
+    """
+
+    def __init__(self, cylinder: Cylinder, faces: dict, tolerance: float = 1e-8,
+                 max_terms: int = 1024, max_harmonic: int = 64):
+        self.cylinder = cylinder
+        self.tolerance = float(tolerance)
+        self.max_terms = int(max_terms)
+        self.max_harmonic = int(max_harmonic)
+        expected = set(cylinder.faces)
+        given = set(faces)
+        if given != expected:
+            missing, extra = sorted(expected - given), sorted(given - expected)
+            parts = []
+            if missing:
+                parts.append("missing face(s) " + ", ".join(missing))
+            if extra:
+                parts.append("face(s) " + ", ".join(extra) + " not on this part"
+                             + (" (a semi-infinite part has no top face)" if "top" in extra else ""))
+            raise ForwardModelError("; ".join(parts))
+        for name, cond in faces.items():
+            if not isinstance(cond, FaceCondition):
+                raise ForwardModelError(f"face {name}: not a face condition: {cond!r}")
+        self.faces = dict(faces)
+        unknown = [f for f, c in faces.items() if c.unknown]
+        if len(unknown) > 1:
+            raise ForwardModelError(
+                f"only one face can be unknown at a time, got {', '.join(unknown)}")
+        self.unknown_face = unknown[0] if unknown else None
+        needs_k = [f for f, c in faces.items() if _needs_conductivity(c)]
+        if needs_k and cylinder.conductivity is None:
+            raise ForwardModelError(
+                f"conductivity is needed for the {', '.join(needs_k)} face condition(s)")
+        self.has_conductivity = cylinder.conductivity is not None
+        self.k = cylinder.conductivity if self.has_conductivity else 1.0
+        self.kinds = {f: EndCondition(c.kind, c.h) for f, c in faces.items()}
+        self._check_well_posed()
+        self._build()
+
+    # --- checks ---------------------------------------------------------------------------
+    def _face_integral(self, face, fn):
+        """integral of fn(face coords) over a face [unit * m^2] (Gauss in r or z, trapezoid in theta)."""
+        a, L = self.cylinder.radius, self.cylinder.height
+        th = theta_nodes(64)
+        if face == "side":
+            s, w = _gauss(64, L)
+            vals = fn(*np.meshgrid(th, s, indexing="xy"))  # (len(s), len(th))
+            return float((w[:, None] * vals).sum() * (2 * np.pi / th.size) * a)
+        s, w = _gauss(64, a)
+        vals = fn(*np.meshgrid(s, th, indexing="ij"))
+        return float(((w * s)[:, None] * vals).sum() * (2 * np.pi / th.size))
+
+    def _check_well_posed(self):
+        cyl, faces = self.cylinder, self.faces
+        if all(c.kind == "N" for c in faces.values()):
+            known = [f for f, c in faces.items() if isinstance(c, Flux)]
+            net = sum(self._face_integral(f, faces[f].data) for f in known) if not cyl.semi_infinite \
+                else None
+            if self.unknown_face is not None:
+                why = (f"the {self.unknown_face} heat flux is unknown and every other face is "
+                       "flux or insulated, so no face fixes the temperature level")
+            elif net is not None and abs(net) > 1e-9 * max(1.0, sum(
+                    abs(self._face_integral(f, lambda u, v, f=f: np.abs(faces[f].data(u, v))))
+                    for f in known)):
+                why = (f"the net heat input is {net:.6g} W and every face is flux or insulated, "
+                       "so it has nowhere to go and no steady state exists")
+            else:
+                why = "every face is flux or insulated, so no face fixes the temperature level"
+            raise IllPosedError(
+                why + "; make at least one face a temperature or convection condition")
+        if cyl.semi_infinite:
+            side = faces["side"]
+            if side.unknown:
+                raise ForwardModelError(
+                    "an unknown side needs a finite height: give part.height as a length")
+            a = cyl.radius
+            zs = np.linspace(0.0, 20.0 * a, 9)
+            th = theta_nodes(32)
+            TH, Z = np.meshgrid(th, zs)
+            vals = side.data(TH, Z)
+            scale = max(float(np.abs(vals).max()), 1e-300)
+            if np.ptp(vals, axis=0).max() > 1e-9 * scale:
+                raise ForwardModelError(
+                    "the side data vary along z; on a semi-infinite part they must be uniform in z "
+                    "(give part.height as a length to use such a profile)")
+            if side.kind == "N":
+                a_m, _ = harmonic_amplitudes(vals[0], axis=-1)
+                if abs(a_m[0]) > 1e-12 * scale:
+                    raise IllPosedError(
+                        "a net heat flux into the side of a semi-infinite part adds unbounded power; "
+                        "give part.height as a length or make the side insulated, temperature or "
+                        "convection")
+
+    # --- construction ---------------------------------------------------------------------------
+    def _rim_values(self, end):
+        """Temperature the lifting takes at the rim of an end face, sampled on theta nodes, or None."""
+        faces, cyl = self.faces, self.cylinder
+        side = faces["side"]
+        if side.kind != "D":
+            return None
+        th = theta_nodes(2 * self.max_harmonic + 2)
+        z = 0.0 if end == "bottom" else cyl.height
+        if isinstance(side, Temperature):
+            return side.data(th, np.full_like(th, z))
+        cond = faces.get(end)
+        if isinstance(cond, Temperature):
+            return cond.data(np.full_like(th, cyl.radius), th)
+        return None
+
+    def _build(self):
+        cyl, faces, tol = self.cylinder, self.faces, self.tolerance
+        a, L, k = cyl.radius, cyl.height, self.k
+        side = faces["side"]
+        if cyl.semi_infinite and not side.unknown:
+            th = theta_nodes(2 * self.max_harmonic + 2)
+            am, bm = harmonic_amplitudes(side.data(th, np.zeros_like(th)), axis=-1)
+            ms, sins, alpha = [], [], []
+            for m in range(am.size):
+                for is_sin, amp in ((False, am[m]), (True, bm[m])):
+                    if (is_sin and m == 0) or abs(amp) <= tol * max(np.abs(am).max(), 1e-300):
+                        continue
+                    # B_side[(r/a)^m] = 1 ('D'), k m / a ('N'), k m / a + h ('R')
+                    b = {"D": 1.0, "N": k * m / a, "R": k * m / a + side.h}[side.kind]
+                    ms.append(m), sins.append(is_sin), alpha.append(amp / b)
+            self.lifting = Lifting.two_dimensional(a, ms, sins, alpha)
+        elif side.kind == "D":
+            bottom = self._rim_values("bottom")
+            top = None if cyl.semi_infinite else self._rim_values("top")
+            self.lifting = Lifting.from_rim_values(a, L, bottom, top, tol, self.max_harmonic)
+        else:
+            self.lifting = Lifting.zero(a, L)
+        self.temperature_scale = self._temperature_scale()
+        self.series = []
+        for face, cond in faces.items():
+            if cond.unknown:
+                continue
+            if face == "side" and cyl.semi_infinite:
+                continue  # carried exactly by the two-dimensional lifting
+            data = self._residual_data(face, cond)
+            span = a if face != "side" else min(a, L)
+            scale = {"D": 1.0, "N": k / span, "R": cond.h}[cond.kind] * self.temperature_scale
+            s = KnownSeries(face, data, (a, L), self.kinds, k, tol=tol, scale=scale,
+                            n_cap=self.max_terms, max_harmonic=self.max_harmonic)
+            if s.modes is not None:
+                self.series.append(s)
+
+    def _temperature_scale(self):
+        """Reference temperature size [K]: the largest of |g|, |T_amb|, |q| a / k and 1 K."""
+        a, L = self.cylinder.radius, self.cylinder.height
+        th = theta_nodes(16)
+        ref = 1.0
+        for face, cond in self.faces.items():
+            if cond.unknown:
+                continue
+            s = np.linspace(0.0, a if face != "side" else (L if math.isfinite(L) else a), 9)
+            u, v = (np.meshgrid(th, s) if face == "side" else np.meshgrid(s, th))
+            size = float(np.abs(cond.data(u, v)).max())
+            span = a if face != "side" else min(a, L)
+            ref = max(ref, size * {"D": 1.0, "N": span / self.k, "R": 1.0 / (cond.h or 1.0)}[cond.kind])
+        return ref
+
+    def _face_points(self, face, u, v):
+        """(r, theta, z) of face coordinates (r, theta) on end faces or (theta, z) on the side."""
+        cyl = self.cylinder
+        u, v = np.broadcast_arrays(np.asarray(u, float), np.asarray(v, float))
+        if face == "side":
+            return np.full(u.shape, cyl.radius), u, v
+        z = 0.0 if face == "bottom" else cyl.height
+        return u, v, np.full(u.shape, z)
+
+    def _normal_component(self, face, grad):
+        """dT/dn with the outward normal of the face, from a (3, ...) gradient."""
+        return {"bottom": -grad[2], "top": grad[2], "side": grad[0]}[face]
+
+    def _lifting_operator(self, face, cond, u, v):
+        """B_F[w] on a face: w ('D'), k dw/dn ('N'), k dw/dn + h w ('R')."""
+        r, th, z = self._face_points(face, u, v)
+        shape = r.shape
+        r, th, z = r.ravel(), th.ravel(), z.ravel()
+        if self.lifting.empty:
+            return np.zeros(shape)
+        w = self.lifting.temperature(r, th, z)
+        dn = self._normal_component(face, self.lifting.gradient(r, th, z))
+        out = {"D": w, "N": self.k * dn, "R": self.k * dn + cond.h * w}[cond.kind]
+        return out.reshape(shape)
+
+    def _residual_data(self, face, cond):
+        def data(u, v):
+            return cond.data(u, v) - self._lifting_operator(face, cond, u, v)
+        return data
+
+    # --- evaluation -------------------------------------------------------------------------
+    def _check_points(self, r, theta, z):
+        r, theta, z = np.broadcast_arrays(*(np.asarray(x, float) for x in (r, theta, z)))
+        if not (np.all(np.isfinite(r)) and np.all(np.isfinite(theta)) and np.all(np.isfinite(z))):
+            raise ForwardModelError("points must have finite coordinates")
+        inside = self.cylinder.contains(r, z)
+        if not inside.all():
+            i = int(np.flatnonzero(~inside.ravel())[0])
+            raise ForwardModelError(
+                f"point {i + 1} (r = {r.ravel()[i]:.6g} m, z = {z.ravel()[i]:.6g} m) is outside the part")
+        a, L = self.cylinder.radius, self.cylinder.height
+        r = np.clip(r, 0.0, a)
+        z = np.clip(z, 0.0, L) if math.isfinite(L) else np.maximum(z, 0.0)
+        return r, theta, z
+
+    def evaluate(self, r, theta, z) -> FieldValues:
+        """The known field (everything but the unknown face's own part) at points (m, rad, m)."""
+        r, theta, z = self._check_points(r, theta, z)
+        shape = r.shape
+        r, theta, z = r.ravel(), theta.ravel(), z.ravel()
+        t = self.lifting.temperature(r, theta, z)
+        g = self.lifting.gradient(r, theta, z)
+        tail = np.zeros_like(t)
+        for s in self.series:
+            ts, gs, es = s.evaluate(r, theta, z)
+            t, g, tail = t + ts, g + gs, tail + es
+        q = -self.k * g if self.has_conductivity else np.full_like(g, np.nan)
+        return FieldValues(t.reshape(shape), g.reshape((3,) + shape), q.reshape((3,) + shape),
+                           tail.reshape(shape))
+
+    def temperature(self, r, theta, z):
+        return self.evaluate(r, theta, z).temperature
+
+    def face_power(self, face: str) -> float:
+        """Heat INTO the part [W] through a face, from the known field."""
+        total = self.lifting.power(face, self.k)
+        for s in self.series:
+            total += s.powers().get(face, 0.0)
+        return total
+
+    # --- the unknown face's basis -------------------------------------------------------------------
+    def basis(self, harmonics: int, terms: int) -> "UnknownBasis":
+        """Fields of the unknown face's eigenfunctions: m = 0..harmonics (cos and sin), `terms`
+        radial (end face) or axial (side) functions for each."""
+        if self.unknown_face is None:
+            raise ForwardModelError("this case has no unknown face")
+        return UnknownBasis(self, int(harmonics), int(terms))
+
+
+class UnknownBasis:
+    """Columns of the inverse problem: one field per eigenfunction of the unknown face.
+
+    Face quantity = known part + sum_k c_k Phi_k on the face, where Phi_k is the k-th
+    eigenfunction and the quantity is the temperature [K] (unknown-temperature) or the heat
+    flux into the part [W/m^2] (unknown-flux).
+    """
+
+    def __init__(self, model: CylinderModel, harmonics: int, terms: int):
+        self.model = model
+        self.face = model.unknown_face
+        cond = model.faces[self.face]
+        self.quantity = "temperature" if cond.kind == "D" else "heat_flux"
+        cyl, kinds, k = model.cylinder, model.kinds, model.k
+        a, L = cyl.radius, cyl.height
+        ms, sins, ev, nidx = [], [], [], []
+        for m in range(harmonics + 1):
+            if self.face == "side":
+                b, t = kinds["bottom"], kinds["top"]
+                e = axial_eigenvalues(b.kind, t.kind, terms, b.h * L / k, t.h * L / k)
+            else:
+                s = kinds["side"]
+                e = radial_eigenvalues(s.kind, m, terms, s.h * a / k)
+            for is_sin in ((False,) if m == 0 else (False, True)):
+                ms.append(np.full(terms, m)), sins.append(np.full(terms, is_sin))
+                ev.append(e), nidx.append(np.arange(terms))
+        m, is_sin, ev = np.concatenate(ms), np.concatenate(sins), np.concatenate(ev)
+        self.n_index = np.concatenate(nidx)
+        if self.face == "side":
+            self.modes = SideModes(a, L, k, kinds["side"], kinds["bottom"], kinds["top"], m, is_sin, ev)
+        else:
+            far = "top" if self.face == "bottom" else "bottom"
+            self.modes = EndFaceModes(self.face, a, L, k, kinds[self.face], kinds.get(far), m, is_sin, ev)
+        self.m, self.is_sin, self.eigenvalues = m, is_sin, ev
+
+    @property
+    def size(self):
+        return self.m.size
+
+    def fields(self, r, theta, z, gradient=False):
+        """Temperature per unit coefficient (P, K) [K] and optionally the gradient (3, P, K)."""
+        r, theta, z = self.model._check_points(r, theta, z)
+        return self.modes.fields(r.ravel(), theta.ravel(), z.ravel(), gradient=gradient)
+
+    def face_values(self, u, v):
+        """Phi_k at face coordinates (r, theta) or (theta, z): (Q, K)."""
+        u, v = np.broadcast_arrays(np.asarray(u, float).ravel(), np.asarray(v, float).ravel())
+        return self.modes.eigenfunctions(u, v)
+
+    def known_face_values(self, u, v):
+        """The face quantity carried by the known field (the lifting) at face coordinates (Q,)."""
+        u, v = (np.asarray(x, float).ravel() for x in (u, v))
+        cond = self.model.faces[self.face]
+        return self.model._lifting_operator(self.face, cond, u, v)
+
+    def norms(self):
+        """integral of Phi_k^2 over the face [m^2]."""
+        return self.modes.norms()
+
+    def surface_eigenvalues(self):
+        """-Laplacian_face Phi_k = ev_k Phi_k, ev_k [1/m^2]."""
+        return self.modes.surface_eigenvalues()
+
+    def powers(self):
+        """Heat INTO the part through the unknown face [W] per unit coefficient, (K,)."""
+        return self.modes.powers()[self.face]
+
+    def known_power(self):
+        """Heat INTO the part through the unknown face [W] from the known field."""
+        return self.model.face_power(self.face)

@@ -1,0 +1,175 @@
+"""Known-data series: project a face's (residual) data on its eigenfunctions and sum.
+
+End face:  f(r, theta) = sum_mn c_mn J_m(lambda_mn r / a) Theta_m(theta),
+           c_mn = integral_0^a f_m(r) J_m(lambda_mn r / a) r dr / N_mn
+Side:      g(theta, z) = sum_mn c_mn Theta_m(theta) Z_n(z),
+           c_mn = integral_0^L g_m(z) Z_n(z) dz / integral_0^L Z_n^2 dz
+f_m, g_m are the azimuthal harmonic amplitudes (FFT on equally spaced angles); the
+radial / axial integrals use Gauss-Legendre rules with enough nodes to resolve the
+highest eigenfunction.  The number of terms doubles until the truncation estimate at
+the requested points (sum of the term bounds |c| |axial or radial factor| over the last
+half of the terms) is below tolerance x the leading term, or the cap is reached.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .harmonics import harmonic_amplitudes, significant_harmonics, theta_nodes
+from .modes import EndCondition, EndFaceModes, SideModes
+from .roots import axial_eigenvalues, radial_eigenvalues
+
+CHUNK = 2_000_000  # point x mode entries per evaluation block
+
+
+def _gauss(n, length):
+    x, w = np.polynomial.legendre.leggauss(int(n))
+    return 0.5 * length * (x + 1.0), 0.5 * length * w
+
+
+class KnownSeries:
+    """One sub-problem: known data on one face, the other faces homogeneous."""
+
+    def __init__(self, face, data, geometry, kinds, conductivity, *, tol, scale, n_start=32,
+                 n_cap=1024, max_harmonic=64):
+        self.face = face
+        self.data = data  # vectorized callable on face coordinates (SI)
+        self.a, self.L = geometry
+        self.kinds = kinds  # dict face -> EndCondition
+        self.k = conductivity
+        self.tol = tol
+        # scale: size of the face's raw data [data units]; harmonics and terms below
+        # tol * scale are dropped.  temperature_scale converts it to kelvin.
+        self.scale = float(scale)
+        kind = kinds[face]
+        span = self.a if face != "side" else min(self.a, self.L)
+        self.temperature_scale = {"D": 1.0, "N": span / conductivity,
+                                  "R": 1.0 / kind.h if kind.h else 1.0}[kind.kind] * self.scale
+        self.n_cap = int(n_cap)
+        self.max_harmonic = int(max_harmonic)
+        self._harmonics()
+        self.n_terms = 0
+        self._build(int(n_start))
+
+    # --- data sampling -------------------------------------------------------------
+    def _span(self):
+        return self.a if self.face != "side" else self.L
+
+    def _sample(self, s, theta):
+        """Data on a (s, theta) grid: s = r on end faces, z on the side; shape (len(s), len(theta))."""
+        S, TH = np.meshgrid(s, theta, indexing="ij")
+        if self.face == "side":
+            return np.asarray(self.data(TH, S), float).reshape(S.shape)
+        return np.asarray(self.data(S, TH), float).reshape(S.shape)
+
+    def _harmonics(self):
+        n_theta = 16
+        s, _ = _gauss(48, self._span())
+        while True:
+            a, b = harmonic_amplitudes(self._sample(s, theta_nodes(n_theta)), axis=1)
+            ms = significant_harmonics(a, b, self.tol, self.max_harmonic, self.scale)
+            top = int(ms.max()) if ms.size else 0
+            if top < n_theta // 4 or n_theta >= 2 * self.max_harmonic + 2:
+                break
+            n_theta *= 2
+        self.n_theta = max(n_theta, 2 * top + 4)
+        self.orders = ms
+        amp_c = np.abs(a).max(axis=0) if a.size else np.zeros(0)
+        amp_s = np.abs(b).max(axis=0) if b.size else np.zeros(0)
+        ref = self.scale
+        self.parities = [(m, p) for m in ms for p in (False, True)
+                         if not (p and m == 0) and (amp_s if p else amp_c)[m] > self.tol * ref]
+
+    # --- construction ------------------------------------------------------------------
+    def _eigen(self, m, n):
+        kinds, a, L, k = self.kinds, self.a, self.L, self.k
+        if self.face == "side":
+            b, t = kinds["bottom"], kinds["top"]
+            return axial_eigenvalues(b.kind, t.kind, n, b.h * L / k, t.h * L / k)
+        side = kinds["side"]
+        return radial_eigenvalues(side.kind, m, n, side.h * a / k)
+
+    def _make_modes(self, m, is_sin, ev):
+        kinds = self.kinds
+        if self.face == "side":
+            return SideModes(self.a, self.L, self.k, kinds["side"], kinds["bottom"], kinds["top"],
+                             m, is_sin, ev)
+        far = "top" if self.face == "bottom" else "bottom"
+        return EndFaceModes(self.face, self.a, self.L, self.k, kinds[self.face], kinds.get(far),
+                            m, is_sin, ev)
+
+    def _build(self, n):
+        n = min(n, self.n_cap)
+        if not self.parities:
+            self.modes, self.coef, self.n_terms = None, np.zeros(0), n
+            return
+        m = np.repeat([p[0] for p in self.parities], n)
+        is_sin = np.repeat([p[1] for p in self.parities], n)
+        ev = np.concatenate([self._eigen(p[0], n) for p in self.parities])
+        modes = self._make_modes(m, is_sin, ev)
+        top_ev = float(ev.max())  # lambda (end faces) or mu (side), dimensionless
+        nq = int(0.6 * top_ev + 16 * np.sqrt(top_ev + 1) + 80)
+        s, w = _gauss(nq, self._span())
+        amps_c, amps_s = harmonic_amplitudes(self._sample(s, theta_nodes(self.n_theta)), axis=1)
+        proj = np.empty(m.size)
+        if self.face == "side":
+            zz, _ = modes.axial(s)  # (nq, K)
+            weights = w[:, None] * zz
+            norm = modes.axial_norms()
+        else:
+            from .bessel import besselj
+            norm = modes.norms() / np.where(m == 0, 2.0 * np.pi, np.pi)
+        for g, (mg, sg) in enumerate(self.parities):
+            sl = slice(g * n, (g + 1) * n)
+            amp = (amps_s if sg else amps_c)[:, mg]  # (nq,)
+            if self.face == "side":
+                proj[sl] = (amp @ weights[:, sl]) / norm[sl]
+            else:
+                jr = besselj(mg, np.multiply.outer(s, modes.kappa[sl]))
+                proj[sl] = ((w * s * amp) @ jr) / norm[sl]
+        self.modes, self.coef, self.n_terms = modes, proj, n
+        self._n_index = np.tile(np.arange(n), len(self.parities))
+
+    # --- evaluation ----------------------------------------------------------------------
+    def _bounds(self, r, z):
+        """|radial or axial factor| per point and mode (|J Theta| <= 1, |Z Theta| <= 1)."""
+        if self.face == "side":
+            q, _, _ = self.modes._radial(r)
+            return np.abs(q / self.modes.norm_b)
+        zh, _ = self.modes.axial(self.modes.zeta(z))
+        return np.abs(zh)
+
+    def _evaluate_once(self, r, theta, z, gradient):
+        P = r.size
+        K = self.coef.size
+        t = np.zeros(P)
+        g = np.zeros((3, P))
+        tail = np.zeros(P)
+        last_half = self._n_index >= self.n_terms // 2
+        step = max(1, CHUNK // max(K, 1))
+        for i in range(0, P, step):
+            sl = slice(i, i + step)
+            cols, grad = self.modes.fields(r[sl], theta[sl], z[sl], gradient=gradient)
+            t[sl] = cols @ self.coef
+            if gradient:
+                g[:, sl] = grad @ self.coef
+            tail[sl] = self._bounds(r[sl], z[sl])[:, last_half] @ np.abs(self.coef[last_half])
+        return t, g, tail
+
+    def evaluate(self, r, theta, z, gradient=True):
+        """Temperature (P,), gradient (3, P) and truncation estimate (P,) of this sub-problem."""
+        r, theta, z = (np.asarray(v, float).ravel() for v in (r, theta, z))
+        if self.modes is None:
+            return np.zeros(r.size), np.zeros((3, r.size)), np.zeros(r.size)
+        while True:
+            t, g, tail = self._evaluate_once(r, theta, z, gradient)
+            ref = self.temperature_scale
+            if tail.size == 0 or tail.max() <= self.tol * ref or self.n_terms >= self.n_cap:
+                return t, g, tail
+            self._build(2 * self.n_terms)
+
+    def powers(self):
+        """Heat INTO the part [W] through each face from this sub-problem."""
+        if self.modes is None:
+            return {}
+        return {f: float(p @ self.coef) for f, p in self.modes.powers().items()}
