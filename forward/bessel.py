@@ -82,7 +82,7 @@ def _get_table(max_order: int, max_arg: float) -> _JTable:
             new_order = max(max_order, t.max_order if t else 0)
             new_order = int(8 * np.ceil((new_order + 1) / 8))
             new_arg = max(max_arg, t.max_arg if t else 0.0)
-            new_arg = float(64 * np.ceil((new_arg + 1) / 64))
+            new_arg = float(2.0 ** np.ceil(np.log2(new_arg + 64.0)))
             t = _table = _JTable(new_order, new_arg)
         return t
 

@@ -18,7 +18,7 @@ increasing function of mu, so it lies in [n pi, (n + 1) pi] and is unique there.
 
 from __future__ import annotations
 
-from functools import lru_cache
+import threading
 
 import numpy as np
 from scipy import special
@@ -34,17 +34,34 @@ def _jvp(m, x):
     return special.jvp(m, x)
 
 
-@lru_cache(maxsize=64)
+_zero_lock = threading.Lock()
+_zero_table = np.zeros((0, 0))
+
+
 def _bessel_zero_table(m_max: int, n: int) -> np.ndarray:
-    """Zeros j_{m,k} of J_m, shape (m_max + 1, n + m_max + 1 - m) padded: row m holds the first n zeros."""
-    count = n + m_max + 1
-    k = np.arange(1, count + 1)
-    zeros = solve_bracketed(lambda x, i: _jv(0, x), (k - 0.5) * np.pi, k * np.pi)
-    rows = [zeros[:n]]
-    for m in range(1, m_max + 1):
-        zeros = solve_bracketed(lambda x, i, m=m: _jv(m, x), zeros[:-1], zeros[1:])
-        rows.append(zeros[:n])
-    return np.array(rows)
+    """Zeros j_{m,k} of J_m for m = 0..m_max (at least), first n (at least) of each.
+
+    One table, grown by doubling, serves every request: the cascade from the zeros of
+    J_0 through the interlacing brackets is run once per growth.
+    """
+    global _zero_table
+    with _zero_lock:
+        have_m, have_n = _zero_table.shape[0] - 1, _zero_table.shape[1]
+        if have_m >= m_max and have_n >= n:
+            return _zero_table
+        m_max = max(m_max, have_m, 8)
+        n = max(n, have_n, 64)
+        m_max = 8 * int(np.ceil(m_max / 8))
+        n = 64 * int(np.ceil(n / 64))
+        count = n + m_max + 1
+        k = np.arange(1, count + 1)
+        zeros = solve_bracketed(lambda x, i: _jv(0, x), (k - 0.5) * np.pi, k * np.pi)
+        rows = [zeros[:n]]
+        for m in range(1, m_max + 1):
+            zeros = solve_bracketed(lambda x, i, m=m: _jv(m, x), zeros[:-1], zeros[1:])
+            rows.append(zeros[:n])
+        _zero_table = np.array(rows)
+        return _zero_table
 
 
 def bessel_zeros(m: int, n: int) -> np.ndarray:

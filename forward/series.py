@@ -13,7 +13,10 @@ half of the terms) is below tolerance x the leading term, or the cap is reached.
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
+from scipy import special
 
 from .harmonics import harmonic_amplitudes, significant_harmonics, theta_nodes
 from .modes import EndCondition, EndFaceModes, SideModes
@@ -22,8 +25,15 @@ from .roots import axial_eigenvalues, radial_eigenvalues
 CHUNK = 2_000_000  # point x mode entries per evaluation block
 
 
+@lru_cache(maxsize=32)
+def _gauss_unit(n):
+    x, w = special.roots_legendre(int(n))
+    return x, w
+
+
 def _gauss(n, length):
-    x, w = np.polynomial.legendre.leggauss(int(n))
+    """Gauss-Legendre nodes and weights on [0, length]."""
+    x, w = _gauss_unit(int(n))
     return 0.5 * length * (x + 1.0), 0.5 * length * w
 
 

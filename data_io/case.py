@@ -1,0 +1,596 @@
+"""The case file (TOML): the part, its faces, the sensor tables, fit options and zones.
+
+Schema (design §3; every dimensional value is a string with its unit)::
+
+    [part]
+    radius = "150 mm"              # required, > 0
+    height = "40 mm"               # required, > 0, or "infinite" (semi-infinite part)
+    conductivity = "16 W/(m*K)"    # required when a flux, convection or unknown-flux face exists
+
+    [faces.bottom]                 # z = 0      (also [faces.top], z = height; [faces.side], r = radius)
+    condition = "..."              # temperature | flux | insulated | convection
+                                   # | unknown-temperature | unknown-flux
+    value = "25 degC"              # temperature: absolute temperature; flux: heat flux INTO the part
+    profile = "bottom.csv"         # instead of value (temperature, flux) or of ambient (convection)
+    h = "12 W/(m^2*K)"             # convection only
+    ambient = "25 degC"            # convection only
+
+    [sensors]                      # needed by fit; file paths relative to the case file
+    layout = "layout.csv"
+    readings = "readings.csv"      # optional here (fit --readings may give it)
+
+    [fit]                          # optional; every key optional (FIT_SCHEMA, FitOptions)
+    strength = "auto"              # "auto" (= "auto:evidence"), "auto:gcv", "auto:lcurve",
+                                   # "auto:discrepancy", or a positive number (fixed alpha)
+    smoothing = "gradient"         # prior on the unknown face: "size" | "gradient" | "curvature"
+    keep_all_sensors = false       # true keeps sensors flagged as suspect in the fit
+    terms = 12                     # radial (end face) / axial (side) terms; default automatic
+    harmonics = 6                  # angular harmonics m = 0..harmonics; default automatic
+
+    [[zones]]                      # optional, any number; regions of the unknown face
+    name = "inner"                 # required, unique
+    face = "bottom"                # optional, default: the unknown face
+    r = ["0 mm", "50 mm"]          # end faces only; default the whole radius
+    theta = ["0 deg", "120 deg"]   # optional, default the full turn; start < end, span <= 360 deg
+    z = ["0 mm", "20 mm"]          # side only; default the whole height
+
+Every face of the part must be given: bottom, side and (finite parts) top.  A
+semi-infinite part (height = "infinite") has no top face.  Unknown keys are refused with
+the nearest valid key suggested.
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Callable
+
+import numpy as np
+
+from forward.errors import ForwardModelError
+from forward.faces import (Convection, FaceCondition, Flux, Insulated, Temperature,
+                           UnknownFlux, UnknownTemperature)
+from forward.geometry import Cylinder
+
+from .errors import InputError
+from .profiles import TableProfile, load_profile
+from .units import format_quantity, parse_quantity
+
+CONDITION_NAMES = ("temperature", "flux", "insulated", "convection",
+                   "unknown-temperature", "unknown-flux")
+FACE_KEYS = ("condition", "value", "profile", "h", "ambient")
+_KEYS_OF_CONDITION = {
+    "temperature": ("value", "profile"),
+    "flux": ("value", "profile"),
+    "insulated": (),
+    "convection": ("h", "ambient", "profile"),
+    "unknown-temperature": (),
+    "unknown-flux": (),
+}
+_NEEDS_CONDUCTIVITY = ("flux", "convection", "unknown-flux")
+TOP_KEYS = ("part", "faces", "sensors", "fit", "zones")
+PART_KEYS = ("radius", "height", "conductivity")
+FACE_NAMES = ("bottom", "top", "side")
+SENSOR_KEYS = ("layout", "readings")
+ZONE_KEYS = ("name", "face", "r", "theta", "z")
+STRENGTH_METHODS = ("evidence", "gcv", "lcurve", "discrepancy")
+SMOOTHING_KINDS = ("size", "gradient", "curvature")
+
+
+# ---------------------------------------------------------------------------- objects
+
+
+@dataclass(frozen=True)
+class FitOptions:
+    """Options of the [fit] table.
+
+    strength_method: "evidence" (marginal likelihood), "gcv", "lcurve", "discrepancy", or
+        "fixed" (then `strength` holds the value).  strength = "auto" means "evidence".
+    strength: the fixed smoothing strength alpha (> 0), None unless strength_method == "fixed".
+    smoothing: prior precision kind, "size" | "gradient" | "curvature".
+    keep_all_sensors: True keeps sensors flagged as suspect in the fit.
+    terms, harmonics: number of radial/axial terms and of angular harmonics of the unknown
+        face's basis; None lets the fit choose.
+    """
+
+    strength_method: str = "evidence"
+    strength: float | None = None
+    smoothing: str = "gradient"
+    keep_all_sensors: bool = False
+    terms: int | None = None
+    harmonics: int | None = None
+
+    def as_dict(self) -> dict:
+        return {"strength_method": self.strength_method, "strength": self.strength,
+                "smoothing": self.smoothing, "keep_all_sensors": self.keep_all_sensors,
+                "terms": self.terms, "harmonics": self.harmonics}
+
+
+@dataclass(frozen=True)
+class Zone:
+    """A region of a face: r and theta on end faces, theta and z on the side (SI: m, rad).
+
+    theta = (start, end) with start < end <= start + 2 pi, counter-clockwise.
+    r is None on the side, z is None on end faces.  face is None only in a fully known
+    case whose zone named no face (the zone is then meant for the face a fit will estimate).
+    """
+
+    name: str
+    face: str | None
+    theta: tuple[float, float]
+    r: tuple[float, float] | None = None
+    z: tuple[float, float] | None = None
+
+    def contains(self, u, v) -> np.ndarray:
+        """Mask of face points inside the zone: (r, theta) on end faces, (theta, z) on the side."""
+        u, v = np.broadcast_arrays(np.asarray(u, float), np.asarray(v, float))
+        if self.z is not None:
+            theta, other, rng = u, v, self.z
+        else:
+            theta, other, rng = v, u, self.r
+        start, end = self.theta
+        span = end - start
+        eps = 1e-12
+        inside = np.mod(theta - start + eps, 2 * math.pi) <= span + 2 * eps if span < 2 * math.pi - eps \
+            else np.ones(theta.shape, bool)
+        if rng is not None:
+            scale = max(abs(rng[1]), 1.0) * 1e-12
+            inside &= (other >= rng[0] - scale) & (other <= rng[1] + scale)
+        return inside
+
+
+@dataclass(frozen=True)
+class SensorFiles:
+    """Paths of the sensor tables (resolved against the case file's folder), or None."""
+
+    layout: Path | None = None
+    readings: Path | None = None
+
+
+@dataclass
+class Case:
+    """A validated case: forward objects in SI, plus what the user wrote, for display.
+
+    path, folder: the case file and its folder.
+    cylinder: forward.Cylinder.  faces: face name -> forward FaceCondition.
+    face_text: face name -> {key: text as written} (condition, value, h, ambient, profile).
+    profiles: face name -> TableProfile for faces given by a profile.
+    sensors: SensorFiles.  fit: FitOptions.  zones: tuple of Zone.
+    """
+
+    path: Path
+    folder: Path
+    cylinder: Cylinder
+    faces: dict[str, FaceCondition]
+    face_text: dict[str, dict[str, str]]
+    profiles: dict[str, TableProfile]
+    sensors: SensorFiles
+    fit: FitOptions
+    zones: tuple[Zone, ...] = ()
+    part_text: dict[str, str] = field(default_factory=dict)
+
+    @property
+    def unknown_faces(self) -> list[str]:
+        return [name for name, f in self.faces.items() if f.unknown]
+
+    @property
+    def unknown_face(self) -> str | None:
+        """Name of the unknown face, or None for a fully known case."""
+        names = self.unknown_faces
+        return names[0] if names else None
+
+    def input_files(self) -> list[Path]:
+        """Every file this case reads (never to be overwritten by an output)."""
+        files = [self.path] + [p.path for p in self.profiles.values()]
+        files += [p for p in (self.sensors.layout, self.sensors.readings) if p is not None]
+        return files
+
+    def require(self, purpose: str) -> None:
+        """Check the case suits `purpose`: "fit" (exactly one unknown face and a layout) or
+        "simulate" (no unknown face).  Raises InputError."""
+        unknown = self.unknown_faces
+        if purpose == "simulate":
+            if unknown:
+                raise InputError(f"simulate needs a fully known case, but faces.{unknown[0]} is "
+                                 f"'{self.faces[unknown[0]].condition}'; give that face a known "
+                                 f"condition, or use fit", file=self.path, where=f"faces.{unknown[0]}.condition")
+        elif purpose == "fit":
+            if not unknown:
+                raise InputError("fit needs one face with condition 'unknown-temperature' or "
+                                 "'unknown-flux'; every face is known (use simulate for a known case)",
+                                 file=self.path, where="faces")
+            if self.sensors.layout is None:
+                raise InputError("fit needs the sensor layout: add [sensors] layout = \"layout.csv\"",
+                                 file=self.path, where="sensors.layout")
+        elif purpose is not None:
+            raise ValueError(f"unknown purpose {purpose!r}")
+
+    def build_model(self, tolerance: float = 1e-8):
+        """The forward.CylinderModel of this case (built, not solved here)."""
+        from forward import CylinderModel
+
+        return CylinderModel(self.cylinder, dict(self.faces), tolerance=tolerance)
+
+
+# ---------------------------------------------------------------------------- helpers
+
+
+class _Ctx:
+    def __init__(self, path: Path):
+        self.path = path
+
+    def error(self, where: str, problem: str) -> InputError:
+        return InputError(problem, file=self.path, where=where)
+
+    def check_keys(self, table: dict, valid: tuple[str, ...], where: str) -> None:
+        for key in table:
+            if key not in valid:
+                close = difflib.get_close_matches(str(key), valid, n=1, cutoff=0.6)
+                hint = f"did you mean '{close[0]}'?" if close else f"expected one of: {', '.join(valid)}"
+                raise self.error(f"{where}.{key}" if where else str(key), f"unknown key '{key}'; {hint}")
+
+    def table(self, parent: dict, key: str, where: str, required: bool) -> dict | None:
+        if key not in parent:
+            if required:
+                raise self.error(where, f"missing [{where}] table")
+            return None
+        value = parent[key]
+        if not isinstance(value, dict):
+            raise self.error(where, f"expected a table [{where}], got {_show(value)}")
+        return value
+
+    def text(self, table: dict, key: str, where: str) -> str:
+        value = table[key]
+        if not isinstance(value, str):
+            raise self.error(where, f"expected text in quotes, got {_show(value)}")
+        return value
+
+    def path_value(self, table: dict, key: str, where: str) -> Path:
+        text = self.text(table, key, where)
+        if not text.strip():
+            raise self.error(where, "empty file name")
+        p = Path(text.strip()).expanduser()
+        full = p if p.is_absolute() else self.path.parent / p
+        if not full.exists():
+            raise self.error(where, f"file not found: {full}")
+        if full.is_dir():
+            raise self.error(where, f"{full} is a folder; expected a CSV file")
+        return full
+
+
+def _show(value) -> str:
+    if isinstance(value, dict):
+        return "a table"
+    if isinstance(value, list):
+        return "a list"
+    return repr(value)
+
+
+# ---------------------------------------------------------------------------- [fit] schema
+
+
+def _fit_strength(ctx: _Ctx, value, where: str) -> dict:
+    if isinstance(value, bool):
+        raise ctx.error(where, f"expected \"auto\", \"auto:<method>\" or a positive number, got {value!r}")
+    number = None
+    if isinstance(value, (int, float)):
+        number = float(value)
+    elif isinstance(value, str):
+        s = value.strip().lower()
+        if s == "auto":
+            return {"strength_method": "evidence", "strength": None}
+        if s.startswith("auto:"):
+            method = s[5:].strip()
+            if method in STRENGTH_METHODS:
+                return {"strength_method": method, "strength": None}
+            close = difflib.get_close_matches(method, STRENGTH_METHODS, n=1)
+            hint = f"did you mean 'auto:{close[0]}'? " if close else ""
+            raise ctx.error(where, f"unknown method '{method}'; {hint}expected auto:"
+                                   + ", auto:".join(STRENGTH_METHODS))
+        try:
+            number = float(s)
+        except ValueError:
+            raise ctx.error(where, f"expected \"auto\", \"auto:<method>\" (methods: "
+                                   f"{', '.join(STRENGTH_METHODS)}) or a positive number; "
+                                   f"got {value!r}") from None
+    else:
+        raise ctx.error(where, f"expected \"auto\", \"auto:<method>\" or a positive number, got {_show(value)}")
+    if not (math.isfinite(number) and number > 0):
+        raise ctx.error(where, f"a fixed strength must be a positive number, got {value!r}")
+    return {"strength_method": "fixed", "strength": number}
+
+
+def _fit_choice(choices: tuple[str, ...], out_key: str):
+    def parse(ctx: _Ctx, value, where: str) -> dict:
+        if not isinstance(value, str) or value.strip().lower() not in choices:
+            close = difflib.get_close_matches(str(value), choices, n=1) if isinstance(value, str) else []
+            hint = f"did you mean '{close[0]}'? " if close else ""
+            raise ctx.error(where, f"got {_show(value)}; {hint}expected one of: {', '.join(choices)}")
+        return {out_key: value.strip().lower()}
+    return parse
+
+
+def _fit_bool(out_key: str):
+    def parse(ctx: _Ctx, value, where: str) -> dict:
+        if not isinstance(value, bool):
+            raise ctx.error(where, f"expected true or false (no quotes), got {_show(value)}")
+        return {out_key: value}
+    return parse
+
+
+def _fit_count(out_key: str, minimum: int):
+    def parse(ctx: _Ctx, value, where: str) -> dict:
+        if isinstance(value, bool) or not isinstance(value, int) or value < minimum:
+            raise ctx.error(where, f"expected a whole number >= {minimum} (no quotes), got {_show(value)}")
+        return {out_key: int(value)}
+    return parse
+
+
+#: [fit] keys -> (parser, description).  To add an option: add a FitOptions field with its
+#: default, and a row here.
+FIT_SCHEMA: dict[str, tuple[Callable[[Any, Any, str], dict], str]] = {
+    "strength": (_fit_strength, '"auto" (= "auto:evidence"), "auto:<method>" with method '
+                                'evidence | gcv | lcurve | discrepancy, or a positive number'),
+    "smoothing": (_fit_choice(SMOOTHING_KINDS, "smoothing"),
+                  'prior on the unknown face: "size", "gradient" (default) or "curvature"'),
+    "keep_all_sensors": (_fit_bool("keep_all_sensors"), "true keeps suspect sensors in the fit (default false)"),
+    "terms": (_fit_count("terms", 1), "number of radial/axial terms of the unknown face (default: automatic)"),
+    "harmonics": (_fit_count("harmonics", 0), "number of angular harmonics (default: automatic)"),
+}
+
+
+def _parse_fit(ctx: _Ctx, table: dict | None) -> FitOptions:
+    if table is None:
+        return FitOptions()
+    ctx.check_keys(table, tuple(FIT_SCHEMA), "fit")
+    values: dict = {}
+    for key, value in table.items():
+        values.update(FIT_SCHEMA[key][0](ctx, value, f"fit.{key}"))
+    return FitOptions(**values)
+
+
+# ---------------------------------------------------------------------------- faces
+
+
+def _parse_face(ctx: _Ctx, name: str, table: dict, cylinder: Cylinder) -> tuple[FaceCondition, dict, TableProfile | None]:
+    where = f"faces.{name}"
+    ctx.check_keys(table, FACE_KEYS, where)
+    if "condition" not in table:
+        raise ctx.error(f"{where}.condition", f"missing key 'condition'; expected one of: "
+                                              f"{', '.join(CONDITION_NAMES)}")
+    cond = ctx.text(table, "condition", f"{where}.condition").strip().lower()
+    if cond not in CONDITION_NAMES:
+        close = difflib.get_close_matches(cond.replace("_", "-"), CONDITION_NAMES, n=1, cutoff=0.5)
+        hint = f"did you mean '{close[0]}'? " if close else ""
+        raise ctx.error(f"{where}.condition", f"unknown condition '{table['condition']}'; {hint}"
+                                              f"expected one of: {', '.join(CONDITION_NAMES)}")
+    allowed = _KEYS_OF_CONDITION[cond]
+    for key in table:
+        if key != "condition" and key not in allowed:
+            raise ctx.error(f"{where}.{key}", f"'{key}' does not apply to condition '{cond}'"
+                                              + (f" (it takes: {', '.join(allowed)})" if allowed else
+                                                 " (it takes no data)"))
+    text = {"condition": cond}
+    for key in ("value", "h", "ambient", "profile"):
+        if key in table:
+            text[key] = table[key] if isinstance(table[key], str) else repr(table[key])
+
+    profile = None
+    if "profile" in table:
+        for key in ("value", "ambient"):
+            if key in table:
+                raise ctx.error(f"{where}.profile", f"give either '{key}' or 'profile', not both")
+        ppath = ctx.path_value(table, "profile", f"{where}.profile")
+        quantity = "heat_flux" if cond == "flux" else "temperature"
+        profile = load_profile(ppath, name, quantity, cylinder)
+
+    def datum(key: str, dimension: str):
+        if profile is not None:
+            return profile
+        if key not in table:
+            raise ctx.error(f"{where}.{key}", f"condition '{cond}' needs '{key}' (or 'profile')")
+        return parse_quantity(table[key], dimension, f"{where}.{key}", file=ctx.path)
+
+    try:
+        if cond == "temperature":
+            face = Temperature(datum("value", "temperature"))
+        elif cond == "flux":
+            face = Flux(datum("value", "heat_flux"))
+        elif cond == "insulated":
+            face = Insulated()
+        elif cond == "convection":
+            if "h" not in table:
+                raise ctx.error(f"{where}.h", "condition 'convection' needs 'h', e.g. h = \"12 W/(m^2*K)\"")
+            h = parse_quantity(table["h"], "heat_transfer_coefficient", f"{where}.h", file=ctx.path)
+            if not h > 0:
+                raise ctx.error(f"{where}.h", f"h must be positive, got {table['h']!r}")
+            face = Convection(h, datum("ambient", "temperature"))
+        elif cond == "unknown-temperature":
+            face = UnknownTemperature()
+        else:
+            face = UnknownFlux()
+    except ForwardModelError as exc:
+        raise ctx.error(where, str(exc)) from None
+    return face, text, profile
+
+
+# ---------------------------------------------------------------------------- zones
+
+
+def _range(ctx: _Ctx, zone: dict, key: str, where: str, dimension: str) -> tuple[float, float]:
+    value = zone[key]
+    if not (isinstance(value, list) and len(value) == 2):
+        unit = "mm" if dimension == "length" else "deg"
+        raise ctx.error(where, f"expected a list of two values with units, e.g. [\"0 {unit}\", \"50 {unit}\"], "
+                               f"got {_show(value)}")
+    lo = parse_quantity(value[0], dimension, f"{where}[0]", file=ctx.path)
+    hi = parse_quantity(value[1], dimension, f"{where}[1]", file=ctx.path)
+    if not lo < hi:
+        raise ctx.error(where, f"the first value must be below the second, got {value!r}")
+    return lo, hi
+
+
+def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> tuple[Zone, ...]:
+    if zones is None:
+        return ()
+    if not isinstance(zones, list) or not all(isinstance(z, dict) for z in zones):
+        raise ctx.error("zones", "zones must be an array of tables: write each zone under [[zones]]")
+    out = []
+    names: set[str] = set()
+    for i, zone in enumerate(zones, start=1):
+        where = f"zones[{i}]"
+        ctx.check_keys(zone, ZONE_KEYS, where)
+        if "name" not in zone:
+            raise ctx.error(f"{where}.name", "missing key 'name'")
+        name = ctx.text(zone, "name", f"{where}.name").strip()
+        if not name:
+            raise ctx.error(f"{where}.name", "empty zone name")
+        if name in names:
+            raise ctx.error(f"{where}.name", f"zone name '{name}' is used twice")
+        names.add(name)
+        if "face" in zone:
+            face = ctx.text(zone, "face", f"{where}.face").strip().lower()
+            if face not in cylinder.faces:
+                raise ctx.error(f"{where}.face", f"expected one of: {', '.join(cylinder.faces)}, got {zone['face']!r}")
+        elif unknown is not None:
+            face = unknown
+        elif "r" in zone and "z" in zone:
+            raise ctx.error(f"{where}.z", "a zone takes r and theta (end faces) or theta and z (side), "
+                                          "not both r and z")
+        else:
+            # fully known case (simulate): the zone is on the face that will be unknown; infer
+            # the kind of face from its keys, only to check the ranges
+            face = None
+        kind = face or ("side" if "z" in zone else "bottom")
+        if kind == "side" and "r" in zone:
+            raise ctx.error(f"{where}.r", "a zone on the side face takes theta and z, not r")
+        if kind != "side" and "z" in zone:
+            raise ctx.error(f"{where}.z", f"a zone on the {kind} face takes r and theta, not z")
+        theta = (0.0, 2 * math.pi)
+        if "theta" in zone:
+            theta = _range(ctx, zone, "theta", f"{where}.theta", "angle")
+            if theta[1] - theta[0] > 2 * math.pi * (1 + 1e-12):
+                raise ctx.error(f"{where}.theta", "the angle range spans more than 360 deg")
+        r = z = None
+        if kind == "side":
+            z = (0.0, cylinder.height)
+            if "z" in zone:
+                z = _range(ctx, zone, "z", f"{where}.z", "length")
+                if z[0] < 0 or z[1] > cylinder.height * (1 + 1e-9):
+                    raise ctx.error(f"{where}.z", f"the range must lie within 0 and the height "
+                                                  f"({format_quantity(cylinder.height, 'length')})")
+            elif cylinder.semi_infinite:
+                raise ctx.error(f"{where}.z", "a side zone of a semi-infinite part needs a z range")
+        else:
+            r = (0.0, cylinder.radius)
+            if "r" in zone:
+                r = _range(ctx, zone, "r", f"{where}.r", "length")
+                if r[0] < 0 or r[1] > cylinder.radius * (1 + 1e-9):
+                    raise ctx.error(f"{where}.r", f"the range must lie within 0 and the radius "
+                                                  f"({format_quantity(cylinder.radius, 'length')})")
+        out.append(Zone(name=name, face=face, theta=theta, r=r, z=z))
+    return tuple(out)
+
+
+# ---------------------------------------------------------------------------- load
+
+
+def load_case(path, purpose: str | None = None) -> Case:
+    """Read and validate a case file; `purpose` "fit" or "simulate" adds that command's checks.
+
+    Raises InputError (file, key, what is expected) for anything wrong.  Builds the forward
+    objects (Cylinder, face conditions) but solves nothing.
+    """
+    path = Path(path)
+    if not path.exists():
+        raise InputError("case file not found", file=path)
+    if path.is_dir():
+        raise InputError("is a folder; expected a case file (TOML)", file=path)
+    try:
+        raw = path.read_bytes()
+    except OSError as exc:
+        raise InputError(f"cannot read the file ({exc.strerror or exc})", file=path) from exc
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise InputError(f"is not UTF-8 text (byte {exc.start})", file=path) from exc
+    try:
+        doc = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"not valid TOML: {exc}", file=path) from None
+    ctx = _Ctx(path)
+    ctx.check_keys(doc, TOP_KEYS, "")
+
+    # [part]
+    part = ctx.table(doc, "part", "part", required=True)
+    ctx.check_keys(part, PART_KEYS, "part")
+    for key in ("radius", "height"):
+        if key not in part:
+            raise ctx.error(f"part.{key}", f"missing key '{key}', e.g. {key} = \"150 mm\""
+                            + (" (or \"infinite\")" if key == "height" else ""))
+    radius = parse_quantity(part["radius"], "length", "part.radius", file=path)
+    height = parse_quantity(part["height"], "length", "part.height", allow_infinite=True, file=path)
+    for key, value in (("radius", radius), ("height", height)):
+        if not value > 0:
+            raise ctx.error(f"part.{key}", f"the {key} must be positive, got {part[key]!r}")
+    conductivity = None
+    if "conductivity" in part:
+        conductivity = parse_quantity(part["conductivity"], "conductivity", "part.conductivity", file=path)
+        if not conductivity > 0:
+            raise ctx.error("part.conductivity", f"the conductivity must be positive, got {part['conductivity']!r}")
+    try:
+        cylinder = Cylinder(radius=radius, height=height, conductivity=conductivity)
+    except ForwardModelError as exc:
+        raise ctx.error("part", str(exc)) from None
+    part_text = {k: part[k] for k in PART_KEYS if k in part}
+
+    # [faces]
+    faces_t = ctx.table(doc, "faces", "faces", required=True)
+    ctx.check_keys(faces_t, FACE_NAMES, "faces")
+    if cylinder.semi_infinite and "top" in faces_t:
+        raise ctx.error("faces.top", "the part is semi-infinite (height = \"infinite\"), so it has no "
+                                     "top face; remove [faces.top] or give a finite height")
+    faces: dict[str, FaceCondition] = {}
+    face_text: dict[str, dict[str, str]] = {}
+    profiles: dict[str, TableProfile] = {}
+    for name in cylinder.faces:
+        table = ctx.table(faces_t, name, f"faces.{name}", required=False)
+        if table is None:
+            raise ctx.error(f"faces.{name}", f"missing [faces.{name}] table; every face of the part "
+                                             f"needs a condition ({', '.join(CONDITION_NAMES)})")
+        face, ftext, profile = _parse_face(ctx, name, table, cylinder)
+        faces[name] = face
+        face_text[name] = ftext
+        if profile is not None:
+            profiles[name] = profile
+    unknown = [n for n, f in faces.items() if f.unknown]
+    if len(unknown) > 1:
+        raise ctx.error("faces", f"faces {' and '.join(unknown)} are both unknown; at most one face "
+                                 f"can be estimated, the others need known conditions")
+    if conductivity is None:
+        for name, f in faces.items():
+            if f.condition in _NEEDS_CONDUCTIVITY:
+                raise ctx.error("part.conductivity", f"missing key 'conductivity', needed because "
+                                                     f"faces.{name} is '{f.condition}'; e.g. "
+                                                     f"conductivity = \"16 W/(m*K)\"")
+
+    # [sensors]
+    sens = ctx.table(doc, "sensors", "sensors", required=False)
+    sensors = SensorFiles()
+    if sens is not None:
+        ctx.check_keys(sens, SENSOR_KEYS, "sensors")
+        layout = ctx.path_value(sens, "layout", "sensors.layout") if "layout" in sens else None
+        readings = ctx.path_value(sens, "readings", "sensors.readings") if "readings" in sens else None
+        if readings is not None and layout is None:
+            raise ctx.error("sensors.layout", "readings are given without a layout; add layout = \"layout.csv\"")
+        sensors = SensorFiles(layout, readings)
+
+    fit = _parse_fit(ctx, ctx.table(doc, "fit", "fit", required=False))
+    zones = _parse_zones(ctx, doc.get("zones"), cylinder, unknown[0] if unknown else None)
+    case = Case(path=path, folder=path.parent, cylinder=cylinder, faces=faces, face_text=face_text,
+                profiles=profiles, sensors=sensors, fit=fit, zones=zones, part_text=part_text)
+    case.require(purpose)
+    return case

@@ -1,0 +1,249 @@
+"""The command line: ``heatsight <command> ...``.
+
+Exit status: 0 success, 2 bad input (one line ``heatsight: error: <message>`` on stderr, no
+traceback), 1 internal error.  Warnings go to stderr as ``heatsight: warning: ...``.
+
+Commands register themselves in COMMANDS: each entry is (name, function adding its
+subparser).  The subparser sets ``run=<function(args) -> int>``.  `fit`, `demo` and `trend`
+are to be added here the same way.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import traceback
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from forward.errors import ForwardModelError
+
+from .errors import InputError
+
+PROG = "heatsight"
+#: relative truncation tolerance of the series, unless --tolerance is given
+DEFAULT_TOLERANCE = 1e-8
+#: series tolerance used by `check`, which only needs the model's set-up checks
+CHECK_TOLERANCE = 1e-4
+#: warn when the estimated series truncation error exceeds this [K] (common practice, no source)
+TRUNCATION_WARNING_K = 0.01
+
+
+class UsageError(Exception):
+    """Bad command-line usage (argparse), reported like InputError with exit status 2."""
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message):
+        raise UsageError(f"{message} (see '{self.prog} --help')")
+
+
+def _warn(message: str) -> None:
+    print(f"{PROG}: warning: {message}", file=sys.stderr)
+
+
+def _positive_float(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a positive number, got {text!r}") from None
+    if not (np.isfinite(value) and value > 0):
+        raise argparse.ArgumentTypeError(f"expected a positive number, got {text!r}")
+    return value
+
+
+# ---------------------------------------------------------------------------- simulate
+
+SIMULATE_COLUMNS = ["r_m", "theta_deg", "z_m", "temperature_degC", "qr_W_m2", "qtheta_W_m2", "qz_W_m2"]
+
+
+def simulate_frame(case, points, tolerance: float = DEFAULT_TOLERANCE) -> tuple[pd.DataFrame, list[str]]:
+    """The field of a fully known case at query points (a points Table): the simulate
+    output columns, and warnings."""
+    from .units import from_si
+
+    warnings: list[str] = []
+    model = case.build_model(tolerance)
+    p = points.frame
+    ev = model.evaluate(p["r"].to_numpy(float), p["theta"].to_numpy(float), p["z"].to_numpy(float))
+    q = np.asarray(ev.heat_flux, float) + 0.0   # + 0.0 turns -0.0 into 0.0
+    frame = pd.DataFrame({
+        "r_m": p["r"].to_numpy(float),
+        "theta_deg": from_si(p["theta"].to_numpy(float), "angle", "deg"),
+        "z_m": p["z"].to_numpy(float),
+        "temperature_degC": from_si(np.asarray(ev.temperature, float), "temperature", "degC"),
+        "qr_W_m2": q[0], "qtheta_W_m2": q[1], "qz_W_m2": q[2],
+    }, columns=SIMULATE_COLUMNS)
+    if case.cylinder.conductivity is None:
+        warnings.append(f"{case.path}: part.conductivity is not given, so the heat-flux columns "
+                        f"are left empty")
+    err = np.asarray(ev.truncation_error, float)
+    if err.size and np.nanmax(err) > TRUNCATION_WARNING_K:
+        i = int(np.nanargmax(err))
+        warnings.append(f"the series truncation error reaches {err[i]:.3g} K at point {i + 1} of "
+                        f"{points.path} (points on or very near a face with data need many terms; "
+                        f"lower --tolerance to reduce it)")
+    return frame, warnings
+
+
+def _run_simulate(args) -> int:
+    from .case import load_case
+    from .csv_out import check_output_path, write_csv
+    from .tables import read_points
+
+    case = load_case(args.case, purpose="simulate")
+    at = Path(args.at)
+    if args.out is not None:
+        check_output_path(args.out, case.input_files() + [at])
+    points = read_points(at, case.cylinder)
+    try:
+        frame, warnings = simulate_frame(case, points, args.tolerance)
+    except ForwardModelError as exc:
+        raise InputError(str(exc), file=case.path) from None
+    for w in points.warnings + warnings:
+        _warn(w)
+    write_csv(frame, None if args.out is None else Path(args.out))
+    return 0
+
+
+def _add_simulate(sub) -> None:
+    p = sub.add_parser(
+        "simulate", help="temperature and heat flux of a fully known case at given points",
+        description="Compute the steady temperature and heat-flux vector (q = -k grad T) of a case "
+                    "whose faces are all known, at the points of a CSV table (columns r, theta, z; "
+                    "units in header brackets, default m and deg). One output row per point: "
+                    "r_m, theta_deg, z_m, temperature_degC, qr_W_m2, qtheta_W_m2, qz_W_m2.",
+        epilog="example:\n  heatsight simulate plate.toml --at points.csv --out field.csv\n\n"
+               "points.csv could read:\n  r [mm],theta [deg],z [mm]\n  0,0,20\n  75,90,20",
+        formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("case", metavar="CASE.toml", help="case file (TOML)")
+    p.add_argument("--at", required=True, metavar="POINTS.csv", help="query points: r, theta, z")
+    p.add_argument("--out", metavar="FILE", help="output CSV file (default: standard output)")
+    p.add_argument("--tolerance", type=_positive_float, default=DEFAULT_TOLERANCE, metavar="REL",
+                   help=f"relative truncation tolerance of the series (default {DEFAULT_TOLERANCE:g})")
+    p.set_defaults(run=_run_simulate)
+
+
+# ---------------------------------------------------------------------------- check
+
+
+def _run_check(args) -> int:
+    from .case import load_case
+    from .describe import describe_case, describe_readings, describe_sensors, layout_notes
+    from .tables import read_layout, read_readings
+
+    case = load_case(args.case)
+    warnings: list[str] = []
+    lines = describe_case(case)
+    if case.unknown_face is not None:
+        case.require("fit")
+    layout = None
+    if case.sensors.layout is not None:
+        layout = read_layout(case.sensors.layout, case.cylinder)
+        warnings += layout.warnings
+        lines += describe_sensors(layout)
+    if case.sensors.readings is not None:
+        readings = read_readings(case.sensors.readings, layout)
+        warnings += readings.warnings
+        lines += describe_readings(readings)
+    if layout is not None and case.unknown_face is not None:
+        notes = layout_notes(case, layout.frame)
+        if notes:
+            lines.append("layout notes:")
+            lines += [f"  - {n}" for n in notes]
+    if case.unknown_face is not None:
+        extra = "" if case.sensors.readings is not None else " (give the readings with --readings)"
+        lines.append(f"ready for: fit (unknown face: {case.unknown_face}){extra}")
+    else:
+        lines.append("ready for: simulate (every face is known)")
+    # the forward model's own set-up checks (well-posedness); a coarse tolerance keeps it quick
+    try:
+        case.build_model(CHECK_TOLERANCE)
+    except ForwardModelError as exc:
+        raise InputError(str(exc), file=case.path) from None
+    for w in warnings:
+        _warn(w)
+    print("\n".join(lines))
+    return 0
+
+
+def _add_check(sub) -> None:
+    p = sub.add_parser(
+        "check", help="validate a case and its tables, and say what was understood",
+        description="Read the case file and every table it names (profiles, sensor layout, "
+                    "readings), check them, and print what was understood: geometry, face "
+                    "conditions with their units, sensors, and notes on blind spots of the layout.",
+        epilog="example:\n  heatsight check plate.toml",
+        formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("case", metavar="CASE.toml", help="case file (TOML)")
+    p.set_defaults(run=_run_check)
+
+
+# ---------------------------------------------------------------------------- parser
+
+#: (name, function adding the subparser).  Add fit, demo and trend here.
+COMMANDS = [
+    ("simulate", _add_simulate),
+    ("check", _add_check),
+]
+
+
+def _version() -> str:
+    try:
+        from importlib.metadata import version
+        return version("heatsight")
+    except Exception:  # noqa: BLE001 - not installed
+        return "unknown"
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(
+        prog=PROG,
+        description="Infer the unseen face of a heated solid cylinder from thermocouple readings.",
+        epilog="examples:\n  heatsight check plate.toml\n"
+               "  heatsight simulate plate.toml --at points.csv --out field.csv\n\n"
+               "Estimates support engineering judgement; they do not replace direct measurement, "
+               "interlocks or inspection.",
+        formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--version", action="version", version=f"{PROG} {_version()}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    sub.required = True
+    for _, add in COMMANDS:
+        add(sub)
+    return parser
+
+
+def main(argv=None) -> int:
+    """Run the command line; returns the exit status (0, 1 or 2)."""
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+        return int(args.run(args) or 0)
+    except SystemExit as exc:        # --help, --version
+        return int(exc.code or 0) if isinstance(exc.code, int) or exc.code is None else 2
+    except (InputError, ForwardModelError, UsageError) as exc:
+        print(f"{PROG}: error: {' '.join(str(exc).split())}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print(f"{PROG}: interrupted", file=sys.stderr)
+        return 130
+    except BrokenPipeError:
+        try:
+            sys.stdout = open(os.devnull, "w")  # noqa: SIM115 - silence the flush at exit
+        except OSError:
+            pass
+        return 1
+    except Exception as exc:  # noqa: BLE001 - the last line of defence
+        if os.environ.get("HEATSIGHT_TRACEBACK"):
+            traceback.print_exc()
+        print(f"{PROG}: internal error: {type(exc).__name__}: {' '.join(str(exc).split())} "
+              f"(please report this, with the case and tables if possible; set HEATSIGHT_TRACEBACK=1 "
+              f"for details)", file=sys.stderr)
+        return 1
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,165 @@
+"""Output writers: CSV and JSON, written atomically (temporary file in the same folder,
+then os.replace), with spreadsheet formula injection neutralized in CSV text cells.
+
+A text cell starting with =, +, -, @, a tab or a carriage return could be run as a formula
+by a spreadsheet; such cells are written with a leading single quote.  Numbers are never
+altered.
+"""
+
+from __future__ import annotations
+
+import io
+import json
+import math
+import os
+import sys
+import tempfile
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .errors import InputError
+
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+FLOAT_FORMAT = "%.10g"
+
+
+def neutralize(cell):
+    """Text starting like a spreadsheet formula gets a leading single quote; else unchanged."""
+    if isinstance(cell, str) and cell.startswith(_FORMULA_START):
+        return "'" + cell
+    return cell
+
+
+def check_output_path(path, inputs=()) -> Path:
+    """Refuse an output path whose folder is missing, that is a folder, or that is one of
+    the input files (inputs are never overwritten).  Returns the path."""
+    path = Path(path)
+    if path.is_dir():
+        raise InputError("is a folder; expected an output file name", file=path)
+    folder = path.parent if str(path.parent) else Path(".")
+    if not folder.is_dir():
+        raise InputError(f"the folder {folder} does not exist", file=path)
+    for p in inputs:
+        try:
+            same = path.exists() and Path(p).exists() and os.path.samefile(path, p)
+        except OSError:
+            same = False
+        if same or path.resolve() == Path(p).resolve():
+            raise InputError("is an input file of this run; choose another output name", file=path)
+    return path
+
+
+def atomic_write_bytes(path, data: bytes) -> None:
+    """Write `data` to `path` atomically: temporary file in the same folder, then os.replace.
+    On any failure the temporary file is removed and `path` is left as it was."""
+    path = Path(path)
+    folder = path.parent if str(path.parent) else Path(".")
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+
+
+def atomic_write_text(path, text: str) -> None:
+    atomic_write_bytes(path, text.encode("utf-8"))
+
+
+def csv_text(frame: pd.DataFrame, float_format: str = FLOAT_FORMAT) -> str:
+    """CSV text of a frame (no index), text cells neutralized, header cells too."""
+    out = frame.copy()
+    for col in out.columns:
+        if out[col].dtype == object or pd.api.types.is_string_dtype(out[col].dtype):
+            out[col] = out[col].map(neutralize)
+    out.columns = [neutralize(str(c)) for c in out.columns]
+    buf = io.StringIO()
+    out.to_csv(buf, index=False, float_format=float_format, lineterminator="\n")
+    return buf.getvalue()
+
+
+def write_csv(frame: pd.DataFrame, path=None, *, float_format: str = FLOAT_FORMAT, stream=None) -> None:
+    """Write `frame` as CSV to `path` atomically, or to `stream` (default stdout) when path is None."""
+    text = csv_text(frame, float_format)
+    if path is None:
+        (stream or sys.stdout).write(text)
+        return
+    atomic_write_text(path, text)
+
+
+def _jsonable(obj):
+    if isinstance(obj, dict):
+        return {str(k): _jsonable(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_jsonable(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return [_jsonable(v) for v in obj.tolist()]
+    if isinstance(obj, (np.bool_, bool)):
+        return bool(obj)
+    if isinstance(obj, (np.integer,)):
+        return int(obj)
+    if isinstance(obj, (float, np.floating)):
+        f = float(obj)
+        return f if math.isfinite(f) else None
+    if isinstance(obj, Path):
+        return str(obj)
+    return obj
+
+
+def json_text(obj) -> str:
+    """JSON text: numpy values made plain, NaN/inf written as null."""
+    return json.dumps(_jsonable(obj), indent=2, allow_nan=False, ensure_ascii=False) + "\n"
+
+
+def write_json(obj, path) -> None:
+    """Write `obj` as JSON to `path` atomically."""
+    atomic_write_text(path, json_text(obj))
+
+
+class OutputSet:
+    """Write several output files so that either all of them appear or none does.
+
+    Use as a context manager: ``add(name, bytes_or_text)`` stages files (in temporary
+    files inside `folder`); on a clean exit they are renamed into place, on an error the
+    temporary files are removed and nothing is left behind.
+    """
+
+    def __init__(self, folder):
+        self.folder = Path(folder)
+        self._staged: list[tuple[str, Path]] = []
+
+    def __enter__(self):
+        return self
+
+    def add(self, name: str, data) -> Path:
+        if isinstance(data, str):
+            data = data.encode("utf-8")
+        fd, tmp = tempfile.mkstemp(prefix=f".{name}.", suffix=".tmp", dir=self.folder)
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        self._staged.append((name, Path(tmp)))
+        return self.folder / name
+
+    def __exit__(self, exc_type, exc, tb):
+        if exc_type is None:
+            for name, tmp in self._staged:
+                os.replace(tmp, self.folder / name)
+        else:
+            for _, tmp in self._staged:
+                try:
+                    tmp.unlink()
+                except OSError:
+                    pass
+        self._staged.clear()
+        return False

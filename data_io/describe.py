@@ -1,0 +1,166 @@
+"""Plain-text explanation of a case for `heatsight check`: what was understood, with units,
+and simple notes on blind spots of the sensor layout."""
+
+from __future__ import annotations
+
+import math
+from collections import Counter
+
+import numpy as np
+import pandas as pd
+
+from . import thermocouples as tc
+from .case import Case
+from .units import format_quantity, from_si
+
+FACE_PLACE = {"bottom": "z = 0", "top": "z = height", "side": "r = radius"}
+
+#: Sensors farther than this fraction of the radius from the unknown face see only its
+#: broad shape (common practice, no source).
+FAR_FRACTION = 0.25
+
+
+def _both(written: str, si: str) -> str:
+    """The value as written, and in SI when that reads differently."""
+    return written if " ".join(written.split()) == si else f"{written} ({si})"
+
+
+def _face_line(case: Case, name: str) -> str:
+    face = case.faces[name]
+    text = case.face_text[name]
+    cond = face.condition
+    head = f"  {name} ({FACE_PLACE[name]}): {cond}"
+    if face.unknown:
+        what = "temperature, degC" if cond == "unknown-temperature" else "heat flux into the part, W/m^2"
+        return f"{head} -> to be estimated ({what})"
+    prof = case.profiles.get(name)
+    if prof is not None:
+        unit, dim = ("W/m^2", "heat_flux") if prof.quantity == "heat_flux" else ("degC", "temperature")
+        lo, hi = from_si(prof.min, dim, unit), from_si(prof.max, dim, unit)
+        ptxt = (f"profile {prof.path} ({prof.n_points} points, {prof.description}; "
+                f"{lo:.6g} to {hi:.6g} {unit})")
+    if cond == "temperature":
+        return f"{head}, " + (ptxt if prof is not None else
+                              f"value = {text['value']} ({format_quantity(face.value, 'temperature', 'K')})")
+    if cond == "flux":
+        return f"{head} (into the part), " + (ptxt if prof is not None else
+                                              f"value = {text['value']} ({format_quantity(face.value, 'heat_flux')})")
+    if cond == "convection":
+        amb = f"ambient {ptxt}" if prof is not None else \
+            f"ambient = {text['ambient']} ({format_quantity(face.ambient, 'temperature', 'K')})"
+        return f"{head}, h = {_both(text['h'], format_quantity(face.h, 'heat_transfer_coefficient'))}, {amb}"
+    return head
+
+
+def _angle_span(theta: np.ndarray) -> float:
+    """Smallest arc [rad] containing all angles."""
+    t = np.sort(np.mod(theta, 2 * math.pi))
+    if t.size < 2:
+        return 0.0
+    gaps = np.diff(np.concatenate([t, [t[0] + 2 * math.pi]]))
+    return float(2 * math.pi - gaps.max())
+
+
+def layout_notes(case: Case, layout: pd.DataFrame) -> list[str]:
+    """Simple blind-spot notes on a sensor layout relative to the unknown face."""
+    notes: list[str] = []
+    face = case.unknown_face
+    cyl = case.cylinder
+    a = cyl.radius
+    r, th, z = (layout[c].to_numpy(float) for c in ("r", "theta", "z"))
+    n = r.size
+    if face is None or n == 0:
+        return notes
+    if n < 3:
+        notes.append(f"only {n} sensor{'s' if n > 1 else ''}: the fit can estimate little more "
+                     f"than the mean of the {face} face")
+    off_axis = r > 0.02 * a
+    if off_axis.sum() >= 2:
+        span = _angle_span(th[off_axis])
+        if span < math.radians(1.0):
+            ang = math.degrees(float(np.mod(th[off_axis][0], 2 * math.pi)))
+            notes.append(f"all off-axis sensors lie at one angle (theta = {ang:.4g} deg): how the {face} "
+                         f"face varies around the axis cannot be seen")
+        elif span < math.pi / 2:
+            notes.append(f"the sensors cover only {math.degrees(span):.0f} deg around the axis: "
+                         f"angular variation of the {face} face is poorly resolved")
+    elif off_axis.sum() <= 1 and n >= 1:
+        notes.append(f"at most one sensor is off the axis: how the {face} face varies around the "
+                     f"axis cannot be seen")
+    if face == "side":
+        dist = a - r
+        if n >= 2 and np.ptp(z) < 1e-6 * max(a, 1e-300) and not cyl.semi_infinite:
+            notes.append(f"all sensors at one height (z = {format_quantity(z[0], 'length')}): the axial "
+                         f"shape of the side face is poorly resolved")
+    else:
+        dist = z if face == "bottom" else cyl.height - z
+        if n >= 2 and np.ptp(r) < 1e-6 * a:
+            notes.append(f"all sensors at one radius (r = {format_quantity(r[0], 'length')}): the radial "
+                         f"shape of the {face} face is poorly resolved")
+    dmin = float(dist.min())
+    i = int(np.argmin(dist))
+    notes.append(f"nearest sensor to the {face} face: {layout.index[i]} at "
+                 f"{format_quantity(dmin, 'length')} ({100 * dmin / a:.0f} % of the radius); "
+                 f"features of the face much smaller than a few times this distance are smoothed out")
+    if dmin > FAR_FRACTION * a:
+        notes.append(f"every sensor is farther than {100 * FAR_FRACTION:.0f} % of the radius from the "
+                     f"{face} face: only its broad shape can be estimated")
+    pts = np.round(np.column_stack([r * np.cos(th), r * np.sin(th), z]) / (1e-6 * a))
+    dup = Counter(map(tuple, pts))
+    same = [k for k, c in dup.items() if c > 1]
+    if same:
+        notes.append(f"{sum(dup[k] for k in same)} sensors share positions with another sensor "
+                     f"(they add no new information about the shape, only averaging)")
+    return notes
+
+
+def describe_case(case: Case) -> list[str]:
+    """Lines describing the geometry, faces (with units), fit options and zones."""
+    cyl = case.cylinder
+    lines = [f"case: {case.path}"]
+    k = "not given" if cyl.conductivity is None else _both(case.part_text['conductivity'],
+                                                           format_quantity(cyl.conductivity, 'conductivity'))
+    height = "infinite (semi-infinite part)" if cyl.semi_infinite else \
+        f"{case.part_text['height']} ({format_quantity(cyl.height, 'length', 'm')})"
+    lines.append(f"part: radius {case.part_text['radius']} ({format_quantity(cyl.radius, 'length', 'm')}), "
+                 f"height {height}, conductivity {k}")
+    lines.append("faces:")
+    for name in cyl.faces:
+        lines.append(_face_line(case, name))
+    f = case.fit
+    strength = f"{f.strength:g} (fixed)" if f.strength_method == "fixed" else f"auto ({f.strength_method})"
+    extra = "".join(f", {key} {getattr(f, key)}" for key in ("terms", "harmonics") if getattr(f, key) is not None)
+    if case.unknown_face:
+        lines.append(f"fit: strength {strength}, smoothing {f.smoothing}, keep_all_sensors "
+                     f"{'true' if f.keep_all_sensors else 'false'}{extra}")
+    for z in case.zones:
+        th = f"theta {math.degrees(z.theta[0]):.4g} to {math.degrees(z.theta[1]):.4g} deg"
+        if z.r is not None:
+            where = f"r {format_quantity(z.r[0], 'length')} to {format_quantity(z.r[1], 'length')}, {th}"
+        else:
+            where = f"{th}, z {format_quantity(z.z[0], 'length')} to {format_quantity(z.z[1], 'length')}"
+        lines.append(f"zone {z.name}: {z.face or 'the unknown'} face, {where}")
+    return lines
+
+
+def describe_sensors(layout) -> list[str]:
+    """Lines summarizing a layout Table: count, types and classes, sigma sources."""
+    fr = layout.frame
+    n = len(fr)
+    kinds = Counter(f"type {t} {tc.class_name(c)}" if t else "no type" for t, c in zip(fr["type"], fr["class"]))
+    kinds_txt = ", ".join(f"{v} x {k}" for k, v in sorted(kinds.items()))
+    n_sigma = int(np.isfinite(fr["sigma"].to_numpy(float)).sum())
+    sig = f"sigma given for {n_sigma} of {n}" if n_sigma else \
+        f"no sigma given (readings' sigma, else {tc.DEFAULT_SIGMA_K} K)"
+    return [f"sensors: {n} in {layout.path} ({kinds_txt}); {sig}"]
+
+
+def describe_readings(readings) -> list[str]:
+    fr = readings.frame
+    if readings.kind == "snapshot":
+        t = from_si(fr["temperature"].to_numpy(float), "temperature", "degC")
+        return [f"readings: {readings.path}, snapshot of {len(fr)} sensors, "
+                f"{t.min():.6g} to {t.max():.6g} degC"]
+    span = float(fr.index[-1] - fr.index[0]) if len(fr) else 0.0
+    return [f"readings: {readings.path}, log of {len(fr)} times over {span:g} s, "
+            f"{fr.shape[1]} sensors"]

@@ -1,0 +1,177 @@
+"""Face profiles read from CSV and interpolated between their points.
+
+End faces (bottom, top): columns ``r, theta, value``; interpolation is piecewise linear
+over a Delaunay triangulation in Cartesian x = r cos(theta), y = r sin(theta), with the
+nearest point's value outside the convex hull of the points.  When every point (off the
+axis) has the same theta, the profile is taken as axisymmetric and interpolated linearly
+in r alone.
+
+Side: columns ``theta, z, value``; interpolation in (arc length a*theta, z), periodic in
+theta (the table is repeated at -360 deg and +360 deg before triangulating), with the
+nearest value outside.  A single ring (one z) is interpolated periodically in theta
+alone; a single line (one theta) in z alone.
+
+The returned callable is vectorized and works in SI: f(r [m], theta [rad]) on end faces,
+f(theta [rad], z [m]) on the side, giving K (temperature) or W/m^2 (heat flux).
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+from scipy.interpolate import LinearNDInterpolator, NearestNDInterpolator
+from scipy.spatial import QhullError
+
+from .errors import InputError
+from .tables import Column, RawTable, _parse, check_inside, read_raw
+
+TWO_PI = 2.0 * np.pi
+QUANTITIES = {"temperature": "temperature", "heat_flux": "heat_flux"}
+
+
+class TableProfile:
+    """A face datum interpolated from a CSV table (vectorized, SI in and out)."""
+
+    def __init__(self, path: Path, face: str, quantity: str, n_points: int, func, description: str,
+                 values: np.ndarray):
+        self.path = Path(path)
+        self.face = face
+        self.quantity = quantity
+        self.n_points = n_points
+        self.description = description
+        self.min = float(np.min(values))
+        self.max = float(np.max(values))
+        self._func = func
+
+    def __call__(self, u, v):
+        u, v = np.broadcast_arrays(np.asarray(u, float), np.asarray(v, float))
+        out = self._func(u.ravel(), v.ravel())
+        return np.asarray(out, float).reshape(u.shape)
+
+    def __repr__(self):
+        return f"TableProfile({str(self.path)!r}, face={self.face!r}, {self.n_points} points, {self.description})"
+
+
+def _columns(face: str, quantity: str) -> tuple[Column, ...]:
+    value = Column("value", QUANTITIES[quantity])
+    if face == "side":
+        return (Column("theta", "angle"), Column("z", "length"), value)
+    return (Column("r", "length"), Column("theta", "angle"), value)
+
+
+def _dedupe(raw: RawTable, keys: np.ndarray, values: np.ndarray, scale: float):
+    """Merge rows at the same point; refuse two different values at one point."""
+    rounded = np.round(keys / (scale * 1e-9)).astype(np.int64)
+    seen: dict[tuple, int] = {}
+    keep = []
+    for i, key in enumerate(map(tuple, rounded)):
+        if key in seen:
+            j = seen[key]
+            if not np.isclose(values[i], values[j], rtol=1e-12, atol=0.0):
+                raise InputError(f"this point is the same as the one on line {raw.lines[j]} but "
+                                 f"has a different value", file=raw.path, where=f"line {raw.lines[i]}")
+            continue
+        seen[key] = i
+        keep.append(i)
+    return np.asarray(keep, dtype=int)
+
+
+def _collinear(pts: np.ndarray) -> bool:
+    c = pts - pts.mean(axis=0)
+    s = np.linalg.svd(c, compute_uv=False)
+    return s.size < 2 or s[1] <= 1e-9 * max(s[0], 1e-300)
+
+
+def _scattered(pts: np.ndarray, vals: np.ndarray, raw: RawTable):
+    try:
+        lin = LinearNDInterpolator(pts, vals)
+    except (QhullError, ValueError) as exc:
+        raise InputError(f"cannot triangulate the profile points ({str(exc).splitlines()[0]}); "
+                         f"spread the points over the face", file=raw.path) from exc
+    near = NearestNDInterpolator(pts, vals)
+
+    def f(x, y):
+        out = lin(x, y)
+        miss = ~np.isfinite(out)
+        if np.any(miss):
+            out[miss] = near(x[miss], y[miss])
+        return out
+
+    return f
+
+
+def load_profile(path, face: str, quantity: str, cylinder) -> TableProfile:
+    """Read a profile CSV for `face` ("bottom", "top", "side") of `quantity`
+    ("temperature": value is an absolute temperature, default unit degC; "heat_flux":
+    default W/m^2) and return its interpolating callable.
+
+    Raises InputError (file, line) for wrong columns, non-numeric values, fewer than 3
+    distinct points, points outside the face, or one point given two values.
+    """
+    path = Path(path)
+    raw = read_raw(path)
+    what = f"a profile on the {face} face"
+    cols = _columns(face, quantity)
+    v = _parse(raw, cols, what)
+    values = v["value"]
+    if face == "side":
+        v_check = {"z": v["z"]}
+    else:
+        v_check = {"r": v["r"]}
+    check_inside(raw, v_check, cylinder, "profile point")
+    a = cylinder.radius
+    if face == "side":
+        theta = np.mod(v["theta"], TWO_PI)
+        keys = np.column_stack([a * theta, v["z"]])
+        scale = a if cylinder.semi_infinite else max(a, cylinder.height)
+    else:
+        theta = v["theta"]
+        keys = np.column_stack([v["r"] * np.cos(theta), v["r"] * np.sin(theta)])
+        scale = a
+    keep = _dedupe(raw, keys, values, scale)
+    if keep.size < 3:
+        raise InputError(f"a profile needs at least 3 distinct points; found {keep.size}", file=path)
+    pts, vals = keys[keep], values[keep]
+
+    if face == "side":
+        th, z = theta[keep], v["z"][keep]
+        if np.ptp(z) <= 1e-9 * scale:
+            order = np.argsort(th)
+            tt, vv = th[order], vals[order]
+            desc = "varies with theta only (one ring)"
+            func = lambda t, zz: np.interp(np.mod(t, TWO_PI), tt, vv, period=TWO_PI)  # noqa: E731
+        elif np.ptp(pts[:, 0]) <= 1e-9 * scale:
+            order = np.argsort(z)
+            zs, vv = z[order], vals[order]
+            desc = "varies with z only (one line along the side)"
+            func = lambda t, zz: np.interp(zz, zs, vv)  # noqa: E731
+        else:
+            if _collinear(pts):
+                raise InputError("the profile points lie on one line across the side; spread them "
+                                 "over the face, or give one ring (one z) or one line (one theta)",
+                                 file=path)
+            period = TWO_PI * a
+            padded = np.vstack([pts, pts + [period, 0.0], pts - [period, 0.0]])
+            f2 = _scattered(padded, np.concatenate([vals, vals, vals]), raw)
+            desc = "interpolated in theta and z (periodic in theta)"
+            func = lambda t, zz: f2(a * np.mod(t, TWO_PI), zz)  # noqa: E731
+    else:
+        r = v["r"][keep]
+        off_axis = r > 1e-9 * a
+        th = theta[keep][off_axis]
+        one_angle = th.size == 0 or bool(np.all(np.abs(np.angle(np.exp(1j * (th - th[0])))) < 1e-9))
+        if one_angle:
+            order = np.argsort(r)
+            rs, vv = r[order], vals[order]
+            desc = "axisymmetric (all points at one theta), interpolated in r"
+            func = lambda rr, t: np.interp(rr, rs, vv)  # noqa: E731
+        else:
+            if _collinear(pts):
+                raise InputError("the profile points lie on one line across the face; spread them over "
+                                 "the face, or give them all at one theta for an axisymmetric profile",
+                                 file=path)
+            f2 = _scattered(pts, vals, raw)
+            desc = "interpolated over the face"
+            func = lambda rr, t: f2(rr * np.cos(t), rr * np.sin(t))  # noqa: E731
+    return TableProfile(path, face, quantity, int(keep.size), func, desc, vals)

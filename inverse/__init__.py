@@ -1,0 +1,20 @@
+from .diagnostics import averaged_loo, default_threshold, screen_outliers, sensor_table
+from .errors import InverseError, StrengthError
+from .linear_gaussian import LinearGaussianProblem
+from .lmfit_solver import LmfitFit, fit_linear_lmfit, fit_lmfit
+from .noise import Whitener, noise_covariance
+from .strength import StrengthChoice, choose_strength, default_alphas
+from .strength_average import StrengthAverage
+
+__all__ = [
+    "InverseError", "LinearGaussianProblem", "LmfitFit", "StrengthAverage", "StrengthChoice",
+    "StrengthError", "Whitener", "averaged_loo", "choose_strength", "default_alphas",
+    "default_threshold", "fit_linear_lmfit", "fit_lmfit", "noise_covariance", "screen_outliers",
+    "sensor_table",
+]
+
+from .fit import fit, prior_diagonal  # noqa: E402
+from .readings import SensorReadings  # noqa: E402
+from .result import FitResult, Posterior  # noqa: E402
+
+__all__ += ["fit", "prior_diagonal", "SensorReadings", "FitResult", "Posterior"]

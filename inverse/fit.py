@@ -1,0 +1,305 @@
+"""inverse.fit: reconstruct the unknown face from a snapshot of readings.
+
+Model (design notes §5): d = t0 + G c + b + e, G = unknown-face basis fields at the
+sensors (forward.UnknownBasis), t0 = known field, b ~ N(0, diag(tau^2)) thermocouple
+offsets (marginalized: S = diag(sigma^2 + tau^2 + placement variance)), prior
+c ~ N(c0, (alpha P)^-1) with P_k = (N_k / A) (1 + a^2 ev_k)^s, N_k = integral Phi_k^2 dA,
+ev_k the face-Laplacian eigenvalue, s = 0 (size), 1 (gradient), 2 (curvature).
+c0 = gamma u, u = the fundamental eigenfunction (m = 0, first term: uniform where the
+face's edges are free, a smooth bump where a temperature neighbour pins the rim; a plain
+uniform profile would put a Gibbs step at such a rim) and gamma its
+generalized-least-squares level.  Strength alpha: evidence (then the posterior is
+averaged over alpha, see strength_average), GCV, L-curve, discrepancy or fixed.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+import numpy as np
+
+from forward import Convection, CylinderModel
+
+from .diagnostics import screen_outliers, sensor_table
+from .errors import InverseError
+from .face_grid import display_grid, quadrature
+from .linear_gaussian import LinearGaussianProblem
+from .lmfit_solver import fit_lmfit
+from .noise import noise_covariance
+from .readings import SensorReadings, as_readings
+from .result import FitResult, Posterior
+from .strength import choose_strength
+from .strength_average import StrengthAverage
+
+SMOOTHING_ORDER = {"size": 0, "gradient": 1, "curvature": 2}
+DEFAULT_HARMONICS = 6
+DEFAULT_TERMS = 10
+#: sensors farther from the unknown face than this fraction of the radius see little detail
+FAR_FRACTION = 0.25  # common practice, no source
+
+
+def _option(case, name, given, default):
+    if given is not None:
+        return given
+    opts = getattr(case, "fit", None)
+    value = getattr(opts, name, None) if opts is not None else None
+    return default if value is None else value
+
+
+def prior_diagonal(basis, radius, smoothing):
+    """P_k = (N_k / A) (1 + a^2 ev_k)^s (dimensionless)."""
+    s = SMOOTHING_ORDER[smoothing]
+    norms = basis.norms()
+    area = _face_area(basis.face, basis.model.cylinder)
+    return norms / area * (1.0 + radius ** 2 * basis.surface_eigenvalues()) ** s
+
+
+def _face_area(face, cyl):
+    return 2 * math.pi * cyl.radius * cyl.height if face == "side" else math.pi * cyl.radius ** 2
+
+
+class _Design:
+    """G and t0 at the sensors for a case, rebuilt when nonlinear parameters change."""
+
+    def __init__(self, cylinder, faces, tolerance, harmonics, terms):
+        self.cylinder, self.faces, self.tolerance = cylinder, dict(faces), tolerance
+        self.harmonics, self.terms = harmonics, terms
+        self.model = CylinderModel(cylinder, self.faces, tolerance=tolerance)
+        self.basis = self.model.basis(harmonics, terms)
+
+    def with_faces(self, faces):
+        return _Design(self.cylinder, faces, self.tolerance, self.harmonics, self.terms)
+
+    def at(self, r, theta, z, gradient=False):
+        ev = self.model.evaluate(r, theta, z)
+        G, dG = self.basis.fields(r, theta, z, gradient=gradient)
+        return G, ev.temperature, ev, dG
+
+
+def _nominal_direction(basis):
+    """Unit coefficients of the fundamental eigenfunction (m = 0 cos, first term)."""
+    u = np.zeros(basis.size)
+    u[np.flatnonzero((basis.m == 0) & ~basis.is_sin & (basis.n_index == 0))[0]] = 1.0
+    return u
+
+
+def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=None,
+        keep_all_sensors=None, threshold=None, tolerance: float = 1e-8, grid=(41, 72),
+        calibrate=None, solver: str = "auto", monte_carlo: int = 0, seed: int = 0,
+        progress=None) -> FitResult:
+    """Fit the unknown face of `case` (anything with .cylinder, .faces and optionally .zones
+    and .fit options) to `readings` (SensorReadings or a table with r, theta, z,
+    temperature, sigma, offset_sd, position_tolerance in SI).
+
+    strength: 'evidence' (default) | 'gcv' | 'lcurve' | 'discrepancy' | a number.
+    calibrate: {(face, 'h' | 'ambient'): (prior mean, prior sd) or None} nonlinear
+    parameters of convection faces, fitted jointly through lmfit.
+    solver: 'auto' (closed form unless calibrating) or 'lmfit'.
+    monte_carlo: number of seeded draws that also perturb sensor positions within their
+    placement tolerance (0 = off); progress(done, total) is called while drawing.
+    """
+    cyl, faces = case.cylinder, case.faces
+    unknown = [f for f, c in faces.items() if c.unknown]
+    if len(unknown) != 1:
+        raise InverseError("fit needs exactly one unknown face (unknown-temperature or unknown-flux)")
+    face = unknown[0]
+    rd = as_readings(readings)
+    if strength is None:
+        method = _option(case, "strength_method", None, "evidence")
+        strength = _option(case, "strength", None, 1.0) if method == "fixed" else method
+    if isinstance(strength, str) and strength == "auto":
+        strength = "evidence"
+    smoothing = _option(case, "smoothing", smoothing, "gradient")
+    if smoothing not in SMOOTHING_ORDER:
+        raise InverseError(f"smoothing must be one of {sorted(SMOOTHING_ORDER)}, got {smoothing!r}")
+    harmonics = int(_option(case, "harmonics", harmonics, DEFAULT_HARMONICS))
+    terms = int(_option(case, "terms", terms, DEFAULT_TERMS))
+    keep_all = bool(_option(case, "keep_all_sensors", keep_all_sensors, False))
+    if rd.n < 2:
+        raise InverseError(f"at least 2 usable sensors are needed, got {rd.n}")
+
+    design = _Design(cyl, faces, tolerance, harmonics, terms)
+    basis = design.basis
+    quad = quadrature(face, cyl.radius, cyl.height)
+    P = prior_diagonal(basis, cyl.radius, smoothing)
+    u_uniform = _nominal_direction(basis)
+    warnings: list[str] = []
+
+    G, t0, ev, dG = design.at(rd.r, rd.theta, rd.z, gradient=True)
+    base_var = noise_covariance(rd.sigma, rd.offset_sd)
+    trunc = ev.truncation_error
+    if np.any(trunc > 0.1 * rd.sigma):
+        worst = int(np.argmax(trunc / rd.sigma))
+        warnings.append(f"series truncation error at sensor {rd.names[worst]} is {trunc[worst]:.2g} K, "
+                        "more than a tenth of its sigma; the sensor may sit very close to a face with data")
+
+    def build(G, t0, var):
+        gu = G @ u_uniform
+        wv = 1.0 / var
+        denom = float(gu @ (wv * gu))
+        gamma = float(gu @ (wv * (rd.temperature - t0))) / denom if denom > 0 else 0.0
+        return LinearGaussianProblem(G, rd.temperature, t0, var, P, c0=gamma * u_uniform)
+
+    problem = build(G, t0, base_var)
+    # Placement tolerance: effective variance (grad T . delta x)^2 with delta x uniform in +-tol.
+    if np.any(rd.position_tolerance > 0):
+        c_first = choose_strength(problem, strength if not isinstance(strength, str) else "evidence")
+        c_hat = problem.coefficients(c_first.alpha)
+        grad = ev.gradient + np.einsum("dpk,k->dp", dG, c_hat)
+        pos_var = (grad ** 2).sum(axis=0) * rd.position_tolerance ** 2 / 3.0
+        problem = build(G, t0, base_var + pos_var)
+
+    screening = None
+    if keep_all:
+        choice = choose_strength(problem, strength)
+        final = problem
+        kept = np.ones(rd.n, dtype=bool)
+        table = sensor_table(problem, choice.alpha, names=rd.names)
+        set_aside = []
+    else:
+        screening = screen_outliers(problem, strength=strength, threshold=threshold, names=rd.names)
+        choice, final, kept = screening.strength, screening.problem, screening.kept
+        table, set_aside = screening.table, screening.set_aside
+        warnings.extend(screening.warnings)
+        for s in set_aside:
+            warnings.append(f"sensor {s.sensor} set aside: {s.reason}")
+    warnings.extend(choice.warnings)
+
+    nonlinear = None
+    if calibrate:
+        post, nonlinear, design = _calibrate(design, rd, kept, final, choice.alpha, P, calibrate)
+    elif strength == "evidence" or (isinstance(strength, str) and strength == "auto"):
+        avg = StrengthAverage(final)
+        warnings.extend(avg.warnings)
+        post = Posterior(avg.coefficients(), avg.posterior_covariance(), choice.alpha, avg)
+    else:
+        post = Posterior(final.coefficients(choice.alpha), final.posterior_covariance(choice.alpha),
+                         choice.alpha, None)
+    if solver == "lmfit" and not calibrate:
+        from .lmfit_solver import fit_linear_lmfit
+        lf = fit_linear_lmfit(final.G, final.d, final.t0, final.noise, P, choice.alpha, c0=final.c0)
+        if post.averaged is None:
+            post = Posterior(lf.coefficients, lf.coefficient_covariance, choice.alpha, None)
+
+    warnings.extend(_layout_warnings(face, cyl, rd.subset(kept), post, final, P, choice.alpha))
+    chi2 = float(final.chi2(choice.alpha))
+    n_kept = int(kept.sum())
+    edf = float(final.effective_parameters(choice.alpha))
+    if n_kept - edf > 2 and chi2 / max(n_kept - edf, 1.0) > 4.0:
+        warnings.append(f"the readings scatter more than their stated uncertainty allows (chi2 = {chi2:.3g} "
+                        f"for {n_kept - edf:.1f} degrees of freedom): check sigma, the face conditions or "
+                        "the sensor positions")
+
+    mc = None
+    if monte_carlo:
+        mc = _monte_carlo(design, rd, kept, P, final, choice.alpha, int(monte_carlo), seed, grid, progress)
+
+    return FitResult.build(case=case, design=design, face=face, readings=rd, kept=kept, problem=final,
+                           choice=choice, posterior=post, sensors=table, set_aside=set_aside,
+                           warnings=warnings, grid_size=grid, quad=quad, nonlinear=nonlinear,
+                           monte_carlo=mc, smoothing=smoothing, strength_request=strength)
+
+
+def _layout_warnings(face, cyl, rd, post, problem, P, alpha):
+    out = []
+    a = cyl.radius
+    if face != "side":
+        off_axis = rd.r > 1e-3 * a
+        angles = np.round(np.mod(rd.theta[off_axis], 2 * np.pi), 6)
+        if np.unique(angles).size <= 1:
+            out.append("all sensors lie at one angle (or on the axis): the layout sees no azimuthal "
+                       "variation; sin/cos harmonics of the profile are prior only")
+        dist = np.abs(rd.z - (0.0 if face == "bottom" else cyl.height))
+    else:
+        if np.unique(np.round(np.mod(rd.theta, 2 * np.pi), 6)).size <= 1:
+            out.append("all sensors lie at one angle: the layout sees no azimuthal variation of the wall")
+        dist = a - rd.r
+    if dist.size and dist.min() > FAR_FRACTION * a:
+        out.append(f"the nearest sensor is {dist.min() * 1e3:.3g} mm from the unknown face "
+                   f"(over {FAR_FRACTION:.0%} of the radius): fine detail of the profile is unresolved")
+    return out
+
+
+def _calibrate(design, rd, kept, problem, alpha, P, calibrate):
+    """Joint fit of c and convection-face parameters through lmfit (fixed alpha)."""
+    import lmfit
+
+    params = lmfit.Parameters()
+    priors = {}
+    names = {}
+    for (face, what), prior in dict(calibrate).items():
+        cond = design.faces.get(face)
+        if not isinstance(cond, Convection):
+            raise InverseError(f"can only calibrate h or ambient of a convection face, not {face}.{what}")
+        if what not in ("h", "ambient"):
+            raise InverseError(f"calibration parameter must be 'h' or 'ambient', got {what!r}")
+        if what == "ambient" and callable(cond.ambient):
+            raise InverseError(f"face {face}: an ambient profile cannot be calibrated")
+        key = f"{face}_{what}"
+        start = cond.h if what == "h" else float(cond.ambient)
+        params.add(key, value=start, min=1e-6 if what == "h" else 1.0)
+        names[key] = (face, what)
+        if prior is not None:
+            priors[key] = tuple(prior)
+    idx = np.flatnonzero(kept)
+    sub = rd.subset(kept)
+    cache = {}
+
+    def faces_for(values):
+        faces = dict(design.faces)
+        for key, (face, what) in names.items():
+            cond = faces[face]
+            faces[face] = Convection(values[key] if what == "h" else cond.h,
+                                     values[key] if what == "ambient" else cond.ambient)
+        return faces
+
+    def design_fn(values):
+        key = tuple(round(values[k], 12) for k in names)
+        if key not in cache:
+            d = design.with_faces(faces_for(values))
+            G, t0, _, _ = d.at(sub.r, sub.theta, sub.z)
+            cache[key] = (G, t0)
+        return cache[key]
+
+    lf = fit_lmfit(design_fn, params, problem.d, problem.noise, P, alpha, c0=problem.c0,
+                   priors=priors or None)
+    values = {k: float(v) for k, v in lf.values.items()}
+    sds = lf.sd
+    new_design = design.with_faces(faces_for(values))
+    K = P.size
+    cov = lf.covariance
+    post = Posterior(lf.coefficients, cov[:K, :K], alpha, None)
+    info = {k: {"face": names[k][0], "parameter": names[k][1], "value": values[k],
+                "sd": float(sds.get(k, np.nan))} for k in names}
+    info["_covariance"] = cov
+    return post, info, new_design
+
+
+def _monte_carlo(design, rd, kept, P, problem, alpha, draws, seed, grid, progress):
+    """Draws of the face profile with sensor positions perturbed within their tolerance."""
+    rng = np.random.default_rng(seed)
+    sub = rd.subset(kept)
+    face = design.basis.face
+    cyl = design.cylinder
+    pts = display_grid(face, cyl.radius, cyl.height, *grid)
+    B = design.basis.face_values(pts.u, pts.v)
+    known = design.basis.known_face_values(pts.u, pts.v)
+    samples = np.empty((draws, pts.u.size))
+    tol = sub.position_tolerance
+    a, L = cyl.radius, cyl.height
+    for j in range(draws):
+        r = np.clip(sub.r + rng.uniform(-1, 1, sub.n) * tol, 0.0, a)
+        th = sub.theta + rng.uniform(-1, 1, sub.n) * tol / np.maximum(sub.r, tol + 1e-12)
+        z = sub.z + rng.uniform(-1, 1, sub.n) * tol
+        z = np.clip(z, 0.0, L) if math.isfinite(L) else np.maximum(z, 0.0)
+        G, t0, _, _ = design.at(r, th, z)
+        pb = LinearGaussianProblem(G, sub.temperature, t0, problem.noise, P, c0=problem.c0)
+        c = pb.coefficients(alpha)
+        C = pb.posterior_covariance(alpha)
+        Lc = np.linalg.cholesky(C + 1e-12 * np.trace(C) / C.shape[0] * np.eye(C.shape[0]))
+        draw = c + Lc @ rng.standard_normal(c.size)
+        samples[j] = known + B @ draw
+        if progress is not None:
+            progress(j + 1, draws)
+    return {"samples": samples, "points": pts}

@@ -1,0 +1,386 @@
+"""Linear Gaussian model of the readings, solved for any smoothing strength from one SVD.
+
+Model: d = t0 + G c + e, e ~ N(0, S); prior c ~ N(c0, (alpha P)^-1), P = diag(p) > 0.
+Whitened, prior-scaled system (S = L L^T):
+
+    A = L^-1 G P^-1/2,   y = L^-1 (d - t0 - G c0),   u = P^1/2 (c - c0),
+    MAP u = argmin ||A u - y||^2 + alpha ||u||^2     (Tikhonov),
+    A = U diag(s) V^T    (full SVD, computed once; s padded with zeros where needed).
+
+With beta = U^T y, f_j = s_j^2 / (s_j^2 + alpha) (filter factors) and g_j = 1 - f_j =
+alpha / (s_j^2 + alpha), every quantity below is a cheap sum over j, so that all
+methods take a scalar alpha or a 1-D array of alphas (then results gain a leading axis).
+Units: d, t0, residuals in K; S in K^2; c in the unit of the unknown face's data.
+"""
+
+from __future__ import annotations
+
+import copy
+from functools import cached_property
+
+import numpy as np
+
+from .errors import InverseError
+from .noise import Whitener
+
+LOG_2PI = float(np.log(2.0 * np.pi))
+
+
+def _as_alphas(alpha):
+    """1-D array of strengths and whether the input was a scalar."""
+    a = np.asarray(alpha, dtype=float)
+    if a.ndim > 1:
+        raise InverseError("alpha must be a number or a 1-D array of numbers")
+    if a.size == 0 or not np.all(np.isfinite(a)) or np.any(a <= 0):
+        raise InverseError("smoothing strength alpha must be positive and finite")
+    return np.atleast_1d(a), a.ndim == 0
+
+
+def _out(x, scalar):
+    return x[0] if scalar else x
+
+
+class LinearGaussianProblem:
+    """Readings d (n,), design G (n, K), known field t0 (n,), noise covariance S,
+    prior precision diagonal P (K,), prior mean c0 (K,, default 0).
+
+    `noise`: variances sigma_i^2 (n,) [K^2], a full SPD (n, n) covariance, or a Whitener.
+    """
+
+    def __init__(self, G, d, t0, noise, prior_diag, c0=None):
+        G = np.asarray(G, dtype=float)
+        if G.ndim != 2:
+            raise InverseError("design matrix G must be 2-D (readings x coefficients)")
+        n, K = G.shape
+        if n == 0 or K == 0:
+            raise InverseError("design matrix G is empty")
+        d = np.asarray(d, dtype=float)
+        if d.shape != (n,):
+            raise InverseError(f"readings d must have shape ({n},), got {d.shape}")
+        t0 = np.broadcast_to(np.asarray(t0, dtype=float), (n,)).copy()
+        p = np.asarray(prior_diag, dtype=float)
+        if p.shape != (K,) or not np.all(np.isfinite(p)) or np.any(p <= 0):
+            raise InverseError(f"prior_diag must be {K} positive finite values")
+        c0 = np.zeros(K) if c0 is None else np.asarray(c0, dtype=float)
+        if c0.shape != (K,):
+            raise InverseError(f"prior mean c0 must have shape ({K},)")
+        for name, arr in (("G", G), ("d", d), ("t0", t0), ("c0", c0)):
+            if not np.all(np.isfinite(arr)):
+                raise InverseError(f"{name} contains non-finite values")
+        self.noise = noise if isinstance(noise, Whitener) else Whitener(noise, n)
+        if self.noise.n != n:
+            raise InverseError(f"noise describes {self.noise.n} readings, expected {n}")
+        self.G, self.d, self.t0, self.prior_diag, self.c0 = G, d, t0, p, c0
+        self.n, self.K = n, K
+        p_isqrt = 1.0 / np.sqrt(p)
+        A = self.noise.whiten(G) * p_isqrt[None, :]
+        U, s, Vt = np.linalg.svd(A, full_matrices=True)
+        self._U, self._s = U, s
+        self._r = s.size
+        self._Z = p_isqrt[:, None] * Vt.T          # column j: direction in c of singular pair j
+        self._s2_n = np.zeros(n)
+        self._s2_n[: self._r] = s**2
+        self._s2_K = np.zeros(K)
+        self._s2_K[: self._r] = s**2
+        self._set_data(d)
+
+    # ------------------------------------------------------------------ set-up helpers
+    def _set_data(self, d):
+        self.d = d
+        self.y = self.noise.whiten(d - self.t0 - self.G @ self.c0)
+        self._beta = self._U.T @ self.y              # (n,)
+
+    def with_data(self, d) -> "LinearGaussianProblem":
+        """Same model, new readings d (n,), reusing the SVD (for simulation studies)."""
+        d = np.asarray(d, dtype=float)
+        if d.shape != (self.n,) or not np.all(np.isfinite(d)):
+            raise InverseError(f"readings d must be {self.n} finite values")
+        new = copy.copy(self)
+        new._set_data(d)
+        return new
+
+    def subset(self, keep) -> "LinearGaussianProblem":
+        """Problem restricted to readings `keep` (index array or boolean mask).
+
+        The noise of the kept readings is the sub-block of S (marginal of a Gaussian).
+        """
+        idx = np.arange(self.n)[np.asarray(keep)]
+        if idx.size == 0:
+            raise InverseError("no readings left")
+        return LinearGaussianProblem(self.G[idx], self.d[idx], self.t0[idx],
+                                     self.noise.subset(idx), self.prior_diag, self.c0)
+
+    @property
+    def singular_values(self) -> np.ndarray:
+        """Singular values s of A = L^-1 G P^-1/2, descending, length min(n, K)."""
+        return self._s
+
+    @cached_property
+    def _M(self):
+        """L^-T U (n, n): S^-1 = M M^T."""
+        return self.noise.whiten_transpose(self._U)
+
+    @cached_property
+    def _QM(self):
+        """(L U) * (L^-T U) elementwise: hat_ii = sum_j (QM)_ij f_j."""
+        if self.noise.diagonal:
+            return self._U**2
+        return self.noise.colour(self._U) * self._M
+
+    def _filters_n(self, a):
+        """(f, g) of shape (m, n) for the data-space directions (s = 0 beyond rank)."""
+        s2 = self._s2_n[None, :]
+        den = s2 + a[:, None]
+        return s2 / den, a[:, None] / den
+
+    # ------------------------------------------------------------------ estimates
+    def coefficients(self, alpha):
+        """MAP coefficients c = c0 + P^-1/2 V diag(s / (s^2 + alpha)) U^T y, shape (K,) or (m, K)."""
+        a, scalar = _as_alphas(alpha)
+        r = self._r
+        w = self._s[None, :] / (self._s[None, :] ** 2 + a[:, None])          # (m, r)
+        c = self.c0[None, :] + (w * self._beta[None, :r]) @ self._Z[:, :r].T
+        return _out(c, scalar)
+
+    def fitted(self, alpha):
+        """Fitted readings t0 + G c [K], shape (n,) or (m, n)."""
+        a, scalar = _as_alphas(alpha)
+        c = np.atleast_2d(self.coefficients(a))
+        return _out(self.t0[None, :] + c @ self.G.T, scalar)
+
+    def residuals(self, alpha):
+        """Residuals d - t0 - G c [K], shape (n,) or (m, n)."""
+        a, scalar = _as_alphas(alpha)
+        return _out(self.d[None, :] - np.atleast_2d(self.fitted(a)), scalar)
+
+    def standardized_residuals(self, alpha):
+        """Residuals in units of each reading's noise sd: (d_i - fitted_i) / sqrt(S_ii)."""
+        a, scalar = _as_alphas(alpha)
+        return _out(np.atleast_2d(self.residuals(a)) / self.noise.sd[None, :], scalar)
+
+    def whitened_residuals(self, alpha):
+        """L^-1 (d - t0 - G c) = U diag(g) U^T y, shape (n,) or (m, n)."""
+        a, scalar = _as_alphas(alpha)
+        _, g = self._filters_n(a)
+        return _out((g * self._beta[None, :]) @ self._U.T, scalar)
+
+    def chi2(self, alpha):
+        """chi2 = (d - t0 - G c)^T S^-1 (d - t0 - G c) = sum_j g_j^2 beta_j^2."""
+        a, scalar = _as_alphas(alpha)
+        _, g = self._filters_n(a)
+        return _out(np.sum((g * self._beta[None, :]) ** 2, axis=1), scalar)
+
+    def residual_norm(self, alpha):
+        """L-curve abscissa: ||L^-1 (d - t0 - G c)|| = sqrt(chi2)."""
+        return np.sqrt(self.chi2(alpha))
+
+    def seminorm(self, alpha):
+        """L-curve ordinate: ||P^1/2 (c - c0)|| = sqrt(sum_j (s_j beta_j / (s_j^2 + alpha))^2)."""
+        a, scalar = _as_alphas(alpha)
+        r = self._r
+        w = self._s[None, :] / (self._s[None, :] ** 2 + a[:, None])
+        return _out(np.sqrt(np.sum((w * self._beta[None, :r]) ** 2, axis=1)), scalar)
+
+    def effective_parameters(self, alpha):
+        """Trace of the influence matrix: sum_j s_j^2 / (s_j^2 + alpha)."""
+        a, scalar = _as_alphas(alpha)
+        f, _ = self._filters_n(a)
+        return _out(f.sum(axis=1), scalar)
+
+    def hat_diagonal(self, alpha):
+        """Diagonal of the influence matrix H = d(fitted)/d(d) = G C G^T S^-1 = L U diag(f) U^T L^-1."""
+        a, scalar = _as_alphas(alpha)
+        f, _ = self._filters_n(a)
+        return _out(f @ self._QM.T, scalar)
+
+    # ------------------------------------------------------------------ uncertainty
+    def _var_K(self, a):
+        """1 / (s_j^2 + alpha) for all K directions (s = 0 in the null space of A)."""
+        return 1.0 / (self._s2_K[None, :] + a[:, None])
+
+    def posterior_covariance(self, alpha):
+        """C = (G^T S^-1 G + alpha P)^-1 = P^-1/2 V diag(1 / (s^2 + alpha)) V^T P^-1/2.
+
+        Directions of c the data do not see (s = 0, e.g. K > n) keep the prior
+        variance 1/alpha in the P-metric. Shape (K, K) or (m, K, K).
+        """
+        a, scalar = _as_alphas(alpha)
+        v = self._var_K(a)
+        return _out(np.einsum("kj,mj,lj->mkl", self._Z, v, self._Z), scalar)
+
+    def weighted_posterior_covariance(self, alphas, weights) -> np.ndarray:
+        """sum_i w_i C(alpha_i) = P^-1/2 V diag(sum_i w_i / (s^2 + alpha_i)) V^T P^-1/2, (K, K)."""
+        a, _ = _as_alphas(alphas)
+        w = np.asarray(weights, dtype=float)
+        if w.shape != a.shape:
+            raise InverseError("one weight per alpha")
+        v = w @ self._var_K(a)
+        return (self._Z * v[None, :]) @ self._Z.T
+
+    def posterior_sd(self, alpha):
+        """sqrt(diag C), shape (K,) or (m, K)."""
+        a, scalar = _as_alphas(alpha)
+        return _out(np.sqrt(self._var_K(a) @ (self._Z**2).T), scalar)
+
+    def predict(self, B, alpha, offset=None):
+        """Posterior mean and sd of q = offset + B c for a fixed linear map B (q, K) or (K,).
+
+        mean = offset + B c_MAP, sd = sqrt(diag(B C B^T)). Shapes (q,) or (m, q).
+        """
+        a, scalar = _as_alphas(alpha)
+        B = np.asarray(B, dtype=float)
+        vec = B.ndim == 1
+        B = np.atleast_2d(B)
+        if B.shape[1] != self.K:
+            raise InverseError(f"linear map B must have {self.K} columns")
+        c = np.atleast_2d(self.coefficients(a))
+        mean = c @ B.T
+        if offset is not None:
+            mean = mean + np.asarray(offset, dtype=float)
+        sd = np.sqrt(self._var_K(a) @ ((B @ self._Z) ** 2).T)
+        if vec:
+            mean, sd = mean[:, 0], sd[:, 0]
+        return _out(mean, scalar), _out(sd, scalar)
+
+    # ------------------------------------------------------------------ leave-one-out
+    def _loo_parts(self, a):
+        """(S_pred^-1 r, diag S_pred^-1) with S_pred = S + G (alpha P)^-1 G^T, r = d - t0 - G c0.
+
+        S_pred^-1 = L^-T U diag(g) U^T L^-1 = M diag(g) M^T.
+        """
+        _, g = self._filters_n(a)
+        return (g * self._beta[None, :]) @ self._M.T, g @ (self._M**2).T
+
+    def loo_residuals(self, alpha):
+        """Leave-one-out errors d_i - E[d_i | all other readings], no refits.
+
+        Under the Gaussian model E[d_i | d_-i] is exact and
+        d_i - E[d_i | d_-i] = (S_pred^-1 r)_i / (S_pred^-1)_ii. For independent noise this
+        is the hat-matrix formula (d_i - fitted_i) / (1 - H_ii), i.e. the residual of a
+        refit (same alpha) with reading i deleted.
+        """
+        a, scalar = _as_alphas(alpha)
+        q, dg = self._loo_parts(a)
+        return _out(q / dg, scalar)
+
+    def loo_predicted(self, alpha):
+        """E[d_i | all other readings] [K]."""
+        a, scalar = _as_alphas(alpha)
+        return _out(self.d[None, :] - np.atleast_2d(self.loo_residuals(a)), scalar)
+
+    def loo_sd(self, alpha):
+        """Predictive sd of d_i given the other readings: 1 / sqrt((S_pred^-1)_ii) [K]."""
+        a, scalar = _as_alphas(alpha)
+        _, dg = self._loo_parts(a)
+        return _out(1.0 / np.sqrt(dg), scalar)
+
+    def standardized_loo(self, alpha):
+        """LOO error / its predictive sd = (S_pred^-1 r)_i / sqrt((S_pred^-1)_ii); N(0, 1) under the model."""
+        a, scalar = _as_alphas(alpha)
+        q, dg = self._loo_parts(a)
+        return _out(q / np.sqrt(dg), scalar)
+
+    def log_evidence_without(self, alpha):
+        """log p(d_-i | alpha) for every reading i, shape (n,) or (m, n).
+
+        Chain rule p(d) = p(d_-i) p(d_i | d_-i): log p(d) - log N(loo_residual_i; 0, loo_sd_i^2).
+        """
+        return self.loo_summary(alpha)[2]
+
+    def loo_summary(self, alpha):
+        """(loo_residuals, loo_sd, log_evidence_without) in one pass, each (n,) or (m, n)."""
+        a, scalar = _as_alphas(alpha)
+        q, dg = self._loo_parts(a)
+        e = q / dg
+        log_cond = -0.5 * (LOG_2PI - np.log(dg) + e**2 * dg)
+        lw = self.log_evidence(a)[:, None] - log_cond
+        return _out(e, scalar), _out(1.0 / np.sqrt(dg), scalar), _out(lw, scalar)
+
+    def predictive_covariance(self, alpha) -> np.ndarray:
+        """S_pred = S + G (alpha P)^-1 G^T: covariance of d under the prior [K^2] (scalar alpha)."""
+        a, _ = _as_alphas(alpha)
+        if a.size != 1:
+            raise InverseError("predictive_covariance takes one alpha")
+        Gs = self.G / np.sqrt(a[0] * self.prior_diag)[None, :]
+        return self.noise.covariance + Gs @ Gs.T
+
+    def held_out_prediction(self, alpha, held_out):
+        """E and sd of readings `held_out` given all the others (Gaussian conditioning on S_pred).
+
+        Used for readings set aside from a fit: mean_h = m_h + S_hk S_kk^-1 (d_k - m_k),
+        var_h = diag(S_hh - S_hk S_kk^-1 S_kh), m = t0 + G c0. Returns (mean, sd), each (len(held_out),).
+        """
+        h = np.arange(self.n)[np.asarray(held_out)]
+        k = np.setdiff1d(np.arange(self.n), h)
+        if k.size == 0:
+            raise InverseError("nothing left to predict from")
+        Sp = self.predictive_covariance(alpha)
+        m = self.t0 + self.G @ self.c0
+        Skk = Sp[np.ix_(k, k)]
+        Shk = Sp[np.ix_(h, k)]
+        sol = np.linalg.solve(Skk, np.column_stack([self.d[k] - m[k], Shk.T]))
+        mean = m[h] + Shk @ sol[:, 0]
+        var = np.diag(Sp[np.ix_(h, h)]) - np.sum(Shk * sol[:, 1:].T, axis=1)
+        return mean, np.sqrt(np.maximum(var, 0.0))
+
+    # ------------------------------------------------------------------ strength criteria
+    def log_evidence(self, alpha):
+        """log p(d | alpha): d ~ N(t0 + G c0, S + G (alpha P)^-1 G^T).
+
+        = -1/2 [n log 2 pi + log det S + sum_j log(1 + s_j^2/alpha) + sum_j g_j beta_j^2].
+        """
+        a, scalar = _as_alphas(alpha)
+        _, g = self._filters_n(a)
+        logdet = self.noise.logdet + np.sum(np.log1p(self._s[None, :] ** 2 / a[:, None]), axis=1)
+        quad = np.sum(g * self._beta[None, :] ** 2, axis=1)
+        return _out(-0.5 * (self.n * LOG_2PI + logdet + quad), scalar)
+
+    def gcv(self, alpha):
+        """Generalized cross-validation V = n ||(I - H) y||^2 / (trace(I - H))^2 (whitened, H = hat)."""
+        a, scalar = _as_alphas(alpha)
+        f, g = self._filters_n(a)
+        chi2 = np.sum((g * self._beta[None, :]) ** 2, axis=1)
+        return _out(self.n * chi2 / np.sum(g, axis=1) ** 2, scalar)
+
+    def discrepancy(self, alpha, target=None):
+        """Discrepancy function chi2(alpha) - target, target = n by default (Morozov).
+
+        chi2 rises monotonically from the least-squares residual (alpha -> 0) to ||y||^2
+        (alpha -> inf). Pure whitened noise has E||e||^2 = n; note that at the prior's
+        true alpha E chi2 = n - effective_parameters, so the classical target n leans
+        towards over-smoothing.
+        """
+        t = float(self.n) if target is None else float(target)
+        return self.chi2(alpha) - t
+
+    @property
+    def chi2_limits(self) -> tuple[float, float]:
+        """(chi2 as alpha -> 0, chi2 as alpha -> inf) = (least-squares residual, ||y||^2)."""
+        return float(np.sum(self._beta[self._r:] ** 2)), float(np.sum(self._beta**2))
+
+    def lcurve_curvature(self, alpha):
+        """Signed curvature of the L-curve (rho, eta) = (log residual norm, log seminorm).
+
+        With t = log alpha, R = chi2, E = seminorm^2, g = alpha/(s^2+alpha), f = 1 - g,
+        w = s/(s^2+alpha):  R' = 2 sum g^2 f beta^2,  R'' = 2 sum g^2 f (2 - 3 g) beta^2,
+        E' = -2 sum w^2 g beta^2,  E'' = -2 sum w^2 g (1 - 3 g) beta^2;
+        rho = log(R)/2, rho' = R'/(2R), rho'' = (R'' R - R'^2)/(2 R^2) (eta alike);
+        kappa = (rho' eta'' - rho'' eta') / (rho'^2 + eta'^2)^(3/2); the corner is its maximum.
+        """
+        a, scalar = _as_alphas(alpha)
+        r = self._r
+        s2 = self._s[None, :] ** 2
+        den = s2 + a[:, None]
+        g, f = a[:, None] / den, s2 / den
+        w2 = s2 / den**2
+        b2 = self._beta[None, :r] ** 2
+        R = np.sum((g**2) * b2, axis=1) + np.sum(self._beta[r:] ** 2)
+        R1 = 2 * np.sum(g**2 * f * b2, axis=1)
+        R2 = 2 * np.sum(g**2 * f * (2 - 3 * g) * b2, axis=1)
+        E = np.sum(w2 * b2, axis=1)
+        E1 = -2 * np.sum(w2 * g * b2, axis=1)
+        E2 = -2 * np.sum(w2 * g * (1 - 3 * g) * b2, axis=1)
+        rho1, rho2 = R1 / (2 * R), (R2 * R - R1**2) / (2 * R**2)
+        eta1, eta2 = E1 / (2 * E), (E2 * E - E1**2) / (2 * E**2)
+        kappa = (rho1 * eta2 - rho2 * eta1) / (rho1**2 + eta1**2) ** 1.5
+        return _out(kappa, scalar)

@@ -1,0 +1,118 @@
+"""Sensor health table and outlier screening."""
+
+import numpy as np
+import pytest
+from threadpoolctl import threadpool_limits
+
+from inverse.diagnostics import COLUMNS, averaged_loo, default_threshold, screen_outliers, sensor_table
+from inverse.strength import choose_strength
+from inverse.linear_gaussian import LinearGaussianProblem
+
+ALPHA_TRUE = 0.01
+
+
+def layout(n, K, seed):
+    rng = np.random.default_rng(seed)
+    x, z = rng.uniform(0, 1, n), rng.uniform(0.05, 0.5, n)
+    k = np.arange(K)
+    G = np.cos(np.pi * k * x[:, None]) * np.exp(-np.pi * k * z[:, None])
+    return rng, G, 1.0 + (np.pi * k) ** 2
+
+
+def readings(rng, G, p, sigma):
+    c = rng.normal(size=G.shape[1]) / np.sqrt(ALPHA_TRUE * p)   # truth from the prior
+    return 20.0 + G @ c + sigma * rng.normal(size=G.shape[0])
+
+
+def test_threshold_values():
+    assert default_threshold(20) == pytest.approx(3.2905, abs=1e-4)    # z at 0.9995, standard normal table (from memory)
+    assert default_threshold(20, 0.05) == pytest.approx(3.0233, abs=1e-4)  # z at 0.99875, standard normal table (from memory)
+    assert default_threshold(64) > default_threshold(16)
+
+
+# seed 31: the faulty sensor sits near the face; with it in, the evidence picks an alpha
+# ~4000x smaller, the fit bends to it and its own LOO error at that alpha is only 2.7 sd
+@pytest.mark.parametrize("seed,bad,sigma", [(31, 7, 0.5), (32, 0, 0.5), (33, 13, 1.0)])
+def test_outlier_is_set_aside_and_named(seed, bad, sigma):
+    n = 20
+    rng, G, p = layout(n, 10, seed)
+    d = readings(rng, G, p, sigma)
+    d[bad] += 8.0                                                  # +8 K: a faulty thermocouple
+    names = [f"TC{i:02d}" for i in range(n)]
+    prob = LinearGaussianProblem(G, d, 20.0, np.full(n, sigma**2), p)
+    out = screen_outliers(prob, names=names)
+    assert [s.sensor for s in out.set_aside] == [names[bad]]
+    assert out.set_aside[0].index == bad and out.set_aside[0].score > out.set_aside[0].threshold
+    assert "Bonferroni" in out.set_aside[0].reason
+    assert not out.kept[bad] and out.kept.sum() == n - 1 and out.problem.n == n - 1
+    row = out.table.iloc[bad]
+    assert row["sensor"] == names[bad] and row["flag"] == "set aside"
+    assert row["standardized_loo"] > 4 and abs(row["measured"] - row["loo_predicted"] - 8.0) < 4 * row["loo_sd"]
+    assert list(out.table.columns) == list(COLUMNS[:-1]) + ["score", "flag"] and (out.table["flag"] == "ok").sum() == n - 1
+
+
+@pytest.mark.parametrize("n,K", [(16, 8), (32, 12), (64, 30)])
+def test_healthy_sensors_rarely_set_aside(n, K):
+    rng, G, p = layout(n, K, 40 + n)
+    prob = LinearGaussianProblem(G, np.zeros(n), 20.0, np.full(n, 0.25), p)
+    R = 300
+    with threadpool_limits(limits=1, user_api="blas"):   # many tiny products: avoid BLAS thread hand-off
+        clean = sum(not screen_outliers(prob.with_data(readings(rng, G, p, 0.5))).set_aside for _ in range(R))
+    # requirement: none set aside in >= 95 % of healthy replicates (Bonferroni bound gives >= 98 %)
+    assert clean / R >= 0.95
+
+
+def test_sensor_table_matches_problem():
+    n = 12
+    rng, G, p = layout(n, 6, 50)
+    d = readings(rng, G, p, 0.5)
+    prob = LinearGaussianProblem(G, d, 20.0, np.full(n, 0.25), p)
+    t = sensor_table(prob, 0.02)
+    np.testing.assert_allclose(t["residual"], d - prob.fitted(0.02))
+    np.testing.assert_allclose(t["standardized"], (d - prob.fitted(0.02)) / 0.5)
+    np.testing.assert_allclose(t["measured"] - t["loo_predicted"], prob.loo_residuals(0.02))
+    np.testing.assert_allclose(t["standardized_loo"], (t["measured"] - t["loo_predicted"]) / t["loo_sd"])
+    assert list(t["sensor"]) == [f"s{i}" for i in range(n)]
+    tight = sensor_table(prob, 0.02, threshold=0.0)
+    assert (tight["flag"] == "suspect").all()
+
+
+def test_cap_on_set_aside_sensors_warns():
+    n = 16
+    rng, G, p = layout(n, 8, 60)
+    d = readings(rng, G, p, 0.5)
+    d[[2, 9, 11]] += [10.0, -12.0, 9.0]
+    prob = LinearGaussianProblem(G, d, 20.0, np.full(n, 0.25), p)
+    full = screen_outliers(prob)
+    assert sorted(s.index for s in full.set_aside) == [2, 9, 11]
+    capped = screen_outliers(prob, max_set_aside=1)
+    assert len(capped.set_aside) == 1 and "no more sensors are set aside" in capped.warnings[-1]
+    assert (capped.table["flag"] == "suspect").sum() >= 1
+
+
+def test_averaged_loo_ingredients():
+    n = 12
+    rng, G, p = layout(n, 6, 70)
+    d = readings(rng, G, p, 0.5)
+    prob = LinearGaussianProblem(G, d, 20.0, np.full(n, 0.25), p)
+    a = np.array([0.003, 0.05])
+    lw = prob.log_evidence_without(a)
+    for i in (0, 5):   # brute force: evidence of the problem with reading i deleted
+        np.testing.assert_allclose(lw[:, i], prob.subset(np.arange(n) != i).log_evidence(a), rtol=1e-10)
+    one = averaged_loo(prob, np.geomspace(0.05, 0.05 * (1 + 1e-9), 3))
+    np.testing.assert_allclose(one.z, prob.standardized_loo(0.05), rtol=1e-6, atol=1e-9)
+    np.testing.assert_allclose(one.predicted, prob.loo_predicted(0.05), rtol=1e-9)
+
+
+def test_fixed_strength_screening_uses_that_alpha():
+    n = 20
+    rng, G, p = layout(n, 10, 32)
+    d = readings(rng, G, p, 0.5)
+    d[0] += 8.0
+    prob = LinearGaussianProblem(G, d, 20.0, np.full(n, 0.25), p)
+    out = screen_outliers(prob, strength=0.01)
+    assert [s.index for s in out.set_aside] == [0]
+    assert out.strength.method == "fixed" and out.strength.alpha == 0.01
+    assert out.set_aside[0].score == pytest.approx(prob.standardized_loo(0.01)[0])
+    ev = screen_outliers(prob)
+    assert ev.strength.alpha == pytest.approx(choose_strength(prob.subset(np.arange(n) != 0)).alpha)

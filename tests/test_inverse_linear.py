@@ -1,0 +1,216 @@
+"""LinearGaussianProblem against reference libraries and brute-force definitions."""
+
+import numpy as np
+import pytest
+from hypothesis import given, settings, strategies as st
+from scipy.stats import multivariate_normal
+from sklearn.linear_model import Ridge
+
+from inverse.errors import InverseError
+from inverse.linear_gaussian import LinearGaussianProblem
+
+
+def toy(n, K, seed, full_noise=False):
+    """Sensors at (x, depth z); column k = cos(k pi x) exp(-k pi z) (decaying modes)."""
+    rng = np.random.default_rng(seed)
+    x, z = rng.uniform(0, 1, n), rng.uniform(0.05, 0.5, n)
+    k = np.arange(K)
+    G = np.cos(np.pi * k * x[:, None]) * np.exp(-np.pi * k * z[:, None])
+    p = 1.0 + (np.pi * k) ** 2
+    sig = rng.uniform(0.3, 0.8, n)
+    if full_noise:   # independent offsets tau = 0.4 K and a common offset 0.3 K marginalized
+        S = np.diag(sig**2 + 0.4**2) + 0.3**2 * np.ones((n, n))
+    else:
+        S = sig**2
+    c0 = rng.normal(size=K) * 0.5
+    t0 = 20.0 + rng.normal(size=n)
+    d = t0 + G @ (c0 + rng.normal(size=K) / np.sqrt(0.05 * p)) + sig * rng.normal(size=n)
+    return G, d, t0, S, p, c0
+
+
+CASES = [(16, 8, False), (16, 8, True), (10, 24, False), (10, 24, True)]
+
+
+def explicit(G, d, t0, S, p, c0, alpha):
+    """Brute-force posterior with explicit matrices."""
+    Sm = S if S.ndim == 2 else np.diag(S)
+    Si = np.linalg.inv(Sm)
+    prec = G.T @ Si @ G + alpha * np.diag(p)
+    C = np.linalg.inv(prec)
+    c = C @ (G.T @ Si @ (d - t0) + alpha * p * c0)
+    H = G @ C @ G.T @ Si
+    return Sm, C, c, H
+
+
+@pytest.mark.parametrize("n,K,full", CASES)
+def test_map_matches_sklearn_ridge(n, K, full):
+    G, d, t0, S, p, c0 = toy(n, K, 1, full)
+    prob = LinearGaussianProblem(G, d, t0, S, p, c0)
+    Sm = S if full else np.diag(S)
+    L = np.linalg.cholesky(Sm)
+    X = np.linalg.solve(L, G) / np.sqrt(p)
+    y = np.linalg.solve(L, d - t0 - G @ c0)
+    for alpha in (1e-3, 0.05, 3.0):
+        # scikit-learn Ridge (reference library) minimizes ||y - X w||^2 + alpha ||w||^2, no intercept
+        w = Ridge(alpha=alpha, fit_intercept=False, solver="svd").fit(X, y).coef_
+        np.testing.assert_allclose(prob.coefficients(alpha), c0 + w / np.sqrt(p), rtol=1e-9, atol=1e-11)
+
+
+@pytest.mark.parametrize("n,K,full", CASES)
+def test_posterior_hat_and_chi2_vs_explicit_matrices(n, K, full):
+    G, d, t0, S, p, c0 = toy(n, K, 2, full)
+    prob = LinearGaussianProblem(G, d, t0, S, p, c0)
+    alpha = 0.07
+    Sm, C, c, H = explicit(G, d, t0, S, p, c0, alpha)
+    # Gaussian conjugate posterior C = (G^T S^-1 G + alpha P)^-1 (textbook closed form)
+    np.testing.assert_allclose(prob.posterior_covariance(alpha), C, rtol=1e-8, atol=1e-12)
+    np.testing.assert_allclose(prob.posterior_sd(alpha), np.sqrt(np.diag(C)), rtol=1e-8)
+    np.testing.assert_allclose(prob.coefficients(alpha), c, rtol=1e-8, atol=1e-10)
+    np.testing.assert_allclose(prob.hat_diagonal(alpha), np.diag(H), rtol=1e-8, atol=1e-12)
+    assert prob.effective_parameters(alpha) == pytest.approx(np.trace(H), rel=1e-10)
+    e = d - t0 - G @ c
+    np.testing.assert_allclose(prob.residuals(alpha), e, rtol=1e-8, atol=1e-10)
+    assert prob.chi2(alpha) == pytest.approx(e @ np.linalg.solve(Sm, e), rel=1e-9)
+    assert prob.seminorm(alpha) == pytest.approx(np.sqrt(np.sum(p * (c - c0) ** 2)), rel=1e-9)
+    B = np.random.default_rng(0).normal(size=(5, K))
+    mean, sd = prob.predict(B, alpha, offset=1.5)
+    np.testing.assert_allclose(mean, 1.5 + B @ c, rtol=1e-9)
+    np.testing.assert_allclose(sd, np.sqrt(np.diag(B @ C @ B.T)), rtol=1e-8)
+
+
+def test_unseen_directions_keep_prior_variance():
+    n, K = 6, 15
+    G, d, t0, S, p, c0 = toy(n, K, 3)
+    prob = LinearGaussianProblem(G, d, t0, S, p, c0)
+    alpha = 0.3
+    A = (G / np.sqrt(S)[:, None]) / np.sqrt(p)
+    null = np.linalg.svd(A)[2][n:]                       # orthonormal basis of null(A), K - n rows
+    C = prob.posterior_covariance(alpha)
+    Pm = np.diag(np.sqrt(p))
+    # G v = 0 in C = (G^T S^-1 G + alpha P)^-1 leaves v^T P^1/2 C P^1/2 v = 1/alpha (the prior variance)
+    np.testing.assert_allclose(null @ Pm @ C @ Pm @ null.T, np.eye(K - n) / alpha, rtol=1e-9, atol=1e-12)
+
+
+@pytest.mark.parametrize("n,K", [(16, 8), (10, 24)])
+def test_loo_equals_brute_force_refits(n, K):
+    G, d, t0, S, p, c0 = toy(n, K, 4)
+    prob = LinearGaussianProblem(G, d, t0, S, p, c0)
+    alpha = 0.05
+    pred = np.empty(n)
+    for i in range(n):   # definition of leave-one-out: refit without reading i, same alpha
+        k = np.delete(np.arange(n), i)
+        _, _, c, _ = explicit(G[k], d[k], t0[k], S[k], p, c0, alpha)
+        pred[i] = t0[i] + G[i] @ c
+    np.testing.assert_allclose(prob.loo_predicted(alpha), pred, rtol=1e-9, atol=1e-9)
+    np.testing.assert_allclose(prob.loo_residuals(alpha), d - pred, rtol=1e-8, atol=1e-9)
+    # classical hat-matrix shortcut e_i / (1 - H_ii) (Allen's PRESS identity, from memory)
+    h = prob.hat_diagonal(alpha)
+    np.testing.assert_allclose(prob.residuals(alpha) / (1 - h), d - pred, rtol=1e-8, atol=1e-9)
+
+
+def test_loo_full_noise_equals_gaussian_conditioning():
+    n, K = 14, 9
+    G, d, t0, S, p, c0 = toy(n, K, 5, full_noise=True)
+    prob = LinearGaussianProblem(G, d, t0, S, p, c0)
+    alpha = 0.05
+    Sp = S + G @ np.diag(1 / (alpha * p)) @ G.T
+    m = t0 + G @ c0
+    mean, sd = np.empty(n), np.empty(n)
+    for i in range(n):   # conditional of a multivariate normal (textbook closed form)
+        k = np.delete(np.arange(n), i)
+        wgt = np.linalg.solve(Sp[np.ix_(k, k)], Sp[k, i])
+        mean[i] = m[i] + wgt @ (d[k] - m[k])
+        sd[i] = np.sqrt(Sp[i, i] - wgt @ Sp[k, i])
+    np.testing.assert_allclose(prob.loo_predicted(alpha), mean, rtol=1e-9)
+    np.testing.assert_allclose(prob.loo_sd(alpha), sd, rtol=1e-8)
+    np.testing.assert_allclose(prob.standardized_loo(alpha), (d - mean) / sd, rtol=1e-7, atol=1e-9)
+    hm1, hs1 = prob.held_out_prediction(alpha, [7])
+    np.testing.assert_allclose([hm1[0], hs1[0]], [mean[7], sd[7]], rtol=1e-9)
+    h, k = np.array([2, 7]), np.delete(np.arange(n), [2, 7])
+    W = np.linalg.solve(Sp[np.ix_(k, k)], Sp[np.ix_(k, h)])
+    hm, hs = prob.held_out_prediction(alpha, h)
+    np.testing.assert_allclose(hm, m[h] + W.T @ (d[k] - m[k]), rtol=1e-9)
+    np.testing.assert_allclose(hs, np.sqrt(np.diag(Sp[np.ix_(h, h)] - Sp[np.ix_(h, k)] @ W)), rtol=1e-8)
+
+
+@pytest.mark.parametrize("n,K,full", CASES)
+def test_log_evidence_vs_scipy_multivariate_normal(n, K, full):
+    G, d, t0, S, p, c0 = toy(n, K, 6, full)
+    prob = LinearGaussianProblem(G, d, t0, S, p, c0)
+    Sm = S if full else np.diag(S)
+    alphas = np.geomspace(1e-4, 1e2, 7)
+    # d ~ N(t0 + G c0, S + G (alpha P)^-1 G^T): scipy.stats.multivariate_normal (reference library)
+    ref = [multivariate_normal(t0 + G @ c0, Sm + G @ np.diag(1 / (a * p)) @ G.T).logpdf(d) for a in alphas]
+    np.testing.assert_allclose(prob.log_evidence(alphas), ref, rtol=1e-9)
+
+
+@pytest.mark.parametrize("n,K,full", CASES)
+def test_gcv_vs_definition(n, K, full):
+    G, d, t0, S, p, c0 = toy(n, K, 7, full)
+    prob = LinearGaussianProblem(G, d, t0, S, p, c0)
+    Sm = S if full else np.diag(S)
+    L = np.linalg.cholesky(Sm)
+    A = np.linalg.solve(L, G) / np.sqrt(p)
+    y = np.linalg.solve(L, d - t0 - G @ c0)
+    for alpha in (1e-3, 0.1, 10.0):
+        Hw = A @ np.linalg.inv(A.T @ A + alpha * np.eye(K)) @ A.T
+        IH = np.eye(n) - Hw
+        # Golub, Heath & Wahba 1979: V = (1/n)||(I - A(l)) y||^2 / [(1/n) tr(I - A(l))]^2
+        V = (np.sum((IH @ y) ** 2) / n) / (np.trace(IH) / n) ** 2
+        assert prob.gcv(alpha) == pytest.approx(V, rel=1e-9)
+
+
+def test_vectorized_alphas_match_scalar_calls():
+    G, d, t0, S, p, c0 = toy(12, 20, 8, True)
+    prob = LinearGaussianProblem(G, d, t0, S, p, c0)
+    alphas = np.array([1e-3, 0.2, 5.0])
+    B = np.ones((2, 20))
+    for name in ("coefficients", "fitted", "residuals", "chi2", "seminorm", "effective_parameters",
+                 "hat_diagonal", "loo_residuals", "standardized_loo", "log_evidence", "gcv",
+                 "posterior_covariance", "posterior_sd", "lcurve_curvature", "whitened_residuals"):
+        f = getattr(prob, name)
+        vec = f(alphas)
+        for i, a in enumerate(alphas):
+            np.testing.assert_allclose(vec[i], f(a), rtol=1e-12, atol=1e-14, err_msg=name)
+    m, s = prob.predict(B, alphas)
+    assert m.shape == s.shape == (3, 2)
+
+
+def test_with_data_and_subset_agree_with_fresh_problems():
+    G, d, t0, S, p, c0 = toy(12, 7, 9, True)
+    prob = LinearGaussianProblem(G, d, t0, S, p, c0)
+    d2 = d + 1.0
+    fresh = LinearGaussianProblem(G, d2, t0, S, p, c0)
+    np.testing.assert_allclose(prob.with_data(d2).coefficients(0.1), fresh.coefficients(0.1), rtol=1e-12)
+    keep = np.arange(12) != 4
+    sub = prob.subset(keep)
+    ref = LinearGaussianProblem(G[keep], d[keep], t0[keep], S[np.ix_(keep, keep)], p, c0)
+    np.testing.assert_allclose(sub.log_evidence(0.1), ref.log_evidence(0.1), rtol=1e-12)
+
+
+def test_bad_inputs_raise_clear_errors():
+    G, d, t0, S, p, c0 = toy(8, 4, 10)
+    with pytest.raises(InverseError, match="positive"):
+        LinearGaussianProblem(G, d, t0, S, -p, c0)
+    with pytest.raises(InverseError, match="shape"):
+        LinearGaussianProblem(G, d[:-1], t0, S, p, c0)
+    with pytest.raises(InverseError, match="positive definite"):
+        LinearGaussianProblem(G, d, t0, -np.eye(8), p, c0)
+    prob = LinearGaussianProblem(G, d, t0, S, p, c0)
+    with pytest.raises(InverseError, match="alpha"):
+        prob.coefficients(0.0)
+
+
+@settings(max_examples=25, deadline=None)
+@given(seed=st.integers(0, 10_000), n=st.integers(3, 12), K=st.integers(1, 15))
+def test_monotone_in_alpha(seed, n, K):
+    """chi2 rises and effective parameters fall as alpha grows (filter factors s^2/(s^2+alpha))."""
+    G, d, t0, S, p, c0 = toy(n, K, seed)
+    prob = LinearGaussianProblem(G, d, t0, S, p, c0)
+    a = np.geomspace(1e-6, 1e4, 40)
+    chi2, eff, sn = prob.chi2(a), prob.effective_parameters(a), prob.seminorm(a)
+    assert np.all(np.diff(chi2) >= -1e-9 * chi2[-1])
+    assert np.all(np.diff(eff) <= 1e-12)
+    assert np.all(np.diff(sn) <= 1e-9 * sn[0] + 1e-300)
+    assert np.all((eff >= 0) & (eff <= min(n, K) + 1e-9))
+    assert np.all((prob.hat_diagonal(a) > -1e-12) & (prob.hat_diagonal(a) < 1 + 1e-12))
