@@ -1,19 +1,41 @@
-"""Timing of the statistics core on synthetic arrays (no case files, no physics).
+"""Timing of the statistics core and of a full inverse.fit (not run by pytest).
 
-    python bench/fit.py [--repeat N]
+    python bench/fit.py [--repeat N] [--only table,jacobian,alphas,full]
 
-For a few sizes (sensors n, modes K) it times: building the problem (one SVD), choosing
-alpha by evidence, bands of 2000 face points, the alpha-averaged LOO scores, outlier
-screening and the lmfit solve. The synthetic design has decaying modes like the
-eigenfunction fields of a cylinder face seen from inside the part.
+table     for a few sizes (sensors n, modes K) on synthetic arrays: building the problem
+          (one SVD), choosing alpha by evidence, bands of 2000 face points, the
+          alpha-averaged LOO scores, outlier screening and the lmfit solve.  The synthetic
+          design has decaying modes like the eigenfunction fields of a cylinder face seen
+          from inside the part.
+jacobian  lmfit (least_squares) on the same 100-coefficient problem with the analytic
+          Jacobian (inverse.fit_linear_lmfit) and with lmfit's finite-difference Jacobian
+          (same residual, same tolerances); goal >= 10x.
+alphas    choosing alpha by the evidence among 200 candidates from one SVD
+          (LinearGaussianProblem) vs 200 separate Cholesky solves of the normal equations;
+          goal >= 20x.
+full      inverse.fit with bands on a 50 x 90 face grid, 64 sensors, 210 coefficients
+          (harmonics 10, terms 10), and the share of its time spent in the forward model
+          (CylinderModel + basis construction, basis fields at the sensors, face values on
+          the grid and on the face quadrature rule), each timed separately.
+
+Ratios are measured in one run on whatever machine runs this; the machine note printed
+first says what that was.  BLAS is limited to one thread (threadpoolctl) when available,
+so that a shared, noisy machine gives steadier numbers.
 """
 
 from __future__ import annotations
 
 import argparse
+import contextlib
+import math
+import os
+import platform
 import time
+import types
 
+import lmfit
 import numpy as np
+import scipy
 
 from inverse import (LinearGaussianProblem, StrengthAverage, averaged_loo, choose_strength,
                      fit_linear_lmfit, screen_outliers)
@@ -41,27 +63,192 @@ def best_of(fn, repeat):
     return min(times)
 
 
-def main(argv=None):
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--repeat", type=int, default=3)
-    args = ap.parse_args(argv)
+def one_thread():
+    try:
+        from threadpoolctl import threadpool_limits
+    except ImportError:  # optional: the benchmark runs without it, less steadily
+        return contextlib.nullcontext()
+    return threadpool_limits(limits=1)
+
+
+def machine_note():
+    load = os.getloadavg() if hasattr(os, "getloadavg") else ("?",)
+    print(f"machine: {platform.machine()} {platform.processor() or ''} | {os.cpu_count()} logical CPUs | "
+          f"load average {' '.join(f'{x:.2f}' for x in load)} | Python {platform.python_version()} | "
+          f"numpy {np.__version__} | scipy {scipy.__version__} | lmfit {lmfit.__version__} | BLAS 1 thread")
+
+
+# ------------------------------------------------------------------------------ table
+def bench_table(repeat):
     cols = ("n", "K", "svd", "evidence", "bands", "avg-bands", "loo", "screen", "lmfit")
-    print(" ".join(f"{c:>9}" for c in cols), "  (seconds, best of", args.repeat, ")")
+    print(" ".join(f"{c:>9}" for c in cols), "  (seconds, best of", repeat, ")")
     for n, K in SIZES:
         G, d, p, B = synthetic(n, K)
         S = np.full(n, 0.25)
         prob = LinearGaussianProblem(G, d, 20.0, S, p)
         alpha = choose_strength(prob).alpha
         row = [
-            best_of(lambda: LinearGaussianProblem(G, d, 20.0, S, p), args.repeat),
-            best_of(lambda: choose_strength(prob), args.repeat),
-            best_of(lambda: prob.predict(B, alpha), args.repeat),
-            best_of(lambda: StrengthAverage(prob).band(B), args.repeat),
-            best_of(lambda: averaged_loo(prob), args.repeat),
-            best_of(lambda: screen_outliers(prob), args.repeat),
-            best_of(lambda: fit_linear_lmfit(G, d, 20.0, S, p, alpha), args.repeat),
+            best_of(lambda: LinearGaussianProblem(G, d, 20.0, S, p), repeat),
+            best_of(lambda: choose_strength(prob), repeat),
+            best_of(lambda: prob.predict(B, alpha), repeat),
+            best_of(lambda: StrengthAverage(prob).band(B), repeat),
+            best_of(lambda: averaged_loo(prob), repeat),
+            best_of(lambda: screen_outliers(prob), repeat),
+            best_of(lambda: fit_linear_lmfit(G, d, 20.0, S, p, alpha), repeat),
         ]
         print(f"{n:>9} {K:>9} " + " ".join(f"{t:>9.4f}" for t in row))
+
+
+# --------------------------------------------------------------------------- jacobian
+def lmfit_finite_difference(G, d, t0, S, p, alpha, tol):
+    """Same stacked residual as inverse.fit_lmfit, Jacobian left to lmfit (2-point differences)."""
+    sd = np.sqrt(S)
+    sqrt_ap = np.sqrt(alpha * p)
+    K = p.size
+    names = [f"c_{k}" for k in range(K)]
+    params = lmfit.Parameters()
+    for name in names:
+        params.add(name, value=0.0)
+
+    def residual(pars):
+        c = np.array([pars[k].value for k in names])
+        return np.concatenate([(G @ c + t0 - d) / sd, sqrt_ap * c])
+
+    mini = lmfit.Minimizer(residual, params, scale_covar=False)
+    res = mini.minimize(method="least_squares", ftol=tol, xtol=tol, gtol=tol, x_scale="jac")
+    return np.array([res.params[k].value for k in names]), res.nfev
+
+
+def bench_jacobian(repeat, n=64, K=100):
+    G, d, p, _ = synthetic(n, K, seed=3)
+    S = np.full(n, 0.25)
+    t0 = np.full(n, 20.0)
+    alpha = choose_strength(LinearGaussianProblem(G, d, t0, S, p)).alpha
+    exact = LinearGaussianProblem(G, d, t0, S, p).coefficients(alpha)
+    tol = 1e-10
+    out = {}
+    t_an = best_of(lambda: out.__setitem__("an", fit_linear_lmfit(G, d, t0, S, p, alpha, tol=tol)), repeat)
+    t_fd = best_of(lambda: out.__setitem__("fd", lmfit_finite_difference(G, d, t0, S, p, alpha, tol)), repeat)
+    scale = np.abs(exact).max()
+    err_an = np.abs(out["an"].coefficients - exact).max() / scale
+    err_fd = np.abs(out["fd"][0] - exact).max() / scale
+    print(f"lmfit, {K} coefficients, {n} sensors: analytic Jacobian {t_an * 1e3:.1f} ms "
+          f"({out['an'].result.nfev} evaluations, rel. error vs closed form {err_an:.1e}); "
+          f"finite differences {t_fd * 1e3:.1f} ms ({out['fd'][1]} evaluations, rel. error {err_fd:.1e})")
+    print(f"  ratio finite-difference / analytic = {t_fd / t_an:.1f}x (goal >= 10x)")
+
+
+# ----------------------------------------------------------------------------- alphas
+def evidence_by_separate_solves(G, d, t0, S, p, alphas):
+    """log p(d | alpha) for each alpha by its own Cholesky solve (no shared factorization).
+
+    A = S^-1/2 G P^-1/2, y = S^-1/2 (d - t0); M = A^T A + alpha I;
+    log det(S + G (alpha P)^-1 G^T) = log det S + log det M - K log alpha  (Sylvester);
+    y^T (I + A A^T / alpha)^-1 y = y.y - (A^T y) . M^-1 A^T y  (Woodbury).
+    """
+    n, K = G.shape
+    A = G / np.sqrt(S)[:, None] / np.sqrt(p)[None, :]
+    y = (d - t0) / np.sqrt(S)
+    AtA, Aty = A.T @ A, A.T @ y
+    out = np.empty(alphas.size)
+    for i, a in enumerate(alphas):
+        Lc = np.linalg.cholesky(AtA + a * np.eye(K))
+        w = scipy.linalg.solve_triangular(Lc, Aty, lower=True)
+        logdet = np.sum(np.log(S)) + 2.0 * np.sum(np.log(np.diag(Lc))) - K * math.log(a)
+        quad = y @ y - w @ w
+        out[i] = -0.5 * (n * math.log(2 * math.pi) + logdet + quad)
+    return out
+
+
+def bench_alphas(repeat, n=64, K=200, m=200):
+    G, d, p, _ = synthetic(n, K, seed=4)
+    S = np.full(n, 0.25)
+    t0 = np.full(n, 20.0)
+    alphas = np.logspace(-8, 4, m)
+    out = {}
+
+    def one_svd():
+        prob = LinearGaussianProblem(G, d, t0, S, p)
+        out["svd"] = prob.log_evidence(alphas)
+
+    def separate():
+        out["sep"] = evidence_by_separate_solves(G, d, t0, S, p, alphas)
+
+    t_svd = best_of(one_svd, repeat)
+    t_sep = best_of(separate, repeat)
+    same = int(np.argmax(out["svd"])) == int(np.argmax(out["sep"]))
+    diff = np.abs(out["svd"] - out["sep"]).max()
+    print(f"evidence at {m} alphas, {n} sensors x {K} coefficients: one SVD {t_svd * 1e3:.2f} ms, "
+          f"{m} separate solves {t_sep * 1e3:.1f} ms (same alpha chosen: {same}, max |log-evidence "
+          f"difference| {diff:.1e})")
+    print(f"  ratio separate / one SVD = {t_sep / t_svd:.1f}x (goal >= 20x)")
+
+
+# ------------------------------------------------------------------------------- full
+def bench_full(repeat, n=64, harmonics=10, terms=10, grid=(50, 90)):
+    import forward as fw
+    import inverse
+    from inverse.face_grid import display_grid, quadrature
+
+    a, L, k, h, tamb = 0.15, 0.04, 16.0, 12.0, 298.15
+    q = lambda r, th: 4000.0 * (1 + 0.3 * (r / a) ** 2) + 800.0 * (r / a) * np.cos(th)  # noqa: E731
+    cyl = fw.Cylinder(a, L, k)
+    known = {"bottom": fw.Flux(q), "top": fw.Convection(h, tamb), "side": fw.Insulated()}
+    rng = np.random.default_rng(8)
+    r = a * np.sqrt(rng.uniform(0, 0.95, n))
+    th = rng.uniform(0, 2 * np.pi, n)
+    z = rng.uniform(0.003, 0.03, n)
+    sigma = 0.3
+    temp = fw.CylinderModel(cyl, known).temperature(r, th, z) + sigma * rng.standard_normal(n)
+    faces = dict(known, bottom=fw.UnknownFlux())
+    case = types.SimpleNamespace(cylinder=cyl, faces=faces)
+    rd = inverse.SensorReadings([f"s{i}" for i in range(n)], r, th, z, temp, sigma, 0.0, 0.0)
+
+    res = inverse.fit(case, rd, harmonics=harmonics, terms=terms, grid=grid)  # warm caches
+    K = res.summary["basis_size"]
+    t_fit = best_of(lambda: inverse.fit(case, rd, harmonics=harmonics, terms=terms, grid=grid), repeat)
+
+    # the forward parts of one fit, each timed on its own
+    pts = display_grid("bottom", a, L, *grid)
+    quad = quadrature("bottom", a, L)
+    parts = {}
+    holder = {}
+
+    def build():
+        m = fw.CylinderModel(cyl, faces, tolerance=1e-8)
+        holder["basis"] = m.basis(harmonics, terms)
+        holder["model"] = m
+
+    parts["model + basis construction"] = best_of(build, repeat)
+    basis, model = holder["basis"], holder["model"]
+    parts["known field + basis fields at sensors"] = best_of(
+        lambda: (model.evaluate(r, th, z), basis.fields(r, th, z, gradient=True)), repeat)
+    parts[f"face values on the {grid[0]} x {grid[1]} grid"] = best_of(
+        lambda: (basis.face_values(pts.u, pts.v), basis.known_face_values(pts.u, pts.v)), repeat)
+    parts[f"face values on the quadrature rule ({quad.u.size} points)"] = best_of(
+        lambda: (basis.face_values(quad.u, quad.v), basis.known_face_values(quad.u, quad.v)), repeat)
+    fwd = sum(parts.values())
+    print(f"inverse.fit, {n} sensors, {K} coefficients (harmonics {harmonics}, terms {terms}), "
+          f"bands on {grid[0]} x {grid[1]} = {grid[0] * grid[1]} face points: {t_fit:.3f} s")
+    for name, t in parts.items():
+        print(f"  forward: {name:<48} {t * 1e3:8.1f} ms  ({100 * t / t_fit:4.1f} %)")
+    print(f"  forward model share of the fit: {100 * fwd / t_fit:.0f} % ({fwd * 1e3:.0f} ms of {t_fit * 1e3:.0f} ms); "
+          f"statistics and tables: {100 * (1 - fwd / t_fit):.0f} %")
+
+
+SECTIONS = {"table": bench_table, "jacobian": bench_jacobian, "alphas": bench_alphas, "full": bench_full}
+
+
+def main(argv=None):
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--only", default=",".join(SECTIONS), help="comma-separated sections: " + ", ".join(SECTIONS))
+    args = ap.parse_args(argv)
+    machine_note()
+    with one_thread():
+        for name in args.only.split(","):
+            print(f"\n[{name.strip()}]")
+            SECTIONS[name.strip()](args.repeat)
 
 
 if __name__ == "__main__":

@@ -21,6 +21,8 @@ import pandas as pd
 
 from forward.errors import ForwardModelError
 
+from inverse.errors import InverseError
+
 from .errors import InputError
 
 PROG = "heatsight"
@@ -185,9 +187,21 @@ def _add_check(sub) -> None:
 # ---------------------------------------------------------------------------- parser
 
 #: (name, function adding the subparser).  Add fit, demo and trend here.
+def _add_fit(sub) -> None:
+    from .fit_command import add_fit
+    add_fit(sub)
+
+
+def _add_demo(sub) -> None:
+    from .fit_command import add_demo
+    add_demo(sub)
+
+
 COMMANDS = [
+    ("fit", _add_fit),
     ("simulate", _add_simulate),
     ("check", _add_check),
+    ("demo", _add_demo),
 ]
 
 
@@ -203,7 +217,8 @@ def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(
         prog=PROG,
         description="Infer the unseen face of a heated solid cylinder from thermocouple readings.",
-        epilog="examples:\n  heatsight check plate.toml\n"
+        epilog="examples:\n  heatsight demo\n  heatsight check plate.toml\n"
+               "  heatsight fit plate.toml --readings readings.csv --out plate-fit\n"
                "  heatsight simulate plate.toml --at points.csv --out field.csv\n\n"
                "Estimates support engineering judgement; they do not replace direct measurement, "
                "interlocks or inspection.",
@@ -224,7 +239,7 @@ def main(argv=None) -> int:
         return int(args.run(args) or 0)
     except SystemExit as exc:        # --help, --version
         return int(exc.code or 0) if isinstance(exc.code, int) or exc.code is None else 2
-    except (InputError, ForwardModelError, UsageError) as exc:
+    except (InputError, ForwardModelError, InverseError, UsageError) as exc:
         print(f"{PROG}: error: {' '.join(str(exc).split())}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:

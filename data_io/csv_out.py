@@ -51,6 +51,13 @@ def check_output_path(path, inputs=()) -> Path:
     return path
 
 
+def _default_mode() -> int:
+    """Permissions of a newly created file under the current umask (mkstemp uses 0600)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
 def atomic_write_bytes(path, data: bytes) -> None:
     """Write `data` to `path` atomically: temporary file in the same folder, then os.replace.
     On any failure the temporary file is removed and `path` is left as it was."""
@@ -58,6 +65,7 @@ def atomic_write_bytes(path, data: bytes) -> None:
     folder = path.parent if str(path.parent) else Path(".")
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
     try:
+        os.fchmod(fd, _default_mode())
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
             fh.flush()
@@ -144,6 +152,7 @@ class OutputSet:
         if isinstance(data, str):
             data = data.encode("utf-8")
         fd, tmp = tempfile.mkstemp(prefix=f".{name}.", suffix=".tmp", dir=self.folder)
+        os.fchmod(fd, _default_mode())
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
             fh.flush()

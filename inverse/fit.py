@@ -141,14 +141,23 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
         gamma = float(gu @ (wv * (rd.temperature - t0))) / denom if denom > 0 else 0.0
         return LinearGaussianProblem(G, rd.temperature, t0, var, P, c0=gamma * u_uniform)
 
-    problem = build(G, t0, base_var)
+    var = base_var
+    problem = build(G, t0, var)
     # Placement tolerance: effective variance (grad T . delta x)^2 with delta x uniform in +-tol.
     if np.any(rd.position_tolerance > 0):
         c_first = choose_strength(problem, strength if not isinstance(strength, str) else "evidence")
         c_hat = problem.coefficients(c_first.alpha)
         grad = ev.gradient + np.einsum("dpk,k->dp", dG, c_hat)
         pos_var = (grad ** 2).sum(axis=0) * rd.position_tolerance ** 2 / 3.0
-        problem = build(G, t0, base_var + pos_var)
+        var = base_var + pos_var
+        problem = build(G, t0, var)
+    if calibrate:
+        # Screen and tabulate the sensors at calibrated face parameters, not the nominal
+        # ones: a nominal h that is off makes healthy sensors near that face look faulty.
+        pre = choose_strength(problem, strength)
+        _, _, design = _calibrate(design, rd, np.ones(rd.n, dtype=bool), problem, pre.alpha, P, calibrate)
+        G, t0, _, _ = design.at(rd.r, rd.theta, rd.z)
+        problem = build(G, t0, var)
 
     screening = None
     if keep_all:

@@ -48,6 +48,20 @@ class Posterior:
         return self.c[None, :] + rng.standard_normal((n, self.c.size)) @ L.T
 
 
+def _zone_area(zone, face, radius, height, n=1024):
+    """Area [m^2] of a zone by the midpoint rule on n x n cells of the face (theta x r with
+    weight r on end faces, theta x z on the side)."""
+    th = 2.0 * np.pi * (np.arange(n) + 0.5) / n
+    span = height if face == "side" else radius
+    s = span * (np.arange(n) + 0.5) / n
+    S, TH = np.meshgrid(s, th, indexing="ij")
+    if face == "side":
+        mask = np.asarray(zone.contains(TH.ravel(), S.ravel()), dtype=bool)
+        return float(mask.sum()) * (2.0 * np.pi / n) * (span / n) * radius
+    mask = np.asarray(zone.contains(S.ravel(), TH.ravel()), dtype=bool)
+    return float(S.ravel() @ mask) * (2.0 * np.pi / n) * (span / n)
+
+
 @dataclass
 class FitResult:
     """Outcome of inverse.fit.  Quantities in SI: temperature [K], heat flux [W/m^2] (into
@@ -125,6 +139,9 @@ class FitResult:
             w = quad.weights * mask
             za = float(w.sum())
             zm, zsd = posterior.linear(w @ Bq / za, float(w @ kq) / za)
+            # The masked rule's zone edge is as coarse as its nodes (several % of the area of
+            # a small zone); the area, and with it the power, comes from a fine midpoint rule.
+            za = _zone_area(zone, face, cyl.radius, cyl.height)
             entry = {"name": zone.name, "mean": zm, "sd": zsd, "lower": zm - Z95 * zsd,
                      "upper": zm + Z95 * zsd, "area_m2": za}
             if quantity == "heat_flux":
