@@ -8,13 +8,15 @@ import shutil
 import sys
 from pathlib import Path
 
+import pandas as pd
+
 from forward.errors import ForwardModelError
 from inverse import SensorReadings
 from inverse.errors import InverseError
 
 from .errors import InputError
 
-OUTPUT_NAMES = ("estimate.csv", "summary.json", "points.csv", "report.html")
+OUTPUT_NAMES = ("estimate.csv", "sensors.csv", "summary.json", "points.csv", "report.html")
 DEMO_FOLDER = Path(__file__).resolve().parent.parent / "demo_data"
 
 
@@ -106,6 +108,7 @@ def run_fit(case_path, *, readings=None, at=None, out=None, overwrite=False, mon
     try:
         with OutputSet(folder) as outset:
             outset.add("estimate.csv", csv_text(estimate_frame(result)))
+            outset.add("sensors.csv", csv_text(pd.DataFrame(summary["sensors"])))
             outset.add("summary.json", json_text(summary))
             if points is not None:
                 outset.add("points.csv", csv_text(points_frame(result, points)))
