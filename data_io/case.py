@@ -102,11 +102,15 @@ class FitOptions:
     keep_all_sensors: bool = False
     terms: int | None = None
     harmonics: int | None = None
+    loss: str = "linear"
+    common_offset_sd: float | None = None
+    calibrate: tuple = ()
 
     def as_dict(self) -> dict:
         return {"strength_method": self.strength_method, "strength": self.strength,
                 "smoothing": self.smoothing, "keep_all_sensors": self.keep_all_sensors,
-                "terms": self.terms, "harmonics": self.harmonics}
+                "terms": self.terms, "harmonics": self.harmonics, "loss": self.loss,
+                "common_offset_sd": self.common_offset_sd, "calibrate": list(self.calibrate)}
 
 
 @dataclass(frozen=True)
@@ -329,6 +333,33 @@ def _fit_count(out_key: str, minimum: int):
     return parse
 
 
+def _fit_common_offset(ctx: _Ctx, value, where: str) -> dict:
+    if not isinstance(value, str):
+        raise ctx.error(where, f"expected a temperature difference with its unit, e.g. \"0.5 K\"; got {_show(value)}")
+    sd = parse_quantity(value, "temperature_difference", where, file=ctx.path)
+    if not sd > 0:
+        raise ctx.error(where, f"the prior sd of a common offset must be positive, got {value!r}")
+    return {"common_offset_sd": sd}
+
+
+CALIBRATABLE = ("h", "ambient")
+
+
+def _fit_calibrate(ctx: _Ctx, value, where: str) -> dict:
+    if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+        raise ctx.error(where, f"expected a list like [\"top.h\", \"top.ambient\"], got {_show(value)}")
+    out = []
+    for item in value:
+        face, _, param = item.strip().partition(".")
+        if face not in ("bottom", "top", "side") or param not in CALIBRATABLE:
+            raise ctx.error(where, f"'{item}': expected <face>.<parameter> with face bottom, top or side "
+                                   f"and parameter {' or '.join(CALIBRATABLE)} of a convection face")
+        out.append((face, param))
+    if len(set(out)) != len(out):
+        raise ctx.error(where, "a parameter is listed twice")
+    return {"calibrate": tuple(out)}
+
+
 #: [fit] keys -> (parser, description).  To add an option: add a FitOptions field with its
 #: default, and a row here.
 FIT_SCHEMA: dict[str, tuple[Callable[[Any, Any, str], dict], str]] = {
@@ -339,6 +370,10 @@ FIT_SCHEMA: dict[str, tuple[Callable[[Any, Any, str], dict], str]] = {
     "keep_all_sensors": (_fit_bool("keep_all_sensors"), "true keeps suspect sensors in the fit (default false)"),
     "terms": (_fit_count("terms", 1), "number of radial/axial terms of the unknown face (default: automatic)"),
     "harmonics": (_fit_count("harmonics", 0), "number of angular harmonics (default: automatic)"),
+    "loss": (_fit_choice(("linear", "soft_l1", "huber"), "loss"),
+             'sensor misfit: "linear" (Gaussian, default) or the robust "soft_l1" / "huber"'),
+    "common_offset": (_fit_common_offset, "prior sd of an offset shared by all sensors, e.g. \"0.5 K\""),
+    "calibrate": (_fit_calibrate, 'convection parameters fitted with the face, e.g. ["top.h"]'),
 }
 
 

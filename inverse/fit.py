@@ -86,8 +86,8 @@ def _nominal_direction(basis):
 
 def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=None,
         keep_all_sensors=None, threshold=None, tolerance: float = 1e-8, grid=(41, 72),
-        calibrate=None, solver: str = "auto", monte_carlo: int = 0, seed: int = 0,
-        progress=None) -> FitResult:
+        calibrate=None, solver: str = "auto", loss=None, common_offset_sd=None,
+        monte_carlo: int = 0, seed: int = 0, progress=None) -> FitResult:
     """Fit the unknown face of `case` (anything with .cylinder, .faces and optionally .zones
     and .fit options) to `readings` (SensorReadings or a table with r, theta, z,
     temperature, sigma, offset_sd, position_tolerance in SI).
@@ -96,6 +96,8 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
     calibrate: {(face, 'h' | 'ambient'): (prior mean, prior sd) or None} nonlinear
     parameters of convection faces, fitted jointly through lmfit.
     solver: 'auto' (closed form unless calibrating) or 'lmfit'.
+    loss: 'linear' (Gaussian) or a robust 'soft_l1' / 'huber' sensor misfit (lmfit path).
+    common_offset_sd: prior sd [K] of an offset shared by all sensors (marginalized).
     monte_carlo: number of seeded draws that also perturb sensor positions within their
     placement tolerance (0 = off); progress(done, total) is called while drawing.
     """
@@ -116,6 +118,10 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
     harmonics = int(_option(case, "harmonics", harmonics, DEFAULT_HARMONICS))
     terms = int(_option(case, "terms", terms, DEFAULT_TERMS))
     keep_all = bool(_option(case, "keep_all_sensors", keep_all_sensors, False))
+    loss = _option(case, "loss", loss, "linear")
+    common_offset_sd = _option(case, "common_offset_sd", common_offset_sd, None)
+    if calibrate is None:
+        calibrate = {key: None for key in (_option(case, "calibrate", None, ()) or ())}
     if rd.n < 2:
         raise InverseError(f"at least 2 usable sensors are needed, got {rd.n}")
 
@@ -127,7 +133,7 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
     warnings: list[str] = []
 
     G, t0, ev, dG = design.at(rd.r, rd.theta, rd.z, gradient=True)
-    base_var = noise_covariance(rd.sigma, rd.offset_sd)
+    base_var = noise_covariance(rd.sigma, rd.offset_sd, common_offset_sd)
     trunc = ev.truncation_error
     if np.any(trunc > 0.1 * rd.sigma):
         worst = int(np.argmax(trunc / rd.sigma))
@@ -136,9 +142,9 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
 
     def build(G, t0, var):
         gu = G @ u_uniform
-        wv = 1.0 / var
-        denom = float(gu @ (wv * gu))
-        gamma = float(gu @ (wv * (rd.temperature - t0))) / denom if denom > 0 else 0.0
+        wgu = np.linalg.solve(var, gu) if var.ndim == 2 else gu / var
+        denom = float(gu @ wgu)
+        gamma = float(wgu @ (rd.temperature - t0)) / denom if denom > 0 else 0.0
         return LinearGaussianProblem(G, rd.temperature, t0, var, P, c0=gamma * u_uniform)
 
     var = base_var
@@ -149,7 +155,7 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
         c_hat = problem.coefficients(c_first.alpha)
         grad = ev.gradient + np.einsum("dpk,k->dp", dG, c_hat)
         pos_var = (grad ** 2).sum(axis=0) * rd.position_tolerance ** 2 / 3.0
-        var = base_var + pos_var
+        var = base_var + (np.diag(pos_var) if base_var.ndim == 2 else pos_var)
         problem = build(G, t0, var)
     if calibrate:
         # Screen and tabulate the sensors at calibrated face parameters, not the nominal
@@ -185,7 +191,14 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
     else:
         post = Posterior(final.coefficients(choice.alpha), final.posterior_covariance(choice.alpha),
                          choice.alpha, None)
-    if solver == "lmfit" and not calibrate:
+    if loss != "linear" and not calibrate:
+        from .lmfit_solver import fit_linear_lmfit
+        lf = fit_linear_lmfit(final.G, final.d, final.t0, final.noise, P, choice.alpha, c0=final.c0,
+                              loss=loss)
+        post = Posterior(lf.coefficients, lf.coefficient_covariance, choice.alpha, None)
+        warnings.append(f"robust {loss} misfit: bands come from the linearized robust fit at a "
+                        "single smoothing strength")
+    elif solver == "lmfit" and not calibrate:
         from .lmfit_solver import fit_linear_lmfit
         lf = fit_linear_lmfit(final.G, final.d, final.t0, final.noise, P, choice.alpha, c0=final.c0)
         if post.averaged is None:
@@ -204,10 +217,12 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
     if monte_carlo:
         mc = _monte_carlo(design, rd, kept, P, final, choice.alpha, int(monte_carlo), seed, grid, progress)
 
-    return FitResult.build(case=case, design=design, face=face, readings=rd, kept=kept, problem=final,
+    result = FitResult.build(case=case, design=design, face=face, readings=rd, kept=kept, problem=final,
                            choice=choice, posterior=post, sensors=table, set_aside=set_aside,
                            warnings=warnings, grid_size=grid, quad=quad, nonlinear=nonlinear,
                            monte_carlo=mc, smoothing=smoothing, strength_request=strength)
+    result.summary["loss"] = loss
+    return result
 
 
 def _layout_warnings(face, cyl, rd, post, problem, P, alpha):
