@@ -160,8 +160,15 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
     if calibrate:
         # Screen and tabulate the sensors at calibrated face parameters, not the nominal
         # ones: a nominal h that is off makes healthy sensors near that face look faulty.
-        pre = choose_strength(problem, strength)
-        _, _, design = _calibrate(design, rd, np.ones(rd.n, dtype=bool), problem, pre.alpha, P, calibrate)
+        # The calibration itself uses the sensors that pass a first screening at the
+        # nominal parameters, so a faulty sensor cannot drag h with it.
+        if keep_all:
+            pre_kept, pre_alpha = np.ones(rd.n, dtype=bool), choose_strength(problem, strength).alpha
+        else:
+            pre = screen_outliers(problem, strength=strength, threshold=threshold, names=rd.names)
+            pre_kept, pre_alpha = pre.kept, pre.strength.alpha
+        _, _, design = _calibrate(design, rd, pre_kept, problem.subset(np.flatnonzero(pre_kept)),
+                                  pre_alpha, P, calibrate)
         G, t0, _, _ = design.at(rd.r, rd.theta, rd.z)
         problem = build(G, t0, var)
 
