@@ -33,11 +33,19 @@ import platform
 import time
 import types
 
-import lmfit
-import numpy as np
-import scipy
+import sys
+from pathlib import Path
 
-from inverse import (LinearGaussianProblem, StrengthAverage, averaged_loo, choose_strength,
+# Run as a script, this folder comes first on sys.path, and bench/forward.py would hide the
+# forward package: drop the folder before importing.
+_HERE = Path(__file__).resolve().parent
+sys.path[:] = [p for p in sys.path if Path(p or os.getcwd()).resolve() != _HERE]
+
+import lmfit  # noqa: E402
+import numpy as np  # noqa: E402
+import scipy  # noqa: E402
+
+from inverse import (LinearGaussianProblem, StrengthAverage, averaged_loo, choose_strength,  # noqa: E402
                      fit_linear_lmfit, screen_outliers)
 
 SIZES = ((16, 40), (64, 120), (256, 400))
@@ -101,11 +109,12 @@ def bench_table(repeat):
 
 # --------------------------------------------------------------------------- jacobian
 def lmfit_finite_difference(G, d, t0, S, p, alpha, tol):
-    """Same stacked residual as inverse.fit_lmfit, Jacobian left to lmfit (2-point differences)."""
+    """The stacked residual of inverse.fit_lmfit, [S^-1/2 (G c + t0 - d); sqrt(alpha p) c],
+    minimized by lmfit's least_squares with lmfit's 2-point finite-difference Jacobian
+    (same tolerances and scaling as inverse.fit_lmfit); returns (c, function evaluations)."""
     sd = np.sqrt(S)
     sqrt_ap = np.sqrt(alpha * p)
-    K = p.size
-    names = [f"c_{k}" for k in range(K)]
+    names = [f"c_{k}" for k in range(p.size)]
     params = lmfit.Parameters()
     for name in names:
         params.add(name, value=0.0)
@@ -114,28 +123,56 @@ def lmfit_finite_difference(G, d, t0, S, p, alpha, tol):
         c = np.array([pars[k].value for k in names])
         return np.concatenate([(G @ c + t0 - d) / sd, sqrt_ap * c])
 
-    mini = lmfit.Minimizer(residual, params, scale_covar=False)
-    res = mini.minimize(method="least_squares", ftol=tol, xtol=tol, gtol=tol, x_scale="jac")
+    res = lmfit.Minimizer(residual, params, scale_covar=False).minimize(
+        method="least_squares", ftol=tol, xtol=tol, gtol=tol, x_scale="jac")
     return np.array([res.params[k].value for k in names]), res.nfev
 
 
+def scipy_direct(G, d, t0, S, p, alpha, tol, analytic):
+    """The same residual through scipy.optimize.least_squares itself (no lmfit layer)."""
+    from scipy.optimize import least_squares
+    sd = np.sqrt(S)
+    sqrt_ap = np.sqrt(alpha * p)
+    J = np.vstack([G / sd[:, None], np.diag(sqrt_ap)])
+
+    def residual(c):
+        return np.concatenate([(G @ c + t0 - d) / sd, sqrt_ap * c])
+
+    res = least_squares(residual, np.zeros(p.size), jac=(lambda c: J) if analytic else "2-point",
+                        ftol=tol, xtol=tol, gtol=tol, x_scale="jac")
+    return res.x, res.nfev
+
+
 def bench_jacobian(repeat, n=64, K=100):
-    G, d, p, _ = synthetic(n, K, seed=3)
-    S = np.full(n, 0.25)
-    t0 = np.full(n, 20.0)
-    alpha = choose_strength(LinearGaussianProblem(G, d, t0, S, p)).alpha
-    exact = LinearGaussianProblem(G, d, t0, S, p).coefficients(alpha)
     tol = 1e-10
-    out = {}
-    t_an = best_of(lambda: out.__setitem__("an", fit_linear_lmfit(G, d, t0, S, p, alpha, tol=tol)), repeat)
-    t_fd = best_of(lambda: out.__setitem__("fd", lmfit_finite_difference(G, d, t0, S, p, alpha, tol)), repeat)
-    scale = np.abs(exact).max()
-    err_an = np.abs(out["an"].coefficients - exact).max() / scale
-    err_fd = np.abs(out["fd"][0] - exact).max() / scale
-    print(f"lmfit, {K} coefficients, {n} sensors: analytic Jacobian {t_an * 1e3:.1f} ms "
-          f"({out['an'].result.nfev} evaluations, rel. error vs closed form {err_an:.1e}); "
-          f"finite differences {t_fd * 1e3:.1f} ms ({out['fd'][1]} evaluations, rel. error {err_fd:.1e})")
-    print(f"  ratio finite-difference / analytic = {t_fd / t_an:.1f}x (goal >= 10x)")
+    for rows in (n, 16 * n):
+        G, d, p, _ = synthetic(rows, K, seed=3)
+        S = np.full(rows, 0.25)
+        t0 = np.full(rows, 20.0)
+        prob = LinearGaussianProblem(G, d, t0, S, p)
+        alpha = choose_strength(prob).alpha
+        exact = prob.coefficients(alpha)
+        scale = np.abs(exact).max()
+        out = {}
+
+        def run(key, fn):
+            return best_of(lambda: out.__setitem__(key, fn()), repeat)
+
+        t_prod = run("prod", lambda: fit_linear_lmfit(G, d, t0, S, p, alpha, tol=tol))
+        t_fd = run("fd", lambda: lmfit_finite_difference(G, d, t0, S, p, alpha, tol))
+        t_san = run("san", lambda: scipy_direct(G, d, t0, S, p, alpha, tol, analytic=True))
+        t_sfd = run("sfd", lambda: scipy_direct(G, d, t0, S, p, alpha, tol, analytic=False))
+        err = {key: np.abs((v.coefficients if key == "prod" else v[0]) - exact).max() / scale
+               for key, v in out.items()}
+        label = "" if rows == n else f"  (scaling note: {rows // n} stacked snapshots of {n} sensors)"
+        print(f"lmfit, {K} coefficients, {rows} readings{label}:")
+        print(f"  inverse.fit_linear_lmfit, analytic Jacobian     {t_prod * 1e3:7.1f} ms, "
+              f"{out['prod'].result.nfev:5d} evaluations, rel. error vs closed form {err['prod']:.1e}")
+        print(f"  same residual, lmfit finite-difference Jacobian {t_fd * 1e3:7.1f} ms, "
+              f"{out['fd'][1]:5d} evaluations, rel. error {err['fd']:.1e}")
+        print(f"  ratio finite-difference / analytic = {t_fd / t_prod:.1f}x (goal >= 10x)")
+        print(f"  for comparison, scipy.optimize.least_squares without the lmfit layer: analytic "
+              f"{t_san * 1e3:.1f} ms, finite differences {t_sfd * 1e3:.1f} ms: ratio {t_sfd / t_san:.1f}x")
 
 
 # ----------------------------------------------------------------------------- alphas
@@ -232,8 +269,8 @@ def bench_full(repeat, n=64, harmonics=10, terms=10, grid=(50, 90)):
           f"bands on {grid[0]} x {grid[1]} = {grid[0] * grid[1]} face points: {t_fit:.3f} s")
     for name, t in parts.items():
         print(f"  forward: {name:<48} {t * 1e3:8.1f} ms  ({100 * t / t_fit:4.1f} %)")
-    print(f"  forward model share of the fit: {100 * fwd / t_fit:.0f} % ({fwd * 1e3:.0f} ms of {t_fit * 1e3:.0f} ms); "
-          f"statistics and tables: {100 * (1 - fwd / t_fit):.0f} %")
+    print(f"  forward model share of the fit: {100 * fwd / t_fit:.0f} % ({fwd * 1e3:.0f} ms of "
+          f"{t_fit * 1e3:.0f} ms); statistics and tables: {100 * (1 - fwd / t_fit):.0f} %")
 
 
 SECTIONS = {"table": bench_table, "jacobian": bench_jacobian, "alphas": bench_alphas, "full": bench_full}

@@ -1,0 +1,194 @@
+"""Timing of the forward model (not run by pytest).
+
+    python bench/forward.py [--repeat N] [--only bessel,accuracy]
+
+bessel    mode-point evaluations per second of forward.bessel.besselj (one call on the
+          batched table) vs scipy.special.jv called once per (m, n) pair at the same
+          points; goal >= 10x.
+accuracy  accuracy per time on a platen (non-uniform bottom heat flux, convection top,
+          insulated side): time for the Bessel-Fourier series (CylinderModel build +
+          evaluate) to reach 1e-4 of the temperature span at 50 interior points, vs a
+          scikit-fem P2 solve (tests/fem_cylinder.py) refined until it reaches the same
+          accuracy.  Reference: the series at tolerance 1e-12, itself checked against the
+          finest FE solve.  Goal >= 100x.
+
+Ratios are measured in one run on whatever machine runs this; the machine note printed
+first says what that was.  BLAS is limited to one thread (threadpoolctl) when available.
+"""
+
+from __future__ import annotations
+
+import argparse
+import contextlib
+import os
+import platform
+import sys
+import time
+from pathlib import Path
+
+# Run as a script, this file's folder comes first on sys.path and its name would hide the
+# forward package: drop the folder before importing it.
+_HERE = Path(__file__).resolve().parent
+sys.path[:] = [p for p in sys.path if Path(p or os.getcwd()).resolve() != _HERE]
+
+import numpy as np  # noqa: E402
+import scipy  # noqa: E402
+from scipy import special  # noqa: E402
+
+import forward as fw  # noqa: E402
+from forward.bessel import besselj  # noqa: E402
+from forward.roots import radial_eigenvalues  # noqa: E402
+
+
+def best_of(fn, repeat):
+    times = []
+    for _ in range(repeat):
+        t = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - t)
+    return min(times)
+
+
+def one_thread():
+    try:
+        from threadpoolctl import threadpool_limits
+    except ImportError:  # optional
+        return contextlib.nullcontext()
+    return threadpool_limits(limits=1)
+
+
+def machine_note():
+    load = os.getloadavg() if hasattr(os, "getloadavg") else ()
+    print(f"machine: {platform.machine()} | {os.cpu_count()} logical CPUs | load average "
+          f"{' '.join(f'{x:.2f}' for x in load)} | Python {platform.python_version()} | numpy {np.__version__} | "
+          f"scipy {scipy.__version__} | BLAS 1 thread")
+
+
+# ------------------------------------------------------------------------------ bessel
+def bench_bessel(repeat, harmonics=10, terms=20, point_counts=(64, 2000, 8192)):
+    """Radial factors J_m(lambda_mn r / a) of an end-face basis, (harmonics+1) x terms pairs,
+    at 64 points (a sensor set), 2000 and 8192 points (face grids, quadrature rules)."""
+    ms, lams = [], []
+    for m in range(harmonics + 1):
+        lam = radial_eigenvalues("N", m, terms, 0.0)           # insulated rim: J_m'(lambda) = 0
+        ms.append(np.full(terms, m)), lams.append(lam)
+    m = np.concatenate(ms)
+    lam = np.concatenate(lams)
+    pairs = m.size
+    for points in point_counts:
+        rho = np.random.default_rng(points).uniform(0.0, 1.0, points)   # r / a
+        x = lam[:, None] * rho[None, :]                                 # (pairs, points)
+        besselj(m[:, None], x)                                          # table built once (cached)
+        t_table = best_of(lambda: besselj(m[:, None], x), repeat)
+
+        def per_pair():
+            out = np.empty_like(x)
+            for i in range(pairs):
+                out[i] = special.jv(m[i], x[i])
+            return out
+
+        t_pairs = best_of(per_pair, repeat)
+        t_once = best_of(lambda: special.jv(m[:, None], x), repeat)
+        err = np.abs(besselj(m[:, None], x) - special.jv(m[:, None], x)).max()
+        evals = pairs * points
+        print(f"J_m(lambda_mn r/a): {pairs} (m, n) pairs x {points} points = {evals} mode-point evaluations; "
+              f"max |table - scipy.special.jv| = {err:.1e}")
+        print(f"  forward.bessel.besselj (table)       {t_table * 1e3:8.2f} ms  {evals / t_table:10.3g} /s")
+        print(f"  scipy.special.jv once per (m, n)     {t_pairs * 1e3:8.2f} ms  {evals / t_pairs:10.3g} /s")
+        print(f"  ratio per-pair jv / table = {t_pairs / t_table:.1f}x (goal >= 10x); scipy.special.jv in one "
+              f"broadcast call: {t_once * 1e3:.2f} ms ({t_once / t_table:.1f}x)")
+
+
+# ---------------------------------------------------------------------------- accuracy
+A, L, K, H, TAMB = 0.15, 0.04, 16.0, 25.0, 298.15     # m, m, W/(m K), W/(m^2 K), K
+
+
+def smooth_case():
+    """q = Q0 (1 + 0.3 (r/a)^2) + Q1 (r/a) cos(theta): harmonics m = 0 and m = 1."""
+    q0, q1 = 5.0e3, 1.5e3
+    flux = lambda r, th: q0 * (1.0 + 0.3 * (r / A) ** 2) + q1 * (r / A) * np.cos(th)  # noqa: E731
+    harmonics = {(0, "cos"): lambda s: q0 * (1.0 + 0.3 * (s / A) ** 2), (1, "cos"): lambda s: q1 * s / A}
+    return "smooth flux Q0 (1 + 0.3 (r/a)^2) + Q1 (r/a) cos(theta)", flux, harmonics
+
+
+def ring_case():
+    """A heater ring at r = 0.6 a (Gaussian width 0.08 a) with a three-fold pattern."""
+    q0, qr, w = 2.0e3, 6.0e3, 0.08
+    ring = lambda s: np.exp(-(((s / A) - 0.6) / w) ** 2)  # noqa: E731
+    flux = lambda r, th: q0 + qr * ring(r) * (1.0 + 0.5 * np.cos(3 * th))  # noqa: E731
+    harmonics = {(0, "cos"): lambda s: q0 + qr * ring(s), (3, "cos"): lambda s: 0.5 * qr * ring(s)}
+    return "heater ring at 0.6 a with a cos(3 theta) pattern", flux, harmonics
+
+
+def series_field(flux, tolerance, r, theta, z):
+    faces = {"bottom": fw.Flux(flux), "top": fw.Convection(H, TAMB), "side": fw.Insulated()}
+    return fw.CylinderModel(fw.Cylinder(A, L, K), faces, tolerance=tolerance).temperature(r, theta, z)
+
+
+def fem_field(harmonics, nr, nz, r, theta, z):
+    from fem_cylinder import solve_field
+    spec = {key: {"bottom": ("N", q), "top": ("R", H, TAMB if key[0] == 0 else 0.0), "side": ("N", 0.0)}
+            for key, q in harmonics.items()}
+    return solve_field(A, L, K, spec, order=2, nr=nr, nz=nz).temperature(r, theta, z)
+
+
+def bench_accuracy(repeat, points=50, goal=1e-4):
+    sys.path.insert(0, str(_HERE.parent / "tests"))
+    rng = np.random.default_rng(1)
+    r = A * np.sqrt(rng.uniform(0.0, 0.98, points))
+    theta = rng.uniform(0.0, 2 * np.pi, points)
+    z = L * rng.uniform(0.02, 0.98, points)
+    fem_field(smooth_case()[2], 2, 2, r, theta, z)     # warm up scikit-fem
+    for title, flux, harmonics in (smooth_case(), ring_case()):
+        ref = series_field(flux, 1e-12, r, theta, z)
+        span = float(ref.max() - ref.min())
+        target = goal * span
+        print(f"{title}; platen a = {A} m, L = {L} m, k = {K} W/(m K), top h = {H} W/(m^2 K), "
+              f"insulated rim; {points} interior points, span {span:.4g} K, target max error "
+              f"{target:.3g} K ({goal:g} of the span); reference: series at tolerance 1e-12")
+        chosen = None
+        for tol in (1e-2, 1e-3, 1e-4, 1e-5, 1e-6, 1e-7, 1e-8):
+            err = np.abs(series_field(flux, tol, r, theta, z) - ref).max()
+            print(f"  series tolerance {tol:7.0e}: max error {err:.2e} K")
+            if err <= target:
+                chosen = tol
+                break
+        t_series = best_of(lambda: series_field(flux, chosen, r, theta, z), repeat)
+        reached, nr, nz = None, 4, 2
+        for _ in range(8):
+            t = time.perf_counter()
+            err = np.abs(fem_field(harmonics, nr, nz, r, theta, z) - ref).max()
+            dt = time.perf_counter() - t
+            print(f"  scikit-fem P2 {nr:4d} x {nz:3d} cells, {len(harmonics)} harmonics: max error {err:.2e} K "
+                  f"({dt * 1e3:.0f} ms)")
+            if err <= target:
+                reached = (nr, nz)
+                break
+            nr, nz = 2 * nr, 2 * nz
+        print(f"  series at tolerance {chosen:g}: {t_series * 1e3:.2f} ms (CylinderModel build + evaluate)")
+        if reached is None:
+            print("  scikit-fem did not reach the target within the refinements tried")
+            continue
+        t_fem = best_of(lambda: fem_field(harmonics, *reached, r, theta, z), repeat)
+        print(f"  scikit-fem P2 at {reached[0]} x {reached[1]} cells: {t_fem * 1e3:.1f} ms "
+              f"(mesh + assemble + solve + evaluate)")
+        print(f"  ratio FE / series = {t_fem / t_series:.1f}x (goal >= 100x)")
+
+
+SECTIONS = {"bessel": bench_bessel, "accuracy": bench_accuracy}
+
+
+def main(argv=None):
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--only", default=",".join(SECTIONS), help="comma-separated: " + ", ".join(SECTIONS))
+    args = ap.parse_args(argv)
+    machine_note()
+    with one_thread():
+        for name in args.only.split(","):
+            print(f"\n[{name.strip()}]")
+            SECTIONS[name.strip()](args.repeat)
+
+
+if __name__ == "__main__":
+    main()
