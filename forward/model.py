@@ -17,6 +17,7 @@ from .errors import ForwardModelError, IllPosedError
 from .faces import FaceCondition, Flux, Temperature
 from .geometry import Cylinder
 from .harmonics import harmonic_amplitudes, theta_nodes
+from .corners import PolynomialLifting, end_rows, solve_rim
 from .lifting import Lifting
 from .modes import EndCondition, EndFaceModes, SideModes
 from .roots import axial_eigenvalues, radial_eigenvalues
@@ -136,20 +137,43 @@ class CylinderModel:
                         "convection")
 
     # --- construction ---------------------------------------------------------------------------
-    def _rim_values(self, end):
-        """Temperature the lifting takes at the rim of an end face, sampled on theta nodes, or None."""
+    def _rim_row(self, end, th):
+        """Rim condition of one end (kind, h, values on theta nodes) for the corner lifting,
+        or None when the end sets none (an unknown-flux end: its rim flux is fitted)."""
         faces, cyl = self.faces, self.cylinder
-        side = faces["side"]
-        if side.kind != "D":
-            return None
-        th = theta_nodes(2 * self.max_harmonic + 2)
+        side, cond = faces["side"], faces[end]
         z = 0.0 if end == "bottom" else cyl.height
-        if isinstance(side, Temperature):
-            return side.data(th, np.full_like(th, z))
-        cond = faces.get(end)
-        if isinstance(cond, Temperature):
-            return cond.data(np.full_like(th, cyl.radius), th)
-        return None
+        if cond.kind == "D":
+            if isinstance(side, Temperature):
+                return "D", 0.0, side.data(th, np.full_like(th, z))
+            if isinstance(cond, Temperature):
+                return "D", 0.0, cond.data(np.full_like(th, cyl.radius), th)
+            return None
+        if cond.unknown:
+            return None
+        return cond.kind, cond.h, cond.data(np.full_like(th, cyl.radius), th)
+
+    def _corner_lifting(self):
+        """PolynomialLifting meeting the rim conditions of both ends (side of kind 'D')."""
+        cyl, tol, k = self.cylinder, self.tolerance, self.k
+        a, L = cyl.radius, cyl.height
+        th = theta_nodes(2 * self.max_harmonic + 2)
+        ends = [(e, self._rim_row(e, th)) for e in ("bottom", "top")]
+        ends = [(e, row) for e, row in ends if row is not None]
+        if not ends:
+            return PolynomialLifting.empty_lifting(a, L)
+        amps = {e: harmonic_amplitudes(row[2], axis=-1) for e, row in ends}
+        ref = max(max(np.abs(ac).max(), np.abs(bc).max()) for ac, bc in amps.values())
+        terms = []
+        for m in range(self.max_harmonic + 1):
+            for is_sin in ((False,) if m == 0 else (False, True)):
+                vals = [amps[e][1 if is_sin else 0][m] for e, _ in ends]
+                if max(abs(v) for v in vals) <= tol * max(ref, 1e-300):
+                    continue
+                c = (a / L) ** 2 / (2.0 * m + 2.0)
+                rows = [end_rows(e, row[0], row[1], k, L, c) for e, row in ends]
+                terms.append((m, is_sin, solve_rim(rows, vals)))
+        return PolynomialLifting.from_terms(a, L, terms)
 
     def _build(self):
         cyl, faces, tol = self.cylinder, self.faces, self.tolerance
@@ -167,10 +191,13 @@ class CylinderModel:
                     b = {"D": 1.0, "N": k * m / a, "R": k * m / a + side.h}[side.kind]
                     ms.append(m), sins.append(is_sin), alpha.append(amp / b)
             self.lifting = Lifting.two_dimensional(a, ms, sins, alpha)
+        elif side.kind == "D" and cyl.semi_infinite:
+            th = theta_nodes(2 * self.max_harmonic + 2)
+            row = self._rim_row("bottom", th)
+            values = row[2] if row is not None and row[0] == "D" else None
+            self.lifting = Lifting.from_rim_values(a, L, values, None, tol, self.max_harmonic)
         elif side.kind == "D":
-            bottom = self._rim_values("bottom")
-            top = None if cyl.semi_infinite else self._rim_values("top")
-            self.lifting = Lifting.from_rim_values(a, L, bottom, top, tol, self.max_harmonic)
+            self.lifting = self._corner_lifting()
         else:
             self.lifting = Lifting.zero(a, L)
         self.temperature_scale = self._temperature_scale()
@@ -267,7 +294,10 @@ class CylinderModel:
         return self.evaluate(r, theta, z).temperature
 
     def face_power(self, face: str) -> float:
-        """Heat INTO the part [W] through a face, from the known field."""
+        """Heat INTO the part [W] through a face, from the known field (NaN without a
+        conductivity, like the heat flux)."""
+        if not self.has_conductivity:
+            return math.nan
         total = self.lifting.power(face, self.k)
         for s in self.series:
             total += s.powers().get(face, 0.0)
@@ -315,7 +345,54 @@ class UnknownBasis:
         else:
             far = "top" if self.face == "bottom" else "bottom"
             self.modes = EndFaceModes(self.face, a, L, k, kinds[self.face], kinds.get(far), m, is_sin, ev)
-        self.m, self.is_sin, self.eigenvalues = m, is_sin, ev
+        self.rim = self._rim_columns(harmonics)
+        n_rim = len(self.rim)
+        self.m = np.concatenate([m, [c[0] for c in self.rim]]).astype(int)
+        self.is_sin = np.concatenate([is_sin, [c[1] for c in self.rim]]).astype(bool)
+        self.eigenvalues = np.concatenate([ev, np.full(n_rim, np.nan)])
+        self.n_index = np.concatenate([self.n_index, np.full(n_rim, -1)])
+        self.n_eigen = ev.size
+
+    def _rim_columns(self, harmonics):
+        """Extra columns for an unknown-flux end beside a temperature side, whose
+        eigenfunctions all vanish at the rim: per harmonic, a field with inflow flux
+        (r/a)^m Theta_m on the face (a corner-lifting term with unit rim flux and the far
+        end's rim condition homogeneous) plus the side and far-end series that restore the
+        homogeneous conditions there.  Without them the rim flux would be forced to zero."""
+        model, cyl = self.model, self.model.cylinder
+        cond = model.faces[self.face]
+        if (self.face == "side" or cond.kind != "N" or model.kinds["side"].kind != "D"
+                or cyl.semi_infinite):
+            return []
+        a, L, k = cyl.radius, cyl.height, model.k
+        far = "top" if self.face == "bottom" else "bottom"
+        fk = model.kinds[far]
+        out = []
+        for m in range(harmonics + 1):
+            for is_sin in ((False,) if m == 0 else (False, True)):
+                c = (a / L) ** 2 / (2.0 * m + 2.0)
+                rows = [end_rows(self.face, "N", 0.0, k, L, c), end_rows(far, fk.kind, fk.h, k, L, c)]
+                w = PolynomialLifting.from_terms(a, L, [(m, is_sin, solve_rim(rows, [1.0, 0.0]))])
+                fixes = []
+                for face in ("side", far):
+                    def data(u, v, face=face, w=w):
+                        r, th, z = model._face_points(face, u, v)
+                        shape = r.shape
+                        r, th, z = r.ravel(), th.ravel(), z.ravel()
+                        t = w.temperature(r, th, z)
+                        dn = model._normal_component(face, w.gradient(r, th, z))
+                        kind = model.kinds[face]
+                        b = {"D": t, "N": k * dn, "R": k * dn + kind.h * t}[kind.kind]
+                        return -b.reshape(shape)
+                    scale = {"D": L / k, "N": 1.0, "R": max(model.kinds[face].h, 1e-300) * L / k}[
+                        model.kinds[face].kind]
+                    series = KnownSeries(face, data, (a, L), model.kinds, k, tol=model.tolerance,
+                                         scale=scale, n_cap=model.max_terms,
+                                         max_harmonic=model.max_harmonic)
+                    if series.modes is not None:
+                        fixes.append(series)
+                out.append((m, is_sin, w, fixes))
+        return out
 
     @property
     def size(self):
@@ -324,12 +401,36 @@ class UnknownBasis:
     def fields(self, r, theta, z, gradient=False):
         """Temperature per unit coefficient (P, K) [K] and optionally the gradient (3, P, K)."""
         r, theta, z = self.model._check_points(r, theta, z)
-        return self.modes.fields(r.ravel(), theta.ravel(), z.ravel(), gradient=gradient)
+        r, theta, z = r.ravel(), theta.ravel(), z.ravel()
+        t, g = self.modes.fields(r, theta, z, gradient=gradient)
+        if not self.rim:
+            return t, g
+        tc, gc = [], []
+        for _, _, w, fixes in self.rim:
+            tw = w.temperature(r, theta, z)
+            gw = w.gradient(r, theta, z)
+            for s in fixes:
+                ts, gs, _ = s.evaluate(r, theta, z, gradient=gradient)
+                tw, gw = tw + ts, gw + gs
+            tc.append(tw), gc.append(gw)
+        t = np.concatenate([t, np.stack(tc, axis=1)], axis=1)
+        if gradient:
+            g = np.concatenate([g, np.stack(gc, axis=2)], axis=2)
+        return t, g
 
     def face_values(self, u, v):
-        """Phi_k at face coordinates (r, theta) or (theta, z): (Q, K)."""
+        """Phi_k at face coordinates (r, theta) or (theta, z): (Q, K); a rim column's face
+        function is (r/a)^m Theta_m."""
         u, v = np.broadcast_arrays(np.asarray(u, float).ravel(), np.asarray(v, float).ravel())
-        return self.modes.eigenfunctions(u, v)
+        phi = self.modes.eigenfunctions(u, v)
+        if not self.rim:
+            return phi
+        rho = (u / self.model.cylinder.radius)[:, None]
+        m = np.array([c[0] for c in self.rim])
+        s = np.array([c[1] for c in self.rim])
+        arg = np.multiply.outer(v, m)
+        extra = rho ** m * np.where(s, np.sin(arg), np.cos(arg))
+        return np.concatenate([phi, extra], axis=1)
 
     def known_face_values(self, u, v):
         """The face quantity carried by the known field (the lifting) at face coordinates (Q,)."""
@@ -338,16 +439,34 @@ class UnknownBasis:
         return self.model._lifting_operator(self.face, cond, u, v)
 
     def norms(self):
-        """integral of Phi_k^2 over the face [m^2]."""
-        return self.modes.norms()
+        """integral of Phi_k^2 over the face [m^2] (rim columns: (2 pi or pi) a^2 / (2 m + 2))."""
+        n = self.modes.norms()
+        if not self.rim:
+            return n
+        m = self.m[self.n_eigen:]
+        a = self.model.cylinder.radius
+        return np.concatenate([n, np.where(m == 0, 2 * np.pi, np.pi) * a * a / (2.0 * m + 2.0)])
 
     def surface_eigenvalues(self):
-        """-Laplacian_face Phi_k = ev_k Phi_k, ev_k [1/m^2]."""
-        return self.modes.surface_eigenvalues()
+        """-Laplacian_face Phi_k = ev_k Phi_k, ev_k [1/m^2] (rim columns, which are no
+        eigenfunctions, get (m / a)^2)."""
+        ev = self.modes.surface_eigenvalues()
+        if not self.rim:
+            return ev
+        return np.concatenate([ev, (self.m[self.n_eigen:] / self.model.cylinder.radius) ** 2])
 
     def powers(self):
-        """Heat INTO the part through the unknown face [W] per unit coefficient, (K,)."""
-        return self.modes.powers()[self.face]
+        """Heat INTO the part through the unknown face [W] per unit coefficient, (K,)
+        (NaN without a conductivity)."""
+        if not self.model.has_conductivity:
+            return np.full(self.size, np.nan)
+        p = self.modes.powers()[self.face]
+        if not self.rim:
+            return p
+        m = self.m[self.n_eigen:]
+        s = self.is_sin[self.n_eigen:]
+        a = self.model.cylinder.radius
+        return np.concatenate([p, np.where((m == 0) & ~s, np.pi * a * a, 0.0)])
 
     def known_power(self):
         """Heat INTO the part through the unknown face [W] from the known field."""

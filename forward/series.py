@@ -129,6 +129,9 @@ class KnownSeries:
         else:
             from .bessel import besselj
             norm = modes.norms() / np.where(m == 0, 2.0 * np.pi, np.pi)
+        # integral of the (residual) data over the face: only the m = 0 amplitude contributes
+        ring = w * s if self.face != "side" else w * self.a
+        self._data_integral = float(2.0 * np.pi * (ring @ amps_c[:, 0]))
         for g, (mg, sg) in enumerate(self.parities):
             sl = slice(g * n, (g + 1) * n)
             amp = (amps_s if sg else amps_c)[:, mg]  # (nq,)
@@ -179,7 +182,64 @@ class KnownSeries:
             self._build(2 * self.n_terms)
 
     def powers(self):
-        """Heat INTO the part [W] through each face from this sub-problem."""
+        """Heat INTO the part [W] through each face from this sub-problem.
+
+        The mode sums converge only like 1/N when the data do not vanish at an edge shared
+        with a temperature-kind face, so the data face's own power is taken from its data:
+        k du/dn = d ('N') or d - h u ('R') on that face, i.e. the integral of d over the face
+        (minus h times the integral of u, whose series converges faster).  The slowest
+        other face's power then follows from the sub-problem's balance (`_slow_face`).  A
+        temperature data face, or a case with no single slowest face, keeps the plain mode
+        sums (balanced, but slowly converging).
+        """
         if self.modes is None:
             return {}
-        return {f: float(p @ self.coef) for f, p in self.modes.powers().items()}
+        out = {f: float(p @ self.coef) for f, p in self.modes.powers().items()}
+        kind = self.kinds[self.face]
+        rest = self._slow_face()
+        if kind.kind == "D" or (0, False) not in self.parities or rest is None:
+            return out
+        own = self._data_integral
+        if kind.kind == "R":
+            own -= kind.h * float(self._face_temperature_integrals() @ self.coef)
+        out[self.face] = own
+        out[rest] = -sum(v for f, v in out.items() if f != rest)
+        return out
+
+    def _slow_face(self):
+        """The other face whose mode sum converges slowest (it takes up the balance), or None.
+
+        End-face data: the side, unless it is 'N' (its power is then zero mode by mode and
+        the far face takes it; None when semi-infinite).  Side data: the one 'D' end (its
+        axial functions vanish there while the data need not); with no 'D' end, the one 'R'
+        end opposite an 'N' end; None for two 'D' or two 'R' ends.
+        """
+        if self.face != "side":
+            if self.kinds["side"].kind != "N":
+                return "side"
+            far = "top" if self.face == "bottom" else "bottom"
+            return far if far in self.kinds and np.isfinite(self.L) else None
+        ends = {f: self.kinds[f].kind for f in ("bottom", "top")}
+        for kind in ("D", "R"):
+            hit = [f for f, k in ends.items() if k == kind]
+            if hit:
+                return hit[0] if len(hit) == 1 and (kind == "D" or "N" in ends.values()) else None
+        return None
+
+    def _face_temperature_integrals(self):
+        """integral over the data face of u per unit coefficient [K m^2] (m = 0 cos only)."""
+        modes = self.modes
+        axisym = (modes.m == 0) & ~modes.is_sin
+        t0 = modes.face_temperature_factor()
+        if self.face == "side":
+            beta, mu, phi = modes.beta, modes.mu, modes.phi
+            safe = np.where(beta > 0, beta, 1.0)
+            int_z = np.where(beta > 0, (np.cos(phi) - np.cos(mu + phi)) / safe, self.L * np.sin(phi))
+            area = 2.0 * np.pi * self.a * int_z
+        else:
+            from .bessel import besselj
+            lam = modes.lam
+            safe = np.where(lam > 0, lam, 1.0)
+            j1 = besselj(np.ones_like(modes.m), lam)
+            area = np.where(lam > 0, 2.0 * np.pi * self.a ** 2 * j1 / safe, np.pi * self.a ** 2)
+        return np.where(axisym, t0 * area, 0.0)

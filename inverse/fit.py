@@ -7,8 +7,8 @@ c ~ N(c0, (alpha P)^-1) with P_k = (N_k / A) (1 + a^2 ev_k)^s, N_k = integral Ph
 ev_k the face-Laplacian eigenvalue, s = 0 (size), 1 (gradient), 2 (curvature).
 c0 = gamma u, u = the fundamental eigenfunction (m = 0, first term: uniform where the
 face's edges are free, a smooth bump where a temperature neighbour pins the rim; a plain
-uniform profile would put a Gibbs step at such a rim) and gamma its
-generalized-least-squares level.  Strength alpha: evidence (then the posterior is
+uniform profile would put a Gibbs step at such a rim) or, for an unknown flux beside a
+temperature side, the uniform rim column; gamma is its generalized-least-squares level.  Strength alpha: evidence (then the posterior is
 averaged over alpha, see strength_average), GCV, L-curve, discrepancy or fixed.
 """
 
@@ -78,9 +78,13 @@ class _Design:
 
 
 def _nominal_direction(basis):
-    """Unit coefficients of the fundamental eigenfunction (m = 0 cos, first term)."""
+    """Unit coefficients of the nominal profile's shape: the uniform profile where the basis
+    holds it exactly (the m = 0 rim column of an unknown-flux face beside a temperature
+    side), else the fundamental eigenfunction (m = 0 cos, first term)."""
     u = np.zeros(basis.size)
-    u[np.flatnonzero((basis.m == 0) & ~basis.is_sin & (basis.n_index == 0))[0]] = 1.0
+    axisym = (basis.m == 0) & ~basis.is_sin
+    rim = np.flatnonzero(axisym & (basis.n_index == -1))
+    u[rim[0] if rim.size else np.flatnonzero(axisym & (basis.n_index == 0))[0]] = 1.0
     return u
 
 

@@ -1,0 +1,145 @@
+"""Corner lifting: a harmonic polynomial field that makes the face data of every sub-problem
+vanish where an end face meets a temperature-kind side.
+
+    w = sum_m rho^m Theta_m(theta) [alpha_m + beta_m zeta + gamma_m (zeta^2 - c_m rho^2)],
+    rho = r / a,  zeta = z / L,  c_m = (a / L)^2 / (2 m + 2).
+
+Each term is harmonic: r^m Theta_m is a 2-D harmonic, r^m Theta_m z is harmonic, and
+r^m Theta_m (z^2 - r^2 / (2 m + 2)) is harmonic because Laplacian(r^m Theta_m r^2) =
+(4 m + 4) r^m Theta_m and Laplacian(r^m Theta_m z^2) = 2 r^m Theta_m.
+
+At the rim (rho = 1) each end gives one condition per harmonic, by its kind:
+    'D'  rim temperature     w                   = E   (the side's temperature there)
+    'N'  rim heat flux in    k dw/dn             = Q   (the end's flux at the rim)
+    'R'  rim Robin data      k dw/dn + h w       = H   (h times the ambient at the rim)
+An end whose rim value is unknown (an unknown-flux face) gives no condition; its rim flux
+is carried by extra basis columns instead (`rim_columns`).  With the conditions met the
+residual data of the ends vanish at the rim, where the side's eigenfunctions vanish too,
+so the end series converge uniformly and an estimated face is not dragged to zero there.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+
+def end_rows(end: str, kind: str, h: float, k: float, L: float, c: float) -> np.ndarray:
+    """Row of the rim condition of one end on (alpha, beta, gamma)."""
+    if end == "bottom":  # zeta = 0, outward normal -z
+        w = np.array([1.0, 0.0, -c])
+        dn = np.array([0.0, -1.0, 0.0]) / L
+    else:  # zeta = 1, outward normal +z
+        w = np.array([1.0, 1.0, 1.0 - c])
+        dn = np.array([0.0, 1.0, 2.0]) / L
+    return {"D": w, "N": k * dn, "R": k * dn + h * w}[kind]
+
+
+def solve_rim(rows: list, values: list) -> np.ndarray:
+    """(alpha, beta, gamma) meeting the rim conditions; gamma = 0 whenever (alpha, beta) can."""
+    if not rows:
+        return np.zeros(3)
+    A = np.array(rows)
+    b = np.array(values, float)
+    two = A[:, :2]
+    if np.linalg.matrix_rank(two, tol=1e-12 * max(1.0, np.abs(two).max())) == len(rows):
+        ab = np.linalg.lstsq(two, b, rcond=None)[0]
+        return np.array([ab[0], ab[1], 0.0])
+    return np.linalg.lstsq(A, b, rcond=None)[0]
+
+
+@dataclass
+class PolynomialLifting:
+    """sum over terms of rho^m Theta_m [alpha + beta zeta + gamma (zeta^2 - c_m rho^2)]."""
+
+    radius: float
+    height: float
+    m: np.ndarray
+    is_sin: np.ndarray
+    alpha: np.ndarray
+    beta: np.ndarray
+    gamma: np.ndarray
+
+    @classmethod
+    def empty_lifting(cls, radius, height):
+        e = np.zeros(0)
+        return cls(radius, height, e.astype(int), e.astype(bool), e, e, e)
+
+    @classmethod
+    def from_terms(cls, radius, height, terms):
+        """From a list of (m, is_sin, (alpha, beta, gamma))."""
+        if not terms:
+            return cls.empty_lifting(radius, height)
+        m = np.array([t[0] for t in terms], dtype=int)
+        s = np.array([t[1] for t in terms], dtype=bool)
+        abc = np.array([t[2] for t in terms], dtype=float)
+        return cls(radius, height, m, s, abc[:, 0], abc[:, 1], abc[:, 2])
+
+    @property
+    def empty(self):
+        return self.m.size == 0
+
+    def _c(self):
+        if not math.isfinite(self.height):
+            return np.zeros(self.m.size)
+        return (self.radius / self.height) ** 2 / (2.0 * self.m + 2.0)
+
+    def _parts(self, r, theta, z):
+        a, L = self.radius, self.height
+        rho = (np.asarray(r, float) / a)[:, None]
+        arg = np.multiply.outer(np.asarray(theta, float), self.m)
+        th = np.where(self.is_sin, np.sin(arg), np.cos(arg))
+        dth_m = np.where(self.is_sin, np.cos(arg), -np.sin(arg))
+        if math.isfinite(L):
+            zeta = (np.asarray(z, float) / L)[:, None]
+        else:
+            zeta = np.zeros_like(rho)
+        return rho, zeta, th, dth_m
+
+    def temperature(self, r, theta, z):
+        if self.empty:
+            return np.zeros(np.asarray(r).shape)
+        return self.columns(r, theta, z)[0] @ np.ones(self.m.size)
+
+    def gradient(self, r, theta, z):
+        if self.empty:
+            return np.zeros((3,) + np.asarray(r).shape)
+        return self.columns(r, theta, z, gradient=True)[1] @ np.ones(self.m.size)
+
+    def columns(self, r, theta, z, gradient=False):
+        """Per-term temperature (P, J) and gradient (3, P, J) (d/dr, (1/r) d/dtheta, d/dz)."""
+        a, L = self.radius, self.height
+        rho, zeta, th, dth_m = self._parts(r, theta, z)
+        m, c = self.m, self._c()
+        poly = self.alpha + self.beta * zeta + self.gamma * (zeta ** 2 - c * rho ** 2)
+        pw = rho ** m
+        t = pw * th * poly
+        if not gradient:
+            return t, None
+        pw1 = np.where(m >= 1, rho ** np.maximum(m - 1, 0), 0.0)
+        d_poly_drho = -2.0 * c * self.gamma * rho
+        dr = (m * pw1 * poly + pw * d_poly_drho) * th / a
+        dtheta = m * pw1 * poly * dth_m / a
+        dz = pw * th * (self.beta + 2.0 * self.gamma * zeta) / (L if math.isfinite(L) else 1.0)
+        return t, np.stack([dr, dtheta, dz])
+
+    def power(self, face, conductivity):
+        """Heat INTO the part [W] through a face (m = 0 terms only carry any)."""
+        if self.empty:
+            return 0.0
+        a, L, k = self.radius, self.height, conductivity
+        sel = (self.m == 0) & ~self.is_sin
+        if not sel.any():
+            return 0.0
+        al, be, ga, c = self.alpha[sel], self.beta[sel], self.gamma[sel], self._c()[sel]
+        if not math.isfinite(L):
+            return 0.0
+        area = math.pi * a * a
+        if face == "bottom":  # -k dw/dz at z = 0 = -(k / L) beta, uniform
+            return float(np.sum(-k * be / L) * area)
+        if face == "top":  # k dw/dz at z = L = (k / L)(beta + 2 gamma)
+            return float(np.sum(k * (be + 2 * ga) / L) * area)
+        # side: k dw/dr at r = a = k (-2 c gamma) / a, uniform over the side area
+        return float(np.sum(-2.0 * k * c * ga / a) * 2.0 * math.pi * a * L)
