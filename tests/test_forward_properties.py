@@ -167,3 +167,67 @@ def test_interior_field_converged_to_tolerance(case):
     diff = np.abs(loose.temperature(r, th, z) - tight.temperature(r, th, z))
     assert diff.max() <= 1e-6 * loose.temperature_scale
     assert math.isfinite(loose.temperature_scale)
+
+
+@st.composite
+def semi_infinite_cases(draw):
+    k = draw(st.floats(2.0, 300.0))
+    bottom_kind = draw(st.sampled_from(KINDS))
+    side_kind = draw(st.sampled_from(("temperature", "convection", "insulated")))
+    assume(not (bottom_kind in ("flux", "insulated") and side_kind == "insulated"))
+    c = [draw(st.floats(-20.0, 20.0)) for _ in range(3)]
+    v = draw(st.floats(280.0, 450.0))
+    prof = _end_profile(v, c, 1.0) if draw(st.booleans()) else v
+    if bottom_kind == "temperature":
+        bottom = Temperature(prof)
+    elif bottom_kind == "flux":
+        bottom = Flux(draw(st.floats(-3.0e4, 3.0e4)))
+    elif bottom_kind == "insulated":
+        bottom = Insulated()
+    else:
+        bottom = Convection(10 ** draw(st.floats(0.5, 3.5)), prof)
+    ts = draw(st.floats(280.0, 400.0))
+    c2 = draw(st.floats(-15.0, 15.0))
+    side_prof = (lambda t, z: ts + c2 * np.cos(t) + 0.0 * z) if draw(st.booleans()) else ts
+    if side_kind == "temperature":
+        side = Temperature(side_prof)
+    elif side_kind == "convection":
+        side = Convection(10 ** draw(st.floats(0.5, 3.5)), side_prof)
+    else:
+        side = Insulated()
+    return k, {"bottom": bottom, "side": side}, draw(st.integers(0, 2**31 - 1))
+
+
+@settings(**{**SETTINGS, "max_examples": 8})
+@given(semi_infinite_cases())
+def test_semi_infinite_conditions_and_laplacian(case):
+    k, faces, seed = case
+    model = CylinderModel(Cylinder(A, math.inf, k), faces)
+    rng = np.random.default_rng(seed)
+    length = 3 * A  # region looked at
+    span = _span(model, length, rng)
+    # Laplacian (fourth-order central differences along z and x; textbook)
+    r, th, z = _interior_points(rng, length, 6)
+    h = 1e-3 * A
+    x, y = r * np.cos(th), r * np.sin(th)
+    w = [(-2, -1 / 12), (-1, 4 / 3), (0, -5 / 2), (1, 4 / 3), (2, -1 / 12)]
+    lap = 0.0
+    for axis in range(3):
+        for o, wgt in w:
+            p = [x.copy(), y.copy(), z.copy()]
+            p[axis] = p[axis] + o * h
+            lap = lap + wgt * model.temperature(np.hypot(p[0], p[1]), np.arctan2(p[1], p[0]), p[2])
+    assert np.abs(lap).max() / h ** 2 * A * A <= 1e-5 * span
+    # face conditions away from the rim
+    for face, cond in faces.items():
+        r, th, z = _face_points(face, length, rng)
+        fv = model.evaluate(r, th, z)
+        dtdn = -fv.gradient[2] if face == "bottom" else fv.gradient[0]
+        u, v = (th, z) if face == "side" else (r, th)
+        if cond.condition == "temperature":
+            assert np.abs(fv.temperature - cond.data(u, v)).max() <= 5e-3 * span
+        elif cond.kind == "N":
+            assert np.abs(k * dtdn - cond.data(u, v)).max() <= 2e-2 * k * span / A
+        else:
+            res = -k * dtdn - (cond.h * fv.temperature - cond.data(u, v))
+            assert np.abs(res).max() <= 2e-2 * (k * span / A + cond.h * span)
