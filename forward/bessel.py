@@ -19,6 +19,7 @@ import numpy as np
 from scipy import special
 
 STEP = 1.0 / 20.0
+# Nodes where the two seeds underflow (x well below the order) are evaluated order by order.
 
 
 class _JTable:
@@ -34,6 +35,13 @@ class _JTable:
         vals[top - 1, 1:] = special.jv(top - 1, xs)
         for m in range(top - 1, 0, -1):
             vals[m - 1, 1:] = (2.0 * m / xs) * vals[m, 1:] - vals[m + 1, 1:]
+        # Where the top seeds underflow (small x, high order) the recurrence carries no
+        # information: evaluate those nodes order by order instead.
+        weak = np.flatnonzero(np.abs(vals[top - 1, 1:]) < 1e-250) + 1
+        if weak.size:
+            xw = x[weak]
+            for m in range(top + 1):
+                vals[m, weak] = special.jv(m, xw)
         vals[:, 0] = 0.0
         vals[0, 0] = 1.0
 
@@ -80,7 +88,7 @@ def _get_table(max_order: int, max_arg: float) -> _JTable:
         t = _table
         if t is None or t.max_order < max_order or t.max_arg < max_arg:
             new_order = max(max_order, t.max_order if t else 0)
-            new_order = int(8 * np.ceil((new_order + 1) / 8))
+            new_order = max(int(8 * np.ceil((new_order + 1) / 8)), 2 * (t.max_order if t else 0), 16)
             new_arg = max(max_arg, t.max_arg if t else 0.0)
             new_arg = float(2.0 ** np.ceil(np.log2(new_arg + 64.0)))
             t = _table = _JTable(new_order, new_arg)

@@ -133,6 +133,8 @@ class Convection(FaceCondition):
                 f"heat-transfer coefficient h must be a positive number in W/(m^2*K), got {self.h_value!r}")
         object.__setattr__(self, "h_value", h)
         object.__setattr__(self, "ambient", _check_datum(self.ambient, "ambient temperature"))
+        if not callable(self.ambient) and self.ambient <= 0:
+            raise ForwardModelError(f"ambient temperature must be above absolute zero, got {self.ambient} K")
 
     @property
     def h(self):

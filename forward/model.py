@@ -153,6 +153,28 @@ class CylinderModel:
             return None
         return cond.kind, cond.h, cond.data(np.full_like(th, cyl.radius), th)
 
+    def _reference_lifting(self):
+        """A constant T_ref when no face pins the rim temperature (side not 'D'), so data are
+        expanded as differences from it rather than in absolute kelvin: the side's uniform
+        ambient (a convection side then needs no series), else a uniform end temperature,
+        else a uniform end ambient."""
+        cyl, faces = self.cylinder, self.faces
+        side = faces["side"]
+        ref = None
+        if side.kind == "R" and not callable(side.ambient):
+            ref = float(side.ambient)
+        for end in ("bottom", "top"):
+            cond = faces.get(end)
+            if ref is None and isinstance(cond, Temperature) and not callable(cond.value):
+                ref = float(cond.value)
+        for end in ("bottom", "top"):
+            cond = faces.get(end)
+            if ref is None and cond is not None and cond.kind == "R" and not callable(cond.ambient):
+                ref = float(cond.ambient)
+        if ref is None:
+            return Lifting.zero(cyl.radius, cyl.height)
+        return PolynomialLifting.from_terms(cyl.radius, cyl.height, [(0, False, (ref, 0.0, 0.0))])
+
     def _corner_lifting(self):
         """PolynomialLifting meeting the rim conditions of both ends (side of kind 'D')."""
         cyl, tol, k = self.cylinder, self.tolerance, self.k
@@ -199,7 +221,7 @@ class CylinderModel:
         elif side.kind == "D":
             self.lifting = self._corner_lifting()
         else:
-            self.lifting = Lifting.zero(a, L)
+            self.lifting = self._reference_lifting()
         self.temperature_scale = self._temperature_scale()
         self.series = []
         for face, cond in faces.items():
