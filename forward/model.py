@@ -18,7 +18,6 @@ from .faces import FaceCondition, Flux, Temperature
 from .geometry import Cylinder
 from .harmonics import harmonic_amplitudes, theta_nodes
 from .corners import PolynomialLifting, end_rows, solve_rim
-from .lifting import Lifting
 from .modes import EndCondition, EndFaceModes, SideModes
 from .roots import axial_eigenvalues, radial_eigenvalues
 from .series import KnownSeries, _gauss
@@ -172,7 +171,7 @@ class CylinderModel:
             if ref is None and cond is not None and cond.kind == "R" and not callable(cond.ambient):
                 ref = float(cond.ambient)
         if ref is None:
-            return Lifting.zero(cyl.radius, cyl.height)
+            return PolynomialLifting.empty_lifting(cyl.radius, cyl.height)
         return PolynomialLifting.from_terms(cyl.radius, cyl.height, [(0, False, (ref, 0.0, 0.0))])
 
     def _corner_lifting(self):
@@ -204,20 +203,16 @@ class CylinderModel:
         if cyl.semi_infinite and not side.unknown:
             th = theta_nodes(2 * self.max_harmonic + 2)
             am, bm = harmonic_amplitudes(side.data(th, np.zeros_like(th)), axis=-1)
-            ms, sins, alpha = [], [], []
+            terms = []
             for m in range(am.size):
                 for is_sin, amp in ((False, am[m]), (True, bm[m])):
                     if (is_sin and m == 0) or abs(amp) <= tol * max(np.abs(am).max(), 1e-300):
                         continue
                     # B_side[(r/a)^m] = 1 ('D'), k m / a ('N'), k m / a + h ('R')
                     b = {"D": 1.0, "N": k * m / a, "R": k * m / a + side.h}[side.kind]
-                    ms.append(m), sins.append(is_sin), alpha.append(amp / b)
-            self.lifting = Lifting.two_dimensional(a, ms, sins, alpha)
-        elif side.kind == "D" and cyl.semi_infinite:
-            th = theta_nodes(2 * self.max_harmonic + 2)
-            row = self._rim_row("bottom", th)
-            values = row[2] if row is not None and row[0] == "D" else None
-            self.lifting = Lifting.from_rim_values(a, L, values, None, tol, self.max_harmonic)
+                    terms.append((m, is_sin, (amp / b, 0.0, 0.0)))
+            # z-independent: carries the (z-uniform) side data of a semi-infinite part exactly
+            self.lifting = PolynomialLifting.from_terms(a, L, terms)
         elif side.kind == "D":
             self.lifting = self._corner_lifting()
         else:
