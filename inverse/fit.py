@@ -226,7 +226,9 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
 
     mc = None
     if monte_carlo:
-        mc = _monte_carlo(design, rd, kept, P, final, choice.alpha, int(monte_carlo), seed, grid, progress)
+        avg = post.averaged
+        alphas = (avg._a, avg._w) if avg is not None else (np.array([choice.alpha]), np.ones(1))
+        mc = _monte_carlo(design, rd, kept, P, final, alphas, int(monte_carlo), seed, grid, progress)
 
     result = FitResult.build(case=case, design=design, face=face, readings=rd, kept=kept, problem=final,
                            choice=choice, posterior=post, sensors=table, set_aside=set_aside,
@@ -311,8 +313,10 @@ def _calibrate(design, rd, kept, problem, alpha, P, calibrate):
     return post, info, new_design
 
 
-def _monte_carlo(design, rd, kept, P, problem, alpha, draws, seed, grid, progress):
-    """Draws of the face profile with sensor positions perturbed within their tolerance."""
+def _monte_carlo(design, rd, kept, P, problem, alphas, draws, seed, grid, progress):
+    """Draws of the face profile with sensor positions perturbed within their tolerance
+    (uniform in +-tol), the strength alpha drawn from its evidence weights (alphas =
+    (grid, weights); one value for a fixed strength) and c from its posterior given both."""
     rng = np.random.default_rng(seed)
     sub = rd.subset(kept)
     face = design.basis.face
@@ -330,6 +334,7 @@ def _monte_carlo(design, rd, kept, P, problem, alpha, draws, seed, grid, progres
         z = np.clip(z, 0.0, L) if math.isfinite(L) else np.maximum(z, 0.0)
         G, t0, _, _ = design.at(r, th, z)
         pb = LinearGaussianProblem(G, sub.temperature, t0, problem.noise, P, c0=problem.c0)
+        alpha = float(rng.choice(alphas[0], p=alphas[1]))
         c = pb.coefficients(alpha)
         C = pb.posterior_covariance(alpha)
         Lc = np.linalg.cholesky(C + 1e-12 * np.trace(C) / C.shape[0] * np.eye(C.shape[0]))
