@@ -77,40 +77,41 @@ class FaceCondition:
         return True
 
 
+class _ValueCondition(FaceCondition):
+    """A condition whose data is its `value` (uniform number or profile)."""
+
+    what = "value"
+
+    def __post_init__(self):
+        object.__setattr__(self, "value", _check_datum(self.value, self.what))
+
+    def data(self, u, v):
+        return evaluate_datum(self.value, u, v)
+
+    @property
+    def is_uniform(self):
+        return not callable(self.value)
+
+
 @dataclass(frozen=True)
-class Temperature(FaceCondition):
+class Temperature(_ValueCondition):
     value: Datum
     kind = "D"
     condition = "temperature"
+    what = "temperature value"
 
     def __post_init__(self):
-        object.__setattr__(self, "value", _check_datum(self.value, "temperature value"))
+        super().__post_init__()
         if not callable(self.value) and self.value <= 0:
             raise ForwardModelError(f"temperature must be above absolute zero, got {self.value} K")
 
-    def data(self, u, v):
-        return evaluate_datum(self.value, u, v)
-
-    @property
-    def is_uniform(self):
-        return not callable(self.value)
-
 
 @dataclass(frozen=True)
-class Flux(FaceCondition):
+class Flux(_ValueCondition):
     value: Datum
     kind = "N"
     condition = "flux"
-
-    def __post_init__(self):
-        object.__setattr__(self, "value", _check_datum(self.value, "heat-flux value"))
-
-    def data(self, u, v):
-        return evaluate_datum(self.value, u, v)
-
-    @property
-    def is_uniform(self):
-        return not callable(self.value)
+    what = "heat-flux value"
 
 
 @dataclass(frozen=True)
