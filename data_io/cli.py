@@ -197,11 +197,17 @@ def _add_demo(sub) -> None:
     add_demo(sub)
 
 
+def _add_trend(sub) -> None:
+    from .trend_command import add_trend
+    add_trend(sub)
+
+
 COMMANDS = [
     ("fit", _add_fit),
     ("simulate", _add_simulate),
     ("check", _add_check),
     ("demo", _add_demo),
+    ("trend", _add_trend),
 ]
 
 

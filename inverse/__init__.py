@@ -18,3 +18,10 @@ from .readings import SensorReadings  # noqa: E402
 from .result import FitResult, Posterior  # noqa: E402
 
 __all__ += ["fit", "prior_diagonal", "SensorReadings", "FitResult", "Posterior"]
+
+from .batch import BatchEstimates, BatchSolver, change_threshold, face_functionals  # noqa: E402
+from .steady import WindowStats, window_index  # noqa: E402
+from . import steady  # noqa: E402
+
+__all__ += ["BatchEstimates", "BatchSolver", "change_threshold", "face_functionals", "WindowStats",
+            "window_index", "steady"]

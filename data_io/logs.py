@@ -1,0 +1,525 @@
+"""Logged readings read in chunks, so that a log larger than memory can be processed.
+
+A log is a CSV file: a time column (seconds, another time unit in brackets such as
+``time [min]``, or ISO 8601 timestamps), then one column per sensor id with an optional
+temperature unit in brackets (``TC1 [degF]``; default degC), as `tables.read_log` reads it
+whole.  Here the header is parsed once (`open_log`) and the body streamed with
+pandas.read_csv(chunksize=...) (`LogReader`), each chunk validated as it arrives:
+
+- refused (InputError naming the file, line and column): times that are missing, not
+  numbers / timestamps, repeated (a duplicated timestamp) or going back (an unsorted log,
+  also across chunk boundaries); text in a sensor column that is not a number (empty
+  cells, NaN, N/A and inf mean "no reading"); ragged lines; a log sharing no sensor with
+  the layout.
+- kept with a warning: a column that is not a sensor of the layout (loggers record other
+  channels; it is ignored), a layout sensor missing from the log, missing readings, readings
+  at or below absolute zero or outside the thermocouple type's usable range (open-circuit
+  codes of loggers; they become missing readings), gaps in time.
+
+Values leave in SI: seconds (from the first row for timestamps, else the log's own times
+in s) and kelvin.  `WindowAccumulator` turns the stream into steady-window statistics
+(inverse.steady) with a carry-over of the window that spans a chunk boundary, so memory
+stays bounded by one chunk plus one window.
+"""
+
+from __future__ import annotations
+
+import csv
+import difflib
+import io
+import math
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from inverse.steady import WindowStats, summarize, window_index
+
+from . import thermocouples as tc
+from .errors import InputError
+from .tables import _NONFINITE_WORDS
+from .units import column_unit, convert, split_header
+
+#: rows per chunk (bounded memory: about 30 MB for 32 sensors)
+DEFAULT_CHUNK_ROWS = 100_000
+#: a time step longer than this many typical steps is reported as a gap (common practice, no source)
+GAP_FACTOR = 5.0
+#: at most this many examples are named in one warning
+EXAMPLES = 3
+_OFFSET = re.compile(r"(?:Z|[+-]\d\d(?::?\d\d)?)\s*$", re.IGNORECASE)
+
+
+def _plural(n: int, word: str) -> str:
+    return f"{n} {word}{'' if n == 1 else 's'}"
+
+
+@dataclass
+class LogColumns:
+    """The header of a log: where each used sensor column is and how to convert it.
+
+    sensors: ids of the layout sensors found in the log (log order); positions: their
+    0-based column numbers; scale, shift: K = shift + scale * value; time_scale: seconds per
+    time unit (None for timestamps); ignored: headers that are not sensors of the layout;
+    absent: layout sensors missing from the log.
+    """
+
+    path: Path
+    header_line: int
+    headers: list
+    time_header: str
+    time_scale: float | None
+    sensors: list
+    positions: list
+    scale: np.ndarray
+    shift: np.ndarray
+    ignored: list = field(default_factory=list)
+    absent: list = field(default_factory=list)
+    warnings: list = field(default_factory=list)
+
+    @property
+    def n(self) -> int:
+        return len(self.sensors)
+
+
+def _header_line(path: Path) -> tuple[int, str]:
+    if not path.exists():
+        raise InputError("file not found", file=path)
+    if path.is_dir():
+        raise InputError("is a folder; expected a CSV file", file=path)
+    try:
+        with open(path, encoding="utf-8-sig", newline="") as fh:
+            for number, line in enumerate(fh, start=1):
+                if line.strip():
+                    return number, line
+    except UnicodeDecodeError as exc:
+        raise InputError(f"is not UTF-8 text (byte {exc.start}); save the CSV as UTF-8", file=path) from None
+    except OSError as exc:
+        raise InputError(f"cannot read the file ({exc.strerror or exc})", file=path) from None
+    raise InputError("the file is empty; expected a header line and rows", file=path)
+
+
+def open_log(path, layout) -> LogColumns:
+    """Parse and check the header of a log against a layout Table (units, sensor ids)."""
+    path = Path(path)
+    number, line = _header_line(path)
+    headers = [h.strip() for h in next(csv.reader([line], skipinitialspace=True))]
+    where = f"line {number}"
+    if len(headers) == 1 and (";" in headers[0] or "\t" in headers[0]):
+        sep = "semicolons" if ";" in headers[0] else "tabs"
+        raise InputError(f"{where}: the fields seem separated by {sep}; separate them with commas", file=path)
+    if len(headers) < 2:
+        raise InputError("a log needs a time column and at least one sensor column", file=path, where=where)
+    lay = layout.frame
+    parsed = []
+    for col, h in enumerate(headers):
+        if h == "":
+            raise InputError(f"column {col + 1}: empty column header", file=path, where=where)
+        try:
+            parsed.append(split_header(h))
+        except ValueError as exc:
+            raise InputError(str(exc), file=path, where=where) from None
+    time_name, time_unit = parsed[0]
+    if time_name in lay.index:
+        raise InputError(f"the first column '{headers[0]}' is a sensor; a log starts with a time column",
+                         file=path, where=where)
+    time_scale = None
+    if time_unit is not None:
+        unit = column_unit(time_unit, "time", f"{where}, column '{headers[0]}'", file=path)
+        time_scale = float(convert(1.0, unit, "time"))
+    seen: dict[str, int] = {}
+    sensors, positions, scale, shift, ignored = [], [], [], [], []
+    for col in range(1, len(headers)):
+        sid, unit_text = parsed[col]
+        if sid in seen:
+            raise InputError(f"sensor '{sid}' appears twice in the header (columns {seen[sid] + 1} and "
+                             f"{col + 1})", file=path, where=where)
+        seen[sid] = col
+        if sid not in lay.index:
+            ignored.append(headers[col])
+            continue
+        unit = column_unit(unit_text, "temperature", f"{where}, column '{headers[col]}'", file=path)
+        k0, k1 = (float(convert(x, unit, "temperature")) for x in (0.0, 1.0))
+        sensors.append(sid), positions.append(col), shift.append(k0), scale.append(k1 - k0)
+    warnings = []
+    if not sensors:
+        raise InputError(f"none of the log's columns ({', '.join(headers[1:])}) is a sensor of the layout "
+                         f"({layout.path})", file=path, where=where)
+    for h in ignored:
+        close = difflib.get_close_matches(split_header(h)[0], list(lay.index), n=1)
+        hint = f" (did you mean '{close[0]}'?)" if close else ""
+        warnings.append(f"{path}: column '{h}' is not a sensor of the layout; ignored{hint}")
+    absent = [s for s in lay.index if s not in seen]
+    if absent:
+        warnings.append(f"{path}: no column for sensor{'s' if len(absent) > 1 else ''} {', '.join(absent)} "
+                        f"of the layout; the trend uses the others")
+    return LogColumns(path, number, headers, headers[0], time_scale, sensors, positions, np.array(scale),
+                      np.array(shift), ignored, absent, warnings)
+
+
+def count_rows(path) -> int:
+    """Number of lines of a file (an upper bound of its data rows + 1), counted in blocks."""
+    n, last = 0, b"\n"
+    with open(path, "rb") as fh:
+        while block := fh.read(1 << 24):
+            n += block.count(b"\n")
+            last = block[-1:]
+    return n + (last != b"\n")
+
+
+@dataclass
+class LogChunk:
+    """Validated rows: times (R,) [s], values (R, n) [K] (NaN = no reading), lines (R,) file
+    line numbers."""
+
+    times: np.ndarray
+    values: np.ndarray
+    lines: np.ndarray
+
+
+class LogReader:
+    """Iterate over validated LogChunks of a log; afterwards `warnings()` says what was
+    missing, out of range or irregular.  `timestamps` tells whether the log had ISO times;
+    `iso(seconds)` turns times back into ISO 8601 text (UTC with 'Z' for times with an offset)."""
+
+    def __init__(self, columns: LogColumns, layout, chunk_rows: int = DEFAULT_CHUNK_ROWS):
+        self.cols = columns
+        self.chunk_rows = int(chunk_rows)
+        self.rows = 0
+        self.timestamps: bool | None = None
+        self.aware = False
+        self.origin_ns = 0
+        self._last_t, self._last_line = None, None
+        self._step = None
+        n = columns.n
+        self.missing = np.zeros(n, np.int64)
+        self.out_of_range = np.zeros(n, np.int64)
+        self._range_first: list = [None] * n
+        lay = layout.frame
+        lo, hi = np.zeros(n), np.full(n, np.inf)
+        for i, s in enumerate(columns.sensors):
+            typ = lay.at[s, "type"]
+            if typ:
+                lo[i], hi[i] = tc.usable_range_k(typ)
+        self._lo, self._hi = lo, hi
+        self._types = [lay.at[s, "type"] for s in columns.sensors]
+        self.gaps, self._gap_examples, self._gap_largest = 0, [], 0.0
+
+    # ---------------------------------------------------------------- iteration
+    def __iter__(self):
+        cols = self.cols
+        try:
+            reader = pd.read_csv(cols.path, header=None, skiprows=cols.header_line,
+                                 names=list(range(len(cols.headers))), skip_blank_lines=False,
+                                 skipinitialspace=True, chunksize=self.chunk_rows, encoding="utf-8-sig",
+                                 engine="c")
+            with reader:
+                for frame in reader:
+                    chunk = self._chunk(frame)
+                    if chunk is not None:
+                        yield chunk
+        except pd.errors.ParserError as exc:
+            msg = str(exc).replace("Error tokenizing data. C error: ", "").strip()
+            raise InputError(f"malformed CSV ({msg}); every line needs the same number of comma-separated "
+                             f"fields as the header", file=cols.path) from None
+        except UnicodeDecodeError as exc:
+            raise InputError(f"is not UTF-8 text (byte {exc.start}); save the CSV as UTF-8", file=cols.path) from None
+        if self.rows == 0:
+            raise InputError("no data rows below the header", file=cols.path)
+
+    def _error(self, problem, line, col):
+        where = f"line {int(line)}, column '{self.cols.headers[col]}'"
+        return InputError(problem, file=self.cols.path, where=where)
+
+    def _chunk(self, frame: pd.DataFrame) -> LogChunk | None:
+        lines = frame.index.to_numpy(np.int64) + self.cols.header_line + 1
+        blank = frame.isna().all(axis=1).to_numpy()
+        if blank.all():
+            return None
+        if blank.any():
+            frame, lines = frame.loc[~blank], lines[~blank]
+        t = self._times(frame[0], lines)
+        self._check_order(t, lines)
+        values = np.empty((len(frame), self.cols.n))
+        for i, col in enumerate(self.cols.positions):
+            values[:, i] = self._sensor(frame[col], lines, col)
+        values = self._screen(values, lines)
+        self.missing += np.isnan(values).sum(axis=0)
+        self._note_gaps(t, lines)
+        self.rows += t.size
+        return LogChunk(t, values, lines)
+
+    def _times(self, series: pd.Series, lines) -> np.ndarray:
+        cols = self.cols
+        missing = series.isna().to_numpy()
+        if missing.any():
+            raise self._error("missing time", lines[np.argmax(missing)], 0)
+        if self.timestamps is None:
+            numeric = pd.api.types.is_numeric_dtype(series.dtype) or bool(
+                pd.to_numeric(series, errors="coerce").notna().all())
+            self.timestamps = not numeric
+            if self.timestamps and cols.time_scale is not None:
+                raise InputError(f"timestamps need no unit in the header; found '{cols.time_header}' but the "
+                                 f"values are not numbers", file=cols.path, where=f"line {cols.header_line}")
+        if not self.timestamps:
+            t = pd.to_numeric(series, errors="coerce").to_numpy(float)
+            bad = ~np.isfinite(t)
+            if bad.any():
+                i = int(np.argmax(bad))
+                raise self._error(f"{series.iloc[i]!r} is not a number of seconds (the log's first rows "
+                                  f"have numeric times)", lines[i], 0)
+            return t * (cols.time_scale or 1.0)
+        return self._stamps(series.astype(str), lines)
+
+    def _stamps(self, text: pd.Series, lines) -> np.ndarray:
+        try:
+            ts = pd.to_datetime(text, format="ISO8601", errors="coerce")
+        except ValueError:          # offsets differ between rows (e.g. a change of summer time)
+            has = text.str.contains(_OFFSET).to_numpy()
+            if not has.all():
+                i = int(np.argmin(has))
+                raise self._error("timestamps mix times with and without a UTC offset", lines[i], 0) from None
+            ts = pd.to_datetime(text, format="ISO8601", errors="coerce", utc=True)
+        bad = ts.isna().to_numpy()
+        if bad.any():
+            i = int(np.argmax(bad))
+            raise self._error(f"{text.iloc[i]!r} is neither a number of seconds nor an ISO 8601 timestamp "
+                              f"(e.g. 2024-05-01T08:30:00)", lines[i], 0)
+        aware = ts.dt.tz is not None
+        if self.rows == 0 and self._last_t is None:
+            self.aware = aware
+        elif aware != self.aware:
+            raise self._error("timestamps mix times with and without a UTC offset", lines[0], 0)
+        if aware:
+            ts = ts.dt.tz_convert("UTC").dt.tz_localize(None)
+        ns = ts.to_numpy("datetime64[ns]").astype(np.int64)
+        if self._last_t is None:
+            self.origin_ns = int(ns[0])
+        return (ns - self.origin_ns) / 1e9
+
+    def _check_order(self, t, lines):
+        prev_t = np.r_[self._last_t if self._last_t is not None else -np.inf, t[:-1]]
+        prev_line = np.r_[self._last_line if self._last_line is not None else 0, lines[:-1]]
+        bad = np.flatnonzero(t <= prev_t)
+        if bad.size:
+            i = int(bad[0])
+            if t[i] == prev_t[i]:
+                raise self._error(f"duplicated time: the same as line {int(prev_line[i])}; every row needs "
+                                  f"its own time", lines[i], 0)
+            raise self._error(f"time goes back (earlier than line {int(prev_line[i])}); times must increase: "
+                              f"sort the log by time", lines[i], 0)
+        self._last_t, self._last_line = float(t[-1]), int(lines[-1])
+
+    def _sensor(self, series: pd.Series, lines, col) -> np.ndarray:
+        scale, shift = self.cols.scale, self.cols.shift
+        i = self.cols.positions.index(col)
+        if pd.api.types.is_numeric_dtype(series.dtype):
+            x = series.to_numpy(float)
+        else:
+            x = pd.to_numeric(series, errors="coerce").to_numpy(float)
+            bad = np.isnan(x) & series.notna().to_numpy()
+            if bad.any():
+                words = series[bad].astype(str).str.strip().str.lower()
+                unknown = ~words.isin(_NONFINITE_WORDS).to_numpy()
+                if unknown.any():
+                    j = int(np.flatnonzero(bad)[np.argmax(unknown)])
+                    raise self._error(f"{str(series.iloc[j]).strip()!r} is not a number; expected a temperature "
+                                      f"(leave the cell empty or write NaN for a missing reading)", lines[j], col)
+        x = np.where(np.isfinite(x), x, np.nan)
+        return shift[i] + scale[i] * x
+
+    def _screen(self, values, lines):
+        """Readings at or below absolute zero or outside the type's range become missing."""
+        with np.errstate(invalid="ignore"):
+            bad = (values <= 0) | (values < self._lo) | (values > self._hi)
+        if bad.any():
+            for i in np.flatnonzero(bad.any(axis=0)):
+                rows = np.flatnonzero(bad[:, i])
+                self.out_of_range[i] += rows.size
+                if self._range_first[i] is None:
+                    self._range_first[i] = (int(lines[rows[0]]), float(values[rows[0], i]))
+            values = np.where(bad, np.nan, values)
+        return values
+
+    def _note_gaps(self, t, lines):
+        if t.size < 2 and self._step is None:
+            return
+        if self._step is None:
+            self._step = float(np.median(np.diff(t)))
+        dt = np.diff(t)
+        big = np.flatnonzero(dt > GAP_FACTOR * self._step)
+        if big.size:
+            self.gaps += big.size
+            self._gap_largest = max(self._gap_largest, float(dt[big].max()))
+            for j in big[: max(0, EXAMPLES - len(self._gap_examples))]:
+                self._gap_examples.append((int(lines[j]), int(lines[j + 1]), float(dt[j])))
+
+    # ---------------------------------------------------------------- reporting
+    def warnings(self) -> list[str]:
+        cols, out = self.cols, []
+        path = cols.path
+        for i, s in enumerate(cols.sensors):
+            n_bad = int(self.out_of_range[i])
+            if n_bad:
+                line, value = self._range_first[i]
+                why = (f"outside the range of a type {self._types[i]} thermocouple" if self._types[i]
+                       else "at or below absolute zero")
+                out.append(f"{path}: sensor '{s}' has {_plural(n_bad, 'reading')} {why} (first at line {line}: "
+                           f"{value - tc.KELVIN_OFFSET:.1f} degC), likely an open circuit; treated as missing")
+            n_missing = int(self.missing[i]) - n_bad
+            if self.rows and int(self.missing[i]) == self.rows:
+                out.append(f"{path}: sensor '{s}' has no valid reading")
+            elif n_missing > 0:
+                out.append(f"{path}: sensor '{s}' has {_plural(n_missing, 'empty, NaN or inf reading')} (missing)")
+        if self.gaps:
+            examples = ", ".join(f"lines {a}-{b} ({d:.4g} s)" for a, b, d in self._gap_examples)
+            out.append(f"{path}: {_plural(self.gaps, 'gap')} in time longer than {GAP_FACTOR:g} typical steps "
+                       f"of {self._step:.4g} s (largest {self._gap_largest:.4g} s; {examples}); windows across a "
+                       f"gap count as steady only if their samples still span half the window")
+        return out
+
+    def iso(self, seconds) -> np.ndarray:
+        """ISO 8601 text of times in s since the first row (timestamp logs only)."""
+        s = np.asarray(seconds, float)
+        ns = self.origin_ns + np.rint(s * 1e9).astype(np.int64)
+        whole = bool(np.all(ns % 1_000_000_000 == 0))
+        text = np.datetime_as_string(ns.astype("datetime64[ns]"), unit="s" if whole else "ms")
+        return np.char.add(text, "Z") if self.aware else text
+
+
+class WindowAccumulator:
+    """Steady-window statistics of a stream of chunks: windows of `window` s from the first
+    time; complete windows are summarized as chunks arrive, the window spanning a chunk
+    boundary is carried over.  `stats` holds every window finished so far."""
+
+    def __init__(self, n_sensors: int, window: float):
+        self.window = float(window)
+        self.n = int(n_sensors)
+        self.origin = None
+        self._parts: list[WindowStats] = []
+        self._carry_t = np.zeros(0)
+        self._carry_x = np.zeros((0, self.n))
+        self._stats: WindowStats | None = None
+
+    def add(self, times, values) -> None:
+        if self.origin is None and len(times):
+            self.origin = float(times[0])
+        t = np.concatenate([self._carry_t, times]) if self._carry_t.size else np.asarray(times, float)
+        x = np.concatenate([self._carry_x, values]) if self._carry_x.size else np.asarray(values, float)
+        if t.size == 0:
+            return
+        idx = window_index(t, self.origin, self.window)
+        done = int(np.searchsorted(idx, idx[-1], side="left"))
+        if done:
+            self._parts.append(summarize(t[:done], x[:done], idx[:done], self.window))
+            self._stats = None
+        self._carry_t, self._carry_x = t[done:].copy(), x[done:].copy()
+
+    def finish(self) -> None:
+        if self._carry_t.size:
+            idx = window_index(self._carry_t, self.origin, self.window)
+            self._parts.append(summarize(self._carry_t, self._carry_x, idx, self.window))
+            self._stats = None
+        self._carry_t, self._carry_x = np.zeros(0), np.zeros((0, self.n))
+
+    @property
+    def stats(self) -> WindowStats:
+        if self._stats is None:
+            self._stats = WindowStats.concat(self._parts) if self._parts else WindowStats.empty(self.n, self.window)
+            self._parts = [self._stats]
+        return self._stats
+
+
+def csv_header(names) -> str:
+    """One CSV header line (quoted where needed), for writers that stream rows."""
+    buf = io.StringIO()
+    csv.writer(buf, lineterminator="\n").writerow(names)
+    return buf.getvalue()
+
+
+_LOW = np.array([(1 << (8 * k)) - 1 for k in range(8)] + [(1 << 64) - 1], np.uint64)  # low k bytes set
+_ZEROS = np.uint64(0x3030303030303030)
+
+
+def _eight_digits(v: np.ndarray) -> np.ndarray:
+    """Eight ASCII digits of each v < 10^8 (uint64) packed in one uint64, the most
+    significant digit in the lowest byte (so that a little-endian byte view reads left to
+    right).  Lane arithmetic: split into 4-, 2- and 1-digit lanes by multiply-and-shift
+    divisions that stay exact for these ranges, then add '0' to every byte."""
+    u64 = np.uint64
+    hi = v // u64(10_000)
+    x = hi | ((v - hi * u64(10_000)) << u64(32))                       # two lanes < 10^4
+    hi = ((x * u64(5243)) >> u64(19)) & u64(0x0000007F0000007F)         # lane // 100
+    x = hi | ((x - hi * u64(100)) << u64(16))                           # four lanes < 100
+    hi = ((x * u64(103)) >> u64(10)) & u64(0x000F000F000F000F)          # lane // 10
+    x = hi | ((x - hi * u64(10)) << u64(8))                             # eight digits
+    return x + _ZEROS
+
+
+def number_cells(x, significant: int = 9) -> np.ndarray:
+    """Decimal text of a float column as a byte matrix (R, width), 0 = padding: fixed decimals
+    giving `significant` digits at the column's largest magnitude, leading and trailing zeros
+    trimmed, NaN as an empty cell.  Vectorized: a million numbers take a few hundredths of a
+    second (pandas' writer needs about a microsecond per number)."""
+    x = np.asarray(x, float)
+    if x.size > 1 and (x[0] == x).all():       # a constant column (e.g. an sd shared by the rows)
+        return np.repeat(number_cells(x[:1], significant), x.size, axis=0)
+    fin = np.isfinite(x)
+    big = float(np.max(np.abs(x[fin]))) if fin.any() else 0.0
+    mag = int(math.floor(math.log10(big))) if big > 0 else 0
+    if mag > 15:
+        raise ValueError(f"{big:g} is too large for the fixed-point writer")
+    dec = int(min(max(significant - 1 - mag, 0), 15 - max(mag, 0)))
+    scaled = np.rint(np.where(fin, np.abs(x), 0.0) * 10.0 ** dec).astype(np.uint64)
+    R = scaled.size
+    words = 1 if dec <= 7 and (R == 0 or int(scaled.max()) < 10 ** 8) else 2
+    width = 8 * words                                  # digits: integer part, then dec fraction digits
+    iw = width - dec
+    ip = scaled // np.uint64(10 ** dec)
+    frac = scaled - ip * np.uint64(10 ** dec)
+    nd = np.ones(R, np.int64)                          # digits of the integer part
+    for k in range(1, iw):
+        nd += ip >= np.uint64(10 ** k)
+    keep = np.zeros(R, np.int64)                       # fraction digits left once trailing zeros go
+    for k in range(dec):
+        keep += frac % np.uint64(10 ** (dec - k)) != 0
+    first = iw - nd                                    # index of the first digit shown
+    last = iw + keep                                   # one past the last digit shown
+    if words == 1:
+        packed = _eight_digits(scaled)[:, None]
+    else:
+        top = scaled // np.uint64(10 ** 8)
+        packed = np.stack([_eight_digits(top), _eight_digits(scaled - top * np.uint64(10 ** 8))], axis=1)
+    for w in range(words):                             # keep digits first .. last - 1 of each word
+        lo = np.clip(first - 8 * w, 0, 8)
+        hi = np.clip(last - 8 * w, 0, 8)
+        packed[:, w] &= _LOW[hi] & ~_LOW[lo]
+    digits = packed.view(np.uint8).reshape(R, width)
+    out = np.zeros((R, width + 2), np.uint8)           # sign, integer digits, point, fraction
+    out[:, 0] = 45 * (fin & (x < 0) & (scaled > 0))
+    out[:, 1:iw + 1] = digits[:, :iw]
+    if dec:
+        out[:, iw + 1] = 46 * (keep > 0)
+        out[:, iw + 2:] = digits[:, iw:]
+    out[~fin] = 0
+    return out[:, out.any(axis=0)]                 # drop byte columns that pad every row
+
+
+def text_cells(text) -> np.ndarray:
+    """Byte matrix (R, width) of ASCII text cells (0 = padding)."""
+    a = np.asarray(text).astype("S")
+    width = max(a.dtype.itemsize, 1)
+    return np.frombuffer(a.tobytes(), np.uint8).reshape(a.size, width) if a.size else np.zeros((0, width), np.uint8)
+
+
+def csv_rows(columns) -> bytes:
+    """CSV body of byte-matrix columns (from number_cells / text_cells), rows ended by newlines."""
+    R = columns[0].shape[0]
+    sep = np.full((R, 1), 44, np.uint8)
+    parts = []
+    for i, c in enumerate(columns):
+        parts.append(c)
+        parts.append(sep if i < len(columns) - 1 else np.full((R, 1), 10, np.uint8))
+    block = np.hstack(parts)
+    return block[block != 0].tobytes()

@@ -1,0 +1,459 @@
+"""Batch inversion: many rows of readings through one fit's model at a fixed strength.
+
+A trend inverts the same part with the same sensors thousands or millions of times.  The
+model of every row is the one of `inverse.fit` (design notes §5) with alpha fixed (chosen
+once, on a reference row, by the caller):
+
+    d = t0 + G c + b + e,   c ~ N(gamma u, (alpha P)^-1),   noise S = diag(v_rand + v_shared)
+
+with u the fundamental eigenfunction and gamma its generalized-least-squares level from the
+row itself, exactly as `fit` sets its prior mean.  Every answer is then linear in the
+readings, c = A (d - t0), and a face functional f (face mean, power, zone mean, the value
+at a grid point) is  k_f + e_f . (d - t0)  with a row vector e_f = f^T A.
+
+Rows are grouped by their set of valid sensors (missing-value pattern) and, inside a
+group, by their noise vector.  Each distinct (pattern, noise) gets one thin SVD of the
+whitened, prior-scaled design A = S^-1/2 G P^-1/2 = U s V^T (the distinct noises of a group
+as one stacked SVD); from it, for all functionals at once,
+
+    e_f  = a_f + (f.u - a_f . G u) g,   a_f = sum_j (f P^-1/2 V_j) s_j / (s_j^2 + alpha) U_j^T S^-1/2,
+    g    = S^-1 G u / (u^T G^T S^-1 G u)                            (the GLS level of u),
+    var_f = sum_j (f P^-1/2 V_j)^2 / (s_j^2 + alpha) + |P^-1/2 f|^2_null / alpha,
+
+the posterior variance of `fit` (its prior mean held fixed; the null-space part is the prior
+variance of what the sensors do not see).  Values of every row of a group then come from
+one matrix product; no Python loop runs over rows, sensors or terms.  Rows logged at one
+noise level (every N-th sample) share one factorization per pattern; steady windows carry
+their own noise from their scatter, and their factorizations are stacked.
+
+Extremes: the minimum and maximum of the posterior-mean profile on a display grid (searched
+in single precision, then evaluated in double at the grid point found); their sd is the
+pointwise posterior sd at that point and the sd of max - min uses the covariance of the two
+points (an approximation: `fit` draws profiles, which also lets the location move).
+
+Changes from a reference row: `changes()` gives a solver of the same model for the
+difference of the readings d_row - d_ref (sensors valid in both).  The shared part -- the
+thermocouple offsets and placement errors, the same at every time -- cancels exactly in
+that difference, so the change is estimated against the random noise only
+(S_row + S_ref), with its own smoothing strength (a prior N(gamma u, (alpha P)^-1) on the
+change of the coefficients).  Estimating it from the difference of two absolute estimates
+instead would shrink it with the offsets' variance, which dominates each row's noise.  Its
+sd is the noise-only sd of the estimator ("noise" sds: sqrt(e_f^2 . S)), which is what a
+change is judged against: with nothing changing, change / sd ~ N(0, 1).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .diagnostics import default_threshold
+from .errors import InverseError
+from .face_grid import display_grid, quadrature
+from .fit import _nominal_direction, prior_diagonal
+
+#: grid (radial or axial x angular points) on which a trend searches the extremes; coarser
+#: than fit's 41 x 72 so that millions of rows stay quick (the MAP extremes move by a small
+#: fraction of their sd for the default basis)
+TREND_GRID = (21, 48)
+#: family-wise false-alarm level of the change flags (Bonferroni over rows x zones)
+TREND_FAMILY_LEVEL = 0.02
+#: fewest valid sensors for a row to be inverted
+MIN_SENSORS = 3
+#: bound on the size of stacked intermediate arrays (elements)
+_BLOCK_ELEMENTS = 4_000_000
+
+
+def change_threshold(n_comparisons: int, family_level: float = TREND_FAMILY_LEVEL) -> float:
+    """|change| / change_sd beyond which a change is flagged: Phi^-1(1 - level / (2 m)), m
+    comparisons (rows x zones), so that with nothing changing P(any flag) <= level."""
+    return default_threshold(max(int(n_comparisons), 1), family_level)
+
+
+def face_functionals(design, zones=()) -> list:
+    """(name, f (K,), k) for the face mean, the total power into the part and each zone on
+    the unknown face: value = k + f . c, in the face's unit (K or W/m^2; W for the power).
+    Zones on another face or covering nothing are left out (inverse.fit warns about them)."""
+    basis, cyl = design.basis, design.cylinder
+    face = basis.face
+    quad = quadrature(face, cyl.radius, cyl.height)
+    Bq = basis.face_values(quad.u, quad.v)
+    kq = basis.known_face_values(quad.u, quad.v)
+
+    def average(weights):
+        total = float(weights.sum())
+        return weights @ Bq / total, float(weights @ kq) / total
+
+    f_mean, k_mean = average(quad.weights)
+    out = [("mean", f_mean, k_mean)]
+    if basis.quantity == "heat_flux":
+        area = float(quad.weights.sum())
+        out.append(("total_power", f_mean * area, k_mean * area))
+    else:
+        out.append(("total_power", basis.powers(), float(basis.known_power())))
+    for zone in zones or ():
+        if (getattr(zone, "face", None) or face) != face:
+            continue
+        mask = np.asarray(zone.contains(quad.u, quad.v), dtype=bool)
+        if mask.any():
+            out.append((zone.name,) + average(quad.weights * mask))
+    return out
+
+
+@dataclass
+class BatchEstimates:
+    """Per-row answers (SI): values and sds of the functionals (R, nf) in the order of
+    `names` (posterior sds, or noise-only sds for a change solver); extremes of the MAP
+    profile (R,) with sds (NaN for a change solver); n_used (R,) valid sensors (rows with
+    fewer than MIN_SENSORS are NaN)."""
+
+    names: list
+    values: np.ndarray
+    sd: np.ndarray
+    min: np.ndarray
+    min_sd: np.ndarray
+    max: np.ndarray
+    max_sd: np.ndarray
+    nonuniformity: np.ndarray
+    nonuniformity_sd: np.ndarray
+    n_used: np.ndarray
+
+    def value(self, name):
+        return self.values[:, self.names.index(name)]
+
+    def sd_of(self, name):
+        return self.sd[:, self.names.index(name)]
+
+
+class BatchSolver:
+    """Solver for rows of readings of n sensors.
+
+    G (n, K), t0 (n,) [K]: design and known field at the sensors; prior_diag P (K,); alpha
+    the fixed strength; functionals: list of (name, f, k); grid_B (Q, K) and grid_known (Q,)
+    the face on the extreme-search grid; shared_var (n,) [K^2] the variance of what is the
+    same at every time (offsets, placement); prior_direction u (K,) for the prior mean gamma u
+    (None: prior mean 0); change_names: functionals whose changes are tracked (default:
+    every zone, i.e. all but mean and total_power).
+    """
+
+    def __init__(self, G, t0, prior_diag, alpha, functionals, grid_B, grid_known, shared_var,
+                 prior_direction=None, change_names=None, sd_kind="posterior"):
+        G = np.asarray(G, float)
+        if G.ndim != 2:
+            raise InverseError("G must be (sensors x coefficients)")
+        self.n, self.K = G.shape
+        self.G, self.t0 = G, np.broadcast_to(np.asarray(t0, float), (self.n,)).copy()
+        p = np.asarray(prior_diag, float)
+        if p.shape != (self.K,) or np.any(~(p > 0)):
+            raise InverseError(f"prior_diag must be {self.K} positive values")
+        if not (np.isfinite(alpha) and alpha > 0):
+            raise InverseError("alpha must be positive and finite")
+        self.alpha = float(alpha)
+        self.p_isqrt = 1.0 / np.sqrt(p)
+        self.u = np.zeros(self.K) if prior_direction is None else np.asarray(prior_direction, float)
+        self.names = [str(f[0]) for f in functionals]
+        F = np.array([np.asarray(f[1], float) for f in functionals]).reshape(len(functionals), self.K)
+        B = np.asarray(grid_B, float).reshape(-1, self.K)
+        self.nf, self.Q = F.shape[0], B.shape[0]
+        if sd_kind not in ("posterior", "noise"):
+            raise InverseError("sd_kind must be 'posterior' or 'noise'")
+        self.sd_kind = sd_kind
+        self.Fq = np.vstack([F, B])
+        self.kq = np.concatenate([[float(f[2]) for f in functionals], np.asarray(grid_known, float)])
+        self.Fn = self.Fq * self.p_isqrt[None, :]
+        self.fn2 = np.sum(self.Fn ** 2, axis=1)
+        self.fu = self.Fq @ self.u
+        Bn = self.Fn[self.nf:]
+        self._gram = Bn @ Bn.T if self.Q <= 1500 else None     # P^-1/2-weighted products of grid rows
+        self.shared_var = np.broadcast_to(np.asarray(shared_var, float), (self.n,)).copy()
+        if np.any(self.shared_var < 0) or not np.all(np.isfinite(self.shared_var)):
+            raise InverseError("shared_var must be non-negative finite variances")
+        if change_names is None:
+            change_names = [n for n in self.names if n not in ("mean", "total_power")]
+        self.change_names = list(change_names)
+        self._functionals = [(n, F[i], float(self.kq[i])) for i, n in enumerate(self.names)]
+
+    # ------------------------------------------------------------------ construction
+    @classmethod
+    def from_fit(cls, result, r, theta, z, offset_sd=0.0, position_tolerance=0.0, zones=(),
+                 grid=TREND_GRID, alpha=None):
+        """Solver for sensors at (r, theta, z) [m, rad, m] with the model, smoothing and
+        strength of a FitResult (alpha: override).  Shared variance: offset_sd^2 plus the
+        placement variance (grad T . dx)^2 with dx uniform in +-position_tolerance, grad T from
+        the result's posterior mean (fixed at the reference, like the model)."""
+        design = result.design
+        basis, cyl = design.basis, design.cylinder
+        r, theta, z = (np.atleast_1d(np.asarray(x, float)) for x in (r, theta, z))
+        G, t0, ev, dG = design.at(r, theta, z, gradient=True)
+        P = prior_diagonal(basis, cyl.radius, result.summary.get("smoothing", "gradient"))
+        shared = np.broadcast_to(np.asarray(offset_sd, float), r.shape) ** 2
+        tol = np.broadcast_to(np.asarray(position_tolerance, float), r.shape)
+        if np.any(tol > 0):
+            grad = ev.gradient + np.einsum("dpk,k->dp", dG, result.posterior.c)
+            shared = shared + (grad ** 2).sum(axis=0) * tol ** 2 / 3.0
+        pts = display_grid(basis.face, cyl.radius, cyl.height, *grid)
+        return cls(G, t0, P, result.posterior.alpha if alpha is None else alpha,
+                   face_functionals(design, zones), basis.face_values(pts.u, pts.v),
+                   basis.known_face_values(pts.u, pts.v), shared, _nominal_direction(basis))
+
+    # ------------------------------------------------------------------ estimators
+    def _estimators(self, v, noise):
+        """For pattern v (n,) bool and U noise vectors (U, n_v) of total variance: estimator
+        rows e (U, q, n_v), posterior variances (U, q), phi (U, Q, r) and 1/(s^2+alpha) (U, r)
+        for the grid covariances."""
+        Gv = self.G[v]
+        sd = np.sqrt(noise)
+        A = (Gv[None, :, :] / sd[:, :, None]) * self.p_isqrt[None, None, :]
+        Uu, s, Vt = np.linalg.svd(A, full_matrices=False)
+        phi = np.einsum("qk,urk->uqr", self.Fn, Vt)
+        inv = 1.0 / (s ** 2 + self.alpha)
+        a = np.einsum("uqr,unr->uqn", phi * (s * inv)[:, None, :], Uu) / sd[:, None, :]
+        gu = Gv @ self.u
+        W = 1.0 / noise
+        den = np.sum(W * gu ** 2, axis=1)
+        g = np.where(den[:, None] > 0, W * gu / np.where(den > 0, den, 1.0)[:, None], 0.0)
+        e = a + (self.fu[None, :] - a @ gu)[:, :, None] * g[:, None, :]
+        var = np.einsum("uqr,ur->uq", phi ** 2, inv) + np.maximum(self.fn2[None, :] - np.sum(phi ** 2, axis=2),
+                                                                  0.0) / self.alpha
+        return e, var, phi[:, self.nf:, :], inv
+
+    def with_alpha(self, alpha) -> "BatchSolver":
+        """The same solver at another strength."""
+        new = object.__new__(BatchSolver)
+        new.__dict__.update(self.__dict__)
+        if not (np.isfinite(alpha) and alpha > 0):
+            raise InverseError("alpha must be positive and finite")
+        new.alpha = float(alpha)
+        return new
+
+    def changes(self, alpha=None) -> "BatchSolver":
+        """Solver for changes: rows are differences of readings d_row - d_ref, random_var
+        their variances (S_row + S_ref); t0, the known part of the face and the shared
+        variance cancel; the functionals are those of `change_names`; sds are noise-only.
+        alpha: its strength (default half this solver's: the prior of the difference of two
+        independent profiles)."""
+        funcs = [(n, f, 0.0) for n, f, _ in self._functionals if n in self.change_names]
+        return BatchSolver(self.G, np.zeros(self.n), 1.0 / self.p_isqrt ** 2,
+                           self.alpha / 2 if alpha is None else alpha, funcs, np.zeros((0, self.K)),
+                           np.zeros(0), np.zeros(self.n), self.u, change_names=[f[0] for f in funcs],
+                           sd_kind="noise")
+
+    # ------------------------------------------------------------------ strength
+    def _evidence_terms(self, d, random_var):
+        """Per row: squared singular values s^2 (R, n) of its whitened design (NaN-padded),
+        beta^2 = (U^T y)^2 (R, n), the rest of ||y||^2 beyond the rank, the number of
+        readings and log det S, with y the whitened readings minus the GLS prior mean."""
+        d = np.atleast_2d(np.asarray(d, float))
+        rv = np.broadcast_to(np.asarray(random_var, float), d.shape)
+        valid = np.isfinite(d) & np.isfinite(rv) & (rv > 0)
+        R = d.shape[0]
+        s2, b2 = np.full((R, self.n), np.nan), np.full((R, self.n), np.nan)
+        rest, count, logdet = np.zeros(R), valid.sum(axis=1), np.zeros(R)
+        for rows in _pattern_groups(valid):
+            v = valid[rows[0]]
+            if v.sum() < MIN_SENSORS:
+                count[rows] = 0
+                continue
+            Gv, cols = self.G[v], np.flatnonzero(v)
+            gu = Gv @ self.u
+            step = max(1, _BLOCK_ELEMENTS // (Gv.size + 1))
+            for lo in range(0, rows.size, step):
+                part = rows[lo:lo + step]
+                noise = rv[np.ix_(part, cols)] + self.shared_var[v][None, :]
+                sd = np.sqrt(noise)
+                x = d[np.ix_(part, cols)] - self.t0[v]
+                W = 1.0 / noise
+                den = np.sum(W * gu ** 2, axis=1)
+                gamma = np.where(den > 0, np.sum(W * gu * x, axis=1) / np.where(den > 0, den, 1.0), 0.0)
+                y = (x - gamma[:, None] * gu[None, :]) / sd
+                A = (Gv[None, :, :] / sd[:, :, None]) * self.p_isqrt[None, None, :]
+                Uu, sv, _ = np.linalg.svd(A, full_matrices=False)
+                beta = np.einsum("unr,un->ur", Uu, y)
+                r = sv.shape[1]
+                s2[part, :r], b2[part, :r] = sv ** 2, beta ** 2
+                rest[part] = np.maximum(np.sum(y ** 2, axis=1) - np.sum(beta ** 2, axis=1), 0.0)
+                logdet[part] = np.sum(np.log(noise), axis=1)
+        return s2, b2, rest, count, logdet
+
+    def joint_log_evidence(self, d, random_var, alphas) -> np.ndarray:
+        """sum over rows of log p(d_row | alpha) for each alpha of `alphas`: the rows' profiles
+        drawn independently from the one prior (rows with too few sensors left out)."""
+        return _joint(self._evidence_terms(d, random_var), np.atleast_1d(np.asarray(alphas, float)))
+
+    def joint_strength(self, d, random_var, num: int = 200, margin: float = 1e2):
+        """alpha maximizing `joint_log_evidence` on a log grid spanning the rows' squared
+        singular values (times 1/margin .. margin), refined between the grid neighbours of the
+        best point.  Returns (alpha, warnings)."""
+        from scipy.optimize import minimize_scalar
+
+        terms = self._evidence_terms(d, random_var)
+        s2 = terms[0]
+        top = float(np.nanmax(s2)) if np.any(np.isfinite(s2)) else 0.0
+        if not top > 0:
+            raise InverseError("no row has enough sensors to choose the smoothing strength")
+        low = float(np.nanmin(np.where(s2 > 1e-12 * top, s2, np.nan)))
+        grid = np.geomspace(low / margin, top * margin, int(num))
+        le = _joint(terms, grid)
+        i = int(np.argmax(le))
+        if i in (0, grid.size - 1):
+            side = "smallest" if i == 0 else "largest"
+            return float(grid[i]), [f"the joint evidence of the rows is best at the {side} smoothing strength "
+                                    f"of its grid [{grid[0]:.3g}, {grid[-1]:.3g}]"]
+        res = minimize_scalar(lambda t: -_joint(terms, np.array([np.exp(t)]))[0],
+                              bounds=(np.log(grid[i - 1]), np.log(grid[i + 1])), method="bounded",
+                              options={"xatol": 1e-7})
+        return float(np.exp(res.x) if -res.fun >= le[i] else grid[i]), []
+
+    # ------------------------------------------------------------------ solving
+    def solve(self, d, random_var) -> BatchEstimates:
+        """Answers for rows d (R, n) [K] (NaN = missing) with random noise variances (n,) for
+        every row or (R, n) per row [K^2]."""
+        d = np.atleast_2d(np.asarray(d, float))
+        R, n = d.shape
+        if n != self.n:
+            raise InverseError(f"rows must have {self.n} readings, got {n}")
+        rv = np.asarray(random_var, float)
+        per_row = rv.ndim == 2
+        if rv.shape not in ((self.n,), (R, self.n)):
+            raise InverseError(f"random_var must have shape ({self.n},) or ({R}, {self.n})")
+        valid = np.isfinite(d)
+        if per_row:
+            valid &= np.isfinite(rv) & (rv > 0)
+        elif np.any(~(rv > 0)):
+            raise InverseError("random noise variances must be positive")
+        nan = lambda *shape: np.full(shape, np.nan)  # noqa: E731
+        est = BatchEstimates(self.names, nan(R, self.nf), nan(R, self.nf), nan(R), nan(R), nan(R), nan(R),
+                             nan(R), nan(R), valid.sum(axis=1))
+        for rows in _pattern_groups(valid):
+            v = valid[rows[0]]
+            if v.sum() < MIN_SENSORS:
+                continue
+            x = d[np.ix_(rows, np.flatnonzero(v))] - self.t0[v]
+            if per_row and rows.size > 1:
+                rvs, which = np.unique(rv[np.ix_(rows, np.flatnonzero(v))], axis=0, return_inverse=True)
+                which = which.ravel()
+            elif per_row:
+                rvs, which = rv[rows[0], v][None, :], np.zeros(1, dtype=int)
+            else:
+                rvs, which = rv[v][None, :], np.zeros(rows.size, dtype=int)
+            self._solve_group(v, rows, x, rvs, which, est)
+        return est
+
+    def _solve_group(self, v, rows, x, rvs, which, est):
+        """Rows `rows` (their readings minus t0: x) of pattern v; distinct random variances
+        rvs (U, n_v), row r uses rvs[which[r]]."""
+        n_v = int(v.sum())
+        q = self.nf + self.Q
+        per_noise = max(1, _BLOCK_ELEMENTS // (q * max(n_v, 1)))
+        by_noise = np.argsort(which, kind="stable")
+        cuts = np.searchsorted(which[by_noise], np.arange(0, rvs.shape[0] + per_noise, per_noise))
+        for b in range(cuts.size - 1):
+            lo_u, hi_u = b * per_noise, min((b + 1) * per_noise, rvs.shape[0])
+            if lo_u >= hi_u:
+                break
+            noise = rvs[lo_u:hi_u] + self.shared_var[v][None, :]
+            e, var, phi, inv = self._estimators(v, noise)
+            if self.sd_kind == "noise":
+                var = np.einsum("uqn,un->uq", e ** 2, noise)
+            sel = by_noise[cuts[b]:cuts[b + 1]]
+            j = which[sel] - lo_u
+            step = max(1, _BLOCK_ELEMENTS // q) if e.shape[0] == 1 else max(1, _BLOCK_ELEMENTS // (q * n_v))
+            for lo in range(0, sel.size, step):
+                part = sel[lo:lo + step]
+                self._fill(rows[part], x[part], j[lo:lo + step], e, var, phi, inv, est)
+
+    def _fill(self, rows, x, j, e, var, phi, inv, est):
+        nf = self.nf
+        eg, kg = e[:, nf:, :], self.kq[nf:]
+        vals = x @ e[0, :nf, :].T if e.shape[0] == 1 else np.einsum("rqn,rn->rq", e[j, :nf, :], x)
+        est.values[rows] = vals + self.kq[None, :nf]
+        est.sd[rows] = np.sqrt(np.maximum(var[j, :nf], 0.0))
+        if self.Q == 0:
+            return
+        if e.shape[0] == 1:
+            imin, imax = _extremes(eg[0], kg, x)
+        else:
+            prof = np.einsum("rqn,rn->rq", eg[j], x) + kg[None, :]
+            imin, imax = np.argmin(prof, axis=1), np.argmax(prof, axis=1)
+        vmin = np.einsum("rn,rn->r", eg[j, imin], x) + kg[imin]
+        vmax = np.einsum("rn,rn->r", eg[j, imax], x) + kg[imax]
+        vg = var[:, nf:]
+        s_min, s_max = vg[j, imin], vg[j, imax]
+        pa, pb = phi[j, imax], phi[j, imin]
+        seen = np.einsum("rk,rk,rk->r", pa, pb, inv[j])
+        if self._gram is not None:
+            total = self._gram[imax, imin]
+        else:
+            total = np.einsum("rk,rk->r", self.Fn[nf + imax], self.Fn[nf + imin])
+        cov = seen + (total - np.einsum("rk,rk->r", pa, pb)) / self.alpha
+        est.min[rows], est.max[rows] = vmin, vmax
+        est.min_sd[rows], est.max_sd[rows] = np.sqrt(np.maximum(s_min, 0)), np.sqrt(np.maximum(s_max, 0))
+        est.nonuniformity[rows] = vmax - vmin
+        est.nonuniformity_sd[rows] = np.sqrt(np.maximum(s_min + s_max - 2 * cov, 0.0))
+
+
+def _joint(terms, alphas):
+    """sum_rows -1/2 [n log 2 pi + log det S + sum_j log(1 + s_j^2/alpha) + sum_j beta_j^2
+    alpha / (s_j^2 + alpha) + rest] (the log evidence of LinearGaussianProblem, row by row)."""
+    s2, b2, rest, count, logdet = terms
+    use = count > 0
+    s2, b2 = np.nan_to_num(s2[use]), np.nan_to_num(b2[use])
+    a = alphas[:, None, None]
+    per = (np.sum(np.log1p(s2[None] / a), axis=2) + np.sum(b2[None] * a / (s2[None] + a), axis=2)
+           + rest[use][None, :] + (count[use] * np.log(2 * np.pi) + logdet[use])[None, :])
+    return -0.5 * per.sum(axis=1)
+
+
+def _extremes(E, k, x):
+    """Grid indices of the minimum and maximum of the profiles k + E x_r (rows of x).
+
+    Exact pruning first: with m the rows' mean and delta = max_r ||x_r - m||, point i can only
+    be a row's maximum if k_i + E_i m + ||E_i|| delta reaches max_j (k_j + E_j m - ||E_j|| delta)
+    (Cauchy-Schwarz), and alike for the minimum.  Rows of a trend are close to each other, so
+    only a few per cent of the grid is evaluated; otherwise the whole grid is searched in
+    single precision (the values at the points found are recomputed in double by the caller).
+    """
+    m = x.mean(axis=0)
+    centre = E @ m + k
+    reach = np.linalg.norm(E, axis=1) * float(np.sqrt(np.max(np.sum((x - m) ** 2, axis=1))))
+    can_max = np.flatnonzero(centre + reach >= np.max(centre - reach))
+    can_min = np.flatnonzero(centre - reach <= np.min(centre + reach))
+    if can_max.size + can_min.size <= 0.5 * k.size:
+        imax = can_max[np.argmax(x @ E[can_max].T + k[can_max], axis=1)]
+        imin = can_min[np.argmin(x @ E[can_min].T + k[can_min], axis=1)]
+        return imin, imax
+    if len(x) > 64:      # try again on halves: closer rows prune better
+        h = len(x) // 2
+        a, b = _extremes(E, k, x[:h]), _extremes(E, k, x[h:])
+        return np.concatenate([a[0], b[0]]), np.concatenate([a[1], b[1]])
+    prof = x.astype(np.float32) @ E.T.astype(np.float32) + k.astype(np.float32)[None, :]
+    # single precision finds the neighbourhood; points within its rounding of a row's extreme
+    # are compared again in double precision, so the choice does not depend on the batch
+    slack = 1e-5 * (np.max(np.abs(prof), axis=1) + 1.0)
+    out = []
+    for sign in (-1.0, 1.0):
+        best = np.max(sign * prof, axis=1)
+        near = np.flatnonzero(np.any(sign * prof >= (best - slack)[:, None], axis=0))
+        out.append(near[np.argmax(sign * (x @ E[near].T + k[near]), axis=1)])
+    return out[0], out[1]
+
+
+def _pattern_groups(valid):
+    """Row indices of each distinct missing-value pattern of valid (R, n) bool."""
+    R = valid.shape[0]
+    if R == 0:
+        return []
+    if valid.all():
+        return [np.arange(R)]
+    codes = np.packbits(valid, axis=1, bitorder="little")
+    if codes.shape[1] <= 8:          # one integer key per row: a fast 1-D sort
+        padded = np.zeros((R, 8), np.uint8)
+        padded[:, :codes.shape[1]] = codes
+        keys = padded.view("<u8").ravel()
+    else:
+        keys = np.unique(codes, axis=0, return_inverse=True)[1].ravel()
+    order = np.argsort(keys, kind="stable")
+    bounds = np.flatnonzero(np.r_[True, keys[order][1:] != keys[order][:-1], True])
+    return [order[bounds[i]:bounds[i + 1]] for i in range(bounds.size - 1)]
+

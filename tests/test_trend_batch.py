@@ -1,0 +1,218 @@
+"""Batch inversion (inverse.batch): equal to per-row fits, shared offsets cancel in changes.
+
+Synthetic readings come from forward.CylinderModel of a known-flux version of the demo
+platen (the heater flux given, a smooth weakened sector of the outer zone).  That is the
+fit's own series: the inverse-crime caution is about recovery accuracy; here the
+statistics of the batch solver are under test (equality with `fit`, the noise model).
+"""
+
+from functools import lru_cache
+from pathlib import Path
+
+import numpy as np
+import pytest
+from scipy.stats import norm
+
+import forward as fw
+import inverse
+from data_io.case import load_case
+from data_io.tables import read_layout
+from inverse.batch import BatchSolver, change_threshold, face_functionals
+from inverse.face_grid import quadrature
+
+ROOT = Path(__file__).resolve().parent.parent
+CASE = ROOT / "demo_data" / "platen.toml"
+Q0 = 12_000.0        # W/m^2, the nominal heater flux (a scenario of our own)
+WEAK_ZONE = "outer 60-180"
+
+
+def weak_shape(r, theta):
+    """1 inside the outer ring between 60 and 180 deg, 0 outside, smooth edges."""
+    ring = 0.5 * (1 + np.tanh((np.asarray(r) - 0.105) / 0.006))
+    d = np.angle(np.exp(1j * (np.asarray(theta) - 2 * np.pi / 3)))
+    return ring * 0.5 * (1 - np.tanh((np.abs(d) - np.pi / 3) / 0.12))
+
+
+@lru_cache(maxsize=None)
+def platen():
+    """(case, layout frame, T at the sensors for the nominal heater [K], T with the outer
+    sector fully off [K], true change of each zone's mean flux for a full loss [W/m^2])."""
+    case = load_case(CASE, purpose="fit")
+    lay = read_layout(case.sensors.layout, case.cylinder).frame
+
+    def field(q):
+        faces = dict(case.faces)
+        faces["bottom"] = fw.Flux(q)
+        model = fw.CylinderModel(case.cylinder, faces, tolerance=1e-7)
+        return model.evaluate(lay["r"].to_numpy(), lay["theta"].to_numpy(), lay["z"].to_numpy()).temperature
+
+    t_nom = field(lambda r, th: Q0 + 0 * np.asarray(r))
+    t_off = field(lambda r, th: Q0 * (1 - weak_shape(r, th)))
+    quad = quadrature("bottom", case.cylinder.radius, case.cylinder.height)
+    loss = {}
+    for zone in case.zones:
+        w = quad.weights * zone.contains(quad.u, quad.v)
+        loss[zone.name] = -float(w @ (Q0 * weak_shape(quad.u, quad.v))) / float(w.sum())
+    return case, lay, t_nom, t_off, loss
+
+
+def readings(temperature, sigma, offset_sd=0.0, names=None):
+    _, lay, *_ = platen()
+    keep = np.isfinite(temperature)
+    names = list(lay.index) if names is None else names
+    return inverse.SensorReadings([n for n, k in zip(names, keep) if k], lay["r"].to_numpy()[keep],
+                                  lay["theta"].to_numpy()[keep], lay["z"].to_numpy()[keep], temperature[keep],
+                                  np.broadcast_to(sigma, keep.shape)[keep],
+                                  np.broadcast_to(offset_sd, keep.shape)[keep], 0.0)
+
+
+@lru_cache(maxsize=None)
+def reference_fit():
+    case, _, t_nom, t_off, _ = platen()
+    return inverse.fit(case, readings(t_nom + 0.3 * (t_off - t_nom), 0.1, 0.5))
+
+
+def _rows(seed=0, rows=5):
+    _, _, t_nom, t_off, _ = platen()
+    rng = np.random.default_rng(seed)
+    lam = np.linspace(0.0, 0.6, rows)
+    D = t_nom + lam[:, None] * (t_off - t_nom) + rng.normal(0.0, 0.1, (rows, t_nom.size))
+    D[1, 3] = np.nan
+    D[3, [0, 7, 12]] = np.nan
+    return D
+
+
+@pytest.mark.parametrize("per_row_noise", [True, False])
+def test_batch_equals_per_row_fits(per_row_noise):
+    case, lay, *_ = platen()
+    ref = reference_fit()
+    alpha = ref.posterior.alpha
+    D = _rows()
+    rng = np.random.default_rng(5)
+    RV = rng.uniform(0.005, 0.03, D.shape) if per_row_noise else np.full(D.shape[1], 0.02)
+    tau = np.full(D.shape[1], 0.5)
+    solver = BatchSolver.from_fit(ref, lay["r"], lay["theta"], lay["z"], offset_sd=tau, zones=case.zones,
+                                  grid=(41, 72))
+    est = solver.solve(D, RV)
+    for i in range(D.shape[0]):
+        rv = RV[i] if per_row_noise else RV
+        f = inverse.fit(case, readings(D[i], np.sqrt(rv), tau), strength=alpha, keep_all_sensors=True)
+        s = f.summary
+        got = [est.value("mean")[i], est.sd_of("mean")[i], est.value("total_power")[i],
+               est.sd_of("total_power")[i], est.min[i], est.max[i], est.nonuniformity[i]]
+        want = [s["mean"], s["mean_sd"], s["total_power_W"], s["total_power_sd_W"], s["min"], s["max"],
+                s["nonuniformity"]]
+        np.testing.assert_allclose(got, want, rtol=1e-9)
+        for z in s["zones"]:
+            assert est.value(z["name"])[i] == pytest.approx(z["mean"], rel=1e-9)
+            assert est.sd_of(z["name"])[i] == pytest.approx(z["sd"], rel=1e-9)
+        assert est.n_used[i] == f.summary["n_sensors_used"]
+
+
+def test_groups_and_single_rows_agree():
+    case, lay, *_ = platen()
+    solver = BatchSolver.from_fit(reference_fit(), lay["r"], lay["theta"], lay["z"], offset_sd=0.5,
+                                  zones=case.zones)
+    D = _rows(seed=1, rows=7)
+    rv = np.full(D.shape[1], 0.02)
+    changes = solver.changes()
+    for s_ in (solver, changes):
+        X = D if s_ is solver else D - D[0]
+        whole = s_.solve(X, rv)
+        for i in range(D.shape[0]):
+            one = s_.solve(X[i:i + 1], rv)
+            for name in ("values", "sd", "min", "max", "nonuniformity", "nonuniformity_sd"):
+                np.testing.assert_allclose(getattr(one, name)[0], getattr(whole, name)[i], rtol=1e-10,
+                                           atol=1e-9)
+    assert changes.names == changes.change_names == solver.change_names
+    assert changes.alpha == solver.alpha / 2
+    # fewer than three sensors: no answer, NaN
+    few = np.full((1, D.shape[1]), np.nan)
+    few[0, :2] = D[0, :2]
+    assert np.isnan(solver.solve(few, rv).value("mean")).all()
+
+
+def test_change_sd_is_the_noise_sd_of_the_change():
+    """With nothing changing, change / sd is N(0, 1) over many noise draws."""
+    case, lay, t_nom, t_off, _ = platen()
+    solver = BatchSolver.from_fit(reference_fit(), lay["r"], lay["theta"], lay["z"], offset_sd=0.5,
+                                  zones=case.zones).changes()
+    rng = np.random.default_rng(11)
+    base = t_nom + 0.3 * (t_off - t_nom)
+    ref = base + rng.normal(0.0, 0.1, base.size)
+    rows = base + rng.normal(0.0, 0.1, (4000, base.size))
+    est = solver.solve(rows - ref[None, :], np.full(base.size, 0.02))
+    # the reference's own noise is common to all rows: condition on it by subtracting the mean
+    z = (est.values - est.values.mean(axis=0)) / est.sd
+    np.testing.assert_allclose(np.std(z, axis=0), np.sqrt(0.01 / 0.02), rtol=0.05)
+
+
+def test_joint_evidence_is_the_sum_of_row_evidences():
+    case, lay, *_ = platen()
+    solver = BatchSolver.from_fit(reference_fit(), lay["r"], lay["theta"], lay["z"], offset_sd=0.5,
+                                  zones=case.zones)
+    D = _rows(seed=2, rows=4)
+    RV = np.random.default_rng(3).uniform(0.005, 0.02, D.shape)
+    alphas = np.array([1e-7, 1e-5, 1e-3])
+    total = np.zeros(alphas.size)
+    for i in range(D.shape[0]):
+        f = inverse.fit(case, readings(D[i], np.sqrt(RV[i]), 0.5), strength=1e-4, keep_all_sensors=True)
+        total += f.problem.log_evidence(alphas)
+    np.testing.assert_allclose(solver.joint_log_evidence(D, RV, alphas), total, rtol=1e-10)
+    alpha, notes = solver.joint_strength(D, RV)
+    grid = np.geomspace(alpha / 3, alpha * 3, 7)
+    assert np.argmax(solver.joint_log_evidence(D, RV, grid)) == 3 and not notes
+
+
+def test_offsets_cancel_in_changes_but_widen_the_level():
+    """Constant per-sensor offsets: zone changes and the trend of the non-uniformity are the
+    same with and without them; the absolute level moves and its sd carries the offsets.
+
+    The heater already has a weak sector that weakens further, so the real structure, not the
+    offsets, decides where the face's extremes are (max - min is not linear: offsets on a
+    featureless face make extremes of their own)."""
+    case, lay, t_nom, t_off, _ = platen()
+    rng = np.random.default_rng(7)
+    tau = 0.3
+    lam = np.linspace(0.3, 0.8, 12)
+    clean = t_nom + lam[:, None] * (t_off - t_nom) + rng.normal(0.0, 0.05, (lam.size, t_nom.size))
+    biased = clean + rng.normal(0.0, tau, t_nom.size)[None, :]
+    rv = np.full(t_nom.size, 0.05 ** 2)
+    fit = inverse.fit(case, readings(clean[0], 0.05, tau))
+    with_tau = BatchSolver.from_fit(fit, lay["r"], lay["theta"], lay["z"], offset_sd=tau, zones=case.zones)
+    no_tau = BatchSolver.from_fit(fit, lay["r"], lay["theta"], lay["z"], offset_sd=0.0, zones=case.zones)
+    a, b = with_tau.solve(clean, rv), with_tau.solve(biased, rv)
+    ca = with_tau.changes().solve(clean - clean[0], 2 * rv)
+    cb = with_tau.changes().solve(biased - biased[0], 2 * rv)
+    np.testing.assert_allclose(ca.values, cb.values, atol=1e-9 * np.abs(ca.values).max())
+    np.testing.assert_allclose(ca.sd, cb.sd)
+    trend_a = a.nonuniformity - a.nonuniformity[0]
+    trend_b = b.nonuniformity - b.nonuniformity[0]
+    assert np.max(np.abs(trend_a - trend_b)) < 0.1 * np.min(a.nonuniformity_sd)
+    assert abs(b.nonuniformity[0] - a.nonuniformity[0]) > 4 * np.max(np.abs(trend_a - trend_b))
+    # the level: the offsets move it (the same at every row), and its sd covers the move
+    shift = b.value("mean") - a.value("mean")
+    assert np.ptp(shift) < 1e-8 * np.abs(shift).max()
+    assert np.all(np.abs(shift) < 3 * a.sd_of("mean"))
+    level = no_tau.solve(clean, rv)
+    assert np.all(a.sd_of("mean") > 1.5 * level.sd_of("mean"))
+    # a change is judged on the noise only: much tighter than the zone's absolute sd
+    assert np.all(ca.sd_of(WEAK_ZONE)[1:] < 0.5 * a.sd_of(WEAK_ZONE)[1:])
+
+
+def test_change_threshold_is_bonferroni():
+    assert change_threshold(1) == pytest.approx(norm.isf(0.02 / 2))        # scipy.stats reference
+    assert change_threshold(500) == pytest.approx(norm.isf(0.02 / 1000))
+    assert change_threshold(0) == change_threshold(1)
+
+
+def test_face_functionals_match_the_fit():
+    case, *_ = platen()
+    ref = reference_fit()
+    funcs = {name: (f, k) for name, f, k in face_functionals(ref.design, case.zones)}
+    assert list(funcs)[:2] == ["mean", "total_power"]
+    c = ref.posterior.c
+    assert funcs["mean"][0] @ c + funcs["mean"][1] == pytest.approx(ref.summary["mean"], rel=1e-3)
+    for z in ref.summary["zones"]:
+        f, k = funcs[z["name"]]
+        assert f @ c + k == pytest.approx(z["mean"], rel=1e-3)
