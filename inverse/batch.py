@@ -51,7 +51,7 @@ import numpy as np
 from .diagnostics import default_threshold
 from .errors import InverseError
 from .face_grid import display_grid, quadrature
-from .fit import _nominal_direction, prior_diagonal
+from .fit import _nominal_direction
 
 #: grid (radial or axial x angular points) on which a trend searches the extremes; coarser
 #: than fit's 41 x 72 so that millions of rows stay quick (the MAP extremes move by a small
@@ -186,7 +186,7 @@ class BatchSolver:
         basis, cyl = design.basis, design.cylinder
         r, theta, z = (np.atleast_1d(np.asarray(x, float)) for x in (r, theta, z))
         G, t0, ev, dG = design.at(r, theta, z, gradient=True)
-        P = prior_diagonal(basis, cyl.radius, result.summary.get("smoothing", "gradient"))
+        P = result.problem.prior_diag  # the fit's own prior (with its nearly flat nominal level)
         shared = np.broadcast_to(np.asarray(offset_sd, float), r.shape) ** 2
         tol = np.broadcast_to(np.asarray(position_tolerance, float), r.shape)
         if np.any(tol > 0):

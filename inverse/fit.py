@@ -34,6 +34,8 @@ from .strength_average import StrengthAverage
 
 SMOOTHING_ORDER = {"size": 0, "gradient": 1, "curvature": 2}
 DEFAULT_HARMONICS = 6
+#: prior precision of the nominal direction relative to its smoothness prior (nearly flat)
+NOMINAL_PRECISION_FACTOR = 1e-4
 DEFAULT_TERMS = 10
 #: sensors farther from the unknown face than this fraction of the radius see little detail
 FAR_FRACTION = 0.25  # common practice, no source
@@ -134,6 +136,11 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
     quad = quadrature(face, cyl.radius, cyl.height)
     P = prior_diagonal(basis, cyl.radius, smoothing)
     u_uniform = _nominal_direction(basis)
+    # The level gamma of the nominal profile is fitted from the readings; a nearly flat prior
+    # in that one (coordinate) direction keeps its uncertainty in the bands instead of
+    # treating the fitted level as known.
+    P = P.copy()
+    P[u_uniform > 0] *= NOMINAL_PRECISION_FACTOR
     warnings: list[str] = []
 
     G, t0, ev, dG = design.at(rd.r, rd.theta, rd.z, gradient=True)

@@ -41,10 +41,10 @@ def test_effective_variance_of_placement_tolerance():
 def test_monte_carlo_is_seeded_reports_progress_and_widens_bands():
     calls = []
     rd = _readings(2e-3)
-    one = inverse.fit(_case(), rd, monte_carlo=40, seed=7, keep_all_sensors=True,
+    one = inverse.fit(_case(), rd, monte_carlo=100, seed=7, keep_all_sensors=True,
                       progress=lambda done, total: calls.append((done, total)))
-    two = inverse.fit(_case(), rd, monte_carlo=40, seed=7, keep_all_sensors=True)
-    assert calls[-1] == (40, 40) and len(calls) == 40
+    two = inverse.fit(_case(), rd, monte_carlo=100, seed=7, keep_all_sensors=True)
+    assert calls[-1] == (100, 100) and len(calls) == 100
     assert np.array_equal(one.grid["estimate"], two.grid["estimate"])  # same seed, same draws
     g = one.grid
     assert np.all(g["upper"] >= g["lower"]) and np.all(np.isfinite(g["std"]))

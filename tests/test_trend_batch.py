@@ -102,7 +102,7 @@ def test_batch_equals_per_row_fits(per_row_noise):
                est.sd_of("total_power")[i], est.min[i], est.max[i], est.nonuniformity[i]]
         want = [s["mean"], s["mean_sd"], s["total_power_W"], s["total_power_sd_W"], s["min"], s["max"],
                 s["nonuniformity"]]
-        np.testing.assert_allclose(got, want, rtol=1e-9)
+        np.testing.assert_allclose(got, want, rtol=1e-8)  # round-off: the nearly flat nominal direction costs ~4 digits of conditioning
         for z in s["zones"]:
             assert est.value(z["name"])[i] == pytest.approx(z["mean"], rel=1e-9)
             assert est.sd_of(z["name"])[i] == pytest.approx(z["sd"], rel=1e-9)
