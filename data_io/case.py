@@ -56,6 +56,7 @@ from forward.faces import (Convection, FaceCondition, Flux, Insulated, Temperatu
 from forward.geometry import Cylinder
 
 from .errors import InputError
+from .textfile import read_text
 from .profiles import TableProfile, load_profile
 from .units import format_quantity, parse_quantity
 
@@ -540,18 +541,7 @@ def load_case(path, purpose: str | None = None) -> Case:
     objects (Cylinder, face conditions) but solves nothing.
     """
     path = Path(path)
-    if not path.exists():
-        raise InputError("case file not found", file=path)
-    if path.is_dir():
-        raise InputError("is a folder; expected a case file (TOML)", file=path)
-    try:
-        raw = path.read_bytes()
-    except OSError as exc:
-        raise InputError(f"cannot read the file ({exc.strerror or exc})", file=path) from exc
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise InputError(f"is not UTF-8 text (byte {exc.start})", file=path) from exc
+    text = read_text(path, "a case file (TOML)", missing="case file not found")
     try:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:

@@ -21,6 +21,7 @@ import pandas as pd
 
 from . import thermocouples as tc
 from .errors import InputError
+from .textfile import read_text
 from .units import column_unit, convert, split_header, ureg
 
 # ---------------------------------------------------------------------------- results
@@ -103,19 +104,7 @@ class RawTable:
 
 
 def _read_text(path: Path) -> str:
-    path = Path(path)
-    if not path.exists():
-        raise InputError("file not found", file=path)
-    if path.is_dir():
-        raise InputError("is a folder; expected a CSV file", file=path)
-    try:
-        data = path.read_bytes()
-    except OSError as exc:
-        raise InputError(f"cannot read the file ({exc.strerror or exc})", file=path) from exc
-    try:
-        return data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise InputError(f"is not UTF-8 text (byte {exc.start}); save the CSV as UTF-8", file=path) from exc
+    return read_text(path, "a CSV file", hint="; save the CSV as UTF-8")
 
 
 def read_raw(path: Path) -> RawTable:
