@@ -148,16 +148,21 @@ class OutputSet:
     def __enter__(self):
         return self
 
+    def stream(self, name: str):
+        """A binary file object writing into the staged temporary file of `name` (for
+        outputs too large to hold in memory); the caller closes it."""
+        fd, tmp = tempfile.mkstemp(prefix=f".{name}.", suffix=".tmp", dir=self.folder)
+        os.fchmod(fd, _default_mode())
+        self._staged.append((name, Path(tmp)))
+        return os.fdopen(fd, "wb")
+
     def add(self, name: str, data) -> Path:
         if isinstance(data, str):
             data = data.encode("utf-8")
-        fd, tmp = tempfile.mkstemp(prefix=f".{name}.", suffix=".tmp", dir=self.folder)
-        os.fchmod(fd, _default_mode())
-        with os.fdopen(fd, "wb") as fh:
+        with self.stream(name) as fh:
             fh.write(data)
             fh.flush()
             os.fsync(fh.fileno())
-        self._staged.append((name, Path(tmp)))
         return self.folder / name
 
     def __exit__(self, exc_type, exc, tb):

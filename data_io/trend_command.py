@@ -37,7 +37,6 @@ import math
 import os
 import shutil
 import sys
-import tempfile
 from html import escape
 from pathlib import Path
 
@@ -47,7 +46,7 @@ from forward.errors import ForwardModelError
 from inverse.errors import InverseError
 from inverse.steady import DEFAULT_DRIFT_K, DEFAULT_FLOOR_K, DEFAULT_WINDOW_S
 
-from .csv_out import OutputSet, _default_mode, neutralize
+from .csv_out import OutputSet, neutralize
 from .errors import InputError
 from .logs import DEFAULT_CHUNK_ROWS, csv_header, csv_rows, number_cells, text_cells
 
@@ -65,16 +64,6 @@ WINDOW_BATCH = 4096
 #: --drift: a window just inside the limit may still be settling, and a baseline must not
 #: (common practice, no source)
 REFERENCE_DRIFT_FRACTION = 0.25
-
-
-class _Outputs(OutputSet):
-    """OutputSet that can also stream a large file into its staged temporary file."""
-
-    def stream(self, name: str):
-        fd, tmp = tempfile.mkstemp(prefix=f".{name}.", suffix=".tmp", dir=self.folder)
-        os.fchmod(fd, _default_mode())
-        self._staged.append((name, Path(tmp)))
-        return os.fdopen(fd, "wb")
 
 
 class _Progress:
@@ -640,7 +629,7 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
     if create:
         folder.mkdir()
     try:
-        with _Outputs(folder) as outset:
+        with OutputSet(folder) as outset:
             with outset.stream("trend.csv") as fh:
                 run.run(fh, bar, expected)
                 fh.flush()
