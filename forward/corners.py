@@ -26,6 +26,13 @@ from dataclasses import dataclass
 import numpy as np
 
 
+def curvature_coefficient(m, radius, height):
+    """c_m = (a / L)^2 / (2 m + 2) of the quadratic corner term (0 for a semi-infinite part)."""
+    if not math.isfinite(height):
+        return np.zeros(np.shape(m))
+    return (radius / height) ** 2 / (2.0 * np.asarray(m, float) + 2.0)
+
+
 def end_rows(end: str, kind: str, h: float, k: float, L: float, c: float) -> np.ndarray:
     """Row of the rim condition of one end on (alpha, beta, gamma)."""
     if end == "bottom":  # zeta = 0, outward normal -z
@@ -82,9 +89,7 @@ class PolynomialLifting:
         return self.m.size == 0
 
     def _c(self):
-        if not math.isfinite(self.height):
-            return np.zeros(self.m.size)
-        return (self.radius / self.height) ** 2 / (2.0 * self.m + 2.0)
+        return curvature_coefficient(self.m, self.radius, self.height)
 
     def _parts(self, r, theta, z):
         a, L = self.radius, self.height

@@ -17,7 +17,7 @@ from .errors import ForwardModelError, IllPosedError
 from .faces import FaceCondition, Flux, Temperature
 from .geometry import Cylinder
 from .harmonics import harmonic_amplitudes, theta_nodes
-from .corners import PolynomialLifting, end_rows, solve_rim
+from .corners import PolynomialLifting, curvature_coefficient, end_rows, solve_rim
 from .modes import EndCondition, EndFaceModes, SideModes
 from .roots import axial_eigenvalues, radial_eigenvalues
 from .series import KnownSeries, _gauss
@@ -191,7 +191,7 @@ class CylinderModel:
                 vals = [amps[e][1 if is_sin else 0][m] for e, _ in ends]
                 if max(abs(v) for v in vals) <= tol * max(ref, 1e-300):
                     continue
-                c = (a / L) ** 2 / (2.0 * m + 2.0)
+                c = float(curvature_coefficient(m, a, L))
                 rows = [end_rows(e, row[0], row[1], k, L, c) for e, row in ends]
                 terms.append((m, is_sin, solve_rim(rows, vals)))
         return PolynomialLifting.from_terms(a, L, terms)
@@ -387,7 +387,7 @@ class UnknownBasis:
         out = []
         for m in range(harmonics + 1):
             for is_sin in ((False,) if m == 0 else (False, True)):
-                c = (a / L) ** 2 / (2.0 * m + 2.0)
+                c = float(curvature_coefficient(m, a, L))
                 rows = [end_rows(self.face, "N", 0.0, k, L, c), end_rows(far, fk.kind, fk.h, k, L, c)]
                 w = PolynomialLifting.from_terms(a, L, [(m, is_sin, solve_rim(rows, [1.0, 0.0]))])
                 fixes = []
