@@ -52,6 +52,7 @@ from .diagnostics import default_threshold
 from .errors import InverseError
 from .face_grid import display_grid, quadrature
 from .fit import _nominal_direction
+from .functionals import face_functionals  # noqa: F401  (also exported from here)
 
 #: grid (radial or axial x angular points) on which a trend searches the extremes; coarser
 #: than fit's 41 x 72 so that millions of rows stay quick (the MAP extremes move by a small
@@ -69,36 +70,6 @@ def change_threshold(n_comparisons: int, family_level: float = TREND_FAMILY_LEVE
     """|change| / change_sd beyond which a change is flagged: Phi^-1(1 - level / (2 m)), m
     comparisons (rows x zones), so that with nothing changing P(any flag) <= level."""
     return default_threshold(max(int(n_comparisons), 1), family_level)
-
-
-def face_functionals(design, zones=()) -> list:
-    """(name, f (K,), k) for the face mean, the total power into the part and each zone on
-    the unknown face: value = k + f . c, in the face's unit (K or W/m^2; W for the power).
-    Zones on another face or covering nothing are left out (inverse.fit warns about them)."""
-    basis, cyl = design.basis, design.cylinder
-    face = basis.face
-    quad = quadrature(face, cyl.radius, cyl.height)
-    Bq = basis.face_values(quad.u, quad.v)
-    kq = basis.known_face_values(quad.u, quad.v)
-
-    def average(weights):
-        total = float(weights.sum())
-        return weights @ Bq / total, float(weights @ kq) / total
-
-    f_mean, k_mean = average(quad.weights)
-    out = [("mean", f_mean, k_mean)]
-    if basis.quantity == "heat_flux":
-        area = float(quad.weights.sum())
-        out.append(("total_power", f_mean * area, k_mean * area))
-    else:
-        out.append(("total_power", basis.powers(), float(basis.known_power())))
-    for zone in zones or ():
-        if (getattr(zone, "face", None) or face) != face:
-            continue
-        mask = np.asarray(zone.contains(quad.u, quad.v), dtype=bool)
-        if mask.any():
-            out.append((zone.name,) + average(quad.weights * mask))
-    return out
 
 
 @dataclass

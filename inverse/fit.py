@@ -23,7 +23,7 @@ from forward import Convection, CylinderModel
 
 from .diagnostics import screen_outliers, sensor_table
 from .errors import InverseError
-from .face_grid import display_grid, quadrature
+from .face_grid import display_grid
 from .linear_gaussian import LinearGaussianProblem
 from .lmfit_solver import fit_lmfit
 from .noise import noise_covariance
@@ -133,7 +133,6 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
 
     design = _Design(cyl, faces, tolerance, harmonics, terms)
     basis = design.basis
-    quad = quadrature(face, cyl.radius, cyl.height)
     P = prior_diagonal(basis, cyl.radius, smoothing)
     u_uniform = _nominal_direction(basis)
     # The level gamma of the nominal profile is fitted from the readings; a nearly flat prior
@@ -239,7 +238,7 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
 
     result = FitResult.build(case=case, design=design, face=face, readings=rd, kept=kept, problem=final,
                            choice=choice, posterior=post, sensors=table, set_aside=set_aside,
-                           warnings=warnings, grid_size=grid, quad=quad, nonlinear=nonlinear,
+                           warnings=warnings, grid_size=grid, nonlinear=nonlinear,
                            monte_carlo=mc, smoothing=smoothing, strength_request=strength)
     result.summary["loss"] = loss
     return result

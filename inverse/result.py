@@ -8,7 +8,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from .face_grid import display_grid
+from .face_grid import display_grid, quadrature
+from .functionals import face_functionals
 
 Z95 = 1.959963984540054  # standard normal 97.5 % quantile
 
@@ -89,7 +90,7 @@ class FitResult:
     # ------------------------------------------------------------------ construction
     @classmethod
     def build(cls, *, case, design, face, readings, kept, problem, choice, posterior, sensors,
-              set_aside, warnings, grid_size, quad, nonlinear, monte_carlo, smoothing,
+              set_aside, warnings, grid_size, nonlinear, monte_carlo, smoothing,
               strength_request):
         basis, cyl = design.basis, design.cylinder
         quantity = basis.quantity
@@ -105,17 +106,21 @@ class FitResult:
         grid = pd.DataFrame({"r_m": pts.r, "theta_rad": pts.theta, "z_m": pts.z,
                              "estimate": mean, "std": sd, "lower": lower, "upper": upper})
 
-        # linear functionals over the face (quadrature rule)
-        Bq = basis.face_values(quad.u, quad.v)
-        kq = basis.known_face_values(quad.u, quad.v)
-        area = float(quad.weights.sum())
-        f_mean = quad.weights @ Bq / area
-        k_mean = float(quad.weights @ kq) / area
-        mean_v, mean_sd = posterior.linear(f_mean, k_mean)
-        if quantity == "heat_flux":
-            power, power_sd = mean_v * area, mean_sd * area
-        else:
-            power, power_sd = posterior.linear(basis.powers(), basis.known_power())
+        # linear functionals over the face (quadrature rule); zones on another face or
+        # covering nothing are reported and skipped
+        quad_mask = quadrature(face, cyl.radius, cyl.height)
+        valid = []
+        for zone in getattr(case, "zones", None) or []:
+            zface = getattr(zone, "face", None) or face
+            if zface != face:
+                warnings.append(f"zone {zone.name} is on the {zface} face, not the estimated {face} face; skipped")
+            elif not np.asarray(zone.contains(quad_mask.u, quad_mask.v), dtype=bool).any():
+                warnings.append(f"zone {zone.name} covers no part of the {face} face; skipped")
+            else:
+                valid.append(zone)
+        funcs = face_functionals(design, valid)
+        mean_v, mean_sd = posterior.linear(funcs[0][1], funcs[0][2])
+        power, power_sd = posterior.linear(funcs[1][1], funcs[1][2])
 
         # extremes and non-uniformity from posterior draws on the display grid
         draws = posterior.samples(400, seed=1)
@@ -127,18 +132,8 @@ class FitResult:
             return {"r_m": float(pts.r[i]), "theta_rad": float(pts.theta[i]), "z_m": float(pts.z[i])}
 
         zones = []
-        for zone in getattr(case, "zones", None) or []:
-            zface = getattr(zone, "face", None) or face
-            if zface != face:
-                warnings.append(f"zone {zone.name} is on the {zface} face, not the estimated {face} face; skipped")
-                continue
-            mask = np.asarray(zone.contains(quad.u, quad.v), dtype=bool)
-            if not mask.any():
-                warnings.append(f"zone {zone.name} covers no part of the {face} face; skipped")
-                continue
-            w = quad.weights * mask
-            za = float(w.sum())
-            zm, zsd = posterior.linear(w @ Bq / za, float(w @ kq) / za)
+        for zone, (_, f_zone, k_zone) in zip(valid, funcs[2:]):
+            zm, zsd = posterior.linear(f_zone, k_zone)
             # The masked rule's zone edge is as coarse as its nodes (several % of the area of
             # a small zone); the area, and with it the power, comes from a fine midpoint rule.
             za = _zone_area(zone, face, cyl.radius, cyl.height)
