@@ -45,7 +45,7 @@ import lmfit  # noqa: E402
 import numpy as np  # noqa: E402
 import scipy  # noqa: E402
 
-from inverse import (LinearGaussianProblem, StrengthAverage, averaged_loo, choose_strength,  # noqa: E402
+from heatsight.inverse import (LinearGaussianProblem, StrengthAverage, averaged_loo, choose_strength,  # noqa: E402
                      fit_linear_lmfit, screen_outliers)
 
 SIZES = ((16, 40), (64, 120), (256, 400))
@@ -223,9 +223,9 @@ def bench_alphas(repeat, n=64, K=200, m=200):
 
 # ------------------------------------------------------------------------------- full
 def bench_full(repeat, n=64, harmonics=10, terms=10, grid=(50, 90)):
-    import forward as fw
-    import inverse
-    from inverse.face_grid import display_grid, quadrature
+    import heatsight.forward as fw
+    from heatsight import inverse
+    from heatsight.inverse.face_grid import display_grid, quadrature
 
     a, L, k, h, tamb = 0.15, 0.04, 16.0, 12.0, 298.15
     q = lambda r, th: 4000.0 * (1 + 0.3 * (r / a) ** 2) + 800.0 * (r / a) * np.cos(th)  # noqa: E731

@@ -35,9 +35,9 @@ import numpy as np  # noqa: E402
 import scipy  # noqa: E402
 from scipy import special  # noqa: E402
 
-import forward as fw  # noqa: E402
-from forward.bessel import besselj  # noqa: E402
-from forward.roots import radial_eigenvalues  # noqa: E402
+import heatsight.forward as fw  # noqa: E402
+from heatsight.forward.bessel import besselj  # noqa: E402
+from heatsight.forward.roots import radial_eigenvalues  # noqa: E402
 
 
 def best_of(fn, repeat):

@@ -20,8 +20,8 @@ sys.path.insert(0, str(HERE.parent / "tests"))
 import numpy as np  # noqa: E402
 from threadpoolctl import threadpool_limits  # noqa: E402
 
-import forward as fw  # noqa: E402
-import inverse  # noqa: E402
+import heatsight.forward as fw  # noqa: E402
+from heatsight import inverse  # noqa: E402
 from fem_cylinder import solve_field  # noqa: E402
 
 A, L, K, H, TAMB = 0.10, 0.04, 20.0, 100.0, 300.0

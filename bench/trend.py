@@ -49,9 +49,9 @@ def make_case(folder: Path):
 
 def sensor_field(folder: Path) -> np.ndarray:
     """Steady readings [degC] of the layout's sensors for a smooth heater profile."""
-    import forward as fw
-    from data_io.case import load_case
-    from data_io.tables import read_layout
+    import heatsight.forward as fw
+    from heatsight.data_io.case import load_case
+    from heatsight.data_io.tables import read_layout
 
     case = load_case(folder / "case.toml")
     lay = read_layout(folder / "layout.csv", case.cylinder).frame
@@ -63,7 +63,7 @@ def sensor_field(folder: Path) -> np.ndarray:
 
 def make_log(path: Path, rows: int, base: np.ndarray, seed: int = 0) -> None:
     """`rows` rows at 1 s: steady readings + noise, written in blocks with the fast writer."""
-    from data_io.logs import csv_header, csv_rows, number_cells
+    from heatsight.data_io.logs import csv_header, csv_rows, number_cells
 
     rng = np.random.default_rng(seed)
     names = ["time [s]"] + [f"TC{k + 1:02d}" for k in range(N_SENSORS)]
@@ -93,7 +93,7 @@ def peak_memory_mb(folder: Path, log: Path, out: Path) -> float:
 def main() -> None:
     import pandas as pd
 
-    from data_io.cli import main as cli
+    from heatsight.data_io.cli import main as cli
 
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     ap.add_argument("--rows", type=int, default=1_000_000, help="rows of the long log (default 1e6)")

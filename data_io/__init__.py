@@ -2,7 +2,7 @@
 
 The only layer that touches files and the terminal.  Library use::
 
-    from data_io import load_case, read_layout, read_readings
+    from heatsight.data_io import load_case, read_layout, read_readings
     case = load_case("plate.toml")
     layout = read_layout(case.sensors.layout, case.cylinder)
     readings = read_readings(case.sensors.readings, layout)

@@ -50,10 +50,10 @@ from typing import Any, Callable
 
 import numpy as np
 
-from forward.errors import ForwardModelError
-from forward.faces import (Convection, FaceCondition, Flux, Insulated, Temperature,
+from ..forward.errors import ForwardModelError
+from ..forward.faces import (Convection, FaceCondition, Flux, Insulated, Temperature,
                            UnknownFlux, UnknownTemperature)
-from forward.geometry import Cylinder
+from ..forward.geometry import Cylinder
 
 from .errors import InputError
 from .textfile import read_text
@@ -215,7 +215,7 @@ class Case:
 
     def build_model(self, tolerance: float = 1e-8):
         """The forward.CylinderModel of this case (built, not solved here)."""
-        from forward import CylinderModel
+        from ..forward import CylinderModel
 
         return CylinderModel(self.cylinder, dict(self.faces), tolerance=tolerance)
 

@@ -19,9 +19,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from forward.errors import ForwardModelError
+from ..forward.errors import ForwardModelError
 
-from inverse.errors import InverseError
+from ..inverse.errors import InverseError
 
 from .errors import InputError
 

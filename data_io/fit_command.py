@@ -10,14 +10,13 @@ from pathlib import Path
 
 import pandas as pd
 
-from forward.errors import ForwardModelError
-from inverse import SensorReadings
-from inverse.errors import InverseError
+from ..forward.errors import ForwardModelError
+from ..inverse import SensorReadings
+from ..inverse.errors import InverseError
 
 from .errors import InputError
 
 OUTPUT_NAMES = ("estimate.csv", "sensors.csv", "summary.json", "points.csv", "report.html")
-DEMO_FOLDER = Path(__file__).resolve().parent.parent / "demo_data"
 
 
 def _progress(done, total):
@@ -63,7 +62,7 @@ def _output_folder(args, case) -> tuple[Path, bool]:
 def run_fit(case_path, *, readings=None, at=None, out=None, overwrite=False, monte_carlo=0, seed=0,
             echo=print):
     """Fit a case and write its outputs; returns (result, output folder)."""
-    import inverse
+    from .. import inverse
 
     from .case import load_case
     from .csv_out import OutputSet, csv_text, json_text
@@ -159,16 +158,23 @@ def add_fit(sub) -> None:
     p.set_defaults(run=_run_fit)
 
 
+def _demo_folder() -> Path:
+    """The demo data shipped inside the installed package (heatsight.demo_data)."""
+    from importlib.resources import files
+    return Path(str(files("heatsight.demo_data")))
+
+
 def _run_demo(args) -> int:
     import json
 
-    case = DEMO_FOLDER / "platen.toml"
+    demo_folder = _demo_folder()
+    case = demo_folder / "platen.toml"
     if not case.is_file():
-        raise InputError("the bundled demo is missing (install heatsight from its source folder "
-                         "with pip install -e)", file=case)
+        raise InputError("the bundled demo is missing from this installation; reinstall heatsight",
+                         file=case)
     out = Path(args.out) if args.out else Path("heatsight-demo")
     result, folder = run_fit(case, out=out, overwrite=True)
-    truth_file = DEMO_FOLDER / "truth.json"
+    truth_file = demo_folder / "truth.json"
     if truth_file.is_file():
         truth = json.loads(truth_file.read_text())
         print(f"demo truth: {truth['story']}")

@@ -35,7 +35,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from inverse.steady import WindowStats, summarize, window_index
+from ..inverse.steady import WindowStats, summarize, window_index
 
 from . import thermocouples as tc
 from .errors import InputError

@@ -314,7 +314,7 @@ def sensor_threshold(result) -> float:
     t = result.summary.get("threshold")
     if t is not None and np.isfinite(t):
         return float(t)
-    from inverse import default_threshold
+    from ..inverse import default_threshold
 
     n = int(result.summary.get("n_sensors_used") or len(result.sensors))
     return default_threshold(max(n, 1))

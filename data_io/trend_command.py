@@ -42,9 +42,9 @@ from pathlib import Path
 
 import numpy as np
 
-from forward.errors import ForwardModelError
-from inverse.errors import InverseError
-from inverse.steady import DEFAULT_DRIFT_K, DEFAULT_FLOOR_K, DEFAULT_WINDOW_S
+from ..forward.errors import ForwardModelError
+from ..inverse.errors import InverseError
+from ..inverse.steady import DEFAULT_DRIFT_K, DEFAULT_FLOOR_K, DEFAULT_WINDOW_S
 
 from .csv_out import OutputSet, neutralize
 from .errors import InputError
@@ -227,9 +227,9 @@ class _Trend:
         the joint evidence of all of them prefers, unless the case fixes the strength or asks
         for another rule.  Without it (--every mode, which streams) the reference window's
         own choice stands."""
-        import inverse
-        from inverse import SensorReadings
-        from inverse.batch import BatchSolver
+        from .. import inverse
+        from ..inverse import SensorReadings
+        from ..inverse.batch import BatchSolver
 
         from .tables import offset_sd
 
@@ -302,7 +302,7 @@ class _Trend:
                           "largest_change_in_sd": 0.0} for z in self.zone_names}
 
     def _set_threshold(self, rows: int) -> None:
-        from inverse.batch import TREND_FAMILY_LEVEL, change_threshold
+        from ..inverse.batch import TREND_FAMILY_LEVEL, change_threshold
 
         self.comparisons = max(rows - 1, 1) * max(len(self.zone_names), 1)
         self.threshold = change_threshold(self.comparisons)

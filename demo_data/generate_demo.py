@@ -21,9 +21,6 @@ from pathlib import Path
 import numpy as np
 
 HERE = Path(__file__).resolve().parent
-sys.path.insert(0, str(HERE.parent / "tests"))
-
-from fem_cylinder import solve_harmonic  # noqa: E402
 
 A, L, K = 0.150, 0.040, 16.0          # m, m, W/(m K): stainless steel (from memory, ~16)
 H_TOP, T_LOAD = 250.0, 273.15 + 40.0  # W/(m^2 K), K
@@ -84,6 +81,9 @@ def weakness_harmonics():
 
 
 def solve():
+    # The independent FEM solver lives beside the tests; this script runs from a checkout.
+    sys.path.insert(0, str(HERE.parent / "tests"))
+    from fem_cylinder import solve_harmonic
     a_m, b_m = weakness_harmonics()
     top = ("R", H_TOP, T_LOAD)
     side = ("N", 0.0)

@@ -19,7 +19,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from forward import Convection, CylinderModel
+from ..forward import Convection, CylinderModel
 
 from .diagnostics import screen_outliers, sensor_table
 from .errors import InverseError

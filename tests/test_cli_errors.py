@@ -5,7 +5,7 @@ import os
 
 import pytest
 
-from data_io.cli import main
+from heatsight.data_io.cli import main
 
 KNOWN = """\
 [part]

@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from data_io.cli import main
+from heatsight.data_io.cli import main
 from test_cli_errors import FIT, LAYOUT, READINGS, files, snapshot, sub
 
 ROOT = Path(__file__).resolve().parent.parent

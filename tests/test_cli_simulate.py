@@ -7,7 +7,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from data_io.cli import SIMULATE_COLUMNS, main
+from heatsight.data_io.cli import SIMULATE_COLUMNS, main
 
 SLAB = """\
 [part]
@@ -137,7 +137,7 @@ def test_help_has_example(argv, capsys):
 def test_console_script_exit_codes(tmp_path):
     """The real process: exit status 2 and one line on stderr, no traceback."""
     case, pts = slab(tmp_path, SLAB.replace('"150 mm"', '"150"'))
-    proc = subprocess.run([sys.executable, "-m", "data_io.cli", "simulate", str(case), "--at", str(pts)],
+    proc = subprocess.run([sys.executable, "-m", "heatsight", "simulate", str(case), "--at", str(pts)],
                           capture_output=True, text=True, timeout=60)
     assert proc.returncode == 2
     assert proc.stdout == ""
@@ -146,7 +146,7 @@ def test_console_script_exit_codes(tmp_path):
 
 
 def test_internal_error_exit_1(tmp_path, capsys, monkeypatch):
-    import data_io.cli as cli
+    import heatsight.data_io.cli as cli
 
     def broken(*a, **k):
         raise ZeroDivisionError("oops")

@@ -6,10 +6,10 @@ import os
 import numpy as np
 import pytest
 
-from data_io.case import Case, FitOptions, load_case
-from data_io.errors import InputError
-from forward import CylinderModel
-from forward.faces import Convection, Flux, Insulated, Temperature, UnknownFlux, UnknownTemperature
+from heatsight.data_io.case import Case, FitOptions, load_case
+from heatsight.data_io.errors import InputError
+from heatsight.forward import CylinderModel
+from heatsight.forward.faces import Convection, Flux, Insulated, Temperature, UnknownFlux, UnknownTemperature
 
 BASE = """\
 [part]

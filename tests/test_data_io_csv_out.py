@@ -7,8 +7,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from data_io import csv_out
-from data_io.errors import InputError
+from heatsight.data_io import csv_out
+from heatsight.data_io.errors import InputError
 
 
 @pytest.mark.parametrize("cell, expected", [

@@ -10,9 +10,9 @@ import pytest
 from matplotlib.figure import Figure
 from matplotlib.projections.polar import PolarAxes
 
-import inverse
-from data_io import plots
-from forward import (Convection, Cylinder, CylinderModel, Flux, Insulated, Temperature, UnknownFlux,
+from heatsight import inverse
+from heatsight.data_io import plots
+from heatsight.forward import (Convection, Cylinder, CylinderModel, Flux, Insulated, Temperature, UnknownFlux,
                      UnknownTemperature)
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"

@@ -5,9 +5,9 @@ import math
 import numpy as np
 import pytest
 
-from data_io.errors import InputError
-from data_io.profiles import load_profile
-from forward.geometry import Cylinder
+from heatsight.data_io.errors import InputError
+from heatsight.data_io.profiles import load_profile
+from heatsight.forward.geometry import Cylinder
 
 CYL = Cylinder(radius=0.15, height=0.04, conductivity=16.0)
 

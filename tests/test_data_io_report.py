@@ -10,10 +10,10 @@ import numpy as np
 import pytest
 from matplotlib.figure import Figure
 
-import inverse
-from data_io import plots, report
-from data_io.case import Zone
-from forward import (Convection, Cylinder, CylinderModel, Flux, Insulated, Temperature, UnknownFlux,
+from heatsight import inverse
+from heatsight.data_io import plots, report
+from heatsight.data_io.case import Zone
+from heatsight.forward import (Convection, Cylinder, CylinderModel, Flux, Insulated, Temperature, UnknownFlux,
                      UnknownTemperature)
 
 N = 14

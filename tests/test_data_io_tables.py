@@ -5,10 +5,10 @@ import math
 import numpy as np
 import pytest
 
-from data_io.errors import InputError
-from data_io.tables import read_layout, read_log, read_points, read_readings, read_snapshot
-from data_io import thermocouples as tc
-from forward.geometry import Cylinder
+from heatsight.data_io.errors import InputError
+from heatsight.data_io.tables import read_layout, read_log, read_points, read_readings, read_snapshot
+from heatsight.data_io import thermocouples as tc
+from heatsight.forward.geometry import Cylinder
 
 CYL = Cylinder(radius=0.15, height=0.04, conductivity=16.0)
 

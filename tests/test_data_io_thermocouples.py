@@ -5,7 +5,7 @@ import math
 
 import pytest
 
-from data_io import thermocouples as tc
+from heatsight.data_io import thermocouples as tc
 
 
 @pytest.mark.parametrize("tc_type, tc_class, t_c, tol", [

@@ -5,8 +5,8 @@ import math
 import numpy as np
 import pytest
 
-from data_io.errors import InputError
-from data_io.units import column_unit, convert, format_quantity, parse_quantity, split_header
+from heatsight.data_io.errors import InputError
+from heatsight.data_io.units import column_unit, convert, format_quantity, parse_quantity, split_header
 
 
 @pytest.mark.parametrize("text, dimension, expected", [

@@ -6,8 +6,8 @@ import pytest
 from threadpoolctl import threadpool_limits
 
 from fem_cylinder import solve_harmonic
-from forward import Convection, Cylinder, Temperature, UnknownFlux
-import inverse
+from heatsight.forward import Convection, Cylinder, Temperature, UnknownFlux
+from heatsight import inverse
 from types import SimpleNamespace
 
 A, L, K = 0.10, 0.03, 20.0

@@ -12,8 +12,8 @@ import types
 import numpy as np
 from threadpoolctl import threadpool_limits
 
-import forward as fw
-import inverse
+import heatsight.forward as fw
+from heatsight import inverse
 
 A, L, K, H, TAMB = 0.10, 0.04, 20.0, 100.0, 300.0
 HARMONICS, TERMS = 2, 4

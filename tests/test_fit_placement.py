@@ -6,8 +6,8 @@ import types
 import numpy as np
 import pytest
 
-import forward as fw
-import inverse
+import heatsight.forward as fw
+from heatsight import inverse
 
 A, L, K, H, TAMB, Q = 0.10, 0.04, 20.0, 50.0, 300.0, 5000.0
 

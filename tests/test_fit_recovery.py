@@ -13,8 +13,8 @@ from scipy.special import iv
 from scipy.stats import norm
 from threadpoolctl import threadpool_limits
 
-import forward as fw
-import inverse
+import heatsight.forward as fw
+from heatsight import inverse
 from fem_cylinder import solve_field
 
 Z95 = norm.ppf(0.975)  # scipy.stats.norm (reference library)

@@ -11,8 +11,8 @@ import numpy as np
 import pytest
 from threadpoolctl import threadpool_limits
 
-import forward as fw
-import inverse
+import heatsight.forward as fw
+from heatsight import inverse
 from fem_cylinder import solve_field
 
 A, L, K, H, TAMB = 0.10, 0.04, 20.0, 100.0, 300.0

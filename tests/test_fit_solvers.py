@@ -10,8 +10,8 @@ import numpy as np
 import pytest
 from threadpoolctl import threadpool_limits
 
-import forward as fw
-import inverse
+import heatsight.forward as fw
+from heatsight import inverse
 from fem_cylinder import solve_field
 
 

@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 from scipy import integrate
 
-from forward import (Convection, Cylinder, CylinderModel, Flux, Insulated, Temperature,
+from heatsight.forward import (Convection, Cylinder, CylinderModel, Flux, Insulated, Temperature,
                      UnknownFlux, UnknownTemperature)
 
 A, L, K = 0.05, 0.08, 20.0

@@ -4,7 +4,7 @@ the backward recurrence underflow (regression: garbage J_0 once orders passed ~1
 import numpy as np
 import scipy.special as sp
 
-from forward.bessel import _JTable, besselj
+from heatsight.forward.bessel import _JTable, besselj
 
 
 def test_high_order_table_matches_scipy():

@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 
 from fem_cylinder import solve_harmonic
-from forward import Convection, Cylinder, CylinderModel, Flux, Temperature, UnknownFlux
+from heatsight.forward import Convection, Cylinder, CylinderModel, Flux, Temperature, UnknownFlux
 
 A, L, K = 0.10, 0.03, 20.0
 

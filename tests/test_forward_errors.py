@@ -10,7 +10,7 @@ import math
 import numpy as np
 import pytest
 
-from forward import (Convection, Cylinder, CylinderModel, Flux, ForwardModelError, IllPosedError,
+from heatsight.forward import (Convection, Cylinder, CylinderModel, Flux, ForwardModelError, IllPosedError,
                      Insulated, Temperature, UnknownFlux, UnknownTemperature)
 
 A, L, K = 0.05, 0.08, 20.0

@@ -13,7 +13,7 @@ import pytest
 from scipy import special
 
 from fem_cylinder import solve_field, solve_harmonic
-from forward import (Convection, Cylinder, CylinderModel, Flux, Insulated, Temperature,
+from heatsight.forward import (Convection, Cylinder, CylinderModel, Flux, Insulated, Temperature,
                      UnknownFlux, UnknownTemperature)
 
 A, L, K = 0.05, 0.08, 20.0  # radius [m], height [m], conductivity [W/(m K)]

@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 from scipy import optimize, special
 
-from forward import (Convection, Cylinder, CylinderModel, Flux, Insulated, Temperature)
+from heatsight.forward import (Convection, Cylinder, CylinderModel, Flux, Insulated, Temperature)
 
 A, L, K = 0.05, 0.08, 20.0  # radius [m], height [m], conductivity [W/(m K)]
 LAM01 = special.jn_zeros(0, 1)[0]  # first zero of J_0 (scipy.special.jn_zeros, reference library)

@@ -11,10 +11,10 @@ import numpy as np
 import pytest
 from scipy import integrate, special
 
-from forward import (Convection, Cylinder, CylinderModel, Flux, Insulated, Temperature,
+from heatsight.forward import (Convection, Cylinder, CylinderModel, Flux, Insulated, Temperature,
                      UnknownFlux, UnknownTemperature)
-from forward.modes import EndCondition, EndFaceModes, SideModes
-from forward.roots import axial_eigenvalues, radial_eigenvalues
+from heatsight.forward.modes import EndCondition, EndFaceModes, SideModes
+from heatsight.forward.roots import axial_eigenvalues, radial_eigenvalues
 
 A, L, K = 0.06, 0.045, 21.0  # radius [m], height [m], conductivity [W/(m K)]
 H_SIDE, H_END = 350.0, 90.0  # W/(m^2 K)

@@ -24,7 +24,7 @@ import numpy as np
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
-from forward import Convection, Cylinder, CylinderModel, Flux, Insulated, Temperature
+from heatsight.forward import Convection, Cylinder, CylinderModel, Flux, Insulated, Temperature
 
 A = 0.05  # radius [m]
 SETTINGS = dict(max_examples=12, deadline=None, derandomize=True,

@@ -13,8 +13,8 @@ import numpy as np
 import pytest
 from scipy import optimize, special
 
-from forward.bessel import besselj, besselj_triplet, ive_orders
-from forward.roots import (axial_eigenvalues, bessel_derivative_zeros, bessel_zeros,
+from heatsight.forward.bessel import besselj, besselj_triplet, ive_orders
+from heatsight.forward.roots import (axial_eigenvalues, bessel_derivative_zeros, bessel_zeros,
                            radial_eigenvalues, robin_radial_roots)
 
 ORDERS = (0, 1, 2, 5, 10, 50)

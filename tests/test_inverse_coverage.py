@@ -5,10 +5,10 @@ import pytest
 from scipy.stats import norm
 from threadpoolctl import threadpool_limits
 
-from inverse.linear_gaussian import LinearGaussianProblem
-from inverse.noise import noise_covariance
-from inverse.strength import choose_strength
-from inverse.strength_average import StrengthAverage
+from heatsight.inverse.linear_gaussian import LinearGaussianProblem
+from heatsight.inverse.noise import noise_covariance
+from heatsight.inverse.strength import choose_strength
+from heatsight.inverse.strength_average import StrengthAverage
 
 Z95 = norm.ppf(0.975)          # 1.95996 (scipy.stats.norm, reference library)
 ALPHA_TRUE = 0.01

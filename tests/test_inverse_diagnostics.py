@@ -4,9 +4,9 @@ import numpy as np
 import pytest
 from threadpoolctl import threadpool_limits
 
-from inverse.diagnostics import COLUMNS, averaged_loo, default_threshold, screen_outliers, sensor_table
-from inverse.strength import choose_strength
-from inverse.linear_gaussian import LinearGaussianProblem
+from heatsight.inverse.diagnostics import COLUMNS, averaged_loo, default_threshold, screen_outliers, sensor_table
+from heatsight.inverse.strength import choose_strength
+from heatsight.inverse.linear_gaussian import LinearGaussianProblem
 
 ALPHA_TRUE = 0.01
 

@@ -6,8 +6,8 @@ from hypothesis import given, settings, strategies as st
 from scipy.stats import multivariate_normal
 from sklearn.linear_model import Ridge
 
-from inverse.errors import InverseError
-from inverse.linear_gaussian import LinearGaussianProblem
+from heatsight.inverse.errors import InverseError
+from heatsight.inverse.linear_gaussian import LinearGaussianProblem
 
 
 def toy(n, K, seed, full_noise=False):

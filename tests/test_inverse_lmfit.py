@@ -6,9 +6,9 @@ import pytest
 from scipy.optimize import minimize
 from threadpoolctl import threadpool_limits
 
-from inverse.errors import InverseError
-from inverse.linear_gaussian import LinearGaussianProblem
-from inverse.lmfit_solver import fit_linear_lmfit, fit_lmfit
+from heatsight.inverse.errors import InverseError
+from heatsight.inverse.linear_gaussian import LinearGaussianProblem
+from heatsight.inverse.lmfit_solver import fit_linear_lmfit, fit_lmfit
 
 
 def toy(n, K, seed, full_noise=False):

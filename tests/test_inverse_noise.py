@@ -3,9 +3,9 @@
 import numpy as np
 import pytest
 
-from inverse.errors import InverseError
-from inverse.linear_gaussian import LinearGaussianProblem
-from inverse.noise import Whitener, noise_covariance
+from heatsight.inverse.errors import InverseError
+from heatsight.inverse.linear_gaussian import LinearGaussianProblem
+from heatsight.inverse.noise import Whitener, noise_covariance
 
 
 def setup(n=9, K=5, seed=0):

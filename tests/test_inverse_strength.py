@@ -4,9 +4,9 @@ import numpy as np
 import pytest
 from scipy.stats import multivariate_normal
 
-from inverse.errors import InverseError, StrengthError
-from inverse.linear_gaussian import LinearGaussianProblem
-from inverse.strength import choose_strength, default_alphas
+from heatsight.inverse.errors import InverseError, StrengthError
+from heatsight.inverse.linear_gaussian import LinearGaussianProblem
+from heatsight.inverse.strength import choose_strength, default_alphas
 
 
 def toy(n=18, K=10, seed=0, alpha_true=0.01, sigma=0.5):

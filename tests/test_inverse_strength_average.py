@@ -4,9 +4,9 @@ import numpy as np
 import pytest
 from scipy.stats import multivariate_normal, norm
 
-from inverse.errors import InverseError
-from inverse.linear_gaussian import LinearGaussianProblem
-from inverse.strength_average import StrengthAverage
+from heatsight.inverse.errors import InverseError
+from heatsight.inverse.linear_gaussian import LinearGaussianProblem
+from heatsight.inverse.strength_average import StrengthAverage
 
 
 def toy(n=14, K=9, seed=0):

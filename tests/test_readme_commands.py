@@ -39,7 +39,7 @@ def test_readme_python_example_runs(monkeypatch):
 
 
 def test_every_command_help_has_an_example(capsys):
-    from data_io.cli import main
+    from heatsight.data_io.cli import main
 
     for cmd in ("fit", "simulate", "check", "demo"):
         assert main([cmd, "--help"]) == 0

@@ -13,12 +13,12 @@ import numpy as np
 import pytest
 from scipy.stats import norm
 
-import forward as fw
-import inverse
-from data_io.case import load_case
-from data_io.tables import read_layout
-from inverse.batch import BatchSolver, change_threshold, face_functionals
-from inverse.face_grid import quadrature
+import heatsight.forward as fw
+from heatsight import inverse
+from heatsight.data_io.case import load_case
+from heatsight.data_io.tables import read_layout
+from heatsight.inverse.batch import BatchSolver, change_threshold, face_functionals
+from heatsight.inverse.face_grid import quadrature
 
 ROOT = Path(__file__).resolve().parent.parent
 CASE = ROOT / "demo_data" / "platen.toml"

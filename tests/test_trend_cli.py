@@ -16,9 +16,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from data_io.cli import main
-from data_io.trend_command import run_trend
-from inverse import steady
+from heatsight.data_io.cli import main
+from heatsight.data_io.trend_command import run_trend
+from heatsight.inverse import steady
 from test_cli_errors import snapshot
 from test_trend_batch import CASE, WEAK_ZONE, platen
 

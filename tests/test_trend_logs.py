@@ -8,12 +8,12 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from data_io.errors import InputError
-from data_io.logs import (LogReader, WindowAccumulator, count_rows, csv_rows, number_cells, open_log,
+from heatsight.data_io.errors import InputError
+from heatsight.data_io.logs import (LogReader, WindowAccumulator, count_rows, csv_rows, number_cells, open_log,
                           text_cells)
-from data_io.tables import read_layout, read_log
-from forward import Cylinder
-from inverse import steady
+from heatsight.data_io.tables import read_layout, read_log
+from heatsight.forward import Cylinder
+from heatsight.inverse import steady
 
 CYL = Cylinder(radius=0.15, height=0.04, conductivity=16.0)
 LAYOUT = "sensor,r [mm],theta [deg],z [mm],type,class\nTC1,0,0,10,K,1\nTC2,50,90,10,K,2\nTC3,100,180,5,,\n"

@@ -9,8 +9,8 @@ between its rates at the window's ends, which gives exact bounds (margins cover 
 import numpy as np
 import pytest
 
-from inverse import steady
-from inverse.errors import InverseError
+from heatsight.inverse import steady
+from heatsight.inverse.errors import InverseError
 
 W, D = 600.0, 0.5                    # the defaults: 10 min windows, 0.5 K of drift
 

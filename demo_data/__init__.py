@@ -1,0 +1,1 @@
+"""The bundled demo: a heated platen (case, layout, readings, truth)."""

@@ -1,0 +1,30 @@
+"""heatsight: infer the unseen face of a heated cylinder from a few thermocouples.
+
+One import package with three layers, installed from the repository's top-level folders:
+``heatsight.forward`` (physics) <- ``heatsight.inverse`` (statistics) <- ``heatsight.data_io``
+(files, units, figures, report, command line).  Nothing heavy is imported until used, so
+``import heatsight`` and ``heatsight --help`` stay quick.
+
+    import heatsight
+    result = heatsight.fit("platen.toml")
+"""
+
+from __future__ import annotations
+
+import importlib
+
+__all__ = ["fit", "forward", "inverse", "data_io"]
+
+_SUBPACKAGES = ("forward", "inverse", "data_io")
+
+
+def fit(case, **options):
+    """Fit the unknown face of the case file `case` (a path); see ``heatsight.data_io.api.fit``."""
+    from .data_io.api import fit as _fit
+    return _fit(case, **options)
+
+
+def __getattr__(name):
+    if name in _SUBPACKAGES:
+        return importlib.import_module(f"{__name__}.{name}")
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
