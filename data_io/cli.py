@@ -23,6 +23,7 @@ from ..forward.errors import ForwardModelError
 
 from ..inverse.errors import InverseError
 
+from .arguments import positive_float
 from .errors import InputError
 
 PROG = "heatsight"
@@ -45,16 +46,6 @@ class _Parser(argparse.ArgumentParser):
 
 def _warn(message: str) -> None:
     print(f"{PROG}: warning: {message}", file=sys.stderr)
-
-
-def _positive_float(text: str) -> float:
-    try:
-        value = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a positive number, got {text!r}") from None
-    if not (np.isfinite(value) and value > 0):
-        raise argparse.ArgumentTypeError(f"expected a positive number, got {text!r}")
-    return value
 
 
 # ---------------------------------------------------------------------------- simulate
@@ -124,7 +115,7 @@ def _add_simulate(sub) -> None:
     p.add_argument("case", metavar="CASE.toml", help="case file (TOML)")
     p.add_argument("--at", required=True, metavar="POINTS.csv", help="query points: r, theta, z")
     p.add_argument("--out", metavar="FILE", help="output CSV file (default: standard output)")
-    p.add_argument("--tolerance", type=_positive_float, default=DEFAULT_TOLERANCE, metavar="REL",
+    p.add_argument("--tolerance", type=positive_float, default=DEFAULT_TOLERANCE, metavar="REL",
                    help=f"relative truncation tolerance of the series (default {DEFAULT_TOLERANCE:g})")
     p.set_defaults(run=_run_simulate)
 

@@ -51,6 +51,30 @@ def check_output_path(path, inputs=()) -> Path:
     return path
 
 
+#: files a fit writes into its output folder (a trend adds its own); none may be an input
+FIT_OUTPUT_NAMES = ("estimate.csv", "sensors.csv", "summary.json", "points.csv", "report.html")
+
+
+def output_folder(out, case, overwrite: bool, names=FIT_OUTPUT_NAMES) -> tuple[Path, bool]:
+    """The output folder `out` and whether it must be created; refuses a file, a non-empty
+    folder (unless overwrite), a missing parent, and a folder where an output would replace
+    one of the case's input files."""
+    out = Path(out)
+    if out.exists() and not out.is_dir():
+        raise InputError("exists and is not a folder; --out names a folder", file=out)
+    if out.is_dir() and any(out.iterdir()) and not overwrite:
+        raise InputError("the output folder is not empty; choose another --out or add --overwrite",
+                         file=out)
+    if not out.parent.is_dir():
+        raise InputError(f"the folder {out.parent} does not exist", file=out)
+    inputs = {p.resolve() for p in case.input_files()}
+    for name in names:
+        if (out / name).resolve() in inputs:
+            raise InputError(f"{name} in the output folder is an input of this run; choose another --out",
+                             file=out)
+    return out, not out.exists()
+
+
 def _default_mode() -> int:
     """Permissions of a newly created file under the current umask (mkstemp uses 0600)."""
     mask = os.umask(0)

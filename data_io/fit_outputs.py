@@ -6,7 +6,10 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from .units import from_si
+from .display import FILE_UNITS, deg, file_display
+
+#: sensor readings and predictions are temperatures whatever the face quantity
+_TEMPERATURE = file_display("temperature")
 
 CAUTION = ("Estimates support engineering judgement; they do not replace direct measurement, "
            "interlocks or inspection. Heated hardware can burn and heaters are electrical "
@@ -14,14 +17,13 @@ CAUTION = ("Estimates support engineering judgement; they do not replace direct 
 
 
 def display_unit(result) -> str:
-    return "degC" if result.quantity == "temperature" else "W/m^2"
+    """Unit of the face quantity in the output files (data_io.display)."""
+    return file_display(result.quantity).unit
 
 
 def _value(result, x):
-    """An estimate value from SI to the display unit (absolute temperature -> degC)."""
-    if result.quantity == "temperature":
-        return from_si(np.asarray(x, float), "temperature", "degC")
-    return np.asarray(x, float)
+    """An estimate value from SI to the file unit (absolute temperature -> degC)."""
+    return file_display(result.quantity).value(np.asarray(x, float))
 
 
 def _spread(x):
@@ -30,7 +32,7 @@ def _spread(x):
 
 
 def _deg(x):
-    return from_si(np.asarray(x, float), "angle", "deg")
+    return deg(np.asarray(x, float))
 
 
 def estimate_frame(result) -> pd.DataFrame:
@@ -49,7 +51,7 @@ def _where(at):
 def sensor_records(result) -> list[dict]:
     s = result.sensors
     out = []
-    temp = lambda x: float(from_si(float(x), "temperature", "degC"))  # noqa: E731
+    temp = lambda x: float(_TEMPERATURE.value(float(x)))  # noqa: E731
     for _, row in s.iterrows():
         out.append({
             "sensor": str(row["sensor"]),
@@ -95,9 +97,9 @@ def summary_dict(result, *, case_path=None, readings_path=None) -> dict:
         for key, c in s["calibrated"].items():
             v, sd = c["value"], c["sd"]
             if c["parameter"] == "ambient":
-                v = float(from_si(v, "temperature", "degC"))
+                v = float(_TEMPERATURE.value(v))
             cal[key] = {"face": c["face"], "parameter": c["parameter"], "value": v, "sd": sd,
-                        "unit": "degC" if c["parameter"] == "ambient" else "W/(m^2*K)"}
+                        "unit": _TEMPERATURE.unit if c["parameter"] == "ambient" else "W/(m^2*K)"}
         out["calibrated"] = cal
     if case_path is not None:
         out["case"] = str(case_path)
@@ -112,7 +114,7 @@ def points_frame(result, points) -> pd.DataFrame:
     r, th, z = (p[c].to_numpy(float) for c in ("r", "theta", "z"))
     mean, sd, lo, hi = result.predict(r, th, z)
     q = result.predict_flux(r, th, z) + 0.0
-    T = lambda x: from_si(np.asarray(x, float), "temperature", "degC")  # noqa: E731
+    T = lambda x: _TEMPERATURE.value(np.asarray(x, float))  # noqa: E731
     return pd.DataFrame({"r_m": r, "theta_deg": _deg(th), "z_m": z, "temperature_degC": T(mean),
                          "std": sd, "lower": T(lo), "upper": T(hi),
                          "qr_W_m2": q[0], "qtheta_W_m2": q[1], "qz_W_m2": q[2]})
@@ -126,7 +128,7 @@ def console_summary(result, folder) -> str:
     """A short plain-text summary for the terminal."""
     s = summary_dict(result)
     u = s["unit"]
-    du = "K" if u == "degC" else u
+    du = FILE_UNITS[s["quantity"]][1]
     lines = [f"{s['face']} face {s['quantity'].replace('_', ' ')} ({u}):",
              f"  mean            {_fmt(s['mean'])} +- {_fmt(s['mean_sd'], 2)} {du}",
              f"  min             {_fmt(s['min'])} at r = {s['min_at']['r_m'] * 1e3:.3g} mm, "

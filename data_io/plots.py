@@ -16,13 +16,13 @@ from __future__ import annotations
 
 import io
 import math
-from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 from matplotlib.figure import Figure  # no pyplot: no global state, PNGs through the Agg renderer
 
 from .csv_out import atomic_write_bytes
+from .display import display_for, display_of
 from .units import from_si
 
 DPI = 110
@@ -41,11 +41,6 @@ FLAG_STYLE = {
                       label="sensor set aside"),
 }
 FLAG_COLOUR = {"ok": "#1f5f8b", "suspect": "#d08a00", "set aside": "#d03c50"}
-UNIT_SYMBOLS = {"degC": "°C", "K": "K", "W/m^2": "W/m²", "kW/m^2": "kW/m²", "mm": "mm", "deg": "°",
-                "W": "W", "W/(m*K)": "W/(m·K)", "W/(m^2*K)": "W/(m²·K)"}
-FACE_WORDS = {"bottom": "bottom end face (z = 0)", "top": "top end face (z = height)",
-              "side": "side wall (r = radius)"}
-QUANTITY_WORDS = {"temperature": "temperature", "heat_flux": "heat flux into the part"}
 CRITERION_WORDS = {
     "log_evidence": "log marginal likelihood of the readings",
     "gcv": "generalized cross-validation function",
@@ -54,77 +49,8 @@ CRITERION_WORDS = {
 }
 #: depth [nepers] of the log-evidence curve shown below its peak
 EVIDENCE_DEPTH = 60.0
-#: heat flux is shown in kW/m^2 once the largest magnitude on the face reaches this [W/m^2]
-KILO_FLUX = 1.0e4
-
-
-def symbol(unit: str) -> str:
-    """Printable symbol of a unit name used here ("degC" -> "°C", "W/m^2" -> "W/m²")."""
-    return UNIT_SYMBOLS.get(unit, unit)
-
-
 #: Text properties for user text (sensor names...): shown literally, a '$' starts no mathematics
 LITERAL = {"parse_math": False}
-
-
-@dataclass(frozen=True)
-class Display:
-    """How the face quantity of a result is shown: unit of values, of differences (sd, band
-    widths), their symbols and the words for the quantity and the face."""
-
-    quantity: str
-    unit: str
-    diff_unit: str
-    face: str
-
-    @property
-    def dimension(self) -> str:
-        return "temperature" if self.quantity == "temperature" else "heat_flux"
-
-    @property
-    def diff_dimension(self) -> str:
-        return "temperature_difference" if self.quantity == "temperature" else "heat_flux"
-
-    @property
-    def symbol(self) -> str:
-        return symbol(self.unit)
-
-    @property
-    def diff_symbol(self) -> str:
-        return symbol(self.diff_unit)
-
-    @property
-    def words(self) -> str:
-        return QUANTITY_WORDS.get(self.quantity, self.quantity.replace("_", " "))
-
-    @property
-    def face_words(self) -> str:
-        return FACE_WORDS.get(self.face, self.face)
-
-    @property
-    def on_face(self) -> str:
-        """'temperature on the side wall (r = radius)', 'heat flux into the part through the
-        bottom end face (z = 0)'."""
-        return f"{self.words} {'on' if self.quantity == 'temperature' else 'through'} the {self.face_words}"
-
-    def value(self, si):
-        """Absolute values (estimate, bounds) in the display unit."""
-        return from_si(si, self.dimension, self.unit)
-
-    def diff(self, si):
-        """Differences (sd, band width, non-uniformity) in the display unit."""
-        return from_si(si, self.diff_dimension, self.diff_unit)
-
-
-def display_for(result) -> Display:
-    """Display units for `result`: degC (differences K) for temperature; W/m^2, or kW/m^2
-    when the face reaches KILO_FLUX, for heat flux."""
-    if result.quantity == "temperature":
-        return Display("temperature", "degC", "K", result.face)
-    est = np.asarray(result.grid["estimate"], float)
-    big = float(np.nanmax(np.abs(est))) if est.size else 0.0
-    unit = "kW/m^2" if big >= KILO_FLUX else "W/m^2"
-    return Display("heat_flux", unit, unit, result.face)
 
 
 def _mm(x):
@@ -497,14 +423,8 @@ def trend_figure(trend: dict) -> Figure:
     ``lower``, ``upper``, ``change``, ``limit``, ``flag``) and ``reference`` ((start, end) on
     the time axis, or None).
     """
-    quantity = trend["quantity"]
     mean = trend["mean"]
-    if quantity == "temperature":
-        d = Display("temperature", "degC", "K", trend["face"])
-    else:
-        big = float(np.nanmax(np.abs(mean["value"]))) if np.any(np.isfinite(mean["value"])) else 0.0
-        unit = "kW/m^2" if big >= KILO_FLUX else "W/m^2"
-        d = Display("heat_flux", unit, unit, trend["face"])
+    d = display_of(trend["quantity"], trend["face"], mean["value"])
     zones = list(trend.get("zones") or [])
     t = np.asarray(trend["time"])
     fig = _new_figure(9.0, 3.0 + (4.6 if zones else 0.0))

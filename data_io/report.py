@@ -20,7 +20,10 @@ from pathlib import Path
 import numpy as np
 
 from . import plots
+from ..inverse.bands import Z95
+
 from .csv_out import atomic_write_text
+from .display import display_for
 from .units import from_si, to_display, ureg
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
@@ -115,7 +118,7 @@ class _Fmt:
     """Formatting of the face quantity of one result in its display unit."""
 
     def __init__(self, result):
-        self.d = plots.display_for(result)
+        self.d = display_for(result)
         if self.d.quantity == "temperature":
             self.decimals = 2
         else:
@@ -239,12 +242,11 @@ def _kv_table(rows) -> str:
 def _answers(result, fmt: _Fmt) -> str:
     s = result.summary
     d = fmt.d
-    z95 = 1.959963984540054  # standard normal 97.5 % quantile
     mean, mean_sd = s.get("mean"), s.get("mean_sd")
     rows = [
         ("estimated face", f"{d.face_words}: {d.words} [{d.symbol}]"),
         ("face mean", f"{fmt.value(mean)} (sd {fmt.sd(mean_sd)}; 95 % band "
-                      f"{fmt.band(mean - z95 * mean_sd, mean + z95 * mean_sd)})"
+                      f"{fmt.band(mean - Z95 * mean_sd, mean + Z95 * mean_sd)})"
          if _finite(mean) and _finite(mean_sd) else fmt.value(mean)),
         ("minimum", f"{fmt.value(s.get('min'))} (sd {fmt.sd(s.get('min_sd'))}) "
                     f"{_position(result.face, s.get('min_at'))}"),

@@ -29,6 +29,9 @@ cancels in changes between windows (design notes §5).
 Defaults (common practice, no source): windows of 10 min, drift below 0.5 K over a window,
 a floor of 0.05 K.
 
+`WindowAccumulator` builds these statistics from a stream of chunks (a log longer than
+memory), carrying over the window that spans a chunk boundary.
+
 All arrays are SI: times in s, readings in K.
 """
 
@@ -218,3 +221,46 @@ def detect(times, values, window: float = DEFAULT_WINDOW_S, drift_limit: float =
     idx = window_index(t, t[0] if origin is None else origin, window)
     stats = summarize(t, values, idx, window)
     return stats, stats.steady(drift_limit)
+
+
+class WindowAccumulator:
+    """Steady-window statistics of a stream of chunks: windows of `window` s from the first
+    time; complete windows are summarized as chunks arrive, the window spanning a chunk
+    boundary is carried over.  `stats` holds every window finished so far."""
+
+    def __init__(self, n_sensors: int, window: float):
+        self.window = float(window)
+        self.n = int(n_sensors)
+        self.origin = None
+        self._parts: list[WindowStats] = []
+        self._carry_t = np.zeros(0)
+        self._carry_x = np.zeros((0, self.n))
+        self._stats: WindowStats | None = None
+
+    def add(self, times, values) -> None:
+        if self.origin is None and len(times):
+            self.origin = float(times[0])
+        t = np.concatenate([self._carry_t, times]) if self._carry_t.size else np.asarray(times, float)
+        x = np.concatenate([self._carry_x, values]) if self._carry_x.size else np.asarray(values, float)
+        if t.size == 0:
+            return
+        idx = window_index(t, self.origin, self.window)
+        done = int(np.searchsorted(idx, idx[-1], side="left"))
+        if done:
+            self._parts.append(summarize(t[:done], x[:done], idx[:done], self.window))
+            self._stats = None
+        self._carry_t, self._carry_x = t[done:].copy(), x[done:].copy()
+
+    def finish(self) -> None:
+        if self._carry_t.size:
+            idx = window_index(self._carry_t, self.origin, self.window)
+            self._parts.append(summarize(self._carry_t, self._carry_x, idx, self.window))
+            self._stats = None
+        self._carry_t, self._carry_x = np.zeros(0), np.zeros((0, self.n))
+
+    @property
+    def stats(self) -> WindowStats:
+        if self._stats is None:
+            self._stats = WindowStats.concat(self._parts) if self._parts else WindowStats.empty(self.n, self.window)
+            self._parts = [self._stats]
+        return self._stats

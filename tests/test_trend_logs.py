@@ -9,8 +9,9 @@ import pandas as pd
 import pytest
 
 from heatsight.data_io.errors import InputError
-from heatsight.data_io.logs import (LogReader, WindowAccumulator, count_rows, csv_rows, number_cells, open_log,
-                          text_cells)
+from heatsight.data_io.fast_csv import csv_rows, number_cells, text_cells
+from heatsight.data_io.logs import LogReader, count_rows, open_log
+from heatsight.inverse.steady import WindowAccumulator
 from heatsight.data_io.tables import read_layout, read_log
 from heatsight.forward import Cylinder
 from heatsight.inverse import steady

@@ -1,0 +1,118 @@
+"""The steps of a fit shared by `heatsight fit` and `heatsight.fit(...)`: read the case and
+its tables, fit, build every output file, write them all or none.
+
+    case, readings_path = load_fit_case(path, readings)
+    result, points = fit_case(case, readings_path, at=...)
+    files = output_files(result, case, readings_path, points)
+    write_outputs(folder, create, files)
+"""
+
+from __future__ import annotations
+
+import shutil
+from pathlib import Path
+
+import pandas as pd
+
+from ..forward.errors import ForwardModelError
+from ..inverse.errors import InverseError
+
+from .errors import InputError
+
+#: the fewest usable readings of a fit
+MIN_READINGS = 3
+
+
+def load_fit_case(case_path, readings=None, *, how_to_give="give --readings FILE"):
+    """The case (checked for a fit) and the path of its snapshot readings (`readings`
+    overrides the case's [sensors] readings)."""
+    from .case import load_case
+
+    case = load_case(case_path, purpose="fit")
+    case.require("fit")
+    readings_path = Path(readings) if readings else case.sensors.readings
+    if readings_path is None:
+        raise InputError(f"no readings: add [sensors] readings = \"readings.csv\" or {how_to_give}",
+                         file=case.path, where="sensors.readings")
+    return case, readings_path
+
+
+def fit_case(case, readings_path, *, at=None, **options):
+    """Read the layout, the snapshot readings and the query points `at` (or None), and fit;
+    the readers' warnings lead the result's.  options: those of ``heatsight.inverse.fit``.
+    Returns (FitResult, points Table or None)."""
+    from .. import inverse
+    from ..inverse import SensorReadings
+
+    from .tables import read_layout, read_points, read_snapshot, readings_form
+
+    layout = read_layout(case.sensors.layout, case.cylinder)
+    if readings_form(readings_path) == "log":
+        raise InputError("is a log (a time column, then one column per sensor); fit takes a snapshot "
+                         "with columns sensor, temperature", file=readings_path)
+    snapshot = read_snapshot(readings_path, layout)
+    points = read_points(at, case.cylinder) if at else None
+    rd = SensorReadings.from_frame(snapshot.frame)
+    if rd.n < MIN_READINGS:
+        raise InputError(f"only {rd.n} usable sensor reading(s); a fit needs at least {MIN_READINGS}",
+                         file=readings_path)
+    try:
+        result = inverse.fit(case, rd, **options)
+    except (InverseError, ForwardModelError) as exc:
+        raise InputError(str(exc), file=case.path) from None
+    reader_warnings = layout.warnings + snapshot.warnings + (points.warnings if points else [])
+    result.warnings[:0] = reader_warnings
+    result.summary["warnings"][:0] = reader_warnings
+    return result, points
+
+
+def case_text(case, readings_path) -> list:
+    """(label, value) lines describing the case as the user wrote it, for the report."""
+    part = ", ".join(f"{k} {v}" for k, v in case.part_text.items())
+    lines = [("case file", str(case.path)), ("part", part)]
+    for face in case.faces:
+        text = case.face_text.get(face, {})
+        cond = text.get("condition", case.faces[face].condition)
+        extra = ", ".join(f"{k} = {v}" for k, v in text.items() if k != "condition")
+        lines.append((f"{face} face", cond + (f" ({extra})" if extra else "")))
+    lines.append(("sensor layout", str(case.sensors.layout)))
+    lines.append(("readings", str(readings_path)))
+    return lines
+
+
+def output_files(result, case, readings_path, points=None) -> list[tuple[str, object]]:
+    """(file name, text or bytes) of every output of a fit, in writing order: estimate.csv,
+    sensors.csv, summary.json, points.csv (with points), the PNG figures, report.html."""
+    from .csv_out import csv_text, json_text
+    from .fit_outputs import estimate_frame, points_frame, summary_dict
+    from .plots import all_figures, figure_png
+    from .report import render_report
+
+    summary = summary_dict(result, case_path=case.path, readings_path=readings_path)
+    figures = {name: figure_png(fig) for name, fig in all_figures(result).items()}
+    html = render_report(result, case_text=case_text(case, readings_path), figures=figures,
+                         title=f"heatsight fit: {case.path.name}")
+    files = [("estimate.csv", csv_text(estimate_frame(result))),
+             ("sensors.csv", csv_text(pd.DataFrame(summary["sensors"]))),
+             ("summary.json", json_text(summary))]
+    if points is not None:
+        files.append(("points.csv", csv_text(points_frame(result, points))))
+    files += [(f"{name}.png", png) for name, png in figures.items()]
+    files.append(("report.html", html))
+    return files
+
+
+def write_outputs(folder: Path, create: bool, files) -> None:
+    """Write every file into `folder` or none (a folder created here is removed on failure)."""
+    from .csv_out import OutputSet
+
+    if create:
+        folder.mkdir()
+    try:
+        with OutputSet(folder) as outset:
+            for name, content in files:
+                outset.add(name, content)
+    except BaseException:
+        if create:
+            shutil.rmtree(folder, ignore_errors=True)
+        raise

@@ -1,0 +1,349 @@
+"""One `heatsight trend` run, the I/O side: the log stream, the rows waiting for the
+reference (--every), trend.csv written row by row, and a bounded digest for the figure.
+
+Every statistical decision (reference window, strengths, change flags) is made by
+inverse.trend; this module feeds it the log and writes what it answers, in file units
+(data_io.display: degC or W/m^2).
+"""
+
+from __future__ import annotations
+
+import math
+import sys
+
+import numpy as np
+
+from ..forward.errors import ForwardModelError
+from ..inverse import trend as stats_trend
+from ..inverse.errors import InverseError
+
+from .csv_out import neutralize
+from .display import file_display
+from .errors import InputError
+from .fast_csv import csv_header, csv_rows, number_cells, text_cells
+
+#: the trend figure shows at most about twice this many points (longer trends are binned)
+FIGURE_POINTS = 1500
+#: a progress bar is drawn from this many chunks on
+PROGRESS_MIN_CHUNKS = 4
+#: windows inverted per call of the batch solver
+WINDOW_BATCH = 4096
+
+
+class Progress:
+    """A progress bar on stderr for long logs (from PROGRESS_MIN_CHUNKS chunks on)."""
+
+    def __init__(self, total: int, enabled: bool):
+        self.total, self.enabled, self.done = max(int(total), 1), enabled and total >= PROGRESS_MIN_CHUNKS, 0
+
+    def step(self):
+        self.done += 1
+        if self.enabled:
+            width = 30
+            filled = int(width * min(self.done, self.total) / self.total)
+            print(f"\r  reading the log: chunk {self.done}/{self.total} [{'#' * filled}{'.' * (width - filled)}]",
+                  end="", file=sys.stderr, flush=True)
+
+    def close(self):
+        if self.enabled and self.done:
+            print("", file=sys.stderr, flush=True)
+
+
+class Digest:
+    """Bounded summary of a long trend for its figure: consecutive rows are merged into bins
+    (mean of values, min of lower bounds, max of upper bounds, any flag), and bins merge
+    pairwise whenever there are more than 2 x FIGURE_POINTS of them."""
+
+    KINDS = {"time": "mean", "value": "mean", "lower": "min", "upper": "max", "change": "mean",
+             "limit": "max", "flag": "any"}
+
+    def __init__(self):
+        self.size = 1
+        self.bins: dict = {}
+        self.count = np.zeros(0)
+
+    @staticmethod
+    def _reduce(kind, x, starts, weights):
+        if kind == "mean":
+            return np.add.reduceat(x * weights, starts) / np.add.reduceat(weights, starts)
+        if kind == "min":
+            return np.fmin.reduceat(x, starts)
+        if kind == "max":
+            return np.fmax.reduceat(x, starts)
+        return np.logical_or.reduceat(x.astype(bool), starts)
+
+    def add(self, columns: dict):
+        n = len(next(iter(columns.values())))
+        if n == 0:
+            return
+        starts = np.arange(0, n, self.size)
+        ones = np.ones(n)
+        for key, x in columns.items():
+            kind = self.KINDS[key[-1]]
+            part = self._reduce(kind, np.asarray(x, float) if kind != "any" else np.asarray(x), starts, ones)
+            self.bins[key] = np.concatenate([self.bins[key], part]) if key in self.bins else part
+        self.count = np.concatenate([self.count, np.add.reduceat(ones, starts)])
+        while self.count.size > 2 * FIGURE_POINTS:
+            starts = np.arange(0, self.count.size, 2)
+            for key, x in self.bins.items():
+                self.bins[key] = self._reduce(self.KINDS[key[-1]], x, starts, self.count)
+            self.count = np.add.reduceat(self.count, starts)
+            self.size *= 2
+
+
+class TrendRun:
+    """One run: the log stream in, trend.csv rows and the figure digest out."""
+
+    def __init__(self, case, layout, columns, reader, *, window, drift, sigma_floor, every):
+        from ..inverse.readings import DEFAULT_SIGMA_K
+        from ..inverse.steady import WindowAccumulator
+
+        self.case, self.layout, self.cols, self.reader = case, layout, columns, reader
+        self.window, self.drift, self.floor, self.every = float(window), float(drift), float(sigma_floor), every
+        self.windows = WindowAccumulator(columns.n, window)
+        lay = layout.frame.loc[columns.sensors]
+        sig = lay["sigma"].to_numpy(float)
+        self.sensors = stats_trend.SensorSet(
+            list(columns.sensors), *(lay[c].to_numpy(float) for c in ("r", "theta", "z")),
+            np.where(np.isfinite(sig), sig, DEFAULT_SIGMA_K), lay["position_tolerance"].to_numpy(float))
+        self.names = self.sensors.names
+        self.warnings: list[str] = list(columns.warnings)
+        self.model: stats_trend.TrendModel | None = None
+        self.flags: stats_trend.ChangeFlags | None = None
+        self.pending: list = []
+        self.pending_rows = 0
+        self.row_counter = 0
+        self.trend_rows = 0
+        self.skipped = 0
+        self.stream = None
+        self.digest = Digest()
+        self.last_row = None
+        self.first_row = None
+        self.units = None
+
+    # ---------------------------------------------------------------- statistics (inverse.trend)
+    def _reference(self, final: bool) -> int | None:
+        try:
+            i, notes = stats_trend.choose_reference(self.windows.stats, self.drift, final=final,
+                                                    pending_rows=self.pending_rows, window=self.window,
+                                                    names=self.names)
+        except InverseError as exc:
+            raise InputError(str(exc), file=self.cols.path) from None
+        self.warnings.extend(notes)
+        return i
+
+    def _setup(self, i: int, steady=None) -> None:
+        from .. import inverse
+        from .tables import offset_sd
+
+        def fit(readings, strength):
+            try:
+                return inverse.fit(self.case, readings, strength=strength)
+            except (InverseError, ForwardModelError) as exc:
+                raise InputError(f"fit of the reference window: {exc}", file=self.case.path) from None
+
+        def offsets(level):
+            tau, notes = offset_sd(self.layout.frame.loc[self.names], level)
+            return tau, [f"{self.layout.path}: {n}" for n in notes]
+
+        try:
+            self.model = stats_trend.TrendModel.build(
+                fit, self.windows.stats, i, self.sensors, offsets, floor=self.floor, zones=self.case.zones,
+                steady=steady, joint_evidence=getattr(self.case.fit, "strength_method", "evidence") == "evidence")
+        except InverseError as exc:
+            raise InputError(str(exc), file=self.cols.path) from None
+        self.warnings.extend(self.model.warnings)
+        self.units = file_display(self.model.result.quantity)
+
+    def _set_flags(self, rows: int) -> None:
+        self.flags = stats_trend.ChangeFlags(self.model.zone_names, rows)
+
+    @property
+    def result(self):
+        return self.model.result
+
+    @property
+    def ref_window(self):
+        return self.model.ref_window
+
+    # ---------------------------------------------------------------- rows
+    def _columns(self):
+        names = ["start_s", "end_s"]
+        if self.reader.timestamps:
+            names += ["start_iso", "end_iso"]
+        names += ["n_rows", "n_sensors", "mean", "mean_sd", "min", "max", "nonuniformity", "nonuniformity_sd",
+                  "total_power_W", "total_power_sd_W"]
+        for z in self.model.zone_names:
+            names += [f"{z}_mean", f"{z}_sd", f"{z}_change", f"{z}_change_sd", f"{z}_flag"]
+        return names
+
+    def _write(self, start, end, n_rows, est, d, rv, reference_mask=None):
+        """Write rows: est the batch answers; d (R, n) and rv ((n,) or (R, n)) the rows'
+        readings and random variances, for their changes from the reference window."""
+        if self.stream is None:
+            raise RuntimeError("output stream not open")
+        if self.trend_rows == 0:
+            self.stream.write(csv_header([neutralize(c) for c in self._columns()]).encode("utf-8"))
+        R = start.size
+        if R == 0:
+            return
+        zones = self.model.zone_names
+        change, csd = self.model.changes_of(d, rv, reference_mask)
+        flag = self.flags.update(start, end, change, csd, self.ref_window[0])
+        cells = [number_cells(start, 13), number_cells(end, 13)]
+        if self.reader.timestamps:
+            cells += [text_cells(self.reader.iso(start)), text_cells(self.reader.iso(end))]
+        v = self.units.value
+        cells += [number_cells(n_rows), number_cells(est.n_used), number_cells(v(est.value("mean"))),
+                  number_cells(est.sd_of("mean")), number_cells(v(est.min)), number_cells(v(est.max)),
+                  number_cells(est.nonuniformity), number_cells(est.nonuniformity_sd),
+                  number_cells(est.value("total_power")), number_cells(est.sd_of("total_power"))]
+        words = text_cells(["true", "false"])
+        for j, z in enumerate(zones):
+            flag_cells = np.where(flag[:, j][:, None], words[0], words[1])
+            cells += [number_cells(v(est.value(z))), number_cells(est.sd_of(z)), number_cells(change[:, j]),
+                      number_cells(csd[:, j]), flag_cells]
+        self.stream.write(csv_rows(cells))
+        self.trend_rows += R
+        mean, msd = est.value("mean"), est.sd_of("mean")
+        lo, hi = stats_trend.band95(mean, msd)
+        cols = {("time",): 0.5 * (start + end), ("mean", "value"): mean, ("mean", "lower"): lo,
+                ("mean", "upper"): hi}
+        for j, z in enumerate(zones):
+            val, sd = est.value(z), est.sd_of(z)
+            lo, hi = stats_trend.band95(val, sd)
+            cols.update({(z, "value"): val, (z, "lower"): lo, (z, "upper"): hi, (z, "change"): change[:, j],
+                         (z, "limit"): self.flags.threshold * csd[:, j], (z, "flag"): flag[:, j]})
+        self.digest.add(cols)
+        ok = np.isfinite(mean)
+
+        def row(i):
+            return {"start_s": float(start[i]), "end_s": float(end[i]), "mean": float(v(mean[i])),
+                    "zones": {z: float(v(est.value(z)[i])) for z in zones},
+                    "changes": {z: (float(change[i, j]), float(csd[i, j])) for j, z in enumerate(zones)}}
+
+        if ok.any():
+            self.last_row = row(int(np.flatnonzero(ok)[-1]))
+            if self.first_row is None:
+                self.first_row = row(int(np.flatnonzero(ok)[0]))
+        self.skipped += int((~ok).sum())
+
+    def _rows(self, times, values):
+        used = self.model.used
+        d, rv = values[:, used], self.sensors.reading_sigma[used] ** 2
+        self._write(times, times, np.ones(times.size), self.model.solver.solve(d, rv), d, rv)
+
+    def _flush_pending(self):
+        for t, x in self.pending:
+            self._rows(t, x)
+        self.pending, self.pending_rows = [], 0
+
+    # ---------------------------------------------------------------- the run
+    def run(self, stream, progress: Progress, expected_rows: int):
+        self.stream = stream
+        for chunk in self.reader:
+            self.windows.add(chunk.times, chunk.values)
+            if self.every:
+                keep = (self.row_counter + np.arange(chunk.times.size)) % self.every == 0
+                t, x = chunk.times[keep], chunk.values[keep]
+                if self.model is None:
+                    self.pending.append((t, x))
+                    self.pending_rows += t.size
+                    i = self._reference(final=False)
+                    if i is not None:
+                        self._setup(i)
+                        self._set_flags(math.ceil(expected_rows / self.every))
+                        self._flush_pending()
+                else:
+                    self._rows(t, x)
+            self.row_counter += chunk.times.size
+            progress.step()
+        progress.close()
+        self.windows.finish()
+        self.warnings[:0] = self.reader.warnings()
+        if self.every:
+            if self.model is None:
+                self._setup(self._reference(final=True))
+                self._set_flags(math.ceil(self.row_counter / self.every))
+                self._flush_pending()
+            return
+        stats = self.windows.stats
+        steady = np.flatnonzero(stats.steady(self.drift))
+        if not steady.size:
+            raise InputError(str(stats_trend.no_steady_window(stats, self.drift, self.window, self.names)),
+                             file=self.cols.path)
+        ref = self._reference(final=True)
+        self._setup(ref, steady)
+        self._set_flags(steady.size)
+        sig2 = stats.sigma(self.floor) ** 2
+        means = np.where(stats.valid, stats.mean, np.nan)
+        used = self.model.used
+        for lo in range(0, steady.size, WINDOW_BATCH):
+            w = steady[lo:lo + WINDOW_BATCH]
+            d, rv = means[w][:, used], sig2[w][:, used]
+            self._write(stats.start[w], stats.end[w], stats.n_rows[w], self.model.solver.solve(d, rv), d, rv,
+                        reference_mask=(w == ref))
+
+    # ---------------------------------------------------------------- summaries
+    def figure_data(self) -> dict:
+        b = self.digest.bins
+        t = b.get(("time",), np.zeros(0))
+        if self.reader.timestamps:
+            time = (self.reader.origin_ns + np.rint(t * 1e9).astype(np.int64)).astype("datetime64[ns]")
+            label = "time (UTC)" if self.reader.aware else "time"
+            ref = tuple((self.reader.origin_ns + np.rint(np.array(self.ref_window) * 1e9).astype(np.int64))
+                        .astype("datetime64[ns]"))
+        else:
+            time, label = t / 3600.0, "time [h]"
+            ref = tuple(np.array(self.ref_window) / 3600.0)
+        zones = [{"name": z, **{k: b[(z, k)] for k in ("value", "lower", "upper", "change", "limit", "flag")}}
+                 for z in self.model.zone_names]
+        return {"quantity": self.result.quantity, "face": self.result.face, "time": time, "time_label": label,
+                "mean": {k: b[("mean", k)] for k in ("value", "lower", "upper")}, "zones": zones,
+                "reference": ref}
+
+    def _flag_records(self) -> list[dict]:
+        out = []
+        for f in self.flags.flagged():
+            rec = {"zone": f.zone, "flagged_rows": f.flagged_rows, "first_flagged_start_s": f.first_flagged_start_s,
+                   "largest_change_in_sd": f.largest_change_in_sd, "first_flagged_end_s": f.first_flagged_end_s}
+            if self.reader.timestamps:
+                rec["first_flagged_start_iso"] = str(self.reader.iso([f.first_flagged_start_s])[0])
+            rec.update(change_at_first_flag=f.change_at_first_flag, change_sd_at_first_flag=f.change_sd_at_first_flag)
+            out.append(rec)
+        return out
+
+    def summary(self, case_path, log_path) -> dict:
+        from .fit_outputs import CAUTION, summary_dict
+
+        stats = self.windows.stats
+        steady = stats.steady(self.drift)
+        ref = {"start_s": self.ref_window[0], "end_s": self.ref_window[1]}
+        if self.reader.timestamps:
+            ref.update(start_iso=str(self.reader.iso([self.ref_window[0]])[0]),
+                       end_iso=str(self.reader.iso([self.ref_window[1]])[0]))
+        m = self.model
+        return {
+            "case": str(case_path), "log": str(log_path),
+            "mode": "every" if self.every else "windows", "every": self.every,
+            "window_s": self.window, "drift_K": self.drift, "sigma_floor_K": self.floor,
+            "face": self.result.face, "quantity": self.result.quantity, "unit": self.units.unit,
+            "rows_read": int(self.reader.rows),
+            "windows": {"total": int(stats.size), "complete": int(stats.complete.sum()),
+                        "steady": int(steady.sum())},
+            "trend_rows": int(self.trend_rows),
+            "rows_not_inverted": int(self.skipped),
+            "reference_window": ref,
+            "strength": float(self.result.posterior.alpha),
+            "strength_method": m.strength_rule,
+            "change_strength": float(m.changes.alpha), "change_strength_method": m.change_rule,
+            "sensors_used": [s for s, u in zip(self.names, m.used) if u],
+            "set_aside": list(self.result.summary["set_aside"]),
+            "zones": m.zone_names,
+            "flag_threshold_sd": self.flags.threshold, "flag_family_level": self.flags.family_level,
+            "flag_comparisons": int(self.flags.comparisons),
+            "flags": self._flag_records(),
+            "warnings": list(dict.fromkeys(self.warnings + list(self.result.warnings))),
+            "caution": CAUTION,
+            "reference_fit": summary_dict(self.result, case_path=case_path, readings_path=log_path),
+        }

@@ -1,0 +1,263 @@
+"""Statistics of a trend over a log: the reference window, the strengths, the change flags.
+
+Works on window statistics (inverse.steady.WindowStats) and arrays; no files.
+
+- Reference window (`choose_reference`): the first steady window that has settled (largest
+  drift at most REFERENCE_DRIFT_FRACTION x the drift limit); else the first steady window,
+  with a warning; else (only when streaming every Nth row) the steadiest complete window.
+- Model (`TrendModel.build`): the reference window is fitted (sensor screening), which fixes
+  the sensors of the whole trend.  Strength: the one the joint evidence of all steady windows
+  prefers (windows mode, when the fit's rule is the evidence), else the reference window's own
+  choice.  Changes from the reference are estimated from the readings' difference
+  d_row - d_ref (offsets cancel) with variance S_row + S_ref, at the joint evidence of the
+  other steady windows' differences, else half the trend's strength.
+- Flags (`ChangeFlags`): |change| / sd(change) > Phi^-1(1 - level / (2 m)), m = rows x zones
+  (Bonferroni, family-wise TREND_FAMILY_LEVEL); rows before the reference (the part still
+  settling) are never flagged.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .bands import Z95
+from .batch import TREND_FAMILY_LEVEL, BatchSolver, change_threshold
+from .errors import InverseError
+from .readings import SensorReadings
+
+#: the reference is the first steady window whose largest drift is at most this fraction of
+#: the drift limit: a window just inside the limit may still be settling, and a baseline must
+#: not (common practice, no source)
+REFERENCE_DRIFT_FRACTION = 0.25
+#: when streaming every Nth row, rows wait for the first steady window; past this many the
+#: steadiest complete window so far becomes the reference
+MAX_PENDING_ROWS = 200_000
+
+
+class TrendError(InverseError):
+    """The log cannot give a trend (no steady window, too few sensors); the message says why."""
+
+
+@dataclass
+class SensorSet:
+    """The logged sensors: ids, positions r, theta, z [m, rad, m], the random sd of a single
+    logged reading [K] and the placement tolerance [m]."""
+
+    names: list
+    r: np.ndarray
+    theta: np.ndarray
+    z: np.ndarray
+    reading_sigma: np.ndarray
+    position_tolerance: np.ndarray
+
+
+def choose_reference(stats, drift_limit: float, *, final: bool, pending_rows: int = 0,
+                     window: float | None = None, names=()) -> tuple[int | None, list[str]]:
+    """(index of the reference window or None while waiting for more data, warnings).
+
+    stats: WindowStats so far; final: the whole log has been read; pending_rows: rows waiting
+    (streaming mode; the steadiest complete window is taken once MAX_PENDING_ROWS wait);
+    window: the window length [s] for messages (default stats.window); names: sensor ids."""
+    window = stats.window if window is None else window
+    steady = np.flatnonzero(stats.steady(drift_limit))
+    drift = stats.max_drift()
+    settled = steady[drift[steady] <= REFERENCE_DRIFT_FRACTION * drift_limit]
+    if settled.size:
+        return int(settled[0]), []
+    waiting = not final and pending_rows < MAX_PENDING_ROWS
+    where = "in the log" if final else f"in its first {pending_rows} rows"
+    if steady.size:
+        if waiting:
+            return None, []
+        i = int(steady[0])
+        return i, [f"no steady window drifts less than {REFERENCE_DRIFT_FRACTION * drift_limit:.3g} K {where}; "
+                   f"the reference, the first steady window (t = {stats.start[i]:.6g} to {stats.end[i]:.6g} s, "
+                   f"drift {drift[i]:.3g} K), may still be settling, and its settling shows in every change"]
+    if waiting:
+        return None, []
+    complete = np.flatnonzero(stats.complete & stats.valid.any(axis=1))
+    if not complete.size:
+        if final:
+            raise no_steady_window(stats, drift_limit, window, names)
+        return None, []
+    i = int(complete[np.argmin(drift[complete])])
+    return i, [f"no steady window (every sensor within {drift_limit:g} K over {window:g} s) was found {where}; "
+               f"changes are relative to the steadiest window, t = {stats.start[i]:.6g} to {stats.end[i]:.6g} s, "
+               f"which drifts {drift[i]:.3g} K"]
+
+
+def no_steady_window(stats, drift_limit: float, window: float, names) -> TrendError:
+    """The error for a log without a steady window, naming the steadiest one and the --drift
+    that would accept it."""
+    complete = stats.complete & stats.valid.any(axis=1)
+    if not complete.any():
+        span = stats.end.max() - stats.start.min() if stats.size else 0
+        return TrendError(f"no complete window of {window:g} s in the log (it spans {span:.6g} s); "
+                          f"give a shorter --window")
+    md = np.where(complete, stats.max_drift(), np.inf)
+    i = int(np.argmin(md))
+    worst = int(np.nanargmax(np.where(stats.valid[i], stats.drift[i], -np.inf)))
+    name = names[worst] if worst < len(names) else str(worst + 1)
+    suggest = float(f"{md[i] * 1.25:.2g}")
+    return TrendError(
+        f"no steady window: in every {window:g}-s window some sensor drifts by {drift_limit:g} K or "
+        f"more (the steadiest window, t = {stats.start[i]:.6g} to {stats.end[i]:.6g} s, drifts "
+        f"{md[i]:.3g} K at sensor {name}); if that is steady enough for you, give "
+        f"--drift {suggest:g}, or let the part settle longer")
+
+
+@dataclass
+class TrendModel:
+    """What the reference window fixes for the whole trend.
+
+    result: the reference fit (FitResult); used (n,) bool: sensors kept; solver, changes:
+    BatchSolvers of absolute values and of changes; tau (n,) offset sd [K]; ref_window
+    (start, end) [s]; ref_d, ref_rv: reference readings [K] and their random variances [K^2]
+    of the used sensors; strength_rule, change_rule: how the strengths were chosen."""
+
+    result: object
+    used: np.ndarray
+    solver: BatchSolver
+    changes: BatchSolver
+    tau: np.ndarray
+    ref_window: tuple
+    ref_d: np.ndarray
+    ref_rv: np.ndarray
+    strength_rule: str
+    change_rule: str
+    warnings: list = field(default_factory=list)
+
+    @property
+    def zone_names(self) -> list:
+        return list(self.solver.change_names)
+
+    @classmethod
+    def build(cls, fit, stats, i: int, sensors: SensorSet, offset_sd, *, floor: float, zones=(),
+              steady=None, joint_evidence: bool = True, streaming_hint: bool = False) -> "TrendModel":
+        """Fit the reference window i and fix the sensors and strengths.
+
+        fit(readings, strength) -> FitResult (strength None: the case's rule); offset_sd(level
+        (n,) [K]) -> (tau (n,) [K], notes); steady: indices of every steady window (windows
+        mode) for the joint evidence, used when joint_evidence (the case asks for the
+        evidence), else None (streaming: the reference window's own choice stands)."""
+        warnings: list[str] = []
+        ref_window = (float(stats.start[i]), float(stats.end[i]))
+        valid, mean = stats.valid[i], stats.mean[i]
+        sig = stats.sigma(floor)[i]
+        level = np.where(valid, mean, np.nanmean(np.where(valid, mean, np.nan)))
+        tau, notes = offset_sd(level)
+        warnings.extend(notes)
+        if valid.sum() < 3:
+            raise TrendError(f"the reference window (t = {ref_window[0]:.6g} to {ref_window[1]:.6g} s) has only "
+                             f"{int(valid.sum())} sensor(s) with readings; a fit needs at least 3")
+        s = sensors
+        k = np.flatnonzero(valid)
+        rd = SensorReadings([s.names[j] for j in k], s.r[k], s.theta[k], s.z[k], mean[k], sig[k], tau[k],
+                            s.position_tolerance[k])
+
+        def solver_for(result, aside):
+            u = np.array([n not in aside for n in s.names])
+            return u, BatchSolver.from_fit(result, s.r[u], s.theta[u], s.z[u], offset_sd=tau[u],
+                                           position_tolerance=s.position_tolerance[u], zones=zones)
+
+        result = fit(rd, None)
+        aside = set(result.summary["set_aside"])
+        used, solver = solver_for(result, aside)
+        strength_rule = f"{result.summary['strength_method']} of the reference window"
+        sig2 = stats.sigma(floor) ** 2
+        means = np.where(stats.valid, stats.mean, np.nan)
+        if steady is not None and joint_evidence:
+            alpha, notes = solver.joint_strength(means[steady][:, used], sig2[steady][:, used])
+            warnings.extend(notes)
+            result = fit(rd, alpha)
+            result.summary["strength_method"] = "evidence of all steady windows"
+            aside |= set(result.summary["set_aside"])
+            used, solver = solver_for(result, aside)
+            strength_rule = f"joint evidence of the {len(steady)} steady windows"
+        for name in sorted(aside):
+            warnings.append(f"sensor {name} was set aside in the reference window and is left out of the trend")
+        edf = float(result.summary["effective_parameters"])
+        if edf < 2.0 and solver.change_names:
+            cure = ("run without --every (the strength then comes from all steady windows) or fix [fit] "
+                    "strength in the case" if steady is None else "fix [fit] strength in the case to resolve zones")
+            warnings.append(f"at the trend's smoothing strength the fit has only {edf:.2g} effective "
+                            "parameters: the trend resolves little beyond the face mean, and a change of "
+                            f"one zone shows in all of them; {cure}")
+        ref_d = np.where(valid, mean, np.nan)[used]
+        ref_rv = np.where(valid, sig ** 2, np.nan)[used]
+        changes = solver.changes()
+        change_rule = "half the trend's strength (the prior of a difference of two profiles)"
+        others = [] if steady is None else [w for w in steady if w != i]
+        if others and joint_evidence:
+            X = means[others][:, used] - ref_d
+            RV = sig2[others][:, used] + ref_rv
+            alpha_c, _ = changes.joint_strength(X, RV)
+            changes = solver.changes(alpha_c)
+            change_rule = f"joint evidence of the {len(others)} differences to the reference window"
+        return cls(result, used, solver, changes, tau, ref_window, ref_d, ref_rv, strength_rule, change_rule,
+                   warnings)
+
+    def changes_of(self, d, rv, reference_mask=None):
+        """Changes of each zone from the reference and their noise-only sd, (R, zones) each:
+        d (R, used) readings [K], rv ((used,) or (R, used)) their random variances [K^2];
+        rows in reference_mask (the reference window itself) are exactly 0 +- 0."""
+        ch = self.changes.solve(d - self.ref_d, rv + self.ref_rv)
+        change, csd = ch.values, ch.sd
+        if reference_mask is not None and np.any(reference_mask):
+            change[reference_mask], csd[reference_mask] = 0.0, 0.0
+        return change, csd
+
+
+def band95(value, sd):
+    """(lower, upper) of the 95 % normal band value +- Z95 sd."""
+    return value - Z95 * sd, value + Z95 * sd
+
+
+@dataclass
+class ZoneFlags:
+    """Running record of one zone's flags: rows flagged, the first flagged row (start, end
+    [s], change and its sd) and the largest |change| / sd seen."""
+
+    zone: str
+    flagged_rows: int = 0
+    first_flagged_start_s: float | None = None
+    largest_change_in_sd: float = 0.0
+    first_flagged_end_s: float | None = None
+    change_at_first_flag: float | None = None
+    change_sd_at_first_flag: float | None = None
+
+
+class ChangeFlags:
+    """Flags of zone changes over a trend of `rows` rows (Bonferroni over rows x zones)."""
+
+    def __init__(self, zone_names, rows: int, family_level: float = TREND_FAMILY_LEVEL):
+        self.zone_names = list(zone_names)
+        self.comparisons = max(int(rows) - 1, 1) * max(len(self.zone_names), 1)
+        self.family_level = float(family_level)
+        self.threshold = change_threshold(self.comparisons, self.family_level)
+        self.zones = {z: ZoneFlags(z) for z in self.zone_names}
+
+    def update(self, start, end, change, csd, reference_start: float) -> np.ndarray:
+        """Flag rows (R, zones) whose |change| / sd exceeds the threshold, at or after the
+        reference window's start; record them.  start, end (R,) [s]."""
+        with np.errstate(invalid="ignore", divide="ignore"):
+            score = np.abs(change) / csd
+        flag = np.isfinite(score) & (score > self.threshold) & (np.asarray(start) >= reference_start)[:, None]
+        for j, z in enumerate(self.zone_names):
+            info, fz = self.zones[z], flag[:, j]
+            if fz.any():
+                first = int(np.argmax(fz))
+                if info.first_flagged_start_s is None:
+                    info.first_flagged_start_s, info.first_flagged_end_s = float(start[first]), float(end[first])
+                    info.change_at_first_flag = float(change[first, j])
+                    info.change_sd_at_first_flag = float(csd[first, j])
+                info.flagged_rows += int(fz.sum())
+            if np.any(np.isfinite(score[:, j])):
+                info.largest_change_in_sd = max(info.largest_change_in_sd, float(np.nanmax(score[:, j])))
+        return flag
+
+    def flagged(self) -> list[ZoneFlags]:
+        """The zones flagged at least once."""
+        return [f for f in self.zones.values() if f.flagged_rows]
