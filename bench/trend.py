@@ -63,7 +63,7 @@ def sensor_field(folder: Path) -> np.ndarray:
 
 def make_log(path: Path, rows: int, base: np.ndarray, seed: int = 0) -> None:
     """`rows` rows at 1 s: steady readings + noise, written in blocks with the fast writer."""
-    from heatsight.data_io.logs import csv_header, csv_rows, number_cells
+    from heatsight.data_io.fast_csv import csv_header, csv_rows, number_cells
 
     rng = np.random.default_rng(seed)
     names = ["time [s]"] + [f"TC{k + 1:02d}" for k in range(N_SENSORS)]
@@ -80,7 +80,7 @@ def peak_memory_mb(folder: Path, log: Path, out: Path) -> float:
     """Peak resident memory [MB] of `heatsight trend --every 1` in a fresh process: VmHWM of
     /proc/self/status (reset by exec; ru_maxrss is not, so a child would inherit the
     parent's high-water mark)."""
-    code = ("import sys; from data_io.cli import main; "
+    code = ("import sys; from heatsight.data_io.cli import main; "
             f"rc = main(['trend', {str(folder / 'case.toml')!r}, '--log', {str(log)!r}, '--every', '1', "
             f"'--out', {str(out)!r}]); "
             "print([l.split()[1] for l in open('/proc/self/status') if l.startswith('VmHWM')][0]); sys.exit(rc)")

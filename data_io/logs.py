@@ -1,16 +1,18 @@
-"""Logged readings read in chunks, so that a log larger than memory can be processed.
+"""The one log reader: logged readings read in chunks, so that a log larger than memory
+can be processed.  `trend` streams it; `check` (through `tables.read_log`) reads a whole
+log with the same code (`read_whole_log`), so both accept and refuse the same logs.
 
 A log is a CSV file: a time column (seconds, another time unit in brackets such as
-``time [min]``, or ISO 8601 timestamps), then one column per sensor id with an optional
-temperature unit in brackets (``TC1 [degF]``; default degC), as `tables.read_log` reads it
-whole.  Here the header is parsed once (`open_log`) and the body streamed with
+``time [min]``, or ISO 8601 timestamps; the first row's time decides which), then one column
+per sensor id with an optional temperature unit in brackets (``TC1 [degF]``; default degC).
+The header is parsed once (`open_log`) and the body streamed with
 pandas.read_csv(chunksize=...) (`LogReader`), each chunk validated as it arrives:
 
 - refused (InputError naming the file, line and column): times that are missing, not
   numbers / timestamps, repeated (a duplicated timestamp) or going back (an unsorted log,
   also across chunk boundaries); text in a sensor column that is not a number (empty
   cells, NaN, N/A and inf mean "no reading"); ragged lines; a log sharing no sensor with
-  the layout.
+  the layout; a log without a single valid reading.
 - kept with a warning: a column that is not a sensor of the layout (loggers record other
   channels; it is ignored), a layout sensor missing from the log, missing readings, readings
   at or below absolute zero or outside the thermocouple type's usable range (open-circuit
@@ -34,7 +36,7 @@ import pandas as pd
 
 from . import thermocouples as tc
 from .errors import InputError
-from .tables import _NONFINITE_WORDS
+from .csv_in import NONFINITE_WORDS
 from .units import column_unit, convert, split_header
 
 #: rows per chunk (bounded memory: about 30 MB for 32 sensors)
@@ -96,7 +98,8 @@ def _header_line(path: Path) -> tuple[int, str]:
 
 
 def open_log(path, layout) -> LogColumns:
-    """Parse and check the header of a log against a layout Table (units, sensor ids)."""
+    """Parse and check the header of a log against a layout Table (units, sensor ids);
+    layout None takes every column after the time as a sensor."""
     path = Path(path)
     number, line = _header_line(path)
     headers = [h.strip() for h in next(csv.reader([line], skipinitialspace=True))]
@@ -106,7 +109,7 @@ def open_log(path, layout) -> LogColumns:
         raise InputError(f"{where}: the fields seem separated by {sep}; separate them with commas", file=path)
     if len(headers) < 2:
         raise InputError("a log needs a time column and at least one sensor column", file=path, where=where)
-    lay = layout.frame
+    known = None if layout is None else layout.frame.index
     parsed = []
     for col, h in enumerate(headers):
         if h == "":
@@ -116,7 +119,7 @@ def open_log(path, layout) -> LogColumns:
         except ValueError as exc:
             raise InputError(str(exc), file=path, where=where) from None
     time_name, time_unit = parsed[0]
-    if time_name in lay.index:
+    if known is not None and time_name in known:
         raise InputError(f"the first column '{headers[0]}' is a sensor; a log starts with a time column",
                          file=path, where=where)
     time_scale = None
@@ -131,26 +134,34 @@ def open_log(path, layout) -> LogColumns:
             raise InputError(f"sensor '{sid}' appears twice in the header (columns {seen[sid] + 1} and "
                              f"{col + 1})", file=path, where=where)
         seen[sid] = col
-        if sid not in lay.index:
+        if known is not None and sid not in known:
             ignored.append(headers[col])
             continue
         unit = column_unit(unit_text, "temperature", f"{where}, column '{headers[col]}'", file=path)
         k0, k1 = (float(convert(x, unit, "temperature")) for x in (0.0, 1.0))
         sensors.append(sid), positions.append(col), shift.append(k0), scale.append(k1 - k0)
     warnings = []
-    if not sensors:
+    if not sensors:       # (a layout is given: without one every column is a sensor)
+        first = split_header(ignored[0])[0]
         raise InputError(f"none of the log's columns ({', '.join(headers[1:])}) is a sensor of the layout "
-                         f"({layout.path})", file=path, where=where)
+                         f"({layout.path}): sensor '{first}' is not in the layout{_did_you_mean(first, known)}",
+                         file=path, where=where)
     for h in ignored:
-        close = difflib.get_close_matches(split_header(h)[0], list(lay.index), n=1)
-        hint = f" (did you mean '{close[0]}'?)" if close else ""
+        close = _did_you_mean(split_header(h)[0], known)
+        hint = f" ({close[2:]})" if close else ""
         warnings.append(f"{path}: column '{h}' is not a sensor of the layout; ignored{hint}")
-    absent = [s for s in lay.index if s not in seen]
+    absent = [] if known is None else [s for s in known if s not in seen]
     if absent:
         warnings.append(f"{path}: no column for sensor{'s' if len(absent) > 1 else ''} {', '.join(absent)} "
                         f"of the layout; the trend uses the others")
     return LogColumns(path, number, headers, headers[0], time_scale, sensors, positions, np.array(scale),
                       np.array(shift), ignored, absent, warnings)
+
+
+def _did_you_mean(name, known) -> str:
+    """'; did you mean 'TC1'?' for the closest known sensor id, or ''."""
+    close = difflib.get_close_matches(name, list(known), n=1) if known is not None else []
+    return f"; did you mean '{close[0]}'?" if close else ""
 
 
 def count_rows(path) -> int:
@@ -191,14 +202,12 @@ class LogReader:
         self.missing = np.zeros(n, np.int64)
         self.out_of_range = np.zeros(n, np.int64)
         self._range_first: list = [None] * n
-        lay = layout.frame
+        self._types = [layout.frame.at[s, "type"] if layout is not None else "" for s in columns.sensors]
         lo, hi = np.zeros(n), np.full(n, np.inf)
-        for i, s in enumerate(columns.sensors):
-            typ = lay.at[s, "type"]
+        for i, typ in enumerate(self._types):
             if typ:
                 lo[i], hi[i] = tc.usable_range_k(typ)
         self._lo, self._hi = lo, hi
-        self._types = [lay.at[s, "type"] for s in columns.sensors]
         self.gaps, self._gap_examples, self._gap_largest = 0, [], 0.0
 
     # ---------------------------------------------------------------- iteration
@@ -222,6 +231,9 @@ class LogReader:
             raise InputError(f"is not UTF-8 text (byte {exc.start}); save the CSV as UTF-8", file=cols.path) from None
         if self.rows == 0:
             raise InputError("no data rows below the header", file=cols.path)
+        if np.all(self.missing == self.rows):
+            raise InputError(f"no valid reading in the log: {'; '.join(self.warnings(with_path=False))}",
+                             file=cols.path)
 
     def _error(self, problem, line, col):
         where = f"line {int(line)}, column '{self.cols.headers[col]}'"
@@ -250,9 +262,9 @@ class LogReader:
         missing = series.isna().to_numpy()
         if missing.any():
             raise self._error("missing time", lines[np.argmax(missing)], 0)
-        if self.timestamps is None:
+        if self.timestamps is None:        # the first row's time decides: seconds or timestamps
             numeric = pd.api.types.is_numeric_dtype(series.dtype) or bool(
-                pd.to_numeric(series, errors="coerce").notna().all())
+                pd.to_numeric(series.iloc[:1], errors="coerce").notna().all())
             self.timestamps = not numeric
             if self.timestamps and cols.time_scale is not None:
                 raise InputError(f"timestamps need no unit in the header; found '{cols.time_header}' but the "
@@ -262,8 +274,12 @@ class LogReader:
             bad = ~np.isfinite(t)
             if bad.any():
                 i = int(np.argmax(bad))
-                raise self._error(f"{series.iloc[i]!r} is not a number of seconds (the log's first rows "
-                                  f"have numeric times)", lines[i], 0)
+                cell = series.iloc[i]
+                why = ("do not mix numbers and timestamps" if pd.notna(pd.to_datetime(str(cell), format="ISO8601",
+                                                                                      errors="coerce"))
+                       else "this cell is neither a number of seconds nor an ISO 8601 timestamp")
+                raise self._error(f"{cell!r} is not a number of seconds (the log's first rows have numeric "
+                                  f"times; {why})", lines[i], 0)
             return t * (cols.time_scale or 1.0)
         return self._stamps(series.astype(str), lines)
 
@@ -300,8 +316,8 @@ class LogReader:
         if bad.size:
             i = int(bad[0])
             if t[i] == prev_t[i]:
-                raise self._error(f"duplicated time: the same as line {int(prev_line[i])}; every row needs "
-                                  f"its own time", lines[i], 0)
+                raise self._error(f"duplicated time: the same as line {int(prev_line[i])}; times must increase, "
+                                  f"every row needs its own time", lines[i], 0)
             raise self._error(f"time goes back (earlier than line {int(prev_line[i])}); times must increase: "
                               f"sort the log by time", lines[i], 0)
         self._last_t, self._last_line = float(t[-1]), int(lines[-1])
@@ -316,7 +332,7 @@ class LogReader:
             bad = np.isnan(x) & series.notna().to_numpy()
             if bad.any():
                 words = series[bad].astype(str).str.strip().str.lower()
-                unknown = ~words.isin(_NONFINITE_WORDS).to_numpy()
+                unknown = ~words.isin(NONFINITE_WORDS).to_numpy()
                 if unknown.any():
                     j = int(np.flatnonzero(bad)[np.argmax(unknown)])
                     raise self._error(f"{str(series.iloc[j]).strip()!r} is not a number; expected a temperature "
@@ -351,9 +367,9 @@ class LogReader:
                 self._gap_examples.append((int(lines[j]), int(lines[j + 1]), float(dt[j])))
 
     # ---------------------------------------------------------------- reporting
-    def warnings(self) -> list[str]:
+    def warnings(self, with_path: bool = True) -> list[str]:
         cols, out = self.cols, []
-        path = cols.path
+        path = cols.path if with_path else "the log"
         for i, s in enumerate(cols.sensors):
             n_bad = int(self.out_of_range[i])
             if n_bad:
@@ -381,3 +397,14 @@ class LogReader:
         whole = bool(np.all(ns % 1_000_000_000 == 0))
         text = np.datetime_as_string(ns.astype("datetime64[ns]"), unit="s" if whole else "ms")
         return np.char.add(text, "Z") if self.aware else text
+
+
+def read_whole_log(path, layout=None, chunk_rows: int = DEFAULT_CHUNK_ROWS):
+    """A whole log through the same reader as the stream: (times (R,) [s], values (R, n)
+    [K], LogColumns, warnings)."""
+    columns = open_log(path, layout)
+    reader = LogReader(columns, layout, chunk_rows)
+    chunks = list(reader)
+    times = np.concatenate([c.times for c in chunks])
+    values = np.vstack([c.values for c in chunks])
+    return times, values, columns, columns.warnings + reader.warnings()

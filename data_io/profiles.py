@@ -24,7 +24,7 @@ from scipy.interpolate import LinearNDInterpolator, NearestNDInterpolator
 from scipy.spatial import QhullError
 
 from .errors import InputError
-from .tables import Column, RawTable, _parse, check_inside, read_raw
+from .csv_in import Column, RawTable, _parse, check_inside, read_raw
 
 TWO_PI = 2.0 * np.pi
 QUANTITIES = {"temperature": "temperature", "heat_flux": "heat_flux"}
