@@ -1,34 +1,216 @@
 """The library entry point: ``heatsight.fit("case.toml")`` reads the case and its readings
-as the command line does and returns the fit result (no files are written)."""
+as the command line does and returns a `Fit`: the answers in user units for a notebook,
+figures, and `write_report` writing the same files as ``heatsight fit --out``.
+
+    import heatsight
+    result = heatsight.fit("platen.toml")
+    result                         # one line: face, quantity, mean +- 95 % band, power
+    result.to_frame("zones")       # degC / K, or W/m^2 / kW/m^2 (data_io.display), mm, deg
+    result.predict(pd.DataFrame({"r [mm]": [0, 50], "theta [deg]": [0, 90], "z [mm]": [20, 20]}))
+    result.write_report("platen-fit")
+    result.raw                     # the inverse layer's FitResult (SI)
+"""
 
 from __future__ import annotations
 
+from html import escape
 from pathlib import Path
 
-from ..forward.errors import ForwardModelError
-from ..inverse import SensorReadings
-from ..inverse import fit as inverse_fit
-from ..inverse.errors import InverseError
+import numpy as np
+import pandas as pd
 
-from .case import load_case
+from ..inverse.bands import Z95
+
+from .display import deg, display_for, file_display, mm
 from .errors import InputError
-from .tables import read_layout, read_snapshot
+from .units import convert, split_header, ureg
+
+#: units of the columns of a points table handed to `Fit.predict` when its header names none
+POINT_UNITS = {"r": "mm", "theta": "deg", "z": "mm"}
+_DIMENSIONS = {"r": "length", "theta": "angle", "z": "length"}
+_TEMPERATURE = file_display("temperature")
 
 
-def fit(case_path, *, readings=None, **options):
+def fit(case_path, *, readings=None, **options) -> "Fit":
     """Fit the case file `case_path`; `readings` overrides the case's snapshot file; the
     options are those of ``heatsight.inverse.fit`` (strength, smoothing, ...)."""
-    case = load_case(case_path, purpose="fit")
-    case.require("fit")
-    readings_path = Path(readings) if readings else case.sensors.readings
-    if readings_path is None:
-        raise InputError("no readings: add [sensors] readings = \"readings.csv\" or pass readings=",
-                         file=case.path, where="sensors.readings")
-    layout = read_layout(case.sensors.layout, case.cylinder)
-    snapshot = read_snapshot(readings_path, layout)
-    try:
-        result = inverse_fit(case, SensorReadings.from_frame(snapshot.frame), **options)
-    except (InverseError, ForwardModelError) as exc:
-        raise InputError(str(exc), file=case.path) from None
-    result.warnings[:0] = layout.warnings + snapshot.warnings
-    return result
+    from .fit_steps import fit_case, load_fit_case
+
+    case, readings_path = load_fit_case(case_path, readings, how_to_give="pass readings=")
+    result, _ = fit_case(case, readings_path, **options)
+    return Fit(result, case, readings_path)
+
+
+class Fit:
+    """A fit of a case: the reconstructed face with its bands, zones and sensor health in
+    user units.  `raw` is the inverse layer's FitResult (SI), `case` the case read."""
+
+    def __init__(self, result, case, readings_path):
+        self.raw = result
+        self.case = case
+        self.readings_path = Path(readings_path)
+
+    # ------------------------------------------------------------------ short answers
+    @property
+    def face(self) -> str:
+        return self.raw.face
+
+    @property
+    def quantity(self) -> str:
+        return self.raw.quantity
+
+    @property
+    def warnings(self) -> list:
+        return list(self.raw.warnings)
+
+    def _headline(self) -> list[tuple[str, str]]:
+        s, d = self.raw.summary, display_for(self.raw)
+        mean, sd = s["mean"], s["mean_sd"]
+        rows = [("face", f"{self.face} ({self.quantity.replace('_', ' ')})"),
+                ("mean", f"{d.value(mean):.4g} ± {d.diff(Z95 * sd):.2g} {d.symbol} (95 %)"),
+                ("power in", f"{s['total_power_W']:.4g} ± {Z95 * s['total_power_sd_W']:.2g} W (95 %)")]
+        rows.append(("set aside", ", ".join(s["set_aside"]) or "none"))
+        return rows
+
+    def __repr__(self) -> str:
+        text = "; ".join(f"{k} {v}" for k, v in self._headline())
+        return f"<heatsight Fit of {self.case.path.name}: {text}>"
+
+    def _repr_html_(self) -> str:
+        rows = "".join(f"<tr><th style=\"text-align:left\">{escape(k)}</th><td>{escape(v)}</td></tr>"
+                       for k, v in self._headline())
+        zones = self.to_frame("zones")
+        table = f"<table>{rows}</table>"
+        if len(zones):
+            table += zones.to_html(index=False, float_format=lambda x: f"{x:.4g}")
+        return f"<div><strong>heatsight fit of {escape(self.case.path.name)}</strong>{table}</div>"
+
+    def summary(self) -> str:
+        """The short text the command line prints (without the output folder)."""
+        from .fit_outputs import summary_lines
+
+        return "\n".join(summary_lines(self.raw))
+
+    # ------------------------------------------------------------------ tables
+    def to_frame(self, which: str = "face") -> pd.DataFrame:
+        """A table in user units, the unit in each column name: "face" (the estimate on the
+        display grid with sd and 95 % band), "zones" or "sensors" (readings, fit, residuals,
+        leave-one-out predictions, flags)."""
+        if which == "face":
+            return self._face_frame()
+        if which == "zones":
+            return self._zones_frame()
+        if which == "sensors":
+            return self._sensors_frame()
+        raise ValueError(f"which must be 'face', 'zones' or 'sensors', got {which!r}")
+
+    def _face_frame(self) -> pd.DataFrame:
+        g, d = self.raw.grid, display_for(self.raw)
+        u, du = f"[{d.unit}]", f"[{d.diff_unit}]"
+        return pd.DataFrame({
+            "r [mm]": mm(g["r_m"].to_numpy()), "theta [deg]": deg(g["theta_rad"].to_numpy()),
+            "z [mm]": mm(g["z_m"].to_numpy()), f"estimate {u}": d.value(g["estimate"].to_numpy()),
+            f"sd {du}": d.diff(g["std"].to_numpy()), f"lower {u}": d.value(g["lower"].to_numpy()),
+            f"upper {u}": d.value(g["upper"].to_numpy())})
+
+    def _zones_frame(self) -> pd.DataFrame:
+        d = display_for(self.raw)
+        u, du = f"[{d.unit}]", f"[{d.diff_unit}]"
+        rows = []
+        for z in self.raw.summary["zones"]:
+            row = {"zone": z["name"], f"mean {u}": d.value(z["mean"]), f"sd {du}": d.diff(z["sd"]),
+                   f"lower {u}": d.value(z["lower"]), f"upper {u}": d.value(z["upper"]),
+                   f"deviation from face mean {du}": d.diff(z["deviation_from_face_mean"]),
+                   "area [mm^2]": float(from_m2(z["area_m2"]))}
+            if "power_W" in z:
+                row.update({"power [W]": z["power_W"], "power sd [W]": z["power_sd_W"]})
+            rows.append(row)
+        columns = ["zone", f"mean {u}", f"sd {du}", f"lower {u}", f"upper {u}", f"deviation from face mean {du}",
+                   "area [mm^2]"] + (["power [W]", "power sd [W]"] if self.quantity == "heat_flux" else [])
+        return pd.DataFrame(rows, columns=columns)
+
+    def _sensors_frame(self) -> pd.DataFrame:
+        s = self.raw.sensors
+        t = _TEMPERATURE.value
+        return pd.DataFrame({
+            "sensor": s["sensor"].astype(str).to_numpy(),
+            "r [mm]": mm(s["r_m"].to_numpy(float)), "theta [deg]": deg(s["theta_rad"].to_numpy(float)),
+            "z [mm]": mm(s["z_m"].to_numpy(float)),
+            "measured [degC]": t(s["measured"].to_numpy(float)), "fitted [degC]": t(s["fitted"].to_numpy(float)),
+            "residual [K]": s["residual"].to_numpy(float), "standardized": s["standardized"].to_numpy(float),
+            "loo predicted [degC]": t(s["loo_predicted"].to_numpy(float)), "loo sd [K]": s["loo_sd"].to_numpy(float),
+            "standardized loo": s["standardized_loo"].to_numpy(float), "flag": s["flag"].astype(str).to_numpy()})
+
+    # ------------------------------------------------------------------ anywhere in the part
+    def predict(self, points, theta=None, z=None, *, return_std: bool = True):
+        """Temperature [degC] (and its sd [K] when return_std) at points inside the part.
+
+        points: a DataFrame with columns r, theta, z (units in brackets, e.g. ``r [mm]``;
+        without brackets mm and deg), or arrays r [mm], theta [deg], z [mm] given as
+        predict(r, theta, z), or an (N, 3) array of such rows."""
+        r_m, th, z_m = self._points_si(points, theta, z)
+        inside = self.raw.cylinder.contains(r_m, z_m) & (r_m >= 0)
+        if not np.all(inside):
+            i = int(np.flatnonzero(~inside)[0])
+            raise InputError(f"point {i + 1} (r = {mm(r_m[i]):.6g} mm, z = {mm(z_m[i]):.6g} mm) lies outside "
+                             f"the part (radius {mm(self.raw.cylinder.radius):.6g} mm, height "
+                             f"{mm(self.raw.cylinder.height):.6g} mm)")
+        mean, sd, _, _ = self.raw.predict(r_m, th, z_m)
+        out = _TEMPERATURE.value(mean)
+        return (out, _TEMPERATURE.diff(sd)) if return_std else out
+
+    @staticmethod
+    def _points_si(points, theta, z):
+        if isinstance(points, pd.DataFrame):
+            cols = {}
+            for header in points.columns:
+                name, unit = split_header(str(header))
+                key = name.strip().lower()
+                if key in POINT_UNITS:
+                    cols[key] = convert(points[header].to_numpy(float), unit or POINT_UNITS[key], _DIMENSIONS[key])
+            missing = [k for k in POINT_UNITS if k not in cols]
+            if missing:
+                raise InputError(f"the points table needs the columns r, theta, z; missing {', '.join(missing)} "
+                                 f"(found: {', '.join(map(str, points.columns))})")
+            return tuple(np.atleast_1d(np.asarray(cols[k], float)) for k in POINT_UNITS)
+        if theta is None and z is None:
+            a = np.atleast_2d(np.asarray(points, float))
+            if a.ndim != 2 or a.shape[1] != 3:
+                raise InputError(f"points must be a DataFrame, three arrays r, theta, z, or an (N, 3) array; "
+                                 f"got shape {a.shape}")
+            r, theta, z = a[:, 0], a[:, 1], a[:, 2]
+        else:
+            r = points
+        return tuple(np.atleast_1d(convert(np.asarray(x, float), POINT_UNITS[k], _DIMENSIONS[k]))
+                     for k, x in zip(POINT_UNITS, (r, theta, z)))
+
+    # ------------------------------------------------------------------ figures and files
+    def plot_face(self):
+        """Map of the estimated face (matplotlib Figure)."""
+        from .plots import face_map
+
+        return face_map(self.raw)
+
+    def plot_sensors(self):
+        """Sensor health: residuals and leave-one-out scores (matplotlib Figure)."""
+        from .plots import sensor_health
+
+        return sensor_health(self.raw)
+
+    def write_report(self, folder, *, at=None, overwrite: bool = False) -> Path:
+        """Write the files of ``heatsight fit --out folder`` (estimate.csv, sensors.csv,
+        summary.json, figures, report.html; points.csv for the query points table `at`)
+        through the command's own code; returns the folder."""
+        from .csv_out import output_folder
+        from .fit_steps import output_files, write_outputs
+        from .tables import read_points
+
+        folder, create = output_folder(Path(folder), self.case, overwrite)
+        points = read_points(at, self.case.cylinder) if at else None
+        write_outputs(folder, create, output_files(self.raw, self.case, self.readings_path, points))
+        return folder
+
+
+def from_m2(area):
+    """Areas [m^2] -> mm^2 (pint)."""
+    return ureg.Quantity(np.asarray(area, float), "m^2").to("mm^2").magnitude

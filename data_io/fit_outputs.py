@@ -124,8 +124,8 @@ def _fmt(x, digits=4):
     return f"{x:.{digits}g}"
 
 
-def console_summary(result, folder) -> str:
-    """A short plain-text summary for the terminal."""
+def summary_lines(result) -> list[str]:
+    """The short plain-text summary of a fit (console and ``Fit.summary()``), as lines."""
     s = summary_dict(result)
     u = s["unit"]
     du = FILE_UNITS[s["quantity"]][1]
@@ -151,5 +151,9 @@ def console_summary(result, folder) -> str:
         lines.append(f"  set aside: {', '.join(s['set_aside'])}")
     for w in s["warnings"]:
         lines.append(f"  warning: {w}")
-    lines.append(f"outputs in {folder}")
-    return "\n".join(lines)
+    return lines
+
+
+def console_summary(result, folder) -> str:
+    """The summary for the terminal, ending with where the outputs are."""
+    return "\n".join(summary_lines(result) + [f"outputs in {folder}"])

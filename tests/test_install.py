@@ -46,7 +46,7 @@ def test_installed_wheel_runs_demo_beside_clashing_modules(wheel, tmp_path):
     code = ("import heatsight, sys; from importlib.resources import files; "
             "assert heatsight.__file__.startswith(sys.argv[1]), heatsight.__file__; "
             "r = heatsight.fit(str(files('heatsight.demo_data') / 'platen.toml')); "
-            "print(round(r.summary['total_power_W']))")
+            "print(round(r.raw.summary['total_power_W']))")
     proc = subprocess.run([sys.executable, "-c", code, str(site)], cwd=notebook, env=env,
                           capture_output=True, text=True, timeout=300)
     assert proc.returncode == 0, proc.stderr[-2000:]

@@ -35,7 +35,7 @@ def test_readme_python_example_runs(monkeypatch):
     exec(compile(code, "README.md", "exec"), scope)  # the README's own example
     result = scope["result"]
     assert result.face == "bottom" and result.quantity == "heat_flux"
-    assert result.summary["set_aside"] == ["TC19"]
+    assert result.raw.summary["set_aside"] == ["TC19"]
 
 
 def test_every_command_help_has_an_example(capsys):

@@ -1,0 +1,106 @@
+"""`heatsight.fit(...)` for notebooks: a short repr, tables and predictions in user units that
+agree with the SI result by the unit definitions, and `write_report` writing what the
+command line writes."""
+
+import json
+import math
+import shutil
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+import heatsight
+from heatsight.data_io.cli import main
+from heatsight.data_io.errors import InputError
+
+DEMO = Path(__file__).resolve().parent.parent / "demo_data"
+KELVIN_AT_0_DEGC = 273.15            # definition of the Celsius scale (SI brochure)
+MM_PER_M = 1000.0                    # SI prefix milli
+MM_PER_INCH = 25.4                   # international inch, exact by definition
+
+
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("demo")
+    for name in ("platen.toml", "layout.csv", "readings.csv"):
+        shutil.copy(DEMO / name, folder / name)
+    return folder, heatsight.fit(folder / "platen.toml")
+
+
+def test_repr_is_short_and_names_the_answers(demo):
+    _, fit = demo
+    text = repr(fit)
+    assert "\n" not in text and len(text) < 240
+    assert "bottom" in text and "heat flux" in text and "TC19" in text and " W " in text
+    html = fit._repr_html_()
+    assert html.startswith("<div>") and "<table" in html and "outer 60-180" in html and len(html) < 5000
+
+
+def test_tables_in_user_units(demo):
+    _, fit = demo
+    raw = fit.raw
+    face = fit.to_frame("face")
+    assert list(face.columns) == ["r [mm]", "theta [deg]", "z [mm]", "estimate [kW/m^2]", "sd [kW/m^2]",
+                                  "lower [kW/m^2]", "upper [kW/m^2]"]     # the demo's flux exceeds 10 kW/m^2
+    np.testing.assert_allclose(face["estimate [kW/m^2]"], raw.grid["estimate"] / 1e3, rtol=1e-12)  # SI prefix kilo
+    np.testing.assert_allclose(face["r [mm]"], raw.grid["r_m"] * MM_PER_M, rtol=1e-12)
+    np.testing.assert_allclose(face["theta [deg]"], np.degrees(raw.grid["theta_rad"]), rtol=1e-12)
+    sensors = fit.to_frame("sensors")
+    np.testing.assert_allclose(sensors["measured [degC]"], raw.sensors["measured"] - KELVIN_AT_0_DEGC, rtol=1e-12)
+    np.testing.assert_allclose(sensors["residual [K]"], raw.sensors["residual"], rtol=1e-12)
+    assert sensors.loc[sensors["sensor"] == "TC19", "flag"].item() == "set aside"
+    zones = fit.to_frame("zones")
+    assert list(zones["zone"]) == [z["name"] for z in raw.summary["zones"]]
+    np.testing.assert_allclose(zones["power [W]"], [z["power_W"] for z in raw.summary["zones"]], rtol=1e-12)
+    np.testing.assert_allclose(zones["area [mm^2]"], [z["area_m2"] * MM_PER_M ** 2 for z in raw.summary["zones"]],
+                               rtol=1e-12)
+    with pytest.raises(ValueError, match="which must be"):
+        fit.to_frame("sensor")
+
+
+def test_predict_takes_user_units(demo):
+    _, fit = demo
+    r_mm, th_deg, z_mm = np.array([0.0, 50.0, 120.0]), np.array([0.0, 90.0, 150.0]), np.array([20.0, 20.0, 35.0])
+    mean, sd = fit.predict(pd.DataFrame({"r [mm]": r_mm, "theta [deg]": th_deg, "z [mm]": z_mm}))
+    ref, ref_sd, _, _ = fit.raw.predict(r_mm / MM_PER_M, np.radians(th_deg), z_mm / MM_PER_M)
+    np.testing.assert_allclose(mean, ref - KELVIN_AT_0_DEGC, rtol=1e-12)
+    np.testing.assert_allclose(sd, ref_sd, rtol=1e-12)
+    inches = pd.DataFrame({"r [inch]": r_mm / MM_PER_INCH, "theta": th_deg, "z [inch]": z_mm / MM_PER_INCH})
+    np.testing.assert_allclose(fit.predict(inches, return_std=False), mean, rtol=1e-12)
+    np.testing.assert_allclose(fit.predict(r_mm, th_deg, z_mm)[0], mean, rtol=1e-12)
+    np.testing.assert_allclose(fit.predict(np.c_[r_mm, th_deg, z_mm], return_std=False), mean, rtol=1e-12)
+    with pytest.raises(InputError, match="point 1 .* lies outside the part"):
+        fit.predict([200.0], [0.0], [10.0])
+    with pytest.raises(InputError, match="missing z"):
+        fit.predict(pd.DataFrame({"r": [0.0], "theta": [0.0]}))
+
+
+def test_figures_and_summary(demo):
+    _, fit = demo
+    from matplotlib.figure import Figure
+
+    assert isinstance(fit.plot_face(), Figure) and isinstance(fit.plot_sensors(), Figure)
+    text = fit.summary()
+    assert text.splitlines()[0] == "bottom face heat flux (W/m^2):" and "set aside: TC19" in text
+    assert math.isfinite(fit.raw.summary["total_power_W"])
+
+
+def test_write_report_writes_what_the_command_writes(demo, monkeypatch, capsys):
+    folder, fit = demo
+    monkeypatch.chdir(folder)
+    assert main(["fit", "platen.toml", "--out", "cli"]) == 0
+    console = capsys.readouterr().out
+    written = fit.write_report(folder / "lib")
+    cli, lib = folder / "cli", folder / "lib"
+    assert sorted(p.name for p in cli.iterdir()) == sorted(p.name for p in written.iterdir())
+    for name in ("estimate.csv", "sensors.csv"):
+        assert (cli / name).read_bytes() == (lib / name).read_bytes(), name
+    a, b = (json.loads((f / "summary.json").read_text()) for f in (cli, lib))
+    for key in ("case", "readings"):
+        assert Path(a.pop(key)).name == Path(b.pop(key)).name
+    assert a == b
+    assert console.splitlines()[:-1] == fit.summary().splitlines()
+    with pytest.raises(InputError, match="not empty"):
+        fit.write_report(folder / "lib")
