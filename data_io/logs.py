@@ -25,19 +25,16 @@ statistics, so memory stays bounded by one chunk plus one window.
 
 from __future__ import annotations
 
-import csv
-import difflib
 import re
-from dataclasses import dataclass, field
-from pathlib import Path
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
 
 from . import thermocouples as tc
-from .errors import InputError
 from .csv_in import NONFINITE_WORDS
-from .units import column_unit, convert, split_header
+from .errors import InputError
+from .log_header import LogColumns, open_log
 
 #: rows per chunk (bounded memory: about 30 MB for 32 sensors)
 DEFAULT_CHUNK_ROWS = 100_000
@@ -50,118 +47,6 @@ _OFFSET = re.compile(r"(?:Z|[+-]\d\d(?::?\d\d)?)\s*$", re.IGNORECASE)
 
 def _plural(n: int, word: str) -> str:
     return f"{n} {word}{'' if n == 1 else 's'}"
-
-
-@dataclass
-class LogColumns:
-    """The header of a log: where each used sensor column is and how to convert it.
-
-    sensors: ids of the layout sensors found in the log (log order); positions: their
-    0-based column numbers; scale, shift: K = shift + scale * value; time_scale: seconds per
-    time unit (None for timestamps); ignored: headers that are not sensors of the layout;
-    absent: layout sensors missing from the log.
-    """
-
-    path: Path
-    header_line: int
-    headers: list
-    time_header: str
-    time_scale: float | None
-    sensors: list
-    positions: list
-    scale: np.ndarray
-    shift: np.ndarray
-    ignored: list = field(default_factory=list)
-    absent: list = field(default_factory=list)
-    warnings: list = field(default_factory=list)
-
-    @property
-    def n(self) -> int:
-        return len(self.sensors)
-
-
-def _header_line(path: Path) -> tuple[int, str]:
-    if not path.exists():
-        raise InputError("file not found", file=path)
-    if path.is_dir():
-        raise InputError("is a folder; expected a CSV file", file=path)
-    try:
-        with open(path, encoding="utf-8-sig", newline="") as fh:
-            for number, line in enumerate(fh, start=1):
-                if line.strip():
-                    return number, line
-    except UnicodeDecodeError as exc:
-        raise InputError(f"is not UTF-8 text (byte {exc.start}); save the CSV as UTF-8", file=path) from None
-    except OSError as exc:
-        raise InputError(f"cannot read the file ({exc.strerror or exc})", file=path) from None
-    raise InputError("the file is empty; expected a header line and rows", file=path)
-
-
-def open_log(path, layout) -> LogColumns:
-    """Parse and check the header of a log against a layout Table (units, sensor ids);
-    layout None takes every column after the time as a sensor."""
-    path = Path(path)
-    number, line = _header_line(path)
-    headers = [h.strip() for h in next(csv.reader([line], skipinitialspace=True))]
-    where = f"line {number}"
-    if len(headers) == 1 and (";" in headers[0] or "\t" in headers[0]):
-        sep = "semicolons" if ";" in headers[0] else "tabs"
-        raise InputError(f"{where}: the fields seem separated by {sep}; separate them with commas", file=path)
-    if len(headers) < 2:
-        raise InputError("a log needs a time column and at least one sensor column", file=path, where=where)
-    known = None if layout is None else layout.frame.index
-    parsed = []
-    for col, h in enumerate(headers):
-        if h == "":
-            raise InputError(f"column {col + 1}: empty column header", file=path, where=where)
-        try:
-            parsed.append(split_header(h))
-        except ValueError as exc:
-            raise InputError(str(exc), file=path, where=where) from None
-    time_name, time_unit = parsed[0]
-    if known is not None and time_name in known:
-        raise InputError(f"the first column '{headers[0]}' is a sensor; a log starts with a time column",
-                         file=path, where=where)
-    time_scale = None
-    if time_unit is not None:
-        unit = column_unit(time_unit, "time", f"{where}, column '{headers[0]}'", file=path)
-        time_scale = float(convert(1.0, unit, "time"))
-    seen: dict[str, int] = {}
-    sensors, positions, scale, shift, ignored = [], [], [], [], []
-    for col in range(1, len(headers)):
-        sid, unit_text = parsed[col]
-        if sid in seen:
-            raise InputError(f"sensor '{sid}' appears twice in the header (columns {seen[sid] + 1} and "
-                             f"{col + 1})", file=path, where=where)
-        seen[sid] = col
-        if known is not None and sid not in known:
-            ignored.append(headers[col])
-            continue
-        unit = column_unit(unit_text, "temperature", f"{where}, column '{headers[col]}'", file=path)
-        k0, k1 = (float(convert(x, unit, "temperature")) for x in (0.0, 1.0))
-        sensors.append(sid), positions.append(col), shift.append(k0), scale.append(k1 - k0)
-    warnings = []
-    if not sensors:       # (a layout is given: without one every column is a sensor)
-        first = split_header(ignored[0])[0]
-        raise InputError(f"none of the log's columns ({', '.join(headers[1:])}) is a sensor of the layout "
-                         f"({layout.path}): sensor '{first}' is not in the layout{_did_you_mean(first, known)}",
-                         file=path, where=where)
-    for h in ignored:
-        close = _did_you_mean(split_header(h)[0], known)
-        hint = f" ({close[2:]})" if close else ""
-        warnings.append(f"{path}: column '{h}' is not a sensor of the layout; ignored{hint}")
-    absent = [] if known is None else [s for s in known if s not in seen]
-    if absent:
-        warnings.append(f"{path}: no column for sensor{'s' if len(absent) > 1 else ''} {', '.join(absent)} "
-                        f"of the layout; the trend uses the others")
-    return LogColumns(path, number, headers, headers[0], time_scale, sensors, positions, np.array(scale),
-                      np.array(shift), ignored, absent, warnings)
-
-
-def _did_you_mean(name, known) -> str:
-    """'; did you mean 'TC1'?' for the closest known sensor id, or ''."""
-    close = difflib.get_close_matches(name, list(known), n=1) if known is not None else []
-    return f"; did you mean '{close[0]}'?" if close else ""
 
 
 def count_rows(path) -> int:

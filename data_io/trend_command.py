@@ -57,8 +57,9 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
     from .csv_out import json_text
     from .fit_steps import case_text
     from .logs import LogReader, count_rows, open_log
-    from .plots import face_map, figure_png, sensor_health, trend_figure
+    from .plots import face_map, figure_png, sensor_health
     from .report import render_report
+    from .trend_plot import trend_figure
     from .tables import read_layout, readings_form
     from .trend_run import Progress, TrendRun
     from .trend_text import console_lines, trend_html

@@ -50,7 +50,7 @@ import numpy as np
 
 from .diagnostics import default_threshold
 from .errors import InverseError
-from .face_grid import display_grid, quadrature
+from .face_grid import display_grid
 from .fit import _nominal_direction
 from .functionals import face_functionals  # noqa: F401  (also exported from here)
 
