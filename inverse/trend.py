@@ -146,12 +146,12 @@ class TrendModel:
         ref_window = (float(stats.start[i]), float(stats.end[i]))
         valid, mean = stats.valid[i], stats.mean[i]
         sig = stats.sigma(floor)[i]
-        level = np.where(valid, mean, np.nanmean(np.where(valid, mean, np.nan)))
-        tau, notes = offset_sd(level)
-        warnings.extend(notes)
         if valid.sum() < 3:
             raise TrendError(f"the reference window (t = {ref_window[0]:.6g} to {ref_window[1]:.6g} s) has only "
                              f"{int(valid.sum())} sensor(s) with readings; a fit needs at least 3")
+        level = np.where(valid, mean, np.nanmean(np.where(valid, mean, np.nan)))
+        tau, notes = offset_sd(level)
+        warnings.extend(notes)
         s = sensors
         k = np.flatnonzero(valid)
         rd = SensorReadings([s.names[j] for j in k], s.r[k], s.theta[k], s.z[k], mean[k], sig[k], tau[k],
