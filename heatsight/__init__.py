@@ -6,7 +6,8 @@ One import package with three layers, installed from the repository's top-level 
 ``import heatsight`` and ``heatsight --help`` stay quick.
 
     import heatsight
-    result = heatsight.fit("platen.toml")
+    result = heatsight.fit("platen.toml")    # a Fit: repr, summary(), to_frame(), predict(),
+                                             # plot_face(), plot_sensors(), write_report(folder)
 """
 
 from __future__ import annotations
@@ -19,7 +20,8 @@ _SUBPACKAGES = ("forward", "inverse", "data_io")
 
 
 def fit(case, **options):
-    """Fit the unknown face of the case file `case` (a path); see ``heatsight.data_io.api.fit``."""
+    """Fit the unknown face of the case file `case` (a path) and return a ``Fit`` (answers in
+    user units, figures, ``write_report``); see ``heatsight.data_io.api``."""
     from .data_io.api import fit as _fit
     return _fit(case, **options)
 
