@@ -337,11 +337,9 @@ def wall_cooled_end(seed=0, scale=1.0):
     def t(th, z):
         return 320.0 + 170.0 * step(z - 0.035, 0.012) + 10.0 * np.cos(th - 1.0) * step(z - 0.05, 0.02)
     phys = sf.Physics(a, L, k, {"bottom": ("R", 1500.0, 300.0), "top": ("N", 0.0)}, "side", "temperature",
-                      dict(nr=40, nz=90, grade={"bottom": 3.0}), m_cap=4)
-    depths = [0.015, 0.035, 0.060, 0.085, 0.105]
-    layout = [(rr, ang, L - d) for i, (d, rr) in enumerate([(d, rr) for d in depths for rr in (0.068, 0.05)])
-              for ang in ((i * 72.0) % 360,)]
-    layout += [(0.072, (36.0 + 72.0 * i) % 360, L - depths[i % 5]) for i in range(10)]
+                      dict(nr=40, nz=90, grade={"bottom": 3.0, "side": 4.0}), m_cap=4)
+    depths = (0.015, 0.035, 0.060, 0.085, 0.105)   # hole depths below the top [m]
+    layout = [((0.05, 0.065, 0.072, 0.075)[i // 5], (i * 47.0) % 360, L - depths[i % 5]) for i in range(20)]
     zones = [Zone("lower wall", "side", (0.0, TWO_PI), z=(0.0, 0.03)),
              Zone("heated wall", "side", (0.0, TWO_PI), z=(0.06, 0.12))]
     return _build("wall_cooled_end", wall_cooled_end.__doc__, t, phys, layout, seed=seed, scale=scale,
