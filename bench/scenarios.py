@@ -97,7 +97,8 @@ def main(argv=None):
             checks[name] = sc.mesh_check(name, args.scale)
             d, sig, f1, f2 = checks[name]
             print(f"      mesh check: max change {d:.2g} K = {d / sig:.2g} sigma "
-                  f"({f1['nr']}x{f1['nz']}, m<={f1['m_max']} -> {f2['nr']}x{f2['nz']}, m<={f2['m_max']})",
+                  f"({f1['nr']}x{f1['nz']}, m<={f1['m_max']} -> {f2['nr']}x{f2['nz']}, m<={f2['m_max']}); "
+                  f"heat in {f1['fem_heat_in']:.6g} -> {f2['fem_heat_in']:.6g} W",
                   flush=True)
 
     print()

@@ -362,10 +362,11 @@ def make(name, seed=0, scale=1.0) -> Scenario:
 def mesh_check(name, scale=1.0):
     """FEM convergence at the sensors: largest |T(level 2) - T(level 1)| [K] of the noise-free
     readings, level 2 having twice the cells in r and z and 1.5x the harmonics; with the
-    smallest sensor sigma [K] and both levels' facts."""
+    smallest sensor sigma [K] and both levels' facts (including the heat in, "fem_heat_in")."""
     scn = make(name, scale=scale)
     truth, phys, pos = _PHYSICS[name]
     lvl1 = fem_readings(name, truth, phys, pos, scale, level=1)
     lvl2 = fem_readings(name, truth, phys, pos, scale, level=2)
     diff = float(np.abs(lvl2.temperature - lvl1.temperature).max())
-    return diff, float(scn.readings.sigma.min()), lvl1.facts, lvl2.facts
+    return (diff, float(scn.readings.sigma.min()), dict(lvl1.facts, fem_heat_in=lvl1.heat_in),
+            dict(lvl2.facts, fem_heat_in=lvl2.heat_in))

@@ -20,7 +20,7 @@ Nothing here uses the fit's Bessel-Fourier basis (no inverse crime).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -55,7 +55,6 @@ class Physics:
     m_cap: int = 24
     fem_height: float | None = None
     fem_far: tuple | None = None
-    info: dict = field(default_factory=dict)
 
     @property
     def span(self):

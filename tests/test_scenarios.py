@@ -96,6 +96,8 @@ def test_fem_readings_converged_on_test_mesh(name):
     diff, sigma, coarse, fine = sc.mesh_check(name, SCALE)
     assert fine["nr"] == 2 * coarse["nr"] and fine["nz"] == 2 * coarse["nz"]
     assert diff <= 0.1 * sigma  # scikit-fem at two mesh levels; 0.1 sigma: common practice, no source
+    # the true power of a temperature face is the FEM heat in: converged to 0.1 % (common practice, no source)
+    assert fine["fem_heat_in"] == pytest.approx(coarse["fem_heat_in"], rel=1e-3)  # scikit-fem, two levels
 
 
 @pytest.mark.parametrize("name", ["platen_flux", "side_flux", "chuck_class2"])
