@@ -1,0 +1,372 @@
+"""The independent scenario suite: realistic heater patterns, readings from finite elements.
+
+Each scenario function returns a Scenario: the case for heatsight.inverse.fit (cylinder,
+faces, zones), the sensor readings (scikit-fem readings through tests/scenario_fem.py plus
+seeded noise, deliberate faults and, where declared, thermocouple offsets), the TRUE
+unknown-face profile as a function on the face, the true total power and zone means, and
+which sensors are broken.  The truths are heater patterns of our own (ring and band
+heaters with smooth or sharp edges, weak sectors, cos(theta) tilts), NOT draws from any
+prior, and the fit's basis never makes a reading (no inverse crime).  All numbers are
+invented for these scenarios; material conductivities are typical values (from memory).
+
+    make(name, seed=0, scale=1.0)   one scenario; scale < 1 gives cheaper FEM meshes
+    NAMES                           all scenario names, in table order
+"""
+
+from __future__ import annotations
+
+import math
+import types
+import zlib
+from dataclasses import dataclass, field
+
+import numpy as np
+
+import heatsight.forward as fw
+from heatsight import inverse
+from heatsight.data_io.case import Zone
+from heatsight.data_io.tables import offset_sd
+
+import scenario_fem as sf
+
+TWO_PI = 2.0 * math.pi
+BROKEN_OFFSET = 6.0  # K, a poor junction reading high (invented)
+#: layouts that do not resolve the face (no sharpness goal): one sector seen; offsets as
+#: large as the signal
+UNRESOLVED = frozenset({"sparse_sector", "chuck_class2"})
+
+
+# ------------------------------------------------------------------ heater shapes
+def step(x, width):
+    """Smooth unit step, 0 -> 1 over about 2 `width` around x = 0 (tanh edge)."""
+    return 0.5 * (1.0 + np.tanh(np.asarray(x, float) / width))
+
+
+def band(s, lo, hi, width):
+    """Smooth indicator of lo < s < hi (no lower edge when lo <= 0)."""
+    rise = 1.0 if lo <= 0 else step(s - lo, width)
+    return rise * step(hi - s, width)
+
+
+def sector(theta, centre, half, width):
+    """Smooth indicator of |theta - centre| < half (angles in rad, periodic)."""
+    d = np.abs(np.angle(np.exp(1j * (np.asarray(theta, float) - centre))))
+    return step(half - d, width)
+
+
+# ------------------------------------------------------------------ the scenario object
+@dataclass
+class Scenario:
+    """A case, its readings and its truth (SI units, radians)."""
+
+    name: str
+    story: str
+    case: object
+    readings: inverse.SensorReadings
+    truth: object               # f(u, v) on the unknown face: (r, theta) ends, (theta, z) side
+    face: str
+    power: float                # true heat into the part through the unknown face [W]
+    zone_means: dict            # zone name -> true area average on the face
+    broken: tuple = ()
+    fit_kwargs: dict = field(default_factory=dict)
+    rms_goal: float = 0.5       # relative RMS error goal (issue 9)
+    resolves: bool = True       # does the layout resolve the face (sharpness goal applies)?
+    fem: dict = field(default_factory=dict)
+
+    def truth_on(self, grid):
+        """Truth at the rows of a FitResult.grid (columns r_m, theta_rad, z_m)."""
+        u, v = sf.face_coords(self.face, grid["r_m"].to_numpy(), grid["theta_rad"].to_numpy(),
+                              grid["z_m"].to_numpy())
+        return np.asarray(self.truth(u, v), float)
+
+
+def _forward_faces(phys, overrides):
+    out = {}
+    for face, spec in phys.known.items():
+        if spec[0] == "D":
+            out[face] = fw.Temperature(spec[1])
+        elif spec[0] == "N":
+            out[face] = fw.Insulated() if spec[1] == 0 else fw.Flux(spec[1])
+        else:
+            out[face] = fw.Convection(spec[1], spec[2])
+    out[phys.unknown] = fw.UnknownTemperature() if phys.kind == "temperature" else fw.UnknownFlux()
+    out.update(overrides)
+    return out
+
+
+_FEM_CACHE: dict = {}
+_PHYSICS: dict = {}   # name -> (truth, physics, sensor positions) of the last scenario built
+
+
+def fem_readings(name, truth, phys, pos, scale=1.0, level=1):
+    """Noise-free FEM readings of a scenario, computed once per (name, scale, level)."""
+    key = (name, scale, level)
+    if key not in _FEM_CACHE:
+        _FEM_CACHE[key] = sf.solve(truth, phys, *pos, level=level, scale=scale)
+    return _FEM_CACHE[key]
+
+
+def _build(name, story, truth, phys, layout, *, seed, scale, sigma, zones=(), broken=(),
+           tc_class=None, fit_kwargs=None, fit_faces=None, rms_goal=0.5):
+    """Assemble a Scenario: FEM readings + seeded noise (+ class offsets, + faults)."""
+    names = [f"TC{i + 1:02d}" for i in range(len(layout))]
+    lay = np.asarray(layout, float)
+    r, theta, z = lay[:, 0], np.radians(lay[:, 1]), lay[:, 2]
+    fem = fem_readings(name, truth, phys, (r, theta, z), scale)
+    _PHYSICS[name] = (truth, phys, (r, theta, z))
+    rng = np.random.default_rng([zlib.crc32(name.encode()), seed])
+    sig = np.full(r.size, float(sigma))
+    T = fem.temperature + sig * rng.standard_normal(r.size)
+    off_sd = np.zeros(r.size)
+    if tc_class is not None:
+        # IEC 60584-1 class tolerance (heatsight.data_io.thermocouples, from memory) declared
+        # through the layout's type/class columns; the true offset of each sensor is drawn once,
+        # uniform in +-tolerance, and ADDED to its reading
+        import pandas as pd
+        frame = pd.DataFrame({"type": tc_class[0], "class": tc_class[1]}, index=names)
+        off_sd, _ = offset_sd(frame, T)
+        tol = off_sd * math.sqrt(3.0)   # standard uncertainty = tol / sqrt(3) (GUM 4.3.7)
+        T = T + rng.uniform(-1.0, 1.0, r.size) * tol
+    for b in broken:
+        T[names.index(b)] += BROKEN_OFFSET
+    rd = inverse.SensorReadings(names, r, theta, z, T, sig, off_sd, 0.0)
+    cyl = fw.Cylinder(phys.radius, phys.height, phys.conductivity)
+    case = types.SimpleNamespace(cylinder=cyl, faces=_forward_faces(phys, fit_faces or {}),
+                                 zones=list(zones), fit=types.SimpleNamespace())
+    span_h = phys.fem_height if math.isinf(phys.height) else phys.height
+    if phys.kind == "flux":
+        mean, area = sf.face_average(truth, phys.unknown, phys.radius, span_h)
+        power = mean * area
+    else:
+        power = fem.heat_in
+    zmeans = {zn.name: sf.face_average(truth, phys.unknown, phys.radius, span_h, zn.contains)[0]
+              for zn in zones}
+    facts = dict(fem.facts, mesh_grade=phys.mesh.get("grade"), fem_heat_in=fem.heat_in)
+    return Scenario(name, story, case, rd, truth, phys.unknown, float(power), zmeans,
+                    tuple(broken), dict(fit_kwargs or {}), rms_goal, name not in UNRESOLVED, facts)
+
+
+def _circle(radius, z, n, start=0.0):
+    """n sensors equally spaced on a circle of radius [m] at depth z [m], first at `start` deg."""
+    return [(radius, start + 360.0 * i / n, z) for i in range(n)]
+
+
+def _quadrant_zones(face, name, r=None, z=None, start=0.0):
+    out = []
+    for i in range(4):
+        lo = math.radians(start + 90 * i)
+        out.append(Zone(f"{name} {int(start + 90 * i)}-{int(start + 90 * (i + 1))}", face,
+                        (lo, lo + math.pi / 2), r=r, z=z))
+    return out
+
+
+# ------------------------------------------------------------------ the scenarios
+def platen_flux(seed=0, scale=1.0):
+    """Unknown bottom heat flux of a stainless platen: two ring heaters (smooth edges) with a
+    cos(theta) tilt; convection-cooled top, insulated rim; one sensor reads 6 K high."""
+    a, L, k = 0.15, 0.04, 16.0     # stainless steel ~16 W/(m K) (from memory)
+
+    def q(r, th):
+        rings = 3000.0 + 9000.0 * band(r, 0.0, 0.06, 0.004) + 11000.0 * band(r, 0.08, 0.14, 0.004)
+        return rings * (1.0 + 0.06 * (r / a) * np.cos(th - 0.7))
+    phys = sf.Physics(a, L, k, {"top": ("R", 250.0, 313.15), "side": ("N", 0.0)}, "bottom", "flux",
+                      dict(nr=90, nz=24, grade={"bottom": 3.0}), m_cap=8)
+    layout = (_circle(0.125, 0.005, 8) + _circle(0.07, 0.005, 4, 20) + [(0.0, 0.0, 0.005)]
+              + _circle(0.10, 0.012, 4, 65) + [(0.04, 100, 0.025), (0.09, 220, 0.025), (0.13, 340, 0.025)])
+    zones = [Zone("inner", "bottom", (0.0, TWO_PI), r=(0.0, 0.06)),
+             Zone("outer 0-180", "bottom", (0.0, math.pi), r=(0.08, 0.15)),
+             Zone("outer 180-360", "bottom", (math.pi, TWO_PI), r=(0.08, 0.15))]
+    return _build("platen_flux", platen_flux.__doc__, q, phys, layout, seed=seed, scale=scale,
+                  sigma=0.15, zones=zones, broken=("TC18",))
+
+
+def top_temperature(seed=0, scale=1.0):
+    """Unknown top temperature of a steel die standing on a hot plate (bottom held at 473 K):
+    cooler rim, a warm contact ring and a tilt; side cooled by natural convection."""
+    a, L, k = 0.08, 0.05, 45.0     # carbon steel ~45 W/(m K) (from memory)
+
+    def t(r, th):
+        rho = r / a
+        return 440.0 - 25.0 * rho ** 2 + 8.0 * np.exp(-((rho - 0.5) / 0.12) ** 2) \
+            + 6.0 * rho * np.cos(th - 2.1)
+    phys = sf.Physics(a, L, k, {"bottom": ("D", 473.15), "side": ("R", 15.0, 298.15)}, "top",
+                      "temperature", dict(nr=60, nz=40, grade={"top": 3.0}), m_cap=6)
+    layout = (_circle(0.06, L - 0.004, 6, 10) + _circle(0.03, L - 0.004, 4, 55) + [(0.0, 0.0, L - 0.004)]
+              + _circle(0.05, L - 0.010, 3, 100) + [(0.02, 30, L - 0.020), (0.07, 250, L - 0.020)])
+    zones = [Zone("centre", "top", (0.0, TWO_PI), r=(0.0, 0.03)),
+             Zone("contact ring", "top", (0.0, TWO_PI), r=(0.03, 0.05))] + \
+        _quadrant_zones("top", "rim", r=(0.06, 0.08))
+    return _build("top_temperature", top_temperature.__doc__, t, phys, layout, seed=seed, scale=scale,
+                  sigma=0.1, zones=zones)
+
+
+def wall_temperature(seed=0, scale=1.0):
+    """Unknown side-wall temperature of a tool-steel die with both ends held at 330 K: a band
+    heater around mid-height with a 25 %-weak sector (smooth edges); one sensor reads 6 K high."""
+    a, L, k = 0.06, 0.15, 25.0     # tool steel ~25 W/(m K) (from memory)
+
+    def t(th, z):
+        return 330.0 + 90.0 * band(z, 0.04, 0.11, 0.006) * (1.0 - 0.25 * sector(th, math.radians(200), math.radians(40), 0.15))
+    phys = sf.Physics(a, L, k, {"bottom": ("D", 330.0), "top": ("D", 330.0)}, "side", "temperature",
+                      dict(nr=36, nz=90), m_cap=30)
+    rng = np.random.default_rng(11)
+    layout = [(a - d, ang, zz) for d, ang, zz in zip(rng.choice([0.005, 0.010, 0.015], 20),
+                                                     (np.arange(20) * 137.5) % 360, np.linspace(0.02, 0.13, 20))]
+    zones = _quadrant_zones("side", "band", z=(0.04, 0.11)) + \
+        [Zone("lower end", "side", (0.0, TWO_PI), z=(0.0, 0.03))]
+    return _build("wall_temperature", wall_temperature.__doc__, t, phys, layout, seed=seed, scale=scale,
+                  sigma=0.1, zones=zones, broken=("TC07",))
+
+
+def side_flux(seed=0, scale=1.0):
+    """Unknown side heat flux of a steel bar clamped on a 300 K cooled plate, convection on top:
+    a band heater (8 kW/m^2) with a 30 %-weak sector, mild loss elsewhere on the wall."""
+    a, L, k = 0.05, 0.12, 50.0     # mild steel ~50 W/(m K) (from memory)
+
+    def q(th, z):
+        return 8000.0 * band(z, 0.05, 0.10, 0.004) * (1.0 - 0.3 * sector(th, math.radians(60), math.radians(45), 0.12)) - 150.0
+    phys = sf.Physics(a, L, k, {"bottom": ("D", 300.0), "top": ("R", 20.0, 298.15)}, "side", "flux",
+                      dict(nr=30, nz=80), m_cap=14)
+    layout = [(a - d, ang, zz) for d, ang, zz in zip([0.004, 0.008, 0.012, 0.006] * 5,
+                                                     (np.arange(20) * 97.0) % 360, np.linspace(0.015, 0.115, 20))]
+    zones = _quadrant_zones("side", "band", z=(0.05, 0.10))
+    return _build("side_flux", side_flux.__doc__, q, phys, layout, seed=seed, scale=scale,
+                  sigma=0.1, zones=zones)
+
+
+def semi_infinite(seed=0, scale=1.0):
+    """Unknown bottom heat flux into a long stainless bar (semi-infinite) cooled along its side:
+    a ring heater around a weaker centre, tilted by cos(theta)."""
+    a, k = 0.04, 15.0
+
+    def q(r, th):
+        return (5000.0 + 15000.0 * band(r, 0.015, 0.035, 0.002)) * (1.0 + 0.1 * (r / a) * np.cos(th))
+    conv = ("R", 30.0, 298.15)
+    phys = sf.Physics(a, math.inf, k, {"side": conv}, "bottom", "flux",
+                      dict(nr=40, nz=120, grade={"bottom": 60.0}), m_cap=6, fem_height=1.0, fem_far=conv)
+    layout = (_circle(0.030, 0.004, 6) + _circle(0.012, 0.004, 3, 30) + [(0.0, 0.0, 0.004)]
+              + _circle(0.025, 0.012, 4, 45) + [(0.02, 100, 0.03), (0.02, 280, 0.06)])
+    zones = [Zone("centre", "bottom", (0.0, TWO_PI), r=(0.0, 0.012)),
+             Zone("ring", "bottom", (0.0, TWO_PI), r=(0.017, 0.033))]
+    return _build("semi_infinite", semi_infinite.__doc__, q, phys, layout, seed=seed, scale=scale,
+                  sigma=0.1, zones=zones)
+
+
+def sparse_sector(seed=0, scale=1.0):
+    """Unknown bottom flux of a platen seen by 10 sensors all inside one 80-degree sector:
+    a ring heater with a 35 %-weak sector on the far side."""
+    a, L, k = 0.15, 0.04, 16.0
+
+    def q(r, th):
+        ring = 2000.0 + 10000.0 * band(r, 0.03, 0.13, 0.005)
+        return ring * (1.0 - 0.35 * band(r, 0.03, 0.13, 0.005) * sector(th, math.radians(200), math.radians(35), 0.1))
+    phys = sf.Physics(a, L, k, {"top": ("R", 250.0, 313.15), "side": ("N", 0.0)}, "bottom", "flux",
+                      dict(nr=90, nz=24, grade={"bottom": 3.0}), m_cap=14)
+    layout = [(rr, ang, zz) for rr, ang, zz in zip([0.02, 0.05, 0.08, 0.11, 0.135] * 2,
+                                                   [5, 25, 45, 65, 80, 15, 35, 55, 75, 0],
+                                                   [0.005] * 5 + [0.012] * 5)]
+    zones = [Zone("seen sector", "bottom", (0.0, math.radians(80)), r=(0.03, 0.13)),
+             Zone("ring", "bottom", (0.0, TWO_PI), r=(0.03, 0.13))]
+    return _build("sparse_sector", sparse_sector.__doc__, q, phys, layout, seed=seed, scale=scale,
+                  sigma=0.15, zones=zones, rms_goal=0.8)
+
+
+def chuck_class2(seed=0, scale=1.0):
+    """Unknown bottom flux of an aluminium chuck: one heater ring whose 90-degree sector runs
+    30 % weak; 12 type K class 2 thermocouples whose offsets (+-2.5 K) are as large as the
+    spread of the readings, declared through their class."""
+    a, L, k = 0.15, 0.025, 170.0    # aluminium alloy ~170 W/(m K) (from memory)
+
+    def q(r, th):
+        return 5000.0 * band(r, 0.0, 0.14, 0.004) * (1.0 - 0.3 * sector(th, math.radians(135), math.radians(45), 0.08))
+    phys = sf.Physics(a, L, k, {"top": ("R", 300.0, 300.0), "side": ("N", 0.0)}, "bottom", "flux",
+                      dict(nr=90, nz=16, grade={"bottom": 2.0}), m_cap=16)
+    layout = _circle(0.11, 0.010, 8, 22.5) + _circle(0.05, 0.010, 4, 0)
+    zones = _quadrant_zones("bottom", "heater", r=(0.0, 0.14), start=0.0)
+    return _build("chuck_class2", chuck_class2.__doc__, q, phys, layout, seed=seed, scale=scale,
+                  sigma=0.1, zones=zones, tc_class=("K", "2"))
+
+
+def calibrated_convection(seed=0, scale=1.0):
+    """Unknown bottom flux of a stainless plate whose top convection coefficient is calibrated
+    by the fit: nominal 46, true 60 W/(m^2 K); a central heater with a smooth shoulder and tilt."""
+    a, L, k = 0.10, 0.05, 16.0
+
+    def q(r, th):
+        return (1500.0 + 2500.0 * band(r, 0.0, 0.07, 0.008)) * (1.0 + 0.08 * (r / a) * np.cos(th - 1.2))
+    phys = sf.Physics(a, L, k, {"top": ("R", 60.0, 298.15), "side": ("N", 0.0)}, "bottom", "flux",
+                      dict(nr=60, nz=30, grade={"bottom": 2.0}), m_cap=6)
+    layout = (_circle(0.08, 0.005, 5) + _circle(0.035, 0.005, 3, 40) + [(0.0, 0.0, 0.005)]
+              + _circle(0.06, 0.025, 4, 20) + _circle(0.05, 0.045, 4, 65) + [(0.0, 0.0, 0.045), (0.09, 300, 0.045)])
+    zones = [Zone("centre", "bottom", (0.0, TWO_PI), r=(0.0, 0.06)),
+             Zone("edge", "bottom", (0.0, TWO_PI), r=(0.08, 0.10))]
+    return _build("calibrated_convection", calibrated_convection.__doc__, q, phys, layout, seed=seed,
+                  scale=scale, sigma=0.1, zones=zones, fit_faces={"top": fw.Convection(46.0, 298.15)},
+                  fit_kwargs={"calibrate": {("top", "h"): None}})
+
+
+def three_rings(seed=0, scale=1.0):
+    """Unknown bottom flux of a platen with three sharp ring heaters; the middle ring is made
+    of four 90-degree segments, one of them (90-180 deg) delivering 60 %; 28 sensors."""
+    a, L, k = 0.15, 0.04, 16.0
+    rings = [(0.0, 0.045), (0.055, 0.095), (0.105, 0.145)]
+
+    def q(r, th):
+        w = 0.0005
+        inner = band(r, *rings[0], w)
+        middle = band(r, *rings[1], w) * (1.0 - 0.4 * sector(th, 0.75 * math.pi, 0.25 * math.pi, 0.01))
+        outer = band(r, *rings[2], w)
+        return 1500.0 + 11000.0 * (inner + middle + outer)
+    phys = sf.Physics(a, L, k, {"top": ("R", 250.0, 313.15), "side": ("N", 0.0)}, "bottom", "flux",
+                      dict(nr=150, nz=24, grade={"bottom": 3.0}), m_cap=32)
+    layout = (_circle(0.125, 0.005, 10, 10) + _circle(0.075, 0.005, 8, 25) + _circle(0.025, 0.005, 3, 60)
+              + [(0.0, 0.0, 0.005)] + _circle(0.10, 0.012, 4, 70) + _circle(0.05, 0.025, 2, 160))
+    zones = ([Zone("inner", "bottom", (0.0, TWO_PI), r=rings[0])]
+             + _quadrant_zones("bottom", "middle", r=rings[1])
+             + [Zone("outer", "bottom", (0.0, TWO_PI), r=rings[2])])
+    return _build("three_rings", three_rings.__doc__, q, phys, layout, seed=seed, scale=scale,
+                  sigma=0.15, zones=zones)
+
+
+def wall_cooled_end(seed=0, scale=1.0):
+    """Unknown side-wall temperature of a steel die heated by a band heater, standing on a
+    water-cooled base (bottom convection h = 1500 W/(m^2 K)), insulated top; 20 thermocouples in
+    holes drilled from the top."""
+    a, L, k = 0.08, 0.12, 25.0
+
+    def t(th, z):
+        return 320.0 + 170.0 * step(z - 0.035, 0.012) + 10.0 * np.cos(th - 1.0) * step(z - 0.05, 0.02)
+    phys = sf.Physics(a, L, k, {"bottom": ("R", 1500.0, 300.0), "top": ("N", 0.0)}, "side", "temperature",
+                      dict(nr=40, nz=90, grade={"bottom": 3.0, "side": 4.0}), m_cap=4)
+    depths = (0.015, 0.035, 0.060, 0.085, 0.105)   # hole depths below the top [m]
+    layout = [((0.05, 0.065, 0.072, 0.075)[i // 5], (i * 47.0) % 360, L - depths[i % 5]) for i in range(20)]
+    zones = [Zone("lower wall", "side", (0.0, TWO_PI), z=(0.0, 0.03)),
+             Zone("heated wall", "side", (0.0, TWO_PI), z=(0.06, 0.12))]
+    return _build("wall_cooled_end", wall_cooled_end.__doc__, t, phys, layout, seed=seed, scale=scale,
+                  sigma=0.1, zones=zones)
+
+
+SCENARIOS = {f.__name__: f for f in (platen_flux, top_temperature, wall_temperature, side_flux,
+                                     semi_infinite, sparse_sector, chuck_class2,
+                                     calibrated_convection, three_rings, wall_cooled_end)}
+NAMES = tuple(SCENARIOS)
+
+
+def make(name, seed=0, scale=1.0) -> Scenario:
+    """Scenario `name` with noise seed `seed`; scale multiplies the FEM cell counts."""
+    if name not in SCENARIOS:
+        raise KeyError(f"unknown scenario {name!r}; known: {', '.join(NAMES)}")
+    return SCENARIOS[name](seed=seed, scale=scale)
+
+
+def mesh_check(name, scale=1.0):
+    """FEM convergence at the sensors: largest |T(level 2) - T(level 1)| [K] of the noise-free
+    readings, level 2 having twice the cells in r and z and 1.5x the harmonics; with the
+    smallest sensor sigma [K] and both levels' facts (including the heat in, "fem_heat_in")."""
+    scn = make(name, scale=scale)
+    truth, phys, pos = _PHYSICS[name]
+    lvl1 = fem_readings(name, truth, phys, pos, scale, level=1)
+    lvl2 = fem_readings(name, truth, phys, pos, scale, level=2)
+    diff = float(np.abs(lvl2.temperature - lvl1.temperature).max())
+    return (diff, float(scn.readings.sigma.min()), dict(lvl1.facts, fem_heat_in=lvl1.heat_in),
+            dict(lvl2.facts, fem_heat_in=lvl2.heat_in))

@@ -1,0 +1,210 @@
+"""The fast part of the scenario suite (bench/scenarios.py runs all ten, at full meshes).
+
+Six scenarios of tests/scenario_cases.py on half-size FEM meshes (shown converged below),
+noise seed 0.  Each goal of issue 9 is a test: goals the current fit meets are asserted;
+goals it does not meet yet are xfail(strict=True) with the figure measured when this file
+was written, so they turn into failures (to be promoted) the day they are met.
+
+The scenario data themselves are checked against the outside world first: the readings are
+scikit-fem solutions, reproduced by heatsight's own series with the TRUE face prescribed, and
+the FEM readings change by far less than the noise when the mesh is refined.
+"""
+
+import math
+import os
+import subprocess
+import sys
+import types
+from functools import lru_cache
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from threadpoolctl import threadpool_limits
+
+import heatsight.forward as fw
+import scenario_cases as sc
+import scenario_fem as sf
+import scenario_metrics as sm
+
+SCALE = 0.5
+FAST = ("platen_flux", "top_temperature", "side_flux", "calibrated_convection", "chuck_class2",
+        "wall_cooled_end")
+
+# Goals not met by the fit on the day this suite was written (scale 0.5, seed 0): measured figure.
+NOT_MET = {
+    ("platen_flux", "rel_rms"): "0.97", ("platen_flux", "coverage"): "0.76",
+    ("platen_flux", "sharpness"): "1.17", ("platen_flux", "zones"): "0 of 3 (-3.3, -3.4, -3.6 sd)",
+    ("platen_flux", "power"): "+2.5 sd",
+    ("top_temperature", "sharpness"): "1.15", ("top_temperature", "zones"): "5 of 6 (contact ring -3.7 sd)",
+    ("side_flux", "sharpness"): "1.59",
+    ("calibrated_convection", "rel_rms"): "0.51", ("calibrated_convection", "sharpness"): "1.52",
+    ("calibrated_convection", "zones"): "0 of 2 (-2.3, +2.7 sd)",
+    ("chuck_class2", "rel_rms"): "1.01", ("chuck_class2", "coverage"): "0.02",
+    ("chuck_class2", "zones"): "0 of 4 (about 10 sd)",
+    ("wall_cooled_end", "coverage"): "0.44", ("wall_cooled_end", "zones"): "0 of 2 (+17, -2.1 sd)",
+    ("wall_cooled_end", "power"): "+12 sd", ("wall_cooled_end", "sensors"): "5 healthy set aside",
+    ("pooled", "coverage"): "0.70",
+}
+
+
+@lru_cache(maxsize=None)
+def scenario(name):
+    return sc.make(name, seed=0, scale=SCALE)
+
+
+@lru_cache(maxsize=None)
+def scored(name):
+    with threadpool_limits(1):
+        return sm.run(scenario(name), seed=0)
+
+
+def _goal_params():
+    out = []
+    for name in FAST:
+        goals = ["rel_rms", "coverage", "zones", "power", "sensors"]
+        if name not in sc.UNRESOLVED:
+            goals.insert(2, "sharpness")
+        for goal in goals:
+            why = NOT_MET.get((name, goal))
+            marks = [pytest.mark.xfail(strict=True, reason=f"issue 9 goal not met yet: measured {why}")] if why else []
+            out.append(pytest.param(name, goal, marks=marks, id=f"{name}-{goal}"))
+    return out
+
+
+# ------------------------------------------------------------------ the scenario data
+# the chuck's sharp-sector projection takes ~20 s in the series; the semi-infinite bar is
+# checked here too (its FEM stands in with a 1 m bar, the series is truly semi-infinite)
+@pytest.mark.parametrize("name", [n for n in FAST if n != "chuck_class2"] + ["semi_infinite"])
+def test_series_with_true_face_reproduces_fem_readings(name):
+    """heatsight's series with the true face prescribed gives the scikit-fem readings to a
+    small fraction of the noise: the readings, the truth and the case agree."""
+    scn = scenario(name)
+    truth, phys, pos = sc._PHYSICS[name]
+    faces = dict(scn.case.faces)
+    faces.update({f: fw.Convection(spec[1], spec[2]) for f, spec in phys.known.items() if spec[0] == "R"})
+    faces[scn.face] = fw.Temperature(truth) if phys.kind == "temperature" else fw.Flux(truth)
+    series = fw.CylinderModel(scn.case.cylinder, faces, tolerance=1e-9).evaluate(*pos).temperature
+    fem = sc.fem_readings(name, truth, phys, pos, SCALE).temperature
+    # 0.05 sigma: "well below the noise", common practice, no source
+    assert np.abs(series - fem).max() <= 0.05 * scn.readings.sigma.min()  # reference: scikit-fem
+
+
+@pytest.mark.parametrize("name", ["top_temperature", "platen_flux", "wall_cooled_end"])
+def test_fem_readings_converged_on_test_mesh(name):
+    """Twice the cells in r and z and 1.5x the harmonics change no reading by more than a
+    tenth of the noise (bench/scenarios.py --mesh-check does this for every scenario)."""
+    diff, sigma, coarse, fine = sc.mesh_check(name, SCALE)
+    assert fine["nr"] == 2 * coarse["nr"] and fine["nz"] == 2 * coarse["nz"]
+    assert diff <= 0.1 * sigma  # scikit-fem at two mesh levels; 0.1 sigma: common practice, no source
+    # the true power of a temperature face is the FEM heat in: converged to 0.1 % (common practice, no source)
+    assert fine["fem_heat_in"] == pytest.approx(coarse["fem_heat_in"], rel=1e-3)  # scikit-fem, two levels
+
+
+@pytest.mark.parametrize("name", ["platen_flux", "side_flux", "chuck_class2"])
+def test_true_power_matches_fem_heat_balance(name):
+    """The true power of a flux face (midpoint rule over the face) equals the heat the FEM
+    solve took in through that face (its m = 0 harmonic): the harmonic split lost nothing."""
+    scn = scenario(name)
+    assert scn.fem["fem_heat_in"] == pytest.approx(scn.power, rel=1e-4)  # scikit-fem facet quadrature
+
+
+def test_declared_class_offsets_are_as_large_as_the_signal():
+    """The chuck's declared offsets: IEC 60584-1 class 2 type K, +-2.5 K below 333 degC
+    (from memory), standard uncertainty 2.5 / sqrt(3) (GUM 4.3.7); the readings' spread is of
+    the same size (the situation of issue 9)."""
+    rd = scenario("chuck_class2").readings
+    np.testing.assert_allclose(rd.offset_sd, 2.5 / math.sqrt(3.0), rtol=1e-12)  # IEC 60584-1 (from memory)
+    assert 0.5 <= np.std(rd.temperature) / 2.5 <= 2.0
+
+
+def test_broken_sensor_reads_high():
+    scn = scenario("platen_flux")
+    truth, phys, pos = sc._PHYSICS["platen_flux"]
+    fem = sc.fem_readings("platen_flux", truth, phys, pos, SCALE).temperature
+    i = scn.readings.names.index("TC18")
+    assert scn.readings.temperature[i] - fem[i] == pytest.approx(sc.BROKEN_OFFSET, abs=5 * scn.readings.sigma[i])
+
+
+def test_face_average_of_a_closed_form():
+    """Midpoint rule of the truths' zone means against elementary integrals: <(r/a)^2> over
+    the disc = 1/2 and over r1 < r < r2 = (rho1^2 + rho2^2) / 2; <cos theta> over |theta| < phi
+    on the side = sin(phi) / phi."""
+    a = 0.1
+    mean, area = sf.face_average(lambda r, t: (r / a) ** 2, "bottom", a, 0.05)
+    assert mean == pytest.approx(0.5, rel=1e-5) and area == pytest.approx(math.pi * a * a, rel=1e-12)
+    ring = lambda u, v: (u >= 0.03) & (u <= 0.07)  # noqa: E731
+    mean, _ = sf.face_average(lambda r, t: (r / a) ** 2, "bottom", a, 0.05, ring)
+    assert mean == pytest.approx((0.3 ** 2 + 0.7 ** 2) / 2, rel=2e-3)  # elementary integral
+    phi = 0.6
+    cap = lambda u, v: np.abs(np.angle(np.exp(1j * u))) < phi  # noqa: E731
+    mean, area = sf.face_average(lambda t, z: np.cos(t), "side", a, 0.2, cap)
+    assert mean == pytest.approx(math.sin(phi) / phi, rel=1e-3)  # elementary integral
+    # the mask edge is resolved to one cell of 2 pi / 1200 rad: 0.5 % of this 1.2 rad cap
+    assert area == pytest.approx(2 * phi * a * 0.2, rel=5e-3)  # elementary integral
+
+
+# ------------------------------------------------------------------ the metrics
+def test_scores_follow_their_definitions():
+    """A fake result whose estimate is the truth plus 0.3 sd(truth), with half bands of
+    0.2 sd(truth): relative RMS 0.3, coverage 0, sharpness 0.2; zone and power z-scores."""
+    scn = scenario("top_temperature")
+    th = np.linspace(0, 2 * np.pi, 40, endpoint=False)
+    r = np.linspace(0, scn.case.cylinder.radius, 11)
+    R, TH = np.meshgrid(r, th, indexing="ij")
+    grid = pd.DataFrame({"r_m": R.ravel(), "theta_rad": TH.ravel(), "z_m": scn.case.cylinder.height})
+    truth = scn.truth_on(grid)
+    sd = truth.std()
+    grid["estimate"] = truth + 0.3 * sd
+    grid["lower"], grid["upper"] = grid.estimate - 0.2 * sd, grid.estimate + 0.2 * sd
+    zones = [{"name": n, "mean": m + 1.0, "sd": 0.5} for n, m in scn.zone_means.items()]
+    res = types.SimpleNamespace(grid=grid, summary={"zones": zones[1:], "set_aside": ["TC01"],
+                                                    "total_power_W": scn.power - 3.0, "total_power_sd_W": 1.0})
+    s = sm.score(scn, res)
+    assert s.rel_rms == pytest.approx(0.3, rel=1e-12)   # definition
+    assert s.coverage == 0.0 and s.sharpness == pytest.approx(0.2, rel=1e-12)
+    first = next(iter(scn.zone_means))
+    assert s.zone_z[first] == math.inf                    # a zone the fit did not report is missed
+    assert all(s.zone_z[n] == pytest.approx(2.0) for n in list(scn.zone_means)[1:])
+    assert s.power_z == pytest.approx(-3.0) and not s.aside_ok
+    met = {g.split()[0] + " " + g.split()[1]: m for g, m, _ in sm.goals([s])}
+    assert met["relative RMS"] and not met["every total"] and not met["every broken"]
+
+
+# ------------------------------------------------------------------ the goals (issue 9)
+@pytest.mark.parametrize("name, goal", _goal_params())
+def test_goal(name, goal):
+    s = scored(name)
+    assert s.error is None, s.error
+    if goal == "rel_rms":
+        assert s.rel_rms <= s.rms_goal, s.rel_rms                         # issue 9 goal
+    elif goal == "coverage":
+        assert s.coverage >= sm.COVERAGE_EACH, s.coverage                 # issue 9 goal
+    elif goal == "sharpness":
+        assert s.sharpness <= sm.SHARPNESS, s.sharpness                   # issue 9 goal
+    elif goal == "zones":
+        within = [abs(z) <= sm.WITHIN_SD for z in s.zone_z.values()]
+        assert np.mean(within) >= sm.ZONE_SHARE, s.zone_z                 # issue 9 goal
+    elif goal == "power":
+        assert abs(s.power_z) <= sm.WITHIN_SD, s.power_z                  # issue 9 goal
+    else:
+        assert s.aside_ok, (s.broken, s.set_aside)                        # issue 9 goal
+
+
+@pytest.mark.xfail(strict=True, reason=f"issue 9 goal not met yet: measured {NOT_MET[('pooled', 'coverage')]}")
+def test_pooled_coverage():
+    pooled = np.mean([scored(n).coverage for n in FAST])
+    assert sm.COVERAGE_POOLED[0] <= pooled <= sm.COVERAGE_POOLED[1], pooled  # issue 9 goal
+
+
+def test_bench_script_prints_table_and_goals():
+    bench = Path(__file__).resolve().parent.parent / "bench" / "scenarios.py"
+    out = subprocess.run([sys.executable, str(bench), "--only", "top_temperature", "--scale", "0.3",
+                          "--fit", "harmonics=4"], capture_output=True, text=True, timeout=300,
+                         env=dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1"))
+    assert out.returncode == 0, out.stderr
+    assert "[1/1] top_temperature seed 0" in out.stdout
+    assert "{'harmonics': 4}" in out.stdout
+    lines = [ln for ln in out.stdout.splitlines() if ln.startswith(("MET", "NOT MET"))]
+    assert len(lines) == 7
