@@ -33,15 +33,16 @@ def curvature_coefficient(m, radius, height):
     return (radius / height) ** 2 / (2.0 * np.asarray(m, float) + 2.0)
 
 
-def end_rows(end: str, kind: str, h: float, k: float, L: float, c: float) -> np.ndarray:
-    """Row of the rim condition of one end on (alpha, beta, gamma)."""
+def end_rows(end: str, condition, k: float, L: float, c: float) -> np.ndarray:
+    """Row of the rim condition B[w] of one end on (alpha, beta, gamma); condition: the end's
+    `EndCondition` (its boundary operator)."""
     if end == "bottom":  # zeta = 0, outward normal -z
         w = np.array([1.0, 0.0, -c])
         dn = np.array([0.0, -1.0, 0.0]) / L
     else:  # zeta = 1, outward normal +z
         w = np.array([1.0, 1.0, 1.0 - c])
         dn = np.array([0.0, 1.0, 2.0]) / L
-    return {"D": w, "N": k * dn, "R": k * dn + h * w}[kind]
+    return condition.operator(w, dn, k)
 
 
 def solve_rim(rows: list, values: list) -> np.ndarray:

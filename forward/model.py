@@ -14,11 +14,11 @@ from dataclasses import dataclass
 import numpy as np
 
 from .errors import ForwardModelError, IllPosedError
-from .faces import FaceCondition, Flux, Temperature
-from .geometry import Cylinder
+from .faces import EndCondition, FaceCondition, Flux, Temperature
+from .geometry import Cylinder, normal_component
 from .harmonics import harmonic_amplitudes, theta_nodes
 from .corners import PolynomialLifting, curvature_coefficient, end_rows, solve_rim
-from .modes import EndCondition, EndFaceModes, SideModes
+from .modes import EndFaceModes, SideModes
 from .roots import axial_eigenvalues, radial_eigenvalues
 from .series import KnownSeries, _gauss
 
@@ -77,7 +77,7 @@ class CylinderModel:
                 f"conductivity is needed for the {', '.join(needs_k)} face condition(s)")
         self.has_conductivity = cylinder.conductivity is not None
         self.k = cylinder.conductivity if self.has_conductivity else 1.0
-        self.kinds = {f: EndCondition(c.kind, c.h) for f, c in faces.items()}
+        self.kinds = {f: c.homogeneous for f, c in faces.items()}
         self._check_well_posed()
         self._build()
 
@@ -192,7 +192,7 @@ class CylinderModel:
                 if max(abs(v) for v in vals) <= tol * max(ref, 1e-300):
                     continue
                 c = float(curvature_coefficient(m, a, L))
-                rows = [end_rows(e, row[0], row[1], k, L, c) for e, row in ends]
+                rows = [end_rows(e, EndCondition(row[0], row[1]), k, L, c) for e, row in ends]
                 terms.append((m, is_sin, solve_rim(rows, vals)))
         return PolynomialLifting.from_terms(a, L, terms)
 
@@ -209,7 +209,7 @@ class CylinderModel:
                     if (is_sin and m == 0) or abs(amp) <= tol * max(np.abs(am).max(), 1e-300):
                         continue
                     # B_side[(r/a)^m] = 1 ('D'), k m / a ('N'), k m / a + h ('R')
-                    b = {"D": 1.0, "N": k * m / a, "R": k * m / a + side.h}[side.kind]
+                    b = side.operator(1.0, m / a, k)
                     terms.append((m, is_sin, (amp / b, 0.0, 0.0)))
             # z-independent: carries the (z-uniform) side data of a semi-infinite part exactly
             self.lifting = PolynomialLifting.from_terms(a, L, terms)
@@ -226,7 +226,7 @@ class CylinderModel:
                 continue  # carried exactly by the two-dimensional lifting
             data = self._residual_data(face, cond)
             span = a if face != "side" else min(a, L)
-            scale = {"D": 1.0, "N": k / span, "R": cond.h}[cond.kind] * self.temperature_scale
+            scale = cond.homogeneous.datum_scale(k, span) * self.temperature_scale
             s = KnownSeries(face, data, (a, L), self.kinds, k, tol=tol, scale=scale,
                             n_cap=self.max_terms, max_harmonic=self.max_harmonic)
             if s.modes is not None:
@@ -244,7 +244,7 @@ class CylinderModel:
             u, v = (np.meshgrid(th, s) if face == "side" else np.meshgrid(s, th))
             size = float(np.abs(cond.data(u, v)).max())
             span = a if face != "side" else min(a, L)
-            ref = max(ref, size * {"D": 1.0, "N": span / self.k, "R": 1.0 / (cond.h or 1.0)}[cond.kind])
+            ref = max(ref, size / cond.homogeneous.datum_scale(self.k, span))
         return ref
 
     def _face_points(self, face, u, v):
@@ -256,21 +256,21 @@ class CylinderModel:
         z = 0.0 if face == "bottom" else cyl.height
         return u, v, np.full(u.shape, z)
 
-    def _normal_component(self, face, grad):
-        """dT/dn with the outward normal of the face, from a (3, ...) gradient."""
-        return {"bottom": -grad[2], "top": grad[2], "side": grad[0]}[face]
-
-    def _lifting_operator(self, face, cond, u, v):
-        """B_F[w] on a face: w ('D'), k dw/dn ('N'), k dw/dn + h w ('R')."""
+    def face_operator(self, field, face, condition, u, v):
+        """B_F[field] on a face at face coordinates (u, v), by the face's condition (its
+        boundary operator); field: anything with temperature(r, theta, z) and gradient(...)."""
         r, th, z = self._face_points(face, u, v)
         shape = r.shape
         r, th, z = r.ravel(), th.ravel(), z.ravel()
+        w = field.temperature(r, th, z)
+        dn = normal_component(face, field.gradient(r, th, z))
+        return condition.operator(w, dn, self.k).reshape(shape)
+
+    def _lifting_operator(self, face, cond, u, v):
+        """B_F[w] of the lifting w on a face."""
         if self.lifting.empty:
-            return np.zeros(shape)
-        w = self.lifting.temperature(r, th, z)
-        dn = self._normal_component(face, self.lifting.gradient(r, th, z))
-        out = {"D": w, "N": self.k * dn, "R": self.k * dn + cond.h * w}[cond.kind]
-        return out.reshape(shape)
+            return np.zeros(self._face_points(face, u, v)[0].shape)
+        return self.face_operator(self.lifting, face, cond, u, v)
 
     def _residual_data(self, face, cond):
         def data(u, v):
@@ -348,10 +348,10 @@ class UnknownBasis:
         for m in range(harmonics + 1):
             if self.face == "side":
                 b, t = kinds["bottom"], kinds["top"]
-                e = axial_eigenvalues(b.kind, t.kind, terms, b.h * L / k, t.h * L / k)
+                e = axial_eigenvalues(b.kind, t.kind, terms, b.biot(k, L), t.biot(k, L))
             else:
                 s = kinds["side"]
-                e = radial_eigenvalues(s.kind, m, terms, s.h * a / k)
+                e = radial_eigenvalues(s.kind, m, terms, s.biot(k, a))
             for is_sin in ((False,) if m == 0 else (False, True)):
                 ms.append(np.full(terms, m)), sins.append(np.full(terms, is_sin))
                 ev.append(e), nidx.append(np.arange(terms))
@@ -388,21 +388,13 @@ class UnknownBasis:
         for m in range(harmonics + 1):
             for is_sin in ((False,) if m == 0 else (False, True)):
                 c = float(curvature_coefficient(m, a, L))
-                rows = [end_rows(self.face, "N", 0.0, k, L, c), end_rows(far, fk.kind, fk.h, k, L, c)]
+                rows = [end_rows(self.face, EndCondition("N"), k, L, c), end_rows(far, fk, k, L, c)]
                 w = PolynomialLifting.from_terms(a, L, [(m, is_sin, solve_rim(rows, [1.0, 0.0]))])
                 fixes = []
                 for face in ("side", far):
                     def data(u, v, face=face, w=w):
-                        r, th, z = model._face_points(face, u, v)
-                        shape = r.shape
-                        r, th, z = r.ravel(), th.ravel(), z.ravel()
-                        t = w.temperature(r, th, z)
-                        dn = model._normal_component(face, w.gradient(r, th, z))
-                        kind = model.kinds[face]
-                        b = {"D": t, "N": k * dn, "R": k * dn + kind.h * t}[kind.kind]
-                        return -b.reshape(shape)
-                    scale = {"D": L / k, "N": 1.0, "R": max(model.kinds[face].h, 1e-300) * L / k}[
-                        model.kinds[face].kind]
+                        return -model.face_operator(w, face, model.kinds[face], u, v)
+                    scale = model.kinds[face].datum_scale(k, L) * L / k
                     series = KnownSeries(face, data, (a, L), model.kinds, k, tol=model.tolerance,
                                          scale=scale, n_cap=model.max_terms,
                                          max_harmonic=model.max_harmonic)
