@@ -17,6 +17,7 @@ from .errors import ForwardModelError, IllPosedError
 from .faces import EndCondition, FaceCondition, Flux, Temperature
 from .geometry import Cylinder, normal_component
 from .harmonics import harmonic_amplitudes, theta_nodes
+from .corner_columns import end_rim_columns, orthogonalize, wall_columns
 from .corners import PolynomialLifting, curvature_coefficient, end_rows, solve_rim
 from .modes import EndFaceModes, SideModes
 from .roots import axial_eigenvalues, radial_eigenvalues
@@ -362,46 +363,31 @@ class UnknownBasis:
         else:
             far = "top" if self.face == "bottom" else "bottom"
             self.modes = EndFaceModes(self.face, a, L, k, kinds[self.face], kinds.get(far), m, is_sin, ev)
-        self.rim = self._rim_columns(harmonics)
+        if self.face == "side":
+            self.rim = wall_columns(model, harmonics)
+            # wall columns minus their projection on the eigenfunctions (corner_columns)
+            self.mix = orthogonalize(self.rim, self.modes, ev.size)
+        else:
+            self.rim = end_rim_columns(model, self.face, harmonics)
+            self.mix = np.zeros((ev.size, len(self.rim)))
         n_rim = len(self.rim)
-        self.m = np.concatenate([m, [c[0] for c in self.rim]]).astype(int)
-        self.is_sin = np.concatenate([is_sin, [c[1] for c in self.rim]]).astype(bool)
+        self.m = np.concatenate([m, [c.m for c in self.rim]]).astype(int)
+        self.is_sin = np.concatenate([is_sin, [c.is_sin for c in self.rim]]).astype(bool)
         self.eigenvalues = np.concatenate([ev, np.full(n_rim, np.nan)])
         self.n_index = np.concatenate([self.n_index, np.full(n_rim, -1)])
         self.n_eigen = ev.size
 
-    def _rim_columns(self, harmonics):
-        """Extra columns for an unknown-flux end beside a temperature side, whose
-        eigenfunctions all vanish at the rim: per harmonic, a field with inflow flux
-        (r/a)^m Theta_m on the face (a corner-lifting term with unit rim flux and the far
-        end's rim condition homogeneous) plus the side and far-end series that restore the
-        homogeneous conditions there.  Without them the rim flux would be forced to zero."""
-        model, cyl = self.model, self.model.cylinder
-        cond = model.faces[self.face]
-        if (self.face == "side" or cond.kind != "N" or model.kinds["side"].kind != "D"
-                or cyl.semi_infinite):
-            return []
-        a, L, k = cyl.radius, cyl.height, model.k
-        far = "top" if self.face == "bottom" else "bottom"
-        fk = model.kinds[far]
-        out = []
-        for m in range(harmonics + 1):
-            for is_sin in ((False,) if m == 0 else (False, True)):
-                c = float(curvature_coefficient(m, a, L))
-                rows = [end_rows(self.face, EndCondition("N"), k, L, c), end_rows(far, fk, k, L, c)]
-                w = PolynomialLifting.from_terms(a, L, [(m, is_sin, solve_rim(rows, [1.0, 0.0]))])
-                fixes = []
-                for face in ("side", far):
-                    def data(u, v, face=face, w=w):
-                        return -model.face_operator(w, face, model.kinds[face], u, v)
-                    scale = model.kinds[face].datum_scale(k, L) * L / k
-                    series = KnownSeries(face, data, (a, L), model.kinds, k, tol=model.tolerance,
-                                         scale=scale, n_cap=model.max_terms,
-                                         max_harmonic=model.max_harmonic)
-                    if series.modes is not None:
-                        fixes.append(series)
-                out.append((m, is_sin, w, fixes))
-        return out
+    @property
+    def uniform_column(self):
+        """Index of the column whose face function is uniform, or None: the m = 0 rim-flux
+        column of an unknown-flux end beside a temperature side, or the uniform wall column
+        (see corner_columns)."""
+        if not self.rim:
+            return None
+        if self.face == "side":
+            hit = [i for i, c in enumerate(self.rim) if c.uniform]
+            return int(self.n_eigen + hit[0]) if hit else None
+        return int(self.n_eigen + next(i for i, c in enumerate(self.rim) if c.m == 0))
 
     @property
     def size(self):
@@ -415,30 +401,25 @@ class UnknownBasis:
         if not self.rim:
             return t, g
         tc, gc = [], []
-        for _, _, w, fixes in self.rim:
-            tw = w.temperature(r, theta, z)
-            gw = w.gradient(r, theta, z)
-            for s in fixes:
-                ts, gs, _ = s.evaluate(r, theta, z, gradient=gradient)
-                tw, gw = tw + ts, gw + gs
+        for col in self.rim:
+            tw, gw = col.fields(r, theta, z, gradient=gradient)
             tc.append(tw), gc.append(gw)
-        t = np.concatenate([t, np.stack(tc, axis=1)], axis=1)
+        t = np.concatenate([t, np.stack(tc, axis=1) - t @ self.mix], axis=1)
         if gradient:
-            g = np.concatenate([g, np.stack(gc, axis=2)], axis=2)
+            g = np.concatenate([g, np.stack(gc, axis=2) - g @ self.mix], axis=2)
         return t, g
 
     def face_values(self, u, v):
-        """Phi_k at face coordinates (r, theta) or (theta, z): (Q, K); a rim column's face
-        function is (r/a)^m Theta_m."""
+        """Phi_k at face coordinates (r, theta) or (theta, z): (Q, K); a corner column's face
+        function is its polynomial profile times Theta_m, less its eigenfunction part on the
+        side (see corner_columns)."""
         u, v = np.broadcast_arrays(np.asarray(u, float).ravel(), np.asarray(v, float).ravel())
         phi = self.modes.eigenfunctions(u, v)
         if not self.rim:
             return phi
-        rho = (u / self.model.cylinder.radius)[:, None]
-        m = np.array([c[0] for c in self.rim])
-        s = np.array([c[1] for c in self.rim])
-        arg = np.multiply.outer(v, m)
-        extra = rho ** m * np.where(s, np.sin(arg), np.cos(arg))
+        cyl = self.model.cylinder
+        s, th = (v / cyl.height, u) if self.face == "side" else (u / cyl.radius, v)
+        extra = np.stack([c.face_values(s, th) for c in self.rim], axis=1) - phi @ self.mix
         return np.concatenate([phi, extra], axis=1)
 
     def known_face_values(self, u, v):
@@ -448,21 +429,15 @@ class UnknownBasis:
         return self.model._lifting_operator(self.face, cond, u, v)
 
     def norms(self):
-        """integral of Phi_k^2 over the face [m^2] (rim columns: (2 pi or pi) a^2 / (2 m + 2))."""
+        """integral of Phi_k^2 over the face [m^2] (corner columns: their exact norms)."""
         n = self.modes.norms()
-        if not self.rim:
-            return n
-        m = self.m[self.n_eigen:]
-        a = self.model.cylinder.radius
-        return np.concatenate([n, np.where(m == 0, 2 * np.pi, np.pi) * a * a / (2.0 * m + 2.0)])
+        return np.concatenate([n, [c.norm for c in self.rim]]) if self.rim else n
 
     def surface_eigenvalues(self):
-        """-Laplacian_face Phi_k = ev_k Phi_k, ev_k [1/m^2] (rim columns, which are no
-        eigenfunctions, get (m / a)^2)."""
+        """-Laplacian_face Phi_k = ev_k Phi_k, ev_k [1/m^2] (corner columns, which are no
+        eigenfunctions, get a stand-in: see corner_columns)."""
         ev = self.modes.surface_eigenvalues()
-        if not self.rim:
-            return ev
-        return np.concatenate([ev, (self.m[self.n_eigen:] / self.model.cylinder.radius) ** 2])
+        return np.concatenate([ev, [c.surface_eigenvalue for c in self.rim]]) if self.rim else ev
 
     def powers(self):
         """Heat INTO the part through the unknown face [W] per unit coefficient, (K,)
@@ -470,12 +445,7 @@ class UnknownBasis:
         if not self.model.has_conductivity:
             return np.full(self.size, np.nan)
         p = self.modes.powers()[self.face]
-        if not self.rim:
-            return p
-        m = self.m[self.n_eigen:]
-        s = self.is_sin[self.n_eigen:]
-        a = self.model.cylinder.radius
-        return np.concatenate([p, np.where((m == 0) & ~s, np.pi * a * a, 0.0)])
+        return np.concatenate([p, np.array([c.power for c in self.rim]) - p @ self.mix]) if self.rim else p
 
     def known_power(self):
         """Heat INTO the part through the unknown face [W] from the known field."""
