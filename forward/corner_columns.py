@@ -26,8 +26,8 @@ field has it too), but the face function itself is exact.
    temperature, carried by the lifting.)
 
 2. Unknown side (`wall_columns`), axial eigenfunctions Z_n(z) with the ends' homogeneous
-   conditions.  With s = outward normal at an end and Z the profile along z, the defect of
-   a profile p at an end is the end's operator applied to it,
+   conditions.  With s the outward normal at an end, the defect of a wall profile p(z) at
+   an end is the end's operator applied to it,
 
        'D' (temperature end)         d = p(end)
        'N' (flux or insulated end)   d = k dp/ds(end)

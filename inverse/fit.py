@@ -82,9 +82,9 @@ class _Design:
 def _nominal_direction(basis):
     """Unit coefficients of the nominal profile's shape: the uniform profile where the basis
     holds it exactly (`basis.uniform_column`: the m = 0 rim column of an unknown-flux face
-    beside a temperature side, or the uniform wall column of an unknown side beside a
-    flux-, insulated- or convection-kind end), else the fundamental eigenfunction (m = 0
-    cos, first term)."""
+    beside a temperature side, or the uniform wall column of an unknown side whose ends
+    allow it: forward/corner_columns.py), else the fundamental eigenfunction (m = 0 cos,
+    first term)."""
     u = np.zeros(basis.size)
     axisym = (basis.m == 0) & ~basis.is_sin
     j = basis.uniform_column
