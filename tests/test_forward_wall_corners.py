@@ -110,6 +110,36 @@ def test_wall_profile_beside_a_cooled_end_converges_up_to_the_ends():
     assert np.abs(T - fem.temperature(r, z)).max() < 1e-4 * span  # scikit-fem (reference library)
 
 
+def _wall_fit_errors(model, profile, terms_list):
+    """Max error / span of least-squares fits of the basis' face functions (m = 0) to a wall
+    profile, with and without the corner columns, for each number of terms."""
+    zs = np.linspace(0.0, L, 801)
+    span = np.ptp(profile(zs))
+    out = []
+    for terms in terms_list:
+        basis = model.basis(0, terms)
+        F = basis.face_values(np.zeros_like(zs), zs)
+        target = profile(zs) - basis.known_face_values(np.zeros_like(zs), zs)
+        row = []
+        for cols in (np.arange(basis.size), np.arange(basis.n_eigen)):
+            c = np.linalg.lstsq(F[:, cols], target, rcond=None)[0]
+            row.append(np.abs(F[:, cols] @ c - target).max() / span)
+        out.append(row)
+    return np.array(out)
+
+
+def test_flux_wall_beside_a_temperature_end_converges_up_to_the_ends():
+    """A band-heater flux reaching down to a temperature-held base: every axial
+    eigenfunction of the flux wall vanishes at that end, so without the corner columns the
+    fit is pinned to zero there (the flux's full size); with them it converges."""
+    model = CylinderModel(Cylinder(A, L, K), {"bottom": Temperature(300.0), "top": Convection(15.0, T_AMB),
+                                              "side": UnknownFlux()})
+    err = _wall_fit_errors(model, lambda z: 1e4 * (np.tanh((z + 0.3 * L) / (0.15 * L))
+                                                   - np.tanh((z - 0.8 * L) / (0.15 * L))), (10, 20, 40))
+    assert err[0, 0] < 2e-3 and err[1, 0] < 5e-4 and err[2, 0] < 1.2e-4
+    assert err[:, 1].min() > 0.5
+
+
 def test_cubic_corner_term_is_harmonic_and_balanced():
     """The cubic term rho^m Theta (zeta^3 - 3 c zeta rho^2): Laplacian zero (central
     differences of the cylindrical Laplacian, textbook form) and face powers that match
