@@ -1,12 +1,16 @@
 """Corner lifting: a harmonic polynomial field that makes the face data of every sub-problem
 vanish where an end face meets a temperature-kind side.
 
-    w = sum_m rho^m Theta_m(theta) [alpha_m + beta_m zeta + gamma_m (zeta^2 - c_m rho^2)],
+    w = sum_m rho^m Theta_m(theta) [alpha_m + beta_m zeta + gamma_m (zeta^2 - c_m rho^2)
+                                    + delta_m (zeta^3 - 3 c_m zeta rho^2)],
     rho = r / a,  zeta = z / L,  c_m = (a / L)^2 / (2 m + 2).
 
 Each term is harmonic: r^m Theta_m is a 2-D harmonic, r^m Theta_m z is harmonic, and
 r^m Theta_m (z^2 - r^2 / (2 m + 2)) is harmonic because Laplacian(r^m Theta_m r^2) =
-(4 m + 4) r^m Theta_m and Laplacian(r^m Theta_m z^2) = 2 r^m Theta_m.
+(4 m + 4) r^m Theta_m and Laplacian(r^m Theta_m z^2) = 2 r^m Theta_m; likewise
+Laplacian(r^m Theta_m z r^2) = (4 m + 4) z r^m Theta_m and Laplacian(r^m Theta_m z^3) =
+6 z r^m Theta_m make the cubic term harmonic.  The lifting uses alpha..gamma; the cubic term
+serves the wall's corner columns (`corner_columns.py`), whose traces need it.
 
 At the rim (rho = 1) each end gives one condition per harmonic, by its kind:
     'D'  rim temperature     w                   = E   (the side's temperature there)
@@ -33,15 +37,16 @@ def curvature_coefficient(m, radius, height):
     return (radius / height) ** 2 / (2.0 * np.asarray(m, float) + 2.0)
 
 
-def end_rows(end: str, kind: str, h: float, k: float, L: float, c: float) -> np.ndarray:
-    """Row of the rim condition of one end on (alpha, beta, gamma)."""
+def end_rows(end: str, condition, k: float, L: float, c: float) -> np.ndarray:
+    """Row of the rim condition B[w] of one end on (alpha, beta, gamma); condition: the end's
+    `EndCondition` (its boundary operator)."""
     if end == "bottom":  # zeta = 0, outward normal -z
         w = np.array([1.0, 0.0, -c])
         dn = np.array([0.0, -1.0, 0.0]) / L
     else:  # zeta = 1, outward normal +z
         w = np.array([1.0, 1.0, 1.0 - c])
         dn = np.array([0.0, 1.0, 2.0]) / L
-    return {"D": w, "N": k * dn, "R": k * dn + h * w}[kind]
+    return condition.operator(w, dn, k)
 
 
 def solve_rim(rows: list, values: list) -> np.ndarray:
@@ -68,21 +73,26 @@ class PolynomialLifting:
     alpha: np.ndarray
     beta: np.ndarray
     gamma: np.ndarray
+    delta: np.ndarray | None = None
+
+    def __post_init__(self):
+        if self.delta is None:
+            self.delta = np.zeros_like(np.asarray(self.gamma, float))
 
     @classmethod
     def empty_lifting(cls, radius, height):
         e = np.zeros(0)
-        return cls(radius, height, e.astype(int), e.astype(bool), e, e, e)
+        return cls(radius, height, e.astype(int), e.astype(bool), e, e, e, e)
 
     @classmethod
     def from_terms(cls, radius, height, terms):
-        """From a list of (m, is_sin, (alpha, beta, gamma))."""
+        """From a list of (m, is_sin, (alpha, beta, gamma[, delta]))."""
         if not terms:
             return cls.empty_lifting(radius, height)
         m = np.array([t[0] for t in terms], dtype=int)
         s = np.array([t[1] for t in terms], dtype=bool)
-        abc = np.array([t[2] for t in terms], dtype=float)
-        return cls(radius, height, m, s, abc[:, 0], abc[:, 1], abc[:, 2])
+        abc = np.array([tuple(t[2]) + (0.0,) * (4 - len(t[2])) for t in terms], dtype=float)
+        return cls(radius, height, m, s, abc[:, 0], abc[:, 1], abc[:, 2], abc[:, 3])
 
     @property
     def empty(self):
@@ -117,17 +127,19 @@ class PolynomialLifting:
         """Per-term temperature (P, J) and gradient (3, P, J) (d/dr, (1/r) d/dtheta, d/dz)."""
         a, L = self.radius, self.height
         rho, zeta, th, dth_m = self._parts(r, theta, z)
-        m, c = self.m, self._c()
-        poly = self.alpha + self.beta * zeta + self.gamma * (zeta ** 2 - c * rho ** 2)
+        m, c, d = self.m, self._c(), self.delta
+        poly = (self.alpha + self.beta * zeta + self.gamma * (zeta ** 2 - c * rho ** 2)
+                + d * (zeta ** 3 - 3.0 * c * zeta * rho ** 2))
         pw = rho ** m
         t = pw * th * poly
         if not gradient:
             return t, None
         pw1 = np.where(m >= 1, rho ** np.maximum(m - 1, 0), 0.0)
-        d_poly_drho = -2.0 * c * self.gamma * rho
+        d_poly_drho = -2.0 * c * self.gamma * rho - 6.0 * c * d * zeta * rho
+        d_poly_dzeta = self.beta + 2.0 * self.gamma * zeta + 3.0 * d * (zeta ** 2 - c * rho ** 2)
         dr = (m * pw1 * poly + pw * d_poly_drho) * th / a
         dtheta = m * pw1 * poly * dth_m / a
-        dz = pw * th * (self.beta + 2.0 * self.gamma * zeta) / (L if math.isfinite(L) else 1.0)
+        dz = pw * th * d_poly_dzeta / (L if math.isfinite(L) else 1.0)
         return t, np.stack([dr, dtheta, dz])
 
     def power(self, face, conductivity):
@@ -139,12 +151,14 @@ class PolynomialLifting:
         if not sel.any():
             return 0.0
         al, be, ga, c = self.alpha[sel], self.beta[sel], self.gamma[sel], self._c()[sel]
+        de = self.delta[sel]
         if not math.isfinite(L):
             return 0.0
         area = math.pi * a * a
-        if face == "bottom":  # -k dw/dz at z = 0 = -(k / L) beta, uniform
-            return float(np.sum(-k * be / L) * area)
-        if face == "top":  # k dw/dz at z = L = (k / L)(beta + 2 gamma)
-            return float(np.sum(k * (be + 2 * ga) / L) * area)
-        # side: k dw/dr at r = a = k (-2 c gamma) / a, uniform over the side area
-        return float(np.sum(-2.0 * k * c * ga / a) * 2.0 * math.pi * a * L)
+        # the mean of rho^2 over the end face is 1/2, of zeta over the side 1/2
+        if face == "bottom":  # -k dw/dz at z = 0 = -(k / L)(beta - 3 c delta rho^2)
+            return float(np.sum(-k * (be - 1.5 * c * de) / L) * area)
+        if face == "top":  # k dw/dz at z = L = (k / L)(beta + 2 gamma + 3 delta (1 - c rho^2))
+            return float(np.sum(k * (be + 2 * ga + 3 * de * (1.0 - 0.5 * c)) / L) * area)
+        # side: k dw/dr at r = a = k (-2 c gamma - 6 c delta zeta) / a
+        return float(np.sum(-k * c * (2.0 * ga + 3.0 * de) / a) * 2.0 * math.pi * a * L)

@@ -16,6 +16,11 @@ face coordinates in SI units, ``f(r, theta)`` on the end faces (r [m], theta [ra
 For superposition every face also has a *homogeneous kind*: 'D' (T = 0), 'N'
 (dT/dn = 0) or 'R' (k dT/dn + h T = 0).  An unknown face is homogeneous as 'D'
 (unknown-temperature) or 'N' (unknown-flux) in the other sub-problems.
+
+The boundary operator B of a face, written in one place (`EndCondition.operator`; a
+`FaceCondition` asks its homogeneous `EndCondition`):
+
+    B[T] = T ('D'),   k dT/dn ('N'),   k dT/dn + h T ('R')        so that   B[T] = data.
 """
 
 from __future__ import annotations
@@ -53,6 +58,41 @@ def evaluate_datum(datum: Datum, u, v) -> np.ndarray:
     return np.full(u.shape, float(datum))
 
 
+@dataclass(frozen=True)
+class EndCondition:
+    """Homogeneous kind of a face ('D', 'N' or 'R') and its h [W/(m^2 K)] (only for 'R'):
+    what the eigenvalue families and the superposition need of a face condition."""
+
+    kind: str
+    h: float = 0.0
+
+    def operator(self, value, normal_derivative, k):
+        """B[T] from T and dT/dn (outward normal) on the face: T ('D') [K], k dT/dn ('N')
+        [W/m^2], k dT/dn + h T ('R') [W/m^2]; k [W/(m K)].  Works on arrays."""
+        if self.kind == "D":
+            return value
+        if self.kind == "N":
+            return k * normal_derivative
+        if self.kind == "R":
+            return k * normal_derivative + self.h * value
+        raise ValueError(f"unknown homogeneous kind {self.kind!r}")
+
+    def datum_scale(self, k, span):
+        """Size of B[T] for a 1 K change over the length span [m]: 1 ('D'), k / span ('N'),
+        h ('R'); converts a temperature size [K] to a datum size and back."""
+        return {"D": 1.0, "N": k / span, "R": self.h}[self.kind]
+
+    def biot(self, k, length):
+        """Bi = h length / k (0 unless 'R')."""
+        return self.h * length / k
+
+    def reflection(self, kappa, k):
+        """rho making Z = exp(-kappa s) + rho exp(kappa s) (s outward, at the face s = 0)
+        homogeneous here, B[Z] = 0: rho = -B[1, -kappa] / B[1, kappa]; -1 ('D'), +1 ('N'),
+        (k kappa - h) / (k kappa + h) ('R'); kappa [1/m] > 0."""
+        return -self.operator(1.0, -kappa, k) / self.operator(1.0, kappa, k)
+
+
 class FaceCondition:
     """Base class; `kind` is the homogeneous kind ('D', 'N' or 'R') of the face."""
 
@@ -71,6 +111,15 @@ class FaceCondition:
     @property
     def h(self) -> float:
         return 0.0
+
+    @property
+    def homogeneous(self) -> EndCondition:
+        """The face's homogeneous condition (kind and h)."""
+        return EndCondition(self.kind, self.h)
+
+    def operator(self, value, normal_derivative, k):
+        """B[T] on this face from T and dT/dn (outward): see `EndCondition.operator`."""
+        return self.homogeneous.operator(value, normal_derivative, k)
 
     @property
     def is_uniform(self) -> bool:

@@ -10,6 +10,12 @@ from .errors import ForwardModelError
 FACE_NAMES = ("bottom", "top", "side")
 
 
+def normal_component(face, grad):
+    """dT/dn with the outward normal of a face (bottom -z, top +z, side +r) from a gradient
+    (3, ...) given as (d/dr, (1/r) d/dtheta, d/dz)."""
+    return {"bottom": -grad[2], "top": grad[2], "side": grad[0]}[face]
+
+
 @dataclass(frozen=True)
 class Cylinder:
     """Solid cylinder 0 <= r <= radius, 0 <= z <= height (height = math.inf: semi-infinite).

@@ -14,13 +14,12 @@ from dataclasses import dataclass
 import numpy as np
 
 from .errors import ForwardModelError, IllPosedError
-from .faces import FaceCondition, Flux, Temperature
-from .geometry import Cylinder
+from .faces import EndCondition, FaceCondition, Flux, Temperature
+from .geometry import Cylinder, normal_component
 from .harmonics import harmonic_amplitudes, theta_nodes
 from .corners import PolynomialLifting, curvature_coefficient, end_rows, solve_rim
-from .modes import EndCondition, EndFaceModes, SideModes
-from .roots import axial_eigenvalues, radial_eigenvalues
 from .series import KnownSeries, _gauss
+from .basis import UnknownBasis  # re-exported: forward.model.UnknownBasis
 
 
 @dataclass
@@ -77,7 +76,7 @@ class CylinderModel:
                 f"conductivity is needed for the {', '.join(needs_k)} face condition(s)")
         self.has_conductivity = cylinder.conductivity is not None
         self.k = cylinder.conductivity if self.has_conductivity else 1.0
-        self.kinds = {f: EndCondition(c.kind, c.h) for f, c in faces.items()}
+        self.kinds = {f: c.homogeneous for f, c in faces.items()}
         self._check_well_posed()
         self._build()
 
@@ -192,7 +191,7 @@ class CylinderModel:
                 if max(abs(v) for v in vals) <= tol * max(ref, 1e-300):
                     continue
                 c = float(curvature_coefficient(m, a, L))
-                rows = [end_rows(e, row[0], row[1], k, L, c) for e, row in ends]
+                rows = [end_rows(e, EndCondition(row[0], row[1]), k, L, c) for e, row in ends]
                 terms.append((m, is_sin, solve_rim(rows, vals)))
         return PolynomialLifting.from_terms(a, L, terms)
 
@@ -209,7 +208,7 @@ class CylinderModel:
                     if (is_sin and m == 0) or abs(amp) <= tol * max(np.abs(am).max(), 1e-300):
                         continue
                     # B_side[(r/a)^m] = 1 ('D'), k m / a ('N'), k m / a + h ('R')
-                    b = {"D": 1.0, "N": k * m / a, "R": k * m / a + side.h}[side.kind]
+                    b = side.operator(1.0, m / a, k)
                     terms.append((m, is_sin, (amp / b, 0.0, 0.0)))
             # z-independent: carries the (z-uniform) side data of a semi-infinite part exactly
             self.lifting = PolynomialLifting.from_terms(a, L, terms)
@@ -226,7 +225,7 @@ class CylinderModel:
                 continue  # carried exactly by the two-dimensional lifting
             data = self._residual_data(face, cond)
             span = a if face != "side" else min(a, L)
-            scale = {"D": 1.0, "N": k / span, "R": cond.h}[cond.kind] * self.temperature_scale
+            scale = cond.homogeneous.datum_scale(k, span) * self.temperature_scale
             s = KnownSeries(face, data, (a, L), self.kinds, k, tol=tol, scale=scale,
                             n_cap=self.max_terms, max_harmonic=self.max_harmonic)
             if s.modes is not None:
@@ -244,7 +243,7 @@ class CylinderModel:
             u, v = (np.meshgrid(th, s) if face == "side" else np.meshgrid(s, th))
             size = float(np.abs(cond.data(u, v)).max())
             span = a if face != "side" else min(a, L)
-            ref = max(ref, size * {"D": 1.0, "N": span / self.k, "R": 1.0 / (cond.h or 1.0)}[cond.kind])
+            ref = max(ref, size / cond.homogeneous.datum_scale(self.k, span))
         return ref
 
     def _face_points(self, face, u, v):
@@ -256,21 +255,21 @@ class CylinderModel:
         z = 0.0 if face == "bottom" else cyl.height
         return u, v, np.full(u.shape, z)
 
-    def _normal_component(self, face, grad):
-        """dT/dn with the outward normal of the face, from a (3, ...) gradient."""
-        return {"bottom": -grad[2], "top": grad[2], "side": grad[0]}[face]
-
-    def _lifting_operator(self, face, cond, u, v):
-        """B_F[w] on a face: w ('D'), k dw/dn ('N'), k dw/dn + h w ('R')."""
+    def face_operator(self, field, face, condition, u, v):
+        """B_F[field] on a face at face coordinates (u, v), by the face's condition (its
+        boundary operator); field: anything with temperature(r, theta, z) and gradient(...)."""
         r, th, z = self._face_points(face, u, v)
         shape = r.shape
         r, th, z = r.ravel(), th.ravel(), z.ravel()
+        w = field.temperature(r, th, z)
+        dn = normal_component(face, field.gradient(r, th, z))
+        return condition.operator(w, dn, self.k).reshape(shape)
+
+    def _lifting_operator(self, face, cond, u, v):
+        """B_F[w] of the lifting w on a face."""
         if self.lifting.empty:
-            return np.zeros(shape)
-        w = self.lifting.temperature(r, th, z)
-        dn = self._normal_component(face, self.lifting.gradient(r, th, z))
-        out = {"D": w, "N": self.k * dn, "R": self.k * dn + cond.h * w}[cond.kind]
-        return out.reshape(shape)
+            return np.zeros(self._face_points(face, u, v)[0].shape)
+        return self.face_operator(self.lifting, face, cond, u, v)
 
     def _residual_data(self, face, cond):
         def data(u, v):
@@ -321,170 +320,9 @@ class CylinderModel:
         return total
 
     # --- the unknown face's basis -------------------------------------------------------------------
-    def basis(self, harmonics: int, terms: int) -> "UnknownBasis":
+    def basis(self, harmonics: int, terms: int) -> UnknownBasis:
         """Fields of the unknown face's eigenfunctions: m = 0..harmonics (cos and sin), `terms`
         radial (end face) or axial (side) functions for each."""
         if self.unknown_face is None:
             raise ForwardModelError("this case has no unknown face")
         return UnknownBasis(self, int(harmonics), int(terms))
-
-
-class UnknownBasis:
-    """Columns of the inverse problem: one field per eigenfunction of the unknown face.
-
-    Face quantity = known part + sum_k c_k Phi_k on the face, where Phi_k is the k-th
-    eigenfunction and the quantity is the temperature [K] (unknown-temperature) or the heat
-    flux into the part [W/m^2] (unknown-flux).
-    """
-
-    def __init__(self, model: CylinderModel, harmonics: int, terms: int):
-        self.model = model
-        self.face = model.unknown_face
-        cond = model.faces[self.face]
-        self.quantity = "temperature" if cond.kind == "D" else "heat_flux"
-        cyl, kinds, k = model.cylinder, model.kinds, model.k
-        a, L = cyl.radius, cyl.height
-        ms, sins, ev, nidx = [], [], [], []
-        for m in range(harmonics + 1):
-            if self.face == "side":
-                b, t = kinds["bottom"], kinds["top"]
-                e = axial_eigenvalues(b.kind, t.kind, terms, b.h * L / k, t.h * L / k)
-            else:
-                s = kinds["side"]
-                e = radial_eigenvalues(s.kind, m, terms, s.h * a / k)
-            for is_sin in ((False,) if m == 0 else (False, True)):
-                ms.append(np.full(terms, m)), sins.append(np.full(terms, is_sin))
-                ev.append(e), nidx.append(np.arange(terms))
-        m, is_sin, ev = np.concatenate(ms), np.concatenate(sins), np.concatenate(ev)
-        self.n_index = np.concatenate(nidx)
-        if self.face == "side":
-            self.modes = SideModes(a, L, k, kinds["side"], kinds["bottom"], kinds["top"], m, is_sin, ev)
-        else:
-            far = "top" if self.face == "bottom" else "bottom"
-            self.modes = EndFaceModes(self.face, a, L, k, kinds[self.face], kinds.get(far), m, is_sin, ev)
-        self.rim = self._rim_columns(harmonics)
-        n_rim = len(self.rim)
-        self.m = np.concatenate([m, [c[0] for c in self.rim]]).astype(int)
-        self.is_sin = np.concatenate([is_sin, [c[1] for c in self.rim]]).astype(bool)
-        self.eigenvalues = np.concatenate([ev, np.full(n_rim, np.nan)])
-        self.n_index = np.concatenate([self.n_index, np.full(n_rim, -1)])
-        self.n_eigen = ev.size
-
-    def _rim_columns(self, harmonics):
-        """Extra columns for an unknown-flux end beside a temperature side, whose
-        eigenfunctions all vanish at the rim: per harmonic, a field with inflow flux
-        (r/a)^m Theta_m on the face (a corner-lifting term with unit rim flux and the far
-        end's rim condition homogeneous) plus the side and far-end series that restore the
-        homogeneous conditions there.  Without them the rim flux would be forced to zero."""
-        model, cyl = self.model, self.model.cylinder
-        cond = model.faces[self.face]
-        if (self.face == "side" or cond.kind != "N" or model.kinds["side"].kind != "D"
-                or cyl.semi_infinite):
-            return []
-        a, L, k = cyl.radius, cyl.height, model.k
-        far = "top" if self.face == "bottom" else "bottom"
-        fk = model.kinds[far]
-        out = []
-        for m in range(harmonics + 1):
-            for is_sin in ((False,) if m == 0 else (False, True)):
-                c = float(curvature_coefficient(m, a, L))
-                rows = [end_rows(self.face, "N", 0.0, k, L, c), end_rows(far, fk.kind, fk.h, k, L, c)]
-                w = PolynomialLifting.from_terms(a, L, [(m, is_sin, solve_rim(rows, [1.0, 0.0]))])
-                fixes = []
-                for face in ("side", far):
-                    def data(u, v, face=face, w=w):
-                        r, th, z = model._face_points(face, u, v)
-                        shape = r.shape
-                        r, th, z = r.ravel(), th.ravel(), z.ravel()
-                        t = w.temperature(r, th, z)
-                        dn = model._normal_component(face, w.gradient(r, th, z))
-                        kind = model.kinds[face]
-                        b = {"D": t, "N": k * dn, "R": k * dn + kind.h * t}[kind.kind]
-                        return -b.reshape(shape)
-                    scale = {"D": L / k, "N": 1.0, "R": max(model.kinds[face].h, 1e-300) * L / k}[
-                        model.kinds[face].kind]
-                    series = KnownSeries(face, data, (a, L), model.kinds, k, tol=model.tolerance,
-                                         scale=scale, n_cap=model.max_terms,
-                                         max_harmonic=model.max_harmonic)
-                    if series.modes is not None:
-                        fixes.append(series)
-                out.append((m, is_sin, w, fixes))
-        return out
-
-    @property
-    def size(self):
-        return self.m.size
-
-    def fields(self, r, theta, z, gradient=False):
-        """Temperature per unit coefficient (P, K) [K] and optionally the gradient (3, P, K)."""
-        r, theta, z = self.model._check_points(r, theta, z)
-        r, theta, z = r.ravel(), theta.ravel(), z.ravel()
-        t, g = self.modes.fields(r, theta, z, gradient=gradient)
-        if not self.rim:
-            return t, g
-        tc, gc = [], []
-        for _, _, w, fixes in self.rim:
-            tw = w.temperature(r, theta, z)
-            gw = w.gradient(r, theta, z)
-            for s in fixes:
-                ts, gs, _ = s.evaluate(r, theta, z, gradient=gradient)
-                tw, gw = tw + ts, gw + gs
-            tc.append(tw), gc.append(gw)
-        t = np.concatenate([t, np.stack(tc, axis=1)], axis=1)
-        if gradient:
-            g = np.concatenate([g, np.stack(gc, axis=2)], axis=2)
-        return t, g
-
-    def face_values(self, u, v):
-        """Phi_k at face coordinates (r, theta) or (theta, z): (Q, K); a rim column's face
-        function is (r/a)^m Theta_m."""
-        u, v = np.broadcast_arrays(np.asarray(u, float).ravel(), np.asarray(v, float).ravel())
-        phi = self.modes.eigenfunctions(u, v)
-        if not self.rim:
-            return phi
-        rho = (u / self.model.cylinder.radius)[:, None]
-        m = np.array([c[0] for c in self.rim])
-        s = np.array([c[1] for c in self.rim])
-        arg = np.multiply.outer(v, m)
-        extra = rho ** m * np.where(s, np.sin(arg), np.cos(arg))
-        return np.concatenate([phi, extra], axis=1)
-
-    def known_face_values(self, u, v):
-        """The face quantity carried by the known field (the lifting) at face coordinates (Q,)."""
-        u, v = (np.asarray(x, float).ravel() for x in (u, v))
-        cond = self.model.faces[self.face]
-        return self.model._lifting_operator(self.face, cond, u, v)
-
-    def norms(self):
-        """integral of Phi_k^2 over the face [m^2] (rim columns: (2 pi or pi) a^2 / (2 m + 2))."""
-        n = self.modes.norms()
-        if not self.rim:
-            return n
-        m = self.m[self.n_eigen:]
-        a = self.model.cylinder.radius
-        return np.concatenate([n, np.where(m == 0, 2 * np.pi, np.pi) * a * a / (2.0 * m + 2.0)])
-
-    def surface_eigenvalues(self):
-        """-Laplacian_face Phi_k = ev_k Phi_k, ev_k [1/m^2] (rim columns, which are no
-        eigenfunctions, get (m / a)^2)."""
-        ev = self.modes.surface_eigenvalues()
-        if not self.rim:
-            return ev
-        return np.concatenate([ev, (self.m[self.n_eigen:] / self.model.cylinder.radius) ** 2])
-
-    def powers(self):
-        """Heat INTO the part through the unknown face [W] per unit coefficient, (K,)
-        (NaN without a conductivity)."""
-        if not self.model.has_conductivity:
-            return np.full(self.size, np.nan)
-        p = self.modes.powers()[self.face]
-        if not self.rim:
-            return p
-        m = self.m[self.n_eigen:]
-        s = self.is_sin[self.n_eigen:]
-        a = self.model.cylinder.radius
-        return np.concatenate([p, np.where((m == 0) & ~s, np.pi * a * a, 0.0)])
-
-    def known_power(self):
-        """Heat INTO the part through the unknown face [W] from the known field."""
-        return self.model.face_power(self.face)

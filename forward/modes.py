@@ -21,15 +21,10 @@ import numpy as np
 
 from .bessel import besselj, besselj_triplet, ive_orders
 from .errors import IllPosedError
+from .faces import EndCondition
 from .roots import pruefer_phase
 
-
-@dataclass(frozen=True)
-class EndCondition:
-    """Homogeneous kind of a face and its h [W/(m^2 K)] (only for 'R')."""
-
-    kind: str
-    h: float = 0.0
+__all__ = ["EndCondition", "EndFaceModes", "SideModes"]
 
 
 def _theta_parts(m, is_sin, theta):
@@ -66,12 +61,8 @@ class EndFaceModes:
         flat = kappa == 0
         if self.far is None:
             rho = np.zeros_like(kappa)
-        elif self.far.kind == "D":
-            rho = -np.ones_like(kappa)
-        elif self.far.kind == "N":
-            rho = np.ones_like(kappa)
         else:
-            rho = (k * kappa - self.far.h) / (k * kappa + self.far.h)
+            rho = self.far.reflection(np.where(flat, 1.0, kappa), k) + np.zeros_like(kappa)
         e = np.exp(-2.0 * kappa * L) if math.isfinite(L) else np.zeros_like(kappa)
         z0 = 1.0 + rho * e
         dz0 = -kappa * (1.0 - rho * e)
@@ -86,13 +77,7 @@ class EndFaceModes:
                 z0f, dz0f, self._flat_slope, self._flat_at_far = 1.0 + g * L, -g, -g, 1.0
             z0 = np.where(flat, z0f, z0)
             dz0 = np.where(flat, dz0f, dz0)
-        kind, h = self.near.kind, self.near.h
-        if kind == "D":
-            b = z0
-        elif kind == "N":
-            b = -k * dz0
-        else:
-            b = -k * dz0 + h * z0
+        b = self.near.operator(z0, -dz0, k)  # outward normal -zeta
         if np.any(b == 0):
             raise IllPosedError(
                 f"data on the {self.face} face cannot be carried: no face fixes the temperature level")
@@ -214,15 +199,9 @@ class SideModes:
         self.mu = np.asarray(self.mu, dtype=float)
         a, L, k = self.radius, self.height, self.conductivity
         self.beta = self.mu / L
-        self.phi = pruefer_phase(self.bottom.kind, self.mu, self.bottom.h * L / k)
+        self.phi = pruefer_phase(self.bottom.kind, self.mu, self.bottom.biot(k, L))
         dq = self._ratio_derivative_at_rim()
-        kind = self.near.kind
-        if kind == "D":
-            b = np.ones_like(self.mu)
-        elif kind == "N":
-            b = k * dq
-        else:
-            b = k * dq + self.near.h
+        b = self.near.operator(np.ones_like(self.mu), dq, k) + 0.0 * dq
         if np.any(b == 0):
             raise IllPosedError("data on the side cannot be carried: no face fixes the temperature level")
         self.norm_b = b

@@ -19,7 +19,7 @@ import numpy as np
 from scipy import special
 
 from .harmonics import harmonic_amplitudes, significant_harmonics, theta_nodes
-from .modes import EndCondition, EndFaceModes, SideModes
+from .modes import EndFaceModes, SideModes
 from .roots import axial_eigenvalues, radial_eigenvalues
 
 CHUNK = 2_000_000  # point x mode entries per evaluation block
@@ -53,8 +53,7 @@ class KnownSeries:
         self.scale = float(scale)
         kind = kinds[face]
         span = self.a if face != "side" else min(self.a, self.L)
-        self.temperature_scale = {"D": 1.0, "N": span / conductivity,
-                                  "R": 1.0 / kind.h if kind.h else 1.0}[kind.kind] * self.scale
+        self.temperature_scale = self.scale / kind.datum_scale(conductivity, span)
         self.n_cap = int(n_cap)
         self.max_harmonic = int(max_harmonic)
         self._harmonics()
@@ -95,9 +94,9 @@ class KnownSeries:
         kinds, a, L, k = self.kinds, self.a, self.L, self.k
         if self.face == "side":
             b, t = kinds["bottom"], kinds["top"]
-            return axial_eigenvalues(b.kind, t.kind, n, b.h * L / k, t.h * L / k)
+            return axial_eigenvalues(b.kind, t.kind, n, b.biot(k, L), t.biot(k, L))
         side = kinds["side"]
-        return radial_eigenvalues(side.kind, m, n, side.h * a / k)
+        return radial_eigenvalues(side.kind, m, n, side.biot(k, a))
 
     def _make_modes(self, m, is_sin, ev):
         kinds = self.kinds
@@ -199,9 +198,10 @@ class KnownSeries:
         rest = self._slow_face()
         if kind.kind == "D" or (0, False) not in self.parities or rest is None:
             return out
+        # k du/dn = d - (B[u] - k du/dn): the operator's non-derivative part (h u for 'R')
         own = self._data_integral
-        if kind.kind == "R":
-            own -= kind.h * float(self._face_temperature_integrals() @ self.coef)
+        if kind.kind != "N":
+            own -= kind.operator(float(self._face_temperature_integrals() @ self.coef), 0.0, self.k)
         out[self.face] = own
         out[rest] = -sum(v for f, v in out.items() if f != rest)
         return out

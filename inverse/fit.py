@@ -7,8 +7,8 @@ c ~ N(c0, (alpha P)^-1) with P_k = (N_k / A) (1 + a^2 ev_k)^s, N_k = integral Ph
 ev_k the face-Laplacian eigenvalue, s = 0 (size), 1 (gradient), 2 (curvature).
 c0 = gamma u, u = the fundamental eigenfunction (m = 0, first term: uniform where the
 face's edges are free, a smooth bump where a temperature neighbour pins the rim; a plain
-uniform profile would put a Gibbs step at such a rim) or, for an unknown flux beside a
-temperature side, the uniform rim column; gamma is its generalized-least-squares level.  Strength alpha: evidence (then the posterior is
+uniform profile would put a Gibbs step at such a rim) or, where the basis holds it
+exactly (`basis.uniform_column`), the uniform profile; gamma is its generalized-least-squares level.  Strength alpha: evidence (then the posterior is
 averaged over alpha, see strength_average), GCV, L-curve, discrepancy or fixed.
 """
 
@@ -81,12 +81,14 @@ class _Design:
 
 def _nominal_direction(basis):
     """Unit coefficients of the nominal profile's shape: the uniform profile where the basis
-    holds it exactly (the m = 0 rim column of an unknown-flux face beside a temperature
-    side), else the fundamental eigenfunction (m = 0 cos, first term)."""
+    holds it exactly (`basis.uniform_column`: the m = 0 rim column of an unknown-flux face
+    beside a temperature side, or the uniform wall column of an unknown side whose ends
+    allow it: forward/corner_columns.py), else the fundamental eigenfunction (m = 0 cos,
+    first term)."""
     u = np.zeros(basis.size)
     axisym = (basis.m == 0) & ~basis.is_sin
-    rim = np.flatnonzero(axisym & (basis.n_index == -1))
-    u[rim[0] if rim.size else np.flatnonzero(axisym & (basis.n_index == 0))[0]] = 1.0
+    j = basis.uniform_column
+    u[j if j is not None else np.flatnonzero(axisym & (basis.n_index == 0))[0]] = 1.0
     return u
 
 

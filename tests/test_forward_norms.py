@@ -132,9 +132,10 @@ def test_face_eigenvalues_by_finite_differences():
                                               "top": Insulated()})
     b = model.basis(3, 4)
     z0, hz = 0.41 * L, 1e-4 * L
-    g = lambda t, z: b.face_values(np.atleast_1d(t), np.atleast_1d(z))[0]  # noqa: E731
+    # the eigenfunction columns (the wall's corner columns that follow are no eigenfunctions)
+    g = lambda t, z: b.face_values(np.atleast_1d(t), np.atleast_1d(z))[0, :b.n_eigen]  # noqa: E731
     ht = hz / A
     lap = ((g(t0, z0 + hz) - 2 * g(t0, z0) + g(t0, z0 - hz)) / hz**2
            + (g(t0 + ht, z0) - 2 * g(t0, z0) + g(t0 - ht, z0)) / (A * ht) ** 2)
-    ev = b.surface_eigenvalues()
+    ev = b.surface_eigenvalues()[:b.n_eigen]
     np.testing.assert_allclose(-lap, ev * g(t0, z0), rtol=1e-5, atol=1e-5 * ev.max())

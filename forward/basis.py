@@ -1,0 +1,134 @@
+"""The unknown face's basis: one exact field per eigenfunction of the face (modes.py), then
+the corner columns that carry what the eigenfunctions cannot at the face's edges
+(corner_columns.py).  `CylinderModel.basis(harmonics, terms)` builds it."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .corner_columns import end_rim_columns, orthogonalize, wall_columns
+from .modes import EndFaceModes, SideModes
+from .roots import axial_eigenvalues, radial_eigenvalues
+
+
+class UnknownBasis:
+    """Columns of the inverse problem: one field per eigenfunction of the unknown face, then
+    its corner columns (n_index = -1; see corner_columns).
+
+    Face quantity = known part + sum_k c_k Phi_k on the face, where Phi_k is the k-th column's
+    face function and the quantity is the temperature [K] (unknown-temperature) or the heat
+    flux into the part [W/m^2] (unknown-flux).
+    """
+
+    def __init__(self, model, harmonics: int, terms: int):
+        self.model = model
+        self.face = model.unknown_face
+        cond = model.faces[self.face]
+        self.quantity = "temperature" if cond.kind == "D" else "heat_flux"
+        cyl, kinds, k = model.cylinder, model.kinds, model.k
+        a, L = cyl.radius, cyl.height
+        ms, sins, ev, nidx = [], [], [], []
+        for m in range(harmonics + 1):
+            if self.face == "side":
+                b, t = kinds["bottom"], kinds["top"]
+                e = axial_eigenvalues(b.kind, t.kind, terms, b.biot(k, L), t.biot(k, L))
+            else:
+                s = kinds["side"]
+                e = radial_eigenvalues(s.kind, m, terms, s.biot(k, a))
+            for is_sin in ((False,) if m == 0 else (False, True)):
+                ms.append(np.full(terms, m)), sins.append(np.full(terms, is_sin))
+                ev.append(e), nidx.append(np.arange(terms))
+        m, is_sin, ev = np.concatenate(ms), np.concatenate(sins), np.concatenate(ev)
+        self.n_index = np.concatenate(nidx)
+        if self.face == "side":
+            self.modes = SideModes(a, L, k, kinds["side"], kinds["bottom"], kinds["top"], m, is_sin, ev)
+        else:
+            far = "top" if self.face == "bottom" else "bottom"
+            self.modes = EndFaceModes(self.face, a, L, k, kinds[self.face], kinds.get(far), m, is_sin, ev)
+        if self.face == "side":
+            self.rim = wall_columns(model, harmonics)
+            # wall columns minus their projection on the eigenfunctions (corner_columns)
+            self.mix = orthogonalize(self.rim, self.modes, ev.size)
+        else:
+            self.rim = end_rim_columns(model, self.face, harmonics)
+            self.mix = np.zeros((ev.size, len(self.rim)))
+        n_rim = len(self.rim)
+        self.m = np.concatenate([m, [c.m for c in self.rim]]).astype(int)
+        self.is_sin = np.concatenate([is_sin, [c.is_sin for c in self.rim]]).astype(bool)
+        self.eigenvalues = np.concatenate([ev, np.full(n_rim, np.nan)])
+        self.n_index = np.concatenate([self.n_index, np.full(n_rim, -1)])
+        self.n_eigen = ev.size
+
+    @property
+    def uniform_column(self):
+        """Index of the column whose face function is uniform, or None: the m = 0 rim-flux
+        column of an unknown-flux end beside a temperature side, or the uniform wall column
+        (see corner_columns)."""
+        if not self.rim:
+            return None
+        if self.face == "side":
+            hit = [i for i, c in enumerate(self.rim) if c.uniform]
+            return int(self.n_eigen + hit[0]) if hit else None
+        return int(self.n_eigen + next(i for i, c in enumerate(self.rim) if c.m == 0))
+
+    @property
+    def size(self):
+        return self.m.size
+
+    def fields(self, r, theta, z, gradient=False):
+        """Temperature per unit coefficient (P, K) [K] and optionally the gradient (3, P, K)."""
+        r, theta, z = self.model._check_points(r, theta, z)
+        r, theta, z = r.ravel(), theta.ravel(), z.ravel()
+        t, g = self.modes.fields(r, theta, z, gradient=gradient)
+        if not self.rim:
+            return t, g
+        tc, gc = [], []
+        for col in self.rim:
+            tw, gw = col.fields(r, theta, z, gradient=gradient)
+            tc.append(tw), gc.append(gw)
+        t = np.concatenate([t, np.stack(tc, axis=1) - t @ self.mix], axis=1)
+        if gradient:
+            g = np.concatenate([g, np.stack(gc, axis=2) - g @ self.mix], axis=2)
+        return t, g
+
+    def face_values(self, u, v):
+        """Phi_k at face coordinates (r, theta) or (theta, z): (Q, K); a corner column's face
+        function is its polynomial profile times Theta_m, less its eigenfunction part on the
+        side (see corner_columns)."""
+        u, v = np.broadcast_arrays(np.asarray(u, float).ravel(), np.asarray(v, float).ravel())
+        phi = self.modes.eigenfunctions(u, v)
+        if not self.rim:
+            return phi
+        cyl = self.model.cylinder
+        s, th = (v / cyl.height, u) if self.face == "side" else (u / cyl.radius, v)
+        extra = np.stack([c.face_values(s, th) for c in self.rim], axis=1) - phi @ self.mix
+        return np.concatenate([phi, extra], axis=1)
+
+    def known_face_values(self, u, v):
+        """The face quantity carried by the known field (the lifting) at face coordinates (Q,)."""
+        u, v = (np.asarray(x, float).ravel() for x in (u, v))
+        cond = self.model.faces[self.face]
+        return self.model._lifting_operator(self.face, cond, u, v)
+
+    def norms(self):
+        """integral of Phi_k^2 over the face [m^2] (corner columns: their exact norms)."""
+        n = self.modes.norms()
+        return np.concatenate([n, [c.norm for c in self.rim]]) if self.rim else n
+
+    def surface_eigenvalues(self):
+        """-Laplacian_face Phi_k = ev_k Phi_k, ev_k [1/m^2] (corner columns, which are no
+        eigenfunctions, get a stand-in: see corner_columns)."""
+        ev = self.modes.surface_eigenvalues()
+        return np.concatenate([ev, [c.surface_eigenvalue for c in self.rim]]) if self.rim else ev
+
+    def powers(self):
+        """Heat INTO the part through the unknown face [W] per unit coefficient, (K,)
+        (NaN without a conductivity)."""
+        if not self.model.has_conductivity:
+            return np.full(self.size, np.nan)
+        p = self.modes.powers()[self.face]
+        return np.concatenate([p, np.array([c.power for c in self.rim]) - p @ self.mix]) if self.rim else p
+
+    def known_power(self):
+        """Heat INTO the part through the unknown face [W] from the known field."""
+        return self.model.face_power(self.face)
