@@ -115,6 +115,9 @@ def _zones_on_face(result, zones):
 def _draw_zones(ax, result, zones):
     """Zone edges (light dashed lines, gid 'zone:<name>') and names on a face map."""
     cyl = result.cylinder
+    marks = [ln for ln in ax.get_lines() if str(ln.get_gid()).startswith("sensors:")]
+    sensors = [np.concatenate([np.asarray(ln.get_data()[k], float) for ln in marks]) if marks else np.zeros(0)
+               for k in (0, 1)]
     for z in _zones_on_face(result, zones):
         if result.face == "side":
             x, y = side_outline(z, cyl.height)
@@ -123,7 +126,7 @@ def _draw_zones(ax, result, zones):
         ax.plot(x, y, color=ZONE_COLOUR, linewidth=1.3, linestyle=(0, (5, 2)), gid=f"zone:{z.name}",
                 zorder=4)
         ax.plot(x, y, color="#222222", linewidth=0.5, linestyle=(0, (5, 2)), zorder=4, alpha=0.7)
-        lx, ly = label_point(z, result.face, cyl.radius, cyl.height)
+        lx, ly = label_point(z, result.face, cyl.radius, cyl.height, avoid=sensors)
         ax.annotate(str(z.name), (lx, ly), ha="center", va="center", fontsize=7, color="#111111", zorder=6,
                     **LITERAL, bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="#888888", lw=0.5, alpha=0.8))
 
@@ -161,7 +164,9 @@ def _map(result, values, cmap, colourbar_label, title, vmin, vmax, zones=()):
         ax.set_ylabel("r [mm]", labelpad=34)
         ax.grid(True, color="white", alpha=0.35, linewidth=0.6)
         ax.set_title(title, fontsize=10, pad=16)
-    fig.colorbar(mesh, ax=ax, label=colourbar_label, shrink=0.85, pad=0.08)
+    bar = fig.colorbar(mesh, ax=ax, label=colourbar_label, shrink=0.85, pad=0.08)
+    bar.formatter.set_useOffset(False)   # plain values, never "+1.2e1" above the scale
+    bar.update_ticks()
     handles = [h for h in ax.get_lines() if str(h.get_gid()).startswith("sensors:")]
     if handles:
         fig.legend(handles=handles, loc="outside lower center", ncols=len(handles), fontsize=7,

@@ -351,7 +351,10 @@ def render_report(result, *, case_text=None, title=None, figures=None, extra_sec
     sub = (f'<p class="sub">{_e(d.on_face.capitalize())}, reconstructed from '
            f"{_e(result.summary.get('n_sensors_used', len(result.sensors)))} thermocouple readings; "
            "± is the 95 % interval.</p>")
-    verdict_section = (f'<section class="verdict" id="verdict">{lead or ""}{verdict_html(result, fmt)}</section>')
+    fit_verdict = verdict_html(result, fmt)
+    if lead:  # e.g. a trend: its flags first, then the fit of its reference window
+        fit_verdict = fit_verdict.replace("<p>", "<p><strong>Reference window:</strong> ", 1)
+    verdict_section = f'<section class="verdict" id="verdict">{lead or ""}{fit_verdict}</section>'
     return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
             "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
             f"<title>{_e(title)}</title>\n<style>{CSS}</style>\n</head>\n<body>\n<main>\n"

@@ -23,22 +23,26 @@ from .units import from_si
 UNRESOLVED_WORDS = ("cannot resolve", "unresolved", "not resolved", "cannot tell")
 
 
-def _zone_phrase(z, fmt: _Fmt, mean_si) -> str:
-    """'outer 60-180: 9.67 ± 0.15 kW/m² (95 %), 16 % below the face mean'."""
+def _inside(z, mean_si) -> bool:
+    """The face mean lies inside the zone's 95 % interval."""
+    lo, hi = z.get("lower"), z.get("upper")
+    return _finite(lo) and _finite(hi) and _finite(mean_si) and float(lo) <= float(mean_si) <= float(hi)
+
+
+def _zone_phrase(z, fmt: _Fmt, mean_si, distance: bool = True) -> str:
+    """'outer 60-180, at 9.67 ± 0.15 kW/m² (95 %), 16 % below the face mean'."""
     temp = fmt.d.quantity == "temperature"
     dev = z.get("deviation_from_face_mean")
     if not _finite(dev) and _finite(z.get("mean")) and _finite(mean_si):
         dev = float(z["mean"]) - float(mean_si)
     text = f"{z.get('name', '')}, at {fmt.pm(z.get('mean'), z.get('sd'))}"
-    if _finite(dev):
+    if distance and _finite(dev):
         side = "below" if dev < 0 else "above"
         if temp or not _finite(mean_si) or float(mean_si) == 0:
             size = fmt.eng_diff(abs(dev))
         else:
             size = percent(abs(dev) / abs(float(mean_si)))
-        lo, hi = z.get("lower"), z.get("upper")
-        inside = _finite(lo) and _finite(hi) and float(lo) <= float(mean_si) <= float(hi)
-        text += f", {size} {side} the face mean" + (" (not distinguishable from it at 95 %)" if inside else "")
+        text += f", {size} {side} the face mean"
     frac, frac_sd = z.get("delivered_fraction"), z.get("delivered_fraction_sd")
     if _finite(frac):
         text += f"; it delivers {percent(frac, 3)}"
@@ -58,8 +62,14 @@ def zone_sentences(summary, fmt: _Fmt) -> list[str]:
     weak, strong = ("coldest", "hottest") if fmt.d.quantity == "temperature" else ("weakest", "strongest")
     if low is high:
         return [f"The one zone is {_zone_phrase(low, fmt, mean)}."]
-    return [f"The {weak} zone is {_zone_phrase(low, fmt, mean)}.",
-            f"The {strong} zone is {_zone_phrase(high, fmt, mean)}."]
+    if all(_inside(z, mean) for z in zones):
+        return [f"No zone differs from the face mean beyond its 95 % interval (the {weak} is "
+                f"{_zone_phrase(low, fmt, mean, False)}; the {strong} is {_zone_phrase(high, fmt, mean, False)})."]
+    out = []
+    for z, word in ((low, weak), (high, strong)):
+        note = " (within its 95 % interval of the face mean)" if _inside(z, mean) else ""
+        out.append(f"The {word} zone is {_zone_phrase(z, fmt, mean, not note)}{note}.")
+    return out
 
 
 def extreme_sentence(result, fmt: _Fmt) -> str:

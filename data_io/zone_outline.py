@@ -58,12 +58,35 @@ def side_outline(zone, height):
     return x, z
 
 
-def label_point(zone, face, radius, height):
-    """Where a zone's name is written: its middle (angle, then r or z) in map coordinates."""
-    t0, t1 = zone.theta
-    mid = 0.5 * (t0 + t1) if (t1 - t0) < 2 * math.pi - 1e-9 else 0.25 * math.pi
+def _cartesian(face, x, y, radius_mm):
+    """Map coordinates -> positions on the face [mm] for distances (side: unrolled arc)."""
+    x, y = np.asarray(x, float), np.asarray(y, float)
     if face == "side":
-        z0, z1 = zone.z if zone.z is not None else (0.0, height)
-        return float(deg(mid % (2 * math.pi))), float(mm(0.5 * (z0 + z1)))
-    r0, r1 = zone.r if zone.r is not None else (0.0, radius)
-    return float(mid % (2 * math.pi)), float(mm(0.5 * (r0 + r1)))
+        return np.deg2rad(x) * radius_mm, y
+    return y * np.cos(x), y * np.sin(x)
+
+
+def label_point(zone, face, radius, height, avoid=None):
+    """Where a zone's name is written, in map coordinates: of a few points inside the zone
+    (fractions 0.3, 0.5, 0.7 of its angle span and of its r or z range), the one farthest
+    from the points `avoid` ((x, y) in map coordinates, e.g. the sensors), the middle first."""
+    t0, t1 = zone.theta
+    full = (t1 - t0) >= 2 * math.pi - 1e-9
+    if face == "side":
+        s0, s1 = zone.z if zone.z is not None else (0.0, height)
+    else:
+        s0, s1 = zone.r if zone.r is not None else (0.0, radius)
+    fractions = (0.5, 0.3, 0.7)
+    cands = []
+    for fs in fractions:
+        for ft in ((0.125, 0.375, 0.625, 0.875) if full else fractions):
+            th = (t0 + ft * (t1 - t0)) % (2 * math.pi)
+            s = s0 + fs * (s1 - s0)
+            cands.append((float(deg(th)), float(mm(s))) if face == "side" else (th, float(mm(s))))
+    if avoid is None or len(avoid[0]) == 0:
+        return cands[0]
+    radius_mm = float(mm(radius))
+    cx, cy = _cartesian(face, [c[0] for c in cands], [c[1] for c in cands], radius_mm)
+    ax_, ay_ = _cartesian(face, avoid[0], avoid[1], radius_mm)
+    gap = np.min(np.hypot(cx[:, None] - ax_[None, :], cy[:, None] - ay_[None, :]), axis=1)
+    return cands[int(np.argmax(gap))]
