@@ -188,7 +188,7 @@ def _zones_table(zones, fmt: _Fmt) -> str:
     head = ["zone", "area [cm²]", f"mean [{d.symbol}]", f"± (95 %) [{d.diff_symbol}]",
             f"95 % interval [{d.symbol}]", f"difference from face mean [{d.diff_symbol}]"]
     if flux:
-        head.append("heat in [W]")
+        head.append("heat in ± (95 %) [W]")
     if any(_finite(z.get("delivered_fraction")) for z in zones):
         head.append("share of nominal power")
     rows = []

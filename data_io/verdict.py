@@ -137,7 +137,7 @@ def unresolved_sentences(result, fmt: _Fmt) -> list[str]:
     i = int(np.nanargmax(half))
     at = {"r_m": float(g["r_m"].iloc[i]), "theta_rad": float(g["theta_rad"].iloc[i]), "z_m": float(g["z_m"].iloc[i])}
     return [f"What these readings tell least: the estimate {_position(result.face, at)}, where the 95 % "
-            f"interval is widest (± {sig(fmt.d.diff(half[i]), 2)} {fmt.d.diff_symbol}); more sensors near "
+            f"interval is widest: ± {sig(fmt.d.diff(half[i]), 2)} {fmt.d.diff_symbol} (95 %); more sensors near "
             "there would narrow it (see the band-width map)."]
 
 
