@@ -264,7 +264,8 @@ def profiles(result, *, angles_deg=None, n_points=161) -> Figure:
     else:  # no model at hand (e.g. a result read back from files): the grid's nearest angles
         est, lo, hi, s = _grid_lines(result, angles)
     x = _mm(s)
-    roles = {0: "strongest", 1: "weakest"} if auto else {}
+    hot, cold = ("hottest", "coldest") if result.quantity == "temperature" else ("strongest", "weakest")
+    roles = {0: hot, 1: cold} if auto else {}
     for i, ang in enumerate(angles):
         colour = LINE_COLOURS[i % len(LINE_COLOURS)]
         lead = i in roles or not auto

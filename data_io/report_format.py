@@ -137,12 +137,21 @@ class _Fmt:
             value, unit = (eng(self.d.value(si)) if _finite(si) else "–"), self.d.symbol
         sd = float(self.d.diff(sd_si)) if _finite(sd_si) else math.nan
         if self.d.quantity == "temperature" and _finite(sd):
-            return f"{value} °C ± {sig(half95(sd), SPREAD_DIGITS)} K (95 %)"
+            half = half95(sd)
+            return f"{_celsius_number(si, _decimals_for(half))} °C ± {sig(half, SPREAD_DIGITS)} K (95 %)"
         return pm95(value, sd, unit)
 
 
-def _celsius_number(t_k) -> str:
-    return f"{from_si(t_k, 'temperature', 'degC'):.2f}" if _finite(t_k) else "–"
+def _decimals_for(half) -> int:
+    """Decimals of an absolute temperature next to a ± half [K]: those of the half-width's
+    2 significant digits, 0 to 2 (141.5 °C ± 1.8 K; 141 °C ± 18 K)."""
+    if not _finite(half) or float(half) <= 0:
+        return 2
+    return min(max(SPREAD_DIGITS - 1 - int(math.floor(math.log10(float(half)))), 0), 2)
+
+
+def _celsius_number(t_k, decimals: int = 2) -> str:
+    return f"{from_si(t_k, 'temperature', 'degC'):.{decimals}f}" if _finite(t_k) else "–"
 
 
 def _celsius(t_k) -> str:

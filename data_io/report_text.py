@@ -10,7 +10,7 @@ FIGURE_CAPTIONS = {
                 "smaller than the uncertainty do not show as a pattern.",
     "band_width": "Width of the 95 % band of the estimate. Narrow near the sensors, wide where no "
                   "sensor looks.",
-    "profiles": "The estimate along lines of the face: the strongest and the weakest line (bold), "
+    "profiles": "The estimate along lines of the face: the strongest (hottest) and the weakest (coldest) line (bold), "
                 "two more for context; shading between dashed edges is the 95 % band.",
     "sensors": "Per sensor: reading minus its prediction from the other sensors (whiskers ±2 sd, "
                "about 95 %) and the residual of the fit; below, the score against the set-aside limit.",

@@ -55,8 +55,13 @@ class _Units:
         return pm95(eng(x * self.scale), sd * self.scale if _finite(sd) else None, self.diff_unit)
 
 
+def _seconds(t) -> str:
+    """A time on the log's axis: hours from 2 h on (as on the trend figure), else seconds."""
+    return f"{eng(t / 3600.0)} h" if abs(t) >= 7200.0 else f"{eng(t)} s"
+
+
 def _when(f) -> str:
-    return f.get("first_flagged_start_iso") or f"t = {eng(f['first_flagged_start_s'])} s"
+    return f.get("first_flagged_start_iso") or f"t = {_seconds(f['first_flagged_start_s'])}"
 
 
 def _rows(n) -> str:
@@ -85,9 +90,13 @@ def flag_sentences(summary: dict, report: bool = True) -> list[str]:
     return out
 
 
+def _flag_list(summary: dict) -> str:
+    return "<ul>" + "".join(f"<li>{escape(t, quote=False)}</li>" for t in flag_sentences(summary)) + "</ul>"
+
+
 def trend_lead(summary: dict) -> str:
     """The flags as safe HTML, to open the trend report."""
-    return "<p><strong>Trend:</strong> " + escape(" ".join(flag_sentences(summary)), quote=False) + "</p>"
+    return "<p><strong>Trend over the log:</strong></p>" + _flag_list(summary)
 
 
 def trend_html(summary: dict, figure_png: bytes, reader_timestamps: bool) -> str:
@@ -97,13 +106,13 @@ def trend_html(summary: dict, figure_png: bytes, reader_timestamps: bool) -> str
     e = lambda s: escape(str(s), quote=True)  # noqa: E731
     ref = summary["reference_window"]
     when = (f"{ref['start_iso']} to {ref['end_iso']}" if "start_iso" in ref
-            else f"t = {eng(ref['start_s'])} to {eng(ref['end_s'])} s")
+            else f"t = {_seconds(ref['start_s'])} to {_seconds(ref['end_s'])}")
     if summary["mode"] == "every":
         what = f"{_every_words(summary['every'])} of the log ({summary['trend_rows']} rows)"
     else:
         what = (f"every steady window: {summary['windows']['steady']} of {summary['windows']['total']} windows of "
                 f"{summary['window_s']:g} s had every sensor within {summary['drift_K']:g} K")
-    parts = [f"<p><strong>{e(' '.join(flag_sentences(summary)))}</strong></p>"]
+    parts = [_flag_list(summary)]
     rows = []
     first, last = summary.get("first_row"), summary.get("last_row")
 

@@ -83,6 +83,9 @@ def label_point(zone, face, radius, height, avoid=None):
             th = (t0 + ft * (t1 - t0)) % (2 * math.pi)
             s = s0 + fs * (s1 - s0)
             cands.append((float(deg(th)), float(mm(s))) if face == "side" else (th, float(mm(s))))
+    if face == "side":   # a name on the 0/360 deg seam would be cut in half
+        inner = [c for c in cands if 15.0 <= c[0] <= 345.0]
+        cands = inner or cands
     if avoid is None or len(avoid[0]) == 0:
         return cands[0]
     radius_mm = float(mm(radius))

@@ -144,7 +144,7 @@ def test_trend_values_in_kilowatts_with_95_interval():
                "last_row": {"changes": {"outer": [-4980.0, 150.0], "inner": [-40.0, 120.0]}}}
     said = trend_text.flag_sentences(summary)
     half = norm.ppf(0.975) * 150.0 / 1e3                            # scipy: 97.5 % normal quantile
-    assert said[0].startswith("Zone outer changed beyond its flag limit from t = 7200 s (3 rows flagged)")
+    assert said[0].startswith("Zone outer changed beyond its flag limit from t = 2.00 h (3 rows flagged)")
     assert f"-4.98 ± {report.sig(half, 2)} kW/m² (95 %)" in said[0]
     assert "e+03" not in said[0] and "+-" not in said[0]
     console = trend_text.flag_sentences(summary, report=False)[0]
@@ -224,3 +224,24 @@ def test_profiles_include_the_weakest_and_strongest_lines(demo, truth):
 
 def test_pm95_writes_the_level():
     assert pm95("818", 0.7962, "W") == f"818 ± {report.sig(norm.ppf(0.975) * 0.7962, 2)} W (95 %)"  # scipy quantile
+
+
+@pytest.mark.parametrize("half, decimals", [(1.8, 1), (18.0, 0), (0.7, 2), (0.05, 2), (180.0, 0)])
+def test_temperature_rounded_to_its_interval(half, decimals):
+    # a value is written to the last digit of its 2-significant-digit ± (common practice, no source)
+    from heatsight.data_io.report_format import _decimals_for
+    assert _decimals_for(half) == decimals
+
+
+def test_side_zone_across_the_seam_is_drawn_in_two_pieces():
+    from heatsight.data_io.case import Zone
+    from heatsight.data_io.zone_outline import label_point, side_outline
+    front = Zone("front", "side", (-math.pi / 3, math.pi / 3), z=(0.07, 0.14))
+    x, z = side_outline(front, 0.2)
+    ok = np.isfinite(x)
+    assert (~ok).sum() >= 1 and x[ok].min() >= 0.0 and x[ok].max() <= 360.0
+    assert set(np.round(z[ok], 6)) == {70.0, 140.0}                                # its edges in mm
+    assert not ((x[ok] > 60.0 + 1e-9) & (x[ok] < 300.0 - 1e-9)).any()              # nothing drawn outside it
+    lx, lz = label_point(front, "side", 0.05, 0.2)
+    assert 15.0 <= lx <= 60.0 or 300.0 <= lx <= 345.0                              # its name off the seam
+    assert 70.0 <= lz <= 140.0
