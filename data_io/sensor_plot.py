@@ -55,7 +55,7 @@ def sensor_health(result) -> Figure:
         c = FLAG_COLOUR[flag]
         ax1.errorbar(x[sel], loo_err[sel], yerr=2 * loo_sd[sel], fmt="o", color=c, ecolor=c,
                      elinewidth=1.2, capsize=3, markersize=5, gid=f"loo:{flag}",
-                     label=f"leave-one-out error ±2 sd ({flag})")
+                     label=f"reading − prediction from the others, ±2 sd ({flag})")
         ax2.bar(x[sel], score[sel], color=c, edgecolor="#222222", linewidth=0.5,
                 hatch="//" if flag == "set aside" else None, gid=f"score:{flag}", label=flag)
     ax1.plot(x, resid, linestyle="none", marker="_", markersize=12, markeredgewidth=2,
@@ -71,7 +71,7 @@ def sensor_health(result) -> Figure:
         ax2.axhline(sign * t, color="#d03c50", linestyle="--", linewidth=1.0,
                     label=f"set-aside threshold ±{t:.2f}" if sign > 0 else None, gid="threshold")
     ax2.axhline(0.0, color="#888888", linewidth=0.8)
-    ax2.set_ylabel("score [sd]" if score_col == "score" else "standardized LOO error [sd]")
+    ax2.set_ylabel("score [sd]" if score_col == "score" else "reading − prediction from the others [sd]")
     ax2.set_xlabel("sensor")
     ax2.grid(True, axis="y", alpha=0.3)
     ax2.legend(fontsize=7, frameon=False, ncols=4)

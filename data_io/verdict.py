@@ -74,8 +74,8 @@ def zone_sentences(summary, fmt: _Fmt) -> list[str]:
 
 def extreme_sentence(result, fmt: _Fmt) -> str:
     s = result.summary
-    return (f"Lowest {fmt.pm(s.get('min'), s.get('min_sd'))} {_position(result.face, s.get('min_at'))}; "
-            f"highest {fmt.pm(s.get('max'), s.get('max_sd'))} {_position(result.face, s.get('max_at'))}.")
+    return (f"The lowest value is {fmt.pm(s.get('min'), s.get('min_sd'))} {_position(result.face, s.get('min_at'))}; "
+            f"the highest is {fmt.pm(s.get('max'), s.get('max_sd'))} {_position(result.face, s.get('max_at'))}.")
 
 
 def level_sentence(result, fmt: _Fmt) -> str:

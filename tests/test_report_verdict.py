@@ -245,3 +245,31 @@ def test_side_zone_across_the_seam_is_drawn_in_two_pieces():
     lx, lz = label_point(front, "side", 0.05, 0.2)
     assert 15.0 <= lx <= 60.0 or 300.0 <= lx <= 345.0                              # its name off the seam
     assert 70.0 <= lz <= 140.0
+
+
+def test_keys_of_newer_fits_are_shown_when_present(demo):
+    import copy
+    import dataclasses
+    s = copy.deepcopy(demo.raw.summary)
+    weak = next(z for z in s["zones"] if z["name"] == "outer 60-180")
+    weak.update(nominal_W=150.0, delivered_fraction=weak["power_W"] / 150.0, delivered_fraction_sd=0.01)
+    s.update(model="zones", model_weights={"smooth": 0.1, "zones": 0.9},
+             unresolved="these readings cannot resolve zone inner",
+             prior={"length_scale_m": 0.04, "length_scale_90_m": [0.02, 0.08], "hyperprior_dominated": True})
+    res = dataclasses.replace(demo.raw, summary=s)
+    text = " ".join(verdict.verdict(res))
+    frac = 100 * weak["power_W"] / 150.0
+    assert f"delivers {report.sig(frac, 3)} %" in text and "of its nominal power" in text
+    assert "heater zones (probability 0.90)" in text
+    assert "What these readings cannot tell: These readings cannot resolve zone inner" in text
+    html = report.render_report(res, figures={})
+    assert "share of nominal power" in html and "length scale 40 mm (90 % range 20 to 80 mm)" in html
+
+
+def test_extremes_stand_in_for_zones(demo):
+    import copy
+    import dataclasses
+    s = copy.deepcopy(demo.raw.summary)
+    s["zones"] = []
+    first = verdict.verdict(dataclasses.replace(demo.raw, summary=s))[0]
+    assert first.startswith("The lowest value is ") and "(95 %) at r = 150.0 mm, θ = 145°" in first
