@@ -70,6 +70,8 @@ def _demo_folder() -> Path:
 def _run_demo(args) -> int:
     import json
 
+    from .report_format import power_pm
+
     demo_folder = _demo_folder()
     case = demo_folder / "platen.toml"
     if not case.is_file():
@@ -85,9 +87,9 @@ def _run_demo(args) -> int:
         weakest = min(s["zones"], key=lambda z: z["mean"]) if s["zones"] else None
         if weakest is not None:
             print(f"fit found: weakest zone {weakest['name']} "
-                  f"({weakest['deviation_from_face_mean']:+.3g} W/m^2 from the face mean); "
-                  f"total power {s['total_power_W']:.4g} +- {s['total_power_sd_W']:.2g} W "
-                  f"(truth {truth['total_power_W']:.4g} W); set aside: {', '.join(s['set_aside']) or 'none'}")
+                  f"({weakest['deviation_from_face_mean']:+.0f} W/m^2 from the face mean); "
+                  f"total power {power_pm(s['total_power_W'], s['total_power_sd_W'])} "
+                  f"(truth {truth['total_power_W']:.0f} W); set aside: {', '.join(s['set_aside']) or 'none'}")
     print(f"report: {os.path.abspath(folder / 'report.html')}")
     return 0
 

@@ -7,6 +7,7 @@ import numpy as np
 import pandas as pd
 
 from .display import FILE_UNITS, deg, file_display
+from .report_format import eng, pm95, percent
 
 #: sensor readings and predictions are temperatures whatever the face quantity
 _TEMPERATURE = file_display("temperature")
@@ -120,33 +121,42 @@ def points_frame(result, points) -> pd.DataFrame:
                          "qr_W_m2": q[0], "qtheta_W_m2": q[1], "qz_W_m2": q[2]})
 
 
-def _fmt(x, digits=4):
-    return f"{x:.{digits}g}"
+def _pm(value, sd, unit) -> str:
+    """'11568 ± 22 W/m^2 (95 %)': value with 3 significant digits (data_io.report_format), the
+    half-width Z95 x sd with 2."""
+    return pm95(eng(value), sd, unit)
+
+
+def _at(where) -> str:
+    return (f"at r = {eng(where['r_m'] * 1e3)} mm, theta = {where['theta_deg']:.0f} deg, "
+            f"z = {eng(where['z_m'] * 1e3)} mm")
 
 
 def summary_lines(result) -> list[str]:
-    """The short plain-text summary of a fit (console and ``Fit.summary()``), as lines."""
+    """The short plain-text summary of a fit (console and ``Fit.summary()``), as lines.
+    "±" is the half-width of the 95 % interval and says "(95 %)"; the sd stays in
+    summary.json under its own name."""
     s = summary_dict(result)
     u = s["unit"]
     du = FILE_UNITS[s["quantity"]][1]
     lines = [f"{s['face']} face {s['quantity'].replace('_', ' ')} ({u}):",
-             f"  mean            {_fmt(s['mean'])} +- {_fmt(s['mean_sd'], 2)} {du}",
-             f"  min             {_fmt(s['min'])} at r = {s['min_at']['r_m'] * 1e3:.3g} mm, "
-             f"theta = {s['min_at']['theta_deg']:.0f} deg, z = {s['min_at']['z_m'] * 1e3:.3g} mm",
-             f"  max             {_fmt(s['max'])} at r = {s['max_at']['r_m'] * 1e3:.3g} mm, "
-             f"theta = {s['max_at']['theta_deg']:.0f} deg, z = {s['max_at']['z_m'] * 1e3:.3g} mm",
-             f"  non-uniformity  {_fmt(s['nonuniformity'])} +- {_fmt(s['nonuniformity_sd'], 2)} {du} (max - min)",
-             f"  total power in  {_fmt(s['total_power_W'])} +- {_fmt(s['total_power_sd_W'], 2)} W"]
+             f"  mean            {_pm(s['mean'], s['mean_sd'], u)}",
+             f"  min             {_pm(s['min'], s['min_sd'], u)} {_at(s['min_at'])}",
+             f"  max             {_pm(s['max'], s['max_sd'], u)} {_at(s['max_at'])}",
+             f"  max - min       {_pm(s['nonuniformity'], s['nonuniformity_sd'], du)}",
+             f"  total power in  {_pm(s['total_power_W'], s['total_power_sd_W'], 'W')}"]
+    width = max([10] + [len(str(z["name"])) for z in s["zones"]])
     for z in s["zones"]:
-        lines.append(f"  zone {z['name']:<10} {_fmt(z['mean'])} +- {_fmt(z['sd'], 2)} {du}"
-                     f" ({z['deviation_from_face_mean']:+.3g} {du} from the face mean)")
+        dev = z["deviation_from_face_mean"]
+        rel = f" ({'+' if dev >= 0 else ''}{percent(dev / s['mean'])})" \
+            if s["quantity"] == "heat_flux" and s["mean"] else ""
+        lines.append(f"  zone {z['name']:<{width}} {_pm(z['mean'], z['sd'], u)}, "
+                     f"{'+' if dev >= 0 else '-'}{eng(abs(dev))} {du}{rel} from the face mean")
     if "calibrated" in s:
         for key, c in s["calibrated"].items():
-            lines.append(f"  calibrated {c['face']}.{c['parameter']} = {_fmt(c['value'])} +- "
-                         f"{_fmt(c['sd'], 2)} {c['unit']}")
-    lines.append(f"  smoothing strength {s['strength']:.3g} ({s['strength_method']}), "
-                 f"chi2 {s['chi2']:.3g}, {s['effective_parameters']:.1f} effective parameters, "
-                 f"{s['n_sensors_used']} sensors used")
+            lines.append(f"  fitted {c['face']}.{c['parameter']} = {_pm(c['value'], c['sd'], c['unit'])}")
+    lines.append(f"  smoothing strength {s['strength']:.3g} ({s['strength_method']}); misfit chi-square "
+                 f"{eng(s['chi2'])} for {s['n_sensors_used']} sensors used")
     if s["set_aside"]:
         lines.append(f"  set aside: {', '.join(s['set_aside'])}")
     for w in s["warnings"]:

@@ -89,7 +89,7 @@ def output_files(result, case, readings_path, points=None) -> list[tuple[str, ob
     from .report import render_report
 
     summary = summary_dict(result, case_path=case.path, readings_path=readings_path)
-    figures = {name: figure_png(fig) for name, fig in all_figures(result).items()}
+    figures = {name: figure_png(fig) for name, fig in all_figures(result, zones=case.zones).items()}
     html = render_report(result, case_text=case_text(case, readings_path), figures=figures,
                          title=f"heatsight fit: {case.path.name}")
     files = [("estimate.csv", csv_text(estimate_frame(result))),

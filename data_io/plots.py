@@ -23,15 +23,18 @@ from matplotlib.figure import Figure  # no pyplot: no global state, PNGs through
 
 from .csv_out import atomic_write_bytes
 from .display import display_for
+from .face_scale import colour_scale
+from .figure_style import DPI, FLAG_COLOUR, LINE_COLOURS, LITERAL, new_figure as _new_figure
+from .sensor_plot import _flags, sensor_health, sensor_threshold  # noqa: F401 (re-exported)
+from .strength_plot import CRITERION_WORDS, EVIDENCE_DEPTH, strength_curve  # noqa: F401 (re-exported)
 from .units import from_si
+from .zone_outline import end_face_outline, label_point, side_outline
 
-DPI = 110
 #: order and file stems of the figures written by `save_figures`
 FIGURE_NAMES = ("face_map", "band_width", "profiles", "sensors", "strength")
 ESTIMATE_CMAP = "cividis"
 BAND_CMAP = "magma"
-#: colours of the profile lines (our own choice; distinct in print and for most colour vision)
-LINE_COLOURS = ("#1f5f8b", "#c0562f", "#3c8d5a", "#7b4f9d", "#8c6d1f", "#2f8c8c")
+ZONE_COLOUR = "#e8e8e8"
 FLAG_STYLE = {
     "ok": dict(marker="o", markerfacecolor="white", markeredgecolor="#222222", markersize=5,
                label="sensor in the fit"),
@@ -40,17 +43,6 @@ FLAG_STYLE = {
     "set aside": dict(marker="X", markerfacecolor="#d03c50", markeredgecolor="#222222", markersize=8,
                       label="sensor set aside"),
 }
-FLAG_COLOUR = {"ok": "#1f5f8b", "suspect": "#d08a00", "set aside": "#d03c50"}
-CRITERION_WORDS = {
-    "log_evidence": "log marginal likelihood of the readings",
-    "gcv": "generalized cross-validation function",
-    "curvature": "curvature of the L-curve",
-    "chi2": "chi-square of the weighted residuals",
-}
-#: depth [nepers] of the log-evidence curve shown below its peak
-EVIDENCE_DEPTH = 60.0
-#: Text properties for user text (sensor names...): shown literally, a '$' starts no mathematics
-LITERAL = {"parse_math": False}
 
 
 def _mm(x):
@@ -59,10 +51,6 @@ def _mm(x):
 
 def _deg(x):
     return from_si(x, "angle", "deg")
-
-
-def _new_figure(width, height) -> Figure:
-    return Figure(figsize=(width, height), layout="constrained")
 
 
 def _grid_arrays(result, column):
@@ -78,13 +66,6 @@ def _grid_arrays(result, column):
     th = np.concatenate([th, th[:, :1] + 2 * math.pi], axis=1)
     s = np.concatenate([s, s[:, :1]], axis=1)
     return s, th, vals
-
-
-def _flags(result):
-    sens = result.sensors
-    if "flag" in sens:
-        return np.asarray(sens["flag"].astype(str))
-    return np.full(len(sens), "ok")
 
 
 def _sensor_overlay(ax, result, polar: bool, label_names: bool = True):
@@ -126,8 +107,32 @@ def _limits(values, vmin=None, vmax=None):
     return lo, hi
 
 
-def _map(result, values, cmap, colourbar_label, title, vmin, vmax):
-    """Map of `values` (display units, grid order) on the estimated face."""
+def _zones_on_face(result, zones):
+    """The zones (duck-typed, see data_io.zone_outline) that lie on the estimated face."""
+    return [z for z in zones or () if (getattr(z, "face", None) or result.face) == result.face]
+
+
+def _draw_zones(ax, result, zones):
+    """Zone edges (light dashed lines, gid 'zone:<name>') and names on a face map."""
+    cyl = result.cylinder
+    marks = [ln for ln in ax.get_lines() if str(ln.get_gid()).startswith("sensors:")]
+    sensors = [np.concatenate([np.asarray(ln.get_data()[k], float) for ln in marks]) if marks else np.zeros(0)
+               for k in (0, 1)]
+    for z in _zones_on_face(result, zones):
+        if result.face == "side":
+            x, y = side_outline(z, cyl.height)
+        else:
+            x, y = end_face_outline(z, cyl.radius)
+        ax.plot(x, y, color=ZONE_COLOUR, linewidth=1.3, linestyle=(0, (5, 2)), gid=f"zone:{z.name}",
+                zorder=4)
+        ax.plot(x, y, color="#222222", linewidth=0.5, linestyle=(0, (5, 2)), zorder=4, alpha=0.7)
+        lx, ly = label_point(z, result.face, cyl.radius, cyl.height, avoid=sensors)
+        ax.annotate(str(z.name), (lx, ly), ha="center", va="center", fontsize=7, color="#111111", zorder=6,
+                    **LITERAL, bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="#888888", lw=0.5, alpha=0.8))
+
+
+def _map(result, values, cmap, colourbar_label, title, vmin, vmax, zones=()):
+    """Map of `values` (display units, grid order) on the estimated face, zones outlined."""
     s, th, vals = _grid_arrays(result, values)
     lo, hi = _limits(vals, vmin, vmax)
     if result.face == "side":
@@ -135,6 +140,7 @@ def _map(result, values, cmap, colourbar_label, title, vmin, vmax):
         ax = fig.add_subplot()
         mesh = ax.pcolormesh(_deg(th), _mm(s), vals, cmap=cmap, vmin=lo, vmax=hi, shading="gouraud")
         _sensor_overlay(ax, result, polar=False)
+        _draw_zones(ax, result, zones)
         ax.set_xlim(0.0, 360.0)
         ax.set_ylim(0.0, float(_mm(result.cylinder.height)))
         ax.set_xticks(np.arange(0, 361, 45))
@@ -150,6 +156,7 @@ def _map(result, values, cmap, colourbar_label, title, vmin, vmax):
         ax = fig.add_subplot(projection="polar")
         mesh = ax.pcolormesh(th, _mm(s), vals, cmap=cmap, vmin=lo, vmax=hi, shading="gouraud")
         _sensor_overlay(ax, result, polar=True)
+        _draw_zones(ax, result, zones)
         ax.set_ylim(0.0, float(_mm(result.cylinder.radius)))
         ax.set_rlabel_position(100.0)
         ax.tick_params(axis="y", labelsize=7)
@@ -157,7 +164,9 @@ def _map(result, values, cmap, colourbar_label, title, vmin, vmax):
         ax.set_ylabel("r [mm]", labelpad=34)
         ax.grid(True, color="white", alpha=0.35, linewidth=0.6)
         ax.set_title(title, fontsize=10, pad=16)
-    fig.colorbar(mesh, ax=ax, label=colourbar_label, shrink=0.85, pad=0.08)
+    bar = fig.colorbar(mesh, ax=ax, label=colourbar_label, shrink=0.85, pad=0.08)
+    bar.formatter.set_useOffset(False)   # plain values, never "+1.2e1" above the scale
+    bar.update_ticks()
     handles = [h for h in ax.get_lines() if str(h.get_gid()).startswith("sensors:")]
     if handles:
         fig.legend(handles=handles, loc="outside lower center", ncols=len(handles), fontsize=7,
@@ -165,17 +174,35 @@ def _map(result, values, cmap, colourbar_label, title, vmin, vmax):
     return fig
 
 
-def face_map(result, *, vmin=None, vmax=None) -> Figure:
-    """Map of the estimated face (posterior mean) with the sensors projected onto it.
+def map_scale(result):
+    """The colour scale of the face map in display units (data_io.face_scale): at least the
+    typical 95 % half-width around the face mean; `uniform` when the mean is inside every band."""
+    d = display_for(result)
+    g = result.grid
+    mean = result.summary.get("mean")
+    return colour_scale(d.value(np.asarray(g["estimate"], float)), d.value(np.asarray(g["lower"], float)),
+                        d.value(np.asarray(g["upper"], float)),
+                        d.value(float(mean)) if mean is not None and np.isfinite(mean) else np.nan)
+
+
+def face_map(result, *, vmin=None, vmax=None, zones=()) -> Figure:
+    """Map of the estimated face (posterior mean) with the sensors projected onto it and the
+    zones outlined (`zones`: the case's zones, e.g. ``case.zones``; those of other faces are
+    left out).
 
     vmin, vmax: colour-scale limits in the display unit (degC, W/m^2 or kW/m^2, see
-    `display_for`), e.g. to share one scale between several results; default: the range
-    of the estimate.
+    `display_for`), e.g. to share one scale between several results; default: `map_scale`,
+    which never stretches differences smaller than the bands over the whole colour range.
     """
     d = display_for(result)
     values = d.value(np.asarray(result.grid["estimate"], float))
-    return _map(result, values, ESTIMATE_CMAP, f"estimated {d.words} [{d.symbol}]",
-                f"Estimated {d.on_face}", vmin, vmax)
+    scale = map_scale(result)
+    lo = scale.lo if vmin is None else vmin
+    hi = scale.hi if vmax is None else vmax
+    title = f"Estimated {d.on_face}"
+    if scale.uniform and vmin is None and vmax is None:
+        title += "\nuniform within its 95 % bands: the shading shows no significant pattern"
+    return _map(result, values, ESTIMATE_CMAP, f"estimated {d.words} [{d.symbol}]", title, lo, hi, zones)
 
 
 def band_width_map(result, *, vmax=None) -> Figure:
@@ -187,10 +214,42 @@ def band_width_map(result, *, vmax=None) -> Figure:
                 0.0, vmax)
 
 
-def profiles(result, *, angles_deg=(0.0, 90.0, 180.0, 270.0), n_points=161) -> Figure:
+def line_means(result):
+    """(angles [deg], mean of the estimate along each display-grid line [SI]): r-weighted
+    along the radius on an end face (the area average of the line's sector), plain along z on
+    the side wall."""
+    s, th, est = _grid_arrays(result, "estimate")
+    s, th, est = s[:, :-1], th[:, :-1], est[:, :-1]
+    w = np.ones_like(s) if result.face == "side" else np.abs(s)
+    w = np.where(np.isfinite(est), w, 0.0)
+    mean = np.sum(np.nan_to_num(est) * w, axis=0) / np.maximum(np.sum(w, axis=0), 1e-300)
+    return np.mod(_deg(th[0]), 360.0), mean
+
+
+def profile_angles(result, n: int = 4):
+    """n angles [deg] for the profiles figure: the strongest and the weakest line of the face
+    (largest and smallest `line_means`), then the angles farthest from those already chosen."""
+    ang, mean = line_means(result)
+    chosen = [float(ang[int(np.argmax(mean))])]
+    weakest = float(ang[int(np.argmin(mean))])
+    if weakest != chosen[0]:
+        chosen.append(weakest)
+    while len(chosen) < min(n, ang.size):
+        gap = np.min(np.abs((ang[:, None] - np.asarray(chosen)[None, :] + 180.0) % 360.0 - 180.0), axis=1)
+        chosen.append(float(ang[int(np.argmax(gap))]))
+    return tuple(round(a, 6) for a in chosen)
+
+
+def profiles(result, *, angles_deg=None, n_points=161) -> Figure:
     """Estimate with shaded 95 % bands along lines of the face: against r at fixed angles on
-    an end face, against z at fixed angles on the side wall (from `result.face_profile`)."""
+    an end face, against z at fixed angles on the side wall (from `result.face_profile`).
+
+    angles_deg: the angles [deg]; default `profile_angles`: the strongest and weakest line
+    first (drawn bold, with their bands), then two more for context (thin, lighter bands)."""
     d = display_for(result)
+    auto = angles_deg is None
+    if auto:
+        angles_deg = profile_angles(result)
     fig = _new_figure(7.6, 4.8)
     ax = fig.add_subplot()
     side = result.face == "side"
@@ -205,11 +264,19 @@ def profiles(result, *, angles_deg=(0.0, 90.0, 180.0, 270.0), n_points=161) -> F
     else:  # no model at hand (e.g. a result read back from files): the grid's nearest angles
         est, lo, hi, s = _grid_lines(result, angles)
     x = _mm(s)
+    hot, cold = ("hottest", "coldest") if result.quantity == "temperature" else ("strongest", "weakest")
+    roles = {0: hot, 1: cold} if auto else {}
     for i, ang in enumerate(angles):
         colour = LINE_COLOURS[i % len(LINE_COLOURS)]
-        ax.fill_between(x, d.value(lo[i]), d.value(hi[i]), color=colour, alpha=0.18, linewidth=0)
-        ax.plot(x, d.value(est[i]), color=colour, linewidth=1.6, label=f"θ = {ang:g}°",
-                gid=f"profile:{ang:g}")
+        lead = i in roles or not auto
+        ax.fill_between(x, d.value(lo[i]), d.value(hi[i]), color=colour, alpha=0.22 if lead else 0.08,
+                        linewidth=0)
+        for edge in (lo[i], hi[i]):   # band edges in the line's colour, so overlapping bands stay readable
+            ax.plot(x, d.value(edge), color=colour, linewidth=0.8 if lead else 0.5,
+                    linestyle=(0, (4, 2)) if lead else (0, (1, 2)), gid=f"band:{ang:g}")
+        label = f"θ = {ang:g}°" + (f" ({roles[i]} line)" if i in roles else "")
+        ax.plot(x, d.value(est[i]), color=colour, linewidth=2.2 if lead else 1.1, label=label,
+                gid=f"profile:{ang:g}", zorder=3)
     mean = result.summary.get("mean")
     if mean is not None and np.isfinite(mean):
         ax.axhline(d.value(mean), color="#555555", linestyle="--", linewidth=0.9,
@@ -218,7 +285,8 @@ def profiles(result, *, angles_deg=(0.0, 90.0, 180.0, 270.0), n_points=161) -> F
     ax.set_xlabel("height z [mm]" if side else "radius r [mm]")
     ax.set_ylabel(f"{d.words} [{d.symbol}]")
     where = "up the side wall" if side else "out from the centre"
-    ax.set_title(f"Estimated {d.words} {where} at several angles\n(shaded: 95 % band)", fontsize=10)
+    ax.set_title(f"Estimated {d.words} {where} at several angles\n(shaded, between dashed edges: "
+                 "95 % band)", fontsize=10)
     ax.grid(True, alpha=0.3)
     ax.legend(fontsize=8, ncols=2, frameon=False)
     return fig
@@ -235,141 +303,6 @@ def _grid_lines(result, angles_deg):
     return cols[0], cols[1], cols[2], s[:, 0]
 
 
-def sensor_threshold(result) -> float:
-    """|score| above which a sensor is set aside (or flagged when all are kept)."""
-    t = result.summary.get("threshold")
-    if t is not None and np.isfinite(t):
-        return float(t)
-    from ..inverse import default_threshold
-
-    n = int(result.summary.get("n_sensors_used") or len(result.sensors))
-    return default_threshold(max(n, 1))
-
-
-def sensor_health(result) -> Figure:
-    """Per sensor: leave-one-out error (reading minus its prediction from the other sensors,
-    whiskers ±2 predictive sd) and residual of the fit [K] on top; the screening score with
-    the set-aside threshold below.  Set-aside sensors are drawn in their own colour."""
-    sens = result.sensors
-    n = len(sens)
-    flags = _flags(result)
-    x = np.arange(n)
-    measured = np.asarray(sens["measured"], float)
-    loo_err = from_si(measured - np.asarray(sens["loo_predicted"], float), "temperature_difference", "K")
-    loo_sd = from_si(np.asarray(sens["loo_sd"], float), "temperature_difference", "K")
-    resid = from_si(np.asarray(sens["residual"], float), "temperature_difference", "K")
-    score_col = "score" if "score" in sens else "standardized_loo"
-    score = np.asarray(sens[score_col], float)
-    t = sensor_threshold(result)
-
-    fig = _new_figure(max(6.5, 0.42 * n + 2.5), 6.2)
-    ax1, ax2 = fig.subplots(2, 1, sharex=True)
-    loo_err, loo_sd, resid = np.atleast_1d(loo_err), np.atleast_1d(loo_sd), np.atleast_1d(resid)
-    for flag in ("ok", "suspect", "set aside"):
-        sel = flags == flag
-        if not sel.any():
-            continue
-        c = FLAG_COLOUR[flag]
-        ax1.errorbar(x[sel], loo_err[sel], yerr=2 * loo_sd[sel], fmt="o", color=c, ecolor=c,
-                     elinewidth=1.2, capsize=3, markersize=5, gid=f"loo:{flag}",
-                     label=f"leave-one-out error ±2 sd ({flag})")
-        ax2.bar(x[sel], score[sel], color=c, edgecolor="#222222", linewidth=0.5,
-                hatch="//" if flag == "set aside" else None, gid=f"score:{flag}", label=flag)
-    ax1.plot(x, resid, linestyle="none", marker="_", markersize=12, markeredgewidth=2,
-             color="#222222", gid="residual", label="residual of the fit")
-    ax1.axhline(0.0, color="#888888", linewidth=0.8)
-    ax1.set_ylabel("reading − prediction [K]")
-    ax1.set_title("Sensor check: each reading against the fit and against the other sensors",
-                  fontsize=10)
-    ax1.legend(fontsize=7, frameon=False, ncols=2)
-    ax1.grid(True, axis="y", alpha=0.3)
-
-    for sign in (1, -1):
-        ax2.axhline(sign * t, color="#d03c50", linestyle="--", linewidth=1.0,
-                    label=f"set-aside threshold ±{t:.2f}" if sign > 0 else None, gid="threshold")
-    ax2.axhline(0.0, color="#888888", linewidth=0.8)
-    ax2.set_ylabel("score [sd]" if score_col == "score" else "standardized LOO error [sd]")
-    ax2.set_xlabel("sensor")
-    ax2.grid(True, axis="y", alpha=0.3)
-    ax2.legend(fontsize=7, frameon=False, ncols=4)
-    ax2.set_xticks(x, [str(s) for s in sens["sensor"]], rotation=90 if n > 8 else 0, fontsize=7,
-                   **LITERAL)
-    for lab, flag in zip(ax2.get_xticklabels(), flags):
-        if flag != "ok":
-            lab.set_color(FLAG_COLOUR.get(flag, "black"))
-            lab.set_fontweight("bold")
-    return fig
-
-
-def _positive(x):
-    x = np.asarray(x, float)
-    return np.where(x > 0, x, np.nan)
-
-
-def strength_curve(result) -> Figure:
-    """Choice of the smoothing strength: the criterion against alpha (log scale) with the
-    chosen alpha marked, and the L-curve (weighted residual norm against prior seminorm)."""
-    d = display_for(result)
-    curve = result.strength_curve
-    alpha_unit = "K⁻²" if result.quantity == "temperature" else "(W/m²)⁻²"
-    crit = next((c for c in curve.columns if c not in ("alpha", "residual_norm", "seminorm")), None)
-    alpha = np.asarray(curve["alpha"], float)
-    chosen = float(result.summary.get("strength", np.nan))
-    method = str(result.summary.get("strength_method", ""))
-    fig = _new_figure(10.0, 4.4)
-    ax1, ax2 = fig.subplots(1, 2)
-    if crit is not None:
-        v = np.asarray(curve[crit], float)
-        if crit == "log_evidence" and np.any(np.isfinite(v)):
-            v = v - np.nanmax(v)  # relative to the peak, so that its shape stays visible
-        ax1.plot(alpha, v, color=LINE_COLOURS[0], linewidth=1.5, gid="criterion")
-        ax1.set_xscale("log")
-        if crit in ("gcv", "chi2") and np.all(v[np.isfinite(v)] > 0):
-            ax1.set_yscale("log")
-        if np.isfinite(chosen) and chosen > 0:
-            ax1.axvline(chosen, color=LINE_COLOURS[1], linestyle="--", linewidth=1.0, gid="chosen",
-                        label=f"chosen α = {chosen:.3g}")
-            if alpha.min() <= chosen <= alpha.max():
-                ax1.plot([chosen], [np.interp(np.log(chosen), np.log(alpha), v)], "o",
-                         color=LINE_COLOURS[1])
-        if crit == "chi2":
-            n_used = result.summary.get("n_sensors_used")
-            if n_used:
-                ax1.axhline(float(n_used), color="#555555", linestyle=":", linewidth=1.0,
-                            label=f"number of readings ({int(n_used)})")
-        if crit == "log_evidence":
-            ax1.set_ylabel(CRITERION_WORDS[crit] + "\nrelative to its maximum")
-            if np.nanmin(v) < -EVIDENCE_DEPTH:
-                ax1.set_ylim(-EVIDENCE_DEPTH, 0.08 * EVIDENCE_DEPTH)
-        else:
-            ax1.set_ylabel(CRITERION_WORDS.get(crit, crit))
-        ax1.legend(fontsize=8, frameon=False)
-    ax1.set_xlabel(f"smoothing strength α [{alpha_unit}] (SI)")
-    note = "\n(answers averaged over α; dashed line: most probable α)" \
-        if result.summary.get("strength_averaged") else ""
-    ax1.set_title(f"Smoothing strength chosen by: {method}{note}", fontsize=9, **LITERAL)
-    ax1.grid(True, which="both", alpha=0.25)
-
-    rn = _positive(curve["residual_norm"])
-    sn = d.diff(np.asarray(curve["seminorm"], float))
-    sn = _positive(sn)
-    ax2.plot(rn, sn, color=LINE_COLOURS[2], linewidth=1.5, gid="lcurve")
-    if np.isfinite(chosen) and chosen > 0 and alpha.min() <= chosen <= alpha.max():
-        la = np.log(alpha)
-        px = np.exp(np.interp(np.log(chosen), la, np.log(np.nan_to_num(rn, nan=1e-300))))
-        py = np.exp(np.interp(np.log(chosen), la, np.log(np.nan_to_num(sn, nan=1e-300))))
-        ax2.plot([px], [py], "o", color=LINE_COLOURS[1], label="chosen α")
-        ax2.legend(fontsize=8, frameon=False)
-    if np.any(np.isfinite(rn)) and np.any(np.isfinite(sn)):
-        ax2.set_xscale("log")
-        ax2.set_yscale("log")
-    ax2.set_xlabel("misfit: weighted residual norm (dimensionless, = √χ²)")
-    ax2.set_ylabel(f"roughness: prior seminorm [{d.diff_symbol}]")
-    ax2.set_title("Trade-off between misfit and roughness (L-curve)", fontsize=9)
-    ax2.grid(True, which="both", alpha=0.25)
-    return fig
-
-
 _BUILDERS = {
     "face_map": face_map,
     "band_width": band_width_map,
@@ -379,12 +312,17 @@ _BUILDERS = {
 }
 
 
-def all_figures(result, names=FIGURE_NAMES) -> dict:
-    """name -> Figure for the given figure names (default: all of FIGURE_NAMES)."""
+def _build(name, result, zones):
+    return face_map(result, zones=zones) if name == "face_map" else _BUILDERS[name](result)
+
+
+def all_figures(result, names=FIGURE_NAMES, *, zones=()) -> dict:
+    """name -> Figure for the given figure names (default: all of FIGURE_NAMES); `zones`
+    (e.g. ``case.zones``) are outlined on the face map."""
     unknown = [n for n in names if n not in _BUILDERS]
     if unknown:
         raise ValueError(f"unknown figure name(s) {unknown}; choose from {list(FIGURE_NAMES)}")
-    return {n: _BUILDERS[n](result) for n in names}
+    return {n: _build(n, result, zones) for n in names}
 
 
 def figure_png(fig: Figure, dpi: int = DPI) -> bytes:
@@ -394,7 +332,7 @@ def figure_png(fig: Figure, dpi: int = DPI) -> bytes:
     return buf.getvalue()
 
 
-def save_figures(result, folder, *, dpi: int = DPI, names=FIGURE_NAMES, prefix: str = "") -> dict:
+def save_figures(result, folder, *, dpi: int = DPI, names=FIGURE_NAMES, prefix: str = "", zones=()) -> dict:
     """Write the figures as PNG files `<prefix><name>.png` in `folder` (atomically each).
 
     Returns name -> Path in FIGURE_NAMES order.
@@ -405,7 +343,7 @@ def save_figures(result, folder, *, dpi: int = DPI, names=FIGURE_NAMES, prefix: 
         raise ValueError(f"unknown figure name(s) {unknown}; choose from {list(FIGURE_NAMES)}")
     out = {}
     for name in names:
-        fig = _BUILDERS[name](result)
+        fig = _build(name, result, zones)
         path = folder / f"{prefix}{name}.png"
         atomic_write_bytes(path, figure_png(fig, dpi))
         out[name] = path

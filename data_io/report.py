@@ -1,10 +1,10 @@
 """The HTML report of a fit: one self-contained page (inline CSS, figures embedded as
 base64 PNG data URIs, no scripts, no links to other files).
 
-Sections: the case, the answers (face mean, extremes with their positions,
-non-uniformity, heat into the part, zones, smoothing strength, fit quality), the sensors
-with their health flags, warnings, figures, any extra sections supplied by the caller, and
-cautions.  Every string that comes from the user or from the data (sensor names, case
+Order: the title, then the verdict in plain words (data_io.verdict; the first text after the
+title), the figures, the numbers (face, zones), the sensors with their health flags,
+warnings, any sections supplied by the caller, the case, how the fit was made, a short
+glossary, and the cautions.  "±" is the half-width of the 95 % interval and says so.  Every string that comes from the user or from the data (sensor names, case
 text, zone names, warnings, titles) is HTML-escaped; nothing is evaluated.  Values arrive
 in SI from the inverse layer and are shown in user units through `data_io.units`
 (temperatures degC, temperature differences K, lengths mm, angles deg).
@@ -20,73 +20,17 @@ from ..inverse.bands import Z95
 
 from . import plots
 from .csv_out import atomic_write_text
-from .report_format import (_celsius, _celsius_number, _deg, _e, _finite, _Fmt, _kelvin_diff, _mm, _position,
-                            _power, sig)
+from .report_format import (_celsius, _celsius_number, _deg, _e, _finite, _Fmt, _mm, _position, _power,
+                            half95, sig)
+from .report_text import CAUTIONS, CSS, FIGURE_CAPTIONS, GLOSSARY
 from .units import from_si, to_display, ureg
+from .verdict import verdict_parts
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 
 FACE_PLACE = {"bottom": "z = 0", "top": "z = height", "side": "r = radius"}
-
-FIGURE_CAPTIONS = {
-    "face_map": "Estimated face (posterior mean). Markers: thermocouples projected onto the face; "
-                "a cross marks a sensor set aside.",
-    "band_width": "Width of the 95 % band of the estimate. Narrow near the sensors, wide where no "
-                  "sensor looks.",
-    "profiles": "The estimate along lines of the face at several angles; shading is the 95 % band.",
-    "sensors": "Per sensor: reading minus its prediction from the other sensors (whiskers ±2 sd) and "
-               "the residual of the fit; below, the screening score against the set-aside threshold.",
-    "strength": "How the smoothing strength was chosen: the criterion against the strength, and the "
-                "trade-off between misfit and roughness.",
-}
-
-CAUTIONS = (
-    "Heated hardware can burn. A part, its fixtures and the air around it can stay hot long "
-    "after the heater is switched off.",
-    "Heaters are electrical equipment. Work on heaters, wiring and thermocouples only as your "
-    "site's electrical-safety rules allow.",
-    "The numbers and maps in this report are estimates from a model fitted to a few readings. "
-    "They support engineering judgement; they do not replace direct measurement, interlocks or "
-    "inspection.",
-    "Local codes and licensed practice govern the design, operation and maintenance of heated "
-    "equipment.",
-)
-
-CSS = """
-:root { --ink: #1d232a; --muted: #5a6470; --line: #d5dbe1; --band: #f3f6f8;
-        --aside: #fbe3e6; --suspect: #fdf1d6; --accent: #1f5f8b; }
-* { box-sizing: border-box; }
-body { margin: 0; color: var(--ink); background: #ffffff;
-       font: 15px/1.45 system-ui, -apple-system, "Segoe UI", Roboto, sans-serif; }
-main { max-width: 1060px; margin: 0 auto; padding: 24px 28px 48px; }
-h1 { font-size: 1.55em; margin: 0 0 4px; }
-h2 { font-size: 1.2em; margin: 32px 0 10px; padding-bottom: 4px;
-     border-bottom: 2px solid var(--accent); }
-h3 { font-size: 1.02em; margin: 20px 0 8px; }
-p.sub { color: var(--muted); margin: 0 0 10px; }
-nav { font-size: 0.9em; color: var(--muted); margin: 10px 0 0; }
-nav a { color: var(--accent); margin-right: 12px; text-decoration: none; }
-table { border-collapse: collapse; margin: 6px 0 12px; font-size: 0.92em; }
-th, td { border: 1px solid var(--line); padding: 4px 8px; vertical-align: top; }
-th { background: var(--band); text-align: left; font-weight: 600; }
-td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
-table.kv th { width: 15em; }
-tr.set-aside td { background: var(--aside); }
-tr.suspect td { background: var(--suspect); }
-.tag { display: inline-block; padding: 0 6px; border-radius: 3px; font-size: 0.85em; }
-.tag.set-aside { background: #d03c50; color: #fff; }
-.tag.suspect { background: #f0b43c; color: #1d232a; }
-.tag.ok { background: #e3ecf2; color: #1d232a; }
-ul.warnings li { margin-bottom: 4px; }
-figure { margin: 14px 0 22px; }
-figure img { max-width: 100%; height: auto; border: 1px solid var(--line); }
-figcaption { color: var(--muted); font-size: 0.9em; margin-top: 4px; }
-section.cautions { background: #fff7e8; border-left: 5px solid #d08a00;
-                   padding: 4px 16px 10px; margin-top: 32px; }
-section.cautions h2 { border-bottom: none; }
-footer { color: var(--muted); font-size: 0.82em; margin-top: 28px; }
-"""
-
+#: order of the figures on the page (others follow in the order given)
+FIGURE_ORDER = ("face_map", "profiles", "band_width", "sensors", "strength")
 
 # ---------------------------------------------------------------------- case
 def _datum(value, kind: str) -> str:
@@ -140,25 +84,45 @@ def _kv_table(rows) -> str:
     return f'<table class="kv">{body}</table>'
 
 
-# ---------------------------------------------------------------------- answers
-def _answers(result, fmt: _Fmt) -> str:
+# ---------------------------------------------------------------------- numbers
+def _pm_sd(fmt: _Fmt, sd) -> str:
+    """'± 0.022 kW/m² (95 %)' from an sd in SI."""
+    return f"± {sig(half95(fmt.d.diff(sd)))} {fmt.d.diff_symbol} (95 %)" if _finite(sd) else ""
+
+
+def _numbers(result, fmt: _Fmt) -> str:
+    """The face's figures with their 95 % intervals, and the zones."""
     s = result.summary
-    d = fmt.d
     mean, mean_sd = s.get("mean"), s.get("mean_sd")
     rows = [
-        ("estimated face", f"{d.face_words}: {d.words} [{d.symbol}]"),
-        ("face mean", f"{fmt.value(mean)} (sd {fmt.sd(mean_sd)}; 95 % band "
-                      f"{fmt.band(mean - Z95 * mean_sd, mean + Z95 * mean_sd)})"
+        ("estimated face", f"{fmt.d.face_words}: {fmt.d.words} [{fmt.d.symbol}]"),
+        ("face mean", f"{fmt.value(mean)} {_pm_sd(fmt, mean_sd)}; interval "
+                      f"{fmt.band(mean - Z95 * mean_sd, mean + Z95 * mean_sd)}"
          if _finite(mean) and _finite(mean_sd) else fmt.value(mean)),
-        ("minimum", f"{fmt.value(s.get('min'))} (sd {fmt.sd(s.get('min_sd'))}) "
+        ("minimum", f"{fmt.value(s.get('min'))} {_pm_sd(fmt, s.get('min_sd'))} "
                     f"{_position(result.face, s.get('min_at'))}"),
-        ("maximum", f"{fmt.value(s.get('max'))} (sd {fmt.sd(s.get('max_sd'))}) "
+        ("maximum", f"{fmt.value(s.get('max'))} {_pm_sd(fmt, s.get('max_sd'))} "
                     f"{_position(result.face, s.get('max_at'))}"),
-        ("non-uniformity (maximum − minimum)",
-         f"{fmt.diff(s.get('nonuniformity'))} (sd {fmt.sd(s.get('nonuniformity_sd'))})"),
+        ("spread over the face (maximum − minimum)",
+         f"{fmt.diff(s.get('nonuniformity'))} {_pm_sd(fmt, s.get('nonuniformity_sd'))}"),
         ("heat into the part through this face",
          _power(s.get("total_power_W"), s.get("total_power_sd_W"))),
     ]
+    out = [_kv_table(rows)]
+    cal = s.get("calibrated")
+    if cal:
+        out.append("<h3>Face parameters fitted from the readings</h3>")
+        out.append(_calibrated_table(cal))
+    zones = s.get("zones") or []
+    if zones:
+        out.append("<h3>Zones</h3>")
+        out.append(_zones_table(zones, fmt))
+    return "\n".join(out)
+
+
+def _how_fitted(result) -> str:
+    """How the fit was made: smoothing, model, misfit, resolution (the terms of the glossary)."""
+    s = result.summary
     alpha = s.get("strength")
     method = s.get("strength_method", "")
     how = f"α = {alpha:.3g} (SI), chosen by {method}" if _finite(alpha) else f"chosen by {method}"
@@ -173,22 +137,31 @@ def _answers(result, fmt: _Fmt) -> str:
     edf_text = (f"{edf:.2f} of {s.get('basis_size', '?')} basis functions "
                 f"({s.get('harmonics', '?')} harmonics, {s.get('terms', '?')} terms each)"
                 if _finite(edf) else "–")
-    fit_rows = [
-        ("smoothing strength", how),
-        ("smoothness prior", f"penalizes the {s.get('smoothing', '?')} of the profile"),
-        ("chi-square of the weighted residuals", chi2_text),
-        ("effective number of parameters", edf_text),
-    ]
-    out = ["<h3>The face</h3>", _kv_table(rows), "<h3>The fit</h3>", _kv_table(fit_rows)]
-    cal = s.get("calibrated")
-    if cal:
-        out.append("<h3>Calibrated face parameters</h3>")
-        out.append(_calibrated_table(cal))
-    zones = s.get("zones") or []
-    if zones:
-        out.append("<h3>Zones</h3>")
-        out.append(_zones_table(zones, fmt))
-    return "\n".join(out)
+    rows = [("smoothing strength", how),
+            ("what the smoothing penalizes", f"the {s.get('smoothing', '?')} of the face")]
+    if s.get("model"):
+        w = s.get("model_weights") or {}
+        extra = ", ".join(f"{k} {sig(v, 2)}" for k, v in w.items() if _finite(v)) if isinstance(w, dict) else ""
+        rows.append(("model of the face", str(s["model"]) + (f" (probabilities: {extra})" if extra else "")))
+    prior = s.get("prior")
+    if isinstance(prior, dict):
+        rows.append(("what the data chose for the smoothness", _prior_text(prior)))
+    rows += [("misfit: chi-square of the weighted residuals", chi2_text),
+             ("number of independent pieces of information used", edf_text)]
+    return _kv_table(rows)
+
+
+def _prior_text(prior: dict) -> str:
+    parts = []
+    ls, ls90 = prior.get("length_scale_m"), prior.get("length_scale_90_m")
+    if _finite(ls):
+        parts.append(f"length scale {sig(from_si(ls, 'length', 'mm'), 2)} mm")
+        if isinstance(ls90, (list, tuple)) and len(ls90) == 2 and all(_finite(x) for x in ls90):
+            parts[-1] += (f" (90 % range {sig(from_si(ls90[0], 'length', 'mm'), 2)} to "
+                          f"{sig(from_si(ls90[1], 'length', 'mm'), 2)} mm)")
+    if prior.get("hyperprior_dominated"):
+        parts.append("the size of the departures from the nominal profile is set by the prior, not the readings")
+    return "; ".join(parts) or ", ".join(f"{k}" for k in prior)
 
 
 def _calibrated_table(cal: dict) -> str:
@@ -199,32 +172,39 @@ def _calibrated_table(cal: dict) -> str:
         what, value, sd = info.get("parameter"), info.get("value"), info.get("sd")
         if what == "h":
             v = f"{to_display(value, 'heat_transfer_coefficient'):.4g} W/(m²·K)" if _finite(value) else "–"
-            u = f"{sig(sd)} W/(m²·K)" if _finite(sd) else "–"
+            u = f"{sig(half95(sd))} W/(m²·K)" if _finite(sd) else "–"
         else:
-            v, u = _celsius(value), _kelvin_diff(sd)
+            v = _celsius(value)
+            u = f"{sig(half95(from_si(sd, 'temperature_difference', 'K')))} K" if _finite(sd) else "–"
         rows.append(f"<tr><td>{_e(info.get('face', ''))}</td><td>{_e(what)}</td>"
                     f'<td class="num">{_e(v)}</td><td class="num">{_e(u)}</td></tr>')
-    return ("<table><tr><th>face</th><th>parameter</th><th>value</th><th>sd</th></tr>"
+    return ("<table><tr><th>face</th><th>parameter</th><th>value</th><th>± (95 %)</th></tr>"
             + "".join(rows) + "</table>")
 
 
 def _zones_table(zones, fmt: _Fmt) -> str:
     d = fmt.d
     flux = d.quantity == "heat_flux"
-    head = ["zone", "area [cm²]", f"mean [{d.symbol}]", f"sd [{d.diff_symbol}]",
-            f"95 % band [{d.symbol}]", f"difference from face mean [{d.diff_symbol}]"]
+    head = ["zone", "area [cm²]", f"mean [{d.symbol}]", f"± (95 %) [{d.diff_symbol}]",
+            f"95 % interval [{d.symbol}]", f"difference from face mean [{d.diff_symbol}]"]
     if flux:
-        head.append("heat in [W]")
+        head.append("heat in ± (95 %) [W]")
+    if any(_finite(z.get("delivered_fraction")) for z in zones):
+        head.append("share of nominal power")
     rows = []
     for z in zones:
         area = z.get("area_m2")
         area_txt = sig(ureg.Quantity(float(area), "m^2").to("cm^2").magnitude, 3) if _finite(area) else "–"
         cells = [_e(z.get("name", "")), area_txt, fmt.number(z.get("mean")),
-                 sig(d.diff(z.get("sd"))) if _finite(z.get("sd")) else "–",
+                 sig(half95(d.diff(z.get("sd")))) if _finite(z.get("sd")) else "–",
                  f"{fmt.number(z.get('lower'))} to {fmt.number(z.get('upper'))}",
                  fmt.diff_number(z.get("deviation_from_face_mean"))]
         if flux:
-            cells.append(_power(z.get("power_W"), z.get("power_sd_W")).replace(" W", ""))
+            cells.append(_power(z.get("power_W"), z.get("power_sd_W")).replace(" W", "").replace(" (95 %)", ""))
+        if len(head) > len(cells):
+            frac, fsd = z.get("delivered_fraction"), z.get("delivered_fraction_sd")
+            cells.append(f"{sig(100 * frac, 3)} ± {sig(100 * half95(fsd))} %" if _finite(frac) and _finite(fsd)
+                         else (f"{sig(100 * frac, 3)} %" if _finite(frac) else "–"))
         rows.append("<tr><td>" + cells[0] + "</td>" +
                     "".join(f'<td class="num">{_e(c)}</td>' for c in cells[1:]) + "</tr>")
     return ("<table><tr>" + "".join(f"<th>{_e(h)}</th>" for h in head) + "</tr>"
@@ -236,7 +216,7 @@ def _sensor_table(result) -> str:
     sens = result.sensors
     score_col = "score" if "score" in sens else "standardized_loo"
     head = ["sensor", "r [mm]", "θ [°]", "z [mm]", "measured [°C]", "fitted [°C]", "residual [K]",
-            "prediction from the others [°C]", "reading − prediction [K]", "± 2 sd [K]",
+            "prediction from the others [°C]", "reading − prediction [K]", "± (95 %) [K]",
             "score", "flag"]
     flags = plots._flags(result)  # noqa: SLF001 (same layer)
     rows = []
@@ -253,7 +233,7 @@ def _sensor_table(result) -> str:
             _celsius_number(loo),
             f"{from_si(measured - loo, 'temperature_difference', 'K'):.3f}"
             if _finite(measured) and _finite(loo) else "–",
-            sig(2 * from_si(row.get("loo_sd"), "temperature_difference", "K"))
+            sig(half95(from_si(row.get("loo_sd"), "temperature_difference", "K")))
             if _finite(row.get("loo_sd")) else "–",
             f"{row.get(score_col):+.2f}" if _finite(row.get(score_col)) else "–",
         ]
@@ -271,7 +251,8 @@ def _sensor_table(result) -> str:
         lead = "<p>No sensor was set aside.</p>"
     note = (f"<p class=\"sub\">The score compares each reading with what the other sensors predict, "
             f"in predictive standard deviations; beyond ±{t:.2f} a sensor is treated as faulty or "
-            f"misplaced. Temperatures in °C, differences in K.</p>")
+            f"misplaced. The ± column is the 95 % interval of that prediction. Temperatures in °C, "
+            f"differences in K.</p>")
     return lead + note + table
 
 
@@ -292,9 +273,10 @@ def _png_bytes(obj) -> bytes:
 
 
 def _figures_html(figures: dict) -> str:
+    order = [n for n in FIGURE_ORDER if n in figures] + [n for n in figures if n not in FIGURE_ORDER]
     parts = []
-    for name, obj in figures.items():
-        data = base64.b64encode(_png_bytes(obj)).decode("ascii")
+    for name in order:
+        data = base64.b64encode(_png_bytes(figures[name])).decode("ascii")
         caption = FIGURE_CAPTIONS.get(name, str(name))
         parts.append(f'<figure id="figure-{_e(name)}"><img alt="{_e(caption)}" '
                      f'src="data:image/png;base64,{data}"><figcaption>{_e(caption)}</figcaption></figure>')
@@ -310,7 +292,18 @@ def _version() -> str:
         return ""
 
 
-def render_report(result, *, case_text=None, title=None, figures=None, extra_sections=None) -> str:
+def verdict_html(result, fmt: _Fmt | None = None) -> str:
+    """The verdict (data_io.verdict) as escaped HTML paragraphs."""
+    fmt = fmt or _Fmt(result)
+    answer, trust = verdict_parts(result, fmt, plots.map_scale(result))
+    return "".join(f"<p>{_e(' '.join(part))}</p>" for part in (answer, trust) if part)
+
+
+def _glossary() -> str:
+    return '<dl class="glossary">' + "".join(f"<dt>{_e(t)}</dt><dd>{_e(m)}</dd>" for t, m in GLOSSARY) + "</dl>"
+
+
+def render_report(result, *, case_text=None, title=None, figures=None, extra_sections=None, lead=None) -> str:
     """The report page as HTML text.
 
     case_text: list of (label, value) strings describing the case as the user wrote it
@@ -318,6 +311,8 @@ def render_report(result, *, case_text=None, title=None, figures=None, extra_sec
     figures: dict name -> Figure | PNG bytes | PNG path (default: all figures of
     `plots.FIGURE_NAMES`; an empty dict leaves figures out).  extra_sections: list of
     (heading, html_fragment); the heading is escaped, the fragment must already be safe.
+    lead: a safe HTML fragment that opens the verdict (e.g. a trend's flags); the fit's own
+    verdict follows it.
     """
     fmt = _Fmt(result)
     d = fmt.d
@@ -327,19 +322,22 @@ def render_report(result, *, case_text=None, title=None, figures=None, extra_sec
         figures = plots.all_figures(result)
     warnings = list(result.summary.get("warnings") or result.warnings or [])
 
-    sections = [("case", "The case", _kv_table(rows)),
-                ("answers", "The answers", _answers(result, fmt)),
-                ("sensors", "The sensors", _sensor_table(result))]
+    sections = []
+    if figures:
+        sections.append(("figures", "Figures", _figures_html(figures)))
+    sections += [("numbers", "The numbers", _numbers(result, fmt)),
+                 ("sensors", "The sensors", _sensor_table(result))]
     if warnings:
         sections.append(("warnings", "Warnings",
                          '<ul class="warnings">' + "".join(f"<li>{_e(w)}</li>" for w in warnings)
                          + "</ul>"))
     else:
         sections.append(("warnings", "Warnings", "<p>No warnings.</p>"))
-    if figures:
-        sections.append(("figures", "Figures", _figures_html(figures)))
     for i, (heading, fragment) in enumerate(extra_sections or []):
         sections.append((f"extra-{i + 1}", str(heading), str(fragment)))
+    sections += [("case", "The case", _kv_table(rows)),
+                 ("method", "How the fit was made", _how_fitted(result)),
+                 ("glossary", "Words used here", _glossary())]
 
     nav = "".join(f'<a href="#{sid}">{_e(h)}</a>' for sid, h, _ in sections) + '<a href="#cautions">Cautions</a>'
     body = "\n".join(f'<section id="{sid}"><h2>{_e(h)}</h2>\n{content}\n</section>'
@@ -349,20 +347,25 @@ def render_report(result, *, case_text=None, title=None, figures=None, extra_sec
     version = _version()
     footer = (f"<footer>Written by heatsight{' ' + _e(version) if version else ''}. "
               "Estimates from a steady-conduction model fitted to thermocouple readings; "
-              "bands are 95 % bands.</footer>")
+              "± and bands are 95 % intervals.</footer>")
     sub = (f'<p class="sub">{_e(d.on_face.capitalize())}, reconstructed from '
-           f"{_e(result.summary.get('n_sensors_used', len(result.sensors)))} thermocouple readings, "
-           "with 95 % bands.</p>")
+           f"{_e(result.summary.get('n_sensors_used', len(result.sensors)))} thermocouple readings; "
+           "± is the 95 % interval.</p>")
+    fit_verdict = verdict_html(result, fmt)
+    if lead:  # e.g. a trend: its flags first, then the fit of its reference window
+        fit_verdict = fit_verdict.replace("<p>", "<p><strong>Reference window:</strong> ", 1)
+    verdict_section = f'<section class="verdict" id="verdict">{lead or ""}{fit_verdict}</section>'
     return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
             "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
             f"<title>{_e(title)}</title>\n<style>{CSS}</style>\n</head>\n<body>\n<main>\n"
-            f"<h1>{_e(title)}</h1>\n{sub}\n<nav>{nav}</nav>\n{body}\n{cautions}\n{footer}\n"
-            "</main>\n</body>\n</html>\n")
+            f"<h1>{_e(title)}</h1>\n{verdict_section}\n{sub}\n<nav>{nav}</nav>\n{body}\n{cautions}\n"
+            f"{footer}\n</main>\n</body>\n</html>\n")
 
 
-def write_report(result, path, *, case_text=None, title=None, figures=None, extra_sections=None) -> Path:
+def write_report(result, path, *, case_text=None, title=None, figures=None, extra_sections=None,
+                 lead=None) -> Path:
     """Write the report (see `render_report`) to `path` atomically; returns the path."""
     path = Path(path)
     atomic_write_text(path, render_report(result, case_text=case_text, title=title, figures=figures,
-                                          extra_sections=extra_sections))
+                                          extra_sections=extra_sections, lead=lead))
     return path

@@ -1,6 +1,13 @@
-"""Formatting for the HTML report (data_io.report): escaping, significant digits, the face
+"""Formatting for people (report, verdict, console): escaping, significant digits, the face
 quantity in its display unit (data_io.display), temperatures, positions and powers in user
-units.  Every function returns plain text; "–" stands for a value that is not finite."""
+units, and "x ± h (95 %)" with h = Z95 x sd.  Every function returns plain text; "–" stands
+for a value that is not finite.
+
+Number rule, written once: a value has 3 significant digits, but its integer digits are never
+rounded away (11568 stays 11568, 817.7 -> 818, 9.6749 -> 9.67); a half-width or an sd has
+2 significant digits (22.1 -> 22, 1111 -> 1100).  Absolute temperatures in degC are a
+position on an offset scale, not a magnitude: they keep 2 decimals (0.01 K).
+"""
 
 from __future__ import annotations
 
@@ -9,8 +16,13 @@ import math
 
 import numpy as np
 
+from ..inverse.bands import Z95
+
 from .display import display_for
 from .units import from_si
+
+#: significant digits of a value and of an uncertainty (half-width or sd)
+VALUE_DIGITS, SPREAD_DIGITS = 3, 2
 
 
 # ---------------------------------------------------------------------- formatting
@@ -35,6 +47,41 @@ def sig(x, n: int = 2) -> str:
         return "0"
     d = n - 1 - int(math.floor(math.log10(abs(x))))
     return f"{x:.{d}f}" if d > 0 else f"{round(x, d):.0f}"
+
+
+def eng(x, n: int = VALUE_DIGITS) -> str:
+    """x with n significant digits, no exponent, integer digits kept (11568 -> '11568',
+    817.68 -> '818', 0.022137 -> '0.0221'); a tiny or huge magnitude falls back to 'a.bce±NN'."""
+    if not _finite(x):
+        return "–"
+    x = float(x)
+    if x == 0:
+        return "0"
+    mag = int(math.floor(math.log10(abs(float(f"{x:.{n - 1}e}")))))  # after rounding: 99.96 -> 100
+    if mag < -4 or mag > 12:
+        return f"{x:.{n - 1}e}"
+    decimals = max(n - 1 - mag, 0)
+    text = f"{x:.{decimals}f}"
+    if decimals == 0 and abs(round(x)) >= 10 ** n:  # never round integer digits away
+        text = f"{round(x):d}"
+    return text
+
+
+def half95(sd) -> float:
+    """Half-width of the 95 % interval of a Gaussian figure: Z95 x sd (same unit)."""
+    return Z95 * float(sd) if _finite(sd) else math.nan
+
+
+def pm95(value: str, sd_shown, unit: str) -> str:
+    """'<value> ± <Z95 x sd> <unit> (95 %)'; value already formatted, sd_shown in the unit."""
+    if not _finite(sd_shown):
+        return f"{value} {unit}".strip()
+    return f"{value} ± {sig(half95(sd_shown), SPREAD_DIGITS)} {unit} (95 %)".replace("  ", " ")
+
+
+def percent(x, n: int = 2) -> str:
+    """A fraction as a percentage with n significant digits (0.1637 -> '16 %')."""
+    return f"{sig(100.0 * float(x), n)} %" if _finite(x) else "–"
 
 
 class _Fmt:
@@ -67,9 +114,44 @@ class _Fmt:
     def band(self, lo, hi) -> str:
         return f"{self.number(lo)} to {self.number(hi)} {self.d.symbol}"
 
+    def eng(self, si) -> str:
+        """A value of the face quantity for people: 3 significant digits (degC: 2 decimals)."""
+        if self.d.quantity == "temperature":
+            return _celsius(si)
+        return f"{eng(self.d.value(si))} {self.d.symbol}" if _finite(si) else "–"
 
-def _celsius_number(t_k) -> str:
-    return f"{from_si(t_k, 'temperature', 'degC'):.2f}" if _finite(t_k) else "–"
+    def eng_diff(self, si, signed: bool = False) -> str:
+        """A difference of the face quantity, 3 significant digits, optionally signed."""
+        if not _finite(si):
+            return "–"
+        v = float(self.d.diff(si))
+        text = eng(abs(v)) if signed else eng(v)
+        sign = ("+" if v >= 0 else "−") if signed else ""
+        return f"{sign}{text} {self.d.diff_symbol}"
+
+    def pm(self, si, sd_si) -> str:
+        """'11.6 ± 0.022 kW/m² (95 %)': value with the half-width of its 95 % interval."""
+        if self.d.quantity == "temperature":
+            value, unit = _celsius_number(si), "°C"
+        else:
+            value, unit = (eng(self.d.value(si)) if _finite(si) else "–"), self.d.symbol
+        sd = float(self.d.diff(sd_si)) if _finite(sd_si) else math.nan
+        if self.d.quantity == "temperature" and _finite(sd):
+            half = half95(sd)
+            return f"{_celsius_number(si, _decimals_for(half))} °C ± {sig(half, SPREAD_DIGITS)} K (95 %)"
+        return pm95(value, sd, unit)
+
+
+def _decimals_for(half) -> int:
+    """Decimals of an absolute temperature next to a ± half [K]: those of the half-width's
+    2 significant digits, 0 to 2 (141.5 °C ± 1.8 K; 141 °C ± 18 K)."""
+    if not _finite(half) or float(half) <= 0:
+        return 2
+    return min(max(SPREAD_DIGITS - 1 - int(math.floor(math.log10(float(half)))), 0), 2)
+
+
+def _celsius_number(t_k, decimals: int = 2) -> str:
+    return f"{from_si(t_k, 'temperature', 'degC'):.{decimals}f}" if _finite(t_k) else "–"
 
 
 def _celsius(t_k) -> str:
@@ -101,9 +183,15 @@ def _position(face, at) -> str:
 
 
 def _power(w, sd=None) -> str:
+    """Power to 4 significant digits with its 95 % half-width: '817.7 W ± 1.6 W (95 %)'."""
     if not _finite(w):
         return "–"
     text = f"{w:.4g} W"
     if _finite(sd):
-        text += f" (sd {sig(sd)} W)"
+        text += f" ± {sig(half95(sd), SPREAD_DIGITS)} W (95 %)"
     return text
+
+
+def power_pm(w, sd=None) -> str:
+    """Power for people: '818 ± 1.6 W (95 %)'."""
+    return pm95(eng(w), sd, "W") if _finite(w) else "–"

@@ -62,7 +62,7 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
     from .trend_plot import trend_figure
     from .tables import read_layout, readings_form
     from .trend_run import Progress, TrendRun
-    from .trend_text import console_lines, trend_html
+    from .trend_text import console_lines, trend_html, trend_lead
 
     case = load_case(case_path, purpose="fit")
     case.require("fit")
@@ -96,9 +96,10 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
                 run.result, title=f"heatsight trend: {case.path.name}",
                 case_text=case_text(case, log_path) + [("reference window", f"t = {run.ref_window[0]:.6g} to "
                                                                             f"{run.ref_window[1]:.6g} s")],
-                figures={"face_map": figure_png(face_map(run.result)),
+                figures={"face_map": figure_png(face_map(run.result, zones=case.zones)),
                          "sensors": figure_png(sensor_health(run.result))},
-                extra_sections=[("Trend over the log", trend_html(summary, png, reader.timestamps))])
+                extra_sections=[("Trend over the log", trend_html(summary, png, reader.timestamps))],
+                lead=trend_lead(summary))
             outset.add("trend.png", png)
             outset.add("summary.json", json_text(summary))
             outset.add("report.html", html)

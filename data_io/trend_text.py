@@ -1,5 +1,9 @@
-"""Text of a trend for people: the report's trend section (HTML) and the console lines,
-from the trend's summary dict (file units: degC / K or W/m^2)."""
+"""Text of a trend for people: the report's opening flags, its trend section (HTML) and the
+console lines, from the trend's summary dict (file units: degC / K or W/m^2).  Flags come
+first; "±" is the half-width of the 95 % interval and says "(95 %)"; numbers have 3
+significant digits (data_io.report_format); the report shows heat flux in the display unit
+of data_io.display (kW/m^2 on a face whose largest value reaches 10 kW/m^2), the console in
+the file unit."""
 
 from __future__ import annotations
 
@@ -9,7 +13,8 @@ from html import escape
 
 import numpy as np
 
-from .display import FILE_UNITS
+from .display import FILE_UNITS, display_of, symbol
+from .report_format import eng, pm95
 
 
 def _every_words(n) -> str:
@@ -20,52 +25,112 @@ def _every_words(n) -> str:
     return f"every {n}{suffix} row"
 
 
-def _fmt(x, digits=4):
-    return "–" if x is None or not np.isfinite(x) else f"{x:.{digits}g}"
+def _finite(x) -> bool:
+    return x is not None and np.isfinite(x)
+
+
+class _Units:
+    """How a trend's values are shown: file units on the console; in the report the display
+    rule (kW/m^2 for a face reaching KILO_FLUX), judged on the reference fit's range."""
+
+    def __init__(self, summary: dict, report: bool):
+        q = summary["quantity"]
+        unit, diff_unit = summary["unit"], FILE_UNITS[q][1]
+        self.scale = 1.0
+        if report and q == "heat_flux":
+            ref = summary.get("reference_fit") or {}
+            d = display_of(q, summary.get("face", ""), [ref.get("min", np.nan), ref.get("max", np.nan)])
+            unit = diff_unit = d.unit
+            self.scale = 1e-3 if d.unit == "kW/m^2" else 1.0
+        self.unit = symbol(unit) if report else unit
+        self.diff_unit = symbol(diff_unit) if report else diff_unit
+
+    def value(self, x) -> str:
+        return eng(x * self.scale) if _finite(x) else "–"
+
+    def change(self, x, sd) -> str:
+        """'-4.98 ± 0.29 kW/m² (95 %)' (report) or '-4980 ± 290 W/m^2 (95 %)' (console)."""
+        if not _finite(x):
+            return "–"
+        return pm95(eng(x * self.scale), sd * self.scale if _finite(sd) else None, self.diff_unit)
+
+
+def _seconds(t) -> str:
+    """A time on the log's axis: hours from 2 h on (as on the trend figure), else seconds."""
+    return f"{eng(t / 3600.0)} h" if abs(t) >= 7200.0 else f"{eng(t)} s"
+
+
+def _when(f) -> str:
+    return f.get("first_flagged_start_iso") or f"t = {_seconds(f['first_flagged_start_s'])}"
+
+
+def _rows(n) -> str:
+    return f"{n} row{'' if n == 1 else 's'}"
+
+
+def flag_sentences(summary: dict, report: bool = True) -> list[str]:
+    """The trend's flags in plain words, first thing a reader sees."""
+    u = _Units(summary, report)
+    last = summary.get("last_row") or {}
+    out = []
+    def size(f):                  # the zone that moves most first
+        ch = (last.get("changes") or {}).get(f["zone"])
+        return -abs(ch[0]) if ch and _finite(ch[0]) else 0.0
+    for f in sorted(summary["flags"], key=size):
+        z = f["zone"]
+        ch = (last.get("changes") or {}).get(z)
+        text = f"Zone {z} changed beyond its flag limit from {_when(f)} ({_rows(f['flagged_rows'])} flagged)"
+        if ch:
+            text += f"; by the last row it has changed by {u.change(ch[0], ch[1])} from the reference window"
+        out.append(text + ".")
+    if not summary["flags"]:
+        n = len(summary["zones"])
+        out.append(f"No zone changed beyond its flag limit over the log ({summary['trend_rows']} rows inverted"
+                   + (f", {n} zones followed)." if n else "; the case defines no zones)."))
+    return out
+
+
+def _flag_list(summary: dict) -> str:
+    return "<ul>" + "".join(f"<li>{escape(t, quote=False)}</li>" for t in flag_sentences(summary)) + "</ul>"
+
+
+def trend_lead(summary: dict) -> str:
+    """The flags as safe HTML, to open the trend report."""
+    return "<p><strong>Trend over the log:</strong></p>" + _flag_list(summary)
 
 
 def trend_html(summary: dict, figure_png: bytes, reader_timestamps: bool) -> str:
-    """The report's trend section (safe HTML: every user or data string escaped)."""
-    unit = summary["unit"]
-    du = FILE_UNITS[summary["quantity"]][1]
+    """The report's trend section (safe HTML: every user or data string escaped): the flags,
+    the table of zones, the figure, then how the flags are set."""
+    u = _Units(summary, True)
     e = lambda s: escape(str(s), quote=True)  # noqa: E731
     ref = summary["reference_window"]
     when = (f"{ref['start_iso']} to {ref['end_iso']}" if "start_iso" in ref
-            else f"t = {ref['start_s']:.6g} to {ref['end_s']:.6g} s")
+            else f"t = {_seconds(ref['start_s'])} to {_seconds(ref['end_s'])}")
     if summary["mode"] == "every":
         what = f"{_every_words(summary['every'])} of the log ({summary['trend_rows']} rows)"
     else:
         what = (f"every steady window: {summary['windows']['steady']} of {summary['windows']['total']} windows of "
                 f"{summary['window_s']:g} s had every sensor within {summary['drift_K']:g} K")
-    parts = [f"<p>Inverted: {e(what)}, from {e(summary['rows_read'])} logged rows. The reference is the first "
-             f"steady window ({e(when)}); its fit is the one reported above, and it fixes the smoothing "
-             f"strength (α = {summary['strength']:.3g}) and the sensors of the whole trend.</p>",
-             f"<p>A zone's change is estimated from the difference of the readings to the reference window, "
-             f"in which the thermocouple offsets (the same at every time) cancel; its sd is that of the "
-             f"random noise only. A zone is flagged when its change exceeds "
-             f"{summary['flag_threshold_sd']:.2f} times that sd (Bonferroni over {summary['flag_comparisons']} "
-             f"comparisons at a family-wise {summary['flag_family_level']:.0%}). A large change of one zone "
-             f"spreads a little into its neighbours through the fit's smoothing, so judge flags by the size "
-             f"of the change: the zone that moves most is where the change is.</p>"]
+    parts = [_flag_list(summary)]
     rows = []
     first, last = summary.get("first_row"), summary.get("last_row")
 
     def shown(row, z):          # a zone mean of a row (in the summary's unit)
         return row["zones"][z] if row else None
-    for z in summary["zones"]:
+    flagged_first = sorted(summary["zones"], key=lambda z: not any(x["zone"] == z for x in summary["flags"]))
+    for z in flagged_first:
         f = next((x for x in summary["flags"] if x["zone"] == z), None)
-        flagged = "no"
-        if f:
-            at = f.get("first_flagged_start_iso") or f"t = {f['first_flagged_start_s']:.6g} s"
-            flagged = f"yes, from {at} ({f['flagged_rows']} row{'' if f['flagged_rows'] == 1 else 's'})"
+        flagged = f"yes, from {_when(f)} ({_rows(f['flagged_rows'])})" if f else "no"
         ch = last["changes"].get(z) if last else None
-        rows.append(f"<tr><td>{e(z)}</td><td class=\"num\">{e(_fmt(shown(first, z), 6))}</td>"
-                    f"<td class=\"num\">{e(_fmt(shown(last, z), 6))}</td>"
-                    f"<td class=\"num\">{e(_fmt(ch[0] if ch else None, 3))} ± {e(_fmt(ch[1] if ch else None, 2))}</td>"
-                    f"<td>{e(flagged)}</td></tr>")
+        rows.append(f"<tr><td>{e(z)}</td><td>{e(flagged)}</td>"
+                    f"<td class=\"num\">{e(u.change(ch[0], ch[1]) if ch else '–')}</td>"
+                    f"<td class=\"num\">{e(u.value(shown(first, z)))}</td>"
+                    f"<td class=\"num\">{e(u.value(shown(last, z)))}</td></tr>")
     if rows:
-        parts.append(f"<table><tr><th>zone</th><th>first row [{e(unit)}]</th><th>last row [{e(unit)}]</th>"
-                     f"<th>last change [{e(du)}] ± sd</th><th>flagged</th></tr>" + "".join(rows) + "</table>")
+        parts.append(f"<table><tr><th>zone</th><th>flagged</th><th>change by the last row</th>"
+                     f"<th>first row [{e(u.unit)}]</th><th>last row [{e(u.unit)}]</th></tr>"
+                     + "".join(rows) + "</table>")
     else:
         parts.append("<p>The case defines no zones on the estimated face, so nothing is flagged; add "
                      "[[zones]] to the case to follow heater zones.</p>")
@@ -74,32 +139,40 @@ def trend_html(summary: dict, figure_png: bytes, reader_timestamps: bool) -> str
                "reference window with its flag limit; ▼ marks flagged rows.")
     parts.append(f'<figure id="figure-trend"><img alt="{e(caption)}" src="data:image/png;base64,{data}">'
                  f"<figcaption>{e(caption)}</figcaption></figure>")
+    parts += [f"<p>Inverted: {e(what)}, from {e(summary['rows_read'])} logged rows. The reference is the first "
+              f"steady window ({e(when)}); its fit is the one reported above, and it fixes the smoothing "
+              f"strength and the sensors of the whole trend.</p>",
+              f"<p>A zone's change is estimated from the difference of the readings to the reference window, "
+              f"in which the thermocouple offsets (the same at every time) cancel; its uncertainty is that of "
+              f"the random noise only. A zone is flagged when its change exceeds "
+              f"{summary['flag_threshold_sd']:.2f} standard deviations of that noise (a limit that keeps the "
+              f"chance of any false flag over all {summary['flag_comparisons']} rows and zones below "
+              f"{summary['flag_family_level']:.0%}). A large change of one zone spreads a little into its "
+              f"neighbours through the fit's smoothing, so judge flags by the size of the change: the zone "
+              f"that moves most is where the change is.</p>"]
     return "\n".join(parts)
 
 
 def console_lines(summary: dict, folder) -> str:
-    unit = summary["unit"]
-    du = FILE_UNITS[summary["quantity"]][1]
+    """The trend for the terminal: the flags first, then what was read, in file units."""
+    u = _Units(summary, False)
     ref = summary["reference_window"]
-    lines = [f"trend of the {summary['face']} face {summary['quantity'].replace('_', ' ')} ({unit}) over "
-             f"{summary['log']}:",
-             f"  rows read       {summary['rows_read']}; windows of {summary['window_s']:g} s: "
-             f"{summary['windows']['steady']} steady of {summary['windows']['total']}",
-             f"  trend rows      {summary['trend_rows']}"
-             + (f" ({_every_words(summary['every'])})" if summary["mode"] == "every" else " (steady windows)"),
-             f"  reference       t = {ref['start_s']:.6g} to {ref['end_s']:.6g} s; strength "
-             f"{summary['strength']:.3g}; {len(summary['sensors_used'])} sensors"
-             + (f" (set aside: {', '.join(summary['set_aside'])})" if summary["set_aside"] else ""),
-             f"  flag limit      |change| > {summary['flag_threshold_sd']:.2f} sd"]
+    lines = [f"trend of the {summary['face']} face {summary['quantity'].replace('_', ' ')} ({summary['unit']}) over "
+             f"{summary['log']}:"]
+    lines += [f"  {t}" for t in flag_sentences(summary, report=False)]
+    lines += [f"  rows read       {summary['rows_read']}; windows of {summary['window_s']:g} s: "
+              f"{summary['windows']['steady']} steady of {summary['windows']['total']}",
+              f"  trend rows      {summary['trend_rows']}"
+              + (f" ({_every_words(summary['every'])})" if summary["mode"] == "every" else " (steady windows)"),
+              f"  reference       t = {eng(ref['start_s'])} to {eng(ref['end_s'])} s; "
+              f"{len(summary['sensors_used'])} sensors"
+              + (f" (set aside: {', '.join(summary['set_aside'])})" if summary["set_aside"] else ""),
+              f"  flag limit      |change| > {summary['flag_threshold_sd']:.2f} sd of the noise"]
     last = summary.get("last_row")
     for z in summary["zones"]:
-        f = next((x for x in summary["flags"] if x["zone"] == z), None)
         ch = last["changes"][z] if last else (math.nan, math.nan)
-        text = f"  zone {z:<10} last change {_fmt(ch[0], 3)} +- {_fmt(ch[1], 2)} {du}"
-        if f:
-            text += (f"  FLAGGED from t = {f['first_flagged_start_s']:.6g} s ({f['flagged_rows']} "
-                     f"row{'' if f['flagged_rows'] == 1 else 's'})")
-        lines.append(text)
+        flagged = any(f["zone"] == z for f in summary["flags"])
+        lines.append(f"  zone {z:<10} last change {u.change(ch[0], ch[1])}" + ("  FLAGGED" if flagged else ""))
     for w in summary["warnings"]:
         lines.append(f"  warning: {w}")
     lines.append(f"outputs in {folder}")
