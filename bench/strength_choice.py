@@ -2,9 +2,12 @@
 four rules on seeded synthetic scenarios whose readings come from the independent
 finite-element solver (tests/fem_cylinder.py), not from the fit's basis.
 
-Prints, per rule: RMS error of the face estimate relative to the posterior RMS sd, the
-fraction of face grid points whose truth lies inside the 95 % band, and how often the
-truth of the total power lies inside its 95 % band.  Run:  python bench/strength_choice.py
+Prints, per rule: RMS error of the face estimate, that error relative to the posterior RMS
+sd, the fraction of face grid points whose truth lies inside the 95 % band, how often the
+truth of the total power lies inside its 95 % band, and the sharpness (mean half width of
+the 95 % band / the truth's sd over the face).  'learned' is the evidence with the learned
+prior (inverse.hyperprior, the default); 'evidence' keeps the fixed prior (length scale =
+radius, gradient order) and averages over alpha only.  Run:  python bench/strength_choice.py
 """
 
 from __future__ import annotations
@@ -89,8 +92,17 @@ def main(replicates=12):
         run(*scenario, replicates=replicates)
 
 
+RULES = {  # label: inverse.fit options
+    "learned": dict(strength="evidence", prior="learned"),
+    "evidence": dict(strength="evidence", prior="fixed"),
+    "gcv": dict(strength="gcv"),
+    "lcurve": dict(strength="lcurve"),
+    "discrepancy": dict(strength="discrepancy"),
+}
+
+
 def run(name, case, readings, truth_of, power, replicates):
-    rules = ["evidence", "gcv", "lcurve", "discrepancy"]
+    rules = list(RULES)
     stats = {k: [] for k in rules}
     for seed in range(replicates):
         rng = np.random.default_rng(seed)
@@ -98,7 +110,7 @@ def run(name, case, readings, truth_of, power, replicates):
         for rule in rules:
             try:
                 with threadpool_limits(1):
-                    res = inverse.fit(case, rd, strength=rule, keep_all_sensors=True)
+                    res = inverse.fit(case, rd, keep_all_sensors=True, **RULES[rule])
             except inverse.InverseError as exc:
                 print(f"seed {seed} {rule}: {exc}")
                 continue
@@ -109,14 +121,17 @@ def run(name, case, readings, truth_of, power, replicates):
             cover = np.mean((truth >= g["lower"]) & (truth <= g["upper"]))
             s = res.summary
             pin = abs(s["total_power_W"] - power) <= 1.96 * s["total_power_sd_W"]
-            stats[rule].append((err, err / sd, cover, pin))
+            sharp = np.mean(g["upper"] - g["lower"]) / 2 / np.std(truth)
+            stats[rule].append((err, err / sd, cover, pin, sharp))
     print(f"{name}: {replicates} seeded replicates, 20 sensors, scikit-fem readings")
-    print(f"{'rule':<12} {'RMS error':>10} {'error/sd':>9} {'coverage':>9} {'power in band':>14}")
+    print(f"{'rule':<12} {'RMS error':>10} {'error/sd':>9} {'coverage':>9} {'power in band':>14} "
+          f"{'half band/truth sd':>19}")
     for rule in rules:
         a = np.array(stats[rule], dtype=float)
         if a.size == 0:
             continue
-        print(f"{rule:<12} {a[:, 0].mean():10.3g} {a[:, 1].mean():9.2f} {a[:, 2].mean():9.2f} {a[:, 3].mean():14.2f}")
+        print(f"{rule:<12} {a[:, 0].mean():10.3g} {a[:, 1].mean():9.2f} {a[:, 2].mean():9.2f} {a[:, 3].mean():14.2f} "
+              f"{a[:, 4].mean():19.2f}")
 
 
 if __name__ == "__main__":

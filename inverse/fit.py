@@ -24,6 +24,7 @@ from ..forward import Convection, CylinderModel
 from .diagnostics import screen_outliers, sensor_table
 from .errors import InverseError
 from .face_grid import display_grid
+from .hyperprior import learn_prior, matern_precision
 from .linear_gaussian import LinearGaussianProblem
 from .lmfit_solver import fit_lmfit
 from .noise import noise_covariance
@@ -37,6 +38,7 @@ DEFAULT_HARMONICS = 6
 #: prior precision of the nominal direction relative to its smoothness prior (nearly flat)
 NOMINAL_PRECISION_FACTOR = 1e-4
 DEFAULT_TERMS = 10
+DEFAULT_PRIOR = "learned"
 #: sensors farther from the unknown face than this fraction of the radius see little detail
 FAR_FRACTION = 0.25  # common practice, no source
 
@@ -51,14 +53,7 @@ def _option(case, name, given, default):
 
 def prior_diagonal(basis, radius, smoothing):
     """P_k = (N_k / A) (1 + a^2 ev_k)^s (dimensionless)."""
-    s = SMOOTHING_ORDER[smoothing]
-    norms = basis.norms()
-    area = _face_area(basis.face, basis.model.cylinder)
-    return norms / area * (1.0 + radius ** 2 * basis.surface_eigenvalues()) ** s
-
-
-def _face_area(face, cyl):
-    return 2 * math.pi * cyl.radius * cyl.height if face == "side" else math.pi * cyl.radius ** 2
+    return matern_precision(basis, radius, SMOOTHING_ORDER[smoothing])
 
 
 class _Design:
@@ -93,7 +88,7 @@ def _nominal_direction(basis):
 def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=None,
         keep_all_sensors=None, threshold=None, tolerance: float = 1e-8, grid=(41, 72),
         calibrate=None, solver: str = "auto", loss=None, common_offset_sd=None,
-        monte_carlo: int = 0, seed: int = 0, progress=None) -> FitResult:
+        monte_carlo: int = 0, seed: int = 0, progress=None, prior=None) -> FitResult:
     """Fit the unknown face of `case` (anything with .cylinder, .faces and optionally .zones
     and .fit options) to `readings` (SensorReadings or a table with r, theta, z,
     temperature, sigma, offset_sd, position_tolerance in SI).
@@ -106,6 +101,9 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
     common_offset_sd: prior sd [K] of an offset shared by all sensors (marginalized).
     monte_carlo: number of seeded draws that also perturb sensor positions within their
     placement tolerance (0 = off); progress(done, total) is called while drawing.
+    prior: 'learned' (default: strength, length scale and order averaged over with the
+    evidence, inverse.hyperprior; used with strength 'evidence') or 'fixed' (length scale =
+    radius, order from `smoothing`, average over alpha only).
     """
     cyl, faces = case.cylinder, case.faces
     unknown = [f for f, c in faces.items() if c.unknown]
@@ -124,6 +122,9 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
     harmonics = int(_option(case, "harmonics", harmonics, DEFAULT_HARMONICS))
     terms = int(_option(case, "terms", terms, DEFAULT_TERMS))
     keep_all = bool(_option(case, "keep_all_sensors", keep_all_sensors, False))
+    prior_mode = _option(case, "prior", prior, DEFAULT_PRIOR)
+    if prior_mode not in ("learned", "fixed"):
+        raise InverseError(f"prior must be 'learned' or 'fixed', got {prior_mode!r}")
     loss = _option(case, "loss", loss, "linear")
     common_offset_sd = _option(case, "common_offset_sd", common_offset_sd, None)
     if calibrate is None:
@@ -201,6 +202,10 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
     nonlinear = None
     if calibrate:
         post, nonlinear, design = _calibrate(design, rd, kept, final, choice.alpha, P, calibrate)
+    elif strength == "evidence" and prior_mode == "learned" and not monte_carlo:
+        avg = learn_prior(final, basis, nominal=u_uniform > 0, nominal_factor=NOMINAL_PRECISION_FACTOR)
+        warnings.extend(avg.warnings)
+        post = Posterior(avg.coefficients(), avg.posterior_covariance(), choice.alpha, avg)
     elif strength == "evidence" or (isinstance(strength, str) and strength == "auto"):
         avg = StrengthAverage(final)
         warnings.extend(avg.warnings)
@@ -241,6 +246,8 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
                            warnings=warnings, grid_size=grid, nonlinear=nonlinear,
                            monte_carlo=mc, smoothing=smoothing, strength_request=strength)
     result.summary["loss"] = loss
+    if hasattr(post.averaged, "description"):
+        result.summary["prior"] = post.averaged.description()
     return result
 
 
