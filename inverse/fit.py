@@ -29,6 +29,7 @@ from .linear_gaussian import LinearGaussianProblem
 from .lmfit_solver import fit_lmfit
 from .noise import noise_covariance
 from .readings import SensorReadings, as_readings
+from .robust import gross_faults, nominal_level
 from .result import FitResult, Posterior
 from .strength import choose_strength
 from .strength_average import StrengthAverage
@@ -151,19 +152,23 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
         warnings.append(f"series truncation error at sensor {rd.names[worst]} is {trunc[worst]:.2g} K, "
                         "more than a tenth of its sigma; the sensor may sit very close to a face with data")
 
+    # Screening order: gross faults (overflow codes and the like) go before anything the
+    # readings feed -- the nominal level, the placement variance, the strength.
+    gross = [] if keep_all else gross_faults(rd.temperature - t0, G @ u_uniform, base_var, rd.names)
+    ok = np.ones(rd.n, dtype=bool)
+    ok[[g.index for g in gross]] = False
+
     def build(G, t0, var):
-        gu = G @ u_uniform
-        wgu = np.linalg.solve(var, gu) if var.ndim == 2 else gu / var
-        denom = float(gu @ wgu)
-        gamma = float(wgu @ (rd.temperature - t0)) / denom if denom > 0 else 0.0
+        gamma = nominal_level(rd.temperature - t0, G @ u_uniform, var, ok)
         return LinearGaussianProblem(G, rd.temperature, t0, var, P, c0=gamma * u_uniform)
 
     var = base_var
     problem = build(G, t0, var)
     # Placement tolerance: effective variance (grad T . delta x)^2 with delta x uniform in +-tol.
     if np.any(rd.position_tolerance > 0):
-        c_first = choose_strength(problem, strength if not isinstance(strength, str) else "evidence")
-        c_hat = problem.coefficients(c_first.alpha)
+        first = problem.subset(ok)
+        c_first = choose_strength(first, strength if not isinstance(strength, str) else "evidence")
+        c_hat = first.coefficients(c_first.alpha)
         grad = ev.gradient + np.einsum("dpk,k->dp", dG, c_hat)
         pos_var = (grad ** 2).sum(axis=0) * rd.position_tolerance ** 2 / 3.0
         var = base_var + (np.diag(pos_var) if base_var.ndim == 2 else pos_var)
@@ -176,7 +181,8 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
         if keep_all:
             pre_kept, pre_alpha = np.ones(rd.n, dtype=bool), choose_strength(problem, strength).alpha
         else:
-            pre = screen_outliers(problem, strength=strength, threshold=threshold, names=rd.names)
+            pre = screen_outliers(problem, strength=strength, threshold=threshold, names=rd.names,
+                                  preset=gross, model_first=True)
             pre_kept, pre_alpha = pre.kept, pre.strength.alpha
         _, _, design = _calibrate(design, rd, pre_kept, problem.subset(np.flatnonzero(pre_kept)),
                                   pre_alpha, P, calibrate)
@@ -191,7 +197,8 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
         table = sensor_table(problem, choice.alpha, names=rd.names)
         set_aside = []
     else:
-        screening = screen_outliers(problem, strength=strength, threshold=threshold, names=rd.names)
+        screening = screen_outliers(problem, strength=strength, threshold=threshold, names=rd.names,
+                                    preset=gross, model_first=True)
         choice, final, kept = screening.strength, screening.problem, screening.kept
         table, set_aside = screening.table, screening.set_aside
         warnings.extend(screening.warnings)
@@ -204,7 +211,8 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
         post, nonlinear, design = _calibrate(design, rd, kept, final, choice.alpha, P, calibrate)
     elif strength == "evidence" and prior_mode == "learned" and not monte_carlo:
         avg = learn_prior(final, basis, nominal=u_uniform > 0, nominal_factor=NOMINAL_PRECISION_FACTOR)
-        warnings.extend(avg.warnings)
+        # the fixed prior's strength-grid notes do not apply to the learned prior's answer
+        warnings = [w for w in dict.fromkeys(warnings) if w not in choice.warnings] + list(avg.warnings)
         post = Posterior(avg.coefficients(), avg.posterior_covariance(), choice.alpha, avg)
     elif strength == "evidence" or (isinstance(strength, str) and strength == "auto"):
         avg = StrengthAverage(final)

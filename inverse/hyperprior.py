@@ -27,7 +27,7 @@ Hyperpriors (proper, weakly informative):
 - log l uniform on [D / 20, 4 D], D = the face's size (the radius for an end face, the
   larger of radius and height for the side): from well below the sensor spacing of any
   practical layout to smoother than the face itself.
-- s uniform on {1, 2, 3} (s = 0 is white noise on the face: its amplitude grows with the
+- s uniform on {1, 2, 3, 4, 5} (s = 0 is white noise on the face: its amplitude grows with the
   number of modes kept).
 
 The evidence p(d | alpha, l, s) comes from one SVD per (l, s) (LinearGaussianProblem); the
@@ -49,7 +49,7 @@ from .strength_average import mixture_band
 LOG_AMPLITUDE_SD = math.log(10.0) / 2.0
 LENGTH_RANGE = (1.0 / 20.0, 4.0)      # times the face size D
 N_LENGTHS = 9
-ORDERS = (1.0, 2.0, 3.0)
+ORDERS = (1.0, 2.0, 3.0, 4.0, 5.0)
 #: grid step in units of LOG_AMPLITUDE_SD, starting half-width, and the weight (relative to
 #: the largest) below which an edge of the amplitude grid counts as negligible
 STEP, HALF_WIDTH, EDGE = 0.1, 5.0, 1e-9
@@ -96,12 +96,12 @@ class LearnedPrior:
     """
 
     def __init__(self, problem: LinearGaussianProblem, basis, nominal=None, nominal_factor: float = 1.0,
-                 lengths=None, orders=ORDERS):
+                 lengths=None, orders=None):
         a = face_size(basis)
         self.length_range = (LENGTH_RANGE[0] * a, LENGTH_RANGE[1] * a)
         self.lengths = (np.geomspace(*self.length_range, N_LENGTHS) if lengths is None
                         else np.asarray(lengths, dtype=float).ravel())
-        self.orders = tuple(float(s) for s in orders)
+        self.orders = tuple(float(s) for s in (ORDERS if orders is None else orders))
         if self.lengths.size < 1 or len(self.orders) < 1 or np.any(self.lengths <= 0):
             raise InverseError("the prior family needs positive length scales and at least one order")
         K = problem.K
