@@ -25,6 +25,7 @@ from .diagnostics import screen_outliers, sensor_table
 from .errors import InverseError
 from .face_grid import display_grid
 from .hyperprior import learn_prior, matern_precision
+from .layout import FAR_FRACTION, angular_note
 from .linear_gaussian import LinearGaussianProblem
 from .lmfit_solver import fit_lmfit
 from .noise import noise_covariance
@@ -40,8 +41,6 @@ DEFAULT_HARMONICS = 6
 NOMINAL_PRECISION_FACTOR = 1e-4
 DEFAULT_TERMS = 10
 DEFAULT_PRIOR = "learned"
-#: sensors farther from the unknown face than this fraction of the radius see little detail
-FAR_FRACTION = 0.25  # common practice, no source
 
 
 def _option(case, name, given, default):
@@ -262,17 +261,10 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
 def _layout_warnings(face, cyl, rd, post, problem, P, alpha):
     out = []
     a = cyl.radius
-    if face != "side":
-        off_axis = rd.r > 1e-3 * a
-        angles = np.round(np.mod(rd.theta[off_axis], 2 * np.pi), 6)
-        if np.unique(angles).size <= 1:
-            out.append("all sensors lie at one angle (or on the axis): the layout sees no azimuthal "
-                       "variation; sin/cos harmonics of the profile are prior only")
-        dist = np.abs(rd.z - (0.0 if face == "bottom" else cyl.height))
-    else:
-        if np.unique(np.round(np.mod(rd.theta, 2 * np.pi), 6)).size <= 1:
-            out.append("all sensors lie at one angle: the layout sees no azimuthal variation of the wall")
-        dist = a - rd.r
+    angular = angular_note(face, a, rd.r, rd.theta)
+    if angular:
+        out.append(angular)
+    dist = a - rd.r if face == "side" else np.abs(rd.z - (0.0 if face == "bottom" else cyl.height))
     if dist.size and dist.min() > FAR_FRACTION * a:
         out.append(f"the nearest sensor is {dist.min() * 1e3:.3g} mm from the unknown face "
                    f"(over {FAR_FRACTION:.0%} of the radius): fine detail of the profile is unresolved")
