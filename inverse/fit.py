@@ -25,7 +25,9 @@ from .diagnostics import screen_outliers, sensor_table
 from .errors import InverseError
 from .face_grid import display_grid
 from .hyperprior import learn_prior, matern_precision
+from .functionals import face_functionals
 from .layout import FAR_FRACTION, angular_note
+from .resolution import unresolved_warning
 from .linear_gaussian import LinearGaussianProblem
 from .lmfit_solver import fit_lmfit
 from .noise import noise_covariance
@@ -234,6 +236,10 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
             post = Posterior(lf.coefficients, lf.coefficient_covariance, choice.alpha, None)
 
     warnings.extend(_layout_warnings(face, cyl, rd.subset(kept), post, final, P, choice.alpha))
+    unresolved = unresolved_warning(post, final, face_functionals(design, getattr(case, "zones", None) or []),
+                                    face, rd.offset_sd[kept], common_offset_sd)
+    if unresolved:
+        warnings.append(unresolved)
     chi2 = float(final.chi2(choice.alpha))
     n_kept = int(kept.sum())
     edf = float(final.effective_parameters(choice.alpha))
