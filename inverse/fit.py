@@ -182,8 +182,9 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
         if keep_all:
             pre_kept, pre_alpha = np.ones(rd.n, dtype=bool), choose_strength(problem, strength).alpha
         else:
+            # at the nominal parameters the model is known to be off: no model-first rule here
             pre = screen_outliers(problem, strength=strength, threshold=threshold, names=rd.names,
-                                  preset=gross, model_first=True)
+                                  preset=gross)
             pre_kept, pre_alpha = pre.kept, pre.strength.alpha
         _, _, design = _calibrate(design, rd, pre_kept, problem.subset(np.flatnonzero(pre_kept)),
                                   pre_alpha, P, calibrate)
