@@ -125,7 +125,7 @@ def chuck_scenario():
 
 
 def main(replicates=12):
-    for scenario in (platen_scenario(), wall_scenario()):
+    for scenario in (platen_scenario(), wall_scenario(), chuck_scenario()):
         run(*scenario, replicates=replicates)
 
 
@@ -138,7 +138,7 @@ RULES = {  # label: inverse.fit options
 }
 
 
-def run(name, case, readings, truth_of, power, replicates):
+def run(name, case, readings, truth_of, power, zone_truth, replicates):
     rules = list(RULES)
     stats = {k: [] for k in rules}
     for seed in range(replicates):

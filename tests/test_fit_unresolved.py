@@ -80,3 +80,21 @@ def test_resolving_layout_gives_no_such_warning():
     with threadpool_limits(1):
         res = inverse.fit(platen(), readings(r, th, z, fem.temperature(r, th, z), seed=4), grid=(3, 4))
     assert not any("What would help" in w for w in res.warnings), res.warnings
+
+
+def test_summary_json_reports_what_the_data_chose(chuck):
+    import json
+
+    from heatsight.data_io.fit_outputs import summary_dict
+    case, r, th, z, t = chuck
+    rd = inverse.SensorReadings([f"T{i}" for i in range(N)], r, th, z, t, 0.1, TAU, 0.0)
+    with threadpool_limits(1):
+        res = inverse.fit(case, rd, grid=(5, 12))
+    prior = json.loads(json.dumps(summary_dict(res)))["prior"]
+    lo, hi = prior["length_scale_hyperprior_m"]
+    assert lo == pytest.approx(A / 20) and hi == pytest.approx(4 * A)
+    assert lo * (1 - 1e-9) <= prior["length_scale_90_m"][0] <= prior["length_scale_m"] * 1.0001
+    assert prior["length_scale_m"] <= prior["length_scale_90_m"][1] * 1.0001 <= hi * 1.0001
+    assert sum(prior["order_weights"].values()) == pytest.approx(1.0)
+    assert prior["amplitude_90"][0] < prior["amplitude_median"] < prior["amplitude_90"][1]
+    assert prior["amplitude_unit"] == "W/m^2"
