@@ -24,16 +24,16 @@ from ..forward import Convection, CylinderModel
 from .diagnostics import screen_outliers, sensor_table
 from .errors import InverseError
 from .face_grid import display_grid
-from .hyperprior import learn_prior, matern_precision
 from .functionals import face_functionals
+from .hyperprior import learn_prior, matern_precision
 from .layout import FAR_FRACTION, angular_note
-from .resolution import unresolved_warning
 from .linear_gaussian import LinearGaussianProblem
 from .lmfit_solver import fit_lmfit
 from .noise import noise_covariance
 from .readings import SensorReadings, as_readings
-from .robust import gross_faults, nominal_level
+from .resolution import unresolved_warning
 from .result import FitResult, Posterior
+from .robust import gross_faults, nominal_level
 from .strength import choose_strength
 from .strength_average import StrengthAverage
 

@@ -13,7 +13,7 @@ from scipy.stats import multivariate_normal
 
 import heatsight.forward as fw
 from heatsight.inverse import hyperprior
-from heatsight.inverse.hyperprior import LOG_AMPLITUDE_SD, LearnedPrior, learn_prior, matern_precision
+from heatsight.inverse.hyperprior import LearnedPrior, learn_prior, matern_precision
 from heatsight.inverse.linear_gaussian import LinearGaussianProblem
 
 A, L, K = 0.08, 0.03, 20.0
