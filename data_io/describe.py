@@ -9,15 +9,13 @@ from collections import Counter
 import numpy as np
 import pandas as pd
 
+from ..inverse.layout import FAR_FRACTION, angular_note
 from . import thermocouples as tc
 from .case import Case
 from .units import format_quantity, from_si
 
 FACE_PLACE = {"bottom": "z = 0", "top": "z = height", "side": "r = radius"}
 
-#: Sensors farther than this fraction of the radius from the unknown face see only its
-#: broad shape (common practice, no source).
-FAR_FRACTION = 0.25
 
 
 def _both(written: str, si: str) -> str:
@@ -52,15 +50,6 @@ def _face_line(case: Case, name: str) -> str:
     return head
 
 
-def _angle_span(theta: np.ndarray) -> float:
-    """Smallest arc [rad] containing all angles."""
-    t = np.sort(np.mod(theta, 2 * math.pi))
-    if t.size < 2:
-        return 0.0
-    gaps = np.diff(np.concatenate([t, [t[0] + 2 * math.pi]]))
-    return float(2 * math.pi - gaps.max())
-
-
 def layout_notes(case: Case, layout: pd.DataFrame) -> list[str]:
     """Simple blind-spot notes on a sensor layout relative to the unknown face."""
     notes: list[str] = []
@@ -74,19 +63,9 @@ def layout_notes(case: Case, layout: pd.DataFrame) -> list[str]:
     if n < 3:
         notes.append(f"only {n} sensor{'s' if n > 1 else ''}: the fit can estimate little more "
                      f"than the mean of the {face} face")
-    off_axis = r > 0.02 * a
-    if off_axis.sum() >= 2:
-        span = _angle_span(th[off_axis])
-        if span < math.radians(1.0):
-            ang = math.degrees(float(np.mod(th[off_axis][0], 2 * math.pi)))
-            notes.append(f"all off-axis sensors lie at one angle (theta = {ang:.4g} deg): how the {face} "
-                         f"face varies around the axis cannot be seen")
-        elif span < math.pi / 2:
-            notes.append(f"the sensors cover only {math.degrees(span):.0f} deg around the axis: "
-                         f"angular variation of the {face} face is poorly resolved")
-    elif off_axis.sum() <= 1 and n >= 1:
-        notes.append(f"at most one sensor is off the axis: how the {face} face varies around the "
-                     f"axis cannot be seen")
+    angular = angular_note(face, a, r, th)
+    if angular:
+        notes.append(angular)
     if face == "side":
         dist = a - r
         if n >= 2 and np.ptp(z) < 1e-6 * max(a, 1e-300) and not cyl.semi_infinite:

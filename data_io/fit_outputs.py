@@ -102,6 +102,10 @@ def summary_dict(result, *, case_path=None, readings_path=None) -> dict:
             cal[key] = {"face": c["face"], "parameter": c["parameter"], "value": v, "sd": sd,
                         "unit": _TEMPERATURE.unit if c["parameter"] == "ambient" else "W/(m^2*K)"}
         out["calibrated"] = cal
+    if "prior" in s:
+        # what the data chose for the learned prior (inverse.hyperprior); amplitudes are
+        # differences in the face's unit (K or W/m^2), lengths in m
+        out["prior"] = dict(s["prior"], amplitude_unit="K" if s["quantity"] == "temperature" else "W/m^2")
     if case_path is not None:
         out["case"] = str(case_path)
     if readings_path is not None:

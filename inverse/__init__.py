@@ -5,12 +5,14 @@ from .lmfit_solver import LmfitFit, fit_linear_lmfit, fit_lmfit
 from .noise import Whitener, noise_covariance
 from .strength import StrengthChoice, choose_strength, default_alphas
 from .strength_average import StrengthAverage
+from .hyperprior import LearnedPrior, learn_prior
+from .resolution import unresolved_warning
 
 __all__ = [
     "InverseError", "LinearGaussianProblem", "LmfitFit", "StrengthAverage", "StrengthChoice",
     "StrengthError", "Whitener", "averaged_loo", "choose_strength", "default_alphas",
     "default_threshold", "fit_linear_lmfit", "fit_lmfit", "noise_covariance", "screen_outliers",
-    "sensor_table",
+    "sensor_table", "LearnedPrior", "learn_prior", "unresolved_warning",
 ]
 
 from .fit import fit, prior_diagonal  # noqa: E402

@@ -14,6 +14,13 @@ level is 0.02 rather than 0.05 so that "no sensor set aside in >= 95 % of health
 sets" holds with a margin: the bound is nearly tight for weakly correlated scores, so a 5 %
 family level sits right on the 95 % line. t = 3.23 for m = 16, 3.29 for 20, 3.42 for 32,
 3.61 for 64; a fault of 5 predictive sd is caught about 95 % of the time at m = 20.
+
+Model first (`model_first=True`, as inverse.fit screens): when the screening would set
+aside several sensors together -- at least MODEL_SUSPECT_COUNT, or more than
+MODEL_SUSPECT_FRACTION of them (and always more than one) -- a shared cause (basis, prior
+or face conditions) is likelier than that many independent faults, so none of them is set
+aside; they are flagged 'suspect' and one warning says the model is the likely culprit.
+Gross faults found by the robust first pass (inverse.robust) arrive as `preset` and stay out.
 """
 
 from __future__ import annotations
@@ -30,6 +37,8 @@ from .linear_gaussian import LinearGaussianProblem
 from .strength import StrengthChoice, choose_strength, default_alphas
 
 FAMILY_LEVEL = 0.02
+MODEL_SUSPECT_COUNT = 3        # common practice, no source
+MODEL_SUSPECT_FRACTION = 0.15  # common practice, no source
 COLUMNS = ("sensor", "measured", "fitted", "residual", "standardized", "leverage",
            "loo_predicted", "loo_sd", "standardized_loo", "flag")
 
@@ -144,9 +153,15 @@ class Screening:
     warnings: list = field(default_factory=list)
 
 
+def model_suspect(count: int, n: int) -> bool:
+    """Several sensors failing together point at the model: count >= 2 and (count >=
+    MODEL_SUSPECT_COUNT or count > MODEL_SUSPECT_FRACTION n)."""
+    return count >= 2 and (count >= MODEL_SUSPECT_COUNT or count > MODEL_SUSPECT_FRACTION * n)
+
+
 def screen_outliers(problem: LinearGaussianProblem, strength="evidence", threshold: float | None = None,
                     names=None, family_level: float = FAMILY_LEVEL, max_set_aside: int | None = None,
-                    min_kept: int = 3) -> Screening:
+                    min_kept: int = 3, preset=(), model_first: bool = False) -> Screening:
     """Set aside outlying sensors one at a time, then fit with alpha chosen by `strength`.
 
     Repeat on the sensors still in: score every sensor by `averaged_loo` (for a fixed
@@ -154,6 +169,7 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
     exceeds the threshold (default Phi^-1(1 - family_level / (2 m)), m = sensors still
     in), set that sensor aside. Stops at `max_set_aside` (default n // 4: beyond that the
     model, not the sensors, is suspect) or when only `min_kept` sensors would remain.
+    preset: SetAside entries (gross faults) out from the start. model_first: see module doc.
     """
     n = problem.n
     names = _names(names, n)
@@ -161,7 +177,11 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
     fixed = not isinstance(strength, str)
     keep = np.ones(n, dtype=bool)
     score = np.full(n, np.nan)
-    out, warns = [], []
+    out, warns = list(preset), []
+    for s in out:
+        keep[s.index] = False
+        score[s.index] = s.score
+    n_preset = len(out)
     while True:
         idx = np.flatnonzero(keep)
         sub = problem if idx.size == n else problem.subset(idx)
@@ -175,7 +195,7 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
         j = int(np.argmax(np.abs(sc.z)))
         if abs(sc.z[j]) <= t:
             break
-        if len(out) >= cap or sub.n - 1 < min_kept:
+        if len(out) - n_preset >= cap or sub.n - 1 < min_kept:
             warns.append(f"sensor {names[idx[j]]} still exceeds the threshold (|score| = {abs(sc.z[j]):.2f} > "
                          f"{t:.2f}) but no more sensors are set aside (limit {cap}, at least {min_kept} kept); "
                          "check the model and the sensor layout")
@@ -187,10 +207,26 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
                   f"family-wise {100 * family_level:g} % over {sub.n} sensors)")
         out.append(SetAside(names[i], i, float(sc.z[j]), t, reason))
         keep[i] = False
+    together = out[n_preset:]
+    if model_first and model_suspect(len(together), n):
+        for s in together:
+            keep[s.index] = True
+        idx = np.flatnonzero(keep)
+        sub = problem if idx.size == n else problem.subset(idx)
+        out = out[:n_preset]
+        if fixed:
+            score[idx] = sub.standardized_loo(float(strength))
+        else:
+            score[idx] = averaged_loo(sub).z
+        warns.append(f"{len(together)} sensors ({', '.join(s.sensor for s in together)}) disagree with the "
+                     "model together: the model (face conditions, h or ambient, the prior or the sensor "
+                     "positions) is the likelier culprit than that many faults, so none of them is set "
+                     "aside; they are flagged suspect")
     choice = choose_strength(sub, strength)
     warns.extend(choice.warnings)
     table = _final_table(problem, sub, idx, keep, choice.alpha, names)
     table["score"] = score
+    t = default_threshold(sub.n, family_level) if threshold is None else float(threshold)
     table["flag"] = np.where(~keep, "set aside", np.where(np.abs(score) > t, "suspect", "ok"))
     table = table[list(COLUMNS[:-1]) + ["score", "flag"]]
     return Screening(out, keep, sub, choice, table, warns)

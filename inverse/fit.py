@@ -24,11 +24,16 @@ from ..forward import Convection, CylinderModel
 from .diagnostics import screen_outliers, sensor_table
 from .errors import InverseError
 from .face_grid import display_grid
+from .functionals import face_functionals
+from .hyperprior import learn_prior, matern_precision
+from .layout import FAR_FRACTION, angular_note
 from .linear_gaussian import LinearGaussianProblem
 from .lmfit_solver import fit_lmfit
 from .noise import noise_covariance
 from .readings import SensorReadings, as_readings
+from .resolution import unresolved_warning
 from .result import FitResult, Posterior
+from .robust import gross_faults, nominal_level
 from .strength import choose_strength
 from .strength_average import StrengthAverage
 
@@ -37,8 +42,7 @@ DEFAULT_HARMONICS = 6
 #: prior precision of the nominal direction relative to its smoothness prior (nearly flat)
 NOMINAL_PRECISION_FACTOR = 1e-4
 DEFAULT_TERMS = 10
-#: sensors farther from the unknown face than this fraction of the radius see little detail
-FAR_FRACTION = 0.25  # common practice, no source
+DEFAULT_PRIOR = "learned"
 
 
 def _option(case, name, given, default):
@@ -51,14 +55,7 @@ def _option(case, name, given, default):
 
 def prior_diagonal(basis, radius, smoothing):
     """P_k = (N_k / A) (1 + a^2 ev_k)^s (dimensionless)."""
-    s = SMOOTHING_ORDER[smoothing]
-    norms = basis.norms()
-    area = _face_area(basis.face, basis.model.cylinder)
-    return norms / area * (1.0 + radius ** 2 * basis.surface_eigenvalues()) ** s
-
-
-def _face_area(face, cyl):
-    return 2 * math.pi * cyl.radius * cyl.height if face == "side" else math.pi * cyl.radius ** 2
+    return matern_precision(basis, radius, SMOOTHING_ORDER[smoothing])
 
 
 class _Design:
@@ -95,7 +92,7 @@ def _nominal_direction(basis):
 def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=None,
         keep_all_sensors=None, threshold=None, tolerance: float = 1e-8, grid=(41, 72),
         calibrate=None, solver: str = "auto", loss=None, common_offset_sd=None,
-        monte_carlo: int = 0, seed: int = 0, progress=None) -> FitResult:
+        monte_carlo: int = 0, seed: int = 0, progress=None, prior=None) -> FitResult:
     """Fit the unknown face of `case` (anything with .cylinder, .faces and optionally .zones
     and .fit options) to `readings` (SensorReadings or a table with r, theta, z,
     temperature, sigma, offset_sd, position_tolerance in SI).
@@ -108,6 +105,9 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
     common_offset_sd: prior sd [K] of an offset shared by all sensors (marginalized).
     monte_carlo: number of seeded draws that also perturb sensor positions within their
     placement tolerance (0 = off); progress(done, total) is called while drawing.
+    prior: 'learned' (default: strength, length scale and order averaged over with the
+    evidence, inverse.hyperprior; used with strength 'evidence') or 'fixed' (length scale =
+    radius, order from `smoothing`, average over alpha only).
     """
     cyl, faces = case.cylinder, case.faces
     unknown = [f for f, c in faces.items() if c.unknown]
@@ -126,6 +126,9 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
     harmonics = int(_option(case, "harmonics", harmonics, DEFAULT_HARMONICS))
     terms = int(_option(case, "terms", terms, DEFAULT_TERMS))
     keep_all = bool(_option(case, "keep_all_sensors", keep_all_sensors, False))
+    prior_mode = _option(case, "prior", prior, DEFAULT_PRIOR)
+    if prior_mode not in ("learned", "fixed"):
+        raise InverseError(f"prior must be 'learned' or 'fixed', got {prior_mode!r}")
     loss = _option(case, "loss", loss, "linear")
     common_offset_sd = _option(case, "common_offset_sd", common_offset_sd, None)
     if calibrate is None:
@@ -152,19 +155,23 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
         warnings.append(f"series truncation error at sensor {rd.names[worst]} is {trunc[worst]:.2g} K, "
                         "more than a tenth of its sigma; the sensor may sit very close to a face with data")
 
+    # Screening order: gross faults (overflow codes and the like) go before anything the
+    # readings feed -- the nominal level, the placement variance, the strength.
+    gross = [] if keep_all else gross_faults(rd.temperature - t0, G @ u_uniform, base_var, rd.names)
+    ok = np.ones(rd.n, dtype=bool)
+    ok[[g.index for g in gross]] = False
+
     def build(G, t0, var):
-        gu = G @ u_uniform
-        wgu = np.linalg.solve(var, gu) if var.ndim == 2 else gu / var
-        denom = float(gu @ wgu)
-        gamma = float(wgu @ (rd.temperature - t0)) / denom if denom > 0 else 0.0
+        gamma = nominal_level(rd.temperature - t0, G @ u_uniform, var, ok)
         return LinearGaussianProblem(G, rd.temperature, t0, var, P, c0=gamma * u_uniform)
 
     var = base_var
     problem = build(G, t0, var)
     # Placement tolerance: effective variance (grad T . delta x)^2 with delta x uniform in +-tol.
     if np.any(rd.position_tolerance > 0):
-        c_first = choose_strength(problem, strength if not isinstance(strength, str) else "evidence")
-        c_hat = problem.coefficients(c_first.alpha)
+        first = problem.subset(ok)
+        c_first = choose_strength(first, strength if not isinstance(strength, str) else "evidence")
+        c_hat = first.coefficients(c_first.alpha)
         grad = ev.gradient + np.einsum("dpk,k->dp", dG, c_hat)
         pos_var = (grad ** 2).sum(axis=0) * rd.position_tolerance ** 2 / 3.0
         var = base_var + (np.diag(pos_var) if base_var.ndim == 2 else pos_var)
@@ -177,7 +184,9 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
         if keep_all:
             pre_kept, pre_alpha = np.ones(rd.n, dtype=bool), choose_strength(problem, strength).alpha
         else:
-            pre = screen_outliers(problem, strength=strength, threshold=threshold, names=rd.names)
+            # at the nominal parameters the model is known to be off: no model-first rule here
+            pre = screen_outliers(problem, strength=strength, threshold=threshold, names=rd.names,
+                                  preset=gross)
             pre_kept, pre_alpha = pre.kept, pre.strength.alpha
         _, _, design = _calibrate(design, rd, pre_kept, problem.subset(np.flatnonzero(pre_kept)),
                                   pre_alpha, P, calibrate)
@@ -192,7 +201,8 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
         table = sensor_table(problem, choice.alpha, names=rd.names)
         set_aside = []
     else:
-        screening = screen_outliers(problem, strength=strength, threshold=threshold, names=rd.names)
+        screening = screen_outliers(problem, strength=strength, threshold=threshold, names=rd.names,
+                                    preset=gross, model_first=True)
         choice, final, kept = screening.strength, screening.problem, screening.kept
         table, set_aside = screening.table, screening.set_aside
         warnings.extend(screening.warnings)
@@ -203,6 +213,11 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
     nonlinear = None
     if calibrate:
         post, nonlinear, design = _calibrate(design, rd, kept, final, choice.alpha, P, calibrate)
+    elif strength == "evidence" and prior_mode == "learned" and not monte_carlo:
+        avg = learn_prior(final, basis, nominal=u_uniform > 0, nominal_factor=NOMINAL_PRECISION_FACTOR)
+        # the fixed prior's strength-grid notes do not apply to the learned prior's answer
+        warnings = [w for w in dict.fromkeys(warnings) if w not in choice.warnings] + list(avg.warnings)
+        post = Posterior(avg.coefficients(), avg.posterior_covariance(), choice.alpha, avg)
     elif strength == "evidence" or (isinstance(strength, str) and strength == "auto"):
         avg = StrengthAverage(final)
         warnings.extend(avg.warnings)
@@ -224,6 +239,10 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
             post = Posterior(lf.coefficients, lf.coefficient_covariance, choice.alpha, None)
 
     warnings.extend(_layout_warnings(face, cyl, rd.subset(kept), post, final, P, choice.alpha))
+    unresolved = unresolved_warning(post, final, face_functionals(design, getattr(case, "zones", None) or []),
+                                    face, rd.offset_sd[kept], common_offset_sd)
+    if unresolved:
+        warnings.append(unresolved)
     chi2 = float(final.chi2(choice.alpha))
     n_kept = int(kept.sum())
     edf = float(final.effective_parameters(choice.alpha))
@@ -243,23 +262,18 @@ def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=
                            warnings=warnings, grid_size=grid, nonlinear=nonlinear,
                            monte_carlo=mc, smoothing=smoothing, strength_request=strength)
     result.summary["loss"] = loss
+    if hasattr(post.averaged, "description"):
+        result.summary["prior"] = post.averaged.description()
     return result
 
 
 def _layout_warnings(face, cyl, rd, post, problem, P, alpha):
     out = []
     a = cyl.radius
-    if face != "side":
-        off_axis = rd.r > 1e-3 * a
-        angles = np.round(np.mod(rd.theta[off_axis], 2 * np.pi), 6)
-        if np.unique(angles).size <= 1:
-            out.append("all sensors lie at one angle (or on the axis): the layout sees no azimuthal "
-                       "variation; sin/cos harmonics of the profile are prior only")
-        dist = np.abs(rd.z - (0.0 if face == "bottom" else cyl.height))
-    else:
-        if np.unique(np.round(np.mod(rd.theta, 2 * np.pi), 6)).size <= 1:
-            out.append("all sensors lie at one angle: the layout sees no azimuthal variation of the wall")
-        dist = a - rd.r
+    angular = angular_note(face, a, rd.r, rd.theta)
+    if angular:
+        out.append(angular)
+    dist = a - rd.r if face == "side" else np.abs(rd.z - (0.0 if face == "bottom" else cyl.height))
     if dist.size and dist.min() > FAR_FRACTION * a:
         out.append(f"the nearest sensor is {dist.min() * 1e3:.3g} mm from the unknown face "
                    f"(over {FAR_FRACTION:.0%} of the radius): fine detail of the profile is unresolved")

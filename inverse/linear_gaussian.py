@@ -99,6 +99,10 @@ class LinearGaussianProblem:
         new._set_data(d)
         return new
 
+    def with_prior(self, prior_diag) -> "LinearGaussianProblem":
+        """Same readings, noise and prior mean, another prior precision diagonal P (K,) (new SVD)."""
+        return LinearGaussianProblem(self.G, self.d, self.t0, self.noise, prior_diag, self.c0)
+
     def subset(self, keep) -> "LinearGaussianProblem":
         """Problem restricted to readings `keep` (index array or boolean mask).
 

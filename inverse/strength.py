@@ -4,7 +4,8 @@ Methods (all evaluated from the problem's single SVD):
 - 'evidence'    maximize log p(d | alpha) (marginal likelihood); 'auto' means this.
 - 'gcv'         minimize generalized cross-validation V(alpha) (Golub, Heath & Wahba 1979).
 - 'lcurve'      maximize the curvature of (log residual norm, log seminorm) (Hansen's corner),
-                the largest interior local maximum on the grid.
+                the largest interior local maximum on the grid (`lcurve_alphas`: without
+                the spurious corner of a nearly unregularized direction).
 - 'discrepancy' solve chi2(alpha) = target, target = n by default (Morozov).
 - a number      fixed alpha.
 Evidence, GCV and L-curve are searched on a log grid, then refined by a bounded scalar
@@ -13,7 +14,7 @@ minimization in log alpha between the grid neighbours of the best grid point.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
@@ -60,6 +61,31 @@ def default_alphas(problem: LinearGaussianProblem, num: int = 200, margin: float
     return np.geomspace(smin**2 / margin, smax**2 * margin, int(num))
 
 
+#: a leading singular value more than this factor above the next belongs to a nearly
+#: unregularized direction (e.g. the fit's nominal level, whose prior is nearly flat)
+FREE_GAP = 100.0
+
+
+def lcurve_alphas(problem: LinearGaussianProblem, num: int = 200, margin: float = 1e2) -> np.ndarray:
+    """`default_alphas` without the range of nearly unregularized leading directions.
+
+    The L-curve has a corner wherever the filter factor of a direction switches off; for a
+    direction whose singular value stands more than FREE_GAP above all others (a nearly
+    flat prior) that corner is an artefact: it measures the prior that was meant not to act,
+    and there the fit collapses onto the prior mean. The grid therefore ends at margin times
+    the square of the largest singular value not so separated.
+    """
+    grid = default_alphas(problem, num, margin)
+    s = problem.singular_values
+    s = s[s > 1e-6 * s.max()]
+    lead = 0
+    while lead + 1 < s.size and s[lead] > FREE_GAP * s[lead + 1]:
+        lead += 1
+    if lead == 0:
+        return grid
+    return np.geomspace(grid[0], s[lead] ** 2 * margin, int(num))
+
+
 def _refine(objective, log_grid, values, what, interior_only=False):
     """Minimize objective(log alpha) near the grid minimum; returns (alpha, warnings).
 
@@ -89,7 +115,12 @@ def choose_strength(problem: LinearGaussianProblem, method="evidence", alphas=No
     alphas: grid to search (default `default_alphas(problem)`); target: chi2 target for
     'discrepancy' (default n). Raises StrengthError when the discrepancy rule has no solution.
     """
-    grid = default_alphas(problem) if alphas is None else np.sort(np.asarray(alphas, dtype=float).ravel())
+    if alphas is not None:
+        grid = np.sort(np.asarray(alphas, dtype=float).ravel())
+    elif isinstance(method, str) and method.strip().lower() == "lcurve":
+        grid = lcurve_alphas(problem)
+    else:
+        grid = default_alphas(problem)
     if grid.size < 3 or np.any(grid <= 0) or not np.all(np.isfinite(grid)):
         raise InverseError("alphas must hold at least 3 positive finite values")
     lg = np.log(grid)
@@ -116,6 +147,15 @@ def choose_strength(problem: LinearGaussianProblem, method="evidence", alphas=No
         return pack(alpha, name, "gcv", v, warnings=w)
     if name == "lcurve":
         v = problem.lcurve_curvature(grid)
+        corner = (v[1:-1] > v[:-2]) & (v[1:-1] > v[2:]) & (v[1:-1] > 0)
+        if not corner.any():
+            # No convex corner: with more unknowns than readings and a fitted prior mean the
+            # curve is a '7' (seminorm bounded as alpha -> 0), and the largest curvature sits
+            # at an end of the grid -- an arbitrary alpha. Use the evidence and say so.
+            ev = choose_strength(problem, "evidence")
+            note = ("the L-curve of these readings has no corner (its curvature is nowhere a positive "
+                    "interior maximum), so the smoothing strength comes from the evidence instead")
+            return replace(ev, warnings=ev.warnings + (note,))
         alpha, w = _refine(lambda t: -problem.lcurve_curvature(np.exp(t)), lg, -v, "L-curve",
                            interior_only=True)
         return pack(alpha, name, "curvature", v, warnings=w)

@@ -15,11 +15,56 @@ only a handful of modes are well determined, and its bands then cover less than 
 from __future__ import annotations
 
 import numpy as np
-from scipy.special import ndtr
+from scipy.special import ndtr, ndtri
+
+SQRT_2PI = float(np.sqrt(2.0 * np.pi))
 
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem
 from .strength import default_alphas
+
+
+def mixture_band(weights, means, sds, level: float = 0.95):
+    """Equal-tailed `level` band (lower, upper) of the Gaussian mixture sum_i w_i N(mean_i, sd_i^2).
+
+    weights (m,), means and sds (m, q): solves F(x) = sum_i w_i Phi((x - mean_i) / sd_i) =
+    (1 -+ level) / 2 for each of the q quantities by Newton steps on F (F' = the mixture
+    density) started at the moment-matched Gaussian quantile and kept inside a bisection
+    bracket. Returns two arrays (q,).
+    """
+    if not 0 < level < 1:
+        raise InverseError("level must lie between 0 and 1")
+    w = np.asarray(weights, dtype=float)
+    mi = np.asarray(means, dtype=float)
+    si = np.maximum(np.asarray(sds, dtype=float), 1e-300)  # a pinned point (sd 0) keeps its mean
+    mean = w @ mi
+    sd = np.sqrt(w @ (si**2 + (mi - mean) ** 2))
+    scale = np.maximum(np.max(si, axis=0), 1e-300)
+
+    def quantile(prob):
+        lo = np.min(mi - 12 * si, axis=0)
+        hi = np.max(mi + 12 * si, axis=0)
+        x = np.clip(mean + ndtri(prob) * sd, lo, hi)
+        act = np.arange(x.size)                      # quantities not yet converged
+        for _ in range(100):
+            m_, s_ = mi[:, act], si[:, act]
+            u = (x[act][None, :] - m_) / s_
+            F = w @ ndtr(u) - prob
+            dens = w @ (np.exp(-0.5 * u**2) / s_) / SQRT_2PI
+            lo[act] = np.where(F < 0, x[act], lo[act])
+            hi[act] = np.where(F < 0, hi[act], x[act])
+            with np.errstate(divide="ignore", invalid="ignore"):
+                newton = x[act] - F / dens
+            ok = np.isfinite(newton) & (newton > lo[act]) & (newton < hi[act])
+            x_new = np.where(ok, newton, 0.5 * (lo[act] + hi[act]))
+            done = np.abs(x_new - x[act]) <= 1e-12 * scale[act] + 1e-14 * np.abs(x[act])
+            x[act] = x_new
+            act = act[~done]
+            if act.size == 0:
+                break
+        return x
+
+    return quantile(0.5 * (1 - level)), quantile(0.5 * (1 + level))
 
 
 class StrengthAverage:
@@ -72,6 +117,12 @@ class StrengthAverage:
         var = self._w @ (sd_i**2 + (mean_i - mean) ** 2)
         return mean, np.sqrt(var)
 
+    def prior_sd(self, B) -> np.ndarray:
+        """sd of B c under the prior averaged over alpha: sqrt(sum_i w_i diag(B (alpha_i P)^-1 B^T))."""
+        B = np.atleast_2d(np.asarray(B, dtype=float))
+        pv = (B**2) @ (1.0 / self.problem.prior_diag)
+        return np.sqrt(pv * float(self._w @ (1.0 / self._a)))
+
     def band(self, B, level: float = 0.95, offset=None):
         """Mean, sd and the equal-tailed `level` band (lower, upper) of offset + B c.
 
@@ -82,19 +133,7 @@ class StrengthAverage:
         mean, sd = self.predict(B, offset)
         mean_i, sd_i = self.problem.predict(B, self._a, offset)
         m = self._a.size
-        mi, si = mean_i.reshape(m, -1), sd_i.reshape(m, -1)                # (alphas, q)
-        si = np.maximum(si, 1e-300)  # a pinned point (sd 0) keeps its mean
-
-        def quantile(prob):
-            lo = np.min(mi - 12 * si, axis=0)
-            hi = np.max(mi + 12 * si, axis=0)
-            for _ in range(60):
-                mid = 0.5 * (lo + hi)
-                below = self._w @ ndtr((mid[None, :] - mi) / si) < prob
-                lo, hi = np.where(below, mid, lo), np.where(below, hi, mid)
-            return 0.5 * (lo + hi)
-
-        lower, upper = quantile(0.5 * (1 - level)), quantile(0.5 * (1 + level))
+        lower, upper = mixture_band(self._w, mean_i.reshape(m, -1), sd_i.reshape(m, -1), level)
         if np.ndim(mean) == 0:
             lower, upper = lower[0], upper[0]
         return mean, sd, lower, upper

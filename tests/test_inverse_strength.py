@@ -125,3 +125,34 @@ def test_default_grid_spans_singular_values():
     s = prob.singular_values
     a = default_alphas(prob)
     assert a.size == 200 and a[0] < s[s > 1e-6 * s[0]].min() ** 2 and a[-1] > s[0] ** 2
+
+
+def test_lcurve_grid_leaves_out_a_nearly_free_direction():
+    from heatsight.inverse.strength import FREE_GAP, lcurve_alphas
+    G, d, t0, S, p = toy(K=10, seed=2)
+    p = p.copy()
+    p[0] *= 1e-6                      # nearly flat prior on one direction (as the fit's nominal level)
+    prob = LinearGaussianProblem(G, d, t0, S, p)
+    s = prob.singular_values
+    assert s[0] > FREE_GAP * s[1]
+    grid = lcurve_alphas(prob)
+    assert grid[-1] == pytest.approx(s[1] ** 2 * 1e2, rel=1e-9)      # ends at the second direction
+    assert default_alphas(prob)[-1] == pytest.approx(s[0] ** 2 * 1e2, rel=1e-9)
+
+
+def test_lcurve_without_corner_uses_the_evidence_and_says_so():
+    # more unknowns than readings and evenly conditioned columns: the seminorm stays bounded
+    # as alpha -> 0 and all directions switch off together, so the curve is a '7' with no
+    # convex corner (curvature < 0 everywhere on the grid)
+    rng = np.random.default_rng(0)
+    n, K = 12, 40
+    G = rng.normal(size=(n, K))
+    d = 20.0 + G @ rng.normal(size=K) + 0.1 * rng.normal(size=n)
+    prob = LinearGaussianProblem(G, d, 20.0, np.full(n, 1e-2), np.ones(K))
+    assert prob.lcurve_curvature(default_alphas(prob)).max() < 0
+    choice = choose_strength(prob, "lcurve")
+    assert choice.method == "evidence" and "no corner" in choice.warnings[-1]
+    assert choice.alpha == pytest.approx(choose_strength(prob, "evidence").alpha)
+    # a problem with a corner keeps the L-curve rule
+    G, d, t0, S, p = toy(K=10, seed=2)
+    assert choose_strength(LinearGaussianProblem(G, d, t0, S, p), "lcurve").method == "lcurve"

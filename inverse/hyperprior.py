@@ -1,0 +1,306 @@
+"""Prior with learned hyperparameters: strength, length scale and smoothness order.
+
+Family (a Whittle-Matern form in the face eigenbasis):
+
+    c ~ N(c0, (alpha P(l, s))^-1),   P_k(l, s) = (N_k / A) (1 + l^2 ev_k)^s,
+
+N_k = integral Phi_k^2 dA [m^2], A = face area [m^2], ev_k = surface eigenvalue [1/m^2],
+l = length scale [m], s = smoothness order. The nominal direction (the fitted level of the
+nominal profile) keeps its nearly flat prior: its P_k is multiplied by `nominal_factor`.
+The strength is written through the amplitude sigma_f [face unit]:
+
+    sigma_f^2 = (1 / alpha) sum_k' 1 / w_k,   w_k = (1 + l^2 ev_k)^s,
+
+(k' = all but the nominal direction) = the prior mean square of the face's deviation from
+the nominal profile over the face, so that sigma_f means the same thing for every (l, s).
+
+Hyperpriors (proper, weakly informative):
+- log sigma_f ~ N(log sigma_ref(l, s), LOG_AMPLITUDE_SD^2), LOG_AMPLITUDE_SD = ln(10) / 4
+  (95 % of the mass within a factor 3 of sigma_ref). sigma_ref is the amplitude whose
+  prior-predictive whitened signal variance, averaged over the sensors, equals
+  max(mean(y^2) - 1, 1): the readings' whitened spread about the nominal profile beyond the
+  noise, and at least the noise itself (y = L^-1 (d - t0 - G c0)). Proper at both ends: with
+  a flat prior on log alpha the evidence tends to a constant as alpha -> inf, so the mass
+  would pile up at the largest alpha of any grid (the answer then collapses onto the prior
+  mean with tight bands); here the integral converges and, when the readings cannot fix the
+  amplitude, the bands keep the size the readings' spread allows. The width is a measured
+  choice: when offsets swamp the signal the evidence only says "no larger than the noise",
+  and a wider hyperprior (ln 10 / 2, ln 10) lets that one-sided Occam pull shrink the bands
+  until a weak heater sector sits 3-13 sd from its band (bench/strength_choice.py 'chuck');
+  ln 10 / 4 keeps it within 2 sd, and on informative data the evidence dominates either way
+  (same figures on the platen and wall scenarios).
+- log l uniform on [D / 20, 4 D], D = the face's size (the radius for an end face, the
+  larger of radius and height for the side): from well below the sensor spacing of any
+  practical layout to smoother than the face itself.
+- s uniform on {0.5, 1, 1.5, 2}. Measured choice: orders up to 5 sharpen the bands on smooth
+  finite-element truths further (side wall RMS error 0.15 K against 0.37 K), but the data
+  then prefer the smoothest orders and zone means become overconfident where the truth has
+  a slope the basis cannot carry (an insulated rim: every eigenfunction is flat there):
+  tests/test_fit_recovery.py's ring zone sat 2.3-2.75 sd from its exact mean over four
+  seeds with orders {1..5}, 1.7-1.96 with {0.5, 1, 1.5, 2}. (s = 0, white noise on the
+  face, is left out: its amplitude grows with the number of modes kept.)
+
+The evidence p(d | alpha, l, s) comes from one SVD per (l, s) (LinearGaussianProblem); the
+amplitude is integrated on a grid in log sigma_f that is extended until both edges carry a
+negligible weight, so no answer depends on where that grid ends. The posterior of c is the
+mixture sum_i w_i N(c_i, C_i) over (sigma_f, l, s) with weights evidence x hyperprior.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .errors import InverseError
+from .linear_gaussian import LinearGaussianProblem
+from .strength_average import mixture_band
+
+LOG_AMPLITUDE_SD = math.log(10.0) / 4.0
+LENGTH_RANGE = (1.0 / 20.0, 4.0)      # times the face size D
+N_LENGTHS = 9
+ORDERS = (0.5, 1.0, 1.5, 2.0)
+#: grid step in units of LOG_AMPLITUDE_SD, starting half-width, and the weight (relative to
+#: the largest) below which an edge of the amplitude grid counts as negligible
+STEP, HALF_WIDTH, EDGE = 0.1, 5.0, 1e-9
+#: components whose weights sum to less than this are dropped from the mixture
+TAIL = 1e-3
+#: posterior sd / prior sd of log sigma_f above which the hyperprior, not the data, sets the amplitude
+PRIOR_DOMINATED = 0.55  # a one-sided bound leaves ~0.6 (half-normal sd 0.60); informative data give 0.1-0.3
+
+
+def face_area(basis) -> float:
+    """Area of the unknown face [m^2]: 2 pi a L (side) or pi a^2 (end faces)."""
+    cyl = basis.model.cylinder
+    return 2 * math.pi * cyl.radius * cyl.height if basis.face == "side" else math.pi * cyl.radius ** 2
+
+
+def face_size(basis) -> float:
+    """D [m]: the radius for an end face; max(radius, height) for the side (radius if semi-infinite)."""
+    cyl = basis.model.cylinder
+    if basis.face == "side" and math.isfinite(cyl.height):
+        return max(cyl.radius, cyl.height)
+    return cyl.radius
+
+
+def matern_precision(basis, length, order) -> np.ndarray:
+    """P_k = (N_k / A) (1 + l^2 ev_k)^s (dimensionless), l [m], s >= 0."""
+    return basis.norms() / face_area(basis) * (1.0 + length ** 2 * basis.surface_eigenvalues()) ** order
+
+
+def _weighted_quantiles(x, w, q):
+    """Quantiles q of a discrete distribution (values x, weights w), interpolated in the cdf."""
+    order = np.argsort(x)
+    x, w = np.asarray(x, float)[order], np.asarray(w, float)[order]
+    cdf = np.cumsum(w) - 0.5 * w
+    return np.interp(np.asarray(q, float), cdf / w.sum(), x)
+
+
+class LearnedPrior:
+    """Posterior averaged over (sigma_f, l, s); same interface as StrengthAverage.
+
+    problem: the LinearGaussianProblem of the fit (its prior mean c0, readings and noise are
+    kept; its prior precision is replaced by the family). basis: the unknown-face basis
+    (norms, surface_eigenvalues, model.cylinder). nominal: boolean mask (K,) of the nominal
+    direction, whose precision is scaled by nominal_factor.
+    """
+
+    def __init__(self, problem: LinearGaussianProblem, basis, nominal=None, nominal_factor: float = 1.0,
+                 lengths=None, orders=None):
+        a = face_size(basis)
+        self.length_range = (LENGTH_RANGE[0] * a, LENGTH_RANGE[1] * a)
+        self.lengths = (np.geomspace(*self.length_range, N_LENGTHS) if lengths is None
+                        else np.asarray(lengths, dtype=float).ravel())
+        self.orders = tuple(float(s) for s in (ORDERS if orders is None else orders))
+        if self.lengths.size < 1 or len(self.orders) < 1 or np.any(self.lengths <= 0):
+            raise InverseError("the prior family needs positive length scales and at least one order")
+        K = problem.K
+        nominal = np.zeros(K, dtype=bool) if nominal is None else np.asarray(nominal, dtype=bool)
+        free = ~nominal
+        Gw = problem.noise.whiten(problem.G)
+        spread = max(float(np.mean(problem.y ** 2)) - 1.0, 1.0)
+        self.problem = problem
+        combos, problems, log_ref, T = [], [], [], []
+        for s in self.orders:
+            for l in self.lengths:
+                wk = (1.0 + l ** 2 * basis.surface_eigenvalues()) ** s
+                t = float(np.sum(1.0 / wk[free]))
+                P = matern_precision(basis, l, s)
+                P[nominal] *= nominal_factor
+                unit_signal = float(np.mean((Gw[:, free] ** 2) @ (1.0 / (P[free] * t))))
+                combos.append((l, s))
+                problems.append(problem.with_prior(P))
+                log_ref.append(0.5 * math.log(spread / unit_signal))
+                T.append(t)
+        self.combos, self._problems = combos, problems
+        self._log_ref, self._T = np.array(log_ref), np.array(T)
+        self._integrate()
+        self._prune()
+
+    # ------------------------------------------------------------------ hyperparameter posterior
+    def _log_weights(self, zgrid):
+        """log of evidence x hyperprior on the grid z = (log sigma_f - log sigma_ref) / LOG_AMPLITUDE_SD.
+
+        Shape (combos, z). The hyperprior density of log sigma_f is N(z; 0, 1) / LOG_AMPLITUDE_SD
+        (the same Jacobian for every combo), l and s are uniform over their points.
+        """
+        out = np.empty((len(self.combos), zgrid.size))
+        for j, pb in enumerate(self._problems):
+            alphas = self.alphas_for(j, zgrid)
+            out[j] = pb.log_evidence(alphas) - 0.5 * zgrid ** 2
+        return out
+
+    def alphas_for(self, j, z):
+        """alpha = T / sigma_f^2 for combo j at grid values z."""
+        log_sf = self._log_ref[j] + LOG_AMPLITUDE_SD * np.asarray(z, float)
+        return self._T[j] * np.exp(-2.0 * log_sf)
+
+    def _integrate(self):
+        lo, hi = -HALF_WIDTH, HALF_WIDTH
+        while True:
+            z = np.arange(lo, hi + 0.5 * STEP, STEP)
+            lw = self._log_weights(z)
+            top = lw.max()
+            grow_lo = lw[:, 0].max() - top > math.log(EDGE)
+            grow_hi = lw[:, -1].max() - top > math.log(EDGE)
+            if not (grow_lo or grow_hi) or hi - lo > 200:
+                break
+            lo -= 2.0 if grow_lo else 0.0
+            hi += 2.0 if grow_hi else 0.0
+        self.z = z
+        self.log_weights = lw
+        # log of the marginal likelihood p(d) integrated over the hyperpriors (trapezoid in z)
+        n_combo = len(self.combos)
+        self.log_marginal = float(top + math.log(np.sum(np.exp(lw - top)) * STEP / n_combo)
+                                  - 0.5 * math.log(2 * math.pi))
+        w = np.exp(lw - top)
+        self.weights = w / w.sum()
+        self.edge_weight = float(max(self.weights[:, 0].sum(), self.weights[:, -1].sum()))
+
+    def _prune(self):
+        flat = self.weights.ravel()
+        order = np.argsort(flat)
+        drop = np.cumsum(flat[order]) < TAIL
+        keep = np.ones(flat.size, dtype=bool)
+        keep[order[drop]] = False
+        keep = keep.reshape(self.weights.shape)
+        total = self.weights[keep].sum()
+        self._parts = []
+        for j in range(len(self.combos)):
+            idx = np.flatnonzero(keep[j])
+            if idx.size:
+                self._parts.append((self._problems[j], self.alphas_for(j, self.z[idx]),
+                                    self.weights[j, idx] / total))
+
+    # ------------------------------------------------------------------ posterior mixture
+    def coefficients(self) -> np.ndarray:
+        """Mixture mean of c, (K,)."""
+        return sum(w @ pb.coefficients(a) for pb, a, w in self._parts)
+
+    def posterior_covariance(self) -> np.ndarray:
+        """Mixture covariance sum_i w_i (C_i + c_i c_i^T) - m m^T, (K, K)."""
+        m = self.coefficients()
+        out = -np.outer(m, m)
+        for pb, a, w in self._parts:
+            M = pb.coefficients(a)
+            out += pb.weighted_posterior_covariance(a, w) + (M.T * w) @ M
+        return 0.5 * (out + out.T)
+
+    def posterior_sd(self) -> np.ndarray:
+        return np.sqrt(np.maximum(np.diag(self.posterior_covariance()), 0.0))
+
+    def _components(self, B, offset):
+        means, sds, ws = [], [], []
+        for pb, a, w in self._parts:
+            mi, si = pb.predict(B, a, offset)
+            means.append(np.reshape(mi, (a.size, -1)))
+            sds.append(np.reshape(si, (a.size, -1)))
+            ws.append(w)
+        return np.concatenate(ws), np.vstack(means), np.vstack(sds)
+
+    def predict(self, B, offset=None):
+        """Mixture mean and sd of offset + B c; shapes (q,) (scalars for B of shape (K,))."""
+        w, mi, si = self._components(B, offset)
+        mean = w @ mi
+        sd = np.sqrt(w @ (si ** 2 + (mi - mean) ** 2))
+        if np.ndim(B) == 1:
+            return float(mean[0]), float(sd[0])
+        return mean, sd
+
+    def band(self, B, level: float = 0.95, offset=None):
+        """Mean, sd and the equal-tailed `level` band (lower, upper) of offset + B c (mixture quantiles)."""
+        w, mi, si = self._components(B, offset)
+        mean = w @ mi
+        sd = np.sqrt(w @ (si ** 2 + (mi - mean) ** 2))
+        lower, upper = mixture_band(w, mi, si, level)
+        if np.ndim(B) == 1:
+            return float(mean[0]), float(sd[0]), float(lower[0]), float(upper[0])
+        return mean, sd, lower, upper
+
+    def prior_sd(self, B) -> np.ndarray:
+        """sd of B c under the prior averaged over the hyperparameter posterior:
+        sqrt(sum_i w_i diag(B (alpha_i P_i)^-1 B^T))."""
+        B = np.atleast_2d(np.asarray(B, dtype=float))
+        var = sum(((B ** 2) @ (1.0 / pb.prior_diag)) * float(w @ (1.0 / a)) for pb, a, w in self._parts)
+        return np.sqrt(var)
+
+    # ------------------------------------------------------------------ what the data chose
+    def _marginals(self):
+        n_l = self.lengths.size
+        by_combo = self.weights.sum(axis=1).reshape(len(self.orders), n_l)
+        return by_combo.sum(axis=0), by_combo.sum(axis=1)
+
+    def amplitude_posterior(self):
+        """(posterior mean, sd) of z = (log sigma_f - log sigma_ref) / LOG_AMPLITUDE_SD; prior N(0, 1)."""
+        wz = self.weights.sum(axis=0)
+        m = float(wz @ self.z)
+        return m, float(np.sqrt(wz @ (self.z - m) ** 2))
+
+    @property
+    def warnings(self) -> tuple[str, ...]:
+        """Notes on hyperparameters set by their hyperprior rather than the data: the length
+        scale pressed against an end of its range. (An amplitude the data cannot fix is
+        `description()['hyperprior_dominated']`, reported by inverse.resolution.)"""
+        out = []
+        w_l, _ = self._marginals()
+        if self.lengths.size >= 4:
+            for end, mass in (("shortest", w_l[:2].sum()), ("longest", w_l[-2:].sum())):
+                if mass > 0.6:
+                    out.append(f"the prior's length scale is pressed against the {end} value its hyperprior "
+                               f"allows ({self.length_range[0] * 1e3:.3g}-{self.length_range[1] * 1e3:.3g} mm, "
+                               f"{100 * mass:.0f} % of the weight in the outer two points)")
+        return tuple(out)
+
+    def description(self) -> dict:
+        """What the data chose, for summary.json: length scale mode and 90 % range [m], order
+        weights, 90 % ranges of alpha and of the amplitude sigma_f [face unit], and how far
+        the amplitude's posterior narrowed its prior."""
+        w_l, w_s = self._marginals()
+        ll = np.log(self.lengths)
+        l90 = np.exp(_weighted_quantiles(ll, w_l, (0.05, 0.95))) if self.lengths.size > 1 else \
+            np.repeat(self.lengths, 2)
+        alph, log_sf, wts = [], [], []
+        for j in range(len(self.combos)):
+            alph.append(self.alphas_for(j, self.z))
+            log_sf.append(self._log_ref[j] + LOG_AMPLITUDE_SD * self.z)
+            wts.append(self.weights[j])
+        alph, log_sf, wts = np.concatenate(alph), np.concatenate(log_sf), np.concatenate(wts)
+        a90 = np.exp(_weighted_quantiles(np.log(alph), wts, (0.05, 0.95)))
+        s90 = np.exp(_weighted_quantiles(log_sf, wts, (0.05, 0.5, 0.95)))
+        _, zsd = self.amplitude_posterior()
+        return {
+            "family": "whittle-matern", "length_scale_m": float(self.lengths[int(np.argmax(w_l))]),
+            "length_scale_90_m": [float(l90[0]), float(l90[1])],
+            "length_scale_hyperprior_m": [float(self.length_range[0]), float(self.length_range[1])],
+            "order_weights": {f"{s:g}": float(w) for s, w in zip(self.orders, w_s)},
+            "strength_90": [float(a90[0]), float(a90[1])],
+            "amplitude_median": float(s90[1]), "amplitude_90": [float(s90[0]), float(s90[2])],
+            "amplitude_posterior_over_prior_spread": zsd,
+            "hyperprior_dominated": bool(zsd > PRIOR_DOMINATED),
+            "log_marginal_likelihood": self.log_marginal,
+        }
+
+
+def learn_prior(problem: LinearGaussianProblem, basis, nominal=None, nominal_factor: float = 1.0) -> LearnedPrior:
+    """Posterior of the unknown face averaged over strength, length scale and order (see module doc)."""
+    return LearnedPrior(problem, basis, nominal, nominal_factor)

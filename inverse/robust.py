@@ -1,0 +1,88 @@
+"""First, robust pass over the readings: gross faults out before anything the readings feed.
+
+A logger's overflow code (9.9e37), a 1e9 or a 999999 in one channel must not reach the
+prior's nominal level, the placement variance or the strength. So, before the problem is
+built:
+
+1. level of the nominal profile by least absolute deviations (robust to a minority of wild
+   readings): with r_i = d_i - t0_i (known field removed), g_i = (G u)_i the nominal
+   profile's field at sensor i and sd_i = sqrt(S_ii),
+
+       gamma_L1 = argmin sum_i |r_i - gamma g_i| / sd_i = weighted median of r_i / g_i,
+                  weights |g_i| / sd_i;
+
+2. standardized residuals e_i = (r_i - gamma_L1 g_i) / sd_i, robust scale
+   s = max(1.4826 MAD(e), 1) (1.4826 MAD = sd for a normal sample), and a reading is a gross
+   fault when |e_i - median(e)| > GROSS_Z s. Such a reading is set aside before the fit;
+   everything milder is left to the leave-one-out screening (inverse.diagnostics).
+3. the nominal level of the fit is then the generalized-least-squares level over the
+   readings that are not gross faults.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .diagnostics import SetAside
+
+#: |robust z| beyond which a reading is a gross fault. A conduction field seen through a
+#: smooth nominal profile does not put one sensor 25 robust sds from the rest; real but
+#: strong local features stay well inside (common practice, no source).
+GROSS_Z = 25.0
+MAD_TO_SD = 1.4826  # 1 / Phi^-1(3/4), normal consistency of the MAD (Hampel 1974)
+
+
+def _weighted_median(x, w):
+    order = np.argsort(x)
+    x, w = x[order], w[order]
+    cdf = np.cumsum(w)
+    return float(x[np.searchsorted(cdf, 0.5 * cdf[-1])])
+
+
+def _sd(var):
+    var = np.asarray(var, dtype=float)
+    return np.sqrt(np.diag(var) if var.ndim == 2 else var)
+
+
+def robust_level(residual, nominal_field, var) -> float:
+    """gamma_L1: weighted median of r_i / g_i with weights |g_i| / sd_i (0 if g = 0 everywhere)."""
+    r, g, sd = np.asarray(residual, float), np.asarray(nominal_field, float), _sd(var)
+    use = np.abs(g) > 1e-12 * max(float(np.abs(g).max()), 1e-300)
+    if not use.any():
+        return 0.0
+    return _weighted_median(r[use] / g[use], np.abs(g[use]) / sd[use])
+
+
+def gross_faults(residual, nominal_field, var, names) -> list[SetAside]:
+    """Readings beyond GROSS_Z robust sds of the robust nominal fit (see module doc), worst first."""
+    r, g, sd = np.asarray(residual, float), np.asarray(nominal_field, float), _sd(var)
+    if r.size < 3:
+        return []
+    e = (r - robust_level(r, g, var) * g) / sd
+    med = float(np.median(e))
+    scale = max(MAD_TO_SD * float(np.median(np.abs(e - med))), 1.0)
+    z = (e - med) / scale
+    out = []
+    for i in np.argsort(-np.abs(z)):
+        if abs(z[i]) <= GROSS_Z or len(out) >= (r.size - 1) // 2:
+            break
+        out.append(SetAside(str(names[i]), int(i), float(z[i]), GROSS_Z,
+                            f"reading {r[i] + 0.0:.4g} K above the known field is {abs(z[i]):.3g} robust sds "
+                            f"from the level of the other sensors (limit {GROSS_Z:g}): a gross fault "
+                            "(logger overflow code, broken wire or unit mix-up)"))
+    return out
+
+
+def nominal_level(residual, nominal_field, var, keep=None) -> float:
+    """Generalized-least-squares level of the nominal profile over the readings `keep` (mask):
+    gamma = (g^T S^-1 r) / (g^T S^-1 g) on the kept block (0 when g^T S^-1 g = 0)."""
+    r, g = np.asarray(residual, float), np.asarray(nominal_field, float)
+    var = np.asarray(var, dtype=float)
+    idx = np.arange(r.size) if keep is None else np.flatnonzero(keep)
+    r, g = r[idx], g[idx]
+    if var.ndim == 2:
+        wg = np.linalg.solve(var[np.ix_(idx, idx)], g)
+    else:
+        wg = g / var[idx]
+    denom = float(g @ wg)
+    return float(wg @ r) / denom if denom > 0 else 0.0

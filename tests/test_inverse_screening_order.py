@@ -1,0 +1,90 @@
+"""Screening order and model-first screening.
+
+Readings of the fit-level tests come from the scikit-fem platen of tests/test_fit_sensors.py
+(independent of the fitted series); the screen_outliers tests use a small synthetic model.
+"""
+
+import numpy as np
+import pytest
+from scipy.stats import norm
+from threadpoolctl import threadpool_limits
+
+from heatsight import inverse
+from heatsight.inverse.diagnostics import model_suspect, screen_outliers
+from heatsight.inverse.linear_gaussian import LinearGaussianProblem
+from heatsight.inverse.robust import MAD_TO_SD, gross_faults, nominal_level, robust_level
+from test_fit_sensors import NAMES, case, clean, fem, readings  # noqa: F401  (fixtures)
+from test_inverse_diagnostics import layout
+from test_inverse_diagnostics import readings as synthetic_readings
+
+
+def test_mad_constant():
+    assert MAD_TO_SD == pytest.approx(1.0 / norm.ppf(0.75), rel=1e-4)  # scipy.stats.norm reference
+
+
+def test_robust_level_ignores_a_wild_reading():
+    rng = np.random.default_rng(0)
+    g = rng.uniform(0.5, 1.5, 15)
+    r = 40.0 * g + 0.2 * rng.standard_normal(15)
+    var = np.full(15, 0.04)
+    clean_level = nominal_level(r, g, var)
+    r[4] = 9.9e37
+    assert robust_level(r, g, var) == pytest.approx(clean_level, abs=0.2)
+    faults = gross_faults(r, g, var, [f"s{i}" for i in range(15)])
+    assert [f.index for f in faults] == [4] and "gross fault" in faults[0].reason
+    keep = np.ones(15, dtype=bool)
+    keep[4] = False
+    assert nominal_level(r, g, var, keep) == pytest.approx(clean_level, abs=0.2)
+    # a full covariance gives the same GLS level as its diagonal when it is diagonal
+    assert nominal_level(r, g, np.diag(var), keep) == pytest.approx(nominal_level(r, g, var, keep), rel=1e-12)
+
+
+@pytest.mark.parametrize("bad", [9.9e37, 1e9, 999999.0])
+def test_extreme_reading_does_not_move_the_answer(clean, bad):  # noqa: F811
+    with threadpool_limits(1):
+        ref = inverse.fit(case(), readings(*clean, seed=11), grid=(3, 4))
+        rd = readings(*clean, seed=11)
+        rd.temperature[5] = bad
+        res = inverse.fit(case(), rd, grid=(3, 4))
+    assert res.summary["set_aside"] == [NAMES[5]]          # the broken channel and no healthy one
+    s, s0 = res.summary, ref.summary
+    assert abs(s["total_power_W"] - s0["total_power_W"]) <= s0["total_power_sd_W"]
+    assert s["total_power_sd_W"] <= 2.0 * s0["total_power_sd_W"]
+
+
+def test_several_faults_together_suspect_the_model():
+    n = 16
+    rng, G, p = layout(n, 8, 60)
+    d = synthetic_readings(rng, G, p, 0.5)
+    d[[2, 9, 11]] += [10.0, -12.0, 9.0]
+    prob = LinearGaussianProblem(G, d, 20.0, np.full(n, 0.25), p)
+    out = screen_outliers(prob, model_first=True)
+    assert out.set_aside == [] and out.kept.all()
+    assert len(set(np.flatnonzero(out.table["flag"] == "suspect")) & {2, 9, 11}) >= 2  # one may be masked
+    assert any("model" in w and "likelier culprit" in w for w in out.warnings)
+
+
+def test_single_fault_still_set_aside_when_model_first():
+    n = 16
+    rng, G, p = layout(n, 8, 60)
+    d = synthetic_readings(rng, G, p, 0.5)
+    d[9] += 12.0
+    prob = LinearGaussianProblem(G, d, 20.0, np.full(n, 0.25), p)
+    out = screen_outliers(prob, model_first=True)
+    assert [s.index for s in out.set_aside] == [9]
+
+
+def test_model_suspect_rule():
+    assert not model_suspect(1, 4)           # one broken sensor is a sensor fault
+    assert not model_suspect(2, 20)          # 10 %: two faults
+    assert model_suspect(2, 10) and model_suspect(3, 40)
+
+
+def test_fit_keeps_sensors_that_fail_together(clean):  # noqa: F811
+    # three channels on one connector block read 8 K high (a shared cause, e.g. its cold junction)
+    rd = readings(*clean, seed=7)
+    rd.temperature[[3, 8, 12]] += 8.0
+    with threadpool_limits(1):
+        res = inverse.fit(case(), rd, grid=(3, 4))
+    assert res.summary["set_aside"] == [] and res.summary["n_sensors_used"] == len(NAMES)
+    assert any("likelier culprit" in w for w in res.warnings)
