@@ -26,6 +26,7 @@ Schema (design §3; every dimensional value is a string with its unit)::
     keep_all_sensors = false       # true keeps sensors flagged as suspect in the fit
     terms = 12                     # radial (end face) / axial (side) terms; default automatic
     harmonics = 6                  # angular harmonics m = 0..harmonics; default automatic
+    model = "smooth"               # "smooth" | "zones" (a level per zone + smooth remainder) | "auto"
 
     [[zones]]                      # optional, any number; regions of the unknown face
     name = "inner"                 # required, unique
@@ -33,6 +34,8 @@ Schema (design §3; every dimensional value is a string with its unit)::
     r = ["0 mm", "50 mm"]          # end faces only; default the whole radius
     theta = ["0 deg", "120 deg"]   # optional, default the full turn; start < end, span <= 360 deg
     z = ["0 mm", "20 mm"]          # side only; default the whole height
+    nominal = "400 W"              # optional: the zone's nominal power (delivered fraction reported)
+    edge = "5 mm"                  # optional: edge width in the zone model; default sharp
 
 Every face of the part must be given: bottom, side and (finite parts) top.  A
 semi-infinite part (height = "infinite") has no top face.  Unknown keys are refused with
@@ -48,12 +51,14 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable
 
-import numpy as np
 
 from ..forward.errors import ForwardModelError
 from ..forward.faces import (Convection, FaceCondition, Flux, Insulated, Temperature,
                            UnknownFlux, UnknownTemperature)
 from ..forward.geometry import Cylinder
+from ..inverse.errors import InverseError
+from ..inverse.problem import (CALIBRATABLE, FACE_NAMES, LOSSES, MODELS, SMOOTHING_ORDER,
+                               STRENGTH_METHODS, FitOptions, Zone)
 
 from .errors import InputError
 from .textfile import read_text
@@ -74,77 +79,12 @@ _KEYS_OF_CONDITION = {
 _NEEDS_CONDUCTIVITY = ("flux", "convection", "unknown-flux")
 TOP_KEYS = ("part", "faces", "sensors", "fit", "zones")
 PART_KEYS = ("radius", "height", "conductivity")
-FACE_NAMES = ("bottom", "top", "side")
 SENSOR_KEYS = ("layout", "readings")
-ZONE_KEYS = ("name", "face", "r", "theta", "z")
-STRENGTH_METHODS = ("evidence", "gcv", "lcurve", "discrepancy")
-SMOOTHING_KINDS = ("size", "gradient", "curvature")
+ZONE_KEYS = ("name", "face", "r", "theta", "z", "nominal", "edge")
+SMOOTHING_KINDS = tuple(SMOOTHING_ORDER)
 
 
 # ---------------------------------------------------------------------------- objects
-
-
-@dataclass(frozen=True)
-class FitOptions:
-    """Options of the [fit] table.
-
-    strength_method: "evidence" (marginal likelihood), "gcv", "lcurve", "discrepancy", or
-        "fixed" (then `strength` holds the value).  strength = "auto" means "evidence".
-    strength: the fixed smoothing strength alpha (> 0), None unless strength_method == "fixed".
-    smoothing: prior precision kind, "size" | "gradient" | "curvature".
-    keep_all_sensors: True keeps sensors flagged as suspect in the fit.
-    terms, harmonics: number of radial/axial terms and of angular harmonics of the unknown
-        face's basis; None lets the fit choose.
-    """
-
-    strength_method: str = "evidence"
-    strength: float | None = None
-    smoothing: str = "gradient"
-    keep_all_sensors: bool = False
-    terms: int | None = None
-    harmonics: int | None = None
-    loss: str = "linear"
-    common_offset_sd: float | None = None
-    calibrate: tuple = ()
-
-    def as_dict(self) -> dict:
-        return {"strength_method": self.strength_method, "strength": self.strength,
-                "smoothing": self.smoothing, "keep_all_sensors": self.keep_all_sensors,
-                "terms": self.terms, "harmonics": self.harmonics, "loss": self.loss,
-                "common_offset_sd": self.common_offset_sd, "calibrate": list(self.calibrate)}
-
-
-@dataclass(frozen=True)
-class Zone:
-    """A region of a face: r and theta on end faces, theta and z on the side (SI: m, rad).
-
-    theta = (start, end) with start < end <= start + 2 pi, counter-clockwise.
-    r is None on the side, z is None on end faces.  face is None only in a fully known
-    case whose zone named no face (the zone is then meant for the face a fit will estimate).
-    """
-
-    name: str
-    face: str | None
-    theta: tuple[float, float]
-    r: tuple[float, float] | None = None
-    z: tuple[float, float] | None = None
-
-    def contains(self, u, v) -> np.ndarray:
-        """Mask of face points inside the zone: (r, theta) on end faces, (theta, z) on the side."""
-        u, v = np.broadcast_arrays(np.asarray(u, float), np.asarray(v, float))
-        if self.z is not None:
-            theta, other, rng = u, v, self.z
-        else:
-            theta, other, rng = v, u, self.r
-        start, end = self.theta
-        span = end - start
-        eps = 1e-12
-        inside = np.mod(theta - start + eps, 2 * math.pi) <= span + 2 * eps if span < 2 * math.pi - eps \
-            else np.ones(theta.shape, bool)
-        if rng is not None:
-            scale = max(abs(rng[1]), 1.0) * 1e-12
-            inside &= (other >= rng[0] - scale) & (other <= rng[1] + scale)
-        return inside
 
 
 @dataclass(frozen=True)
@@ -343,16 +283,13 @@ def _fit_common_offset(ctx: _Ctx, value, where: str) -> dict:
     return {"common_offset_sd": sd}
 
 
-CALIBRATABLE = ("h", "ambient")
-
-
 def _fit_calibrate(ctx: _Ctx, value, where: str) -> dict:
     if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
         raise ctx.error(where, f"expected a list like [\"top.h\", \"top.ambient\"], got {_show(value)}")
     out = []
     for item in value:
         face, _, param = item.strip().partition(".")
-        if face not in ("bottom", "top", "side") or param not in CALIBRATABLE:
+        if face not in FACE_NAMES or param not in CALIBRATABLE:
             raise ctx.error(where, f"'{item}': expected <face>.<parameter> with face bottom, top or side "
                                    f"and parameter {' or '.join(CALIBRATABLE)} of a convection face")
         out.append((face, param))
@@ -361,8 +298,8 @@ def _fit_calibrate(ctx: _Ctx, value, where: str) -> dict:
     return {"calibrate": tuple(out)}
 
 
-#: [fit] keys -> (parser, description).  To add an option: add a FitOptions field with its
-#: default, and a row here.
+#: [fit] keys -> (parser, description).  To add an option: add an inverse.problem.FitOptions
+#: field with its default, and a row here.
 FIT_SCHEMA: dict[str, tuple[Callable[[Any, Any, str], dict], str]] = {
     "strength": (_fit_strength, '"auto" (= "auto:evidence"), "auto:<method>" with method '
                                 'evidence | gcv | lcurve | discrepancy, or a positive number'),
@@ -371,10 +308,13 @@ FIT_SCHEMA: dict[str, tuple[Callable[[Any, Any, str], dict], str]] = {
     "keep_all_sensors": (_fit_bool("keep_all_sensors"), "true keeps suspect sensors in the fit (default false)"),
     "terms": (_fit_count("terms", 1), "number of radial/axial terms of the unknown face (default: automatic)"),
     "harmonics": (_fit_count("harmonics", 0), "number of angular harmonics (default: automatic)"),
-    "loss": (_fit_choice(("linear", "soft_l1", "huber"), "loss"),
+    "loss": (_fit_choice(LOSSES, "loss"),
              'sensor misfit: "linear" (Gaussian, default) or the robust "soft_l1" / "huber"'),
     "common_offset": (_fit_common_offset, "prior sd of an offset shared by all sensors, e.g. \"0.5 K\""),
     "calibrate": (_fit_calibrate, 'convection parameters fitted with the face, e.g. ["top.h"]'),
+    "model": (_fit_choice(MODELS, "model"),
+              'face model: "smooth" (default), "zones" (one level per zone plus a smooth remainder) '
+              'or "auto" (the evidence chooses)'),
 }
 
 
@@ -385,7 +325,10 @@ def _parse_fit(ctx: _Ctx, table: dict | None) -> FitOptions:
     values: dict = {}
     for key, value in table.items():
         values.update(FIT_SCHEMA[key][0](ctx, value, f"fit.{key}"))
-    return FitOptions(**values)
+    try:
+        return FitOptions(**values)
+    except InverseError as exc:
+        raise ctx.error("fit", str(exc)) from None
 
 
 # ---------------------------------------------------------------------------- faces
@@ -527,7 +470,18 @@ def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> t
                 if r[0] < 0 or r[1] > cylinder.radius * (1 + 1e-9):
                     raise ctx.error(f"{where}.r", f"the range must lie within 0 and the radius "
                                                   f"({format_quantity(cylinder.radius, 'length')})")
-        out.append(Zone(name=name, face=face, theta=theta, r=r, z=z))
+        nominal = edge = None
+        if "nominal" in zone:
+            nominal = parse_quantity(ctx.text(zone, "nominal", f"{where}.nominal"), "power",
+                                     f"{where}.nominal", file=ctx.path)
+            if not (math.isfinite(nominal) and nominal != 0):
+                raise ctx.error(f"{where}.nominal", f"expected a non-zero power, e.g. \"400 W\"; got {zone['nominal']!r}")
+        if "edge" in zone:
+            edge = parse_quantity(ctx.text(zone, "edge", f"{where}.edge"), "length", f"{where}.edge",
+                                  file=ctx.path)
+            if not (math.isfinite(edge) and edge >= 0):
+                raise ctx.error(f"{where}.edge", f"expected an edge width >= 0, e.g. \"5 mm\"; got {zone['edge']!r}")
+        out.append(Zone(name=name, face=face, theta=theta, r=r, z=z, nominal=nominal, edge=edge or 0.0))
     return tuple(out)
 
 

@@ -3,248 +3,252 @@
 Model (design notes §5): d = t0 + G c + b + e, G = unknown-face basis fields at the
 sensors (forward.UnknownBasis), t0 = known field, b ~ N(0, diag(tau^2)) thermocouple
 offsets (marginalized: S = diag(sigma^2 + tau^2 + placement variance)), prior
-c ~ N(c0, (alpha P)^-1) with P_k = (N_k / A) (1 + a^2 ev_k)^s, N_k = integral Phi_k^2 dA,
-ev_k the face-Laplacian eigenvalue, s = 0 (size), 1 (gradient), 2 (curvature).
-c0 = gamma u, u = the fundamental eigenfunction (m = 0, first term: uniform where the
-face's edges are free, a smooth bump where a temperature neighbour pins the rim; a plain
-uniform profile would put a Gibbs step at such a rim) or, for an unknown flux beside a
-temperature side, the uniform rim column; gamma is its generalized-least-squares level.  Strength alpha: evidence (then the posterior is
-averaged over alpha, see strength_average), GCV, L-curve, discrepancy or fixed.
+c ~ N(c0, (alpha P)^-1) with P_k = (N_k / A) (1 + a^2 ev_k)^s (design.prior_diagonal).
+c0 = gamma u, u = the nominal profile's shape (design.nominal_direction), gamma its
+generalized-least-squares level.  Strength alpha: evidence (then the posterior is averaged
+over alpha, see strength_average), GCV, L-curve, discrepancy or fixed.  Optional: convection
+parameters calibrated jointly (calibration.py) and the heater-zone model (zones.py).
+
+The steps, each a small function below: design and prior, noise (with placement),
+calibration, screening, posterior, model choice, warnings, derived figures (result.py).
 """
 
 from __future__ import annotations
 
-import math
-from dataclasses import replace
+from dataclasses import dataclass
 
 import numpy as np
 
-from ..forward import Convection, CylinderModel
-
+from .calibration import calibrate
+from .design import Design, nominal_direction, prior_diagonal, smooth_prior  # noqa: F401
 from .diagnostics import screen_outliers, sensor_table
 from .errors import InverseError
-from .face_grid import display_grid
 from .linear_gaussian import LinearGaussianProblem
-from .lmfit_solver import fit_lmfit
+from .lmfit_solver import fit_linear_lmfit
+from .monte_carlo import placement_draws
 from .noise import noise_covariance
-from .readings import SensorReadings, as_readings
-from .result import FitResult, Posterior
+from .problem import Problem
+from .readings import as_readings
+from .result import FitResult, Posterior, valid_zones
 from .strength import choose_strength
 from .strength_average import StrengthAverage
+from .zones import AUTO_THRESHOLD, fit_zones
 
-SMOOTHING_ORDER = {"size": 0, "gradient": 1, "curvature": 2}
-DEFAULT_HARMONICS = 6
-#: prior precision of the nominal direction relative to its smoothness prior (nearly flat)
-NOMINAL_PRECISION_FACTOR = 1e-4
-DEFAULT_TERMS = 10
 #: sensors farther from the unknown face than this fraction of the radius see little detail
 FAR_FRACTION = 0.25  # common practice, no source
+#: reduced chi-square above which the readings scatter more than stated (common practice, no source)
+CHI2_WARNING = 4.0
+
+_nominal_direction = nominal_direction   # the name batch.py imports
 
 
-def _option(case, name, given, default):
-    if given is not None:
-        return given
-    opts = getattr(case, "fit", None)
-    value = getattr(opts, name, None) if opts is not None else None
-    return default if value is None else value
-
-
-def prior_diagonal(basis, radius, smoothing):
-    """P_k = (N_k / A) (1 + a^2 ev_k)^s (dimensionless)."""
-    s = SMOOTHING_ORDER[smoothing]
-    norms = basis.norms()
-    area = _face_area(basis.face, basis.model.cylinder)
-    return norms / area * (1.0 + radius ** 2 * basis.surface_eigenvalues()) ** s
-
-
-def _face_area(face, cyl):
-    return 2 * math.pi * cyl.radius * cyl.height if face == "side" else math.pi * cyl.radius ** 2
-
-
-class _Design:
-    """G and t0 at the sensors for a case, rebuilt when nonlinear parameters change."""
-
-    def __init__(self, cylinder, faces, tolerance, harmonics, terms):
-        self.cylinder, self.faces, self.tolerance = cylinder, dict(faces), tolerance
-        self.harmonics, self.terms = harmonics, terms
-        self.model = CylinderModel(cylinder, self.faces, tolerance=tolerance)
-        self.basis = self.model.basis(harmonics, terms)
-
-    def with_faces(self, faces):
-        return _Design(self.cylinder, faces, self.tolerance, self.harmonics, self.terms)
-
-    def at(self, r, theta, z, gradient=False):
-        ev = self.model.evaluate(r, theta, z)
-        G, dG = self.basis.fields(r, theta, z, gradient=gradient)
-        return G, ev.temperature, ev, dG
-
-
-def _nominal_direction(basis):
-    """Unit coefficients of the nominal profile's shape: the uniform profile where the basis
-    holds it exactly (the m = 0 rim column of an unknown-flux face beside a temperature
-    side), else the fundamental eigenfunction (m = 0 cos, first term)."""
-    u = np.zeros(basis.size)
-    axisym = (basis.m == 0) & ~basis.is_sin
-    rim = np.flatnonzero(axisym & (basis.n_index == -1))
-    u[rim[0] if rim.size else np.flatnonzero(axisym & (basis.n_index == 0))[0]] = 1.0
-    return u
-
-
-def fit(case, readings, *, strength=None, smoothing=None, harmonics=None, terms=None,
-        keep_all_sensors=None, threshold=None, tolerance: float = 1e-8, grid=(41, 72),
-        calibrate=None, solver: str = "auto", loss=None, common_offset_sd=None,
-        monte_carlo: int = 0, seed: int = 0, progress=None) -> FitResult:
-    """Fit the unknown face of `case` (anything with .cylinder, .faces and optionally .zones
-    and .fit options) to `readings` (SensorReadings or a table with r, theta, z,
-    temperature, sigma, offset_sd, position_tolerance in SI).
-
-    strength: 'evidence' (default) | 'gcv' | 'lcurve' | 'discrepancy' | a number.
-    calibrate: {(face, 'h' | 'ambient'): (prior mean, prior sd) or None} nonlinear
-    parameters of convection faces, fitted jointly through lmfit.
-    solver: 'auto' (closed form unless calibrating) or 'lmfit'.
-    loss: 'linear' (Gaussian) or a robust 'soft_l1' / 'huber' sensor misfit (lmfit path).
-    common_offset_sd: prior sd [K] of an offset shared by all sensors (marginalized).
-    monte_carlo: number of seeded draws that also perturb sensor positions within their
-    placement tolerance (0 = off); progress(done, total) is called while drawing.
-    """
-    cyl, faces = case.cylinder, case.faces
-    unknown = [f for f, c in faces.items() if c.unknown]
-    if len(unknown) != 1:
-        raise InverseError("fit needs exactly one unknown face (unknown-temperature or unknown-flux)")
-    face = unknown[0]
+def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
+    """Fit the unknown face of `problem` (an inverse.Problem, or anything with .cylinder,
+    .faces and optionally .zones and .fit; see Problem.from_case) to `readings`
+    (SensorReadings or a table with r, theta, z, temperature, sigma, offset_sd,
+    position_tolerance in SI).  Keyword overrides are FitOptions fields; strength may be
+    'evidence' | 'auto' | 'gcv' | 'lcurve' | 'discrepancy' | a number, and calibrate a
+    {(face, 'h' | 'ambient'): (prior mean, prior sd) or None}.  progress(done, total) is
+    called during Monte Carlo draws."""
+    spec = Problem.from_case(problem, **overrides)
+    opts = spec.options
+    face = spec.unknown_face
     rd = as_readings(readings)
-    if strength is None:
-        method = _option(case, "strength_method", None, "evidence")
-        strength = _option(case, "strength", None, 1.0) if method == "fixed" else method
-    if isinstance(strength, str) and strength == "auto":
-        strength = "evidence"
-    smoothing = _option(case, "smoothing", smoothing, "gradient")
-    if smoothing not in SMOOTHING_ORDER:
-        raise InverseError(f"smoothing must be one of {sorted(SMOOTHING_ORDER)}, got {smoothing!r}")
-    harmonics = int(_option(case, "harmonics", harmonics, DEFAULT_HARMONICS))
-    terms = int(_option(case, "terms", terms, DEFAULT_TERMS))
-    keep_all = bool(_option(case, "keep_all_sensors", keep_all_sensors, False))
-    loss = _option(case, "loss", loss, "linear")
-    common_offset_sd = _option(case, "common_offset_sd", common_offset_sd, None)
-    if calibrate is None:
-        calibrate = {key: None for key in (_option(case, "calibrate", None, ()) or ())}
     if rd.n < 2:
         raise InverseError(f"at least 2 usable sensors are needed, got {rd.n}")
+    if opts.calibrate and opts.model == "zones":
+        raise InverseError("the zone model cannot be combined with calibrated face parameters yet; "
+                           "use model = \"smooth\" or drop calibrate")
 
-    design = _Design(cyl, faces, tolerance, harmonics, terms)
-    basis = design.basis
-    P = prior_diagonal(basis, cyl.radius, smoothing)
-    u_uniform = _nominal_direction(basis)
-    # The level gamma of the nominal profile is fitted from the readings; a nearly flat prior
-    # in that one (coordinate) direction keeps its uncertainty in the bands instead of
-    # treating the fitted level as known.
-    P = P.copy()
-    P[u_uniform > 0] *= NOMINAL_PRECISION_FACTOR
+    design = Design(spec.cylinder, spec.faces, opts.tolerance, *opts.basis_size)
+    P, u = smooth_prior(design.basis, spec.cylinder.radius, opts.smoothing)
     warnings: list[str] = []
-
     G, t0, ev, dG = design.at(rd.r, rd.theta, rd.z, gradient=True)
-    base_var = noise_covariance(rd.sigma, rd.offset_sd, common_offset_sd)
+    warnings += _truncation_warnings(ev, rd)
+    problem = _with_placement(_linear_problem(G, t0, _noise(rd, opts), rd, P, u), rd, ev, dG, P, u, opts)
+    if opts.calibrate:
+        design = _calibrated_design(design, rd, problem, P, opts)
+        problem = _linear_problem(*design.sensors(rd.r, rd.theta, rd.z), problem.noise, rd, P, u)
+
+    screen = _screen(problem, rd, opts)
+    warnings += screen.warnings
+    post = _posterior(design, rd, screen, P, opts, warnings)
+    if post.calibration is not None:
+        design = post.calibration.design
+    columns, post, model_info = _choose_model(spec, design, rd.subset(screen.kept), screen, post, warnings)
+
+    warnings += _layout_warnings(face, spec.cylinder, rd.subset(screen.kept))
+    warnings += _misfit_warnings(screen)
+    mc = None
+    if opts.monte_carlo and columns is design:
+        alphas = post.averaged.alpha_mixture() if post.averaged is not None else \
+            (np.array([screen.choice.alpha]), np.ones(1))
+        mc = placement_draws(design, rd, screen.kept, P, screen.problem, alphas, int(opts.monte_carlo),
+                             opts.seed, opts.grid, progress)
+    elif opts.monte_carlo:
+        warnings.append("Monte Carlo draws of sensor positions are not available with the zone model; "
+                        "the bands are the zone model's posterior")
+    return FitResult.build(spec=spec, design=columns, readings=rd, kept=screen.kept, problem=screen.problem,
+                           choice=screen.choice, posterior=post, sensors=screen.table,
+                           set_aside=screen.set_aside, warnings=warnings, monte_carlo=mc, extra=model_info)
+
+
+# ------------------------------------------------------------------------ design, prior, noise
+def _linear_problem(G, t0, noise, rd, P, u):
+    """The linear Gaussian problem with prior mean gamma u, gamma the GLS level of u."""
+    pb = LinearGaussianProblem(G, rd.temperature, t0, noise, P)
+    gu = pb.noise.whiten(G @ u)
+    denom = float(gu @ gu)
+    gamma = float(gu @ pb.noise.whiten(rd.temperature - pb.t0)) / denom if denom > 0 else 0.0
+    return LinearGaussianProblem(G, rd.temperature, t0, pb.noise, P, c0=gamma * u)
+
+
+def _noise(rd, opts):
+    return noise_covariance(rd.sigma, rd.offset_sd, opts.common_offset_sd)
+
+
+def _with_placement(problem, rd, ev, dG, P, u, opts):
+    """Placement tolerance: effective variance (grad T . delta x)^2 with delta x uniform in +-tol."""
+    if not np.any(rd.position_tolerance > 0):
+        return problem
+    request = opts.strength_request
+    first = choose_strength(problem, request if not isinstance(request, str) else "evidence")
+    grad = ev.gradient + np.einsum("dpk,k->dp", dG, problem.coefficients(first.alpha))
+    pos_var = (grad ** 2).sum(axis=0) * rd.position_tolerance ** 2 / 3.0
+    base = _noise(rd, opts)
+    var = base + (np.diag(pos_var) if base.ndim == 2 else pos_var)
+    return _linear_problem(problem.G, problem.t0, var, rd, P, u)
+
+
+def _truncation_warnings(ev, rd):
     trunc = ev.truncation_error
-    if np.any(trunc > 0.1 * rd.sigma):
-        worst = int(np.argmax(trunc / rd.sigma))
-        warnings.append(f"series truncation error at sensor {rd.names[worst]} is {trunc[worst]:.2g} K, "
-                        "more than a tenth of its sigma; the sensor may sit very close to a face with data")
+    if not np.any(trunc > 0.1 * rd.sigma):
+        return []
+    worst = int(np.argmax(trunc / rd.sigma))
+    return [f"series truncation error at sensor {rd.names[worst]} is {trunc[worst]:.2g} K, "
+            "more than a tenth of its sigma; the sensor may sit very close to a face with data"]
 
-    def build(G, t0, var):
-        gu = G @ u_uniform
-        wgu = np.linalg.solve(var, gu) if var.ndim == 2 else gu / var
-        denom = float(gu @ wgu)
-        gamma = float(wgu @ (rd.temperature - t0)) / denom if denom > 0 else 0.0
-        return LinearGaussianProblem(G, rd.temperature, t0, var, P, c0=gamma * u_uniform)
 
-    var = base_var
-    problem = build(G, t0, var)
-    # Placement tolerance: effective variance (grad T . delta x)^2 with delta x uniform in +-tol.
-    if np.any(rd.position_tolerance > 0):
-        c_first = choose_strength(problem, strength if not isinstance(strength, str) else "evidence")
-        c_hat = problem.coefficients(c_first.alpha)
-        grad = ev.gradient + np.einsum("dpk,k->dp", dG, c_hat)
-        pos_var = (grad ** 2).sum(axis=0) * rd.position_tolerance ** 2 / 3.0
-        var = base_var + (np.diag(pos_var) if base_var.ndim == 2 else pos_var)
-        problem = build(G, t0, var)
-    if calibrate:
-        # Screen and tabulate the sensors at calibrated face parameters, not the nominal
-        # ones: a nominal h that is off makes healthy sensors near that face look faulty.
-        # The calibration itself uses the sensors that pass a first screening at the
-        # nominal parameters, so a faulty sensor cannot drag h with it.
-        if keep_all:
-            pre_kept, pre_alpha = np.ones(rd.n, dtype=bool), choose_strength(problem, strength).alpha
-        else:
-            pre = screen_outliers(problem, strength=strength, threshold=threshold, names=rd.names)
-            pre_kept, pre_alpha = pre.kept, pre.strength.alpha
-        _, _, design = _calibrate(design, rd, pre_kept, problem.subset(np.flatnonzero(pre_kept)),
-                                  pre_alpha, P, calibrate)
-        G, t0, _, _ = design.at(rd.r, rd.theta, rd.z)
-        problem = build(G, t0, var)
-
-    screening = None
-    if keep_all:
-        choice = choose_strength(problem, strength)
-        final = problem
-        kept = np.ones(rd.n, dtype=bool)
-        table = sensor_table(problem, choice.alpha, names=rd.names)
-        set_aside = []
+def _calibrated_design(design, rd, problem, P, opts):
+    """The design at calibrated face parameters, calibrated on the sensors that pass a first
+    screening at the nominal ones (a faulty sensor cannot drag h with it); screening and the
+    sensor table then use the calibrated parameters, not nominal ones that may be off."""
+    request = opts.strength_request
+    if opts.keep_all_sensors:
+        kept, alpha = np.ones(rd.n, dtype=bool), choose_strength(problem, request).alpha
     else:
-        screening = screen_outliers(problem, strength=strength, threshold=threshold, names=rd.names)
-        choice, final, kept = screening.strength, screening.problem, screening.kept
-        table, set_aside = screening.table, screening.set_aside
-        warnings.extend(screening.warnings)
-        for s in set_aside:
-            warnings.append(f"sensor {s.sensor} set aside: {s.reason}")
-    warnings.extend(choice.warnings)
+        pre = screen_outliers(problem, strength=request, threshold=opts.threshold, names=rd.names)
+        kept, alpha = pre.kept, pre.strength.alpha
+    cal = calibrate(design, rd, kept, problem.subset(np.flatnonzero(kept)), alpha, P, opts.calibration)
+    return cal.design
 
-    nonlinear = None
-    if calibrate:
-        post, nonlinear, design = _calibrate(design, rd, kept, final, choice.alpha, P, calibrate)
-    elif strength == "evidence" or (isinstance(strength, str) and strength == "auto"):
+
+# ------------------------------------------------------------------------ screening
+@dataclass
+class _Screen:
+    choice: object
+    problem: LinearGaussianProblem
+    kept: np.ndarray
+    table: object
+    set_aside: list
+    warnings: list
+
+
+def _screen(problem, rd, opts) -> _Screen:
+    """Screen the sensors (unless keep_all_sensors) and choose the strength."""
+    request = opts.strength_request
+    if opts.keep_all_sensors:
+        choice = choose_strength(problem, request)
+        return _Screen(choice, problem, np.ones(rd.n, dtype=bool),
+                       sensor_table(problem, choice.alpha, names=rd.names), [], list(choice.warnings))
+    s = screen_outliers(problem, strength=request, threshold=opts.threshold, names=rd.names)
+    warnings = list(s.warnings) + [f"sensor {x.sensor} set aside: {x.reason}" for x in s.set_aside]
+    return _Screen(s.strength, s.problem, s.kept, s.table, list(s.set_aside),
+                   warnings + list(s.strength.warnings))
+
+
+# ------------------------------------------------------------------------ posterior
+def _posterior(design, rd, screen, P, opts, warnings) -> Posterior:
+    """Posterior of c: joint with calibrated parameters, averaged over alpha (evidence),
+    at one alpha, or from the robust lmfit path."""
+    final, alpha = screen.problem, screen.choice.alpha
+    if opts.calibrate:
+        cal = calibrate(design, rd, screen.kept, final, alpha, P, opts.calibration)
+        K = P.size
+        return Posterior(cal.coefficients, cal.covariance[:K, :K], alpha, None, cal)
+    if opts.strength_method == "evidence":
         avg = StrengthAverage(final)
         warnings.extend(avg.warnings)
-        post = Posterior(avg.coefficients(), avg.posterior_covariance(), choice.alpha, avg)
+        post = Posterior(avg.coefficients(), avg.posterior_covariance(), alpha, avg)
     else:
-        post = Posterior(final.coefficients(choice.alpha), final.posterior_covariance(choice.alpha),
-                         choice.alpha, None)
-    if loss != "linear" and not calibrate:
-        from .lmfit_solver import fit_linear_lmfit
-        lf = fit_linear_lmfit(final.G, final.d, final.t0, final.noise, P, choice.alpha, c0=final.c0,
-                              loss=loss)
-        post = Posterior(lf.coefficients, lf.coefficient_covariance, choice.alpha, None)
-        warnings.append(f"robust {loss} misfit: bands come from the linearized robust fit at a "
+        post = Posterior(final.coefficients(alpha), final.posterior_covariance(alpha), alpha, None)
+    if opts.loss != "linear":
+        lf = fit_linear_lmfit(final.G, final.d, final.t0, final.noise, P, alpha, c0=final.c0, loss=opts.loss)
+        warnings.append(f"robust {opts.loss} misfit: bands come from the linearized robust fit at a "
                         "single smoothing strength")
-    elif solver == "lmfit" and not calibrate:
-        from .lmfit_solver import fit_linear_lmfit
-        lf = fit_linear_lmfit(final.G, final.d, final.t0, final.noise, P, choice.alpha, c0=final.c0)
+        return Posterior(lf.coefficients, lf.coefficient_covariance, alpha, None)
+    if opts.solver == "lmfit":
+        lf = fit_linear_lmfit(final.G, final.d, final.t0, final.noise, P, alpha, c0=final.c0)
         if post.averaged is None:
-            post = Posterior(lf.coefficients, lf.coefficient_covariance, choice.alpha, None)
-
-    warnings.extend(_layout_warnings(face, cyl, rd.subset(kept), post, final, P, choice.alpha))
-    chi2 = float(final.chi2(choice.alpha))
-    n_kept = int(kept.sum())
-    edf = float(final.effective_parameters(choice.alpha))
-    if n_kept - edf > 2 and chi2 / max(n_kept - edf, 1.0) > 4.0:
-        warnings.append(f"the readings scatter more than their stated uncertainty allows (chi2 = {chi2:.3g} "
-                        f"for {n_kept - edf:.1f} degrees of freedom): check sigma, the face conditions or "
-                        "the sensor positions")
-
-    mc = None
-    if monte_carlo:
-        avg = post.averaged
-        alphas = (avg._a, avg._w) if avg is not None else (np.array([choice.alpha]), np.ones(1))
-        mc = _monte_carlo(design, rd, kept, P, final, alphas, int(monte_carlo), seed, grid, progress)
-
-    result = FitResult.build(case=case, design=design, face=face, readings=rd, kept=kept, problem=final,
-                           choice=choice, posterior=post, sensors=table, set_aside=set_aside,
-                           warnings=warnings, grid_size=grid, nonlinear=nonlinear,
-                           monte_carlo=mc, smoothing=smoothing, strength_request=strength)
-    result.summary["loss"] = loss
-    return result
+            return Posterior(lf.coefficients, lf.coefficient_covariance, alpha, None)
+    return post
 
 
-def _layout_warnings(face, cyl, rd, post, problem, P, alpha):
+def _choose_model(spec, design, sub, screen, post, warnings):
+    """(model columns, posterior, summary keys): the smooth model, or the zone model when
+    asked (model = "zones") or preferred by the evidence (model = "auto")."""
+    opts = spec.options
+    if opts.model == "smooth":
+        return design, post, {"model": "smooth"}
+    cyl = spec.cylinder
+    zones = [z for z in valid_zones(spec.zones, design.face_name, cyl, []) if hasattr(z, "indicator")]
+    if not zones:
+        warnings.append(f"model = {opts.model!r} needs zones declared on the {design.face_name} face "
+                        "(with r/theta or theta/z ranges); the smooth model is used")
+        return design, post, {"model": "smooth"}
+    if post.calibration is not None:
+        warnings.append("the zone model is not combined with calibrated face parameters; the smooth "
+                        "model is used")
+        return design, post, {"model": "smooth"}
+    from .result import _zone_area
+
+    areas = [_zone_area(z, design.face_name, cyl.radius, cyl.height) for z in zones]
+    final = screen.problem
+    alphas = post.averaged.alphas if post.averaged is not None else np.array([post.alpha])
+    pts_u, pts_v = _level_points(design, cyl)
+    B, known = design.face(pts_u, pts_v)
+    scale = float(np.sqrt(np.mean((known + B @ post.c) ** 2)))
+    remainder = prior_diagonal(design.basis, cyl.radius, opts.smoothing)
+    zf = fit_zones(design, final, sub, alphas, zones, areas, scale, remainder)
+    info = {"model_evidence": zf.log_evidence, "model_weights": zf.weights}
+    use_zones = opts.model == "zones" or zf.weights["zones"] >= AUTO_THRESHOLD
+    if opts.model == "auto" and not use_zones:
+        warnings.append(f"the evidence does not clearly prefer the zone model (probability "
+                        f"{zf.weights['zones']:.2f}); the smooth model is used")
+    if not use_zones:
+        return design, post, {"model": "smooth", **info}
+    return zf.design, Posterior(zf.c, zf.C, zf.alpha, None), {"model": "zones", **info}
+
+
+def _level_points(design, cyl):
+    from .face_grid import display_grid
+
+    pts = display_grid(design.face_name, cyl.radius, cyl.height, 11, 24)
+    return pts.u, pts.v
+
+
+# ------------------------------------------------------------------------ warnings
+def _misfit_warnings(screen):
+    alpha = screen.choice.alpha
+    chi2 = float(screen.problem.chi2(alpha))
+    dof = int(screen.kept.sum()) - float(screen.problem.effective_parameters(alpha))
+    if dof > 2 and chi2 / max(dof, 1.0) > CHI2_WARNING:
+        return [f"the readings scatter more than their stated uncertainty allows (chi2 = {chi2:.3g} "
+                f"for {dof:.1f} degrees of freedom): check sigma, the face conditions or the sensor positions"]
+    return []
+
+
+def _layout_warnings(face, cyl, rd):
     out = []
     a = cyl.radius
     if face != "side":
@@ -262,90 +266,3 @@ def _layout_warnings(face, cyl, rd, post, problem, P, alpha):
         out.append(f"the nearest sensor is {dist.min() * 1e3:.3g} mm from the unknown face "
                    f"(over {FAR_FRACTION:.0%} of the radius): fine detail of the profile is unresolved")
     return out
-
-
-def _calibrate(design, rd, kept, problem, alpha, P, calibrate):
-    """Joint fit of c and convection-face parameters through lmfit (fixed alpha)."""
-    import lmfit
-
-    params = lmfit.Parameters()
-    priors = {}
-    names = {}
-    for (face, what), prior in dict(calibrate).items():
-        cond = design.faces.get(face)
-        if not isinstance(cond, Convection):
-            raise InverseError(f"can only calibrate h or ambient of a convection face, not {face}.{what}")
-        if what not in ("h", "ambient"):
-            raise InverseError(f"calibration parameter must be 'h' or 'ambient', got {what!r}")
-        if what == "ambient" and callable(cond.ambient):
-            raise InverseError(f"face {face}: an ambient profile cannot be calibrated")
-        key = f"{face}_{what}"
-        start = cond.h if what == "h" else float(cond.ambient)
-        params.add(key, value=start, min=1e-6 if what == "h" else 1.0)
-        names[key] = (face, what)
-        if prior is not None:
-            priors[key] = tuple(prior)
-    idx = np.flatnonzero(kept)
-    sub = rd.subset(kept)
-    cache = {}
-
-    def faces_for(values):
-        faces = dict(design.faces)
-        for key, (face, what) in names.items():
-            cond = faces[face]
-            faces[face] = Convection(values[key] if what == "h" else cond.h,
-                                     values[key] if what == "ambient" else cond.ambient)
-        return faces
-
-    def design_fn(values):
-        key = tuple(round(values[k], 12) for k in names)
-        if key not in cache:
-            d = design.with_faces(faces_for(values))
-            G, t0, _, _ = d.at(sub.r, sub.theta, sub.z)
-            cache[key] = (G, t0)
-        return cache[key]
-
-    lf = fit_lmfit(design_fn, params, problem.d, problem.noise, P, alpha, c0=problem.c0,
-                   priors=priors or None)
-    values = {k: float(v) for k, v in lf.values.items()}
-    sds = lf.sd
-    new_design = design.with_faces(faces_for(values))
-    K = P.size
-    cov = lf.covariance
-    post = Posterior(lf.coefficients, cov[:K, :K], alpha, None)
-    info = {k: {"face": names[k][0], "parameter": names[k][1], "value": values[k],
-                "sd": float(sds.get(k, np.nan))} for k in names}
-    info["_covariance"] = cov
-    return post, info, new_design
-
-
-def _monte_carlo(design, rd, kept, P, problem, alphas, draws, seed, grid, progress):
-    """Draws of the face profile with sensor positions perturbed within their tolerance
-    (uniform in +-tol), the strength alpha drawn from its evidence weights (alphas =
-    (grid, weights); one value for a fixed strength) and c from its posterior given both."""
-    rng = np.random.default_rng(seed)
-    sub = rd.subset(kept)
-    face = design.basis.face
-    cyl = design.cylinder
-    pts = display_grid(face, cyl.radius, cyl.height, *grid)
-    B = design.basis.face_values(pts.u, pts.v)
-    known = design.basis.known_face_values(pts.u, pts.v)
-    samples = np.empty((draws, pts.u.size))
-    tol = sub.position_tolerance
-    a, L = cyl.radius, cyl.height
-    for j in range(draws):
-        r = np.clip(sub.r + rng.uniform(-1, 1, sub.n) * tol, 0.0, a)
-        th = sub.theta + rng.uniform(-1, 1, sub.n) * tol / np.maximum(sub.r, tol + 1e-12)
-        z = sub.z + rng.uniform(-1, 1, sub.n) * tol
-        z = np.clip(z, 0.0, L) if math.isfinite(L) else np.maximum(z, 0.0)
-        G, t0, _, _ = design.at(r, th, z)
-        pb = LinearGaussianProblem(G, sub.temperature, t0, problem.noise, P, c0=problem.c0)
-        alpha = float(rng.choice(alphas[0], p=alphas[1]))
-        c = pb.coefficients(alpha)
-        C = pb.posterior_covariance(alpha)
-        Lc = np.linalg.cholesky(C + 1e-12 * np.trace(C) / C.shape[0] * np.eye(C.shape[0]))
-        draw = c + Lc @ rng.standard_normal(c.size)
-        samples[j] = known + B @ draw
-        if progress is not None:
-            progress(j + 1, draws)
-    return {"samples": samples, "points": pts}
