@@ -24,9 +24,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-#: Random standard deviation of a reading when neither the layout nor the readings give a
-#: sigma (common practice, no source).
-DEFAULT_SIGMA_K = 0.5
+from ..inverse.readings import DEFAULT_SIGMA_K  # noqa: F401  (sigma when none is given)
 
 #: Class assumed when a layout row names a type but no class (common practice, no source:
 #: standard-grade wire is the usual default).

@@ -29,10 +29,11 @@ from .monte_carlo import placement_draws
 from .noise import noise_covariance
 from .problem import Problem
 from .readings import as_readings
-from .result import FitResult, Posterior, valid_zones
-from .strength import choose_strength
+from .face_grid import display_grid
+from .result import FitResult, Posterior, valid_zones, zone_area
+from .strength import choose_strength, default_alphas
 from .strength_average import StrengthAverage
-from .zones import AUTO_THRESHOLD, fit_zones
+from .zones import AUTO_THRESHOLD, ZoneModel
 
 #: sensors farther from the unknown face than this fraction of the radius see little detail
 FAR_FRACTION = 0.25  # common practice, no source
@@ -70,12 +71,14 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
         design = _calibrated_design(design, rd, problem, P, opts)
         problem = _linear_problem(*design.sensors(rd.r, rd.theta, rd.z), problem.noise, rd, P, u)
 
-    screen = _screen(problem, rd, opts)
+    zone_model = _zone_model(spec, design, rd, problem, warnings)
+    screen = _screen(zone_model.marginal if zone_model else problem, rd, opts)
     warnings += screen.warnings
-    post = _posterior(design, rd, screen, P, opts, warnings)
+    smooth = screen if zone_model is None else _smooth_on_kept(problem, screen, opts, warnings)
+    post = _posterior(design, rd, smooth, P, opts, warnings)
     if post.calibration is not None:
         design = post.calibration.design
-    columns, post, model_info = _choose_model(spec, design, rd.subset(screen.kept), screen, post, warnings)
+    columns, post, screen, model_info = _choose_model(opts, design, zone_model, screen, smooth, post, warnings)
 
     warnings += _layout_warnings(face, spec.cylinder, rd.subset(screen.kept))
     warnings += _misfit_warnings(screen)
@@ -90,7 +93,7 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
                         "the bands are the zone model's posterior")
     return FitResult.build(spec=spec, design=columns, readings=rd, kept=screen.kept, problem=screen.problem,
                            choice=screen.choice, posterior=post, sensors=screen.table,
-                           set_aside=screen.set_aside, warnings=warnings, monte_carlo=mc, extra=model_info)
+                           set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)), monte_carlo=mc, extra=model_info)
 
 
 # ------------------------------------------------------------------------ design, prior, noise
@@ -194,47 +197,56 @@ def _posterior(design, rd, screen, P, opts, warnings) -> Posterior:
     return post
 
 
-def _choose_model(spec, design, sub, screen, post, warnings):
-    """(model columns, posterior, summary keys): the smooth model, or the zone model when
-    asked (model = "zones") or preferred by the evidence (model = "auto")."""
+def _zone_model(spec, design, rd, problem, warnings):
+    """The zone model (zones.ZoneModel on all sensors) when asked for (model "zones" or
+    "auto") and zones with ranges are declared on the unknown face, else None."""
     opts = spec.options
     if opts.model == "smooth":
-        return design, post, {"model": "smooth"}
+        return None
     cyl = spec.cylinder
     zones = [z for z in valid_zones(spec.zones, design.face_name, cyl, []) if hasattr(z, "indicator")]
     if not zones:
         warnings.append(f"model = {opts.model!r} needs zones declared on the {design.face_name} face "
                         "(with r/theta or theta/z ranges); the smooth model is used")
-        return design, post, {"model": "smooth"}
-    if post.calibration is not None:
+        return None
+    if opts.calibrate:
         warnings.append("the zone model is not combined with calibrated face parameters; the smooth "
                         "model is used")
-        return design, post, {"model": "smooth"}
-    from .result import _zone_area
-
-    areas = [_zone_area(z, design.face_name, cyl.radius, cyl.height) for z in zones]
-    final = screen.problem
-    alphas = post.averaged.alphas if post.averaged is not None else np.array([post.alpha])
-    pts_u, pts_v = _level_points(design, cyl)
-    B, known = design.face(pts_u, pts_v)
-    scale = float(np.sqrt(np.mean((known + B @ post.c) ** 2)))
+        return None
+    areas = [zone_area(z, design.face_name, cyl.radius, cyl.height) for z in zones]
+    pts = display_grid(design.face_name, cyl.radius, cyl.height, 11, 24)
+    B, known = design.face(pts.u, pts.v)
+    scale = float(np.sqrt(np.mean((known + B @ problem.c0) ** 2)))
     remainder = prior_diagonal(design.basis, cyl.radius, opts.smoothing)
-    zf = fit_zones(design, final, sub, alphas, zones, areas, scale, remainder)
+    return ZoneModel(design, rd, problem, zones, areas, scale, remainder)
+
+
+def _smooth_on_kept(problem, screen, opts, warnings) -> _Screen:
+    """The smooth model on the sensors the zone model's screening kept."""
+    final = problem.subset(np.flatnonzero(screen.kept))
+    choice = choose_strength(final, opts.strength_request)
+    warnings.extend(w for w in choice.warnings if w not in warnings)
+    return _Screen(choice, final, screen.kept, screen.table, screen.set_aside, [])
+
+
+def _choose_model(opts, design, zone_model, screen, smooth, post, warnings):
+    """(model columns, posterior, screening, summary keys): the smooth model, or the zone
+    model when asked (model = "zones") or clearly preferred by the evidence ("auto")."""
+    if zone_model is None:
+        return design, post, smooth, {"model": "smooth"}
+    marginal = zone_model.marginal.subset(np.flatnonzero(screen.kept))
+    alphas = default_alphas(marginal) if opts.strength_method == "evidence" else np.array([screen.choice.alpha])
+    zf = zone_model.fit(screen.kept, alphas)
     info = {"model_evidence": zf.log_evidence, "model_weights": zf.weights}
+    if zf.edge:
+        warnings.append("the zone model's evidence-weighted strength reaches the edge of its grid")
     use_zones = opts.model == "zones" or zf.weights["zones"] >= AUTO_THRESHOLD
     if opts.model == "auto" and not use_zones:
         warnings.append(f"the evidence does not clearly prefer the zone model (probability "
                         f"{zf.weights['zones']:.2f}); the smooth model is used")
     if not use_zones:
-        return design, post, {"model": "smooth", **info}
-    return zf.design, Posterior(zf.c, zf.C, zf.alpha, None), {"model": "zones", **info}
-
-
-def _level_points(design, cyl):
-    from .face_grid import display_grid
-
-    pts = display_grid(design.face_name, cyl.radius, cyl.height, 11, 24)
-    return pts.u, pts.v
+        return design, post, smooth, {"model": "smooth", **info}
+    return zone_model.columns, Posterior(zf.c, zf.C, zf.alpha, None), screen, {"model": "zones", **info}
 
 
 # ------------------------------------------------------------------------ warnings

@@ -8,6 +8,10 @@ import numpy as np
 
 from .errors import InverseError
 
+#: Random standard deviation of a reading when no sigma is given [K] (common practice, no
+#: source); the one place this default lives (data_io.thermocouples uses it).
+DEFAULT_SIGMA_K = 0.5
+
 
 @dataclass
 class SensorReadings:
@@ -60,7 +64,7 @@ class SensorReadings:
         pos = np.nan_to_num(col("position_tolerance", 0.0), nan=0.0)
         off = np.nan_to_num(col("offset_sd", 0.0), nan=0.0)
         return cls(names, col("r", np.nan), col("theta", np.nan), col("z", np.nan),
-                   col("temperature", np.nan), col("sigma", 0.5), off, pos)
+                   col("temperature", np.nan), col("sigma", DEFAULT_SIGMA_K), off, pos)
 
 
 def as_readings(readings) -> SensorReadings:

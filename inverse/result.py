@@ -86,7 +86,7 @@ def _gaussian_draws(mean, cov, n, seed):
     return mean[None, :] + rng.standard_normal((n, mean.size)) @ L.T
 
 
-def _zone_area(zone, face, radius, height, n=1024):
+def zone_area(zone, face, radius, height, n=1024):
     """Area [m^2] of a zone by the midpoint rule on n x n cells of the face (theta x r with
     weight r on end faces, theta x z on the side)."""
     th = 2.0 * np.pi * (np.arange(n) + 0.5) / n
@@ -122,7 +122,7 @@ def _zone_entries(zones, names, mean, sd, face, cyl, quantity, warnings):
         zm, zsd = float(mean[i]), float(sd[i])
         # The masked rule's zone edge is as coarse as its nodes (several % of the area of
         # a small zone); the area, and with it the power, comes from a fine midpoint rule.
-        za = _zone_area(zone, face, cyl.radius, cyl.height)
+        za = zone_area(zone, face, cyl.radius, cyl.height)
         entry = {"name": zone.name, "mean": zm, "sd": zsd, "lower": zm - Z95 * zsd,
                  "upper": zm + Z95 * zsd, "area_m2": za}
         nominal = getattr(zone, "nominal", None)

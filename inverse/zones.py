@@ -147,19 +147,18 @@ class ZoneDesign:
 class ZoneFit:
     """The zone model's posterior and the evidence comparison with the smooth model.
 
-    design: ZoneDesign; c (K + J,), C: moment-matched mixture over alpha; log_evidence:
-    {"smooth": ..., "zones": ...} integrated over log alpha; weights: posterior model
-    probabilities (equal prior odds); prior_mean, prior_sd: the zone levels' prior.
+    c (K + J,), C: moment-matched mixture over alpha (law of total covariance); alpha: the
+    evidence-weighted geometric mean strength; log_evidence: {"smooth": ..., "zones": ...}
+    integrated over log alpha on one grid; weights: posterior model probabilities (equal
+    prior odds); edge: True when the zone model's alpha weights reach the grid's ends.
     """
 
-    design: ZoneDesign
     c: np.ndarray
     C: np.ndarray
     alpha: float
     log_evidence: dict
     weights: dict
-    prior_mean: np.ndarray
-    prior_sd: np.ndarray
+    edge: bool
 
 
 def zone_prior(zones, level_scale, areas):
@@ -171,54 +170,64 @@ def zone_prior(zones, level_scale, areas):
     return mu, np.full(mu.size, ZONE_PRIOR_FACTOR * scale)
 
 
-def fit_zones(design, smooth, sub, alphas, zones, areas, level_scale, remainder_prior) -> ZoneFit:
-    """Zone model on the kept sensors `sub` given the smooth model's LinearGaussianProblem
-    `smooth` (same readings and noise) on the log-alpha grid `alphas`.  The remainder has
-    prior mean 0 and precision alpha * remainder_prior (the zones carry the levels)."""
-    nearest = _nearest(design, sub)
-    zd = ZoneDesign(design, zones, nearest)
-    Gz = zd.sensors(sub.r, sub.theta, sub.z)[0][:, design.size:]
-    mu, s = zone_prior(zones, level_scale, areas)
-    S = smooth.noise.covariance
-    c0 = np.zeros(design.size)
-    P = np.asarray(remainder_prior, float)
-    marginal = LinearGaussianProblem(smooth.G, smooth.d - Gz @ mu, smooth.t0,
-                                     S + (Gz * s ** 2) @ Gz.T, P, c0)
-    alphas = np.atleast_1d(alphas)
-    le_z, le_s = marginal.log_evidence(alphas), smooth.log_evidence(alphas)
-    w = np.exp(le_z - le_z.max())
-    w /= w.sum()
-    keep = w > 1e-8 * w.max()
-    X = np.hstack([smooth.G, Gz])
-    Si = np.linalg.inv(S)
-    XtSi = X.T @ Si
-    H = XtSi @ X
-    x0 = np.concatenate([c0, mu])
-    b0 = XtSi @ (smooth.d - smooth.t0)
-    means, covs = [], []
-    for a in alphas[keep]:
-        prec = np.concatenate([a * P, 1.0 / s ** 2])
-        Lam = H + np.diag(prec)
-        C = np.linalg.inv(Lam)
-        C = 0.5 * (C + C.T)
-        means.append(C @ (b0 + prec * x0))
-        covs.append(C)
-    wk = w[keep] / w[keep].sum()
-    M = np.array(means)
-    mean = wk @ M
-    cov = np.einsum("a,akl->kl", wk, np.array(covs)) + (M - mean).T @ ((M - mean) * wk[:, None])
-    n_a = alphas.size
-    logz = {"smooth": float(logsumexp(le_s) - math.log(n_a)), "zones": float(logsumexp(le_z) - math.log(n_a))}
-    p_z = 1.0 / (1.0 + math.exp(min(700.0, logz["smooth"] - logz["zones"])))
-    alpha = float(np.exp(wk @ np.log(alphas[keep])))
-    return ZoneFit(zd, mean, cov, alpha, logz, {"smooth": 1.0 - p_z, "zones": p_z}, mu, s)
+class ZoneModel:
+    """The zone model on all sensors of `smooth` (the smooth model's LinearGaussianProblem:
+    readings, noise, G, t0) with zone levels marginalized: `marginal` is a
+    LinearGaussianProblem in the remainder's coefficients (prior mean 0, precision
+    alpha * remainder_prior) whose noise is S + G_zone diag(s^2) G_zone^T; screening,
+    strength and evidence of the zone model work on it."""
+
+    def __init__(self, design, rd, smooth, zones, areas, level_scale, remainder_prior):
+        self.columns = ZoneDesign(design, zones, _nearest(design, rd))
+        self.Gz = self.columns.sensors(rd.r, rd.theta, rd.z)[0][:, design.size:]
+        self.mu, self.s = zone_prior(zones, level_scale, areas)
+        self.smooth = smooth
+        self.P = np.asarray(remainder_prior, float)
+        S = smooth.noise.covariance
+        self.marginal = LinearGaussianProblem(smooth.G, smooth.d - self.Gz @ self.mu, smooth.t0,
+                                              S + (self.Gz * self.s ** 2) @ self.Gz.T, self.P,
+                                              np.zeros(design.size))
+
+    def fit(self, kept, alphas) -> ZoneFit:
+        """Posterior of (c, z) on the kept sensors, averaged over the log-alpha grid `alphas`
+        with the zone model's evidence weights, and the evidence comparison."""
+        idx = np.flatnonzero(kept)
+        smooth, marginal = self.smooth.subset(idx), self.marginal.subset(idx)
+        alphas = np.atleast_1d(np.asarray(alphas, float))
+        le_z, le_s = marginal.log_evidence(alphas), smooth.log_evidence(alphas)
+        w = np.exp(le_z - le_z.max())
+        w /= w.sum()
+        keep = w > 1e-8 * w.max()
+        X = np.hstack([smooth.G, self.Gz[idx]])
+        XtSi = smooth.noise.whiten_transpose(smooth.noise.whiten(X)).T
+        H = XtSi @ X
+        x0 = np.concatenate([np.zeros(self.P.size), self.mu])
+        b0 = XtSi @ (smooth.d - smooth.t0)
+        means, covs = [], []
+        for a in alphas[keep]:
+            prec = np.concatenate([a * self.P, 1.0 / self.s ** 2])
+            C = np.linalg.inv(H + np.diag(prec))
+            C = 0.5 * (C + C.T)
+            means.append(C @ (b0 + prec * x0))
+            covs.append(C)
+        wk = w[keep] / w[keep].sum()
+        M = np.array(means)
+        mean = wk @ M
+        cov = np.einsum("a,akl->kl", wk, np.array(covs)) + (M - mean).T @ ((M - mean) * wk[:, None])
+        n_a = alphas.size
+        logz = {"smooth": float(logsumexp(le_s) - math.log(n_a)),
+                "zones": float(logsumexp(le_z) - math.log(n_a))}
+        p_z = 1.0 / (1.0 + math.exp(min(700.0, logz["smooth"] - logz["zones"])))
+        alpha = float(np.exp(wk @ np.log(alphas[keep])))
+        edge = n_a > 2 and max(w[0], w[-1]) > 1e-3
+        return ZoneFit(mean, cov, alpha, logz, {"smooth": 1.0 - p_z, "zones": p_z}, edge)
 
 
-def _nearest(design, sub):
+def _nearest(design, rd):
     cyl = design.cylinder
     face = design.face_name
     if face == "side":
-        d = cyl.radius - sub.r
+        d = cyl.radius - rd.r
     else:
-        d = np.abs(sub.z - (0.0 if face == "bottom" else cyl.height))
+        d = np.abs(rd.z - (0.0 if face == "bottom" else cyl.height))
     return float(np.min(d))

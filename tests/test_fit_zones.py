@@ -118,6 +118,10 @@ def test_zone_model_on_ring_heaters(readings):
     assert all(abs(e) <= 2.0 for e in errs.values())   # truth: the flux given to scikit-fem
     assert 0.85 <= cover <= 0.99                       # truth: the flux given to scikit-fem
     assert abs(p_err) <= 2.0                           # truth: scikit-fem heat in
+    # sharp as well as calibrated: mean half band well below the truth's own spread
+    g = res.grid
+    spread = np.std(truth(g.r_m.to_numpy(), g.theta_rad.to_numpy()))
+    assert np.mean(g.upper - g.lower) / 2 <= 0.1 * spread   # 0.1: our design target, no source
     # delivered fraction of the weak element (nominal given): 60 % within 2 sd
     weak = next(z for z in res.summary["zones"] if z["name"] == "middle0")
     assert abs(weak["delivered_fraction"] - WEAK) <= 2.0 * weak["delivered_fraction_sd"]
@@ -134,3 +138,39 @@ def test_evidence_prefers_zones_on_ring_heaters(readings):
     assert smooth.summary["model"] == "smooth" and "model_weights" not in smooth.summary
     assert auto.summary["model"] == "zones"
     assert auto.summary["model_weights"]["zones"] >= 0.95
+
+
+def test_zone_columns_match_fem_fields():
+    # The zone column at interior points is the field of the zone's indicator flux on the
+    # bottom (other faces homogeneous: top h with zero ambient, insulated rim).  Reference:
+    # scikit-fem with the ring's edges on mesh nodes, one solve per harmonic for a sector
+    # (cos coefficients of the 90-degree window: 1/4 and 2 sin(m pi/4) / (pi m), elementary).
+    from heatsight.inverse.design import Design
+    from heatsight.inverse.functionals import functional_matrix
+    from heatsight.inverse.zones import ZoneDesign
+
+    faces = {"bottom": fw.UnknownFlux(), "top": fw.Convection(H, TAMB), "side": fw.Insulated()}
+    design = Design(fw.Cylinder(A, L, K), faces, 1e-8, 6, 10)
+    ring = inverse.Zone("ring", "bottom", (0.0, 2 * math.pi), r=RINGS[1])
+    sector = inverse.Zone("sector", "bottom", WEAK_SPAN, r=RINGS[1])
+    zd = ZoneDesign(design, [ring, sector], nearest=0.006)
+    rng = np.random.default_rng(1)
+    r, th, z = A * np.sqrt(rng.uniform(0, 0.95, 10)), rng.uniform(0, 2 * math.pi, 10), np.full(10, 0.006)
+    G, _ = zd.sensors(r, th, z)
+    step = lambda s: _ring(s, RINGS[1])  # noqa: E731
+    n_harm = 40
+    fem = solve_field(A, L, K, {(m, "cos"): {"bottom": ("N", (lambda s, m=m: step(s) * (
+        0.25 if m == 0 else 2 * math.sin(0.25 * m * math.pi) / (math.pi * m)))),
+        "top": ("R", H, 0.0), "side": ("N", 0.0)} for m in range(n_harm + 1)}, nr=120, nz=12)
+    fem_ring = solve_field(A, L, K, {(0, "cos"): {"bottom": ("N", step), "top": ("R", H, 0.0),
+                                                  "side": ("N", 0.0)}}, nr=120, nz=12)
+    ring_ref, sector_ref = fem_ring.temperature(r, th, z), fem.temperature(r, th, z)
+    print("\nring rel err", np.max(np.abs(G[:, -2] / ring_ref - 1)), "sector abs err / max",
+          np.max(np.abs(G[:, -1] - sector_ref)) / np.max(np.abs(sector_ref)))
+    np.testing.assert_allclose(G[:, -2], ring_ref, rtol=1e-4)                                # scikit-fem
+    assert np.max(np.abs(G[:, -1] - sector_ref)) <= 1e-4 * np.max(np.abs(sector_ref))      # scikit-fem, 40 harmonics
+    # heat in of each column: the zone's area (elementary), the face mean its area fraction
+    names, F, k = functional_matrix(zd, [ring, sector])
+    area = math.pi * (RINGS[1][1] ** 2 - RINGS[1][0] ** 2)
+    assert F[1, -2] == pytest.approx(area, rel=1e-10) and F[1, -1] == pytest.approx(area / 4, rel=1e-10)
+    assert F[names.index("sector"), -1] == pytest.approx(1.0, rel=1e-12)
