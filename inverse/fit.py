@@ -246,6 +246,9 @@ def _choose_model(opts, design, zone_model, screen, smooth, post, warnings):
                         f"{zf.weights['zones']:.2f}); the smooth model is used")
     if not use_zones:
         return design, post, smooth, {"model": "smooth", **info}
+    if design.quantity == "temperature" and any(z.edge <= 0 for z in zone_model.columns.zones):
+        warnings.append("sharp zone edges on a temperature face: the heat flux is singular at a "
+                        "temperature step, so the total power is not defined; give the zones an edge width")
     return zone_model.columns, Posterior(zf.c, zf.C, zf.alpha, None), screen, {"model": "zones", **info}
 
 

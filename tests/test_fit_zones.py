@@ -174,3 +174,50 @@ def test_zone_columns_match_fem_fields():
     area = math.pi * (RINGS[1][1] ** 2 - RINGS[1][0] ** 2)
     assert F[1, -2] == pytest.approx(area, rel=1e-10) and F[1, -1] == pytest.approx(area / 4, rel=1e-10)
     assert F[names.index("sector"), -1] == pytest.approx(1.0, rel=1e-12)
+
+
+def test_zone_columns_with_edges_match_fem_fields():
+    # Edges of width w: a linear ramp centred on each edge.  The angular window with ramps
+    # of width d = w / r_mid is the sharp window convolved with a box of width d, so its cos
+    # coefficients are those of the sharp window times sin(m d / 2) / (m d / 2) (convolution
+    # theorem); reference fields from scikit-fem with the ramps' ends on mesh nodes.
+    from heatsight.inverse.design import Design
+    from heatsight.inverse.zones import ZoneDesign
+
+    w = 0.004
+    faces = {"bottom": fw.UnknownFlux(), "top": fw.Convection(H, TAMB), "side": fw.Insulated()}
+    design = Design(fw.Cylinder(A, L, K), faces, 1e-8, 6, 10)
+    sector = inverse.Zone("sector", "bottom", WEAK_SPAN, r=RINGS[1], edge=w)
+    zd = ZoneDesign(design, [sector], nearest=0.006)
+    rng = np.random.default_rng(3)
+    r, th, z = A * np.sqrt(rng.uniform(0, 0.95, 10)), rng.uniform(0, 2 * math.pi, 10), np.full(10, 0.006)
+    G, _ = zd.sensors(r, th, z)
+
+    def radial(s):
+        return np.clip((s - RINGS[1][0]) / w + 0.5, 0, 1) * np.clip((RINGS[1][1] - s) / w + 0.5, 0, 1)
+
+    d = w / (0.5 * sum(RINGS[1]))
+    coef = [0.25] + [2 * math.sin(0.25 * m * math.pi) / (math.pi * m) * math.sin(0.5 * m * d) / (0.5 * m * d)
+                     for m in range(1, 41)]
+    fem = solve_field(A, L, K, {(m, "cos"): {"bottom": ("N", (lambda s, m=m: radial(s) * coef[m])),
+                                             "top": ("R", H, 0.0), "side": ("N", 0.0)} for m in range(41)},
+                      nr=120, nz=12)
+    ref = fem.temperature(r, th, z)
+    print("\nedged sector abs err / max", np.max(np.abs(G[:, -1] - ref)) / np.max(np.abs(ref)))
+    assert np.max(np.abs(G[:, -1] - ref)) <= 1e-4 * np.max(np.abs(ref))      # scikit-fem, 40 harmonics
+
+
+def test_evidence_keeps_the_smooth_model_on_a_smooth_truth():
+    # The bundled demo: readings from scikit-fem (demo_data/generate_demo.py) of a platen
+    # whose outer heater weakens smoothly around 150 deg; its five zones are regions, not
+    # heaters with sharp edges, so the evidence should keep the smooth model.
+    from importlib.resources import files
+
+    import heatsight
+
+    case = files("heatsight.demo_data") / "platen.toml"
+    with threadpool_limits(1):
+        res = heatsight.fit(str(case), model="auto", grid=(8, 12))
+    print(f"\ndemo: {res.summary['model_weights']}")
+    assert res.summary["model"] == "smooth"
+    assert res.summary["model_weights"]["smooth"] >= 0.95
