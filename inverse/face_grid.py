@@ -64,18 +64,20 @@ def segments(breaks, lo, hi, n_total, order=24):
 
 def quadrature(face, radius, height, n_radial=64, n_theta=128, breaks=None):
     """Gauss-Legendre in r (or z) times the trapezoidal rule in theta; weights are dA [m^2].
-    breaks = (along, around): break points [m] and [rad] of zone edges; then both directions
-    use composite Gauss rules split there, so that zone indicators integrate exactly."""
+    breaks = (along, around): break points [m] and [rad] of zone edges; a direction with
+    breaks uses a composite Gauss rule split there, so that zone indicators integrate exactly."""
     span = radius if face != "side" else height
     along, around = breaks if breaks is not None else ((), ())
-    if len(along) or len(around):
-        s, ws = segments(along, 0.0, span, max(n_radial, 96))
-        t0 = float(np.min(around)) if len(around) else 0.0
-        wrapped = t0 + np.mod(np.asarray(around, float) - t0, 2.0 * np.pi)
-        th, wt = segments(wrapped, t0, t0 + 2.0 * np.pi, max(n_theta, 144))
+    if len(along):
+        s, ws = segments(along, 0.0, span, n_radial)
     else:
         x, w = special.roots_legendre(n_radial)
         s, ws = 0.5 * span * (x + 1.0), 0.5 * span * w
+    if len(around):
+        t0 = float(np.min(around))
+        wrapped = t0 + np.mod(np.asarray(around, float) - t0, 2.0 * np.pi)
+        th, wt = segments(wrapped, t0, t0 + 2.0 * np.pi, n_theta)
+    else:
         th = 2.0 * np.pi * np.arange(n_theta) / n_theta
         wt = np.full(n_theta, 2.0 * np.pi / n_theta)
     n_theta = th.size

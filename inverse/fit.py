@@ -93,7 +93,8 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
                         "the bands are the zone model's posterior")
     return FitResult.build(spec=spec, design=columns, readings=rd, kept=screen.kept, problem=screen.problem,
                            choice=screen.choice, posterior=post, sensors=screen.table,
-                           set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)), monte_carlo=mc, extra=model_info)
+                           set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)),
+                           monte_carlo=mc, extra=model_info)
 
 
 # ------------------------------------------------------------------------ design, prior, noise

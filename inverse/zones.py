@@ -63,23 +63,25 @@ def projection(basis, zones):
     partner = {(int(mm), int(nn)): k for k, (mm, s, nn) in enumerate(zip(m, is_sin, n_idx)) if not s}
     cos_of = np.array([partner[(int(mm), int(nn))] for mm, nn in zip(m, n_idx)])
     norms = basis.norms()[:ne]
+    along, around = [], []
+    for zone in zones:           # one rule for all zones, split at every zone's breaks
+        a, b = zone_breaks(zone, side, cyl.radius)
+        along += a
+        around += b
+    s, ws = segments(along, 0.0, span, 4 * ne // max(1, int(m.max()) + 1) + 200)
+    t, wt = segments(around, 0.0, 2 * math.pi, 8 * int(m.max()) + 64)
+    if side:
+        prof = basis.modes.eigenfunctions(np.zeros_like(s), s)[:, cos_of]    # Z_k(z)
+        ws = ws * cyl.radius
+    else:
+        prof = basis.modes.eigenfunctions(s, np.zeros_like(s))[:, cos_of]    # R_k(r)
+        ws = ws * s
+    trig = np.where(is_sin[None, :], np.sin(np.multiply.outer(t, m)), np.cos(np.multiply.outer(t, m)))
     A = np.zeros((len(zones), ne))
     for j, zone in enumerate(zones):
-        along, around = zone_breaks(zone, side, cyl.radius)
-        s, ws = segments(along, 0.0, span, 4 * basis.n_eigen // max(1, int(m.max()) + 1) + 200)
-        t, wt = segments(around, 0.0, 2 * math.pi, 8 * int(m.max()) + 64)
-        if side:
-            prof = basis.modes.eigenfunctions(np.zeros_like(s), s)       # Z_k(z) (cos columns)
-            weight = ws * cyl.radius
-            ang = zone.around(t, cyl.radius)
-            radial = (weight * zone.along(s, span)) @ prof
-        else:
-            prof = basis.modes.eigenfunctions(s, np.zeros_like(s))       # R_k(r) (cos columns)
-            radial = (ws * s * zone.along(s, span)) @ prof
-            ang = zone.around(t, cyl.radius)
-        trig = np.where(is_sin[None, :], np.sin(np.multiply.outer(t, m)), np.cos(np.multiply.outer(t, m)))
-        angular = (wt * ang) @ trig
-        A[j] = radial[cos_of] * angular / norms
+        radial = (ws * zone.along(s, span)) @ prof
+        angular = (wt * zone.around(t, cyl.radius)) @ trig
+        A[j] = radial * angular / norms
     return A
 
 
