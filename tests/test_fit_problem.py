@@ -78,3 +78,13 @@ def test_problem_and_case_like_give_the_same_fit():
     # the heat in through the face matches the prescribed flux's integral within 2 sd
     exact = 5e3 * math.pi * a * a * 1.5        # integral of q over the disc (elementary)
     assert abs(one.summary["total_power_W"] - exact) <= 2 * one.summary["total_power_sd_W"]
+
+
+def test_zone_model_with_calibration_is_refused():
+    cyl = fw.Cylinder(0.1, 0.04, 20.0)
+    faces = {"bottom": fw.UnknownFlux(), "top": fw.Convection(40.0, 300.0), "side": fw.Insulated()}
+    rd = inverse.SensorReadings(["a", "b", "c"], [0.0, 0.05, 0.08], [0.0, 1.0, 2.0], [0.01] * 3,
+                                [320.0, 321.0, 319.0], 0.2, 0.0, 0.0)
+    with pytest.raises(inverse.InverseError, match="zone model cannot be combined with calibrated"):
+        inverse.fit(types.SimpleNamespace(cylinder=cyl, faces=faces), rd, model="zones",
+                    calibrate={("top", "h"): None})

@@ -127,6 +127,13 @@ def test_zone_model_on_ring_heaters(readings):
     assert abs(weak["delivered_fraction"] - WEAK) <= 2.0 * weak["delivered_fraction_sd"]
     assert set(res.summary["model_weights"]) == {"smooth", "zones"}
     assert sum(res.summary["model_weights"].values()) == pytest.approx(1.0)
+    # summary.json carries the model choice and the delivered fractions
+    from heatsight.data_io.fit_outputs import summary_dict
+
+    out = summary_dict(res)
+    assert out["model"] == "zones" and out["model_weights"] == res.summary["model_weights"]
+    weak_out = next(z for z in out["zones"] if z["name"] == "middle0")
+    assert weak_out["delivered_fraction"] == weak["delivered_fraction"] and weak_out["nominal_W"] > 0
 
 
 def test_evidence_prefers_zones_on_ring_heaters(readings):
