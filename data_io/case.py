@@ -19,13 +19,15 @@ Schema (design §3; every dimensional value is a string with its unit)::
     layout = "layout.csv"
     readings = "readings.csv"      # optional here (fit --readings may give it)
 
-    [fit]                          # optional; every key optional (FIT_SCHEMA, FitOptions)
+    [fit]                          # optional; every key optional (case_options.FIT_SCHEMA,
+                                   # inverse.problem.FitOptions)
     strength = "auto"              # "auto" (= "auto:evidence"), "auto:gcv", "auto:lcurve",
                                    # "auto:discrepancy", or a positive number (fixed alpha)
     smoothing = "gradient"         # prior on the unknown face: "size" | "gradient" | "curvature"
     keep_all_sensors = false       # true keeps sensors flagged as suspect in the fit
     terms = 12                     # radial (end face) / axial (side) terms; default automatic
     harmonics = 6                  # angular harmonics m = 0..harmonics; default automatic
+    model = "smooth"               # "smooth" | "zones" (a level per zone + smooth remainder) | "auto"
 
     [[zones]]                      # optional, any number; regions of the unknown face
     name = "inner"                 # required, unique
@@ -33,6 +35,8 @@ Schema (design §3; every dimensional value is a string with its unit)::
     r = ["0 mm", "50 mm"]          # end faces only; default the whole radius
     theta = ["0 deg", "120 deg"]   # optional, default the full turn; start < end, span <= 360 deg
     z = ["0 mm", "20 mm"]          # side only; default the whole height
+    nominal = "400 W"              # optional: the zone's nominal power (delivered fraction reported)
+    edge = "5 mm"                  # optional: edge width in the zone model; default sharp
 
 Every face of the part must be given: bottom, side and (finite parts) top.  A
 semi-infinite part (height = "infinite") has no top face.  Unknown keys are refused with
@@ -42,23 +46,22 @@ the nearest valid key suggested.
 from __future__ import annotations
 
 import difflib
-import math
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Callable
-
-import numpy as np
 
 from ..forward.errors import ForwardModelError
 from ..forward.faces import (Convection, FaceCondition, Flux, Insulated, Temperature,
                            UnknownFlux, UnknownTemperature)
 from ..forward.geometry import Cylinder
+from ..inverse.problem import FACE_NAMES, FitOptions, Zone  # noqa: F401  (re-exported)
 
+from .case_context import _Ctx
+from .case_options import FIT_SCHEMA, ZONE_KEYS, _parse_fit, _parse_zones  # noqa: F401
 from .errors import InputError
 from .textfile import read_text
 from .profiles import TableProfile, load_profile
-from .units import format_quantity, parse_quantity
+from .units import parse_quantity
 
 CONDITION_NAMES = ("temperature", "flux", "insulated", "convection",
                    "unknown-temperature", "unknown-flux")
@@ -74,77 +77,10 @@ _KEYS_OF_CONDITION = {
 _NEEDS_CONDUCTIVITY = ("flux", "convection", "unknown-flux")
 TOP_KEYS = ("part", "faces", "sensors", "fit", "zones")
 PART_KEYS = ("radius", "height", "conductivity")
-FACE_NAMES = ("bottom", "top", "side")
 SENSOR_KEYS = ("layout", "readings")
-ZONE_KEYS = ("name", "face", "r", "theta", "z")
-STRENGTH_METHODS = ("evidence", "gcv", "lcurve", "discrepancy")
-SMOOTHING_KINDS = ("size", "gradient", "curvature")
 
 
 # ---------------------------------------------------------------------------- objects
-
-
-@dataclass(frozen=True)
-class FitOptions:
-    """Options of the [fit] table.
-
-    strength_method: "evidence" (marginal likelihood), "gcv", "lcurve", "discrepancy", or
-        "fixed" (then `strength` holds the value).  strength = "auto" means "evidence".
-    strength: the fixed smoothing strength alpha (> 0), None unless strength_method == "fixed".
-    smoothing: prior precision kind, "size" | "gradient" | "curvature".
-    keep_all_sensors: True keeps sensors flagged as suspect in the fit.
-    terms, harmonics: number of radial/axial terms and of angular harmonics of the unknown
-        face's basis; None lets the fit choose.
-    """
-
-    strength_method: str = "evidence"
-    strength: float | None = None
-    smoothing: str = "gradient"
-    keep_all_sensors: bool = False
-    terms: int | None = None
-    harmonics: int | None = None
-    loss: str = "linear"
-    common_offset_sd: float | None = None
-    calibrate: tuple = ()
-
-    def as_dict(self) -> dict:
-        return {"strength_method": self.strength_method, "strength": self.strength,
-                "smoothing": self.smoothing, "keep_all_sensors": self.keep_all_sensors,
-                "terms": self.terms, "harmonics": self.harmonics, "loss": self.loss,
-                "common_offset_sd": self.common_offset_sd, "calibrate": list(self.calibrate)}
-
-
-@dataclass(frozen=True)
-class Zone:
-    """A region of a face: r and theta on end faces, theta and z on the side (SI: m, rad).
-
-    theta = (start, end) with start < end <= start + 2 pi, counter-clockwise.
-    r is None on the side, z is None on end faces.  face is None only in a fully known
-    case whose zone named no face (the zone is then meant for the face a fit will estimate).
-    """
-
-    name: str
-    face: str | None
-    theta: tuple[float, float]
-    r: tuple[float, float] | None = None
-    z: tuple[float, float] | None = None
-
-    def contains(self, u, v) -> np.ndarray:
-        """Mask of face points inside the zone: (r, theta) on end faces, (theta, z) on the side."""
-        u, v = np.broadcast_arrays(np.asarray(u, float), np.asarray(v, float))
-        if self.z is not None:
-            theta, other, rng = u, v, self.z
-        else:
-            theta, other, rng = v, u, self.r
-        start, end = self.theta
-        span = end - start
-        eps = 1e-12
-        inside = np.mod(theta - start + eps, 2 * math.pi) <= span + 2 * eps if span < 2 * math.pi - eps \
-            else np.ones(theta.shape, bool)
-        if rng is not None:
-            scale = max(abs(rng[1]), 1.0) * 1e-12
-            inside &= (other >= rng[0] - scale) & (other <= rng[1] + scale)
-        return inside
 
 
 @dataclass(frozen=True)
@@ -220,174 +156,6 @@ class Case:
         return CylinderModel(self.cylinder, dict(self.faces), tolerance=tolerance)
 
 
-# ---------------------------------------------------------------------------- helpers
-
-
-class _Ctx:
-    def __init__(self, path: Path):
-        self.path = path
-
-    def error(self, where: str, problem: str) -> InputError:
-        return InputError(problem, file=self.path, where=where)
-
-    def check_keys(self, table: dict, valid: tuple[str, ...], where: str) -> None:
-        for key in table:
-            if key not in valid:
-                close = difflib.get_close_matches(str(key), valid, n=1, cutoff=0.6)
-                hint = f"did you mean '{close[0]}'?" if close else f"expected one of: {', '.join(valid)}"
-                raise self.error(f"{where}.{key}" if where else str(key), f"unknown key '{key}'; {hint}")
-
-    def table(self, parent: dict, key: str, where: str, required: bool) -> dict | None:
-        if key not in parent:
-            if required:
-                raise self.error(where, f"missing [{where}] table")
-            return None
-        value = parent[key]
-        if not isinstance(value, dict):
-            raise self.error(where, f"expected a table [{where}], got {_show(value)}")
-        return value
-
-    def text(self, table: dict, key: str, where: str) -> str:
-        value = table[key]
-        if not isinstance(value, str):
-            raise self.error(where, f"expected text in quotes, got {_show(value)}")
-        return value
-
-    def path_value(self, table: dict, key: str, where: str) -> Path:
-        text = self.text(table, key, where)
-        if not text.strip():
-            raise self.error(where, "empty file name")
-        p = Path(text.strip()).expanduser()
-        full = p if p.is_absolute() else self.path.parent / p
-        if not full.exists():
-            raise self.error(where, f"file not found: {full}")
-        if full.is_dir():
-            raise self.error(where, f"{full} is a folder; expected a CSV file")
-        return full
-
-
-def _show(value) -> str:
-    if isinstance(value, dict):
-        return "a table"
-    if isinstance(value, list):
-        return "a list"
-    return repr(value)
-
-
-# ---------------------------------------------------------------------------- [fit] schema
-
-
-def _fit_strength(ctx: _Ctx, value, where: str) -> dict:
-    if isinstance(value, bool):
-        raise ctx.error(where, f"expected \"auto\", \"auto:<method>\" or a positive number, got {value!r}")
-    number = None
-    if isinstance(value, (int, float)):
-        number = float(value)
-    elif isinstance(value, str):
-        s = value.strip().lower()
-        if s == "auto":
-            return {"strength_method": "evidence", "strength": None}
-        if s.startswith("auto:"):
-            method = s[5:].strip()
-            if method in STRENGTH_METHODS:
-                return {"strength_method": method, "strength": None}
-            close = difflib.get_close_matches(method, STRENGTH_METHODS, n=1)
-            hint = f"did you mean 'auto:{close[0]}'? " if close else ""
-            raise ctx.error(where, f"unknown method '{method}'; {hint}expected auto:"
-                                   + ", auto:".join(STRENGTH_METHODS))
-        try:
-            number = float(s)
-        except ValueError:
-            raise ctx.error(where, f"expected \"auto\", \"auto:<method>\" (methods: "
-                                   f"{', '.join(STRENGTH_METHODS)}) or a positive number; "
-                                   f"got {value!r}") from None
-    else:
-        raise ctx.error(where, f"expected \"auto\", \"auto:<method>\" or a positive number, got {_show(value)}")
-    if not (math.isfinite(number) and number > 0):
-        raise ctx.error(where, f"a fixed strength must be a positive number, got {value!r}")
-    return {"strength_method": "fixed", "strength": number}
-
-
-def _fit_choice(choices: tuple[str, ...], out_key: str):
-    def parse(ctx: _Ctx, value, where: str) -> dict:
-        if not isinstance(value, str) or value.strip().lower() not in choices:
-            close = difflib.get_close_matches(str(value), choices, n=1) if isinstance(value, str) else []
-            hint = f"did you mean '{close[0]}'? " if close else ""
-            raise ctx.error(where, f"got {_show(value)}; {hint}expected one of: {', '.join(choices)}")
-        return {out_key: value.strip().lower()}
-    return parse
-
-
-def _fit_bool(out_key: str):
-    def parse(ctx: _Ctx, value, where: str) -> dict:
-        if not isinstance(value, bool):
-            raise ctx.error(where, f"expected true or false (no quotes), got {_show(value)}")
-        return {out_key: value}
-    return parse
-
-
-def _fit_count(out_key: str, minimum: int):
-    def parse(ctx: _Ctx, value, where: str) -> dict:
-        if isinstance(value, bool) or not isinstance(value, int) or value < minimum:
-            raise ctx.error(where, f"expected a whole number >= {minimum} (no quotes), got {_show(value)}")
-        return {out_key: int(value)}
-    return parse
-
-
-def _fit_common_offset(ctx: _Ctx, value, where: str) -> dict:
-    if not isinstance(value, str):
-        raise ctx.error(where, f"expected a temperature difference with its unit, e.g. \"0.5 K\"; got {_show(value)}")
-    sd = parse_quantity(value, "temperature_difference", where, file=ctx.path)
-    if not sd > 0:
-        raise ctx.error(where, f"the prior sd of a common offset must be positive, got {value!r}")
-    return {"common_offset_sd": sd}
-
-
-CALIBRATABLE = ("h", "ambient")
-
-
-def _fit_calibrate(ctx: _Ctx, value, where: str) -> dict:
-    if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
-        raise ctx.error(where, f"expected a list like [\"top.h\", \"top.ambient\"], got {_show(value)}")
-    out = []
-    for item in value:
-        face, _, param = item.strip().partition(".")
-        if face not in ("bottom", "top", "side") or param not in CALIBRATABLE:
-            raise ctx.error(where, f"'{item}': expected <face>.<parameter> with face bottom, top or side "
-                                   f"and parameter {' or '.join(CALIBRATABLE)} of a convection face")
-        out.append((face, param))
-    if len(set(out)) != len(out):
-        raise ctx.error(where, "a parameter is listed twice")
-    return {"calibrate": tuple(out)}
-
-
-#: [fit] keys -> (parser, description).  To add an option: add a FitOptions field with its
-#: default, and a row here.
-FIT_SCHEMA: dict[str, tuple[Callable[[Any, Any, str], dict], str]] = {
-    "strength": (_fit_strength, '"auto" (= "auto:evidence"), "auto:<method>" with method '
-                                'evidence | gcv | lcurve | discrepancy, or a positive number'),
-    "smoothing": (_fit_choice(SMOOTHING_KINDS, "smoothing"),
-                  'prior on the unknown face: "size", "gradient" (default) or "curvature"'),
-    "keep_all_sensors": (_fit_bool("keep_all_sensors"), "true keeps suspect sensors in the fit (default false)"),
-    "terms": (_fit_count("terms", 1), "number of radial/axial terms of the unknown face (default: automatic)"),
-    "harmonics": (_fit_count("harmonics", 0), "number of angular harmonics (default: automatic)"),
-    "loss": (_fit_choice(("linear", "soft_l1", "huber"), "loss"),
-             'sensor misfit: "linear" (Gaussian, default) or the robust "soft_l1" / "huber"'),
-    "common_offset": (_fit_common_offset, "prior sd of an offset shared by all sensors, e.g. \"0.5 K\""),
-    "calibrate": (_fit_calibrate, 'convection parameters fitted with the face, e.g. ["top.h"]'),
-}
-
-
-def _parse_fit(ctx: _Ctx, table: dict | None) -> FitOptions:
-    if table is None:
-        return FitOptions()
-    ctx.check_keys(table, tuple(FIT_SCHEMA), "fit")
-    values: dict = {}
-    for key, value in table.items():
-        values.update(FIT_SCHEMA[key][0](ctx, value, f"fit.{key}"))
-    return FitOptions(**values)
-
-
 # ---------------------------------------------------------------------------- faces
 
 
@@ -451,84 +219,6 @@ def _parse_face(ctx: _Ctx, name: str, table: dict, cylinder: Cylinder) -> tuple[
     except ForwardModelError as exc:
         raise ctx.error(where, str(exc)) from None
     return face, text, profile
-
-
-# ---------------------------------------------------------------------------- zones
-
-
-def _range(ctx: _Ctx, zone: dict, key: str, where: str, dimension: str) -> tuple[float, float]:
-    value = zone[key]
-    if not (isinstance(value, list) and len(value) == 2):
-        unit = "mm" if dimension == "length" else "deg"
-        raise ctx.error(where, f"expected a list of two values with units, e.g. [\"0 {unit}\", \"50 {unit}\"], "
-                               f"got {_show(value)}")
-    lo = parse_quantity(value[0], dimension, f"{where}[0]", file=ctx.path)
-    hi = parse_quantity(value[1], dimension, f"{where}[1]", file=ctx.path)
-    if not lo < hi:
-        raise ctx.error(where, f"the first value must be below the second, got {value!r}")
-    return lo, hi
-
-
-def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> tuple[Zone, ...]:
-    if zones is None:
-        return ()
-    if not isinstance(zones, list) or not all(isinstance(z, dict) for z in zones):
-        raise ctx.error("zones", "zones must be an array of tables: write each zone under [[zones]]")
-    out = []
-    names: set[str] = set()
-    for i, zone in enumerate(zones, start=1):
-        where = f"zones[{i}]"
-        ctx.check_keys(zone, ZONE_KEYS, where)
-        if "name" not in zone:
-            raise ctx.error(f"{where}.name", "missing key 'name'")
-        name = ctx.text(zone, "name", f"{where}.name").strip()
-        if not name:
-            raise ctx.error(f"{where}.name", "empty zone name")
-        if name in names:
-            raise ctx.error(f"{where}.name", f"zone name '{name}' is used twice")
-        names.add(name)
-        if "face" in zone:
-            face = ctx.text(zone, "face", f"{where}.face").strip().lower()
-            if face not in cylinder.faces:
-                raise ctx.error(f"{where}.face", f"expected one of: {', '.join(cylinder.faces)}, got {zone['face']!r}")
-        elif unknown is not None:
-            face = unknown
-        elif "r" in zone and "z" in zone:
-            raise ctx.error(f"{where}.z", "a zone takes r and theta (end faces) or theta and z (side), "
-                                          "not both r and z")
-        else:
-            # fully known case (simulate): the zone is on the face that will be unknown; infer
-            # the kind of face from its keys, only to check the ranges
-            face = None
-        kind = face or ("side" if "z" in zone else "bottom")
-        if kind == "side" and "r" in zone:
-            raise ctx.error(f"{where}.r", "a zone on the side face takes theta and z, not r")
-        if kind != "side" and "z" in zone:
-            raise ctx.error(f"{where}.z", f"a zone on the {kind} face takes r and theta, not z")
-        theta = (0.0, 2 * math.pi)
-        if "theta" in zone:
-            theta = _range(ctx, zone, "theta", f"{where}.theta", "angle")
-            if theta[1] - theta[0] > 2 * math.pi * (1 + 1e-12):
-                raise ctx.error(f"{where}.theta", "the angle range spans more than 360 deg")
-        r = z = None
-        if kind == "side":
-            z = (0.0, cylinder.height)
-            if "z" in zone:
-                z = _range(ctx, zone, "z", f"{where}.z", "length")
-                if z[0] < 0 or z[1] > cylinder.height * (1 + 1e-9):
-                    raise ctx.error(f"{where}.z", f"the range must lie within 0 and the height "
-                                                  f"({format_quantity(cylinder.height, 'length')})")
-            elif cylinder.semi_infinite:
-                raise ctx.error(f"{where}.z", "a side zone of a semi-infinite part needs a z range")
-        else:
-            r = (0.0, cylinder.radius)
-            if "r" in zone:
-                r = _range(ctx, zone, "r", f"{where}.r", "length")
-                if r[0] < 0 or r[1] > cylinder.radius * (1 + 1e-9):
-                    raise ctx.error(f"{where}.r", f"the range must lie within 0 and the radius "
-                                                  f"({format_quantity(cylinder.radius, 'length')})")
-        out.append(Zone(name=name, face=face, theta=theta, r=r, z=z))
-    return tuple(out)
 
 
 # ---------------------------------------------------------------------------- load

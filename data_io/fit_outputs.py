@@ -77,6 +77,9 @@ def summary_dict(result, *, case_path=None, readings_path=None) -> dict:
                  "deviation_from_face_mean": z["deviation_from_face_mean"]}
         if "power_W" in z:
             entry.update(power_W=z["power_W"], power_sd_W=z["power_sd_W"])
+        for key in ("nominal_W", "delivered_fraction", "delivered_fraction_sd"):
+            if key in z:
+                entry[key] = z[key]
         zones.append(entry)
     out = {
         "face": s["face"], "quantity": s["quantity"], "unit": display_unit(result),
@@ -93,6 +96,9 @@ def summary_dict(result, *, case_path=None, readings_path=None) -> dict:
         "sensors": sensor_records(result),
         "caution": CAUTION,
     }
+    for key in ("model", "model_evidence", "model_weights"):   # the face model (inverse.zones)
+        if key in s:
+            out[key] = s[key]
     if "calibrated" in s:
         cal = {}
         for key, c in s["calibrated"].items():

@@ -24,7 +24,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from ..inverse.readings import DEFAULT_SIGMA_K  # noqa: F401 - the default sigma [K], defined once in inverse
+from ..inverse.readings import DEFAULT_SIGMA_K  # noqa: F401  (sigma when none is given)
 
 #: Class assumed when a layout row names a type but no class (common practice, no source:
 #: standard-grade wire is the usual default).

@@ -40,6 +40,7 @@ DIMENSIONS: dict[str, Dimension] = {
         "a heat-transfer coefficient", "W/(m^2*K)", "12 W/(m^2*K)", "W/(m^2*K)"),
     "heat_flux": Dimension("a heat flux", "W/m^2", "5 kW/m^2", "W/m^2"),
     "time": Dimension("a time", "s", "10 s", "s"),
+    "power": Dimension("a power", "W", "400 W", "W"),
 }
 
 #: Unit assumed for a CSV column whose header names no unit (design §3: lengths m,

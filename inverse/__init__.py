@@ -15,11 +15,13 @@ __all__ = [
     "sensor_table", "LearnedPrior", "learn_prior", "unresolved_warning",
 ]
 
+from .bands import Z95  # noqa: E402
 from .fit import fit, prior_diagonal  # noqa: E402
+from .problem import FitOptions, Problem, Zone  # noqa: E402
 from .readings import SensorReadings  # noqa: E402
 from .result import FitResult, Posterior  # noqa: E402
 
-__all__ += ["fit", "prior_diagonal", "SensorReadings", "FitResult", "Posterior"]
+__all__ += ["Z95", "FitOptions", "Problem", "Zone", "fit", "prior_diagonal", "SensorReadings", "FitResult", "Posterior"]
 
 from .batch import BatchEstimates, BatchSolver, change_threshold, face_functionals  # noqa: E402
 from .steady import WindowStats, window_index  # noqa: E402

@@ -1,9 +1,17 @@
-"""The factor of a two-sided 95 % normal band: mean +- Z95 * sd.
+"""The one place for band factors: the standard normal quantile of a two-sided band."""
 
-Z95 is the standard normal 97.5 % quantile, Phi^-1(0.975) = 1.95996... (dimensionless);
-every 95 % band of heatsight uses this one constant.
-"""
+from __future__ import annotations
 
-import scipy.stats
+from scipy.stats import norm
 
-Z95 = float(scipy.stats.norm.ppf(0.975))
+from .errors import InverseError
+
+#: two-sided 95 % factor of a Gaussian band, norm.ppf(0.975) = 1.959963984540054
+Z95 = float(norm.ppf(0.975))
+
+
+def z_factor(level: float = 0.95) -> float:
+    """Half-width of the equal-tailed `level` band of a standard normal (1.96 for 0.95)."""
+    if not 0 < level < 1:
+        raise InverseError("level must lie between 0 and 1")
+    return Z95 if level == 0.95 else float(norm.ppf(0.5 * (1.0 + level)))

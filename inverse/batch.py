@@ -51,7 +51,7 @@ import numpy as np
 from .diagnostics import default_threshold
 from .errors import InverseError
 from .face_grid import display_grid
-from .fit import _nominal_direction
+from .design import nominal_direction as _nominal_direction
 from .functionals import face_functionals  # noqa: F401  (also exported from here)
 
 #: grid (radial or axial x angular points) on which a trend searches the extremes; coarser
@@ -153,6 +153,9 @@ class BatchSolver:
         strength of a FitResult (alpha: override).  Shared variance: offset_sd^2 plus the
         placement variance (grad T . dx)^2 with dx uniform in +-position_tolerance, grad T from
         the result's posterior mean (fixed at the reference, like the model)."""
+        if result.summary.get("model", "smooth") != "smooth":
+            raise InverseError("logs are inverted with the smooth model; set [fit] model = \"smooth\" "
+                               "for trend (the zone model serves single snapshots)")
         design = result.design
         basis, cyl = design.basis, design.cylinder
         r, theta, z = (np.atleast_1d(np.asarray(x, float)) for x in (r, theta, z))

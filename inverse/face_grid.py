@@ -44,15 +44,45 @@ def display_grid(face, radius, height, n_radial=41, n_theta=72):
     return FacePoints(face, u, v, r, t, z, None, (n_radial, n_theta))
 
 
-def quadrature(face, radius, height, n_radial=64, n_theta=128):
-    """Gauss-Legendre in r (or z) times the trapezoidal rule in theta; weights are dA [m^2]."""
-    x, w = special.roots_legendre(n_radial)
+def segments(breaks, lo, hi, n_total, order=24):
+    """Composite Gauss-Legendre nodes and weights on [lo, hi], split at `breaks` (clipped to
+    [lo, hi]) and into pieces of about n_total * length / (hi - lo) nodes, so that a
+    piecewise-smooth integrand with kinks or steps at the breaks is integrated accurately."""
+    pts = np.unique(np.clip(np.concatenate([[lo, hi], np.asarray(breaks, float)]), lo, hi))
+    x, w = special.roots_legendre(order)
+    nodes, weights = [], []
+    for a, b in zip(pts[:-1], pts[1:]):
+        if b - a <= 1e-13 * max(abs(hi - lo), 1e-300):
+            continue
+        pieces = max(1, int(np.ceil(n_total * (b - a) / (hi - lo) / order)))
+        edges = np.linspace(a, b, pieces + 1)
+        for e0, e1 in zip(edges[:-1], edges[1:]):
+            nodes.append(0.5 * (e1 - e0) * x + 0.5 * (e1 + e0))
+            weights.append(0.5 * (e1 - e0) * w)
+    return np.concatenate(nodes), np.concatenate(weights)
+
+
+def quadrature(face, radius, height, n_radial=64, n_theta=128, breaks=None):
+    """Gauss-Legendre in r (or z) times the trapezoidal rule in theta; weights are dA [m^2].
+    breaks = (along, around): break points [m] and [rad] of zone edges; a direction with
+    breaks uses a composite Gauss rule split there, so that zone indicators integrate exactly."""
     span = radius if face != "side" else height
-    s = 0.5 * span * (x + 1.0)
-    ws = 0.5 * span * w
-    th = 2.0 * np.pi * np.arange(n_theta) / n_theta
+    along, around = breaks if breaks is not None else ((), ())
+    if len(along):
+        s, ws = segments(along, 0.0, span, n_radial)
+    else:
+        x, w = special.roots_legendre(n_radial)
+        s, ws = 0.5 * span * (x + 1.0), 0.5 * span * w
+    if len(around):
+        t0 = float(np.min(around))
+        wrapped = t0 + np.mod(np.asarray(around, float) - t0, 2.0 * np.pi)
+        th, wt = segments(wrapped, t0, t0 + 2.0 * np.pi, n_theta)
+    else:
+        th = 2.0 * np.pi * np.arange(n_theta) / n_theta
+        wt = np.full(n_theta, 2.0 * np.pi / n_theta)
+    n_theta = th.size
     S, TH = np.meshgrid(s, th, indexing="ij")
-    W = np.repeat(ws[:, None], n_theta, axis=1) * (2.0 * np.pi / n_theta)
+    W = ws[:, None] * wt[None, :]
     if face == "side":
         u, v, W = TH.ravel(), S.ravel(), (W * radius).ravel()
     else:

@@ -25,8 +25,7 @@ import numpy as np
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem
 from .noise import Whitener
-
-LOSSES = ("linear", "soft_l1", "huber")
+from .problem import LOSSES
 COEF_PREFIX = "c_"
 
 

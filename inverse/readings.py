@@ -8,8 +8,8 @@ import numpy as np
 
 from .errors import InverseError
 
-#: Random standard deviation [K] of a reading when neither the layout nor the readings give a
-#: sigma (common practice, no source); the one default of the whole program.
+#: Random standard deviation of a reading when no sigma is given [K] (common practice, no
+#: source); the one place this default lives (data_io.thermocouples uses it).
 DEFAULT_SIGMA_K = 0.5
 
 

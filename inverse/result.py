@@ -1,55 +1,92 @@
-"""FitResult: the reconstructed face with bands, derived figures and sensor health (SI)."""
+"""FitResult: the reconstructed face with bands, derived figures and sensor health (SI).
+
+Every figure is linear in the coefficients, value = k + F c, from a builder
+builder(design) -> (F, k); `Posterior.figures` gives its mean and sd, including the
+calibrated face parameters' uncertainty through the joint linearization when there are any.
+"""
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
+from .bands import Z95, z_factor
 from .face_grid import display_grid, quadrature
-from .functionals import face_functionals
+from .functionals import functional_matrix
 
-Z95 = 1.959963984540054  # standard normal 97.5 % quantile
+__all__ = ["Posterior", "FitResult", "Z95"]
 
 
 @dataclass
 class Posterior:
     """Posterior of the coefficients: mean c (K,), covariance C (K, K), the alpha used and,
-    when the strength was averaged over alpha, the StrengthAverage behind it."""
+    when the strength was averaged over alpha, the StrengthAverage behind it; calibration:
+    the Calibration whose joint covariance of (c, theta) carries the face parameters."""
 
     c: np.ndarray
     C: np.ndarray
     alpha: float
     averaged: object = None
+    calibration: object = None
 
     def band(self, B, offset=None, level=0.95):
-        """Mean, sd, lower, upper of offset + B c (equal-tailed `level` band)."""
+        """Mean, sd, lower, upper of offset + B c (equal-tailed `level` band), c alone."""
         B = np.atleast_2d(B)
         offset = np.zeros(B.shape[0]) if offset is None else np.asarray(offset, float)
         if self.averaged is not None:
             return self.averaged.band(B, level=level, offset=offset)
         mean = offset + B @ self.c
         sd = np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", B, self.C, B), 0.0))
-        from scipy.stats import norm
-        zq = norm.ppf(0.5 * (1 + level))
+        zq = z_factor(level)
         return mean, sd, mean - zq * sd, mean + zq * sd
 
     def linear(self, f, offset=0.0):
-        """Mean and sd of offset + f . c for one functional f (K,)."""
+        """Mean and sd of offset + f . c for one functional f (K,), c alone."""
         mean, sd, _, _ = self.band(np.asarray(f, float)[None, :], np.array([offset]))
         return float(mean[0]), float(sd[0])
 
+    def _joint(self, builder, design):
+        """(mean (Q,), J (Q, K + p)) of the figure, J = [F, d figure / d theta]."""
+        F, k = builder(design)
+        F = np.atleast_2d(F)
+        J = np.hstack([F, self.calibration.sensitivity(builder, self.c).reshape(F.shape[0], -1)])
+        return np.asarray(k, float) + F @ self.c, J
+
+    def figures(self, builder, design, level=0.95):
+        """Mean, sd, lower, upper of the figure builder(design) -> (F, k): k + F c, with the
+        joint uncertainty of calibrated parameters, var = J C_joint J^T."""
+        if self.calibration is None:
+            F, k = builder(design)
+            return self.band(F, k, level)
+        mean, J = self._joint(builder, design)
+        sd = np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", J, self.calibration.covariance, J), 0.0))
+        zq = z_factor(level)
+        return mean, sd, mean - zq * sd, mean + zq * sd
+
+    def draws(self, builder, design, n, seed=0):
+        """n posterior draws (n, Q) of the figure (linearized in theta when calibrated)."""
+        if self.calibration is None:
+            F, k = builder(design)
+            return np.asarray(k, float)[None, :] + self.samples(n, seed) @ np.atleast_2d(F).T
+        mean, J = self._joint(builder, design)
+        dev = _gaussian_draws(np.zeros(J.shape[1]), self.calibration.covariance, n, seed)
+        return mean[None, :] + dev @ J.T
+
     def samples(self, n, seed=0):
-        rng = np.random.default_rng(seed)
-        C = 0.5 * (self.C + self.C.T)
-        w, V = np.linalg.eigh(C)
-        L = V * np.sqrt(np.maximum(w, 0.0))
-        return self.c[None, :] + rng.standard_normal((n, self.c.size)) @ L.T
+        return _gaussian_draws(self.c, self.C, n, seed)
 
 
-def _zone_area(zone, face, radius, height, n=1024):
+def _gaussian_draws(mean, cov, n, seed):
+    rng = np.random.default_rng(seed)
+    C = 0.5 * (cov + cov.T)
+    w, V = np.linalg.eigh(C)
+    L = V * np.sqrt(np.maximum(w, 0.0))
+    return mean[None, :] + rng.standard_normal((n, mean.size)) @ L.T
+
+
+def zone_area(zone, face, radius, height, n=1024):
     """Area [m^2] of a zone by the midpoint rule on n x n cells of the face (theta x r with
     weight r on end faces, theta x z on the side)."""
     th = 2.0 * np.pi * (np.arange(n) + 0.5) / n
@@ -61,6 +98,43 @@ def _zone_area(zone, face, radius, height, n=1024):
         return float(mask.sum()) * (2.0 * np.pi / n) * (span / n) * radius
     mask = np.asarray(zone.contains(S.ravel(), TH.ravel()), dtype=bool)
     return float(S.ravel() @ mask) * (2.0 * np.pi / n) * (span / n)
+
+
+def valid_zones(zones, face, cyl, warnings) -> list:
+    """The zones on the estimated face that cover part of it; the others are reported."""
+    quad = quadrature(face, cyl.radius, cyl.height)
+    out = []
+    for zone in zones or ():
+        zface = getattr(zone, "face", None) or face
+        if zface != face:
+            warnings.append(f"zone {zone.name} is on the {zface} face, not the estimated {face} face; skipped")
+        elif not np.asarray(zone.contains(quad.u, quad.v), dtype=bool).any():
+            warnings.append(f"zone {zone.name} covers no part of the {face} face; skipped")
+        else:
+            out.append(zone)
+    return out
+
+
+def _zone_entries(zones, names, mean, sd, face, cyl, quantity, warnings):
+    out = []
+    for zone in zones:
+        i = names.index(zone.name)
+        zm, zsd = float(mean[i]), float(sd[i])
+        # The masked rule's zone edge is as coarse as its nodes (several % of the area of
+        # a small zone); the area, and with it the power, comes from a fine midpoint rule.
+        za = zone_area(zone, face, cyl.radius, cyl.height)
+        entry = {"name": zone.name, "mean": zm, "sd": zsd, "lower": zm - Z95 * zsd,
+                 "upper": zm + Z95 * zsd, "area_m2": za}
+        nominal = getattr(zone, "nominal", None)
+        if quantity == "heat_flux":
+            entry.update(power_W=zm * za, power_sd_W=zsd * za)
+            if nominal:
+                entry.update(nominal_W=float(nominal), delivered_fraction=zm * za / nominal,
+                             delivered_fraction_sd=zsd * za / abs(nominal))
+        elif nominal:
+            warnings.append(f"zone {zone.name}: a nominal power needs a heat-flux face; not compared")
+        out.append(entry)
+    return out
 
 
 @dataclass
@@ -86,19 +160,25 @@ class FitResult:
     zones: list = field(default_factory=list)
     nonlinear: dict | None = None
     monte_carlo: dict | None = field(repr=False, default=None)
+    calibration: object = field(repr=False, default=None)
+    options: object = field(repr=False, default=None)
 
     # ------------------------------------------------------------------ construction
     @classmethod
-    def build(cls, *, case, design, face, readings, kept, problem, choice, posterior, sensors,
-              set_aside, warnings, grid_size, nonlinear, monte_carlo, smoothing,
-              strength_request):
-        basis, cyl = design.basis, design.cylinder
-        quantity = basis.quantity
+    def build(cls, *, spec, design, readings, kept, problem, choice, posterior, sensors,
+              set_aside, warnings, monte_carlo, extra=None):
+        """Derived figures of a fit.  spec: the inverse.problem.Problem; design: the model
+        columns (design.Design or the zone model's); problem: the LinearGaussianProblem of
+        the kept sensors; extra: further summary keys."""
+        cyl, opts = design.cylinder, spec.options
+        face, quantity = design.face_name, design.quantity
         unit = "K" if quantity == "temperature" else "W/m^2"
-        pts = display_grid(face, cyl.radius, cyl.height, *grid_size)
-        B = basis.face_values(pts.u, pts.v)
-        known = basis.known_face_values(pts.u, pts.v)
-        mean, sd, lower, upper = posterior.band(B, known)
+        pts = display_grid(face, cyl.radius, cyl.height, *opts.grid)
+
+        def on_grid(d):
+            return d.face(pts.u, pts.v)
+
+        mean, sd, lower, upper = posterior.figures(on_grid, design)
         if monte_carlo is not None:
             s = monte_carlo["samples"]
             mean, sd = s.mean(axis=0), s.std(axis=0, ddof=1)
@@ -106,46 +186,22 @@ class FitResult:
         grid = pd.DataFrame({"r_m": pts.r, "theta_rad": pts.theta, "z_m": pts.z,
                              "estimate": mean, "std": sd, "lower": lower, "upper": upper})
 
-        # linear functionals over the face (quadrature rule); zones on another face or
-        # covering nothing are reported and skipped
-        quad_mask = quadrature(face, cyl.radius, cyl.height)
-        valid = []
-        for zone in getattr(case, "zones", None) or []:
-            zface = getattr(zone, "face", None) or face
-            if zface != face:
-                warnings.append(f"zone {zone.name} is on the {zface} face, not the estimated {face} face; skipped")
-            elif not np.asarray(zone.contains(quad_mask.u, quad_mask.v), dtype=bool).any():
-                warnings.append(f"zone {zone.name} covers no part of the {face} face; skipped")
-            else:
-                valid.append(zone)
-        funcs = face_functionals(design, valid)
-        mean_v, mean_sd = posterior.linear(funcs[0][1], funcs[0][2])
-        power, power_sd = posterior.linear(funcs[1][1], funcs[1][2])
+        # linear functionals over the face (quadrature rule): mean, power, zones, jointly
+        valid = valid_zones(spec.zones, face, cyl, warnings)
+        names, _, _ = functional_matrix(design, valid)
+        f_mean, f_sd, _, _ = posterior.figures(lambda d: functional_matrix(d, valid)[1:], design)
 
         # extremes and non-uniformity from posterior draws on the display grid
-        draws = posterior.samples(400, seed=1)
-        prof = known[None, :] + draws @ B.T
+        prof = posterior.draws(on_grid, design, 400, seed=1)
         mins, maxs = prof.min(axis=1), prof.max(axis=1)
         i_min, i_max = int(np.argmin(mean)), int(np.argmax(mean))
 
         def where(i):
             return {"r_m": float(pts.r[i]), "theta_rad": float(pts.theta[i]), "z_m": float(pts.z[i])}
 
-        zones = []
-        for zone, (_, f_zone, k_zone) in zip(valid, funcs[2:]):
-            zm, zsd = posterior.linear(f_zone, k_zone)
-            # The masked rule's zone edge is as coarse as its nodes (several % of the area of
-            # a small zone); the area, and with it the power, comes from a fine midpoint rule.
-            za = _zone_area(zone, face, cyl.radius, cyl.height)
-            entry = {"name": zone.name, "mean": zm, "sd": zsd, "lower": zm - Z95 * zsd,
-                     "upper": zm + Z95 * zsd, "area_m2": za}
-            if quantity == "heat_flux":
-                entry.update(power_W=zm * za, power_sd_W=zsd * za)
-            zones.append(entry)
-        if zones:
-            ref = mean_v
-            for z in zones:
-                z["deviation_from_face_mean"] = z["mean"] - ref
+        zones = _zone_entries(valid, names, f_mean, f_sd, face, cyl, quantity, warnings)
+        for z in zones:
+            z["deviation_from_face_mean"] = z["mean"] - float(f_mean[0])
 
         sens = sensors.copy()
         sens.insert(1, "r_m", readings.r)
@@ -156,39 +212,39 @@ class FitResult:
         alpha = float(choice.alpha)
         summary = {
             "face": face, "quantity": quantity, "unit": unit,
-            "mean": mean_v, "mean_sd": mean_sd,
+            "mean": float(f_mean[0]), "mean_sd": float(f_sd[0]),
             "min": float(mean[i_min]), "min_sd": float(mins.std(ddof=1)), "min_at": where(i_min),
             "max": float(mean[i_max]), "max_sd": float(maxs.std(ddof=1)), "max_at": where(i_max),
             "nonuniformity": float(mean[i_max] - mean[i_min]),
             "nonuniformity_sd": float((maxs - mins).std(ddof=1)),
-            "total_power_W": power, "total_power_sd_W": power_sd,
+            "total_power_W": float(f_mean[1]), "total_power_sd_W": float(f_sd[1]),
             "strength": alpha, "strength_method": choice.method,
             "strength_averaged": posterior.averaged is not None,
-            "smoothing": smoothing,
+            "smoothing": opts.smoothing,
             "chi2": float(problem.chi2(alpha)), "n_sensors_used": int(problem.n),
             "effective_parameters": float(problem.effective_parameters(alpha)),
-            "basis_size": int(basis.size), "harmonics": int(basis.m.max()),
-            "terms": int(basis.n_index.max() + 1),
+            "basis_size": int(design.basis.size), "harmonics": int(design.basis.m.max()),
+            "terms": int(design.basis.n_index.max() + 1),
             "set_aside": [s.sensor for s in set_aside],
-            "zones": zones, "warnings": list(warnings),
+            "zones": zones, "warnings": list(warnings), "loss": opts.loss,
         }
-        if nonlinear:
-            summary["calibrated"] = {k: v for k, v in nonlinear.items() if not k.startswith("_")}
+        cal = posterior.calibration
+        if cal is not None:
+            summary["calibrated"] = cal.info()
+        summary.update(extra or {})
         return cls(face, quantity, unit, cyl, grid, pts.shape, summary, sens, curve, list(warnings),
-                   posterior, design, problem, readings, kept, zones, nonlinear, monte_carlo)
+                   posterior, design, problem, readings, kept, zones,
+                   cal.info() if cal is not None else None, monte_carlo, cal, opts)
 
     # ------------------------------------------------------------------ queries
     def face_profile(self, u, v, level=0.95):
         """Estimate, sd, lower, upper of the face quantity at face coordinates (u, v)."""
-        basis = self.design.basis
-        B = basis.face_values(u, v)
-        return self.posterior.band(B, basis.known_face_values(u, v), level)
+        return self.posterior.figures(lambda d: d.face(u, v), self.design, level)
 
     def predict(self, r, theta, z, level=0.95):
         """Temperature [K] with sd and band anywhere inside the part: (mean, sd, lower, upper)."""
         r, theta, z = (np.atleast_1d(np.asarray(x, float)) for x in (r, theta, z))
-        G, t0, _, _ = self.design.at(r, theta, z)
-        return self.posterior.band(G, t0, level)
+        return self.posterior.figures(lambda d: d.sensors(r, theta, z), self.design, level)
 
     def predict_flux(self, r, theta, z):
         """Heat-flux vector -k grad T [W/m^2] (3, P) at points (posterior mean)."""

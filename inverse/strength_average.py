@@ -89,6 +89,10 @@ class StrengthAverage:
             self.warnings = ("the evidence-weighted alpha reaches the edge of the grid "
                              f"[{grid[0]:.3g}, {grid[-1]:.3g}]; widen alphas",)
 
+    def alpha_mixture(self) -> tuple[np.ndarray, np.ndarray]:
+        """(alphas, weights) of the mixture (negligible weights dropped, renormalized)."""
+        return self._a, self._w
+
     def alpha_quantiles(self, q=(0.05, 0.5, 0.95)) -> np.ndarray:
         """Quantiles of alpha under its posterior weights (on the grid)."""
         cdf = np.cumsum(self.weights)

@@ -113,6 +113,23 @@ def test_zones(tmp_path):
     np.testing.assert_array_equal(wedge.contains(r, th), [False, True, True, False])
 
 
+def test_zone_model_nominal_and_edge(tmp_path):
+    text = BASE + ('\n[fit]\nmodel = "zones"\n'
+                   '\n[[zones]]\nname = "ring"\nr = ["50 mm", "100 mm"]\nnominal = "0.4 kW"\nedge = "5 mm"\n'
+                   '\n[[zones]]\nname = "centre"\nr = ["0 mm", "20 mm"]\n')
+    case = load_case(make(tmp_path, text))
+    assert case.fit.model == "zones" and case.fit.as_dict()["model"] == "zones"
+    ring, centre = case.zones
+    assert ring.nominal == pytest.approx(400.0) and ring.edge == pytest.approx(0.005)   # 1 kW = 1000 W (SI)
+    assert centre.nominal is None and centre.edge == 0.0
+    # a 5 mm edge is a linear ramp centred on each radial edge: 1/2 on the edge, 0 and 1
+    # half a width away (the definition written in inverse.problem.Zone)
+    r = np.array([0.0475, 0.05, 0.0525, 0.075, 0.1025])
+    np.testing.assert_allclose(ring.indicator(r, np.zeros(5), 0.15, 0.15), [0.0, 0.5, 1.0, 1.0, 0.0], atol=1e-12)
+    # sharp zones: the indicator is the membership mask
+    np.testing.assert_array_equal(centre.indicator(r, np.zeros(5), 0.15, 0.15), centre.contains(r, np.zeros(5)))
+
+
 def test_side_zone(tmp_path):
     text = (BASE.replace('condition = "unknown-flux"', 'condition = "insulated"')
             .replace('condition = "temperature"\nvalue = "25 degC"', 'condition = "unknown-temperature"')
@@ -228,6 +245,11 @@ BAD_CASES = {
     "zone reversed range": (BASE + '\n[[zones]]\nname = "a"\nr = ["50 mm", "0 mm"]\n', "the first value must be below the second"),
     "zone range not a list": (BASE + '\n[[zones]]\nname = "a"\nr = "0 mm"\n', "expected a list of two values"),
     "zone theta too wide": (BASE + '\n[[zones]]\nname = "a"\ntheta = ["0 deg", "400 deg"]\n', "spans more than 360 deg"),
+    "bad model": (BASE + '\n[fit]\nmodel = "zone"\n', "fit.model: got 'zone'; did you mean 'zones'?"),
+    "zone nominal without unit": (BASE + '\n[[zones]]\nname = "a"\nnominal = "400"\n', "zones[1].nominal"),
+    "zone nominal not a power": (BASE + '\n[[zones]]\nname = "a"\nnominal = "400 K"\n', "zones[1].nominal"),
+    "zone nominal zero": (BASE + '\n[[zones]]\nname = "a"\nnominal = "0 W"\n', "expected a non-zero power"),
+    "zone negative edge": (BASE + '\n[[zones]]\nname = "a"\nedge = "-5 mm"\n', "zones[1].edge: expected an edge width >= 0"),
     "toml syntax": (BASE + "\n[fit\n", "not valid TOML"),
     "part not a table": ('part = "x"\n', "expected a table [part]"),
     "no part": ("[faces.bottom]\ncondition = 'insulated'\n", "missing [part] table"),

@@ -1,0 +1,228 @@
+"""The case file's [fit] table and [[zones]] array, parsed into inverse's typed objects
+(inverse.problem.FitOptions and Zone: the defaults and choice lists live there)."""
+
+from __future__ import annotations
+
+import difflib
+import math
+from typing import Any, Callable
+
+from ..forward.geometry import Cylinder
+from ..inverse.errors import InverseError
+from ..inverse.problem import (CALIBRATABLE, FACE_NAMES, LOSSES, MODELS, PRIORS, SMOOTHING_ORDER,
+                               STRENGTH_METHODS, FitOptions, Zone)
+
+from .case_context import _Ctx, _show
+from .units import format_quantity, parse_quantity
+
+ZONE_KEYS = ("name", "face", "r", "theta", "z", "nominal", "edge")
+SMOOTHING_KINDS = tuple(SMOOTHING_ORDER)
+
+
+# ---------------------------------------------------------------------------- [fit] schema
+
+
+def _fit_strength(ctx: _Ctx, value, where: str) -> dict:
+    if isinstance(value, bool):
+        raise ctx.error(where, f"expected \"auto\", \"auto:<method>\" or a positive number, got {value!r}")
+    number = None
+    if isinstance(value, (int, float)):
+        number = float(value)
+    elif isinstance(value, str):
+        s = value.strip().lower()
+        if s == "auto":
+            return {"strength_method": "evidence", "strength": None}
+        if s.startswith("auto:"):
+            method = s[5:].strip()
+            if method in STRENGTH_METHODS:
+                return {"strength_method": method, "strength": None}
+            close = difflib.get_close_matches(method, STRENGTH_METHODS, n=1)
+            hint = f"did you mean 'auto:{close[0]}'? " if close else ""
+            raise ctx.error(where, f"unknown method '{method}'; {hint}expected auto:"
+                                   + ", auto:".join(STRENGTH_METHODS))
+        try:
+            number = float(s)
+        except ValueError:
+            raise ctx.error(where, f"expected \"auto\", \"auto:<method>\" (methods: "
+                                   f"{', '.join(STRENGTH_METHODS)}) or a positive number; "
+                                   f"got {value!r}") from None
+    else:
+        raise ctx.error(where, f"expected \"auto\", \"auto:<method>\" or a positive number, got {_show(value)}")
+    if not (math.isfinite(number) and number > 0):
+        raise ctx.error(where, f"a fixed strength must be a positive number, got {value!r}")
+    return {"strength_method": "fixed", "strength": number}
+
+
+def _fit_choice(choices: tuple[str, ...], out_key: str):
+    def parse(ctx: _Ctx, value, where: str) -> dict:
+        if not isinstance(value, str) or value.strip().lower() not in choices:
+            close = difflib.get_close_matches(str(value), choices, n=1) if isinstance(value, str) else []
+            hint = f"did you mean '{close[0]}'? " if close else ""
+            raise ctx.error(where, f"got {_show(value)}; {hint}expected one of: {', '.join(choices)}")
+        return {out_key: value.strip().lower()}
+    return parse
+
+
+def _fit_bool(out_key: str):
+    def parse(ctx: _Ctx, value, where: str) -> dict:
+        if not isinstance(value, bool):
+            raise ctx.error(where, f"expected true or false (no quotes), got {_show(value)}")
+        return {out_key: value}
+    return parse
+
+
+def _fit_count(out_key: str, minimum: int):
+    def parse(ctx: _Ctx, value, where: str) -> dict:
+        if isinstance(value, bool) or not isinstance(value, int) or value < minimum:
+            raise ctx.error(where, f"expected a whole number >= {minimum} (no quotes), got {_show(value)}")
+        return {out_key: int(value)}
+    return parse
+
+
+def _fit_common_offset(ctx: _Ctx, value, where: str) -> dict:
+    if not isinstance(value, str):
+        raise ctx.error(where, f"expected a temperature difference with its unit, e.g. \"0.5 K\"; got {_show(value)}")
+    sd = parse_quantity(value, "temperature_difference", where, file=ctx.path)
+    if not sd > 0:
+        raise ctx.error(where, f"the prior sd of a common offset must be positive, got {value!r}")
+    return {"common_offset_sd": sd}
+
+
+def _fit_calibrate(ctx: _Ctx, value, where: str) -> dict:
+    if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+        raise ctx.error(where, f"expected a list like [\"top.h\", \"top.ambient\"], got {_show(value)}")
+    out = []
+    for item in value:
+        face, _, param = item.strip().partition(".")
+        if face not in FACE_NAMES or param not in CALIBRATABLE:
+            raise ctx.error(where, f"'{item}': expected <face>.<parameter> with face bottom, top or side "
+                                   f"and parameter {' or '.join(CALIBRATABLE)} of a convection face")
+        out.append((face, param))
+    if len(set(out)) != len(out):
+        raise ctx.error(where, "a parameter is listed twice")
+    return {"calibrate": tuple(out)}
+
+
+#: [fit] keys -> (parser, description).  To add an option: add an inverse.problem.FitOptions
+#: field with its default, and a row here.
+FIT_SCHEMA: dict[str, tuple[Callable[[Any, Any, str], dict], str]] = {
+    "strength": (_fit_strength, '"auto" (= "auto:evidence"), "auto:<method>" with method '
+                                'evidence | gcv | lcurve | discrepancy, or a positive number'),
+    "smoothing": (_fit_choice(SMOOTHING_KINDS, "smoothing"),
+                  'prior on the unknown face: "size", "gradient" (default) or "curvature"'),
+    "keep_all_sensors": (_fit_bool("keep_all_sensors"), "true keeps suspect sensors in the fit (default false)"),
+    "terms": (_fit_count("terms", 1), "number of radial/axial terms of the unknown face (default: automatic)"),
+    "harmonics": (_fit_count("harmonics", 0), "number of angular harmonics (default: automatic)"),
+    "loss": (_fit_choice(LOSSES, "loss"),
+             'sensor misfit: "linear" (Gaussian, default) or the robust "soft_l1" / "huber"'),
+    "common_offset": (_fit_common_offset, "prior sd of an offset shared by all sensors, e.g. \"0.5 K\""),
+    "calibrate": (_fit_calibrate, 'convection parameters fitted with the face, e.g. ["top.h"]'),
+    "model": (_fit_choice(MODELS, "model"),
+              'face model: "smooth" (default), "zones" (one level per zone plus a smooth remainder) '
+              'or "auto" (the evidence chooses)'),
+    "prior": (_fit_choice(PRIORS, "prior"),
+              'smooth prior: "learned" (default: strength, length scale and smoothness order learned '
+              'from the readings) or "fixed" (length scale = radius, order from smoothing)'),
+}
+
+
+def _parse_fit(ctx: _Ctx, table: dict | None) -> FitOptions:
+    if table is None:
+        return FitOptions()
+    ctx.check_keys(table, tuple(FIT_SCHEMA), "fit")
+    values: dict = {}
+    for key, value in table.items():
+        values.update(FIT_SCHEMA[key][0](ctx, value, f"fit.{key}"))
+    try:
+        return FitOptions(**values)
+    except InverseError as exc:
+        raise ctx.error("fit", str(exc)) from None
+
+
+# ---------------------------------------------------------------------------- zones
+
+
+def _range(ctx: _Ctx, zone: dict, key: str, where: str, dimension: str) -> tuple[float, float]:
+    value = zone[key]
+    if not (isinstance(value, list) and len(value) == 2):
+        unit = "mm" if dimension == "length" else "deg"
+        raise ctx.error(where, f"expected a list of two values with units, e.g. [\"0 {unit}\", \"50 {unit}\"], "
+                               f"got {_show(value)}")
+    lo = parse_quantity(value[0], dimension, f"{where}[0]", file=ctx.path)
+    hi = parse_quantity(value[1], dimension, f"{where}[1]", file=ctx.path)
+    if not lo < hi:
+        raise ctx.error(where, f"the first value must be below the second, got {value!r}")
+    return lo, hi
+
+
+def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> tuple[Zone, ...]:
+    if zones is None:
+        return ()
+    if not isinstance(zones, list) or not all(isinstance(z, dict) for z in zones):
+        raise ctx.error("zones", "zones must be an array of tables: write each zone under [[zones]]")
+    out = []
+    names: set[str] = set()
+    for i, zone in enumerate(zones, start=1):
+        where = f"zones[{i}]"
+        ctx.check_keys(zone, ZONE_KEYS, where)
+        if "name" not in zone:
+            raise ctx.error(f"{where}.name", "missing key 'name'")
+        name = ctx.text(zone, "name", f"{where}.name").strip()
+        if not name:
+            raise ctx.error(f"{where}.name", "empty zone name")
+        if name in names:
+            raise ctx.error(f"{where}.name", f"zone name '{name}' is used twice")
+        names.add(name)
+        if "face" in zone:
+            face = ctx.text(zone, "face", f"{where}.face").strip().lower()
+            if face not in cylinder.faces:
+                raise ctx.error(f"{where}.face", f"expected one of: {', '.join(cylinder.faces)}, got {zone['face']!r}")
+        elif unknown is not None:
+            face = unknown
+        elif "r" in zone and "z" in zone:
+            raise ctx.error(f"{where}.z", "a zone takes r and theta (end faces) or theta and z (side), "
+                                          "not both r and z")
+        else:
+            # fully known case (simulate): the zone is on the face that will be unknown; infer
+            # the kind of face from its keys, only to check the ranges
+            face = None
+        kind = face or ("side" if "z" in zone else "bottom")
+        if kind == "side" and "r" in zone:
+            raise ctx.error(f"{where}.r", "a zone on the side face takes theta and z, not r")
+        if kind != "side" and "z" in zone:
+            raise ctx.error(f"{where}.z", f"a zone on the {kind} face takes r and theta, not z")
+        theta = (0.0, 2 * math.pi)
+        if "theta" in zone:
+            theta = _range(ctx, zone, "theta", f"{where}.theta", "angle")
+            if theta[1] - theta[0] > 2 * math.pi * (1 + 1e-12):
+                raise ctx.error(f"{where}.theta", "the angle range spans more than 360 deg")
+        r = z = None
+        if kind == "side":
+            z = (0.0, cylinder.height)
+            if "z" in zone:
+                z = _range(ctx, zone, "z", f"{where}.z", "length")
+                if z[0] < 0 or z[1] > cylinder.height * (1 + 1e-9):
+                    raise ctx.error(f"{where}.z", f"the range must lie within 0 and the height "
+                                                  f"({format_quantity(cylinder.height, 'length')})")
+            elif cylinder.semi_infinite:
+                raise ctx.error(f"{where}.z", "a side zone of a semi-infinite part needs a z range")
+        else:
+            r = (0.0, cylinder.radius)
+            if "r" in zone:
+                r = _range(ctx, zone, "r", f"{where}.r", "length")
+                if r[0] < 0 or r[1] > cylinder.radius * (1 + 1e-9):
+                    raise ctx.error(f"{where}.r", f"the range must lie within 0 and the radius "
+                                                  f"({format_quantity(cylinder.radius, 'length')})")
+        nominal = edge = None
+        if "nominal" in zone:
+            nominal = parse_quantity(ctx.text(zone, "nominal", f"{where}.nominal"), "power",
+                                     f"{where}.nominal", file=ctx.path)
+            if not (math.isfinite(nominal) and nominal != 0):
+                raise ctx.error(f"{where}.nominal", f"expected a non-zero power, e.g. \"400 W\"; got {zone['nominal']!r}")
+        if "edge" in zone:
+            edge = parse_quantity(ctx.text(zone, "edge", f"{where}.edge"), "length", f"{where}.edge",
+                                  file=ctx.path)
+            if not (math.isfinite(edge) and edge >= 0):
+                raise ctx.error(f"{where}.edge", f"expected an edge width >= 0, e.g. \"5 mm\"; got {zone['edge']!r}")
+        out.append(Zone(name=name, face=face, theta=theta, r=r, z=z, nominal=nominal, edge=edge or 0.0))
+    return tuple(out)

@@ -1,0 +1,235 @@
+"""Heater-zone model: one level per declared zone plus a smooth remainder.
+
+Face quantity q = known + sum_j z_j chi_j + sum_k c_k Phi_k, chi_j the zone's indicator
+(product of a radial/axial and an angular window, edges of the zone's width).  On the face
+the zone column is chi_j exactly; its field at the sensors comes from the projection of
+chi_j on the face's eigenfunctions with many terms and harmonics,
+    a_jk = integral chi_j Phi_k dA / N_k,   G_zone = G_big A^T,
+which converges at interior sensors (each mode decays into the part).
+
+Priors: the remainder c ~ N(0, (alpha P)^-1) with the smooth model's P (prior_diagonal,
+without its nearly flat nominal level: the zones carry the levels), its own strength
+averaged over alpha by the evidence; z ~ N(mu, diag(s^2)), mu the nominal level (nominal power / zone
+area) or 0, s = ZONE_PRIOR_FACTOR x the face's level scale (weak).  Marginalizing z gives
+d ~ N(t0 + G c0 + G_zone mu, S + G_zone diag(s^2) G_zone^T + G (alpha P)^-1 G^T), so the
+evidence p(d | alpha, zones) is exact and compares with the smooth model's p(d | alpha)
+on the same log-alpha grid (flat prior in log alpha, equal prior model odds).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.special import logsumexp
+
+from .errors import InverseError
+from .face_grid import segments
+from .linear_gaussian import LinearGaussianProblem
+
+#: zone level prior sd = this factor x the face's level scale (weak; common practice, no source)
+ZONE_PRIOR_FACTOR = 10.0
+#: posterior model probability above which "auto" takes the zone model (common practice, no source)
+AUTO_THRESHOLD = 0.95
+#: the projection keeps modes down to exp(-kappa d_min) = PROJECTION_DECAY at the nearest sensor
+PROJECTION_DECAY = 1e-5
+MAX_TERMS, MAX_HARMONICS = 120, 40
+
+
+def zone_breaks(zone, side, radius):
+    """Break points of a zone's windows: (along [m], around [rad])."""
+    half = 0.5 * zone.edge
+    lo, hi = zone.z if side else zone.r
+    along = [lo - half, lo + half, hi - half, hi + half]
+    around = []
+    if not zone.full_turn:
+        at = radius if side else 0.5 * (zone.r[0] + zone.r[1])
+        half_angle = 0.5 * zone.edge / max(at, 1e-12)
+        for t in zone.theta:
+            for shift in (-2 * math.pi, 0.0, 2 * math.pi):
+                around += [t + shift - half_angle, t + shift, t + shift + half_angle]
+    return along, around
+
+
+def projection(basis, zones):
+    """A (J, K_eigen): coefficients of each zone's indicator on the basis's eigenfunctions
+    (rim columns, which are no eigenfunctions, get none)."""
+    cyl = basis.model.cylinder
+    side = basis.face == "side"
+    span = cyl.height if side else cyl.radius
+    ne = basis.n_eigen
+    m, is_sin, n_idx = basis.m[:ne], basis.is_sin[:ne], basis.n_index[:ne]
+    partner = {(int(mm), int(nn)): k for k, (mm, s, nn) in enumerate(zip(m, is_sin, n_idx)) if not s}
+    cos_of = np.array([partner[(int(mm), int(nn))] for mm, nn in zip(m, n_idx)])
+    norms = basis.norms()[:ne]
+    along, around = [], []
+    for zone in zones:           # one rule for all zones, split at every zone's breaks
+        a, b = zone_breaks(zone, side, cyl.radius)
+        along += a
+        around += b
+    s, ws = segments(along, 0.0, span, 4 * ne // max(1, int(m.max()) + 1) + 200)
+    t, wt = segments(around, 0.0, 2 * math.pi, 8 * int(m.max()) + 64)
+    if side:
+        prof = basis.modes.eigenfunctions(np.zeros_like(s), s)[:, cos_of]    # Z_k(z)
+        ws = ws * cyl.radius
+    else:
+        prof = basis.modes.eigenfunctions(s, np.zeros_like(s))[:, cos_of]    # R_k(r)
+        ws = ws * s
+    trig = np.where(is_sin[None, :], np.sin(np.multiply.outer(t, m)), np.cos(np.multiply.outer(t, m)))
+    A = np.zeros((len(zones), ne))
+    for j, zone in enumerate(zones):
+        radial = (ws * zone.along(s, span)) @ prof
+        angular = (wt * zone.around(t, cyl.radius)) @ trig
+        A[j] = radial * angular / norms
+    return A
+
+
+def _big_size(design, rd_depth, zones):
+    """(harmonics, terms) of the projection basis from the nearest sensor's distance d_min
+    to the face: modes decaying faster than exp(-kappa d_min) < PROJECTION_DECAY are left out."""
+    cyl = design.cylinder
+    span = cyl.height if design.face_name == "side" else cyl.radius
+    d = max(float(rd_depth), 1e-3 * cyl.radius)
+    kappa = -math.log(PROJECTION_DECAY) / d
+    terms = int(min(MAX_TERMS, max(design.terms, math.ceil(kappa * span / math.pi) + 2)))
+    partial = any(not z.full_turn for z in zones)
+    harmonics = int(min(MAX_HARMONICS, max(design.harmonics, math.ceil(kappa * cyl.radius)))) if partial else 0
+    return harmonics, terms
+
+
+class ZoneDesign:
+    """Model columns [smooth basis | zone indicators] with the interface of design.Design."""
+
+    def __init__(self, design, zones, nearest):
+        self.smooth, self.zones = design, list(zones)
+        self.cylinder, self.faces, self.model = design.cylinder, design.faces, design.model
+        self.basis = design.basis
+        h, t = _big_size(design, nearest, zones)
+        self.big = design.model.basis(h, t)
+        self.A = projection(self.big, self.zones)
+        self.n_zones = len(self.zones)
+
+    @property
+    def size(self):
+        return self.smooth.size + self.n_zones
+
+    face_name = property(lambda self: self.smooth.face_name)
+    quantity = property(lambda self: self.smooth.quantity)
+
+    def _indicators(self, u, v):
+        cyl = self.cylinder
+        span = cyl.height if self.face_name == "side" else cyl.radius
+        return np.stack([z.indicator(u, v, cyl.radius, span) for z in self.zones], axis=1)
+
+    def at(self, r, theta, z, gradient=False):
+        G, t0, ev, dG = self.smooth.at(r, theta, z, gradient=gradient)
+        Gb, dGb = self.big.fields(r, theta, z, gradient=gradient)
+        ne = self.big.n_eigen
+        G = np.hstack([G, Gb[:, :ne] @ self.A.T])
+        if gradient:
+            dG = np.concatenate([dG, np.einsum("dpk,jk->dpj", dGb[:, :, :ne], self.A)], axis=2)
+        return G, t0, ev, dG
+
+    def sensors(self, r, theta, z):
+        G, t0, _, _ = self.at(r, theta, z)
+        return G, t0
+
+    def face(self, u, v):
+        B, known = self.smooth.face(u, v)
+        u, v = (np.asarray(x, float).ravel() for x in (u, v))
+        return np.hstack([B, self._indicators(u, v)]), known
+
+    def powers(self):
+        p, known = self.smooth.powers()
+        return np.concatenate([p, self.A @ self.big.powers()[:self.big.n_eigen]]), known
+
+
+@dataclass
+class ZoneFit:
+    """The zone model's posterior and the evidence comparison with the smooth model.
+
+    c (K + J,), C: moment-matched mixture over alpha (law of total covariance); alpha: the
+    evidence-weighted geometric mean strength; log_evidence: {"smooth": ..., "zones": ...}
+    integrated over log alpha on one grid; weights: posterior model probabilities (equal
+    prior odds); edge: True when the zone model's alpha weights reach the grid's ends.
+    """
+
+    c: np.ndarray
+    C: np.ndarray
+    alpha: float
+    log_evidence: dict
+    weights: dict
+    edge: bool
+
+
+def zone_prior(zones, level_scale, areas):
+    """(mu, s) of the zone levels: nominal power / area (or 0) and a weak sd."""
+    mu = np.array([(z.nominal / a) if getattr(z, "nominal", None) else 0.0 for z, a in zip(zones, areas)])
+    scale = max(float(level_scale), float(np.max(np.abs(mu))) if mu.size else 0.0)
+    if not scale > 0:
+        raise InverseError("zone model: the face level scale is zero; give a nominal power")
+    return mu, np.full(mu.size, ZONE_PRIOR_FACTOR * scale)
+
+
+class ZoneModel:
+    """The zone model on all sensors of `smooth` (the smooth model's LinearGaussianProblem:
+    readings, noise, G, t0) with zone levels marginalized: `marginal` is a
+    LinearGaussianProblem in the remainder's coefficients (prior mean 0, precision
+    alpha * remainder_prior) whose noise is S + G_zone diag(s^2) G_zone^T; screening,
+    strength and evidence of the zone model work on it."""
+
+    def __init__(self, design, rd, smooth, zones, areas, level_scale, remainder_prior):
+        self.columns = ZoneDesign(design, zones, _nearest(design, rd))
+        self.Gz = self.columns.sensors(rd.r, rd.theta, rd.z)[0][:, design.size:]
+        self.mu, self.s = zone_prior(zones, level_scale, areas)
+        self.smooth = smooth
+        self.P = np.asarray(remainder_prior, float)
+        S = smooth.noise.covariance
+        self.marginal = LinearGaussianProblem(smooth.G, smooth.d - self.Gz @ self.mu, smooth.t0,
+                                              S + (self.Gz * self.s ** 2) @ self.Gz.T, self.P,
+                                              np.zeros(design.size))
+
+    def fit(self, kept, alphas) -> ZoneFit:
+        """Posterior of (c, z) on the kept sensors, averaged over the log-alpha grid `alphas`
+        with the zone model's evidence weights, and the evidence comparison."""
+        idx = np.flatnonzero(kept)
+        smooth, marginal = self.smooth.subset(idx), self.marginal.subset(idx)
+        alphas = np.atleast_1d(np.asarray(alphas, float))
+        le_z, le_s = marginal.log_evidence(alphas), smooth.log_evidence(alphas)
+        w = np.exp(le_z - le_z.max())
+        w /= w.sum()
+        keep = w > 1e-8 * w.max()
+        X = np.hstack([smooth.G, self.Gz[idx]])
+        XtSi = smooth.noise.whiten_transpose(smooth.noise.whiten(X)).T
+        H = XtSi @ X
+        x0 = np.concatenate([np.zeros(self.P.size), self.mu])
+        b0 = XtSi @ (smooth.d - smooth.t0)
+        means, covs = [], []
+        for a in alphas[keep]:
+            prec = np.concatenate([a * self.P, 1.0 / self.s ** 2])
+            C = np.linalg.inv(H + np.diag(prec))
+            C = 0.5 * (C + C.T)
+            means.append(C @ (b0 + prec * x0))
+            covs.append(C)
+        wk = w[keep] / w[keep].sum()
+        M = np.array(means)
+        mean = wk @ M
+        cov = np.einsum("a,akl->kl", wk, np.array(covs)) + (M - mean).T @ ((M - mean) * wk[:, None])
+        n_a = alphas.size
+        logz = {"smooth": float(logsumexp(le_s) - math.log(n_a)),
+                "zones": float(logsumexp(le_z) - math.log(n_a))}
+        p_z = 1.0 / (1.0 + math.exp(min(700.0, logz["smooth"] - logz["zones"])))
+        alpha = float(np.exp(wk @ np.log(alphas[keep])))
+        edge = n_a > 2 and max(w[0], w[-1]) > 1e-3
+        return ZoneFit(mean, cov, alpha, logz, {"smooth": 1.0 - p_z, "zones": p_z}, edge)
+
+
+def _nearest(design, rd):
+    cyl = design.cylinder
+    face = design.face_name
+    if face == "side":
+        d = cyl.radius - rd.r
+    else:
+        d = np.abs(rd.z - (0.0 if face == "bottom" else cyl.height))
+    return float(np.min(d))

@@ -1,0 +1,143 @@
+"""Joint uncertainty of derived figures with a calibrated convection face.
+
+Readings come from the scikit-fem reference solver (tests/fem_cylinder.py) plus seeded
+noise, not from the fitted Bessel-Fourier basis.  The linearized sd of every derived figure
+(var f = J C_joint J^T, J = [df/dc, df/dtheta]) is checked against a seeded Monte Carlo that
+draws (c, theta) jointly from the posterior and recomputes each figure exactly on a design
+rebuilt at the drawn theta.
+"""
+
+import types
+
+import numpy as np
+import pytest
+from threadpoolctl import threadpool_limits
+
+import heatsight.forward as fw
+from heatsight import inverse
+from heatsight.inverse.functionals import functional_matrix
+from fem_cylinder import solve_field
+
+# ---------------------------------------------------------------- wall beside a cooled top
+# Unknown side temperature, bottom held at TB, top cooled by convection (truth H_TRUE,
+# nominal H_NOMINAL in the case); the wall's heat depends on h at fixed coefficients.
+A, L, K = 0.05, 0.10, 20.0
+TB, TAMB, H_TRUE, H_NOMINAL = 450.0, 300.0, 60.0, 46.0
+
+
+@pytest.fixture(scope="module")
+def wall_fit():
+    fem = solve_field(A, L, K, {
+        (0, "cos"): {"side": ("D", lambda s: TB - 80.0 * s / L), "top": ("R", H_TRUE, TAMB),
+                     "bottom": ("D", TB)},
+        (1, "cos"): {"side": ("D", lambda s: 8.0 * np.sin(np.pi * s / L)), "top": ("R", H_TRUE, 0.0),
+                     "bottom": ("D", 0.0)},
+    }, nr=30, nz=60)
+    rng = np.random.default_rng(11)
+    depth, rho = np.meshgrid([0.002, 0.006, 0.015], [0.0, 0.3, 0.6, 0.85])
+    r1, z1 = A * rho.ravel(), L - depth.ravel()
+    th1 = 2.4 * np.arange(r1.size)
+    n2 = 10
+    r2, th2, z2 = A * rng.uniform(0.6, 0.9, n2), rng.uniform(0, 2 * np.pi, n2), L * rng.uniform(0.1, 0.8, n2)
+    r, theta, z = np.r_[r1, r2], np.r_[th1, th2], np.r_[z1, z2]
+    sigma = 0.2
+    t = fem.temperature(r, theta, z) + sigma * rng.standard_normal(r.size)
+    rd = inverse.SensorReadings([f"s{i}" for i in range(r.size)], r, theta, z, t, sigma, 0.0, 0.0)
+    zone = inverse.Zone("upper", "side", (0.0, 2 * np.pi), z=(0.5 * L, L))
+    case = types.SimpleNamespace(cylinder=fw.Cylinder(A, L, K), zones=[zone], faces={
+        "side": fw.UnknownTemperature(), "top": fw.Convection(H_NOMINAL, TAMB), "bottom": fw.Temperature(TB)})
+    with threadpool_limits(1):
+        res = inverse.fit(case, rd, calibrate={("top", "h"): None}, keep_all_sensors=True, grid=(9, 12))
+    return res, zone
+
+
+def _figures(design, at, face_pts):
+    """(F, k) of: total power into the wall, temperatures at `at`, wall temperatures.  (The
+    face mean and zone means are quadrature sums of face values, the same path as the face
+    points; the summary test below checks that they come from the joint figures.)"""
+    p, kp = design.powers()
+    G, t0 = design.sensors(*at)
+    B, known = design.face(*face_pts)
+    return np.vstack([p[None, :], G, B]), np.concatenate([[kp], t0, known])
+
+
+def test_linearized_joint_sd_matches_monte_carlo(wall_fit):
+    res, _ = wall_fit
+    cal = res.calibration
+    assert cal is not None and cal.keys == (("top", "h"),)
+    at = (np.array([0.0, 0.03, 0.045]), np.array([0.0, 1.0, 2.0]), np.array([0.095, 0.05, 0.09]))
+    face_pts = (np.array([0.0, 1.5, 3.0]), np.array([0.02, 0.06, 0.095]))     # (theta, z) on the wall
+    builder = lambda d: _figures(d, at, face_pts)  # noqa: E731
+    with threadpool_limits(1):
+        mean_lin, sd_lin, _, _ = res.posterior.figures(builder, res.design)
+        rng = np.random.default_rng(5)
+        x_hat = np.concatenate([cal.coefficients, cal.values])
+        draws = rng.multivariate_normal(x_hat, cal.covariance, size=300)
+        K = cal.coefficients.size
+        values = []
+        for x in draws:
+            F, k = builder(cal.rebuild(x[K:]))
+            values.append(k + F @ x[:K])
+    values = np.array(values)
+    sd_mc = values.std(axis=0, ddof=1)
+    ratio = sd_lin / sd_mc
+    print("\nlinearized / Monte Carlo sd:", np.round(ratio, 3))
+    # reference: seeded Monte Carlo of the joint posterior (300 draws: sd sampling error ~4 %);
+    # the brief's tolerance: within 15 %
+    assert np.all(np.abs(ratio - 1.0) <= 0.15)
+    # and the means agree (linearization point = MC centre) to a fraction of an sd
+    assert np.all(np.abs(values.mean(axis=0) - mean_lin) <= 0.3 * sd_mc)
+
+
+def test_calibrated_parameter_uncertainty_reaches_the_figures(wall_fit):
+    res, zone = wall_fit
+    s = res.summary
+    # c alone (the coefficient block of the joint covariance) vs the joint linearization
+    _, F, k = functional_matrix(res.design, [])
+    _, power_sd_c = res.posterior.linear(F[1], k[1])
+    print(f"\nwall power {s['total_power_W']:.4g} W: sd joint {s['total_power_sd_W']:.3g}, c alone {power_sd_c:.3g}")
+    # the summary carries the joint figures (mean, power, zone), and h visibly changes the
+    # power's (here through a negative correlation of h with the wall coefficients; the Monte
+    # Carlo test checks the size)
+    names, _, _ = functional_matrix(res.design, [zone])
+    _, joint_sd, _, _ = res.posterior.figures(lambda d: functional_matrix(d, [zone])[1:], res.design)
+    assert s["mean_sd"] == pytest.approx(joint_sd[0], rel=1e-9)
+    assert s["total_power_sd_W"] == pytest.approx(joint_sd[1], rel=1e-9)
+    assert s["zones"][0]["sd"] == pytest.approx(joint_sd[names.index("upper")], rel=1e-9)
+    assert abs(s["total_power_sd_W"] / power_sd_c - 1.0) > 0.02
+    cal = s["calibrated"]["top_h"]
+    assert abs(cal["value"] - H_TRUE) <= 2.0 * cal["sd"]   # truth: h of the scikit-fem solve
+    # --at points carry it too: predict() equals the joint figures
+    mean, sd, lo, hi = res.predict([0.03], [1.0], [0.05])
+    assert sd[0] > 0 and lo[0] < mean[0] < hi[0]
+
+
+# ---------------------------------------------------------------- platen, top h calibrated
+PA, PL, PK = 0.10, 0.04, 20.0
+Q0, Q1 = 8.0e3, 2.0e3
+
+
+def test_total_power_within_two_sd_with_h_calibrated():
+    fem = solve_field(PA, PL, PK, {
+        (0, "cos"): {"bottom": ("N", lambda s: Q0 * (1 + 0.3 * (s / PA) ** 2)), "top": ("R", H_TRUE, TAMB),
+                     "side": ("N", 0.0)},
+        (1, "cos"): {"bottom": ("N", lambda s: Q1 * s / PA), "top": ("R", H_TRUE, 0.0), "side": ("N", 0.0)},
+    }, nr=30, nz=16)
+    power_exact = np.pi * PA ** 2 * Q0 * 1.15   # integral of the prescribed flux (elementary)
+    assert fem.heat_in("bottom") == pytest.approx(power_exact, rel=1e-6)  # scikit-fem vs closed form
+    rng = np.random.default_rng(4)
+    n, sigma = 28, 0.2
+    r, theta = PA * np.sqrt(rng.uniform(0, 0.95, n)), rng.uniform(0, 2 * np.pi, n)
+    z = rng.choice([0.004, 0.012, 0.030, 0.036], n)
+    t = fem.temperature(r, theta, z) + sigma * rng.standard_normal(n)
+    rd = inverse.SensorReadings([f"p{i}" for i in range(n)], r, theta, z, t, sigma, 0.0, 0.0)
+    case = types.SimpleNamespace(cylinder=fw.Cylinder(PA, PL, PK), faces={
+        "bottom": fw.UnknownFlux(), "top": fw.Convection(H_NOMINAL, TAMB), "side": fw.Insulated()})
+    with threadpool_limits(1):
+        res = inverse.fit(case, rd, calibrate={("top", "h"): None}, grid=(9, 12))
+    s = res.summary
+    cal = s["calibrated"]["top_h"]
+    print(f"\nplaten: h {cal['value']:.4g} +- {cal['sd']:.2g}; power {s['total_power_W']:.5g} +- "
+          f"{s['total_power_sd_W']:.3g} W (exact {power_exact:.5g} W)")
+    assert abs(cal["value"] - H_TRUE) <= 2.0 * cal["sd"]                          # truth: FEM h
+    assert abs(s["total_power_W"] - power_exact) <= 2.0 * s["total_power_sd_W"]   # closed-form integral
