@@ -251,7 +251,10 @@ def _zone_model(spec, design, rd, problem, warnings):
     pts = display_grid(design.face_name, cyl.radius, cyl.height, 11, 24)
     B, known = design.face(pts.u, pts.v)
     scale = float(np.sqrt(np.mean((known + B @ problem.c0) ** 2)))
-    remainder = prior_diagonal(design.basis, cyl.radius, opts.smoothing)
+    # The remainder keeps the smooth prior's nearly flat nominal direction: the face between
+    # and around the zones has a level of its own (a background), which zone levels alone
+    # cannot carry without biasing every zone.
+    remainder, _ = smooth_prior(design.basis, cyl.radius, opts.smoothing)
     return ZoneModel(design, rd, problem, zones, areas, scale, remainder)
 
 
