@@ -25,6 +25,7 @@ statistics, so memory stays bounded by one chunk plus one window.
 
 from __future__ import annotations
 
+import io
 import re
 from dataclasses import dataclass
 
@@ -98,11 +99,16 @@ class LogReader:
     # ---------------------------------------------------------------- iteration
     def __iter__(self):
         cols = self.cols
+        fmt = cols.fmt
+        source = cols.path if fmt.converted is None else io.StringIO(fmt.converted)
+        # one spare column: a row with more fields than the header is caught, not shifted
+        width = len(cols.headers)
         try:
-            reader = pd.read_csv(cols.path, header=None, skiprows=cols.header_line,
-                                 names=list(range(len(cols.headers))), skip_blank_lines=False,
-                                 skipinitialspace=True, chunksize=self.chunk_rows, encoding="utf-8-sig",
-                                 engine="c")
+            reader = pd.read_csv(source, header=None, skiprows=cols.header_line, names=list(range(width + 1)),
+                                 index_col=False, skip_blank_lines=False, skipinitialspace=True,
+                                 chunksize=self.chunk_rows, encoding=fmt.encoding,
+                                 sep=fmt.sep if fmt.converted is None else ",",
+                                 decimal=fmt.decimal if fmt.converted is None else ".", engine="c")
             with reader:
                 for frame in reader:
                     chunk = self._chunk(frame)
@@ -110,10 +116,14 @@ class LogReader:
                         yield chunk
         except pd.errors.ParserError as exc:
             msg = str(exc).replace("Error tokenizing data. C error: ", "").strip()
-            raise InputError(f"malformed CSV ({msg}); every line needs the same number of comma-separated "
-                             f"fields as the header", file=cols.path) from None
+            m = re.search(r"line (\d+), saw (\d+)", msg)
+            detail = (f"line {int(m.group(1)) + cols.header_line} has {m.group(2)} fields" if m else msg)
+            raise InputError(f"malformed CSV: {detail} but the header has {width}; every line needs one field "
+                             f"per column (fields separated by {fmt.separator_name})", file=cols.path) from None
         except UnicodeDecodeError as exc:
-            raise InputError(f"is not UTF-8 text (byte {exc.start}); save the CSV as UTF-8", file=cols.path) from None
+            after = f" after line {self._last_line}" if self._last_line else ""
+            raise InputError(f"is not {fmt.encoding} text{after} (byte {exc.start} of a block); save the log in "
+                             f"one encoding (UTF-8 preferred)", file=cols.path) from None
         if self.rows == 0:
             raise InputError("no data rows below the header", file=cols.path)
         if np.all(self.missing == self.rows):
@@ -131,6 +141,12 @@ class LogReader:
             return None
         if blank.any():
             frame, lines = frame.loc[~blank], lines[~blank]
+        spare = frame[len(self.cols.headers)].notna().to_numpy()
+        if spare.any():
+            i = int(np.argmax(spare))
+            raise InputError(f"malformed CSV: line {int(lines[i])} has more fields than the header "
+                             f"({len(self.cols.headers)}: {', '.join(self.cols.headers)}); every line needs one "
+                             f"field per column (a record-number column needs a header too)", file=self.cols.path)
         t = self._times(frame[0], lines)
         self._check_order(t, lines)
         values = np.empty((len(frame), self.cols.n))

@@ -90,7 +90,6 @@ def test_numeric_times_with_a_unit(tmp_path, layout):
     ("time,AMB\n0,20\n", "none of the log's columns (AMB) is a sensor of the layout"),
     ("TC1,TC2\n80,81\n", "a log starts with a time column"),
     ("time,TC1,TC1\n0,80,80\n", "sensor 'TC1' appears twice"),
-    ("time;TC1\n0;80\n", "separated by semicolons"),
     ("time,TC1 [psi]\n0,80\n", "unit 'psi'"),
     ("time,TC1\n", "no data rows"),
 ])
