@@ -205,7 +205,7 @@ class Fit:
         from .fit_steps import output_files, write_outputs
         from .tables import read_points
 
-        folder, create = output_folder(Path(folder), self.case, overwrite)
+        folder, create = output_folder(Path(folder), self.case, overwrite, inputs=[self.readings_path, at])
         points = read_points(at, self.case.cylinder) if at else None
         write_outputs(folder, create, output_files(self.raw, self.case, self.readings_path, points))
         return folder

@@ -73,14 +73,17 @@ class LogChunk:
 class LogReader:
     """Iterate over validated LogChunks of a log; afterwards `warnings()` says what was
     missing, out of range or irregular.  `timestamps` tells whether the log had ISO times;
-    `iso(seconds)` turns times back into ISO 8601 text (UTC with 'Z' for times with an offset)."""
+    `iso(seconds)` turns times back into ISO 8601 text: times with a UTC offset keep the
+    offset of the log's first row (or the zone `tz`, a data_io.timezones tzinfo), naive
+    times stay naive."""
 
-    def __init__(self, columns: LogColumns, layout, chunk_rows: int = DEFAULT_CHUNK_ROWS):
+    def __init__(self, columns: LogColumns, layout, chunk_rows: int = DEFAULT_CHUNK_ROWS, tz=None):
         self.cols = columns
         self.chunk_rows = int(chunk_rows)
         self.rows = 0
         self.timestamps: bool | None = None
         self.aware = False
+        self.tz = tz
         self.origin_ns = 0
         self._last_t, self._last_line = None, None
         self._step = None
@@ -201,6 +204,8 @@ class LogReader:
         aware = ts.dt.tz is not None
         if self.rows == 0 and self._last_t is None:
             self.aware = aware
+            if aware and self.tz is None:
+                self.tz = pd.Timestamp(text.iloc[0].strip()).tzinfo    # the log's own offset
         elif aware != self.aware:
             raise self._error("timestamps mix times with and without a UTC offset", lines[0], 0)
         if aware:
@@ -291,13 +296,38 @@ class LogReader:
                        f"gap count as steady only if their samples still span half the window")
         return out
 
+    def local_times(self, seconds) -> tuple[np.ndarray, np.ndarray]:
+        """Wall-clock datetime64[ns] of times in s since the first row, and each one's UTC
+        offset in s (0 for naive logs)."""
+        ns = self.origin_ns + np.rint(np.asarray(seconds, float) * 1e9).astype(np.int64)
+        if not self.aware:
+            return ns.astype("datetime64[ns]"), np.zeros(ns.shape, np.int64)
+        idx = pd.DatetimeIndex(ns.ravel().astype("datetime64[ns]")).tz_localize("UTC").tz_convert(self.tz)
+        local = idx.tz_localize(None).asi8.reshape(ns.shape)
+        return local.astype("datetime64[ns]"), (local - ns) // 1_000_000_000
+
+    @property
+    def zone_label(self) -> str:
+        """The zone of the shown times for axis labels ("" for naive logs)."""
+        if not self.aware:
+            return ""
+        name = getattr(self.tz, "key", None) or str(self.tz)
+        return name if name not in ("UTC", "UTC+00:00") else "UTC"
+
     def iso(self, seconds) -> np.ndarray:
-        """ISO 8601 text of times in s since the first row (timestamp logs only)."""
-        s = np.asarray(seconds, float)
-        ns = self.origin_ns + np.rint(s * 1e9).astype(np.int64)
+        """ISO 8601 text of times in s since the first row (timestamp logs only), local to the
+        log's offset (or --tz) with the offset written: 2024-05-01T08:00:00+02:00."""
+        local, offset = self.local_times(seconds)
+        ns = local.astype(np.int64)
         whole = bool(np.all(ns % 1_000_000_000 == 0))
-        text = np.datetime_as_string(ns.astype("datetime64[ns]"), unit="s" if whole else "ms")
-        return np.char.add(text, "Z") if self.aware else text
+        text = np.datetime_as_string(local, unit="s" if whole else "ms")
+        if not self.aware:
+            return text
+        sign = np.where(offset < 0, "-", "+")
+        a = np.abs(offset)
+        hh = np.char.zfill((a // 3600).astype(str), 2)
+        mm = np.char.zfill((a % 3600 // 60).astype(str), 2)
+        return np.char.add(np.char.add(np.char.add(np.char.add(text, sign), hh), ":"), mm)
 
 
 def read_whole_log(path, layout=None, chunk_rows: int = DEFAULT_CHUNK_ROWS):
