@@ -17,6 +17,7 @@ import numpy as np
 import pandas as pd
 
 from .errors import InputError
+from .limits import MAX_TEMPERATURE_K
 from .plant_files import rows, table_text
 from .units import column_unit, convert, split_header, ureg
 
@@ -194,6 +195,12 @@ def _numeric_column(raw: RawTable, c: Column) -> np.ndarray:
                 i = int(bad[0])
                 raise InputError(f"{raw.cells[i][col]} is at or below absolute zero "
                                  f"(check the unit in the header)", file=raw.path, where=raw.where(i, col))
+            over = np.flatnonzero(ok & (k > MAX_TEMPERATURE_K))
+            if over.size and not c.nonfinite:     # readings: read_snapshot drops them with a warning
+                i = int(over[0])
+                raise InputError(f"{raw.cells[i][col]} is above {MAX_TEMPERATURE_K:g} K, not a plausible "
+                                 f"temperature (check the unit in the header)", file=raw.path,
+                                 where=raw.where(i, col))
             return k
         return out
     ok = np.isfinite(out)
@@ -237,6 +244,17 @@ def _parse(raw: RawTable, spec: tuple[Column, ...], what: str) -> dict:
             continue
         values[c.name] = _text_column(raw, c) if c.dimension is None else _numeric_column(raw, c)
     return values
+
+
+def likely_typo(extra: list[str], absent: list[str]) -> tuple[str, str] | None:
+    """(channel, sensor) when a channel that is not in the layout looks like a misspelt layout
+    sensor that has no reading: the one rule for snapshots and logs.  Other extra channels
+    (loggers record water, ambient...) are ignored with a warning."""
+    for name in extra:
+        close = difflib.get_close_matches(name, absent, n=1, cutoff=0.6)
+        if close:
+            return name, close[0]
+    return None
 
 
 def _check_sensor_ids(raw: RawTable, ids: list[str]) -> None:

@@ -34,11 +34,9 @@ def run_fit(case_path, *, readings=None, at=None, out=None, overwrite=False, mon
     from .console import current
     from .csv_out import output_folder
     from .fit_outputs import console_summary
-    from .limits import check_case
     from .fit_steps import fit_case, load_fit_case, output_files, write_outputs
 
     case, readings_path = load_fit_case(case_path, readings)
-    check_case(case)
     folder, create = output_folder(Path(out) if out else case.folder / f"{case.path.stem}-fit", case, overwrite,
                                    inputs=[readings_path, at])
     current().step(f"fitting {case.path} to {readings_path}")

@@ -28,8 +28,11 @@ def load_fit_case(case_path, readings=None, *, how_to_give="give --readings FILE
     overrides the case's [sensors] readings)."""
     from .case import load_case
 
+    from .limits import check_case
+
     case = load_case(case_path, purpose="fit")
     case.require("fit")
+    check_case(case)
     readings_path = Path(readings) if readings else case.sensors.readings
     if readings_path is None:
         raise InputError(f"no readings: add [sensors] readings = \"readings.csv\" or {how_to_give}",

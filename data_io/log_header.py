@@ -11,7 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .csv_in import check_printable
+from .csv_in import check_printable, likely_typo
 from .errors import InputError
 from .plant_files import SNIFF_BYTES, TextFormat, _head, rows, sniff
 from .units import column_unit, convert, split_header
@@ -65,6 +65,18 @@ def _header_line(path: Path) -> tuple[int, list[str], TextFormat]:
     raise InputError("the file is empty; expected a header line and rows", file=path)
 
 
+def header_names(path) -> list[str]:
+    """Lower-cased column names (units dropped) of a table's header line, read alone."""
+    _, cells, _ = _header_line(Path(path))
+    out = []
+    for cell in cells:
+        try:
+            out.append(split_header(cell)[0].lower())
+        except ValueError:
+            out.append(cell.lower())
+    return out
+
+
 def open_log(path, layout) -> LogColumns:
     """Parse and check the header of a log against a layout Table (units, sensor ids);
     layout None takes every column after the time as a sensor."""
@@ -110,11 +122,15 @@ def open_log(path, layout) -> LogColumns:
         raise InputError(f"none of the log's columns ({', '.join(headers[1:])}) is a sensor of the layout "
                          f"({layout.path}): sensor '{first}' is not in the layout{_did_you_mean(first, known)}",
                          file=path, where=where)
+    absent = [] if known is None else [s for s in known if s not in seen]
+    typo = likely_typo([split_header(h)[0] for h in ignored], absent)
+    if typo is not None:
+        raise InputError(f"column '{typo[0]}' is not a sensor of the layout ({layout.path}); did you mean "
+                         f"'{typo[1]}', which has no column?", file=path, where=where)
     for h in ignored:
         close = _did_you_mean(split_header(h)[0], known)
         hint = f" ({close[2:]})" if close else ""
         warnings.append(f"{path}: column '{h}' is not a sensor of the layout; ignored{hint}")
-    absent = [] if known is None else [s for s in known if s not in seen]
     if absent:
         warnings.append(f"{path}: no column for sensor{'s' if len(absent) > 1 else ''} {', '.join(absent)} "
                         f"of the layout; the trend uses the others")

@@ -35,6 +35,7 @@ import pandas as pd
 from . import thermocouples as tc
 from .csv_in import NONFINITE_WORDS
 from .errors import InputError
+from .limits import MAX_TEMPERATURE_K
 from .log_header import LogColumns, open_log
 
 #: rows per chunk (bounded memory: about 30 MB for 32 sensors)
@@ -92,7 +93,7 @@ class LogReader:
         self.out_of_range = np.zeros(n, np.int64)
         self._range_first: list = [None] * n
         self._types = [layout.frame.at[s, "type"] if layout is not None else "" for s in columns.sensors]
-        lo, hi = np.zeros(n), np.full(n, np.inf)
+        lo, hi = np.zeros(n), np.full(n, MAX_TEMPERATURE_K)
         for i, typ in enumerate(self._types):
             if typ:
                 lo[i], hi[i] = tc.usable_range_k(typ)
@@ -281,9 +282,10 @@ class LogReader:
             if n_bad:
                 line, value = self._range_first[i]
                 why = (f"outside the range of a type {self._types[i]} thermocouple" if self._types[i]
-                       else "at or below absolute zero")
+                       else f"outside 0 to {MAX_TEMPERATURE_K:g} K")
                 out.append(f"{path}: sensor '{s}' has {_plural(n_bad, 'reading')} {why} (first at line {line}: "
-                           f"{value - tc.KELVIN_OFFSET:.1f} degC), likely an open circuit; treated as missing")
+                           f"{value - tc.KELVIN_OFFSET:.4g} degC), likely an open circuit or a logger's overflow code; "
+                           f"treated as missing")
             n_missing = int(self.missing[i]) - n_bad
             if self.rows and int(self.missing[i]) == self.rows:
                 out.append(f"{path}: sensor '{s}' has no valid reading")

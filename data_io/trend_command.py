@@ -29,7 +29,7 @@ from pathlib import Path
 
 from ..inverse.steady import DEFAULT_DRIFT_K, DEFAULT_FLOOR_K, DEFAULT_WINDOW_S
 
-from .arguments import non_negative_float, positive_float, time_zone, whole
+from .arguments import positive_float, time_zone, whole
 from .csv_out import OUTPUT_FILES_KEY, OutputSet
 from .errors import InputError
 from .logs import DEFAULT_CHUNK_ROWS
@@ -59,8 +59,13 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
     from .trend_run import Progress, TrendRun
     from .trend_text import console_lines, trend_html
 
+    from .limits import MAX_EVERY, check_case, check_count
+
     case = load_case(case_path, purpose="fit")
     case.require("fit")
+    check_case(case)
+    if every is not None:
+        check_count(every, MAX_EVERY, "--every", "rows")
     log_path = Path(log) if log else case.sensors.readings
     if log_path is None:
         raise InputError("no log: give --log LOG.csv", file=case.path)
@@ -141,7 +146,7 @@ def add_trend(sub, help) -> None:
                    help=f"length of a window (default {DEFAULT_WINDOW_S:g})")
     p.add_argument("--drift", type=positive_float, default=DEFAULT_DRIFT_K, metavar="K",
                    help=f"a window is steady when no sensor drifts this much over it (default {DEFAULT_DRIFT_K:g})")
-    p.add_argument("--sigma-floor", type=non_negative_float, default=DEFAULT_FLOOR_K, metavar="K",
+    p.add_argument("--sigma-floor", type=positive_float, default=DEFAULT_FLOOR_K, metavar="K",
                    help="random sd of a window mean that averaging cannot remove (default "
                         f"{DEFAULT_FLOOR_K:g})")
     p.add_argument("--tz", type=time_zone, metavar="ZONE",
