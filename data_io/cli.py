@@ -47,7 +47,7 @@ def _warn(message: str) -> None:
 
 # ---------------------------------------------------------------------------- simulate
 
-SIMULATE_COLUMNS = ["r_m", "theta_deg", "z_m", "temperature_degC", "qr_W_m2", "qtheta_W_m2", "qz_W_m2"]
+SIMULATE_COLUMNS = ["r_mm", "theta_deg", "z_mm", "temperature_degC", "qr_W_m2", "qtheta_W_m2", "qz_W_m2"]
 
 
 def simulate_frame(case, points, tolerance: float = DEFAULT_TOLERANCE) -> tuple[pd.DataFrame, list[str]]:
@@ -64,9 +64,9 @@ def simulate_frame(case, points, tolerance: float = DEFAULT_TOLERANCE) -> tuple[
     ev = model.evaluate(p["r"].to_numpy(float), p["theta"].to_numpy(float), p["z"].to_numpy(float))
     q = np.asarray(ev.heat_flux, float) + 0.0   # + 0.0 turns -0.0 into 0.0
     frame = pd.DataFrame({
-        "r_m": p["r"].to_numpy(float),
+        "r_mm": from_si(p["r"].to_numpy(float), "length", "mm"),
         "theta_deg": from_si(p["theta"].to_numpy(float), "angle", "deg"),
-        "z_m": p["z"].to_numpy(float),
+        "z_mm": from_si(p["z"].to_numpy(float), "length", "mm"),
         "temperature_degC": from_si(np.asarray(ev.temperature, float), "temperature", "degC"),
         "qr_W_m2": q[0], "qtheta_W_m2": q[1], "qz_W_m2": q[2],
     }, columns=SIMULATE_COLUMNS)
@@ -119,7 +119,7 @@ def _add_simulate(sub, help) -> None:
         description="Compute the steady temperature and heat-flux vector (q = -k grad T) of a case "
                     "whose faces are all known, at the points of a CSV table (columns r, theta, z; "
                     "units in header brackets, default m and deg). One output row per point: "
-                    "r_m, theta_deg, z_m, temperature_degC, qr_W_m2, qtheta_W_m2, qz_W_m2.",
+                    "r_mm, theta_deg, z_mm, temperature_degC, qr_W_m2, qtheta_W_m2, qz_W_m2.",
         epilog="example:\n  heatsight simulate plate.toml --at points.csv --out field.csv\n\n"
                "points.csv could read:\n  r [mm],theta [deg],z [mm]\n  0,0,20\n  75,90,20",
         formatter_class=argparse.RawDescriptionHelpFormatter)
