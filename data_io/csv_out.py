@@ -100,7 +100,17 @@ def output_folder(out, case, overwrite: bool, names=FIT_OUTPUT_NAMES, inputs=())
         if target.exists() and target.name not in own:
             raise InputError(f"{target.name} in the output folder was not written by heatsight, so --overwrite "
                              f"leaves it alone; move it or choose another --out", file=out)
+    _probe(out if out.is_dir() else out.parent)
     return out, not out.exists()
+
+
+def _probe(folder: Path) -> None:
+    """Refuse, before any work, a folder where nothing can be created (read-only, /proc...)."""
+    try:
+        os.rmdir(tempfile.mkdtemp(prefix=".heatsight-probe.", dir=folder))
+    except OSError as exc:
+        raise InputError(f"cannot write here ({exc.strerror or exc}); choose a folder you may write to with --out",
+                         file=folder) from None
 
 
 def _same(a: Path, b: Path) -> bool:
@@ -226,7 +236,7 @@ class OutputSet:
         return self.folder / name
 
     def _commit(self) -> None:
-        aside: list[tuple[Path, Path]] = []
+        aside: list[tuple[Path, Path]] = []      # (target, its earlier version kept aside)
         done: list[Path] = []
         try:
             for name, staged in self._staged:
@@ -236,8 +246,8 @@ class OutputSet:
                                      file=self.folder)
                 if target.exists():
                     keep = Path(tempfile.mkdtemp(prefix=f".{name}.", suffix=".old", dir=self.folder)) / name
-                    os.replace(target, keep)
                     aside.append((target, keep))
+                    os.replace(target, keep)
                 os.replace(staged, target)
                 done.append(target)
         except BaseException:
@@ -247,10 +257,11 @@ class OutputSet:
                 except OSError:
                     pass
             for target, keep in aside:
-                try:
-                    os.replace(keep, target)
-                except OSError:
-                    pass
+                if keep.exists():
+                    try:
+                        os.replace(keep, target)
+                    except OSError:
+                        pass
             raise
         finally:
             for _, keep in aside:
