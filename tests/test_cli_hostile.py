@@ -65,7 +65,7 @@ REFUSED = {
     "3 simulate tolerance 0.5": (files(), (), ["simulate", "case.toml", "--at", "points.csv", "--out", "o.csv",
                                                "--tolerance", "0.5"], "--tolerance 0.5 is outside 1e-12 to 0.001"),
     # 4. ordinary problems were 'internal error'
-    "4 output under /proc": (GOOD, (), ["fit", "case.toml", "--out", "/proc/heatsight-x"], "/proc/heatsight-x"),
+    "4 output under /proc": (GOOD, (), ["fit", "case.toml", "--out", "/proc/heatsight-x"], "/proc: cannot write here"),
     "4 a billion draws": (GOOD, (), ["fit", "case.toml", "--monte-carlo", "1000000000", "--out", "o"],
                           "--monte-carlo 1000000000 is more than 100000"),
     "4 terms = 100000": (dict(GOOD, **{"case.toml": FIT + "\n[fit]\nterms = 100000\n"}), (),
