@@ -125,7 +125,10 @@ def choose_separator(header: str) -> str:
     """The separator giving the header most fields (a comma on a tie)."""
     best, fields = ",", 0
     for sep in SEPARATORS:
-        n = len(next(csv.reader([header], delimiter=sep), []))
+        try:
+            n = len(next(csv.reader([header], delimiter=sep), []))
+        except csv.Error:
+            n = header.count(sep) + 1
         if n > fields:
             best, fields = sep, n
     return best
@@ -136,8 +139,8 @@ def choose_decimal(text: str, sep: str) -> str:
     if sep == ",":
         return "."
     comma = dot = 0
-    for row in csv.reader(io.StringIO(text), delimiter=sep):
-        for cell in row[:64]:
+    for line in text.splitlines()[:1000]:
+        for cell in line.split(sep)[:64]:
             comma += bool(_COMMA_NUMBER.match(cell))
             dot += bool(_DOT_NUMBER.match(cell))
     return "," if comma > dot else "."
@@ -204,7 +207,7 @@ def rows(text: str, fmt: TextFormat, path=None) -> list[tuple[int, list[str]]]:
     """(file line number, stripped cells) of every record, decimal commas turned into
     points; blank lines give no cells."""
     out = []
-    reader = csv.reader(io.StringIO(text, newline=""), delimiter=fmt.sep if fmt.converted is None else ",",
+    reader = csv.reader(io.StringIO(text, newline=None), delimiter=fmt.sep if fmt.converted is None else ",",
                         skipinitialspace=True)
     try:
         for row in reader:
