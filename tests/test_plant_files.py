@@ -168,12 +168,12 @@ def test_trend_report_shows_local_times(tmp_path, monkeypatch, capsys):
     from test_trend_cli import make_folder, make_log
 
     folder = make_folder(tmp_path)
-    make_log(folder, hours=2.0, seed=3, iso=True)
+    make_log(folder, hours=0.5, seed=3, iso=True)
     log = pd.read_csv(folder / "log.csv")
     log["time"] = log["time"] + "+02:00"              # a shift logged at 06:00-08:00 local time
     log.to_csv(folder / "log.csv", index=False)
     monkeypatch.chdir(folder)
-    assert main(["trend", "platen.toml", "--log", "log.csv", "--every", "60", "--out", "res"]) == 0
+    assert main(["trend", "platen.toml", "--log", "log.csv", "--every", "30", "--out", "res"]) == 0
     rows = pd.read_csv(folder / "res" / "trend.csv")
     assert rows["start_iso"][0] == "2025-03-01T06:00:00+02:00"
     html = (folder / "res" / "report.html").read_text()
