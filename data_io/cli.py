@@ -364,11 +364,15 @@ def _failure(exc: Exception) -> int:
     else:
         if os.environ.get("HEATSIGHT_TRACEBACK"):
             traceback.print_exception(exc)
-        print(f"{PROG}: internal error: {type(exc).__name__}: {' '.join(str(exc).split())} "
+        from .console import printable
+
+        print(f"{PROG}: internal error: {type(exc).__name__}: {printable(exc)} "
               f"(please report this, with the case and tables if possible; set HEATSIGHT_TRACEBACK=1 "
               f"for details)", file=sys.stderr)
         return 1
-    print(f"{PROG}: error: {' '.join(str(message).split())}", file=sys.stderr)
+    from .console import printable
+
+    print(f"{PROG}: error: {printable(message)}", file=sys.stderr)
     return 2
 
 

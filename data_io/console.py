@@ -17,9 +17,9 @@ PROG = "heatsight"
 WARNING_PREFIX = "  warning: "
 
 
-def _clean(text: str) -> str:
+def printable(text) -> str:
     """One line with no control characters (sensor ids are checked when read; this guards
-    every other message too)."""
+    every other message too, e.g. a key of a case file)."""
     return "".join(ch if ch.isprintable() else "?" for ch in " ".join(str(text).split()))
 
 
@@ -42,11 +42,11 @@ class Console:
         return self.err or sys.stderr
 
     def warn(self, message: str) -> None:
-        print(f"{PROG}: warning: {_clean(message)}", file=self.stderr)
+        print(f"{PROG}: warning: {printable(message)}", file=self.stderr)
 
     def step(self, message: str) -> None:
         if self.verbose:
-            print(f"{PROG}: {_clean(message)}", file=self.stderr)
+            print(f"{PROG}: {printable(message)}", file=self.stderr)
 
     def answer(self, text: str, data=None) -> None:
         """The command's summary: `text` for people, `data` (a JSON-able dict) with --json.

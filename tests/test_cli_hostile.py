@@ -282,3 +282,13 @@ def test_api_misuse_raises_the_projects_error(tmp_path, monkeypatch, call, fragm
     monkeypatch.chdir(tmp_path)
     with pytest.raises(InputError, match=fragment.replace("(", r"\(").replace("'", "'")):
         call(heatsight)
+
+
+def test_escape_sequences_never_reach_the_terminal(tmp_path, monkeypatch, capsys):
+    """A control character in a case-file key (read by the TOML parser, not by our CSV readers)
+    is shown escaped in the one-line message."""
+    setup(tmp_path, dict(GOOD, **{"case.toml": FIT.replace("radius =", '"rad\\u001b[2Jius" =')}))
+    monkeypatch.chdir(tmp_path)
+    assert main(["check", "case.toml"]) == 2
+    err = capsys.readouterr().err
+    assert "\x1b" not in err and err.count("\n") == 1, repr(err)
