@@ -37,6 +37,7 @@ from .csv_in import NONFINITE_WORDS
 from .errors import InputError
 from .limits import MAX_TEMPERATURE_K
 from .log_header import LogColumns, open_log
+from .plant_files import ENCODING_NAMES, undecodable_line
 
 #: rows per chunk (bounded memory: about 30 MB for 32 sensors)
 DEFAULT_CHUNK_ROWS = 100_000
@@ -125,8 +126,10 @@ class LogReader:
             raise InputError(f"malformed CSV: {detail} but the header has {width}; every line needs one field "
                              f"per column (fields separated by {fmt.separator_name})", file=cols.path) from None
         except UnicodeDecodeError as exc:
-            after = f" after line {self._last_line}" if self._last_line else ""
-            raise InputError(f"is not {fmt.encoding} text{after} (byte {exc.start} of a block); save the log in "
+            line = undecodable_line(cols.path, fmt.encoding)
+            at = f"line {line}: " if line else ""
+            raise InputError(f"{at}is not {ENCODING_NAMES.get(fmt.encoding, fmt.encoding)} text like the lines "
+                             f"before it; save the log in "
                              f"one encoding (UTF-8 preferred)", file=cols.path) from None
         if self.rows == 0:
             raise InputError("no data rows below the header", file=cols.path)

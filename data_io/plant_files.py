@@ -23,6 +23,8 @@ from .limits import MAX_TABLE_BYTES
 #: bytes read to decide the encoding, separator and decimal mark
 SNIFF_BYTES = 1 << 20
 SEPARATORS = (",", ";", "\t")
+#: codecs by the names people know them
+ENCODING_NAMES = {"utf-8-sig": "UTF-8", "utf-16": "UTF-16", "cp1252": "Windows-1252", "latin-1": "Latin-1"}
 _COMMA_NUMBER = re.compile(r"^\s*[+-]?\d+,\d+(?:[eE][+-]?\d+)?\s*$")
 _DOT_NUMBER = re.compile(r"^\s*[+-]?\d*\.\d+(?:[eE][+-]?\d+)?\s*$")
 _XLSX_MAGIC = b"PK\x03\x04"
@@ -110,8 +112,27 @@ def decode(data: bytes, path: Path, encoding: str) -> str:
     try:
         return data.decode(encoding)
     except UnicodeDecodeError as exc:
-        raise InputError(f"line {_line_of(data, exc.start)}: byte {exc.start} is not {encoding} text like the "
+        raise InputError(f"line {_line_of(data, exc.start)}: byte {exc.start} is not "
+                         f"{ENCODING_NAMES.get(encoding, encoding)} text like the "
                          f"lines before it; save the file in one encoding (UTF-8 preferred)", file=path) from None
+
+
+def undecodable_line(path: Path, encoding: str) -> int | None:
+    """The line of the first byte of the file that is not `encoding` text (read in blocks;
+    for messages only)."""
+    decoder = codecs.getincrementaldecoder(encoding)()
+    line, block_size = 1, 1 << 20
+    try:
+        with open(path, "rb") as fh:
+            while block := fh.read(block_size):
+                try:
+                    decoder.decode(block)
+                except UnicodeDecodeError as exc:
+                    return line + block.count(b"\n", 0, max(exc.start, 0))
+                line += block.count(b"\n")
+    except OSError:
+        return None
+    return None
 
 
 def _first_line(text: str) -> str:

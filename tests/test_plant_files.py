@@ -211,3 +211,12 @@ def test_points_in_semicolons(tmp_path):
 def test_whole_log_of_a_device_is_refused(layout):
     with pytest.raises(InputError, match="not a regular file"):
         read_whole_log("/dev/zero", layout)
+
+
+def test_a_log_changing_encoding_after_the_first_mebibyte(tmp_path, layout):
+    """The first MiB decides the encoding; a later byte that is not UTF-8 is refused naming its
+    line (header line 1, then 80 000 rows, then the bad one)."""
+    rows = ["time,TC1,TC2,TC3"] + [f"{i},80,81,40" for i in range(80_000)]
+    data = ("\n".join(rows) + "\n").encode("utf-8") + "80000,80°,81,40\n".encode("cp1252")
+    with pytest.raises(InputError, match="line 80002: is not UTF-8 text"):
+        read_log(write(tmp_path, "log.csv", data), layout)
