@@ -292,3 +292,26 @@ def test_escape_sequences_never_reach_the_terminal(tmp_path, monkeypatch, capsys
     assert main(["check", "case.toml"]) == 2
     err = capsys.readouterr().err
     assert "\x1b" not in err and err.count("\n") == 1, repr(err)
+
+
+def test_termination_during_a_trend_leaves_no_temporary_file(tmp_path, monkeypatch, capsys):
+    """SIGTERM while trend.csv is being streamed: no output folder and no hidden temporary file
+    left (which made the rerun refuse a "non-empty" folder)."""
+    from heatsight.data_io import trend_run
+    from test_trend_cli import make_folder, make_log
+
+    folder = make_folder(tmp_path)
+    make_log(folder, hours=0.5, seed=3)
+    before = tree(folder)
+    monkeypatch.chdir(folder)
+    real_run = trend_run.TrendRun.run
+
+    def run_then_signal(self, stream, progress, expected_rows):
+        stream.write(b"start_s\n" * 1000)               # something staged in the hidden file
+        os.kill(os.getpid(), signal.SIGTERM)
+        return real_run(self, stream, progress, expected_rows)
+
+    monkeypatch.setattr(trend_run.TrendRun, "run", run_then_signal)
+    code = main(["trend", "platen.toml", "--log", "log.csv", "--out", "res"])
+    assert code == 128 + signal.SIGTERM and "stopped by signal" in capsys.readouterr().err
+    assert tree(folder) == before       # no folder res, so a rerun is not refused as "not empty"
