@@ -9,13 +9,21 @@ The only layer that touches files and the terminal.  Library use: ``heatsight.fi
     readings = read_readings(case.sensors.readings, layout)
 """
 
-from .api import Fit, fit
-from .case import Case, FitOptions, SensorFiles, Zone, load_case
-from .errors import InputError
-from .profiles import TableProfile, load_profile
-from .tables import Table, read_layout, read_log, read_points, read_readings, read_snapshot
-from .units import parse_quantity, ureg
+import importlib
 
-__all__ = ["Fit", "fit", "Case", "FitOptions", "SensorFiles", "Zone", "load_case", "InputError", "TableProfile",
-           "load_profile", "Table", "read_layout", "read_log", "read_points", "read_readings",
-           "read_snapshot", "parse_quantity", "ureg"]
+#: public name -> module that defines it; imported on first use, so that the command line's
+#: --help and --version load nothing heavy
+_EXPORTS = {
+    "Fit": "api", "fit": "api", "Case": "case", "FitOptions": "case", "SensorFiles": "case", "Zone": "case",
+    "load_case": "case", "InputError": "errors", "TableProfile": "profiles", "load_profile": "profiles",
+    "Table": "tables", "read_layout": "tables", "read_log": "tables", "read_points": "tables",
+    "read_readings": "tables", "read_snapshot": "tables", "parse_quantity": "units", "ureg": "units",
+}
+
+__all__ = list(_EXPORTS)
+
+
+def __getattr__(name):
+    if name in _EXPORTS:
+        return getattr(importlib.import_module(f".{_EXPORTS[name]}", __name__), name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

@@ -34,8 +34,20 @@ _TEMPERATURE = file_display("temperature")
 def fit(case_path, *, readings=None, **options) -> "Fit":
     """Fit the case file `case_path`; `readings` overrides the case's snapshot file; the
     options are those of ``heatsight.inverse.fit`` (strength, smoothing, ...)."""
+    import inspect
+    import os
+
+    from ..inverse import fit as inverse_fit
     from .fit_steps import fit_case, load_fit_case
 
+    for name, value in (("case_path", case_path), ("readings", readings)):
+        if not (isinstance(value, (str, os.PathLike)) or (name == "readings" and value is None)):
+            raise InputError(f"heatsight.fit: {name} must be a path (str or pathlib.Path), got "
+                             f"{type(value).__name__}")
+    allowed = [p for p in inspect.signature(inverse_fit).parameters if p not in ("case", "readings")]
+    unknown = [k for k in options if k not in allowed]
+    if unknown:
+        raise InputError(f"heatsight.fit: unknown option {unknown[0]!r}; the options are {', '.join(allowed)}")
     case, readings_path = load_fit_case(case_path, readings, how_to_give="pass readings=")
     result, _ = fit_case(case, readings_path, **options)
     return Fit(result, case, readings_path)
@@ -102,7 +114,7 @@ class Fit:
             return self._zones_frame()
         if which == "sensors":
             return self._sensors_frame()
-        raise ValueError(f"which must be 'face', 'zones' or 'sensors', got {which!r}")
+        raise InputError(f"to_frame: which must be 'face', 'zones' or 'sensors', got {which!r}")
 
     def _face_frame(self) -> pd.DataFrame:
         g, d = self.raw.grid, display_for(self.raw)
@@ -148,7 +160,17 @@ class Fit:
         points: a DataFrame with columns r, theta, z (units in brackets, e.g. ``r [mm]``;
         without brackets mm and deg), or arrays r [mm], theta [deg], z [mm] given as
         predict(r, theta, z), or an (N, 3) array of such rows."""
-        r_m, th, z_m = self._points_si(points, theta, z)
+        try:
+            r_m, th, z_m = self._points_si(points, theta, z)
+        except InputError:
+            raise
+        except (TypeError, ValueError) as exc:
+            raise InputError(f"predict: points must be numbers (a DataFrame with columns r, theta, z, three "
+                             f"arrays or an (N, 3) array): {' '.join(str(exc).split())}") from None
+        if not (r_m.shape == th.shape == z_m.shape):
+            raise InputError(f"predict: r, theta and z need the same length, got {r_m.size}, {th.size}, {z_m.size}")
+        if not (np.all(np.isfinite(r_m)) and np.all(np.isfinite(th)) and np.all(np.isfinite(z_m))):
+            raise InputError("predict: every coordinate must be a finite number")
         inside = self.raw.cylinder.contains(r_m, z_m) & (r_m >= 0)
         if not np.all(inside):
             i = int(np.flatnonzero(~inside)[0])
@@ -205,7 +227,7 @@ class Fit:
         from .fit_steps import output_files, write_outputs
         from .tables import read_points
 
-        folder, create = output_folder(Path(folder), self.case, overwrite)
+        folder, create = output_folder(Path(folder), self.case, overwrite, inputs=[self.readings_path, at])
         points = read_points(at, self.case.cylinder) if at else None
         write_outputs(folder, create, output_files(self.raw, self.case, self.readings_path, points))
         return folder

@@ -12,18 +12,14 @@ from __future__ import annotations
 
 import argparse
 import os
+import signal
 import sys
 import traceback
+import warnings as py_warnings
 from pathlib import Path
 
-import numpy as np
-import pandas as pd
-
-from ..forward.errors import ForwardModelError
-
-from ..inverse.errors import InverseError
-
 from .arguments import positive_float
+from .console import Console, use
 from .errors import InputError
 
 PROG = "heatsight"
@@ -45,17 +41,21 @@ class _Parser(argparse.ArgumentParser):
 
 
 def _warn(message: str) -> None:
-    print(f"{PROG}: warning: {message}", file=sys.stderr)
+    from .console import current
+    current().warn(message)
 
 
 # ---------------------------------------------------------------------------- simulate
 
-SIMULATE_COLUMNS = ["r_m", "theta_deg", "z_m", "temperature_degC", "qr_W_m2", "qtheta_W_m2", "qz_W_m2"]
+SIMULATE_COLUMNS = ["r_mm", "theta_deg", "z_mm", "temperature_degC", "qr_W_m2", "qtheta_W_m2", "qz_W_m2"]
 
 
 def simulate_frame(case, points, tolerance: float = DEFAULT_TOLERANCE) -> tuple[pd.DataFrame, list[str]]:
     """The field of a fully known case at query points (a points Table): the simulate
     output columns, and warnings."""
+    import numpy as np
+    import pandas as pd
+
     from .units import from_si
 
     warnings: list[str] = []
@@ -64,9 +64,9 @@ def simulate_frame(case, points, tolerance: float = DEFAULT_TOLERANCE) -> tuple[
     ev = model.evaluate(p["r"].to_numpy(float), p["theta"].to_numpy(float), p["z"].to_numpy(float))
     q = np.asarray(ev.heat_flux, float) + 0.0   # + 0.0 turns -0.0 into 0.0
     frame = pd.DataFrame({
-        "r_m": p["r"].to_numpy(float),
+        "r_mm": from_si(p["r"].to_numpy(float), "length", "mm"),
         "theta_deg": from_si(p["theta"].to_numpy(float), "angle", "deg"),
-        "z_m": p["z"].to_numpy(float),
+        "z_mm": from_si(p["z"].to_numpy(float), "length", "mm"),
         "temperature_degC": from_si(np.asarray(ev.temperature, float), "temperature", "degC"),
         "qr_W_m2": q[0], "qtheta_W_m2": q[1], "qz_W_m2": q[2],
     }, columns=SIMULATE_COLUMNS)
@@ -87,28 +87,39 @@ def _run_simulate(args) -> int:
     from .csv_out import check_output_path, write_csv
     from .tables import read_points
 
+    from ..forward.errors import ForwardModelError
+    from .console import current
+    from .limits import check_tolerance
+
+    check_tolerance(args.tolerance)
     case = load_case(args.case, purpose="simulate")
     at = Path(args.at)
     if args.out is not None:
         check_output_path(args.out, case.input_files() + [at])
     points = read_points(at, case.cylinder)
+    current().step(f"simulating {len(points.frame)} points of {case.path}")
     try:
         frame, warnings = simulate_frame(case, points, args.tolerance)
     except ForwardModelError as exc:
         raise InputError(str(exc), file=case.path) from None
     for w in points.warnings + warnings:
         _warn(w)
+    if args.out is None and current().json:
+        current().answer("", {"columns": list(frame.columns), "rows": frame.to_dict(orient="records")})
+        return 0
     write_csv(frame, None if args.out is None else Path(args.out))
+    if args.out is not None and current().json:
+        current().answer("", {"out": str(args.out), "rows": len(frame)})
     return 0
 
 
-def _add_simulate(sub) -> None:
+def _add_simulate(sub, help) -> None:
     p = sub.add_parser(
-        "simulate", help="temperature and heat flux of a fully known case at given points",
+        "simulate", help=help,
         description="Compute the steady temperature and heat-flux vector (q = -k grad T) of a case "
                     "whose faces are all known, at the points of a CSV table (columns r, theta, z; "
                     "units in header brackets, default m and deg). One output row per point: "
-                    "r_m, theta_deg, z_m, temperature_degC, qr_W_m2, qtheta_W_m2, qz_W_m2.",
+                    "r_mm, theta_deg, z_mm, temperature_degC, qr_W_m2, qtheta_W_m2, qz_W_m2.",
         epilog="example:\n  heatsight simulate plate.toml --at points.csv --out field.csv\n\n"
                "points.csv could read:\n  r [mm],theta [deg],z [mm]\n  0,0,20\n  75,90,20",
         formatter_class=argparse.RawDescriptionHelpFormatter)
@@ -124,11 +135,15 @@ def _add_simulate(sub) -> None:
 
 
 def _run_check(args) -> int:
+    from ..forward.errors import ForwardModelError
     from .case import load_case
+    from .console import current
+    from .limits import check_case
     from .describe import describe_case, describe_readings, describe_sensors, layout_notes
     from .tables import read_layout, read_readings
 
     case = load_case(args.case)
+    check_case(case)
     warnings: list[str] = []
     lines = describe_case(case)
     if case.unknown_face is not None:
@@ -159,13 +174,13 @@ def _run_check(args) -> int:
         raise InputError(str(exc), file=case.path) from None
     for w in warnings:
         _warn(w)
-    print("\n".join(lines))
+    current().answer("\n".join(lines), {"case": str(case.path), "lines": lines, "warnings": warnings})
     return 0
 
 
-def _add_check(sub) -> None:
+def _add_check(sub, help) -> None:
     p = sub.add_parser(
-        "check", help="validate a case and its tables, and say what was understood",
+        "check", help=help,
         description="Read the case file and every table it names (profiles, sensor layout, "
                     "readings), check them, and print what was understood: geometry, face "
                     "conditions with their units, sensors, and notes on blind spots of the layout.",
@@ -177,28 +192,29 @@ def _add_check(sub) -> None:
 
 # ---------------------------------------------------------------------------- parser
 
-#: (name, function adding the subparser).  Add fit, demo and trend here.
-def _add_fit(sub) -> None:
+def _add_fit(sub, help) -> None:
     from .fit_command import add_fit
-    add_fit(sub)
+    add_fit(sub, help)
 
 
-def _add_demo(sub) -> None:
+def _add_demo(sub, help) -> None:
     from .fit_command import add_demo
-    add_demo(sub)
+    add_demo(sub, help)
 
 
-def _add_trend(sub) -> None:
+def _add_trend(sub, help) -> None:
     from .trend_command import add_trend
-    add_trend(sub)
+    add_trend(sub, help)
 
 
+#: (name, one-line help, function adding the full subparser).  Only the chosen command's
+#: subparser is built in full, so `heatsight --help` and `--version` import nothing heavy.
 COMMANDS = [
-    ("fit", _add_fit),
-    ("simulate", _add_simulate),
-    ("check", _add_check),
-    ("demo", _add_demo),
-    ("trend", _add_trend),
+    ("fit", "estimate the unknown face from thermocouple readings", _add_fit),
+    ("simulate", "temperature and heat flux of a fully known case at given points", _add_simulate),
+    ("check", "validate a case and its tables, and say what was understood", _add_check),
+    ("demo", "run the bundled example end to end", _add_demo),
+    ("trend", "follow the unknown face over a logged record (steady windows or every Nth row)", _add_trend),
 ]
 
 
@@ -210,51 +226,154 @@ def _version() -> str:
         return "unknown"
 
 
-def build_parser() -> argparse.ArgumentParser:
+def _add_console_options(p) -> None:
+    g = p.add_argument_group("console")
+    g.add_argument("-q", "--quiet", action="store_true", help="print nothing but warnings and errors")
+    g.add_argument("-v", "--verbose", action="store_true",
+                   help="also print the steps of the run and Python's own warnings (on stderr)")
+    g.add_argument("--json", action="store_true", help="print the summary as JSON on stdout (for scripts)")
+
+
+def build_parser(only: str | None = None) -> argparse.ArgumentParser:
+    """The parser; `only` names the one command built in full (None: all of them; "": none)."""
     parser = _Parser(
         prog=PROG,
         description="Infer the unseen face of a heated solid cylinder from thermocouple readings.",
         epilog="examples:\n  heatsight demo\n  heatsight check plate.toml\n"
                "  heatsight fit plate.toml --readings readings.csv --out plate-fit\n"
                "  heatsight simulate plate.toml --at points.csv --out field.csv\n\n"
+               "Every command takes --quiet, --verbose and --json. "
                "Estimates support engineering judgement; they do not replace direct measurement, "
                "interlocks or inspection.",
         formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--version", action="version", version=f"{PROG} {_version()}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     sub.required = True
-    for _, add in COMMANDS:
-        add(sub)
+    for name, help, add in COMMANDS:
+        if only is None or name == only:
+            add(sub, help)
+            _add_console_options(sub.choices[name])
+        else:
+            sub.add_parser(name, help=help, add_help=False)
     return parser
+
+
+def _chosen(argv) -> str:
+    names = {name for name, _, _ in COMMANDS}
+    for arg in argv:
+        if not arg.startswith("-"):
+            return arg if arg in names else ""
+    return ""
+
+
+class Terminated(BaseException):
+    """SIGTERM or SIGHUP: unwinds like Ctrl-C, so partial outputs are removed."""
+
+    def __init__(self, signum: int):
+        super().__init__(signum)
+        self.signum = signum
+
+
+def _on_signal(signum, frame):
+    raise Terminated(signum)
+
+
+def _os_message(exc: OSError) -> str:
+    import errno
+
+    what = exc.filename if exc.filename is not None else "a file"
+    reason = exc.strerror or str(exc)
+    advice = {errno.ENOSPC: "free some space or write elsewhere with --out",
+              errno.EDQUOT: "free some space or write elsewhere with --out",
+              errno.EACCES: "choose a folder you may write to with --out",
+              errno.EPERM: "choose a folder you may write to with --out",
+              errno.EROFS: "the file system is read-only; choose another folder with --out"}.get(
+        exc.errno, "check the path and try again")
+    return f"{what}: {reason}; {advice}"
 
 
 def main(argv=None) -> int:
     """Run the command line; returns the exit status (0, 1 or 2)."""
-    parser = build_parser()
+    argv = sys.argv[1:] if argv is None else list(argv)
+    if argv in (["--version"], ["-V"]):
+        print(f"{PROG} {_version()}")
+        return 0
+    parser = build_parser(_chosen(argv))
+    previous = {}
+    for sig in (signal.SIGTERM, getattr(signal, "SIGHUP", None)):
+        if sig is not None:
+            try:
+                previous[sig] = signal.signal(sig, _on_signal)
+            except ValueError:       # not the main thread
+                pass
+    try:
+        with py_warnings.catch_warnings(record=True) as caught:
+            py_warnings.simplefilter("always")
+            try:
+                return _main(parser, argv)
+            finally:
+                verbose = "-v" in argv or "--verbose" in argv
+                if verbose:
+                    for w in caught:
+                        print(f"{PROG}: warning: ({w.category.__name__}) {' '.join(str(w.message).split())}",
+                              file=sys.stderr)
+    finally:
+        for sig, handler in previous.items():
+            signal.signal(sig, handler)
+
+
+def _main(parser, argv) -> int:
     try:
         args = parser.parse_args(argv)
+        use(Console(quiet=args.quiet, verbose=args.verbose, json=args.json))
         return int(args.run(args) or 0)
     except SystemExit as exc:        # --help, --version
         return int(exc.code or 0) if isinstance(exc.code, int) or exc.code is None else 2
-    except (InputError, ForwardModelError, InverseError, UsageError) as exc:
-        print(f"{PROG}: error: {' '.join(str(exc).split())}", file=sys.stderr)
-        return 2
     except KeyboardInterrupt:
         print(f"{PROG}: interrupted", file=sys.stderr)
         return 130
+    except Terminated as exc:
+        print(f"{PROG}: stopped by signal {exc.signum}; no output was written", file=sys.stderr)
+        return 128 + exc.signum
     except BrokenPipeError:
         try:
             sys.stdout = open(os.devnull, "w")  # noqa: SIM115 - silence the flush at exit
         except OSError:
             pass
         return 1
-    except Exception as exc:  # noqa: BLE001 - the last line of defence
+    except Exception as exc:  # noqa: BLE001 - sorted below
+        return _failure(exc)
+    finally:
+        use(Console())
+
+
+def _failure(exc: Exception) -> int:
+    """Exit status and message of a failed command: 2 for the user's or the machine's
+    problems (bad input, a folder we may not write, a full disk, too little memory), 1 for
+    our own bugs."""
+    from ..forward.errors import ForwardModelError
+    from ..inverse.errors import InverseError
+
+    if isinstance(exc, (InputError, ForwardModelError, InverseError, UsageError)):
+        message = str(exc)
+    elif isinstance(exc, OSError):
+        message = _os_message(exc)
+    elif isinstance(exc, MemoryError):
+        message = ("not enough memory for this run; lower --monte-carlo, the [fit] terms or harmonics, or use "
+                   "--every with a larger N")
+    else:
         if os.environ.get("HEATSIGHT_TRACEBACK"):
-            traceback.print_exc()
-        print(f"{PROG}: internal error: {type(exc).__name__}: {' '.join(str(exc).split())} "
+            traceback.print_exception(exc)
+        from .console import printable
+
+        print(f"{PROG}: internal error: {type(exc).__name__}: {printable(exc)} "
               f"(please report this, with the case and tables if possible; set HEATSIGHT_TRACEBACK=1 "
               f"for details)", file=sys.stderr)
         return 1
+    from .console import printable
+
+    print(f"{PROG}: error: {printable(message)}", file=sys.stderr)
+    return 2
 
 
 if __name__ == "__main__":

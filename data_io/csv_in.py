@@ -9,7 +9,6 @@ Line numbers in messages are those of the file as an editor shows them (header =
 from __future__ import annotations
 
 import difflib
-import io
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -18,7 +17,8 @@ import numpy as np
 import pandas as pd
 
 from .errors import InputError
-from .textfile import read_text
+from .limits import MAX_TEMPERATURE_K
+from .plant_files import rows, table_text
 from .units import column_unit, convert, split_header, ureg
 
 # ---------------------------------------------------------------------------- results
@@ -77,57 +77,63 @@ class RawTable:
         return f"line {self.lines[row]}, column '{self.headers[col]}'"
 
 
-def _read_text(path: Path) -> str:
-    return read_text(path, "a CSV file", hint="; save the CSV as UTF-8")
+def _control_hint(text: str) -> str | None:
+    """The first control character (a terminal escape, a bell) in a cell, shown escaped."""
+    for ch in text:
+        if ord(ch) < 32 and ch != "\t" or 127 <= ord(ch) < 160:
+            return repr(ch)
+    return None
+
+
+def check_printable(text: str, path, where: str) -> None:
+    """Refuse text holding control characters: they would reach the terminal and the report."""
+    bad = _control_hint(text)
+    if bad is not None:
+        raise InputError(f"holds the control character {bad}; remove it (ids and headers must be plain text)",
+                         file=path, where=where)
 
 
 def read_raw(path: Path) -> RawTable:
-    """Read a CSV as text cells, keeping file line numbers; refuse ragged or empty files."""
+    """Read a table as text cells (CSV in any of the plant formats of data_io.plant_files,
+    or a workbook / Parquet file), keeping file line numbers; refuse ragged or empty files."""
     path = Path(path)
-    text = _read_text(path)
-    if not text.strip():
+    text, fmt = table_text(path)
+    records = [(line, cells) for line, cells in rows(text, fmt, path) if any(cells)]
+    if not records:
         raise InputError("the file is empty; expected a header line and rows", file=path)
-    try:
-        df = pd.read_csv(io.StringIO(text), header=None, dtype=str, keep_default_na=False,
-                         skip_blank_lines=False, skipinitialspace=True)
-    except pd.errors.ParserError as exc:
-        msg = str(exc).replace("Error tokenizing data. C error: ", "")
-        raise InputError(f"malformed CSV ({msg.strip()}); every line needs the same number of "
-                         f"comma-separated fields as the header", file=path) from exc
-    except pd.errors.EmptyDataError as exc:
-        raise InputError("the file is empty; expected a header line and rows", file=path) from exc
-    rows = [[("" if v is None else str(v)).strip() for v in row] for row in df.itertuples(index=False)]
-    # the header is the first non-blank line
-    first = next((i for i, row in enumerate(rows) if any(row)), None)
-    if first is None:
-        raise InputError("the file has no header line; expected column names on the first line", file=path)
-    headers = rows[first]
-    if len(headers) == 1 and (";" in headers[0] or "\t" in headers[0]):
-        sep = "semicolons" if ";" in headers[0] else "tabs"
-        raise InputError(f"line {first + 1}: the fields seem separated by {sep}; "
-                         f"separate them with commas", file=path)
+    header_line, headers = records[0]
+    while len(headers) > 1 and headers[-1] == "":
+        headers = headers[:-1]     # a trailing separator after the last header
+    for line, cells in records:
+        for col, cell in enumerate(cells):
+            check_printable(cell, path, f"line {line}, column {col + 1}")
+    for line, cells in records[1:]:
+        if len(cells) != len(headers):
+            extra = cells[len(headers):]
+            if len(cells) > len(headers) and not any(extra):
+                continue          # trailing separators: empty fields past the header's
+            raise InputError(f"malformed CSV: line {line} has {len(cells)} fields but the header (line {header_line}) has "
+                             f"{len(headers)}; every line needs one field per column "
+                             f"(fields separated by {fmt.separator_name})", file=path)
     names, units = [], []
     for col, h in enumerate(headers):
         if h == "":
-            raise InputError(f"line {first + 1}, column {col + 1}: empty column header", file=path)
+            raise InputError(f"line {header_line}, column {col + 1}: empty column header", file=path)
         try:
             name, unit = split_header(h)
         except ValueError as exc:
-            raise InputError(f"line {first + 1}: {exc}", file=path) from None
+            raise InputError(f"line {header_line}: {exc}", file=path) from None
         names.append(name.lower())
         units.append(unit)
     seen = {}
     for col, name in enumerate(names):
         if name in seen:
-            raise InputError(f"line {first + 1}: column '{headers[col]}' appears twice "
+            raise InputError(f"line {header_line}: column '{headers[col]}' appears twice "
                              f"(columns {seen[name] + 1} and {col + 1})", file=path)
         seen[name] = col
-    body, lines = [], []
-    for i in range(first + 1, len(rows)):
-        if any(rows[i]):
-            body.append(rows[i])
-            lines.append(i + 1)
-    return RawTable(path, names, headers, units, body, lines, first + 1)
+    body = [cells[:len(headers)] for _, cells in records[1:]]
+    lines = [line for line, _ in records[1:]]
+    return RawTable(path, names, headers, units, body, lines, header_line)
 
 
 def _check_columns(raw: RawTable, spec: tuple[Column, ...], what: str) -> None:
@@ -189,6 +195,12 @@ def _numeric_column(raw: RawTable, c: Column) -> np.ndarray:
                 i = int(bad[0])
                 raise InputError(f"{raw.cells[i][col]} is at or below absolute zero "
                                  f"(check the unit in the header)", file=raw.path, where=raw.where(i, col))
+            over = np.flatnonzero(ok & (k > MAX_TEMPERATURE_K))
+            if over.size and not c.nonfinite:     # readings: read_snapshot drops them with a warning
+                i = int(over[0])
+                raise InputError(f"{raw.cells[i][col]} is above {MAX_TEMPERATURE_K:g} K, not a plausible "
+                                 f"temperature (check the unit in the header)", file=raw.path,
+                                 where=raw.where(i, col))
             return k
         return out
     ok = np.isfinite(out)
@@ -232,6 +244,17 @@ def _parse(raw: RawTable, spec: tuple[Column, ...], what: str) -> dict:
             continue
         values[c.name] = _text_column(raw, c) if c.dimension is None else _numeric_column(raw, c)
     return values
+
+
+def likely_typo(extra: list[str], absent: list[str]) -> tuple[str, str] | None:
+    """(channel, sensor) when a channel that is not in the layout looks like a misspelt layout
+    sensor that has no reading: the one rule for snapshots and logs.  Other extra channels
+    (loggers record water, ambient...) are ignored with a warning."""
+    for name in extra:
+        close = difflib.get_close_matches(name, absent, n=1, cutoff=0.6)
+        if close:
+            return name, close[0]
+    return None
 
 
 def _check_sensor_ids(raw: RawTable, ids: list[str]) -> None:

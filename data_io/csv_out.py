@@ -53,26 +53,71 @@ def check_output_path(path, inputs=()) -> Path:
 
 #: files a fit writes into its output folder (a trend adds its own); none may be an input
 FIT_OUTPUT_NAMES = ("estimate.csv", "sensors.csv", "summary.json", "points.csv", "report.html")
+#: the key of summary.json listing the files of its run: --overwrite replaces only these
+OUTPUT_FILES_KEY = "output_files"
 
 
-def output_folder(out, case, overwrite: bool, names=FIT_OUTPUT_NAMES) -> tuple[Path, bool]:
-    """The output folder `out` and whether it must be created; refuses a file, a non-empty
-    folder (unless overwrite), a missing parent, and a folder where an output would replace
-    one of the case's input files."""
+def own_outputs(folder: Path) -> set[str]:
+    """Names heatsight wrote into `folder` in an earlier run (listed in its summary.json)."""
+    import json
+
+    try:
+        listed = json.loads((Path(folder) / "summary.json").read_text(encoding="utf-8")).get(OUTPUT_FILES_KEY)
+    except (OSError, ValueError, AttributeError):
+        return set()
+    if not isinstance(listed, list):
+        return set()
+    return {n for n in listed if isinstance(n, str) and n and "/" not in n and n not in (".", "..")}
+
+
+def output_folder(out, case, overwrite: bool, names=FIT_OUTPUT_NAMES, inputs=()) -> tuple[Path, bool]:
+    """The output folder `out` and whether it must be created.
+
+    Refused: a file where the folder should be, a missing parent, a non-empty folder without
+    `overwrite`, and any output (of `names`, or a PNG) that would replace one of the run's
+    inputs (the case's files and `inputs`: --readings, --at, --log), a folder, or a file
+    heatsight did not write there (`--overwrite` replaces only heatsight's own earlier
+    outputs, listed in the folder's summary.json)."""
     out = Path(out)
     if out.exists() and not out.is_dir():
         raise InputError("exists and is not a folder; --out names a folder", file=out)
-    if out.is_dir() and any(out.iterdir()) and not overwrite:
-        raise InputError("the output folder is not empty; choose another --out or add --overwrite",
-                         file=out)
     if not out.parent.is_dir():
         raise InputError(f"the folder {out.parent} does not exist", file=out)
-    inputs = {p.resolve() for p in case.input_files()}
-    for name in names:
-        if (out / name).resolve() in inputs:
-            raise InputError(f"{name} in the output folder is an input of this run; choose another --out",
+    every_input = [Path(p) for p in list(case.input_files()) + [p for p in inputs if p is not None]]
+    resolved = {p.resolve() for p in every_input}
+    existing = sorted(out.iterdir()) if out.is_dir() else []
+    for target in [out / name for name in names] + [p for p in existing if p.suffix == ".png"]:
+        if target.resolve() in resolved or any(_same(target, p) for p in every_input):
+            raise InputError(f"{target.name} in the output folder is an input of this run; choose another --out",
                              file=out)
+    if existing and not overwrite:
+        raise InputError("the output folder is not empty; choose another --out or add --overwrite", file=out)
+    own = own_outputs(out)
+    for target in [out / name for name in names]:
+        if target.is_dir():
+            raise InputError(f"{target.name} in the output folder is a folder; move it or choose another --out",
+                             file=out)
+        if target.exists() and target.name not in own:
+            raise InputError(f"{target.name} in the output folder was not written by heatsight, so --overwrite "
+                             f"leaves it alone; move it or choose another --out", file=out)
+    _probe(out if out.is_dir() else out.parent)
     return out, not out.exists()
+
+
+def _probe(folder: Path) -> None:
+    """Refuse, before any work, a folder where nothing can be created (read-only, /proc...)."""
+    try:
+        os.rmdir(tempfile.mkdtemp(prefix=".heatsight-probe.", dir=folder))
+    except OSError as exc:
+        raise InputError(f"cannot write here ({exc.strerror or exc}); choose a folder you may write to with --out",
+                         file=folder) from None
+
+
+def _same(a: Path, b: Path) -> bool:
+    try:
+        return a.exists() and b.exists() and os.path.samefile(a, b)
+    except OSError:
+        return False
 
 
 def _default_mode() -> int:
@@ -161,8 +206,9 @@ class OutputSet:
     """Write several output files so that either all of them appear or none does.
 
     Use as a context manager: ``add(name, bytes_or_text)`` stages files (in temporary
-    files inside `folder`); on a clean exit they are renamed into place, on an error the
-    temporary files are removed and nothing is left behind.
+    files inside `folder`); on a clean exit they are renamed into place (the files they
+    replace are kept aside until every rename succeeded, and put back otherwise); on an error the temporary files are removed and
+    nothing is left behind.
     """
 
     def __init__(self, folder):
@@ -176,8 +222,8 @@ class OutputSet:
         """A binary file object writing into the staged temporary file of `name` (for
         outputs too large to hold in memory); the caller closes it."""
         fd, tmp = tempfile.mkstemp(prefix=f".{name}.", suffix=".tmp", dir=self.folder)
-        os.fchmod(fd, _default_mode())
         self._staged.append((name, Path(tmp)))
+        os.fchmod(fd, _default_mode())
         return os.fdopen(fd, "wb")
 
     def add(self, name: str, data) -> Path:
@@ -189,15 +235,54 @@ class OutputSet:
             os.fsync(fh.fileno())
         return self.folder / name
 
+    def _commit(self) -> None:
+        aside: list[tuple[Path, Path]] = []      # (target, its earlier version kept aside)
+        done: list[Path] = []
+        try:
+            for name, staged in self._staged:
+                target = self.folder / name
+                if target.is_dir():
+                    raise InputError(f"{name} in the output folder is a folder; move it or choose another --out",
+                                     file=self.folder)
+                if target.exists():
+                    keep = Path(tempfile.mkdtemp(prefix=f".{name}.", suffix=".old", dir=self.folder)) / name
+                    aside.append((target, keep))
+                    os.replace(target, keep)
+                os.replace(staged, target)
+                done.append(target)
+        except BaseException:
+            for target in done:
+                try:
+                    target.unlink()
+                except OSError:
+                    pass
+            for target, keep in aside:
+                if keep.exists():
+                    try:
+                        os.replace(keep, target)
+                    except OSError:
+                        pass
+            raise
+        finally:
+            for _, keep in aside:
+                try:
+                    keep.unlink()
+                except OSError:
+                    pass
+                try:
+                    keep.parent.rmdir()
+                except OSError:
+                    pass
+
     def __exit__(self, exc_type, exc, tb):
-        if exc_type is None:
-            for name, tmp in self._staged:
-                os.replace(tmp, self.folder / name)
-        else:
+        try:
+            if exc_type is None:
+                self._commit()
+        finally:
             for _, tmp in self._staged:
                 try:
                     tmp.unlink()
                 except OSError:
                     pass
-        self._staged.clear()
+            self._staged.clear()
         return False

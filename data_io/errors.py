@@ -15,8 +15,9 @@ def _one_line(text: str) -> str:
     return " ".join(str(text).split())
 
 
-class InputError(Exception):
-    """Bad user input; ``str(err)`` is a one-line message fit to show the user.
+class InputError(ValueError):
+    """Bad user input; ``str(err)`` is a one-line message fit to show the user.  A ValueError,
+    so library callers catching that still catch it.
 
     `file` (a path or None), `where` (e.g. ``"line 4, column 'r [mm]'"`` or ``"part.radius"``)
     and `problem` are kept separately for callers that want them.

@@ -4,46 +4,66 @@ from __future__ import annotations
 
 import argparse
 import os
-import sys
 from pathlib import Path
 
 from .arguments import count
 from .errors import InputError
 
 
-def _progress(done, total):
-    width = 30
-    filled = int(width * done / total)
-    end = "\n" if done == total else ""
-    print(f"\r  drawing {done}/{total} [{'#' * filled}{'.' * (width - filled)}]", end=end,
-          file=sys.stderr, flush=True)
+class _Draws:
+    """progress(done, total) of the Monte Carlo draws, drawn by data_io.console."""
+
+    def __init__(self):
+        self.bar, self.done = None, 0
+
+    def __call__(self, done, total):
+        from .console import current
+
+        if self.bar is None:
+            self.bar = current().progress(total, "drawing")
+        self.bar.update(done - self.done)
+        self.done = done
+        if done >= total:
+            self.bar.close()
 
 
 def run_fit(case_path, *, readings=None, at=None, out=None, overwrite=False, monte_carlo=0, seed=0,
-            echo=print):
-    """Fit a case and write its outputs; returns (result, output folder)."""
+            echo=None, json_extra=None):
+    """Fit a case and write its outputs; returns (result, output folder).  The console summary
+    goes to `echo` (default: the command's data_io.console, which also serves --json)."""
+    from .console import current
     from .csv_out import output_folder
     from .fit_outputs import console_summary
     from .fit_steps import fit_case, load_fit_case, output_files, write_outputs
 
     case, readings_path = load_fit_case(case_path, readings)
-    folder, create = output_folder(Path(out) if out else case.folder / f"{case.path.stem}-fit", case, overwrite)
+    folder, create = output_folder(Path(out) if out else case.folder / f"{case.path.stem}-fit", case, overwrite,
+                                   inputs=[readings_path, at])
+    current().step(f"fitting {case.path} to {readings_path}")
     result, points = fit_case(case, readings_path, at=at, monte_carlo=monte_carlo, seed=seed,
-                              progress=_progress if monte_carlo else None)
+                              progress=_Draws() if monte_carlo else None)
+    current().step(f"writing the outputs into {folder}")
     write_outputs(folder, create, output_files(result, case, readings_path, points))
-    echo(console_summary(result, folder))
+    text = console_summary(result, folder)
+    if echo is not None:
+        echo(text)
+    else:
+        current().answer(text, {**result.summary, "outputs": str(folder), **(json_extra or {})})
     return result, folder
 
 
 def _run_fit(args) -> int:
+    from .limits import MAX_MONTE_CARLO, check_count
+
+    check_count(args.monte_carlo, MAX_MONTE_CARLO, "--monte-carlo", "draws")
     run_fit(args.case, readings=args.readings, at=args.at, out=args.out, overwrite=args.overwrite,
             monte_carlo=args.monte_carlo, seed=args.seed)
     return 0
 
 
-def add_fit(sub) -> None:
+def add_fit(sub, help) -> None:
     p = sub.add_parser(
-        "fit", help="estimate the unknown face from thermocouple readings",
+        "fit", help=help,
         description="Fit the case's unknown face (temperature or heat flux) to a snapshot of "
                     "readings and write estimate.csv, summary.json, figures and report.html "
                     "(and points.csv with --at) into the output folder.",
@@ -70,6 +90,7 @@ def _demo_folder() -> Path:
 def _run_demo(args) -> int:
     import json
 
+    from .console import current
     from .report_format import power_pm
 
     demo_folder = _demo_folder()
@@ -78,25 +99,29 @@ def _run_demo(args) -> int:
         raise InputError("the bundled demo is missing from this installation; reinstall heatsight",
                          file=case)
     out = Path(args.out) if args.out else Path("heatsight-demo")
-    result, folder = run_fit(case, out=out, overwrite=True)
+    lines: list[str] = []
+    # overwrite=True: a rerun replaces the demo's own earlier outputs, never other files
+    result, folder = run_fit(case, out=out, overwrite=True, echo=lines.append)
     truth_file = demo_folder / "truth.json"
     if truth_file.is_file():
         truth = json.loads(truth_file.read_text())
-        print(f"demo truth: {truth['story']}")
+        lines.append(f"demo truth: {truth['story']}")
         s = result.summary
         weakest = min(s["zones"], key=lambda z: z["mean"]) if s["zones"] else None
         if weakest is not None:
-            print(f"fit found: weakest zone {weakest['name']} "
-                  f"({weakest['deviation_from_face_mean']:+.0f} W/m^2 from the face mean); "
-                  f"total power {power_pm(s['total_power_W'], s['total_power_sd_W'])} "
-                  f"(truth {truth['total_power_W']:.0f} W); set aside: {', '.join(s['set_aside']) or 'none'}")
-    print(f"report: {os.path.abspath(folder / 'report.html')}")
+            lines.append(f"fit found: weakest zone {weakest['name']} "
+                         f"({weakest['deviation_from_face_mean']:+.0f} W/m^2 from the face mean); "
+                         f"total power {power_pm(s['total_power_W'], s['total_power_sd_W'])} "
+                         f"(truth {truth['total_power_W']:.0f} W); set aside: {', '.join(s['set_aside']) or 'none'}")
+    report = os.path.abspath(folder / "report.html")
+    lines.append(f"report: {report}")
+    current().answer("\n".join(lines), {**result.summary, "outputs": str(folder), "report": report})
     return 0
 
 
-def add_demo(sub) -> None:
+def add_demo(sub, help) -> None:
     p = sub.add_parser(
-        "demo", help="run the bundled example end to end",
+        "demo", help=help,
         description="Fit the bundled demo (a heated platen with a weakened heater sector and one "
                     "thermocouple reading high) and print where the report is.",
         epilog="example:\n  heatsight demo --out /tmp/demo",

@@ -28,8 +28,11 @@ def load_fit_case(case_path, readings=None, *, how_to_give="give --readings FILE
     overrides the case's [sensors] readings)."""
     from .case import load_case
 
+    from .limits import check_case
+
     case = load_case(case_path, purpose="fit")
     case.require("fit")
+    check_case(case)
     readings_path = Path(readings) if readings else case.sensors.readings
     if readings_path is None:
         raise InputError(f"no readings: add [sensors] readings = \"readings.csv\" or {how_to_give}",
@@ -83,7 +86,8 @@ def case_text(case, readings_path) -> list:
 def output_files(result, case, readings_path, points=None) -> list[tuple[str, object]]:
     """(file name, text or bytes) of every output of a fit, in writing order: estimate.csv,
     sensors.csv, summary.json, points.csv (with points), the PNG figures, report.html."""
-    from .csv_out import csv_text, json_text
+    from .csv_columns import estimate_columns, points_columns, sensor_columns
+    from .csv_out import OUTPUT_FILES_KEY, csv_text, json_text
     from .fit_outputs import estimate_frame, points_frame, summary_dict
     from .plots import all_figures, figure_png
     from .report import render_report
@@ -92,13 +96,17 @@ def output_files(result, case, readings_path, points=None) -> list[tuple[str, ob
     figures = {name: figure_png(fig) for name, fig in all_figures(result, zones=case.zones).items()}
     html = render_report(result, case_text=case_text(case, readings_path), figures=figures,
                          title=f"heatsight fit: {case.path.name}")
-    files = [("estimate.csv", csv_text(estimate_frame(result))),
-             ("sensors.csv", csv_text(pd.DataFrame(summary["sensors"]))),
+    names = ["estimate.csv", "sensors.csv", "summary.json"] + (["points.csv"] if points is not None else []) + \
+        [f"{name}.png" for name in figures] + ["report.html"]
+    summary[OUTPUT_FILES_KEY] = names
+    files = [("estimate.csv", csv_text(estimate_columns(estimate_frame(result), result.quantity))),
+             ("sensors.csv", csv_text(sensor_columns(pd.DataFrame(summary["sensors"])))),
              ("summary.json", json_text(summary))]
     if points is not None:
-        files.append(("points.csv", csv_text(points_frame(result, points))))
+        files.append(("points.csv", csv_text(points_columns(points_frame(result, points)))))
     files += [(f"{name}.png", png) for name, png in figures.items()]
     files.append(("report.html", html))
+    assert [n for n, _ in files] == names
     return files
 
 

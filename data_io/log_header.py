@@ -4,14 +4,16 @@ that are not sensors (kept with a warning and ignored)."""
 
 from __future__ import annotations
 
-import csv
+import codecs
 import difflib
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
+from .csv_in import check_printable, likely_typo
 from .errors import InputError
+from .plant_files import SNIFF_BYTES, TextFormat, _head, rows, sniff
 from .units import column_unit, convert, split_header
 
 
@@ -22,7 +24,8 @@ class LogColumns:
     sensors: ids of the layout sensors found in the log (log order); positions: their
     0-based column numbers; scale, shift: K = shift + scale * value; time_scale: seconds per
     time unit (None for timestamps); ignored: headers that are not sensors of the layout;
-    absent: layout sensors missing from the log.
+    absent: layout sensors missing from the log; fmt: encoding, separator and decimal mark
+    (data_io.plant_files), or the CSV text of a workbook / Parquet log.
     """
 
     path: Path
@@ -37,39 +40,49 @@ class LogColumns:
     ignored: list = field(default_factory=list)
     absent: list = field(default_factory=list)
     warnings: list = field(default_factory=list)
+    fmt: TextFormat = field(default_factory=TextFormat)
 
     @property
     def n(self) -> int:
         return len(self.sensors)
 
 
-def _header_line(path: Path) -> tuple[int, str]:
-    if not path.exists():
-        raise InputError("file not found", file=path)
-    if path.is_dir():
-        raise InputError("is a folder; expected a CSV file", file=path)
-    try:
-        with open(path, encoding="utf-8-sig", newline="") as fh:
-            for number, line in enumerate(fh, start=1):
-                if line.strip():
-                    return number, line
-    except UnicodeDecodeError as exc:
-        raise InputError(f"is not UTF-8 text (byte {exc.start}); save the CSV as UTF-8", file=path) from None
-    except OSError as exc:
-        raise InputError(f"cannot read the file ({exc.strerror or exc})", file=path) from None
+def _header_line(path: Path) -> tuple[int, list[str], TextFormat]:
+    """The header's line number and cells, and the file's format (from its first bytes)."""
+    fmt = sniff(path)
+    if fmt.converted is not None:
+        text = fmt.converted
+    else:
+        head = _head(path, SNIFF_BYTES)
+        text = codecs.getincrementaldecoder(fmt.encoding)(errors="replace").decode(head, final=False)
+    for number, cells in rows(text, fmt, path):
+        if any(cells):
+            while len(cells) > 1 and cells[-1] == "":
+                cells = cells[:-1]     # a trailing separator after the last header
+            for col, cell in enumerate(cells):
+                check_printable(cell, path, f"line {number}, column {col + 1}")
+            return number, cells, fmt
     raise InputError("the file is empty; expected a header line and rows", file=path)
+
+
+def header_names(path) -> list[str]:
+    """Lower-cased column names (units dropped) of a table's header line, read alone."""
+    _, cells, _ = _header_line(Path(path))
+    out = []
+    for cell in cells:
+        try:
+            out.append(split_header(cell)[0].lower())
+        except ValueError:
+            out.append(cell.lower())
+    return out
 
 
 def open_log(path, layout) -> LogColumns:
     """Parse and check the header of a log against a layout Table (units, sensor ids);
     layout None takes every column after the time as a sensor."""
     path = Path(path)
-    number, line = _header_line(path)
-    headers = [h.strip() for h in next(csv.reader([line], skipinitialspace=True))]
+    number, headers, fmt = _header_line(path)
     where = f"line {number}"
-    if len(headers) == 1 and (";" in headers[0] or "\t" in headers[0]):
-        sep = "semicolons" if ";" in headers[0] else "tabs"
-        raise InputError(f"{where}: the fields seem separated by {sep}; separate them with commas", file=path)
     if len(headers) < 2:
         raise InputError("a log needs a time column and at least one sensor column", file=path, where=where)
     known = None if layout is None else layout.frame.index
@@ -109,16 +122,20 @@ def open_log(path, layout) -> LogColumns:
         raise InputError(f"none of the log's columns ({', '.join(headers[1:])}) is a sensor of the layout "
                          f"({layout.path}): sensor '{first}' is not in the layout{_did_you_mean(first, known)}",
                          file=path, where=where)
+    absent = [] if known is None else [s for s in known if s not in seen]
+    typo = likely_typo([split_header(h)[0] for h in ignored], absent)
+    if typo is not None:
+        raise InputError(f"column '{typo[0]}' is not a sensor of the layout ({layout.path}); did you mean "
+                         f"'{typo[1]}', which has no column?", file=path, where=where)
     for h in ignored:
         close = _did_you_mean(split_header(h)[0], known)
         hint = f" ({close[2:]})" if close else ""
         warnings.append(f"{path}: column '{h}' is not a sensor of the layout; ignored{hint}")
-    absent = [] if known is None else [s for s in known if s not in seen]
     if absent:
         warnings.append(f"{path}: no column for sensor{'s' if len(absent) > 1 else ''} {', '.join(absent)} "
                         f"of the layout; the trend uses the others")
     return LogColumns(path, number, headers, headers[0], time_scale, sensors, positions, np.array(scale),
-                      np.array(shift), ignored, absent, warnings)
+                      np.array(shift), ignored, absent, warnings, fmt)
 
 
 def _did_you_mean(name, known) -> str:

@@ -25,6 +25,7 @@ statistics, so memory stays bounded by one chunk plus one window.
 
 from __future__ import annotations
 
+import io
 import re
 from dataclasses import dataclass
 
@@ -34,7 +35,9 @@ import pandas as pd
 from . import thermocouples as tc
 from .csv_in import NONFINITE_WORDS
 from .errors import InputError
+from .limits import MAX_TEMPERATURE_K
 from .log_header import LogColumns, open_log
+from .plant_files import ENCODING_NAMES, undecodable_line
 
 #: rows per chunk (bounded memory: about 30 MB for 32 sensors)
 DEFAULT_CHUNK_ROWS = 100_000
@@ -72,14 +75,17 @@ class LogChunk:
 class LogReader:
     """Iterate over validated LogChunks of a log; afterwards `warnings()` says what was
     missing, out of range or irregular.  `timestamps` tells whether the log had ISO times;
-    `iso(seconds)` turns times back into ISO 8601 text (UTC with 'Z' for times with an offset)."""
+    `iso(seconds)` turns times back into ISO 8601 text: times with a UTC offset keep the
+    offset of the log's first row (or the zone `tz`, a data_io.timezones tzinfo), naive
+    times stay naive."""
 
-    def __init__(self, columns: LogColumns, layout, chunk_rows: int = DEFAULT_CHUNK_ROWS):
+    def __init__(self, columns: LogColumns, layout, chunk_rows: int = DEFAULT_CHUNK_ROWS, tz=None):
         self.cols = columns
         self.chunk_rows = int(chunk_rows)
         self.rows = 0
         self.timestamps: bool | None = None
         self.aware = False
+        self.tz = tz
         self.origin_ns = 0
         self._last_t, self._last_line = None, None
         self._step = None
@@ -88,7 +94,7 @@ class LogReader:
         self.out_of_range = np.zeros(n, np.int64)
         self._range_first: list = [None] * n
         self._types = [layout.frame.at[s, "type"] if layout is not None else "" for s in columns.sensors]
-        lo, hi = np.zeros(n), np.full(n, np.inf)
+        lo, hi = np.zeros(n), np.full(n, MAX_TEMPERATURE_K)
         for i, typ in enumerate(self._types):
             if typ:
                 lo[i], hi[i] = tc.usable_range_k(typ)
@@ -98,11 +104,16 @@ class LogReader:
     # ---------------------------------------------------------------- iteration
     def __iter__(self):
         cols = self.cols
+        fmt = cols.fmt
+        source = cols.path if fmt.converted is None else io.StringIO(fmt.converted)
+        # one spare column: a row with more fields than the header is caught, not shifted
+        width = len(cols.headers)
         try:
-            reader = pd.read_csv(cols.path, header=None, skiprows=cols.header_line,
-                                 names=list(range(len(cols.headers))), skip_blank_lines=False,
-                                 skipinitialspace=True, chunksize=self.chunk_rows, encoding="utf-8-sig",
-                                 engine="c")
+            reader = pd.read_csv(source, header=None, skiprows=cols.header_line, names=list(range(width + 1)),
+                                 index_col=False, skip_blank_lines=False, skipinitialspace=True,
+                                 chunksize=self.chunk_rows, encoding=fmt.encoding,
+                                 sep=fmt.sep if fmt.converted is None else ",",
+                                 decimal=fmt.decimal if fmt.converted is None else ".", engine="c")
             with reader:
                 for frame in reader:
                     chunk = self._chunk(frame)
@@ -110,10 +121,16 @@ class LogReader:
                         yield chunk
         except pd.errors.ParserError as exc:
             msg = str(exc).replace("Error tokenizing data. C error: ", "").strip()
-            raise InputError(f"malformed CSV ({msg}); every line needs the same number of comma-separated "
-                             f"fields as the header", file=cols.path) from None
+            m = re.search(r"line (\d+), saw (\d+)", msg)
+            detail = (f"line {int(m.group(1)) + cols.header_line} has {m.group(2)} fields" if m else msg)
+            raise InputError(f"malformed CSV: {detail} but the header has {width}; every line needs one field "
+                             f"per column (fields separated by {fmt.separator_name})", file=cols.path) from None
         except UnicodeDecodeError as exc:
-            raise InputError(f"is not UTF-8 text (byte {exc.start}); save the CSV as UTF-8", file=cols.path) from None
+            line = undecodable_line(cols.path, fmt.encoding)
+            at = f"line {line}: " if line else ""
+            raise InputError(f"{at}is not {ENCODING_NAMES.get(fmt.encoding, fmt.encoding)} text like the lines "
+                             f"before it; save the log in "
+                             f"one encoding (UTF-8 preferred)", file=cols.path) from None
         if self.rows == 0:
             raise InputError("no data rows below the header", file=cols.path)
         if np.all(self.missing == self.rows):
@@ -131,6 +148,12 @@ class LogReader:
             return None
         if blank.any():
             frame, lines = frame.loc[~blank], lines[~blank]
+        spare = frame[len(self.cols.headers)].notna().to_numpy()
+        if spare.any():
+            i = int(np.argmax(spare))
+            raise InputError(f"malformed CSV: line {int(lines[i])} has more fields than the header "
+                             f"({len(self.cols.headers)}: {', '.join(self.cols.headers)}); every line needs one "
+                             f"field per column (a record-number column needs a header too)", file=self.cols.path)
         t = self._times(frame[0], lines)
         self._check_order(t, lines)
         values = np.empty((len(frame), self.cols.n))
@@ -185,6 +208,8 @@ class LogReader:
         aware = ts.dt.tz is not None
         if self.rows == 0 and self._last_t is None:
             self.aware = aware
+            if aware and self.tz is None:
+                self.tz = pd.Timestamp(text.iloc[0].strip()).tzinfo    # the log's own offset
         elif aware != self.aware:
             raise self._error("timestamps mix times with and without a UTC offset", lines[0], 0)
         if aware:
@@ -260,9 +285,10 @@ class LogReader:
             if n_bad:
                 line, value = self._range_first[i]
                 why = (f"outside the range of a type {self._types[i]} thermocouple" if self._types[i]
-                       else "at or below absolute zero")
+                       else f"outside 0 to {MAX_TEMPERATURE_K:g} K")
                 out.append(f"{path}: sensor '{s}' has {_plural(n_bad, 'reading')} {why} (first at line {line}: "
-                           f"{value - tc.KELVIN_OFFSET:.1f} degC), likely an open circuit; treated as missing")
+                           f"{value - tc.KELVIN_OFFSET:.4g} degC), likely an open circuit or a logger's overflow code; "
+                           f"treated as missing")
             n_missing = int(self.missing[i]) - n_bad
             if self.rows and int(self.missing[i]) == self.rows:
                 out.append(f"{path}: sensor '{s}' has no valid reading")
@@ -275,13 +301,38 @@ class LogReader:
                        f"gap count as steady only if their samples still span half the window")
         return out
 
+    def local_times(self, seconds) -> tuple[np.ndarray, np.ndarray]:
+        """Wall-clock datetime64[ns] of times in s since the first row, and each one's UTC
+        offset in s (0 for naive logs)."""
+        ns = self.origin_ns + np.rint(np.asarray(seconds, float) * 1e9).astype(np.int64)
+        if not self.aware:
+            return ns.astype("datetime64[ns]"), np.zeros(ns.shape, np.int64)
+        idx = pd.DatetimeIndex(ns.ravel().astype("datetime64[ns]")).tz_localize("UTC").tz_convert(self.tz)
+        local = idx.tz_localize(None).asi8.reshape(ns.shape)
+        return local.astype("datetime64[ns]"), (local - ns) // 1_000_000_000
+
+    @property
+    def zone_label(self) -> str:
+        """The zone of the shown times for axis labels ("" for naive logs)."""
+        if not self.aware:
+            return ""
+        name = getattr(self.tz, "key", None) or str(self.tz)
+        return name if name not in ("UTC", "UTC+00:00") else "UTC"
+
     def iso(self, seconds) -> np.ndarray:
-        """ISO 8601 text of times in s since the first row (timestamp logs only)."""
-        s = np.asarray(seconds, float)
-        ns = self.origin_ns + np.rint(s * 1e9).astype(np.int64)
+        """ISO 8601 text of times in s since the first row (timestamp logs only), local to the
+        log's offset (or --tz) with the offset written: 2024-05-01T08:00:00+02:00."""
+        local, offset = self.local_times(seconds)
+        ns = local.astype(np.int64)
         whole = bool(np.all(ns % 1_000_000_000 == 0))
-        text = np.datetime_as_string(ns.astype("datetime64[ns]"), unit="s" if whole else "ms")
-        return np.char.add(text, "Z") if self.aware else text
+        text = np.datetime_as_string(local, unit="s" if whole else "ms")
+        if not self.aware:
+            return text
+        sign = np.where(offset < 0, "-", "+")
+        a = np.abs(offset)
+        hh = np.char.zfill((a // 3600).astype(str), 2)
+        mm = np.char.zfill((a % 3600 // 60).astype(str), 2)
+        return np.char.add(np.char.add(np.char.add(np.char.add(text, sign), hh), ":"), mm)
 
 
 def read_whole_log(path, layout=None, chunk_rows: int = DEFAULT_CHUNK_ROWS):

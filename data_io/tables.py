@@ -18,8 +18,9 @@ import numpy as np
 import pandas as pd
 
 from . import thermocouples as tc
-from .csv_in import Column, Table, _check_sensor_ids, _parse, check_inside, read_raw
+from .csv_in import Column, Table, _check_sensor_ids, _parse, check_inside, likely_typo, read_raw
 from .errors import InputError
+from .limits import MAX_TEMPERATURE_K
 
 # ---------------------------------------------------------------------------- columns
 
@@ -117,9 +118,11 @@ def read_layout(path, cylinder) -> Table:
 
 
 def readings_form(path) -> str:
-    """"snapshot" when the file has sensor and temperature columns, else "log"."""
-    raw = read_raw(Path(path))
-    return "snapshot" if {"sensor", "temperature"} <= set(raw.names) else "log"
+    """"snapshot" when the file has sensor and temperature columns, else "log" (from the
+    header alone, so a large log is not read here)."""
+    from .log_header import header_names
+
+    return "snapshot" if {"sensor", "temperature"} <= set(header_names(path)) else "log"
 
 
 def _check_range(path, where_of, sensors, temps, layout_frame) -> None:
@@ -174,19 +177,44 @@ def read_snapshot(path, layout: Table) -> Table:
     _check_sensor_ids(raw, ids)
     lay = layout.frame
     scol = raw.column("sensor")
+    warnings: list[str] = []
+    # the rule of logs: channels that are not sensors of the layout are ignored with a warning;
+    # a file sharing no sensor with the layout is refused
+    known = [i for i, s in enumerate(ids) if s in lay.index]
+    if not known:
+        s = ids[0]
+        close = difflib.get_close_matches(s, list(lay.index), n=1)
+        hint = f"; did you mean '{close[0]}'?" if close else ""
+        raise InputError(f"none of the sensors is in the layout: sensor '{s}' is not in the layout "
+                         f"({layout.path}){hint}", file=path, where=raw.where(0, scol))
+    typo = likely_typo([s for s in ids if s not in lay.index], [s for s in lay.index if s not in ids])
+    if typo is not None:
+        i = ids.index(typo[0])
+        raise InputError(f"sensor '{typo[0]}' is not in the layout ({layout.path}); did you mean '{typo[1]}', "
+                         f"which has no reading?", file=path, where=raw.where(i, scol))
     for i, s in enumerate(ids):
         if s not in lay.index:
             close = difflib.get_close_matches(s, list(lay.index), n=1)
-            hint = f"; did you mean '{close[0]}'?" if close else ""
-            raise InputError(f"sensor '{s}' is not in the layout ({layout.path}){hint}", file=path,
-                             where=raw.where(i, scol))
-    temps = v["temperature"]
+            hint = f" (did you mean '{close[0]}'?)" if close else ""
+            warnings.append(f"{path}: {raw.where(i, scol)}: sensor '{s}' is not a sensor of the layout; "
+                            f"ignored{hint}")
+    if len(known) < len(ids):
+        raw.cells = [raw.cells[i] for i in known]
+        raw.lines = [raw.lines[i] for i in known]
+        ids = [ids[i] for i in known]
+        v = {k: ([x[i] for i in known] if isinstance(x, list) else x[known]) for k, x in v.items()}
+    temps = v["temperature"].copy()
     tcol = raw.column("temperature")
+    over = np.flatnonzero(np.isfinite(temps) & (temps > MAX_TEMPERATURE_K))
+    if over.size:
+        warnings.append(f"{path}: sensor{'s' if over.size > 1 else ''} {', '.join(ids[i] for i in over)} "
+                        f"read{'' if over.size > 1 else 's'} above {MAX_TEMPERATURE_K:g} K (first: "
+                        f"{raw.cells[over[0]][tcol]}), a logger's overflow code; treated as missing")
+        temps[over] = np.nan
     _check_range(path, [raw.where(i, tcol) for i in range(len(ids))], ids, temps, lay)
     sig = v.get("sigma", np.full(len(ids), np.nan))
     for i in np.flatnonzero(np.isfinite(sig) & ~(sig > 0)):
         raise InputError("sigma must be positive", file=path, where=raw.where(int(i), raw.column("sigma")))
-    warnings: list[str] = []
     dropped = [s for s, t in zip(ids, temps) if not np.isfinite(t)]
     if dropped:
         warnings.append(f"{path}: no valid reading (empty, NaN or inf) for sensor"

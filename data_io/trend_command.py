@@ -29,8 +29,8 @@ from pathlib import Path
 
 from ..inverse.steady import DEFAULT_DRIFT_K, DEFAULT_FLOOR_K, DEFAULT_WINDOW_S
 
-from .arguments import non_negative_float, positive_float, whole
-from .csv_out import OutputSet
+from .arguments import positive_float, time_zone, whole
+from .csv_out import OUTPUT_FILES_KEY, OutputSet
 from .errors import InputError
 from .logs import DEFAULT_CHUNK_ROWS
 
@@ -41,17 +41,12 @@ def _output_folder(case, out, overwrite, log_path):
     from .csv_out import output_folder
 
     folder = Path(out) if out else case.folder / f"{case.path.stem}-trend"
-    folder, create = output_folder(folder, case, overwrite)
-    for name in OUTPUT_NAMES:
-        if (folder / name).resolve() == Path(log_path).resolve():
-            raise InputError(f"{name} in the output folder is the log of this run; choose another --out",
-                             file=folder)
-    return folder, create
+    return output_folder(folder, case, overwrite, names=OUTPUT_NAMES, inputs=[log_path])
 
 
 def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDOW_S, drift=DEFAULT_DRIFT_K,
-              sigma_floor=DEFAULT_FLOOR_K, overwrite=False, chunk_rows=DEFAULT_CHUNK_ROWS, echo=print,
-              progress=True):
+              sigma_floor=DEFAULT_FLOOR_K, overwrite=False, chunk_rows=DEFAULT_CHUNK_ROWS,
+              progress=True, tz=None, echo=None):
     """Run a trend and write its outputs; returns (summary dict, output folder)."""
     from .case import load_case
     from .csv_out import json_text
@@ -64,8 +59,13 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
     from .trend_run import Progress, TrendRun
     from .trend_text import console_lines, trend_html, trend_lead
 
+    from .limits import MAX_EVERY, check_case, check_count
+
     case = load_case(case_path, purpose="fit")
     case.require("fit")
+    check_case(case)
+    if every is not None:
+        check_count(every, MAX_EVERY, "--every", "rows")
     log_path = Path(log) if log else case.sensors.readings
     if log_path is None:
         raise InputError("no log: give --log LOG.csv", file=case.path)
@@ -78,7 +78,7 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
     columns = open_log(log_path, layout)
     lines = count_rows(log_path)
     expected = max(lines - columns.header_line, 1)
-    reader = LogReader(columns, layout, chunk_rows)
+    reader = LogReader(columns, layout, chunk_rows, tz=tz)
     run = TrendRun(case, layout, columns, reader, window=window, drift=drift, sigma_floor=sigma_floor, every=every)
     bar = Progress(math.ceil(expected / max(int(chunk_rows), 1)), progress)
     if create:
@@ -91,6 +91,7 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
                 os.fsync(fh.fileno())
             summary = run.summary(case.path, log_path)
             summary["first_row"], summary["last_row"] = run.first_row, run.last_row
+            summary[OUTPUT_FILES_KEY] = list(OUTPUT_NAMES)
             png = figure_png(trend_figure(run.figure_data()))
             html = render_report(
                 run.result, title=f"heatsight trend: {case.path.name}",
@@ -108,19 +109,24 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
         if create:
             shutil.rmtree(folder, ignore_errors=True)
         raise
-    echo(console_lines(summary, folder))
+    text = console_lines(summary, folder)
+    if echo is not None:
+        echo(text)
+    else:
+        from .console import current
+        current().answer(text, summary)
     return summary, folder
 
 
 def _run(args) -> int:
     run_trend(args.case, log=args.log, every=args.every, out=args.out, window=args.window, drift=args.drift,
-              sigma_floor=args.sigma_floor, overwrite=args.overwrite)
+              sigma_floor=args.sigma_floor, overwrite=args.overwrite, tz=args.tz)
     return 0
 
 
-def add_trend(sub) -> None:
+def add_trend(sub, help) -> None:
     p = sub.add_parser(
-        "trend", help="follow the unknown face over a logged record (steady windows or every Nth row)",
+        "trend", help=help,
         description="Read a thermocouple log (a time column -- seconds, a unit in brackets, or ISO 8601 "
                     "timestamps -- then one column per sensor id), find the steady windows, fit the "
                     "first settled one, and invert every steady window (or every Nth row with --every) with the "
@@ -141,8 +147,11 @@ def add_trend(sub) -> None:
                    help=f"length of a window (default {DEFAULT_WINDOW_S:g})")
     p.add_argument("--drift", type=positive_float, default=DEFAULT_DRIFT_K, metavar="K",
                    help=f"a window is steady when no sensor drifts this much over it (default {DEFAULT_DRIFT_K:g})")
-    p.add_argument("--sigma-floor", type=non_negative_float, default=DEFAULT_FLOOR_K, metavar="K",
+    p.add_argument("--sigma-floor", type=positive_float, default=DEFAULT_FLOOR_K, metavar="K",
                    help="random sd of a window mean that averaging cannot remove (default "
                         f"{DEFAULT_FLOOR_K:g})")
+    p.add_argument("--tz", type=time_zone, metavar="ZONE",
+                   help="show logged times with a UTC offset in this zone (UTC, +02:00 or Europe/Berlin; default: "
+                        "the offset of the log's first row; times without an offset stay as written)")
     p.add_argument("--overwrite", action="store_true", help="allow writing into a non-empty folder")
     p.set_defaults(run=_run)

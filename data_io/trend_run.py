@@ -9,7 +9,6 @@ inverse.trend; this module feeds it the log and writes what it answers, in file 
 from __future__ import annotations
 
 import math
-import sys
 
 import numpy as np
 
@@ -31,22 +30,21 @@ WINDOW_BATCH = 4096
 
 
 class Progress:
-    """A progress bar on stderr for long logs (from PROGRESS_MIN_CHUNKS chunks on)."""
+    """The log's progress bar (data_io.console: stderr, silent when stderr is not a terminal),
+    drawn from PROGRESS_MIN_CHUNKS chunks on."""
 
     def __init__(self, total: int, enabled: bool):
-        self.total, self.enabled, self.done = max(int(total), 1), enabled and total >= PROGRESS_MIN_CHUNKS, 0
+        from .console import current, _Silent
+
+        total = max(int(total), 1)
+        self.bar = current().progress(total, "reading the log: chunk") if enabled and total >= \
+            PROGRESS_MIN_CHUNKS else _Silent()
 
     def step(self):
-        self.done += 1
-        if self.enabled:
-            width = 30
-            filled = int(width * min(self.done, self.total) / self.total)
-            print(f"\r  reading the log: chunk {self.done}/{self.total} [{'#' * filled}{'.' * (width - filled)}]",
-                  end="", file=sys.stderr, flush=True)
+        self.bar.update(1)
 
     def close(self):
-        if self.enabled and self.done:
-            print("", file=sys.stderr, flush=True)
+        self.bar.close()
 
 
 class Digest:
@@ -289,10 +287,9 @@ class TrendRun:
         b = self.digest.bins
         t = b.get(("time",), np.zeros(0))
         if self.reader.timestamps:
-            time = (self.reader.origin_ns + np.rint(t * 1e9).astype(np.int64)).astype("datetime64[ns]")
-            label = "time (UTC)" if self.reader.aware else "time"
-            ref = tuple((self.reader.origin_ns + np.rint(np.array(self.ref_window) * 1e9).astype(np.int64))
-                        .astype("datetime64[ns]"))
+            time = self.reader.local_times(t)[0]
+            label = f"time ({self.reader.zone_label})" if self.reader.aware else "time"
+            ref = tuple(self.reader.local_times(np.array(self.ref_window))[0])
         else:
             time, label = t / 3600.0, "time [h]"
             ref = tuple(np.array(self.ref_window) / 3600.0)

@@ -99,14 +99,29 @@ def _is_delta(units) -> bool:
     return any(name.startswith("delta_") for name in units._units)  # noqa: SLF001
 
 
+#: how the trade writes temperature units: in a temperature, "C" and "F" mean degrees Celsius
+#: and Fahrenheit, never coulomb or farad
+TEMPERATURE_ALIASES = {"c": "degC", "°c": "degC", "ºc": "degC", "deg c": "degC", "f": "degF", "°f": "degF",
+                       "ºf": "degF", "deg f": "degF", "°k": "K"}
+
+
+def _trade_unit(text: str, dimension: str) -> str:
+    """The pint name of a unit as written; temperature aliases (TEMPERATURE_ALIASES) resolved."""
+    text = str(text).strip()
+    if dimension in ("temperature", "temperature_difference"):
+        return TEMPERATURE_ALIASES.get(" ".join(text.lower().split()), text)
+    return text
+
+
 def parse_unit(text: str, dimension: str, where: str, *, file=None):
-    """Parse a unit name (e.g. ``"mm"``, ``"degF"``) and check it measures `dimension`.
+    """Parse a unit name (e.g. ``"mm"``, ``"degF"``; in a temperature also ``"C"``, ``"°F"``)
+    and check it measures `dimension`.
 
     Returns the pint Unit.  Raises InputError naming `where`.
     """
     dim = _dimension(dimension)
     try:
-        units = ureg.parse_units(str(text).strip())
+        units = ureg.parse_units(_trade_unit(text, dimension))
     except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError,
             AttributeError, TypeError, ValueError, SyntaxError) as exc:
         raise InputError(f"unknown unit {str(text).strip()!r}; expected {dim.name} unit "

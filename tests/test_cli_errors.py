@@ -100,7 +100,6 @@ CASES = {
     "no layout for fit": (files(**{"case.toml": FIT.split("[sensors]")[0]}), CHECK, "fit needs the sensor layout"),
     "decreasing log times": (files(**{"case.toml": FIT, "readings.csv": "time,TC1,TC2\n10,80,81\n5,80,81\n"}), CHECK,
                              "times must increase"),
-    "semicolon csv": (files(**{"points.csv": "r;theta;z\n0;0;0.01\n"}), SIM, "separated by semicolons"),
     "toml syntax": (files(**{"case.toml": KNOWN + "[fit\n"}), SIM, "not valid TOML"),
     "ill-posed all flux": (files(**{"case.toml": sub('condition = "temperature"\nvalue = "25 degC"',
                                                      'condition = "insulated"',

@@ -43,7 +43,8 @@ def test_fit_writes_every_output(tmp_path, monkeypatch, capsys):
     assert snapshot(tmp_path) == before  # inputs untouched (the new folder is not a file)
     with open(out / "estimate.csv") as fh:
         header = next(csv.reader(fh))
-    assert header == ["r_m", "theta_deg", "z_m", "estimate", "std", "lower", "upper"]
+    # issue 10: mm and degrees, the unit in every column name
+    assert header == ["r_mm", "theta_deg", "z_mm", "estimate_W_m2", "std_W_m2", "lower_W_m2", "upper_W_m2"]
     summary = json.loads((out / "summary.json").read_text())
     for key in ("face", "quantity", "unit", "mean", "min", "max", "total_power_W", "strength",
                 "strength_method", "chi2", "effective_parameters", "zones", "warnings", "sensors"):
@@ -56,7 +57,7 @@ def test_fit_writes_every_output(tmp_path, monkeypatch, capsys):
     assert "'=cmd" in text and "\n=cmd" not in text
     with open(out / "points.csv") as fh:
         rows = list(csv.DictReader(fh))
-    assert len(rows) == 2 and {"temperature_degC", "std", "lower", "upper"} <= set(rows[0])
+    assert len(rows) == 2 and {"temperature_degC", "std_K", "lower_degC", "upper_degC"} <= set(rows[0])
     assert "bottom face heat flux" in cap.out
 
 

@@ -38,12 +38,12 @@ def test_simulate_slab_matches_linear_profile(tmp_path, capsys):
     assert main(["simulate", str(case), "--at", str(pts), "--out", str(out), "--tolerance", "1e-6"]) == 0
     fr = pd.read_csv(out)
     assert list(fr.columns) == SIMULATE_COLUMNS
-    np.testing.assert_allclose(fr["r_m"], [0.0, 0.075, 0.14])
+    np.testing.assert_allclose(fr["r_mm"], [0.0, 75.0, 140.0])       # issue 10: outputs in mm like inputs
     np.testing.assert_allclose(fr["theta_deg"], [0.0, 90.0, 400.0])
-    np.testing.assert_allclose(fr["z_m"], [0.01, 0.02, 0.03])
+    np.testing.assert_allclose(fr["z_mm"], [10.0, 20.0, 30.0])
     # insulated side, fixed end temperatures: the 1-D slab solution T = T0 + (T1 - T0) z / L,
     # q_z = -k (T1 - T0) / L (textbook closed form, Fourier's law); 212 degF = 100 degC (definition)
-    np.testing.assert_allclose(fr["temperature_degC"], 100.0 - 80.0 * fr["z_m"] / 0.04, atol=1e-6)
+    np.testing.assert_allclose(fr["temperature_degC"], 100.0 - 80.0 * fr["z_mm"] / 40.0, atol=1e-6)
     np.testing.assert_allclose(fr["qz_W_m2"], 16.0 * 80.0 / 0.04, rtol=1e-6)
     np.testing.assert_allclose(fr["qr_W_m2"], 0.0, atol=1e-6)
     np.testing.assert_allclose(fr["qtheta_W_m2"], 0.0, atol=1e-6)
@@ -67,7 +67,7 @@ def test_simulate_profile_face(tmp_path):
     out = tmp_path / "field.csv"
     assert main(["simulate", str(case), "--at", str(pts), "--out", str(out), "--tolerance", "1e-6"]) == 0
     fr = pd.read_csv(out)
-    np.testing.assert_allclose(fr["temperature_degC"], 100.0 - 80.0 * fr["z_m"] / 0.04, atol=1e-5)
+    np.testing.assert_allclose(fr["temperature_degC"], 100.0 - 80.0 * fr["z_mm"] / 40.0, atol=1e-5)
 
 
 def test_simulate_without_conductivity_leaves_flux_empty(tmp_path, capsys):

@@ -9,7 +9,9 @@ has first-order noise-free physics plus seeded noise and constant per-sensor off
 
 import csv
 import json
+import io
 import math
+import sys
 import shutil
 
 import numpy as np
@@ -165,13 +167,25 @@ def test_steady_heater_is_not_flagged_and_offsets_stay_in_the_level(tmp_path, mo
 
 # ---------------------------------------------------------------------------- every N-th row
 
-def test_every_nth_row_with_timestamps_and_progress(tmp_path, capsys):
+class _Terminal(io.StringIO):
+    def isatty(self):
+        return True
+
+
+def test_every_nth_row_with_timestamps_and_progress(tmp_path, capsys, monkeypatch):
     folder = make_folder(tmp_path)
     t, _, _ = make_log(folder, hours=2.0, weak_per_h=0.0, seed=3, iso=True)
+    terminal = _Terminal()
+    monkeypatch.setattr(sys, "stderr", terminal)        # issue 10: bars only on a terminal
     summary, out = run_trend(folder / "platen.toml", log=folder / "log.csv", every=7, chunk_rows=200,
                              echo=lambda s: None)
-    err = capsys.readouterr().err
+    monkeypatch.undo()
+    err = terminal.getvalue()
     assert "reading the log: chunk" in err            # more than a few chunks: a progress bar
+    again = run_trend(folder / "platen.toml", log=folder / "log.csv", every=7, chunk_rows=200,
+                      out=folder / "again", echo=lambda s: None)
+    assert again[0]["trend_rows"] == summary["trend_rows"]
+    assert "reading the log" not in capsys.readouterr().err   # stderr not a terminal: no bar
     rows = read_trend(out)
     assert len(rows) == math.ceil(t.size / 7) == summary["trend_rows"]
     assert {"start_iso", "end_iso"} <= set(rows.columns)
@@ -244,7 +258,7 @@ def test_extra_and_missing_columns_and_gaps_are_warnings(tmp_path, monkeypatch, 
     assert "no column for sensor TC07" in text
     assert "1 gap in time" in text and "TC02' has 1 empty" in text
     assert "TC07" not in json.loads((folder / "res" / "summary.json").read_text())["sensors_used"]
-    assert "warning: " in cap.out
+    assert "warning: " in cap.err and "warning: " not in cap.out    # issue 10: warnings go to stderr
 
 
 def test_refusals_before_reading(tmp_path, monkeypatch, capsys):

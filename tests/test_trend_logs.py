@@ -64,11 +64,12 @@ def test_chunks_equal_the_whole_file_reader(tmp_path, layout, chunk_rows):
     assert any("TC2" in w and "2 empty" in w for w in reader.warnings())
 
 
-def test_offsets_in_timestamps_become_utc(tmp_path, layout):
+def test_offsets_in_timestamps_keep_the_first_offset(tmp_path, layout):
     p = write(tmp_path, "time,TC1\n2024-10-27T02:30:00+02:00,80\n2024-10-27T02:10:00+01:00,81\n")
     _, reader, t, _ = read_all(p, layout)
     np.testing.assert_allclose(t, [0.0, 2400.0])          # 00:30Z then 01:10Z
-    assert list(reader.iso([0.0])) == ["2024-10-27T00:30:00Z"]
+    # issue 10: times are shown in the log's own (first row's) offset, no longer in UTC
+    assert list(reader.iso([0.0, 2400.0])) == ["2024-10-27T02:30:00+02:00", "2024-10-27T03:10:00+02:00"]
 
 
 def test_numeric_times_with_a_unit(tmp_path, layout):
@@ -90,7 +91,6 @@ def test_numeric_times_with_a_unit(tmp_path, layout):
     ("time,AMB\n0,20\n", "none of the log's columns (AMB) is a sensor of the layout"),
     ("TC1,TC2\n80,81\n", "a log starts with a time column"),
     ("time,TC1,TC1\n0,80,80\n", "sensor 'TC1' appears twice"),
-    ("time;TC1\n0;80\n", "separated by semicolons"),
     ("time,TC1 [psi]\n0,80\n", "unit 'psi'"),
     ("time,TC1\n", "no data rows"),
 ])

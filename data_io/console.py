@@ -1,0 +1,119 @@
+"""What a command says on the terminal, in one place: the answer on stdout (text, or JSON with
+--json), warnings and progress on stderr (``heatsight: warning: ...``), nothing but
+warnings and errors with --quiet, the steps of the run with --verbose.
+
+Progress bars come from tqdm when it is installed (the optional extra ``progress``), else a
+plain one-line bar; either way they are drawn only when stderr is a terminal, so a
+redirected stderr never receives carriage-return lines.
+"""
+
+from __future__ import annotations
+
+import sys
+from dataclasses import dataclass
+
+PROG = "heatsight"
+#: console lines of the summaries that are warnings (they are moved to stderr)
+WARNING_PREFIX = "  warning: "
+
+
+def printable(text) -> str:
+    """One line with no control characters (sensor ids are checked when read; this guards
+    every other message too, e.g. a key of a case file)."""
+    return "".join(ch if ch.isprintable() else "?" for ch in " ".join(str(text).split()))
+
+
+@dataclass
+class Console:
+    """quiet: no answer text or progress; verbose: also the steps; json: the answer as JSON."""
+
+    quiet: bool = False
+    verbose: bool = False
+    json: bool = False
+    out: object = None       # streams; None: sys.stdout / sys.stderr at the time of writing
+    err: object = None
+
+    @property
+    def stdout(self):
+        return self.out or sys.stdout
+
+    @property
+    def stderr(self):
+        return self.err or sys.stderr
+
+    def warn(self, message: str) -> None:
+        print(f"{PROG}: warning: {printable(message)}", file=self.stderr)
+
+    def step(self, message: str) -> None:
+        if self.verbose:
+            print(f"{PROG}: {printable(message)}", file=self.stderr)
+
+    def answer(self, text: str, data=None) -> None:
+        """The command's summary: `text` for people, `data` (a JSON-able dict) with --json.
+        Lines of `text` that are warnings go to stderr."""
+        body = []
+        for line in str(text).splitlines():
+            if line.startswith(WARNING_PREFIX):
+                self.warn(line[len(WARNING_PREFIX):])
+            else:
+                body.append(line)
+        if self.json:
+            from .csv_out import json_text
+            self.stdout.write(json_text({} if data is None else data))
+        elif not self.quiet and body:
+            print("\n".join(body), file=self.stdout)
+
+    def progress(self, total: int, label: str):
+        """A progress bar with .update(n) and .close(); silent unless stderr is a terminal."""
+        try:
+            terminal = bool(self.stderr.isatty())
+        except (AttributeError, ValueError, OSError):
+            terminal = False
+        if self.quiet or self.json or not terminal:
+            return _Silent()
+        try:
+            from tqdm import tqdm
+        except ImportError:
+            return _PlainBar(total, label, self.stderr)
+        return tqdm(total=total, desc=f"  {label}", file=self.stderr, leave=False)
+
+
+class _Silent:
+    def update(self, n: int = 1) -> None:
+        pass
+
+    def close(self) -> None:
+        pass
+
+
+class _PlainBar:
+    """A one-line bar for a terminal without tqdm."""
+
+    WIDTH = 30
+
+    def __init__(self, total: int, label: str, stream):
+        self.total, self.label, self.stream, self.done = max(int(total), 1), label, stream, 0
+
+    def update(self, n: int = 1) -> None:
+        self.done += n
+        filled = int(self.WIDTH * min(self.done, self.total) / self.total)
+        print(f"\r  {self.label} {self.done}/{self.total} [{'#' * filled}{'.' * (self.WIDTH - filled)}]",
+              end="", file=self.stream, flush=True)
+
+    def close(self) -> None:
+        if self.done:
+            print("", file=self.stream, flush=True)
+
+
+#: the console of the running command (set by cli.main; a plain one for library use)
+CURRENT = Console()
+
+
+def current() -> Console:
+    return CURRENT
+
+
+def use(console: Console) -> Console:
+    global CURRENT
+    CURRENT = console
+    return console

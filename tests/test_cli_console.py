@@ -1,0 +1,90 @@
+"""Command-line conventions (issue 10): --json, --quiet, --verbose; the answer on stdout,
+warnings on stderr; Python's own warnings kept off stderr unless --verbose; --version from the
+package metadata; --help without the numerical stack."""
+
+import importlib.metadata
+import json
+import subprocess
+import sys
+import warnings
+
+import pytest
+
+from heatsight.data_io.cli import main
+from test_cli_errors import files
+from test_cli_hostile import GOOD, setup
+
+
+@pytest.fixture
+def folder(tmp_path, monkeypatch):
+    setup(tmp_path, GOOD)
+    monkeypatch.chdir(tmp_path)
+    return tmp_path
+
+
+def test_json_summary_of_check(folder, capsys):
+    assert main(["check", "case.toml", "--json"]) == 0
+    out = capsys.readouterr().out
+    data = json.loads(out)
+    assert data["case"].endswith("case.toml") and any("ready for: fit" in x for x in data["lines"])
+
+
+def test_json_rows_of_simulate(tmp_path, monkeypatch, capsys):
+    setup(tmp_path, files())
+    monkeypatch.chdir(tmp_path)
+    assert main(["simulate", "case.toml", "--at", "points.csv", "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["columns"][:3] == ["r_mm", "theta_deg", "z_mm"] and len(data["rows"]) == 2
+
+
+def test_quiet_prints_nothing_but_warnings(folder, capsys):
+    (folder / "readings.csv").write_text((folder / "readings.csv").read_text() + "water,20\n")
+    assert main(["check", "case.toml", "--quiet"]) == 0
+    cap = capsys.readouterr()
+    assert cap.out == ""
+    assert "heatsight: warning: " in cap.err and "water" in cap.err
+
+
+def test_warnings_on_stderr_not_stdout(folder, capsys):
+    (folder / "readings.csv").write_text((folder / "readings.csv").read_text() + "water,20\n")
+    assert main(["check", "case.toml"]) == 0
+    cap = capsys.readouterr()
+    assert "ready for: fit" in cap.out and "warning" not in cap.out
+    assert cap.err.startswith("heatsight: warning: ")
+
+
+def test_python_warnings_only_with_verbose(folder, capsys, monkeypatch):
+    from heatsight.data_io import describe
+
+    real = describe.describe_case
+
+    def noisy(case):
+        warnings.warn("a library's own warning", RuntimeWarning)
+        return real(case)
+
+    monkeypatch.setattr(describe, "describe_case", noisy)
+    assert main(["check", "case.toml"]) == 0
+    assert "a library's own warning" not in capsys.readouterr().err
+    assert main(["check", "case.toml", "--verbose"]) == 0
+    assert "(RuntimeWarning) a library's own warning" in capsys.readouterr().err
+
+
+def test_version_from_the_package_metadata(capsys):
+    assert main(["--version"]) == 0
+    assert capsys.readouterr().out.strip() == f"heatsight {importlib.metadata.version('heatsight')}"
+
+
+def test_help_does_not_import_the_numerical_stack():
+    code = ("import sys; from heatsight.data_io.cli import main; "
+            "rc = main(['--help']); "
+            "print(sorted(m for m in ('numpy', 'pandas', 'scipy', 'matplotlib', 'lmfit') if m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.strip().splitlines()[-1] == "[]"
+    assert "trend" in out and "--quiet, --verbose and --json" in out
+
+
+def test_every_command_takes_the_console_options(capsys):
+    for command in ("fit", "simulate", "check", "demo", "trend"):
+        assert main([command, "--help"]) == 0
+        text = capsys.readouterr().out
+        assert "--quiet" in text and "--verbose" in text and "--json" in text, command
