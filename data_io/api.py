@@ -34,17 +34,16 @@ _TEMPERATURE = file_display("temperature")
 def fit(case_path, *, readings=None, **options) -> "Fit":
     """Fit the case file `case_path`; `readings` overrides the case's snapshot file; the
     options are those of ``heatsight.inverse.fit`` (strength, smoothing, ...)."""
-    import inspect
     import os
 
-    from ..inverse import fit as inverse_fit
+    from ..inverse.problem import fit_option_names
     from .fit_steps import fit_case, load_fit_case
 
     for name, value in (("case_path", case_path), ("readings", readings)):
         if not (isinstance(value, (str, os.PathLike)) or (name == "readings" and value is None)):
             raise InputError(f"heatsight.fit: {name} must be a path (str or pathlib.Path), got "
                              f"{type(value).__name__}")
-    allowed = [p for p in inspect.signature(inverse_fit).parameters if p not in ("case", "readings")]
+    allowed = fit_option_names() + ["progress"]
     unknown = [k for k in options if k not in allowed]
     if unknown:
         raise InputError(f"heatsight.fit: unknown option {unknown[0]!r}; the options are {', '.join(allowed)}")

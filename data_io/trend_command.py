@@ -30,9 +30,7 @@ from pathlib import Path
 from ..inverse.steady import DEFAULT_DRIFT_K, DEFAULT_FLOOR_K, DEFAULT_WINDOW_S
 
 from .arguments import positive_float, time_zone, whole
-from .csv_out import OUTPUT_FILES_KEY, OutputSet
 from .errors import InputError
-from .logs import DEFAULT_CHUNK_ROWS
 
 OUTPUT_NAMES = ("trend.csv", "trend.png", "summary.json", "report.html")
 
@@ -45,13 +43,14 @@ def _output_folder(case, out, overwrite, log_path):
 
 
 def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDOW_S, drift=DEFAULT_DRIFT_K,
-              sigma_floor=DEFAULT_FLOOR_K, overwrite=False, chunk_rows=DEFAULT_CHUNK_ROWS,
+              sigma_floor=DEFAULT_FLOOR_K, overwrite=False, chunk_rows=None,
               progress=True, tz=None, echo=None):
-    """Run a trend and write its outputs; returns (summary dict, output folder)."""
+    """Run a trend and write its outputs; returns (summary dict, output folder).
+    chunk_rows: rows per chunk of the log (default logs.DEFAULT_CHUNK_ROWS)."""
     from .case import load_case
-    from .csv_out import json_text
+    from .csv_out import OUTPUT_FILES_KEY, OutputSet, json_text
     from .fit_steps import case_text
-    from .logs import LogReader, count_rows, open_log
+    from .logs import DEFAULT_CHUNK_ROWS, LogReader, count_rows, open_log
     from .plots import face_map, figure_png, sensor_health
     from .report import render_report
     from .trend_plot import trend_figure
@@ -78,6 +77,7 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
     columns = open_log(log_path, layout)
     lines = count_rows(log_path)
     expected = max(lines - columns.header_line, 1)
+    chunk_rows = DEFAULT_CHUNK_ROWS if chunk_rows is None else chunk_rows
     reader = LogReader(columns, layout, chunk_rows, tz=tz)
     run = TrendRun(case, layout, columns, reader, window=window, drift=drift, sigma_floor=sigma_floor, every=every)
     bar = Progress(math.ceil(expected / max(int(chunk_rows), 1)), progress)

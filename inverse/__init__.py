@@ -1,31 +1,45 @@
-from .diagnostics import averaged_loo, default_threshold, screen_outliers, sensor_table
-from .errors import InverseError, StrengthError
-from .linear_gaussian import LinearGaussianProblem
-from .lmfit_solver import LmfitFit, fit_linear_lmfit, fit_lmfit
-from .noise import Whitener, noise_covariance
-from .strength import StrengthChoice, choose_strength, default_alphas
-from .strength_average import StrengthAverage
-from .hyperprior import LearnedPrior, learn_prior
-from .resolution import unresolved_warning
+"""heatsight.inverse: the statistics (fit, strength, bands, screening, trends), on arrays and
+forward objects.  Names load on first use, so a command's --help stays quick."""
 
-__all__ = [
-    "InverseError", "LinearGaussianProblem", "LmfitFit", "StrengthAverage", "StrengthChoice",
-    "StrengthError", "Whitener", "averaged_loo", "choose_strength", "default_alphas",
-    "default_threshold", "fit_linear_lmfit", "fit_lmfit", "noise_covariance", "screen_outliers",
-    "sensor_table", "LearnedPrior", "learn_prior", "unresolved_warning",
-]
+from __future__ import annotations
 
-from .bands import Z95  # noqa: E402
-from .fit import fit, prior_diagonal  # noqa: E402
-from .problem import FitOptions, Problem, Zone  # noqa: E402
-from .readings import SensorReadings  # noqa: E402
-from .result import FitResult, Posterior  # noqa: E402
+import importlib
 
-__all__ += ["Z95", "FitOptions", "Problem", "Zone", "fit", "prior_diagonal", "SensorReadings", "FitResult", "Posterior"]
+#: public name -> the module that defines it
+_EXPORTS = {
+    "averaged_loo": "diagnostics", "default_threshold": "diagnostics",
+    "screen_outliers": "diagnostics", "sensor_table": "diagnostics",
+    "InverseError": "errors", "StrengthError": "errors",
+    "LinearGaussianProblem": "linear_gaussian",
+    "LmfitFit": "lmfit_solver", "fit_linear_lmfit": "lmfit_solver", "fit_lmfit": "lmfit_solver",
+    "Whitener": "noise", "noise_covariance": "noise",
+    "StrengthChoice": "strength", "choose_strength": "strength", "default_alphas": "strength",
+    "StrengthAverage": "strength_average",
+    "LearnedPrior": "hyperprior", "learn_prior": "hyperprior",
+    "unresolved_warning": "resolution",
+    "Z95": "bands",
+    "fit": "fit", "prior_diagonal": "fit",
+    "FitOptions": "problem", "Problem": "problem", "Zone": "problem",
+    "SensorReadings": "readings",
+    "FitResult": "result", "Posterior": "result",
+    "BatchEstimates": "batch", "BatchSolver": "batch", "change_threshold": "batch",
+    "face_functionals": "batch",
+    "WindowStats": "steady", "window_index": "steady",
+}
+_SUBMODULES = ("steady",)
 
-from .batch import BatchEstimates, BatchSolver, change_threshold, face_functionals  # noqa: E402
-from .steady import WindowStats, window_index  # noqa: E402
-from . import steady  # noqa: E402
+__all__ = sorted(_EXPORTS) + list(_SUBMODULES)
 
-__all__ += ["BatchEstimates", "BatchSolver", "change_threshold", "face_functionals", "WindowStats",
-            "window_index", "steady"]
+
+def __getattr__(name):
+    if name in _EXPORTS:
+        value = getattr(importlib.import_module(f"{__name__}.{_EXPORTS[name]}"), name)
+        globals()[name] = value
+        return value
+    if name in _SUBMODULES:
+        return importlib.import_module(f"{__name__}.{name}")
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def __dir__():
+    return __all__

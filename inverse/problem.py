@@ -161,8 +161,8 @@ class FitOptions:
             elif key in names:
                 new[key] = value
             else:
-                raise TypeError(f"unknown fit option {key!r}; expected one of: strength, "
-                                + ", ".join(sorted(names - {"strength_method", "calibration_priors"})))
+                raise TypeError(f"unknown fit option {key!r}; expected one of: "
+                                + ", ".join(fit_option_names()))
         return replace(self, **new) if new else self
 
     def as_dict(self) -> dict:
@@ -171,6 +171,12 @@ class FitOptions:
                 "terms": self.terms, "harmonics": self.harmonics, "loss": self.loss,
                 "common_offset_sd": self.common_offset_sd, "calibrate": list(self.calibrate),
                 "model": self.model, "prior": self.prior}
+
+
+def fit_option_names() -> list[str]:
+    """The keyword options inverse.fit takes (FitOptions fields as overrides name them)."""
+    internal = {"strength_method", "calibration_priors"}
+    return ["strength"] + [f.name for f in fields(FitOptions) if f.name not in internal]
 
 
 def _strength_fields(value) -> dict:

@@ -36,8 +36,22 @@ class SensorReadings:
                 raise InverseError(f"sensor {name} must be finite numbers")
             setattr(self, name, v)
         self.names = [str(x) for x in self.names]
+        seen, repeated = set(), []
+        for name in self.names:
+            if name in seen and name not in repeated:
+                repeated.append(name)
+            seen.add(name)
+        if repeated:
+            raise InverseError(f"sensor names must be unique; repeated: {', '.join(repeated[:5])}")
         if np.any(self.sigma <= 0):
             raise InverseError("sensor sigma must be positive")
+        for name in ("offset_sd", "position_tolerance"):
+            if np.any(getattr(self, name) < 0):
+                raise InverseError(f"sensor {name} must not be negative")
+        if np.any(self.temperature < 0):
+            worst = self.names[int(np.argmin(self.temperature))]
+            raise InverseError(f"sensor {worst}: a reading below 0 K (temperatures are absolute kelvin "
+                               "inside heatsight)")
 
     @property
     def n(self):
