@@ -18,7 +18,7 @@ from __future__ import annotations
 import math
 import types
 import zlib
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -328,6 +328,15 @@ def three_rings(seed=0, scale=1.0):
                   sigma=0.15, zones=zones)
 
 
+def three_rings_zones(seed=0, scale=1.0):
+    """The three-ring platen fitted with the heater-zone model (`[fit] model = "zones"`): the
+    engineer declares the heaters as zones, which is what the zone model is for."""
+    scn = three_rings(seed=seed, scale=scale)
+    _PHYSICS["three_rings_zones"] = _PHYSICS["three_rings"]
+    return replace(scn, name="three_rings_zones", story=three_rings_zones.__doc__,
+                   fit_kwargs={**scn.fit_kwargs, "model": "zones"})
+
+
 def wall_cooled_end(seed=0, scale=1.0):
     """Unknown side-wall temperature of a steel die heated by a band heater, standing on a
     water-cooled base (bottom convection h = 1500 W/(m^2 K)), insulated top; 20 thermocouples in
@@ -348,7 +357,8 @@ def wall_cooled_end(seed=0, scale=1.0):
 
 SCENARIOS = {f.__name__: f for f in (platen_flux, top_temperature, wall_temperature, side_flux,
                                      semi_infinite, sparse_sector, chuck_class2,
-                                     calibrated_convection, three_rings, wall_cooled_end)}
+                                     calibrated_convection, three_rings, three_rings_zones,
+                                     wall_cooled_end)}
 NAMES = tuple(SCENARIOS)
 
 
