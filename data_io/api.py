@@ -207,10 +207,10 @@ class Fit:
 
     # ------------------------------------------------------------------ figures and files
     def plot_face(self):
-        """Map of the estimated face (matplotlib Figure)."""
+        """Map of the estimated face with the case's zones outlined (matplotlib Figure)."""
         from .plots import face_map
 
-        return face_map(self.raw)
+        return face_map(self.raw, zones=getattr(self.case, "zones", None) or ())
 
     def plot_sensors(self):
         """Sensor health: residuals and leave-one-out scores (matplotlib Figure)."""

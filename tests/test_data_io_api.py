@@ -81,7 +81,10 @@ def test_figures_and_summary(demo):
     _, fit = demo
     from matplotlib.figure import Figure
 
-    assert isinstance(fit.plot_face(), Figure) and isinstance(fit.plot_sensors(), Figure)
+    face = fit.plot_face()
+    assert isinstance(face, Figure) and isinstance(fit.plot_sensors(), Figure)
+    labels = {t.get_text() for ax in face.axes for t in ax.texts}
+    assert "outer 60-180" in labels          # the case's zones are outlined on the notebook map
     text = fit.summary()
     assert text.splitlines()[0] == "bottom face heat flux (W/m^2):" and "set aside: TC19" in text
     assert math.isfinite(fit.raw.summary["total_power_W"])
