@@ -123,13 +123,13 @@ class _JTable:
             tb -= ib
             ib += m[start:stop] * self.n_nodes
             # c0 + t (c1 + t (c2 + t (c3 + t (c4 + t c5)))), innermost first
-            np.take(c5, ib, out=ab)
+            np.take(c5, ib, out=ab, mode="clip")
             ab *= tb
             for c in (c4, c3, c2, c1):
-                np.take(c, ib, out=cb)
+                np.take(c, ib, out=cb, mode="clip")
                 ab += cb
                 ab *= tb
-            np.take(c0, ib, out=cb)
+            np.take(c0, ib, out=cb, mode="clip")
             np.add(cb, ab, out=out[start:stop])
         return out.reshape(shape)
 
