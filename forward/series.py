@@ -177,12 +177,19 @@ class KnownSeries:
         return np.abs(zh)
 
     def _tail(self, r, z):
-        """Truncation estimate: sum over the last half of the terms of |c| |factor|."""
-        tail = 0.0
+        """Truncation estimate: sum over the last half of the terms of |c| |factor|, for
+        each point (or grid line) of r (side data) or z (end-face data), in chunks."""
+        x = r if self.face == "side" else z
+        tail = np.zeros(x.size)
         for modes, coef, n_index in self._blocks:
             last = n_index >= self.n_terms // 2
-            if last.any():
-                tail = tail + self._bound_factors(modes, r, z)[:, last] @ np.abs(coef[last])
+            if not last.any():
+                continue
+            step = max(1, CHUNK // coef.size)
+            for i in range(0, x.size, step):
+                sl = slice(i, i + step)
+                part = (x[sl], None) if self.face == "side" else (None, x[sl])
+                tail[sl] += self._bound_factors(modes, *part)[:, last] @ np.abs(coef[last])
         return tail
 
     def _block_points(self, block, r, theta, z, gradient):
