@@ -73,18 +73,28 @@ class _JTable:
     def __init__(self, max_order: int, max_arg: float):
         self.max_order = int(max_order)
         n_nodes = int(np.ceil(max_arg / STEP)) + 2
-        self._fgs = _node_values(self.max_order, np.arange(n_nodes) * STEP)
-        self._set_powers(_hermite_powers(*self._fgs))
+        fgs = _node_values(self.max_order, np.arange(n_nodes) * STEP)
+        self._set_powers(_hermite_powers(*fgs), fgs)
 
-    def _set_powers(self, powers):
-        """powers: (6, orders, intervals); one flat array per power with a zero last node."""
+    def _set_powers(self, powers, fgs):
+        """powers: (6, orders, intervals); one flat array per power (zero at the last node);
+        fgs: J, h J', h^2 J'' at the nodes (only the last node is kept, for growing)."""
         n_orders, n_int = powers.shape[1], powers.shape[2]
         self.n_nodes = n_int + 1
         self.max_arg = (self.n_nodes - 2) * STEP
-        full = np.zeros((6, n_orders, self.n_nodes))
-        full[:, :, :-1] = powers
-        self.powers = [np.ascontiguousarray(full[j]).ravel() for j in range(6)]
-        self.v = self._fgs[0]
+        self.powers = []
+        for j in range(6):
+            full = np.zeros((n_orders, self.n_nodes))
+            full[:, :-1] = powers[j]
+            self.powers.append(full.ravel())
+        self._last = tuple(a[:, -1:].copy() for a in fgs)
+
+    @property
+    def v(self):
+        """J_m at the nodes, (orders, nodes)."""
+        v = self.powers[0].reshape(-1, self.n_nodes).copy()
+        v[:, -1] = self._last[0][:, 0]
+        return v
 
     def extended(self, max_arg: float) -> "_JTable":
         """The same table with nodes appended up to max_arg (old nodes kept as they are)."""
@@ -93,13 +103,15 @@ class _JTable:
         if n_new <= old:
             return self
         add = _node_values(self.max_order, np.arange(old, n_new) * STEP)
-        fgs = tuple(np.concatenate([a, b], axis=1) for a, b in zip(self._fgs, add))
-        bridge = tuple(a[:, old - 1:] for a in fgs)  # intervals from the old last node on
-        old_powers = np.stack([p.reshape(-1, old)[:, :-1] for p in self.powers])
+        bridge = tuple(np.concatenate([a, b], axis=1) for a, b in zip(self._last, add))
+        new_powers = _hermite_powers(*bridge)  # intervals from the old last node on
         out = _JTable.__new__(_JTable)
         out.max_order = self.max_order
-        out._fgs = fgs
-        out._set_powers(np.concatenate([old_powers, _hermite_powers(*bridge)], axis=2))
+        powers = np.empty((6, self.max_order + 1, n_new - 1))
+        for j in range(6):
+            powers[j, :, :old - 1] = self.powers[j].reshape(-1, old)[:, :-1]
+            powers[j, :, old - 1:] = new_powers[j]
+        out._set_powers(powers, add)
         return out
 
     def __call__(self, m, x):
