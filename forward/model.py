@@ -261,8 +261,9 @@ class CylinderModel:
         r, th, z = self._face_points(face, u, v)
         shape = r.shape
         r, th, z = r.ravel(), th.ravel(), z.ravel()
-        w = field.temperature(r, th, z)
-        dn = normal_component(face, field.gradient(r, th, z))
+        # only what the operator uses: T ('D'), dT/dn ('N'), both ('R')
+        w = field.temperature(r, th, z) if condition.kind != "N" else np.zeros(r.size)
+        dn = normal_component(face, field.gradient(r, th, z)) if condition.kind != "D" else np.zeros(r.size)
         return condition.operator(w, dn, self.k).reshape(shape)
 
     def _lifting_operator(self, face, cond, u, v):

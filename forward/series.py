@@ -8,10 +8,9 @@ f_m, g_m are the azimuthal harmonic amplitudes (FFT on equally spaced angles); t
 radial / axial integrals use Gauss-Legendre rules with enough nodes to resolve the
 highest eigenfunction.  The number of terms doubles until the truncation estimate at
 the requested points (sum of the term bounds |c| |axial or radial factor| over the last
-half of the terms) is below tolerance x the leading term, or the cap is reached; each
-doubling adds one block of new terms and sums only that block (the terms already summed
-are kept, with their coefficients).  `evaluate_grid` sums on a tensor grid of lines
-(forward/grid.py).
+half of the terms) is below tolerance x the leading term, or the cap is reached.
+`evaluate_grid` sums on a tensor grid of lines (forward/grid.py); `evaluate(...,
+gradient=False)` sums the temperature only.
 """
 
 from __future__ import annotations
@@ -114,16 +113,18 @@ class KnownSeries:
                             m, is_sin, ev)
 
     def _build(self, n):
-        """Grow the series to n terms per harmonic: only terms n_terms..n-1 are added (a new
-        block, projected with a rule resolving its highest eigenfunction); the terms already
-        summed keep their coefficients."""
+        """Build the series with n terms per harmonic (roots come from the cached tables, so a
+        doubling refines only the new eigenvalues)."""
         n = min(n, self.n_cap)
         if not self.parities:
             self.modes, self.coef, self.n_terms, self._blocks = None, np.zeros(0), n, []
             return
-        have = self.n_terms if self.modes is not None else 0
-        if have == 0:
-            self._blocks = []
+        # Every build projects all n terms with one rule resolving the highest eigenfunction:
+        # keeping the earlier terms' coefficients (projected with coarser rules) and summing
+        # only the new terms was tried and raised the round-off of the field by ~30 % (see
+        # DEVELOPERS.md), so the terms already summed are summed again.
+        have = 0
+        self._blocks = []
         ms = np.repeat([p[0] for p in self.parities], n - have)
         is_sin = np.repeat([p[1] for p in self.parities], n - have)
         ev = np.concatenate([self._eigen(p[0], n)[have:] for p in self.parities])
@@ -213,20 +214,17 @@ class KnownSeries:
         return t, (g if gradient else np.zeros((3,) + t.shape))
 
     def _grow_and_sum(self, block_sum, tail_of):
-        """Sum every block, then double the terms (summing only the new block) until the
+        """Sum the terms built so far, then double the terms (and sum again) until the
         truncation estimate meets the tolerance or the cap is reached."""
-        t, g = 0.0, 0.0
-        for block in self._blocks:
-            tb, gb = block_sum(block)
-            t, g = t + tb, g + gb
+        # the terms summed so far in one pass (one dot product per point, not one per block)
+        t, g = block_sum((self.modes, self.coef, self._n_index))
         while True:
             tail = tail_of()
             if np.size(tail) == 0 or np.max(tail) <= self.tol * self.temperature_scale \
                     or self.n_terms >= self.n_cap:
                 return t, g, tail
             self._build(2 * self.n_terms)
-            tb, gb = block_sum(self._blocks[-1])
-            t, g = t + tb, g + gb
+            t, g = block_sum((self.modes, self.coef, self._n_index))
 
     def evaluate(self, r, theta, z, gradient=True):
         """Temperature (P,), gradient (3, P) (zeros unless gradient) and truncation estimate
