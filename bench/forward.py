@@ -1,10 +1,23 @@
 """Timing of the forward model (not run by pytest).
 
-    python bench/forward.py [--repeat N] [--only bessel,accuracy]
+    python bench/forward.py [--repeat N] [--only bessel,lookup,roots,fullfield,accuracy]
 
 bessel    mode-point evaluations per second of forward.bessel.besselj (one call on the
           batched table) vs scipy.special.jv called once per (m, n) pair at the same
           points; goal >= 10x.
+lookup    ns per mode-point of the table lookup: before (one gather of the six coefficients
+          of each pair from a (pairs, 6) array, one Horner sum over the whole batch: the
+          former layout, rebuilt here from the same table) vs after (one array per power,
+          blocks of forward.bessel.BLOCK pairs); same numbers required.
+roots     root-table reuse: a sector heater (87 harmonics, convection rim: Robin roots) and an
+          unknown-face basis at 10/20/40 terms, built with the root cache cleared vs reused,
+          and a rebuild at an h between two cached ones (+-0.2 %, as calibration steps), cache
+          cleared vs warm.
+fullfield full-field map at 1e5 points (grid r x theta x z) to 1e-4 of the temperature span:
+          series (CylinderModel build + evaluate_grid, temperature only) vs a scikit-fem P2
+          solve refined until it reaches the same accuracy (mesh + assemble + solve +
+          evaluation at the grid, evaluated per (r, z) pair and combined with the angles, its
+          faster way); also the series' pointwise evaluate at the same points.  Goal >= 3x.
 accuracy  accuracy per time on a platen (non-uniform bottom heat flux, convection top,
           insulated side): time for the Bessel-Fourier series (CylinderModel build +
           evaluate) to reach 1e-4 of the temperature span at 50 interior points, vs a
@@ -132,6 +145,28 @@ def fem_field(harmonics, nr, nz, r, theta, z):
     return solve_field(A, L, K, spec, order=2, nr=nr, nz=nz).temperature(r, theta, z)
 
 
+def sector_case():
+    """A heater sector: q = Q0 + QS (1 - (r/a)^2 / 2) S(theta), S = (1 + tanh((cos(theta) -
+    cos(pi/4)) / 0.15)) / 2 (a 90 deg sector with soft edges), harmonics from an FFT of S
+    (those above 1e-7 of the largest)."""
+    q0, qs, w = 2.0e3, 6.0e3, 0.15
+
+    def shape(th):
+        return 0.5 * (1.0 + np.tanh((np.cos(np.asarray(th, float)) - np.cos(np.pi / 4)) / w))
+
+    radial = lambda s: 1.0 - 0.5 * (s / A) ** 2  # noqa: E731
+    flux = lambda r, th: q0 + qs * radial(r) * shape(th)  # noqa: E731
+    n = 512
+    spec = np.fft.rfft(shape(2 * np.pi * np.arange(n) / n)) / n
+    amp = 2.0 * spec.real
+    amp[0] *= 0.5
+    harmonics = {(0, "cos"): lambda s, a0=amp[0]: q0 + qs * a0 * radial(s)}
+    for m in range(1, n // 2):
+        if abs(amp[m]) > 1e-7 * abs(amp).max():
+            harmonics[(m, "cos")] = lambda s, am=amp[m]: qs * am * radial(s)
+    return f"heater sector 90 deg, soft edges ({len(harmonics)} harmonics)", flux, harmonics
+
+
 def bench_accuracy(repeat, points=50, goal=1e-4):
     sys.path.insert(0, str(_HERE.parent / "tests"))
     rng = np.random.default_rng(1)
@@ -139,7 +174,7 @@ def bench_accuracy(repeat, points=50, goal=1e-4):
     theta = rng.uniform(0.0, 2 * np.pi, points)
     z = L * rng.uniform(0.02, 0.98, points)
     fem_field(smooth_case()[2], 2, 2, r, theta, z)     # warm up scikit-fem
-    for title, flux, harmonics in (smooth_case(), ring_case()):
+    for title, flux, harmonics in (ring_case(), sector_case()):
         ref = series_field(flux, 1e-12, r, theta, z)
         span = float(ref.max() - ref.min())
         target = goal * span
@@ -165,7 +200,8 @@ def bench_accuracy(repeat, points=50, goal=1e-4):
                 reached = (nr, nz)
                 break
             nr, nz = 2 * nr, 2 * nz
-        print(f"  series at tolerance {chosen:g}: {t_series * 1e3:.2f} ms (CylinderModel build + evaluate)")
+        print(f"  series at tolerance {chosen:g}: {t_series * 1e3:.2f} ms (CylinderModel build + evaluate; "
+              f"root and Bessel tables warm from the builds above, as in repeated builds)")
         if reached is None:
             print("  scikit-fem did not reach the target within the refinements tried")
             continue
@@ -175,7 +211,169 @@ def bench_accuracy(repeat, points=50, goal=1e-4):
         print(f"  ratio FE / series = {t_fem / t_series:.1f}x (goal >= 100x)")
 
 
-SECTIONS = {"bessel": bench_bessel, "accuracy": bench_accuracy}
+# ------------------------------------------------------------------------------ lookup
+def bench_lookup(repeat, harmonics=10, terms=20, points=8192):
+    """ns per mode-point of the J_m table lookup, former layout vs current, same table."""
+    from heatsight.forward import bessel
+    ms, lams = [], []
+    for m in range(harmonics + 1):
+        ms.append(np.full(terms, m)), lams.append(radial_eigenvalues("N", m, terms, 0.0))
+    m, lam = np.concatenate(ms), np.concatenate(lams)
+    rho = np.random.default_rng(7).uniform(0.0, 1.0, points)
+    x = np.multiply.outer(rho, lam)                  # (points, pairs) as the mode fields ask
+    mm = np.broadcast_to(m, x.shape)
+    besselj(mm, x)
+    table = bessel._get_table(int(m.max()), float(x.max()))
+    rows = np.stack(table.powers, axis=1)           # the former (pairs * nodes, 6) layout
+    n_nodes = table.n_nodes
+
+    def before():
+        t = x * (1.0 / bessel.STEP)
+        i = np.minimum(t.astype(np.intp), n_nodes - 2)
+        t -= i
+        c = rows[mm * n_nodes + i]
+        return c[..., 0] + t * (c[..., 1] + t * (c[..., 2] + t * (c[..., 3] + t * (c[..., 4] + t * c[..., 5]))))
+
+    after = lambda: table(mm, x)  # noqa: E731
+    same = np.array_equal(before(), after())
+    t_before, t_after = best_of(before, repeat), best_of(after, repeat)
+    t_jv = best_of(lambda: special.j0(x), repeat)
+    n = x.size
+    print(f"J_m table lookup, {m.size} modes x {points} points: identical results: {same}")
+    print(f"  before (one gather of 6 coefficients)   {t_before / n * 1e9:6.1f} ns per mode-point")
+    print(f"  after (one array per power, blocks of {bessel.BLOCK}) {t_after / n * 1e9:6.1f} ns per mode-point")
+    print(f"  scipy.special.j0 (one order only)        {t_jv / n * 1e9:6.1f} ns per point")
+    print(f"  ratio before / after = {t_before / t_after:.2f}x")
+
+
+# ------------------------------------------------------------------------------- roots
+def bench_roots(repeat, harmonics=87):
+    from heatsight.forward import roots
+    _, flux, _ = sector_case()
+
+    def sector_model(h_side):
+        faces = {"bottom": fw.Flux(flux), "top": fw.Convection(H, TAMB), "side": fw.Convection(h_side, TAMB)}
+        return fw.CylinderModel(fw.Cylinder(A, L, K), faces, tolerance=1e-6, max_harmonic=harmonics)
+
+    def basis(h_side, terms):
+        faces = {"bottom": fw.UnknownFlux(), "top": fw.Convection(H, TAMB), "side": fw.Convection(h_side, TAMB)}
+        model = fw.CylinderModel(fw.Cylinder(A, L, K), faces)
+        return [model.basis(harmonics, n) for n in terms]
+
+    jobs = {f"sector heater, {harmonics} harmonics max, Robin rim (CylinderModel build)":
+            lambda h: sector_model(h),
+            f"unknown bottom, {harmonics} harmonics, basis at 10, 20 and 40 terms":
+            lambda h: basis(h, (10, 20, 40))}
+    for title, job in jobs.items():
+        def cold(h=12.0):
+            roots.ROOT_CACHE.clear()
+            job(h)
+        cold()
+        t_cold = best_of(cold, repeat)
+        job(12.0)
+        t_warm = best_of(lambda: job(12.0), repeat)
+
+        def new_h_between():
+            """Calibration: roots cached for h = 12 and 12.048, then h = 12.024 (+0.2 %)."""
+            roots.ROOT_CACHE.clear()
+            job(12.0)
+            job(12.048)
+            t = time.perf_counter()
+            job(12.024)
+            return time.perf_counter() - t
+
+        def new_h_no_cache():
+            roots.ROOT_CACHE.clear()
+            t = time.perf_counter()
+            job(12.024)
+            return time.perf_counter() - t
+
+        t_new_h = min(new_h_between() for _ in range(repeat))
+        t_new_h_cold = min(new_h_no_cache() for _ in range(repeat))
+        print(title)
+        print(f"  cache cleared {t_cold * 1e3:8.1f} ms | reused {t_warm * 1e3:8.1f} ms | ratio {t_cold / t_warm:.1f}x")
+        print(f"  new h between two cached ones (+-0.2 %): no cache {t_new_h_cold * 1e3:8.1f} ms | from the neighbouring h's roots "
+              f"{t_new_h * 1e3:8.1f} ms | ratio {t_new_h_cold / t_new_h:.1f}x")
+
+
+# --------------------------------------------------------------------------- fullfield
+def bench_fullfield(repeat, goal=1e-4, shape=(50, 50, 40), goal_ratio=3.0):
+    sys.path.insert(0, str(_HERE.parent / "tests"))
+    nr, nt, nz = shape
+    r = np.linspace(0.0, A, nr)
+    th = 2 * np.pi * np.arange(nt) / nt
+    z = np.linspace(0.0, L, nz)
+    R, TH, Z = np.meshgrid(r, th, z, indexing="ij")
+    fem_field(smooth_case()[2], 2, 2, r[:3], th[:3], z[:3])     # warm up scikit-fem
+
+    def series_grid(flux, tol):
+        faces = {"bottom": fw.Flux(flux), "top": fw.Convection(H, TAMB), "side": fw.Insulated()}
+        model = fw.CylinderModel(fw.Cylinder(A, L, K), faces, tolerance=tol)
+        return model.evaluate_grid(r, th, z).temperature
+
+    def fem_grid(harmonics, nrc, nzc):
+        """FE solve, evaluated once per (r, z) pair and combined with the angles."""
+        from fem_cylinder import solve_field
+        spec = {key: {"bottom": ("N", q), "top": ("R", H, TAMB if key[0] == 0 else 0.0), "side": ("N", 0.0)}
+                for key, q in harmonics.items()}
+        field = solve_field(A, L, K, spec, order=2, nr=nrc, nz=nzc)
+        rr, zz = np.repeat(r, nz), np.tile(z, nr)
+        out = np.zeros((nr, nt, nz))
+        for (m, kind), sol in field.harmonics.items():
+            ang = np.cos(m * th) if kind == "cos" else np.sin(m * th)
+            out += sol.temperature(rr, zz).reshape(nr, 1, nz) * ang[None, :, None]
+        return out, field
+
+    for title, flux, harmonics in (ring_case(), sector_case()):
+        ref = series_grid(flux, 1e-12)
+        span = float(np.ptp(ref))
+        target = goal * span
+        print(f"{title}; {R.size} points on an {nr} x {nt} x {nz} grid (r x theta x z, faces included), "
+              f"span {span:.4g} K, target {target:.3g} K; reference: series at tolerance 1e-12")
+        chosen = None
+        for tol in (1e-3, 1e-4, 1e-5, 1e-6, 1e-7, 1e-8):
+            err = np.abs(series_grid(flux, tol) - ref).max()
+            print(f"  series tolerance {tol:7.0e}: max error {err:.2e} K")
+            if err <= target:
+                chosen = tol
+                break
+        if chosen is None:
+            print("  the series did not reach the target")
+            continue
+        t_series = best_of(lambda: series_grid(flux, chosen), repeat)  # root/Bessel tables warm
+        faces = {"bottom": fw.Flux(flux), "top": fw.Convection(H, TAMB), "side": fw.Insulated()}
+        t_points = None
+        if len(harmonics) <= 4:  # pointwise at 1e5 points with many harmonics takes minutes
+            t_points = best_of(lambda: fw.CylinderModel(fw.Cylinder(A, L, K), faces, tolerance=chosen)
+                               .temperature(R, TH, Z), 1)
+        reached, nrc, nzc = None, 8, 4
+        for _ in range(7):
+            t = time.perf_counter()
+            out, _ = fem_grid(harmonics, nrc, nzc)
+            err = np.abs(out - ref).max()
+            print(f"  scikit-fem P2 {nrc:4d} x {nzc:3d} cells: max error {err:.2e} K ({(time.perf_counter() - t) * 1e3:.0f} ms)")
+            if err <= target:
+                reached = (nrc, nzc)
+                break
+            nrc, nzc = 2 * nrc, 2 * nzc
+        print(f"  series, grid evaluation (build + evaluate_grid): {t_series * 1e3:8.1f} ms")
+        if t_points is not None:
+            print(f"  series, pointwise evaluate at the same points:   {t_points * 1e3:8.1f} ms "
+                  f"(grid is {t_points / t_series:.1f}x faster)")
+        if reached is None:
+            print("  scikit-fem did not reach the target within the refinements tried")
+            continue
+        t_fem = best_of(lambda: fem_grid(harmonics, *reached), repeat)
+        t_pts = best_of(lambda: fem_field(harmonics, *reached, R.ravel(), TH.ravel(), Z.ravel()), 1)
+        print(f"  scikit-fem P2 at {reached[0]} x {reached[1]} cells: {t_fem * 1e3:8.1f} ms evaluated per (r, z) "
+              f"pair, {t_pts * 1e3:8.1f} ms per point")
+        best_fem = min(t_fem, t_pts)
+        verdict = "MET" if best_fem / t_series >= goal_ratio else "NOT MET"
+        print(f"  ratio FE (its faster way) / series grid = {best_fem / t_series:.1f}x (goal >= {goal_ratio:g}x: {verdict})")
+
+
+SECTIONS = {"bessel": bench_bessel, "lookup": bench_lookup, "roots": bench_roots,
+            "fullfield": bench_fullfield, "accuracy": bench_accuracy}
 
 
 def main(argv=None):

@@ -104,6 +104,29 @@ class UnknownBasis:
         extra = np.stack([c.face_values(s, th) for c in self.rim], axis=1) - phi @ self.mix
         return np.concatenate([phi, extra], axis=1)
 
+    def face_values_grid(self, u, v):
+        """Phi_k on the grid of lines u x v (1-D: r x theta on an end face, theta x z on the
+        side), shape (U, V, K): equal to face_values at the grid's points (u major) to
+        round-off, with the radial (or axial) factor evaluated once per line and the angle
+        once per angle."""
+        u, v = np.asarray(u, float).ravel(), np.asarray(v, float).ravel()
+        phi = self.modes.eigenfunctions_grid(u, v)
+        if not self.rim:
+            return phi
+        cyl = self.model.cylinder
+        if self.face == "side":  # s = z / L along v, theta along u
+            cols = [c.face_values_grid(v / cyl.height, u).T for c in self.rim]
+        else:
+            cols = [c.face_values_grid(u / cyl.radius, v) for c in self.rim]
+        extra = np.stack(cols, axis=2) - phi @ self.mix
+        return np.concatenate([phi, extra], axis=2)
+
+    def known_face_values_grid(self, u, v):
+        """known_face_values on the grid of lines u x v, shape (U, V)."""
+        u, v = np.asarray(u, float).ravel(), np.asarray(v, float).ravel()
+        U, V = np.meshgrid(u, v, indexing="ij")
+        return self.known_face_values(U, V).reshape(U.shape)
+
     def known_face_values(self, u, v):
         """The face quantity carried by the known field (the lifting) at face coordinates (Q,)."""
         u, v = (np.asarray(x, float).ravel() for x in (u, v))

@@ -4,9 +4,12 @@ J_m(x) for many (order, argument) pairs at once comes from a table on a uniform 
 x_i = i h (h = 1/20) built by backward recurrence in the order,
     J_{m-1}(x) = (2 m / x) J_m(x) - J_{m+1}(x),
 seeded with two exact top orders; between nodes a quintic Hermite interpolant uses
-J, J' = (J_{m-1} - J_{m+1}) / 2 and J'' = (J_{m-2} - 2 J_m + J_{m+2}) / 4 (stored as its six power coefficients per node,
-so one gather and a Horner sum evaluate it), and the
-interpolation error is at most h^6 max|J^(6)| / 46080 < 4e-13 (|J^(k)| <= 1).
+J, J' = (J_{m-1} - J_{m+1}) / 2 and J'' = (J_{m-2} - 2 J_m + J_{m+2}) / 4, stored as its
+six power coefficients, one flat array per power (p(t) = sum_j c_j t^j, t = (x - x_i) / h),
+and evaluated by a Horner sum in blocks of a few thousand (order, argument) pairs so the
+gathers and temporaries stay in cache.  The interpolation error is at most
+h^6 max|J^(6)| / 46080 < 4e-13 (|J^(k)| <= 1).  Each node's values depend on that node
+alone, so a table grown to larger arguments appends nodes and keeps the old ones.
 
 Modified Bessel ratios I_m(x) / I_m(y) use exponentially scaled values (ive), so
 arguments up to 1e3 and beyond neither overflow nor lose digits.
@@ -20,63 +23,127 @@ import numpy as np
 from scipy import special
 
 STEP = 1.0 / 20.0
-# Nodes where the two seeds underflow (x well below the order) are evaluated order by order.
+BLOCK = 8192  # (order, argument) pairs per evaluation block (measured best of 256..16384)
+
+
+def _node_values(max_order: int, x: np.ndarray):
+    """J, h J' and h^2 J'' at nodes x (one row per order 0..max_order), each (orders, n)."""
+    top = max_order + 2  # need J up to order max_order + 2 for J''
+    vals = np.empty((top + 1, x.size))
+    pos = x > 0
+    xs = x[pos]
+    vals[top, pos] = special.jv(top, xs)
+    vals[top - 1, pos] = special.jv(top - 1, xs)
+    for m in range(top - 1, 0, -1):
+        vals[m - 1, pos] = (2.0 * m / xs) * vals[m, pos] - vals[m + 1, pos]
+    # Where the top seeds underflow (small x, high order) the recurrence carries no
+    # information: evaluate those nodes order by order instead.
+    weak = np.flatnonzero(pos & (np.abs(vals[top - 1]) < 1e-250))
+    if weak.size:
+        xw = x[weak]
+        for m in range(top + 1):
+            vals[m, weak] = special.jv(m, xw)
+    vals[:, ~pos] = 0.0
+    vals[0, ~pos] = 1.0
+
+    def order(m):
+        return vals[abs(m)] * (-1.0 if (m < 0 and m % 2) else 1.0)
+
+    orders = range(max_order + 1)
+    f = vals[: max_order + 1].copy()
+    g = STEP * np.stack([0.5 * (order(m - 1) - order(m + 1)) for m in orders])
+    s = STEP * STEP * np.stack([0.25 * (order(m - 2) - 2.0 * order(m) + order(m + 2)) for m in orders])
+    return f, g, s
+
+
+def _hermite_powers(f, g, s):
+    """Power coefficients c_0..c_5 of the quintic Hermite interpolant on each interval
+    [x_i, x_i + h] from J, h J', h^2 J'' at both ends; (6, orders, n - 1)."""
+    f0, g0, s0 = f[:, :-1], g[:, :-1], s[:, :-1]
+    f1, g1, s1 = f[:, 1:], g[:, 1:], s[:, 1:]
+    return np.stack([
+        f0, g0, 0.5 * s0,
+        -10.0 * f0 - 6.0 * g0 - 1.5 * s0 + 10.0 * f1 - 4.0 * g1 + 0.5 * s1,
+        15.0 * f0 + 8.0 * g0 + 1.5 * s0 - 15.0 * f1 + 7.0 * g1 - s1,
+        -6.0 * f0 - 3.0 * g0 - 0.5 * s0 + 6.0 * f1 - 3.0 * g1 + 0.5 * s1,
+    ])
 
 
 class _JTable:
     def __init__(self, max_order: int, max_arg: float):
         self.max_order = int(max_order)
         n_nodes = int(np.ceil(max_arg / STEP)) + 2
-        self.max_arg = (n_nodes - 2) * STEP
-        x = np.arange(n_nodes) * STEP
-        top = self.max_order + 2  # need J up to order max_order + 2 for J''
-        vals = np.empty((top + 1, n_nodes))
-        xs = x[1:]
-        vals[top, 1:] = special.jv(top, xs)
-        vals[top - 1, 1:] = special.jv(top - 1, xs)
-        for m in range(top - 1, 0, -1):
-            vals[m - 1, 1:] = (2.0 * m / xs) * vals[m, 1:] - vals[m + 1, 1:]
-        # Where the top seeds underflow (small x, high order) the recurrence carries no
-        # information: evaluate those nodes order by order instead.
-        weak = np.flatnonzero(np.abs(vals[top - 1, 1:]) < 1e-250) + 1
-        if weak.size:
-            xw = x[weak]
-            for m in range(top + 1):
-                vals[m, weak] = special.jv(m, xw)
-        vals[:, 0] = 0.0
-        vals[0, 0] = 1.0
+        fgs = _node_values(self.max_order, np.arange(n_nodes) * STEP)
+        self._set_powers(_hermite_powers(*fgs), fgs)
 
-        def order(m):
-            return vals[abs(m)] * (-1.0 if (m < 0 and m % 2) else 1.0)
+    def _set_powers(self, powers, fgs):
+        """powers: (6, orders, intervals); one flat array per power (zero at the last node);
+        fgs: J, h J', h^2 J'' at the nodes (only the last node is kept, for growing)."""
+        n_orders, n_int = powers.shape[1], powers.shape[2]
+        self.n_nodes = n_int + 1
+        self.max_arg = (self.n_nodes - 2) * STEP
+        self.powers = []
+        for j in range(6):
+            full = np.zeros((n_orders, self.n_nodes))
+            full[:, :-1] = powers[j]
+            self.powers.append(full.ravel())
+        self._last = tuple(a[:, -1:].copy() for a in fgs)
 
-        orders = range(self.max_order + 1)
-        v = np.stack([vals[m] for m in orders])
-        d1 = STEP * np.stack([0.5 * (order(m - 1) - order(m + 1)) for m in orders])
-        d2 = STEP * STEP * np.stack([0.25 * (order(m - 2) - 2.0 * order(m) + order(m + 2)) for m in orders])
-        self.v = v
-        self.n_nodes = n_nodes
-        # The quintic Hermite interpolant on [x_i, x_i + h] in powers of t = (x - x_i) / h:
-        # p(t) = sum_j c_j t^j, from J, h J', h^2 J'' at both ends (one row per node).
-        f0, g0, s0 = v[:, :-1], d1[:, :-1], d2[:, :-1]
-        f1, g1, s1 = v[:, 1:], d1[:, 1:], d2[:, 1:]
-        coef = np.empty(v.shape + (6,))
-        coef[:, -1, :] = 0.0
-        coef[:, :-1, 0] = f0
-        coef[:, :-1, 1] = g0
-        coef[:, :-1, 2] = 0.5 * s0
-        coef[:, :-1, 3] = -10.0 * f0 - 6.0 * g0 - 1.5 * s0 + 10.0 * f1 - 4.0 * g1 + 0.5 * s1
-        coef[:, :-1, 4] = 15.0 * f0 + 8.0 * g0 + 1.5 * s0 - 15.0 * f1 + 7.0 * g1 - s1
-        coef[:, :-1, 5] = -6.0 * f0 - 3.0 * g0 - 0.5 * s0 + 6.0 * f1 - 3.0 * g1 + 0.5 * s1
-        self.coef = coef.reshape(-1, 6)
+    @property
+    def v(self):
+        """J_m at the nodes, (orders, nodes)."""
+        v = self.powers[0].reshape(-1, self.n_nodes).copy()
+        v[:, -1] = self._last[0][:, 0]
+        return v
+
+    def extended(self, max_arg: float) -> "_JTable":
+        """The same table with nodes appended up to max_arg (old nodes kept as they are)."""
+        n_new = int(np.ceil(max_arg / STEP)) + 2
+        old = self.n_nodes
+        if n_new <= old:
+            return self
+        add = _node_values(self.max_order, np.arange(old, n_new) * STEP)
+        bridge = tuple(np.concatenate([a, b], axis=1) for a, b in zip(self._last, add))
+        new_powers = _hermite_powers(*bridge)  # intervals from the old last node on
+        out = _JTable.__new__(_JTable)
+        out.max_order = self.max_order
+        powers = np.empty((6, self.max_order + 1, n_new - 1))
+        for j in range(6):
+            powers[j, :, :old - 1] = self.powers[j].reshape(-1, old)[:, :-1]
+            powers[j, :, old - 1:] = new_powers[j]
+        out._set_powers(powers, add)
+        return out
 
     def __call__(self, m, x):
-        m = np.asarray(m, dtype=np.intp)
-        x = np.asarray(x, dtype=float)
-        t = x * (1.0 / STEP)
-        i = np.minimum(t.astype(np.intp), self.n_nodes - 2)
-        t -= i
-        c = self.coef[m * self.n_nodes + i]  # (..., 6): one gather of contiguous rows
-        return c[..., 0] + t * (c[..., 1] + t * (c[..., 2] + t * (c[..., 3] + t * (c[..., 4] + t * c[..., 5]))))
+        m, x = np.broadcast_arrays(np.asarray(m, dtype=np.intp), np.asarray(x, dtype=float))
+        shape = x.shape
+        m, x = m.ravel(), x.ravel()
+        out = np.empty(x.size)
+        c0, c1, c2, c3, c4, c5 = self.powers
+        n = min(BLOCK, x.size)
+        t = np.empty(n)
+        idx = np.empty(n, dtype=np.intp)
+        acc = np.empty(n)
+        tmp = np.empty(n)
+        last = self.n_nodes - 2
+        for start in range(0, x.size, BLOCK):
+            stop = min(start + BLOCK, x.size)
+            k = stop - start
+            tb, ib, ab, cb = t[:k], idx[:k], acc[:k], tmp[:k]
+            np.multiply(x[start:stop], 1.0 / STEP, out=tb)
+            np.minimum(tb.astype(np.intp), last, out=ib)
+            tb -= ib
+            ib += m[start:stop] * self.n_nodes
+            # c0 + t (c1 + t (c2 + t (c3 + t (c4 + t c5)))), innermost first
+            np.take(c5, ib, out=ab, mode="clip")
+            ab *= tb
+            for c in (c4, c3, c2, c1):
+                np.take(c, ib, out=cb, mode="clip")
+                ab += cb
+                ab *= tb
+            np.take(c0, ib, out=cb, mode="clip")
+            np.add(cb, ab, out=out[start:stop])
+        return out.reshape(shape)
 
 
 _lock = threading.Lock()
@@ -87,7 +154,9 @@ def _get_table(max_order: int, max_arg: float) -> _JTable:
     global _table
     with _lock:
         t = _table
-        if t is None or t.max_order < max_order or t.max_arg < max_arg:
+        if t is not None and t.max_order >= max_order and t.max_arg < max_arg:
+            t = _table = t.extended(float(2.0 ** np.ceil(np.log2(max_arg + 64.0))))
+        elif t is None or t.max_order < max_order or t.max_arg < max_arg:
             new_order = max(max_order, t.max_order if t else 0)
             new_order = max(int(8 * np.ceil((new_order + 1) / 8)), 2 * (t.max_order if t else 0), 16)
             new_arg = max(max_arg, t.max_arg if t else 0.0)

@@ -116,6 +116,12 @@ class CornerColumn:
         ang = np.sin(self.m * theta) if self.is_sin else np.cos(self.m * theta)
         return npoly.polyval(s, self.profile) * ang
 
+    def face_values_grid(self, s, theta):
+        """Phi on the grid of lines s x theta, (S, T): the profile once per s line, the angle
+        once per theta line."""
+        ang = np.sin(self.m * np.asarray(theta, float)) if self.is_sin else np.cos(self.m * np.asarray(theta, float))
+        return np.multiply.outer(npoly.polyval(np.asarray(s, float), self.profile), ang)
+
 
 def _fixes(model, w, faces, size, span=None):
     """Known-data series with data -B_F[w] on each face F, homogeneous elsewhere; size: the

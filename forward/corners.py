@@ -123,24 +123,54 @@ class PolynomialLifting:
             return np.zeros((3,) + np.asarray(r).shape)
         return self.columns(r, theta, z, gradient=True)[1] @ np.ones(self.m.size)
 
-    def columns(self, r, theta, z, gradient=False):
-        """Per-term temperature (P, J) and gradient (3, P, J) (d/dr, (1/r) d/dtheta, d/dz)."""
+    def _rz_factors(self, rho, zeta, gradient):
+        """Per-term factors multiplying Theta_m (rows: points or (r, z) pairs, columns:
+        terms): rho^m P, and for the gradient d/dr, m rho^(m-1) P / a (with dTheta/m) and
+        d/dz of rho^m P."""
         a, L = self.radius, self.height
-        rho, zeta, th, dth_m = self._parts(r, theta, z)
         m, c, d = self.m, self._c(), self.delta
         poly = (self.alpha + self.beta * zeta + self.gamma * (zeta ** 2 - c * rho ** 2)
                 + d * (zeta ** 3 - 3.0 * c * zeta * rho ** 2))
         pw = rho ** m
-        t = pw * th * poly
         if not gradient:
-            return t, None
+            return pw * poly, None, None, None
         pw1 = np.where(m >= 1, rho ** np.maximum(m - 1, 0), 0.0)
         d_poly_drho = -2.0 * c * self.gamma * rho - 6.0 * c * d * zeta * rho
         d_poly_dzeta = self.beta + 2.0 * self.gamma * zeta + 3.0 * d * (zeta ** 2 - c * rho ** 2)
-        dr = (m * pw1 * poly + pw * d_poly_drho) * th / a
-        dtheta = m * pw1 * poly * dth_m / a
-        dz = pw * th * d_poly_dzeta / (L if math.isfinite(L) else 1.0)
-        return t, np.stack([dr, dtheta, dz])
+        dr = (m * pw1 * poly + pw * d_poly_drho) / a
+        dtheta = m * pw1 * poly / a
+        dz = pw * d_poly_dzeta / (L if math.isfinite(L) else 1.0)
+        return pw * poly, dr, dtheta, dz
+
+    def columns(self, r, theta, z, gradient=False):
+        """Per-term temperature (P, J) and gradient (3, P, J) (d/dr, (1/r) d/dtheta, d/dz)."""
+        rho, zeta, th, dth_m = self._parts(r, theta, z)
+        t, dr, dtheta, dz = self._rz_factors(rho, zeta, gradient)
+        if not gradient:
+            return t * th, None
+        return t * th, np.stack([dr * th, dtheta * dth_m, dz * th])
+
+    def grid(self, r, theta, z, gradient=False):
+        """Temperature (R, T, Z) and, when gradient, (3, R, T, Z) on the grid of lines
+        r x theta x z: the angle once per theta line, the rest once per (r, z) pair."""
+        a, L = self.radius, self.height
+        r, theta, z = (np.asarray(x, float).ravel() for x in (r, theta, z))
+        shape = (r.size, theta.size, z.size)
+        if self.empty:
+            return np.zeros(shape), (np.zeros((3,) + shape) if gradient else None)
+        rho = np.repeat(r / a, z.size)[:, None]
+        zeta = (np.tile(z, r.size) / L if math.isfinite(L) else np.zeros(r.size * z.size))[:, None]
+        arg = np.multiply.outer(theta, self.m)
+        th = np.where(self.is_sin, np.sin(arg), np.cos(arg))
+        dth_m = np.where(self.is_sin, np.cos(arg), -np.sin(arg))
+
+        def on_grid(f, ang):
+            return (f @ ang.T).reshape(r.size, z.size, theta.size).transpose(0, 2, 1)
+
+        t, dr, dtheta, dz = self._rz_factors(rho, zeta, gradient)
+        if not gradient:
+            return on_grid(t, th), None
+        return on_grid(t, th), np.stack([on_grid(dr, th), on_grid(dtheta, dth_m), on_grid(dz, th)])
 
     def power(self, face, conductivity):
         """Heat INTO the part [W] through a face (m = 0 terms only carry any)."""

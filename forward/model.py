@@ -25,8 +25,8 @@ from .basis import UnknownBasis  # re-exported: forward.model.UnknownBasis
 @dataclass
 class FieldValues:
     """Field at points: temperature [K] (P,), gradient [K/m] (3, P) as (d/dr, (1/r) d/dtheta,
-    d/dz), heat_flux = -k grad T [W/m^2] (3, P) (NaN when no conductivity is given) and the
-    truncation estimate [K] (P,)."""
+    d/dz), heat_flux = -k grad T [W/m^2] (3, P) (NaN when no conductivity is given; both None
+    when only the temperature was asked for) and the truncation estimate [K] (P,)."""
 
     temperature: np.ndarray
     gradient: np.ndarray
@@ -261,8 +261,9 @@ class CylinderModel:
         r, th, z = self._face_points(face, u, v)
         shape = r.shape
         r, th, z = r.ravel(), th.ravel(), z.ravel()
-        w = field.temperature(r, th, z)
-        dn = normal_component(face, field.gradient(r, th, z))
+        # only what the operator uses: T ('D'), dT/dn ('N'), both ('R')
+        w = field.temperature(r, th, z) if condition.kind != "N" else np.zeros(r.size)
+        dn = normal_component(face, field.gradient(r, th, z)) if condition.kind != "D" else np.zeros(r.size)
         return condition.operator(w, dn, self.k).reshape(shape)
 
     def _lifting_operator(self, face, cond, u, v):
@@ -291,23 +292,59 @@ class CylinderModel:
         z = np.clip(z, 0.0, L) if math.isfinite(L) else np.maximum(z, 0.0)
         return r, theta, z
 
-    def evaluate(self, r, theta, z) -> FieldValues:
-        """The known field (everything but the unknown face's own part) at points (m, rad, m)."""
+    def _check_lines(self, r, theta, z):
+        """Grid lines (1-D arrays) checked like points: finite, inside the part."""
+        r, theta, z = (np.atleast_1d(np.asarray(x, float)).ravel() for x in (r, theta, z))
+        if 0 in (r.size, theta.size, z.size):
+            raise ForwardModelError("grid lines must not be empty")
+        if not np.all(np.isfinite(theta)):
+            raise ForwardModelError("points must have finite coordinates")
+        r, _, _ = self._check_points(r, np.zeros_like(r), np.full_like(r, z[0]))
+        _, _, z = self._check_points(np.full_like(z, r[0]), np.zeros_like(z), z)
+        return r, theta, z
+
+    def evaluate(self, r, theta, z, gradient=True) -> FieldValues:
+        """The known field (everything but the unknown face's own part) at points (m, rad, m);
+        gradient=False: temperature only (gradient and heat_flux are None)."""
         r, theta, z = self._check_points(r, theta, z)
         shape = r.shape
         r, theta, z = r.ravel(), theta.ravel(), z.ravel()
         t = self.lifting.temperature(r, theta, z)
-        g = self.lifting.gradient(r, theta, z)
+        g = self.lifting.gradient(r, theta, z) if gradient else 0.0
         tail = np.zeros_like(t)
         for s in self.series:
-            ts, gs, es = s.evaluate(r, theta, z)
-            t, g, tail = t + ts, g + gs, tail + es
+            ts, gs, es = s.evaluate(r, theta, z, gradient=gradient)
+            t, tail = t + ts, tail + es
+            if gradient:
+                g = g + gs
+        return self._field_values(t, g if gradient else None, tail, shape)
+
+    def _field_values(self, t, g, tail, shape):
+        if g is None:
+            return FieldValues(t.reshape(shape), None, None, tail.reshape(shape))
         q = -self.k * g if self.has_conductivity else np.full_like(g, np.nan)
         return FieldValues(t.reshape(shape), g.reshape((3,) + shape), q.reshape((3,) + shape),
                            tail.reshape(shape))
 
+    def evaluate_grid(self, r, theta, z, gradient=False) -> FieldValues:
+        """The known field on the tensor grid of lines r x theta x z (1-D arrays; m, rad, m):
+        arrays of shape (R, T, Z) (gradient (3, R, T, Z), None unless asked for), the same
+        numbers as `evaluate` at the grid's points to round-off.  Each series evaluates its
+        radial factor once per r line, its axial factor once per z line and the angle once
+        per theta line (forward/grid.py): a face map is (R, T, 1) or (1, T, Z)."""
+        r, theta, z = self._check_lines(r, theta, z)
+        shape = (r.size, theta.size, z.size)
+        t, g = self.lifting.grid(r, theta, z, gradient=gradient)
+        tail = np.zeros(shape)
+        for s in self.series:
+            ts, gs, es = s.evaluate_grid(r, theta, z, gradient=gradient)
+            t, tail = t + ts, tail + es
+            if gradient:
+                g = g + gs
+        return self._field_values(t, g, tail, shape)
+
     def temperature(self, r, theta, z):
-        return self.evaluate(r, theta, z).temperature
+        return self.evaluate(r, theta, z, gradient=False).temperature
 
     def face_power(self, face: str) -> float:
         """Heat INTO the part [W] through a face, from the known field (NaN without a

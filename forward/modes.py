@@ -129,6 +129,25 @@ class EndFaceModes:
         ])
         return t, grad
 
+    def grid_factors(self, r, z, gradient=True):
+        """Separable factors on grid lines (forward/grid.py): J_m(kappa r) (R, K), its
+        d/dr and m J_m / r = kappa (J_{m-1} + J_{m+1}) / 2 [1/m], Zhat(zeta(z)) (Z, K) and
+        dZhat/dz [1/m] (None when not gradient)."""
+        x = np.multiply.outer(np.asarray(r, float), self.kappa)
+        zh, dzh = self.axial(self.zeta(z))
+        if not gradient:
+            return besselj(self.m, x), None, None, zh, None
+        jm1, j, jp1 = besselj_triplet(self.m, x)
+        sign = 1.0 if self.face == "bottom" else -1.0
+        return (j, self.kappa * 0.5 * (jm1 - jp1), self.kappa * 0.5 * (jm1 + jp1), zh,
+                sign * dzh)
+
+    def eigenfunctions_grid(self, r, theta):
+        """Phi on grid lines r x theta, (R, T, K): J_m once per r line, Theta_m once per angle."""
+        th, _ = _theta_parts(self.m, self.is_sin, np.asarray(theta, float))
+        jr = besselj(self.m, np.multiply.outer(np.asarray(r, float), self.kappa))
+        return jr[:, None, :] * th[None, :, :]
+
     def eigenfunctions(self, r, theta):
         """Phi = J_m(lambda r / a) Theta_m(theta) on the face, (Q, K)."""
         th, _ = _theta_parts(self.m, self.is_sin, np.asarray(theta, float))
@@ -278,6 +297,22 @@ class SideModes:
         th, _ = _theta_parts(self.m, self.is_sin, np.asarray(theta, float))
         zz, _ = self.axial(z)
         return th * zz
+
+    def eigenfunctions_grid(self, theta, z):
+        """Phi on grid lines theta x z, (T, Z, K)."""
+        th, _ = _theta_parts(self.m, self.is_sin, np.asarray(theta, float))
+        zz, _ = self.axial(z)
+        return th[:, None, :] * zz[None, :, :]
+
+    def grid_factors(self, r, z, gradient=True):
+        """Separable factors on grid lines (forward/grid.py): q / B (R, K), q' / B,
+        m q / (r B) [1/m], Z (Z, K) and Z' [1/m] (None when not gradient)."""
+        zz, dzz = self.axial(z)
+        q, dq, mq_r = self._radial(r)
+        b = self.norm_b
+        if not gradient:
+            return q / b, None, None, zz, None
+        return q / b, dq / b, mq_r / b, zz, dzz
 
     def axial_norms(self):
         """integral_0^L Z^2 dz = L [1/2 - (sin(2 mu + 2 phi) - sin(2 phi)) / (4 mu)] [m]."""

@@ -14,11 +14,19 @@ Axial (side data), end conditions at z = 0 and z = L with Bi = h L / k: with the
 Pruefer form Z = sin(mu z / L + phi_b), phi = atan2(mu, Bi) (D: 0, N: pi/2), the n-th
 root (n = 0, 1, ...) solves mu + phi_b(mu) + phi_t(mu) = (n + 1) pi, a strictly
 increasing function of mu, so it lies in [n pi, (n + 1) pi] and is unique there.
+
+Root tables are cached (`_RootCache`, bounded, least recently used dropped first): J_m'
+zeros per m, Robin roots per (m, Bi), axial roots per (end kinds, Bi's).  A longer request
+refines only the roots it lacks (each root depends on its own bracket alone), and a Robin
+family for a new Bi starts from the cached roots of the nearest Bi below and above (the
+n-th root grows strictly with Bi, so they bracket it), so calibration's rebuilds with
+nearby h cost a few iterations per root.
 """
 
 from __future__ import annotations
 
 import threading
+from collections import OrderedDict
 
 import numpy as np
 from scipy import special
@@ -69,23 +77,95 @@ def bessel_zeros(m: int, n: int) -> np.ndarray:
     return _bessel_zero_table(int(m), int(n) + 1)[m, :n].copy()
 
 
+class _RootCache:
+    """Bounded table of root families: key -> the longest array of leading roots found."""
+
+    def __init__(self, max_entries: int = 2048):
+        self.max_entries = int(max_entries)
+        self._data: OrderedDict = OrderedDict()
+        self._lock = threading.Lock()
+        self.hits = self.misses = 0
+
+    def get(self, key, n, extend):
+        """First n roots of family `key`; extend(have, n) returns roots have..n-1."""
+        with self._lock:
+            have = self._data.get(key)
+            if have is not None:
+                self._data.move_to_end(key)
+                if have.size >= n:
+                    self.hits += 1
+                    return have[:n].copy()
+        self.misses += 1
+        have = np.zeros(0) if have is None else have
+        full = np.concatenate([have, extend(have.size, n)])
+        with self._lock:
+            self._data[key] = full
+            self._data.move_to_end(key)
+            while len(self._data) > self.max_entries:
+                self._data.popitem(last=False)
+        return full[:n].copy()
+
+    def neighbours(self, match, value, n):
+        """Cached arrays (of at least n roots) of the keys accepted by match(key) whose
+        value (match's number) is the nearest below and above `value`: (below, above)."""
+        below = above = None
+        with self._lock:
+            for key, arr in self._data.items():
+                v = match(key)
+                if v is None or arr.size < n:
+                    continue
+                if v < value and (below is None or v > below[0]):
+                    below = (v, arr)
+                if v > value and (above is None or v < above[0]):
+                    above = (v, arr)
+        return (below[1][:n] if below else None), (above[1][:n] if above else None)
+
+    def clear(self):
+        with self._lock:
+            self._data.clear()
+            self.hits = self.misses = 0
+
+
+ROOT_CACHE = _RootCache()
+
+
 def bessel_derivative_zeros(m: int, n: int, include_zero: bool = True) -> np.ndarray:
     """First n roots lambda >= 0 of J_m'(lambda) = 0; for m = 0 the first is lambda = 0."""
     m, n = int(m), int(n)
     if m == 0:
         pos = bessel_zeros(1, n)  # J_0' = -J_1
         return np.concatenate([[0.0], pos[: n - 1]]) if include_zero else pos
-    j = bessel_zeros(m, n)
-    lo = np.concatenate([[float(m)], j[:-1]])
-    return solve_bracketed(lambda x, i: _jvp(m, x), lo, j)
+
+    def extend(have, n):
+        j = bessel_zeros(m, n)
+        lo = np.concatenate([[float(m)], j[:-1]])
+        return solve_bracketed(lambda x, i: _jvp(m, x), lo[have:], j[have:])
+
+    return ROOT_CACHE.get(("N", m), n, extend)
 
 
 def robin_radial_roots(m: int, n: int, biot: float) -> np.ndarray:
     """First n roots of lambda J_m'(lambda) + Bi J_m(lambda) = 0, Bi = h a / k > 0."""
-    m, n = int(m), int(n)
-    j = bessel_zeros(m, n)
-    jp = bessel_derivative_zeros(m, n)
-    return solve_bracketed(lambda x, i: x * _jvp(m, x) + biot * _jv(m, x), jp, j)
+    m, n, biot = int(m), int(n), float(biot)
+
+    def f(x, i):
+        return x * _jvp(m, x) + biot * _jv(m, x)
+
+    def extend(have, n):
+        lo = bessel_derivative_zeros(m, n)[have:]
+        hi = bessel_zeros(m, n)[have:]
+        # roots of the nearest cached Bi's bracket this one (monotone in Bi)
+        below, above = ROOT_CACHE.neighbours(
+            lambda key: key[2] if key[0] == "R" and key[1] == m else None, biot, n)
+        lo2 = np.maximum(lo, below[have:]) if below is not None else lo
+        hi2 = np.minimum(hi, above[have:]) if above is not None else hi
+        if below is not None or above is not None:
+            idx = np.arange(lo.size)
+            ok = (f(lo2, idx) * f(hi2, idx) <= 0) & (lo2 <= hi2)
+            lo, hi = np.where(ok, lo2, lo), np.where(ok, hi2, hi)
+        return solve_bracketed(f, lo, hi)
+
+    return ROOT_CACHE.get(("R", m, biot), n, extend)
 
 
 def radial_eigenvalues(kind: str, m: int, n: int, biot: float = 0.0) -> np.ndarray:
@@ -115,13 +195,19 @@ def axial_eigenvalues(bottom: str, top: str, n: int, biot_bottom: float = 0.0,
 
     Z_n(z) = sin(mu_n z / L + phi_b(mu_n)); mu_0 = 0 only when both ends are 'N'.
     """
-    k = np.arange(int(n), dtype=float)
     if bottom != "R" and top != "R":
+        k = np.arange(int(n), dtype=float)
         shift = {("D", "D"): 1.0, ("N", "N"): 0.0}.get((bottom, top), 0.5)
         return (k + shift) * np.pi
+    biot_bottom, biot_top = float(biot_bottom), float(biot_top)
 
     def g(mu):
         return mu + pruefer_phase(bottom, mu, biot_bottom) + pruefer_phase(top, mu, biot_top)
 
-    target = (k + 1) * np.pi
-    return solve_bracketed(lambda x, i: g(x) - target[i], k * np.pi, (k + 1) * np.pi)
+    def extend(have, n):
+        k = np.arange(have, n, dtype=float)
+        target = (k + 1) * np.pi
+        return solve_bracketed(lambda x, i: g(x) - target[i], k * np.pi, (k + 1) * np.pi)
+
+    key = ("A", bottom, top, biot_bottom if bottom == "R" else 0.0, biot_top if top == "R" else 0.0)
+    return ROOT_CACHE.get(key, int(n), extend)

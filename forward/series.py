@@ -9,6 +9,8 @@ radial / axial integrals use Gauss-Legendre rules with enough nodes to resolve t
 highest eigenfunction.  The number of terms doubles until the truncation estimate at
 the requested points (sum of the term bounds |c| |axial or radial factor| over the last
 half of the terms) is below tolerance x the leading term, or the cap is reached.
+`evaluate_grid` sums on a tensor grid of lines (forward/grid.py); `evaluate(...,
+gradient=False)` sums the temperature only.
 """
 
 from __future__ import annotations
@@ -18,6 +20,8 @@ from functools import lru_cache
 import numpy as np
 from scipy import special
 
+from .bessel import besselj
+from .grid import grid_field
 from .harmonics import harmonic_amplitudes, significant_harmonics, theta_nodes
 from .modes import EndFaceModes, SideModes
 from .roots import axial_eigenvalues, radial_eigenvalues
@@ -58,6 +62,7 @@ class KnownSeries:
         self.max_harmonic = int(max_harmonic)
         self._harmonics()
         self.n_terms = 0
+        self.modes = None
         self._build(int(n_start))
 
     # --- data sampling -------------------------------------------------------------
@@ -108,77 +113,146 @@ class KnownSeries:
                             m, is_sin, ev)
 
     def _build(self, n):
+        """Build the series with n terms per harmonic (roots come from the cached tables, so a
+        doubling refines only the new eigenvalues)."""
         n = min(n, self.n_cap)
         if not self.parities:
-            self.modes, self.coef, self.n_terms = None, np.zeros(0), n
+            self.modes, self.coef, self.n_terms, self._blocks = None, np.zeros(0), n, []
             return
-        m = np.repeat([p[0] for p in self.parities], n)
-        is_sin = np.repeat([p[1] for p in self.parities], n)
-        ev = np.concatenate([self._eigen(p[0], n) for p in self.parities])
-        modes = self._make_modes(m, is_sin, ev)
+        # Every build projects all n terms with one rule resolving the highest eigenfunction:
+        # keeping the earlier terms' coefficients (projected with coarser rules) and summing
+        # only the new terms was tried and raised the round-off of the field by ~30 % (see
+        # DEVELOPERS.md), so the terms already summed are summed again.
+        have = 0
+        self._blocks = []
+        ms = np.repeat([p[0] for p in self.parities], n - have)
+        is_sin = np.repeat([p[1] for p in self.parities], n - have)
+        ev = np.concatenate([self._eigen(p[0], n)[have:] for p in self.parities])
+        modes = self._make_modes(ms, is_sin, ev)
         top_ev = float(ev.max())  # lambda (end faces) or mu (side), dimensionless
         nq = int(0.6 * top_ev + 16 * np.sqrt(top_ev + 1) + 80)
         s, w = _gauss(nq, self._span())
         amps_c, amps_s = harmonic_amplitudes(self._sample(s, theta_nodes(self.n_theta)), axis=1)
-        proj = np.empty(m.size)
+        proj = np.empty(ms.size)
         if self.face == "side":
             zz, _ = modes.axial(s)  # (nq, K)
             weights = w[:, None] * zz
             norm = modes.axial_norms()
         else:
-            from .bessel import besselj
-            norm = modes.norms() / np.where(m == 0, 2.0 * np.pi, np.pi)
+            norm = modes.norms() / np.where(ms == 0, 2.0 * np.pi, np.pi)
         # integral of the (residual) data over the face: only the m = 0 amplitude contributes
         ring = w * s if self.face != "side" else w * self.a
         self._data_integral = float(2.0 * np.pi * (ring @ amps_c[:, 0]))
+        size = n - have
         for g, (mg, sg) in enumerate(self.parities):
-            sl = slice(g * n, (g + 1) * n)
+            sl = slice(g * size, (g + 1) * size)
             amp = (amps_s if sg else amps_c)[:, mg]  # (nq,)
             if self.face == "side":
                 proj[sl] = (amp @ weights[:, sl]) / norm[sl]
             else:
                 jr = besselj(mg, np.multiply.outer(s, modes.kappa[sl]))
                 proj[sl] = ((w * s * amp) @ jr) / norm[sl]
-        self.modes, self.coef, self.n_terms = modes, proj, n
-        self._n_index = np.tile(np.arange(n), len(self.parities))
+        n_index = np.tile(np.arange(have, n), len(self.parities))
+        self._blocks.append((modes, proj, n_index))
+        self.n_terms = n
+        if len(self._blocks) == 1:
+            self.modes, self.coef, self._n_index = modes, proj, n_index
+        else:
+            self._n_index = np.concatenate([b[2] for b in self._blocks])
+            self.coef = np.concatenate([b[1] for b in self._blocks])
+            self.modes = self._make_modes(np.concatenate([b[0].m for b in self._blocks]),
+                                          np.concatenate([b[0].is_sin for b in self._blocks]),
+                                          np.concatenate([self._ev(b[0]) for b in self._blocks]))
+
+    def _ev(self, modes):
+        return modes.mu if self.face == "side" else modes.lam
 
     # --- evaluation ----------------------------------------------------------------------
-    def _bounds(self, r, z):
-        """|radial or axial factor| per point and mode (|J Theta| <= 1, |Z Theta| <= 1)."""
+    def _bound_factors(self, modes, r, z):
+        """|radial or axial factor| per point (or grid line) and mode (|J Theta| <= 1,
+        |Z Theta| <= 1): a function of r alone (side data) or z alone (end-face data)."""
         if self.face == "side":
-            q, _, _ = self.modes._radial(r)
-            return np.abs(q / self.modes.norm_b)
-        zh, _ = self.modes.axial(self.modes.zeta(z))
+            q, _, _ = modes._radial(r)
+            return np.abs(q / modes.norm_b)
+        zh, _ = modes.axial(modes.zeta(z))
         return np.abs(zh)
 
-    def _evaluate_once(self, r, theta, z, gradient):
+    def _tail(self, r, z):
+        """Truncation estimate: sum over the last half of the terms of |c| |factor|, for
+        each point (or grid line) of r (side data) or z (end-face data), in chunks."""
+        x = r if self.face == "side" else z
+        tail = np.zeros(x.size)
+        for modes, coef, n_index in self._blocks:
+            last = n_index >= self.n_terms // 2
+            if not last.any():
+                continue
+            step = max(1, CHUNK // coef.size)
+            for i in range(0, x.size, step):
+                sl = slice(i, i + step)
+                part = (x[sl], None) if self.face == "side" else (None, x[sl])
+                tail[sl] += self._bound_factors(modes, *part)[:, last] @ np.abs(coef[last])
+        return tail
+
+    def _block_points(self, block, r, theta, z, gradient):
+        modes, coef, _ = block
         P = r.size
-        K = self.coef.size
         t = np.zeros(P)
         g = np.zeros((3, P))
-        tail = np.zeros(P)
-        last_half = self._n_index >= self.n_terms // 2
-        step = max(1, CHUNK // max(K, 1))
+        step = max(1, CHUNK // max(coef.size, 1))
         for i in range(0, P, step):
             sl = slice(i, i + step)
-            cols, grad = self.modes.fields(r[sl], theta[sl], z[sl], gradient=gradient)
-            t[sl] = cols @ self.coef
+            cols, grad = modes.fields(r[sl], theta[sl], z[sl], gradient=gradient)
+            t[sl] = cols @ coef
             if gradient:
-                g[:, sl] = grad @ self.coef
-            tail[sl] = self._bounds(r[sl], z[sl])[:, last_half] @ np.abs(self.coef[last_half])
-        return t, g, tail
+                g[:, sl] = grad @ coef
+        return t, g
+
+    def _block_grid(self, block, r, theta, z, gradient):
+        modes, coef, _ = block
+        t, g = grid_field(coef, modes.m, modes.is_sin, modes.grid_factors(r, z, gradient),
+                          theta, gradient)
+        return t, (g if gradient else np.zeros((3,) + t.shape))
+
+    def _grow_and_sum(self, block_sum, tail_of):
+        """Sum the terms built so far, then double the terms (and sum again) until the
+        truncation estimate meets the tolerance or the cap is reached."""
+        # the terms summed so far in one pass (one dot product per point, not one per block)
+        t, g = block_sum((self.modes, self.coef, self._n_index))
+        while True:
+            tail = tail_of()
+            if np.size(tail) == 0 or np.max(tail) <= self.tol * self.temperature_scale \
+                    or self.n_terms >= self.n_cap:
+                return t, g, tail
+            self._build(2 * self.n_terms)
+            t, g = block_sum((self.modes, self.coef, self._n_index))
 
     def evaluate(self, r, theta, z, gradient=True):
-        """Temperature (P,), gradient (3, P) and truncation estimate (P,) of this sub-problem."""
+        """Temperature (P,), gradient (3, P) (zeros unless gradient) and truncation estimate
+        (P,) of this sub-problem."""
         r, theta, z = (np.asarray(v, float).ravel() for v in (r, theta, z))
         if self.modes is None:
             return np.zeros(r.size), np.zeros((3, r.size)), np.zeros(r.size)
-        while True:
-            t, g, tail = self._evaluate_once(r, theta, z, gradient)
-            ref = self.temperature_scale
-            if tail.size == 0 or tail.max() <= self.tol * ref or self.n_terms >= self.n_cap:
-                return t, g, tail
-            self._build(2 * self.n_terms)
+        tail_r = r if self.face == "side" else None
+        tail_z = None if self.face == "side" else z
+        return self._grow_and_sum(lambda b: self._block_points(b, r, theta, z, gradient),
+                                  lambda: self._tail(tail_r, tail_z))
+
+    def evaluate_grid(self, r, theta, z, gradient=False):
+        """The same on the tensor grid of lines r x theta x z: temperature (R, T, Z),
+        gradient (3, R, T, Z) (zeros unless gradient), truncation estimate (R, T, Z); the
+        radial, axial and angular factors are evaluated once per line (forward/grid.py)."""
+        r, theta, z = (np.asarray(v, float).ravel() for v in (r, theta, z))
+        shape = (r.size, theta.size, z.size)
+        if self.modes is None:
+            return np.zeros(shape), np.zeros((3,) + shape), np.zeros(shape)
+        if self.face == "side":
+            def tail_of():
+                return self._tail(r, None)[:, None, None]
+        else:
+            def tail_of():
+                return self._tail(None, z)[None, None, :]
+        t, g, tail = self._grow_and_sum(lambda b: self._block_grid(b, r, theta, z, gradient), tail_of)
+        return t, g, np.broadcast_to(tail, shape).copy()
 
     def powers(self):
         """Heat INTO the part [W] through each face from this sub-problem.
@@ -237,7 +311,6 @@ class KnownSeries:
             int_z = np.where(beta > 0, (np.cos(phi) - np.cos(mu + phi)) / safe, self.L * np.sin(phi))
             area = 2.0 * np.pi * self.a * int_z
         else:
-            from .bessel import besselj
             lam = modes.lam
             safe = np.where(lam > 0, lam, 1.0)
             j1 = besselj(np.ones_like(modes.m), lam)
