@@ -74,8 +74,9 @@ class Design:
         return Design(self.cylinder, faces, self.tolerance, self.harmonics, self.terms)
 
     def at(self, r, theta, z, gradient=False):
-        """(G, t0, forward field values, dG) at points (SI)."""
-        ev = self.model.evaluate(r, theta, z)
+        """(G, t0, forward field values, dG) at points (SI); the known field's gradient and
+        dG only when `gradient` is asked for (else None)."""
+        ev = self.model.evaluate(r, theta, z, gradient=gradient)
         G, dG = self.basis.fields(r, theta, z, gradient=gradient)
         return G, ev.temperature, ev, dG
 

@@ -23,8 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .calibration import calibrate
-from .design import (NOMINAL_PRECISION_FACTOR, Design, nominal_direction, prior_diagonal,  # noqa: F401
-                     smooth_prior)
+from .design import NOMINAL_PRECISION_FACTOR, Design, smooth_prior
 from .diagnostics import screen_outliers, sensor_table
 from .functionals import face_functionals
 from .hyperprior import learn_prior
@@ -46,9 +45,6 @@ from .zones import AUTO_THRESHOLD, ZoneModel
 
 #: reduced chi-square above which the readings scatter more than stated (common practice, no source)
 CHI2_WARNING = 4.0
-
-_nominal_direction = nominal_direction   # the name batch.py imports
-
 
 def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     """Fit the unknown face of `problem` (an inverse.Problem, or anything with .cylinder,
@@ -117,8 +113,7 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
 def _linear_problem(G, t0, noise, rd, P, u, ok):
     """The linear Gaussian problem with prior mean gamma u, gamma the GLS level of u over the
     readings `ok` (those that passed the gross-fault screen)."""
-    var = noise if not isinstance(noise, Whitener) else \
-        (noise.sd ** 2 if noise.diagonal else noise.covariance)
+    var = noise.variance if isinstance(noise, Whitener) else noise
     gamma = nominal_level(rd.temperature - t0, G @ u, var, ok)
     return LinearGaussianProblem(G, rd.temperature, t0, noise, P, c0=gamma * u)
 
@@ -208,10 +203,7 @@ def _posterior(design, rd, screen, P, u, opts, warnings) -> Posterior:
     if opts.strength_method == "evidence" and opts.prior == "learned" and not opts.monte_carlo:
         avg = learn_prior(final, design.basis, nominal=u > 0, nominal_factor=NOMINAL_PRECISION_FACTOR)
         # the fixed prior's strength-grid notes do not apply to the learned prior's answer
-        for w in screen.choice.warnings:
-            while w in warnings:
-                warnings.remove(w)
-        warnings.extend(avg.warnings)
+        warnings[:] = [w for w in warnings if w not in screen.choice.warnings] + list(avg.warnings)
         post = Posterior(avg.coefficients(), avg.posterior_covariance(), alpha, avg)
     elif opts.strength_method == "evidence":
         avg = StrengthAverage(final)

@@ -84,6 +84,11 @@ class Whitener:
         return self._sd
 
     @property
+    def variance(self) -> np.ndarray:
+        """S as it was given: variances sigma_i^2 (n,) when diagonal, else (n, n) [K^2]."""
+        return self._sd ** 2 if self.diagonal else self.covariance
+
+    @property
     def covariance(self) -> np.ndarray:
         """S as a full (n, n) matrix [K^2]."""
         if self.diagonal:

@@ -100,6 +100,13 @@ def zone_area(zone, face, radius, height, n=1024):
     return float(S.ravel() @ mask) * (2.0 * np.pi / n) * (span / n)
 
 
+def _evaluated_once(builder, design, value=None):
+    """The figure builder, its (F, k) at the fitted `design` computed once (or `value`) and
+    reused; designs rebuilt at other calibrated parameters are evaluated afresh."""
+    at_design = builder(design) if value is None else value
+    return lambda d: at_design if d is design else builder(d)
+
+
 def valid_zones(zones, face, cyl, warnings) -> list:
     """The zones on the estimated face that cover part of it; the others are reported."""
     quad = quadrature(face, cyl.radius, cyl.height)
@@ -174,9 +181,7 @@ class FitResult:
         face, quantity = design.face_name, design.quantity
         unit = "K" if quantity == "temperature" else "W/m^2"
         pts = display_grid(face, cyl.radius, cyl.height, *opts.grid)
-
-        def on_grid(d):
-            return d.face(pts.u, pts.v)
+        on_grid = _evaluated_once(lambda d: d.face(pts.u, pts.v), design)
 
         mean, sd, lower, upper = posterior.figures(on_grid, design)
         if monte_carlo is not None:
@@ -188,8 +193,9 @@ class FitResult:
 
         # linear functionals over the face (quadrature rule): mean, power, zones, jointly
         valid = valid_zones(spec.zones, face, cyl, warnings)
-        names, _, _ = functional_matrix(design, valid)
-        f_mean, f_sd, _, _ = posterior.figures(lambda d: functional_matrix(d, valid)[1:], design)
+        names, F, k = functional_matrix(design, valid)
+        on_quadrature = _evaluated_once(lambda d: functional_matrix(d, valid)[1:], design, (F, k))
+        f_mean, f_sd, _, _ = posterior.figures(on_quadrature, design)
 
         # extremes and non-uniformity from posterior draws on the display grid
         prof = posterior.draws(on_grid, design, 400, seed=1)
