@@ -19,10 +19,10 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ..inverse.bands import Z95
 
 from .display import deg, display_for, file_display, mm
 from .errors import InputError
+from .report_format import eng, pm95, power_pm
 from .units import convert, split_header, ureg
 
 #: units of the columns of a points table handed to `Fit.predict` when its header names none
@@ -78,8 +78,8 @@ class Fit:
         s, d = self.raw.summary, display_for(self.raw)
         mean, sd = s["mean"], s["mean_sd"]
         rows = [("face", f"{self.face} ({self.quantity.replace('_', ' ')})"),
-                ("mean", f"{d.value(mean):.4g} ± {d.diff(Z95 * sd):.2g} {d.symbol} (95 %)"),
-                ("power in", f"{s['total_power_W']:.4g} ± {Z95 * s['total_power_sd_W']:.2g} W (95 %)")]
+                ("mean", pm95(eng(d.value(mean)), d.diff(sd), d.symbol)),
+                ("power in", power_pm(s["total_power_W"], s["total_power_sd_W"]))]
         rows.append(("set aside", ", ".join(s["set_aside"]) or "none"))
         return rows
 
