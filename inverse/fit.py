@@ -87,12 +87,12 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     post = _posterior(design, rd, smooth, P, u, opts, warnings)
     if post.calibration is not None:
         design = post.calibration.design
-    columns, post, screen, model_info = _choose_model(opts, design, zone_model, screen, smooth, post, warnings)
+    columns, post, screen, model_info = _choose_model(opts, design, zone_model, screen, smooth, post, u, warnings)
 
     warnings += _layout_warnings(face, spec.cylinder, rd.subset(screen.kept))
     warnings += _unresolved_warnings(post, screen, columns, design, spec, rd)
     warnings += _misfit_warnings(screen)
-    if hasattr(post.averaged, "description"):
+    if hasattr(post.averaged, "description") and "prior" not in model_info:
         model_info = {**model_info, "prior": post.averaged.description()}
     mc = None
     if opts.monte_carlo and columns is design:
@@ -258,14 +258,19 @@ def _smooth_on_kept(problem, screen, opts, warnings) -> _Screen:
     return _Screen(choice, final, screen.kept, screen.table, screen.set_aside, [])
 
 
-def _choose_model(opts, design, zone_model, screen, smooth, post, warnings):
+def _choose_model(opts, design, zone_model, screen, smooth, post, u, warnings):
     """(model columns, posterior, screening, summary keys): the smooth model, or the zone
     model when asked (model = "zones") or clearly preferred by the evidence ("auto")."""
     if zone_model is None:
         return design, post, smooth, {"model": "smooth"}
-    marginal = zone_model.marginal.subset(np.flatnonzero(screen.kept))
-    alphas = default_alphas(marginal) if opts.strength_method == "evidence" else np.array([screen.choice.alpha])
-    zf = zone_model.fit(screen.kept, alphas)
+    if hasattr(post.averaged, "log_marginal"):
+        # both models with learned priors: evidences integrated over the same hyperpriors
+        zf = zone_model.learned_fit(screen.kept, design.basis, u > 0, NOMINAL_PRECISION_FACTOR,
+                                    post.averaged.log_marginal)
+    else:
+        marginal = zone_model.marginal.subset(np.flatnonzero(screen.kept))
+        alphas = default_alphas(marginal) if opts.strength_method == "evidence" else np.array([screen.choice.alpha])
+        zf = zone_model.fit(screen.kept, alphas)
     info = {"model_evidence": zf.log_evidence, "model_weights": zf.weights}
     if zf.edge:
         warnings.append("the zone model's evidence-weighted strength reaches the edge of its grid")
@@ -278,6 +283,9 @@ def _choose_model(opts, design, zone_model, screen, smooth, post, warnings):
     if design.quantity == "temperature" and any(z.edge <= 0 for z in zone_model.columns.zones):
         warnings.append("sharp zone edges on a temperature face: the heat flux is singular at a "
                         "temperature step, so the total power is not defined; give the zones an edge width")
+    if zf.prior is not None:
+        warnings[:] = [w for w in warnings if w not in post.averaged.warnings] + list(zf.prior.warnings)
+        info["prior"] = zf.prior.description()
     return zone_model.columns, Posterior(zf.c, zf.C, zf.alpha, None), screen, {"model": "zones", **info}
 
 

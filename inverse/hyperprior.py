@@ -106,7 +106,7 @@ class LearnedPrior:
     """
 
     def __init__(self, problem: LinearGaussianProblem, basis, nominal=None, nominal_factor: float = 1.0,
-                 lengths=None, orders=None):
+                 lengths=None, orders=None, spread=None):
         a = face_size(basis)
         self.length_range = (LENGTH_RANGE[0] * a, LENGTH_RANGE[1] * a)
         self.lengths = (np.geomspace(*self.length_range, N_LENGTHS) if lengths is None
@@ -118,7 +118,9 @@ class LearnedPrior:
         nominal = np.zeros(K, dtype=bool) if nominal is None else np.asarray(nominal, dtype=bool)
         free = ~nominal
         Gw = problem.noise.whiten(problem.G)
-        spread = max(float(np.mean(problem.y ** 2)) - 1.0, 1.0)
+        if spread is None:
+            spread = float(np.mean(problem.y ** 2)) - 1.0
+        spread = max(float(spread), 1.0)
         self.problem = problem
         combos, problems, log_ref, T = [], [], [], []
         for s in self.orders:
@@ -196,6 +198,10 @@ class LearnedPrior:
     def coefficients(self) -> np.ndarray:
         """Mixture mean of c, (K,)."""
         return sum(w @ pb.coefficients(a) for pb, a, w in self._parts)
+
+    def components(self):
+        """The mixture's components: [(prior precision P_i (K,), alphas (n_i,), weights (n_i,))]."""
+        return [(pb.prior_diag, a, w) for pb, a, w in self._parts]
 
     def posterior_covariance(self) -> np.ndarray:
         """Mixture covariance sum_i w_i (C_i + c_i c_i^T) - m m^T, (K, K)."""
@@ -301,6 +307,7 @@ class LearnedPrior:
         }
 
 
-def learn_prior(problem: LinearGaussianProblem, basis, nominal=None, nominal_factor: float = 1.0) -> LearnedPrior:
+def learn_prior(problem: LinearGaussianProblem, basis, nominal=None, nominal_factor: float = 1.0,
+                spread=None) -> LearnedPrior:
     """Posterior of the unknown face averaged over strength, length scale and order (see module doc)."""
-    return LearnedPrior(problem, basis, nominal, nominal_factor)
+    return LearnedPrior(problem, basis, nominal, nominal_factor, spread=spread)

@@ -7,13 +7,17 @@ chi_j on the face's eigenfunctions with many terms and harmonics,
     a_jk = integral chi_j Phi_k dA / N_k,   G_zone = G_big A^T,
 which converges at interior sensors (each mode decays into the part).
 
-Priors: the remainder c ~ N(0, (alpha P)^-1) with the smooth model's P (prior_diagonal,
-without its nearly flat nominal level: the zones carry the levels), its own strength
-averaged over alpha by the evidence; z ~ N(mu, diag(s^2)), mu the nominal level (nominal power / zone
+Priors: the remainder c ~ N(0, (alpha P)^-1), P the smooth model's prior with its nearly
+flat nominal level (a background between and around the zones). With the learned prior
+(the default) P is the Whittle-Matern family of hyperprior.py, its strength, length scale
+and order averaged by the remainder's own evidence, the amplitude scale set by the readings'
+spread left after the zone levels (`learned_fit`); with the fixed prior, P = prior_diagonal
+and the strength alone is averaged (`fit`); z ~ N(mu, diag(s^2)), mu the nominal level (nominal power / zone
 area) or 0, s = ZONE_PRIOR_FACTOR x the face's level scale (weak).  Marginalizing z gives
 d ~ N(t0 + G c0 + G_zone mu, S + G_zone diag(s^2) G_zone^T + G (alpha P)^-1 G^T), so the
-evidence p(d | alpha, zones) is exact and compares with the smooth model's p(d | alpha)
-on the same log-alpha grid (flat prior in log alpha, equal prior model odds).
+evidence p(d | alpha, zones) is exact. It compares with the smooth model's evidence under
+the same hyperpriors (learned prior: both integrated over strength, length scale and order;
+fixed prior: both on one log-alpha grid), equal prior model odds.
 """
 
 from __future__ import annotations
@@ -26,6 +30,7 @@ from scipy.special import logsumexp
 
 from .errors import InverseError
 from .face_grid import segments
+from .hyperprior import learn_prior
 from .linear_gaussian import LinearGaussianProblem
 
 #: zone level prior sd = this factor x the face's level scale (weak; common practice, no source)
@@ -161,6 +166,7 @@ class ZoneFit:
     log_evidence: dict
     weights: dict
     edge: bool
+    prior: object = None    # the remainder's LearnedPrior (learned_fit), else None
 
 
 def zone_prior(zones, level_scale, areas):
@@ -223,6 +229,55 @@ class ZoneModel:
         alpha = float(np.exp(wk @ np.log(alphas[keep])))
         edge = n_a > 2 and max(w[0], w[-1]) > 1e-3
         return ZoneFit(mean, cov, alpha, logz, {"smooth": 1.0 - p_z, "zones": p_z}, edge)
+
+
+    def _joint(self, idx):
+        """(H, b0, x0): X^T S^-1 X, X^T S^-1 (d - t0), prior mean of (c, z) on sensors idx."""
+        smooth = self.smooth.subset(idx)
+        X = np.hstack([smooth.G, self.Gz[idx]])
+        XtSi = smooth.noise.whiten_transpose(smooth.noise.whiten(X)).T
+        return XtSi @ X, XtSi @ (smooth.d - smooth.t0), np.concatenate([np.zeros(self.P.size), self.mu])
+
+    def remainder_spread(self, idx) -> float:
+        """Whitened mean square of the readings beyond the noise after the zone levels' own
+        generalized-least-squares fit (with their weak prior): the signal the remainder carries,
+        which sets the amplitude scale of its learned prior (hyperprior.LearnedPrior)."""
+        smooth = self.smooth.subset(idx)
+        Gz = self.Gz[idx]
+        Wz = smooth.noise.whiten(Gz)
+        y = smooth.noise.whiten(smooth.d - smooth.t0 - Gz @ self.mu)
+        z = np.linalg.solve(Wz.T @ Wz + np.diag(1.0 / self.s ** 2), Wz.T @ y)
+        return float(np.mean((y - Wz @ z) ** 2)) - 1.0
+
+    def learned_fit(self, kept, basis, nominal, nominal_factor, smooth_log_evidence) -> "ZoneFit":
+        """Posterior of (c, z) with the remainder's Whittle-Matern prior learned from the data
+        (hyperprior.LearnedPrior on the marginal problem: strength, length scale and order
+        averaged with their hyperpriors), moment-matched over the mixture's components; the
+        evidence comparison uses both models' marginal likelihoods integrated over their
+        hyperpriors (`smooth_log_evidence` = the smooth model's LearnedPrior.log_marginal)."""
+        idx = np.flatnonzero(kept)
+        lp = learn_prior(self.marginal.subset(idx), basis, nominal=nominal, nominal_factor=nominal_factor,
+                         spread=self.remainder_spread(idx))
+        H, b0, x0 = self._joint(idx)
+        zprec = 1.0 / self.s ** 2
+        means, covs, ws, log_a = [], [], [], []
+        for P, alphas, w in lp.components():
+            for a, wi in zip(alphas, w):
+                prec = np.concatenate([a * P, zprec])
+                C = np.linalg.inv(H + np.diag(prec))
+                C = 0.5 * (C + C.T)
+                means.append(C @ (b0 + prec * x0))
+                covs.append(C * wi)
+                ws.append(wi)
+                log_a.append(math.log(a))
+        wk = np.asarray(ws) / np.sum(ws)
+        M = np.array(means)
+        mean = wk @ M
+        cov = sum(covs) / np.sum(ws) + (M - mean).T @ ((M - mean) * wk[:, None])
+        logz = {"smooth": float(smooth_log_evidence), "zones": float(lp.log_marginal)}
+        p_z = 1.0 / (1.0 + math.exp(min(700.0, logz["smooth"] - logz["zones"])))
+        return ZoneFit(mean, cov, float(np.exp(wk @ np.asarray(log_a))), logz,
+                       {"smooth": 1.0 - p_z, "zones": p_z}, False, lp)
 
 
 def _nearest(design, rd):

@@ -114,9 +114,11 @@ def test_zone_model_on_ring_heaters(readings):
         res = inverse.fit(case(), rd, model="zones", grid=(40, 72))
     cover, errs, p_err = _report(res, power)
     assert res.summary["model"] == "zones"
-    # issue goals: zone means within 2 sd, pointwise 95 % coverage in [0.85, 0.99]
+    # issue 9's goals: zone means within 2 sd, pointwise 95 % coverage >= 0.85 in every
+    # scenario (the [0.90, 0.99] window is for the pooled figure, tests/test_scenarios.py);
+    # the sharpness check below keeps the bands from buying coverage with width
     assert all(abs(e) <= 2.0 for e in errs.values())   # truth: the flux given to scikit-fem
-    assert 0.85 <= cover <= 0.99                       # truth: the flux given to scikit-fem
+    assert cover >= 0.85                               # truth: the flux given to scikit-fem
     assert abs(p_err) <= 2.0                           # truth: scikit-fem heat in
     # sharp as well as calibrated: mean half band well below the truth's own spread
     g = res.grid
