@@ -18,7 +18,7 @@ placement), calibration, screening, posterior, model choice, warnings, derived f
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -31,6 +31,7 @@ from .layout import FAR_FRACTION, angular_note
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem
 from .lmfit_solver import fit_linear_lmfit
+from .model_choice import log_evidence_on_all, model_weights
 from .monte_carlo import placement_draws
 from .noise import Whitener, noise_covariance
 from .problem import Problem
@@ -80,14 +81,20 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
         design = _calibrated_design(design, rd, problem, P, opts, gross)
         problem = _linear_problem(*design.sensors(rd.r, rd.theta, rd.z), problem.noise, rd, P, u, ok)
 
+    # each model screens the sensors itself: a sensor one model cannot explain may be
+    # healthy under the other (model_choice.py compares them on all the readings)
     zone_model = _zone_model(spec, design, rd, problem, warnings)
-    screen = _screen(zone_model.marginal if zone_model else problem, rd, opts, gross)
-    warnings += screen.warnings
-    smooth = screen if zone_model is None else _smooth_on_kept(problem, screen, opts, warnings)
+    smooth = _screen(problem, rd, opts, gross)
+    zscreen = None if zone_model is None else _screen(zone_model.marginal, rd, opts, gross)
     post = _posterior(design, rd, smooth, P, u, opts, warnings)
     if post.calibration is not None:
         design = post.calibration.design
-    columns, post, screen, model_info = _choose_model(opts, design, zone_model, screen, smooth, post, u, warnings)
+    columns, post, screen, model_info = _choose_model(opts, design, zone_model, zscreen, smooth, post, u,
+                                                      problem, warnings)
+    # the chosen model's screening notes lead; a learned prior's answer drops the fixed
+    # prior's strength-grid notes
+    learned = hasattr(post.averaged, "description") or "prior" in model_info
+    warnings[:0] = [w for w in screen.warnings if not (learned and w in screen.choice.warnings)]
 
     warnings += _layout_warnings(face, spec.cylinder, rd.subset(screen.kept))
     warnings += _unresolved_warnings(post, screen, columns, design, spec, rd)
@@ -250,27 +257,28 @@ def _zone_model(spec, design, rd, problem, warnings):
     return ZoneModel(design, rd, problem, zones, areas, scale, remainder)
 
 
-def _smooth_on_kept(problem, screen, opts, warnings) -> _Screen:
-    """The smooth model on the sensors the zone model's screening kept."""
-    final = problem.subset(np.flatnonzero(screen.kept))
-    choice = choose_strength(final, opts.strength_request)
-    warnings.extend(w for w in choice.warnings if w not in warnings)
-    return _Screen(choice, final, screen.kept, screen.table, screen.set_aside, [])
-
-
-def _choose_model(opts, design, zone_model, screen, smooth, post, u, warnings):
+def _choose_model(opts, design, zone_model, zscreen, smooth, post, u, problem, warnings):
     """(model columns, posterior, screening, summary keys): the smooth model, or the zone
-    model when asked (model = "zones") or clearly preferred by the evidence ("auto")."""
+    model when asked (model = "zones") or clearly preferred by the evidence ("auto"). With
+    the learned prior each model keeps its own screening and the evidences cover all the
+    readings (model_choice.py); with the fixed prior both are compared on the zone model's
+    kept sensors over one log-alpha grid."""
     if zone_model is None:
         return design, post, smooth, {"model": "smooth"}
     if hasattr(post.averaged, "log_marginal"):
-        # both models with learned priors: evidences integrated over the same hyperpriors
-        zf = zone_model.learned_fit(screen.kept, design.basis, u > 0, NOMINAL_PRECISION_FACTOR,
-                                    post.averaged.log_marginal)
+        zf = zone_model.learned_fit(zscreen.kept, design.basis, u > 0, NOMINAL_PRECISION_FACTOR)
+        var = problem.noise.variance
+        var = np.diag(var) if np.ndim(var) == 2 else var
+        X = np.hstack([problem.G, zone_model.Gz])
+        logz = {"smooth": log_evidence_on_all(post.averaged.log_marginal, smooth.kept, problem.G, problem.t0,
+                                              problem.d, var, post.c, post.C),
+                "zones": log_evidence_on_all(zf.log_evidence["zones"], zscreen.kept, X, problem.t0, problem.d,
+                                             var, zf.c, zf.C)}
+        zf = replace(zf, log_evidence=logz, weights=model_weights(logz))
     else:
-        marginal = zone_model.marginal.subset(np.flatnonzero(screen.kept))
-        alphas = default_alphas(marginal) if opts.strength_method == "evidence" else np.array([screen.choice.alpha])
-        zf = zone_model.fit(screen.kept, alphas)
+        marginal = zone_model.marginal.subset(np.flatnonzero(zscreen.kept))
+        alphas = default_alphas(marginal) if opts.strength_method == "evidence" else np.array([zscreen.choice.alpha])
+        zf = zone_model.fit(zscreen.kept, alphas)
     info = {"model_evidence": zf.log_evidence, "model_weights": zf.weights}
     if zf.edge:
         warnings.append("the zone model's evidence-weighted strength reaches the edge of its grid")
@@ -286,7 +294,7 @@ def _choose_model(opts, design, zone_model, screen, smooth, post, u, warnings):
     if zf.prior is not None:
         warnings[:] = [w for w in warnings if w not in post.averaged.warnings] + list(zf.prior.warnings)
         info["prior"] = zf.prior.description()
-    return zone_model.columns, Posterior(zf.c, zf.C, zf.alpha, None), screen, {"model": "zones", **info}
+    return zone_model.columns, Posterior(zf.c, zf.C, zf.alpha, None), zscreen, {"model": "zones", **info}
 
 
 # ------------------------------------------------------------------------ warnings

@@ -249,12 +249,12 @@ class ZoneModel:
         z = np.linalg.solve(Wz.T @ Wz + np.diag(1.0 / self.s ** 2), Wz.T @ y)
         return float(np.mean((y - Wz @ z) ** 2)) - 1.0
 
-    def learned_fit(self, kept, basis, nominal, nominal_factor, smooth_log_evidence) -> "ZoneFit":
+    def learned_fit(self, kept, basis, nominal, nominal_factor) -> "ZoneFit":
         """Posterior of (c, z) with the remainder's Whittle-Matern prior learned from the data
         (hyperprior.LearnedPrior on the marginal problem: strength, length scale and order
-        averaged with their hyperpriors), moment-matched over the mixture's components; the
-        evidence comparison uses both models' marginal likelihoods integrated over their
-        hyperpriors (`smooth_log_evidence` = the smooth model's LearnedPrior.log_marginal)."""
+        averaged with their hyperpriors), moment-matched over the mixture's components.
+        log_evidence holds {"zones": log p(d_kept | zone model)} integrated over the
+        hyperpriors; the comparison with the smooth model is model_choice's (weights None)."""
         idx = np.flatnonzero(kept)
         lp = learn_prior(self.marginal.subset(idx), basis, nominal=nominal, nominal_factor=nominal_factor,
                          spread=self.remainder_spread(idx))
@@ -274,10 +274,8 @@ class ZoneModel:
         M = np.array(means)
         mean = wk @ M
         cov = sum(covs) / np.sum(ws) + (M - mean).T @ ((M - mean) * wk[:, None])
-        logz = {"smooth": float(smooth_log_evidence), "zones": float(lp.log_marginal)}
-        p_z = 1.0 / (1.0 + math.exp(min(700.0, logz["smooth"] - logz["zones"])))
-        return ZoneFit(mean, cov, float(np.exp(wk @ np.asarray(log_a))), logz,
-                       {"smooth": 1.0 - p_z, "zones": p_z}, False, lp)
+        return ZoneFit(mean, cov, float(np.exp(wk @ np.asarray(log_a))), {"zones": float(lp.log_marginal)},
+                       None, False, lp)
 
 
 def _nearest(design, rd):
