@@ -42,6 +42,7 @@ from .face_grid import display_grid
 from .result import FitResult, Posterior, valid_zones, zone_area
 from .strength import choose_strength, default_alphas
 from .strength_average import StrengthAverage
+from .truncation import tail_covariance
 from .zones import AUTO_THRESHOLD, ZoneModel
 
 #: reduced chi-square above which the readings scatter more than stated (common practice, no source)
@@ -77,6 +78,8 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     ok = np.ones(rd.n, dtype=bool)
     ok[[g.index for g in gross]] = False
     problem = _with_placement(_linear_problem(G, t0, noise, rd, P, u, ok), rd, ev, dG, P, u, ok, opts)
+    if _learned(opts):
+        problem = _with_tail(problem, design, rd, P, u, ok)
     if opts.calibrate:
         design = _calibrated_design(design, rd, problem, P, opts, gross)
         problem = _linear_problem(*design.sensors(rd.r, rd.theta, rd.z), problem.noise, rd, P, u, ok)
@@ -145,6 +148,20 @@ def _with_placement(problem, rd, ev, dG, P, u, ok, opts):
     return _linear_problem(problem.G, problem.t0, var, rd, P, u, ok)
 
 
+def _learned(opts) -> bool:
+    """Is the answer the learned prior's (hyperprior.py)?"""
+    return opts.strength_method == "evidence" and opts.prior == "learned" and not opts.monte_carlo
+
+
+def _with_tail(problem, design, rd, P, u, ok):
+    """The modes the basis leaves out, marginalized into the noise (truncation.py), their
+    variance from a first learned prior on the readings that passed the gross-fault screen."""
+    first = learn_prior(problem.subset(np.flatnonzero(ok)), design.basis, nominal=u > 0,
+                        nominal_factor=NOMINAL_PRECISION_FACTOR)
+    S = problem.noise.covariance + tail_covariance(design, rd, first)
+    return _linear_problem(problem.G, problem.t0, S, rd, P, u, ok)
+
+
 def _truncation_warnings(ev, rd):
     trunc = ev.truncation_error
     if not np.any(trunc > 0.1 * rd.sigma):
@@ -207,7 +224,7 @@ def _posterior(design, rd, screen, P, u, opts, warnings) -> Posterior:
         cal = calibrate(design, rd, screen.kept, final, alpha, P, opts.calibration)
         K = P.size
         return Posterior(cal.coefficients, cal.covariance[:K, :K], alpha, None, cal)
-    if opts.strength_method == "evidence" and opts.prior == "learned" and not opts.monte_carlo:
+    if _learned(opts):
         avg = learn_prior(final, design.basis, nominal=u > 0, nominal_factor=NOMINAL_PRECISION_FACTOR)
         # the fixed prior's strength-grid notes do not apply to the learned prior's answer
         warnings[:] = [w for w in warnings if w not in screen.choice.warnings] + list(avg.warnings)

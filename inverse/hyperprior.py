@@ -187,12 +187,13 @@ class LearnedPrior:
         keep[order[drop]] = False
         keep = keep.reshape(self.weights.shape)
         total = self.weights[keep].sum()
-        self._parts = []
+        self._parts, self._part_combos = [], []
         for j in range(len(self.combos)):
             idx = np.flatnonzero(keep[j])
             if idx.size:
                 self._parts.append((self._problems[j], self.alphas_for(j, self.z[idx]),
                                     self.weights[j, idx] / total))
+                self._part_combos.append(self.combos[j])
 
     # ------------------------------------------------------------------ posterior mixture
     def coefficients(self) -> np.ndarray:
@@ -202,6 +203,10 @@ class LearnedPrior:
     def components(self):
         """The mixture's components: [(prior precision P_i (K,), alphas (n_i,), weights (n_i,))]."""
         return [(pb.prior_diag, a, w) for pb, a, w in self._parts]
+
+    def hyperparameters(self):
+        """[((length [m], order), alphas (n_i,), weights (n_i,))] of the mixture's components."""
+        return [(ls, a, w) for ls, (_, a, w) in zip(self._part_combos, self._parts)]
 
     def posterior_covariance(self) -> np.ndarray:
         """Mixture covariance sum_i w_i (C_i + c_i c_i^T) - m m^T, (K, K)."""

@@ -33,18 +33,19 @@ FAST = ("platen_flux", "top_temperature", "side_flux", "calibrated_convection", 
         "wall_cooled_end")
 
 # Goals not met by the fit (scale 0.5, seed 0): the figure measured with the learned prior,
-# gross-fault and model-first screening and the unseen-wall corner columns.  Met since the
-# suite was written: platen coverage (0.76 -> 0.90), chuck coverage and zones (0.02 -> 1.00,
-# 0/4 -> 4/4), every cooled-end wall goal (coverage 0.44 -> 0.88, power +12 -> -0.6 sd, no
-# healthy sensor set aside), pooled coverage (0.70 -> 0.96).  Worse: side_flux relative RMS
-# (0.46 -> 0.56) and power (+0.1 -> +2.0 sd).
+# the left-out modes marginalized into the noise, gross-fault and model-first screening and
+# the unseen-wall corner columns.  Met since the suite was written: platen coverage
+# (0.76 -> 0.86) and power (+2.5 -> +1.0 sd, with the left-out modes), chuck coverage and
+# zones (0.02 -> 1.00, 0/4 -> 4/4), every cooled-end wall goal (coverage 0.44 -> 0.89, power
+# +12 -> -0.4 sd, no healthy sensor set aside), pooled coverage (0.70 -> 0.95).  Worse:
+# side_flux relative RMS (0.46 -> 0.57) and power (+0.1 -> +2.1 sd).
 NOT_MET = {
-    ("platen_flux", "rel_rms"): "0.94", ("platen_flux", "sharpness"): "1.79",
-    ("platen_flux", "zones"): "0 of 3 (-2.5, -2.7, -2.9 sd)", ("platen_flux", "power"): "+2.4 sd",
-    ("top_temperature", "sharpness"): "1.28", ("top_temperature", "zones"): "5 of 6 (contact ring -3.4 sd)",
-    ("side_flux", "rel_rms"): "0.56", ("side_flux", "sharpness"): "2.78", ("side_flux", "power"): "+2.0 sd",
-    ("calibrated_convection", "rel_rms"): "0.51", ("calibrated_convection", "sharpness"): "1.52",
-    ("calibrated_convection", "zones"): "0 of 2 (-2.4, +2.6 sd)",
+    ("platen_flux", "rel_rms"): "0.94", ("platen_flux", "sharpness"): "1.50",
+    ("platen_flux", "zones"): "0 of 3 (-2.5, -2.8, -2.8 sd)",
+    ("top_temperature", "sharpness"): "1.33", ("top_temperature", "zones"): "5 of 6 (contact ring -3.4 sd)",
+    ("side_flux", "rel_rms"): "0.57", ("side_flux", "sharpness"): "2.75", ("side_flux", "power"): "+2.1 sd",
+    ("calibrated_convection", "rel_rms"): "0.55", ("calibrated_convection", "sharpness"): "1.65",
+    ("calibrated_convection", "zones"): "0 of 2 (-2.5, +2.7 sd)",
     ("chuck_class2", "rel_rms"): "1.06",
 }
 

@@ -1,0 +1,76 @@
+"""The modes the basis leaves out, marginalized into the noise.
+
+The unknown face's basis keeps `harmonics` x `terms` eigenfunctions; a sensor a few
+millimetres from the face also sees the higher modes of any sharp feature (a heater edge),
+and a fit that assumes those modes are zero explains their signal with the kept ones:
+biased zone means and power with confident bands, and healthy sensors that look broken.
+Under the prior family of the fit (hyperprior.py) the left-out modes k are independent,
+
+    c_k ~ N(0, 1 / (alpha P_k(l, s))),   P_k = (N_k / A) (1 + l^2 ev_k)^s,
+
+so their signal at the sensors is Gaussian with covariance
+
+    S_tail = G_tail diag(v) G_tail^T,   v_k = E[1 / (alpha P_k(l, s))]  [K^2],
+
+the expectation over the hyperparameters' posterior. The fit adds S_tail to the noise.
+G_tail: the fields of an enlarged basis's eigenfunctions that the fit's basis does not keep,
+up to the modes that decay below TAIL_DECAY between the face and the nearest sensor.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .hyperprior import matern_precision
+
+#: left-out modes are kept in S_tail down to exp(-kappa d_min) = TAIL_DECAY at the nearest sensor
+TAIL_DECAY = 1e-3
+#: caps of the enlarged basis (harmonics, terms)
+MAX_HARMONICS, MAX_TERMS = 40, 120
+
+
+def nearest_distance(design, rd) -> float:
+    """Distance [m] from the unknown face to the nearest sensor."""
+    cyl = design.cylinder
+    if design.face_name == "side":
+        d = cyl.radius - rd.r
+    else:
+        d = np.abs(rd.z - (0.0 if design.face_name == "bottom" else cyl.height))
+    return float(np.min(d))
+
+
+def enlarged_size(design, nearest, decay, harmonics=True):
+    """(harmonics, terms) of a basis holding every mode with exp(-kappa d_min) >= decay,
+    kappa = the mode's decay rate into the part [1/m]; at least the design's own size,
+    at most (MAX_HARMONICS, MAX_TERMS). harmonics=False keeps m = 0 only."""
+    cyl = design.cylinder
+    span = cyl.height if design.face_name == "side" else cyl.radius
+    if not math.isfinite(span):
+        span = cyl.radius
+    d = max(float(nearest), 1e-3 * cyl.radius)
+    kappa = -math.log(decay) / d
+    terms = int(min(MAX_TERMS, max(design.terms, math.ceil(kappa * span / math.pi) + 2)))
+    h = int(min(MAX_HARMONICS, max(design.harmonics, math.ceil(kappa * cyl.radius)))) if harmonics else 0
+    return h, terms
+
+
+def left_out(design, big) -> np.ndarray:
+    """Mask over `big`'s eigenfunction columns of the modes `design.basis` does not hold."""
+    ne = big.n_eigen
+    return (big.m[:ne] > design.harmonics) | (big.n_index[:ne] >= design.terms)
+
+
+def tail_covariance(design, rd, prior) -> np.ndarray:
+    """S_tail (n, n) [K^2] at the sensors of `rd` for the learned prior `prior`
+    (hyperprior.LearnedPrior): the left-out modes' variance averaged over its components."""
+    big = design.model.basis(*enlarged_size(design, nearest_distance(design, rd), TAIL_DECAY))
+    mask = left_out(design, big)
+    if not mask.any():
+        return np.zeros((rd.n, rd.n))
+    G = big.fields(rd.r, rd.theta, rd.z)[0][:, :big.n_eigen][:, mask]
+    v = np.zeros(int(mask.sum()))
+    for (length, order), alphas, w in prior.hyperparameters():
+        v += float(w @ (1.0 / alphas)) / matern_precision(big, length, order)[:big.n_eigen][mask]
+    return (G * v) @ G.T

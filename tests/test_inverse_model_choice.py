@@ -1,0 +1,40 @@
+"""Evidence of a model on all readings when it set some aside (inverse.model_choice)."""
+
+import math
+
+import numpy as np
+import pytest
+from scipy.stats import norm
+
+from heatsight.inverse.model_choice import (EPSILON, OUTLIER_SD, log_evidence_on_all, model_weights,
+                                            set_aside_log_likelihood)
+
+
+def test_set_aside_term_is_the_contamination_mixture():
+    r, v = np.array([0.3, -7.0]), np.array([0.04, 0.09])
+    ref = sum(math.log(EPSILON * norm.pdf(x, 0, math.sqrt(s + OUTLIER_SD ** 2))      # scipy.stats reference
+                       + (1 - EPSILON) * norm.pdf(x, 0, math.sqrt(s))) for x, s in zip(r, v))
+    assert set_aside_log_likelihood(r, v) == pytest.approx(ref, rel=1e-12)
+
+
+def test_all_kept_adds_only_the_healthy_prior():
+    n = 6
+    X = np.ones((n, 2))
+    out = log_evidence_on_all(-3.5, np.ones(n, bool), X, np.zeros(n), np.zeros(n), np.ones(n), np.zeros(2), np.eye(2))
+    assert out == pytest.approx(-3.5 + n * math.log1p(-EPSILON), rel=1e-14)
+
+
+def test_a_reading_the_model_cannot_predict_costs_the_outlier_density():
+    # set aside and 8 predictive sd off its prediction: the broken branch carries it, so the
+    # model pays about log(eps N(r; 0, v + tau^2)), far below a reading it predicts
+    X, c, C, var = np.ones((1, 1)), np.zeros(1), np.zeros((1, 1)), np.array([0.01])
+    far = log_evidence_on_all(0.0, np.zeros(1, bool), X, np.zeros(1), np.array([0.8]), var, c, C)
+    near = log_evidence_on_all(0.0, np.zeros(1, bool), X, np.zeros(1), np.array([0.0]), var, c, C)
+    outlier = math.log(EPSILON) + norm.logpdf(0.8, 0, math.sqrt(0.01 + OUTLIER_SD ** 2))  # scipy.stats reference
+    assert far == pytest.approx(outlier, abs=1e-6)
+    assert near - far > 5.0
+
+
+def test_weights_sum_to_one_and_follow_the_evidence():
+    w = model_weights({"smooth": -10.0, "zones": -10.0 + math.log(3.0)})
+    assert w["zones"] == pytest.approx(0.75) and sum(w.values()) == pytest.approx(1.0)

@@ -1,0 +1,76 @@
+"""Left-out modes marginalized into the noise (inverse.truncation).
+
+The tail covariance is checked against its definition computed another way: the
+prior-predictive covariance of the readings under an enlarged basis minus that under the
+fit's basis, at one set of hyperparameters (the eigenfunctions of the two bases agree, so
+the difference is exactly the left-out modes' share).  The physics behind the decay check is
+the textbook one: a face mode of wavenumber kappa decays as exp(-kappa z) into the part.
+"""
+
+import numpy as np
+import pytest
+
+import heatsight.forward as fw
+from heatsight.inverse import SensorReadings
+from heatsight.inverse.design import Design
+from heatsight.inverse.hyperprior import matern_precision
+from heatsight.inverse.truncation import TAIL_DECAY, enlarged_size, left_out, nearest_distance, tail_covariance
+
+A, L, K = 0.08, 0.03, 20.0
+
+
+class OneComponent:
+    """A stand-in for LearnedPrior with a single (l, s, alpha) component."""
+
+    def __init__(self, length, order, alpha):
+        self.h = [((length, order), np.array([alpha]), np.array([1.0]))]
+
+    def hyperparameters(self):
+        return self.h
+
+
+def design_and_readings(depths):
+    cyl = fw.Cylinder(A, L, K)
+    faces = {"bottom": fw.UnknownFlux(), "top": fw.Convection(50.0, 300.0), "side": fw.Insulated()}
+    design = Design(cyl, faces, 1e-8, 2, 4)
+    n = len(depths)
+    r = np.linspace(0.01, 0.06, n)
+    th = np.linspace(0.3, 5.0, n)
+    rd = SensorReadings([f"s{i}" for i in range(n)], r, th, np.asarray(depths, float), np.full(n, 300.0),
+                        np.full(n, 0.1), np.zeros(n), np.zeros(n))
+    return design, rd
+
+
+def test_tail_equals_difference_of_prior_predictive_covariances():
+    design, rd = design_and_readings([0.004, 0.006, 0.01, 0.015])
+    length, order, alpha = 0.01, 1.5, 2e-7
+    S = tail_covariance(design, rd, OneComponent(length, order, alpha))
+    big = design.model.basis(*enlarged_size(design, nearest_distance(design, rd), TAIL_DECAY))
+    ne = big.n_eigen
+    Gb = big.fields(rd.r, rd.theta, rd.z)[0][:, :ne]
+    Pb = matern_precision(big, length, order)[:ne]
+    keep = ~left_out(design, big)
+    full = (Gb / (alpha * Pb)) @ Gb.T
+    kept = (Gb[:, keep] / (alpha * Pb[keep])) @ Gb[:, keep].T
+    np.testing.assert_allclose(S, full - kept, rtol=1e-9, atol=1e-12 * np.abs(full).max())
+    # the kept modes of the enlarged basis are the fit's own columns (same fields at the sensors)
+    G = design.basis.fields(rd.r, rd.theta, rd.z)[0][:, :design.basis.n_eigen]
+    assert keep.sum() == G.shape[1]
+    assert np.all(np.linalg.eigvalsh(S) >= -1e-12 * np.abs(S).max())
+
+
+def test_tail_fades_with_depth():
+    # every left-out mode decays into the part (exp(-kappa z) away from the far face), so at one
+    # (r, theta) the tail's variance falls as the sensor moves away from the face
+    design, rd = design_and_readings([0.002, 0.005, 0.01, 0.02])
+    rd.r[:], rd.theta[:] = 0.05, 1.0
+    v = np.diag(tail_covariance(design, rd, OneComponent(0.005, 1.0, 1e-7)))
+    assert v[0] > 0 and np.all(np.diff(v) < 0)
+    assert v[-1] < 0.5 * v[0]
+
+
+def test_enlarged_size_grows_as_the_sensor_nears_the_face():
+    design, _ = design_and_readings([0.01])
+    near, far = enlarged_size(design, 0.002, TAIL_DECAY), enlarged_size(design, 0.02, TAIL_DECAY)
+    assert near[0] >= far[0] and near[1] > far[1]
+    assert far[1] >= design.terms and far[0] >= design.harmonics
