@@ -18,7 +18,7 @@ _EXPORTS = {
     "LearnedPrior": "hyperprior", "learn_prior": "hyperprior",
     "unresolved_warning": "resolution",
     "Z95": "bands",
-    "fit": "fit", "prior_diagonal": "design",
+    "fit": "fitting", "prior_diagonal": "design",
     "FitOptions": "problem", "Problem": "problem", "Zone": "problem",
     "SensorReadings": "readings",
     "FitResult": "result", "Posterior": "result",

@@ -70,7 +70,7 @@ class FitOptions:
     common_offset_sd: float | None = None
     calibrate: tuple = ()
     calibration_priors: tuple = ()
-    model: str = "smooth"
+    model: str = "auto"
     prior: str = "learned"
     threshold: float | None = None
     solver: str = "auto"

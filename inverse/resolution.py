@@ -80,7 +80,8 @@ def unresolved_warning(posterior, problem, functionals, face: str, offset_sd=Non
     parts = []
     if unresolved:
         parts.append("these readings cannot resolve " + ", ".join(unresolved) +
-                     f" (posterior sd over {UNRESOLVED_RATIO:.0%} of the prior sd, or set by the hyperprior)")
+                     f" (the readings narrow its uncertainty by less than {1 - UNRESOLVED_RATIO:.0%}, or only "
+                     "the assumptions bound it)")
     if offsets:
         parts.append(offsets)
     return ("; ".join(parts) + ". The bands there are wide for that reason. What would help: calibrating "

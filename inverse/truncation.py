@@ -26,9 +26,12 @@ import numpy as np
 from .hyperprior import matern_precision
 
 #: left-out modes are kept in S_tail down to exp(-kappa d_min) = TAIL_DECAY at the nearest sensor
-TAIL_DECAY = 1e-3
-#: caps of the enlarged basis (harmonics, terms)
-MAX_HARMONICS, MAX_TERMS = 40, 120
+#: (a mode's variance then counts 1e-4 of its face value at that sensor)
+TAIL_DECAY = 1e-2
+#: caps of the enlarged basis (harmonics, terms): every root of the enlarged basis is found
+#: anew in each process, and 24 x 64 keeps that near 0.5 s; a sensor closer than about
+#: radius / 15 to the face sees modes beyond the caps, which S_tail then leaves out
+MAX_HARMONICS, MAX_TERMS = 24, 64
 
 
 def nearest_distance(design, rd) -> float:

@@ -30,8 +30,10 @@ from scipy.special import logsumexp
 
 from .errors import InverseError
 from .face_grid import segments
+from .design import NOMINAL_PRECISION_FACTOR
 from .hyperprior import learn_prior
 from .linear_gaussian import LinearGaussianProblem
+from .truncation import tail_covariance
 
 #: zone level prior sd = this factor x the face's level scale (weak; common practice, no source)
 ZONE_PRIOR_FACTOR = 10.0
@@ -189,12 +191,27 @@ class ZoneModel:
         self.columns = ZoneDesign(design, zones, _nearest(design, rd))
         self.Gz = self.columns.sensors(rd.r, rd.theta, rd.z)[0][:, design.size:]
         self.mu, self.s = zone_prior(zones, level_scale, areas)
-        self.smooth = smooth
         self.P = np.asarray(remainder_prior, float)
+        self._set_smooth(smooth)
+
+    def _set_smooth(self, smooth):
+        """Readings, noise and columns of the smooth part; the marginal problem from them."""
+        self.smooth = smooth
         S = smooth.noise.covariance
         self.marginal = LinearGaussianProblem(smooth.G, smooth.d - self.Gz @ self.mu, smooth.t0,
                                               S + (self.Gz * self.s ** 2) @ self.Gz.T, self.P,
-                                              np.zeros(design.size))
+                                              np.zeros(self.P.size))
+
+    def add_tail(self, design, rd, nominal, ok):
+        """The remainder's left-out modes marginalized into the noise (truncation.py), their
+        variance from a first learned remainder prior on the readings `ok`: the zones carry
+        the sharp structure, so the remainder's tail is its own, not the smooth model's."""
+        idx = np.flatnonzero(ok)
+        first = learn_prior(self.marginal.subset(idx), design.basis, nominal=nominal,
+                            nominal_factor=NOMINAL_PRECISION_FACTOR, spread=self.remainder_spread(idx))
+        sm = self.smooth
+        self._set_smooth(LinearGaussianProblem(sm.G, sm.d, sm.t0, sm.noise.covariance
+                                               + tail_covariance(design, rd, first), sm.prior_diag, sm.c0))
 
     def fit(self, kept, alphas) -> ZoneFit:
         """Posterior of (c, z) on the kept sensors, averaged over the log-alpha grid `alphas`

@@ -142,11 +142,13 @@ def test_evidence_prefers_zones_on_ring_heaters(readings):
     rd, power = readings
     with threadpool_limits(1):
         auto = inverse.fit(case(), rd, model="auto", grid=(12, 24))
-        smooth = inverse.fit(case(), rd, grid=(12, 24))
+        smooth = inverse.fit(case(), rd, model="smooth", grid=(12, 24))
+        default = inverse.fit(case(), rd, grid=(12, 24))
     print(f"\nlog evidence {auto.summary['model_evidence']}")
     assert smooth.summary["model"] == "smooth" and "model_weights" not in smooth.summary
     assert auto.summary["model"] == "zones"
     assert auto.summary["model_weights"]["zones"] >= 0.95
+    assert default.summary["model"] == "zones"           # "auto" is the default
 
 
 def test_zone_columns_match_fem_fields():

@@ -75,7 +75,8 @@ def test_verdict_names_the_weak_zone_and_the_faulty_sensor(demo, truth):
     assert "set aside" in said and "higher than the other sensors predict" in said
     gap = float(re.search(r"reads ([0-9.]+) K higher", said).group(1))
     assert abs(gap - 6.0) < 1.0                                   # truth.json: TC19 reads 6 K high
-    assert "818 ± 1.6 W (95 %)" in text or re.search(r"\b81[6-9] ± [0-9.]+ W \(95 %\)", text)
+    power, half = (float(x) for x in re.search(r"\b([0-9.]+) ± ([0-9.]+) W \(95 %\)", text).groups())
+    assert abs(power - truth["total_power_W"]) <= half                # scikit-fem truth inside the 95 % interval
 
 
 def test_verdict_is_the_first_text_after_the_title(demo):
@@ -272,4 +273,6 @@ def test_extremes_stand_in_for_zones(demo):
     s = copy.deepcopy(demo.raw.summary)
     s["zones"] = []
     first = verdict.verdict(dataclasses.replace(demo.raw, summary=s))[0]
-    assert first.startswith("The lowest value is ") and "(95 %) at r = 150.0 mm, θ = 145°" in first
+    assert first.startswith("The lowest value is ") and "(95 %) at r = 150.0 mm, θ = " in first
+    angle = float(re.search(r"at r = 150.0 mm, θ = ([0-9.]+)°", first).group(1))
+    assert abs(angle - 150.0) <= 30.0      # truth.json: the weak sector is centred at 150 deg

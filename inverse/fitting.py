@@ -77,16 +77,17 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     gross = [] if opts.keep_all_sensors else gross_faults(rd.temperature - t0, G @ u, noise, rd.names)
     ok = np.ones(rd.n, dtype=bool)
     ok[[g.index for g in gross]] = False
-    problem = _with_placement(_linear_problem(G, t0, noise, rd, P, u, ok), rd, ev, dG, P, u, ok, opts)
-    if _learned(opts):
-        problem = _with_tail(problem, design, rd, P, u, ok)
+    base = _with_placement(_linear_problem(G, t0, noise, rd, P, u, ok), rd, ev, dG, P, u, ok, opts)
+    problem = _with_tail(base, design, rd, P, u, ok) if _learned(opts) else base
     if opts.calibrate:
         design = _calibrated_design(design, rd, problem, P, opts, gross)
         problem = _linear_problem(*design.sensors(rd.r, rd.theta, rd.z), problem.noise, rd, P, u, ok)
 
     # each model screens the sensors itself: a sensor one model cannot explain may be
     # healthy under the other (model_choice.py compares them on all the readings)
-    zone_model = _zone_model(spec, design, rd, problem, warnings)
+    zone_model = _zone_model(spec, design, rd, base, warnings)
+    if zone_model is not None and _learned(opts):
+        zone_model.add_tail(design, rd, u > 0, ok)
     smooth = _screen(problem, rd, opts, gross)
     zscreen = None if zone_model is None else _screen(zone_model.marginal, rd, opts, gross)
     post = _posterior(design, rd, smooth, P, u, opts, warnings)
@@ -255,13 +256,13 @@ def _zone_model(spec, design, rd, problem, warnings):
         return None
     cyl = spec.cylinder
     zones = [z for z in valid_zones(spec.zones, design.face_name, cyl, []) if hasattr(z, "indicator")]
+    # "auto" (the default) quietly stays smooth where the zone model cannot be asked
     if not zones:
-        warnings.append(f"model = {opts.model!r} needs zones declared on the {design.face_name} face "
-                        "(with r/theta or theta/z ranges); the smooth model is used")
+        if opts.model == "zones":
+            warnings.append(f"model = 'zones' needs zones declared on the {design.face_name} face "
+                            "(with r/theta or theta/z ranges); the smooth model is used")
         return None
     if opts.calibrate:
-        warnings.append("the zone model is not combined with calibrated face parameters; the smooth "
-                        "model is used")
         return None
     areas = [zone_area(z, design.face_name, cyl.radius, cyl.height) for z in zones]
     pts = display_grid(design.face_name, cyl.radius, cyl.height, 11, 24)
@@ -284,13 +285,12 @@ def _choose_model(opts, design, zone_model, zscreen, smooth, post, u, problem, w
         return design, post, smooth, {"model": "smooth"}
     if hasattr(post.averaged, "log_marginal"):
         zf = zone_model.learned_fit(zscreen.kept, design.basis, u > 0, NOMINAL_PRECISION_FACTOR)
-        var = problem.noise.variance
-        var = np.diag(var) if np.ndim(var) == 2 else var
+        var_s, var_z = (np.diag(pb.noise.covariance) for pb in (problem, zone_model.smooth))
         X = np.hstack([problem.G, zone_model.Gz])
         logz = {"smooth": log_evidence_on_all(post.averaged.log_marginal, smooth.kept, problem.G, problem.t0,
-                                              problem.d, var, post.c, post.C),
+                                              problem.d, var_s, post.c, post.C),
                 "zones": log_evidence_on_all(zf.log_evidence["zones"], zscreen.kept, X, problem.t0, problem.d,
-                                             var, zf.c, zf.C)}
+                                             var_z, zf.c, zf.C)}
         zf = replace(zf, log_evidence=logz, weights=model_weights(logz))
     else:
         marginal = zone_model.marginal.subset(np.flatnonzero(zscreen.kept))
@@ -299,10 +299,8 @@ def _choose_model(opts, design, zone_model, zscreen, smooth, post, u, problem, w
     info = {"model_evidence": zf.log_evidence, "model_weights": zf.weights}
     if zf.edge:
         warnings.append("the zone model's evidence-weighted strength reaches the edge of its grid")
+    # "auto": the zone model only when the evidence clearly prefers it (summary: model_weights)
     use_zones = opts.model == "zones" or zf.weights["zones"] >= AUTO_THRESHOLD
-    if opts.model == "auto" and not use_zones:
-        warnings.append(f"the evidence does not clearly prefer the zone model (probability "
-                        f"{zf.weights['zones']:.2f}); the smooth model is used")
     if not use_zones:
         return design, post, smooth, {"model": "smooth", **info}
     if design.quantity == "temperature" and any(z.edge <= 0 for z in zone_model.columns.zones):
