@@ -11,8 +11,10 @@ pandas.read_csv(chunksize=...) (`LogReader`), each chunk validated as it arrives
 - refused (InputError naming the file, line and column): times that are missing, not
   numbers / timestamps, repeated (a duplicated timestamp) or going back (an unsorted log,
   also across chunk boundaries); text in a sensor column that is not a number (empty
-  cells, NaN, N/A and inf mean "no reading"); ragged lines; a log sharing no sensor with
-  the layout; a log without a single valid reading.
+  cells, NaN, N/A and inf mean "no reading"); ragged lines (more fields than the header,
+  unless the extra ones are empty; or fewer: a missing reading keeps its empty field, so a
+  cut-off line is not read as missing cells); a log sharing no sensor with the layout; a
+  log without a single valid reading.
 - kept with a warning: a column that is not a sensor of the layout (loggers record other
   channels; it is ignored), a layout sensor missing from the log, missing readings, readings
   at or below absolute zero or outside the thermocouple type's usable range (open-circuit
@@ -25,6 +27,7 @@ statistics, so memory stays bounded by one chunk plus one window.
 
 from __future__ import annotations
 
+import csv
 import io
 import re
 from dataclasses import dataclass
@@ -108,13 +111,14 @@ class LogReader:
         source = cols.path if fmt.converted is None else io.StringIO(fmt.converted)
         # one spare column: a row with more fields than the header is caught, not shifted
         width = len(cols.headers)
+        self._widths = RowWidths(cols)
         try:
             reader = pd.read_csv(source, header=None, skiprows=cols.header_line, names=list(range(width + 1)),
                                  index_col=False, skip_blank_lines=False, skipinitialspace=True,
                                  chunksize=self.chunk_rows, encoding=fmt.encoding,
                                  sep=fmt.sep if fmt.converted is None else ",",
                                  decimal=fmt.decimal if fmt.converted is None else ".", engine="c")
-            with reader:
+            with reader, self._widths:
                 for frame in reader:
                     chunk = self._chunk(frame)
                     if chunk is not None:
@@ -154,6 +158,7 @@ class LogReader:
             raise InputError(f"malformed CSV: line {int(lines[i])} has more fields than the header "
                              f"({len(self.cols.headers)}: {', '.join(self.cols.headers)}); every line needs one "
                              f"field per column (a record-number column needs a header too)", file=self.cols.path)
+        self._check_short(frame, lines)
         t = self._times(frame[0], lines)
         self._check_order(t, lines)
         values = np.empty((len(frame), self.cols.n))
@@ -164,6 +169,21 @@ class LogReader:
         self._note_gaps(t, lines)
         self.rows += t.size
         return LogChunk(t, values, lines)
+
+    def _check_short(self, frame: pd.DataFrame, lines) -> None:
+        """Refuse a row with fewer fields than the header (pandas would fill it with missing
+        cells).  Only rows whose last column is empty are looked at in the file's text."""
+        width = len(self.cols.headers)
+        candidates = np.flatnonzero(frame[width - 1].isna().to_numpy())
+        if candidates.size == 0:
+            return
+        for line in lines[candidates]:
+            n = self._widths.fields(int(line))
+            if n < width:
+                raise InputError(f"malformed CSV: line {int(line)} has {n} field{'' if n == 1 else 's'} but the "
+                                 f"header has {width} ({', '.join(self.cols.headers)}); every line needs one "
+                                 f"field per column (leave a field empty for a missing reading, but keep "
+                                 f"its separator)", file=self.cols.path)
 
     def _times(self, series: pd.Series, lines) -> np.ndarray:
         cols = self.cols
@@ -333,6 +353,48 @@ class LogReader:
         hh = np.char.zfill((a // 3600).astype(str), 2)
         mm = np.char.zfill((a % 3600 // 60).astype(str), 2)
         return np.char.add(np.char.add(np.char.add(np.char.add(text, sign), hh), ":"), mm)
+
+
+class RowWidths:
+    """Fields per line of a log's text, for the few lines whose last column pandas left
+    empty (an empty field and a missing one look alike there).  Reads the file once, forward
+    only, alongside the chunks (a context manager closing the file)."""
+
+    def __init__(self, columns: LogColumns):
+        self.cols = columns
+        self.fh = None
+        self.line = 0          # lines consumed so far
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        if self.fh is not None:
+            self.fh.close()
+        return False
+
+    def _open(self):
+        fmt = self.cols.fmt
+        if fmt.converted is not None:
+            return io.StringIO(fmt.converted, newline=None)
+        return open(self.cols.path, encoding=fmt.encoding, errors="replace", newline=None)
+
+    def fields(self, line: int) -> int:
+        """Number of fields of file line `line` (1-based; lines are asked in increasing order)."""
+        if self.fh is None:
+            self.fh = self._open()
+        text = ""
+        while self.line < line:
+            text = self.fh.readline()
+            if text == "":
+                return 0
+            self.line += 1
+        fmt = self.cols.fmt
+        sep = fmt.sep if fmt.converted is None else ","
+        text = text.rstrip("\r\n")
+        if '"' not in text:
+            return text.count(sep) + 1
+        return len(next(csv.reader([text], delimiter=sep, skipinitialspace=True), []))
 
 
 def read_whole_log(path, layout=None, chunk_rows: int = DEFAULT_CHUNK_ROWS):

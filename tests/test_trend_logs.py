@@ -86,6 +86,12 @@ def test_numeric_times_with_a_unit(tmp_path, layout):
     ("time,TC1\n0,80\n10,80\n20,80\n,80\n", "line 5, column 'time': missing time"),
     ("time,TC1\n0,80\n10,80\nlater,80\n", "line 4, column 'time': 'later' is not a number of seconds"),
     ("time,TC1\n0,80\n10,80,5\n", "malformed CSV"),
+    # a row shorter than the header is refused, not read as missing cells (issue 10, audit 2)
+    ("time,TC1,TC2\n0,80,81\n10,80,81\n20,80,81\n30,80\n", "line 5 has 2 fields but the header has 3"),
+    ("time,TC1,TC2\r\n0,80,81\r\n\r\n10,80,\r\n20,80\r\n", "line 5 has 2 fields but the header has 3"),
+    ('time,TC1,TC2\n0,"80",81\n10,"8,0"\n', "line 3 has 2 fields but the header has 3"),
+    ("time;TC1;TC2\n0;80,5;81\n10;80,5;\n20;80,5\n", "line 4 has 2 fields but the header has 3"),
+    ("time,TC1,TC2\n0,80,81\n10,80,81\n20\n", "line 4 has 1 field but the header has 3"),
     ("time,TC1\n2024-01-01T00:00:00,80\n2024-01-01T00:00:10+01:00,80\n", "mix times with and without"),
     ("time [s],TC1\n2024-01-01T00:00:00,80\n", "timestamps need no unit"),
     ("time,AMB\n0,20\n", "none of the log's columns (AMB) is a sensor of the layout"),
