@@ -1,6 +1,7 @@
 """The one log reader: logged readings read in chunks, so that a log larger than memory
-can be processed.  `trend` streams it; `check` (through `tables.read_log`) reads a whole
-log with the same code (`read_whole_log`), so both accept and refuse the same logs.
+can be processed.  `trend` streams it; `check` streams it too keeping only counts
+(`summarize_log`), and `tables.read_log` reads a whole log for the Python API with the same
+code (`read_whole_log`), so all accept and refuse the same logs.
 
 A log is a CSV file: a time column (seconds, another time unit in brackets such as
 ``time [min]``, or ISO 8601 timestamps; the first row's time decides which), then one column
@@ -395,6 +396,38 @@ class RowWidths:
         if '"' not in text:
             return text.count(sep) + 1
         return len(next(csv.reader([text], delimiter=sep, skipinitialspace=True), []))
+
+
+#: rows per chunk when `check` streams a log (a smaller peak; the whole log is still read)
+CHECK_CHUNK_ROWS = 20_000
+
+
+@dataclass
+class LogSummary:
+    """What `check` says about a log, gathered while streaming it: rows, the first and last
+    time [s since the first row], the sensors found and the reader's warnings."""
+
+    path: object
+    rows: int
+    first: float
+    last: float
+    sensors: list
+    warnings: list
+
+
+def summarize_log(path, layout=None, chunk_rows: int | None = None) -> LogSummary:
+    """Stream a log through the one reader keeping only counts, so `check` accepts and
+    refuses exactly what `trend` does with memory that does not grow with the log (chunks of
+    CHECK_CHUNK_ROWS rows unless `chunk_rows`)."""
+    columns = open_log(path, layout)
+    reader = LogReader(columns, layout, chunk_rows or CHECK_CHUNK_ROWS)
+    first = last = 0.0
+    for i, chunk in enumerate(reader):
+        if i == 0:
+            first = float(chunk.times[0])
+        last = float(chunk.times[-1])
+    return LogSummary(columns.path, reader.rows, first, last, list(columns.sensors),
+                      columns.warnings + reader.warnings())
 
 
 def read_whole_log(path, layout=None, chunk_rows: int = DEFAULT_CHUNK_ROWS):
