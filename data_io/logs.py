@@ -30,6 +30,7 @@ from __future__ import annotations
 
 import csv
 import io
+import itertools
 import re
 from dataclasses import dataclass
 
@@ -178,13 +179,13 @@ class LogReader:
         candidates = np.flatnonzero(frame[width - 1].isna().to_numpy())
         if candidates.size == 0:
             return
-        for line in lines[candidates]:
-            n = self._widths.fields(int(line))
-            if n < width:
-                raise InputError(f"malformed CSV: line {int(line)} has {n} field{'' if n == 1 else 's'} but the "
-                                 f"header has {width} ({', '.join(self.cols.headers)}); every line needs one "
-                                 f"field per column (leave a field empty for a missing reading, but keep "
-                                 f"its separator)", file=self.cols.path)
+        short = self._widths.first_short(lines[candidates], width)
+        if short is not None:
+            line, n = short
+            raise InputError(f"malformed CSV: line {line} has {n} field{'' if n == 1 else 's'} but the "
+                             f"header has {width} ({', '.join(self.cols.headers)}); every line needs one "
+                             f"field per column (leave a field empty for a missing reading, but keep "
+                             f"its separator)", file=self.cols.path)
 
     def _times(self, series: pd.Series, lines) -> np.ndarray:
         cols = self.cols
@@ -361,6 +362,8 @@ class RowWidths:
     empty (an empty field and a missing one look alike there).  Reads the file once, forward
     only, alongside the chunks (a context manager closing the file)."""
 
+    BLOCK_LINES = 10_000
+
     def __init__(self, columns: LogColumns):
         self.cols = columns
         self.fh = None
@@ -380,22 +383,29 @@ class RowWidths:
             return io.StringIO(fmt.converted, newline=None)
         return open(self.cols.path, encoding=fmt.encoding, errors="replace", newline=None)
 
-    def fields(self, line: int) -> int:
-        """Number of fields of file line `line` (1-based; lines are asked in increasing order)."""
+    def first_short(self, lines, width: int):
+        """(line, fields) of the first of `lines` (increasing file line numbers, 1-based)
+        with fewer than `width` fields, or None; the text is read in blocks of BLOCK_LINES."""
         if self.fh is None:
             self.fh = self._open()
-        text = ""
-        while self.line < line:
-            text = self.fh.readline()
-            if text == "":
-                return 0
-            self.line += 1
         fmt = self.cols.fmt
         sep = fmt.sep if fmt.converted is None else ","
-        text = text.rstrip("\r\n")
-        if '"' not in text:
-            return text.count(sep) + 1
-        return len(next(csv.reader([text], delimiter=sep, skipinitialspace=True), []))
+        wanted = [int(x) for x in lines]
+        i = 0
+        while i < len(wanted):
+            base = self.line
+            block = list(itertools.islice(self.fh, min(wanted[-1], base + self.BLOCK_LINES) - base))
+            if not block:          # (the text ended first: nothing to refuse on)
+                return None
+            self.line += len(block)
+            while i < len(wanted) and wanted[i] <= self.line:
+                text = block[wanted[i] - base - 1]
+                n = text.count(sep) + 1 if '"' not in text else \
+                    len(next(csv.reader([text.rstrip("\n")], delimiter=sep, skipinitialspace=True), []))
+                if n < width:
+                    return wanted[i], n
+                i += 1
+        return None
 
 
 #: rows per chunk when `check` streams a log (a smaller peak; the whole log is still read)

@@ -156,3 +156,21 @@ def test_fast_writer_round_trips():
     assert isinstance(text, bytes) and text.count(b"\n") == 500 and set(back[len(cols)]) == {"ok"}
     lines = text.split(b"\n")
     assert lines[0].split(b",")[5] == b"" and lines[1].split(b",")[5] == b"0"
+
+
+@pytest.mark.parametrize("block_lines", [1, 2, 5, 10_000])
+def test_short_row_found_across_text_blocks(tmp_path, layout, monkeypatch, block_lines):
+    """Rows whose last column is empty are counted in the file's text, read in blocks: a row
+    cut short is found wherever the blocks and chunks fall, and empty last fields that keep
+    their separator are missing readings."""
+    from heatsight.data_io.logs import RowWidths
+
+    monkeypatch.setattr(RowWidths, "BLOCK_LINES", block_lines)
+    rows = "".join(f"{t},80,\n" for t in range(0, 100, 10))        # TC2 never read, separator kept
+    p = write(tmp_path, "time,TC1,TC2\n" + rows)
+    _, reader, t, x = read_all(p, layout, chunk_rows=3)
+    assert t.size == 10 and np.isnan(x[:, 1]).all() and reader.rows == 10
+    after = "".join(f"{t},80,81\n" for t in range(110, 150, 10))
+    p = write(tmp_path, "time,TC1,TC2\n" + rows + "100,80\n" + after, "cut.csv")
+    with pytest.raises(InputError, match="line 12 has 2 fields but the header has 3"):
+        read_all(p, layout, chunk_rows=3)
