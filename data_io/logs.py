@@ -28,9 +28,7 @@ statistics, so memory stays bounded by one chunk plus one window.
 
 from __future__ import annotations
 
-import csv
 import io
-import itertools
 import re
 from dataclasses import dataclass
 
@@ -42,6 +40,7 @@ from .csv_in import NONFINITE_WORDS
 from .errors import InputError
 from .limits import MAX_TEMPERATURE_K
 from .log_header import LogColumns, open_log
+from .log_rows import RowWidths
 from .plant_files import ENCODING_NAMES, undecodable_line
 
 #: rows per chunk (bounded memory: about 30 MB for 32 sensors)
@@ -355,57 +354,6 @@ class LogReader:
         hh = np.char.zfill((a // 3600).astype(str), 2)
         mm = np.char.zfill((a % 3600 // 60).astype(str), 2)
         return np.char.add(np.char.add(np.char.add(np.char.add(text, sign), hh), ":"), mm)
-
-
-class RowWidths:
-    """Fields per line of a log's text, for the few lines whose last column pandas left
-    empty (an empty field and a missing one look alike there).  Reads the file once, forward
-    only, alongside the chunks (a context manager closing the file)."""
-
-    BLOCK_LINES = 10_000
-
-    def __init__(self, columns: LogColumns):
-        self.cols = columns
-        self.fh = None
-        self.line = 0          # lines consumed so far
-
-    def __enter__(self):
-        return self
-
-    def __exit__(self, *exc):
-        if self.fh is not None:
-            self.fh.close()
-        return False
-
-    def _open(self):
-        fmt = self.cols.fmt
-        if fmt.converted is not None:
-            return io.StringIO(fmt.converted, newline=None)
-        return open(self.cols.path, encoding=fmt.encoding, errors="replace", newline=None)
-
-    def first_short(self, lines, width: int):
-        """(line, fields) of the first of `lines` (increasing file line numbers, 1-based)
-        with fewer than `width` fields, or None; the text is read in blocks of BLOCK_LINES."""
-        if self.fh is None:
-            self.fh = self._open()
-        fmt = self.cols.fmt
-        sep = fmt.sep if fmt.converted is None else ","
-        wanted = [int(x) for x in lines]
-        i = 0
-        while i < len(wanted):
-            base = self.line
-            block = list(itertools.islice(self.fh, min(wanted[-1], base + self.BLOCK_LINES) - base))
-            if not block:          # (the text ended first: nothing to refuse on)
-                return None
-            self.line += len(block)
-            while i < len(wanted) and wanted[i] <= self.line:
-                text = block[wanted[i] - base - 1]
-                n = text.count(sep) + 1 if '"' not in text else \
-                    len(next(csv.reader([text.rstrip("\n")], delimiter=sep, skipinitialspace=True), []))
-                if n < width:
-                    return wanted[i], n
-                i += 1
-        return None
 
 
 #: rows per chunk when `check` streams a log (a smaller peak; the whole log is still read)

@@ -163,7 +163,7 @@ def test_short_row_found_across_text_blocks(tmp_path, layout, monkeypatch, block
     """Rows whose last column is empty are counted in the file's text, read in blocks: a row
     cut short is found wherever the blocks and chunks fall, and empty last fields that keep
     their separator are missing readings."""
-    from heatsight.data_io.logs import RowWidths
+    from heatsight.data_io.log_rows import RowWidths
 
     monkeypatch.setattr(RowWidths, "BLOCK_LINES", block_lines)
     rows = "".join(f"{t},80,\n" for t in range(0, 100, 10))        # TC2 never read, separator kept
