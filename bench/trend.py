@@ -29,15 +29,16 @@ sys.path.insert(0, str(ROOT))
 
 N_SENSORS = 32
 def make_case(folder: Path):
-    """The demo platen case with 32 thermocouples on rings at two depths (a layout of our own)."""
+    """The demo platen case with 32 thermocouples on rings at two heights above the heater face
+    (z = 6 and 20 mm; a layout of our own)."""
     rows = ["sensor,r [mm],theta [deg],z [mm],sigma [K],type,class"]
     k = 0
-    for depth, rings in ((6.0, (0, 40, 80, 120, 140)), (20.0, (30, 90, 135))):
+    for height, rings in ((6.0, (0, 40, 80, 120, 140)), (20.0, (30, 90, 135))):
         for ring in rings:
             count = 1 if ring == 0 else 4
             for j in range(count):
                 if k < N_SENSORS:
-                    rows.append(f"TC{k + 1:02d},{ring},{j * 360 / count + 15 * (depth > 10):g},{depth:g},0.1,K,1")
+                    rows.append(f"TC{k + 1:02d},{ring},{j * 360 / count + 15 * (height > 10):g},{height:g},0.1,K,1")
                     k += 1
     while k < N_SENSORS:
         rows.append(f"TC{k + 1:02d},{50 + 20 * (k % 4)},{37 * k % 360},32,0.1,K,1")

@@ -140,7 +140,7 @@ def _run_check(args) -> int:
     from .console import current
     from .limits import check_case
     from .describe import describe_case, describe_readings, describe_sensors, layout_notes
-    from .tables import read_layout, read_readings
+    from .tables import read_layout, read_snapshot, readings_form
 
     case = load_case(args.case)
     check_case(case)
@@ -154,7 +154,11 @@ def _run_check(args) -> int:
         warnings += layout.warnings
         lines += describe_sensors(layout)
     if case.sensors.readings is not None:
-        readings = read_readings(case.sensors.readings, layout)
+        if readings_form(case.sensors.readings) == "snapshot":
+            readings = read_snapshot(case.sensors.readings, layout)
+        else:       # streamed, keeping counts: memory does not grow with the log
+            from .logs import summarize_log
+            readings = summarize_log(case.sensors.readings, layout)
         warnings += readings.warnings
         lines += describe_readings(readings)
     if layout is not None and case.unknown_face is not None:

@@ -112,7 +112,8 @@ def read_raw(path: Path) -> RawTable:
             extra = cells[len(headers):]
             if len(cells) > len(headers) and not any(extra):
                 continue          # trailing separators: empty fields past the header's
-            raise InputError(f"malformed CSV: line {line} has {len(cells)} fields but the header (line {header_line}) has "
+            raise InputError(f"malformed CSV: line {line} has {len(cells)} field{'' if len(cells) == 1 else 's'} "
+                             f"but the header (line {header_line}) has "
                              f"{len(headers)}; every line needs one field per column "
                              f"(fields separated by {fmt.separator_name})", file=path)
     names, units = [], []

@@ -135,6 +135,10 @@ def describe_sensors(layout) -> list[str]:
 
 
 def describe_readings(readings) -> list[str]:
+    """The readings line of `check`: a snapshot Table, or a log (a logs.LogSummary)."""
+    if not hasattr(readings, "frame"):
+        return [f"readings: {readings.path}, log of {readings.rows} times over "
+                f"{readings.last - readings.first:g} s, {len(readings.sensors)} sensors"]
     fr = readings.frame
     if readings.kind == "snapshot":
         t = from_si(fr["temperature"].to_numpy(float), "temperature", "degC")

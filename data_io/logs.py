@@ -1,6 +1,7 @@
 """The one log reader: logged readings read in chunks, so that a log larger than memory
-can be processed.  `trend` streams it; `check` (through `tables.read_log`) reads a whole
-log with the same code (`read_whole_log`), so both accept and refuse the same logs.
+can be processed.  `trend` streams it; `check` streams it too keeping only counts
+(`summarize_log`), and `tables.read_log` reads a whole log for the Python API with the same
+code (`read_whole_log`), so all accept and refuse the same logs.
 
 A log is a CSV file: a time column (seconds, another time unit in brackets such as
 ``time [min]``, or ISO 8601 timestamps; the first row's time decides which), then one column
@@ -11,8 +12,10 @@ pandas.read_csv(chunksize=...) (`LogReader`), each chunk validated as it arrives
 - refused (InputError naming the file, line and column): times that are missing, not
   numbers / timestamps, repeated (a duplicated timestamp) or going back (an unsorted log,
   also across chunk boundaries); text in a sensor column that is not a number (empty
-  cells, NaN, N/A and inf mean "no reading"); ragged lines; a log sharing no sensor with
-  the layout; a log without a single valid reading.
+  cells, NaN, N/A and inf mean "no reading"); ragged lines (more fields than the header,
+  unless the extra ones are empty; or fewer: a missing reading keeps its empty field, so a
+  cut-off line is not read as missing cells); a log sharing no sensor with the layout; a
+  log without a single valid reading.
 - kept with a warning: a column that is not a sensor of the layout (loggers record other
   channels; it is ignored), a layout sensor missing from the log, missing readings, readings
   at or below absolute zero or outside the thermocouple type's usable range (open-circuit
@@ -37,6 +40,7 @@ from .csv_in import NONFINITE_WORDS
 from .errors import InputError
 from .limits import MAX_TEMPERATURE_K
 from .log_header import LogColumns, open_log
+from .log_rows import RowWidths
 from .plant_files import ENCODING_NAMES, undecodable_line
 
 #: rows per chunk (bounded memory: about 30 MB for 32 sensors)
@@ -108,13 +112,14 @@ class LogReader:
         source = cols.path if fmt.converted is None else io.StringIO(fmt.converted)
         # one spare column: a row with more fields than the header is caught, not shifted
         width = len(cols.headers)
+        self._widths = RowWidths(cols)
         try:
             reader = pd.read_csv(source, header=None, skiprows=cols.header_line, names=list(range(width + 1)),
                                  index_col=False, skip_blank_lines=False, skipinitialspace=True,
                                  chunksize=self.chunk_rows, encoding=fmt.encoding,
                                  sep=fmt.sep if fmt.converted is None else ",",
                                  decimal=fmt.decimal if fmt.converted is None else ".", engine="c")
-            with reader:
+            with reader, self._widths:
                 for frame in reader:
                     chunk = self._chunk(frame)
                     if chunk is not None:
@@ -154,6 +159,7 @@ class LogReader:
             raise InputError(f"malformed CSV: line {int(lines[i])} has more fields than the header "
                              f"({len(self.cols.headers)}: {', '.join(self.cols.headers)}); every line needs one "
                              f"field per column (a record-number column needs a header too)", file=self.cols.path)
+        self._check_short(frame, lines)
         t = self._times(frame[0], lines)
         self._check_order(t, lines)
         values = np.empty((len(frame), self.cols.n))
@@ -164,6 +170,21 @@ class LogReader:
         self._note_gaps(t, lines)
         self.rows += t.size
         return LogChunk(t, values, lines)
+
+    def _check_short(self, frame: pd.DataFrame, lines) -> None:
+        """Refuse a row with fewer fields than the header (pandas would fill it with missing
+        cells).  Only rows whose last column is empty are looked at in the file's text."""
+        width = len(self.cols.headers)
+        candidates = np.flatnonzero(frame[width - 1].isna().to_numpy())
+        if candidates.size == 0:
+            return
+        short = self._widths.first_short(lines[candidates], width)
+        if short is not None:
+            line, n = short
+            raise InputError(f"malformed CSV: line {line} has {n} field{'' if n == 1 else 's'} but the "
+                             f"header has {width} ({', '.join(self.cols.headers)}); every line needs one "
+                             f"field per column (leave a field empty for a missing reading, but keep "
+                             f"its separator)", file=self.cols.path)
 
     def _times(self, series: pd.Series, lines) -> np.ndarray:
         cols = self.cols
@@ -333,6 +354,38 @@ class LogReader:
         hh = np.char.zfill((a // 3600).astype(str), 2)
         mm = np.char.zfill((a % 3600 // 60).astype(str), 2)
         return np.char.add(np.char.add(np.char.add(np.char.add(text, sign), hh), ":"), mm)
+
+
+#: rows per chunk when `check` streams a log (a smaller peak; the whole log is still read)
+CHECK_CHUNK_ROWS = 20_000
+
+
+@dataclass
+class LogSummary:
+    """What `check` says about a log, gathered while streaming it: rows, the first and last
+    time [s since the first row], the sensors found and the reader's warnings."""
+
+    path: object
+    rows: int
+    first: float
+    last: float
+    sensors: list
+    warnings: list
+
+
+def summarize_log(path, layout=None, chunk_rows: int | None = None) -> LogSummary:
+    """Stream a log through the one reader keeping only counts, so `check` accepts and
+    refuses exactly what `trend` does with memory that does not grow with the log (chunks of
+    CHECK_CHUNK_ROWS rows unless `chunk_rows`)."""
+    columns = open_log(path, layout)
+    reader = LogReader(columns, layout, chunk_rows or CHECK_CHUNK_ROWS)
+    first = last = 0.0
+    for i, chunk in enumerate(reader):
+        if i == 0:
+            first = float(chunk.times[0])
+        last = float(chunk.times[-1])
+    return LogSummary(columns.path, reader.rows, first, last, list(columns.sensors),
+                      columns.warnings + reader.warnings())
 
 
 def read_whole_log(path, layout=None, chunk_rows: int = DEFAULT_CHUNK_ROWS):

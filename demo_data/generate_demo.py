@@ -3,9 +3,11 @@
 Scenario (our own): a 300 mm stainless-steel platen, 40 mm thick, is heated from below by
 three concentric heater zones (inner set 8 % higher); the platen's top carries a water-cooled process load,
 modelled as convection; its rim is insulated.  The outer zone has a weak sector around
-theta = 180 deg (its output down by 45 % at the centre of the sector).  Twenty
-thermocouples sit in drilled holes at three depths, eight of them around the outer
-zone; TC19, in a deep hole, has a poor junction and reads 6 K high.
+theta = 150 deg (its output down by 45 % at the centre of the sector).  Twenty
+thermocouples sit in holes drilled from the top face, 34, 25 and 8 mm deep (depth from the
+face drilled from; their tips are 6, 15 and 32 mm above the heater face, the z of
+layout.csv), eight of them around the outer zone; TC19, in a shallow hole, has a poor
+junction and reads 6 K high.
 
 The readings come from an independent finite-element solution (scikit-fem, P2, through
 tests/fem_cylinder.py) of the same conduction problem, harmonic by harmonic, plus seeded
@@ -33,7 +35,7 @@ SEED = 20261202
 SIGMA = 0.15                          # K, random scatter of each reading
 BAD_SENSOR, BAD_OFFSET = "TC19", 6.0  # K
 
-SENSORS = [  # name, r [mm], theta [deg], z [mm]
+SENSORS = [  # name, r [mm], theta [deg], z [mm] (height above the heater face; hole depth = 40 mm - z)
     ("TC01", 0, 0, 6), ("TC02", 37, 30, 6), ("TC03", 37, 210, 6), ("TC04", 82, 90, 6),
     ("TC05", 82, 270, 6), ("TC06", 127, 0, 6), ("TC07", 127, 45, 6), ("TC08", 127, 90, 6),
     ("TC09", 127, 135, 6), ("TC10", 127, 180, 6), ("TC11", 127, 225, 6), ("TC12", 127, 270, 6),

@@ -41,7 +41,9 @@ def _needs_conductivity(cond: FaceCondition) -> bool:
 class CylinderModel:
     """Exact steady field of a solid cylinder for given face conditions.
 
-    tolerance: relative truncation tolerance of each series (against its leading term).
+    tolerance: relative truncation tolerance: each known face's harmonics below tolerance x
+    its own largest datum are dropped, and its terms grow until the truncation estimate is
+    below tolerance x `temperature_scale` (the data's size in kelvin), at any data scale.
     """
 
     def __init__(self, cylinder: Cylinder, faces: dict, tolerance: float = 1e-8,
@@ -216,7 +218,8 @@ class CylinderModel:
             self.lifting = self._corner_lifting()
         else:
             self.lifting = self._reference_lifting()
-        self.temperature_scale = self._temperature_scale()
+        sizes = self._data_sizes()
+        self.temperature_scale = self._temperature_scale(sizes)
         self.series = []
         for face, cond in faces.items():
             if cond.unknown:
@@ -225,26 +228,38 @@ class CylinderModel:
                 continue  # carried exactly by the two-dimensional lifting
             data = self._residual_data(face, cond)
             span = a if face != "side" else min(a, L)
-            scale = cond.homogeneous.datum_scale(k, span) * self.temperature_scale
+            # harmonics relative to this face's own data (a tiny flux beside a large ambient
+            # is kept); the truncation estimate relative to the field's temperature scale
+            scale = sizes[face] or cond.homogeneous.datum_scale(k, span) * self.temperature_scale
             s = KnownSeries(face, data, (a, L), self.kinds, k, tol=tol, scale=scale,
+                            field_scale=self.temperature_scale,
                             n_cap=self.max_terms, max_harmonic=self.max_harmonic)
             if s.modes is not None:
                 self.series.append(s)
 
-    def _temperature_scale(self):
-        """Reference temperature size [K]: the largest of |g|, |T_amb|, |q| a / k and 1 K."""
+    def _data_sizes(self):
+        """Largest |data| of each known face on a coarse sample [data units: K, W/m^2]."""
         a, L = self.cylinder.radius, self.cylinder.height
         th = theta_nodes(16)
-        ref = 1.0
+        sizes = {}
         for face, cond in self.faces.items():
             if cond.unknown:
                 continue
             s = np.linspace(0.0, a if face != "side" else (L if math.isfinite(L) else a), 9)
             u, v = (np.meshgrid(th, s) if face == "side" else np.meshgrid(s, th))
-            size = float(np.abs(cond.data(u, v)).max())
+            sizes[face] = float(np.abs(cond.data(u, v)).max())
+        return sizes
+
+    def _temperature_scale(self, sizes):
+        """Temperature size of the data [K]: the largest of |g|, |T_amb| and |q| a / k over
+        the known faces (relative to the data: no floor in kelvin; 1 K only when every
+        datum is zero)."""
+        a, L = self.cylinder.radius, self.cylinder.height
+        ref = 0.0
+        for face, size in sizes.items():
             span = a if face != "side" else min(a, L)
-            ref = max(ref, size / cond.homogeneous.datum_scale(self.k, span))
-        return ref
+            ref = max(ref, size / self.faces[face].homogeneous.datum_scale(self.k, span))
+        return ref if ref > 0 else 1.0
 
     def _face_points(self, face, u, v):
         """(r, theta, z) of face coordinates (r, theta) on end faces or (theta, z) on the side."""

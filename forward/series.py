@@ -8,7 +8,9 @@ f_m, g_m are the azimuthal harmonic amplitudes (FFT on equally spaced angles); t
 radial / axial integrals use Gauss-Legendre rules with enough nodes to resolve the
 highest eigenfunction.  The number of terms doubles until the truncation estimate at
 the requested points (sum of the term bounds |c| |axial or radial factor| over the last
-half of the terms) is below tolerance x the leading term, or the cap is reached.
+half of the terms) is below tolerance x the data's temperature scale, or the cap is reached;
+harmonics below tolerance x the face's own largest datum are left out (both relative, so
+any data scale is served alike).
 `evaluate_grid` sums on a tensor grid of lines (forward/grid.py); `evaluate(...,
 gradient=False)` sums the temperature only.
 """
@@ -44,20 +46,22 @@ def _gauss(n, length):
 class KnownSeries:
     """One sub-problem: known data on one face, the other faces homogeneous."""
 
-    def __init__(self, face, data, geometry, kinds, conductivity, *, tol, scale, n_start=32,
-                 n_cap=1024, max_harmonic=64):
+    def __init__(self, face, data, geometry, kinds, conductivity, *, tol, scale, field_scale=None,
+                 n_start=32, n_cap=1024, max_harmonic=64):
         self.face = face
         self.data = data  # vectorized callable on face coordinates (SI)
         self.a, self.L = geometry
         self.kinds = kinds  # dict face -> EndCondition
         self.k = conductivity
         self.tol = tol
-        # scale: size of the face's raw data [data units]; harmonics and terms below
-        # tol * scale are dropped.  temperature_scale converts it to kelvin.
+        # scale: size of the face's raw data [data units]; harmonics below tol * scale are
+        # dropped.  temperature_scale [K]: the truncation estimate must fall below tol times
+        # it; field_scale (the whole field's data size in K) when given, else scale in K.
         self.scale = float(scale)
         kind = kinds[face]
         span = self.a if face != "side" else min(self.a, self.L)
-        self.temperature_scale = self.scale / kind.datum_scale(conductivity, span)
+        self.temperature_scale = (float(field_scale) if field_scale is not None
+                                  else self.scale / kind.datum_scale(conductivity, span))
         self.n_cap = int(n_cap)
         self.max_harmonic = int(max_harmonic)
         self._harmonics()

@@ -147,7 +147,7 @@ def _build(name, story, truth, phys, layout, *, seed, scale, sigma, zones=(), br
 
 
 def _circle(radius, z, n, start=0.0):
-    """n sensors equally spaced on a circle of radius [m] at depth z [m], first at `start` deg."""
+    """n sensors equally spaced on a circle of radius [m] at height z [m] (above the bottom face), first at `start` deg."""
     return [(radius, start + 360.0 * i / n, z) for i in range(n)]
 
 

@@ -61,6 +61,20 @@ REFUSED = {
     "2 record number after ISO times": (dict(GOOD, **{"case.toml": LOG_FIT, "log.csv":
                                                       "time,TC1,TC2,TC3\n2024-05-01T08:00:00,1,85,80,40\n"}), (),
                                         ["check", "case.toml"], "line 2 has more fields than the header"),
+    "2 log row shorter than its header": (dict(GOOD, **{"case.toml": LOG_FIT, "log.csv":
+                                                       LOG.replace("10,85.1,80.1,40.1", "10,85.1,80.1")}), (),
+                                          ["check", "case.toml"], "log.csv: malformed CSV: line 3 has 3 fields "
+                                                                  "but the header has 4"),
+    "2 log row shorter, trend": (dict(GOOD, **{"case.toml": LOG_FIT, "log.csv":
+                                               LOG.replace("20,85.2,80,40", "20,85.2,80")}), (),
+                                 ["trend", "case.toml", "--out", "o"], "log.csv: malformed CSV: line 4 has 3 fields"),
+    "2 layout row shorter than its header": (dict(GOOD, **{"layout.csv": GOOD_LAYOUT.replace("TC3,100,180,10,0.2",
+                                                                                             "TC3,100,180,10")}), (),
+                                             ["check", "case.toml"], "layout.csv: malformed CSV: line 4 has 4 "
+                                                                     "fields but the header (line 1) has 5"),
+    "2 snapshot row shorter than its header": (dict(GOOD, **{"readings.csv": GOOD_READINGS.replace("TC2,58", "TC2")}),
+                                               (), ["fit", "case.toml", "--out", "o"],
+                                               "readings.csv: malformed CSV: line 3 has 1 field but"),
     # 3. tolerances outside a sane range
     "3 simulate tolerance 0.5": (files(), (), ["simulate", "case.toml", "--at", "points.csv", "--out", "o.csv",
                                                "--tolerance", "0.5"], "--tolerance 0.5 is outside 1e-12 to 0.001"),

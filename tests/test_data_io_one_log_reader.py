@@ -95,3 +95,27 @@ def test_check_and_trend_accept_and_refuse_alike(folder, monkeypatch, capsys, na
         assert fragment in err_check and fragment in said_trend
     else:
         assert "not a sensor" not in err_check + said_trend
+
+
+def test_check_streams_the_log_without_holding_it(folder, monkeypatch, capsys):
+    """`check` keeps only counts while streaming (issue 10, audit 8): the whole-log readers are
+    never called, a refusal far past the first chunk is still found, and the summary line
+    counts every row."""
+    from heatsight.data_io import logs, tables
+
+    def whole(*args, **kwargs):
+        raise AssertionError("check read the whole log into memory")
+
+    monkeypatch.setattr(logs, "read_whole_log", whole)
+    monkeypatch.setattr(tables, "read_log", whole)
+    monkeypatch.setattr(logs, "CHECK_CHUNK_ROWS", 7)
+    monkeypatch.chdir(folder)
+    frame = _log_frame()
+    frame.to_csv(folder / "log.csv", index=False)
+    assert main(["check", "platen.toml"]) == 0
+    assert f"log of {ROWS} times over {(ROWS - 1) * STEP:g} s, 20 sensors" in capsys.readouterr().out
+    late = frame.copy()
+    late.loc[ROWS - 3, "time [s]"] = 0.0          # row 38 of 40 goes back: in the sixth chunk of 7 rows
+    late.to_csv(folder / "log.csv", index=False)
+    assert main(["check", "platen.toml"]) == 2
+    assert f"line {ROWS - 1}, column 'time [s]': time goes back" in capsys.readouterr().err

@@ -86,6 +86,12 @@ def test_numeric_times_with_a_unit(tmp_path, layout):
     ("time,TC1\n0,80\n10,80\n20,80\n,80\n", "line 5, column 'time': missing time"),
     ("time,TC1\n0,80\n10,80\nlater,80\n", "line 4, column 'time': 'later' is not a number of seconds"),
     ("time,TC1\n0,80\n10,80,5\n", "malformed CSV"),
+    # a row shorter than the header is refused, not read as missing cells (issue 10, audit 2)
+    ("time,TC1,TC2\n0,80,81\n10,80,81\n20,80,81\n30,80\n", "line 5 has 2 fields but the header has 3"),
+    ("time,TC1,TC2\r\n0,80,81\r\n\r\n10,80,\r\n20,80\r\n", "line 5 has 2 fields but the header has 3"),
+    ('time,TC1,TC2\n0,"80",81\n10,"8,0"\n', "line 3 has 2 fields but the header has 3"),
+    ("time;TC1;TC2\n0;80,5;81\n10;80,5;\n20;80,5\n", "line 4 has 2 fields but the header has 3"),
+    ("time,TC1,TC2\n0,80,81\n10,80,81\n20\n", "line 4 has 1 field but the header has 3"),
     ("time,TC1\n2024-01-01T00:00:00,80\n2024-01-01T00:00:10+01:00,80\n", "mix times with and without"),
     ("time [s],TC1\n2024-01-01T00:00:00,80\n", "timestamps need no unit"),
     ("time,AMB\n0,20\n", "none of the log's columns (AMB) is a sensor of the layout"),
@@ -150,3 +156,21 @@ def test_fast_writer_round_trips():
     assert isinstance(text, bytes) and text.count(b"\n") == 500 and set(back[len(cols)]) == {"ok"}
     lines = text.split(b"\n")
     assert lines[0].split(b",")[5] == b"" and lines[1].split(b",")[5] == b"0"
+
+
+@pytest.mark.parametrize("block_lines", [1, 2, 5, 10_000])
+def test_short_row_found_across_text_blocks(tmp_path, layout, monkeypatch, block_lines):
+    """Rows whose last column is empty are counted in the file's text, read in blocks: a row
+    cut short is found wherever the blocks and chunks fall, and empty last fields that keep
+    their separator are missing readings."""
+    from heatsight.data_io.log_rows import RowWidths
+
+    monkeypatch.setattr(RowWidths, "BLOCK_LINES", block_lines)
+    rows = "".join(f"{t},80,\n" for t in range(0, 100, 10))        # TC2 never read, separator kept
+    p = write(tmp_path, "time,TC1,TC2\n" + rows)
+    _, reader, t, x = read_all(p, layout, chunk_rows=3)
+    assert t.size == 10 and np.isnan(x[:, 1]).all() and reader.rows == 10
+    after = "".join(f"{t},80,81\n" for t in range(110, 150, 10))
+    p = write(tmp_path, "time,TC1,TC2\n" + rows + "100,80\n" + after, "cut.csv")
+    with pytest.raises(InputError, match="line 12 has 2 fields but the header has 3"):
+        read_all(p, layout, chunk_rows=3)
