@@ -1,6 +1,6 @@
 """Timing of the forward model (not run by pytest).
 
-    python bench/forward.py [--repeat N] [--only bessel,lookup,roots,fullfield,accuracy]
+    python bench/forward.py [--repeat N] [--only bessel,lookup,roots,fullfield,accuracy,demofit]
 
 bessel    mode-point evaluations per second of forward.bessel.besselj (one call on the
           batched table) vs scipy.special.jv called once per (m, n) pair at the same
@@ -24,6 +24,9 @@ accuracy  accuracy per time on a platen (non-uniform bottom heat flux, convectio
           scikit-fem P2 solve (tests/fem_cylinder.py) refined until it reaches the same
           accuracy.  Reference: the series at tolerance 1e-12, itself checked against the
           finest FE solve.  Goal >= 100x.
+demofit   the demo's fit (heatsight.fit, warm) with the face display grid and quadrature
+          rule evaluated on grid lines vs point by point, the change of its answers, and
+          where its time goes (exclusive time of the wrapped steps).
 
 Ratios are measured in one run on whatever machine runs this; the machine note printed
 first says what that was.  BLAS is limited to one thread (threadpoolctl) when available.
@@ -372,8 +375,85 @@ def bench_fullfield(repeat, goal=1e-4, shape=(50, 50, 40), goal_ratio=3.0):
         print(f"  ratio FE (its faster way) / series grid = {best_fem / t_series:.1f}x (goal >= {goal_ratio:g}x: {verdict})")
 
 
+# ----------------------------------------------------------------------------- demofit
+class _Split:
+    """Exclusive time per category of wrapped functions (nested calls are not counted twice)."""
+
+    def __init__(self):
+        self.total, self.stack = {}, []
+
+    def wrap(self, owner, name, category):
+        fn = getattr(owner, name)
+
+        def timed(*args, **kwargs):
+            self.stack.append([category, 0.0])
+            t = time.perf_counter()
+            try:
+                return fn(*args, **kwargs)
+            finally:
+                dt = time.perf_counter() - t
+                cat, inner = self.stack.pop()
+                self.total[cat] = self.total.get(cat, 0.0) + dt - inner
+                if self.stack:
+                    self.stack[-1][1] += dt
+        setattr(owner, name, timed)
+        return lambda: setattr(owner, name, fn)
+
+
+def bench_demofit(repeat):
+    """The demo's fit (heatsight.fit, warm) with the face display grid and quadrature rule
+    evaluated on grid lines (face_grid.face_on -> Design.face_grid) and point by point (the
+    same fit with Design.face_grid hidden), and where its time goes."""
+    from importlib import resources
+    import heatsight
+    from heatsight.inverse import design as design_mod, functionals, result
+    path = str(resources.files("heatsight.demo_data") / "platen.toml")
+    grid_method = design_mod.Design.face_grid
+
+    def run(grid):
+        design_mod.Design.face_grid = grid_method if grid else None
+        try:
+            return heatsight.fit(path)
+        finally:
+            design_mod.Design.face_grid = grid_method
+
+    fits = {"grid": run(True), "pointwise": run(False)}
+    a, b = (fits[k].raw.summary for k in ("grid", "pointwise"))
+    nums = [(x, y) for x, y in ((a[k], b[k]) for k in a) if isinstance(x, float)]
+    worst = max(abs(x - y) / max(abs(y), 1e-300) for x, y in nums)
+    est = np.abs(fits["grid"].raw.grid["estimate"] - fits["pointwise"].raw.grid["estimate"]).max()
+    print(f"demo fit: largest relative change of the summary's top-level numbers, grid vs pointwise "
+          f"{worst:.1e}; face map estimate {est:.1e} W/m^2")
+    times = {"grid": [], "pointwise": []}
+    for _ in range(repeat):  # alternate, so both see the same load
+        for key in times:
+            t = time.perf_counter()
+            run(key == "grid")
+            times[key].append(time.perf_counter() - t)
+    for key in times:
+        split = _Split()
+        undo = [split.wrap(result, "face_on", "face values (display grid, quadrature)"),
+                split.wrap(functionals, "face_on", "face values (display grid, quadrature)"),
+                split.wrap(design_mod.Design, "__init__", "model + basis build"),
+                split.wrap(design_mod.Design, "at", "fields at the sensors"),
+                split.wrap(result.Posterior, "figures", "bands of the figures (posterior.figures)"),
+                split.wrap(result.Posterior, "draws", "posterior draws (extremes)")]
+        t = time.perf_counter()
+        run(key == "grid")
+        whole = time.perf_counter() - t
+        for u in undo:
+            u()
+        print(f"  {key:9s}: fit {min(times[key]):.3f} s (best of {repeat}); split of one instrumented run "
+              f"({whole:.3f} s):")
+        for cat, dt in sorted(split.total.items(), key=lambda kv: -kv[1]):
+            print(f"      {cat:<42} {dt * 1e3:8.1f} ms ({100 * dt / whole:4.1f} %)")
+        rest = whole - sum(split.total.values())
+        print(f"      {'everything else':<42} {rest * 1e3:8.1f} ms ({100 * rest / whole:4.1f} %)")
+    print(f"  ratio pointwise / grid = {min(times['pointwise']) / min(times['grid']):.2f}x")
+
+
 SECTIONS = {"bessel": bench_bessel, "lookup": bench_lookup, "roots": bench_roots,
-            "fullfield": bench_fullfield, "accuracy": bench_accuracy}
+            "fullfield": bench_fullfield, "accuracy": bench_accuracy, "demofit": bench_demofit}
 
 
 def main(argv=None):

@@ -101,7 +101,9 @@ class UnknownBasis:
             return phi
         cyl = self.model.cylinder
         s, th = (v / cyl.height, u) if self.face == "side" else (u / cyl.radius, v)
-        extra = np.stack([c.face_values(s, th) for c in self.rim], axis=1) - phi @ self.mix
+        extra = np.stack([c.face_values(s, th) for c in self.rim], axis=1)
+        if self.mix.any():  # end faces: no eigenfunction part to take off
+            extra -= phi @ self.mix
         return np.concatenate([phi, extra], axis=1)
 
     def face_values_grid(self, u, v):
@@ -118,8 +120,23 @@ class UnknownBasis:
             cols = [c.face_values_grid(v / cyl.height, u).T for c in self.rim]
         else:
             cols = [c.face_values_grid(u / cyl.radius, v) for c in self.rim]
-        extra = np.stack(cols, axis=2) - phi @ self.mix
+        extra = np.stack(cols, axis=2)
+        if self.mix.any():
+            extra -= phi @ self.mix
         return np.concatenate([phi, extra], axis=2)
+
+    def face_values_lines(self, along, around):
+        """(Phi (Q, K), known (Q,)) on the grid of lines along (r on an end face, z on the
+        side) [m] x around (theta) [rad], along major: face_values and known_face_values at
+        those points, each factor evaluated once per line."""
+        along, around = np.asarray(along, float).ravel(), np.asarray(around, float).ravel()
+        if self.face == "side":
+            phi = self.face_values_grid(around, along).transpose(1, 0, 2)
+            known = self.known_face_values_grid(around, along).T
+        else:
+            phi = self.face_values_grid(along, around)
+            known = self.known_face_values_grid(along, around)
+        return phi.reshape(-1, self.size), known.ravel()
 
     def known_face_values_grid(self, u, v):
         """known_face_values on the grid of lines u x v, shape (U, V)."""

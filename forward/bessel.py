@@ -115,11 +115,21 @@ class _JTable:
         return out
 
     def __call__(self, m, x):
-        m, x = np.broadcast_arrays(np.asarray(m, dtype=np.intp), np.asarray(x, dtype=float))
+        m = np.asarray(m, dtype=np.intp)
+        if m.ndim == 0:  # one order (projections): gather from that order's rows alone
+            rows = slice(int(m) * self.n_nodes, (int(m) + 1) * self.n_nodes)
+            return self._horner([c[rows] for c in self.powers], None, np.asarray(x, dtype=float))
+        m, x = np.broadcast_arrays(m, np.asarray(x, dtype=float))
+        return self._horner(self.powers, m, x)
+
+    def _horner(self, powers, m, x):
+        """The interpolant at x from the power arrays; m: orders (row offsets), or None when
+        `powers` are one order's rows."""
         shape = x.shape
-        m, x = m.ravel(), x.ravel()
+        x = x.ravel()
+        m = None if m is None else m.ravel()
         out = np.empty(x.size)
-        c0, c1, c2, c3, c4, c5 = self.powers
+        c0, c1, c2, c3, c4, c5 = powers
         n = min(BLOCK, x.size)
         t = np.empty(n)
         idx = np.empty(n, dtype=np.intp)
@@ -133,7 +143,8 @@ class _JTable:
             np.multiply(x[start:stop], 1.0 / STEP, out=tb)
             np.minimum(tb.astype(np.intp), last, out=ib)
             tb -= ib
-            ib += m[start:stop] * self.n_nodes
+            if m is not None:
+                ib += m[start:stop] * self.n_nodes
             # c0 + t (c1 + t (c2 + t (c3 + t (c4 + t c5)))), innermost first
             np.take(c5, ib, out=ab, mode="clip")
             ab *= tb

@@ -89,6 +89,10 @@ class Design:
         """(B (Q, K), known (Q,)) of the face quantity at face coordinates."""
         return self.basis.face_values(u, v), self.basis.known_face_values(u, v)
 
+    def face_grid(self, along, around):
+        """face() on the grid of lines along (r or z) x around (theta), along major."""
+        return self.basis.face_values_lines(along, around)
+
     def powers(self):
         """(p (K,) [W per unit coefficient], known power [W]) into the part through the face."""
         return self.basis.powers(), float(self.basis.known_power())

@@ -11,7 +11,9 @@ from scipy import special
 @dataclass
 class FacePoints:
     """Face coordinates (u, v) = (r, theta) on end faces or (theta, z) on the side, the
-    corresponding (r, theta, z), and quadrature weights w (dA [m^2]) when a rule."""
+    corresponding (r, theta, z), and quadrature weights w (dA [m^2]) when a rule.
+    lines = (along, around): the grid's lines, r (or z) [m] and theta [rad]; the points are
+    along x around, along major (so model columns can evaluate them separably)."""
 
     face: str
     u: np.ndarray
@@ -21,6 +23,17 @@ class FacePoints:
     z: np.ndarray
     weights: np.ndarray | None = None
     shape: tuple = ()
+    lines: tuple | None = None
+
+
+def face_on(design, points):
+    """(B (Q, K), known (Q,)) of the face quantity at `points`: on their grid lines when the
+    model columns evaluate a grid (`face_grid(along, around)`), else point by point; the
+    same numbers to round-off."""
+    grid = getattr(design, "face_grid", None)
+    if grid is not None and points.lines is not None:
+        return grid(*points.lines)
+    return design.face(points.u, points.v)
 
 
 def _to_rtz(face, u, v, radius, height):
@@ -41,7 +54,7 @@ def display_grid(face, radius, height, n_radial=41, n_theta=72):
     else:
         u, v = S.ravel(), TH.ravel()
     r, t, z = _to_rtz(face, u, v, radius, height)
-    return FacePoints(face, u, v, r, t, z, None, (n_radial, n_theta))
+    return FacePoints(face, u, v, r, t, z, None, (n_radial, n_theta), (s, th))
 
 
 def segments(breaks, lo, hi, n_total, order=24):
@@ -88,4 +101,4 @@ def quadrature(face, radius, height, n_radial=64, n_theta=128, breaks=None):
     else:
         u, v, W = S.ravel(), TH.ravel(), (W * S).ravel()
     r, t, z = _to_rtz(face, u, v, radius, height)
-    return FacePoints(face, u, v, r, t, z, W, (n_radial, n_theta))
+    return FacePoints(face, u, v, r, t, z, W, (s.size, n_theta), (s, th))

@@ -3,14 +3,15 @@
 Each is value = k + f . c (f (K,), k a number) in the face's unit (K or W/m^2; W for the
 power), from a Gauss x trapezoid rule on the face.  `design` is any model columns object
 with .face(u, v), .powers(), .face_name, .quantity and .cylinder (design.Design, or the
-zone model's columns).
+zone model's columns); one with .face_grid(along, around) is evaluated on the rule's grid
+lines (face_grid.face_on).
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from .face_grid import quadrature
+from .face_grid import face_on, quadrature
 
 
 def face_functionals(design, zones=()) -> list:
@@ -20,7 +21,7 @@ def face_functionals(design, zones=()) -> list:
     cyl, face = design.cylinder, design.face_name
     quad = quadrature(face, cyl.radius, cyl.height, breaks=_breaks(list(zones or ()) + list(
         getattr(design, "zones", ())), face, cyl.radius))
-    Bq, kq = design.face(quad.u, quad.v)
+    Bq, kq = face_on(design, quad)
 
     def average(weights):
         total = float(weights.sum())

@@ -13,7 +13,7 @@ import numpy as np
 import pandas as pd
 
 from .bands import Z95, z_factor
-from .face_grid import display_grid, quadrature
+from .face_grid import display_grid, face_on, quadrature
 from .functionals import functional_matrix
 
 __all__ = ["Posterior", "FitResult", "Z95"]
@@ -181,7 +181,7 @@ class FitResult:
         face, quantity = design.face_name, design.quantity
         unit = "K" if quantity == "temperature" else "W/m^2"
         pts = display_grid(face, cyl.radius, cyl.height, *opts.grid)
-        on_grid = _evaluated_once(lambda d: d.face(pts.u, pts.v), design)
+        on_grid = _evaluated_once(lambda d: face_on(d, pts), design)
 
         mean, sd, lower, upper = posterior.figures(on_grid, design)
         if monte_carlo is not None:

@@ -167,3 +167,15 @@ def test_blocked_table_matches_scipy_and_extension_equals_rebuild():
     assert grown.n_nodes == full.n_nodes
     assert np.array_equal(grown(m, x), full(m, x))
     assert np.abs(full(m, x) - special.jv(m, x)).max() < 1e-12  # scipy.special.jv
+
+
+def test_one_order_lookup_equals_the_array_path_and_scipy():
+    """A scalar order reads that order's rows alone; the numbers are the array path's."""
+    table = bessel._JTable(32, 256.0)
+    x = np.outer(np.linspace(0.0, 1.0, 97), np.linspace(0.5, 250.0, 211))  # a projection's (s, kappa) grid
+    for m in (0, 7, 32):
+        one = table(m, x)
+        assert one.shape == x.shape
+        assert np.array_equal(one, table(np.full(x.shape, m), x))
+        assert np.abs(one - special.jv(m, x)).max() < 1e-12  # scipy.special.jv
+    assert np.array_equal(bessel.besselj(-1, x[:3]), -bessel.besselj(1, x[:3]))  # J_{-1} = -J_1

@@ -1,0 +1,77 @@
+"""The fit's face display grid and quadrature rule evaluated on grid lines (face_grid.face_on
+-> Design.face_grid -> UnknownBasis.face_values_lines) give the pointwise numbers.
+
+Consistency checks between two evaluation paths of the same model (no outside value): the
+separable path must reproduce Design.face at every point of the grid, and the face
+functionals (mean, power, zones) must not move.
+"""
+
+import math
+
+import numpy as np
+import pytest
+
+from heatsight.forward import Convection, Cylinder, Flux, Insulated, Temperature, UnknownFlux, UnknownTemperature
+from heatsight.inverse.design import Design
+from heatsight.inverse.face_grid import display_grid, face_on, quadrature
+from heatsight.inverse.functionals import face_functionals
+from heatsight.inverse.problem import Zone
+
+CASES = {
+    "unknown flux bottom, insulated rim": (
+        Cylinder(0.15, 0.04, 16.0),
+        {"bottom": UnknownFlux(), "top": Convection(250.0, 313.15), "side": Insulated()}),
+    "unknown flux bottom beside a temperature side (rim columns)": (
+        Cylinder(0.08, 0.1, 20.0),
+        {"bottom": UnknownFlux(), "top": Convection(25.0, 298.15), "side": Temperature(300.0)}),
+    "unknown temperature wall beside a cooled base (wall columns)": (
+        Cylinder(0.08, 0.1, 20.0),
+        {"bottom": Convection(1500.0, 300.0), "top": Convection(15.0, 300.0), "side": UnknownTemperature()}),
+    "unknown temperature top, known flux bottom": (
+        Cylinder(0.08, 0.1, 20.0),
+        {"bottom": Flux(lambda r, th: 2e3 + 500.0 * (r / 0.08) * np.cos(th)), "top": UnknownTemperature(),
+         "side": Convection(10.0, 300.0)}),
+}
+
+
+def _zones(face, cyl):
+    if face == "side":
+        return [Zone("band", "side", (0.5, 2.5), z=(0.2 * cyl.height, 0.6 * cyl.height))]
+    return [Zone("inner", face, (0.0, 2 * math.pi), r=(0.0, 0.5 * cyl.radius)),
+            Zone("sector", face, (-1.0, 1.0), r=(0.5 * cyl.radius, cyl.radius))]
+
+
+class _Pointwise:
+    """The same model columns without the grid method: face_on falls back to points."""
+
+    def __init__(self, design):
+        self._d = design
+
+    def __getattr__(self, name):
+        if name == "face_grid":
+            raise AttributeError(name)
+        return getattr(self._d, name)
+
+
+@pytest.mark.parametrize("name", list(CASES))
+def test_display_grid_and_rule_on_lines_equal_pointwise(name):
+    cyl, faces = CASES[name]
+    design = Design(cyl, faces, 1e-8, 4, 6)
+    zones = _zones(design.face_name, cyl)
+    breaks = ([0.5 * cyl.radius], [-1.0, 1.0]) if design.face_name != "side" else ([0.2 * cyl.height], [0.5])
+    for pts in (display_grid(design.face_name, cyl.radius, cyl.height, 9, 12),
+                quadrature(design.face_name, cyl.radius, cyl.height, 16, 24, breaks=breaks)):
+        B, known = face_on(design, pts)
+        Bp, kp = design.face(pts.u, pts.v)
+        assert B.shape == Bp.shape == (pts.u.size, design.size)
+        assert np.abs(B - Bp).max() <= 1e-13 * np.abs(Bp).max()
+        assert np.abs(known - kp).max() <= 1e-13 * max(1.0, np.abs(kp).max())
+        assert pts.shape == (pts.lines[0].size, pts.lines[1].size) and np.prod(pts.shape) == pts.u.size
+    grid = {n: (f, k) for n, f, k in face_functionals(design, zones)}
+    points = {n: (f, k) for n, f, k in face_functionals(_Pointwise(design), zones)}
+    assert set(grid) == set(points) == {"mean", "total_power"} | {z.name for z in zones}
+    for n in grid:
+        f, k = grid[n]
+        fp, kp = points[n]
+        assert np.abs(f - fp).max() <= 1e-12 * max(np.abs(fp).max(), 1e-300)
+        assert abs(k - kp) <= 1e-12 * max(abs(kp), 1.0)
