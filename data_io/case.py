@@ -27,7 +27,7 @@ Schema (design §3; every dimensional value is a string with its unit)::
     keep_all_sensors = false       # true keeps sensors flagged as suspect in the fit
     terms = 12                     # radial (end face) / axial (side) terms; default automatic
     harmonics = 6                  # angular harmonics m = 0..harmonics; default automatic
-    model = "smooth"               # "smooth" | "zones" (a level per zone + smooth remainder) | "auto"
+    model = "auto"                 # "auto" (default: the evidence chooses) | "smooth" | "zones" (a level per zone + smooth remainder)
 
     [[zones]]                      # optional, any number; regions of the unknown face
     name = "inner"                 # required, unique
