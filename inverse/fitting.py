@@ -90,6 +90,15 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
         zone_model.add_tail(design, rd, u > 0, ok)
     smooth = _screen(problem, rd, opts, gross)
     zscreen = None if zone_model is None else _screen(zone_model.marginal, rd, opts, gross)
+    if _learned(opts):
+        # a sensor set aside must not shape the left-out modes' variance either: learn it again
+        # without the set-aside sensors, then finish the screening on the new noise
+        if len(smooth.set_aside) > len(gross):
+            problem = _with_tail(base, design, rd, P, u, smooth.kept)
+            smooth = _screen(problem, rd, opts, smooth.set_aside)
+        if zscreen is not None and len(zscreen.set_aside) > len(gross):
+            zone_model.add_tail(design, rd, u > 0, zscreen.kept, base=base)
+            zscreen = _screen(zone_model.marginal, rd, opts, zscreen.set_aside)
     post = _posterior(design, rd, smooth, P, u, opts, warnings)
     if post.calibration is not None:
         design = post.calibration.design
