@@ -139,17 +139,18 @@ def _pad(targets, extra):
 
 # ------------------------------------------------------------------------------ the covariance
 def dominant_component(posterior, problem):
-    """(LinearGaussianProblem, alpha, weight, text) of the component the planner uses."""
+    """(LinearGaussianProblem, alpha, weight, text) of the component the planner uses: for a
+    learned prior the (length scale, order) of largest posterior weight (summed over the
+    amplitude) at its amplitude of largest weight."""
     avg = posterior.averaged
     parts = getattr(avg, "_parts", None)
     if parts:                                    # learned prior: (problem, alphas, weights) per (l, s)
-        best = max(((pb, float(a[i]), float(w[i])) for pb, a, w in parts for i in range(len(a))),
-                   key=lambda t: t[2])
-        j = avg._problems.index(best[0])
-        length, order = avg.combos[j]
-        text = (f"dominant component of the learned prior (length scale {length * 1e3:.3g} mm, order "
-                f"{order:g}, strength {best[1]:.3g}, weight {best[2]:.2f})")
-        return best[0], best[1], best[2], text
+        pb, a, w = max(parts, key=lambda p: float(np.sum(p[2])))    # the (l, s) of largest weight
+        i = int(np.argmax(w))                                        # its amplitude of largest weight
+        length, order = avg.combos[avg._problems.index(pb)]
+        text = (f"the learned prior's dominant hyperparameters: length scale {length * 1e3:.3g} mm, order "
+                f"{order:g} (weight {float(np.sum(w)):.2f}), strength {a[i]:.3g}")
+        return pb, float(a[i]), float(np.sum(w)), text
     if avg is not None and hasattr(avg, "alpha_mixture"):
         a, w = avg.alpha_mixture()
         i = int(np.argmax(w))
