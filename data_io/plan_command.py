@@ -115,30 +115,50 @@ def _state(case, which, readings_path, warnings):
     return state, None, note
 
 
-def _candidates(case, state, path, face, warnings):
+def check_targets(case, which) -> None:
+    """Refuse an unknown target before any work: zones | power | mean | face | a zone name on
+    the unknown face ('zones' needs at least one)."""
+    face = case.unknown_face
+    zone_names = [z.name for z in case.zones if (z.face or face) == face]
+    allowed = ["zones", "power", "mean", "face"] + zone_names
+    for item in which:
+        if item not in allowed:
+            raise InputError(f"unknown target {item!r}; expected one of: {', '.join(allowed)}")
+        if item == "zones" and not zone_names:
+            raise InputError(f"target 'zones' needs zones declared on the {face} face ([[zones]])", file=case.path)
+
+
+def _read_candidates(case, path):
+    """The candidates table (r, theta, z in SI) or None for the rules' grid."""
+    from .tables import read_points
+
+    if path is None:
+        return None
+    table = read_points(path, case.cylinder)
+    if len(table.frame) > MAX_CANDIDATES:
+        raise InputError(f"{len(table.frame)} candidate rows; at most {MAX_CANDIDATES} are planned at once",
+                         file=path)
+    return table.frame
+
+
+def _candidates(case, state, frame, path, face, warnings):
     """(r, theta, z) of the admissible candidates: the file's rows passing the [plan] rules,
     or the grid the rules generate."""
     from ..inverse.plan_rules import admissible, candidate_grid
 
-    from .tables import read_points
-
     rules = case.plan.rules
     ex = state.existing
     existing = (ex["r"], ex["theta"], ex["z"])
-    if path is None:
+    if frame is None:
         return candidate_grid(rules, face, case.cylinder, existing)
-    table = read_points(path, case.cylinder)
-    f = table.frame
-    if len(f) > MAX_CANDIDATES:
-        raise InputError(f"{len(f)} candidate rows; at most {MAX_CANDIDATES} are planned at once", file=path)
-    r, th, z = (f[k].to_numpy(float) for k in ("r", "theta", "z"))
+    r, th, z = (frame[k].to_numpy(float) for k in ("r", "theta", "z"))
     ok, why = admissible(rules, face, case.cylinder, r, th, z, existing)
     if not ok.any():
-        raise InputError(f"none of the {len(f)} candidates meets the [plan] rules (first: row 2, "
-                         f"{why[0]})", file=path)
+        raise InputError(f"none of the {len(frame)} candidates meets the [plan] rules (row 2: {why[0]})",
+                         file=path)
     if not ok.all():
         reasons = sorted(set(why[~ok]))
-        warnings.append(f"{path}: {int((~ok).sum())} of {len(f)} candidates break the [plan] rules and are "
+        warnings.append(f"{path}: {int((~ok).sum())} of {len(frame)} candidates break the [plan] rules and are "
                         f"left out ({'; '.join(reasons)})")
     return r[ok], th[ok], z[ok]
 
@@ -161,11 +181,13 @@ def compute_plan(case, add: int, candidates=None, targets=None, readings=None) -
     cand_path = Path(candidates) if candidates else None
     if cand_path is not None and not cand_path.is_file():
         raise InputError("candidates file not found", file=cand_path)
+    check_targets(case, which)
+    frame = _read_candidates(case, cand_path)
     warnings: list[str] = []
     try:
         face = drill_face(case.plan.rules, case.unknown_face, case.cylinder)
         state, fit, note = _state(case, which, readings_path, warnings)
-        pos = _candidates(case, state, cand_path, face, warnings)
+        pos = _candidates(case, state, frame, cand_path, face, warnings)
         rows = state.rows(*pos)
         plan = greedy(state, rows, add, pos, case.plan.rules.spacing)
         value = sensor_value(state)
