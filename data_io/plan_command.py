@@ -85,14 +85,16 @@ def _layout_sensors(case, warnings):
             sigma, tau)
 
 
-def _state(case, which, readings_path, warnings):
-    """(PlanState, FitResult or None, expected-variation note)."""
+def _state(case, which, readings_path, warnings, result=None):
+    """(PlanState, FitResult or None, expected-variation note); `result`: a fit already made."""
     from ..inverse.plan import state_from_fit, state_from_prior
     from ..inverse.problem import Problem
 
     from .fit_steps import fit_case
 
     opts = case.plan
+    if result is not None:
+        return state_from_fit(result, which, case.zones, opts.sigma, opts.offset_sd), result, ""
     if readings_path is not None:
         if case.sensors.layout is None:
             raise InputError("readings need the sensor layout: add [sensors] layout = \"layout.csv\"",
@@ -163,9 +165,10 @@ def _candidates(case, state, frame, path, face, warnings):
     return r[ok], th[ok], z[ok]
 
 
-def compute_plan(case, add: int, candidates=None, targets=None, readings=None) -> PlanRun:
+def compute_plan(case, add: int, candidates=None, targets=None, readings=None, fit=None) -> PlanRun:
     """Plan `add` new sensors for the case (a data_io Case): targets as in inverse.plan.target_list
-    (default `default_targets`), readings: a snapshot path (default: the case's, if any)."""
+    (default `default_targets`), readings: a snapshot path (default: the case's, if any); fit:
+    a FitResult of these readings already made (not refitted)."""
     from ..inverse.plan import greedy, sensor_value
     from ..inverse.plan_rules import drill_face
 
@@ -186,7 +189,7 @@ def compute_plan(case, add: int, candidates=None, targets=None, readings=None) -
     warnings: list[str] = []
     try:
         face = drill_face(case.plan.rules, case.unknown_face, case.cylinder)
-        state, fit, note = _state(case, which, readings_path, warnings)
+        state, fit, note = _state(case, which, readings_path, warnings, fit)
         pos = _candidates(case, state, frame, cand_path, face, warnings)
         rows = state.rows(*pos)
         plan = greedy(state, rows, add, pos, case.plan.rules.spacing)

@@ -25,13 +25,21 @@ BAND_CMAP = "magma"
 
 
 # ------------------------------------------------------------------------------ units
-def target_unit(run, name: str) -> str:
-    """Unit of a target's sd in files: W for the total power, else the face's difference unit."""
-    return "W" if name == "total_power" else run.display.diff_unit
+def target_unit(run, name: str, shown: bool = False) -> str:
+    """Unit of a target's sd: W for the total power, else the face's difference unit in files
+    (data_io.display.file_display) or, `shown`, on the console, figures and report."""
+    return "W" if name == "total_power" else _display(run, shown).diff_unit
 
 
-def _show(run, name, sd_si):
-    return np.asarray(sd_si, float) if name == "total_power" else run.display.diff(np.asarray(sd_si, float))
+def _display(run, shown):
+    from .display import file_display
+
+    return run.display if shown else file_display(run.quantity, run.case.unknown_face)
+
+
+def _show(run, name, sd_si, shown: bool = False):
+    sd_si = np.asarray(sd_si, float)
+    return sd_si if name == "total_power" else _display(run, shown).diff(sd_si)
 
 
 def _words(name: str) -> str:
@@ -124,8 +132,8 @@ def console_line(run) -> str:
     rel = sd[-1] / np.where(sd[0] > 0, sd[0], np.nan)
     j = int(np.nanargmin(rel)) if np.any(np.isfinite(rel)) else 0
     name = run.plan.target_names[j]
-    unit = symbol(target_unit(run, name))
-    before, after = _show(run, name, sd[0, j]), _show(run, name, sd[-1, j])
+    unit = symbol(target_unit(run, name, shown=True))
+    before, after = _show(run, name, sd[0, j], True), _show(run, name, sd[-1, j], True)
     return (f"{n} new sensor{'s' if n != 1 else ''}: the sd of the {_words(name)} falls from {sig(before)} to "
             f"{sig(after)} {unit}")
 
