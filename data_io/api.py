@@ -281,8 +281,7 @@ class Plan:
     def write(self, folder, *, overwrite: bool = False) -> Path:
         from .csv_out import output_folder
         from .fit_steps import write_outputs
-        from .plan_command import PLAN_OUTPUT_NAMES
-        from .plan_outputs import output_files
+        from .plan_outputs import PLAN_OUTPUT_NAMES, output_files
 
         folder, create = output_folder(Path(folder), self.raw.case, overwrite, names=PLAN_OUTPUT_NAMES,
                                        inputs=[self.raw.readings_path, self.raw.candidates_path])

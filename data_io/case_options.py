@@ -10,7 +10,7 @@ from typing import Any, Callable
 
 from ..forward.geometry import Cylinder
 from ..inverse.errors import InverseError
-from ..inverse.plan_rules import DRILL_FACES, PlanRules
+from ..inverse.plan_rules import COVARIANCES, DRILL_FACES, PlanRules
 from ..inverse.problem import (CALIBRATABLE, FACE_NAMES, LOSSES, MODELS, PRIORS, SMOOTHING_ORDER,
                                STRENGTH_METHODS, FitOptions, Zone)
 
@@ -234,19 +234,21 @@ def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> t
 
 PLAN_KEYS = ("drill_from", "depth_min", "depth_max", "face_distance", "spacing", "exclude_theta",
              "exclude_r", "exclude_z", "angle_step", "positions", "depths", "expected_variation",
-             "sigma", "offset_sd")
+             "sigma", "offset_sd", "covariance")
 
 
 @dataclass(frozen=True)
 class PlanOptions:
     """The case's [plan] table: drilling rules (inverse.plan_rules.PlanRules), the expected
-    variation of the unknown face [K or W/m^2] for a plan without readings (None: not given)
-    and a new sensor's sigma / offset sd [K] (None: the existing sensors' medians)."""
+    variation of the unknown face [K or W/m^2] for a plan without readings (None: not given),
+    a new sensor's sigma / offset sd [K] (None: the existing sensors' medians) and which
+    covariance of a fit is planned on (inverse.plan.state_from_fit)."""
 
     rules: PlanRules = PlanRules()
     expected_variation: float | None = None
     sigma: float | None = None
     offset_sd: float | None = None
+    covariance: str = "mixture"
 
 
 def _plan_length(ctx, table, key, minimum=0.0):
@@ -311,4 +313,6 @@ def _parse_plan(ctx: _Ctx, table: dict | None, unknown: str | None) -> PlanOptio
                 raise ctx.error(f"plan.{key}", f"expected a {'positive' if key == 'sigma' else 'non-negative'} "
                                                f"temperature difference, got {table[key]!r}")
             out[key] = value
+    if "covariance" in table:
+        out.update(_fit_choice(COVARIANCES, "covariance")(ctx, table["covariance"], "plan.covariance"))
     return PlanOptions(PlanRules(**rules), **out)

@@ -20,9 +20,6 @@ from ..inverse.errors import InverseError
 from .arguments import whole
 from .errors import InputError
 
-#: files `heatsight plan` writes into its output folder
-PLAN_OUTPUT_NAMES = ("plan.csv", "sensors_value.csv", "summary.json", "plan_layout.png", "plan_bands.png",
-                     "plan.html")
 #: expected variation of the unknown face when the case has no readings and [plan] gives none
 #: (common practice, no source): 5 K on a temperature face, 1 kW/m^2 on a heat-flux face
 DEFAULT_VARIATION = {"temperature": 5.0, "heat_flux": 1000.0}
@@ -94,14 +91,14 @@ def _state(case, which, readings_path, warnings, result=None):
 
     opts = case.plan
     if result is not None:
-        return state_from_fit(result, which, case.zones, opts.sigma, opts.offset_sd), result, ""
+        return state_from_fit(result, which, case.zones, opts.sigma, opts.offset_sd, opts.covariance), result, ""
     if readings_path is not None:
         if case.sensors.layout is None:
             raise InputError("readings need the sensor layout: add [sensors] layout = \"layout.csv\"",
                              file=case.path, where="sensors.layout")
         result, _ = fit_case(case, readings_path)
         warnings += result.warnings
-        return state_from_fit(result, which, case.zones, opts.sigma, opts.offset_sd), result, ""
+        return state_from_fit(result, which, case.zones, opts.sigma, opts.offset_sd, opts.covariance), result, ""
     quantity = _quantity(case)
     variation = opts.expected_variation
     note = ""
@@ -212,7 +209,7 @@ def _run_plan(args) -> int:
     from .csv_out import output_folder
     from .fit_steps import write_outputs
     from .limits import check_case
-    from .plan_outputs import console_line, output_files
+    from .plan_outputs import PLAN_OUTPUT_NAMES, console_line, output_files
 
     case = load_case(args.case)
     check_case(case)

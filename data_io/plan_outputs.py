@@ -19,6 +19,9 @@ from .figure_style import DPI, LITERAL, new_figure
 from .report_format import sig
 from .units import from_si
 
+#: files `heatsight plan` writes into its output folder, in writing order
+PLAN_OUTPUT_NAMES = ("plan.csv", "sensors_value.csv", "summary.json", "plan_layout.png", "plan_bands.png",
+                     "plan.html")
 PICK_PREFIX = "new"
 LAYOUT_CMAP = "viridis"
 BAND_CMAP = "magma"
@@ -250,7 +253,6 @@ def report_section(run, figures) -> str:
 def output_files(run):
     """([(file name, text or bytes)] in writing order, summary dict)."""
     from .csv_out import OUTPUT_FILES_KEY, csv_text, json_text
-    from .plan_command import PLAN_OUTPUT_NAMES
 
     figures = {"plan_layout": _png(layout_figure(run)), "plan_bands": _png(band_maps(run))}
     summary = summary_dict(run)

@@ -44,7 +44,7 @@ from .face_grid import display_grid
 from .functionals import functional_matrix
 from .hyperprior import face_size, matern_precision
 from .noise import noise_covariance
-from .plan_rules import _xyz, min_distance
+from .plan_rules import COVARIANCES, _xyz, min_distance
 
 #: a target "depends on a single sensor" when losing that one sensor multiplies its sd by
 #: more than this (common practice, no source)
@@ -184,10 +184,17 @@ def _state_covariance(G, var, prior_precision, common_sd):
     return 0.5 * (C + C.T)
 
 
-def state_from_fit(result, which, zones=(), new_sigma=None, new_offset_sd=None) -> PlanState:
+def state_from_fit(result, which, zones=(), new_sigma=None, new_offset_sd=None,
+                   covariance: str = "mixture") -> PlanState:
     """The PlanState of a FitResult (the kept sensors are the existing ones; zones: the
     case's Zone objects); a new sensor's sigma / offset sd [K] default to the medians of the
-    kept sensors'."""
+    kept sensors'.  covariance: "mixture" (the fit's posterior covariance, moment-matched over
+    its hyperparameters: the planned sds keep the hyperparameters' share of the uncertainty;
+    each pick is the exact Gaussian update of that moment-matched posterior) or "dominant"
+    (the dominant component, `dominant_component`: planned sds equal refits at those
+    hyperparameters to round-off).  With a common offset the dominant component is used."""
+    if covariance not in COVARIANCES:
+        raise InverseError(f"covariance must be one of {', '.join(COVARIANCES)}, got {covariance!r}")
     post, rd, kept = result.posterior, result.readings, np.asarray(result.kept, bool)
     common = float(getattr(result.options, "common_offset_sd", 0.0) or 0.0)
     design = result.design
@@ -195,10 +202,16 @@ def state_from_fit(result, which, zones=(), new_sigma=None, new_offset_sd=None) 
     sub = rd.subset(kept)
     sigma = float(np.median(sub.sigma)) if new_sigma is None else float(new_sigma)
     tau = float(np.median(sub.offset_sd)) if new_offset_sd is None else float(new_offset_sd)
-    if post.calibration is None and result.summary.get("model") != "zones":
+    exact = post.calibration is None and result.summary.get("model") != "zones"
+    if exact and (covariance == "dominant" or common > 0 or post.averaged is None):
         pb, alpha, _, text = dominant_component(post, result.problem)
         var = _independent_variance(pb.noise, common)
         C = _state_covariance(pb.G, var, alpha * pb.prior_diag, common)
+    elif exact:
+        var = _independent_variance(result.problem.noise, 0.0)
+        C = post.C
+        text = ("the fit's posterior covariance, moment-matched over its hyperparameters (each pick the exact "
+                "update of that Gaussian)")
     else:
         var = _independent_variance(result.problem.noise, common)
         C = post.C
@@ -212,7 +225,6 @@ def state_from_fit(result, which, zones=(), new_sigma=None, new_offset_sd=None) 
     existing = {"names": list(sub.names), "r": sub.r, "theta": sub.theta, "z": sub.z, "variance": var}
     return PlanState(C, design, common > 0, targets, sigma ** 2 + tau ** 2, existing, text,
                      [t.name for t in targets if t.name not in ("total_power", "mean", "face")])
-
 
 
 def state_from_prior(spec, which, expected_variation, sensors=None, new_sigma=None, new_offset_sd=0.0,

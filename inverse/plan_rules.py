@@ -24,6 +24,9 @@ import numpy as np
 from .errors import InverseError
 
 DRILL_FACES = ("top", "bottom", "side")
+#: which covariance of a fit the planner updates (inverse.plan.state_from_fit); a choice list
+#: kept here, in the planner's light module, so reading a case file loads no statistics
+COVARIANCES = ("mixture", "dominant")
 #: default minimum distance of a sensor tip from any face [m] (common practice, no source)
 DEFAULT_FACE_DISTANCE = 0.002
 #: default minimum spacing between sensors [m] (common practice, no source)

@@ -81,7 +81,7 @@ def test_planned_sd_equals_refit(fitted):
     """Sherman-Morrison (textbook closed form; Golub & Van Loan, Matrix Computations, from
     memory) against a full refit at the same hyperparameters: equal to round-off."""
     case, res = fitted
-    state = pl.state_from_fit(res, ["zones", "power"], case.zones)
+    state = pl.state_from_fit(res, ["zones", "power"], case.zones, covariance="dominant")
     (r, th, z), _ = _candidates(state)
     rows = state.rows(r, th, z)
     plan = pl.greedy(state, rows, 3, (r, th, z), 0.005)
@@ -117,9 +117,27 @@ def test_planned_sd_equals_refit_with_common_offset():
     np.testing.assert_allclose(plan.sd[2], sd, rtol=1e-7)
 
 
-def test_losing_a_sensor_equals_refit_without_it(fitted):
+def test_moment_matched_plan_starts_from_the_fit_and_conditions_exactly(fitted):
+    """covariance = "mixture" (the default): the sds now are the fit's own reported sds, and
+    the picks update that Gaussian as block conditioning does (C - C G^T (G C G^T + S)^-1 G C,
+    the textbook Gaussian conditional; here all picks at once against one at a time)."""
     case, res = fitted
     state = pl.state_from_fit(res, ["zones", "power"], case.zones)
+    assert "moment-matched" in state.source
+    reported = [z["sd"] for z in res.summary["zones"]] + [res.summary["total_power_sd_W"]]
+    np.testing.assert_allclose(state.target_sd(), reported, rtol=1e-8)
+    (r, th, z), _ = _candidates(state)
+    rows = state.rows(r, th, z)
+    plan = pl.greedy(state, rows, 3, (r, th, z), 0.005)
+    G = rows[plan.picks]
+    C = state.C
+    block = C - C @ G.T @ np.linalg.solve(G @ C @ G.T + state.new_variance * np.eye(3), G @ C)
+    np.testing.assert_allclose(plan.sd[-1], state.target_sd(block), rtol=1e-8)
+
+
+def test_losing_a_sensor_equals_refit_without_it(fitted):
+    case, res = fitted
+    state = pl.state_from_fit(res, ["zones", "power"], case.zones, covariance="dominant")
     value = pl.sensor_value(state)
     pb, alpha, _, _ = pl.dominant_component(res.posterior, res.problem)
     F = np.vstack([t.F for t in state.targets])
@@ -139,7 +157,7 @@ def test_greedy_first_pick_is_the_best_single_pick(fitted):
     """N = 1: the pick's weighted variance is the smallest over every candidate, each
     candidate's posterior computed independently by inverting the updated precision."""
     case, res = fitted
-    state = pl.state_from_fit(res, ["zones", "power"], case.zones)
+    state = pl.state_from_fit(res, ["zones", "power"], case.zones, covariance="dominant")
     (r, th, z), _ = _candidates(state)
     rows = state.rows(r, th, z)
     plan = pl.greedy(state, rows, 1)
