@@ -45,6 +45,7 @@ from .functionals import functional_matrix
 from .hyperprior import face_size, matern_precision
 from .noise import noise_covariance
 from .plan_rules import COVARIANCES, _xyz, min_distance
+from .readings import DEFAULT_SIGMA_K
 
 #: a target "depends on a single sensor" when losing that one sensor multiplies its sd by
 #: more than this (common practice, no source)
@@ -84,7 +85,7 @@ class PlanState:
         return np.hstack([G, np.ones((G.shape[0], 1))]) if self.common_offset else G
 
     def target_matrix(self):
-        """(F (q, S), group index (q,), weights' group sizes (q,))."""
+        """(F (q, S): every target's rows stacked, group (q,): the index of each row's target)."""
         F = np.vstack([t.F for t in self.targets])
         group = np.concatenate([np.full(t.F.shape[0], i) for i, t in enumerate(self.targets)])
         return F, group
@@ -172,7 +173,6 @@ def _independent_variance(noise, common_sd):
 def _state_covariance(G, var, prior_precision, common_sd):
     """C of the state (c, [b_c]) from rows G (n, K), independent variances var (n,) [K^2],
     the prior precision diagonal (K,) and the common offset's prior sd [K] (0: none)."""
-    K = G.shape[1]
     if common_sd > 0:
         G = np.hstack([G, np.ones((G.shape[0], 1))])
         prior_precision = np.append(prior_precision, 1.0 / common_sd ** 2)
@@ -180,7 +180,6 @@ def _state_covariance(G, var, prior_precision, common_sd):
     # scale by the diagonal before inverting: the nominal direction's precision is ~1e-4 of the rest
     s = 1.0 / np.sqrt(np.diag(H))
     C = s[:, None] * np.linalg.inv(s[:, None] * H * s[None, :]) * s[None, :]
-    assert C.shape[0] == K + (1 if common_sd > 0 else 0)
     return 0.5 * (C + C.T)
 
 
@@ -254,7 +253,7 @@ def state_from_prior(spec, which, expected_variation, sensors=None, new_sigma=No
     targets = target_list(design, zones, which)
     if common > 0:
         targets = _pad(targets, 1)
-    sigma = float(np.median(sig)) if new_sigma is None and len(names) else float(new_sigma or 0.5)
+    sigma = float(new_sigma) if new_sigma is not None else (float(np.median(sig)) if len(names) else DEFAULT_SIGMA_K)
     text = (f"prior without readings: length scale {length * 1e3:.3g} mm, order {DEFAULT_ORDER:g}, "
             f"expected variation {expected_variation:.3g} (strength {alpha:.3g})")
     existing = {"names": list(names), "r": np.asarray(r, float), "theta": np.asarray(th, float),

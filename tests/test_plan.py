@@ -247,3 +247,29 @@ def test_bad_requests():
         pl.target_list(prior.design, case.zones, ["nowhere"])
     with pytest.raises(inverse.InverseError, match="expected variation"):
         pl.state_from_prior(Problem.from_case(case, **FIT), ["power"], -1.0)
+
+
+@pytest.mark.parametrize("kind", ["side wall", "semi-infinite"])
+def test_other_parts_plan_inside_the_rules(kind):
+    """An unknown side wall (holes from the top) and a semi-infinite part (holes from the
+    side): picks obey the rules and never raise a target's sd."""
+    if kind == "side wall":
+        cyl = fw.Cylinder(0.08, 0.1, 20.0)
+        faces = {"side": fw.UnknownTemperature(), "top": fw.Convection(15.0, 300.0), "bottom": fw.Convection(1500.0, 300.0)}
+        unknown, variation = "side", 5.0
+    else:
+        cyl = fw.Cylinder(0.05, math.inf, 20.0)
+        faces = {"bottom": fw.UnknownFlux(), "side": fw.Temperature(300.0)}
+        unknown, variation = "bottom", 1000.0
+    case = types.SimpleNamespace(cylinder=cyl, faces=faces, zones=[], fit=types.SimpleNamespace())
+    sensors = (["A", "B"], np.array([0.03, 0.01]), np.array([0.0, 1.0]), np.array([0.05, 0.01]), np.full(2, 0.2),
+               np.zeros(2))
+    state = pl.state_from_prior(Problem.from_case(case, harmonics=6, terms=6), ["power", "face"], variation, sensors)
+    rules = PlanRules(spacing=0.01)
+    face = drill_face(rules, unknown, cyl)
+    assert face == ("top" if kind == "side wall" else "side")
+    existing = (state.existing["r"], state.existing["theta"], state.existing["z"])
+    cand = candidate_grid(rules, face, cyl, existing)
+    plan = pl.greedy(state, state.rows(*cand), 3, cand, rules.spacing)
+    assert len(plan.picks) == 3 and np.all(np.diff(plan.sd, axis=0) <= 1e-9 * plan.sd[0])
+    assert admissible(rules, face, cyl, *(c[plan.picks] for c in cand), existing)[0].all()
