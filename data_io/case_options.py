@@ -282,13 +282,9 @@ def _parse_plan(ctx: _Ctx, table: dict | None, unknown: str | None) -> PlanOptio
             rules[key] = _plan_length(ctx, table, key)
     if "exclude_theta" in table:
         rules["exclude_theta"] = _plan_ranges(ctx, table, "exclude_theta", "angle")
-    along = [k for k in ("exclude_r", "exclude_z") if k in table]
-    if along:
-        side = rules.get("drill_face") == "side"
-        if (along[0] == "exclude_r") == side or len(along) > 1:
-            raise ctx.error(f"plan.{along[-1]}", "exclude_r goes with holes drilled from an end face, "
-                                                 "exclude_z with holes drilled from the side")
-        rules["exclude_along"] = _plan_ranges(ctx, table, along[0], "length")
+    for key in ("exclude_r", "exclude_z"):
+        if key in table:
+            rules[key] = _plan_ranges(ctx, table, key, "length")
     if "angle_step" in table:
         step = parse_quantity(table["angle_step"], "angle", "plan.angle_step", file=ctx.path)
         if not 0 < step <= math.pi:

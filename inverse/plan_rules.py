@@ -8,7 +8,7 @@ r = a - depth.  A candidate position is admissible when
     distance to every face >= face_distance            [m]
     distance to every other sensor >= spacing          [m] (existing ones and earlier picks)
     theta outside every excluded angular range         [rad, periodic]
-    r (end holes) or z (side holes) outside every excluded range [m].
+    r and z outside every excluded radial / axial range [m].
 
 `candidate_grid` lays a grid over the admissible region; `admissible` checks any list of
 positions (a user's candidates file) against the same rules.
@@ -40,8 +40,8 @@ DEFAULT_DEPTHS = 4
 @dataclass(frozen=True)
 class PlanRules:
     """Drilling rules (SI, radians).  drill_face None: opposite the unknown face (see
-    `default_drill_face`).  exclude_theta: [(lo, hi)] angular ranges; exclude_along: [(lo,
-    hi)] ranges of r (end holes) or z (side holes); depth_max None: as deep as the part
+    `default_drill_face`).  exclude_theta: [(lo, hi)] angular ranges [rad]; exclude_r /
+    exclude_z: [(lo, hi)] radial / axial ranges [m]; depth_max None: as deep as the part
     allows."""
 
     drill_face: str | None = None
@@ -50,7 +50,8 @@ class PlanRules:
     face_distance: float = DEFAULT_FACE_DISTANCE
     spacing: float = DEFAULT_SPACING
     exclude_theta: tuple = field(default_factory=tuple)
-    exclude_along: tuple = field(default_factory=tuple)
+    exclude_r: tuple = field(default_factory=tuple)
+    exclude_z: tuple = field(default_factory=tuple)
     angle_step: float = DEFAULT_ANGLE_STEP
     along: int = DEFAULT_ALONG
     depths: int = DEFAULT_DEPTHS
@@ -137,8 +138,8 @@ def admissible(rules: PlanRules, face: str, cylinder, r, theta, z, existing=None
         to_face = np.minimum(to_face, L - z)
     reject(to_face < rules.face_distance, "too close to a face")
     reject(_in_ranges(theta, rules.exclude_theta, periodic=True), "in an excluded angular range")
-    along = z if face == "side" else r
-    reject(_in_ranges(along, rules.exclude_along), "in an excluded range")
+    reject(_in_ranges(r, rules.exclude_r), "in an excluded radial range")
+    reject(_in_ranges(z, rules.exclude_z), "in an excluded axial range")
     if existing is not None and len(existing[0]):
         near = min_distance(_xyz(r, theta, z), _xyz(*existing)) < rules.spacing
         reject(near, "too close to an existing sensor")

@@ -219,7 +219,7 @@ def test_rule_breaking_candidates_are_never_chosen(fitted):
 
 def test_rules_arithmetic():
     cyl = fw.Cylinder(A, L, K)
-    rules = PlanRules(exclude_theta=((math.radians(350), math.radians(10)),), exclude_along=((0.06, 0.07),),
+    rules = PlanRules(exclude_theta=((math.radians(350), math.radians(10)),), exclude_r=((0.06, 0.07),),
                       face_distance=0.003, depth_min=0.01, depth_max=0.03)
     r = np.array([0.05, 0.05, 0.065, 0.05, 0.149, 0.05])
     th = np.radians([90, 355, 90, 90, 90, 5])
@@ -227,7 +227,7 @@ def test_rules_arithmetic():
     ok, why = admissible(rules, "top", cyl, r, th, z)
     assert list(ok) == [True, False, False, False, False, False]
     assert why[1] == why[5] == "in an excluded angular range"          # the range wraps through 0
-    assert why[2] == "in an excluded range"
+    assert why[2] == "in an excluded radial range"
     assert why[3] == "depth outside the allowed range"                 # 5 mm deep from the top
     assert why[4] == "too close to a face"                             # 1 mm from the rim
     g = candidate_grid(rules, "top", cyl)
