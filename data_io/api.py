@@ -218,6 +218,13 @@ class Fit:
 
         return sensor_health(self.raw)
 
+    def plan(self, add: int = 4, *, candidates=None, targets=None) -> "Plan":
+        """Where `add` new thermocouples most reduce the targets' sd, from this fit's posterior
+        (see ``heatsight.plan``)."""
+        from .plan_command import compute_plan
+
+        return Plan(compute_plan(self.case, add, candidates, targets, self.readings_path, fit=self.raw))
+
     def write_report(self, folder, *, at=None, overwrite: bool = False) -> Path:
         """Write the files of ``heatsight fit --out folder`` (estimate.csv, sensors.csv,
         summary.json, figures, report.html; points.csv for the query points table `at`)
@@ -229,6 +236,56 @@ class Fit:
         folder, create = output_folder(Path(folder), self.case, overwrite, inputs=[self.readings_path, at])
         points = read_points(at, self.case.cylinder) if at else None
         write_outputs(folder, create, output_files(self.raw, self.case, self.readings_path, points))
+        return folder
+
+
+def plan(case_path, add: int = 4, *, candidates=None, targets=None, readings=None) -> "Plan":
+    """Plan `add` new thermocouples for the case file `case_path` as ``heatsight plan`` does:
+    candidates a CSV of drillable positions (default: the [plan] rules' grid), targets a list of
+    "zones" | "power" | "mean" | "face" | zone names, readings a snapshot (default: the case's)."""
+    from .case import load_case
+    from .limits import check_case
+    from .plan_command import compute_plan
+
+    case = load_case(case_path)
+    check_case(case)
+    return Plan(compute_plan(case, add, candidates, targets, readings))
+
+
+class Plan:
+    """A layout plan in user units: `picks` (plan.csv: the current layout, then each new
+    sensor in order with the targets' sds after it), `sensors_value` (sensors_value.csv),
+    `summary()` (the console line), `write(folder)` (every output of ``heatsight plan``);
+    `raw`: the data_io.plan_command.PlanRun (SI)."""
+
+    def __init__(self, run):
+        self.raw = run
+
+    @property
+    def picks(self) -> pd.DataFrame:
+        from .plan_outputs import picks_frame
+        return picks_frame(self.raw)
+
+    @property
+    def sensors_value(self) -> pd.DataFrame:
+        from .plan_outputs import value_frame
+        return value_frame(self.raw)
+
+    def summary(self) -> str:
+        from .plan_outputs import console_line
+        return console_line(self.raw)
+
+    def __repr__(self) -> str:
+        return f"<heatsight Plan of {self.raw.case.path.name}: {self.summary()}>"
+
+    def write(self, folder, *, overwrite: bool = False) -> Path:
+        from .csv_out import output_folder
+        from .fit_steps import write_outputs
+        from .plan_outputs import PLAN_OUTPUT_NAMES, output_files
+
+        folder, create = output_folder(Path(folder), self.raw.case, overwrite, names=PLAN_OUTPUT_NAMES,
+                                       inputs=[self.raw.readings_path, self.raw.candidates_path])
+        write_outputs(folder, create, output_files(self.raw)[0])
         return folder
 
 

@@ -57,7 +57,7 @@ from ..forward.geometry import Cylinder
 from ..inverse.problem import FACE_NAMES, FitOptions, Zone  # noqa: F401  (re-exported)
 
 from .case_context import _Ctx
-from .case_options import FIT_SCHEMA, ZONE_KEYS, _parse_fit, _parse_zones  # noqa: F401
+from .case_options import FIT_SCHEMA, ZONE_KEYS, PlanOptions, _parse_fit, _parse_plan, _parse_zones  # noqa: F401
 from .errors import InputError
 from .textfile import read_text
 from .profiles import TableProfile, load_profile
@@ -75,7 +75,7 @@ _KEYS_OF_CONDITION = {
     "unknown-flux": (),
 }
 _NEEDS_CONDUCTIVITY = ("flux", "convection", "unknown-flux")
-TOP_KEYS = ("part", "faces", "sensors", "fit", "zones")
+TOP_KEYS = ("part", "faces", "sensors", "fit", "zones", "plan")
 PART_KEYS = ("radius", "height", "conductivity")
 SENSOR_KEYS = ("layout", "readings")
 
@@ -112,6 +112,7 @@ class Case:
     fit: FitOptions
     zones: tuple[Zone, ...] = ()
     part_text: dict[str, str] = field(default_factory=dict)
+    plan: PlanOptions = PlanOptions()     # [plan]: drilling rules for `heatsight plan`
 
     @property
     def unknown_faces(self) -> list[str]:
@@ -305,7 +306,9 @@ def load_case(path, purpose: str | None = None) -> Case:
 
     fit = _parse_fit(ctx, ctx.table(doc, "fit", "fit", required=False))
     zones = _parse_zones(ctx, doc.get("zones"), cylinder, unknown[0] if unknown else None)
+    plan = _parse_plan(ctx, ctx.table(doc, "plan", "plan", required=False),
+                       faces[unknown[0]].condition if unknown else None)
     case = Case(path=path, folder=path.parent, cylinder=cylinder, faces=faces, face_text=face_text,
-                profiles=profiles, sensors=sensors, fit=fit, zones=zones, part_text=part_text)
+                profiles=profiles, sensors=sensors, fit=fit, zones=zones, part_text=part_text, plan=plan)
     case.require(purpose)
     return case

@@ -5,10 +5,12 @@ from __future__ import annotations
 
 import difflib
 import math
+from dataclasses import dataclass
 from typing import Any, Callable
 
 from ..forward.geometry import Cylinder
 from ..inverse.errors import InverseError
+from ..inverse.plan_rules import COVARIANCES, DRILL_FACES, PlanRules
 from ..inverse.problem import (CALIBRATABLE, FACE_NAMES, LOSSES, MODELS, PRIORS, SMOOTHING_ORDER,
                                STRENGTH_METHODS, FitOptions, Zone)
 
@@ -226,3 +228,87 @@ def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> t
                 raise ctx.error(f"{where}.edge", f"expected an edge width >= 0, e.g. \"5 mm\"; got {zone['edge']!r}")
         out.append(Zone(name=name, face=face, theta=theta, r=r, z=z, nominal=nominal, edge=edge or 0.0))
     return tuple(out)
+
+
+# ---------------------------------------------------------------------------- [plan]
+
+PLAN_KEYS = ("drill_from", "depth_min", "depth_max", "face_distance", "spacing", "exclude_theta",
+             "exclude_r", "exclude_z", "angle_step", "positions", "depths", "expected_variation",
+             "sigma", "offset_sd", "covariance")
+
+
+@dataclass(frozen=True)
+class PlanOptions:
+    """The case's [plan] table: drilling rules (inverse.plan_rules.PlanRules), the expected
+    variation of the unknown face [K or W/m^2] for a plan without readings (None: not given),
+    a new sensor's sigma / offset sd [K] (None: the existing sensors' medians) and which
+    covariance of a fit is planned on (inverse.plan.state_from_fit)."""
+
+    rules: PlanRules = PlanRules()
+    expected_variation: float | None = None
+    sigma: float | None = None
+    offset_sd: float | None = None
+    covariance: str = "mixture"
+
+
+def _plan_length(ctx, table, key, minimum=0.0):
+    value = parse_quantity(table[key], "length", f"plan.{key}", file=ctx.path)
+    if not (math.isfinite(value) and value >= minimum):
+        raise ctx.error(f"plan.{key}", f"expected a length >= {minimum * 1e3:g} mm, got {table[key]!r}")
+    return value
+
+
+def _plan_ranges(ctx, table, key, dimension):
+    value = table[key]
+    if not isinstance(value, list) or not all(isinstance(v, list) for v in value):
+        unit = "deg" if dimension == "angle" else "mm"
+        raise ctx.error(f"plan.{key}", f"expected a list of ranges, e.g. [[\"80 {unit}\", \"100 {unit}\"]], "
+                                       f"got {_show(value)}")
+    return tuple(_range(ctx, {key: v}, key, f"plan.{key}[{i}]", dimension) for i, v in enumerate(value, 1))
+
+
+def _parse_plan(ctx: _Ctx, table: dict | None, unknown: str | None) -> PlanOptions:
+    if table is None:
+        return PlanOptions()
+    ctx.check_keys(table, PLAN_KEYS, "plan")
+    rules: dict = {}
+    if "drill_from" in table:
+        face = str(table["drill_from"]).strip().lower()
+        if face not in DRILL_FACES:
+            raise ctx.error("plan.drill_from", f"expected one of: {', '.join(DRILL_FACES)}, got {table['drill_from']!r}")
+        rules["drill_face"] = face
+    for key in ("depth_min", "depth_max", "face_distance", "spacing"):
+        if key in table:
+            rules[key] = _plan_length(ctx, table, key)
+    if "exclude_theta" in table:
+        rules["exclude_theta"] = _plan_ranges(ctx, table, "exclude_theta", "angle")
+    for key in ("exclude_r", "exclude_z"):
+        if key in table:
+            rules[key] = _plan_ranges(ctx, table, key, "length")
+    if "angle_step" in table:
+        step = parse_quantity(table["angle_step"], "angle", "plan.angle_step", file=ctx.path)
+        if not 0 < step <= math.pi:
+            raise ctx.error("plan.angle_step", f"expected an angle in (0, 180] deg, got {table['angle_step']!r}")
+        rules["angle_step"] = step
+    for key, name in (("positions", "along"), ("depths", "depths")):
+        if key in table:
+            rules.update(_fit_count(name, 1)(ctx, table[key], f"plan.{key}"))
+    if rules.get("depth_max") is not None and rules.get("depth_min", 0.0) > rules["depth_max"]:
+        raise ctx.error("plan.depth_max", "depth_max must not be below depth_min")
+    out: dict = {}
+    if "expected_variation" in table:
+        dim = "temperature_difference" if unknown == "unknown-temperature" else "heat_flux"
+        value = parse_quantity(table["expected_variation"], dim, "plan.expected_variation", file=ctx.path)
+        if not (math.isfinite(value) and value > 0):
+            raise ctx.error("plan.expected_variation", f"expected a positive value, got {table['expected_variation']!r}")
+        out["expected_variation"] = value
+    for key in ("sigma", "offset_sd"):
+        if key in table:
+            value = parse_quantity(table[key], "temperature_difference", f"plan.{key}", file=ctx.path)
+            if not (math.isfinite(value) and (value > 0 if key == "sigma" else value >= 0)):
+                raise ctx.error(f"plan.{key}", f"expected a {'positive' if key == 'sigma' else 'non-negative'} "
+                                               f"temperature difference, got {table[key]!r}")
+            out[key] = value
+    if "covariance" in table:
+        out.update(_fit_choice(COVARIANCES, "covariance")(ctx, table["covariance"], "plan.covariance"))
+    return PlanOptions(PlanRules(**rules), **out)

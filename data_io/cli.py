@@ -211,6 +211,11 @@ def _add_trend(sub, help) -> None:
     add_trend(sub, help)
 
 
+def _add_plan(sub, help) -> None:
+    from .plan_command import add_plan
+    add_plan(sub, help)
+
+
 #: (name, one-line help, function adding the full subparser).  Only the chosen command's
 #: subparser is built in full, so `heatsight --help` and `--version` import nothing heavy.
 COMMANDS = [
@@ -219,6 +224,7 @@ COMMANDS = [
     ("check", "validate a case and its tables, and say what was understood", _add_check),
     ("demo", "run the bundled example end to end", _add_demo),
     ("trend", "follow the unknown face over a logged record (steady windows or every Nth row)", _add_trend),
+    ("plan", "where new thermocouples would most reduce the uncertainty (layout planning)", _add_plan),
 ]
 
 

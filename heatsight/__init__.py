@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import importlib
 
-__all__ = ["fit", "forward", "inverse", "data_io"]
+__all__ = ["fit", "plan", "forward", "inverse", "data_io"]
 
 _SUBPACKAGES = ("forward", "inverse", "data_io")
 
@@ -24,6 +24,13 @@ def fit(case, **options):
     user units, figures, ``write_report``); see ``heatsight.data_io.api``."""
     from .data_io.api import fit as _fit
     return _fit(case, **options)
+
+
+def plan(case, add=4, **options):
+    """Where `add` new thermocouples most reduce the uncertainty of the case file `case`: a
+    ``Plan`` (picks and sensors' value as DataFrames, ``write``); see ``heatsight.data_io.api``."""
+    from .data_io.api import plan as _plan
+    return _plan(case, add, **options)
 
 
 def __getattr__(name):

@@ -1,0 +1,179 @@
+"""Where a new thermocouple may go: drilling rules as plain arithmetic on positions (SI).
+
+A hole is drilled straight in from one face: from an end face (top: z = L - depth; bottom:
+z = depth) the hole is axial at (r, theta); from the side it is radial at (theta, z) and
+r = a - depth.  A candidate position is admissible when
+
+    depth_min <= depth <= depth_max                    (depth along the hole [m])
+    distance to every face >= face_distance            [m]
+    distance to every other sensor >= spacing          [m] (existing ones and earlier picks)
+    theta outside every excluded angular range         [rad, periodic]
+    r and z outside every excluded radial / axial range [m].
+
+`candidate_grid` lays a grid over the admissible region; `admissible` checks any list of
+positions (a user's candidates file) against the same rules.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .errors import InverseError
+
+DRILL_FACES = ("top", "bottom", "side")
+#: which covariance of a fit the planner updates (inverse.plan.state_from_fit); a choice list
+#: kept here, in the planner's light module, so reading a case file loads no statistics
+COVARIANCES = ("mixture", "dominant")
+#: default minimum distance of a sensor tip from any face [m] (common practice, no source)
+DEFAULT_FACE_DISTANCE = 0.002
+#: default minimum spacing between sensors [m] (common practice, no source)
+DEFAULT_SPACING = 0.005
+#: default grid: angular step [rad], positions along the face (radial or axial) and depths
+DEFAULT_ANGLE_STEP = math.radians(15.0)
+DEFAULT_ALONG = 12
+DEFAULT_DEPTHS = 4
+
+
+@dataclass(frozen=True)
+class PlanRules:
+    """Drilling rules (SI, radians).  drill_face None: opposite the unknown face (see
+    `default_drill_face`).  exclude_theta: [(lo, hi)] angular ranges [rad]; exclude_r /
+    exclude_z: [(lo, hi)] radial / axial ranges [m]; depth_max None: as deep as the part
+    allows."""
+
+    drill_face: str | None = None
+    depth_min: float = 0.0
+    depth_max: float | None = None
+    face_distance: float = DEFAULT_FACE_DISTANCE
+    spacing: float = DEFAULT_SPACING
+    exclude_theta: tuple = field(default_factory=tuple)
+    exclude_r: tuple = field(default_factory=tuple)
+    exclude_z: tuple = field(default_factory=tuple)
+    angle_step: float = DEFAULT_ANGLE_STEP
+    along: int = DEFAULT_ALONG
+    depths: int = DEFAULT_DEPTHS
+
+
+def default_drill_face(unknown_face: str, cylinder) -> str:
+    """The face holes are drilled from when the case does not say: the end opposite an
+    unknown end face (the side when that end does not exist), the top (bottom of a
+    semi-infinite part) for an unknown side."""
+    semi = math.isinf(cylinder.height)
+    if unknown_face == "bottom":
+        return "side" if semi else "top"
+    if unknown_face == "top":
+        return "bottom"
+    return "bottom" if semi else "top"
+
+
+def drill_face(rules: PlanRules, unknown_face: str, cylinder) -> str:
+    face = rules.drill_face or default_drill_face(unknown_face, cylinder)
+    if face not in DRILL_FACES:
+        raise InverseError(f"holes are drilled from one of {', '.join(DRILL_FACES)}, got {face!r}")
+    if face == "top" and math.isinf(cylinder.height):
+        raise InverseError("a semi-infinite part has no top face to drill from")
+    return face
+
+
+def depth_of(face: str, cylinder, r, z) -> np.ndarray:
+    """Depth [m] of positions along holes drilled from `face`."""
+    if face == "top":
+        return cylinder.height - np.asarray(z, float)
+    if face == "bottom":
+        return np.asarray(z, float)
+    return cylinder.radius - np.asarray(r, float)
+
+
+def _in_ranges(x, ranges, periodic=False):
+    x = np.asarray(x, float)
+    out = np.zeros(x.shape, dtype=bool)
+    for lo, hi in ranges:
+        if periodic:
+            span = (hi - lo) % (2 * math.pi) or (2 * math.pi if hi != lo else 0.0)
+            out |= ((x - lo) % (2 * math.pi)) <= span
+        else:
+            out |= (x >= lo) & (x <= hi)
+    return out
+
+
+def _xyz(r, theta, z):
+    r, theta, z = (np.asarray(v, float) for v in (r, theta, z))
+    return np.column_stack([r * np.cos(theta), r * np.sin(theta), z])
+
+
+def min_distance(points, others) -> np.ndarray:
+    """Distance [m] from each of `points` (P, 3) to the nearest of `others` (Q, 3) (inf if none),
+    in blocks so 5,000 x 5,000 stays small."""
+    P = np.asarray(points, float)
+    Q = np.asarray(others, float)
+    out = np.full(P.shape[0], np.inf)
+    if Q.size == 0:
+        return out
+    for i in range(0, P.shape[0], 2048):
+        d2 = ((P[i:i + 2048, None, :] - Q[None, :, :]) ** 2).sum(axis=2)
+        out[i:i + 2048] = np.sqrt(d2.min(axis=1))
+    return out
+
+
+def admissible(rules: PlanRules, face: str, cylinder, r, theta, z, existing=None):
+    """(mask, reason) for positions (r, theta, z) [m, rad, m]: mask True where every rule
+    holds; reason: the first rule each rejected position breaks ('' when admissible).
+    existing: (r, theta, z) of the sensors already in the part, or None."""
+    r, theta, z = (np.atleast_1d(np.asarray(v, float)) for v in (r, theta, z))
+    a, L = cylinder.radius, cylinder.height
+    reason = np.full(r.shape, "", dtype=object)
+
+    def reject(bad, why):
+        reason[(reason == "") & bad] = why
+
+    depth = depth_of(face, cylinder, r, z)
+    dmax = rules.depth_max if rules.depth_max is not None else np.inf
+    reject((r < 0) | (r > a) | (z < 0) | (z > L), "outside the part")
+    reject((depth < rules.depth_min) | (depth > dmax), "depth outside the allowed range")
+    to_face = np.minimum(a - r, z)
+    if math.isfinite(L):
+        to_face = np.minimum(to_face, L - z)
+    reject(to_face < rules.face_distance, "too close to a face")
+    reject(_in_ranges(theta, rules.exclude_theta, periodic=True), "in an excluded angular range")
+    reject(_in_ranges(r, rules.exclude_r), "in an excluded radial range")
+    reject(_in_ranges(z, rules.exclude_z), "in an excluded axial range")
+    if existing is not None and len(existing[0]):
+        near = min_distance(_xyz(r, theta, z), _xyz(*existing)) < rules.spacing
+        reject(near, "too close to an existing sensor")
+    return reason == "", reason
+
+
+def candidate_grid(rules: PlanRules, face: str, cylinder, existing=None):
+    """(r, theta, z) [m, rad, m] of the admissible points of a grid over the drillable
+    region: `along` positions across the face (r for end holes, z for side holes, cell
+    centres), angles every `angle_step`, `depths` depths from depth_min to depth_max."""
+    a, L = cylinder.radius, cylinder.height
+    g = rules.face_distance
+    if face == "side":
+        top = L if math.isfinite(L) else 4.0 * a
+        along = g + (top - 2 * g) * (np.arange(rules.along) + 0.5) / rules.along
+        deep = a - g
+    else:
+        along = (a - g) * (np.arange(rules.along) + 0.5) / rules.along
+        deep = (L if math.isfinite(L) else 4.0 * a) - g
+    dmax = min(rules.depth_max if rules.depth_max is not None else deep, deep)
+    dmin = max(rules.depth_min, g)
+    if dmax < dmin:
+        raise InverseError(f"no depth is allowed: the depth range ends at {dmax * 1e3:.3g} mm, below "
+                           f"{dmin * 1e3:.3g} mm")
+    depths = np.linspace(dmin, dmax, rules.depths) if rules.depths > 1 else np.array([0.5 * (dmin + dmax)])
+    n_theta = max(1, int(round(2 * math.pi / rules.angle_step)))
+    theta = 2 * math.pi * np.arange(n_theta) / n_theta
+    S, TH, D = np.meshgrid(along, theta, depths, indexing="ij")
+    S, TH, D = S.ravel(), TH.ravel(), D.ravel()
+    if face == "side":
+        r, z = a - D, S
+    elif face == "top":
+        r, z = S, L - D
+    else:
+        r, z = S, D
+    ok, _ = admissible(rules, face, cylinder, r, TH, z, existing)
+    return r[ok], TH[ok], z[ok]
