@@ -43,6 +43,7 @@ from .errors import InverseError
 from .face_grid import display_grid
 from .functionals import functional_matrix
 from .hyperprior import face_size, matern_precision
+from .truncation import tail_variance
 from .noise import noise_covariance
 from .plan_rules import COVARIANCES, _xyz, min_distance
 from .readings import DEFAULT_SIGMA_K
@@ -78,6 +79,17 @@ class PlanState:
     existing: dict
     source: str
     zone_names: list = field(default_factory=list)
+    tail_prior: object = None   # the learned prior whose left-out modes add to a new sensor's noise
+
+    def variances(self, r, theta, z) -> np.ndarray:
+        """Noise variance [K^2] of new sensors at (r, theta, z): the new-sensor variance plus,
+        with a learned prior, the left-out modes' variance there (truncation.py; each sensor's
+        own share: the shares' correlation between sensors is left out of the planning)."""
+        var = np.full(np.size(r), self.new_variance)
+        if self.tail_prior is not None:
+            var = var + tail_variance(self.design, np.atleast_1d(r), np.atleast_1d(theta), np.atleast_1d(z),
+                                      self.tail_prior)
+        return var
 
     def rows(self, r, theta, z) -> np.ndarray:
         """Rows g (P, S) of new sensors at (r, theta, z) [m, rad, m]: K per unit state."""
@@ -160,14 +172,10 @@ def dominant_component(posterior, problem):
 
 
 def _independent_variance(noise, common_sd):
-    """Per-reading variances s_i^2 [K^2] once the common offset is taken into the state."""
-    var = noise.sd ** 2 - common_sd ** 2
-    if not noise.diagonal:
-        S = noise.covariance
-        rest = S - np.diag(np.diag(S)) - common_sd ** 2 * (1 - np.eye(S.shape[0]))
-        if common_sd == 0 or np.abs(rest).max() > 1e-9 * np.abs(S).max():
-            raise InverseError("planning needs sensors whose noise is independent apart from a common offset")
-    return var
+    """Per-reading variances s_i^2 [K^2] once the common offset is taken into the state. The
+    learned prior's left-out modes (truncation.py) correlate the readings; planning keeps
+    each reading's own share of them and leaves out the correlation (approximate)."""
+    return noise.sd ** 2 - common_sd ** 2
 
 
 def _state_covariance(G, var, prior_precision, common_sd):
@@ -222,8 +230,9 @@ def state_from_fit(result, which, zones=(), new_sigma=None, new_offset_sd=None,
     if common > 0:
         targets = _pad(targets, 1)
     existing = {"names": list(sub.names), "r": sub.r, "theta": sub.theta, "z": sub.z, "variance": var}
+    tail = post.averaged if hasattr(post.averaged, "hyperparameters") else None
     return PlanState(C, design, common > 0, targets, sigma ** 2 + tau ** 2, existing, text,
-                     [t.name for t in targets if t.name not in ("total_power", "mean", "face")])
+                     [t.name for t in targets if t.name not in ("total_power", "mean", "face")], tail)
 
 
 def state_from_prior(spec, which, expected_variation, sensors=None, new_sigma=None, new_offset_sd=0.0,
@@ -300,7 +309,10 @@ def greedy(state: PlanState, rows, n_add: int, positions=None, spacing: float = 
         raise InverseError("the number of sensors to add must be at least 1")
     if N == 0:
         raise InverseError("no admissible candidate position")
-    s2 = np.full(N, state.new_variance) if variance is None else np.asarray(variance, float)
+    if variance is not None:
+        s2 = np.asarray(variance, float)
+    else:
+        s2 = state.variances(*positions) if positions is not None else np.full(N, state.new_variance)
     F, group = state.target_matrix()
     C = state.C.copy()
     var0 = np.maximum(np.einsum("qk,kl,ql->q", F, C, F), 1e-300)

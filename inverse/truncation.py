@@ -65,15 +65,30 @@ def left_out(design, big) -> np.ndarray:
     return (big.m[:ne] > design.harmonics) | (big.n_index[:ne] >= design.terms)
 
 
+def _tail_parts(design, r, theta, z, prior):
+    """(G_tail (n, T) [K per unit coefficient], v (T,) [unit^2]) at points, for `prior`."""
+    cyl = design.cylinder
+    dist = cyl.radius - r if design.face_name == "side" else np.abs(z - (0.0 if design.face_name == "bottom"
+                                                                         else cyl.height))
+    big = design.model.basis(*enlarged_size(design, float(np.min(dist)), TAIL_DECAY))
+    mask = left_out(design, big)
+    v = np.zeros(int(mask.sum()))
+    if not mask.any():
+        return np.zeros((np.size(r), 0)), v
+    G = big.fields(r, theta, z)[0][:, :big.n_eigen][:, mask]
+    for (length, order), alphas, w in prior.hyperparameters():
+        v += float(w @ (1.0 / alphas)) / matern_precision(big, length, order)[:big.n_eigen][mask]
+    return G, v
+
+
+def tail_variance(design, r, theta, z, prior) -> np.ndarray:
+    """diag(S_tail) (n,) [K^2] at points (r, theta, z) [m, rad, m] (see tail_covariance)."""
+    G, v = _tail_parts(design, np.asarray(r, float), np.asarray(theta, float), np.asarray(z, float), prior)
+    return (G ** 2) @ v
+
+
 def tail_covariance(design, rd, prior) -> np.ndarray:
     """S_tail (n, n) [K^2] at the sensors of `rd` for the learned prior `prior`
     (hyperprior.LearnedPrior): the left-out modes' variance averaged over its components."""
-    big = design.model.basis(*enlarged_size(design, nearest_distance(design, rd), TAIL_DECAY))
-    mask = left_out(design, big)
-    if not mask.any():
-        return np.zeros((rd.n, rd.n))
-    G = big.fields(rd.r, rd.theta, rd.z)[0][:, :big.n_eigen][:, mask]
-    v = np.zeros(int(mask.sum()))
-    for (length, order), alphas, w in prior.hyperparameters():
-        v += float(w @ (1.0 / alphas)) / matern_precision(big, length, order)[:big.n_eigen][mask]
+    G, v = _tail_parts(design, rd.r, rd.theta, rd.z, prior)
     return (G * v) @ G.T

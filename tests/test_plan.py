@@ -47,7 +47,12 @@ def _readings(common_sd=0.0):
                                   np.linspace(0.0, 0.3, r.size), 0.0)
 
 
-FIT = dict(harmonics=6, terms=6, grid=(4, 8))   # a coarse display grid: the fit's bands are not under test
+# a coarse display grid: the fit's bands are not under test. The exactness checks need
+# independent reading noise: the learned prior's left-out-mode tail (inverse/truncation.py)
+# correlates the readings, and planning keeps only each reading's own share of it, so these
+# fits use the fixed prior (no tail; the planner's dominant component is then a strength of
+# the alpha mixture) and the smooth model (the planner's exact path)
+FIT = dict(harmonics=6, terms=6, grid=(4, 8), prior="fixed", model="smooth")
 
 
 @pytest.fixture(scope="module")
@@ -86,7 +91,7 @@ def test_planned_sd_equals_refit(fitted):
     rows = state.rows(r, th, z)
     plan = pl.greedy(state, rows, 3, (r, th, z), 0.005)
     pb, alpha, _, text = pl.dominant_component(res.posterior, res.problem)
-    assert "length scale" in text
+    assert "strength" in text
     F = np.vstack([t.F for t in state.targets])
     for k in range(1, 4):
         picks = plan.picks[:k]
