@@ -78,7 +78,9 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     ok = np.ones(rd.n, dtype=bool)
     ok[[g.index for g in gross]] = False
     base = _with_placement(_linear_problem(G, t0, noise, rd, P, u, ok), rd, ev, dG, P, u, ok, opts)
-    problem = _with_tail(base, design, rd, P, u, ok) if _learned(opts) else base
+    # the left-out modes' variance is learned without the sensors a first screening (without
+    # it) suspects: a broken sensor would otherwise widen it and hide itself
+    problem = _with_tail(base, design, rd, P, u, _screen(base, rd, opts, gross).kept) if _learned(opts) else base
     if opts.calibrate:
         design = _calibrated_design(design, rd, problem, P, opts, gross)
         problem = _linear_problem(*design.sensors(rd.r, rd.theta, rd.z), problem.noise, rd, P, u, ok)
@@ -87,18 +89,9 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     # healthy under the other (model_choice.py compares them on all the readings)
     zone_model = _zone_model(spec, design, rd, base, warnings)
     if zone_model is not None and _learned(opts):
-        zone_model.add_tail(design, rd, u > 0, ok)
+        zone_model.add_tail(design, rd, u > 0, _screen(zone_model.marginal, rd, opts, gross).kept)
     smooth = _screen(problem, rd, opts, gross)
     zscreen = None if zone_model is None else _screen(zone_model.marginal, rd, opts, gross)
-    if _learned(opts):
-        # a sensor set aside must not shape the left-out modes' variance either: learn it again
-        # without the set-aside sensors, then finish the screening on the new noise
-        if len(smooth.set_aside) > len(gross):
-            problem = _with_tail(base, design, rd, P, u, smooth.kept)
-            smooth = _screen(problem, rd, opts, smooth.set_aside)
-        if zscreen is not None and len(zscreen.set_aside) > len(gross):
-            zone_model.add_tail(design, rd, u > 0, zscreen.kept, base=base)
-            zscreen = _screen(zone_model.marginal, rd, opts, zscreen.set_aside)
     post = _posterior(design, rd, smooth, P, u, opts, warnings)
     if post.calibration is not None:
         design = post.calibration.design

@@ -25,7 +25,11 @@ updated exactly, so a planned sd equals the sd of a refit with that sensor at th
 hyperparameters to round-off.  An alpha-averaged fit (fixed prior) likewise takes its
 dominant alpha; a fit at one strength takes it.  The zone model and a fit with calibrated
 face parameters take the fit's (moment-matched or linearized) covariance of c as it is:
-an approximation, said in `source`.  Without readings the prior has fixed hyperparameters:
+an approximation, said in `source`.  With the learned prior, the fit's readings share the
+left-out modes' signal (truncation.py: a full noise covariance): C is still the fit's, and
+each candidate's noise variance adds its own share of those modes (`PlanState.variances`),
+but a new sensor's share is taken as independent of the others' (approximate: the exact
+refit would correlate them).  Without readings the prior has fixed hyperparameters:
 l = the face size, order 1, amplitude sigma_f = the expected variation the user states
 (sigma_f^2 = sum_k' 1 / (alpha w_k), hyperprior.py), i.e. alpha = sum_k' 1 / w_k / sigma_f^2.
 """

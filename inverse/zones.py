@@ -202,14 +202,10 @@ class ZoneModel:
                                               S + (self.Gz * self.s ** 2) @ self.Gz.T, self.P,
                                               np.zeros(self.P.size))
 
-    def add_tail(self, design, rd, nominal, ok, base=None):
+    def add_tail(self, design, rd, nominal, ok):
         """The remainder's left-out modes marginalized into the noise (truncation.py), their
         variance from a first learned remainder prior on the readings `ok`: the zones carry
-        the sharp structure, so the remainder's tail is its own, not the smooth model's.
-        base: the smooth problem without any tail (default: the current one; pass the
-        original to replace a tail added before)."""
-        if base is not None:
-            self._set_smooth(base)
+        the sharp structure, so the remainder's tail is its own, not the smooth model's."""
         idx = np.flatnonzero(ok)
         first = learn_prior(self.marginal.subset(idx), design.basis, nominal=nominal,
                             nominal_factor=NOMINAL_PRECISION_FACTOR, spread=self.remainder_spread(idx))
