@@ -335,6 +335,52 @@ class LogReader:
         return np.char.add(np.char.add(np.char.add(np.char.add(text, sign), hh), ":"), mm)
 
 
+def read_ahead(chunks, depth: int = 2):
+    """Iterate over `chunks` (an iterator of LogChunks) parsed in a reader thread, at most
+    `depth` chunks ahead of the consumer, so that parsing (pandas' C parser releases the
+    GIL) overlaps the consumer's computation.  An exception of the reader is raised in the
+    consumer at the point where its chunk would have come; closing the generator early stops
+    the reader."""
+    import queue
+    import threading
+
+    box: queue.Queue = queue.Queue(maxsize=max(int(depth), 1))
+    stop = threading.Event()
+    done = object()
+
+    def put(item):
+        while not stop.is_set():
+            try:
+                box.put(item, timeout=0.1)
+                return True
+            except queue.Full:
+                continue
+        return False
+
+    def produce():
+        try:
+            for chunk in chunks:
+                if not put((chunk, None)):
+                    return
+            put((done, None))
+        except BaseException as exc:  # noqa: BLE001 - handed to the consumer
+            put((done, exc))
+
+    worker = threading.Thread(target=produce, name="heatsight-log-reader", daemon=True)
+    worker.start()
+    try:
+        while True:
+            item, exc = box.get()
+            if item is done:
+                if exc is not None:
+                    raise exc
+                return
+            yield item
+    finally:
+        stop.set()
+        worker.join()
+
+
 def read_whole_log(path, layout=None, chunk_rows: int = DEFAULT_CHUNK_ROWS):
     """A whole log through the same reader as the stream: (times (R,) [s], values (R, n)
     [K], LogColumns, warnings)."""
