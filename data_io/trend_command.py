@@ -134,8 +134,39 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
     return summary, folder
 
 
+def _fleet(args) -> int:
+    """Several parts (data_io.fleet): one line per finished part, then the tally."""
+    import sys
+
+    from .console import PROG, current, printable
+    from .fleet import part_line, run_fleet
+
+    if args.log:
+        raise InputError("--log serves one part; with several parts each case reads its own log "
+                         "([sensors] readings)")
+    con = current()
+
+    def report(i, n, rec):
+        line = part_line(i, n, rec)
+        if rec["status"] != "done":
+            print(f"{PROG}: error: {printable(line)}", file=con.stderr)
+        elif not (con.quiet or con.json):
+            print(line, file=con.stdout)
+            sys.stdout.flush()
+
+    options = dict(every=args.every, window=args.window, drift=args.drift, sigma_floor=args.sigma_floor,
+                   overwrite=args.overwrite, tz=args.tz, fmt=args.format)
+    records, status = run_fleet(args.case, out=args.out, scheduler=args.scheduler, workers=args.workers,
+                                options=options, report=report)
+    done = sum(r["status"] == "done" for r in records)
+    con.answer(f"{done} of {len(records)} parts done", {"parts": records, "done": done, "exit_status": status})
+    return status
+
+
 def _run(args) -> int:
-    run_trend(args.case, log=args.log, every=args.every, out=args.out, window=args.window, drift=args.drift,
+    if len(args.case) > 1 or Path(args.case[0]).is_dir() or args.scheduler or args.workers:
+        return _fleet(args)
+    run_trend(args.case[0], log=args.log, every=args.every, out=args.out, window=args.window, drift=args.drift,
               sigma_floor=args.sigma_floor, overwrite=args.overwrite, tz=args.tz, fmt=args.format)
     return 0
 
@@ -150,11 +181,17 @@ def add_trend(sub, help) -> None:
                     "whose change from the first settled steady window exceeds its uncertainty.",
         epilog="examples:\n  heatsight trend platen.toml --log shift.csv\n"
                "  heatsight trend platen.toml --log month.csv --every 60 --out platen-month\n"
-               "  heatsight trend platen.toml --log shift.csv --window 300 --drift 0.2\n\n"
+               "  heatsight trend platen.toml --log shift.csv --window 300 --drift 0.2\n"
+               "  heatsight trend plant/ --every 60 --format parquet          (every case in plant/)\n"
+               "  heatsight trend a.toml b.toml --scheduler tcp://10.0.0.5:8786\n\n"
+               "Several parts: exit status 0 when every part succeeded, 2 when a part had bad input (the others "
+               "are written), 1 when a part failed otherwise.\n\n"
                f"Defaults (common practice, no source): --window {DEFAULT_WINDOW_S:g} s, --drift "
                f"{DEFAULT_DRIFT_K:g} K, --sigma-floor {DEFAULT_FLOOR_K:g} K.",
         formatter_class=argparse.RawDescriptionHelpFormatter)
-    p.add_argument("case", metavar="CASE.toml", help="case file (TOML)")
+    p.add_argument("case", metavar="CASE.toml", nargs="+",
+                   help="case file (TOML); several case files or a folder of them run a fleet, one task per part "
+                        "on dask.distributed (extra 'fleet'), each part with its own log")
     p.add_argument("--log", metavar="LOG.csv", help="the logged readings (default: [sensors] readings, if a log)")
     p.add_argument("--every", type=whole, metavar="N",
                    help="invert every Nth logged row instead of the steady windows")
@@ -172,5 +209,10 @@ def add_trend(sub, help) -> None:
     p.add_argument("--format", choices=("csv", "parquet"), default="csv",
                    help="the rows as trend.csv (default) or trend.parquet (smaller and quicker to write for long "
                         "logs; needs the extra 'parquet')")
+    p.add_argument("--scheduler", metavar="ADDRESS",
+                   help="run the parts on the dask cluster at ADDRESS (e.g. tcp://10.0.0.5:8786; default: a local "
+                        "cluster)")
+    p.add_argument("--workers", type=whole, metavar="N",
+                   help="processes of the local cluster for several parts (default 2, at most the cores)")
     p.add_argument("--overwrite", action="store_true", help="allow writing into a non-empty folder")
     p.set_defaults(run=_run)
