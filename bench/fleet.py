@@ -85,7 +85,8 @@ def max_rel_difference(a: Path, b: Path) -> float:
 
 
 def main() -> None:
-    from heatsight.data_io.fleet import run_fleet, run_part
+    from heatsight.data_io.fleet import run_fleet
+    from heatsight.data_io.trend_command import run_part
 
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     ap.add_argument("--parts", type=int, default=8)
@@ -106,7 +107,7 @@ def main() -> None:
         t_seq = time.perf_counter() - t
 
         t = time.perf_counter()
-        records, status = run_fleet(cases, out=tmp / "fleet", workers=args.workers, options=options)
+        records, status = run_fleet(cases, run_part, out=tmp / "fleet", workers=args.workers, options=options)
         t_fleet = time.perf_counter() - t
         if status != 0:
             raise SystemExit(f"fleet failed: {records}")

@@ -4,7 +4,7 @@
 
 Each part is a case file with its own log (its ``[sensors] readings``); a folder stands for
 its ``*.toml`` case files.  One task per part runs the ordinary one-part trend
-(data_io.trend_command.run_trend) on a worker, so a part's outputs are exactly those of
+(data_io.trend_command.run_part, around run_trend) on a worker, so a part's outputs are exactly those of
 running it alone, in ``<case>-trend`` next to its case (or ``DIR/<case>-trend`` with
 ``--out DIR``).  The parts run on a local cluster of --workers processes (one thread each)
 by default, or on an existing cluster through --scheduler ADDRESS (its workers need
@@ -19,7 +19,6 @@ the parts that succeeded have their outputs in every case.
 from __future__ import annotations
 
 import os
-import time
 from pathlib import Path
 
 from .errors import InputError
@@ -71,32 +70,6 @@ def part_folders(parts, out) -> list[Path | None]:
     return folders
 
 
-def run_part(case_path: str, out: str | None, options: dict) -> dict:
-    """One part, on a worker: the one-part trend, its console text kept.  Returns a record
-    with "case", "status" ("done", "bad input" or "failed"), and "folder", "text",
-    "trend_rows", "flags", "seconds" or "error"."""
-    from ..forward.errors import ForwardModelError
-    from ..inverse.errors import InverseError
-    from .trend_command import run_trend
-
-    t = time.perf_counter()
-    text: list[str] = []
-    rec = {"case": str(case_path)}
-    try:
-        if out is not None:
-            Path(out).parent.mkdir(parents=True, exist_ok=True)
-        summary, folder = run_trend(case_path, out=out, progress=False, echo=text.append, **options)
-    except (InputError, ForwardModelError, InverseError) as exc:
-        return {**rec, "status": "bad input", "error": str(exc)}
-    except OSError as exc:
-        return {**rec, "status": "bad input", "error": f"{exc.filename or case_path}: {exc.strerror or exc}"}
-    except Exception as exc:  # noqa: BLE001 - reported for this part, the others go on
-        return {**rec, "status": "failed", "error": f"internal error: {type(exc).__name__}: {exc}"}
-    return {**rec, "status": "done", "folder": str(folder), "text": "\n".join(text),
-            "trend_rows": summary["trend_rows"], "flags": [f["zone"] for f in summary["flags"]],
-            "seconds": time.perf_counter() - t}
-
-
 def _client(scheduler, workers):
     """A dask.distributed Client: of the cluster at `scheduler`, or of a new local cluster
     of `workers` processes with one thread each (closed with the client)."""
@@ -122,8 +95,10 @@ def exit_status(records) -> int:
     return 1 if "failed" in states else 2 if "bad input" in states else 0
 
 
-def run_fleet(paths, *, out=None, scheduler=None, workers=None, options=None, report=None, client=None):
-    """Run the trend of every part; returns (records in the parts' order, exit status).
+def run_fleet(paths, task, *, out=None, scheduler=None, workers=None, options=None, report=None, client=None):
+    """Run task(case path, output folder or None, options) -> record (a module-level
+    function, data_io.trend_command.run_part) for every part; returns (records in the parts'
+    order, exit status).
     report(i, n, record) is called as each part finishes (progress per part); `client`: an
     existing dask Client to use (else one is made from scheduler / workers and closed)."""
     parts = fleet_parts(paths)
@@ -138,7 +113,7 @@ def run_fleet(paths, *, out=None, scheduler=None, workers=None, options=None, re
     try:
         from dask.distributed import as_completed
 
-        futures = [client.submit(run_part, str(p), None if f is None else str(f), options, key=f"heatsight-part-{i}",
+        futures = [client.submit(task, str(p), None if f is None else str(f), options, key=f"heatsight-part-{i}",
                                  pure=False) for i, (p, f) in enumerate(zip(parts, folders))]
         index = {fut.key: i for i, fut in enumerate(futures)}
         records: list = [None] * len(parts)

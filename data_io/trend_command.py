@@ -134,6 +134,33 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
     return summary, folder
 
 
+def run_part(case_path: str, out: str | None, options: dict) -> dict:
+    """One part, on a worker: the one-part trend, its console text kept.  Returns a record
+    with "case", "status" ("done", "bad input" or "failed"), and "folder", "text",
+    "trend_rows", "flags", "seconds" or "error"."""
+    import time
+
+    from ..forward.errors import ForwardModelError
+    from ..inverse.errors import InverseError
+
+    t = time.perf_counter()
+    text: list[str] = []
+    rec = {"case": str(case_path)}
+    try:
+        if out is not None:
+            Path(out).parent.mkdir(parents=True, exist_ok=True)
+        summary, folder = run_trend(case_path, out=out, progress=False, echo=text.append, **options)
+    except (InputError, ForwardModelError, InverseError) as exc:
+        return {**rec, "status": "bad input", "error": str(exc)}
+    except OSError as exc:
+        return {**rec, "status": "bad input", "error": f"{exc.filename or case_path}: {exc.strerror or exc}"}
+    except Exception as exc:  # noqa: BLE001 - reported for this part, the others go on
+        return {**rec, "status": "failed", "error": f"internal error: {type(exc).__name__}: {exc}"}
+    return {**rec, "status": "done", "folder": str(folder), "text": "\n".join(text),
+            "trend_rows": summary["trend_rows"], "flags": [f["zone"] for f in summary["flags"]],
+            "seconds": time.perf_counter() - t}
+
+
 def _fleet(args) -> int:
     """Several parts (data_io.fleet): one line per finished part, then the tally."""
     import sys
@@ -156,7 +183,7 @@ def _fleet(args) -> int:
 
     options = dict(every=args.every, window=args.window, drift=args.drift, sigma_floor=args.sigma_floor,
                    overwrite=args.overwrite, tz=args.tz, fmt=args.format)
-    records, status = run_fleet(args.case, out=args.out, scheduler=args.scheduler, workers=args.workers,
+    records, status = run_fleet(args.case, run_part, out=args.out, scheduler=args.scheduler, workers=args.workers,
                                 options=options, report=report)
     done = sum(r["status"] == "done" for r in records)
     con.answer(f"{done} of {len(records)} parts done", {"parts": records, "done": done, "exit_status": status})
