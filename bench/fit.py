@@ -13,6 +13,8 @@ jacobian  lmfit (least_squares) on the same 100-coefficient problem with the ana
 alphas    choosing alpha by the evidence among 200 candidates from one SVD
           (LinearGaussianProblem) vs 200 separate Cholesky solves of the normal equations;
           goal >= 20x.
+command   `heatsight fit` of the demo as a fresh process, end to end (goal <= 1.5 s), and
+          `heatsight --help` (goal <= 0.3 s), then the split of one fit command's time.
 full      inverse.fit with bands on a 50 x 90 face grid, 64 sensors, 210 coefficients
           (harmonics 10, terms 10), and the share of its time spent in the forward model
           (CylinderModel + basis construction, basis fields at the sensors, face values on
@@ -273,7 +275,70 @@ def bench_full(repeat, n=64, harmonics=10, terms=10, grid=(50, 90)):
           f"{t_fit * 1e3:.0f} ms); statistics and tables: {100 * (1 - fwd / t_fit):.0f} %")
 
 
-SECTIONS = {"table": bench_table, "jacobian": bench_jacobian, "alphas": bench_alphas, "full": bench_full}
+def bench_command(repeat):
+    """`heatsight fit` of the demo as a fresh process, end to end (goal <= 1.5 s), and
+    `heatsight --help` (goal <= 0.3 s); then where one fit command spends its time, each
+    step timed in this process (imports warm)."""
+    import shutil
+    import subprocess
+    import tempfile
+
+    root = _HERE.parent
+    tmp = Path(tempfile.mkdtemp(prefix="heatsight-bench-fitcmd-"))
+    try:
+        for name in ("platen.toml", "layout.csv", "readings.csv"):
+            shutil.copy(root / "demo_data" / name, tmp / name)
+        env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1")
+        runs = iter(range(1000))
+
+        def process(argv):
+            res = subprocess.run([sys.executable, "-m", "heatsight", *argv], cwd=tmp, env=env,
+                                 capture_output=True, text=True)
+            if res.returncode != 0:
+                raise SystemExit(f"heatsight {' '.join(argv)} failed: {res.stderr}")
+
+        t_help = best_of(lambda: process(["--help"]), max(repeat, 3))
+        t_fit = best_of(lambda: process(["fit", "platen.toml", "--out", f"o{next(runs)}"]), repeat)
+        print(f"heatsight --help as a process: {t_help:.2f} s (goal <= 0.3 s)")
+        print(f"heatsight fit of the demo as a process, end to end: {t_fit:.2f} s (goal <= 1.5 s)")
+
+        # the split, in this process
+        from heatsight.data_io.case import load_case
+        from heatsight.data_io.fit_steps import fit_case, output_files, write_outputs
+        from heatsight.data_io.plots import all_figures, figure_png
+
+        t = time.perf_counter()
+        res = subprocess.run([sys.executable, "-c", "import heatsight.data_io.fit_command, "
+                              "heatsight.data_io.fit_outputs, heatsight.data_io.plots, heatsight.data_io.report, "
+                              "heatsight.inverse.fit, heatsight.inverse.hyperprior"], env=env)
+        t_imp = time.perf_counter() - t
+        case = load_case(tmp / "platen.toml", purpose="fit")
+        steps = {}
+        t = time.perf_counter()
+        result, _ = fit_case(case, case.sensors.readings)
+        steps["the fit (inverse.fit with the learned prior)"] = time.perf_counter() - t
+        t = time.perf_counter()
+        figs = all_figures(result, zones=case.zones)
+        steps["figures built (incl. the bands they show)"] = time.perf_counter() - t
+        t = time.perf_counter()
+        for f in figs.values():
+            figure_png(f)
+        steps["figures drawn to PNG"] = time.perf_counter() - t
+        t = time.perf_counter()
+        files = output_files(result, case, case.sensors.readings)
+        steps["all outputs again (tables, summary, figures, report)"] = time.perf_counter() - t
+        t = time.perf_counter()
+        write_outputs(tmp / "split", True, files)
+        steps["writing the files"] = time.perf_counter() - t
+        print(f"  imports of the fit command's modules, fresh process: {t_imp:.2f} s")
+        for name, sec in steps.items():
+            print(f"  {name:<55} {sec:6.2f} s")
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
+
+
+SECTIONS = {"table": bench_table, "jacobian": bench_jacobian, "alphas": bench_alphas, "full": bench_full,
+            "command": bench_command}
 
 
 def main(argv=None):

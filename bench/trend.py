@@ -4,6 +4,11 @@
    `heatsight trend CASE --log LOG --every 1` (in this process, imports already done:
    parsing, streaming, the reference fit, a million inversions, trend.csv, figure, report)
    against a plain `pandas.read_csv` of the same file.  Goal: ratio <= 2.
+   Also timed: the streaming part alone (reading, windows, inversion, writing the rows; the
+   reference fit, figures and report left out) with --format parquet, goal <= 2.5x
+   read_csv; the whole command with --format parquet, goal <= 3.5x; and, each both ways
+   in this run, BLAS threads (library default vs one thread, inverse.batch.BLAS_THREADS)
+   and the reader thread (data_io.trend_run.READ_AHEAD 0 vs 2).
 2. Memory: peak resident memory of the same command on the 1,000,000-row log against a
    100,000-row log, each in a fresh process.  Goal: ratio <= 2 (the log is read in chunks
    and trend.csv is streamed).
@@ -133,11 +138,65 @@ def main() -> None:
                 raise SystemExit("trend failed")
 
         t_trend = best(run, 2)
-        print(f"pandas.read_csv: {t_read:.2f} s; trend --every 1 end to end: {t_trend:.2f} s")
+        print(f"pandas.read_csv: {t_read:.2f} s; trend --every 1 end to end (trend.csv): {t_trend:.2f} s")
         print(f"time ratio trend / read_csv = {t_trend / t_read:.2f} (goal <= 2)")
+
+        from heatsight.data_io import trend_run
+        from heatsight.inverse import batch
+
+        stream_t = []
+        real_run, real_setup = trend_run.TrendRun.run, trend_run.TrendRun._setup
+
+        def timed_run(self, *a, **k):
+            self._setup_s = 0.0
+            t0 = time.perf_counter()
+            real_run(self, *a, **k)
+            stream_t.append(time.perf_counter() - t0 - self._setup_s)
+
+        def timed_setup(self, *a, **k):
+            t0 = time.perf_counter()
+            real_setup(self, *a, **k)
+            self._setup_s += time.perf_counter() - t0
+
+        trend_run.TrendRun.run, trend_run.TrendRun._setup = timed_run, timed_setup
+
+        def run_pq():
+            stream_t.clear()
+            if cli(["trend", str(tmp / "case.toml"), "--log", str(long_log), "--every", "1", "--format", "parquet",
+                    "--out", str(tmp / f"out-long-{next(out)}")]) != 0:
+                raise SystemExit("trend failed")
+
+        def whole_and_stream():
+            t0 = time.perf_counter()
+            run_pq()
+            return time.perf_counter() - t0, stream_t[0]
+
+        t_pq, s_pq = min(whole_and_stream() for _ in range(2))
+        print(f"--format parquet: whole command {t_pq:.2f} s = {t_pq / t_read:.2f}x read_csv (goal <= 3.5); "
+              f"streaming part {s_pq:.2f} s = {s_pq / t_read:.2f}x read_csv (goal <= 2.5)")
+        batch.BLAS_THREADS = None
+        t_blas, s_blas = whole_and_stream()
+        batch.BLAS_THREADS = 1
+        t_one, s_one = whole_and_stream()
+        print(f"BLAS threads, library default vs one: whole {t_blas:.2f} vs {t_one:.2f} s "
+              f"({t_blas / t_one:.2f}x), streaming {s_blas:.2f} vs {s_one:.2f} s ({s_blas / s_one:.2f}x)")
+        trend_run.READ_AHEAD = 0
+        t_noth, s_noth = whole_and_stream()
+        trend_run.READ_AHEAD = 2
+        t_th, s_th = whole_and_stream()
+        print(f"reader thread, without vs with: streaming {s_noth:.2f} vs {s_th:.2f} s ({s_noth / s_th:.2f}x)")
+        sizes = {p.suffix: p.stat().st_size for p in (tmp / "out-long-0" / "trend.csv",
+                                                        tmp / "out-long-2" / "trend.parquet")}
+        print(f"rows file: trend.csv {sizes['.csv'] / 1e6:.0f} MB, trend.parquet {sizes['.parquet'] / 1e6:.0f} MB; "
+              f"log {long_log.stat().st_size / 1e6:.0f} MB")
+        trend_run.TrendRun.run, trend_run.TrendRun._setup = real_run, real_setup
         print(f"peak memory: {m_long:.0f} MB for {args.rows} rows, {m_short:.0f} MB for "
               f"{max(args.rows // 10, 1)} rows")
         print(f"memory ratio = {m_long / m_short:.2f} (goal <= 2)")
+        import os
+        import platform
+        print(f"machine: {platform.machine()}, {os.cpu_count()} cores, Python {platform.python_version()}, "
+              f"load average {os.getloadavg()[0]:.1f} at the end")
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
 

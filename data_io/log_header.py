@@ -41,6 +41,7 @@ class LogColumns:
     absent: list = field(default_factory=list)
     warnings: list = field(default_factory=list)
     fmt: TextFormat = field(default_factory=TextFormat)
+    parquet: bool = False      # a Parquet log, streamed in row groups (data_io.log_parquet)
 
     @property
     def n(self) -> int:
@@ -48,7 +49,15 @@ class LogColumns:
 
 
 def _header_line(path: Path) -> tuple[int, list[str], TextFormat]:
-    """The header's line number and cells, and the file's format (from its first bytes)."""
+    """The header's line number and cells, and the file's format (from its first bytes; a
+    Parquet log's header from its schema alone)."""
+    from . import log_parquet
+
+    if log_parquet.is_parquet(path):
+        cells = log_parquet.header(path)
+        for col, cell in enumerate(cells):
+            check_printable(cell, path, f"line {log_parquet.HEADER_LINE}, column {col + 1}")
+        return log_parquet.HEADER_LINE, cells, TextFormat()
     fmt = sniff(path)
     if fmt.converted is not None:
         text = fmt.converted
@@ -134,8 +143,10 @@ def open_log(path, layout) -> LogColumns:
     if absent:
         warnings.append(f"{path}: no column for sensor{'s' if len(absent) > 1 else ''} {', '.join(absent)} "
                         f"of the layout; the trend uses the others")
+    from .log_parquet import is_parquet
+
     return LogColumns(path, number, headers, headers[0], time_scale, sensors, positions, np.array(scale),
-                      np.array(shift), ignored, absent, warnings, fmt)
+                      np.array(shift), ignored, absent, warnings, fmt, parquet=is_parquet(path))
 
 
 def _did_you_mean(name, known) -> str:

@@ -57,7 +57,12 @@ def _plural(n: int, word: str) -> str:
 
 
 def count_rows(path) -> int:
-    """Number of lines of a file (an upper bound of its data rows + 1), counted in blocks."""
+    """Number of lines of a file (an upper bound of its data rows + 1), counted in blocks; a
+    Parquet log's rows + 1 from its footer."""
+    from .log_parquet import is_parquet, row_count
+
+    if is_parquet(path):
+        return row_count(path) + 1
     n, last = 0, b"\n"
     with open(path, "rb") as fh:
         while block := fh.read(1 << 24):
@@ -112,6 +117,15 @@ class LogReader:
         source = cols.path if fmt.converted is None else io.StringIO(fmt.converted)
         # one spare column: a row with more fields than the header is caught, not shifted
         width = len(cols.headers)
+        if cols.parquet:
+            from .log_parquet import frames
+
+            for frame in frames(cols.path, self.chunk_rows, width):
+                chunk = self._chunk(frame)
+                if chunk is not None:
+                    yield chunk
+            self._finish()
+            return
         self._widths = RowWidths(cols)
         try:
             reader = pd.read_csv(source, header=None, skiprows=cols.header_line, names=list(range(width + 1)),
@@ -136,6 +150,10 @@ class LogReader:
             raise InputError(f"{at}is not {ENCODING_NAMES.get(fmt.encoding, fmt.encoding)} text like the lines "
                              f"before it; save the log in "
                              f"one encoding (UTF-8 preferred)", file=cols.path) from None
+        self._finish()
+
+    def _finish(self):
+        cols = self.cols
         if self.rows == 0:
             raise InputError("no data rows below the header", file=cols.path)
         if np.all(self.missing == self.rows):
@@ -191,6 +209,11 @@ class LogReader:
         missing = series.isna().to_numpy()
         if missing.any():
             raise self._error("missing time", lines[np.argmax(missing)], 0)
+        if pd.api.types.is_datetime64_any_dtype(series.dtype):     # a Parquet timestamp column
+            if self.timestamps is False:
+                raise self._error("do not mix numbers and timestamps", lines[0], 0)
+            self.timestamps = True
+            return self._stamps(series, lines)
         if self.timestamps is None:        # the first row's time decides: seconds or timestamps
             numeric = pd.api.types.is_numeric_dtype(series.dtype) or bool(
                 pd.to_numeric(series.iloc[:1], errors="coerce").notna().all())
@@ -213,6 +236,8 @@ class LogReader:
         return self._stamps(series.astype(str), lines)
 
     def _stamps(self, text: pd.Series, lines) -> np.ndarray:
+        if pd.api.types.is_datetime64_any_dtype(text.dtype):
+            return self._seconds(text, text, lines)
         try:
             ts = pd.to_datetime(text, format="ISO8601", errors="coerce")
         except ValueError:          # offsets differ between rows (e.g. a change of summer time)
@@ -226,11 +251,19 @@ class LogReader:
             i = int(np.argmax(bad))
             raise self._error(f"{text.iloc[i]!r} is neither a number of seconds nor an ISO 8601 timestamp "
                               f"(e.g. 2024-05-01T08:30:00)", lines[i], 0)
+        return self._seconds(ts, text, lines)
+
+    def _seconds(self, ts: pd.Series, text: pd.Series, lines) -> np.ndarray:
+        """Seconds since the first row of datetimes `ts` (read from `text`)."""
         aware = ts.dt.tz is not None
+        if ts.isna().any():
+            raise self._error("missing time", lines[int(np.argmax(ts.isna().to_numpy()))], 0)
         if self.rows == 0 and self._last_t is None:
             self.aware = aware
-            if aware and self.tz is None:
-                self.tz = pd.Timestamp(text.iloc[0].strip()).tzinfo    # the log's own offset
+            if aware and self.tz is None:       # the log's own offset
+                first = text.iloc[0]
+                self.tz = (first.tzinfo if isinstance(first, pd.Timestamp)
+                           else pd.Timestamp(str(first).strip()).tzinfo)
         elif aware != self.aware:
             raise self._error("timestamps mix times with and without a UTC offset", lines[0], 0)
         if aware:
@@ -386,6 +419,52 @@ def summarize_log(path, layout=None, chunk_rows: int | None = None) -> LogSummar
         last = float(chunk.times[-1])
     return LogSummary(columns.path, reader.rows, first, last, list(columns.sensors),
                       columns.warnings + reader.warnings())
+
+
+def read_ahead(chunks, depth: int = 2):
+    """Iterate over `chunks` (an iterator of LogChunks) parsed in a reader thread, at most
+    `depth` chunks ahead of the consumer, so that parsing (pandas' C parser releases the
+    GIL) overlaps the consumer's computation.  An exception of the reader is raised in the
+    consumer at the point where its chunk would have come; closing the generator early stops
+    the reader."""
+    import queue
+    import threading
+
+    box: queue.Queue = queue.Queue(maxsize=max(int(depth), 1))
+    stop = threading.Event()
+    done = object()
+
+    def put(item):
+        while not stop.is_set():
+            try:
+                box.put(item, timeout=0.1)
+                return True
+            except queue.Full:
+                continue
+        return False
+
+    def produce():
+        try:
+            for chunk in chunks:
+                if not put((chunk, None)):
+                    return
+            put((done, None))
+        except BaseException as exc:  # noqa: BLE001 - handed to the consumer
+            put((done, exc))
+
+    worker = threading.Thread(target=produce, name="heatsight-log-reader", daemon=True)
+    worker.start()
+    try:
+        while True:
+            item, exc = box.get()
+            if item is done:
+                if exc is not None:
+                    raise exc
+                return
+            yield item
+    finally:
+        stop.set()
+        worker.join()
 
 
 def read_whole_log(path, layout=None, chunk_rows: int = DEFAULT_CHUNK_ROWS):

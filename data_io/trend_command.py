@@ -1,6 +1,6 @@
 """`heatsight trend`: follow the unknown face over a logged record.
 
-    heatsight trend CASE.toml --log LOG.csv [--every N] [--out DIR]
+    heatsight trend CASE.toml --log LOG.csv [--every N] [--out DIR] [--format csv|parquet]
                    [--window SECONDS] [--drift K] [--sigma-floor K] [--overwrite]
 
 The log is streamed in chunks (data_io.logs, the one log reader, shared with `check`) and
@@ -14,9 +14,12 @@ Noise of a row: a window mean has the random sd of inverse.steady (scatter / sqr
 with the --sigma-floor); a single logged row has the layout's sigma (or the default).  The
 offsets (from type and class) and placement tolerances widen the sd of absolute values.
 
-Outputs (all or none, in DIR, default <case>-trend next to the case): trend.csv (streamed
-row by row, so a long log never sits in memory), trend.png, summary.json and report.html
-(the reference window's fit report with a trend section).
+Outputs (all or none, in DIR, default <case>-trend next to the case): trend.csv, or
+trend.parquet with --format parquet (data_io.trend_sink, streamed block by block, so a long
+log never sits in memory; every numeric column names its unit), trend.png, summary.json and
+report.html (the reference window's fit report with a trend section).  The log is parsed
+ahead in a reader thread while rows are inverted; BLAS runs on one thread meanwhile
+(inverse.batch.blas_threads).
 """
 
 from __future__ import annotations
@@ -35,18 +38,26 @@ from .errors import InputError
 OUTPUT_NAMES = ("trend.csv", "trend.png", "summary.json", "report.html")
 
 
-def _output_folder(case, out, overwrite, log_path):
+def output_names(fmt: str = "csv") -> tuple:
+    """The files a trend writes: the rows (trend.csv or trend.parquet), figure, summary, report."""
+    from .trend_sink import FORMATS
+
+    return (FORMATS[fmt],) + OUTPUT_NAMES[1:]
+
+
+def _output_folder(case, out, overwrite, log_path, names=OUTPUT_NAMES):
     from .csv_out import output_folder
 
     folder = Path(out) if out else case.folder / f"{case.path.stem}-trend"
-    return output_folder(folder, case, overwrite, names=OUTPUT_NAMES, inputs=[log_path])
+    return output_folder(folder, case, overwrite, names=names, inputs=[log_path])
 
 
 def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDOW_S, drift=DEFAULT_DRIFT_K,
               sigma_floor=DEFAULT_FLOOR_K, overwrite=False, chunk_rows=None,
-              progress=True, tz=None, echo=None):
+              progress=True, tz=None, echo=None, fmt="csv"):
     """Run a trend and write its outputs; returns (summary dict, output folder).
-    chunk_rows: rows per chunk of the log (default logs.DEFAULT_CHUNK_ROWS)."""
+    chunk_rows: rows per chunk of the log (default logs.DEFAULT_CHUNK_ROWS); fmt: "csv"
+    (trend.csv) or "parquet" (trend.parquet)."""
     from .case import load_case
     from .csv_out import OUTPUT_FILES_KEY, OutputSet, json_text
     from .fit_steps import case_text
@@ -56,10 +67,13 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
     from .trend_plot import trend_figure
     from .tables import read_layout, readings_form
     from .trend_run import Progress, TrendRun
+    from .trend_sink import open_sink, require_format
     from .trend_text import console_lines, trend_html, trend_lead
 
     from .limits import MAX_EVERY, check_case, check_count
 
+    fmt = require_format(fmt)
+    names = output_names(fmt)
     case = load_case(case_path, purpose="fit")
     case.require("fit")
     check_case(case)
@@ -72,7 +86,7 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
         raise InputError("the case's readings are a snapshot; give the log with --log LOG.csv", file=log_path)
     if every is not None and every < 1:
         raise InputError(f"--every needs a whole number >= 1, got {every}")
-    folder, create = _output_folder(case, out, overwrite, log_path)
+    folder, create = _output_folder(case, out, overwrite, log_path, names)
     layout = read_layout(case.sensors.layout, case.cylinder)
     columns = open_log(log_path, layout)
     lines = count_rows(log_path)
@@ -85,13 +99,15 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
         folder.mkdir()
     try:
         with OutputSet(folder) as outset:
-            with outset.stream("trend.csv") as fh:
-                run.run(fh, bar, expected)
+            with outset.stream(names[0]) as fh:
+                sink = open_sink(fmt, fh)
+                run.run(sink, bar, expected)
+                sink.close()
                 fh.flush()
                 os.fsync(fh.fileno())
             summary = run.summary(case.path, log_path)
             summary["first_row"], summary["last_row"] = run.first_row, run.last_row
-            summary[OUTPUT_FILES_KEY] = list(OUTPUT_NAMES)
+            summary[OUTPUT_FILES_KEY] = list(names)
             png = figure_png(trend_figure(run.figure_data()))
             html = render_report(
                 run.result, title=f"heatsight trend: {case.path.name}",
@@ -118,9 +134,67 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
     return summary, folder
 
 
+def run_part(case_path: str, out: str | None, options: dict) -> dict:
+    """One part, on a worker: the one-part trend, its console text kept.  Returns a record
+    with "case", "status" ("done", "bad input" or "failed"), and "folder", "text",
+    "trend_rows", "flags", "seconds" or "error"."""
+    import time
+
+    from ..forward.errors import ForwardModelError
+    from ..inverse.errors import InverseError
+
+    t = time.perf_counter()
+    text: list[str] = []
+    rec = {"case": str(case_path)}
+    try:
+        if out is not None:
+            Path(out).parent.mkdir(parents=True, exist_ok=True)
+        summary, folder = run_trend(case_path, out=out, progress=False, echo=text.append, **options)
+    except (InputError, ForwardModelError, InverseError) as exc:
+        return {**rec, "status": "bad input", "error": str(exc)}
+    except OSError as exc:
+        return {**rec, "status": "bad input", "error": f"{exc.filename or case_path}: {exc.strerror or exc}"}
+    except Exception as exc:  # noqa: BLE001 - reported for this part, the others go on
+        return {**rec, "status": "failed", "error": f"internal error: {type(exc).__name__}: {exc}"}
+    return {**rec, "status": "done", "folder": str(folder), "text": "\n".join(text),
+            "trend_rows": summary["trend_rows"], "flags": [f["zone"] for f in summary["flags"]],
+            "seconds": time.perf_counter() - t}
+
+
+def _fleet(args) -> int:
+    """Several parts (data_io.fleet): one line per finished part, then the tally."""
+    import sys
+
+    from .console import PROG, current, printable
+    from .fleet import part_line, run_fleet
+
+    if args.log:
+        raise InputError("--log serves one part; with several parts each case reads its own log "
+                         "([sensors] readings)")
+    con = current()
+
+    def report(i, n, rec):
+        line = part_line(i, n, rec)
+        if rec["status"] != "done":
+            print(f"{PROG}: error: {printable(line)}", file=con.stderr)
+        elif not (con.quiet or con.json):
+            print(line, file=con.stdout)
+            sys.stdout.flush()
+
+    options = dict(every=args.every, window=args.window, drift=args.drift, sigma_floor=args.sigma_floor,
+                   overwrite=args.overwrite, tz=args.tz, fmt=args.format)
+    records, status = run_fleet(args.case, run_part, out=args.out, scheduler=args.scheduler, workers=args.workers,
+                                options=options, report=report)
+    done = sum(r["status"] == "done" for r in records)
+    con.answer(f"{done} of {len(records)} parts done", {"parts": records, "done": done, "exit_status": status})
+    return status
+
+
 def _run(args) -> int:
-    run_trend(args.case, log=args.log, every=args.every, out=args.out, window=args.window, drift=args.drift,
-              sigma_floor=args.sigma_floor, overwrite=args.overwrite, tz=args.tz)
+    if len(args.case) > 1 or Path(args.case[0]).is_dir() or args.scheduler or args.workers:
+        return _fleet(args)
+    run_trend(args.case[0], log=args.log, every=args.every, out=args.out, window=args.window, drift=args.drift,
+              sigma_floor=args.sigma_floor, overwrite=args.overwrite, tz=args.tz, fmt=args.format)
     return 0
 
 
@@ -134,11 +208,17 @@ def add_trend(sub, help) -> None:
                     "whose change from the first settled steady window exceeds its uncertainty.",
         epilog="examples:\n  heatsight trend platen.toml --log shift.csv\n"
                "  heatsight trend platen.toml --log month.csv --every 60 --out platen-month\n"
-               "  heatsight trend platen.toml --log shift.csv --window 300 --drift 0.2\n\n"
+               "  heatsight trend platen.toml --log shift.csv --window 300 --drift 0.2\n"
+               "  heatsight trend plant/ --every 60 --format parquet          (every case in plant/)\n"
+               "  heatsight trend a.toml b.toml --scheduler tcp://10.0.0.5:8786\n\n"
+               "Several parts: exit status 0 when every part succeeded, 2 when a part had bad input (the others "
+               "are written), 1 when a part failed otherwise.\n\n"
                f"Defaults (common practice, no source): --window {DEFAULT_WINDOW_S:g} s, --drift "
                f"{DEFAULT_DRIFT_K:g} K, --sigma-floor {DEFAULT_FLOOR_K:g} K.",
         formatter_class=argparse.RawDescriptionHelpFormatter)
-    p.add_argument("case", metavar="CASE.toml", help="case file (TOML)")
+    p.add_argument("case", metavar="CASE.toml", nargs="+",
+                   help="case file (TOML); several case files or a folder of them run a fleet, one task per part "
+                        "on dask.distributed (extra 'fleet'), each part with its own log")
     p.add_argument("--log", metavar="LOG.csv", help="the logged readings (default: [sensors] readings, if a log)")
     p.add_argument("--every", type=whole, metavar="N",
                    help="invert every Nth logged row instead of the steady windows")
@@ -153,5 +233,13 @@ def add_trend(sub, help) -> None:
     p.add_argument("--tz", type=time_zone, metavar="ZONE",
                    help="show logged times with a UTC offset in this zone (UTC, +02:00 or Europe/Berlin; default: "
                         "the offset of the log's first row; times without an offset stay as written)")
+    p.add_argument("--format", choices=("csv", "parquet"), default="csv",
+                   help="the rows as trend.csv (default) or trend.parquet (smaller and quicker to write for long "
+                        "logs; needs the extra 'parquet')")
+    p.add_argument("--scheduler", metavar="ADDRESS",
+                   help="run the parts on the dask cluster at ADDRESS (e.g. tcp://10.0.0.5:8786; default: a local "
+                        "cluster)")
+    p.add_argument("--workers", type=whole, metavar="N",
+                   help="processes of the local cluster for several parts (default 2, at most the cores)")
     p.add_argument("--overwrite", action="store_true", help="allow writing into a non-empty folder")
     p.set_defaults(run=_run)

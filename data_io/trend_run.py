@@ -16,10 +16,8 @@ from ..forward.errors import ForwardModelError
 from ..inverse import trend as stats_trend
 from ..inverse.errors import InverseError
 
-from .csv_out import neutralize
 from .display import file_display
 from .errors import InputError
-from .fast_csv import csv_header, csv_rows, number_cells, text_cells
 
 #: the trend figure shows at most about twice this many points (longer trends are binned)
 FIGURE_POINTS = 1500
@@ -27,6 +25,8 @@ FIGURE_POINTS = 1500
 PROGRESS_MIN_CHUNKS = 4
 #: windows inverted per call of the batch solver
 WINDOW_BATCH = 4096
+#: chunks of the log parsed ahead by a reader thread while the rows are inverted (0: no thread)
+READ_AHEAD = 2
 
 
 class Progress:
@@ -90,7 +90,7 @@ class Digest:
 
 
 class TrendRun:
-    """One run: the log stream in, trend.csv rows and the figure digest out."""
+    """One run: the log stream in, the rows (trend.csv or trend.parquet) and the figure digest out."""
 
     def __init__(self, case, layout, columns, reader, *, window, drift, sigma_floor, every):
         from ..inverse.readings import DEFAULT_SIGMA_K
@@ -166,13 +166,19 @@ class TrendRun:
 
     # ---------------------------------------------------------------- rows
     def _columns(self):
+        """The rows' column names, each numeric one naming its unit (data_io.csv_columns):
+        values in the face's file unit (degC or W/m^2), sds, spreads and changes in its
+        difference unit (K or W/m^2)."""
+        from .csv_columns import unit_token
+
+        u, du = (unit_token(x) for x in (self.units.unit, self.units.diff_unit))
         names = ["start_s", "end_s"]
         if self.reader.timestamps:
             names += ["start_iso", "end_iso"]
-        names += ["n_rows", "n_sensors", "mean", "mean_sd", "min", "max", "nonuniformity", "nonuniformity_sd",
-                  "total_power_W", "total_power_sd_W"]
+        names += ["n_rows", "n_sensors", f"mean_{u}", f"mean_sd_{du}", f"min_{u}", f"max_{u}",
+                  f"nonuniformity_{du}", f"nonuniformity_sd_{du}", "total_power_W", "total_power_sd_W"]
         for z in self.model.zone_names:
-            names += [f"{z}_mean", f"{z}_sd", f"{z}_change", f"{z}_change_sd", f"{z}_flag"]
+            names += [f"{z}_mean_{u}", f"{z}_sd_{du}", f"{z}_change_{du}", f"{z}_change_sd_{du}", f"{z}_flag"]
         return names
 
     def _write(self, start, end, n_rows, est, d, rv, reference_mask=None):
@@ -180,28 +186,27 @@ class TrendRun:
         readings and random variances, for their changes from the reference window."""
         if self.stream is None:
             raise RuntimeError("output stream not open")
+        names = self._columns()
         if self.trend_rows == 0:
-            self.stream.write(csv_header([neutralize(c) for c in self._columns()]).encode("utf-8"))
+            self.stream.header(names)
         R = start.size
         if R == 0:
             return
         zones = self.model.zone_names
         change, csd = self.model.changes_of(d, rv, reference_mask)
         flag = self.flags.update(start, end, change, csd, self.ref_window[0])
-        cells = [number_cells(start, 13), number_cells(end, 13)]
-        if self.reader.timestamps:
-            cells += [text_cells(self.reader.iso(start)), text_cells(self.reader.iso(end))]
         v = self.units.value
-        cells += [number_cells(n_rows), number_cells(est.n_used), number_cells(v(est.value("mean"))),
-                  number_cells(est.sd_of("mean")), number_cells(v(est.min)), number_cells(v(est.max)),
-                  number_cells(est.nonuniformity), number_cells(est.nonuniformity_sd),
-                  number_cells(est.value("total_power")), number_cells(est.sd_of("total_power"))]
-        words = text_cells(["true", "false"])
+        data = [("time", start), ("time", end)]
+        if self.reader.timestamps:
+            data += [("text", self.reader.iso(start)), ("text", self.reader.iso(end))]
+        data += [("count", n_rows), ("count", est.n_used), ("number", v(est.value("mean"))),
+                 ("number", est.sd_of("mean")), ("number", v(est.min)), ("number", v(est.max)),
+                 ("number", est.nonuniformity), ("number", est.nonuniformity_sd),
+                 ("number", est.value("total_power")), ("number", est.sd_of("total_power"))]
         for j, z in enumerate(zones):
-            flag_cells = np.where(flag[:, j][:, None], words[0], words[1])
-            cells += [number_cells(v(est.value(z))), number_cells(est.sd_of(z)), number_cells(change[:, j]),
-                      number_cells(csd[:, j]), flag_cells]
-        self.stream.write(csv_rows(cells))
+            data += [("number", v(est.value(z))), ("number", est.sd_of(z)), ("number", change[:, j]),
+                     ("number", csd[:, j]), ("flag", flag[:, j])]
+        self.stream.write([(name, kind, x) for name, (kind, x) in zip(names, data)])
         self.trend_rows += R
         mean, msd = est.value("mean"), est.sd_of("mean")
         lo, hi = stats_trend.band95(mean, msd)
@@ -238,8 +243,19 @@ class TrendRun:
 
     # ---------------------------------------------------------------- the run
     def run(self, stream, progress: Progress, expected_rows: int):
+        """Stream the log into `stream` (a data_io.trend_sink sink), BLAS limited to few
+        threads (inverse.batch.blas_threads), the log parsed ahead in a reader thread."""
+        from ..inverse.batch import blas_threads
+
+        with blas_threads():
+            self._run(stream, progress, expected_rows)
+
+    def _run(self, stream, progress: Progress, expected_rows: int):
+        from .logs import read_ahead
+
         self.stream = stream
-        for chunk in self.reader:
+        chunks = read_ahead(iter(self.reader), READ_AHEAD) if READ_AHEAD > 0 else iter(self.reader)
+        for chunk in chunks:
             self.windows.add(chunk.times, chunk.values)
             if self.every:
                 keep = (self.row_counter + np.arange(chunk.times.size)) % self.every == 0

@@ -321,7 +321,7 @@ def test_termination_during_a_trend_leaves_no_temporary_file(tmp_path, monkeypat
     real_run = trend_run.TrendRun.run
 
     def run_then_signal(self, stream, progress, expected_rows):
-        stream.write(b"start_s\n" * 1000)               # something staged in the hidden file
+        stream.stream.write(b"start_s\n" * 1000)        # something staged in the hidden file (under the sink)
         os.kill(os.getpid(), signal.SIGTERM)
         return real_run(self, stream, progress, expected_rows)
 

@@ -9,6 +9,7 @@ has first-order noise-free physics plus seeded noise and constant per-sensor off
 
 import csv
 import json
+import re
 import io
 import math
 import sys
@@ -70,8 +71,12 @@ def trend(folder, monkeypatch, capsys, *args):
     return code, capsys.readouterr()
 
 
+UNIT_SUFFIX = re.compile(r"_(W_m2|degC|K)$")
+
+
 def read_trend(path):
-    return pd.read_csv(path / "trend.csv")
+    """trend.csv with the unit suffixes of its columns dropped (the contract test checks them)."""
+    return pd.read_csv(path / "trend.csv").rename(columns=lambda c: UNIT_SUFFIX.sub("", c))
 
 
 # ---------------------------------------------------------------------------- windows mode
@@ -98,12 +103,13 @@ def test_outputs_and_contract(weakening):
     assert names == {"trend.csv", "trend.png", "summary.json", "report.html"}
     with open(out / "trend.csv") as fh:
         header = next(csv.reader(fh))
-    assert header[:12] == ["start_s", "end_s", "n_rows", "n_sensors", "mean", "mean_sd", "min", "max",
-                           "nonuniformity", "nonuniformity_sd", "total_power_W", "total_power_sd_W"]
+    assert header[:12] == ["start_s", "end_s", "n_rows", "n_sensors", "mean_W_m2", "mean_sd_W_m2", "min_W_m2",
+                           "max_W_m2", "nonuniformity_W_m2", "nonuniformity_sd_W_m2", "total_power_W",
+                           "total_power_sd_W"]
     for z in ("inner", WEAK_ZONE):
-        assert [f"{z}_{k}" for k in ("mean", "sd", "change", "change_sd", "flag")] == \
-            header[header.index(f"{z}_mean"):header.index(f"{z}_mean") + 5]
-    assert "'=risk_mean" in header                      # formula injection neutralized
+        assert [f"{z}_{k}" for k in ("mean_W_m2", "sd_W_m2", "change_W_m2", "change_sd_W_m2", "flag")] == \
+            header[header.index(f"{z}_mean_W_m2"):header.index(f"{z}_mean_W_m2") + 5]
+    assert "'=risk_mean_W_m2" in header                 # formula injection neutralized
     summary = json.loads((out / "summary.json").read_text())
     for key in ("mode", "window_s", "drift_K", "windows", "trend_rows", "reference_window", "strength",
                 "flags", "flag_threshold_sd", "warnings", "reference_fit", "caution"):

@@ -1,0 +1,144 @@
+"""`heatsight trend` over many parts (a fleet) on dask.distributed (optional extra ``fleet``).
+
+    heatsight trend A.toml B.toml ...  |  heatsight trend FOLDER  [--scheduler ADDRESS] [--workers N]
+
+Each part is a case file with its own log (its ``[sensors] readings``); a folder stands for
+its ``*.toml`` case files.  One task per part runs the ordinary one-part trend
+(data_io.trend_command.run_part, around run_trend) on a worker, so a part's outputs are exactly those of
+running it alone, in ``<case>-trend`` next to its case (or ``DIR/<case>-trend`` with
+``--out DIR``).  The parts run on a local cluster of --workers processes (one thread each)
+by default, or on an existing cluster through --scheduler ADDRESS (its workers need
+heatsight installed and the case and log files at the same paths).
+
+A part's bad input is reported on its own line and the other parts go on.  Exit status:
+0 when every part succeeded, 2 when at least one part had bad input (and none failed
+otherwise), 1 when a part failed for another reason (an internal error or a lost worker);
+the parts that succeeded have their outputs in every case.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from .errors import InputError
+
+#: workers of the local cluster unless --workers is given (at most the machine's cores)
+DEFAULT_WORKERS = 2
+#: seconds to wait for a scheduler given with --scheduler
+CONNECT_TIMEOUT_S = 20
+
+
+def fleet_parts(paths) -> list[Path]:
+    """The case files of a fleet: each path a case file (.toml) or a folder (its *.toml
+    files, sorted); InputError for a missing path, an empty folder or a repeated case."""
+    out: list[Path] = []
+    for p in map(Path, paths):
+        if p.is_dir():
+            found = sorted(q for q in p.glob("*.toml") if q.is_file())
+            if not found:
+                raise InputError("the folder holds no case file (*.toml)", file=p)
+            out += found
+        elif p.is_file():
+            out.append(p)
+        else:
+            raise InputError("no such case file or folder", file=p)
+    seen: dict = {}
+    for p in out:
+        key = p.resolve()
+        if key in seen:
+            raise InputError(f"the case is given twice (also as {seen[key]})", file=p)
+        seen[key] = p
+    return out
+
+
+def part_folders(parts, out) -> list[Path | None]:
+    """Each part's output folder: None (run_trend's default, next to the case) or, with
+    --out DIR, DIR/<case stem>-trend; two parts may not share one."""
+    if out is None:
+        return [None] * len(parts)
+    out = Path(out)
+    if out.exists() and not out.is_dir():
+        raise InputError("exists and is not a folder; --out names the folder of the parts' output folders", file=out)
+    folders = [out / f"{p.stem}-trend" for p in parts]
+    names: dict = {}
+    for p, f in zip(parts, folders):
+        if f.name in names:
+            raise InputError(f"two parts would write into {f} (also {names[f.name]}); give the cases different "
+                             f"names or leave out --out", file=p)
+        names[f.name] = p
+    return folders
+
+
+def _client(scheduler, workers):
+    """A dask.distributed Client: of the cluster at `scheduler`, or of a new local cluster
+    of `workers` processes with one thread each (closed with the client)."""
+    try:
+        from dask.distributed import Client, LocalCluster
+    except ImportError:
+        raise InputError("trend over several parts runs on dask.distributed: pip install 'heatsight[fleet]'") from None
+    if scheduler:
+        try:
+            return Client(scheduler, timeout=CONNECT_TIMEOUT_S)
+        except (OSError, TimeoutError, ValueError) as exc:
+            raise InputError(f"--scheduler {scheduler}: cannot reach the scheduler ({exc})") from None
+    import logging
+
+    cluster = LocalCluster(n_workers=int(workers), threads_per_worker=1, processes=True, dashboard_address=None,
+                           silence_logs=logging.ERROR)
+    return Client(cluster, set_as_default=False)
+
+
+def exit_status(records) -> int:
+    """0 every part done, 1 a part failed for a reason other than its input, else 2."""
+    states = {r["status"] for r in records}
+    return 1 if "failed" in states else 2 if "bad input" in states else 0
+
+
+def run_fleet(paths, task, *, out=None, scheduler=None, workers=None, options=None, report=None, client=None):
+    """Run task(case path, output folder or None, options) -> record (a module-level
+    function, data_io.trend_command.run_part) for every part; returns (records in the parts'
+    order, exit status).
+    report(i, n, record) is called as each part finishes (progress per part); `client`: an
+    existing dask Client to use (else one is made from scheduler / workers and closed)."""
+    parts = fleet_parts(paths)
+    folders = part_folders(parts, out)
+    workers = int(workers or min(DEFAULT_WORKERS, os.cpu_count() or 1))
+    if workers < 1:
+        raise InputError(f"--workers needs a whole number >= 1, got {workers}")
+    options = dict(options or {})
+    own = client is None
+    if own:
+        client = _client(scheduler, workers)
+    try:
+        from dask.distributed import as_completed
+
+        futures = [client.submit(task, str(p), None if f is None else str(f), options, key=f"heatsight-part-{i}",
+                                 pure=False) for i, (p, f) in enumerate(zip(parts, folders))]
+        index = {fut.key: i for i, fut in enumerate(futures)}
+        records: list = [None] * len(parts)
+        for done, fut in enumerate(as_completed(futures, loop=client.loop), 1):
+            i = index[fut.key]
+            try:
+                rec = fut.result()
+            except Exception as exc:  # noqa: BLE001 - a lost worker or a task that could not run
+                rec = {"case": str(parts[i]), "status": "failed", "error": f"{type(exc).__name__}: {exc}"}
+            records[i] = rec
+            if report is not None:
+                report(done, len(parts), rec)
+    finally:
+        if own:
+            cluster = getattr(client, "cluster", None)
+            client.close()
+            if cluster is not None:
+                cluster.close()
+    return records, exit_status(records)
+
+
+def part_line(i: int, n: int, rec: dict) -> str:
+    """One line of progress for a finished part."""
+    head = f"part {i}/{n} {rec['case']}"
+    if rec["status"] == "done":
+        flags = f"; flagged: {', '.join(rec['flags'])}" if rec["flags"] else "; no flags"
+        return f"{head}: done in {rec['seconds']:.1f} s, {rec['trend_rows']} trend rows{flags}; outputs in {rec['folder']}"
+    return f"{head}: {rec['status']}: {rec['error']}"
