@@ -136,7 +136,9 @@ class TrendRun:
 
         def fit(readings, strength):
             try:
-                return inverse.fit(self.case, readings, strength=strength)
+                # logs are inverted with the smooth model (inverse.batch); "auto" means it here
+                model = "smooth" if getattr(self.case.fit, "model", "auto") == "auto" else None
+                return inverse.fit(self.case, readings, strength=strength, model=model)
             except (InverseError, ForwardModelError) as exc:
                 raise InputError(f"fit of the reference window: {exc}", file=self.case.path) from None
 

@@ -48,9 +48,10 @@ def mixture_band(weights, means, sds, level: float = 0.95):
         act = np.arange(x.size)                      # quantities not yet converged
         for _ in range(100):
             m_, s_ = mi[:, act], si[:, act]
-            u = (x[act][None, :] - m_) / s_
-            F = w @ ndtr(u) - prob
-            dens = w @ (np.exp(-0.5 * u**2) / s_) / SQRT_2PI
+            with np.errstate(over="ignore"):          # a pinned component (sd ~ 0): exp(-inf) = 0
+                u = (x[act][None, :] - m_) / s_
+                F = w @ ndtr(u) - prob
+                dens = w @ (np.exp(-0.5 * u**2) / s_) / SQRT_2PI
             lo[act] = np.where(F < 0, x[act], lo[act])
             hi[act] = np.where(F < 0, hi[act], x[act])
             with np.errstate(divide="ignore", invalid="ignore"):
