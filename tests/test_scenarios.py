@@ -37,19 +37,20 @@ FAST = ("platen_flux", "top_temperature", "side_flux", "calibrated_convection", 
 # unseen-wall corner columns).  Met since the suite was written: platen coverage (0.76 ->
 # 0.89) and power (+2.5 -> +1.4 sd), side_flux relative RMS and sharpness (zone model: 0.41,
 # 0.23), chuck coverage and zones (0.02 -> 1.00, 0/4 -> 4/4), cooled-end wall power (+12 ->
-# -0.1 sd), no healthy sensor set aside anywhere, pooled coverage (0.70 -> 0.92).  Worse with
-# "auto": side_flux and wall_cooled_end, where the evidence takes zones that do not follow the
-# heater (a weak sector across two zones, a smooth step across a zone edge): coverage 0.83 and
-# 0.82, one zone mean 2.8 and 2.1 sd off.
+# -0.3 sd), pooled coverage (0.70 -> 0.92).  Worse with "auto": side_flux and wall_cooled_end,
+# where the evidence takes zones that do not follow the heater (a weak sector across two
+# zones, a smooth step across a zone edge): coverage 0.83 and 0.76, zone means 2.8 and 2.9 sd
+# off, and on the cooled-end wall the zone model sets the healthy TC19 aside.
 NOT_MET = {
     ("platen_flux", "rel_rms"): "0.94", ("platen_flux", "sharpness"): "1.66",
     ("platen_flux", "zones"): "0 of 3 (-2.5, -2.7, -2.7 sd)",
     ("top_temperature", "sharpness"): "1.33", ("top_temperature", "zones"): "5 of 6 (contact ring -3.4 sd)",
     ("side_flux", "coverage"): "0.83", ("side_flux", "zones"): "3 of 4 (band 270-360 +2.8 sd)",
-    ("calibrated_convection", "rel_rms"): "0.55", ("calibrated_convection", "sharpness"): "1.65",
-    ("calibrated_convection", "zones"): "0 of 2 (-2.5, +2.7 sd)",
+    ("calibrated_convection", "rel_rms"): "0.54", ("calibrated_convection", "sharpness"): "1.62",
+    ("calibrated_convection", "zones"): "0 of 2 (-2.4, +2.7 sd)",
     ("chuck_class2", "rel_rms"): "1.06",
-    ("wall_cooled_end", "coverage"): "0.82", ("wall_cooled_end", "zones"): "1 of 2 (lower wall -2.1 sd)",
+    ("wall_cooled_end", "coverage"): "0.76", ("wall_cooled_end", "zones"): "0 of 2 (-2.9, +2.1 sd)",
+    ("wall_cooled_end", "sensors"): "healthy TC19 set aside under the zone model",
 }
 
 
