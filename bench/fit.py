@@ -310,7 +310,7 @@ def bench_command(repeat):
         t = time.perf_counter()
         res = subprocess.run([sys.executable, "-c", "import heatsight.data_io.fit_command, "
                               "heatsight.data_io.fit_outputs, heatsight.data_io.plots, heatsight.data_io.report, "
-                              "heatsight.inverse.fit, heatsight.inverse.hyperprior"], env=env)
+                              "heatsight.inverse.fitting, heatsight.inverse.hyperprior"], env=env)
         t_imp = time.perf_counter() - t
         case = load_case(tmp / "platen.toml", purpose="fit")
         steps = {}
