@@ -158,7 +158,7 @@ def _learned(opts) -> bool:
 
 def _with_tail(problem, design, rd, P, u, ok):
     """The modes the basis leaves out, marginalized into the noise (truncation.py), their
-    variance from a first learned prior on the readings that passed the gross-fault screen."""
+    variance from a first learned prior on the readings `ok` (those a first screening kept)."""
     first = learn_prior(problem.subset(np.flatnonzero(ok)), design.basis, nominal=u > 0,
                         nominal_factor=NOMINAL_PRECISION_FACTOR)
     S = problem.noise.covariance + tail_covariance(design, rd, first)
@@ -287,7 +287,7 @@ def _choose_model(opts, design, zone_model, zscreen, smooth, post, u, problem, w
         return design, post, smooth, {"model": "smooth"}
     if hasattr(post.averaged, "log_marginal"):
         zf = zone_model.learned_fit(zscreen.kept, design.basis, u > 0, NOMINAL_PRECISION_FACTOR)
-        var_s, var_z = (np.diag(pb.noise.covariance) for pb in (problem, zone_model.smooth))
+        var_s, var_z = (pb.noise.sd ** 2 for pb in (problem, zone_model.smooth))
         X = np.hstack([problem.G, zone_model.Gz])
         logz = {"smooth": log_evidence_on_all(post.averaged.log_marginal, smooth.kept, problem.G, problem.t0,
                                               problem.d, var_s, post.c, post.C),

@@ -34,28 +34,28 @@ TAIL_DECAY = 1e-2
 MAX_HARMONICS, MAX_TERMS = 24, 64
 
 
-def nearest_distance(design, rd) -> float:
-    """Distance [m] from the unknown face to the nearest sensor."""
+def nearest_distance(design, r, z) -> float:
+    """Distance [m] from the unknown face to the nearest of the points (r, z) [m]."""
     cyl = design.cylinder
     if design.face_name == "side":
-        d = cyl.radius - rd.r
+        d = cyl.radius - np.asarray(r, float)
     else:
-        d = np.abs(rd.z - (0.0 if design.face_name == "bottom" else cyl.height))
+        d = np.abs(np.asarray(z, float) - (0.0 if design.face_name == "bottom" else cyl.height))
     return float(np.min(d))
 
 
-def enlarged_size(design, nearest, decay, harmonics=True):
+def enlarged_size(design, nearest, decay, harmonics=True, caps=(MAX_HARMONICS, MAX_TERMS)):
     """(harmonics, terms) of a basis holding every mode with exp(-kappa d_min) >= decay,
     kappa = the mode's decay rate into the part [1/m]; at least the design's own size,
-    at most (MAX_HARMONICS, MAX_TERMS). harmonics=False keeps m = 0 only."""
+    at most caps = (harmonics, terms). harmonics=False keeps m = 0 only."""
     cyl = design.cylinder
     span = cyl.height if design.face_name == "side" else cyl.radius
     if not math.isfinite(span):
         span = cyl.radius
     d = max(float(nearest), 1e-3 * cyl.radius)
     kappa = -math.log(decay) / d
-    terms = int(min(MAX_TERMS, max(design.terms, math.ceil(kappa * span / math.pi) + 2)))
-    h = int(min(MAX_HARMONICS, max(design.harmonics, math.ceil(kappa * cyl.radius)))) if harmonics else 0
+    terms = int(min(caps[1], max(design.terms, math.ceil(kappa * span / math.pi) + 2)))
+    h = int(min(caps[0], max(design.harmonics, math.ceil(kappa * cyl.radius)))) if harmonics else 0
     return h, terms
 
 
@@ -67,10 +67,7 @@ def left_out(design, big) -> np.ndarray:
 
 def _tail_parts(design, r, theta, z, prior):
     """(G_tail (n, T) [K per unit coefficient], v (T,) [unit^2]) at points, for `prior`."""
-    cyl = design.cylinder
-    dist = cyl.radius - r if design.face_name == "side" else np.abs(z - (0.0 if design.face_name == "bottom"
-                                                                         else cyl.height))
-    big = design.model.basis(*enlarged_size(design, float(np.min(dist)), TAIL_DECAY))
+    big = design.model.basis(*enlarged_size(design, nearest_distance(design, r, z), TAIL_DECAY))
     mask = left_out(design, big)
     v = np.zeros(int(mask.sum()))
     if not mask.any():

@@ -33,7 +33,7 @@ from .face_grid import segments
 from .design import NOMINAL_PRECISION_FACTOR
 from .hyperprior import learn_prior
 from .linear_gaussian import LinearGaussianProblem
-from .truncation import tail_covariance
+from .truncation import enlarged_size, nearest_distance, tail_covariance
 
 #: zone level prior sd = this factor x the face's level scale (weak; common practice, no source)
 ZONE_PRIOR_FACTOR = 10.0
@@ -92,19 +92,6 @@ def projection(basis, zones):
     return A
 
 
-def _big_size(design, rd_depth, zones):
-    """(harmonics, terms) of the projection basis from the nearest sensor's distance d_min
-    to the face: modes decaying faster than exp(-kappa d_min) < PROJECTION_DECAY are left out."""
-    cyl = design.cylinder
-    span = cyl.height if design.face_name == "side" else cyl.radius
-    d = max(float(rd_depth), 1e-3 * cyl.radius)
-    kappa = -math.log(PROJECTION_DECAY) / d
-    terms = int(min(MAX_TERMS, max(design.terms, math.ceil(kappa * span / math.pi) + 2)))
-    partial = any(not z.full_turn for z in zones)
-    harmonics = int(min(MAX_HARMONICS, max(design.harmonics, math.ceil(kappa * cyl.radius)))) if partial else 0
-    return harmonics, terms
-
-
 class ZoneDesign:
     """Model columns [smooth basis | zone indicators] with the interface of design.Design."""
 
@@ -112,7 +99,10 @@ class ZoneDesign:
         self.smooth, self.zones = design, list(zones)
         self.cylinder, self.faces, self.model = design.cylinder, design.faces, design.model
         self.basis = design.basis
-        h, t = _big_size(design, nearest, zones)
+        # modes down to exp(-kappa d_min) = PROJECTION_DECAY at the nearest sensor; harmonics
+        # only when some zone covers part of the turn
+        h, t = enlarged_size(design, nearest, PROJECTION_DECAY, any(not z.full_turn for z in zones),
+                             (MAX_HARMONICS, MAX_TERMS))
         self.big = design.model.basis(h, t)
         self.A = projection(self.big, self.zones)
         self.n_zones = len(self.zones)
@@ -188,7 +178,7 @@ class ZoneModel:
     strength and evidence of the zone model work on it."""
 
     def __init__(self, design, rd, smooth, zones, areas, level_scale, remainder_prior):
-        self.columns = ZoneDesign(design, zones, _nearest(design, rd))
+        self.columns = ZoneDesign(design, zones, nearest_distance(design, rd.r, rd.z))
         self.Gz = self.columns.sensors(rd.r, rd.theta, rd.z)[0][:, design.size:]
         self.mu, self.s = zone_prior(zones, level_scale, areas)
         self.P = np.asarray(remainder_prior, float)
@@ -293,13 +283,3 @@ class ZoneModel:
         cov = sum(covs) / np.sum(ws) + (M - mean).T @ ((M - mean) * wk[:, None])
         return ZoneFit(mean, cov, float(np.exp(wk @ np.asarray(log_a))), {"zones": float(lp.log_marginal)},
                        None, False, lp)
-
-
-def _nearest(design, rd):
-    cyl = design.cylinder
-    face = design.face_name
-    if face == "side":
-        d = cyl.radius - rd.r
-    else:
-        d = np.abs(rd.z - (0.0 if face == "bottom" else cyl.height))
-    return float(np.min(d))

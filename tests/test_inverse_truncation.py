@@ -45,7 +45,7 @@ def test_tail_equals_difference_of_prior_predictive_covariances():
     design, rd = design_and_readings([0.004, 0.006, 0.01, 0.015])
     length, order, alpha = 0.01, 1.5, 2e-7
     S = tail_covariance(design, rd, OneComponent(length, order, alpha))
-    big = design.model.basis(*enlarged_size(design, nearest_distance(design, rd), TAIL_DECAY))
+    big = design.model.basis(*enlarged_size(design, nearest_distance(design, rd.r, rd.z), TAIL_DECAY))
     ne = big.n_eigen
     Gb = big.fields(rd.r, rd.theta, rd.z)[0][:, :ne]
     Pb = matern_precision(big, length, order)[:ne]
