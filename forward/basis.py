@@ -6,9 +6,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from .geometry import is_wall
 from .corner_columns import end_rim_columns, orthogonalize, wall_columns
-from .modes import EndFaceModes, SideModes
-from .roots import axial_eigenvalues, radial_eigenvalues
 
 
 class UnknownBasis:
@@ -25,27 +24,20 @@ class UnknownBasis:
         self.face = model.unknown_face
         cond = model.faces[self.face]
         self.quantity = "temperature" if cond.kind == "D" else "heat_flux"
-        cyl, kinds, k = model.cylinder, model.kinds, model.k
-        a, L = cyl.radius, cyl.height
+        families = model.families
         ms, sins, ev, nidx = [], [], [], []
         for m in range(harmonics + 1):
-            if self.face == "side":
-                b, t = kinds["bottom"], kinds["top"]
-                e = axial_eigenvalues(b.kind, t.kind, terms, b.biot(k, L), t.biot(k, L))
-            else:
-                s = kinds["side"]
-                e = radial_eigenvalues(s.kind, m, terms, s.biot(k, a))
+            e = families.eigenvalues(self.face, m, terms)
             for is_sin in ((False,) if m == 0 else (False, True)):
-                ms.append(np.full(terms, m)), sins.append(np.full(terms, is_sin))
-                ev.append(e), nidx.append(np.arange(terms))
+                ms.append(np.full(e.size, m)), sins.append(np.full(e.size, is_sin))
+                ev.append(e), nidx.append(np.arange(e.size))
         m, is_sin, ev = np.concatenate(ms), np.concatenate(sins), np.concatenate(ev)
         self.n_index = np.concatenate(nidx)
-        if self.face == "side":
-            self.modes = SideModes(a, L, k, kinds["side"], kinds["bottom"], kinds["top"], m, is_sin, ev)
-        else:
-            far = "top" if self.face == "bottom" else "bottom"
-            self.modes = EndFaceModes(self.face, a, L, k, kinds[self.face], kinds.get(far), m, is_sin, ev)
-        if self.face == "side":
+        self.modes = families.modes(self.face, m, is_sin, ev)
+        if model.cylinder.hollow:
+            self.rim = []  # no corner columns on a hollow part yet (see DEVELOPERS.md)
+            self.mix = np.zeros((ev.size, 0))
+        elif self.face == "side":
             self.rim = wall_columns(model, harmonics)
             # wall columns minus their projection on the eigenfunctions (corner_columns)
             self.mix = orthogonalize(self.rim, self.modes, ev.size)
@@ -130,7 +122,7 @@ class UnknownBasis:
         side) [m] x around (theta) [rad], along major: face_values and known_face_values at
         those points, each factor evaluated once per line."""
         along, around = np.asarray(along, float).ravel(), np.asarray(around, float).ravel()
-        if self.face == "side":
+        if is_wall(self.face):
             phi = self.face_values_grid(around, along).transpose(1, 0, 2)
             known = self.known_face_values_grid(around, along).T
         else:

@@ -18,6 +18,7 @@ from .faces import EndCondition, FaceCondition, Flux, Temperature
 from .geometry import Cylinder, normal_component
 from .harmonics import harmonic_amplitudes, theta_nodes
 from .corners import PolynomialLifting, curvature_coefficient, end_rows, solve_rim
+from .families import families_for
 from .series import KnownSeries, _gauss
 from .basis import UnknownBasis  # re-exported: forward.model.UnknownBasis
 
@@ -218,6 +219,7 @@ class CylinderModel:
             self.lifting = self._corner_lifting()
         else:
             self.lifting = self._reference_lifting()
+        self.families = families_for(cyl, self.kinds, k)
         sizes = self._data_sizes()
         self.temperature_scale = self._temperature_scale(sizes)
         self.series = []
@@ -227,11 +229,11 @@ class CylinderModel:
             if face == "side" and cyl.semi_infinite:
                 continue  # carried exactly by the two-dimensional lifting
             data = self._residual_data(face, cond)
-            span = a if face != "side" else min(a, L)
+            span = cyl.datum_span(face)
             # harmonics relative to this face's own data (a tiny flux beside a large ambient
             # is kept); the truncation estimate relative to the field's temperature scale
             scale = sizes[face] or cond.homogeneous.datum_scale(k, span) * self.temperature_scale
-            s = KnownSeries(face, data, (a, L), self.kinds, k, tol=tol, scale=scale,
+            s = KnownSeries(face, data, self.families, self.kinds, k, tol=tol, scale=scale,
                             field_scale=self.temperature_scale,
                             n_cap=self.max_terms, max_harmonic=self.max_harmonic)
             if s.modes is not None:
@@ -254,10 +256,9 @@ class CylinderModel:
         """Temperature size of the data [K]: the largest of |g|, |T_amb| and |q| a / k over
         the known faces (relative to the data: no floor in kelvin; 1 K only when every
         datum is zero)."""
-        a, L = self.cylinder.radius, self.cylinder.height
         ref = 0.0
         for face, size in sizes.items():
-            span = a if face != "side" else min(a, L)
+            span = self.cylinder.datum_span(face)
             ref = max(ref, size / self.faces[face].homogeneous.datum_scale(self.k, span))
         return ref if ref > 0 else 1.0
 

@@ -153,6 +153,19 @@ class EndFaceModes:
         th, _ = _theta_parts(self.m, self.is_sin, np.asarray(theta, float))
         return besselj(self.m, np.multiply.outer(np.asarray(r, float), self.kappa)) * th
 
+    def radial_values(self, s, index=slice(None)):
+        """Radial factors J_m(kappa r) of the modes `index` at radii s [m], (S, K_index)."""
+        return besselj(self.m[index], np.multiply.outer(np.asarray(s, float), self.kappa[index]))
+
+    def area_integrals(self):
+        """integral over the face of Phi dA [m^2] (m = 0 cos only; zero otherwise):
+        2 pi a^2 J_1(lambda) / lambda (pi a^2 for lambda = 0)."""
+        lam, a = self.lam, self.radius
+        safe = np.where(lam > 0, lam, 1.0)
+        j1 = besselj(np.ones_like(self.m), lam)
+        area = np.where(lam > 0, 2.0 * np.pi * a * a * j1 / safe, np.pi * a * a)
+        return np.where((self.m == 0) & ~self.is_sin, area, 0.0)
+
     def norms(self):
         """integral over the face of Phi^2 dA [m^2] = a^2/2 [J_m'^2 + (1 - m^2/lambda^2) J_m^2] * (2 pi or pi)."""
         lam, m, a = self.lam, self.m, self.radius
@@ -320,6 +333,14 @@ class SideModes:
         safe = np.where(mu > 0, mu, 1.0)
         return L * np.where(mu > 0, 0.5 - (np.sin(2 * mu + 2 * phi) - np.sin(2 * phi)) / (4 * safe),
                             np.sin(phi) ** 2)
+
+    def area_integrals(self):
+        """integral over the wall of Phi dA [m^2] (m = 0 cos only; zero otherwise):
+        2 pi a integral_0^L sin(beta z + phi) dz."""
+        beta, mu, phi = self.beta, self.mu, self.phi
+        safe = np.where(beta > 0, beta, 1.0)
+        int_z = np.where(beta > 0, (np.cos(phi) - np.cos(mu + phi)) / safe, self.height * np.sin(phi))
+        return np.where((self.m == 0) & ~self.is_sin, 2.0 * np.pi * self.radius * int_z, 0.0)
 
     def norms(self):
         """integral over the side of Phi^2 dA = a * (2 pi or pi) * integral Z^2 dz [m^2]."""

@@ -22,11 +22,10 @@ from functools import lru_cache
 import numpy as np
 from scipy import special
 
-from .bessel import besselj
+from .families import SolidFamilies
+from .geometry import Cylinder, is_wall
 from .grid import grid_field
 from .harmonics import harmonic_amplitudes, significant_harmonics, theta_nodes
-from .modes import EndFaceModes, SideModes
-from .roots import axial_eigenvalues, radial_eigenvalues
 
 CHUNK = 2_000_000  # point x mode entries per evaluation block
 
@@ -37,10 +36,10 @@ def _gauss_unit(n):
     return x, w
 
 
-def _gauss(n, length):
-    """Gauss-Legendre nodes and weights on [0, length]."""
+def _gauss(n, length, start=0.0):
+    """Gauss-Legendre nodes and weights on [start, start + length]."""
     x, w = _gauss_unit(int(n))
-    return 0.5 * length * (x + 1.0), 0.5 * length * w
+    return start + 0.5 * length * (x + 1.0), 0.5 * length * w
 
 
 class KnownSeries:
@@ -48,9 +47,16 @@ class KnownSeries:
 
     def __init__(self, face, data, geometry, kinds, conductivity, *, tol, scale, field_scale=None,
                  n_start=32, n_cap=1024, max_harmonic=64):
+        """geometry: the part's family object (forward/families.py), or (radius, height) of a
+        solid cylinder."""
         self.face = face
+        self.wall = is_wall(face)
         self.data = data  # vectorized callable on face coordinates (SI)
-        self.a, self.L = geometry
+        if isinstance(geometry, tuple):
+            geometry = SolidFamilies(Cylinder(*geometry), kinds, conductivity)
+        self.families = geometry
+        self.cylinder = geometry.cylinder
+        self.a, self.L = self.cylinder.radius, self.cylinder.height
         self.kinds = kinds  # dict face -> EndCondition
         self.k = conductivity
         self.tol = tol
@@ -59,7 +65,7 @@ class KnownSeries:
         # it; field_scale (the whole field's data size in K) when given, else scale in K.
         self.scale = float(scale)
         kind = kinds[face]
-        span = self.a if face != "side" else min(self.a, self.L)
+        span = self.cylinder.datum_span(face)
         self.temperature_scale = (float(field_scale) if field_scale is not None
                                   else self.scale / kind.datum_scale(conductivity, span))
         self.n_cap = int(n_cap)
@@ -70,19 +76,28 @@ class KnownSeries:
         self._build(int(n_start))
 
     # --- data sampling -------------------------------------------------------------
+    def _interval(self):
+        return self.families.interval(self.face)
+
     def _span(self):
-        return self.a if self.face != "side" else self.L
+        lo, hi = self._interval()
+        return hi - lo
+
+    def _nodes(self, n):
+        """Gauss-Legendre nodes and weights on the face's interval of s."""
+        lo, hi = self._interval()
+        return _gauss(n, hi - lo, lo)
 
     def _sample(self, s, theta):
         """Data on a (s, theta) grid: s = r on end faces, z on the side; shape (len(s), len(theta))."""
         S, TH = np.meshgrid(s, theta, indexing="ij")
-        if self.face == "side":
+        if self.wall:
             return np.asarray(self.data(TH, S), float).reshape(S.shape)
         return np.asarray(self.data(S, TH), float).reshape(S.shape)
 
     def _harmonics(self):
         n_theta = 16
-        s, _ = _gauss(48, self._span())
+        s, _ = self._nodes(48)
         while True:
             a, b = harmonic_amplitudes(self._sample(s, theta_nodes(n_theta)), axis=1)
             ms = significant_harmonics(a, b, self.tol, self.max_harmonic, self.scale)
@@ -100,21 +115,10 @@ class KnownSeries:
 
     # --- construction ------------------------------------------------------------------
     def _eigen(self, m, n):
-        kinds, a, L, k = self.kinds, self.a, self.L, self.k
-        if self.face == "side":
-            b, t = kinds["bottom"], kinds["top"]
-            return axial_eigenvalues(b.kind, t.kind, n, b.biot(k, L), t.biot(k, L))
-        side = kinds["side"]
-        return radial_eigenvalues(side.kind, m, n, side.biot(k, a))
+        return self.families.eigenvalues(self.face, m, n)
 
     def _make_modes(self, m, is_sin, ev):
-        kinds = self.kinds
-        if self.face == "side":
-            return SideModes(self.a, self.L, self.k, kinds["side"], kinds["bottom"], kinds["top"],
-                             m, is_sin, ev)
-        far = "top" if self.face == "bottom" else "bottom"
-        return EndFaceModes(self.face, self.a, self.L, self.k, kinds[self.face], kinds.get(far),
-                            m, is_sin, ev)
+        return self.families.modes(self.face, m, is_sin, ev)
 
     def _build(self, n):
         """Build the series with n terms per harmonic (roots come from the cached tables, so a
@@ -135,27 +139,26 @@ class KnownSeries:
         modes = self._make_modes(ms, is_sin, ev)
         top_ev = float(ev.max())  # lambda (end faces) or mu (side), dimensionless
         nq = int(0.6 * top_ev + 16 * np.sqrt(top_ev + 1) + 80)
-        s, w = _gauss(nq, self._span())
+        s, w = self._nodes(nq)
         amps_c, amps_s = harmonic_amplitudes(self._sample(s, theta_nodes(self.n_theta)), axis=1)
         proj = np.empty(ms.size)
-        if self.face == "side":
+        if self.wall:
             zz, _ = modes.axial(s)  # (nq, K)
             weights = w[:, None] * zz
             norm = modes.axial_norms()
         else:
             norm = modes.norms() / np.where(ms == 0, 2.0 * np.pi, np.pi)
         # integral of the (residual) data over the face: only the m = 0 amplitude contributes
-        ring = w * s if self.face != "side" else w * self.a
+        ring = w * s if not self.wall else w * modes.radius
         self._data_integral = float(2.0 * np.pi * (ring @ amps_c[:, 0]))
         size = n - have
         for g, (mg, sg) in enumerate(self.parities):
             sl = slice(g * size, (g + 1) * size)
             amp = (amps_s if sg else amps_c)[:, mg]  # (nq,)
-            if self.face == "side":
+            if self.wall:
                 proj[sl] = (amp @ weights[:, sl]) / norm[sl]
             else:
-                jr = besselj(mg, np.multiply.outer(s, modes.kappa[sl]))
-                proj[sl] = ((w * s * amp) @ jr) / norm[sl]
+                proj[sl] = ((w * s * amp) @ modes.radial_values(s, sl)) / norm[sl]
         n_index = np.tile(np.arange(have, n), len(self.parities))
         self._blocks.append((modes, proj, n_index))
         self.n_terms = n
@@ -169,13 +172,13 @@ class KnownSeries:
                                           np.concatenate([self._ev(b[0]) for b in self._blocks]))
 
     def _ev(self, modes):
-        return modes.mu if self.face == "side" else modes.lam
+        return modes.mu if self.wall else modes.lam
 
     # --- evaluation ----------------------------------------------------------------------
     def _bound_factors(self, modes, r, z):
         """|radial or axial factor| per point (or grid line) and mode (|J Theta| <= 1,
         |Z Theta| <= 1): a function of r alone (side data) or z alone (end-face data)."""
-        if self.face == "side":
+        if self.wall:
             q, _, _ = modes._radial(r)
             return np.abs(q / modes.norm_b)
         zh, _ = modes.axial(modes.zeta(z))
@@ -184,7 +187,7 @@ class KnownSeries:
     def _tail(self, r, z):
         """Truncation estimate: sum over the last half of the terms of |c| |factor|, for
         each point (or grid line) of r (side data) or z (end-face data), in chunks."""
-        x = r if self.face == "side" else z
+        x = r if self.wall else z
         tail = np.zeros(x.size)
         for modes, coef, n_index in self._blocks:
             last = n_index >= self.n_terms // 2
@@ -193,7 +196,7 @@ class KnownSeries:
             step = max(1, CHUNK // coef.size)
             for i in range(0, x.size, step):
                 sl = slice(i, i + step)
-                part = (x[sl], None) if self.face == "side" else (None, x[sl])
+                part = (x[sl], None) if self.wall else (None, x[sl])
                 tail[sl] += self._bound_factors(modes, *part)[:, last] @ np.abs(coef[last])
         return tail
 
@@ -236,8 +239,8 @@ class KnownSeries:
         r, theta, z = (np.asarray(v, float).ravel() for v in (r, theta, z))
         if self.modes is None:
             return np.zeros(r.size), np.zeros((3, r.size)), np.zeros(r.size)
-        tail_r = r if self.face == "side" else None
-        tail_z = None if self.face == "side" else z
+        tail_r = r if self.wall else None
+        tail_z = None if self.wall else z
         return self._grow_and_sum(lambda b: self._block_points(b, r, theta, z, gradient),
                                   lambda: self._tail(tail_r, tail_z))
 
@@ -249,7 +252,7 @@ class KnownSeries:
         shape = (r.size, theta.size, z.size)
         if self.modes is None:
             return np.zeros(shape), np.zeros((3,) + shape), np.zeros(shape)
-        if self.face == "side":
+        if self.wall:
             def tail_of():
                 return self._tail(r, None)[:, None, None]
         else:
@@ -287,14 +290,16 @@ class KnownSeries:
     def _slow_face(self):
         """The other face whose mode sum converges slowest (it takes up the balance), or None.
 
-        End-face data: the side, unless it is 'N' (its power is then zero mode by mode and
-        the far face takes it; None when semi-infinite).  Side data: the one 'D' end (its
-        axial functions vanish there while the data need not); with no 'D' end, the one 'R'
-        end opposite an 'N' end; None for two 'D' or two 'R' ends.
+        End-face data: the one wall that is not 'N' (an 'N' wall's power is zero mode by
+        mode); with every wall 'N', the far end (None when semi-infinite); None for two
+        walls that are not 'N'.  Wall data: the one 'D' end (its axial functions vanish
+        there while the data need not); with no 'D' end, the one 'R' end opposite an 'N'
+        end; None for two 'D' or two 'R' ends.
         """
-        if self.face != "side":
-            if self.kinds["side"].kind != "N":
-                return "side"
+        if not self.wall:
+            walls = [f for f in ("side", "bore") if f in self.kinds and self.kinds[f].kind != "N"]
+            if walls:
+                return walls[0] if len(walls) == 1 else None
             far = "top" if self.face == "bottom" else "bottom"
             return far if far in self.kinds and np.isfinite(self.L) else None
         ends = {f: self.kinds[f].kind for f in ("bottom", "top")}
@@ -309,14 +314,5 @@ class KnownSeries:
         modes = self.modes
         axisym = (modes.m == 0) & ~modes.is_sin
         t0 = modes.face_temperature_factor()
-        if self.face == "side":
-            beta, mu, phi = modes.beta, modes.mu, modes.phi
-            safe = np.where(beta > 0, beta, 1.0)
-            int_z = np.where(beta > 0, (np.cos(phi) - np.cos(mu + phi)) / safe, self.L * np.sin(phi))
-            area = 2.0 * np.pi * self.a * int_z
-        else:
-            lam = modes.lam
-            safe = np.where(lam > 0, lam, 1.0)
-            j1 = besselj(np.ones_like(modes.m), lam)
-            area = np.where(lam > 0, 2.0 * np.pi * self.a ** 2 * j1 / safe, np.pi * self.a ** 2)
+        area = modes.area_integrals()
         return np.where(axisym, t0 * area, 0.0)
