@@ -15,7 +15,7 @@ import numpy as np
 
 from .errors import ForwardModelError, IllPosedError
 from .faces import EndCondition, FaceCondition, Flux, Temperature
-from .geometry import Cylinder, normal_component
+from .geometry import Cylinder, is_wall, normal_component
 from .harmonics import harmonic_amplitudes, theta_nodes
 from .corners import PolynomialLifting, curvature_coefficient, end_rows, solve_rim
 from .families import families_for
@@ -85,14 +85,15 @@ class CylinderModel:
 
     # --- checks ---------------------------------------------------------------------------
     def _face_integral(self, face, fn):
-        """integral of fn(face coords) over a face [unit * m^2] (Gauss in r or z, trapezoid in theta)."""
-        a, L = self.cylinder.radius, self.cylinder.height
+        """integral of fn(face coords) over a face [unit * m^2] (Gauss in r or z, trapezoid in
+        theta; per metre of length on a long part's walls)."""
+        cyl = self.cylinder
         th = theta_nodes(64)
-        if face == "side":
-            s, w = _gauss(64, L)
+        if is_wall(face):
+            s, w = _gauss(64, 1.0 if cyl.long else cyl.height)
             vals = fn(*np.meshgrid(th, s, indexing="xy"))  # (len(s), len(th))
-            return float((w[:, None] * vals).sum() * (2 * np.pi / th.size) * a)
-        s, w = _gauss(64, a)
+            return float((w[:, None] * vals).sum() * (2 * np.pi / th.size) * cyl.wall_radius(face))
+        s, w = _gauss(64, cyl.thickness, cyl.inner_radius)
         vals = fn(*np.meshgrid(s, th, indexing="ij"))
         return float(((w * s)[:, None] * vals).sum() * (2 * np.pi / th.size))
 
@@ -114,6 +115,8 @@ class CylinderModel:
                 why = "every face is flux or insulated, so no face fixes the temperature level"
             raise IllPosedError(
                 why + "; make at least one face a temperature or convection condition")
+        if cyl.long:
+            self._check_long_data()
         if cyl.semi_infinite:
             side = faces["side"]
             if side.unknown:
@@ -136,6 +139,18 @@ class CylinderModel:
                         "a net heat flux into the side of a semi-infinite part adds unbounded power; "
                         "give part.height as a length or make the side insulated, temperature or "
                         "convection")
+
+    def _check_long_data(self):
+        """A long part's wall data must not vary along z (nothing does)."""
+        th = theta_nodes(32)
+        for face, cond in self.faces.items():
+            if cond.unknown:
+                continue
+            vals = np.array([cond.data(th, np.full_like(th, z)) for z in (0.0, 0.37, 1.0, 10.0)])
+            scale = max(float(np.abs(vals).max()), 1e-300)
+            if np.ptp(vals, axis=0).max() > 1e-9 * scale:
+                raise ForwardModelError(
+                    f"the {face} data vary along z; on a long part they must depend on theta only")
 
     # --- construction ---------------------------------------------------------------------------
     def _rim_row(self, end, th):
@@ -160,10 +175,11 @@ class CylinderModel:
         ambient (a convection side then needs no series), else a uniform end temperature,
         else a uniform end ambient."""
         cyl, faces = self.cylinder, self.faces
-        side = faces["side"]
         ref = None
-        if side.kind == "R" and not callable(side.ambient):
-            ref = float(side.ambient)
+        for wall in ("side", "bore"):
+            cond = faces.get(wall)
+            if ref is None and cond is not None and cond.kind == "R" and not callable(cond.ambient):
+                ref = float(cond.ambient)
         for end in ("bottom", "top"):
             cond = faces.get(end)
             if ref is None and isinstance(cond, Temperature) and not callable(cond.value):
@@ -202,7 +218,10 @@ class CylinderModel:
         cyl, faces, tol = self.cylinder, self.faces, self.tolerance
         a, L, k = cyl.radius, cyl.height, self.k
         side = faces["side"]
-        if cyl.semi_infinite and not side.unknown:
+        self.families = families_for(cyl, self.kinds, k)
+        if cyl.hollow:
+            self.lifting = self._reference_lifting()
+        elif cyl.semi_infinite and not side.unknown:
             th = theta_nodes(2 * self.max_harmonic + 2)
             am, bm = harmonic_amplitudes(side.data(th, np.zeros_like(th)), axis=-1)
             terms = []
@@ -219,7 +238,6 @@ class CylinderModel:
             self.lifting = self._corner_lifting()
         else:
             self.lifting = self._reference_lifting()
-        self.families = families_for(cyl, self.kinds, k)
         sizes = self._data_sizes()
         self.temperature_scale = self._temperature_scale(sizes)
         self.series = []
@@ -233,22 +251,26 @@ class CylinderModel:
             # harmonics relative to this face's own data (a tiny flux beside a large ambient
             # is kept); the truncation estimate relative to the field's temperature scale
             scale = sizes[face] or cond.homogeneous.datum_scale(k, span) * self.temperature_scale
-            s = KnownSeries(face, data, self.families, self.kinds, k, tol=tol, scale=scale,
-                            field_scale=self.temperature_scale,
-                            n_cap=self.max_terms, max_harmonic=self.max_harmonic)
+            n_cap = 1 if (cyl.long and is_wall(face)) else self.max_terms
+            s = KnownSeries(face, data, self.families, self.families.kinds, k, tol=tol,
+                            scale=scale, field_scale=self.temperature_scale, n_start=min(32, n_cap),
+                            n_cap=n_cap, max_harmonic=self.max_harmonic)
             if s.modes is not None:
                 self.series.append(s)
 
     def _data_sizes(self):
         """Largest |data| of each known face on a coarse sample [data units: K, W/m^2]."""
-        a, L = self.cylinder.radius, self.cylinder.height
+        cyl = self.cylinder
+        a, L = cyl.radius, cyl.height
         th = theta_nodes(16)
         sizes = {}
         for face, cond in self.faces.items():
             if cond.unknown:
                 continue
-            s = np.linspace(0.0, a if face != "side" else (L if math.isfinite(L) else a), 9)
-            u, v = (np.meshgrid(th, s) if face == "side" else np.meshgrid(s, th))
+            wall = is_wall(face)
+            s = (np.linspace(0.0, L if math.isfinite(L) else a, 9) if wall
+                 else np.linspace(cyl.inner_radius, a, 9))
+            u, v = (np.meshgrid(th, s) if wall else np.meshgrid(s, th))
             sizes[face] = float(np.abs(cond.data(u, v)).max())
         return sizes
 
@@ -263,11 +285,11 @@ class CylinderModel:
         return ref if ref > 0 else 1.0
 
     def _face_points(self, face, u, v):
-        """(r, theta, z) of face coordinates (r, theta) on end faces or (theta, z) on the side."""
+        """(r, theta, z) of face coordinates (r, theta) on end faces or (theta, z) on a wall."""
         cyl = self.cylinder
         u, v = np.broadcast_arrays(np.asarray(u, float), np.asarray(v, float))
-        if face == "side":
-            return np.full(u.shape, cyl.radius), u, v
+        if is_wall(face):
+            return np.full(u.shape, cyl.wall_radius(face)), u, v
         z = 0.0 if face == "bottom" else cyl.height
         return u, v, np.full(u.shape, z)
 
@@ -304,7 +326,7 @@ class CylinderModel:
             raise ForwardModelError(
                 f"point {i + 1} (r = {r.ravel()[i]:.6g} m, z = {z.ravel()[i]:.6g} m) is outside the part")
         a, L = self.cylinder.radius, self.cylinder.height
-        r = np.clip(r, 0.0, a)
+        r = np.clip(r, self.cylinder.inner_radius, a)
         z = np.clip(z, 0.0, L) if math.isfinite(L) else np.maximum(z, 0.0)
         return r, theta, z
 
