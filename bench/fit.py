@@ -248,8 +248,8 @@ def bench_full(repeat, n=64, harmonics=10, terms=10, grid=(50, 90)):
     t_fit = best_of(lambda: inverse.fit(case, rd, harmonics=harmonics, terms=terms, grid=grid), repeat)
 
     # the forward parts of one fit, each timed on its own
-    pts = display_grid("bottom", a, L, *grid)
-    quad = quadrature("bottom", a, L)
+    pts = display_grid("bottom", cyl, *grid)
+    quad = quadrature("bottom", cyl)
     parts = {}
     holder = {}
 

@@ -194,7 +194,7 @@ def band_maps(run):
 
     cyl = run.case.cylinder
     design = run.state.design
-    pts = display_grid(design.face_name, cyl.radius, cyl.height, 15, 36)
+    pts = display_grid(design.face_name, cyl, 15, 36)
     B = design.face(pts.u, pts.v)[0]
     if run.state.common_offset:
         B = np.hstack([B, np.zeros((B.shape[0], 1))])

@@ -16,8 +16,6 @@ from .faces import EndCondition
 from .geometry import Cylinder, is_wall
 from .roots import axial_eigenvalues
 
-LONG_HEIGHT = 1.0  # m: the slab that carries a long part's per-metre field
-
 
 class AnnulusFamilies:
     def __init__(self, cylinder: Cylinder, kinds: dict, conductivity: float):
@@ -26,7 +24,7 @@ class AnnulusFamilies:
         if cylinder.long:
             self.kinds.setdefault("bottom", EndCondition("N"))
             self.kinds.setdefault("top", EndCondition("N"))
-        self.height = LONG_HEIGHT if cylinder.long else cylinder.height
+        self.height = cylinder.axial_length
         self.max_terms = 1 if cylinder.long else None  # per harmonic on a wall
 
     def interval(self, face):

@@ -95,6 +95,12 @@ class Cylinder:
             return self.radius if math.isinf(self.height) else self.height
         return self.thickness
 
+    @property
+    def axial_length(self) -> float:
+        """Length [m] the field is taken over along z: the height, or 1 m on a long part (its
+        areas and powers are per metre of length)."""
+        return 1.0 if self.long else self.height
+
     def datum_span(self, face: str) -> float:
         """Length [m] that turns a face datum into a temperature size (a flux q gives
         q span / k): the wall thickness (the radius when solid), on a wall also at most the
@@ -105,7 +111,7 @@ class Cylinder:
         """Area of a face [m^2]: 2 pi r_w L on a wall (per metre of length on a long part),
         pi (b^2 - a^2) on an end."""
         if is_wall(face):
-            return 2 * math.pi * self.wall_radius(face) * (1.0 if self.long else self.height)
+            return 2 * math.pi * self.wall_radius(face) * self.axial_length
         return math.pi * (self.radius ** 2 - self.inner_radius ** 2)
 
     def depth(self, face: str, r, z):

@@ -90,7 +90,7 @@ class CylinderModel:
         cyl = self.cylinder
         th = theta_nodes(64)
         if is_wall(face):
-            s, w = _gauss(64, 1.0 if cyl.long else cyl.height)
+            s, w = _gauss(64, cyl.axial_length)
             vals = fn(*np.meshgrid(th, s, indexing="xy"))  # (len(s), len(th))
             return float((w[:, None] * vals).sum() * (2 * np.pi / th.size) * cyl.wall_radius(face))
         s, w = _gauss(64, cyl.thickness, cyl.inner_radius)

@@ -200,7 +200,7 @@ class BatchSolver:
         if np.any(tol > 0):
             grad = ev.gradient + np.einsum("dpk,k->dp", dG, result.posterior.c)
             shared = shared + (grad ** 2).sum(axis=0) * tol ** 2 / 3.0
-        pts = display_grid(basis.face, cyl.radius, cyl.height, *grid)
+        pts = display_grid(basis.face, cyl, *grid)
         return cls(G, t0, P, result.posterior.alpha if alpha is None else alpha,
                    face_functionals(design, zones), basis.face_values(pts.u, pts.v),
                    basis.known_face_values(pts.u, pts.v), shared, _nominal_direction(basis))

@@ -7,10 +7,12 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
+from ..forward.geometry import is_wall
+
 
 @dataclass
 class FacePoints:
-    """Face coordinates (u, v) = (r, theta) on end faces or (theta, z) on the side, the
+    """Face coordinates (u, v) = (r, theta) on end faces or (theta, z) on a wall, the
     corresponding (r, theta, z), and quadrature weights w (dA [m^2]) when a rule.
     lines = (along, around): the grid's lines, r (or z) [m] and theta [rad]; the points are
     along x around, along major (so model columns can evaluate them separably)."""
@@ -36,24 +38,35 @@ def face_on(design, points):
     return design.face(points.u, points.v)
 
 
-def _to_rtz(face, u, v, radius, height):
-    if face == "side":
-        return np.full(u.shape, radius), u, v
-    z = 0.0 if face == "bottom" else height
+def _to_rtz(face, u, v, cylinder):
+    if is_wall(face):
+        return np.full(u.shape, cylinder.wall_radius(face)), u, v
+    z = 0.0 if face == "bottom" else cylinder.height
     return u, v, np.full(u.shape, z)
 
 
-def display_grid(face, radius, height, n_radial=41, n_theta=72):
-    """Grid for maps and estimate.csv: end faces r = 0..a x theta on [0, 2 pi) (n_radial x
-    n_theta); side theta x z = 0..L (n_radial heights x n_theta angles)."""
+def face_interval(face, cylinder):
+    """(lo, hi) [m] of a face's non-angular coordinate: r = inner radius..radius on an end
+    face, z = 0..L on a wall (0..1 m on a long part, whose figures are per metre)."""
+    if is_wall(face):
+        return 0.0, cylinder.axial_length
+    return cylinder.inner_radius, cylinder.radius
+
+
+def display_grid(face, cylinder, n_radial=41, n_theta=72):
+    """Grid for maps and estimate.csv: end faces r = a_i..a x theta on [0, 2 pi) (n_radial x
+    n_theta); walls theta x z = 0..L (n_radial heights x n_theta angles; one height on a
+    long part, where nothing varies along z)."""
     th = 2.0 * np.pi * np.arange(n_theta) / n_theta
-    s = np.linspace(0.0, radius if face != "side" else height, n_radial)
+    lo, hi = face_interval(face, cylinder)
+    s = np.linspace(lo, hi, 1 if (cylinder.long and is_wall(face)) else n_radial)
+    n_radial = s.size
     S, TH = np.meshgrid(s, th, indexing="ij")
-    if face == "side":
+    if is_wall(face):
         u, v = TH.ravel(), S.ravel()
     else:
         u, v = S.ravel(), TH.ravel()
-    r, t, z = _to_rtz(face, u, v, radius, height)
+    r, t, z = _to_rtz(face, u, v, cylinder)
     return FacePoints(face, u, v, r, t, z, None, (n_radial, n_theta), (s, th))
 
 
@@ -75,17 +88,19 @@ def segments(breaks, lo, hi, n_total, order=24):
     return np.concatenate(nodes), np.concatenate(weights)
 
 
-def quadrature(face, radius, height, n_radial=64, n_theta=128, breaks=None):
-    """Gauss-Legendre in r (or z) times the trapezoidal rule in theta; weights are dA [m^2].
+def quadrature(face, cylinder, n_radial=64, n_theta=128, breaks=None):
+    """Gauss-Legendre in r (or z) times the trapezoidal rule in theta; weights are dA [m^2]
+    (per metre of length on a long part's walls).
     breaks = (along, around): break points [m] and [rad] of zone edges; a direction with
     breaks uses a composite Gauss rule split there, so that zone indicators integrate exactly."""
-    span = radius if face != "side" else height
+    lo, hi = face_interval(face, cylinder)
+    span = hi - lo
     along, around = breaks if breaks is not None else ((), ())
     if len(along):
-        s, ws = segments(along, 0.0, span, n_radial)
+        s, ws = segments(along, lo, hi, n_radial)
     else:
         x, w = special.roots_legendre(n_radial)
-        s, ws = 0.5 * span * (x + 1.0), 0.5 * span * w
+        s, ws = lo + 0.5 * span * (x + 1.0), 0.5 * span * w
     if len(around):
         t0 = float(np.min(around))
         wrapped = t0 + np.mod(np.asarray(around, float) - t0, 2.0 * np.pi)
@@ -96,9 +111,9 @@ def quadrature(face, radius, height, n_radial=64, n_theta=128, breaks=None):
     n_theta = th.size
     S, TH = np.meshgrid(s, th, indexing="ij")
     W = ws[:, None] * wt[None, :]
-    if face == "side":
-        u, v, W = TH.ravel(), S.ravel(), (W * radius).ravel()
+    if is_wall(face):
+        u, v, W = TH.ravel(), S.ravel(), (W * cylinder.wall_radius(face)).ravel()
     else:
         u, v, W = S.ravel(), TH.ravel(), (W * S).ravel()
-    r, t, z = _to_rtz(face, u, v, radius, height)
+    r, t, z = _to_rtz(face, u, v, cylinder)
     return FacePoints(face, u, v, r, t, z, W, (s.size, n_theta), (s, th))

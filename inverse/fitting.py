@@ -266,8 +266,8 @@ def _zone_model(spec, design, rd, problem, warnings):
         return None
     if opts.calibrate:
         return None
-    areas = [zone_area(z, design.face_name, cyl.radius, cyl.height) for z in zones]
-    pts = display_grid(design.face_name, cyl.radius, cyl.height, 11, 24)
+    areas = [zone_area(z, design.face_name, cyl) for z in zones]
+    pts = display_grid(design.face_name, cyl, 11, 24)
     B, known = design.face(pts.u, pts.v)
     scale = float(np.sqrt(np.mean((known + B @ problem.c0) ** 2)))
     # The remainder keeps the smooth prior's nearly flat nominal direction: the face between
@@ -327,14 +327,14 @@ def _misfit_warnings(screen):
 
 def _layout_warnings(face, cyl, rd):
     out = []
-    a = cyl.radius
-    angular = angular_note(face, a, rd.r, rd.theta)
+    angular = angular_note(face, cyl.radius, rd.r, rd.theta)
     if angular:
         out.append(angular)
-    dist = a - rd.r if face == "side" else np.abs(rd.z - (0.0 if face == "bottom" else cyl.height))
-    if dist.size and dist.min() > FAR_FRACTION * a:
+    dist = cyl.depth(face, rd.r, rd.z)
+    size, what = (cyl.thickness, "wall thickness") if cyl.hollow else (cyl.radius, "radius")
+    if dist.size and dist.min() > FAR_FRACTION * size:
         out.append(f"the nearest sensor is {dist.min() * 1e3:.3g} mm from the unknown face "
-                   f"(over {FAR_FRACTION:.0%} of the radius): fine detail of the profile is unresolved")
+                   f"(over {FAR_FRACTION:.0%} of the {what}): fine detail of the profile is unresolved")
     return out
 
 

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..forward.geometry import is_wall
 from .face_grid import face_on, quadrature
 
 
@@ -19,8 +20,8 @@ def face_functionals(design, zones=()) -> list:
     the unknown face: value = k + f . c, in the face's unit (K or W/m^2; W for the power).
     Zones on another face or covering nothing are left out (inverse.fit warns about them)."""
     cyl, face = design.cylinder, design.face_name
-    quad = quadrature(face, cyl.radius, cyl.height, breaks=_breaks(list(zones or ()) + list(
-        getattr(design, "zones", ())), face, cyl.radius))
+    quad = quadrature(face, cyl, breaks=_breaks(list(zones or ()) + list(
+        getattr(design, "zones", ())), face, cyl.wall_radius(face)))
     Bq, kq = face_on(design, quad)
 
     def average(weights):
@@ -50,7 +51,7 @@ def _breaks(zones, face, radius):
     along, around = [], []
     for zone in zones:
         if hasattr(zone, "indicator") and (zone.face or face) == face:
-            a, b = zone_breaks(zone, face == "side", radius)
+            a, b = zone_breaks(zone, is_wall(face), radius)
             along += a
             around += b
     return (along, around) if along or around else None

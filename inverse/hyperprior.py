@@ -52,6 +52,8 @@ import math
 
 import numpy as np
 
+from ..forward.geometry import is_wall
+
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem
 from .strength_average import mixture_band
@@ -74,16 +76,18 @@ PRIOR_DOMINATED = 0.55  # a one-sided bound leaves ~0.6 (half-normal sd 0.60); i
 
 
 def face_area(basis) -> float:
-    """Area of the unknown face [m^2]: 2 pi a L (side) or pi a^2 (end faces)."""
-    cyl = basis.model.cylinder
-    return 2 * math.pi * cyl.radius * cyl.height if basis.face == "side" else math.pi * cyl.radius ** 2
+    """Area of the unknown face [m^2]: 2 pi r_w L (a wall of radius r_w; per metre on a long
+    part) or pi (a^2 - a_i^2) (end faces)."""
+    return basis.model.cylinder.face_area(basis.face)
 
 
 def face_size(basis) -> float:
-    """D [m]: the radius for an end face; max(radius, height) for the side (radius if semi-infinite)."""
+    """D [m]: the radius for an end face; max(wall radius, height) for a wall (the wall
+    radius on a long part)."""
     cyl = basis.model.cylinder
-    if basis.face == "side" and math.isfinite(cyl.height):
-        return max(cyl.radius, cyl.height)
+    if is_wall(basis.face):
+        r_w = cyl.wall_radius(basis.face)
+        return r_w if cyl.long else max(r_w, cyl.height)
     return cyl.radius
 
 

@@ -18,13 +18,13 @@ def placement_draws(design, rd, kept, P, problem, alphas, draws, seed, grid, pro
     rng = np.random.default_rng(seed)
     sub = rd.subset(kept)
     cyl = design.cylinder
-    pts = display_grid(design.face_name, cyl.radius, cyl.height, *grid)
+    pts = display_grid(design.face_name, cyl, *grid)
     B, known = design.face(pts.u, pts.v)
     samples = np.empty((draws, pts.u.size))
     tol = sub.position_tolerance
     a, L = cyl.radius, cyl.height
     for j in range(draws):
-        r = np.clip(sub.r + rng.uniform(-1, 1, sub.n) * tol, 0.0, a)
+        r = np.clip(sub.r + rng.uniform(-1, 1, sub.n) * tol, cyl.inner_radius, a)
         th = sub.theta + rng.uniform(-1, 1, sub.n) * tol / np.maximum(sub.r, tol + 1e-12)
         z = sub.z + rng.uniform(-1, 1, sub.n) * tol
         z = np.clip(z, 0.0, L) if math.isfinite(L) else np.maximum(z, 0.0)

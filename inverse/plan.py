@@ -135,7 +135,7 @@ def target_list(design, zones, which, grid=(11, 24)) -> list:
             out.append(Target("mean", F[0][None, :]))
         elif item == "face":
             cyl = design.cylinder
-            pts = display_grid(design.face_name, cyl.radius, cyl.height, *grid)
+            pts = display_grid(design.face_name, cyl, *grid)
             out.append(Target("face", design.face(pts.u, pts.v)[0], "map"))
         elif item in zone_names:
             out.append(Target(item, F[names.index(item)][None, :]))

@@ -27,7 +27,7 @@ MODELS = ("smooth", "zones", "auto")
 #: hyperprior.py) or "fixed" (length scale = radius, order from `smoothing`; alpha averaged)
 PRIORS = ("learned", "fixed")
 SOLVERS = ("auto", "lmfit")
-FACE_NAMES = ("bottom", "top", "side")
+FACE_NAMES = ("bottom", "top", "side", "bore")
 #: basis size when the options leave it automatic
 DEFAULT_HARMONICS = 6
 DEFAULT_TERMS = 10
@@ -254,10 +254,11 @@ class Zone:
     def full_turn(self) -> bool:
         return self.theta[1] - self.theta[0] >= 2 * math.pi - 1e-12
 
-    def along(self, s, span_end: float) -> np.ndarray:
-        """Radial (end face) or axial (side) window at s [m]; span_end = radius or height."""
+    def along(self, s, span_end: float, span_start: float = 0.0) -> np.ndarray:
+        """Radial (end face) or axial (wall) window at s [m]; the face spans s = span_start..
+        span_end (inner radius..radius, or 0..height); an edge at either end is no edge."""
         lo, hi = self.r if self.z is None else self.z
-        lo_edge, hi_edge = lo > 0.0, hi < span_end * (1 - 1e-12)
+        lo_edge, hi_edge = lo > span_start * (1 + 1e-12), hi < span_end * (1 - 1e-12)
         return _window(np.asarray(s, float), lo, hi, self.edge, lo_edge, hi_edge)
 
     def around(self, theta, radius: float) -> np.ndarray:
@@ -274,13 +275,13 @@ class Zone:
         at = radius if self.z is not None else 0.5 * (self.r[0] + self.r[1])
         return _window(t, 0.0, span, self.edge / max(at, 1e-12))
 
-    def indicator(self, u, v, radius: float, span_end: float) -> np.ndarray:
+    def indicator(self, u, v, radius: float, span_end: float, span_start: float = 0.0) -> np.ndarray:
         """The zone's share of each face point (0..1): (r, theta) on end faces, (theta, z)
-        on the side; exactly `contains` for sharp edges."""
+        on a wall (radius: the wall's); exactly `contains` for sharp edges."""
         u, v = np.broadcast_arrays(np.asarray(u, float), np.asarray(v, float))
         if self.z is not None:
-            return self.around(u, radius) * self.along(v, span_end)
-        return self.along(u, span_end) * self.around(v, radius)
+            return self.around(u, radius) * self.along(v, span_end, span_start)
+        return self.along(u, span_end, span_start) * self.around(v, radius)
 
 
 # ---------------------------------------------------------------------------- problem

@@ -13,7 +13,8 @@ import numpy as np
 import pandas as pd
 
 from .bands import Z95, z_factor
-from .face_grid import display_grid, face_on, quadrature
+from ..forward.geometry import is_wall
+from .face_grid import display_grid, face_interval, face_on, quadrature
 from .functionals import functional_matrix
 
 __all__ = ["Posterior", "FitResult", "Z95"]
@@ -86,16 +87,17 @@ def _gaussian_draws(mean, cov, n, seed):
     return mean[None, :] + rng.standard_normal((n, mean.size)) @ L.T
 
 
-def zone_area(zone, face, radius, height, n=1024):
+def zone_area(zone, face, cylinder, n=1024):
     """Area [m^2] of a zone by the midpoint rule on n x n cells of the face (theta x r with
-    weight r on end faces, theta x z on the side)."""
+    weight r on end faces, theta x z on a wall; per metre on a long part's walls)."""
     th = 2.0 * np.pi * (np.arange(n) + 0.5) / n
-    span = height if face == "side" else radius
-    s = span * (np.arange(n) + 0.5) / n
+    lo, hi = face_interval(face, cylinder)
+    span = hi - lo
+    s = lo + span * (np.arange(n) + 0.5) / n
     S, TH = np.meshgrid(s, th, indexing="ij")
-    if face == "side":
+    if is_wall(face):
         mask = np.asarray(zone.contains(TH.ravel(), S.ravel()), dtype=bool)
-        return float(mask.sum()) * (2.0 * np.pi / n) * (span / n) * radius
+        return float(mask.sum()) * (2.0 * np.pi / n) * (span / n) * cylinder.wall_radius(face)
     mask = np.asarray(zone.contains(S.ravel(), TH.ravel()), dtype=bool)
     return float(S.ravel() @ mask) * (2.0 * np.pi / n) * (span / n)
 
@@ -109,7 +111,7 @@ def _evaluated_once(builder, design, value=None):
 
 def valid_zones(zones, face, cyl, warnings) -> list:
     """The zones on the estimated face that cover part of it; the others are reported."""
-    quad = quadrature(face, cyl.radius, cyl.height)
+    quad = quadrature(face, cyl)
     out = []
     for zone in zones or ():
         zface = getattr(zone, "face", None) or face
@@ -129,7 +131,7 @@ def _zone_entries(zones, names, mean, sd, face, cyl, quantity, warnings):
         zm, zsd = float(mean[i]), float(sd[i])
         # The masked rule's zone edge is as coarse as its nodes (several % of the area of
         # a small zone); the area, and with it the power, comes from a fine midpoint rule.
-        za = zone_area(zone, face, cyl.radius, cyl.height)
+        za = zone_area(zone, face, cyl)
         entry = {"name": zone.name, "mean": zm, "sd": zsd, "lower": zm - Z95 * zsd,
                  "upper": zm + Z95 * zsd, "area_m2": za}
         nominal = getattr(zone, "nominal", None)
@@ -180,7 +182,7 @@ class FitResult:
         cyl, opts = design.cylinder, spec.options
         face, quantity = design.face_name, design.quantity
         unit = "K" if quantity == "temperature" else "W/m^2"
-        pts = display_grid(face, cyl.radius, cyl.height, *opts.grid)
+        pts = display_grid(face, cyl, *opts.grid)
         on_grid = _evaluated_once(lambda d: face_on(d, pts), design)
 
         mean, sd, lower, upper = posterior.figures(on_grid, design)

@@ -23,6 +23,8 @@ import math
 
 import numpy as np
 
+from ..forward.geometry import is_wall
+
 from .hyperprior import matern_precision
 
 #: left-out modes are kept in S_tail down to exp(-kappa d_min) = TAIL_DECAY at the nearest sensor
@@ -36,12 +38,7 @@ MAX_HARMONICS, MAX_TERMS = 24, 64
 
 def nearest_distance(design, r, z) -> float:
     """Distance [m] from the unknown face to the nearest of the points (r, z) [m]."""
-    cyl = design.cylinder
-    if design.face_name == "side":
-        d = cyl.radius - np.asarray(r, float)
-    else:
-        d = np.abs(np.asarray(z, float) - (0.0 if design.face_name == "bottom" else cyl.height))
-    return float(np.min(d))
+    return float(np.min(design.cylinder.depth(design.face_name, r, z)))
 
 
 def enlarged_size(design, nearest, decay, harmonics=True, caps=(MAX_HARMONICS, MAX_TERMS)):
@@ -49,10 +46,10 @@ def enlarged_size(design, nearest, decay, harmonics=True, caps=(MAX_HARMONICS, M
     kappa = the mode's decay rate into the part [1/m]; at least the design's own size,
     at most caps = (harmonics, terms). harmonics=False keeps m = 0 only."""
     cyl = design.cylinder
-    span = cyl.height if design.face_name == "side" else cyl.radius
+    span = cyl.axial_length if is_wall(design.face_name) else cyl.thickness
     if not math.isfinite(span):
         span = cyl.radius
-    d = max(float(nearest), 1e-3 * cyl.radius)
+    d = max(float(nearest), 1e-3 * cyl.thickness)
     kappa = -math.log(decay) / d
     terms = int(min(caps[1], max(design.terms, math.ceil(kappa * span / math.pi) + 2)))
     h = int(min(caps[0], max(design.harmonics, math.ceil(kappa * cyl.radius)))) if harmonics else 0

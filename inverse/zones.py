@@ -29,7 +29,8 @@ import numpy as np
 from scipy.special import logsumexp
 
 from .errors import InverseError
-from .face_grid import segments
+from ..forward.geometry import is_wall
+from .face_grid import face_interval, segments
 from .design import NOMINAL_PRECISION_FACTOR
 from .hyperprior import learn_prior
 from .linear_gaussian import LinearGaussianProblem
@@ -63,8 +64,9 @@ def projection(basis, zones):
     """A (J, K_eigen): coefficients of each zone's indicator on the basis's eigenfunctions
     (rim columns, which are no eigenfunctions, get none)."""
     cyl = basis.model.cylinder
-    side = basis.face == "side"
-    span = cyl.height if side else cyl.radius
+    side = is_wall(basis.face)
+    lo, hi = face_interval(basis.face, cyl)
+    r_w = cyl.wall_radius(basis.face)
     ne = basis.n_eigen
     m, is_sin, n_idx = basis.m[:ne], basis.is_sin[:ne], basis.n_index[:ne]
     partner = {(int(mm), int(nn)): k for k, (mm, s, nn) in enumerate(zip(m, is_sin, n_idx)) if not s}
@@ -72,22 +74,22 @@ def projection(basis, zones):
     norms = basis.norms()[:ne]
     along, around = [], []
     for zone in zones:           # one rule for all zones, split at every zone's breaks
-        a, b = zone_breaks(zone, side, cyl.radius)
+        a, b = zone_breaks(zone, side, r_w)
         along += a
         around += b
-    s, ws = segments(along, 0.0, span, 4 * ne // max(1, int(m.max()) + 1) + 200)
+    s, ws = segments(along, lo, hi, 4 * ne // max(1, int(m.max()) + 1) + 200)
     t, wt = segments(around, 0.0, 2 * math.pi, 8 * int(m.max()) + 64)
     if side:
         prof = basis.modes.eigenfunctions(np.zeros_like(s), s)[:, cos_of]    # Z_k(z)
-        ws = ws * cyl.radius
+        ws = ws * r_w
     else:
         prof = basis.modes.eigenfunctions(s, np.zeros_like(s))[:, cos_of]    # R_k(r)
         ws = ws * s
     trig = np.where(is_sin[None, :], np.sin(np.multiply.outer(t, m)), np.cos(np.multiply.outer(t, m)))
     A = np.zeros((len(zones), ne))
     for j, zone in enumerate(zones):
-        radial = (ws * zone.along(s, span)) @ prof
-        angular = (wt * zone.around(t, cyl.radius)) @ trig
+        radial = (ws * zone.along(s, hi, lo)) @ prof
+        angular = (wt * zone.around(t, r_w)) @ trig
         A[j] = radial * angular / norms
     return A
 
@@ -116,8 +118,9 @@ class ZoneDesign:
 
     def _indicators(self, u, v):
         cyl = self.cylinder
-        span = cyl.height if self.face_name == "side" else cyl.radius
-        return np.stack([z.indicator(u, v, cyl.radius, span) for z in self.zones], axis=1)
+        lo, hi = face_interval(self.face_name, cyl)
+        r_w = cyl.wall_radius(self.face_name)
+        return np.stack([z.indicator(u, v, r_w, hi, lo) for z in self.zones], axis=1)
 
     def at(self, r, theta, z, gradient=False):
         G, t0, ev, dG = self.smooth.at(r, theta, z, gradient=gradient)

@@ -59,8 +59,8 @@ def test_display_grid_and_rule_on_lines_equal_pointwise(name):
     design = Design(cyl, faces, 1e-8, 4, 6)
     zones = _zones(design.face_name, cyl)
     breaks = ([0.5 * cyl.radius], [-1.0, 1.0]) if design.face_name != "side" else ([0.2 * cyl.height], [0.5])
-    for pts in (display_grid(design.face_name, cyl.radius, cyl.height, 9, 12),
-                quadrature(design.face_name, cyl.radius, cyl.height, 16, 24, breaks=breaks)):
+    for pts in (display_grid(design.face_name, cyl, 9, 12),
+                quadrature(design.face_name, cyl, 16, 24, breaks=breaks)):
         B, known = face_on(design, pts)
         Bp, kp = design.face(pts.u, pts.v)
         assert B.shape == Bp.shape == (pts.u.size, design.size)

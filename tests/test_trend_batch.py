@@ -48,7 +48,7 @@ def platen():
 
     t_nom = field(lambda r, th: Q0 + 0 * np.asarray(r))
     t_off = field(lambda r, th: Q0 * (1 - weak_shape(r, th)))
-    quad = quadrature("bottom", case.cylinder.radius, case.cylinder.height)
+    quad = quadrature("bottom", case.cylinder)
     loss = {}
     for zone in case.zones:
         w = quad.weights * zone.contains(quad.u, quad.v)
