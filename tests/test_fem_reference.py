@@ -405,3 +405,60 @@ def test_hollow_errors():
         solve_long_tube(AI, AO, KT, 0, {"bore": ("N", 1.0), "side": ("N", -1.0)})
     with pytest.raises(ValueError):
         solve_long_tube(AO, AI, KT, 0, {"bore": ("D", 1.0), "side": ("N", 0.0)})
+
+
+# ------------------------------------------------------------------ hollow scenarios
+import scenario_fem as sf  # noqa: E402
+import scenario_hollow as sh  # noqa: E402
+from scipy.integrate import quad  # noqa: E402
+
+
+@pytest.mark.parametrize("name", sh.NAMES)
+def test_hollow_scenario_heat_balance_and_data(name):
+    scn = sh.make(name, scale=0.5)
+    truth, phys, _ = sh._PHYSICS[name]
+    assert phys.inner_radius == sh.A_IN and scn.face == "bore"
+    assert len(scn.readings.names) == 20 and np.all(np.isfinite(scn.readings.temperature))
+    # sensors inside the wall, at the two drilled depths
+    assert set(np.round(sh.B_OUT - scn.readings.r, 6)) == {0.010, 0.020}
+    # m = 0 problem of the scenario: heaters in through the side, out through bore and ends
+    faces = dict(phys.known)
+    faces["bore"] = ("D" if phys.kind == "temperature" else "N", sf.amplitude(truth, "bore", 0, "cos"))
+    sol = solve_harmonic(phys.radius, phys.height, phys.conductivity, 0, faces, nr=8, nz=60,
+                         inner_radius=phys.inner_radius)
+    heater = 2 * np.pi * sh.B_OUT * quad(sh.heater_flux, 0.0, phys.height, points=[0.06, 0.16, 0.24, 0.34],
+                                         limit=200)[0]  # scipy.integrate.quad of the heater profile
+    assert sol.heat_in("side") == pytest.approx(heater, rel=1e-7)
+    total = sum(sol.heat_in(f) for f in sol.face_names)
+    assert abs(total) < 1e-9 * heater  # energy conservation
+    assert scn.fem["fem_heat_in"] == pytest.approx(sol.heat_in("bore"), rel=1e-6)
+    if phys.kind == "flux":
+        # the truth's area integral (midpoint rule) equals the FEM's bore heat in (data of an N face)
+        assert scn.power == pytest.approx(sol.heat_in("bore"), rel=1e-4)
+    assert scn.power < 0  # the wall heats the fluid: heat into the part through the bore is negative
+
+
+def test_hollow_scenario_zone_means_and_truth():
+    scn = sh.make("tube_bore_temperature", scale=0.5)
+    zm = scn.zone_means
+    # the cooler streak sits below the rest of the band, the warm end above it (by construction)
+    assert zm["cool streak"] < zm["bore 0-90 deg"] - 4.0
+    assert zm["warm end"] > zm["bore 0-90 deg"] + 10.0
+    # a full-turn window's mean by scipy.integrate.dblquad of the truth (the face is a cylinder)
+    from scipy.integrate import dblquad
+    exact = dblquad(lambda z, th: scn.truth(th, z), 0, 2 * np.pi, 0.32, 0.40)[0] / (2 * np.pi * 0.08)
+    assert zm["warm end"] == pytest.approx(exact, abs=1e-3)
+    grid = {"r_m": _Col(np.full(3, sh.A_IN)), "theta_rad": _Col(np.array([0.0, 4.36, 1.0])),
+            "z_m": _Col(np.array([0.2, 0.2, 0.39]))}
+    on = scn.truth_on(grid)  # (theta, z) columns read on the bore: streak 8.5 K below the far side
+    assert on[0] - on[1] > 8.5 and on[2] > on[0] + 10.0
+    with pytest.raises(KeyError):
+        sh.make("no_such_tube")
+
+
+class _Col:
+    def __init__(self, values):
+        self._v = values
+
+    def to_numpy(self):
+        return self._v
