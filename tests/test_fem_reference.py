@@ -462,3 +462,34 @@ class _Col:
 
     def to_numpy(self):
         return self._v
+
+
+# ------------------------------------------------------------------ the tube demo's files
+def test_tube_demo_files_consistent():
+    import json
+    import tomllib
+    from pathlib import Path
+    here = Path(__file__).resolve().parent.parent / "demo_data" / "tube"
+    case = tomllib.loads((here / "tube.toml").read_text())
+    assert case["part"] == {"radius": "80 mm", "inner_radius": "50 mm", "height": "600 mm",
+                            "conductivity": "45 W/(m*K)"}
+    assert case["faces"]["bore"]["condition"] == "unknown-temperature"
+    assert all(set(z) == {"name", "theta", "z"} for z in case["zones"])
+    lay = np.genfromtxt(here / "layout.csv", delimiter=",", skip_header=1, usecols=(1, 2, 3, 4))
+    assert lay.shape == (20, 4) and np.all((lay[:, 0] > 50) & (lay[:, 0] < 80))
+    assert set(80 - lay[:, 0]) == {10.0, 20.0}                    # two drilled depths [mm]
+    prof = np.genfromtxt(here / "side_heaters.csv", delimiter=",", skip_header=1)
+    truth = json.loads((here / "truth.json").read_text())
+    # heater power: 2 pi b int q dz of the piecewise linear profile (trapezoidal rule, exact here)
+    z, q = prof[:, 1] * 1e-3, prof[:, 2]
+    heaters = 2 * np.pi * 0.080 * float(np.sum(0.5 * (q[1:] + q[:-1]) * np.diff(z)))
+    assert heaters == pytest.approx(2 * np.pi * 0.080 * 0.180 * (11e3 + 9e3), rel=1e-12)  # two 180 mm bands
+    assert truth["heater_power_W"] == pytest.approx(heaters, rel=1e-9)
+    # steady state: heaters = heat into the fluid + flange losses (energy conservation)
+    assert truth["heat_into_fluid_W"] + truth["flange_loss_W"] == pytest.approx(heaters, rel=1e-9)
+    assert truth["total_power_W"] == pytest.approx(-truth["heat_into_fluid_W"])
+    # the fouled side runs warmer and passes less heat to the liquid than the other sectors
+    tz, qz = truth["zone_mean_degC"], truth["zone_mean_flux_into_fluid_W_m2"]
+    others = ("sector 240-340", "sector 340-60", "sector 60-160")
+    assert all(tz["fouled side 160-240"] > tz[o] + 4.0 for o in others)
+    assert all(qz["fouled side 160-240"] < 0.7 * qz[o] for o in others)
