@@ -1,7 +1,7 @@
 """Finite-element readings for the scenario suite (tests/scenario_cases.py).
 
 A scenario prescribes a TRUE profile f(u, v) on its unknown face (u, v = r, theta on an
-end face; theta, z on the side), in SI units (K for a temperature, W/m^2 into the part for
+end face; theta, z on the side or the bore of a hollow part), in SI units (K for a temperature, W/m^2 into the part for
 a heat flux).  The readings come from the independent scikit-fem solver
 (tests/fem_cylinder.py), one azimuthal harmonic at a time, as demo_data/generate_demo.py
 does:
@@ -10,7 +10,8 @@ does:
     a_m(s) = (2 / N) sum_j f(s, theta_j) cos(m theta_j)   (trapezoidal rule, N points),
 
 each harmonic solved with the unknown face as a temperature ('D') or flux ('N') face
-carrying a_m or b_m, and the known faces homogeneous for m >= 1 (their data are uniform).
+carrying a_m or b_m, and the known faces homogeneous for m >= 1 (their data are
+axisymmetric: numbers, or for m = 0 callables of the face coordinate s).
 Harmonics whose amplitude stays below REL_TOL of the truth's range are left out; the sum of
 the left-out amplitudes is kept as an upper bound of the truncated face data.
 
@@ -30,17 +31,24 @@ N_THETA = 512          # trapezoidal points in theta for the harmonic amplitudes
 REL_TOL = 1e-4         # harmonics below this fraction of the truth's range are left out
 
 
+WALLS = ("side", "bore")
+
+
 def face_coords(face, r, theta, z):
-    """Face coordinates (u, v) of points on a face: (r, theta) on the ends, (theta, z) on the side."""
-    return (theta, z) if face == "side" else (r, theta)
+    """Face coordinates (u, v) of points on a face: (r, theta) on the ends, (theta, z) on
+    the side and the bore."""
+    return (theta, z) if face in WALLS else (r, theta)
 
 
 @dataclass
 class Physics:
     """Geometry, known faces and the unknown face of a scenario, for the FEM solver.
 
-    known: face -> FEM spec of the uniform data: ('D', T [K]) | ('N', q_in [W/m^2]) |
-    ('R', h [W/(m^2 K)], T_amb [K]).  unknown: face name; kind 'temperature' | 'flux'.
+    known: face -> FEM spec of the axisymmetric data: ('D', T [K]) | ('N', q_in [W/m^2]) |
+    ('R', h [W/(m^2 K)], T_amb [K]), each value a number or a callable of the face
+    coordinate s (r on the ends, z on side and bore).  unknown: face name; kind
+    'temperature' | 'flux'.  inner_radius a_i [m] > 0 makes the part a tube whose faces
+    include 'bore' (r = a_i).
     A semi-infinite part (height = inf) is solved on fem_height with the far face fem_far.
     mesh: solve_harmonic's nr, nz and grade at level 1; m_cap: highest harmonic solved.
     """
@@ -55,21 +63,25 @@ class Physics:
     m_cap: int = 24
     fem_height: float | None = None
     fem_far: tuple | None = None
+    inner_radius: float = 0.0
 
     @property
     def span(self):
-        """Length of the face's non-angular coordinate [m]."""
-        return self.fem_height if self.unknown == "side" and math.isinf(self.height) else \
-            (self.height if self.unknown == "side" else self.radius)
+        """Length of the face's non-angular coordinate [m] (measured from 0: the ends of a
+        tube use s in [inner_radius, radius])."""
+        if self.unknown in WALLS:
+            return self.fem_height if math.isinf(self.height) else self.height
+        return self.radius
 
 
 def _values(truth, face, s, theta):
-    return truth(theta, s) if face == "side" else truth(s, theta)
+    return truth(theta, s) if face in WALLS else truth(s, theta)
 
 
 def harmonics(truth, phys: Physics, m_cap: int):
     """[(m, kind)] of the truth above REL_TOL of its range, and the bound of the rest."""
-    s = np.linspace(0.0, phys.span, 241)
+    s0 = 0.0 if phys.unknown in WALLS else phys.inner_radius
+    s = np.linspace(s0, phys.span, 241)
     th = 2.0 * np.pi * np.arange(N_THETA) / N_THETA
     F = _values(truth, phys.unknown, s[:, None], th[None, :])
     spec = np.fft.rfft(F, axis=1) / N_THETA
@@ -130,7 +142,8 @@ def solve(truth, phys: Physics, r, theta, z, level: int = 1, scale: float = 1.0)
         faces = {f: (spec if m == 0 else _homogeneous(spec)) for f, spec in known.items()}
         faces[phys.unknown] = ("D" if phys.kind == "temperature" else "N",
                                amplitude(truth, phys.unknown, m, kind))
-        sol = solve_harmonic(phys.radius, height, phys.conductivity, m, faces, **mesh)
+        sol = solve_harmonic(phys.radius, height, phys.conductivity, m, faces,
+                             inner_radius=phys.inner_radius, **mesh)
         ang = np.cos(m * theta) if kind == "cos" else np.sin(m * theta)
         T = T + sol.temperature(r, z) * ang
         ndofs = sol.ndofs
@@ -141,17 +154,21 @@ def solve(truth, phys: Physics, r, theta, z, level: int = 1, scale: float = 1.0)
     return FemReadings(T, heat, facts)
 
 
-def face_average(truth, face, radius, height, mask_fn=None, n=600):
+def face_average(truth, face, radius, height, mask_fn=None, n=600, inner_radius=0.0):
     """Area average of the truth over the face, or over the part where mask_fn(u, v) holds:
-    midpoint rule on n x 2n cells, weight r on end faces (dA = r dr dtheta; a dtheta dz on the
-    side).  Returns (average, area [m^2])."""
+    midpoint rule on n x 2n cells, weight r on end faces (dA = r dr dtheta over
+    inner_radius <= r <= radius; a dtheta dz on the side, a_i dtheta dz on the bore).
+    Returns (average, area [m^2])."""
     th = 2.0 * np.pi * (np.arange(2 * n) + 0.5) / (2 * n)
-    s = (radius if face != "side" else height) * (np.arange(n) + 0.5) / n
+    lo, hi = (0.0, height) if face in WALLS else (inner_radius, radius)
+    ds = (hi - lo) / n
+    s = lo + ds * (np.arange(n) + 0.5)
     S, TH = np.meshgrid(s, th, indexing="ij")
-    U, V = (TH, S) if face == "side" else (S, TH)
-    w = np.full(S.shape, radius) if face == "side" else S.copy()
+    U, V = (TH, S) if face in WALLS else (S, TH)
+    wall_r = inner_radius if face == "bore" else radius
+    w = np.full(S.shape, wall_r) if face in WALLS else S.copy()
     if mask_fn is not None:
         w = w * np.asarray(mask_fn(U, V), dtype=bool)
-    cell = (2.0 * np.pi / (2 * n)) * (2.0 * s[0])  # dtheta x ds (s[0] = ds / 2)
+    cell = (2.0 * np.pi / (2 * n)) * ds  # dtheta x ds
     area = float(w.sum()) * cell
     return float((truth(U, V) * w).sum() / w.sum()), area
