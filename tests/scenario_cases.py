@@ -355,10 +355,50 @@ def wall_cooled_end(seed=0, scale=1.0):
                   sigma=0.1, zones=zones)
 
 
+# ------------------------------------------------------------------ hollow parts (issue 11)
+def _hollow_condition(words):
+    """A forward face condition from scenario_hollow's case-file words."""
+    kind = words[0]
+    if kind == "temperature":
+        return fw.Temperature(words[1])
+    if kind == "flux":
+        return fw.Flux(words[1])
+    if kind == "insulated":
+        return fw.Insulated()
+    if kind == "convection":
+        return fw.Convection(words[1], words[2])
+    return fw.UnknownTemperature() if kind == "unknown-temperature" else fw.UnknownFlux()
+
+
+def from_hollow(hs) -> Scenario:
+    """A Scenario of heatsight objects from a tests/scenario_hollow.HollowScenario (which,
+    like the FEM, imports nothing of heatsight)."""
+    c = hs.case.cylinder
+    cyl = fw.Cylinder(c.radius, c.height, c.conductivity, inner_radius=c.inner_radius)
+    faces = {face: _hollow_condition(words) for face, words in hs.case.faces.items()}
+    zones = [Zone(z.name, z.face, tuple(z.theta), z=tuple(z.z)) for z in hs.case.zones]
+    case = types.SimpleNamespace(cylinder=cyl, faces=faces, zones=zones)
+    rd = hs.readings
+    readings = inverse.SensorReadings(list(rd.names), rd.r, rd.theta, rd.z, rd.temperature, rd.sigma,
+                                      rd.offset_sd, rd.position_tolerance)
+    return Scenario(hs.name, hs.story, case, readings, hs.truth, hs.face, hs.power, hs.zone_means,
+                    hs.broken, dict(hs.fit_kwargs), hs.rms_goal, hs.resolves, hs.fem)
+
+
+def _hollow(name):
+    def make_hollow(seed=0, scale=1.0):
+        import scenario_hollow
+
+        return from_hollow(scenario_hollow.make(name, seed=seed, scale=scale))
+    make_hollow.__name__ = name
+    return make_hollow
+
+
 SCENARIOS = {f.__name__: f for f in (platen_flux, top_temperature, wall_temperature, side_flux,
                                      semi_infinite, sparse_sector, chuck_class2,
                                      calibrated_convection, three_rings, three_rings_zones,
-                                     wall_cooled_end)}
+                                     wall_cooled_end, _hollow("tube_bore_temperature"),
+                                     _hollow("tube_bore_flux"))}
 NAMES = tuple(SCENARIOS)
 
 
@@ -373,6 +413,10 @@ def mesh_check(name, scale=1.0):
     """FEM convergence at the sensors: largest |T(level 2) - T(level 1)| [K] of the noise-free
     readings, level 2 having twice the cells in r and z and 1.5x the harmonics; with the
     smallest sensor sigma [K] and both levels' facts (including the heat in, "fem_heat_in")."""
+    import scenario_hollow
+
+    if name in scenario_hollow.NAMES:
+        return scenario_hollow.mesh_check(name, scale)
     scn = make(name, scale=scale)
     truth, phys, pos = _PHYSICS[name]
     lvl1 = fem_readings(name, truth, phys, pos, scale, level=1)
