@@ -60,6 +60,7 @@ from .roots import ROOT_CACHE
 TWO_PI_INV = 2.0 / math.pi  # the Wronskian z (J Y' - J' Y)
 
 WALLS = ("bore", "side")
+ROUGH = 1e-7  # relative width of the Pruefer-angle bracket handed to the polish
 
 
 def _wall_pq(cond: EndCondition, biot: float, wall: str):
@@ -144,9 +145,38 @@ class _Walls:
         grid = np.linspace(lo, hi, max(33, 2 * targets.size + 1))
         omega = np.maximum.accumulate(self.omega(grid))
         k = np.clip(np.searchsorted(omega, targets), 1, grid.size - 1)
-        roots = solve_bracketed(lambda lam, idx: self.omega(lam) - targets[idx], grid[k - 1], grid[k])
-        out[start - have:] = roots
+        rough = solve_bracketed(lambda lam, idx: self.omega(lam) - targets[idx], grid[k - 1], grid[k],
+                                xtol=ROUGH)
+        out[start - have:] = self._polish(rough, targets)
         return out
+
+    def _polish(self, rough, targets):
+        """Refine on the cross product (well scaled: Omega is flat near a 'D' side, slope
+        ~ 1/(kappa b)) inside [rough -+ ROUGH], where Omega - target changes sign and the
+        cross product beta_b[u] = -rho |(p_b, q_b)| sin(Omega - omega_b) has that one root."""
+        width = 2.0 * ROUGH * np.maximum(1.0, rough)
+        lo, hi = np.maximum(rough - width, 0.5 * rough), rough + width
+        om_lo, om_hi = self.omega(lo), self.omega(hi)
+        ok = (om_lo < targets) & (om_hi > targets) & (om_lo > targets - math.pi) & (om_hi < targets + math.pi)
+        out = np.array(rough)
+        if ok.any():
+            out[ok] = solve_bracketed(lambda lam, idx: self.cross(lam), lo[ok], hi[ok])
+        if (~ok).any():  # not expected; the Pruefer angle alone then gives the root
+            out[~ok] = solve_bracketed(lambda lam, idx: self.omega(lam) - targets[~ok][idx],
+                                       lo[~ok], hi[~ok])
+        return out
+
+    def cross(self, lam):
+        """beta_b[u] for kappa a = lam, u's bore coefficients and beta_b each divided by the
+        larger of their two entries (so finite and O(1)); zero exactly at the eigenvalues."""
+        m, lam = self.m, np.asarray(lam, float)
+        jx, yx, djx, dyx = _cylinder(m, lam)
+        jy, yy, djy, dyy = _cylinder(m, lam * self.ratio)
+        aj, ay = self.pa * jx + self.qa * djx, self.pa * yx + self.qa * dyx
+        bj, by = self.pb * jy + self.qb * djy, self.pb * yy + self.qb * dyy
+        sign = -1.0 if self.qa == 0.0 else 1.0
+        return sign * (ay * bj - aj * by) / (np.maximum(np.abs(aj), np.abs(ay))
+                                             * np.maximum(np.abs(bj), np.abs(by)))
 
     @property
     def has_zero_mode(self):
