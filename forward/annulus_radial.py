@@ -74,10 +74,26 @@ def _wall_pq(cond: EndCondition, biot: float, wall: str):
     raise ValueError(f"unknown wall kind {cond.kind!r}: expected 'D', 'N' or 'R'")
 
 
+def _orders(m, z):
+    """(J_m, Y_m) at z > 0: one Hankel-function call H1 = J + i Y where z > m (3-5x faster
+    than jv and yv, same accuracy there); jv and yv below, where J_m is far smaller than |H1|."""
+    m, z = np.broadcast_arrays(np.asarray(m), np.asarray(z, dtype=float))
+    far = z > m + 1.0
+    if far.all():
+        h = special.hankel1(m, z)
+        return h.real, h.imag
+    j, y = np.empty(z.shape), np.empty(z.shape)
+    h = special.hankel1(m[far], z[far])
+    j[far], y[far] = h.real, h.imag
+    near = ~far
+    j[near], y[near] = special.jv(m[near], z[near]), special.yv(m[near], z[near])
+    return j, y
+
+
 def _cylinder(m, z):
     """J_m, Y_m, z J_m', z Y_m' at z > 0 (z Z' = m Z - z Z_{m+1})."""
-    j, j1 = special.jv(m, z), special.jv(m + 1, z)
-    y, y1 = special.yv(m, z), special.yv(m + 1, z)
+    j, y = _orders(m, z)
+    j1, y1 = _orders(np.asarray(m) + 1, z)
     return j, y, m * j - z * j1, m * y - z * y1
 
 
@@ -142,23 +158,29 @@ class _Walls:
         hi = max(lo, 2.0 * self.m) + (targets[-1] + 2.0 * math.pi) / (0.8 * span)
         while self.omega(np.array([hi]))[0] <= targets[-1]:
             hi = 2.0 * hi
-        grid = np.linspace(lo, hi, max(33, 2 * targets.size + 1))
+        grid = np.linspace(lo, hi, max(33, 3 * targets.size + 1))
         omega = np.maximum.accumulate(self.omega(grid))
         k = np.clip(np.searchsorted(omega, targets), 1, grid.size - 1)
-        rough = solve_bracketed(lambda lam, idx: self.omega(lam) - targets[idx], grid[k - 1], grid[k],
-                                xtol=ROUGH)
-        out[start - have:] = self._polish(rough, targets)
+        out[start - have:] = self._refine(grid[k - 1], grid[k], omega[k - 1], omega[k], targets)
         return out
 
-    def _polish(self, rough, targets):
-        """Refine on the cross product (well scaled: Omega is flat near a 'D' side, slope
-        ~ 1/(kappa b)) inside [rough -+ ROUGH], where Omega - target changes sign and the
-        cross product beta_b[u] = -rho |(p_b, q_b)| sin(Omega - omega_b) has that one root."""
-        width = 2.0 * ROUGH * np.maximum(1.0, rough)
-        lo, hi = np.maximum(rough - width, 0.5 * rough), rough + width
-        om_lo, om_hi = self.omega(lo), self.omega(hi)
-        ok = (om_lo < targets) & (om_hi > targets) & (om_lo > targets - math.pi) & (om_hi < targets + math.pi)
-        out = np.array(rough)
+    def _refine(self, lo, hi, om_lo, om_hi, targets):
+        """Roots in brackets [lo, hi] of Omega - target.  Where Omega stays within pi of the
+        target over the bracket, the cross product beta_b[u] = -rho |(p_b, q_b)| sin(Omega -
+        omega_b) changes sign there once and is refined directly (well scaled, where Omega is
+        flat near a 'D' side, slope ~ 1/(kappa b)); elsewhere Omega is first narrowed to a
+        relative width ROUGH, which leaves such a bracket."""
+        ok = (om_lo > targets - math.pi) & (om_hi < targets + math.pi)
+        if not ok.all():
+            bad = ~ok
+            rough = solve_bracketed(lambda lam, idx: self.omega(lam) - targets[bad][idx],
+                                    lo[bad], hi[bad], xtol=ROUGH)
+            width = 2.0 * ROUGH * np.maximum(1.0, rough)
+            lo, hi = lo.copy(), hi.copy()
+            lo[bad], hi[bad] = np.maximum(rough - width, lo[bad]), np.minimum(rough + width, hi[bad])
+            om_lo, om_hi = self.omega(lo), self.omega(hi)
+            ok = (om_lo < targets) & (om_hi > targets) & (om_lo > targets - math.pi) & (om_hi < targets + math.pi)
+        out = np.empty(targets.size)
         if ok.any():
             out[ok] = solve_bracketed(lambda lam, idx: self.cross(lam), lo[ok], hi[ok])
         if (~ok).any():  # not expected; the Pruefer angle alone then gives the root
