@@ -25,11 +25,15 @@ u and phi vanish together, so omega(b) = i pi + arccot(g + s_ cot(phi_b - i pi))
 i = ceil(phi_b / pi) - 1.  theta is unwrapped from atan2(Y, J) by the branch nearest Debye's
 phase sqrt(z^2 - m^2) - m arccos(m / z) - pi/4 (-pi/2 for z <= m), which is within 1 rad of
 theta everywhere (tested on a dense grid), well inside the pi needed.  The targets
-omega_b + n pi are explicit, Omega is sampled on a grid from kappa = m / b (every eigenvalue
-exceeds it: Rayleigh quotient >= m^2 / b^2) until it passes the last target, so every target
-lies between two samples; each root is refined in its bracket (`solve_bracketed`) on
-Omega - target itself, so none can be skipped or found twice.  kappa = 0 is the first
-eigenvalue only for m = 0 with both walls 'N' (the constant mode).
+omega_b + n pi are explicit; Omega is sampled on a grid from kappa = m / b (every eigenvalue
+exceeds it: Rayleigh quotient >= m^2 / b^2; for m = 0 from a start lowered until Omega is
+below the first target) to past the last target, so every target lies between two samples.
+Where Omega stays within pi of the target over that bracket, the cross product
+beta_b[u] = -rho |(p_b, q_b)| sin(Omega - omega_b) has exactly this one root there and is
+refined directly (`solve_bracketed`); otherwise Omega - target is first narrowed until it
+does.  So no root can be skipped or found twice.  (The cross product is the better scaled
+function to finish on: near a 'D' side Omega's slope is only ~1/(kappa b) of phi's.)
+kappa = 0 is the first eigenvalue only for m = 0 with both walls 'N' (the constant mode).
 
 Normalization (the rule): unit mean square over the cross-section,
     integral_a^b R^2 r dr = (b^2 - a^2) / 2,
@@ -60,7 +64,7 @@ from .roots import ROOT_CACHE
 TWO_PI_INV = 2.0 / math.pi  # the Wronskian z (J Y' - J' Y)
 
 WALLS = ("bore", "side")
-ROUGH = 1e-7  # relative width of the Pruefer-angle bracket handed to the polish
+ROUGH = 1e-7  # relative width to which Omega narrows a bracket wider than +-pi
 
 
 def _wall_pq(cond: EndCondition, biot: float, wall: str):
@@ -170,7 +174,7 @@ class _Walls:
         omega_b) changes sign there once and is refined directly (well scaled, where Omega is
         flat near a 'D' side, slope ~ 1/(kappa b)); elsewhere Omega is first narrowed to a
         relative width ROUGH, which leaves such a bracket."""
-        ok = (om_lo > targets - math.pi) & (om_hi < targets + math.pi)
+        ok = (om_lo <= targets) & (om_hi >= targets) & (om_lo > targets - math.pi) & (om_hi < targets + math.pi)
         if not ok.all():
             bad = ~ok
             rough = solve_bracketed(lambda lam, idx: self.omega(lam) - targets[bad][idx],
@@ -276,6 +280,9 @@ class AnnulusRadial:
         r_b, br_b = c_j * jy + c_y * yy, c_j * djy + c_y * dyy
         norm = self._norm(r_a, ar_a, r_b, br_b, x, y, kap)
         scale = np.sqrt(norm / (0.5 * (b * b - a * a)))
+        if not np.all(np.isfinite(scale) & (scale > 0)):
+            raise ForwardModelError("annulus radial functions: closed-form norm not positive "
+                                    "(kappa is not an eigenvalue of these walls?)")
         self._c_j = np.where(self.flat, 1.0, c_j / scale)
         self._c_y = np.where(self.flat, 0.0, c_y / scale)
         self._wall = {  # (R, dR/dr) at each wall
