@@ -59,6 +59,7 @@ from scipy import special
 from .bracketing import solve_bracketed
 from .errors import ForwardModelError
 from .faces import EndCondition
+from .modulus_phase import far_values
 from .roots import ROOT_CACHE
 
 TWO_PI_INV = 2.0 / math.pi  # the Wronskian z (J Y' - J' Y)
@@ -99,6 +100,29 @@ def _cylinder(m, z):
     j, y = _orders(m, z)
     j1, y1 = _orders(np.asarray(m) + 1, z)
     return j, y, m * j - z * j1, m * y - z * y1
+
+
+def _cylinder_fast(m, z):
+    """_cylinder for many (order, argument) pairs: tabulated modulus and phase where
+    z > m + 2 (`modulus_phase`, ~1e-13 of the modulus), _cylinder below."""
+    m, z = np.broadcast_arrays(np.asarray(m), np.asarray(z, dtype=float))
+    far = z > m + 2.0
+    out = [np.empty(z.shape) for _ in range(4)]
+    near = ~far
+    if near.any():
+        for o, v in zip(out, _cylinder(m[near], z[near])):
+            o[near] = v
+    if far.any():
+        mf, zf = m[far], z[far]
+        order = np.argsort(mf, kind="stable")
+        bounds = np.flatnonzero(np.diff(mf[order])) + 1
+        vals = [np.empty(zf.size) for _ in range(4)]
+        for grp in np.split(order, bounds):
+            for v, w in zip(vals, far_values(int(mf[grp[0]]), zf[grp])):
+                v[grp] = w
+        for o, v in zip(out, vals):
+            o[far] = v
+    return out
 
 
 def _phase_estimate(m: int, z):
@@ -308,7 +332,7 @@ class AnnulusRadial:
             raise ValueError(f"radii must lie in [{self.a}, {self.b}] m")
         z = np.multiply.outer(r, np.where(self.flat, 0.0, self.kappa))
         zs = np.where(z > 0, z, 1.0)
-        j, yv, dj, dy = _cylinder(self.m, zs)
+        j, yv, dj, dy = _cylinder_fast(self.m, zs)
         val = self._c_j * j + self._c_y * yv
         val = np.where(self.flat, 1.0, val)
         deriv = np.where(self.flat, 0.0, (self._c_j * dj + self._c_y * dy) / r[:, None])
