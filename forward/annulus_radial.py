@@ -45,8 +45,9 @@ ratio beta_a[J] / beta_a[Y], and no product overflows or cancels all digits.
 Closed forms (cylinder functions, Z' = dZ/dz):
     integral R^2 r dr = [r^2 R'^2 + (kappa^2 r^2 - m^2) R^2]_a^b / (2 kappa^2)      [m^2]
     integral R r dr   = (a R'(a) - b R'(b)) / kappa^2          (m = 0)            [m^2]
-Root tables of the dimensionless kappa a are cached per (m, b/a, kinds, Bi's) in
-`roots.ROOT_CACHE`.
+`values` reads J_m, Y_m from `modulus_phase` tables where kappa r > m + 2 (~2e-13 of the
+modulus), from scipy below; the roots use scipy only.  Root tables of the dimensionless
+kappa a are cached per (m, b/a, kinds, Bi's) in `roots.ROOT_CACHE`.
 """
 
 from __future__ import annotations
