@@ -139,7 +139,7 @@ def _run_check(args) -> int:
     from .case import load_case
     from .console import current
     from .limits import check_case
-    from .describe import describe_case, describe_readings, describe_sensors, layout_notes
+    from .describe import describe_case, describe_readings, describe_sensors, layout_notes, sensor_depths
     from .tables import read_layout, read_snapshot, readings_form
 
     case = load_case(args.case)
@@ -153,6 +153,7 @@ def _run_check(args) -> int:
         layout = read_layout(case.sensors.layout, case.cylinder)
         warnings += layout.warnings
         lines += describe_sensors(layout)
+        lines += sensor_depths(case, layout)
     if case.sensors.readings is not None:
         if readings_form(case.sensors.readings) == "snapshot":
             readings = read_snapshot(case.sensors.readings, layout)
