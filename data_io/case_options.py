@@ -204,7 +204,7 @@ def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> t
                 raise ctx.error(f"{where}.theta", "the angle range spans more than 360 deg")
         r = z = None
         if wall and cylinder.long:
-            z = (-math.inf, math.inf)      # nothing varies along z: the zone is a theta window
+            z = (0.0, cylinder.axial_length)   # nothing varies along z: a theta window over the per-metre span
         elif wall:
             z = (0.0, cylinder.height)
             if "z" in zone:
