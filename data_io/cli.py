@@ -203,7 +203,7 @@ def _add_fit(sub, help) -> None:
 
 
 def _add_demo(sub, help) -> None:
-    from .fit_command import add_demo
+    from .demos import add_demo
     add_demo(sub, help)
 
 
@@ -223,7 +223,7 @@ COMMANDS = [
     ("fit", "estimate the unknown face from thermocouple readings", _add_fit),
     ("simulate", "temperature and heat flux of a fully known case at given points", _add_simulate),
     ("check", "validate a case and its tables, and say what was understood", _add_check),
-    ("demo", "run the bundled example end to end", _add_demo),
+    ("demo", "run a bundled example end to end (--list names them)", _add_demo),
     ("trend", "follow the unknown face over a logged record (steady windows or every Nth row)", _add_trend),
     ("plan", "where new thermocouples would most reduce the uncertainty (layout planning)", _add_plan),
 ]

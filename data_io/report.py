@@ -23,12 +23,14 @@ from .csv_out import atomic_write_text
 from .report_format import (_celsius, _celsius_number, _deg, _e, _finite, _Fmt, _mm, _position, _power,
                             half95, sig)
 from .report_text import CAUTIONS, CSS, FIGURE_CAPTIONS, GLOSSARY
+from .display import power_unit
 from .units import from_si, to_display, ureg
 from .verdict import verdict_parts
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 
-FACE_PLACE = {"bottom": "z = 0", "top": "z = height", "side": "r = radius"}
+FACE_PLACE = {"bottom": "z = 0", "top": "z = height", "side": "outer wall, r = radius",
+              "bore": "inner wall, r = inner radius"}
 #: order of the figures on the page (others follow in the order given)
 FIGURE_ORDER = ("face_map", "profiles", "band_width", "sensors", "strength")
 
@@ -63,7 +65,13 @@ def default_case_text(result) -> list:
     """(label, value) rows describing the part and its faces, from the result itself."""
     cyl = result.cylinder
     rows = [("radius", f"{from_si(cyl.radius, 'length', 'mm'):.6g} mm")]
-    if math.isinf(cyl.height):
+    if getattr(cyl, "hollow", False):
+        rows.append(("inner radius (bore)", f"{from_si(cyl.inner_radius, 'length', 'mm'):.6g} mm"))
+        rows.append(("wall thickness", f"{from_si(cyl.thickness, 'length', 'mm'):.6g} mm"))
+    if getattr(cyl, "long", False):
+        rows.append(("height", "long: nothing varies along the axis; areas and powers are per metre "
+                               "of length"))
+    elif math.isinf(cyl.height):
         rows.append(("height", "infinite (semi-infinite part)"))
     else:
         rows.append(("height", f"{from_si(cyl.height, 'length', 'mm'):.6g} mm"))
@@ -105,9 +113,13 @@ def _numbers(result, fmt: _Fmt) -> str:
                     f"{_position(result.face, s.get('max_at'))}"),
         ("spread over the face (maximum − minimum)",
          f"{fmt.diff(s.get('nonuniformity'))} {_pm_sd(fmt, s.get('nonuniformity_sd'))}"),
-        ("heat into the part through this face",
-         _power(s.get("total_power_W"), s.get("total_power_sd_W"))),
+        ("heat into the part through this face" + (" (per metre of length)" if fmt_long(result) else ""),
+         _power(s.get("total_power_W"), s.get("total_power_sd_W"), power_unit(result.cylinder))),
     ]
+    if result.face == "bore" and _finite(s.get("total_power_W")):
+        # on the bore the fluid is what matters: the same figure, said from its side
+        rows.append(("heat into the fluid through the bore",
+                     _power(-s["total_power_W"], s.get("total_power_sd_W"), power_unit(result.cylinder))))
     out = [_kv_table(rows)]
     cal = s.get("calibrated")
     if cal:
@@ -116,8 +128,13 @@ def _numbers(result, fmt: _Fmt) -> str:
     zones = s.get("zones") or []
     if zones:
         out.append("<h3>Zones</h3>")
-        out.append(_zones_table(zones, fmt))
+        out.append(_zones_table(zones, fmt, power_unit(result.cylinder)))
     return "\n".join(out)
+
+
+def fmt_long(result) -> bool:
+    """A long part: areas and powers per metre of length."""
+    return bool(getattr(result.cylinder, "long", False))
 
 
 def _how_fitted(result) -> str:
@@ -182,13 +199,14 @@ def _calibrated_table(cal: dict) -> str:
             + "".join(rows) + "</table>")
 
 
-def _zones_table(zones, fmt: _Fmt) -> str:
+def _zones_table(zones, fmt: _Fmt, unit: str = "W") -> str:
     d = fmt.d
     flux = d.quantity == "heat_flux"
-    head = ["zone", "area [cm²]", f"mean [{d.symbol}]", f"± (95 %) [{d.diff_symbol}]",
+    area_unit = "cm²" if unit == "W" else "cm² per m of length"
+    head = ["zone", f"area [{area_unit}]", f"mean [{d.symbol}]", f"± (95 %) [{d.diff_symbol}]",
             f"95 % interval [{d.symbol}]", f"difference from face mean [{d.diff_symbol}]"]
     if flux:
-        head.append("heat in ± (95 %) [W]")
+        head.append(f"heat in ± (95 %) [{unit}]")
     if any(_finite(z.get("delivered_fraction")) for z in zones):
         head.append("share of nominal power")
     rows = []
@@ -200,7 +218,8 @@ def _zones_table(zones, fmt: _Fmt) -> str:
                  f"{fmt.number(z.get('lower'))} to {fmt.number(z.get('upper'))}",
                  fmt.diff_number(z.get("deviation_from_face_mean"))]
         if flux:
-            cells.append(_power(z.get("power_W"), z.get("power_sd_W")).replace(" W", "").replace(" (95 %)", ""))
+            cells.append(_power(z.get("power_W"), z.get("power_sd_W"), unit).replace(f" {unit}", "")
+                         .replace(" (95 %)", ""))
         if len(head) > len(cells):
             frac, fsd = z.get("delivered_fraction"), z.get("delivered_fraction_sd")
             cells.append(f"{sig(100 * frac, 3)} ± {sig(100 * half95(fsd))} %" if _finite(frac) and _finite(fsd)
