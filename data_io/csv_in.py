@@ -294,7 +294,7 @@ def check_inside(raw: RawTable, cols: dict[str, np.ndarray], cylinder, what: str
     r = cols.get("r")
     z = cols.get("z")
     n = len(raw.cells)
-    r_arr = np.zeros(n) if r is None else r
+    r_arr = np.full(n, cylinder.radius) if r is None else r   # a wall point: on the outer wall
     z_arr = np.zeros(n) if z is None else z
     inside = cylinder.contains(r_arr, z_arr)
     if r is not None:

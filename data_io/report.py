@@ -116,8 +116,8 @@ def _numbers(result, fmt: _Fmt) -> str:
         ("heat into the part through this face" + (" (per metre of length)" if fmt_long(result) else ""),
          _power(s.get("total_power_W"), s.get("total_power_sd_W"), power_unit(result.cylinder))),
     ]
-    if result.face == "bore" and _finite(s.get("total_power_W")):
-        # on the bore the fluid is what matters: the same figure, said from its side
+    if result.face == "bore" and _finite(s.get("total_power_W")) and s["total_power_W"] < 0:
+        # the wall heats the fluid: the same figure, said from the fluid's side
         rows.append(("heat into the fluid through the bore",
                      _power(-s["total_power_W"], s.get("total_power_sd_W"), power_unit(result.cylinder))))
     out = [_kv_table(rows)]
