@@ -129,6 +129,8 @@ def describe_case(case: Case) -> list[str]:
         th = f"theta {math.degrees(z.theta[0]):.4g} to {math.degrees(z.theta[1]):.4g} deg"
         if z.r is not None:
             where = f"r {format_quantity(z.r[0], 'length')} to {format_quantity(z.r[1], 'length')}, {th}"
+        elif cyl.long:
+            where = f"{th}, the whole length (nothing varies along z)"
         else:
             where = f"{th}, z {format_quantity(z.z[0], 'length')} to {format_quantity(z.z[1], 'length')}"
         lines.append(f"zone {z.name}: {z.face or 'the unknown'} face, {where}")

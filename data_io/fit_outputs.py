@@ -82,7 +82,7 @@ def summary_dict(result, *, case_path=None, readings_path=None) -> dict:
     zones = []
     for z in s["zones"]:
         entry = {"name": z["name"], "mean": val(z["mean"]), "sd": z["sd"], "lower": val(z["lower"]),
-                 "upper": val(z["upper"]), "area_m2": z["area_m2"],
+                 "upper": val(z["upper"]), ("area_m2" if pk == "W" else "area_m2_per_m"): z["area_m2"],
                  "deviation_from_face_mean": z["deviation_from_face_mean"]}
         if "power_W" in z:
             entry.update({f"power_{pk}": z["power_W"], f"power_sd_{pk}": z["power_sd_W"]})
