@@ -22,7 +22,7 @@ from . import plots
 from .csv_out import atomic_write_text
 from .report_format import (_celsius, _celsius_number, _deg, _e, _finite, _Fmt, _mm, _position, _power,
                             half95, sig)
-from .report_text import CAUTIONS, CSS, FIGURE_CAPTIONS, GLOSSARY
+from .report_text import CAUTIONS, CSS, FIGURE_CAPTIONS, GLOSSARY, HOLLOW_CAUTION, LONG_CAPTIONS
 from .display import power_unit
 from .units import from_si, to_display, ureg
 from .verdict import verdict_parts
@@ -130,6 +130,11 @@ def _numbers(result, fmt: _Fmt) -> str:
         out.append("<h3>Zones</h3>")
         out.append(_zones_table(zones, fmt, power_unit(result.cylinder)))
     return "\n".join(out)
+
+
+def cautions_of(cylinder) -> tuple:
+    """The report's cautions; a hollow part's adds the one on pressure and drilled walls."""
+    return CAUTIONS + ((HOLLOW_CAUTION,) if getattr(cylinder, "hollow", False) else ())
 
 
 def fmt_long(result) -> bool:
@@ -291,12 +296,13 @@ def _png_bytes(obj) -> bytes:
     return data
 
 
-def _figures_html(figures: dict) -> str:
+def _figures_html(figures: dict, long: bool = False) -> str:
+    captions = {**FIGURE_CAPTIONS, **LONG_CAPTIONS} if long else FIGURE_CAPTIONS
     order = [n for n in FIGURE_ORDER if n in figures] + [n for n in figures if n not in FIGURE_ORDER]
     parts = []
     for name in order:
         data = base64.b64encode(_png_bytes(figures[name])).decode("ascii")
-        caption = FIGURE_CAPTIONS.get(name, str(name))
+        caption = captions.get(name, str(name))
         parts.append(f'<figure id="figure-{_e(name)}"><img alt="{_e(caption)}" '
                      f'src="data:image/png;base64,{data}"><figcaption>{_e(caption)}</figcaption></figure>')
     return "\n".join(parts)
@@ -343,7 +349,7 @@ def render_report(result, *, case_text=None, title=None, figures=None, extra_sec
 
     sections = []
     if figures:
-        sections.append(("figures", "Figures", _figures_html(figures)))
+        sections.append(("figures", "Figures", _figures_html(figures, fmt_long(result))))
     sections += [("numbers", "The numbers", _numbers(result, fmt)),
                  ("sensors", "The sensors", _sensor_table(result))]
     if warnings:
@@ -362,7 +368,7 @@ def render_report(result, *, case_text=None, title=None, figures=None, extra_sec
     body = "\n".join(f'<section id="{sid}"><h2>{_e(h)}</h2>\n{content}\n</section>'
                      for sid, h, content in sections)
     cautions = ('<section class="cautions" id="cautions"><h2>Cautions</h2>'
-                + "".join(f"<p>{_e(c)}</p>" for c in CAUTIONS) + "</section>")
+                + "".join(f"<p>{_e(c)}</p>" for c in cautions_of(result.cylinder)) + "</section>")
     version = _version()
     footer = (f"<footer>Written by heatsight{' ' + _e(version) if version else ''}. "
               "Estimates from a steady-conduction model fitted to thermocouple readings; "
