@@ -189,11 +189,12 @@ def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> t
             # the kind of face from its keys, only to check the ranges
             face = None
         wall = is_wall(face) if face is not None else ("z" in zone or cylinder.long)
-        kind = face or ("wall" if wall else "end")
+        on = f"the {face} face" if face else ("a wall" if wall else "an end face")
         if wall and "r" in zone:
-            raise ctx.error(f"{where}.r", f"a zone on the {kind} face (a wall) takes theta and z, not r")
+            takes = "theta only" if cylinder.long else "theta and z"
+            raise ctx.error(f"{where}.r", f"a zone on {on}{' (a wall)' if face else ''} takes {takes}, not r")
         if not wall and "z" in zone:
-            raise ctx.error(f"{where}.z", f"a zone on the {kind} face takes r and theta, not z")
+            raise ctx.error(f"{where}.z", f"a zone on {on} takes r and theta, not z")
         if wall and cylinder.long and "z" in zone:
             raise ctx.error(f"{where}.z", "a long part (height = \"long\") does not vary along z; "
                                           "a zone on its wall takes theta only")
