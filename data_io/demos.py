@@ -77,6 +77,7 @@ def listing(folder: Path | None = None) -> list[str]:
 def _truth_lines(case: Path, summary: dict, power_unit: str) -> list[str]:
     """What the scenario's truth.json says next to what the fit found (nothing without it)."""
     from .report_format import power_pm
+    from .units import from_si
 
     truth_file = case.parent / "truth.json"
     if not truth_file.is_file():
@@ -89,11 +90,23 @@ def _truth_lines(case: Path, summary: dict, power_unit: str) -> list[str]:
         weakest = min(zones, key=lambda z: z["mean"])
         found.append(f"weakest zone {weakest['name']} ({weakest['deviation_from_face_mean']:+.0f} W/m^2 "
                      f"from the face mean)")
-    if "total_power_W" in truth:
-        found.append(f"total power {power_pm(summary['total_power_W'], summary['total_power_sd_W'], power_unit)} "
-                     f"(truth {truth['total_power_W']:.0f} {power_unit})")
+    elif zones:
+        warmest = max(zones, key=lambda z: z["mean"])
+        true_c = (truth.get("zone_mean_degC") or {}).get(warmest["name"])
+        found.append(f"warmest zone {warmest['name']} ({warmest['deviation_from_face_mean']:+.1f} K from the "
+                     f"face mean" + (f"; truth {true_c:.1f} degC, fit {from_si(warmest['mean'], 'temperature', 'degC'):.1f} degC)"
+                                     if true_c is not None else ")"))
+    power, sd = summary.get("total_power_W"), summary.get("total_power_sd_W")
+    if "total_power_W" in truth and power is not None:
+        if summary.get("face") == "bore" and power < 0:     # said from the fluid's side
+            found.append(f"heat into the fluid {power_pm(-power, sd, power_unit)} "
+                         f"(truth {-truth['total_power_W']:.0f} {power_unit})")
+        else:
+            found.append(f"total power {power_pm(power, sd, power_unit)} "
+                         f"(truth {truth['total_power_W']:.0f} {power_unit})")
     if found:
-        found.append(f"set aside: {', '.join(summary.get('set_aside') or []) or 'none'}")
+        bad = f" (the scenario's faulty sensor: {truth['bad_sensor']})" if "bad_sensor" in truth else ""
+        found.append(f"set aside: {', '.join(summary.get('set_aside') or []) or 'none'}{bad}")
         lines.append("fit found: " + "; ".join(found))
     return lines
 

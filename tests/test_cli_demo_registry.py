@@ -3,6 +3,7 @@
 The tube scenario's data are written by another change; here the registry is tested on the
 platen and on a temporary copy of it standing in as 'tube' (in tmp_path only)."""
 
+import fnmatch
 import shutil
 import tomllib
 from pathlib import Path
@@ -68,11 +69,16 @@ def test_named_demo_runs_from_its_own_folder(installed, tmp_path, capsys):
     assert (out / "report.html").is_file() and (out / "summary.json").is_file()
 
 
-def test_wheel_ships_the_tube_demo_folder():
-    """pyproject package data name demo_data/tube/* (the wheel itself: tests/test_install.py)."""
+def test_package_data_names_every_demo_file():
+    """Every file of a registered demo's folder (case, tables, truth) matches a package-data
+    glob, so the wheel carries it (the wheel itself: tests/test_install.py)."""
     data = tomllib.loads((ROOT / "pyproject.toml").read_text())
     globs = data["tool"]["setuptools"]["package-data"]["heatsight.demo_data"]
-    assert "tube/*" in globs
     for d in demos.DEMOS:
-        folder = str(Path(d.case).parent)
-        assert folder == "." or f"{folder}/*" in globs, d
+        folder = (PLATEN / d.case).parent
+        if not folder.is_dir():
+            continue
+        for path in folder.iterdir():
+            if path.is_file() and path.suffix in (".toml", ".csv", ".json"):
+                rel = path.relative_to(PLATEN).as_posix()
+                assert any(fnmatch.fnmatch(rel, g) and rel.count("/") == g.count("/") for g in globs), rel
