@@ -20,7 +20,7 @@ import numpy as np
 import pandas as pd
 
 
-from .display import deg, display_for, file_display, mm
+from .display import deg, display_for, file_display, mm, power_unit
 from .errors import InputError
 from .report_format import eng, pm95, power_pm
 from .units import convert, split_header, ureg
@@ -79,7 +79,7 @@ class Fit:
         mean, sd = s["mean"], s["mean_sd"]
         rows = [("face", f"{self.face} ({self.quantity.replace('_', ' ')})"),
                 ("mean", pm95(eng(d.value(mean)), d.diff(sd), d.symbol)),
-                ("power in", power_pm(s["total_power_W"], s["total_power_sd_W"]))]
+                ("power in", power_pm(s["total_power_W"], s["total_power_sd_W"], power_unit(self.raw.cylinder)))]
         rows.append(("set aside", ", ".join(s["set_aside"]) or "none"))
         return rows
 
@@ -133,11 +133,16 @@ class Fit:
                    f"lower {u}": d.value(z["lower"]), f"upper {u}": d.value(z["upper"]),
                    f"deviation from face mean {du}": d.diff(z["deviation_from_face_mean"]),
                    "area [mm^2]": float(from_m2(z["area_m2"]))}
+            pu = power_unit(self.raw.cylinder)
+            area = "area [mm^2]" if pu == "W" else "area [mm^2/m]"    # per metre on a long part
+            row[area] = row.pop("area [mm^2]")
             if "power_W" in z:
-                row.update({"power [W]": z["power_W"], "power sd [W]": z["power_sd_W"]})
+                row.update({f"power [{pu}]": z["power_W"], f"power sd [{pu}]": z["power_sd_W"]})
             rows.append(row)
+        pu = power_unit(self.raw.cylinder)
         columns = ["zone", f"mean {u}", f"sd {du}", f"lower {u}", f"upper {u}", f"deviation from face mean {du}",
-                   "area [mm^2]"] + (["power [W]", "power sd [W]"] if self.quantity == "heat_flux" else [])
+                   "area [mm^2]" if pu == "W" else "area [mm^2/m]"] + (
+            [f"power [{pu}]", f"power sd [{pu}]"] if self.quantity == "heat_flux" else [])
         return pd.DataFrame(rows, columns=columns)
 
     def _sensors_frame(self) -> pd.DataFrame:

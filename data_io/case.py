@@ -2,12 +2,15 @@
 
 Schema (design §3; every dimensional value is a string with its unit)::
 
-    [part]
+    [part]                         # data_io.case_part
     radius = "150 mm"              # required, > 0
-    height = "40 mm"               # required, > 0, or "infinite" (semi-infinite part)
+    inner_radius = "50 mm"         # optional: a hollow part (0 or absent = solid)
+    height = "40 mm"               # required, > 0, or "infinite" (semi-infinite solid part)
+                                   # or "long" (hollow only: nothing varies along z)
     conductivity = "16 W/(m*K)"    # required when a flux, convection or unknown-flux face exists
 
-    [faces.bottom]                 # z = 0      (also [faces.top], z = height; [faces.side], r = radius)
+    [faces.bottom]                 # z = 0      (also [faces.top], z = height; [faces.side], r = radius;
+                                   # hollow parts [faces.bore], r = inner_radius)
     condition = "..."              # temperature | flux | insulated | convection
                                    # | unknown-temperature | unknown-flux
     value = "25 degC"              # temperature: absolute temperature; flux: heat flux INTO the part
@@ -32,14 +35,15 @@ Schema (design §3; every dimensional value is a string with its unit)::
     [[zones]]                      # optional, any number; regions of the unknown face
     name = "inner"                 # required, unique
     face = "bottom"                # optional, default: the unknown face
-    r = ["0 mm", "50 mm"]          # end faces only; default the whole radius
+    r = ["0 mm", "50 mm"]          # end faces only; default the whole radius (hollow: inner_radius..radius)
     theta = ["0 deg", "120 deg"]   # optional, default the full turn; start < end, span <= 360 deg
-    z = ["0 mm", "20 mm"]          # side only; default the whole height
+    z = ["0 mm", "20 mm"]          # walls (side, bore) only; default the whole height (none on a long part)
     nominal = "400 W"              # optional: the zone's nominal power (delivered fraction reported)
     edge = "5 mm"                  # optional: edge width in the zone model; default sharp
 
-Every face of the part must be given: bottom, side and (finite parts) top.  A
-semi-infinite part (height = "infinite") has no top face.  Unknown keys are refused with
+Every face of the part must be given: bottom, side and (finite parts) top, and the bore
+of a hollow part.  A semi-infinite part (height = "infinite") has no top face; a long part
+(height = "long") only the side and the bore.  Unknown keys are refused with
 the nearest valid key suggested.
 """
 
@@ -53,10 +57,11 @@ from pathlib import Path
 from ..forward.errors import ForwardModelError
 from ..forward.faces import (Convection, FaceCondition, Flux, Insulated, Temperature,
                            UnknownFlux, UnknownTemperature)
-from ..forward.geometry import Cylinder
+from ..forward.geometry import FACE_NAMES as ALL_FACES, Cylinder
 from ..inverse.problem import FACE_NAMES, FitOptions, Zone  # noqa: F401  (re-exported)
 
 from .case_context import _Ctx
+from .case_part import PART_KEYS, absent_face, parse_part
 from .case_options import FIT_SCHEMA, ZONE_KEYS, PlanOptions, _parse_fit, _parse_plan, _parse_zones  # noqa: F401
 from .errors import InputError
 from .textfile import read_text
@@ -76,7 +81,6 @@ _KEYS_OF_CONDITION = {
 }
 _NEEDS_CONDUCTIVITY = ("flux", "convection", "unknown-flux")
 TOP_KEYS = ("part", "faces", "sensors", "fit", "zones", "plan")
-PART_KEYS = ("radius", "height", "conductivity")
 SENSOR_KEYS = ("layout", "readings")
 
 
@@ -242,33 +246,15 @@ def load_case(path, purpose: str | None = None) -> Case:
 
     # [part]
     part = ctx.table(doc, "part", "part", required=True)
-    ctx.check_keys(part, PART_KEYS, "part")
-    for key in ("radius", "height"):
-        if key not in part:
-            raise ctx.error(f"part.{key}", f"missing key '{key}', e.g. {key} = \"150 mm\""
-                            + (" (or \"infinite\")" if key == "height" else ""))
-    radius = parse_quantity(part["radius"], "length", "part.radius", file=path)
-    height = parse_quantity(part["height"], "length", "part.height", allow_infinite=True, file=path)
-    for key, value in (("radius", radius), ("height", height)):
-        if not value > 0:
-            raise ctx.error(f"part.{key}", f"the {key} must be positive, got {part[key]!r}")
-    conductivity = None
-    if "conductivity" in part:
-        conductivity = parse_quantity(part["conductivity"], "conductivity", "part.conductivity", file=path)
-        if not conductivity > 0:
-            raise ctx.error("part.conductivity", f"the conductivity must be positive, got {part['conductivity']!r}")
-    try:
-        cylinder = Cylinder(radius=radius, height=height, conductivity=conductivity)
-    except ForwardModelError as exc:
-        raise ctx.error("part", str(exc)) from None
-    part_text = {k: part[k] for k in PART_KEYS if k in part}
+    cylinder, part_text = parse_part(ctx, part)
+    conductivity = cylinder.conductivity
 
     # [faces]
     faces_t = ctx.table(doc, "faces", "faces", required=True)
-    ctx.check_keys(faces_t, FACE_NAMES, "faces")
-    if cylinder.semi_infinite and "top" in faces_t:
-        raise ctx.error("faces.top", "the part is semi-infinite (height = \"infinite\"), so it has no "
-                                     "top face; remove [faces.top] or give a finite height")
+    ctx.check_keys(faces_t, ALL_FACES, "faces")
+    for name in faces_t:
+        if name not in cylinder.faces:
+            raise ctx.error(f"faces.{name}", absent_face(cylinder, name))
     faces: dict[str, FaceCondition] = {}
     face_text: dict[str, dict[str, str]] = {}
     profiles: dict[str, TableProfile] = {}

@@ -8,7 +8,7 @@ import math
 from dataclasses import dataclass
 from typing import Any, Callable
 
-from ..forward.geometry import Cylinder
+from ..forward.geometry import FACE_NAMES as ALL_FACES, Cylinder, is_wall
 from ..inverse.errors import InverseError
 from ..inverse.plan_rules import COVARIANCES, DRILL_FACES, PlanRules
 from ..inverse.problem import (CALIBRATABLE, FACE_NAMES, LOSSES, MODELS, PRIORS, SMOOTHING_ORDER,
@@ -96,8 +96,8 @@ def _fit_calibrate(ctx: _Ctx, value, where: str) -> dict:
     out = []
     for item in value:
         face, _, param = item.strip().partition(".")
-        if face not in FACE_NAMES or param not in CALIBRATABLE:
-            raise ctx.error(where, f"'{item}': expected <face>.<parameter> with face bottom, top or side "
+        if face not in ALL_FACES or param not in CALIBRATABLE:
+            raise ctx.error(where, f"'{item}': expected <face>.<parameter> with face {', '.join(ALL_FACES)} "
                                    f"and parameter {' or '.join(CALIBRATABLE)} of a convection face")
         out.append((face, param))
     if len(set(out)) != len(out):
@@ -182,24 +182,31 @@ def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> t
         elif unknown is not None:
             face = unknown
         elif "r" in zone and "z" in zone:
-            raise ctx.error(f"{where}.z", "a zone takes r and theta (end faces) or theta and z (side), "
-                                          "not both r and z")
+            raise ctx.error(f"{where}.z", "a zone takes r and theta (end faces) or theta and z (walls: "
+                                          "side, bore), not both r and z")
         else:
             # fully known case (simulate): the zone is on the face that will be unknown; infer
             # the kind of face from its keys, only to check the ranges
             face = None
-        kind = face or ("side" if "z" in zone else "bottom")
-        if kind == "side" and "r" in zone:
-            raise ctx.error(f"{where}.r", "a zone on the side face takes theta and z, not r")
-        if kind != "side" and "z" in zone:
-            raise ctx.error(f"{where}.z", f"a zone on the {kind} face takes r and theta, not z")
+        wall = is_wall(face) if face is not None else ("z" in zone or cylinder.long)
+        on = f"the {face} face" if face else ("a wall" if wall else "an end face")
+        if wall and "r" in zone:
+            takes = "theta only" if cylinder.long else "theta and z"
+            raise ctx.error(f"{where}.r", f"a zone on {on}{' (a wall)' if face else ''} takes {takes}, not r")
+        if not wall and "z" in zone:
+            raise ctx.error(f"{where}.z", f"a zone on {on} takes r and theta, not z")
+        if wall and cylinder.long and "z" in zone:
+            raise ctx.error(f"{where}.z", "a long part (height = \"long\") does not vary along z; "
+                                          "a zone on its wall takes theta only")
         theta = (0.0, 2 * math.pi)
         if "theta" in zone:
             theta = _range(ctx, zone, "theta", f"{where}.theta", "angle")
             if theta[1] - theta[0] > 2 * math.pi * (1 + 1e-12):
                 raise ctx.error(f"{where}.theta", "the angle range spans more than 360 deg")
         r = z = None
-        if kind == "side":
+        if wall and cylinder.long:
+            z = (0.0, cylinder.axial_length)   # nothing varies along z: a theta window over the per-metre span
+        elif wall:
             z = (0.0, cylinder.height)
             if "z" in zone:
                 z = _range(ctx, zone, "z", f"{where}.z", "length")
@@ -209,12 +216,17 @@ def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> t
             elif cylinder.semi_infinite:
                 raise ctx.error(f"{where}.z", "a side zone of a semi-infinite part needs a z range")
         else:
-            r = (0.0, cylinder.radius)
+            a, b = cylinder.inner_radius, cylinder.radius
+            r = (a, b)
             if "r" in zone:
                 r = _range(ctx, zone, "r", f"{where}.r", "length")
-                if r[0] < 0 or r[1] > cylinder.radius * (1 + 1e-9):
+                if cylinder.hollow and r[0] < a * (1 - 1e-9):
+                    raise ctx.error(f"{where}.r", f"the range reaches into the bore: it must lie within the "
+                                                  f"inner radius ({format_quantity(a, 'length')}) and the "
+                                                  f"radius ({format_quantity(b, 'length')})")
+                if r[0] < 0 or r[1] > b * (1 + 1e-9):
                     raise ctx.error(f"{where}.r", f"the range must lie within 0 and the radius "
-                                                  f"({format_quantity(cylinder.radius, 'length')})")
+                                                  f"({format_quantity(b, 'length')})")
         nominal = edge = None
         if "nominal" in zone:
             nominal = parse_quantity(ctx.text(zone, "nominal", f"{where}.nominal"), "power",

@@ -139,7 +139,7 @@ def _run_check(args) -> int:
     from .case import load_case
     from .console import current
     from .limits import check_case
-    from .describe import describe_case, describe_readings, describe_sensors, layout_notes
+    from .describe import describe_case, describe_readings, describe_sensors, layout_notes, sensor_depths
     from .tables import read_layout, read_snapshot, readings_form
 
     case = load_case(args.case)
@@ -153,6 +153,7 @@ def _run_check(args) -> int:
         layout = read_layout(case.sensors.layout, case.cylinder)
         warnings += layout.warnings
         lines += describe_sensors(layout)
+        lines += sensor_depths(case, layout)
     if case.sensors.readings is not None:
         if readings_form(case.sensors.readings) == "snapshot":
             readings = read_snapshot(case.sensors.readings, layout)
@@ -202,7 +203,7 @@ def _add_fit(sub, help) -> None:
 
 
 def _add_demo(sub, help) -> None:
-    from .fit_command import add_demo
+    from .demos import add_demo
     add_demo(sub, help)
 
 
@@ -222,7 +223,7 @@ COMMANDS = [
     ("fit", "estimate the unknown face from thermocouple readings", _add_fit),
     ("simulate", "temperature and heat flux of a fully known case at given points", _add_simulate),
     ("check", "validate a case and its tables, and say what was understood", _add_check),
-    ("demo", "run the bundled example end to end", _add_demo),
+    ("demo", "run a bundled example end to end (--list names them)", _add_demo),
     ("trend", "follow the unknown face over a logged record (steady windows or every Nth row)", _add_trend),
     ("plan", "where new thermocouples would most reduce the uncertainty (layout planning)", _add_plan),
 ]

@@ -294,7 +294,7 @@ def check_inside(raw: RawTable, cols: dict[str, np.ndarray], cylinder, what: str
     r = cols.get("r")
     z = cols.get("z")
     n = len(raw.cells)
-    r_arr = np.zeros(n) if r is None else r
+    r_arr = np.full(n, cylinder.radius) if r is None else r   # a wall point: on the outer wall
     z_arr = np.zeros(n) if z is None else z
     inside = cylinder.contains(r_arr, z_arr)
     if r is not None:
@@ -303,6 +303,12 @@ def check_inside(raw: RawTable, cols: dict[str, np.ndarray], cylinder, what: str
         return
     i = int(np.flatnonzero(~inside)[0])
     height = format_quantity(cylinder.height, "length")
+    a = cylinder.inner_radius
+    if r is not None and a > 0 and r_arr[i] < a * (1 - 1e-9) and r_arr[i] >= -1e-9 * cylinder.radius:
+        col = raw.column("r")
+        raise InputError(f"{what} at r = {raw.cells[i][col]} ({raw.units[col] or 'm'}) lies inside the bore "
+                         f"(the material spans inner radius {format_quantity(a, 'length')} <= r <= radius "
+                         f"{format_quantity(cylinder.radius, 'length')})", file=raw.path, where=raw.where(i, col))
     if r is not None and not (-1e-9 * cylinder.radius <= r_arr[i] <= cylinder.radius * (1 + 1e-9)):
         name = "r"
         limit = f"0 <= r <= radius {format_quantity(cylinder.radius, 'length')}"

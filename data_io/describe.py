@@ -9,13 +9,14 @@ from collections import Counter
 import numpy as np
 import pandas as pd
 
+from ..forward.geometry import is_wall
 from ..inverse.layout import FAR_FRACTION, angular_note
 from . import thermocouples as tc
 from .case import Case
 from .units import format_quantity, from_si
 
-FACE_PLACE = {"bottom": "z = 0", "top": "z = height", "side": "r = radius"}
-
+FACE_PLACE = {"bottom": "z = 0", "top": "z = height", "side": "outer wall, r = radius",
+              "bore": "inner wall, r = inner_radius"}
 
 
 def _both(written: str, si: str) -> str:
@@ -66,11 +67,11 @@ def layout_notes(case: Case, layout: pd.DataFrame) -> list[str]:
     angular = angular_note(face, a, r, th)
     if angular:
         notes.append(angular)
-    if face == "side":
-        dist = a - r
-        if n >= 2 and np.ptp(z) < 1e-6 * max(a, 1e-300) and not cyl.semi_infinite:
+    if is_wall(face):
+        dist = cyl.depth(face, r, z)
+        if n >= 2 and np.ptp(z) < 1e-6 * max(a, 1e-300) and not math.isinf(cyl.height):
             notes.append(f"all sensors at one height (z = {format_quantity(z[0], 'length')}): the axial "
-                         f"shape of the side face is poorly resolved")
+                         f"shape of the {face} face is poorly resolved")
     else:
         dist = z if face == "bottom" else cyl.height - z
         if n >= 2 and np.ptp(r) < 1e-6 * a:
@@ -78,11 +79,13 @@ def layout_notes(case: Case, layout: pd.DataFrame) -> list[str]:
                          f"shape of the {face} face is poorly resolved")
     dmin = float(dist.min())
     i = int(np.argmin(dist))
+    # on a hollow part distances are measured against the wall thickness (the radius when solid)
+    span, span_words = (cyl.thickness, "the wall thickness") if cyl.hollow else (a, "the radius")
     notes.append(f"nearest sensor to the {face} face: {layout.index[i]} at "
-                 f"{format_quantity(dmin, 'length')} ({100 * dmin / a:.0f} % of the radius); "
+                 f"{format_quantity(dmin, 'length')} ({100 * dmin / span:.0f} % of {span_words}); "
                  f"features of the face much smaller than a few times this distance are smoothed out")
-    if dmin > FAR_FRACTION * a:
-        notes.append(f"every sensor is farther than {100 * FAR_FRACTION:.0f} % of the radius from the "
+    if dmin > FAR_FRACTION * span:
+        notes.append(f"every sensor is farther than {100 * FAR_FRACTION:.0f} % of {span_words} from the "
                      f"{face} face: only its broad shape can be estimated")
     pts = np.round(np.column_stack([r * np.cos(th), r * np.sin(th), z]) / (1e-6 * a))
     dup = Counter(map(tuple, pts))
@@ -99,10 +102,20 @@ def describe_case(case: Case) -> list[str]:
     lines = [f"case: {case.path}"]
     k = "not given" if cyl.conductivity is None else _both(case.part_text['conductivity'],
                                                            format_quantity(cyl.conductivity, 'conductivity'))
-    height = "infinite (semi-infinite part)" if cyl.semi_infinite else \
-        f"{case.part_text['height']} ({format_quantity(cyl.height, 'length', 'm')})"
-    lines.append(f"part: radius {case.part_text['radius']} ({format_quantity(cyl.radius, 'length', 'm')}), "
-                 f"height {height}, conductivity {k}")
+    if cyl.long:
+        height = "long (nothing varies along z; powers per metre of length, W/m)"
+    elif cyl.semi_infinite:
+        height = "infinite (semi-infinite part)"
+    else:
+        height = f"{case.part_text['height']} ({format_quantity(cyl.height, 'length', 'm')})"
+    bore = ""
+    if cyl.hollow:
+        bore = (f", inner radius {case.part_text['inner_radius']} "
+                f"({format_quantity(cyl.inner_radius, 'length', 'm')})")
+    lines.append(f"part: radius {case.part_text['radius']} ({format_quantity(cyl.radius, 'length', 'm')})"
+                 f"{bore}, height {height}, conductivity {k}")
+    if cyl.hollow:
+        lines += wall_lines(case)
     lines.append("faces:")
     for name in cyl.faces:
         lines.append(_face_line(case, name))
@@ -116,9 +129,44 @@ def describe_case(case: Case) -> list[str]:
         th = f"theta {math.degrees(z.theta[0]):.4g} to {math.degrees(z.theta[1]):.4g} deg"
         if z.r is not None:
             where = f"r {format_quantity(z.r[0], 'length')} to {format_quantity(z.r[1], 'length')}, {th}"
+        elif cyl.long:
+            where = f"{th}, the whole length (nothing varies along z)"
         else:
             where = f"{th}, z {format_quantity(z.z[0], 'length')} to {format_quantity(z.z[1], 'length')}"
         lines.append(f"zone {z.name}: {z.face or 'the unknown'} face, {where}")
+    return lines
+
+
+def wall_lines(case: Case) -> list[str]:
+    """A hollow part's wall: thickness, which face is unknown, and (for a long part) that z
+    plays no part."""
+    cyl = case.cylinder
+    lines = [f"wall: {format_quantity(cyl.thickness, 'length')} thick, from the bore (r = "
+             f"{format_quantity(cyl.inner_radius, 'length')}) to the outside (r = "
+             f"{format_quantity(cyl.radius, 'length')})"]
+    face = case.unknown_face
+    if face is not None:
+        where = {"bore": "the inner wall (bore)", "side": "the outer wall"}.get(face, f"the {face} end face")
+        lines.append(f"  unknown face: {where}")
+    if cyl.long:
+        lines.append("  long part: nothing varies along z, so the sensors' and points' z is ignored")
+    return lines
+
+
+def sensor_depths(case: Case, layout) -> list[str]:
+    """Each sensor's depth in a hollow part's wall as a fraction of the thickness, measured
+    from the unknown wall (from the bore when no wall is unknown)."""
+    cyl = case.cylinder
+    if not cyl.hollow:
+        return []
+    face = case.unknown_face if case.unknown_face in ("side", "bore") else "bore"
+    origin = "the bore (inner wall)" if face == "bore" else "the outside (outer wall)"
+    fr = layout.frame
+    depth = cyl.depth(face, fr["r"].to_numpy(float), fr["z"].to_numpy(float))
+    lines = [f"sensor depth in the wall, from {origin}, as a fraction of the "
+             f"{format_quantity(cyl.thickness, 'length')} thickness:"]
+    for name, d in zip(fr.index, depth):
+        lines.append(f"  {name}: {format_quantity(float(d), 'length')} = {d / cyl.thickness:.2f}")
     return lines
 
 

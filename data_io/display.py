@@ -22,10 +22,23 @@ KILO_FLUX = 1.0e4
 #: unit of values and of differences in output files, per quantity
 FILE_UNITS = {"temperature": ("degC", "K"), "heat_flux": ("W/m^2", "W/m^2")}
 UNIT_SYMBOLS = {"degC": "°C", "K": "K", "W/m^2": "W/m²", "kW/m^2": "kW/m²", "mm": "mm", "deg": "°",
-                "W": "W", "W/(m*K)": "W/(m·K)", "W/(m^2*K)": "W/(m²·K)"}
+                "W": "W", "W/m": "W/m", "W/(m*K)": "W/(m·K)", "W/(m^2*K)": "W/(m²·K)"}
 FACE_WORDS = {"bottom": "bottom end face (z = 0)", "top": "top end face (z = height)",
-              "side": "side wall (r = radius)"}
+              "side": "side wall (r = radius)", "bore": "bore (inner wall, r = inner radius)"}
 QUANTITY_WORDS = {"temperature": "temperature", "heat_flux": "heat flux into the part"}
+
+
+def power_unit(cylinder) -> str:
+    """Unit of every power: W, or W/m on a long part (its powers are per metre of length)."""
+    return "W/m" if getattr(cylinder, "long", False) else "W"
+
+
+def power_words(face: str, power: float) -> str:
+    """The total power in words: heat into the part through a face, and on the bore, where
+    the fluid is, the heat into the fluid when the wall heats it (power < 0)."""
+    if face == "bore" and power < 0:
+        return "heat into the fluid through the bore"
+    return f"heat into the part through the {FACE_WORDS.get(face, face)}"
 
 
 def symbol(unit: str) -> str:

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import argparse
-import os
 from pathlib import Path
 
 from .arguments import count
@@ -79,52 +78,3 @@ def add_fit(sub, help) -> None:
                    help="N seeded draws that also move the sensors within their position_tolerance")
     p.add_argument("--seed", type=count, default=0, help="seed of the Monte Carlo draws (default 0)")
     p.set_defaults(run=_run_fit)
-
-
-def _demo_folder() -> Path:
-    """The demo data shipped inside the installed package (heatsight.demo_data)."""
-    from importlib.resources import files
-    return Path(str(files("heatsight.demo_data")))
-
-
-def _run_demo(args) -> int:
-    import json
-
-    from .console import current
-    from .report_format import power_pm
-
-    demo_folder = _demo_folder()
-    case = demo_folder / "platen.toml"
-    if not case.is_file():
-        raise InputError("the bundled demo is missing from this installation; reinstall heatsight",
-                         file=case)
-    out = Path(args.out) if args.out else Path("heatsight-demo")
-    lines: list[str] = []
-    # overwrite=True: a rerun replaces the demo's own earlier outputs, never other files
-    result, folder = run_fit(case, out=out, overwrite=True, echo=lines.append)
-    truth_file = demo_folder / "truth.json"
-    if truth_file.is_file():
-        truth = json.loads(truth_file.read_text())
-        lines.append(f"demo truth: {truth['story']}")
-        s = result.summary
-        weakest = min(s["zones"], key=lambda z: z["mean"]) if s["zones"] else None
-        if weakest is not None:
-            lines.append(f"fit found: weakest zone {weakest['name']} "
-                         f"({weakest['deviation_from_face_mean']:+.0f} W/m^2 from the face mean); "
-                         f"total power {power_pm(s['total_power_W'], s['total_power_sd_W'])} "
-                         f"(truth {truth['total_power_W']:.0f} W); set aside: {', '.join(s['set_aside']) or 'none'}")
-    report = os.path.abspath(folder / "report.html")
-    lines.append(f"report: {report}")
-    current().answer("\n".join(lines), {**result.summary, "outputs": str(folder), "report": report})
-    return 0
-
-
-def add_demo(sub, help) -> None:
-    p = sub.add_parser(
-        "demo", help=help,
-        description="Fit the bundled demo (a heated platen with a weakened heater sector and one "
-                    "thermocouple reading high) and print where the report is.",
-        epilog="example:\n  heatsight demo --out /tmp/demo",
-        formatter_class=argparse.RawDescriptionHelpFormatter)
-    p.add_argument("--out", metavar="DIR", help="output folder (default: ./heatsight-demo)")
-    p.set_defaults(run=_run_demo)

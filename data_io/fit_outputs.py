@@ -6,7 +6,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from .display import FILE_UNITS, deg, file_display
+from .display import FILE_UNITS, deg, file_display, power_unit, power_words
 from .report_format import eng, pm95, percent
 
 #: sensor readings and predictions are temperatures whatever the face quantity
@@ -65,18 +65,27 @@ def sensor_records(result) -> list[dict]:
     return out
 
 
+def power_key(result) -> str:
+    """Suffix of the power keys in summary.json: "W", or "W_per_m" on a long part (whose
+    powers are per metre of length), so that no key names a bare W for a per-metre figure."""
+    return "W" if power_unit(result.cylinder) == "W" else "W_per_m"
+
+
 def summary_dict(result, *, case_path=None, readings_path=None) -> dict:
     """summary.json: the contract's keys plus sds, positions and the calibration (if any).
-    Temperatures in degC; temperature differences (sd, residual, non-uniformity) in K."""
+    Temperatures in degC; temperature differences (sd, residual, non-uniformity) in K.
+    Powers are heat INTO the part (on the bore negative when the wall heats the fluid), in
+    W, or in W/m on a long part under keys ending _W_per_m (power_unit says which)."""
     s = result.summary
+    pk = power_key(result)
     val = lambda x: float(_value(result, x))  # noqa: E731
     zones = []
     for z in s["zones"]:
         entry = {"name": z["name"], "mean": val(z["mean"]), "sd": z["sd"], "lower": val(z["lower"]),
-                 "upper": val(z["upper"]), "area_m2": z["area_m2"],
+                 "upper": val(z["upper"]), ("area_m2" if pk == "W" else "area_m2_per_m"): z["area_m2"],
                  "deviation_from_face_mean": z["deviation_from_face_mean"]}
         if "power_W" in z:
-            entry.update(power_W=z["power_W"], power_sd_W=z["power_sd_W"])
+            entry.update({f"power_{pk}": z["power_W"], f"power_sd_{pk}": z["power_sd_W"]})
         for key in ("nominal_W", "delivered_fraction", "delivered_fraction_sd"):
             if key in z:
                 entry[key] = z[key]
@@ -87,7 +96,8 @@ def summary_dict(result, *, case_path=None, readings_path=None) -> dict:
         "min": val(s["min"]), "min_sd": s["min_sd"], "min_at": _where(s["min_at"]),
         "max": val(s["max"]), "max_sd": s["max_sd"], "max_at": _where(s["max_at"]),
         "nonuniformity": s["nonuniformity"], "nonuniformity_sd": s["nonuniformity_sd"],
-        "total_power_W": s["total_power_W"], "total_power_sd_W": s["total_power_sd_W"],
+        f"total_power_{pk}": s["total_power_W"], f"total_power_sd_{pk}": s["total_power_sd_W"],
+        "power_unit": power_unit(result.cylinder),
         "strength": s["strength"], "strength_method": s["strength_method"],
         "strength_averaged": s["strength_averaged"], "smoothing": s["smoothing"],
         "chi2": s["chi2"], "effective_parameters": s["effective_parameters"],
@@ -148,13 +158,18 @@ def summary_lines(result) -> list[str]:
     summary.json under its own name."""
     s = summary_dict(result)
     u = s["unit"]
+    pk, pu = power_key(result), s["power_unit"]
+    power, power_sd = s[f"total_power_{pk}"], s[f"total_power_sd_{pk}"]
     du = FILE_UNITS[s["quantity"]][1]
     lines = [f"{s['face']} face {s['quantity'].replace('_', ' ')} ({u}):",
              f"  mean            {_pm(s['mean'], s['mean_sd'], u)}",
              f"  min             {_pm(s['min'], s['min_sd'], u)} {_at(s['min_at'])}",
              f"  max             {_pm(s['max'], s['max_sd'], u)} {_at(s['max_at'])}",
              f"  max - min       {_pm(s['nonuniformity'], s['nonuniformity_sd'], du)}",
-             f"  total power in  {_pm(s['total_power_W'], s['total_power_sd_W'], 'W')}"]
+             f"  total power in  {_pm(power, power_sd, pu)}"
+             + (" (per metre of length)" if pu == "W/m" else "")]
+    if s["face"] == "bore" and np.isfinite(power) and power < 0:
+        lines.append(f"  {power_words('bore', power):<15} {_pm(-power, power_sd, pu)}")
     width = max([10] + [len(str(z["name"])) for z in s["zones"]])
     for z in s["zones"]:
         dev = z["deviation_from_face_mean"]

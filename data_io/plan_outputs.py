@@ -13,6 +13,8 @@ from html import escape
 import numpy as np
 import pandas as pd
 
+from ..forward.geometry import is_wall
+
 from .csv_columns import unit_token
 from .display import symbol
 from .figure_style import DPI, LITERAL, new_figure
@@ -144,13 +146,13 @@ def console_line(run) -> str:
 # ------------------------------------------------------------------------------ figures
 def _face_xy(run, r, th, z):
     """Plot coordinates: (theta [rad], r [mm]) on a polar end-face map; (theta [deg], z [mm]) on the side."""
-    if run.case.unknown_face == "side":
+    if is_wall(run.case.unknown_face):
         return _deg(th), _mm(z)
     return np.mod(np.asarray(th, float), 2 * math.pi), _mm(r)
 
 
 def _axes(run, fig, pos=111):
-    if run.case.unknown_face == "side":
+    if is_wall(run.case.unknown_face):
         ax = fig.add_subplot(pos)
         ax.set_xlim(0, 360)
         ax.set_xlabel("angle θ [°]")
@@ -201,7 +203,7 @@ def band_maps(run):
     before = run.display.diff(np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", B, run.state.C, B), 0.0)))
     after = run.display.diff(np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", B, run.plan.C_after, B), 0.0)))
     shape = pts.shape
-    s = (pts.z if run.case.unknown_face == "side" else pts.r).reshape(shape)
+    s = (pts.z if is_wall(run.case.unknown_face) else pts.r).reshape(shape)
     t = np.asarray(pts.theta, float).reshape(shape)
     s = np.concatenate([s, s[:, :1]], axis=1)
     t = np.concatenate([t, t[:, :1] + 2 * math.pi], axis=1)
@@ -212,7 +214,7 @@ def band_maps(run):
         ax = _axes(run, fig, 121 + k)
         v = vals.reshape(shape)
         v = np.concatenate([v, v[:, :1]], axis=1)
-        xx = np.degrees(t) if run.case.unknown_face == "side" else t
+        xx = np.degrees(t) if is_wall(run.case.unknown_face) else t
         mesh = ax.pcolormesh(xx, _mm(s), v, cmap=BAND_CMAP, vmin=0.0, vmax=hi, shading="gouraud")
         ax.set_title(title, fontsize=10, pad=12)
     fig.colorbar(mesh, ax=fig.axes, label=f"sd of the {run.display.words} [{run.display.diff_symbol}]", shrink=0.8)

@@ -9,7 +9,10 @@ into user units here only, through `data_io.units`: temperatures in degC (differ
 K), heat flux in W/m^2 or kW/m^2, lengths in mm, angles in degrees.
 
 End faces are drawn as seen from above (looking along -z), angle counter-clockwise from
-the x axis; the side wall is drawn unrolled, angle around the axis against height.
+the x axis, a hollow part's bore as an empty disc ringed at the inner radius; walls (the
+side and the bore) are drawn unrolled, angle around the axis against height.  A long
+part's wall varies with theta only: its figures are theta curves with their bands
+(data_io.wall_curve).
 """
 
 from __future__ import annotations
@@ -21,6 +24,9 @@ from pathlib import Path
 import numpy as np
 from matplotlib.figure import Figure  # no pyplot: no global state, PNGs through the Agg renderer
 
+from ..forward.geometry import is_wall
+
+from . import wall_curve
 from .csv_out import atomic_write_bytes
 from .display import display_for
 from .face_scale import colour_scale
@@ -61,7 +67,7 @@ def _grid_arrays(result, column):
     vals = np.asarray(g[column], float).reshape(shape) if isinstance(column, str) else \
         np.asarray(column, float).reshape(shape)
     th = np.asarray(g["theta_rad"], float).reshape(shape)
-    s = np.asarray(g["z_m"] if result.face == "side" else g["r_m"], float).reshape(shape)
+    s = np.asarray(g["z_m"] if is_wall(result.face) else g["r_m"], float).reshape(shape)
     vals = np.concatenate([vals, vals[:, :1]], axis=1)
     th = np.concatenate([th, th[:, :1] + 2 * math.pi], axis=1)
     s = np.concatenate([s, s[:, :1]], axis=1)
@@ -74,7 +80,7 @@ def _sensor_overlay(ax, result, polar: bool, label_names: bool = True):
     flags = _flags(result)
     names = [str(s) for s in sens["sensor"]]
     th = np.mod(np.asarray(sens["theta_rad"], float), 2 * math.pi)
-    if result.face == "side":
+    if is_wall(result.face):
         x, y = _deg(th), _mm(np.asarray(sens["z_m"], float))
     elif polar:
         x, y = th, _mm(np.asarray(sens["r_m"], float))
@@ -119,14 +125,14 @@ def _draw_zones(ax, result, zones):
     sensors = [np.concatenate([np.asarray(ln.get_data()[k], float) for ln in marks]) if marks else np.zeros(0)
                for k in (0, 1)]
     for z in _zones_on_face(result, zones):
-        if result.face == "side":
+        if is_wall(result.face):
             x, y = side_outline(z, cyl.height)
         else:
             x, y = end_face_outline(z, cyl.radius)
         ax.plot(x, y, color=ZONE_COLOUR, linewidth=1.3, linestyle=(0, (5, 2)), gid=f"zone:{z.name}",
                 zorder=4)
         ax.plot(x, y, color="#222222", linewidth=0.5, linestyle=(0, (5, 2)), zorder=4, alpha=0.7)
-        lx, ly = label_point(z, result.face, cyl.radius, cyl.height, avoid=sensors)
+        lx, ly = label_point(z, result.face, _span_radius(result), cyl.height, avoid=sensors)
         ax.annotate(str(z.name), (lx, ly), ha="center", va="center", fontsize=7, color="#111111", zorder=6,
                     **LITERAL, bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="#888888", lw=0.5, alpha=0.8))
 
@@ -135,7 +141,7 @@ def _map(result, values, cmap, colourbar_label, title, vmin, vmax, zones=()):
     """Map of `values` (display units, grid order) on the estimated face, zones outlined."""
     s, th, vals = _grid_arrays(result, values)
     lo, hi = _limits(vals, vmin, vmax)
-    if result.face == "side":
+    if is_wall(result.face):
         fig = _new_figure(8.2, 4.9)
         ax = fig.add_subplot()
         mesh = ax.pcolormesh(_deg(th), _mm(s), vals, cmap=cmap, vmin=lo, vmax=hi, shading="gouraud")
@@ -146,17 +152,20 @@ def _map(result, values, cmap, colourbar_label, title, vmin, vmax, zones=()):
         ax.set_xticks(np.arange(0, 361, 45))
         ax.set_xlabel("angle around the axis θ [°]")
         ax.set_ylabel("height z [mm]")
-        radius_mm = float(_mm(result.cylinder.radius))
+        radius_mm = float(_mm(result.cylinder.wall_radius(result.face)))
         arc = ax.secondary_xaxis("top", functions=(lambda d: np.deg2rad(d) * radius_mm,
                                                    lambda s_: np.rad2deg(s_ / radius_mm)))
-        arc.set_xlabel("arc length along the wall [mm]")
-        ax.set_title(title + "\n(wall unrolled, seen from outside)", fontsize=10)
+        arc.set_xlabel(f"arc length along the {'bore' if result.face == 'bore' else 'wall'} at "
+                       f"r = {radius_mm:.4g} mm [mm]")
+        seen = "seen from the axis" if result.face == "bore" else "seen from outside"
+        ax.set_title(title + f"\n({result.face} unrolled, {seen})", fontsize=10)
     else:
         fig = _new_figure(6.6, 5.9)
         ax = fig.add_subplot(projection="polar")
         mesh = ax.pcolormesh(th, _mm(s), vals, cmap=cmap, vmin=lo, vmax=hi, shading="gouraud")
         _sensor_overlay(ax, result, polar=True)
         _draw_zones(ax, result, zones)
+        _draw_bore(ax, result.cylinder)
         ax.set_ylim(0.0, float(_mm(result.cylinder.radius)))
         ax.set_rlabel_position(100.0)
         ax.tick_params(axis="y", labelsize=7)
@@ -194,6 +203,8 @@ def face_map(result, *, vmin=None, vmax=None, zones=()) -> Figure:
     `display_for`), e.g. to share one scale between several results; default: `map_scale`,
     which never stretches differences smaller than the bands over the whole colour range.
     """
+    if _long(result):
+        return wall_curve.face_curve(result, zones=zones)
     d = display_for(result)
     values = d.value(np.asarray(result.grid["estimate"], float))
     scale = map_scale(result)
@@ -207,6 +218,8 @@ def face_map(result, *, vmin=None, vmax=None, zones=()) -> Figure:
 
 def band_width_map(result, *, vmax=None) -> Figure:
     """Map of the width of the 95 % band (upper - lower) of the estimate, sensors marked."""
+    if _long(result):
+        return wall_curve.band_curve(result)
     d = display_for(result)
     width = d.diff(np.asarray(result.grid["upper"], float) - np.asarray(result.grid["lower"], float))
     return _map(result, width, BAND_CMAP, f"95 % band width, upper − lower [{d.diff_symbol}]",
@@ -220,7 +233,7 @@ def line_means(result):
     the side wall."""
     s, th, est = _grid_arrays(result, "estimate")
     s, th, est = s[:, :-1], th[:, :-1], est[:, :-1]
-    w = np.ones_like(s) if result.face == "side" else np.abs(s)
+    w = np.ones_like(s) if is_wall(result.face) else np.abs(s)
     w = np.where(np.isfinite(est), w, 0.0)
     mean = np.sum(np.nan_to_num(est) * w, axis=0) / np.maximum(np.sum(w, axis=0), 1e-300)
     return np.mod(_deg(th[0]), 360.0), mean
@@ -246,15 +259,18 @@ def profiles(result, *, angles_deg=None, n_points=161) -> Figure:
 
     angles_deg: the angles [deg]; default `profile_angles`: the strongest and weakest line
     first (drawn bold, with their bands), then two more for context (thin, lighter bands)."""
+    if _long(result):
+        return wall_curve.face_curve(result)
     d = display_for(result)
     auto = angles_deg is None
     if auto:
         angles_deg = profile_angles(result)
     fig = _new_figure(7.6, 4.8)
     ax = fig.add_subplot()
-    side = result.face == "side"
+    side = is_wall(result.face)
+    start = 0.0 if side else result.cylinder.inner_radius
     span = result.cylinder.height if side else result.cylinder.radius
-    s = np.linspace(0.0, span, int(n_points))
+    s = np.linspace(start, span, int(n_points))
     angles = np.asarray(angles_deg, float).ravel()
     if getattr(result, "design", None) is not None:
         S = np.tile(s, angles.size)                       # all lines in one evaluation
@@ -281,10 +297,11 @@ def profiles(result, *, angles_deg=None, n_points=161) -> Figure:
     if mean is not None and np.isfinite(mean):
         ax.axhline(d.value(mean), color="#555555", linestyle="--", linewidth=0.9,
                    label="face mean")
-    ax.set_xlim(0.0, float(_mm(span)))
+    ax.set_xlim(float(_mm(start)), float(_mm(span)))
     ax.set_xlabel("height z [mm]" if side else "radius r [mm]")
     ax.set_ylabel(f"{d.words} [{d.symbol}]")
-    where = "up the side wall" if side else "out from the centre"
+    where = f"up the {result.face}" if side else ("out from the bore" if result.cylinder.hollow
+                                                  else "out from the centre")
     ax.set_title(f"Estimated {d.words} {where} at several angles\n(shaded, between dashed edges: "
                  "95 % band)", fontsize=10)
     ax.grid(True, alpha=0.3)
@@ -314,6 +331,27 @@ _BUILDERS = {
 
 def _build(name, result, zones):
     return face_map(result, zones=zones) if name == "face_map" else _BUILDERS[name](result)
+
+
+def _long(result) -> bool:
+    """A long part: nothing varies along z, its wall is drawn as theta curves."""
+    return bool(getattr(result.cylinder, "long", False))
+
+
+def _span_radius(result) -> float:
+    """Radius [m] a face map's distances are measured at: the wall's own on a wall."""
+    return result.cylinder.wall_radius(result.face) if is_wall(result.face) else result.cylinder.radius
+
+
+def _draw_bore(ax, cylinder):
+    """A hollow part's bore on an end-face map: an empty disc ringed at the inner radius."""
+    a = getattr(cylinder, "inner_radius", 0.0)
+    if not a > 0:
+        return
+    th = np.linspace(0.0, 2 * math.pi, 181)
+    ax.fill_between(th, 0.0, float(_mm(a)), color="white", zorder=3)
+    ax.plot(th, np.full(th.size, float(_mm(a))), color="#222222", linewidth=0.9, gid="bore", zorder=4)
+    ax.annotate("bore", (0.0, 0.0), ha="center", va="center", fontsize=8, color="#444444", zorder=5)
 
 
 def all_figures(result, names=FIGURE_NAMES, *, zones=()) -> dict:

@@ -6,22 +6,29 @@ nearest point's value outside the convex hull of the points.  When every point (
 axis) has the same theta, the profile is taken as axisymmetric and interpolated linearly
 in r alone.
 
-Side: columns ``theta, z, value``; interpolation in (arc length a*theta, z), periodic in
-theta (the table is repeated at -360 deg and +360 deg before triangulating), with the
-nearest value outside.  A single ring (one z) is interpolated periodically in theta
-alone; a single line (one theta) in z alone.
+Walls (side, and the bore of a hollow part): columns ``theta, z, value``; interpolation in
+(arc length r_w*theta, z) with r_w the wall's radius, periodic in theta (the table is
+repeated at -360 deg and +360 deg before triangulating), with the nearest value outside.
+A single ring (one z) is interpolated periodically in theta alone; a single line (one
+theta) in z alone.  On a long part (nothing varies along z) a wall profile has columns
+``theta, value`` only and is interpolated periodically in theta.  End faces of a hollow
+part: points with inner_radius <= r <= radius.
 
 The returned callable is vectorized and works in SI: f(r [m], theta [rad]) on end faces,
-f(theta [rad], z [m]) on the side, giving K (temperature) or W/m^2 (heat flux).
+f(theta [rad], z [m]) on walls (z ignored on a long part), giving K (temperature) or
+W/m^2 (heat flux).
 """
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 
 import numpy as np
 from scipy.interpolate import LinearNDInterpolator, NearestNDInterpolator
 from scipy.spatial import QhullError
+
+from ..forward.geometry import is_wall
 
 from .errors import InputError
 from .csv_in import Column, RawTable, _parse, check_inside, read_raw
@@ -53,9 +60,11 @@ class TableProfile:
         return f"TableProfile({str(self.path)!r}, face={self.face!r}, {self.n_points} points, {self.description})"
 
 
-def _columns(face: str, quantity: str) -> tuple[Column, ...]:
+def _columns(face: str, quantity: str, long: bool = False) -> tuple[Column, ...]:
     value = Column("value", QUANTITIES[quantity])
-    if face == "side":
+    if long:
+        return (Column("theta", "angle"), value)
+    if is_wall(face):
         return (Column("theta", "angle"), Column("z", "length"), value)
     return (Column("r", "length"), Column("theta", "angle"), value)
 
@@ -102,7 +111,7 @@ def _scattered(pts: np.ndarray, vals: np.ndarray, raw: RawTable):
 
 
 def load_profile(path, face: str, quantity: str, cylinder) -> TableProfile:
-    """Read a profile CSV for `face` ("bottom", "top", "side") of `quantity`
+    """Read a profile CSV for `face` ("bottom", "top", "side", "bore") of `quantity`
     ("temperature": value is an absolute temperature, default unit degC; "heat_flux":
     default W/m^2) and return its interpolating callable.
 
@@ -112,19 +121,25 @@ def load_profile(path, face: str, quantity: str, cylinder) -> TableProfile:
     path = Path(path)
     raw = read_raw(path)
     what = f"a profile on the {face} face"
-    cols = _columns(face, quantity)
+    long = bool(getattr(cylinder, "long", False))
+    if long and "z" in raw.names:
+        raise InputError(f"a long part (height = \"long\") does not vary along z: a profile on its {face} "
+                         f"takes the columns theta, value (drop the z column)", file=path)
+    cols = _columns(face, quantity, long)
     v = _parse(raw, cols, what)
     values = v["value"]
-    if face == "side":
-        v_check = {"z": v["z"]}
+    wall = is_wall(face)
+    if long:
+        v["z"] = np.zeros(values.size)
+    elif wall:
+        check_inside(raw, {"z": v["z"]}, cylinder, "profile point")
     else:
-        v_check = {"r": v["r"]}
-    check_inside(raw, v_check, cylinder, "profile point")
-    a = cylinder.radius
-    if face == "side":
+        check_inside(raw, {"r": v["r"]}, cylinder, "profile point")
+    a = cylinder.wall_radius(face) if wall else cylinder.radius
+    if wall:
         theta = np.mod(v["theta"], TWO_PI)
         keys = np.column_stack([a * theta, v["z"]])
-        scale = a if cylinder.semi_infinite else max(a, cylinder.height)
+        scale = a if math.isinf(cylinder.height) else max(a, cylinder.height)
     else:
         theta = v["theta"]
         keys = np.column_stack([v["r"] * np.cos(theta), v["r"] * np.sin(theta)])
@@ -134,21 +149,21 @@ def load_profile(path, face: str, quantity: str, cylinder) -> TableProfile:
         raise InputError(f"a profile needs at least 3 distinct points; found {keep.size}", file=path)
     pts, vals = keys[keep], values[keep]
 
-    if face == "side":
+    if wall:
         th, z = theta[keep], v["z"][keep]
         if np.ptp(z) <= 1e-9 * scale:
             order = np.argsort(th)
             tt, vv = th[order], vals[order]
-            desc = "varies with theta only (one ring)"
+            desc = "varies with theta only" + ("" if long else " (one ring)")
             func = lambda t, zz: np.interp(np.mod(t, TWO_PI), tt, vv, period=TWO_PI)  # noqa: E731
         elif np.ptp(pts[:, 0]) <= 1e-9 * scale:
             order = np.argsort(z)
             zs, vv = z[order], vals[order]
-            desc = "varies with z only (one line along the side)"
+            desc = f"varies with z only (one line along the {face})"
             func = lambda t, zz: np.interp(zz, zs, vv)  # noqa: E731
         else:
             if _collinear(pts):
-                raise InputError("the profile points lie on one line across the side; spread them "
+                raise InputError(f"the profile points lie on one line across the {face}; spread them "
                                  "over the face, or give one ring (one z) or one line (one theta)",
                                  file=path)
             period = TWO_PI * a

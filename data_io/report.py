@@ -22,13 +22,15 @@ from . import plots
 from .csv_out import atomic_write_text
 from .report_format import (_celsius, _celsius_number, _deg, _e, _finite, _Fmt, _mm, _position, _power,
                             half95, sig)
-from .report_text import CAUTIONS, CSS, FIGURE_CAPTIONS, GLOSSARY
+from .report_text import CAUTIONS, CSS, FIGURE_CAPTIONS, GLOSSARY, HOLLOW_CAUTION, LONG_CAPTIONS
+from .display import power_unit
 from .units import from_si, to_display, ureg
 from .verdict import verdict_parts
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 
-FACE_PLACE = {"bottom": "z = 0", "top": "z = height", "side": "r = radius"}
+FACE_PLACE = {"bottom": "z = 0", "top": "z = height", "side": "outer wall, r = radius",
+              "bore": "inner wall, r = inner radius"}
 #: order of the figures on the page (others follow in the order given)
 FIGURE_ORDER = ("face_map", "profiles", "band_width", "sensors", "strength")
 
@@ -63,7 +65,13 @@ def default_case_text(result) -> list:
     """(label, value) rows describing the part and its faces, from the result itself."""
     cyl = result.cylinder
     rows = [("radius", f"{from_si(cyl.radius, 'length', 'mm'):.6g} mm")]
-    if math.isinf(cyl.height):
+    if getattr(cyl, "hollow", False):
+        rows.append(("inner radius (bore)", f"{from_si(cyl.inner_radius, 'length', 'mm'):.6g} mm"))
+        rows.append(("wall thickness", f"{from_si(cyl.thickness, 'length', 'mm'):.6g} mm"))
+    if getattr(cyl, "long", False):
+        rows.append(("height", "long: nothing varies along the axis; areas and powers are per metre "
+                               "of length"))
+    elif math.isinf(cyl.height):
         rows.append(("height", "infinite (semi-infinite part)"))
     else:
         rows.append(("height", f"{from_si(cyl.height, 'length', 'mm'):.6g} mm"))
@@ -105,9 +113,13 @@ def _numbers(result, fmt: _Fmt) -> str:
                     f"{_position(result.face, s.get('max_at'))}"),
         ("spread over the face (maximum − minimum)",
          f"{fmt.diff(s.get('nonuniformity'))} {_pm_sd(fmt, s.get('nonuniformity_sd'))}"),
-        ("heat into the part through this face",
-         _power(s.get("total_power_W"), s.get("total_power_sd_W"))),
+        ("heat into the part through this face" + (" (per metre of length)" if fmt_long(result) else ""),
+         _power(s.get("total_power_W"), s.get("total_power_sd_W"), power_unit(result.cylinder))),
     ]
+    if result.face == "bore" and _finite(s.get("total_power_W")) and s["total_power_W"] < 0:
+        # the wall heats the fluid: the same figure, said from the fluid's side
+        rows.append(("heat into the fluid through the bore",
+                     _power(-s["total_power_W"], s.get("total_power_sd_W"), power_unit(result.cylinder))))
     out = [_kv_table(rows)]
     cal = s.get("calibrated")
     if cal:
@@ -116,8 +128,18 @@ def _numbers(result, fmt: _Fmt) -> str:
     zones = s.get("zones") or []
     if zones:
         out.append("<h3>Zones</h3>")
-        out.append(_zones_table(zones, fmt))
+        out.append(_zones_table(zones, fmt, power_unit(result.cylinder)))
     return "\n".join(out)
+
+
+def cautions_of(cylinder) -> tuple:
+    """The report's cautions; a hollow part's adds the one on pressure and drilled walls."""
+    return CAUTIONS + ((HOLLOW_CAUTION,) if getattr(cylinder, "hollow", False) else ())
+
+
+def fmt_long(result) -> bool:
+    """A long part: areas and powers per metre of length."""
+    return bool(getattr(result.cylinder, "long", False))
 
 
 def _how_fitted(result) -> str:
@@ -182,13 +204,14 @@ def _calibrated_table(cal: dict) -> str:
             + "".join(rows) + "</table>")
 
 
-def _zones_table(zones, fmt: _Fmt) -> str:
+def _zones_table(zones, fmt: _Fmt, unit: str = "W") -> str:
     d = fmt.d
     flux = d.quantity == "heat_flux"
-    head = ["zone", "area [cm²]", f"mean [{d.symbol}]", f"± (95 %) [{d.diff_symbol}]",
+    area_unit = "cm²" if unit == "W" else "cm² per m of length"
+    head = ["zone", f"area [{area_unit}]", f"mean [{d.symbol}]", f"± (95 %) [{d.diff_symbol}]",
             f"95 % interval [{d.symbol}]", f"difference from face mean [{d.diff_symbol}]"]
     if flux:
-        head.append("heat in ± (95 %) [W]")
+        head.append(f"heat in ± (95 %) [{unit}]")
     if any(_finite(z.get("delivered_fraction")) for z in zones):
         head.append("share of nominal power")
     rows = []
@@ -200,7 +223,8 @@ def _zones_table(zones, fmt: _Fmt) -> str:
                  f"{fmt.number(z.get('lower'))} to {fmt.number(z.get('upper'))}",
                  fmt.diff_number(z.get("deviation_from_face_mean"))]
         if flux:
-            cells.append(_power(z.get("power_W"), z.get("power_sd_W")).replace(" W", "").replace(" (95 %)", ""))
+            cells.append(_power(z.get("power_W"), z.get("power_sd_W"), unit).replace(f" {unit}", "")
+                         .replace(" (95 %)", ""))
         if len(head) > len(cells):
             frac, fsd = z.get("delivered_fraction"), z.get("delivered_fraction_sd")
             cells.append(f"{sig(100 * frac, 3)} ± {sig(100 * half95(fsd))} %" if _finite(frac) and _finite(fsd)
@@ -272,12 +296,13 @@ def _png_bytes(obj) -> bytes:
     return data
 
 
-def _figures_html(figures: dict) -> str:
+def _figures_html(figures: dict, long: bool = False) -> str:
+    captions = {**FIGURE_CAPTIONS, **LONG_CAPTIONS} if long else FIGURE_CAPTIONS
     order = [n for n in FIGURE_ORDER if n in figures] + [n for n in figures if n not in FIGURE_ORDER]
     parts = []
     for name in order:
         data = base64.b64encode(_png_bytes(figures[name])).decode("ascii")
-        caption = FIGURE_CAPTIONS.get(name, str(name))
+        caption = captions.get(name, str(name))
         parts.append(f'<figure id="figure-{_e(name)}"><img alt="{_e(caption)}" '
                      f'src="data:image/png;base64,{data}"><figcaption>{_e(caption)}</figcaption></figure>')
     return "\n".join(parts)
@@ -324,7 +349,7 @@ def render_report(result, *, case_text=None, title=None, figures=None, extra_sec
 
     sections = []
     if figures:
-        sections.append(("figures", "Figures", _figures_html(figures)))
+        sections.append(("figures", "Figures", _figures_html(figures, fmt_long(result))))
     sections += [("numbers", "The numbers", _numbers(result, fmt)),
                  ("sensors", "The sensors", _sensor_table(result))]
     if warnings:
@@ -343,7 +368,7 @@ def render_report(result, *, case_text=None, title=None, figures=None, extra_sec
     body = "\n".join(f'<section id="{sid}"><h2>{_e(h)}</h2>\n{content}\n</section>'
                      for sid, h, content in sections)
     cautions = ('<section class="cautions" id="cautions"><h2>Cautions</h2>'
-                + "".join(f"<p>{_e(c)}</p>" for c in CAUTIONS) + "</section>")
+                + "".join(f"<p>{_e(c)}</p>" for c in cautions_of(result.cylinder)) + "</section>")
     version = _version()
     footer = (f"<footer>Written by heatsight{' ' + _e(version) if version else ''}. "
               "Estimates from a steady-conduction model fitted to thermocouple readings; "

@@ -174,7 +174,7 @@ def _position(face, at) -> str:
     """Where on the face a point lies, in words and user units."""
     if not at:
         return ""
-    if face == "side":
+    if face in ("side", "bore"):
         return f"at θ = {_deg(at.get('theta_rad'))}°, z = {_mm(at.get('z_m'))} mm"
     r = at.get("r_m")
     if _finite(r) and abs(float(r)) < 1e-9:
@@ -182,16 +182,17 @@ def _position(face, at) -> str:
     return f"at r = {_mm(r)} mm, θ = {_deg(at.get('theta_rad'))}°"
 
 
-def _power(w, sd=None) -> str:
-    """Power to 4 significant digits with its 95 % half-width: '817.7 W ± 1.6 W (95 %)'."""
+def _power(w, sd=None, unit: str = "W") -> str:
+    """Power to 4 significant digits with its 95 % half-width: '817.7 W ± 1.6 W (95 %)'
+    (unit W/m on a long part: data_io.display.power_unit)."""
     if not _finite(w):
         return "–"
-    text = f"{w:.4g} W"
+    text = f"{w:.4g} {unit}"
     if _finite(sd):
-        text += f" ± {sig(half95(sd), SPREAD_DIGITS)} W (95 %)"
+        text += f" ± {sig(half95(sd), SPREAD_DIGITS)} {unit} (95 %)"
     return text
 
 
-def power_pm(w, sd=None) -> str:
-    """Power for people: '818 ± 1.6 W (95 %)'."""
-    return pm95(eng(w), sd, "W") if _finite(w) else "–"
+def power_pm(w, sd=None, unit: str = "W") -> str:
+    """Power for people: '818 ± 1.6 W (95 %)' (or W/m on a long part)."""
+    return pm95(eng(w), sd, unit) if _finite(w) else "–"

@@ -18,6 +18,22 @@ FIGURE_CAPTIONS = {
                 "readings, and the trade-off between misfit to the readings and roughness of the face.",
 }
 
+#: captions that differ on a long part, whose wall is drawn as theta curves (data_io.wall_curve)
+LONG_CAPTIONS = {
+    "face_map": "The estimated wall against the angle around the axis (nothing varies along a long "
+                "part): the line is the estimate, the shading its 95 % band, grey spans the zones of "
+                "the case, ticks at the bottom the thermocouples' angles.",
+    "band_width": "Width of the 95 % band of the estimate around the axis. Narrow at the sensors' "
+                  "angles, wide between them.",
+    "profiles": "The estimate around the axis with its 95 % band (a long part has no second direction "
+                "to draw lines along).",
+}
+
+#: added to CAUTIONS for a hollow part (a tube, barrel or vessel wall)
+HOLLOW_CAUTION = ("A tube, barrel or vessel may hold hot fluid under pressure. Drilling thermocouple "
+                  "holes in its wall weakens it: the pressure-equipment rules that apply at your site, "
+                  "and a competent person's assessment, come first.")
+
 CAUTIONS = (
     "Heated hardware can burn. A part, its fixtures and the air around it can stay hot long "
     "after the heater is switched off.",

@@ -12,6 +12,7 @@ Line numbers in messages are those of the file as an editor shows them (header =
 from __future__ import annotations
 
 import difflib
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -49,6 +50,20 @@ POINT_COLUMNS = (
 )
 
 
+def for_part(columns: tuple[Column, ...], cylinder) -> tuple[Column, ...]:
+    """The columns a table needs on this part: on a long part (nothing varies along z) the
+    z column may be left out or empty (taken as 0)."""
+    if not getattr(cylinder, "long", False):
+        return columns
+    return tuple(replace(c, required=False, optional_cells=True) if c.name == "z" else c for c in columns)
+
+
+def _z_or_zero(v: dict, n: int) -> None:
+    """A long part's z column: absent or empty cells -> 0 (z plays no part there)."""
+    z = np.asarray(v.get("z", np.zeros(n)), float)
+    v["z"] = np.where(np.isfinite(z), z, 0.0)
+
+
 # ---------------------------------------------------------------------------- layout
 
 
@@ -63,8 +78,9 @@ def read_layout(path, cylinder) -> Table:
     position_tolerance [m] (0 when not given).
     """
     raw = read_raw(Path(path))
-    v = _parse(raw, LAYOUT_COLUMNS, "a sensor layout")
+    v = _parse(raw, for_part(LAYOUT_COLUMNS, cylinder), "a sensor layout")
     ids = v["sensor"]
+    _z_or_zero(v, len(ids))
     _check_sensor_ids(raw, ids)
     check_inside(raw, v, cylinder, "sensor")
     warnings: list[str] = []
@@ -273,7 +289,8 @@ def read_points(path, cylinder) -> Table:
     theta [rad], z [m], one row per point in file order."""
     path = Path(path)
     raw = read_raw(path)
-    v = _parse(raw, POINT_COLUMNS, "a query-point table")
+    v = _parse(raw, for_part(POINT_COLUMNS, cylinder), "a query-point table")
+    _z_or_zero(v, len(raw.cells))
     check_inside(raw, v, cylinder, "point")
     frame = pd.DataFrame({"r": v["r"], "theta": v["theta"], "z": v["z"]})
     return Table(path, frame, [], "points")

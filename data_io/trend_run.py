@@ -174,11 +174,13 @@ class TrendRun:
         from .csv_columns import unit_token
 
         u, du = (unit_token(x) for x in (self.units.unit, self.units.diff_unit))
+        # a long part's powers are per metre of length (data_io.display.power_unit)
+        pk = "W_per_m" if getattr(self.case.cylinder, "long", False) else "W"
         names = ["start_s", "end_s"]
         if self.reader.timestamps:
             names += ["start_iso", "end_iso"]
         names += ["n_rows", "n_sensors", f"mean_{u}", f"mean_sd_{du}", f"min_{u}", f"max_{u}",
-                  f"nonuniformity_{du}", f"nonuniformity_sd_{du}", "total_power_W", "total_power_sd_W"]
+                  f"nonuniformity_{du}", f"nonuniformity_sd_{du}", f"total_power_{pk}", f"total_power_sd_{pk}"]
         for z in self.model.zone_names:
             names += [f"{z}_mean_{u}", f"{z}_sd_{du}", f"{z}_change_{du}", f"{z}_change_sd_{du}", f"{z}_flag"]
         return names

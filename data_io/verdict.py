@@ -16,6 +16,7 @@ import math
 
 import numpy as np
 
+from .display import power_unit, power_words
 from .report_format import _Fmt, _finite, _position, eng, half95, percent, power_pm, sig
 from .units import from_si
 
@@ -84,7 +85,10 @@ def level_sentence(result, fmt: _Fmt) -> str:
     text = f"Face mean {fmt.pm(s.get('mean'), s.get('mean_sd'))}"
     power = s.get("total_power_W")
     if _finite(power):
-        text += f"; heat into the part through the {d.face_words}: {power_pm(power, s.get('total_power_sd_W'))}"
+        unit = power_unit(result.cylinder)
+        per = " per metre of length" if unit == "W/m" else ""
+        shown = -power if result.face == "bore" and power < 0 else power
+        text += f"; {power_words(result.face, power)}{per}: {power_pm(shown, s.get('total_power_sd_W'), unit)}"
     return text + "."
 
 

@@ -13,6 +13,8 @@ import math
 
 import numpy as np
 
+from ..forward.geometry import WALLS
+
 from .display import deg, mm
 
 #: points per full turn of an arc
@@ -61,7 +63,7 @@ def side_outline(zone, height):
 def _cartesian(face, x, y, radius_mm):
     """Map coordinates -> positions on the face [mm] for distances (side: unrolled arc)."""
     x, y = np.asarray(x, float), np.asarray(y, float)
-    if face == "side":
+    if face in WALLS:
         return np.deg2rad(x) * radius_mm, y
     return y * np.cos(x), y * np.sin(x)
 
@@ -72,7 +74,7 @@ def label_point(zone, face, radius, height, avoid=None):
     from the points `avoid` ((x, y) in map coordinates, e.g. the sensors), the middle first."""
     t0, t1 = zone.theta
     full = (t1 - t0) >= 2 * math.pi - 1e-9
-    if face == "side":
+    if face in WALLS:
         s0, s1 = zone.z if zone.z is not None else (0.0, height)
     else:
         s0, s1 = zone.r if zone.r is not None else (0.0, radius)
@@ -82,8 +84,8 @@ def label_point(zone, face, radius, height, avoid=None):
         for ft in ((0.125, 0.375, 0.625, 0.875) if full else fractions):
             th = (t0 + ft * (t1 - t0)) % (2 * math.pi)
             s = s0 + fs * (s1 - s0)
-            cands.append((float(deg(th)), float(mm(s))) if face == "side" else (th, float(mm(s))))
-    if face == "side":   # a name on the 0/360 deg seam would be cut in half
+            cands.append((float(deg(th)), float(mm(s))) if face in WALLS else (th, float(mm(s))))
+    if face in WALLS:   # a name on the 0/360 deg seam would be cut in half
         inner = [c for c in cands if 15.0 <= c[0] <= 345.0]
         cands = inner or cands
     if avoid is None or len(avoid[0]) == 0:

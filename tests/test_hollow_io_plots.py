@@ -1,0 +1,120 @@
+"""Figures of hollow parts: an end-face map shows the bore; the estimate spans r from the
+inner radius; a long part's wall is drawn as a theta curve with its band.
+
+Readings come from textbook closed forms (no fit basis involved):
+- an annular plate heated uniformly from below (q), insulated on both walls, convection on
+  top (h, T_inf): 1-D conduction in z, T(z) = T_inf + q/h + q (L - z)/k (plane wall with
+  convection, Incropera & DeWitt ch. 3; from memory); power in = q pi (b^2 - a^2);
+- a long tube with the bore at T_i and the outside at T_o: T(r) = T_i + (T_o - T_i)
+  ln(r/a)/ln(b/a) (cylindrical wall, same source; from memory).
+"""
+
+import math
+
+import numpy as np
+import pytest
+
+import heatsight
+from heatsight.data_io import plots
+from heatsight.data_io.case import load_case
+
+A, B, L, K = 0.020, 0.060, 0.030, 16.0
+Q, H, T_INF = 5000.0, 200.0, 25.0
+
+ANNULAR_PLATE = """\
+[part]
+radius = "60 mm"
+inner_radius = "20 mm"
+height = "30 mm"
+conductivity = "16 W/(m*K)"
+[faces.bottom]
+condition = "unknown-flux"
+[faces.top]
+condition = "convection"
+h = "200 W/(m^2*K)"
+ambient = "25 degC"
+[faces.side]
+condition = "insulated"
+[faces.bore]
+condition = "insulated"
+[sensors]
+layout = "layout.csv"
+readings = "readings.csv"
+[fit]
+harmonics = 2
+terms = 4
+"""
+LONG_TUBE = """\
+[part]
+radius = "60 mm"
+inner_radius = "40 mm"
+height = "long"
+conductivity = "16 W/(m*K)"
+[faces.bore]
+condition = "unknown-temperature"
+[faces.side]
+condition = "temperature"
+value = "50 degC"
+[sensors]
+layout = "layout.csv"
+readings = "readings.csv"
+[[zones]]
+name = "east"
+theta = ["-30 deg", "30 deg"]
+"""
+
+
+def _fit(tmp_path, case, sensors, temperature):
+    layout = ["sensor,r [mm],theta [deg],z [mm]"]
+    readings = ["sensor,temperature [degC]"]
+    for i, (r, t, z) in enumerate(sensors, 1):
+        layout.append(f"S{i},{r * 1e3:g},{t:g},{z * 1e3:g}")
+        readings.append(f"S{i},{temperature(r, z):.6f}")
+    (tmp_path / "layout.csv").write_text("\n".join(layout) + "\n")
+    (tmp_path / "readings.csv").write_text("\n".join(readings) + "\n")
+    (tmp_path / "case.toml").write_text(case)
+    return heatsight.fit(str(tmp_path / "case.toml")).raw
+
+
+@pytest.fixture(scope="module")
+def annular(tmp_path_factory):
+    sensors = [(r, t, 0.010) for t in range(0, 360, 60) for r in (0.025, 0.040, 0.055)]
+    plate = lambda r, z: T_INF + Q / H + Q * (L - z) / K     # noqa: E731  (closed form, module docstring)
+    return _fit(tmp_path_factory.mktemp("annular"), ANNULAR_PLATE, sensors, plate)
+
+
+def test_annular_plate_power_and_grid(annular):
+    power, sd = annular.summary["total_power_W"], annular.summary["total_power_sd_W"]
+    expected = Q * math.pi * (B ** 2 - A ** 2)                   # uniform flux over the annulus
+    assert abs(power - expected) <= max(1.96 * sd, 1e-3 * expected), (power, sd, expected)
+    r = np.asarray(annular.grid["r_m"], float)
+    assert r.min() == pytest.approx(A) and r.max() == pytest.approx(B)
+
+
+def test_end_face_map_shows_the_bore(annular):
+    fig = plots.face_map(annular)
+    ax = fig.axes[0]
+    bore = [ln for ln in ax.get_lines() if ln.get_gid() == "bore"]
+    assert len(bore) == 1 and np.allclose(bore[0].get_ydata(), A * 1e3)
+    assert any(t.get_text() == "bore" for t in ax.texts)
+    prof = plots.profiles(annular)
+    assert prof.axes[0].get_xlim() == pytest.approx((A * 1e3, B * 1e3))   # out from the bore
+
+
+def test_long_wall_is_a_theta_curve(tmp_path):
+    a, b, ti, to = 0.040, 0.060, 180.0, 50.0
+    sensors = [(r, t, 0.0) for t in range(0, 360, 45) for r in (0.045, 0.055)]
+    tube = lambda r, z: ti + (to - ti) * math.log(r / a) / math.log(b / a)   # noqa: E731 (closed form)
+    result = _fit(tmp_path, LONG_TUBE, sensors, tube)
+    fig = plots.face_map(result, zones=load_case(tmp_path / "case.toml").zones)
+    ax = fig.axes[0]
+    assert any(p.get_gid() == "zone:east" for p in ax.patches)
+    assert ax.name == "rectilinear" and ax.get_xlim() == (0.0, 360.0)
+    curve = next(ln for ln in ax.get_lines() if ln.get_gid() == "profile:theta")
+    assert np.allclose(curve.get_ydata(), ti, atol=1.0)        # the uniform bore, within 1 K
+    rug = [ln for ln in ax.get_lines() if str(ln.get_gid()).startswith("sensors:")]
+    assert sum(len(ln.get_xdata()) for ln in rug) == len(sensors)
+    assert "long part" in ax.get_title()
+    band = plots.band_width_map(result).axes[0]
+    width = next(ln for ln in band.get_lines() if ln.get_gid() == "band:theta").get_ydata()
+    assert np.all(width > 0)
