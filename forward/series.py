@@ -148,9 +148,7 @@ class KnownSeries:
             norm = modes.axial_norms()
         else:
             norm = modes.norms() / np.where(ms == 0, 2.0 * np.pi, np.pi)
-        # integral of the (residual) data over the face: only the m = 0 amplitude contributes
-        ring = w * s if not self.wall else w * modes.radius
-        self._data_integral = float(2.0 * np.pi * (ring @ amps_c[:, 0]))
+        self._data_integral = self._integral_of_data(modes)
         size = n - have
         for g, (mg, sg) in enumerate(self.parities):
             sl = slice(g * size, (g + 1) * size)
@@ -170,6 +168,20 @@ class KnownSeries:
             self.modes = self._make_modes(np.concatenate([b[0].m for b in self._blocks]),
                                           np.concatenate([b[0].is_sin for b in self._blocks]),
                                           np.concatenate([self._ev(b[0]) for b in self._blocks]))
+
+    def _integral_of_data(self, modes, panels=64, order=16):
+        """integral of the (residual) data over the face [data unit * m^2]: the m = 0
+        amplitude on a composite Gauss rule (`panels` x `order` nodes), so data with kinks
+        (piecewise-linear profiles) integrate to ~1e-6 and not to a single rule's ~1e-3."""
+        lo, hi = self._interval()
+        x, w = _gauss_unit(order)
+        edges = np.linspace(lo, hi, panels + 1)
+        half = 0.5 * np.diff(edges)[:, None]
+        s = (edges[:-1, None] + half * (x[None, :] + 1.0)).ravel()
+        w = (half * w[None, :]).ravel()
+        amps_c, _ = harmonic_amplitudes(self._sample(s, theta_nodes(self.n_theta)), axis=1)
+        ring = w * s if not self.wall else w * modes.radius
+        return float(2.0 * np.pi * (ring @ amps_c[:, 0]))
 
     def _ev(self, modes):
         return modes.mu if self.wall else modes.lam
@@ -268,46 +280,49 @@ class KnownSeries:
         with a temperature-kind face, so the data face's own power is taken from its data:
         k du/dn = d ('N') or d - h u ('R') on that face, i.e. the integral of d over the face
         (minus h times the integral of u, whose series converges faster).  The slowest
-        other face's power then follows from the sub-problem's balance (`_slow_face`).  A
-        temperature data face, or a case with no single slowest face, keeps the plain mode
-        sums (balanced, but slowly converging).
+        other faces' power then follows from the sub-problem's balance (`_slow_faces`), split
+        between two of them in the ratio of their mode sums.  A temperature data face, or a
+        case with no slow face, keeps the plain mode sums (balanced, but slowly converging).
         """
         if self.modes is None:
             return {}
         out = {f: float(p @ self.coef) for f, p in self.modes.powers().items()}
         kind = self.kinds[self.face]
-        rest = self._slow_face()
-        if kind.kind == "D" or (0, False) not in self.parities or rest is None:
+        rest = self._slow_faces()
+        if kind.kind == "D" or (0, False) not in self.parities or not rest:
             return out
         # k du/dn = d - (B[u] - k du/dn): the operator's non-derivative part (h u for 'R')
         own = self._data_integral
         if kind.kind != "N":
             own -= kind.operator(float(self._face_temperature_integrals() @ self.coef), 0.0, self.k)
         out[self.face] = own
-        out[rest] = -sum(v for f, v in out.items() if f != rest)
+        balance = -sum(v for f, v in out.items() if f not in rest)
+        sums = sum(out[f] for f in rest)
+        for f in rest:
+            out[f] = balance / len(rest) if sums == 0 else balance * out[f] / sums
         return out
 
-    def _slow_face(self):
-        """The other face whose mode sum converges slowest (it takes up the balance), or None.
+    def _slow_faces(self):
+        """The other faces whose mode sums converge slowest (they take up the balance), or [].
 
-        End-face data: the one wall that is not 'N' (an 'N' wall's power is zero mode by
-        mode); with every wall 'N', the far end (None when semi-infinite); None for two
-        walls that are not 'N'.  Wall data: the one 'D' end (its axial functions vanish
-        there while the data need not); with no 'D' end, the one 'R' end opposite an 'N'
-        end; None for two 'D' or two 'R' ends.
+        End-face data: the walls that are not 'N' (an 'N' wall's power is zero mode by mode);
+        with every wall 'N', the far end ([] when semi-infinite).  Wall data: the 'D' ends
+        (their axial functions vanish there while the data need not); with no 'D' end, the
+        'R' ends.  (A hollow part's other wall converges fast: its radial factor decays
+        across the wall.)
         """
         if not self.wall:
             walls = [f for f in ("side", "bore") if f in self.kinds and self.kinds[f].kind != "N"]
             if walls:
-                return walls[0] if len(walls) == 1 else None
+                return walls
             far = "top" if self.face == "bottom" else "bottom"
-            return far if far in self.kinds and np.isfinite(self.L) else None
+            return [far] if far in self.kinds and np.isfinite(self.L) else []
         ends = {f: self.kinds[f].kind for f in ("bottom", "top")}
         for kind in ("D", "R"):
             hit = [f for f, k in ends.items() if k == kind]
             if hit:
-                return hit[0] if len(hit) == 1 and (kind == "D" or "N" in ends.values()) else None
-        return None
+                return hit
+        return []
 
     def _face_temperature_integrals(self):
         """integral over the data face of u per unit coefficient [K m^2] (m = 0 cos only)."""
