@@ -34,13 +34,13 @@ class UnknownBasis:
         m, is_sin, ev = np.concatenate(ms), np.concatenate(sins), np.concatenate(ev)
         self.n_index = np.concatenate(nidx)
         self.modes = families.modes(self.face, m, is_sin, ev)
-        if is_wall(self.face):
+        if model.cylinder.hollow:
+            self.rim = []  # no corner columns on a hollow part yet (see DEVELOPERS.md)
+            self.mix = np.zeros((ev.size, 0))
+        elif self.face == "side":
             self.rim = wall_columns(model, harmonics)
             # wall columns minus their projection on the eigenfunctions (corner_columns)
             self.mix = orthogonalize(self.rim, self.modes, ev.size)
-        elif model.cylinder.hollow:
-            self.rim = []  # an unknown end of a hollow part: no rim columns (see DEVELOPERS.md)
-            self.mix = np.zeros((ev.size, 0))
         else:
             self.rim = end_rim_columns(model, self.face, harmonics)
             self.mix = np.zeros((ev.size, len(self.rim)))
@@ -58,7 +58,7 @@ class UnknownBasis:
         (see corner_columns)."""
         if not self.rim:
             return None
-        if is_wall(self.face):
+        if self.face == "side":
             hit = [i for i, c in enumerate(self.rim) if c.uniform]
             return int(self.n_eigen + hit[0]) if hit else None
         return int(self.n_eigen + next(i for i, c in enumerate(self.rim) if c.m == 0))
@@ -92,7 +92,7 @@ class UnknownBasis:
         if not self.rim:
             return phi
         cyl = self.model.cylinder
-        s, th = (v / cyl.height, u) if is_wall(self.face) else (u / cyl.radius, v)
+        s, th = (v / cyl.height, u) if self.face == "side" else (u / cyl.radius, v)
         extra = np.stack([c.face_values(s, th) for c in self.rim], axis=1)
         if self.mix.any():  # end faces: no eigenfunction part to take off
             extra -= phi @ self.mix
@@ -108,7 +108,7 @@ class UnknownBasis:
         if not self.rim:
             return phi
         cyl = self.model.cylinder
-        if is_wall(self.face):  # s = z / L along v, theta along u
+        if self.face == "side":  # s = z / L along v, theta along u
             cols = [c.face_values_grid(v / cyl.height, u).T for c in self.rim]
         else:
             cols = [c.face_values_grid(u / cyl.radius, v) for c in self.rim]

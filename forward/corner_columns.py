@@ -126,16 +126,15 @@ class CornerColumn:
 def _fixes(model, w, faces, size, span=None):
     """Known-data series with data -B_F[w] on each face F, homogeneous elsewhere; size: the
     temperature size of w [K] over the length span [m] (for the series' tolerance)."""
-    k = model.k
-    families = model.families
+    a, L, k = model.cylinder.radius, model.cylinder.height, model.k
     out = []
     for face in faces:
         cond = model.kinds[face]
 
         def data(u, v, face=face, cond=cond):
             return -model.face_operator(w, face, cond, u, v)
-        span_f = span or model.cylinder.datum_span(face)
-        series = KnownSeries(face, data, families, families.kinds, k, tol=model.tolerance,
+        span_f = span or (a if face != "side" else min(a, L))
+        series = KnownSeries(face, data, (a, L), model.kinds, k, tol=model.tolerance,
                              scale=cond.datum_scale(k, span_f) * size, n_cap=model.max_terms,
                              max_harmonic=model.max_harmonic)
         if series.modes is not None:
@@ -179,10 +178,9 @@ def end_rim_columns(model, face, harmonics):
     return out
 
 
-def _trace_matrix(m, c, temperature, k, a, outward=1.0):
+def _trace_matrix(m, c, temperature, k, a):
     """Map (alpha, beta, gamma, delta) -> coefficients of the wall profile in zeta^0..3:
-    the temperature w(a, zeta) or the inflow flux k dw/dn(a, zeta) = outward k dw/dr of the
-    polynomial term on the wall r = a (outward = +1 on the side, -1 on the bore)."""
+    the temperature w(a, zeta) or the inflow flux k dw/dr(a, zeta) of the polynomial term."""
     t = np.array([[1.0, 0.0, -c, 0.0],
                   [0.0, 1.0, 0.0, -3.0 * c],
                   [0.0, 0.0, 1.0, 0.0],
@@ -193,7 +191,7 @@ def _trace_matrix(m, c, temperature, k, a, outward=1.0):
     extra = np.zeros((4, 4))
     extra[0, 2] = -2.0 * c
     extra[1, 3] = -6.0 * c
-    return outward * (k / a) * (m * t + extra)
+    return (k / a) * (m * t + extra)
 
 
 def _defect_row(end, cond, k, L):
@@ -226,24 +224,14 @@ def _solve_lowest(rows, targets):
     raise ValueError("internal: no polynomial wall profile meets the corner defects")
 
 
-#: a bore column's polynomial grows like (b / a_i)^m towards the outer wall; harmonics where
-#: that exceeds this are left to the eigenfunctions (the outer wall's fix would cancel it)
-BORE_GROWTH = 1e6
-
-
 def wall_columns(model, harmonics):
-    """Corner columns of an unknown wall (item 2 of the module docstring).  On a hollow part
-    the polynomial is scaled by the wall's own radius (rho = r / r_w, so its trace on the
-    wall is the same profile) and the other wall gets a fix too."""
+    """Corner columns of an unknown side (item 2 of the module docstring)."""
     cyl = model.cylinder
-    face = model.unknown_face
-    if face not in ("side", "bore") or cyl.semi_infinite or cyl.long:
+    cond = model.faces["side"]
+    if not cond.unknown or cyl.semi_infinite:
         return []
-    cond = model.faces[face]
     temperature = cond.kind == "D"
-    a, L, k = cyl.wall_radius(face), cyl.height, model.k
-    outward = -1.0 if face == "bore" else 1.0
-    fixed = ENDS + (("bore" if face == "side" else "side",) if cyl.hollow else ())
+    a, L, k = cyl.radius, cyl.height, model.k
     kinds = {e: model.kinds[e] for e in ENDS}
     free = [e for e in ENDS if not (temperature and kinds[e].kind == "D")]
     if not free:
@@ -251,10 +239,8 @@ def wall_columns(model, harmonics):
     zeta = np.linspace(0.0, 1.0, 201)
     out = []
     for m, is_sin in _harmonics(harmonics):
-        if face == "bore" and (cyl.radius / a) ** m > BORE_GROWTH:
-            break
         c = float(curvature_coefficient(m, a, L))
-        T = _trace_matrix(m, c, temperature, k, a, outward)
+        T = _trace_matrix(m, c, temperature, k, a)
         rows = np.array([_defect_row(e, kinds[e], k, L) @ T for e in ENDS])
         targets = [[1.0 if e == own else 0.0 for e in ENDS] for own in free]
         xs = _solve_lowest(rows, targets)
@@ -266,8 +252,8 @@ def wall_columns(model, harmonics):
             w = PolynomialLifting.from_terms(a, L, [(m, is_sin, tuple(x))])
             th0 = np.full(zeta.size, 0.5 * math.pi / m if is_sin else 0.0)  # Theta_m = 1 there
             t_size = np.abs(w.temperature(np.full(zeta.size, a), th0, zeta * L)).max()
-            fixes = _fixes(model, w, fixed, max(t_size, 1e-300))
-            power = _wall_power(model, face, w, fixes, profile, m, is_sin, temperature)
+            fixes = _fixes(model, w, ENDS, max(t_size, 1e-300))
+            power = _wall_power(model, w, fixes, profile, m, is_sin, temperature)
             # norm and surface eigenvalue are set by `orthogonalize`
             out.append(CornerColumn(m, is_sin, w, fixes, profile, math.nan, math.nan, power,
                                     uniform=uniform is not None and i == 0))
@@ -316,10 +302,8 @@ def orthogonalize(columns, modes, n_eigen):
     return B
 
 
-def _wall_power(model, face, w, fixes, profile, m, is_sin, temperature):
-    """Heat INTO the part through the wall `face` [W] per unit coefficient (m = 0 cos only);
-    the lifting w is scaled by that wall's radius, so its 'side' power (k dw/dr there times
-    the wall's area) is the inflow on the side and minus it on the bore."""
+def _wall_power(model, w, fixes, profile, m, is_sin, temperature):
+    """Heat INTO the part through the side [W] per unit coefficient (m = 0 cos only)."""
     cyl = model.cylinder
     if not model.has_conductivity:
         return math.nan
@@ -327,6 +311,5 @@ def _wall_power(model, face, w, fixes, profile, m, is_sin, temperature):
         return 0.0
     if not temperature:  # the face function is the inflow flux itself
         mean = float(npoly.polyval(1.0, npoly.polyint(profile)))
-        return 2.0 * math.pi * cyl.wall_radius(face) * cyl.height * mean
-    own = w.power("side", model.k) * (-1.0 if face == "bore" else 1.0)
-    return own + sum(s.powers().get(face, 0.0) for s in fixes)
+        return 2.0 * math.pi * cyl.radius * cyl.height * mean
+    return w.power("side", model.k) + sum(s.powers().get("side", 0.0) for s in fixes)
