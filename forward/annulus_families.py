@@ -27,6 +27,10 @@ class AnnulusFamilies:
         self.height = cylinder.axial_length
         self.max_terms = 1 if cylinder.long else None  # per harmonic on a wall
 
+    def complete_terms(self, face):
+        """A long part's wall data (uniform in z) are carried exactly by the one axial mode."""
+        return 1 if (self.cylinder.long and is_wall(face)) else None
+
     def interval(self, face):
         cyl = self.cylinder
         return (0.0, self.height) if is_wall(face) else (cyl.inner_radius, cyl.radius)

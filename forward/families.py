@@ -23,6 +23,10 @@ class SolidFamilies:
     def __init__(self, cylinder: Cylinder, kinds: dict, conductivity: float):
         self.cylinder, self.kinds, self.k = cylinder, kinds, conductivity
 
+    def complete_terms(self, face):
+        """Terms per harmonic that carry the face's data exactly (no truncation), or None."""
+        return None
+
     def interval(self, face):
         """(lo, hi) [m] of the face coordinate s: r on an end face, z on the side."""
         cyl = self.cylinder

@@ -251,7 +251,7 @@ class CylinderModel:
             # harmonics relative to this face's own data (a tiny flux beside a large ambient
             # is kept); the truncation estimate relative to the field's temperature scale
             scale = sizes[face] or cond.homogeneous.datum_scale(k, span) * self.temperature_scale
-            n_cap = 1 if (cyl.long and is_wall(face)) else self.max_terms
+            n_cap = self.families.complete_terms(face) or self.max_terms
             s = KnownSeries(face, data, self.families, self.families.kinds, k, tol=tol,
                             scale=scale, field_scale=self.temperature_scale, n_start=min(32, n_cap),
                             n_cap=n_cap, max_harmonic=self.max_harmonic)

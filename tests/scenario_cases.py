@@ -398,7 +398,7 @@ SCENARIOS = {f.__name__: f for f in (platen_flux, top_temperature, wall_temperat
                                      semi_infinite, sparse_sector, chuck_class2,
                                      calibrated_convection, three_rings, three_rings_zones,
                                      wall_cooled_end, _hollow("tube_bore_temperature"),
-                                     _hollow("tube_bore_flux"))}
+                                     _hollow("tube_bore_flux"), _hollow("tube_cooled_end"))}
 NAMES = tuple(SCENARIOS)
 
 

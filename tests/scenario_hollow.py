@@ -239,7 +239,25 @@ def tube_bore_flux(seed=0, scale=1.0):
                   seed=seed, scale=scale, sigma=0.1)
 
 
-SCENARIOS = {f.__name__: f for f in (tube_bore_temperature, tube_bore_flux)}
+def tube_cooled_end(seed=0, scale=1.0):
+    """Unknown bore temperature of the same tube standing on a water-cooled base (bottom
+    convection h = 1500 W/(m^2 K) to 27 degC), weak convection at the top flange: the bore
+    rises from near the coolant at the bottom to about 200 degC over the heaters, a little
+    warmer on one side; 20 thermocouples 10 and 20 mm deep."""
+    def t(th, z):
+        return (320.0 + 150.0 * step(z - 0.06, 0.03) + 6.0 * np.cos(th - 1.0) * step(z - 0.1, 0.03))
+    phys = sf.Physics(B_OUT, LENGTH, K_STEEL, {"bottom": ("R", 1500.0, 300.15), "top": ("R",) + END_LOSS,
+                                               "side": ("N", heater_flux)},
+                      "bore", "temperature", dict(nr=16, nz=120, grade={"bottom": 3.0}), m_cap=12,
+                      inner_radius=A_IN)
+    layout = _layout((0.010, 0.020), 20, 0.01, 0.38, start=25.0)
+    zones = ([WallZone("cooled end", "bore", (0.0, TWO_PI), z=(0.0, 0.04)),
+              WallZone("heated length", "bore", (0.0, TWO_PI), z=(0.12, 0.40))])
+    return _build("tube_cooled_end", tube_cooled_end.__doc__, t, phys, layout, zones,
+                  seed=seed, scale=scale, sigma=0.1)
+
+
+SCENARIOS = {f.__name__: f for f in (tube_bore_temperature, tube_bore_flux, tube_cooled_end)}
 NAMES = tuple(SCENARIOS)
 
 
