@@ -60,7 +60,10 @@ class PlanRules:
 def default_drill_face(unknown_face: str, cylinder) -> str:
     """The face holes are drilled from when the case does not say: the end opposite an
     unknown end face (the side when that end does not exist), the top (bottom of a
-    semi-infinite part) for an unknown side."""
+    semi-infinite part) for an unknown side, the outer wall for an unknown bore or any face
+    of a long part."""
+    if unknown_face == "bore" or getattr(cylinder, "long", False):
+        return "side"
     semi = math.isinf(cylinder.height)
     if unknown_face == "bottom":
         return "side" if semi else "top"
@@ -73,6 +76,8 @@ def drill_face(rules: PlanRules, unknown_face: str, cylinder) -> str:
     face = rules.drill_face or default_drill_face(unknown_face, cylinder)
     if face not in DRILL_FACES:
         raise InverseError(f"holes are drilled from one of {', '.join(DRILL_FACES)}, got {face!r}")
+    if getattr(cylinder, "long", False) and face != "side":
+        raise InverseError("a long part is drilled from its outer wall (side): it has no end faces")
     if face == "top" and math.isinf(cylinder.height):
         raise InverseError("a semi-infinite part has no top face to drill from")
     return face
@@ -124,6 +129,8 @@ def admissible(rules: PlanRules, face: str, cylinder, r, theta, z, existing=None
     existing: (r, theta, z) of the sensors already in the part, or None."""
     r, theta, z = (np.atleast_1d(np.asarray(v, float)) for v in (r, theta, z))
     a, L = cylinder.radius, cylinder.height
+    a_i = getattr(cylinder, "inner_radius", 0.0)
+    long = getattr(cylinder, "long", False)
     reason = np.full(r.shape, "", dtype=object)
 
     def reject(bad, why):
@@ -131,10 +138,15 @@ def admissible(rules: PlanRules, face: str, cylinder, r, theta, z, existing=None
 
     depth = depth_of(face, cylinder, r, z)
     dmax = rules.depth_max if rules.depth_max is not None else np.inf
-    reject((r < 0) | (r > a) | (z < 0) | (z > L), "outside the part")
+    outside = (r < a_i) | (r > a) if long else (r < a_i) | (r > a) | (z < 0) | (z > L)
+    reject(outside, "outside the part")
     reject((depth < rules.depth_min) | (depth > dmax), "depth outside the allowed range")
-    to_face = np.minimum(a - r, z)
-    if math.isfinite(L):
+    to_face = a - r
+    if a_i > 0:
+        to_face = np.minimum(to_face, r - a_i)
+    if not long:
+        to_face = np.minimum(to_face, z)
+    if math.isfinite(L) and not long:
         to_face = np.minimum(to_face, L - z)
     reject(to_face < rules.face_distance, "too close to a face")
     reject(_in_ranges(theta, rules.exclude_theta, periodic=True), "in an excluded angular range")
@@ -151,13 +163,17 @@ def candidate_grid(rules: PlanRules, face: str, cylinder, existing=None):
     region: `along` positions across the face (r for end holes, z for side holes, cell
     centres), angles every `angle_step`, `depths` depths from depth_min to depth_max."""
     a, L = cylinder.radius, cylinder.height
+    a_i = getattr(cylinder, "inner_radius", 0.0)
     g = rules.face_distance
     if face == "side":
         top = L if math.isfinite(L) else 4.0 * a
         along = g + (top - 2 * g) * (np.arange(rules.along) + 0.5) / rules.along
-        deep = a - g
+        if getattr(cylinder, "long", False):
+            along = np.zeros(1)  # nothing varies along a long part
+        deep = a - a_i - g
     else:
-        along = (a - g) * (np.arange(rules.along) + 0.5) / rules.along
+        lo = a_i + g if a_i > 0 else 0.0
+        along = lo + (a - g - lo) * (np.arange(rules.along) + 0.5) / rules.along
         deep = (L if math.isfinite(L) else 4.0 * a) - g
     dmax = min(rules.depth_max if rules.depth_max is not None else deep, deep)
     dmin = max(rules.depth_min, g)

@@ -278,3 +278,24 @@ def test_other_parts_plan_inside_the_rules(kind):
     plan = pl.greedy(state, state.rows(*cand), 3, cand, rules.spacing)
     assert len(plan.picks) == 3 and np.all(np.diff(plan.sd, axis=0) <= 1e-9 * plan.sd[0])
     assert admissible(rules, face, cyl, *(c[plan.picks] for c in cand), existing)[0].all()
+
+
+def test_hollow_part_candidates_lie_in_the_wall():
+    """An unknown bore is planned from holes drilled radially from the outer wall; every
+    candidate sits in the wall, at least the face distance from both walls; a long part is
+    drilled from its outer wall only."""
+    tube = fw.Cylinder(0.08, 0.6, 45.0, inner_radius=0.05)
+    rules = PlanRules()
+    face = drill_face(rules, "bore", tube)
+    assert face == "side"
+    r, theta, z = candidate_grid(rules, face, tube)
+    assert r.size > 0
+    assert np.all(r >= 0.05 + rules.face_distance - 1e-12) and np.all(r <= 0.08 - rules.face_distance + 1e-12)
+    ok, why = admissible(rules, face, tube, [0.045, 0.065], [0.0, 0.0], [0.3, 0.3])
+    assert list(ok) == [False, True] and why[0] == "outside the part"
+    long = fw.Cylinder(0.08, math.inf, 45.0, inner_radius=0.05, long=True)
+    assert drill_face(rules, "bore", long) == "side"
+    with pytest.raises(inverse.InverseError, match="outer wall"):
+        drill_face(PlanRules(drill_face="top"), "bore", long)
+    r, theta, z = candidate_grid(rules, "side", long)
+    assert r.size > 0 and np.all(z == 0.0)
