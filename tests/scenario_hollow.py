@@ -248,7 +248,7 @@ def tube_cooled_end(seed=0, scale=1.0):
         return (320.0 + 150.0 * step(z - 0.06, 0.03) + 6.0 * np.cos(th - 1.0) * step(z - 0.1, 0.03))
     phys = sf.Physics(B_OUT, LENGTH, K_STEEL, {"bottom": ("R", 1500.0, 300.15), "top": ("R",) + END_LOSS,
                                                "side": ("N", heater_flux)},
-                      "bore", "temperature", dict(nr=16, nz=120, grade={"bottom": 3.0}), m_cap=12,
+                      "bore", "temperature", dict(nr=16, nz=120), m_cap=12,
                       inner_radius=A_IN)
     layout = _layout((0.010, 0.020), 20, 0.01, 0.38, start=25.0)
     zones = ([WallZone("cooled end", "bore", (0.0, TWO_PI), z=(0.0, 0.04)),
