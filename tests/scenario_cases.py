@@ -28,30 +28,13 @@ from heatsight.data_io.case import Zone
 from heatsight.data_io.tables import offset_sd
 
 import scenario_fem as sf
+from scenario_fem import band, sector, step  # noqa: F401  (the heater shapes)
 
 TWO_PI = 2.0 * math.pi
 BROKEN_OFFSET = 6.0  # K, a poor junction reading high (invented)
 #: layouts that do not resolve the face (no sharpness goal): one sector seen; offsets as
 #: large as the signal
 UNRESOLVED = frozenset({"sparse_sector", "chuck_class2"})
-
-
-# ------------------------------------------------------------------ heater shapes
-def step(x, width):
-    """Smooth unit step, 0 -> 1 over about 2 `width` around x = 0 (tanh edge)."""
-    return 0.5 * (1.0 + np.tanh(np.asarray(x, float) / width))
-
-
-def band(s, lo, hi, width):
-    """Smooth indicator of lo < s < hi (no lower edge when lo <= 0)."""
-    rise = 1.0 if lo <= 0 else step(s - lo, width)
-    return rise * step(hi - s, width)
-
-
-def sector(theta, centre, half, width):
-    """Smooth indicator of |theta - centre| < half (angles in rad, periodic)."""
-    d = np.abs(np.angle(np.exp(1j * (np.asarray(theta, float) - centre))))
-    return step(half - d, width)
 
 
 # ------------------------------------------------------------------ the scenario object

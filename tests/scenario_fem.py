@@ -34,6 +34,24 @@ REL_TOL = 1e-4         # harmonics below this fraction of the truth's range are 
 WALLS = ("side", "bore")
 
 
+# ------------------------------------------------------------------ heater shapes
+def step(x, width):
+    """Smooth unit step, 0 -> 1 over about 2 `width` around x = 0 (tanh edge)."""
+    return 0.5 * (1.0 + np.tanh(np.asarray(x, float) / width))
+
+
+def band(s, lo, hi, width):
+    """Smooth indicator of lo < s < hi (no lower edge when lo <= 0)."""
+    rise = 1.0 if lo <= 0 else step(s - lo, width)
+    return rise * step(hi - s, width)
+
+
+def sector(theta, centre, half, width):
+    """Smooth indicator of |theta - centre| < half (angles in rad, periodic)."""
+    d = np.abs(np.angle(np.exp(1j * (np.asarray(theta, float) - centre))))
+    return step(half - d, width)
+
+
 def face_coords(face, r, theta, z):
     """Face coordinates (u, v) of points on a face: (r, theta) on the ends, (theta, z) on
     the side and the bore."""

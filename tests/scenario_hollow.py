@@ -33,6 +33,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 import scenario_fem as sf
+from scenario_fem import band, sector, step
 
 TWO_PI = 2.0 * math.pi
 BROKEN_OFFSET = 6.0  # K, a poor junction reading high (invented)
@@ -44,23 +45,6 @@ HEATERS = ((0.060, 0.160), (0.240, 0.340))  # band heaters on the outer wall, z 
 Q_HEATER = 15_000.0                         # W/m^2 delivered by each band (invented)
 HEATER_EDGE = 0.003                         # m, smooth edge width of a band
 END_LOSS = (10.0, 298.15)                   # flange losses h [W/(m^2 K)], ambient [K]
-
-
-# ------------------------------------------------------------------ shapes
-def step(x, width):
-    """Smooth unit step, 0 -> 1 over about 2 `width` around x = 0 (tanh edge)."""
-    return 0.5 * (1.0 + np.tanh(np.asarray(x, float) / width))
-
-
-def band(s, lo, hi, width):
-    """Smooth indicator of lo < s < hi."""
-    return step(s - lo, width) * step(hi - s, width)
-
-
-def sector(theta, centre, half, width):
-    """Smooth indicator of |theta - centre| < half (angles in rad, periodic)."""
-    d = np.abs(np.angle(np.exp(1j * (np.asarray(theta, float) - centre))))
-    return step(half - d, width)
 
 
 def heater_flux(z):
