@@ -148,7 +148,6 @@ class KnownSeries:
             norm = modes.axial_norms()
         else:
             norm = modes.norms() / np.where(ms == 0, 2.0 * np.pi, np.pi)
-        self._data_integral = self._integral_of_data(modes)
         size = n - have
         for g, (mg, sg) in enumerate(self.parities):
             sl = slice(g * size, (g + 1) * size)
@@ -169,10 +168,13 @@ class KnownSeries:
                                           np.concatenate([b[0].is_sin for b in self._blocks]),
                                           np.concatenate([self._ev(b[0]) for b in self._blocks]))
 
-    def _integral_of_data(self, modes, panels=64, order=16):
+    def _integral_of_data(self, panels=64, order=16):
         """integral of the (residual) data over the face [data unit * m^2]: the m = 0
         amplitude on a composite Gauss rule (`panels` x `order` nodes), so data with kinks
-        (piecewise-linear profiles) integrate to ~1e-6 and not to a single rule's ~1e-3."""
+        (piecewise-linear profiles) integrate to ~1e-6 and not to a single rule's ~1e-3.
+        Computed once, on the first `powers()` (it does not depend on the terms)."""
+        if getattr(self, "_data_integral", None) is not None:
+            return self._data_integral
         lo, hi = self._interval()
         x, w = _gauss_unit(order)
         edges = np.linspace(lo, hi, panels + 1)
@@ -180,8 +182,9 @@ class KnownSeries:
         s = (edges[:-1, None] + half * (x[None, :] + 1.0)).ravel()
         w = (half * w[None, :]).ravel()
         amps_c, _ = harmonic_amplitudes(self._sample(s, theta_nodes(self.n_theta)), axis=1)
-        ring = w * s if not self.wall else w * modes.radius
-        return float(2.0 * np.pi * (ring @ amps_c[:, 0]))
+        ring = w * s if not self.wall else w * self.cylinder.wall_radius(self.face)
+        self._data_integral = float(2.0 * np.pi * (ring @ amps_c[:, 0]))
+        return self._data_integral
 
     def _ev(self, modes):
         return modes.mu if self.wall else modes.lam
@@ -295,7 +298,7 @@ class KnownSeries:
         if kind.kind == "D" or (0, False) not in self.parities or not rest:
             return out
         # k du/dn = d - (B[u] - k du/dn): the operator's non-derivative part (h u for 'R')
-        own = self._data_integral
+        own = self._integral_of_data()
         if kind.kind != "N":
             own -= kind.operator(float(self._face_temperature_integrals() @ self.coef), 0.0, self.k)
         out[self.face] = own
