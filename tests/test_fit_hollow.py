@@ -1,0 +1,63 @@
+"""Fits on hollow parts: the heater's power per metre of a long tube from two depths in its
+wall, with the fluid-side heat-transfer coefficient known or calibrated with a prior.
+
+Readings come from the tube-wall closed form (steady radial conduction, any heat-transfer
+textbook): a long tube with a uniform heater flux q on its outer wall and convection h to a
+fluid at T_f in its bore carries Q' = 2 pi b q per metre inward, so
+    T(r) = T_f + Q' / (2 pi a h) + Q' ln(r / a) / (2 pi k).
+"""
+
+import math
+
+import numpy as np
+import pytest
+
+import heatsight.forward as fw
+from heatsight import inverse
+
+A, B, K = 0.05, 0.08, 45.0
+Q, H_TRUE, T_FLUID = 6000.0, 900.0, 450.0
+
+
+def _closed_form(r):
+    """T(r) [K] of the long tube heated on its outer wall, cooled by the fluid in the bore."""
+    q_per_m = 2 * math.pi * B * Q
+    return T_FLUID + q_per_m / (2 * math.pi * A * H_TRUE) + q_per_m * np.log(r / A) / (2 * math.pi * K)
+
+
+THETA = np.radians(np.arange(0, 360, 30.0))
+R = np.where(np.arange(THETA.size) % 2, 0.056, 0.074)   # two depths in the wall [m]
+LONG = fw.Cylinder(B, math.inf, K, inner_radius=A, long=True)
+
+
+def _readings():
+    temp = _closed_form(R) + 0.05 * np.random.default_rng(5).standard_normal(R.size)
+    return inverse.SensorReadings([f"TC{i}" for i in range(R.size)], R, THETA, 0 * R, temp, 0.05, 0.0, 0.0)
+
+
+def test_series_is_the_closed_form_and_the_fit_with_known_h_recovers_the_heater():
+    model = fw.CylinderModel(LONG, {"side": fw.Flux(Q), "bore": fw.Convection(H_TRUE, T_FLUID)})
+    np.testing.assert_allclose(model.temperature(R, THETA, 0 * R), _closed_form(R), rtol=0, atol=1e-9)
+    case = type("Case", (), {"cylinder": LONG, "faces": {"side": fw.UnknownFlux(),
+                                                         "bore": fw.Convection(H_TRUE, T_FLUID)}})()
+    res = inverse.fit(case, _readings())
+    power = res.summary["total_power_W"]                                   # per metre on a long part
+    assert abs(power - 2 * math.pi * B * Q) <= 2 * res.summary["total_power_sd_W"]  # closed form
+
+
+@pytest.mark.xfail(strict=True, reason=(
+    "known limitation (issue 9, calibration's joint sd): h = 898 +- 1.6 W/(m^2 K) (truth 900) and "
+    "the heater 3008 +- 0.45 W/m against 3016 W/m (18 sd): when the calibrated h and the face's "
+    "level are nearly degenerate, the prior used during calibration pins the face's uniform mode "
+    "and the joint sd comes out ~60x too small (h known: 3015.5 +- 3.2 W/m)"))
+def test_fluid_side_h_calibrated_with_a_prior_on_a_long_tube():
+    """Unknown heater flux on the outer wall, bore convection with h calibrated from a prior
+    700 +- 300 W/(m^2 K): the truth 900 lies within 2 sd, and the heater's power per metre
+    within 2 sd of 2 pi b q."""
+    faces = {"side": fw.UnknownFlux(), "bore": fw.Convection(700.0, T_FLUID)}
+    case = type("Case", (), {"cylinder": LONG, "faces": faces})()
+    res = inverse.fit(case, _readings(), calibrate={("bore", "h"): (700.0, 300.0)})
+    cal = res.summary["calibrated"]["bore_h"]
+    assert abs(cal["value"] - H_TRUE) <= 2 * cal["sd"], cal               # closed form's h
+    power = res.summary["total_power_W"]                                   # per metre on a long part
+    assert abs(power - 2 * math.pi * B * Q) <= 2 * res.summary["total_power_sd_W"]
