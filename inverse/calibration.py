@@ -20,6 +20,22 @@ from .lmfit_solver import fit_lmfit
 
 #: central-difference step of a calibrated parameter, relative to its sd (common practice, no source)
 STEP_IN_SD = 0.05
+#: the nominal level's prior precision during calibration, at most this share of what the
+#: readings themselves say about it (so a large strength cannot pin the level)
+NOMINAL_SHARE = 1e-6
+
+
+def flat_nominal(P, u, problem, alpha):
+    """P with the nominal direction u's precision capped at NOMINAL_SHARE x the readings'
+    information on it, u^T G^T S^-1 G u / alpha: its level stays set by the readings at any
+    strength.  A calibrated h and the face's level can be nearly degenerate (an unknown
+    heater flux and the fluid-side h of a tube): a prior that holds the level holds h with it,
+    and both sd come out as if the other were known."""
+    g = problem.noise.whiten(problem.G @ u)
+    cap = NOMINAL_SHARE * float(g @ g) / max(alpha, 1e-300)
+    out = np.array(P, float)
+    out[u > 0] = np.minimum(out[u > 0], cap)
+    return out
 
 
 @dataclass
@@ -109,6 +125,9 @@ def calibrate(design, rd, kept, problem, alpha, P, spec) -> Calibration:
     def design_fn(values):
         return rebuild([values[n] for n in names]).sensors(sub.r, sub.theta, sub.z)
 
+    from .design import nominal_direction
+
+    P = flat_nominal(P, nominal_direction(design.basis), problem, alpha)
     lf = fit_lmfit(design_fn, params, problem.d, problem.noise, P, alpha, c0=problem.c0,
                    priors=priors or None)
     values = np.array([lf.values[n] for n in names], float)
