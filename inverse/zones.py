@@ -241,13 +241,6 @@ class ZoneModel:
         return ZoneFit(mean, cov, alpha, logz, {"smooth": 1.0 - p_z, "zones": p_z}, edge)
 
 
-    def _joint(self, idx):
-        """(H, b0, x0): X^T S^-1 X, X^T S^-1 (d - t0), prior mean of (c, z) on sensors idx."""
-        smooth = self.smooth.subset(idx)
-        X = np.hstack([smooth.G, self.Gz[idx]])
-        XtSi = smooth.noise.whiten_transpose(smooth.noise.whiten(X)).T
-        return XtSi @ X, XtSi @ (smooth.d - smooth.t0), np.concatenate([np.zeros(self.P.size), self.mu])
-
     def remainder_spread(self, idx) -> float:
         """Whitened mean square of the readings beyond the noise after the zone levels' own
         generalized-least-squares fit (with their weak prior): the signal the remainder carries,
@@ -259,30 +252,35 @@ class ZoneModel:
         z = np.linalg.solve(Wz.T @ Wz + np.diag(1.0 / self.s ** 2), Wz.T @ y)
         return float(np.mean((y - Wz @ z) ** 2)) - 1.0
 
+    def _levels_given_remainder(self, idx):
+        """(a, K, D^-1): the zone levels' posterior given the remainder c on sensors idx,
+        z | c ~ N(a - K c, D^-1), D = Gz^T S^-1 Gz + diag(1 / s^2),
+        a = D^-1 (Gz^T S^-1 (d - t0) + mu / s^2), K = D^-1 Gz^T S^-1 G (the same for every
+        strength and hyperparameter of the remainder's prior)."""
+        smooth = self.smooth.subset(idx)
+        Wz, Wg = smooth.noise.whiten(self.Gz[idx]), smooth.noise.whiten(smooth.G)
+        yw = smooth.noise.whiten(smooth.d - smooth.t0)
+        Dinv = np.linalg.inv(Wz.T @ Wz + np.diag(1.0 / self.s ** 2))
+        Dinv = 0.5 * (Dinv + Dinv.T)
+        return Dinv @ (Wz.T @ yw + self.mu / self.s ** 2), Dinv @ (Wz.T @ Wg), Dinv
+
     def learned_fit(self, kept, basis, nominal, nominal_factor) -> "ZoneFit":
         """Posterior of (c, z) with the remainder's Whittle-Matern prior learned from the data
         (hyperprior.LearnedPrior on the marginal problem: strength, length scale and order
         averaged with their hyperpriors), moment-matched over the mixture's components.
+        Exactly: c's mixture is the marginal problem's (the zone levels integrated out), and
+        z = a - K c + N(0, D^-1) in every component (_levels_given_remainder), so
+        E z = a - K E c, Cov(z, c) = -K Cov c, Cov z = D^-1 + K Cov c K^T.
         log_evidence holds {"zones": log p(d_kept | zone model)} integrated over the
         hyperpriors; the comparison with the smooth model is model_choice's (weights None)."""
         idx = np.flatnonzero(kept)
         lp = learn_prior(self.marginal.subset(idx), basis, nominal=nominal, nominal_factor=nominal_factor,
                          spread=self.remainder_spread(idx))
-        H, b0, x0 = self._joint(idx)
-        zprec = 1.0 / self.s ** 2
-        means, covs, ws, log_a = [], [], [], []
-        for P, alphas, w in lp.components():
-            for a, wi in zip(alphas, w):
-                prec = np.concatenate([a * P, zprec])
-                C = np.linalg.inv(H + np.diag(prec))
-                C = 0.5 * (C + C.T)
-                means.append(C @ (b0 + prec * x0))
-                covs.append(C * wi)
-                ws.append(wi)
-                log_a.append(math.log(a))
-        wk = np.asarray(ws) / np.sum(ws)
-        M = np.array(means)
-        mean = wk @ M
-        cov = sum(covs) / np.sum(ws) + (M - mean).T @ ((M - mean) * wk[:, None])
-        return ZoneFit(mean, cov, float(np.exp(wk @ np.asarray(log_a))), {"zones": float(lp.log_marginal)},
+        a, Kmap, Dinv = self._levels_given_remainder(idx)
+        c, Cc = lp.coefficients(), lp.posterior_covariance()
+        KC = Kmap @ Cc
+        mean = np.concatenate([c, a - Kmap @ c])
+        cov = np.block([[Cc, -KC.T], [-KC, Dinv + KC @ Kmap.T]])
+        log_a = sum(float(w @ np.log(alphas)) for _, alphas, w in lp.hyperparameters())
+        return ZoneFit(mean, 0.5 * (cov + cov.T), math.exp(log_a), {"zones": float(lp.log_marginal)},
                        None, False, lp)

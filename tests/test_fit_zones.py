@@ -232,3 +232,43 @@ def test_evidence_keeps_the_smooth_model_on_a_smooth_truth():
     print(f"\ndemo: {res.raw.summary['model_weights']}")
     assert res.raw.summary["model"] == "smooth"
     assert res.raw.summary["model_weights"]["smooth"] >= 0.95
+
+
+def test_learned_zone_posterior_equals_the_componentwise_joint_solve(readings, monkeypatch):
+    """The zone model's learned posterior (c, z) from the remainder's mixture and the zone
+    levels' conditional (zones.ZoneModel.learned_fit) against the direct route: the joint
+    posterior of (c, z) solved for every (sigma_f, l, s, rho) component, then moment-matched."""
+    from heatsight.inverse import zones as zm
+    seen = {}
+    original = zm.ZoneModel.learned_fit
+
+    def spy(self, kept, *args):
+        seen["model"], seen["kept"] = self, kept
+        seen["fit"] = out = original(self, kept, *args)
+        return out
+
+    monkeypatch.setattr(zm.ZoneModel, "learned_fit", spy)
+    with threadpool_limits(1):
+        inverse.fit(case(), readings[0], model="zones", grid=(6, 12))
+    model, fit = seen["model"], seen["fit"]
+    idx = np.flatnonzero(seen["kept"])
+    smooth = model.smooth.subset(idx)
+    X = np.hstack([smooth.G, model.Gz[idx]])
+    W = smooth.noise.whiten(X)
+    H, b0 = W.T @ W, W.T @ smooth.noise.whiten(smooth.d - smooth.t0)
+    x0 = np.concatenate([np.zeros(model.P.size), model.mu])
+    means, covs, ws = [], [], []
+    for P, alphas, w in fit.prior.components():
+        for a, wi in zip(alphas, w):
+            prec = np.concatenate([a * P, 1.0 / model.s ** 2])
+            C = np.linalg.inv(H + np.diag(prec))
+            means.append(C @ (b0 + prec * x0))
+            covs.append(wi * C)
+            ws.append(wi)
+    ws = np.asarray(ws) / np.sum(ws)
+    M = np.array(means)
+    mean = ws @ M
+    cov = sum(covs) / sum(w.sum() for _, _, w in fit.prior.components()) + (M - mean).T @ ((M - mean) * ws[:, None])
+    scale = np.sqrt(np.diag(cov))
+    np.testing.assert_allclose(fit.c, mean, atol=1e-6 * float(np.max(np.abs(mean))))
+    np.testing.assert_allclose(fit.C / np.outer(scale, scale), cov / np.outer(scale, scale), atol=1e-6)
