@@ -65,7 +65,10 @@ def mixture_band(weights, means, sds, level: float = 0.95):
                 break
         return x
 
-    return quantile(0.5 * (1 - level)), quantile(0.5 * (1 + level))
+    lower, upper = quantile(0.5 * (1 - level)), quantile(0.5 * (1 + level))
+    # a pinned point (every component's sd ~ 0, means equal to round-off) may come out with
+    # the two limits crossed by ~1e-13: the lower quantile never exceeds the upper one
+    return np.minimum(lower, upper), np.maximum(lower, upper)
 
 
 class StrengthAverage:
