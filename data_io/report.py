@@ -181,6 +181,11 @@ def _prior_text(prior: dict) -> str:
         if isinstance(ls90, (list, tuple)) and len(ls90) == 2 and all(_finite(x) for x in ls90):
             parts[-1] += (f" (90 % range {sig(from_si(ls90[0], 'length', 'mm'), 2)} to "
                           f"{sig(from_si(ls90[1], 'length', 'mm'), 2)} mm)")
+    ratios = prior.get("axisymmetric_ratio_weights") or {}
+    if len(ratios) > 1:
+        best = max(ratios, key=ratios.get)
+        parts.append(f"the axisymmetric part (rings, bands) {best} times as strong as the rest "
+                     f"(probability {ratios[best]:.2f})")
     if prior.get("hyperprior_dominated"):
         parts.append("the size of the departures from the nominal profile is set by the prior, not the readings")
     return "; ".join(parts) or ", ".join(f"{k}" for k in prior)

@@ -1,21 +1,25 @@
-"""Prior with learned hyperparameters: strength, length scale and smoothness order.
+"""Prior with learned hyperparameters: strength, length scale, smoothness order and the
+axisymmetric amplitude ratio.
 
 Family (a Whittle-Matern form in the face eigenbasis):
 
-    c ~ N(c0, (alpha P(l, s))^-1),   P_k(l, s) = (N_k / A) (1 + l^2 ev_k)^s,
+    c ~ N(c0, (alpha P(l, s, rho))^-1),   P_k(l, s, rho) = (N_k / A) (1 + l^2 ev_k)^s / rho_k^2,
 
 N_k = integral Phi_k^2 dA [m^2], A = face area [m^2], ev_k = surface eigenvalue [1/m^2],
-l = length scale [m], s = smoothness order. The nominal direction (the fitted level of the
+l = length scale [m], s = smoothness order, rho_k = rho for the axisymmetric modes (m = 0)
+and 1 for the others: rho is the axisymmetric amplitude ratio, the sd of the face's
+axisymmetric part (its radial profile on an end face, its axial profile on a wall) relative
+to a stationary field's. The nominal direction (the fitted level of the
 nominal profile) keeps its nearly flat prior: its P_k is multiplied by `nominal_factor`.
 The strength is written through the amplitude sigma_f [face unit]:
 
-    sigma_f^2 = (1 / alpha) sum_k' 1 / w_k,   w_k = (1 + l^2 ev_k)^s,
+    sigma_f^2 = (1 / alpha) sum_k' 1 / w_k,   w_k = (1 + l^2 ev_k)^s / rho_k^2,
 
 (k' = all but the nominal direction) = the prior mean square of the face's deviation from
-the nominal profile over the face, so that sigma_f means the same thing for every (l, s).
+the nominal profile over the face, so that sigma_f means the same thing for every (l, s, rho).
 
 Hyperpriors (proper, weakly informative):
-- log sigma_f ~ N(log sigma_ref(l, s), LOG_AMPLITUDE_SD^2), LOG_AMPLITUDE_SD = ln(10) / 4
+- log sigma_f ~ N(log sigma_ref(l, s, rho), LOG_AMPLITUDE_SD^2), LOG_AMPLITUDE_SD = ln(10) / 4
   (95 % of the mass within a factor 3 of sigma_ref). sigma_ref is the amplitude whose
   prior-predictive whitened signal variance, averaged over the sensors, equals
   max(mean(y^2) - 1, 1): the readings' whitened spread about the nominal profile beyond the
@@ -32,6 +36,16 @@ Hyperpriors (proper, weakly informative):
 - log l uniform on [D / 20, 4 D], D = the face's size (the radius for an end face, the
   larger of radius and height for the side): from well below the sensor spacing of any
   practical layout to smoother than the face itself.
+- log2 rho ~ N(1, 2^2) on the points rho = 2^-3 ... 2^7 (AXISYMMETRIC_RATIOS, weights
+  normalized over the points; the outer points lie 2 and 3 sd out). Heaters are mostly rings and
+  bands, so a face's profile along its radius (or its height) usually varies more than it
+  does around the axis; one stationary amplitude learned from both is too large for the
+  angular part and too small for the axisymmetric one. Measured on the one-sector platen
+  with four sensors added under the cooled top (bench/plan.py, seed 0): with rho = 1 the
+  total power was 624.3 +- 6.5 W against 604.7 W (3.0 sd), the fit carrying the ring
+  heater's radial edge out to the insulated rim in every direction; the evidence rises with
+  rho (log p(d) -38.4, -37.4, -36.6, -36.1 at rho = 1, 2, 3, 5) and at rho = 5 the power is
+  606.3 +- 5.4 W (0.3 sd). Skipped where the face has no free axisymmetric mode (a long tube).
 - s uniform on {0.5, 1, 1.5, 2}. Measured choice: orders up to 5 sharpen the bands on smooth
   finite-element truths further (side wall RMS error 0.15 K against 0.37 K), but the data
   then prefer the smoothest orders and zone means become overconfident where the truth has
@@ -40,10 +54,10 @@ Hyperpriors (proper, weakly informative):
   seeds with orders {1..5}, 1.7-1.96 with {0.5, 1, 1.5, 2}. (s = 0, white noise on the
   face, is left out: its amplitude grows with the number of modes kept.)
 
-The evidence p(d | alpha, l, s) comes from one SVD per (l, s) (LinearGaussianProblem); the
+The evidence p(d | alpha, l, s, rho) comes from one SVD per (l, s, rho) (LinearGaussianProblem); the
 amplitude is integrated on a grid in log sigma_f that is extended until both edges carry a
 negligible weight, so no answer depends on where that grid ends. The posterior of c is the
-mixture sum_i w_i N(c_i, C_i) over (sigma_f, l, s) with weights evidence x hyperprior.
+mixture sum_i w_i N(c_i, C_i) over (sigma_f, l, s, rho) with weights evidence x hyperprior.
 """
 
 from __future__ import annotations
@@ -62,12 +76,15 @@ LOG_AMPLITUDE_SD = math.log(10.0) / 4.0
 LENGTH_RANGE = (1.0 / 20.0, 4.0)      # times the face size D
 N_LENGTHS = 9
 ORDERS = (0.5, 1.0, 1.5, 2.0)
+#: grid of the axisymmetric ratio rho (powers of 2) and its hyperprior: log2 rho ~ N(centre, sd^2)
+AXISYMMETRIC_RATIOS = tuple(2.0 ** k for k in range(-2, 5))
+RATIO_LOG2_CENTRE, RATIO_LOG2_SD = 1.0, 1.0
 #: grid step in units of LOG_AMPLITUDE_SD, starting half-width, and the weight (relative to
 #: the largest) below which an edge of the amplitude grid counts as negligible
 STEP, HALF_WIDTH, EDGE = 0.1, 5.0, 1e-9
 #: components whose weights sum to less than this are dropped from the mixture
 TAIL = 1e-3
-#: for pointwise bands over many points, neighbouring amplitudes of one (l, s) are merged
+#: for pointwise bands over many points, neighbouring amplitudes of one (l, s, rho) are merged
 #: (moment-matched) until about this many components remain: neighbours differ by a few
 #: per cent in sd, so the 95 % limits move by about 1 % of the sd (demo: 0.8 %; tests)
 BAND_COMPONENTS = 256
@@ -91,9 +108,25 @@ def face_size(basis) -> float:
     return cyl.radius
 
 
-def matern_precision(basis, length, order) -> np.ndarray:
-    """P_k = (N_k / A) (1 + l^2 ev_k)^s (dimensionless), l [m], s >= 0."""
-    return basis.norms() / face_area(basis) * (1.0 + length ** 2 * basis.surface_eigenvalues()) ** order
+def _weights(ev, axis, length, order, axisymmetric):
+    w = (1.0 + length ** 2 * ev) ** order
+    return w if axisymmetric == 1.0 else w / np.where(axis, axisymmetric ** 2, 1.0)
+
+
+def axisymmetric_modes(basis) -> np.ndarray:
+    """Mask (K,) of the axisymmetric eigenfunctions (m = 0; corner columns excluded)."""
+    return (basis.m == 0) & (np.arange(basis.m.size) < getattr(basis, "n_eigen", basis.m.size))
+
+
+def matern_weights(basis, length, order, axisymmetric=1.0) -> np.ndarray:
+    """w_k = (1 + l^2 ev_k)^s / rho_k^2 (dimensionless), rho_k = rho on the axisymmetric
+    eigenfunctions, else 1."""
+    return _weights(basis.surface_eigenvalues(), axisymmetric_modes(basis), length, order, axisymmetric)
+
+
+def matern_precision(basis, length, order, axisymmetric=1.0) -> np.ndarray:
+    """P_k = (N_k / A) w_k (dimensionless), l [m], s >= 0, rho > 0 (matern_weights)."""
+    return basis.norms() / face_area(basis) * matern_weights(basis, length, order, axisymmetric)
 
 
 def merge_neighbours(w, means, sds, group):
@@ -116,7 +149,7 @@ def _weighted_quantiles(x, w, q):
 
 
 class LearnedPrior:
-    """Posterior averaged over (sigma_f, l, s); same interface as StrengthAverage.
+    """Posterior averaged over (sigma_f, l, s, rho); same interface as StrengthAverage.
 
     problem: the LinearGaussianProblem of the fit (its prior mean c0, readings and noise are
     kept; its prior precision is replaced by the family). basis: the unknown-face basis
@@ -125,7 +158,7 @@ class LearnedPrior:
     """
 
     def __init__(self, problem: LinearGaussianProblem, basis, nominal=None, nominal_factor: float = 1.0,
-                 lengths=None, orders=None, spread=None):
+                 lengths=None, orders=None, spread=None, ratios=None):
         a = face_size(basis)
         self.length_range = (LENGTH_RANGE[0] * a, LENGTH_RANGE[1] * a)
         self.lengths = (np.geomspace(*self.length_range, N_LENGTHS) if lengths is None
@@ -136,24 +169,34 @@ class LearnedPrior:
         K = problem.K
         nominal = np.zeros(K, dtype=bool) if nominal is None else np.asarray(nominal, dtype=bool)
         free = ~nominal
+        ratios = AXISYMMETRIC_RATIOS if ratios is None else ratios
+        axis = axisymmetric_modes(basis)
+        self.ratios = tuple(float(x) for x in ratios) if np.any(free & axis) else (1.0,)
         Gw = problem.noise.whiten(problem.G)
         if spread is None:
             spread = float(np.mean(problem.y ** 2)) - 1.0
         spread = max(float(spread), 1.0)
         self.problem = problem
+        ev, scale = basis.surface_eigenvalues(), basis.norms() / face_area(basis)
         combos, problems, log_ref, T = [], [], [], []
-        for s in self.orders:
-            for l in self.lengths:
-                wk = (1.0 + l ** 2 * basis.surface_eigenvalues()) ** s
-                t = float(np.sum(1.0 / wk[free]))
-                P = matern_precision(basis, l, s)
-                P[nominal] *= nominal_factor
-                unit_signal = float(np.mean((Gw[:, free] ** 2) @ (1.0 / (P[free] * t))))
-                combos.append((l, s))
-                problems.append(problem.with_prior(P))
-                log_ref.append(0.5 * math.log(spread / unit_signal))
-                T.append(t)
+        for rho in self.ratios:
+            for s in self.orders:
+                for l in self.lengths:
+                    w = _weights(ev, axis, l, s, rho)
+                    t = float(np.sum(1.0 / w[free]))
+                    P = scale * w                   # matern_precision(basis, l, s, rho)
+                    P[nominal] *= nominal_factor
+                    unit_signal = float(np.mean((Gw[:, free] ** 2) @ (1.0 / (P[free] * t))))
+                    combos.append((l, s, rho))
+                    problems.append(problem.with_prior(P))
+                    log_ref.append(0.5 * math.log(spread / unit_signal))
+                    T.append(t)
         self.combos, self._problems = combos, problems
+        # log hyperprior mass of each (l, s, rho) point: uniform over (l, s), log2 rho normal
+        lr = -0.5 * ((np.log2(self.ratios) - RATIO_LOG2_CENTRE) / RATIO_LOG2_SD) ** 2
+        lr -= math.log(np.sum(np.exp(lr)))
+        self.combo_log_prior = np.repeat(lr, len(self.orders) * self.lengths.size) - math.log(
+            len(self.orders) * self.lengths.size)
         self._log_ref, self._T = np.array(log_ref), np.array(T)
         self._integrate()
         self._prune()
@@ -163,12 +206,12 @@ class LearnedPrior:
         """log of evidence x hyperprior on the grid z = (log sigma_f - log sigma_ref) / LOG_AMPLITUDE_SD.
 
         Shape (combos, z). The hyperprior density of log sigma_f is N(z; 0, 1) / LOG_AMPLITUDE_SD
-        (the same Jacobian for every combo), l and s are uniform over their points.
+        (the same Jacobian for every combo); (l, s, rho) carry combo_log_prior.
         """
         out = np.empty((len(self.combos), zgrid.size))
         for j, pb in enumerate(self._problems):
             alphas = self.alphas_for(j, zgrid)
-            out[j] = pb.log_evidence(alphas) - 0.5 * zgrid ** 2
+            out[j] = pb.log_evidence(alphas) - 0.5 * zgrid ** 2 + self.combo_log_prior[j]
         return out
 
     def alphas_for(self, j, z):
@@ -191,9 +234,7 @@ class LearnedPrior:
         self.z = z
         self.log_weights = lw
         # log of the marginal likelihood p(d) integrated over the hyperpriors (trapezoid in z)
-        n_combo = len(self.combos)
-        self.log_marginal = float(top + math.log(np.sum(np.exp(lw - top)) * STEP / n_combo)
-                                  - 0.5 * math.log(2 * math.pi))
+        self.log_marginal = float(top + math.log(np.sum(np.exp(lw - top)) * STEP) - 0.5 * math.log(2 * math.pi))
         w = np.exp(lw - top)
         self.weights = w / w.sum()
         self.edge_weight = float(max(self.weights[:, 0].sum(), self.weights[:, -1].sum()))
@@ -224,7 +265,8 @@ class LearnedPrior:
         return [(pb.prior_diag, a, w) for pb, a, w in self._parts]
 
     def hyperparameters(self):
-        """[((length [m], order), alphas (n_i,), weights (n_i,))] of the mixture's components."""
+        """[((length [m], order, axisymmetric ratio), alphas (n_i,), weights (n_i,))] of the
+        mixture's components."""
         return [(ls, a, w) for ls, (_, a, w) in zip(self._part_combos, self._parts)]
 
     def posterior_covariance(self) -> np.ndarray:
@@ -241,7 +283,7 @@ class LearnedPrior:
 
     def _components(self, B, offset, limit=None):
         """Weights (m,), means and sds (m, q) of the mixture's components for offset + B c;
-        with `limit`, neighbouring amplitudes of one (l, s) are merged (merge_neighbours)."""
+        with `limit`, neighbouring amplitudes of one (l, s, rho) are merged (merge_neighbours)."""
         means, sds, ws = [], [], []
         n_total = sum(a.size for _, a, _ in self._parts)
         group = 1 if limit is None else max(1, math.ceil(n_total / limit))
@@ -284,8 +326,8 @@ class LearnedPrior:
     # ------------------------------------------------------------------ what the data chose
     def _marginals(self):
         n_l = self.lengths.size
-        by_combo = self.weights.sum(axis=1).reshape(len(self.orders), n_l)
-        return by_combo.sum(axis=0), by_combo.sum(axis=1)
+        by_combo = self.weights.sum(axis=1).reshape(len(self.ratios), len(self.orders), n_l)
+        return by_combo.sum(axis=(0, 1)), by_combo.sum(axis=(0, 2)), by_combo.sum(axis=(1, 2))
 
     def amplitude_posterior(self):
         """(posterior mean, sd) of z = (log sigma_f - log sigma_ref) / LOG_AMPLITUDE_SD; prior N(0, 1)."""
@@ -299,7 +341,7 @@ class LearnedPrior:
         scale pressed against an end of its range. (An amplitude the data cannot fix is
         `description()['hyperprior_dominated']`, reported by inverse.resolution.)"""
         out = []
-        w_l, _ = self._marginals()
+        w_l = self._marginals()[0]
         if self.lengths.size >= 4:
             for end, mass in (("shortest", w_l[:2].sum()), ("longest", w_l[-2:].sum())):
                 if mass > 0.6:
@@ -310,9 +352,9 @@ class LearnedPrior:
 
     def description(self) -> dict:
         """What the data chose, for summary.json: length scale mode and 90 % range [m], order
-        weights, 90 % ranges of alpha and of the amplitude sigma_f [face unit], and how far
+        and axisymmetric-ratio weights, 90 % ranges of alpha and of the amplitude sigma_f [face unit], and how far
         the amplitude's posterior narrowed its prior."""
-        w_l, w_s = self._marginals()
+        w_l, w_s, w_r = self._marginals()
         ll = np.log(self.lengths)
         l90 = np.exp(_weighted_quantiles(ll, w_l, (0.05, 0.95))) if self.lengths.size > 1 else \
             np.repeat(self.lengths, 2)
@@ -330,6 +372,7 @@ class LearnedPrior:
             "length_scale_90_m": [float(l90[0]), float(l90[1])],
             "length_scale_hyperprior_m": [float(self.length_range[0]), float(self.length_range[1])],
             "order_weights": {f"{s:g}": float(w) for s, w in zip(self.orders, w_s)},
+            "axisymmetric_ratio_weights": {f"{x:g}": float(w) for x, w in zip(self.ratios, w_r)},
             "strength_90": [float(a90[0]), float(a90[1])],
             "amplitude_median": float(s90[1]), "amplitude_90": [float(s90[0]), float(s90[2])],
             "amplitude_posterior_over_prior_spread": zsd,

@@ -20,7 +20,7 @@ every target counts as one whatever its unit.  Each step costs O(K N) for N cand
 
 Which covariance (hyperparameters): a fit with the learned prior (hyperprior.py) is a
 mixture over amplitude, length scale and order; the planner takes its DOMINANT component
-(the (sigma_f, l, s) grid point of largest posterior weight), one Gaussian whose C is
+(the (sigma_f, l, s, rho) grid point of largest posterior weight), one Gaussian whose C is
 updated exactly, so a planned sd equals the sd of a refit with that sensor at those
 hyperparameters to round-off.  An alpha-averaged fit (fixed prior) likewise takes its
 dominant alpha; a fit at one strength takes it.  The zone model and a fit with calibrated
@@ -157,16 +157,16 @@ def _pad(targets, extra):
 # ------------------------------------------------------------------------------ the covariance
 def dominant_component(posterior, problem):
     """(LinearGaussianProblem, alpha, weight, text) of the component the planner uses: for a
-    learned prior the (length scale, order) of largest posterior weight (summed over the
+    learned prior the (length scale, order, axisymmetric ratio) of largest posterior weight (summed over the
     amplitude) at its amplitude of largest weight."""
     avg = posterior.averaged
     parts = getattr(avg, "_parts", None)
-    if parts:                                    # learned prior: (problem, alphas, weights) per (l, s)
-        pb, a, w = max(parts, key=lambda p: float(np.sum(p[2])))    # the (l, s) of largest weight
+    if parts:                                    # learned prior: (problem, alphas, weights) per (l, s, rho)
+        pb, a, w = max(parts, key=lambda p: float(np.sum(p[2])))    # the (l, s, rho) of largest weight
         i = int(np.argmax(w))                                        # its amplitude of largest weight
-        length, order = avg.combos[avg._problems.index(pb)]
+        length, order, rho = avg.combos[avg._problems.index(pb)]
         text = (f"the learned prior's dominant hyperparameters: length scale {length * 1e3:.3g} mm, order "
-                f"{order:g} (weight {float(np.sum(w)):.2f}), strength {a[i]:.3g}")
+                f"{order:g}, axisymmetric ratio {rho:g} (weight {float(np.sum(w)):.2f}), strength {a[i]:.3g}")
         return pb, float(a[i]), float(np.sum(w)), text
     if avg is not None and hasattr(avg, "alpha_mixture"):
         a, w = avg.alpha_mixture()

@@ -6,11 +6,11 @@ and a fit that assumes those modes are zero explains their signal with the kept 
 biased zone means and power with confident bands, and healthy sensors that look broken.
 Under the prior family of the fit (hyperprior.py) the left-out modes k are independent,
 
-    c_k ~ N(0, 1 / (alpha P_k(l, s))),   P_k = (N_k / A) (1 + l^2 ev_k)^s,
+    c_k ~ N(0, 1 / (alpha P_k(l, s, rho))),   P_k = (N_k / A) (1 + l^2 ev_k)^s / rho_k^2,
 
 so their signal at the sensors is Gaussian with covariance
 
-    S_tail = G_tail diag(v) G_tail^T,   v_k = E[1 / (alpha P_k(l, s))]  [K^2],
+    S_tail = G_tail diag(v) G_tail^T,   v_k = E[1 / (alpha P_k(l, s, rho))]  [K^2],
 
 the expectation over the hyperparameters' posterior. The fit adds S_tail to the noise.
 G_tail: the fields of an enlarged basis's eigenfunctions that the fit's basis does not keep,
@@ -70,8 +70,8 @@ def _tail_parts(design, r, theta, z, prior):
     if not mask.any():
         return np.zeros((np.size(r), 0)), v
     G = big.fields(r, theta, z)[0][:, :big.n_eigen][:, mask]
-    for (length, order), alphas, w in prior.hyperparameters():
-        v += float(w @ (1.0 / alphas)) / matern_precision(big, length, order)[:big.n_eigen][mask]
+    for (length, order, rho), alphas, w in prior.hyperparameters():
+        v += float(w @ (1.0 / alphas)) / matern_precision(big, length, order, rho)[:big.n_eigen][mask]
     return G, v
 
 

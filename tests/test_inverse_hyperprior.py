@@ -1,4 +1,4 @@
-"""Learned prior (inverse.hyperprior): evidence over (alpha, l, s) against brute force.
+"""Learned prior (inverse.hyperprior): evidence over (alpha, l, s, rho) against brute force.
 
 The readings here only feed the evidence identities (any d would do); they come from a
 smooth closed-form temperature field plus seeded noise, not from the fit's basis.
@@ -43,10 +43,12 @@ def test_log_evidence_matches_multivariate_normal_density():
     # nominal factor 1: a nearly flat direction would make the dense reference lose digits
     basis, prob, nominal = make()
     lp = learn_prior(prob, basis, nominal, 1.0)
-    for j in (0, 7, 12):      # (l, s) points whose predictive covariance scipy can factor
+    n_ls = lp.lengths.size * len(lp.orders)
+    # (l, s, rho) points whose predictive covariance scipy can factor, at rho = 1/2, 1 and 8
+    for j in (0, 7, 12, n_ls + 7, 4 * n_ls + 12):
         pb = lp._problems[j]
-        l, s = lp.combos[j]
-        P = matern_precision(basis, l, s)
+        l, s, rho = lp.combos[j]
+        P = matern_precision(basis, l, s, rho)
         np.testing.assert_allclose(pb.prior_diag, P, rtol=1e-12)
         for z in (-2.0, 0.0, 1.0):
             alpha = float(lp.alphas_for(j, z))
@@ -65,7 +67,7 @@ def test_amplitude_integral_matches_quad():
         def dens(z):
             # evidence x N(z; 0, 1): the amplitude hyperprior in z = log-amplitude / LOG_AMPLITUDE_SD
             return math.exp(pb.log_evidence(float(lp.alphas_for(j, z))) - lp.log_marginal
-                            - 0.5 * z * z) / math.sqrt(2 * math.pi)
+                            - 0.5 * z * z + lp.combo_log_prior[j]) / math.sqrt(2 * math.pi)
 
         # scipy.integrate reference; beyond |z| = 40 the N(0, 1) hyperprior is below 1e-300
         val, err = integrate.quad(dens, -40.0, 40.0, limit=400, points=(-5.0, 0.0, 5.0))
@@ -73,8 +75,9 @@ def test_amplitude_integral_matches_quad():
         # abs: quad's own accuracy on (l, s) points carrying ~1e-9 of the weight
         assert grid.sum() == pytest.approx(val, rel=1e-6, abs=1e-7)
         total += val
-    # marginal likelihood over (sigma_f, l, s) with uniform weights on the (l, s) points
-    assert total / len(lp.combos) == pytest.approx(1.0, rel=1e-6)
+    # marginal likelihood over (sigma_f, l, s, rho) with the hyperprior's mass on the (l, s, rho) points
+    assert np.exp(lp.combo_log_prior).sum() == pytest.approx(1.0, rel=1e-12)
+    assert total == pytest.approx(1.0, rel=1e-6)
 
 
 def test_answer_independent_of_where_the_amplitude_grid_starts(monkeypatch):
@@ -152,3 +155,37 @@ def test_coverage_with_truths_drawn_from_the_family():
     # nominal 0.95 (definition of the band); [0.88, 0.99] allows for the Monte Carlo error of
     # 640 correlated indicators (common practice, no source)
     assert 0.88 <= coverage <= 0.99
+
+
+def test_axisymmetric_ratio_scales_only_the_axisymmetric_modes():
+    basis, _, _ = make()
+    l, s = 0.5 * A, 1.5
+    ratio = matern_precision(basis, l, s, 4.0) / matern_precision(basis, l, s)
+    np.testing.assert_allclose(ratio, np.where(basis.m == 0, 1 / 16.0, 1.0), rtol=1e-14)
+
+
+@pytest.mark.parametrize("rho_true, side", [(8.0, "high"), (0.5, "low")])
+def test_axisymmetric_ratio_learned_from_the_readings(rho_true, side):
+    """Truths drawn from the family with an axisymmetric part 8x (or 1/2x) a stationary
+    field's: the evidence moves the ratio's weight towards that side of rho = 1 (which side
+    the data prefer is the point; 40 sensors, 6 draws each)."""
+    basis, prob, nominal = make(n=40, sigma=0.05)
+    l_true, s_true = A / 2, 1.0
+    P = matern_precision(basis, l_true, s_true, rho_true)
+    wk = hyperprior.matern_weights(basis, l_true, s_true, rho_true)
+    alpha = np.sum(1 / wk[~nominal]) / 3.0 ** 2          # 3 K rms deviation over the face
+    rng = np.random.default_rng(5)
+    ratios = np.array(hyperprior.AXISYMMETRIC_RATIOS)
+    prior = np.exp(-0.5 * ((np.log2(ratios) - hyperprior.RATIO_LOG2_CENTRE) / hyperprior.RATIO_LOG2_SD) ** 2)
+    on_side = ratios > 1.0 if side == "high" else ratios < 1.0
+    prior_mass = prior[on_side].sum() / prior.sum()
+    mass = []
+    for _ in range(6):
+        c = prob.c0 + rng.standard_normal(basis.size) / np.sqrt(alpha * P)
+        d = prob.t0 + prob.G @ c + 0.05 * rng.standard_normal(prob.n)
+        weights = learn_prior(prob.with_data(d), basis, nominal, 1e-4).description()["axisymmetric_ratio_weights"]
+        mass.append(sum(w for x, w in weights.items() if on_side[list(weights).index(x)]))
+    m = float(np.median(mass))
+    # the readings multiply the odds of that side at least 4-fold (a Bayes factor above 4:
+    # "substantial", common practice, no source)
+    assert (m / (1 - m)) / (prior_mass / (1 - prior_mass)) > 4.0, (mass, prior_mass)

@@ -256,7 +256,8 @@ def test_keys_of_newer_fits_are_shown_when_present(demo):
     weak.update(nominal_W=150.0, delivered_fraction=weak["power_W"] / 150.0, delivered_fraction_sd=0.01)
     s.update(model="zones", model_weights={"smooth": 0.1, "zones": 0.9},
              unresolved="these readings cannot resolve zone inner",
-             prior={"length_scale_m": 0.04, "length_scale_90_m": [0.02, 0.08], "hyperprior_dominated": True})
+             prior={"length_scale_m": 0.04, "length_scale_90_m": [0.02, 0.08], "hyperprior_dominated": True,
+                    "axisymmetric_ratio_weights": {"1": 0.1, "4": 0.7, "8": 0.2}})
     res = dataclasses.replace(demo.raw, summary=s)
     text = " ".join(verdict.verdict(res))
     frac = 100 * weak["power_W"] / 150.0
@@ -265,6 +266,7 @@ def test_keys_of_newer_fits_are_shown_when_present(demo):
     assert "What these readings cannot tell: These readings cannot resolve zone inner" in text
     html = report.render_report(res, figures={})
     assert "share of nominal power" in html and "length scale 40 mm (90 % range 20 to 80 mm)" in html
+    assert "axisymmetric part (rings, bands) 4 times as strong as the rest (probability 0.70)" in html
 
 
 def test_extremes_stand_in_for_zones(demo):
