@@ -120,8 +120,9 @@ FIT_SCHEMA: dict[str, tuple[Callable[[Any, Any, str], dict], str]] = {
     "common_offset": (_fit_common_offset, "prior sd of an offset shared by all sensors, e.g. \"0.5 K\""),
     "calibrate": (_fit_calibrate, 'convection parameters fitted with the face, e.g. ["top.h"]'),
     "model": (_fit_choice(MODELS, "model"),
-              'face model: "auto" (default: the zone model where zones are declared and the evidence '
-              'clearly prefers it, else smooth), "smooth" or "zones" (one level per zone plus a smooth remainder)'),
+              'face model: "auto" (default: where zones are declared, the smooth and the zone model '
+              'averaged with their evidence probabilities), "smooth" or "zones" (one level per zone plus '
+              'a smooth remainder)'),
     "prior": (_fit_choice(PRIORS, "prior"),
               'smooth prior: "learned" (default: strength, length scale and smoothness order learned '
               'from the readings) or "fixed" (length scale = radius, order from smoothing)'),

@@ -31,7 +31,7 @@ from .layout import FAR_FRACTION, angular_note
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem
 from .lmfit_solver import fit_linear_lmfit
-from .model_choice import log_evidence_on_all, model_weights
+from .model_choice import MIXED_MODELS, averaged_models, log_evidence_on_all, model_weights
 from .monte_carlo import placement_draws
 from .noise import Whitener, noise_covariance
 from .problem import Problem
@@ -43,7 +43,7 @@ from .result import FitResult, Posterior, valid_zones, zone_area
 from .strength import choose_strength, default_alphas
 from .strength_average import StrengthAverage
 from .truncation import tail_covariance
-from .zones import AUTO_THRESHOLD, ZoneModel
+from .zones import ZoneModel
 
 #: reduced chi-square above which the readings scatter more than stated (common practice, no source)
 CHI2_WARNING = 4.0
@@ -278,8 +278,9 @@ def _zone_model(spec, design, rd, problem, warnings):
 
 
 def _choose_model(opts, design, zone_model, zscreen, smooth, post, u, problem, warnings):
-    """(model columns, posterior, screening, summary keys): the smooth model, or the zone
-    model when asked (model = "zones") or clearly preferred by the evidence ("auto"). With
+    """(model columns, posterior, screening, summary keys): the smooth model, the zone model
+    when asked (model = "zones"), or with "auto" both averaged with their posterior
+    probabilities (model_choice.averaged_models; a model below MIXED_MODELS is dropped). With
     the learned prior each model keeps its own screening and the evidences cover all the
     readings (model_choice.py); with the fixed prior both are compared on the zone model's
     kept sensors over one log-alpha grid."""
@@ -301,10 +302,19 @@ def _choose_model(opts, design, zone_model, zscreen, smooth, post, u, problem, w
     info = {"model_evidence": zf.log_evidence, "model_weights": zf.weights}
     if zf.edge:
         warnings.append("the zone model's evidence-weighted strength reaches the edge of its grid")
-    # "auto": the zone model only when the evidence clearly prefers it (summary: model_weights)
-    use_zones = opts.model == "zones" or zf.weights["zones"] >= AUTO_THRESHOLD
-    if not use_zones:
+    p_zones = float(zf.weights["zones"])
+    if opts.model == "auto" and p_zones <= MIXED_MODELS:
         return design, post, smooth, {"model": "smooth", **info}
+    if opts.model == "auto" and p_zones < 1.0 - MIXED_MODELS:
+        # neither model is clearly preferred: the answer averages both with their probabilities;
+        # the more probable one's screening, name and prior lead
+        c, C = averaged_models(post.c, post.C, zf.c, zf.C, p_zones)
+        info["model_averaged"] = True
+        if p_zones < 0.5:
+            if hasattr(post.averaged, "description"):
+                info["prior"] = post.averaged.description()
+            return zone_model.columns, Posterior(c, C, post.alpha, None), smooth, {"model": "smooth", **info}
+        zf = replace(zf, c=c, C=C)
     if design.quantity == "temperature" and any(z.edge <= 0 for z in zone_model.columns.zones):
         warnings.append("sharp zone edges on a temperature face: the heat flux is singular at a "
                         "temperature step, so the total power is not defined; give the zones an edge width")

@@ -24,6 +24,9 @@ from scipy.special import logsumexp
 
 #: prior probability that a reading is broken: the screening's family-wise level (diagnostics.FAMILY_LEVEL)
 EPSILON = 0.02
+#: posterior probability below which a model is left out of the average (a numerical cut:
+#: its share of any mean or variance is then below 0.1 %)
+MIXED_MODELS = 1e-3
 #: spread of a broken reading about the prediction [K] (a failed junction or a wrong channel:
 #: several kelvin to tens of kelvin; common practice, no source)
 OUTLIER_SD = 10.0
@@ -65,3 +68,16 @@ def model_weights(log_evidence: dict) -> dict:
     w = np.exp(le - le.max())
     w /= w.sum()
     return {n: float(x) for n, x in zip(names, w)}
+
+
+def averaged_models(c_smooth, C_smooth, c_zones, C_zones, p_zones):
+    """Moment-matched average of the two models' posteriors in the zone model's coefficients
+    (the smooth one embedded with zone levels 0 and no variance):
+    m = (1 - p) m_s + p m_z,  C = (1 - p) C_s + p C_z + p (1 - p) (m_z - m_s)(m_z - m_s)^T."""
+    J = c_zones.size - c_smooth.size
+    m_s = np.concatenate([c_smooth, np.zeros(J)])
+    C_s = np.zeros_like(C_zones)
+    C_s[:c_smooth.size, :c_smooth.size] = C_smooth
+    p = float(p_zones)
+    d = c_zones - m_s
+    return (1.0 - p) * m_s + p * c_zones, (1.0 - p) * C_s + p * C_zones + p * (1.0 - p) * np.outer(d, d)

@@ -38,3 +38,23 @@ def test_a_reading_the_model_cannot_predict_costs_the_outlier_density():
 def test_weights_sum_to_one_and_follow_the_evidence():
     w = model_weights({"smooth": -10.0, "zones": -10.0 + math.log(3.0)})
     assert w["zones"] == pytest.approx(0.75) and sum(w.values()) == pytest.approx(1.0)
+
+
+def test_averaged_models_match_the_mixture_moments_of_draws():
+    """Moment-matched average of the smooth model (embedded with zone levels 0) and the zone
+    model against the moments of seeded draws from the two-component mixture (numpy)."""
+    from heatsight.inverse.model_choice import averaged_models
+    rng = np.random.default_rng(4)
+    K, J, p = 3, 2, 0.3
+    A = rng.standard_normal((K, K))
+    B = rng.standard_normal((K + J, K + J))
+    c_s, C_s = rng.standard_normal(K), A @ A.T
+    c_z, C_z = rng.standard_normal(K + J), B @ B.T
+    m, C = averaged_models(c_s, C_s, c_z, C_z, p)
+    n = 400_000
+    pick = rng.uniform(size=n) < p
+    draws = np.zeros((n, K + J))
+    draws[~pick, :K] = rng.multivariate_normal(c_s, C_s, int((~pick).sum()))
+    draws[pick] = rng.multivariate_normal(c_z, C_z, int(pick.sum()))
+    np.testing.assert_allclose(m, draws.mean(axis=0), atol=0.02)
+    np.testing.assert_allclose(C, np.cov(draws.T), atol=0.05 * np.abs(C).max())
