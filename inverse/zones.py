@@ -38,8 +38,6 @@ from .truncation import enlarged_size, nearest_distance, tail_covariance
 
 #: zone level prior sd = this factor x the face's level scale (weak; common practice, no source)
 ZONE_PRIOR_FACTOR = 10.0
-#: posterior model probability above which "auto" takes the zone model (common practice, no source)
-AUTO_THRESHOLD = 0.95
 #: the projection keeps modes down to exp(-kappa d_min) = PROJECTION_DECAY at the nearest sensor
 PROJECTION_DECAY = 1e-5
 MAX_TERMS, MAX_HARMONICS = 120, 40
@@ -239,7 +237,6 @@ class ZoneModel:
         alpha = float(np.exp(wk @ np.log(alphas[keep])))
         edge = n_a > 2 and max(w[0], w[-1]) > 1e-3
         return ZoneFit(mean, cov, alpha, logz, {"smooth": 1.0 - p_z, "zones": p_z}, edge)
-
 
     def remainder_spread(self, idx) -> float:
         """Whitened mean square of the readings beyond the noise after the zone levels' own
