@@ -42,7 +42,7 @@ from .face_grid import display_grid
 from .result import FitResult, Posterior, valid_zones, zone_area
 from .strength import choose_strength, default_alphas
 from .strength_average import StrengthAverage
-from .truncation import tail_covariance
+from .truncation import tail_covariance, tail_power
 from .zones import ZoneModel
 
 #: reduced chi-square above which the readings scatter more than stated (common practice, no source)
@@ -80,7 +80,8 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     base = _with_placement(_linear_problem(G, t0, noise, rd, P, u, ok), rd, ev, dG, P, u, ok, opts)
     # the left-out modes' variance is learned without the sensors a first screening (without
     # it) suspects: a broken sensor would otherwise widen it and hide itself
-    problem = _with_tail(base, design, rd, P, u, _screen(base, rd, opts, gross).kept) if _learned(opts) else base
+    problem, tail_prior = (_with_tail(base, design, rd, P, u, _screen(base, rd, opts, gross).kept)
+                           if _learned(opts) else (base, None))
     if opts.calibrate:
         design = _calibrated_design(design, rd, problem, P, opts, gross)
         problem = _linear_problem(*design.sensors(rd.r, rd.theta, rd.z), problem.noise, rd, P, u, ok)
@@ -116,10 +117,14 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     elif opts.monte_carlo:
         warnings.append("Monte Carlo draws of sensor positions are not available with the zone model; "
                         "the bands are the zone model's posterior")
+    power_tail = None
+    if tail_prior is not None and post.calibration is None and mc is None:
+        power_tail = _power_tail(model_info["model"], columns, design, rd, screen.kept, problem, tail_prior,
+                                 zone_model)
     return FitResult.build(spec=spec, design=columns, readings=rd, kept=screen.kept, problem=screen.problem,
                            choice=screen.choice, posterior=post, sensors=screen.table,
                            set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)),
-                           monte_carlo=mc, extra=model_info)
+                           monte_carlo=mc, extra=model_info, power_tail=power_tail)
 
 
 # ------------------------------------------------------------------------ design, prior, noise
@@ -157,12 +162,25 @@ def _learned(opts) -> bool:
 
 
 def _with_tail(problem, design, rd, P, u, ok):
-    """The modes the basis leaves out, marginalized into the noise (truncation.py), their
-    variance from a first learned prior on the readings `ok` (those a first screening kept)."""
+    """(problem, prior): the modes the basis leaves out, marginalized into the noise
+    (truncation.py), their variance from a first learned prior on the readings `ok` (those a
+    first screening kept), and that prior."""
     first = learn_prior(problem.subset(np.flatnonzero(ok)), design.basis, nominal=u > 0,
                         nominal_factor=NOMINAL_PRECISION_FACTOR)
     S = problem.noise.covariance + tail_covariance(design, rd, first)
-    return _linear_problem(problem.G, problem.t0, S, rd, P, u, ok)
+    return _linear_problem(problem.G, problem.t0, S, rd, P, u, ok), first
+
+
+def _power_tail(model, columns, design, rd, kept, problem, tail_prior, zone_model):
+    """(h, X, residual, variance) for FitResult.build: the left-out modes' share of the total
+    power (truncation.tail_power) under the model that leads, on the kept sensors."""
+    idx = np.flatnonzero(kept)
+    readings = problem if model == "smooth" else zone_model.smooth
+    prior = tail_prior if model == "smooth" else zone_model.tail_prior
+    X = readings.G[idx] if columns is design else np.hstack([readings.G[idx], zone_model.Gz[idx]])
+    S = readings.noise.covariance[np.ix_(idx, idx)]
+    h, var = tail_power(design, rd.subset(idx), prior, S)
+    return h, X, readings.d[idx] - readings.t0[idx], var
 
 
 def _truncation_warnings(ev, rd):

@@ -7,6 +7,8 @@ calibrated face parameters' uncertainty through the joint linearization when the
 
 from __future__ import annotations
 
+import math
+
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -175,10 +177,12 @@ class FitResult:
     # ------------------------------------------------------------------ construction
     @classmethod
     def build(cls, *, spec, design, readings, kept, problem, choice, posterior, sensors,
-              set_aside, warnings, monte_carlo, extra=None):
+              set_aside, warnings, monte_carlo, extra=None, power_tail=None):
         """Derived figures of a fit.  spec: the inverse.problem.Problem; design: the model
         columns (design.Design or the zone model's); problem: the LinearGaussianProblem of
-        the kept sensors; extra: further summary keys."""
+        the kept sensors; extra: further summary keys; power_tail: (h, X, residual, variance)
+        of the left-out modes' share of the total power (truncation.tail_power: the power
+        becomes p . c + k + h . (residual - X c) with the variance added)."""
         cyl, opts = design.cylinder, spec.options
         face, quantity = design.face_name, design.quantity
         unit = "K" if quantity == "temperature" else "W/m^2"
@@ -196,8 +200,17 @@ class FitResult:
         # linear functionals over the face (quadrature rule): mean, power, zones, jointly
         valid = valid_zones(spec.zones, face, cyl, warnings)
         names, F, k = functional_matrix(design, valid)
+        if power_tail is not None:
+            h, X, resid, _ = power_tail
+            i = names.index("total_power")
+            F, k = F.copy(), np.array(k, float)
+            F[i] -= h @ X
+            k[i] += h @ resid
         on_quadrature = _evaluated_once(lambda d: functional_matrix(d, valid)[1:], design, (F, k))
         f_mean, f_sd, _, _ = posterior.figures(on_quadrature, design)
+        if power_tail is not None:
+            f_sd = np.array(f_sd, float)
+            f_sd[i] = math.sqrt(f_sd[i] ** 2 + power_tail[3])
 
         # extremes and non-uniformity from posterior draws on the display grid
         prof = posterior.draws(on_grid, design, 400, seed=1)

@@ -62,17 +62,38 @@ def left_out(design, big) -> np.ndarray:
     return (big.m[:ne] > design.harmonics) | (big.n_index[:ne] >= design.terms)
 
 
-def _tail_parts(design, r, theta, z, prior):
-    """(G_tail (n, T) [K per unit coefficient], v (T,) [unit^2]) at points, for `prior`."""
+def _tail_parts(design, r, theta, z, prior, powers=False):
+    """(G_tail (n, T) [K per unit coefficient], v (T,) [unit^2]) at points, for `prior`;
+    with powers=True also p_tail (T,) [W per unit coefficient], each left-out mode's heat into
+    the part through the face."""
     big = design.model.basis(*enlarged_size(design, nearest_distance(design, r, z), TAIL_DECAY))
     mask = left_out(design, big)
     v = np.zeros(int(mask.sum()))
     if not mask.any():
-        return np.zeros((np.size(r), 0)), v
+        return (np.zeros((np.size(r), 0)), v) + ((v,) if powers else ())
     G = big.fields(r, theta, z)[0][:, :big.n_eigen][:, mask]
     for (length, order, rho), alphas, w in prior.hyperparameters():
         v += float(w @ (1.0 / alphas)) / matern_precision(big, length, order, rho)[:big.n_eigen][mask]
-    return G, v
+    return (G, v) + ((big.powers()[:big.n_eigen][mask],) if powers else ())
+
+
+def tail_power(design, rd, prior, noise_covariance):
+    """The left-out modes' share of the heat into the part through the unknown face, given
+    the readings: (h (n,) [W/K], extra variance [W^2]).
+
+    With the tail c_t ~ N(0, V) marginalized into the noise S (tail_covariance), the readings'
+    residual r = d - t0 - X c of the kept columns carries it: c_t | c, d ~
+    N(V G_t^T S^-1 r, V - V G_t^T S^-1 G_t V), so the total power is
+    P = p . c + k + h . r + e,  h = S^-1 G_t V p_t,  var e = p_t V p_t - h . (G_t V p_t).
+    Zero on a flux face (a non-uniform mode carries no net heat); on a temperature face the
+    power weights a mode by its wavenumber, so the modes the basis leaves out count.
+    rd: the kept sensors; noise_covariance (n, n) [K^2]: their S, tail included."""
+    G, v, p = _tail_parts(design, rd.r, rd.theta, rd.z, prior, powers=True)
+    a = G @ (v * p)
+    if not np.any(a) and not np.any(p):
+        return np.zeros(rd.n), 0.0
+    h = np.linalg.solve(noise_covariance, a)
+    return h, float(max(p @ (v * p) - h @ a, 0.0))
 
 
 def tail_variance(design, r, theta, z, prior) -> np.ndarray:

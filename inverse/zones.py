@@ -201,6 +201,7 @@ class ZoneModel:
         first = learn_prior(self.marginal.subset(idx), design.basis, nominal=nominal,
                             nominal_factor=NOMINAL_PRECISION_FACTOR, spread=self.remainder_spread(idx))
         sm = self.smooth
+        self.tail_prior = first
         self._set_smooth(LinearGaussianProblem(sm.G, sm.d, sm.t0, sm.noise.covariance
                                                + tail_covariance(design, rd, first), sm.prior_diag, sm.c0))
 

@@ -74,3 +74,56 @@ def test_enlarged_size_grows_as_the_sensor_nears_the_face():
     near, far = enlarged_size(design, 0.002, TAIL_DECAY), enlarged_size(design, 0.02, TAIL_DECAY)
     assert near[0] >= far[0] and near[1] > far[1]
     assert far[1] >= design.terms and far[0] >= design.harmonics
+
+
+def test_tail_power_equals_the_enlarged_models_posterior():
+    """The total power of a temperature face with the left-out modes' share (tail_power:
+    p . c + h . (d - G c) plus its variance, c from the fit's basis with the tail in the
+    noise) against the exact Gaussian posterior of the power under the enlarged basis (the
+    textbook conditional of a jointly Gaussian model), at one set of hyperparameters."""
+    from heatsight.inverse.truncation import tail_power
+    cyl = fw.Cylinder(A, L, K)
+    # an unknown wall between a temperature base and a convective top: its axial modes carry
+    # net heat (on an end face beside an insulated rim only the uniform mode does)
+    faces = {"side": fw.UnknownTemperature(), "bottom": fw.Temperature(300.0), "top": fw.Convection(50.0, 300.0)}
+    design = Design(cyl, faces, 1e-8, 2, 4)
+    n = 6
+    r, th = A - np.array([0.003, 0.004, 0.006, 0.008, 0.01, 0.015]), np.linspace(0.3, 5.0, n)
+    z = np.linspace(0.004, 0.026, n)
+    rd = SensorReadings([f"s{i}" for i in range(n)], r, th, z, np.full(n, 300.0), np.full(n, 0.1),
+                        np.zeros(n), np.zeros(n))
+    length, order, alpha = 0.01, 1.0, 1e-3
+    prior = OneComponent(length, order, alpha)
+    big = design.model.basis(*enlarged_size(design, nearest_distance(design, rd.r, rd.z), TAIL_DECAY))
+    ne = big.n_eigen
+    Gb = big.fields(r, th, z)[0][:, :ne]
+    Pb = alpha * matern_precision(big, length, order)[:ne]
+    pb = big.powers()[:ne]
+    keep = ~left_out(design, big)
+    S0 = np.diag(np.full(n, 0.1 ** 2))
+    y = np.random.default_rng(2).normal(0.0, 2.0, n)              # any residual will do
+    # exact: posterior of pb . c_big given y, prior N(0, diag(1 / Pb)), noise S0
+    Cb = np.linalg.inv(Gb.T @ np.linalg.solve(S0, Gb) + np.diag(Pb))
+    mb = Cb @ Gb.T @ np.linalg.solve(S0, y)
+    exact_mean, exact_var = pb @ mb, pb @ Cb @ pb
+    # the fit's route: kept columns, the tail in the noise, then the tail's share of the power
+    G, P, p = Gb[:, keep], Pb[keep], pb[keep]
+    S = S0 + tail_covariance(design, rd, prior)
+    C = np.linalg.inv(G.T @ np.linalg.solve(S, G) + np.diag(P))
+    m = C @ G.T @ np.linalg.solve(S, y)
+    h, extra = tail_power(design, rd, prior, S)
+    f = p - G.T @ h
+    # the tail's share matters here: without it the power is off by 2 % and its variance by more
+    assert abs(p @ m - exact_mean) > 1e-2 * abs(exact_mean)
+    assert abs(p @ C @ p - exact_var) > 1e-2 * exact_var
+    # round-off: the prior variance is ~1e5 times the readings' (both routes invert it)
+    assert f @ m + h @ y == pytest.approx(exact_mean, rel=1e-8, abs=1e-8 * np.sqrt(exact_var))
+    assert f @ C @ f + extra == pytest.approx(exact_var, rel=1e-8)
+
+
+def test_tail_power_is_zero_on_a_flux_face():
+    design, rd = design_and_readings([0.004, 0.006, 0.01, 0.015])
+    from heatsight.inverse.truncation import tail_power
+    h, extra = tail_power(design, rd, OneComponent(0.01, 1.5, 2e-7), np.eye(rd.n))
+    # a non-uniform flux mode carries no net heat: round-off only (W per K of residual, W^2)
+    assert np.abs(h).max() < 1e-10 and extra < 1e-20
