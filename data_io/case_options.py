@@ -230,10 +230,13 @@ def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> t
                                                   f"({format_quantity(b, 'length')})")
         nominal = edge = None
         if "nominal" in zone:
-            nominal = parse_quantity(ctx.text(zone, "nominal", f"{where}.nominal"), "power",
+            # a long part's powers are per metre of length (the plane problem), so is its zones' nominal
+            kind, example = ("power_per_length", "3 kW/m") if cylinder.long else ("power", "400 W")
+            nominal = parse_quantity(ctx.text(zone, "nominal", f"{where}.nominal"), kind,
                                      f"{where}.nominal", file=ctx.path)
             if not (math.isfinite(nominal) and nominal != 0):
-                raise ctx.error(f"{where}.nominal", f"expected a non-zero power, e.g. \"400 W\"; got {zone['nominal']!r}")
+                raise ctx.error(f"{where}.nominal", f"expected a non-zero power, e.g. \"{example}\"; "
+                                                    f"got {zone['nominal']!r}")
         if "edge" in zone:
             edge = parse_quantity(ctx.text(zone, "edge", f"{where}.edge"), "length", f"{where}.edge",
                                   file=ctx.path)

@@ -41,6 +41,7 @@ DIMENSIONS: dict[str, Dimension] = {
     "heat_flux": Dimension("a heat flux", "W/m^2", "5 kW/m^2", "W/m^2"),
     "time": Dimension("a time", "s", "10 s", "s"),
     "power": Dimension("a power", "W", "400 W", "W"),
+    "power_per_length": Dimension("a power per metre of length", "W/m", "3 kW/m", "W/m"),
 }
 
 #: Unit assumed for a CSV column whose header names no unit (design §3: lengths m,

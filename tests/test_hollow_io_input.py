@@ -102,6 +102,10 @@ CASES = {
         sub('condition = "temperature"\nvalue = "200 degC"', 'condition = "unknown-temperature"', LONG)
         + '[sensors]\nlayout = "layout.csv"\n[[zones]]\nname = "low"\nz = ["0 mm", "50 mm"]\n', {}, CHECK,
         "zones[1].z: a long part (height = \"long\") does not vary along z"),
+    "zone nominal in W on a long part": (
+        sub('condition = "temperature"\nvalue = "200 degC"', 'condition = "unknown-temperature"', LONG)
+        + '[sensors]\nlayout = "layout.csv"\n[[zones]]\nname = "hot side"\ntheta = ["0 deg", "90 deg"]\n'
+        'nominal = "400 W"\n', {}, CHECK, "zones[1].nominal"),
     "zone with r on the bore": (UNKNOWN_BORE + '[[zones]]\nname = "x"\nr = ["40 mm", "50 mm"]\n', {}, CHECK,
                                 "zones[1].r: a zone on the bore face (a wall) takes theta and z, not r"),
     "long-part profile with a z column": (
@@ -222,3 +226,13 @@ def test_zones_on_the_bore(tmp_path):
               TUBE) + '[[zones]]\nname = "ring"\n'
     case = load_case(_write(tmp_path, **{"case.toml": end, "layout.csv": LAYOUT}))
     assert case.zones[0].r == pytest.approx((0.04, 0.06))
+
+
+def test_long_part_zone_nominal_is_per_metre(tmp_path):
+    """A long part's powers are per metre of length (its plane problem), so is a zone's
+    nominal: "3 kW/m" reads as 3000 W/m (pint)."""
+    text = (sub('condition = "temperature"\nvalue = "200 degC"', 'condition = "unknown-temperature"', LONG)
+            + '[sensors]\nlayout = "layout.csv"\n[[zones]]\nname = "hot side"\ntheta = ["0 deg", "90 deg"]\n'
+            'nominal = "3 kW/m"\n')
+    case = load_case(_write(tmp_path, **{"case.toml": text, "layout.csv": LAYOUT}), purpose="fit")
+    assert case.zones[0].nominal == pytest.approx(3000.0)
