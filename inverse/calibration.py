@@ -15,6 +15,7 @@ import numpy as np
 
 from ..forward import Convection
 
+from .design import nominal_direction
 from .errors import InverseError
 from .lmfit_solver import fit_lmfit
 
@@ -124,8 +125,6 @@ def calibrate(design, rd, kept, problem, alpha, P, spec) -> Calibration:
 
     def design_fn(values):
         return rebuild([values[n] for n in names]).sensors(sub.r, sub.theta, sub.z)
-
-    from .design import nominal_direction
 
     P = flat_nominal(P, nominal_direction(design.basis), problem, alpha)
     lf = fit_lmfit(design_fn, params, problem.d, problem.noise, P, alpha, c0=problem.c0,

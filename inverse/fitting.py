@@ -175,12 +175,12 @@ def _power_tail(model, columns, design, rd, kept, problem, tail_prior, zone_mode
     """(h, X, residual, variance) for FitResult.build: the left-out modes' share of the total
     power (truncation.tail_power) under the model that leads, on the kept sensors."""
     idx = np.flatnonzero(kept)
-    readings = problem if model == "smooth" else zone_model.smooth
+    lin = problem if model == "smooth" else zone_model.smooth      # its readings, noise and columns
     prior = tail_prior if model == "smooth" else zone_model.tail_prior
-    X = readings.G[idx] if columns is design else np.hstack([readings.G[idx], zone_model.Gz[idx]])
-    S = readings.noise.covariance[np.ix_(idx, idx)]
+    X = lin.G[idx] if columns is design else np.hstack([lin.G[idx], zone_model.Gz[idx]])
+    S = lin.noise.covariance[np.ix_(idx, idx)]
     h, var = tail_power(design, rd.subset(idx), prior, S)
-    return h, X, readings.d[idx] - readings.t0[idx], var
+    return h, X, lin.d[idx] - lin.t0[idx], var
 
 
 def _truncation_warnings(ev, rd):

@@ -115,7 +115,7 @@ def _weights(ev, axis, length, order, axisymmetric):
 
 def axisymmetric_modes(basis) -> np.ndarray:
     """Mask (K,) of the axisymmetric eigenfunctions (m = 0; corner columns excluded)."""
-    return (basis.m == 0) & (np.arange(basis.m.size) < getattr(basis, "n_eigen", basis.m.size))
+    return (basis.m == 0) & (np.arange(basis.m.size) < basis.n_eigen)
 
 
 def matern_weights(basis, length, order, axisymmetric=1.0) -> np.ndarray:

@@ -90,8 +90,6 @@ def tail_power(design, rd, prior, noise_covariance):
     rd: the kept sensors; noise_covariance (n, n) [K^2]: their S, tail included."""
     G, v, p = _tail_parts(design, rd.r, rd.theta, rd.z, prior, powers=True)
     a = G @ (v * p)
-    if not np.any(a) and not np.any(p):
-        return np.zeros(rd.n), 0.0
     h = np.linalg.solve(noise_covariance, a)
     return h, float(max(p @ (v * p) - h @ a, 0.0))
 

@@ -239,16 +239,15 @@ class ZoneModel:
         edge = n_a > 2 and max(w[0], w[-1]) > 1e-3
         return ZoneFit(mean, cov, alpha, logz, {"smooth": 1.0 - p_z, "zones": p_z}, edge)
 
-    def remainder_spread(self, idx) -> float:
+    def remainder_spread(self, idx, levels=None) -> float:
         """Whitened mean square of the readings beyond the noise after the zone levels' own
-        generalized-least-squares fit (with their weak prior): the signal the remainder carries,
-        which sets the amplitude scale of its learned prior (hyperprior.LearnedPrior)."""
+        generalized-least-squares fit (with their weak prior; `a` of _levels_given_remainder,
+        the levels given c = 0, or `levels` when already computed): the signal the remainder
+        carries, which sets the amplitude scale of its learned prior (hyperprior.LearnedPrior)."""
+        a = (levels or self._levels_given_remainder(idx))[0]
         smooth = self.smooth.subset(idx)
-        Gz = self.Gz[idx]
-        Wz = smooth.noise.whiten(Gz)
-        y = smooth.noise.whiten(smooth.d - smooth.t0 - Gz @ self.mu)
-        z = np.linalg.solve(Wz.T @ Wz + np.diag(1.0 / self.s ** 2), Wz.T @ y)
-        return float(np.mean((y - Wz @ z) ** 2)) - 1.0
+        resid = smooth.noise.whiten(smooth.d - smooth.t0 - self.Gz[idx] @ a)
+        return float(np.mean(resid ** 2)) - 1.0
 
     def _levels_given_remainder(self, idx):
         """(a, K, D^-1): the zone levels' posterior given the remainder c on sensors idx,
@@ -272,9 +271,10 @@ class ZoneModel:
         log_evidence holds {"zones": log p(d_kept | zone model)} integrated over the
         hyperpriors; the comparison with the smooth model is model_choice's (weights None)."""
         idx = np.flatnonzero(kept)
+        levels = self._levels_given_remainder(idx)
         lp = learn_prior(self.marginal.subset(idx), basis, nominal=nominal, nominal_factor=nominal_factor,
-                         spread=self.remainder_spread(idx))
-        a, Kmap, Dinv = self._levels_given_remainder(idx)
+                         spread=self.remainder_spread(idx, levels))
+        a, Kmap, Dinv = levels
         c, Cc = lp.coefficients(), lp.posterior_covariance()
         KC = Kmap @ Cc
         mean = np.concatenate([c, a - Kmap @ c])
