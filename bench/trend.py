@@ -7,7 +7,7 @@
    Also timed: the streaming part alone (reading, windows, inversion, writing the rows; the
    reference fit, figures and report left out) with --format parquet, goal <= 2.5x
    read_csv; the whole command with --format parquet, goal <= 3.5x; and, each both ways
-   in this run, BLAS threads (library default vs one thread, inverse.batch.BLAS_THREADS)
+   in this run, BLAS threads (library default vs one thread, inverse.threads.BLAS_THREADS)
    and the reader thread (data_io.trend_run.READ_AHEAD 0 vs 2).
 2. Memory: peak resident memory of the same command on the 1,000,000-row log against a
    100,000-row log, each in a fresh process.  Goal: ratio <= 2 (the log is read in chunks
@@ -142,7 +142,7 @@ def main() -> None:
         print(f"time ratio trend / read_csv = {t_trend / t_read:.2f} (goal <= 2)")
 
         from heatsight.data_io import trend_run
-        from heatsight.inverse import batch
+        from heatsight.inverse import threads
 
         stream_t = []
         real_run, real_setup = trend_run.TrendRun.run, trend_run.TrendRun._setup
@@ -174,9 +174,9 @@ def main() -> None:
         t_pq, s_pq = min(whole_and_stream() for _ in range(2))
         print(f"--format parquet: whole command {t_pq:.2f} s = {t_pq / t_read:.2f}x read_csv (goal <= 3.5); "
               f"streaming part {s_pq:.2f} s = {s_pq / t_read:.2f}x read_csv (goal <= 2.5)")
-        batch.BLAS_THREADS = None
+        threads.BLAS_THREADS = None
         t_blas, s_blas = whole_and_stream()
-        batch.BLAS_THREADS = 1
+        threads.BLAS_THREADS = 1
         t_one, s_one = whole_and_stream()
         print(f"BLAS threads, library default vs one: whole {t_blas:.2f} vs {t_one:.2f} s "
               f"({t_blas / t_one:.2f}x), streaming {s_blas:.2f} vs {s_one:.2f} s ({s_blas / s_one:.2f}x)")

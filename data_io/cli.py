@@ -303,9 +303,22 @@ def _os_message(exc: OSError) -> str:
     return f"{what}: {reason}; {advice}"
 
 
+def _limit_blas_threads():
+    """Before numpy loads: BLAS pools of this process (and of the fleet's workers, which
+    inherit the environment) start with inverse.threads.BLAS_THREADS threads unless the user
+    set them; works without threadpoolctl.  No effect once numpy is loaded (a caller's own
+    process)."""
+    from ..inverse.threads import BLAS_THREADS
+    if BLAS_THREADS is None or "numpy" in sys.modules:
+        return
+    for var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+        os.environ.setdefault(var, str(BLAS_THREADS))
+
+
 def main(argv=None) -> int:
     """Run the command line; returns the exit status (0, 1 or 2)."""
     argv = sys.argv[1:] if argv is None else list(argv)
+    _limit_blas_threads()
     if argv in (["--version"], ["-V"]):
         print(f"{PROG} {_version()}")
         return 0

@@ -19,7 +19,7 @@ trend.parquet with --format parquet (data_io.trend_sink, streamed block by block
 log never sits in memory; every numeric column names its unit), trend.png, summary.json and
 report.html (the reference window's fit report with a trend section).  The log is parsed
 ahead in a reader thread while rows are inverted; BLAS runs on one thread meanwhile
-(inverse.batch.blas_threads).
+(inverse.threads.blas_threads).
 """
 
 from __future__ import annotations

@@ -248,8 +248,8 @@ class TrendRun:
     # ---------------------------------------------------------------- the run
     def run(self, stream, progress: Progress, expected_rows: int):
         """Stream the log into `stream` (a data_io.trend_sink sink), BLAS limited to few
-        threads (inverse.batch.blas_threads), the log parsed ahead in a reader thread."""
-        from ..inverse.batch import blas_threads
+        threads (inverse.threads.blas_threads), the log parsed ahead in a reader thread."""
+        from ..inverse.threads import blas_threads
 
         with blas_threads():
             self._run(stream, progress, expected_rows)

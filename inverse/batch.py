@@ -44,14 +44,13 @@ change is judged against: with nothing changing, change / sd ~ N(0, 1).
 
 from __future__ import annotations
 
-import contextlib
-import functools
 from dataclasses import dataclass
 
 import numpy as np
 
 from .diagnostics import default_threshold
 from .errors import InverseError
+from .threads import few_threads
 from .face_grid import display_grid
 from .design import nominal_direction as _nominal_direction
 from .functionals import face_functionals  # noqa: F401  (also exported from here)
@@ -66,38 +65,6 @@ TREND_FAMILY_LEVEL = 0.02
 MIN_SENSORS = 3
 #: bound on the size of stacked intermediate arrays (elements)
 _BLOCK_ELEMENTS = 4_000_000
-#: BLAS threads while many small products run (None: leave the library's own choice).  On a
-#: shared two-core machine one thread inverted 1e6 rows 4-6x faster than the default pool
-#: (bench/trend.py prints both): the products are too small to split, and the threads'
-#: hand-offs and spinning cost more than they save.
-BLAS_THREADS: int | None = 1
-
-
-@contextlib.contextmanager
-def blas_threads(limit="default"):
-    """BLAS pools limited to `limit` threads inside the block (default BLAS_THREADS; None:
-    unchanged) through threadpoolctl (optional extra ``speed``); without threadpoolctl the
-    block runs unchanged.  Yields whether a limit is in force."""
-    limit = BLAS_THREADS if limit == "default" else limit
-    if limit is None:
-        yield False
-        return
-    try:
-        from threadpoolctl import threadpool_limits
-    except ImportError:
-        yield False
-        return
-    with threadpool_limits(limits=int(limit), user_api="blas"):
-        yield True
-
-
-def _few_threads(method):
-    """Run a solver method inside `blas_threads()`."""
-    @functools.wraps(method)
-    def wrapped(*args, **kwargs):
-        with blas_threads():
-            return method(*args, **kwargs)
-    return wrapped
 
 
 def change_threshold(n_comparisons: int, family_level: float = TREND_FAMILY_LEVEL) -> float:
@@ -248,7 +215,7 @@ class BatchSolver:
                            sd_kind="noise")
 
     # ------------------------------------------------------------------ strength
-    @_few_threads
+    @few_threads
     def _evidence_terms(self, d, random_var):
         """Per row: squared singular values s^2 (R, n) of its whitened design (NaN-padded),
         beta^2 = (U^T y)^2 (R, n), the rest of ||y||^2 beyond the rank, the number of
@@ -315,7 +282,7 @@ class BatchSolver:
         return float(np.exp(res.x) if -res.fun >= le[i] else grid[i]), []
 
     # ------------------------------------------------------------------ solving
-    @_few_threads
+    @few_threads
     def solve(self, d, random_var) -> BatchEstimates:
         """Answers for rows d (R, n) [K] (NaN = missing) with random noise variances (n,) for
         every row or (R, n) per row [K^2]."""

@@ -42,12 +42,14 @@ from .face_grid import display_grid
 from .result import FitResult, Posterior, valid_zones, zone_area
 from .strength import choose_strength, default_alphas
 from .strength_average import StrengthAverage
+from .threads import few_threads
 from .truncation import tail_covariance, tail_power
 from .zones import ZoneModel
 
 #: reduced chi-square above which the readings scatter more than stated (common practice, no source)
 CHI2_WARNING = 4.0
 
+@few_threads
 def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     """Fit the unknown face of `problem` (an inverse.Problem, or anything with .cylinder,
     .faces and optionally .zones and .fit; see Problem.from_case) to `readings`
@@ -55,7 +57,7 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     position_tolerance in SI).  Keyword overrides are FitOptions fields; strength may be
     'evidence' | 'auto' | 'gcv' | 'lcurve' | 'discrepancy' | a number, and calibrate a
     {(face, 'h' | 'ambient'): (prior mean, prior sd) or None}.  progress(done, total) is
-    called during Monte Carlo draws."""
+    called during Monte Carlo draws.  BLAS runs on one thread inside (inverse.threads)."""
     spec = Problem.from_case(problem, **overrides)
     opts = spec.options
     face = spec.unknown_face

@@ -120,12 +120,12 @@ def test_read_ahead_same_chunks_and_errors_in_the_consumer():
 
 
 def test_reader_thread_and_blas_limit_do_not_change_the_rows(folder, monkeypatch):
-    from heatsight.inverse import batch
+    from heatsight.inverse import threads
 
     run_trend(folder / "platen.toml", log=folder / "log.csv", out=folder / "t1", progress=False, echo=_quiet,
               every=7)
     monkeypatch.setattr(trend_run, "READ_AHEAD", 0)
-    monkeypatch.setattr(batch, "BLAS_THREADS", None)
+    monkeypatch.setattr(threads, "BLAS_THREADS", None)
     run_trend(folder / "platen.toml", log=folder / "log.csv", out=folder / "t2", progress=False, echo=_quiet,
               every=7)
     a, b = (pd.read_csv(folder / n / "trend.csv") for n in ("t1", "t2"))
@@ -135,7 +135,7 @@ def test_reader_thread_and_blas_limit_do_not_change_the_rows(folder, monkeypatch
 
 def test_blas_threads_limits_and_restores():
     threadpoolctl = pytest.importorskip("threadpoolctl")
-    from heatsight.inverse.batch import blas_threads
+    from heatsight.inverse.threads import blas_threads
 
     np.ones((2, 2)) @ np.ones((2, 2))
     before = [p["num_threads"] for p in threadpoolctl.threadpool_info() if p["user_api"] == "blas"]
