@@ -30,7 +30,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 from scipy.special import log_ndtr, logsumexp, ndtri_exp
-from scipy.stats import norm
+from scipy.special import ndtri
 
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem
@@ -47,7 +47,7 @@ def default_threshold(n_sensors: int, family_level: float = FAMILY_LEVEL) -> flo
     """Bonferroni threshold on |standardized LOO error|: Phi^-1(1 - family_level / (2 n))."""
     if n_sensors < 1 or not 0 < family_level < 1:
         raise InverseError("need at least one sensor and 0 < family_level < 1")
-    return float(norm.isf(family_level / (2.0 * n_sensors)))
+    return float(-ndtri(family_level / (2.0 * n_sensors)))   # norm.isf
 
 
 def _names(names, n):

@@ -18,14 +18,18 @@ Gaussian approximation of the robust objective there).
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
-import lmfit
 import numpy as np
 
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem
 from .noise import Whitener
 from .problem import LOSSES
+
+if TYPE_CHECKING:
+    import lmfit
+
 COEF_PREFIX = "c_"
 
 
@@ -128,6 +132,8 @@ def fit_lmfit(design, params, d, noise, prior_diag, alpha, c0=None, priors=None,
     K = p.size
     c0 = np.zeros(K) if c0 is None else np.asarray(c0, dtype=float)
     sqrt_ap = np.sqrt(alpha * p)
+    import lmfit   # here, not at the top: lmfit loads scipy.stats (~0.5 s), and a default fit never calls it
+
     user = lmfit.Parameters() if params is None else params
     for name, par in user.items():
         if par.expr is not None:
