@@ -40,6 +40,32 @@ def _out(x, scalar):
     return x[0] if scalar else x
 
 
+def evidence_spectrum(Gw, y, prior_diag):
+    """(s^2 (n,), beta (n,)) of A = Gw P^-1/2 = U diag(s) V^T (Gw = L^-1 G,
+    y = L^-1 (d - t0 - G c0), beta = U^T y, s = 0 beyond the rank): all the evidence needs,
+    from the thin SVD (no V beyond the rank: ~4x cheaper than LinearGaussianProblem's full
+    one for 20 readings x 130 modes) when one design is tried with many priors."""
+    A = Gw / np.sqrt(np.asarray(prior_diag, dtype=float))[None, :]
+    U, s, _ = np.linalg.svd(A, full_matrices=False)
+    s2 = np.zeros(Gw.shape[0])
+    s2[: s.size] = s ** 2
+    beta = np.zeros(s2.size)
+    beta[: s.size] = U.T @ y
+    if s.size < s2.size:          # more readings than modes: the rest of y is residual (s = 0)
+        beta[s.size] = np.sqrt(max(float(y @ y - beta @ beta), 0.0))
+    return s2, beta
+
+
+def log_evidence_from_spectrum(s2, beta, alphas, logdet_noise):
+    """log p(d | alpha) = -1/2 [n log 2 pi + log det S + sum_j log(1 + s_j^2 / alpha)
+    + sum_j alpha beta_j^2 / (s_j^2 + alpha)] over the n data-space directions (s = 0 beyond
+    the rank); alphas (m,) -> (m,)."""
+    a = np.asarray(alphas, dtype=float)[:, None]
+    logdet = logdet_noise + np.sum(np.log1p(s2[None, :] / a), axis=1)
+    quad = np.sum(a / (s2[None, :] + a) * beta[None, :] ** 2, axis=1)
+    return -0.5 * (s2.size * LOG_2PI + logdet + quad)
+
+
 class LinearGaussianProblem:
     """Readings d (n,), design G (n, K), known field t0 (n,), noise covariance S,
     prior precision diagonal P (K,), prior mean c0 (K,, default 0).
@@ -47,7 +73,7 @@ class LinearGaussianProblem:
     `noise`: variances sigma_i^2 (n,) [K^2], a full SPD (n, n) covariance, or a Whitener.
     """
 
-    def __init__(self, G, d, t0, noise, prior_diag, c0=None):
+    def __init__(self, G, d, t0, noise, prior_diag, c0=None, whitened_design=None):
         G = np.asarray(G, dtype=float)
         if G.ndim != 2:
             raise InverseError("design matrix G must be 2-D (readings x coefficients)")
@@ -73,11 +99,14 @@ class LinearGaussianProblem:
         self.G, self.d, self.t0, self.prior_diag, self.c0 = G, d, t0, p, c0
         self.n, self.K = n, K
         p_isqrt = 1.0 / np.sqrt(p)
-        A = self.noise.whiten(G) * p_isqrt[None, :]
+        # L^-1 G, reused by with_prior (many priors, one design)
+        self._Gw = self.noise.whiten(G) if whitened_design is None else whitened_design
+        A = self._Gw * p_isqrt[None, :]
         U, s, Vt = np.linalg.svd(A, full_matrices=True)
         self._U, self._s = U, s
         self._r = s.size
         self._Z = p_isqrt[:, None] * Vt.T          # column j: direction in c of singular pair j
+        self._Vt_r, self._p_isqrt = Vt[: s.size], p_isqrt
         self._s2_n = np.zeros(n)
         self._s2_n[: self._r] = s**2
         self._s2_K = np.zeros(K)
@@ -101,7 +130,8 @@ class LinearGaussianProblem:
 
     def with_prior(self, prior_diag) -> "LinearGaussianProblem":
         """Same readings, noise and prior mean, another prior precision diagonal P (K,) (new SVD)."""
-        return LinearGaussianProblem(self.G, self.d, self.t0, self.noise, prior_diag, self.c0)
+        return LinearGaussianProblem(self.G, self.d, self.t0, self.noise, prior_diag, self.c0,
+                                     whitened_design=self._Gw)
 
     def subset(self, keep) -> "LinearGaussianProblem":
         """Problem restricted to readings `keep` (index array or boolean mask).
@@ -226,6 +256,21 @@ class LinearGaussianProblem:
         a, scalar = _as_alphas(alpha)
         return _out(np.sqrt(self._var_K(a) @ (self._Z**2).T), scalar)
 
+    def _predict_variance(self, B, a):
+        """diag(B C(alpha) B^T) for alphas a (m,), (m, q), without the K x K rotation:
+        with X = B P^-1/2 and V_r the right singular vectors of the rank,
+        var = sum_{j<r} (X V_r)_j^2 / (s_j^2 + alpha) + ||X - X V_r V_r^T||^2 / alpha
+        (the second term: directions the data do not see keep the prior's 1/alpha). The
+        projection is formed before its norm is taken, so no difference of large numbers
+        appears (a nearly flat prior direction makes X large where the data pin it)."""
+        X = B * self._p_isqrt[None, :]
+        XV = X @ self._Vt_r.T                                   # (q, r)
+        var = (XV ** 2) @ (1.0 / (self._s[:, None] ** 2 + a[None, :]))   # (q, m)
+        if self._s.size < self.K:
+            resid = np.sum((X - XV @ self._Vt_r) ** 2, axis=1)
+            var = var + resid[:, None] / a[None, :]
+        return var.T
+
     def predict(self, B, alpha, offset=None):
         """Posterior mean and sd of q = offset + B c for a fixed linear map B (q, K) or (K,).
 
@@ -241,7 +286,7 @@ class LinearGaussianProblem:
         mean = c @ B.T
         if offset is not None:
             mean = mean + np.asarray(offset, dtype=float)
-        sd = np.sqrt(self._var_K(a) @ ((B @ self._Z) ** 2).T)
+        sd = np.sqrt(self._predict_variance(B, a))
         if vec:
             mean, sd = mean[:, 0], sd[:, 0]
         return _out(mean, scalar), _out(sd, scalar)
@@ -334,10 +379,7 @@ class LinearGaussianProblem:
         = -1/2 [n log 2 pi + log det S + sum_j log(1 + s_j^2/alpha) + sum_j g_j beta_j^2].
         """
         a, scalar = _as_alphas(alpha)
-        _, g = self._filters_n(a)
-        logdet = self.noise.logdet + np.sum(np.log1p(self._s[None, :] ** 2 / a[:, None]), axis=1)
-        quad = np.sum(g * self._beta[None, :] ** 2, axis=1)
-        return _out(-0.5 * (self.n * LOG_2PI + logdet + quad), scalar)
+        return _out(log_evidence_from_spectrum(self._s2_n, self._beta, a, self.noise.logdet), scalar)
 
     def gcv(self, alpha):
         """Generalized cross-validation V = n ||(I - H) y||^2 / (trace(I - H))^2 (whitened, H = hat)."""

@@ -162,9 +162,10 @@ def dominant_component(posterior, problem):
     avg = posterior.averaged
     parts = getattr(avg, "_parts", None)
     if parts:                                    # learned prior: (problem, alphas, weights) per (l, s, rho)
-        pb, a, w = max(parts, key=lambda p: float(np.sum(p[2])))    # the (l, s, rho) of largest weight
+        best = max(range(len(parts)), key=lambda k: float(np.sum(parts[k][2])))   # the (l, s, rho) of largest weight
+        pb, a, w = parts[best]
         i = int(np.argmax(w))                                        # its amplitude of largest weight
-        length, order, rho = avg.combos[avg._problems.index(pb)]
+        length, order, rho = avg.hyperparameters()[best][0]
         text = (f"the learned prior's dominant hyperparameters: length scale {length * 1e3:.3g} mm, order "
                 f"{order:g}, axisymmetric ratio {rho:g} (weight {float(np.sum(w)):.2f}), strength {a[i]:.3g}")
         return pb, float(a[i]), float(np.sum(w)), text

@@ -77,17 +77,23 @@ def projection(basis, zones):
         around += b
     s, ws = segments(along, lo, hi, 4 * ne // max(1, int(m.max()) + 1) + 200)
     t, wt = segments(around, 0.0, 2 * math.pi, 8 * int(m.max()) + 64)
+    # each (m, n) profile once, from its cos column (Phi = profile x cos(m theta) there)
+    uniq, back = np.unique(cos_of, return_inverse=True)
     if side:
-        prof = basis.modes.eigenfunctions(np.zeros_like(s), s)[:, cos_of]    # Z_k(z)
+        prof = basis.modes.axial(s)[0][:, uniq][:, back]                     # Z_k(z)
         ws = ws * r_w
     else:
-        prof = basis.modes.eigenfunctions(s, np.zeros_like(s))[:, cos_of]    # R_k(r)
+        prof = basis.modes.radial_values(s, uniq)[:, back]                   # R_k(r)
         ws = ws * s
-    trig = np.where(is_sin[None, :], np.sin(np.multiply.outer(t, m)), np.cos(np.multiply.outer(t, m)))
+    # each harmonic's cos and sin once: column k reads row (m_k, is_sin_k) of `trig`
+    orders, m_at = np.unique(m, return_inverse=True)
+    arg = np.multiply.outer(t, orders)
+    trig = np.hstack([np.cos(arg), np.sin(arg)])
+    col = m_at + np.where(is_sin, orders.size, 0)
     A = np.zeros((len(zones), ne))
     for j, zone in enumerate(zones):
         radial = (ws * zone.along(s, hi, lo)) @ prof
-        angular = (wt * zone.around(t, r_w)) @ trig
+        angular = ((wt * zone.around(t, r_w)) @ trig)[col]
         A[j] = radial * angular / norms
     return A
 

@@ -14,7 +14,7 @@ from scipy.stats import multivariate_normal
 import heatsight.forward as fw
 from heatsight.inverse import hyperprior
 from heatsight.inverse.hyperprior import LearnedPrior, learn_prior, matern_precision
-from heatsight.inverse.linear_gaussian import LinearGaussianProblem
+from heatsight.inverse.linear_gaussian import LinearGaussianProblem, evidence_spectrum, log_evidence_from_spectrum
 
 A, L, K = 0.08, 0.03, 20.0
 SIGMA = 0.2
@@ -46,7 +46,7 @@ def test_log_evidence_matches_multivariate_normal_density():
     n_ls = lp.lengths.size * len(lp.orders)
     # (l, s, rho) points whose predictive covariance scipy can factor, at rho = 1/2, 1 and 8
     for j in (0, 7, 12, n_ls + 7, 4 * n_ls + 12):
-        pb = lp._problems[j]
+        pb = lp.problem_for(j)
         l, s, rho = lp.combos[j]
         P = matern_precision(basis, l, s, rho)
         np.testing.assert_allclose(pb.prior_diag, P, rtol=1e-12)
@@ -62,7 +62,7 @@ def test_amplitude_integral_matches_quad():
     lp = learn_prior(prob, basis, nominal, 1e-4)
     total = 0.0
     for j in range(len(lp.combos)):
-        pb = lp._problems[j]
+        pb = lp.problem_for(j)
 
         def dens(z):
             # evidence x N(z; 0, 1): the amplitude hyperprior in z = log-amplitude / LOG_AMPLITUDE_SD
@@ -189,3 +189,44 @@ def test_axisymmetric_ratio_learned_from_the_readings(rho_true, side):
     # the readings multiply the odds of that side at least 4-fold (a Bayes factor above 4:
     # "substantial", common practice, no source)
     assert (m / (1 - m)) / (prior_mass / (1 - prior_mass)) > 4.0, (mass, prior_mass)
+
+
+def test_evidence_from_the_spectrum_equals_the_full_svd_at_every_point():
+    # the learned prior weighs every (l, s, rho) point from an n x n eigendecomposition and
+    # builds the full SVD only where the posterior has weight: the two must agree everywhere
+    basis, prob, nominal = make()
+    lp = learn_prior(prob, basis, nominal, 1e-4)
+    for j in range(0, len(lp.combos), 5):
+        z = lp.z[:: max(1, lp.z.size // 7)]
+        alphas = lp.alphas_for(j, z)
+        s2, beta = lp._spectra[j]
+        fast = log_evidence_from_spectrum(s2, beta, alphas, prob.noise.logdet)
+        np.testing.assert_allclose(fast, lp.problem_for(j).log_evidence(alphas), rtol=1e-9, atol=1e-8)
+
+
+def test_evidence_spectrum_with_more_readings_than_modes():
+    # n > K: the readings' part outside the design's span enters as one residual direction
+    rng = np.random.default_rng(3)
+    G, d = rng.standard_normal((12, 5)), rng.standard_normal(12)
+    P = rng.uniform(0.5, 2.0, 5)
+    pb = LinearGaussianProblem(G, d, 0.0, np.full(12, 0.3), P)
+    s2, beta = evidence_spectrum(pb.noise.whiten(G), pb.y, P)
+    alphas = np.geomspace(1e-3, 1e3, 7)
+    np.testing.assert_allclose(log_evidence_from_spectrum(s2, beta, alphas, pb.noise.logdet),
+                               pb.log_evidence(alphas), rtol=1e-12)
+
+
+def test_merged_band_limits_stay_within_a_few_per_cent_of_the_sd():
+    # pointwise bands over many points merge neighbouring amplitudes (BAND_COMPONENTS); the
+    # exact mixture quantiles of all components are the reference
+    basis, prob, nominal = make()
+    lp = learn_prior(prob, basis, nominal, 1e-4)
+    rng = np.random.default_rng(5)
+    B = rng.standard_normal((200, prob.K)) * np.sqrt(1.0 / matern_precision(basis, A, 1.0))[None, :]
+    _, sd, lo, hi = lp.band(B)
+    w, mi, si = lp._components(B, None)
+    assert w.size > hyperprior.BAND_COMPONENTS          # merging did happen
+    from heatsight.inverse.strength_average import mixture_band
+    lo_ref, hi_ref = mixture_band(w, mi, si)
+    assert np.max(np.abs(lo - lo_ref) / sd) < 0.03
+    assert np.max(np.abs(hi - hi_ref) / sd) < 0.03
