@@ -165,6 +165,11 @@ def _how_fitted(result) -> str:
         w = s.get("model_weights") or {}
         extra = ", ".join(f"{k} {sig(v, 2)}" for k, v in w.items() if _finite(v)) if isinstance(w, dict) else ""
         rows.append(("model of the face", str(s["model"]) + (f" (probabilities: {extra})" if extra else "")))
+    widths, weights = s.get("zone_edge_widths_m"), s.get("zone_edge_weights")
+    if isinstance(widths, list) and isinstance(weights, list) and len(widths) == len(weights) > 1:
+        text = ", ".join(("sharp" if not w else f"{sig(from_si(w, 'length', 'mm'), 2)} mm") + f" {p:.2f}"
+                         for w, p in zip(widths, weights) if _finite(w) and _finite(p))
+        rows.append(("width of the zones' edges (probabilities; averaged over)", text))
     prior = s.get("prior")
     if isinstance(prior, dict):
         rows.append(("what the data chose for the smoothness", _prior_text(prior)))

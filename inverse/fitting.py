@@ -18,33 +18,36 @@ placement), calibration, screening, posterior, model choice, warnings, derived f
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, replace
 
 import numpy as np
+from scipy.special import logsumexp
 
 from .calibration import calibrate
 from .design import NOMINAL_PRECISION_FACTOR, Design, smooth_prior
 from .diagnostics import screen_outliers, sensor_table
 from .functionals import face_functionals
-from .hyperprior import learn_prior
+from .hyperprior import face_size, learn_prior
 from .layout import FAR_FRACTION, angular_note
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem
 from .lmfit_solver import fit_linear_lmfit
-from .model_choice import MIXED_MODELS, averaged_models, log_evidence_on_all, model_weights
+from .model_choice import MIXED_MODELS, ModelMixture, embedded_mixture, log_evidence_on_all, model_weights
 from .monte_carlo import placement_draws
 from .noise import Whitener, noise_covariance
 from .problem import Problem
 from .readings import as_readings
 from .resolution import unresolved_warning
 from .robust import gross_faults, nominal_level
-from .face_grid import display_grid
+from .face_grid import display_grid, face_interval
+from ..forward.geometry import is_wall
 from .result import FitResult, Posterior, valid_zones, zone_area
 from .strength import choose_strength, default_alphas
 from .strength_average import StrengthAverage
 from .threads import few_threads
 from .truncation import tail_covariance, tail_power
-from .zones import ZoneModel
+from .zones import ZoneDesign, ZoneModel, edge_room, edge_widths, with_edge
 
 #: reduced chi-square above which the readings scatter more than stated (common practice, no source)
 CHI2_WARNING = 4.0
@@ -90,16 +93,19 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
 
     # each model screens the sensors itself: a sensor one model cannot explain may be
     # healthy under the other (model_choice.py compares them on all the readings)
-    zone_model = _zone_model(spec, design, rd, base, warnings)
-    if zone_model is not None and _learned(opts):
-        zone_model.add_tail(design, rd, u > 0, _screen(zone_model.marginal, rd, opts, gross).kept)
+    zone_models = _zone_models(spec, design, rd, base, warnings, _learned(opts))
+    if zone_models and _learned(opts):
+        first = zone_models[0]
+        first.add_tail(design, rd, u > 0, _screen(first.marginal, rd, opts, gross).kept)
+        for other in zone_models[1:]:
+            other.share_tail(first)
     smooth = _screen(problem, rd, opts, gross)
-    zscreen = None if zone_model is None else _screen(zone_model.marginal, rd, opts, gross)
+    zscreens = [_screen(zm.marginal, rd, opts, gross) for zm in zone_models]
     post = _posterior(design, rd, smooth, P, u, opts, warnings)
     if post.calibration is not None:
         design = post.calibration.design
-    columns, post, screen, model_info = _choose_model(opts, design, zone_model, zscreen, smooth, post, u,
-                                                      problem, warnings)
+    columns, post, screen, model_info, zone_model = _choose_model(opts, design, zone_models, zscreens, smooth,
+                                                                  post, u, problem, warnings)
     # the chosen model's screening notes lead; a learned prior's answer drops the fixed
     # prior's strength-grid notes
     learned = hasattr(post.averaged, "description") or "prior" in model_info
@@ -175,11 +181,12 @@ def _with_tail(problem, design, rd, P, u, ok):
 
 def _power_tail(model, columns, design, rd, kept, problem, tail_prior, zone_model):
     """(h, X, residual, variance) for FitResult.build: the left-out modes' share of the total
-    power (truncation.tail_power) under the model that leads, on the kept sensors."""
+    power (truncation.tail_power) under the model that leads, on the kept sensors.
+    zone_model: (the leading ZoneModel, the zone columns' field at the sensors (n, J'))."""
     idx = np.flatnonzero(kept)
-    lin = problem if model == "smooth" else zone_model.smooth      # its readings, noise and columns
-    prior = tail_prior if model == "smooth" else zone_model.tail_prior
-    X = lin.G[idx] if columns is design else np.hstack([lin.G[idx], zone_model.Gz[idx]])
+    lin = problem if model == "smooth" else zone_model[0].smooth      # its readings, noise and columns
+    prior = tail_prior if model == "smooth" else zone_model[0].tail_prior
+    X = lin.G[idx] if columns is design else np.hstack([lin.G[idx], zone_model[1][idx]])
     S = lin.noise.covariance[np.ix_(idx, idx)]
     h, var = tail_power(design, rd.subset(idx), prior, S)
     return h, X, lin.d[idx] - lin.t0[idx], var
@@ -270,12 +277,13 @@ def _posterior(design, rd, screen, P, u, opts, warnings) -> Posterior:
     return post
 
 
-def _zone_model(spec, design, rd, problem, warnings):
-    """The zone model (zones.ZoneModel on all sensors) when asked for (model "zones" or
-    "auto") and zones with ranges are declared on the unknown face, else None."""
+def _zone_models(spec, design, rd, problem, warnings, learned):
+    """The zone models (zones.ZoneModel on all sensors), one per edge width
+    (zones.edge_widths; the declared zones alone with the fixed prior), when asked for (model
+    "zones" or "auto") and zones with ranges are declared on the unknown face, else []."""
     opts = spec.options
     if opts.model == "smooth":
-        return None
+        return []
     cyl = spec.cylinder
     zones = [z for z in valid_zones(spec.zones, design.face_name, cyl, []) if hasattr(z, "indicator")]
     # "auto" (the default) quietly stays smooth where the zone model cannot be asked
@@ -283,9 +291,9 @@ def _zone_model(spec, design, rd, problem, warnings):
         if opts.model == "zones":
             warnings.append(f"model = 'zones' needs zones declared on the {design.face_name} face "
                             "(with r/theta or theta/z ranges); the smooth model is used")
-        return None
+        return []
     if opts.calibrate:
-        return None
+        return []
     areas = [zone_area(z, design.face_name, cyl) for z in zones]
     pts = display_grid(design.face_name, cyl, 11, 24)
     B, known = design.face(pts.u, pts.v)
@@ -294,54 +302,95 @@ def _zone_model(spec, design, rd, problem, warnings):
     # and around the zones has a level of its own (a background), which zone levels alone
     # cannot carry without biasing every zone.
     remainder, _ = smooth_prior(design.basis, cyl.radius, opts.smoothing)
-    return ZoneModel(design, rd, problem, zones, areas, scale, remainder)
+    side = is_wall(design.face_name)
+    room = edge_room(zones, side, cyl.wall_radius(design.face_name), face_interval(design.face_name, cyl))
+    widths = edge_widths(zones, face_size(design.basis), room) if learned else (None,)
+    models, big = [], None
+    for width in widths:
+        zm = ZoneModel(design, rd, problem, with_edge(zones, width), areas, scale, remainder, big)
+        zm.edge_width, big = width, zm.columns.big
+        models.append(zm)
+    return models
 
 
-def _choose_model(opts, design, zone_model, zscreen, smooth, post, u, problem, warnings):
-    """(model columns, posterior, screening, summary keys): the smooth model, the zone model
-    when asked (model = "zones"), or with "auto" both averaged with their posterior
-    probabilities (model_choice.averaged_models; a model below MIXED_MODELS is dropped). With
-    the learned prior each model keeps its own screening and the evidences cover all the
-    readings (model_choice.py); with the fixed prior both are compared on the zone model's
-    kept sensors over one log-alpha grid."""
-    if zone_model is None:
-        return design, post, smooth, {"model": "smooth"}
+def _zone_fit(opts, design, zone_model, zscreen, post, u, problem):
+    """One zone model's posterior (ZoneFit) with its evidence on all the readings (learned
+    prior) or against the smooth model on its kept sensors (fixed prior)."""
     if hasattr(post.averaged, "log_marginal"):
         zf = zone_model.learned_fit(zscreen.kept, design.basis, u > 0, NOMINAL_PRECISION_FACTOR)
-        var_s, var_z = (pb.noise.sd ** 2 for pb in (problem, zone_model.smooth))
         X = np.hstack([problem.G, zone_model.Gz])
+        logz = log_evidence_on_all(zf.log_evidence["zones"], zscreen.kept, X, problem.t0, problem.d,
+                                   zone_model.smooth.noise.sd ** 2, zf.c, zf.C)
+        return replace(zf, log_evidence={"zones": logz})
+    marginal = zone_model.marginal.subset(np.flatnonzero(zscreen.kept))
+    alphas = default_alphas(marginal) if opts.strength_method == "evidence" else np.array([zscreen.choice.alpha])
+    return zone_model.fit(zscreen.kept, alphas)
+
+
+def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem, warnings):
+    """(model columns, posterior, screening, summary keys, (leading zone model, zone columns
+    at the sensors) or None): the smooth model, the zone model when asked (model = "zones"),
+    or with "auto" both averaged with their posterior probabilities
+    (model_choice.embedded_mixture; a model below MIXED_MODELS is dropped).  The zone model
+    is itself an average over its edge widths (zones.edge_widths, equal prior mass each;
+    with the learned prior): its evidence is the widths' mean, each width weighs by its own.
+    With the learned prior each model keeps its own screening and the evidences cover all
+    the readings (model_choice.py); with the fixed prior both are compared on the zone
+    model's kept sensors over one log-alpha grid."""
+    if not zone_models:
+        return design, post, smooth, {"model": "smooth"}, None
+    fits = [_zone_fit(opts, design, zm, zs, post, u, problem) for zm, zs in zip(zone_models, zscreens)]
+    le = np.array([f.log_evidence["zones"] for f in fits])
+    if hasattr(post.averaged, "log_marginal"):
         logz = {"smooth": log_evidence_on_all(post.averaged.log_marginal, smooth.kept, problem.G, problem.t0,
-                                              problem.d, var_s, post.c, post.C),
-                "zones": log_evidence_on_all(zf.log_evidence["zones"], zscreen.kept, X, problem.t0, problem.d,
-                                             var_z, zf.c, zf.C)}
-        zf = replace(zf, log_evidence=logz, weights=model_weights(logz))
+                                              problem.d, problem.noise.sd ** 2, post.c, post.C),
+                "zones": float(logsumexp(le) - math.log(le.size))}
     else:
-        marginal = zone_model.marginal.subset(np.flatnonzero(zscreen.kept))
-        alphas = default_alphas(marginal) if opts.strength_method == "evidence" else np.array([zscreen.choice.alpha])
-        zf = zone_model.fit(zscreen.kept, alphas)
-    info = {"model_evidence": zf.log_evidence, "model_weights": zf.weights}
-    if zf.edge:
+        logz = dict(fits[0].log_evidence)
+    weights = model_weights(logz)
+    info = {"model_evidence": logz, "model_weights": weights}
+    w_edge = np.exp(le - le.max())
+    w_edge /= w_edge.sum()
+    if len(fits) > 1:      # the zone model's edge widths [m] and their posterior weights
+        info["zone_edge_widths_m"] = [float(zm.edge_width) for zm in zone_models]
+        info["zone_edge_weights"] = [float(w) for w in w_edge]
+    if any(f.edge for f in fits):
         warnings.append("the zone model's evidence-weighted strength reaches the edge of its grid")
-    p_zones = float(zf.weights["zones"])
+    p_zones = float(weights["zones"])
     if opts.model == "auto" and p_zones <= MIXED_MODELS:
-        return design, post, smooth, {"model": "smooth", **info}
-    if opts.model == "auto" and p_zones < 1.0 - MIXED_MODELS:
-        # neither model is clearly preferred: the answer averages both with their probabilities;
-        # the more probable one's screening, name and prior lead
-        c, C = averaged_models(post.c, post.C, zf.c, zf.C, p_zones)
+        return design, post, smooth, {"model": "smooth", **info}, None
+    # the widths that carry weight; their zone columns side by side after the smooth ones
+    use = [i for i in range(len(fits)) if w_edge[i] > MIXED_MODELS]
+    lead = max(use, key=lambda i: w_edge[i])
+    K, J = design.size, len(zone_models[0].columns.zones)
+    all_zones = [z for i in use for z in zone_models[i].columns.zones]
+    columns = ZoneDesign(design, all_zones, None, zone_models[lead].columns.big) if len(use) > 1 \
+        else zone_models[lead].columns
+    Gz = np.hstack([zone_models[i].Gz for i in use])
+    p_smooth = 0.0 if opts.model == "zones" or p_zones >= 1.0 - MIXED_MODELS else 1.0 - p_zones
+    share = w_edge[use] / w_edge[use].sum()
+    parts = [(np.concatenate([np.arange(K), K + j * J + np.arange(J)]), fits[i].c, fits[i].C,
+              (1.0 - p_smooth) * share[j]) for j, i in enumerate(use)]
+    if p_smooth > 0:
+        parts.append((np.arange(K), post.c, post.C, p_smooth))
         info["model_averaged"] = True
-        if p_zones < 0.5:
-            if hasattr(post.averaged, "description"):
-                info["prior"] = post.averaged.description()
-            return zone_model.columns, Posterior(c, C, post.alpha, None), smooth, {"model": "smooth", **info}
-        zf = replace(zf, c=c, C=C)
-    if design.quantity == "temperature" and any(z.edge <= 0 for z in zone_model.columns.zones):
+    size = K + J * len(use)
+    c, C = embedded_mixture(parts, size)
+    zone_model = (zone_models[lead], Gz)
+    mixture = ModelMixture(post.averaged if hasattr(post.averaged, "_components") else (post.c, post.C), K,
+                           p_smooth, parts[:len(use)], size) if len(parts) > 1 else None
+    if p_smooth > 0.5:
+        if hasattr(post.averaged, "description"):
+            info["prior"] = post.averaged.description()
+        return columns, Posterior(c, C, post.alpha, mixture), smooth, {"model": "smooth", **info}, zone_model
+    zf = fits[lead]
+    if design.quantity == "temperature" and any(z.edge <= 0 for z in columns.zones):
         warnings.append("sharp zone edges on a temperature face: the heat flux is singular at a "
                         "temperature step, so the total power is not defined; give the zones an edge width")
     if zf.prior is not None:
         warnings[:] = [w for w in warnings if w not in post.averaged.warnings] + list(zf.prior.warnings)
         info["prior"] = zf.prior.description()
-    return zone_model.columns, Posterior(zf.c, zf.C, zf.alpha, None), zscreen, {"model": "zones", **info}
+    return columns, Posterior(c, C, zf.alpha, mixture), zscreens[lead], {"model": "zones", **info}, zone_model
 
 
 # ------------------------------------------------------------------------ warnings

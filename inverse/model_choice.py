@@ -70,14 +70,72 @@ def model_weights(log_evidence: dict) -> dict:
     return {n: float(x) for n, x in zip(names, w)}
 
 
+def embedded_mixture(components, size):
+    """Moment-matched mixture of posteriors that live on subsets of one coefficient vector
+    (each embedded with zeros and no variance elsewhere): components = [(index (k_i,), c_i,
+    C_i, p_i)], sum p_i = 1;  m = sum p_i m_i,  C = sum p_i (C_i + m_i m_i^T) - m m^T."""
+    mean, second = np.zeros(size), np.zeros((size, size))
+    for index, c, C, p in components:
+        index = np.asarray(index)
+        mean[index] += p * np.asarray(c, float)
+        second[np.ix_(index, index)] += p * (np.asarray(C, float) + np.outer(c, c))
+    cov = second - np.outer(mean, mean)
+    return mean, 0.5 * (cov + cov.T)
+
+
 def averaged_models(c_smooth, C_smooth, c_zones, C_zones, p_zones):
     """Moment-matched average of the two models' posteriors in the zone model's coefficients
     (the smooth one embedded with zone levels 0 and no variance):
     m = (1 - p) m_s + p m_z,  C = (1 - p) C_s + p C_z + p (1 - p) (m_z - m_s)(m_z - m_s)^T."""
-    J = c_zones.size - c_smooth.size
-    m_s = np.concatenate([c_smooth, np.zeros(J)])
-    C_s = np.zeros_like(C_zones)
-    C_s[:c_smooth.size, :c_smooth.size] = C_smooth
     p = float(p_zones)
-    d = c_zones - m_s
-    return (1.0 - p) * m_s + p * c_zones, (1.0 - p) * C_s + p * C_zones + p * (1.0 - p) * np.outer(d, d)
+    return embedded_mixture([(np.arange(c_smooth.size), c_smooth, C_smooth, 1.0 - p),
+                             (np.arange(c_zones.size), c_zones, C_zones, p)], c_zones.size)
+
+
+class ModelMixture:
+    """The posterior averaged over models, for bands: the smooth model's own posterior
+    (`smooth`: a LearnedPrior, whose mixture components are used, or (c, C) of a Gaussian)
+    on the first K coefficients with weight p_smooth, and Gaussian components
+    [(index (k_i,), c_i, C_i, p_i)] on subsets of the size-long coefficient vector (the zone
+    models, one per edge width).  `band` gives the mixture's exact equal-tailed quantiles
+    (strength_average.mixture_band), so that a model with a small weight widens the tails
+    rather than the moment-matched Gaussian reshaping the leading model's band."""
+
+    def __init__(self, smooth, K, p_smooth, components, size):
+        self.smooth, self.K, self.p_smooth = smooth, int(K), float(p_smooth)
+        self.components, self.size = list(components), int(size)
+
+    def _parts(self, B, offset, limit):
+        B = np.atleast_2d(np.asarray(B, float))
+        offset = np.zeros(B.shape[0]) if offset is None else np.asarray(offset, float)
+        ws, ms, ss = [], [], []
+        if self.p_smooth > 0:
+            Bs = B[:, :self.K]
+            if hasattr(self.smooth, "_components"):
+                w, mi, si = self.smooth._components(Bs, offset, limit)
+            else:
+                c, C = self.smooth
+                w, mi = np.ones(1), (offset + Bs @ c)[None, :]
+                si = np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", Bs, C, Bs), 0.0))[None, :]
+            ws.append(self.p_smooth * w)
+            ms.append(mi)
+            ss.append(si)
+        for index, c, C, p in self.components:
+            Bi = B[:, index]
+            ws.append(np.array([p]))
+            ms.append((offset + Bi @ c)[None, :])
+            ss.append(np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", Bi, C, Bi), 0.0))[None, :])
+        return np.concatenate(ws), np.vstack(ms), np.vstack(ss)
+
+    def band(self, B, level: float = 0.95, offset=None):
+        """Mean, sd and the equal-tailed `level` band (lower, upper) of offset + B c."""
+        from .hyperprior import BAND_COMPONENTS
+        from .strength_average import mixture_band
+        limit = BAND_COMPONENTS if np.ndim(B) == 2 and np.shape(B)[0] > 64 else None
+        w, mi, si = self._parts(B, offset, limit)
+        mean = w @ mi
+        sd = np.sqrt(w @ (si ** 2 + (mi - mean) ** 2))
+        lower, upper = mixture_band(w, mi, si, level)
+        if np.ndim(B) == 1:
+            return float(mean[0]), float(sd[0]), float(lower[0]), float(upper[0])
+        return mean, sd, lower, upper

@@ -23,7 +23,7 @@ fixed prior: both on one log-alpha grid), equal prior model odds.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.special import logsumexp
@@ -41,6 +41,14 @@ ZONE_PRIOR_FACTOR = 10.0
 #: the projection keeps modes down to exp(-kappa d_min) = PROJECTION_DECAY at the nearest sensor
 PROJECTION_DECAY = 1e-5
 MAX_TERMS, MAX_HARMONICS = 120, 40
+#: edge widths (x the face size: the radius on an end face, max(radius, height) on a wall) the
+#: zone model is averaged over when no zone declares one.  A heater's edge reaches the face
+#: blurred by the layers between (sheath, clamp, gap) by an amount nobody declares; a sharp
+#: edge alone put zone means 3-4 sd off on finite-element heaters with 8-10 mm tanh edges
+#: (bench/scenarios.py sparse_sector, side_flux), each width's own evidence weighs it.
+EDGE_FRACTIONS = (0.0, 1.0 / 15.0, 2.0 / 15.0)
+#: ... and at most this share of the smallest distance between two edges (edge_room)
+EDGE_ROOM = 0.25
 
 
 def zone_breaks(zone, side, radius):
@@ -98,18 +106,54 @@ def projection(basis, zones):
     return A
 
 
-class ZoneDesign:
-    """Model columns [smooth basis | zone indicators] with the interface of design.Design."""
+def edge_room(zones, side, radius, span) -> float:
+    """The smallest distance [m] between two different edges of the zones (along the radius or
+    the height, and around at each zone's own radius; the face's own ends excluded): no edge
+    ramp may be wider than EDGE_ROOM x this, or neighbouring ramps would overlap."""
+    lo_face, hi_face = span
+    along, room = set(), math.inf
+    for z in zones:
+        lo, hi = z.z if side else z.r
+        along.update(x for x in (lo, hi) if lo_face * (1 + 1e-12) < x < hi_face * (1 - 1e-12))
+        room = min(room, hi - lo)
+        if not z.full_turn:
+            at = radius if side else 0.5 * (z.r[0] + z.r[1])
+            room = min(room, (z.theta[1] - z.theta[0]) * at, (2 * math.pi - (z.theta[1] - z.theta[0])) * at)
+    edges = np.sort(np.array(sorted(along)))
+    if edges.size > 1:
+        room = min(room, float(np.min(np.diff(edges))))
+    return room
 
-    def __init__(self, design, zones, nearest):
+
+def edge_widths(zones, size, room=math.inf) -> tuple:
+    """Edge widths [m] the zone model is averaged over: the declared ones when any zone
+    declares an edge (None: keep the zones as declared), else EDGE_FRACTIONS x the face size,
+    each at most EDGE_ROOM x `room` (edge_room), repeats dropped."""
+    if any(getattr(z, "edge", 0.0) > 0 for z in zones):
+        return (None,)
+    return tuple(dict.fromkeys(min(f * float(size), EDGE_ROOM * room) for f in EDGE_FRACTIONS))
+
+
+def with_edge(zones, width):
+    """The zones with edge width `width` [m] (None: as declared)."""
+    return list(zones) if width is None else [replace(z, edge=float(width)) for z in zones]
+
+
+class ZoneDesign:
+    """Model columns [smooth basis | zone indicators] with the interface of design.Design.
+    `big`: the enlarged basis the indicators are projected on (built here when None)."""
+
+    def __init__(self, design, zones, nearest, big=None):
         self.smooth, self.zones = design, list(zones)
         self.cylinder, self.faces, self.model = design.cylinder, design.faces, design.model
         self.basis = design.basis
-        # modes down to exp(-kappa d_min) = PROJECTION_DECAY at the nearest sensor; harmonics
-        # only when some zone covers part of the turn
-        h, t = enlarged_size(design, nearest, PROJECTION_DECAY, any(not z.full_turn for z in zones),
-                             (MAX_HARMONICS, MAX_TERMS))
-        self.big = design.model.basis(h, t)
+        if big is None:
+            # modes down to exp(-kappa d_min) = PROJECTION_DECAY at the nearest sensor;
+            # harmonics only when some zone covers part of the turn
+            h, t = enlarged_size(design, nearest, PROJECTION_DECAY, any(not z.full_turn for z in zones),
+                                 (MAX_HARMONICS, MAX_TERMS))
+            big = design.model.basis(h, t)
+        self.big = big
         self.A = projection(self.big, self.zones)
         self.n_zones = len(self.zones)
 
@@ -184,8 +228,8 @@ class ZoneModel:
     alpha * remainder_prior) whose noise is S + G_zone diag(s^2) G_zone^T; screening,
     strength and evidence of the zone model work on it."""
 
-    def __init__(self, design, rd, smooth, zones, areas, level_scale, remainder_prior):
-        self.columns = ZoneDesign(design, zones, nearest_distance(design, rd.r, rd.z))
+    def __init__(self, design, rd, smooth, zones, areas, level_scale, remainder_prior, big=None):
+        self.columns = ZoneDesign(design, zones, nearest_distance(design, rd.r, rd.z), big)
         self.Gz = self.columns.sensors(rd.r, rd.theta, rd.z)[0][:, design.size:]
         self.mu, self.s = zone_prior(zones, level_scale, areas)
         self.P = np.asarray(remainder_prior, float)
@@ -210,6 +254,12 @@ class ZoneModel:
         self.tail_prior = first
         self._set_smooth(LinearGaussianProblem(sm.G, sm.d, sm.t0, sm.noise.covariance
                                                + tail_covariance(design, rd, first), sm.prior_diag, sm.c0))
+
+    def share_tail(self, other: "ZoneModel"):
+        """The left-out modes' variance of `other` (add_tail), reused: zone models that
+        differ in their edge widths alone share one remainder tail."""
+        self.tail_prior = other.tail_prior
+        self._set_smooth(other.smooth)
 
     def fit(self, kept, alphas) -> ZoneFit:
         """Posterior of (c, z) on the kept sensors, averaged over the log-alpha grid `alphas`

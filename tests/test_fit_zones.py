@@ -123,7 +123,13 @@ def test_zone_model_on_ring_heaters(readings):
     # sharp as well as calibrated: mean half band well below the truth's own spread
     g = res.grid
     spread = np.std(truth(g.r_m.to_numpy(), g.theta_rad.to_numpy()))
-    assert np.mean(g.upper - g.lower) / 2 <= 0.1 * spread   # 0.1: our design target, no source
+    # 0.15: our design target, no source.  It was 0.1 while the zone model took every edge as
+    # declared (sharp): measured 0.055 then, 0.118 with the average over edge widths
+    # (zones.edge_widths: 0 and 5 mm here, weights 0.57 / 0.43).  This truth is exactly sharp;
+    # within a few mm of each edge the readings, 4-8 mm deep, cannot tell a sharp edge from a
+    # 5 mm one, so the bands there are wide (half band ~3800 W/m^2 at 1 mm from an edge,
+    # 550-700 W/m^2 elsewhere).
+    assert np.mean(g.upper - g.lower) / 2 <= 0.15 * spread
     # delivered fraction of the weak element (nominal given): 60 % within 2 sd
     weak = next(z for z in res.summary["zones"] if z["name"] == "middle0")
     assert abs(weak["delivered_fraction"] - WEAK) <= 2.0 * weak["delivered_fraction_sd"]
@@ -272,3 +278,20 @@ def test_learned_zone_posterior_equals_the_componentwise_joint_solve(readings, m
     scale = np.sqrt(np.diag(cov))
     np.testing.assert_allclose(fit.c, mean, atol=1e-6 * float(np.max(np.abs(mean))))
     np.testing.assert_allclose(fit.C / np.outer(scale, scale), cov / np.outer(scale, scale), atol=1e-6)
+
+
+def test_edge_widths_fit_between_neighbouring_edges():
+    # three rings 10 mm apart (tests/scenario_cases.py three_rings): no ramp wider than a
+    # quarter of that gap; declared edges are kept as they are
+    from heatsight.inverse.zones import EDGE_FRACTIONS, EDGE_ROOM, edge_room, edge_widths
+    rings = [(0.0, 0.045), (0.055, 0.095), (0.105, 0.145)]
+    zs = [inverse.Zone(f"ring{i}", "bottom", (0.0, 2 * math.pi), r=r) for i, r in enumerate(rings)]
+    room = edge_room(zs, False, 0.15, (0.0, 0.15))
+    assert room == pytest.approx(0.010)
+    widths = edge_widths(zs, 0.15, room)
+    assert widths == (0.0, pytest.approx(EDGE_ROOM * 0.010))          # 10 mm and 20 mm both capped
+    wide = [inverse.Zone("half", "bottom", (0.0, math.pi), r=(0.03, 0.13))]
+    assert edge_widths(wide, 0.15, edge_room(wide, False, 0.15, (0.0, 0.15))) == \
+        tuple(pytest.approx(f * 0.15) for f in EDGE_FRACTIONS)
+    declared = [inverse.Zone("ring", "bottom", (0.0, 2 * math.pi), r=(0.02, 0.04), edge=0.003)]
+    assert edge_widths(declared, 0.15) == (None,)

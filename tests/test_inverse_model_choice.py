@@ -58,3 +58,50 @@ def test_averaged_models_match_the_mixture_moments_of_draws():
     draws[pick] = rng.multivariate_normal(c_z, C_z, int(pick.sum()))
     np.testing.assert_allclose(m, draws.mean(axis=0), atol=0.02)
     np.testing.assert_allclose(C, np.cov(draws.T), atol=0.05 * np.abs(C).max())
+
+
+def test_embedded_mixture_of_zone_models_with_different_edges_matches_draws():
+    """Three components on different subsets of one coefficient vector (the smooth model and
+    two zone models with their own zone columns) against seeded draws (numpy): the law of
+    total covariance."""
+    from heatsight.inverse.model_choice import embedded_mixture
+    rng = np.random.default_rng(11)
+    K, J = 3, 2
+    idx = [np.arange(K), np.r_[0:K, K:K + J], np.r_[0:K, K + J:K + 2 * J]]
+    p = np.array([0.2, 0.5, 0.3])
+    comps = []
+    for index, w in zip(idx, p):
+        A = rng.standard_normal((index.size, index.size))
+        comps.append((index, rng.standard_normal(index.size), A @ A.T + 0.1 * np.eye(index.size), w))
+    m, C = embedded_mixture(comps, K + 2 * J)
+    n = 400_000
+    which = rng.choice(3, size=n, p=p)
+    draws = np.zeros((n, K + 2 * J))
+    for i, (index, c, Ci, _) in enumerate(comps):
+        sel = which == i
+        draws[np.ix_(sel, index)] = rng.multivariate_normal(c, Ci, int(sel.sum()))
+    np.testing.assert_allclose(m, draws.mean(axis=0), atol=0.02)
+    np.testing.assert_allclose(C, np.cov(draws.T), atol=0.03 * np.abs(C).max())
+
+
+def test_model_mixture_band_is_the_quantile_of_the_mixture():
+    """ModelMixture's 95 % limits against the empirical quantiles of seeded draws (numpy) of a
+    Gaussian smooth model (weight 0.1) and a zone model on more columns (weight 0.9)."""
+    from heatsight.inverse.model_choice import ModelMixture
+    rng = np.random.default_rng(12)
+    K, J = 2, 1
+    c_s, C_s = np.array([1.0, -1.0]), np.diag([0.2, 0.3])
+    c_z, C_z = np.array([0.5, 0.0, 2.0]), np.diag([0.1, 0.1, 0.05])
+    mix = ModelMixture((c_s, C_s), K, 0.1, [(np.arange(K + J), c_z, C_z, 0.9)], K + J)
+    B = np.array([[1.0, 0.0, 1.0], [0.0, 1.0, 0.0]])
+    mean, sd, lo, hi = mix.band(B, offset=np.array([0.5, 0.0]))
+    n = 1_000_000
+    pick = rng.uniform(size=n) < 0.1
+    x = np.zeros((n, K + J))
+    x[pick, :K] = rng.multivariate_normal(c_s, C_s, int(pick.sum()))
+    x[~pick] = rng.multivariate_normal(c_z, C_z, int((~pick).sum()))
+    q = x @ B.T + np.array([0.5, 0.0])
+    np.testing.assert_allclose(mean, q.mean(axis=0), atol=0.01)
+    np.testing.assert_allclose(sd, q.std(axis=0), atol=0.01)
+    np.testing.assert_allclose(lo, np.quantile(q, 0.025, axis=0), atol=0.02)
+    np.testing.assert_allclose(hi, np.quantile(q, 0.975, axis=0), atol=0.02)

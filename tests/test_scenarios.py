@@ -45,7 +45,6 @@ HOLLOW = ("tube_bore_temperature", "tube_bore_flux")  # issue 11: the bore of a 
 NOT_MET = {
     ("platen_flux", "rel_rms"): "0.79", ("platen_flux", "sharpness"): "1.43",
     ("top_temperature", "zones"): "4 of 6 (centre +2.0, contact ring -2.1 sd)",
-    ("side_flux", "coverage"): "0.83", ("side_flux", "zones"): "3 of 4 (band 270-360 +2.9 sd)",
     ("calibrated_convection", "rel_rms"): "0.54", ("calibrated_convection", "sharpness"): "1.63",
     ("calibrated_convection", "zones"): "0 of 2 (-2.4, +2.7 sd)",
     ("chuck_class2", "rel_rms"): "1.05",
