@@ -249,8 +249,9 @@ def test_learned_zone_posterior_equals_the_componentwise_joint_solve(readings, m
     original = zm.ZoneModel.learned_fit
 
     def spy(self, kept, *args):
-        seen["model"], seen["kept"] = self, kept
-        seen["fit"] = out = original(self, kept, *args)
+        out = original(self, kept, *args)
+        if "fit" not in seen:         # the first edge width's (sharp edges)
+            seen["model"], seen["kept"], seen["fit"] = self, kept, out
         return out
 
     monkeypatch.setattr(zm.ZoneModel, "learned_fit", spy)
