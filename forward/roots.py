@@ -25,13 +25,21 @@ nearby h cost a few iterations per root.
 
 from __future__ import annotations
 
+import functools
 import threading
 from collections import OrderedDict
+from pathlib import Path
 
 import numpy as np
 from scipy import special
 
 from .bracketing import solve_bracketed
+
+#: zeros of J_m and J_m' computed once by this module (write_zero_tables) and shipped with
+#: the package: a fresh process (every command) starts from them instead of bracketing
+#: ~10^4 roots again (1.5 s of the demo's fit)
+ZERO_TABLE_FILE = Path(__file__).with_name("bessel_zero_tables.npz")
+ZERO_TABLE_SIZE = (64, 320, 256)     # m = 0..64; first 320 zeros of J_m, 256 of J_m'
 
 
 def _jv(m, x):
@@ -46,14 +54,27 @@ _zero_lock = threading.Lock()
 _zero_table = np.zeros((0, 0))
 
 
-def _bessel_zero_table(m_max: int, n: int) -> np.ndarray:
+@functools.lru_cache(maxsize=1)
+def _shipped_tables():
+    """(zeros of J_m (M+1, N), zeros of J_m' (M+1, N')) from ZERO_TABLE_FILE, or None."""
+    try:
+        with np.load(ZERO_TABLE_FILE) as f:
+            return np.array(f["j"]), np.array(f["jp"])
+    except (OSError, KeyError, ValueError):
+        return None
+
+
+def _bessel_zero_table(m_max: int, n: int, shipped: bool = True) -> np.ndarray:
     """Zeros j_{m,k} of J_m for m = 0..m_max (at least), first n (at least) of each.
 
     One table, grown by doubling, serves every request: the cascade from the zeros of
-    J_0 through the interlacing brackets is run once per growth.
+    J_0 through the interlacing brackets is run once per growth (starting from the shipped
+    table, ZERO_TABLE_FILE).
     """
     global _zero_table
     with _zero_lock:
+        if shipped and _zero_table.size == 0 and _shipped_tables() is not None:
+            _zero_table = _shipped_tables()[0]
         have_m, have_n = _zero_table.shape[0] - 1, _zero_table.shape[1]
         if have_m >= m_max and have_n >= n:
             return _zero_table
@@ -120,6 +141,17 @@ class _RootCache:
                     above = (v, arr)
         return (below[1][:n] if below else None), (above[1][:n] if above else None)
 
+    def __contains__(self, key):
+        with self._lock:
+            return key in self._data
+
+    def seed(self, key, roots):
+        """Store the leading roots `roots` of family `key` unless more are cached already."""
+        with self._lock:
+            have = self._data.get(key)
+            if have is None or have.size < roots.size:
+                self._data[key] = np.array(roots, dtype=float)
+
     def clear(self):
         with self._lock:
             self._data.clear()
@@ -141,7 +173,38 @@ def bessel_derivative_zeros(m: int, n: int, include_zero: bool = True) -> np.nda
         lo = np.concatenate([[float(m)], j[:-1]])
         return solve_bracketed(lambda x, i: _jvp(m, x), lo[have:], j[have:])
 
+    shipped = _shipped_tables()
+    if shipped is not None and m < shipped[1].shape[0] and ("N", m) not in ROOT_CACHE:
+        ROOT_CACHE.seed(("N", m), shipped[1][m])
     return ROOT_CACHE.get(("N", m), n, extend)
+
+
+def compute_zero_tables(m_max: int = ZERO_TABLE_SIZE[0], n_j: int = ZERO_TABLE_SIZE[1],
+                        n_jp: int = ZERO_TABLE_SIZE[2]):
+    """(zeros of J_m, zeros of J_m' for m >= 1) for m = 0..m_max, computed here by the
+    bracketing cascade without the shipped table: (m_max + 1, n_j) and (m_max + 1, n_jp)
+    (row 0 of the second: the zeros of J_1, which are J_0''s positive zeros)."""
+    global _zero_table
+    with _zero_lock:
+        kept, _zero_table = _zero_table, np.zeros((0, 0))
+    try:
+        j = _bessel_zero_table(m_max, n_j + 1, shipped=False)
+        # the J_m' roots bracketed between J_m zeros (the m = 0 row: J_0' = -J_1)
+        jp = [j[1, :n_jp]]
+        for m in range(1, m_max + 1):
+            lo = np.concatenate([[float(m)], j[m, :n_jp - 1]])
+            jp.append(solve_bracketed(lambda x, i, m=m: _jvp(m, x), lo, j[m, :n_jp]))
+        return j[: m_max + 1, :n_j].copy(), np.array(jp)
+    finally:
+        with _zero_lock:
+            _zero_table = kept
+
+
+def write_zero_tables(path=ZERO_TABLE_FILE):
+    """Write compute_zero_tables() to `path` (the shipped file; run after changing the
+    root finding: tests/test_forward_roots.py checks the file against a fresh computation)."""
+    j, jp = compute_zero_tables()
+    np.savez_compressed(path, j=j, jp=jp)
 
 
 def robin_radial_roots(m: int, n: int, biot: float) -> np.ndarray:

@@ -208,3 +208,23 @@ def test_ive_orders_match_scipy(max_order):
     ref = special.ive(np.arange(max_order + 2)[:, None], x[None, :])  # scipy.special.ive
     np.testing.assert_allclose(out, ref, rtol=1e-12, atol=0.0)
     assert np.all(np.isfinite(out))
+
+
+def test_shipped_zero_tables_equal_a_fresh_computation_and_scipy():
+    # forward/bessel_zero_tables.npz is what compute_zero_tables() gives (regenerate it with
+    # write_zero_tables() after changing the root finding); scipy.special.jn_zeros and
+    # jnp_zeros are the outside reference for a few orders
+    from heatsight.forward import roots as rt
+    shipped = rt._shipped_tables()
+    assert shipped is not None
+    j, jp = rt.compute_zero_tables()
+    assert j.shape == shipped[0].shape and jp.shape == shipped[1].shape
+    np.testing.assert_allclose(shipped[0], j, rtol=1e-14)
+    np.testing.assert_allclose(shipped[1], jp, rtol=1e-14)
+    for m in (0, 1, 7, 30, 64):
+        np.testing.assert_allclose(shipped[0][m, :100], special.jn_zeros(m, 100), rtol=1e-12)  # scipy
+    for m in (1, 5, 40):
+        np.testing.assert_allclose(shipped[1][m, :60], special.jnp_zeros(m, 60), rtol=1e-12)   # scipy
+    # the families the fit asks for come from the table and extend past it
+    np.testing.assert_allclose(rt.bessel_derivative_zeros(5, 300)[:256], shipped[1][5], rtol=0)
+    np.testing.assert_allclose(rt.bessel_zeros(3, 400)[:320], shipped[0][3], rtol=1e-14)

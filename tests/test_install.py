@@ -31,6 +31,7 @@ def test_wheel_holds_one_import_package_and_the_demo(wheel):
     assert tops == {"heatsight"}
     for data in ("platen.toml", "layout.csv", "readings.csv", "truth.json"):
         assert f"heatsight/demo_data/{data}" in names
+    assert "heatsight/forward/bessel_zero_tables.npz" in names     # the shipped root tables
 
 
 def test_installed_wheel_runs_demo_beside_clashing_modules(wheel, tmp_path):
