@@ -46,7 +46,7 @@ from .result import FitResult, Posterior, valid_zones, zone_area
 from .strength import choose_strength, default_alphas
 from .strength_average import StrengthAverage
 from .threads import few_threads
-from .truncation import tail_covariance, tail_power
+from .truncation import nearest_distance, tail_covariance, tail_power
 from .zones import ZoneDesign, ZoneModel, edge_room, edge_widths, with_edge
 
 #: reduced chi-square above which the readings scatter more than stated (common practice, no source)
@@ -305,10 +305,13 @@ def _zone_models(spec, design, rd, problem, warnings, learned):
     side = is_wall(design.face_name)
     room = edge_room(zones, side, cyl.wall_radius(design.face_name), face_interval(design.face_name, cyl))
     widths = edge_widths(zones, face_size(design.basis), room) if learned else (None,)
-    models, big = [], None
-    for width in widths:
-        zm = ZoneModel(design, rd, problem, with_edge(zones, width), areas, scale, remainder, big)
-        zm.edge_width, big = width, zm.columns.big
+    # every width's zones projected in one go (one rule split at all their breaks)
+    sets = [with_edge(zones, width) for width in widths]
+    every = ZoneDesign(design, [z for zs in sets for z in zs], nearest_distance(design, rd.r, rd.z))
+    models, J = [], len(zones)
+    for i, (width, zs) in enumerate(zip(widths, sets)):
+        zm = ZoneModel(design, rd, problem, zs, areas, scale, remainder, every.big, every.A[i * J:(i + 1) * J])
+        zm.edge_width = width
         models.append(zm)
     return models
 
@@ -364,7 +367,8 @@ def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem,
     lead = max(use, key=lambda i: w_edge[i])
     K, J = design.size, len(zone_models[0].columns.zones)
     all_zones = [z for i in use for z in zone_models[i].columns.zones]
-    columns = ZoneDesign(design, all_zones, None, zone_models[lead].columns.big) if len(use) > 1 \
+    columns = ZoneDesign(design, all_zones, None, zone_models[lead].columns.big,
+                         np.vstack([zone_models[i].columns.A for i in use])) if len(use) > 1 \
         else zone_models[lead].columns
     Gz = np.hstack([zone_models[i].Gz for i in use])
     p_smooth = 0.0 if opts.model == "zones" or p_zones >= 1.0 - MIXED_MODELS else 1.0 - p_zones

@@ -141,9 +141,11 @@ def with_edge(zones, width):
 
 class ZoneDesign:
     """Model columns [smooth basis | zone indicators] with the interface of design.Design.
-    `big`: the enlarged basis the indicators are projected on (built here when None)."""
+    `big`: the enlarged basis the indicators are projected on (built here when None); `A`:
+    the zones' projection on it when already computed (rows of a `projection` that held
+    these zones among others: one quadrature rule split at every zone's breaks)."""
 
-    def __init__(self, design, zones, nearest, big=None):
+    def __init__(self, design, zones, nearest, big=None, A=None):
         self.smooth, self.zones = design, list(zones)
         self.cylinder, self.faces, self.model = design.cylinder, design.faces, design.model
         self.basis = design.basis
@@ -154,7 +156,7 @@ class ZoneDesign:
                                  (MAX_HARMONICS, MAX_TERMS))
             big = design.model.basis(h, t)
         self.big = big
-        self.A = projection(self.big, self.zones)
+        self.A = projection(self.big, self.zones) if A is None else np.asarray(A, float)
         self.n_zones = len(self.zones)
 
     @property
@@ -228,8 +230,8 @@ class ZoneModel:
     alpha * remainder_prior) whose noise is S + G_zone diag(s^2) G_zone^T; screening,
     strength and evidence of the zone model work on it."""
 
-    def __init__(self, design, rd, smooth, zones, areas, level_scale, remainder_prior, big=None):
-        self.columns = ZoneDesign(design, zones, nearest_distance(design, rd.r, rd.z), big)
+    def __init__(self, design, rd, smooth, zones, areas, level_scale, remainder_prior, big=None, A=None):
+        self.columns = ZoneDesign(design, zones, nearest_distance(design, rd.r, rd.z), big, A)
         self.Gz = self.columns.sensors(rd.r, rd.theta, rd.z)[0][:, design.size:]
         self.mu, self.s = zone_prior(zones, level_scale, areas)
         self.P = np.asarray(remainder_prior, float)
