@@ -354,14 +354,14 @@ def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem,
     info = {"model_evidence": logz, "model_weights": weights}
     w_edge = np.exp(le - le.max())
     w_edge /= w_edge.sum()
-    if len(fits) > 1:      # the zone model's edge widths [m] and their posterior weights
-        info["zone_edge_widths_m"] = [float(zm.edge_width) for zm in zone_models]
-        info["zone_edge_weights"] = [float(w) for w in w_edge]
     if any(f.edge for f in fits):
         warnings.append("the zone model's evidence-weighted strength reaches the edge of its grid")
     p_zones = float(weights["zones"])
     if opts.model == "auto" and p_zones <= MIXED_MODELS:
         return design, post, smooth, {"model": "smooth", **info}, None
+    if len(fits) > 1:      # the zone model's edge widths [m] and their posterior weights
+        info["zone_edge_widths_m"] = [float(zm.edge_width) for zm in zone_models]
+        info["zone_edge_weights"] = [float(w) for w in w_edge]
     # the widths that carry weight; their zone columns side by side after the smooth ones
     use = [i for i in range(len(fits)) if w_edge[i] > MIXED_MODELS]
     lead = max(use, key=lambda i: w_edge[i])

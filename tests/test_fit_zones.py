@@ -142,6 +142,10 @@ def test_zone_model_on_ring_heaters(readings):
     assert out["model"] == "zones" and out["model_weights"] == res.summary["model_weights"]
     weak_out = next(z for z in out["zones"] if z["name"] == "middle0")
     assert weak_out["delivered_fraction"] == weak["delivered_fraction"] and weak_out["nominal_W"] > 0
+    # the edge widths the zone model was averaged over (rings 20 mm apart: sharp, 5 mm) and
+    # their weights
+    assert out["zone_edge_widths_m"] == pytest.approx([0.0, 0.005])
+    assert sum(out["zone_edge_weights"]) == pytest.approx(1.0)
 
 
 def test_evidence_prefers_zones_on_ring_heaters(readings):
