@@ -15,6 +15,7 @@ alphas    choosing alpha by the evidence among 200 candidates from one SVD
           goal >= 20x.
 command   `heatsight fit` of the demo as a fresh process, end to end (goal <= 1.5 s), and
           `heatsight --help` (goal <= 0.3 s), then the split of one fit command's time.
+threads   the demo's inverse.fit with the BLAS pool at the library default and at one thread.
 full      inverse.fit with bands on a 50 x 90 face grid, 64 sensors, 210 coefficients
           (harmonics 10, terms 10), and the share of its time spent in the forward model
           (CylinderModel + basis construction, basis fields at the sensors, face values on
@@ -337,8 +338,43 @@ def bench_command(repeat):
         shutil.rmtree(tmp, ignore_errors=True)
 
 
+def bench_threads(repeat):
+    """The demo's inverse.fit (warm) with the BLAS pools at the library's default and at one
+    thread (inverse.threads.BLAS_THREADS: what every fit now runs with), one run each way."""
+    import shutil
+    import tempfile
+
+    from threadpoolctl import threadpool_info, threadpool_limits
+
+    from heatsight.data_io.case import load_case
+    from heatsight.data_io.fit_steps import fit_case
+    from heatsight.inverse import threads
+
+    tmp = Path(tempfile.mkdtemp(prefix="heatsight-bench-threads-"))
+    try:
+        for name in ("platen.toml", "layout.csv", "readings.csv"):
+            shutil.copy(_HERE.parent / "demo_data" / name, tmp / name)
+        case = load_case(tmp / "platen.toml", purpose="fit")
+        fit = lambda: fit_case(case, case.sensors.readings)  # noqa: E731
+        fit()
+        saved = threads.BLAS_THREADS
+        try:
+            with threadpool_limits(limits=os.cpu_count(), user_api="blas"):   # undo main()'s one thread
+                default = max(p["num_threads"] for p in threadpool_info() if p["user_api"] == "blas")
+                threads.BLAS_THREADS = None
+                t_default = best_of(fit, repeat)
+                threads.BLAS_THREADS = 1
+                t_one = best_of(fit, repeat)
+        finally:
+            threads.BLAS_THREADS = saved
+        print(f"demo fit, BLAS pool at the library default ({default} threads) vs one thread: "
+              f"{t_default:.2f} vs {t_one:.2f} s = {t_default / t_one:.2f}x")
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
+
+
 SECTIONS = {"table": bench_table, "jacobian": bench_jacobian, "alphas": bench_alphas, "full": bench_full,
-            "command": bench_command}
+            "command": bench_command, "threads": bench_threads}
 
 
 def main(argv=None):
