@@ -71,7 +71,7 @@ from ..forward.geometry import is_wall
 
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem, evidence_spectrum, log_evidence_from_spectrum
-from .strength_average import mixture_band
+from .strength_average import mixture_summary
 
 LOG_AMPLITUDE_SD = math.log(10.0) / 4.0
 LENGTH_RANGE = (1.0 / 20.0, 4.0)      # times the face size D
@@ -93,6 +93,11 @@ TAIL = 1e-3
 BAND_COMPONENTS = 256
 #: posterior sd / prior sd of log sigma_f above which the hyperprior, not the data, sets the amplitude
 PRIOR_DOMINATED = 0.55  # a one-sided bound leaves ~0.6 (half-normal sd 0.60); informative data give 0.1-0.3
+
+
+def merge_limit(B):
+    """BAND_COMPONENTS for pointwise bands over many points (B with over 64 rows), else None."""
+    return BAND_COMPONENTS if np.ndim(B) == 2 and np.shape(B)[0] > 64 else None
 
 
 def face_area(basis) -> float:
@@ -321,13 +326,8 @@ class LearnedPrior:
 
     def band(self, B, level: float = 0.95, offset=None):
         """Mean, sd and the equal-tailed `level` band (lower, upper) of offset + B c (mixture quantiles)."""
-        w, mi, si = self._components(B, offset, BAND_COMPONENTS if np.ndim(B) == 2 and np.shape(B)[0] > 64 else None)
-        mean = w @ mi
-        sd = np.sqrt(w @ (si ** 2 + (mi - mean) ** 2))
-        lower, upper = mixture_band(w, mi, si, level)
-        if np.ndim(B) == 1:
-            return float(mean[0]), float(sd[0]), float(lower[0]), float(upper[0])
-        return mean, sd, lower, upper
+        w, mi, si = self._components(B, offset, merge_limit(B))
+        return mixture_summary(w, mi, si, level, scalar=np.ndim(B) == 1)
 
     def prior_sd(self, B) -> np.ndarray:
         """sd of B c under the prior averaged over the hyperparameter posterior:

@@ -22,6 +22,9 @@ import math
 import numpy as np
 from scipy.special import logsumexp
 
+from .hyperprior import merge_limit
+from .strength_average import mixture_summary
+
 #: prior probability that a reading is broken: the screening's family-wise level (diagnostics.FAMILY_LEVEL)
 EPSILON = 0.02
 #: posterior probability below which a model is left out of the average (a numerical cut:
@@ -129,13 +132,5 @@ class ModelMixture:
 
     def band(self, B, level: float = 0.95, offset=None):
         """Mean, sd and the equal-tailed `level` band (lower, upper) of offset + B c."""
-        from .hyperprior import BAND_COMPONENTS
-        from .strength_average import mixture_band
-        limit = BAND_COMPONENTS if np.ndim(B) == 2 and np.shape(B)[0] > 64 else None
-        w, mi, si = self._parts(B, offset, limit)
-        mean = w @ mi
-        sd = np.sqrt(w @ (si ** 2 + (mi - mean) ** 2))
-        lower, upper = mixture_band(w, mi, si, level)
-        if np.ndim(B) == 1:
-            return float(mean[0]), float(sd[0]), float(lower[0]), float(upper[0])
-        return mean, sd, lower, upper
+        w, mi, si = self._parts(B, offset, merge_limit(B))
+        return mixture_summary(w, mi, si, level, scalar=np.ndim(B) == 1)

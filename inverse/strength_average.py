@@ -71,6 +71,17 @@ def mixture_band(weights, means, sds, level: float = 0.95):
     return np.minimum(lower, upper), np.maximum(lower, upper)
 
 
+def mixture_summary(weights, means, sds, level: float = 0.95, scalar: bool = False):
+    """Mean, sd and the equal-tailed `level` band (lower, upper) of the Gaussian mixture
+    (weights (m,), means and sds (m, q)): arrays (q,), or floats when `scalar` (q = 1)."""
+    mean = weights @ means
+    sd = np.sqrt(weights @ (sds ** 2 + (means - mean) ** 2))
+    lower, upper = mixture_band(weights, means, sds, level)
+    if scalar:
+        return float(mean[0]), float(sd[0]), float(lower[0]), float(upper[0])
+    return mean, sd, lower, upper
+
+
 class StrengthAverage:
     """Evidence-weighted mixture over alphas (default `default_alphas(problem)`)."""
 
