@@ -304,7 +304,7 @@ def _zone_models(spec, design, rd, problem, warnings, learned):
     remainder, _ = smooth_prior(design.basis, cyl.radius, opts.smoothing)
     side = is_wall(design.face_name)
     room = edge_room(zones, side, cyl.wall_radius(design.face_name), face_interval(design.face_name, cyl))
-    widths = edge_widths(zones, face_size(design.basis), room) if learned else (None,)
+    widths = edge_widths(zones, face_size(design.basis), room, design.quantity) if learned else (None,)
     # every width's zones projected in one go (one rule split at all their breaks)
     sets = [with_edge(zones, width) for width in widths]
     every = ZoneDesign(design, [z for zs in sets for z in zs], nearest_distance(design, rd.r, rd.z))

@@ -125,13 +125,15 @@ def edge_room(zones, side, radius, span) -> float:
     return room
 
 
-def edge_widths(zones, size, room=math.inf) -> tuple:
+def edge_widths(zones, size, room=math.inf, quantity="flux") -> tuple:
     """Edge widths [m] the zone model is averaged over: the declared ones when any zone
     declares an edge (None: keep the zones as declared), else EDGE_FRACTIONS x the face size,
-    each at most EDGE_ROOM x `room` (edge_room), repeats dropped."""
+    each at most EDGE_ROOM x `room` (edge_room), repeats dropped.  On a temperature face the
+    sharp edge is left out: a step in temperature has a singular heat flux (no total power)."""
     if any(getattr(z, "edge", 0.0) > 0 for z in zones):
         return (None,)
-    return tuple(dict.fromkeys(min(f * float(size), EDGE_ROOM * room) for f in EDGE_FRACTIONS))
+    fractions = [f for f in EDGE_FRACTIONS if f > 0 or quantity != "temperature"]
+    return tuple(dict.fromkeys(min(f * float(size), EDGE_ROOM * room) for f in fractions))
 
 
 def with_edge(zones, width):

@@ -300,3 +300,6 @@ def test_edge_widths_fit_between_neighbouring_edges():
         tuple(pytest.approx(f * 0.15) for f in EDGE_FRACTIONS)
     declared = [inverse.Zone("ring", "bottom", (0.0, 2 * math.pi), r=(0.02, 0.04), edge=0.003)]
     assert edge_widths(declared, 0.15) == (None,)
+    # a temperature face never gets a sharp step (its heat flux would be singular)
+    assert edge_widths(wide, 0.15, edge_room(wide, False, 0.15, (0.0, 0.15)), "temperature") == \
+        tuple(pytest.approx(f * 0.15) for f in EDGE_FRACTIONS if f > 0)
