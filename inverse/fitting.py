@@ -28,7 +28,7 @@ from .calibration import calibrate
 from .design import NOMINAL_PRECISION_FACTOR, Design, smooth_prior
 from .diagnostics import screen_outliers, sensor_table
 from .functionals import face_functionals
-from .hyperprior import face_size, learn_prior
+from .hyperprior import LearnedPrior, face_size, learn_prior
 from .layout import FAR_FRACTION, angular_note
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem
@@ -310,9 +310,8 @@ def _zone_models(spec, design, rd, problem, warnings, learned):
     every = ZoneDesign(design, [z for zs in sets for z in zs], nearest_distance(design, rd.r, rd.z))
     models, J = [], len(zones)
     for i, (width, zs) in enumerate(zip(widths, sets)):
-        zm = ZoneModel(design, rd, problem, zs, areas, scale, remainder, every.big, every.A[i * J:(i + 1) * J])
-        zm.edge_width = width
-        models.append(zm)
+        models.append(ZoneModel(design, rd, problem, zs, areas, scale, remainder, every.big,
+                                every.A[i * J:(i + 1) * J], edge_width=width))
     return models
 
 
@@ -381,8 +380,10 @@ def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem,
     size = K + J * len(use)
     c, C = embedded_mixture(parts, size)
     zone_model = (zone_models[lead], Gz)
-    mixture = ModelMixture(post.averaged if hasattr(post.averaged, "_components") else (post.c, post.C), K,
-                           p_smooth, parts[:len(use)], size) if len(parts) > 1 else None
+    # bands: exact mixture quantiles, over the learned prior's own components where it has them
+    learned = isinstance(post.averaged, LearnedPrior) and p_smooth > 0
+    mixture = None if len(parts) == 1 else \
+        ModelMixture(parts[:len(use)], size, post.averaged, p_smooth) if learned else ModelMixture(parts, size)
     if p_smooth > 0.5:
         if hasattr(post.averaged, "description"):
             info["prior"] = post.averaged.description()

@@ -54,8 +54,8 @@ Hyperpriors (proper, weakly informative):
   seeds with orders {1..5}, 1.7-1.96 with {0.5, 1, 1.5, 2}. (s = 0, white noise on the
   face, is left out: its amplitude grows with the number of modes kept.)
 
-The evidence p(d | alpha, l, s, rho) comes from one n x n eigendecomposition per (l, s, rho)
-(evidence_spectrum; the full SVD of LinearGaussianProblem only where the posterior has weight); the
+The evidence p(d | alpha, l, s, rho) comes from one thin SVD per (l, s, rho) (evidence_spectrum;
+the full SVD of LinearGaussianProblem only where the posterior has weight); the
 amplitude is integrated on a grid in log sigma_f that is extended until both edges carry a
 negligible weight, so no answer depends on where that grid ends. The posterior of c is the
 mixture sum_i w_i N(c_i, C_i) over (sigma_f, l, s, rho) with weights evidence x hyperprior.
@@ -93,6 +93,12 @@ TAIL = 1e-3
 BAND_COMPONENTS = 256
 #: posterior sd / prior sd of log sigma_f above which the hyperprior, not the data, sets the amplitude
 PRIOR_DOMINATED = 0.55  # a one-sided bound leaves ~0.6 (half-normal sd 0.60); informative data give 0.1-0.3
+
+
+def readings_spread(problem) -> float:
+    """mean(y^2) - 1, y = L^-1 (d - t0 - G c0): the readings' whitened mean square about the
+    prior mean beyond the noise (the amplitude scale of LearnedPrior's hyperprior)."""
+    return float(np.mean(problem.y ** 2)) - 1.0
 
 
 def merge_limit(B):
@@ -180,10 +186,8 @@ class LearnedPrior:
         ratios = AXISYMMETRIC_RATIOS if ratios is None else ratios
         axis = axisymmetric_modes(basis)
         self.ratios = tuple(float(x) for x in ratios) if np.any(free & axis) else (1.0,)
-        Gw = problem.noise.whiten(problem.G)
-        if spread is None:
-            spread = float(np.mean(problem.y ** 2)) - 1.0
-        spread = max(float(spread), 1.0)
+        Gw = problem.whitened_design
+        spread = max(float(readings_spread(problem) if spread is None else spread), 1.0)
         self.problem = problem
         ev, scale = basis.surface_eigenvalues(), basis.norms() / face_area(basis)
         combos, precisions, spectra, log_ref, T = [], [], [], [], []
@@ -299,7 +303,7 @@ class LearnedPrior:
     def posterior_sd(self) -> np.ndarray:
         return np.sqrt(np.maximum(np.diag(self.posterior_covariance()), 0.0))
 
-    def _components(self, B, offset, limit=None):
+    def band_components(self, B, offset, limit=None):
         """Weights (m,), means and sds (m, q) of the mixture's components for offset + B c;
         with `limit`, neighbouring amplitudes of one (l, s, rho) are merged (merge_neighbours)."""
         means, sds, ws = [], [], []
@@ -317,7 +321,7 @@ class LearnedPrior:
 
     def predict(self, B, offset=None):
         """Mixture mean and sd of offset + B c; shapes (q,) (scalars for B of shape (K,))."""
-        w, mi, si = self._components(B, offset)
+        w, mi, si = self.band_components(B, offset)
         mean = w @ mi
         sd = np.sqrt(w @ (si ** 2 + (mi - mean) ** 2))
         if np.ndim(B) == 1:
@@ -326,7 +330,7 @@ class LearnedPrior:
 
     def band(self, B, level: float = 0.95, offset=None):
         """Mean, sd and the equal-tailed `level` band (lower, upper) of offset + B c (mixture quantiles)."""
-        w, mi, si = self._components(B, offset, merge_limit(B))
+        w, mi, si = self.band_components(B, offset, merge_limit(B))
         return mixture_summary(w, mi, si, level, scalar=np.ndim(B) == 1)
 
     def prior_sd(self, B) -> np.ndarray:

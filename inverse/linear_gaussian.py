@@ -128,6 +128,11 @@ class LinearGaussianProblem:
         new._set_data(d)
         return new
 
+    @property
+    def whitened_design(self) -> np.ndarray:
+        """L^-1 G (n, K), computed once and shared by with_prior."""
+        return self._Gw
+
     def with_prior(self, prior_diag) -> "LinearGaussianProblem":
         """Same readings, noise and prior mean, another prior precision diagonal P (K,) (new SVD)."""
         return LinearGaussianProblem(self.G, self.d, self.t0, self.noise, prior_diag, self.c0,

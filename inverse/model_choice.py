@@ -96,31 +96,25 @@ def averaged_models(c_smooth, C_smooth, c_zones, C_zones, p_zones):
 
 
 class ModelMixture:
-    """The posterior averaged over models, for bands: the smooth model's own posterior
-    (`smooth`: a LearnedPrior, whose mixture components are used, or (c, C) of a Gaussian)
-    on the first K coefficients with weight p_smooth, and Gaussian components
-    [(index (k_i,), c_i, C_i, p_i)] on subsets of the size-long coefficient vector (the zone
-    models, one per edge width).  `band` gives the mixture's exact equal-tailed quantiles
+    """The posterior averaged over models, for bands: Gaussian components [(index (k_i,),
+    c_i, C_i, p_i)] on subsets of the size-long coefficient vector (the zone models, one per
+    edge width, and a Gaussian smooth model), and optionally a learned prior's own mixture
+    (hyperprior.LearnedPrior.band_components) on the first learned.problem.K coefficients
+    with weight p_learned.  `band` gives the mixture's exact equal-tailed quantiles
     (strength_average.mixture_band), so that a model with a small weight widens the tails
     rather than the moment-matched Gaussian reshaping the leading model's band."""
 
-    def __init__(self, smooth, K, p_smooth, components, size):
-        self.smooth, self.K, self.p_smooth = smooth, int(K), float(p_smooth)
+    def __init__(self, components, size, learned=None, p_learned=0.0):
         self.components, self.size = list(components), int(size)
+        self.learned, self.p_learned = learned, float(p_learned)
 
     def _parts(self, B, offset, limit):
         B = np.atleast_2d(np.asarray(B, float))
         offset = np.zeros(B.shape[0]) if offset is None else np.asarray(offset, float)
         ws, ms, ss = [], [], []
-        if self.p_smooth > 0:
-            Bs = B[:, :self.K]
-            if hasattr(self.smooth, "_components"):
-                w, mi, si = self.smooth._components(Bs, offset, limit)
-            else:
-                c, C = self.smooth
-                w, mi = np.ones(1), (offset + Bs @ c)[None, :]
-                si = np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", Bs, C, Bs), 0.0))[None, :]
-            ws.append(self.p_smooth * w)
+        if self.learned is not None and self.p_learned > 0:
+            w, mi, si = self.learned.band_components(B[:, :self.learned.problem.K], offset, limit)
+            ws.append(self.p_learned * w)
             ms.append(mi)
             ss.append(si)
         for index, c, C, p in self.components:

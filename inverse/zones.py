@@ -32,7 +32,7 @@ from .errors import InverseError
 from ..forward.geometry import is_wall
 from .face_grid import face_interval, segments
 from .design import NOMINAL_PRECISION_FACTOR
-from .hyperprior import learn_prior
+from .hyperprior import learn_prior, readings_spread
 from .linear_gaussian import LinearGaussianProblem
 from .truncation import enlarged_size, nearest_distance, tail_covariance
 
@@ -119,7 +119,7 @@ def edge_room(zones, side, radius, span) -> float:
         if not z.full_turn:
             at = radius if side else 0.5 * (z.r[0] + z.r[1])
             room = min(room, (z.theta[1] - z.theta[0]) * at, (2 * math.pi - (z.theta[1] - z.theta[0])) * at)
-    edges = np.sort(np.array(sorted(along)))
+    edges = np.array(sorted(along))
     if edges.size > 1:
         room = min(room, float(np.min(np.diff(edges))))
     return room
@@ -232,7 +232,9 @@ class ZoneModel:
     alpha * remainder_prior) whose noise is S + G_zone diag(s^2) G_zone^T; screening,
     strength and evidence of the zone model work on it."""
 
-    def __init__(self, design, rd, smooth, zones, areas, level_scale, remainder_prior, big=None, A=None):
+    def __init__(self, design, rd, smooth, zones, areas, level_scale, remainder_prior, big=None, A=None,
+                 edge_width=None):
+        self.edge_width = edge_width      # [m] the width its zones were given (None: as declared)
         self.columns = ZoneDesign(design, zones, nearest_distance(design, rd.r, rd.z), big, A)
         self.Gz = self.columns.sensors(rd.r, rd.theta, rd.z)[0][:, design.size:]
         self.mu, self.s = zone_prior(zones, level_scale, areas)
@@ -307,8 +309,7 @@ class ZoneModel:
         remainder's prior as tight as the zones' fit where the sensors are, and the face
         where none are as certain: sparse_sector's power +2.1 sd, 619.8 +- 7.2 W against
         604.7 W; with the smooth model's scale +1.0 sd.)"""
-        smooth = self.smooth.subset(idx)
-        return float(np.mean(smooth.y ** 2)) - 1.0
+        return readings_spread(self.smooth.subset(idx))
 
     def _levels_given_remainder(self, idx):
         """(a, K, D^-1): the zone levels' posterior given the remainder c on sensors idx,

@@ -224,7 +224,7 @@ def test_merged_band_limits_stay_within_a_few_per_cent_of_the_sd():
     rng = np.random.default_rng(5)
     B = rng.standard_normal((200, prob.K)) * np.sqrt(1.0 / matern_precision(basis, A, 1.0))[None, :]
     _, sd, lo, hi = lp.band(B)
-    w, mi, si = lp._components(B, None)
+    w, mi, si = lp.band_components(B, None)
     assert w.size > hyperprior.BAND_COMPONENTS          # merging did happen
     from heatsight.inverse.strength_average import mixture_band
     lo_ref, hi_ref = mixture_band(w, mi, si)

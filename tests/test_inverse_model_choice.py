@@ -92,7 +92,7 @@ def test_model_mixture_band_is_the_quantile_of_the_mixture():
     K, J = 2, 1
     c_s, C_s = np.array([1.0, -1.0]), np.diag([0.2, 0.3])
     c_z, C_z = np.array([0.5, 0.0, 2.0]), np.diag([0.1, 0.1, 0.05])
-    mix = ModelMixture((c_s, C_s), K, 0.1, [(np.arange(K + J), c_z, C_z, 0.9)], K + J)
+    mix = ModelMixture([(np.arange(K), c_s, C_s, 0.1), (np.arange(K + J), c_z, C_z, 0.9)], K + J)
     B = np.array([[1.0, 0.0, 1.0], [0.0, 1.0, 0.0]])
     mean, sd, lo, hi = mix.band(B, offset=np.array([0.5, 0.0]))
     n = 1_000_000
