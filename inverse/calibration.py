@@ -4,12 +4,15 @@ lmfit (lmfit_solver.fit_lmfit) fits x = (c, theta) at a fixed strength; its join
 covariance C_x = (J^T J)^-1 is kept whole, so that any derived figure
 f(c, theta) = k(theta) + F(theta) c gets var f = J_f C_x J_f^T with
 J_f = [F, df/dtheta], df/dtheta by central differences of the figure on designs rebuilt
-at theta +- h (`Calibration.sensitivity`).
+at theta +- h (`Calibration.sensitivity`).  Under the learned prior (hyperprior.py, the
+default) `learned_calibration` then takes the parameters and the face to the learned prior's
+answer: linearized in theta, the parameters' step integrated out exactly
+(marginal_columns.py), Gauss-Newton steps until the step is a small share of its sd.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -17,13 +20,24 @@ from ..forward import Convection
 
 from .design import nominal_direction
 from .errors import InverseError
+from .hyperprior import learn_prior
+from .linear_gaussian import LinearGaussianProblem
 from .lmfit_solver import fit_lmfit
+from .marginal_columns import MarginalColumns
 
 #: central-difference step of a calibrated parameter, relative to its sd (common practice, no source)
 STEP_IN_SD = 0.05
 #: the nominal level's prior precision during calibration, at most this share of what the
 #: readings themselves say about it (so a large strength cannot pin the level)
 NOMINAL_SHARE = 1e-6
+#: lower bounds of the calibrated parameters: h [W/(m^2 K)], ambient [K]
+LOWER = {"h": 1e-6, "ambient": 1.0}
+#: under the learned prior, a parameter without a declared prior gets a weak Gaussian one:
+#: centred on the joint fit's value, this many of its sd wide (common practice, no source)
+WEAK_PRIOR_FACTOR = 10.0
+#: Gauss-Newton steps under the learned prior stop when every parameter moves less than this
+#: share of its sd, or after MAX_STEPS (common practice, no source)
+STEP_TOLERANCE, MAX_STEPS = 0.05, 5
 
 
 def flat_nominal(P, u, problem, alpha):
@@ -43,9 +57,14 @@ def flat_nominal(P, u, problem, alpha):
 class Calibration:
     """Fitted face parameters and the joint posterior of (c, theta).
 
-    keys: ((face, parameter), ...) in the order of theta; values (p,) and sd (p,) in SI
+    keys: ((face, parameter), ...) in the order of theta; values (p,): where the model is
+    linearized (the fitted values; `mean` adds a model mixture's `step`), sd (p,), in SI
     (h [W/(m^2 K)], ambient [K]); coefficients (K,); covariance (K + p, K + p) of
-    (c, theta); design: the Design at the fitted values; rebuild(values) -> Design.
+    (c, theta); design: the model columns at the fitted values (design.Design, or the zone
+    model's ZoneDesign), `rebuild(values)` the same columns at other values.  Under the
+    learned prior (learned_calibration) also step_prior: (mean, sd) (p,) of theta's Gaussian
+    prior and step_columns: d(t0 + G c)/d theta (n, p) [K per unit] at every reading, the
+    columns through which the parameters' step enters the readings.
     """
 
     keys: tuple
@@ -54,8 +73,15 @@ class Calibration:
     coefficients: np.ndarray
     covariance: np.ndarray
     design: object
-    rebuild: object = field(repr=False)
+    step_prior: tuple = field(default=None, repr=False)
+    step_columns: np.ndarray = field(default=None, repr=False)
+    step: np.ndarray = None         # posterior mean of theta - values where it is not 0 (a model mixture)
     _designs: dict = field(default_factory=dict, repr=False)
+
+    @property
+    def mean(self) -> np.ndarray:
+        """Posterior mean of theta (p,): the linearization point `values` plus `step`."""
+        return self.values if self.step is None else self.values + self.step
 
     @property
     def names(self) -> list[str]:
@@ -64,7 +90,18 @@ class Calibration:
     def info(self) -> dict:
         """{name: {face, parameter, value, sd}} for the summary."""
         return {n: {"face": f, "parameter": w, "value": float(v), "sd": float(s)}
-                for n, (f, w), v, s in zip(self.names, self.keys, self.values, self.sd)}
+                for n, (f, w), v, s in zip(self.names, self.keys, self.mean, self.sd)}
+
+    def rebuild(self, values):
+        """The model columns with the calibrated parameters set to `values`."""
+        return self.design.with_faces(calibrated_faces(self.design.faces, self.keys, values))
+
+    def with_columns(self, design, coefficients, step, covariance) -> "Calibration":
+        """The same parameters with other model columns (the zone model's) and the joint
+        posterior of (their coefficients, theta - values): mean (coefficients, step)."""
+        sd = np.sqrt(np.diag(covariance)[-self.values.size:])
+        return replace(self, design=design, coefficients=coefficients, step=np.asarray(step, float),
+                       covariance=covariance, sd=sd, _designs={})
 
     def _design_at(self, values):
         key = tuple(np.round(values, 14))
@@ -112,7 +149,7 @@ def calibrate(design, rd, kept, problem, alpha, P, spec) -> Calibration:
             raise InverseError(f"face {face}: an ambient profile cannot be calibrated")
         name = f"{face}_{what}"
         start = cond.h if what == "h" else float(cond.ambient)
-        params.add(name, value=start, min=1e-6 if what == "h" else 1.0)
+        params.add(name, value=start, min=LOWER[what])
         keys.append((face, what))
         if prior is not None:
             priors[name] = tuple(prior)
@@ -120,15 +157,60 @@ def calibrate(design, rd, kept, problem, alpha, P, spec) -> Calibration:
     names = [f"{f}_{w}" for f, w in keys]
     sub = rd.subset(kept)
 
-    def rebuild(values):
-        return design.with_faces(calibrated_faces(design.faces, keys, values))
-
     def design_fn(values):
-        return rebuild([values[n] for n in names]).sensors(sub.r, sub.theta, sub.z)
+        return design.with_faces(calibrated_faces(design.faces, keys, [values[n] for n in names])).sensors(
+            sub.r, sub.theta, sub.z)
 
     P = flat_nominal(P, nominal_direction(design.basis), problem, alpha)
     lf = fit_lmfit(design_fn, params, problem.d, problem.noise, P, alpha, c0=problem.c0,
                    priors=priors or None)
     values = np.array([lf.values[n] for n in names], float)
     sd = np.array([lf.sd.get(n, np.nan) for n in names], float)
-    return Calibration(keys, values, sd, lf.coefficients, lf.covariance, rebuild(values), rebuild)
+    return Calibration(keys, values, sd, lf.coefficients, lf.covariance,
+                       design.with_faces(calibrated_faces(design.faces, keys, values)))
+
+
+def learned_calibration(cal, rd, kept, problem, nominal, nominal_factor, spec):
+    """(Calibration, LearnedPrior, warnings): the calibrated parameters and the face under the
+    learned prior (hyperprior.learn_prior: strength, length scale and order averaged) instead
+    of the joint fit's fixed strength.  At the linearization point theta_l,
+        d = t0(theta_l) + G(theta_l) c + J delta + e,   J = d(t0 + G c_l) / d theta
+    (central differences, Calibration.sensitivity), delta = theta - theta_l with the declared
+    prior of theta, else a weak one (WEAK_PRIOR_FACTOR x the joint fit's sd about its value),
+    integrated out exactly (marginal_columns.py); the learned prior of c on that marginal
+    problem; (c, delta) jointly from it, moment-matched over the hyperparameters.  Steps
+    theta_l += E delta until |E delta| <= STEP_TOLERANCE sd; the answer is at that theta_l.
+    cal: the joint fit (`calibrate`); rd: all readings, kept: the mask of those the fit uses,
+    problem: the kept readings' LinearGaussianProblem (noise, prior mean c0) at cal.values;
+    nominal: the basis's nominal direction (mask); spec: the {(face, parameter): prior or
+    None} of `calibrate`.  The answer carries step_prior and step_columns (at every reading),
+    for other models of the face on the same parameters (the zone model)."""
+    spec = dict(spec)
+    declared = [spec.get(key) for key in cal.keys]
+    centre = np.array([p[0] if p else v for p, v in zip(declared, cal.values)], float)
+    width = np.array([p[1] if p else WEAK_PRIOR_FACTOR * s for p, s in zip(declared, cal.sd)], float)
+    floor = np.array([LOWER[what] for _, what in cal.keys])
+    at, c, K, idx = cal.values.copy(), cal.coefficients, cal.coefficients.size, np.flatnonzero(kept)
+    at_sensors = lambda d: d.sensors(rd.r, rd.theta, rd.z)  # noqa: E731
+    warnings = []
+    for step_no in range(MAX_STEPS):
+        lin = replace(cal, values=at, design=cal._design_at(at))
+        G, t0 = at_sensors(lin.design)
+        J = lin.sensitivity(at_sensors, c).reshape(rd.n, -1)
+        base = LinearGaussianProblem(G[idx], problem.d, t0[idx], problem.noise, problem.prior_diag, problem.c0)
+        cols = MarginalColumns(base, J[idx], centre - at, width)
+        prior = learn_prior(cols.marginal, lin.design.basis, nominal=nominal, nominal_factor=nominal_factor)
+        mean, cov = cols.joint(prior.coefficients(), prior.posterior_covariance(), np.arange(idx.size))
+        c, step, sd = mean[:K], mean[K:], np.sqrt(np.diag(cov)[K:])
+        if np.all(np.abs(step) <= STEP_TOLERANCE * sd):
+            break
+        if step_no == MAX_STEPS - 1:
+            warnings.append(f"calibration under the learned prior stopped after {MAX_STEPS} steps with "
+                            f"the parameters still moving ({np.max(np.abs(step) / sd):.2g} sd); "
+                            "the figures are linearized where it stopped")
+            break
+        at = np.maximum(at + step, floor)
+    # the parameters and the figures at the last linearization point (its design): the mean
+    # step left is below STEP_TOLERANCE of the sd
+    return (replace(lin, sd=sd, coefficients=c, covariance=cov, step_prior=(centre, width), step_columns=J),
+            prior, warnings)

@@ -24,7 +24,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 from scipy.special import logsumexp
 
-from .calibration import calibrate
+from .calibration import calibrate, learned_calibration
 from .design import NOMINAL_PRECISION_FACTOR, Design, smooth_prior
 from .diagnostics import screen_outliers, sensor_table
 from .functionals import face_functionals
@@ -67,8 +67,9 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     rd = as_readings(readings)
     if rd.n < 2:
         raise InverseError(f"at least 2 usable sensors are needed, got {rd.n}")
-    if opts.calibrate and opts.model == "zones":
-        raise InverseError("the zone model cannot be combined with calibrated face parameters yet; "
+    if opts.calibrate and opts.model == "zones" and not _learned(opts):
+        raise InverseError("the zone model with calibrated face parameters needs the learned prior "
+                           "(strength = \"evidence\", prior = \"learned\", no Monte Carlo); "
                            "use model = \"smooth\" or drop calibrate")
 
     design = Design(spec.cylinder, spec.faces, opts.tolerance, *opts.basis_size)
@@ -83,27 +84,35 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     ok = np.ones(rd.n, dtype=bool)
     ok[[g.index for g in gross]] = False
     base = _with_placement(_linear_problem(G, t0, noise, rd, P, u, ok), rd, ev, dG, P, u, ok, opts)
+    if opts.calibrate:
+        design = _calibrated_design(design, rd, base, P, opts, gross)
+        base = _linear_problem(*design.sensors(rd.r, rd.theta, rd.z), base.noise, rd, P, u, ok)
     # the left-out modes' variance is learned without the sensors a first screening (without
-    # it) suspects: a broken sensor would otherwise widen it and hide itself
+    # it) suspects: a broken sensor would otherwise widen it and hide itself; with calibrated
+    # parameters, at the calibrated ones
     problem, tail_prior = (_with_tail(base, design, rd, P, u, _screen(base, rd, opts, gross).kept)
                            if _learned(opts) else (base, None))
-    if opts.calibrate:
-        design = _calibrated_design(design, rd, problem, P, opts, gross)
-        problem = _linear_problem(*design.sensors(rd.r, rd.theta, rd.z), problem.noise, rd, P, u, ok)
 
+    smooth = _screen(problem, rd, opts, gross)
+    post = _posterior(design, rd, smooth, P, u, opts, warnings)
+    shift = None
+    if post.calibration is not None:
+        cal = post.calibration
+        design = cal.design
+        if cal.step_columns is not None:     # the learned prior's: the zone model shares the parameters
+            G, t0 = design.sensors(rd.r, rd.theta, rd.z)
+            base = _linear_problem(G, t0, base.noise, rd, P, u, ok)
+            problem = _linear_problem(G, t0, problem.noise, rd, P, u, ok)
+            shift = (cal.step_columns, cal.step_prior[0] - cal.values, cal.step_prior[1])
     # each model screens the sensors itself: a sensor one model cannot explain may be
     # healthy under the other (model_choice.py compares them on all the readings)
-    zone_models = _zone_models(spec, design, rd, base, warnings, _learned(opts))
+    zone_models = _zone_models(spec, design, rd, base, warnings, _learned(opts), shift)
     if zone_models and _learned(opts):
         first = zone_models[0]
         first.add_tail(design, rd, u > 0, _screen(first.marginal, rd, opts, gross).kept)
         for other in zone_models[1:]:
             other.share_tail(first)
-    smooth = _screen(problem, rd, opts, gross)
     zscreens = [_screen(zm.marginal, rd, opts, gross) for zm in zone_models]
-    post = _posterior(design, rd, smooth, P, u, opts, warnings)
-    if post.calibration is not None:
-        design = post.calibration.design
     columns, post, screen, model_info, zone_model = _choose_model(opts, design, zone_models, zscreens, smooth,
                                                                   post, u, problem, warnings)
     # the chosen model's screening notes lead; a learned prior's answer drops the fixed
@@ -246,14 +255,20 @@ def _screen(problem, rd, opts, gross=()) -> _Screen:
 
 # ------------------------------------------------------------------------ posterior
 def _posterior(design, rd, screen, P, u, opts, warnings) -> Posterior:
-    """Posterior of c: joint with calibrated parameters; with the evidence, averaged over
-    strength, length scale and order of the learned prior (prior "learned", hyperprior.py)
-    or over alpha alone (prior "fixed"); at one alpha; or from the robust lmfit path."""
+    """Posterior of c: joint with calibrated parameters (under the learned prior, when it
+    answers: calibration.learned_calibration); with the evidence, averaged over strength,
+    length scale and order of the learned prior (prior "learned", hyperprior.py) or over
+    alpha alone (prior "fixed"); at one alpha; or from the robust lmfit path."""
     final, alpha = screen.problem, screen.choice.alpha
     if opts.calibrate:
         cal = calibrate(design, rd, screen.kept, final, alpha, P, opts.calibration)
         K = P.size
-        return Posterior(cal.coefficients, cal.covariance[:K, :K], alpha, None, cal)
+        if not _learned(opts):
+            return Posterior(cal.coefficients, cal.covariance[:K, :K], alpha, None, cal)
+        cal, avg, notes = learned_calibration(cal, rd, screen.kept, final, u > 0, NOMINAL_PRECISION_FACTOR,
+                                              opts.calibration)
+        warnings[:] = [w for w in warnings if w not in screen.choice.warnings] + list(avg.warnings) + notes
+        return Posterior(cal.coefficients, cal.covariance[:K, :K], alpha, avg, cal)
     if _learned(opts):
         avg = learn_prior(final, design.basis, nominal=u > 0, nominal_factor=NOMINAL_PRECISION_FACTOR)
         # the fixed prior's strength-grid notes do not apply to the learned prior's answer
@@ -277,10 +292,12 @@ def _posterior(design, rd, screen, P, u, opts, warnings) -> Posterior:
     return post
 
 
-def _zone_models(spec, design, rd, problem, warnings, learned):
+def _zone_models(spec, design, rd, problem, warnings, learned, shift=None):
     """The zone models (zones.ZoneModel on all sensors), one per edge width
     (zones.edge_widths; the declared zones alone with the fixed prior), when asked for (model
-    "zones" or "auto") and zones with ranges are declared on the unknown face, else []."""
+    "zones" or "auto") and zones with ranges are declared on the unknown face, else [].
+    shift: the calibrated parameters' step columns and prior (calibration.learned_calibration),
+    integrated out with the zone levels; calibration with the fixed prior has no zone model."""
     opts = spec.options
     if opts.model == "smooth":
         return []
@@ -292,7 +309,7 @@ def _zone_models(spec, design, rd, problem, warnings, learned):
             warnings.append(f"model = 'zones' needs zones declared on the {design.face_name} face "
                             "(with r/theta or theta/z ranges); the smooth model is used")
         return []
-    if opts.calibrate:
+    if opts.calibrate and shift is None:
         return []
     areas = [zone_area(z, design.face_name, cyl) for z in zones]
     pts = display_grid(design.face_name, cyl, 11, 24)
@@ -311,7 +328,7 @@ def _zone_models(spec, design, rd, problem, warnings, learned):
     models, J = [], len(zones)
     for i, (width, zs) in enumerate(zip(widths, sets)):
         models.append(ZoneModel(design, rd, problem, zs, areas, scale, remainder, every.big,
-                                every.A[i * J:(i + 1) * J], edge_width=width))
+                                every.A[i * J:(i + 1) * J], edge_width=width, shift=shift))
     return models
 
 
@@ -320,7 +337,7 @@ def _zone_fit(opts, design, zone_model, zscreen, post, u, problem):
     prior) or against the smooth model on its kept sensors (fixed prior)."""
     if hasattr(post.averaged, "log_marginal"):
         zf = zone_model.learned_fit(zscreen.kept, design.basis, u > 0, NOMINAL_PRECISION_FACTOR)
-        X = np.hstack([problem.G, zone_model.Gz])
+        X = np.hstack([problem.G, zone_model.level_columns])
         logz = log_evidence_on_all(zf.log_evidence["zones"], zscreen.kept, X, problem.t0, problem.d,
                                    zone_model.smooth.noise.sd ** 2, zf.c, zf.C)
         return replace(zf, log_evidence={"zones": logz})
@@ -338,14 +355,21 @@ def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem,
     with the learned prior): its evidence is the widths' mean, each width weighs by its own.
     With the learned prior each model keeps its own screening and the evidences cover all
     the readings (model_choice.py); with the fixed prior both are compared on the zone
-    model's kept sensors over one log-alpha grid."""
+    model's kept sensors over one log-alpha grid.  Calibrated parameters (learned prior) are
+    shared by both models: their step from the linearization point is the last block of
+    every component, and the answer's Calibration carries the mixture's joint posterior."""
     if not zone_models:
         return design, post, smooth, {"model": "smooth"}, None
     fits = [_zone_fit(opts, design, zm, zs, post, u, problem) for zm, zs in zip(zone_models, zscreens)]
     le = np.array([f.log_evidence["zones"] for f in fits])
+    cal = post.calibration
+    p = 0 if cal is None else cal.values.size
+    # the smooth model's columns at the sensors, mean and covariance, with the parameters' step
+    Xs, cs, Cs = (problem.G, post.c, post.C) if cal is None else \
+        (np.hstack([problem.G, cal.step_columns]), np.concatenate([post.c, np.zeros(p)]), cal.covariance)
     if hasattr(post.averaged, "log_marginal"):
-        logz = {"smooth": log_evidence_on_all(post.averaged.log_marginal, smooth.kept, problem.G, problem.t0,
-                                              problem.d, problem.noise.sd ** 2, post.c, post.C),
+        logz = {"smooth": log_evidence_on_all(post.averaged.log_marginal, smooth.kept, Xs, problem.t0,
+                                              problem.d, problem.noise.sd ** 2, cs, Cs),
                 "zones": float(logsumexp(le) - math.log(le.size))}
     else:
         logz = dict(fits[0].log_evidence)
@@ -372,22 +396,27 @@ def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem,
     Gz = np.hstack([zone_models[i].Gz for i in use])
     p_smooth = 0.0 if opts.model == "zones" or p_zones >= 1.0 - MIXED_MODELS else 1.0 - p_zones
     share = w_edge[use] / w_edge[use].sum()
-    parts = [(np.concatenate([np.arange(K), K + j * J + np.arange(J)]), fits[i].c, fits[i].C,
+    n = K + J * len(use)
+    step = n + np.arange(p)
+    parts = [(np.concatenate([np.arange(K), K + j * J + np.arange(J), step]), fits[i].c, fits[i].C,
               (1.0 - p_smooth) * share[j]) for j, i in enumerate(use)]
     if p_smooth > 0:
-        parts.append((np.arange(K), post.c, post.C, p_smooth))
+        parts.append((np.concatenate([np.arange(K), step]), cs, Cs, p_smooth))
         info["model_averaged"] = True
-    size = K + J * len(use)
-    c, C = embedded_mixture(parts, size)
+    c, C = embedded_mixture(parts, n + p)
     zone_model = (zone_models[lead], Gz)
-    # bands: exact mixture quantiles, over the learned prior's own components where it has them
+    # bands: exact mixture quantiles, over the learned prior's own components where it has
+    # them; with calibrated parameters the joint Gaussian's (Posterior.figures)
     learned = isinstance(post.averaged, LearnedPrior) and p_smooth > 0
-    mixture = None if len(parts) == 1 else \
-        ModelMixture(parts[:len(use)], size, post.averaged, p_smooth) if learned else ModelMixture(parts, size)
+    mixture = None if len(parts) == 1 or p else \
+        ModelMixture(parts[:len(use)], n, post.averaged, p_smooth) if learned else ModelMixture(parts, n)
+    calibrated = None if cal is None else cal.with_columns(columns, c[:n], c[n:], C)
+    c, C = c[:n], C[:n, :n]
     if p_smooth > 0.5:
         if hasattr(post.averaged, "description"):
             info["prior"] = post.averaged.description()
-        return columns, Posterior(c, C, post.alpha, mixture), smooth, {"model": "smooth", **info}, zone_model
+        return (columns, Posterior(c, C, post.alpha, mixture, calibrated), smooth, {"model": "smooth", **info},
+                zone_model)
     zf = fits[lead]
     if design.quantity == "temperature" and any(z.edge <= 0 for z in columns.zones):
         warnings.append("sharp zone edges on a temperature face: the heat flux is singular at a "
@@ -395,7 +424,8 @@ def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem,
     if zf.prior is not None:
         warnings[:] = [w for w in warnings if w not in post.averaged.warnings] + list(zf.prior.warnings)
         info["prior"] = zf.prior.description()
-    return columns, Posterior(c, C, zf.alpha, mixture), zscreens[lead], {"model": "zones", **info}, zone_model
+    return (columns, Posterior(c, C, zf.alpha, mixture, calibrated), zscreens[lead], {"model": "zones", **info},
+            zone_model)
 
 
 # ------------------------------------------------------------------------ warnings

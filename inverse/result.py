@@ -54,8 +54,10 @@ class Posterior:
         """(mean (Q,), J (Q, K + p)) of the figure, J = [F, d figure / d theta]."""
         F, k = builder(design)
         F = np.atleast_2d(F)
-        J = np.hstack([F, self.calibration.sensitivity(builder, self.c).reshape(F.shape[0], -1)])
-        return np.asarray(k, float) + F @ self.c, J
+        cal = self.calibration
+        S = cal.sensitivity(builder, self.c).reshape(F.shape[0], -1)
+        mean = np.asarray(k, float) + F @ self.c + (0.0 if cal.step is None else S @ cal.step)
+        return mean, np.hstack([F, S])
 
     def figures(self, builder, design, level=0.95):
         """Mean, sd, lower, upper of the figure builder(design) -> (F, k): k + F c, with the

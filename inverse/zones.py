@@ -34,6 +34,7 @@ from .face_grid import face_interval, segments
 from .design import NOMINAL_PRECISION_FACTOR
 from .hyperprior import learn_prior, readings_spread
 from .linear_gaussian import LinearGaussianProblem
+from .marginal_columns import MarginalColumns
 from .truncation import enlarged_size, nearest_distance, tail_covariance
 
 #: zone level prior sd = this factor x the face's level scale (weak; common practice, no source)
@@ -165,6 +166,14 @@ class ZoneDesign:
     def size(self):
         return self.smooth.size + self.n_zones
 
+    def with_faces(self, faces) -> "ZoneDesign":
+        """The same zones on the columns rebuilt with other face conditions (calibration's
+        sensitivities): an enlarged basis of the same size, the indicators projected afresh."""
+        smooth = self.smooth.with_faces(faces)
+        ne = self.big.n_eigen
+        size = (int(self.big.m[:ne].max()), int(self.big.n_index[:ne].max()) + 1)
+        return ZoneDesign(smooth, self.zones, None, smooth.model.basis(*size))
+
     face_name = property(lambda self: self.smooth.face_name)
     quantity = property(lambda self: self.smooth.quantity)
 
@@ -233,21 +242,33 @@ class ZoneModel:
     strength and evidence of the zone model work on it."""
 
     def __init__(self, design, rd, smooth, zones, areas, level_scale, remainder_prior, big=None, A=None,
-                 edge_width=None):
+                 edge_width=None, shift=None):
         self.edge_width = edge_width      # [m] the width its zones were given (None: as declared)
         self.columns = ZoneDesign(design, zones, nearest_distance(design, rd.r, rd.z), big, A)
         self.Gz = self.columns.sensors(rd.r, rd.theta, rd.z)[0][:, design.size:]
         self.mu, self.s = zone_prior(zones, level_scale, areas)
         self.P = np.asarray(remainder_prior, float)
+        # calibrated parameters' step (calibration.learned_calibration): (columns (n, p), prior
+        # mean (p,), sd (p,)), integrated out with the zone levels; None without calibration
+        self.shift = shift
         self._set_smooth(smooth)
 
+    @property
+    def level_columns(self) -> np.ndarray:
+        """The columns integrated out beside the remainder: the zone levels', then the
+        calibrated parameters' step, if any (n, J + p)."""
+        return self._levels.X
+
     def _set_smooth(self, smooth):
-        """Readings, noise and columns of the smooth part; the marginal problem from them."""
+        """Readings, noise and columns of the smooth part; the zone levels (and a calibrated
+        parameters' step) integrated out (marginal_columns.py): `marginal` is the remainder's
+        problem."""
         self.smooth = smooth
-        S = smooth.noise.covariance
-        self.marginal = LinearGaussianProblem(smooth.G, smooth.d - self.Gz @ self.mu, smooth.t0,
-                                              S + (self.Gz * self.s ** 2) @ self.Gz.T, self.P,
-                                              np.zeros(self.P.size))
+        X, mu, s = self.Gz, self.mu, self.s
+        if self.shift is not None:
+            X, mu, s = (np.concatenate([a, b], axis=-1) for a, b in zip((X, mu, s), self.shift))
+        self._levels = MarginalColumns(smooth, X, mu, s, self.P, np.zeros(self.P.size))
+        self.marginal = self._levels.marginal
 
     def add_tail(self, design, rd, nominal, ok):
         """The remainder's left-out modes marginalized into the noise (truncation.py), their
@@ -311,36 +332,18 @@ class ZoneModel:
         604.7 W; with the smooth model's scale +1.0 sd.)"""
         return readings_spread(self.smooth.subset(idx))
 
-    def _levels_given_remainder(self, idx):
-        """(a, K, D^-1): the zone levels' posterior given the remainder c on sensors idx,
-        z | c ~ N(a - K c, D^-1), D = Gz^T S^-1 Gz + diag(1 / s^2),
-        a = D^-1 (Gz^T S^-1 (d - t0) + mu / s^2), K = D^-1 Gz^T S^-1 G (the same for every
-        strength and hyperparameter of the remainder's prior)."""
-        smooth = self.smooth.subset(idx)
-        Wz, Wg = smooth.noise.whiten(self.Gz[idx]), smooth.noise.whiten(smooth.G)
-        yw = smooth.noise.whiten(smooth.d - smooth.t0)
-        Dinv = np.linalg.inv(Wz.T @ Wz + np.diag(1.0 / self.s ** 2))
-        Dinv = 0.5 * (Dinv + Dinv.T)
-        return Dinv @ (Wz.T @ yw + self.mu / self.s ** 2), Dinv @ (Wz.T @ Wg), Dinv
-
     def learned_fit(self, kept, basis, nominal, nominal_factor) -> "ZoneFit":
-        """Posterior of (c, z) with the remainder's Whittle-Matern prior learned from the data
+        """Posterior of (c, z) (and the calibrated parameters' step, when given) with the remainder's Whittle-Matern prior learned from the data
         (hyperprior.LearnedPrior on the marginal problem: strength, length scale and order
         averaged with their hyperpriors), moment-matched over the mixture's components.
         Exactly: c's mixture is the marginal problem's (the zone levels integrated out), and
-        z = a - K c + N(0, D^-1) in every component (_levels_given_remainder), so
-        E z = a - K E c, Cov(z, c) = -K Cov c, Cov z = D^-1 + K Cov c K^T.
+        z | c is the same Gaussian in every component (marginal_columns.MarginalColumns.joint).
         log_evidence holds {"zones": log p(d_kept | zone model)} integrated over the
         hyperpriors; the comparison with the smooth model is model_choice's (weights None)."""
         idx = np.flatnonzero(kept)
-        levels = self._levels_given_remainder(idx)
         lp = learn_prior(self.marginal.subset(idx), basis, nominal=nominal, nominal_factor=nominal_factor,
                          spread=self.remainder_spread(idx))
-        a, Kmap, Dinv = levels
-        c, Cc = lp.coefficients(), lp.posterior_covariance()
-        KC = Kmap @ Cc
-        mean = np.concatenate([c, a - Kmap @ c])
-        cov = np.block([[Cc, -KC.T], [-KC, Dinv + KC @ Kmap.T]])
+        mean, cov = self._levels.joint(lp.coefficients(), lp.posterior_covariance(), idx)
         log_a = sum(float(w @ np.log(alphas)) for _, alphas, w in lp.hyperparameters())
-        return ZoneFit(mean, 0.5 * (cov + cov.T), math.exp(log_a), {"zones": float(lp.log_marginal)},
+        return ZoneFit(mean, cov, math.exp(log_a), {"zones": float(lp.log_marginal)},
                        None, False, lp)

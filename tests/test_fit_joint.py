@@ -71,7 +71,7 @@ def test_linearized_joint_sd_matches_monte_carlo(wall_fit):
     with threadpool_limits(1):
         mean_lin, sd_lin, _, _ = res.posterior.figures(builder, res.design)
         rng = np.random.default_rng(5)
-        x_hat = np.concatenate([cal.coefficients, cal.values])
+        x_hat = np.concatenate([cal.coefficients, cal.mean])
         draws = rng.multivariate_normal(x_hat, cal.covariance, size=300)
         K = cal.coefficients.size
         values = []
@@ -141,3 +141,74 @@ def test_total_power_within_two_sd_with_h_calibrated():
           f"{s['total_power_sd_W']:.3g} W (exact {power_exact:.5g} W)")
     assert abs(cal["value"] - H_TRUE) <= 2.0 * cal["sd"]                          # truth: FEM h
     assert abs(s["total_power_W"] - power_exact) <= 2.0 * s["total_power_sd_W"]   # closed-form integral
+
+
+# ---------------------------------------------------------------- zone model, top h calibrated
+# Two ring zones with a sharp step in the heater flux between them (QI inside RB, QO outside),
+# top h calibrated: the zone levels and h share one joint posterior (calibration under the
+# learned prior, the parameters' step integrated out with the zone levels).
+QI, QO, RB = 9.0e3, 4.0e3, 0.05
+
+
+@pytest.fixture(scope="module")
+def zone_fit():
+    fem = solve_field(PA, PL, PK, {
+        (0, "cos"): {"bottom": ("N", lambda s: np.where(s < RB, QI, QO)), "top": ("R", H_TRUE, TAMB),
+                     "side": ("N", 0.0)}}, nr=40, nz=16)
+    power_exact = np.pi * (QI * RB ** 2 + QO * (PA ** 2 - RB ** 2))   # integral of the step (elementary)
+    assert fem.heat_in("bottom") == pytest.approx(power_exact, rel=1e-6)  # scikit-fem vs closed form
+    rng = np.random.default_rng(4)
+    n, sigma = 24, 0.2
+    r, theta = PA * np.sqrt(rng.uniform(0, 0.95, n)), rng.uniform(0, 2 * np.pi, n)
+    z = rng.choice([0.004, 0.012, 0.030], n)
+    t = fem.temperature(r, theta, z) + sigma * rng.standard_normal(n)
+    rd = inverse.SensorReadings([f"p{i}" for i in range(n)], r, theta, z, t, sigma, 0.0, 0.0)
+    zones = [inverse.Zone("inner", "bottom", (0.0, 2 * np.pi), r=(0.0, RB)),
+             inverse.Zone("outer", "bottom", (0.0, 2 * np.pi), r=(RB, PA))]
+    case = types.SimpleNamespace(cylinder=fw.Cylinder(PA, PL, PK), zones=zones, faces={
+        "bottom": fw.UnknownFlux(), "top": fw.Convection(H_NOMINAL, TAMB), "side": fw.Insulated()})
+    with threadpool_limits(1):
+        res = inverse.fit(case, rd, calibrate={("top", "h"): None}, grid=(9, 12), model="zones")
+    return res, power_exact
+
+
+def test_zone_model_with_h_calibrated_recovers_zones_h_and_power(zone_fit):
+    res, power_exact = zone_fit
+    s = res.summary
+    cal = s["calibrated"]["top_h"]
+    zones = {z["name"]: z for z in s["zones"]}
+    print(f"\nzones + calibrated h: h {cal['value']:.4g} +- {cal['sd']:.2g}; inner {zones['inner']['mean']:.0f} "
+          f"+- {zones['inner']['sd']:.0f}, outer {zones['outer']['mean']:.0f} +- {zones['outer']['sd']:.0f} W/m^2; "
+          f"power {s['total_power_W']:.5g} +- {s['total_power_sd_W']:.3g} W (exact {power_exact:.5g} W)")
+    assert s["model"] == "zones" and type(res.design).__name__ == "ZoneDesign"
+    assert abs(cal["value"] - H_TRUE) <= 2.0 * cal["sd"]                          # truth: FEM h
+    assert abs(zones["inner"]["mean"] - QI) <= 2.0 * zones["inner"]["sd"]         # truth: the FEM's flux
+    assert abs(zones["outer"]["mean"] - QO) <= 2.0 * zones["outer"]["sd"]
+    assert abs(s["total_power_W"] - power_exact) <= 2.0 * s["total_power_sd_W"]   # closed-form integral
+    # the zone answer's design carries the fitted h, as the smooth one does
+    assert res.design.faces["top"].h == pytest.approx(res.calibration.values[0], rel=1e-12)
+
+
+def test_zone_model_joint_sd_matches_monte_carlo(zone_fit):
+    """The zone answer's linearized joint sd against seeded draws of (c, z, h), each figure
+    recomputed exactly on the zone columns rebuilt at the drawn h (ZoneDesign.with_faces)."""
+    res, _ = zone_fit
+    cal = res.calibration
+    at = (np.array([0.0, 0.06]), np.array([0.0, 2.0]), np.array([0.01, 0.03]))
+    face_pts = (np.array([0.02, 0.07, 0.095]), np.array([0.0, 1.0, 2.0]))     # (r, theta) on the bottom
+    builder = lambda d: _figures(d, at, face_pts)  # noqa: E731
+    with threadpool_limits(1):
+        mean_lin, sd_lin, _, _ = res.posterior.figures(builder, res.design)
+        rng = np.random.default_rng(7)
+        K = cal.coefficients.size
+        # Cholesky: the covariance is positive definite, its entries ~1e9 (W/m^2)^2 beyond the
+        # absolute tolerance of the SVD method's check
+        draws = rng.multivariate_normal(np.concatenate([cal.coefficients, cal.mean]), cal.covariance, size=300,
+                                        method="cholesky")
+        values = np.array([(lambda F, k: k + F @ x[:K])(*builder(cal.rebuild(x[K:]))) for x in draws])
+    sd_mc = values.std(axis=0, ddof=1)
+    ratio = sd_lin / sd_mc
+    print("\nzone model, linearized / Monte Carlo sd:", np.round(ratio, 3))
+    # reference: seeded Monte Carlo (300 draws: sd sampling error ~4 %); tolerance 15 % as above
+    assert np.all(np.abs(ratio - 1.0) <= 0.15)
+    assert np.all(np.abs(values.mean(axis=0) - mean_lin) <= 0.3 * sd_mc)

@@ -10,6 +10,7 @@ from scipy.stats import norm
 
 import heatsight.forward as fw
 from heatsight import inverse
+from heatsight.inverse import result
 from heatsight.inverse.bands import Z95, z_factor
 from heatsight.inverse.problem import FitOptions, Problem
 from fem_cylinder import solve_field
@@ -18,7 +19,7 @@ from fem_cylinder import solve_field
 def test_95_factor_in_one_place():
     assert Z95 == pytest.approx(norm.ppf(0.975), rel=1e-15)          # scipy.stats.norm (reference library)
     assert z_factor(0.9) == pytest.approx(norm.ppf(0.95), rel=1e-15)  # scipy.stats.norm (reference library)
-    assert inverse.Z95 is not None and inverse.result.Z95 == Z95
+    assert inverse.Z95 is not None and result.Z95 == Z95
 
 
 @pytest.mark.parametrize("kwargs, fragment", [
@@ -73,18 +74,20 @@ def test_problem_and_case_like_give_the_same_fit():
     cyl = fw.Cylinder(a, length, k)
     one = inverse.fit(types.SimpleNamespace(cylinder=cyl, faces=faces), rd, smoothing="size", grid=(5, 8))
     two = inverse.fit(Problem(cyl, faces, (), FitOptions(smoothing="size", grid=(5, 8))), rd)
-    assert one.summary["total_power_W"] == two.summary["total_power_W"]
+    # equal to round-off (not bit for bit: the second fit refines the root tables the first
+    # one cached, which moves the last bits when this file runs first in its process)
+    assert one.summary["total_power_W"] == pytest.approx(two.summary["total_power_W"], rel=1e-13)
     assert one.summary["smoothing"] == "size" and one.summary["model"] == "smooth"
     # the heat in through the face matches the prescribed flux's integral within 2 sd
     exact = 5e3 * math.pi * a * a * 1.5        # integral of q over the disc (elementary)
     assert abs(one.summary["total_power_W"] - exact) <= 2 * one.summary["total_power_sd_W"]
 
 
-def test_zone_model_with_calibration_is_refused():
+def test_zone_model_with_calibration_needs_the_learned_prior():
     cyl = fw.Cylinder(0.1, 0.04, 20.0)
     faces = {"bottom": fw.UnknownFlux(), "top": fw.Convection(40.0, 300.0), "side": fw.Insulated()}
     rd = inverse.SensorReadings(["a", "b", "c"], [0.0, 0.05, 0.08], [0.0, 1.0, 2.0], [0.01] * 3,
                                 [320.0, 321.0, 319.0], 0.2, 0.0, 0.0)
-    with pytest.raises(inverse.InverseError, match="zone model cannot be combined with calibrated"):
+    with pytest.raises(inverse.InverseError, match="zone model with calibrated face parameters needs the learned"):
         inverse.fit(types.SimpleNamespace(cylinder=cyl, faces=faces), rd, model="zones",
-                    calibrate={("top", "h"): None})
+                    calibrate={("top", "h"): None}, prior="fixed")
