@@ -21,6 +21,7 @@ class UnknownBasis:
 
     def __init__(self, model, harmonics: int, terms: int):
         self.model = model
+        self._norms = None
         self.face = model.unknown_face
         cond = model.faces[self.face]
         self.quantity = "temperature" if cond.kind == "D" else "heat_flux"
@@ -143,9 +144,14 @@ class UnknownBasis:
         return self.model._lifting_operator(self.face, cond, u, v)
 
     def norms(self):
-        """integral of Phi_k^2 over the face [m^2] (corner columns: their exact norms)."""
-        n = self.modes.norms()
-        return np.concatenate([n, [c.norm for c in self.rim]]) if self.rim else n
+        """integral of Phi_k^2 over the face [m^2] (corner columns: their exact norms);
+        computed once (read-only: the priors of every hyperparameter point ask for them)."""
+        if self._norms is None:
+            n = self.modes.norms()
+            n = np.concatenate([n, [c.norm for c in self.rim]]) if self.rim else np.array(n, float)
+            n.setflags(write=False)
+            self._norms = n
+        return self._norms
 
     def surface_eigenvalues(self):
         """-Laplacian_face Phi_k = ev_k Phi_k, ev_k [1/m^2] (corner columns, which are no
