@@ -57,3 +57,22 @@ def test_fluid_side_h_calibrated_with_a_prior_on_a_long_tube():
     assert abs(cal["value"] - H_TRUE) <= 2 * cal["sd"], cal               # closed form's h
     power = res.summary["total_power_W"]                                   # per metre on a long part
     assert abs(power - 2 * math.pi * B * Q) <= 2 * res.summary["total_power_sd_W"]
+
+
+@pytest.mark.parametrize("bottom, pinned", [(fw.Temperature(T_FLUID), True), (fw.Convection(50.0, 300.0), False)])
+def test_bore_flux_beside_a_temperature_end_is_reported_as_not_estimated(bottom, pinned):
+    """An unknown bore flux of a finite tube beside an end held at a temperature: every axial
+    eigenfunction vanishes at that end (and a hollow part has no corner columns), so the map's
+    band has zero width along that edge; the fit says so, and only then.  (A behaviour check:
+    the readings are the long tube's closed form, plausible values for any end.)"""
+    cyl = fw.Cylinder(B, 0.3, K, inner_radius=A)
+    case = type("Case", (), {"cylinder": cyl, "faces": {"side": fw.Flux(Q), "bore": fw.UnknownFlux(),
+                                                        "bottom": bottom, "top": fw.Insulated()}})()
+    rd = _readings()
+    rd = inverse.SensorReadings(rd.names, rd.r, rd.theta, np.linspace(0.03, 0.27, rd.n), rd.temperature,
+                                0.05, 0.0, 0.0)
+    res = inverse.fit(case, rd, grid=(9, 12))
+    notes = [w for w in res.warnings if "not estimated where it meets the bottom face" in w]
+    assert len(notes) == (1 if pinned else 0), res.warnings
+    at_edge = res.grid[np.isclose(res.grid["z_m"], 0.0)]
+    assert (at_edge["std"].max() <= 1e-9 * res.grid["std"].max()) == pinned   # the band the warning speaks of
