@@ -76,6 +76,7 @@ class Calibration:
     step_prior: tuple = field(default=None, repr=False)
     step_columns: np.ndarray = field(default=None, repr=False)
     step: np.ndarray = None         # posterior mean of theta - values where it is not 0 (a model mixture)
+    mixture: object = None          # the models' mixture over (coefficients, theta - values), for draws
     _designs: dict = field(default_factory=dict, repr=False)
 
     @property
@@ -96,12 +97,13 @@ class Calibration:
         """The model columns with the calibrated parameters set to `values`."""
         return self.design.with_faces(calibrated_faces(self.design.faces, self.keys, values))
 
-    def with_columns(self, design, coefficients, step, covariance) -> "Calibration":
+    def with_columns(self, design, coefficients, step, covariance, mixture=None) -> "Calibration":
         """The same parameters with other model columns (the zone model's) and the joint
-        posterior of (their coefficients, theta - values): mean (coefficients, step)."""
+        posterior of (their coefficients, theta - values): mean (coefficients, step), the
+        models' mixture (model_choice.ModelMixture) when several models share it."""
         sd = np.sqrt(np.diag(covariance)[-self.values.size:])
         return replace(self, design=design, coefficients=coefficients, step=np.asarray(step, float),
-                       covariance=covariance, sd=sd, _designs={})
+                       covariance=covariance, sd=sd, mixture=mixture, _designs={})
 
     def _design_at(self, values):
         key = tuple(np.round(values, 14))

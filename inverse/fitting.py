@@ -431,7 +431,8 @@ def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem,
     learned = isinstance(post.averaged, LearnedPrior) and p_smooth > 0
     mixture = None if len(parts) == 1 or p else \
         ModelMixture(parts[:len(use)], n, post.averaged, p_smooth) if learned else ModelMixture(parts, n)
-    calibrated = None if cal is None else cal.with_columns(columns, c[:n], c[n:], C)
+    calibrated = None if cal is None else cal.with_columns(
+        columns, c[:n], c[n:], C, ModelMixture(parts, n + p) if len(parts) > 1 else None)
     c, C = c[:n], C[:n, :n]
     if p_smooth > 0.5:
         if hasattr(post.averaged, "description"):

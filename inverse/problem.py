@@ -200,10 +200,13 @@ def _calibration_fields(value) -> dict:
 
 def _window(x, lo, hi, width, lo_edge=True, hi_edge=True):
     """1 inside [lo, hi], 0 outside; with width > 0 a linear ramp of that width centred on
-    each edge that is an edge (not the axis, the rim or an end)."""
+    each edge that is an edge (not the axis, the rim or an end); sharp (width 0): 1/2 on
+    such an edge itself (to round-off), so that neighbouring zones' windows sum to 1 there."""
     if width <= 0:
         scale = max(abs(hi), 1.0) * 1e-12
-        return ((x >= lo - scale) & (x <= hi + scale)).astype(float)
+        f = ((x >= lo - scale) & (x <= hi + scale)).astype(float)
+        on_edge = ((np.abs(x - lo) <= scale) & lo_edge) | ((np.abs(x - hi) <= scale) & hi_edge)
+        return np.where(on_edge, 0.5, f)
     f = np.ones_like(x, dtype=float)
     if lo_edge:
         f *= np.clip((x - lo) / width + 0.5, 0.0, 1.0)
@@ -271,13 +274,18 @@ class Zone:
         t = np.mod(theta - start, 2 * math.pi)
         t = np.where(t > span + 0.5 * (2 * math.pi - span), t - 2 * math.pi, t)
         if self.edge <= 0:
-            return (np.mod(theta - start + 1e-12, 2 * math.pi) <= span + 2e-12).astype(float)
+            inside = (np.mod(theta - start + 1e-12, 2 * math.pi) <= span + 2e-12).astype(float)
+            on_edge = np.minimum(np.abs(t), np.abs(t - span)) <= 1e-12
+            return np.where(on_edge, 0.5, inside)
         at = radius if self.z is not None else 0.5 * (self.r[0] + self.r[1])
         return _window(t, 0.0, span, self.edge / max(at, 1e-12))
 
     def indicator(self, u, v, radius: float, span_end: float, span_start: float = 0.0) -> np.ndarray:
         """The zone's share of each face point (0..1): (r, theta) on end faces, (theta, z)
-        on a wall (radius: the wall's); exactly `contains` for sharp edges."""
+        on a wall (radius: the wall's); for sharp edges `contains`, except 1/2 on an edge
+        itself, so that zones sharing an edge sum to 1 there (a display point on a shared
+        edge had both zones' levels: the zone model's map there was the background plus
+        two levels, with a band of +-25,000 W/m^2 on the demo)."""
         u, v = np.broadcast_arrays(np.asarray(u, float), np.asarray(v, float))
         if self.z is not None:
             return self.around(u, radius) * self.along(v, span_end, span_start)

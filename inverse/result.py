@@ -18,6 +18,7 @@ from .bands import Z95, z_factor
 from ..forward.geometry import is_wall
 from .face_grid import display_grid, face_interval, face_on, quadrature
 from .functionals import functional_matrix
+from .model_choice import ModelMixture, gaussian_draws
 
 __all__ = ["Posterior", "FitResult", "Z95"]
 
@@ -71,24 +72,26 @@ class Posterior:
         return mean, sd, mean - zq * sd, mean + zq * sd
 
     def draws(self, builder, design, n, seed=0):
-        """n posterior draws (n, Q) of the figure (linearized in theta when calibrated)."""
+        """n posterior draws (n, Q) of the figure (linearized in theta when calibrated); from
+        the models' mixture where the answer averages models (ModelMixture.samples)."""
         if self.calibration is None:
             F, k = builder(design)
             return np.asarray(k, float)[None, :] + self.samples(n, seed) @ np.atleast_2d(F).T
         mean, J = self._joint(builder, design)
-        dev = _gaussian_draws(np.zeros(J.shape[1]), self.calibration.covariance, n, seed)
-        return mean[None, :] + dev @ J.T
+        cal = self.calibration
+        centre = np.concatenate([self.c, np.zeros(cal.values.size) if cal.step is None else cal.step])
+        x = cal.mixture.samples(n, seed) if cal.mixture is not None else \
+            gaussian_draws(centre, cal.covariance, n, seed)
+        return mean[None, :] + (x - centre) @ J.T
 
     def samples(self, n, seed=0):
-        return _gaussian_draws(self.c, self.C, n, seed)
+        """n draws (n, K) of c: from the models' mixture when the answer has one, else from
+        N(c, C)."""
+        if isinstance(self.averaged, ModelMixture):
+            return self.averaged.samples(n, seed)
+        return gaussian_draws(self.c, self.C, n, seed)
 
 
-def _gaussian_draws(mean, cov, n, seed):
-    rng = np.random.default_rng(seed)
-    C = 0.5 * (cov + cov.T)
-    w, V = np.linalg.eigh(C)
-    L = V * np.sqrt(np.maximum(w, 0.0))
-    return mean[None, :] + rng.standard_normal((n, mean.size)) @ L.T
 
 
 def zone_area(zone, face, cylinder, n=1024):

@@ -6,6 +6,7 @@ import os
 import numpy as np
 import pytest
 
+from heatsight import inverse
 from heatsight.data_io.case import Case, FitOptions, load_case
 from heatsight.data_io.errors import InputError
 from heatsight.forward import CylinderModel
@@ -126,8 +127,16 @@ def test_zone_model_nominal_and_edge(tmp_path):
     # half a width away (the definition written in inverse.problem.Zone)
     r = np.array([0.0475, 0.05, 0.0525, 0.075, 0.1025])
     np.testing.assert_allclose(ring.indicator(r, np.zeros(5), 0.15, 0.15), [0.0, 0.5, 1.0, 1.0, 0.0], atol=1e-12)
-    # sharp zones: the indicator is the membership mask
+    # sharp zones: the indicator is the membership mask, except 1/2 on an edge itself (not
+    # at the axis), so that two zones sharing an edge sum to 1 there
     np.testing.assert_array_equal(centre.indicator(r, np.zeros(5), 0.15, 0.15), centre.contains(r, np.zeros(5)))
+    outer = inverse.Zone("outer", "bottom", (0.0, math.pi), r=(0.02, 0.15))
+    at = np.array([0.0, 0.01, 0.02, 0.05, 0.05])
+    th = np.array([1.0, 1.0, 1.0, 0.0, math.pi])
+    np.testing.assert_allclose(centre.indicator(at[:3], th[:3], 0.15, 0.15), [1.0, 1.0, 0.5])
+    np.testing.assert_allclose(outer.indicator(at, th, 0.15, 0.15), [0.0, 0.0, 0.5, 0.5, 0.5])
+    np.testing.assert_allclose(centre.indicator(at[:3], th[:3], 0.15, 0.15)
+                               + outer.indicator(at[:3], th[:3], 0.15, 0.15), [1.0, 1.0, 1.0])
 
 
 def test_side_zone(tmp_path):
