@@ -92,8 +92,6 @@ class Posterior:
         return gaussian_draws(self.c, self.C, n, seed)
 
 
-
-
 def zone_area(zone, face, cylinder, n=1024):
     """Area [m^2] of a zone by the midpoint rule on n x n cells of the face (theta x r with
     weight r on end faces, theta x z on a wall; per metre on a long part's walls)."""
