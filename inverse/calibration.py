@@ -82,7 +82,12 @@ class Calibration:
     @property
     def mean(self) -> np.ndarray:
         """Posterior mean of theta (p,): the linearization point `values` plus `step`."""
-        return self.values if self.step is None else self.values + self.step
+        return self.values + self.mean_step
+
+    @property
+    def mean_step(self) -> np.ndarray:
+        """Posterior mean of theta - values (p,): `step`, or 0 where none is kept."""
+        return np.zeros(self.values.size) if self.step is None else np.asarray(self.step, float)
 
     @property
     def names(self) -> list[str]:
@@ -95,7 +100,7 @@ class Calibration:
 
     def rebuild(self, values):
         """The model columns with the calibrated parameters set to `values`."""
-        return self.design.with_faces(calibrated_faces(self.design.faces, self.keys, values))
+        return calibrated_design(self.design, self.keys, values)
 
     def with_columns(self, design, coefficients, step, covariance, mixture=None) -> "Calibration":
         """The same parameters with other model columns (the zone model's) and the joint
@@ -134,6 +139,12 @@ def calibrated_faces(faces, keys, values):
     return out
 
 
+def calibrated_design(design, keys, values):
+    """The model columns `design` (Design or ZoneDesign) rebuilt with the calibrated
+    parameters set to `values`."""
+    return design.with_faces(calibrated_faces(design.faces, keys, values))
+
+
 def calibrate(design, rd, kept, problem, alpha, P, spec) -> Calibration:
     """Joint fit of c and the convection parameters in `spec` {(face, parameter): prior
     (mean, sd) or None} through lmfit at the fixed strength alpha, on the kept sensors."""
@@ -160,16 +171,14 @@ def calibrate(design, rd, kept, problem, alpha, P, spec) -> Calibration:
     sub = rd.subset(kept)
 
     def design_fn(values):
-        return design.with_faces(calibrated_faces(design.faces, keys, [values[n] for n in names])).sensors(
-            sub.r, sub.theta, sub.z)
+        return calibrated_design(design, keys, [values[n] for n in names]).sensors(sub.r, sub.theta, sub.z)
 
     P = flat_nominal(P, nominal_direction(design.basis), problem, alpha)
     lf = fit_lmfit(design_fn, params, problem.d, problem.noise, P, alpha, c0=problem.c0,
                    priors=priors or None)
     values = np.array([lf.values[n] for n in names], float)
     sd = np.array([lf.sd.get(n, np.nan) for n in names], float)
-    return Calibration(keys, values, sd, lf.coefficients, lf.covariance,
-                       design.with_faces(calibrated_faces(design.faces, keys, values)))
+    return Calibration(keys, values, sd, lf.coefficients, lf.covariance, calibrated_design(design, keys, values))
 
 
 def learned_calibration(cal, rd, kept, problem, nominal, nominal_factor, spec):

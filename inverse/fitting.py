@@ -387,7 +387,7 @@ def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem,
     p = 0 if cal is None else cal.values.size
     # the smooth model's columns at the sensors, mean and covariance, with the parameters' step
     Xs, cs, Cs = (problem.G, post.c, post.C) if cal is None else \
-        (np.hstack([problem.G, cal.step_columns]), np.concatenate([post.c, np.zeros(p)]), cal.covariance)
+        (np.hstack([problem.G, cal.step_columns]), np.concatenate([post.c, cal.mean_step]), cal.covariance)
     if hasattr(post.averaged, "log_marginal"):
         logz = {"smooth": log_evidence_on_all(post.averaged.log_marginal, smooth.kept, Xs, problem.t0,
                                               problem.d, problem.noise.sd ** 2, cs, Cs),

@@ -57,7 +57,7 @@ class Posterior:
         F = np.atleast_2d(F)
         cal = self.calibration
         S = cal.sensitivity(builder, self.c).reshape(F.shape[0], -1)
-        mean = np.asarray(k, float) + F @ self.c + (0.0 if cal.step is None else S @ cal.step)
+        mean = np.asarray(k, float) + F @ self.c + S @ cal.mean_step
         return mean, np.hstack([F, S])
 
     def figures(self, builder, design, level=0.95):
@@ -79,7 +79,7 @@ class Posterior:
             return np.asarray(k, float)[None, :] + self.samples(n, seed) @ np.atleast_2d(F).T
         mean, J = self._joint(builder, design)
         cal = self.calibration
-        centre = np.concatenate([self.c, np.zeros(cal.values.size) if cal.step is None else cal.step])
+        centre = np.concatenate([self.c, cal.mean_step])
         x = cal.mixture.samples(n, seed) if cal.mixture is not None else \
             gaussian_draws(centre, cal.covariance, n, seed)
         return mean[None, :] + (x - centre) @ J.T

@@ -333,9 +333,10 @@ class ZoneModel:
         return readings_spread(self.smooth.subset(idx))
 
     def learned_fit(self, kept, basis, nominal, nominal_factor) -> "ZoneFit":
-        """Posterior of (c, z) (and the calibrated parameters' step, when given) with the remainder's Whittle-Matern prior learned from the data
-        (hyperprior.LearnedPrior on the marginal problem: strength, length scale and order
-        averaged with their hyperpriors), moment-matched over the mixture's components.
+        """Posterior of (c, z) (and the calibrated parameters' step, when given) with the
+        remainder's Whittle-Matern prior learned from the data (hyperprior.LearnedPrior on
+        the marginal problem: strength, length scale and order averaged with their
+        hyperpriors), moment-matched over the mixture's components.
         Exactly: c's mixture is the marginal problem's (the zone levels integrated out), and
         z | c is the same Gaussian in every component (marginal_columns.MarginalColumns.joint).
         log_evidence holds {"zones": log p(d_kept | zone model)} integrated over the
