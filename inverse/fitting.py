@@ -47,7 +47,7 @@ from .result import FitResult, Posterior, valid_zones, zone_area
 from .strength import choose_strength, default_alphas
 from .strength_average import StrengthAverage
 from .threads import few_threads
-from .truncation import nearest_distance, tail_covariance, tail_power
+from .truncation import face_tail, face_tail_variance, nearest_distance, tail_covariance, tail_power
 from .zones import ZoneDesign, ZoneModel, edge_room, edge_widths, with_edge
 
 #: reduced chi-square above which the readings scatter more than stated (common practice, no source)
@@ -134,14 +134,19 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     elif opts.monte_carlo:
         warnings.append("Monte Carlo draws of sensor positions are not available with the zone model; "
                         "the bands are the zone model's posterior")
-    power_tail = None
+    power_tail = face_tail = None
     if tail_prior is not None and post.calibration is None and mc is None:
-        power_tail = _power_tail(model_info["model"], columns, design, rd, screen.kept, problem, tail_prior,
-                                 zone_model)
+        power_tail, face_tail = _tails(model_info["model"], columns, design, rd, screen.kept, problem, tail_prior,
+                                       zone_model)
+    elif tail_prior is not None and mc is None:     # calibrated: the left-out modes' prior variance
+        lead_prior = _lead_tail_prior(model_info["model"], tail_prior, zone_model)
+
+        def face_tail(points):
+            return None, None, face_tail_variance(design, points, lead_prior)
     return FitResult.build(spec=spec, design=columns, readings=rd, kept=screen.kept, problem=screen.problem,
                            choice=screen.choice, posterior=post, sensors=screen.table,
                            set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)),
-                           monte_carlo=mc, extra=model_info, power_tail=power_tail)
+                           monte_carlo=mc, extra=model_info, power_tail=power_tail, face_tail=face_tail)
 
 
 # ------------------------------------------------------------------------ design, prior, noise
@@ -188,17 +193,31 @@ def _with_tail(problem, design, rd, P, u, ok):
     return _linear_problem(problem.G, problem.t0, S, rd, P, u, ok), first
 
 
-def _power_tail(model, columns, design, rd, kept, problem, tail_prior, zone_model):
-    """(h, X, residual, variance) for FitResult.build: the left-out modes' share of the total
-    power (truncation.tail_power) under the model that leads, on the kept sensors.
-    zone_model: (the leading ZoneModel, the zone columns' field at the sensors (n, J'))."""
+def _lead_tail_prior(model, tail_prior, zone_model):
+    """The left-out modes' prior under the model that leads: the smooth model's, or the zone
+    models' shared one."""
+    return tail_prior if model == "smooth" else zone_model[0].tail_prior
+
+
+def _tails(model, columns, design, rd, kept, problem, tail_prior, zone_model):
+    """The left-out modes under the model that leads, given the kept sensors' residual, for
+    FitResult.build: (power_tail, face_tail). power_tail = (h, X, residual, variance): their
+    share of the total power (truncation.tail_power); face_tail: points -> (dF, dk,
+    variance), their part of the face map, k + dk + (F + dF) c with the variance added
+    (truncation.face_tail). zone_model: (the leading ZoneModel, the zone columns' field at
+    the sensors (n, J'))."""
     idx = np.flatnonzero(kept)
     lin = problem if model == "smooth" else zone_model[0].smooth      # its readings, noise and columns
-    prior = tail_prior if model == "smooth" else zone_model[0].tail_prior
+    prior = _lead_tail_prior(model, tail_prior, zone_model)
     X = lin.G[idx] if columns is design else np.hstack([lin.G[idx], zone_model[1][idx]])
     S = lin.noise.covariance[np.ix_(idx, idx)]
-    h, var = tail_power(design, rd.subset(idx), prior, S)
-    return h, X, lin.d[idx] - lin.t0[idx], var
+    kept_rd, residual = rd.subset(idx), lin.d[idx] - lin.t0[idx]
+    h, var = tail_power(design, kept_rd, prior, S)
+
+    def on_face(points):
+        H, variance = face_tail(design, points, prior, kept_rd, S)
+        return -H @ X, H @ residual, variance
+    return (h, X, residual, var), on_face
 
 
 def _truncation_warnings(ev, rd):

@@ -1,4 +1,4 @@
-"""Prior with learned hyperparameters: strength, length scale, smoothness order and the
+"""Prior with learned hyperparameters: strength, length scale, Matern smoothness and the
 axisymmetric amplitude ratio.
 
 Family (a Whittle-Matern form in the face eigenbasis):
@@ -6,7 +6,7 @@ Family (a Whittle-Matern form in the face eigenbasis):
     c ~ N(c0, (alpha P(l, s, rho))^-1),   P_k(l, s, rho) = (N_k / A) (1 + l^2 ev_k)^s / rho_k^2,
 
 N_k = integral Phi_k^2 dA [m^2], A = face area [m^2], ev_k = surface eigenvalue [1/m^2],
-l = length scale [m], s = smoothness order, rho_k = rho for the axisymmetric modes (m = 0)
+l = length scale [m], s = nu + d / 2 the exponent of Matern smoothness nu, rho_k = rho for the axisymmetric modes (m = 0)
 and 1 for the others: rho is the axisymmetric amplitude ratio, the sd of the face's
 axisymmetric part (its radial profile on an end face, its axial profile on a wall) relative
 to a stationary field's. The nominal direction (the fitted level of the
@@ -46,13 +46,21 @@ Hyperpriors (proper, weakly informative):
   heater's radial edge out to the insulated rim in every direction; the evidence rises with
   rho (log p(d) -38.4, -37.4, -36.6, -36.1 at rho = 1, 2, 3, 5) and at rho = 5 the power is
   606.3 +- 5.4 W (0.3 sd). Skipped where the face has no free axisymmetric mode (a long tube).
-- s uniform on {0.5, 1, 1.5, 2}. Measured choice: orders up to 5 sharpen the bands on smooth
-  finite-element truths further (side wall RMS error 0.15 K against 0.37 K), but the data
-  then prefer the smoothest orders and zone means become overconfident where the truth has
-  a slope the basis cannot carry (an insulated rim: every eigenfunction is flat there):
-  tests/test_fit_recovery.py's ring zone sat 2.3-2.75 sd from its exact mean over four
-  seeds with orders {1..5}, 1.7-1.96 with {0.5, 1, 1.5, 2}. (s = 0, white noise on the
-  face, is left out: its amplitude grows with the number of modes kept.)
+- s = nu + d / 2, d = the face's dimension (2; 1 on a long part's wall, a circle), with the
+  Matern smoothness nu uniform on {0.25, 0.5, 1, 1.5, 2} (SMOOTHNESS): the field's pointwise
+  variance sum_k Phi_k(x)^2 / P_k converges only for s > d / 2, so with s <= d / 2 a band at a
+  point of the face is set by how many modes the basis keeps (measured on the platen
+  scenario with s = 0.5 .. 2 directly: the half band at the centre 16,500, 43,800 and 55,500
+  W/m^2 with the default, 40 and 60 radial terms; now 22,900 and 22,800 with the default and
+  40). With nu > 0 the modes the basis leaves out have a finite variance at the face, and the
+  bands carry it (truncation.face_tail). Measured choices of the range: with nu from 0.5 the
+  roughest value carried the most weight on several scenarios and the wall beside a cooled
+  end set aside two healthy sensors in each of three seeds (their leave-one-out predictions
+  too sure); 0.25 mends that, and its modes beyond the enlarged basis's caps still move the
+  bands by under 3 % (platen, 3x the terms). Orders up to 5 sharpen the bands on smooth
+  finite-element truths further, but the data then prefer the smoothest orders and zone
+  means become overconfident where the truth has a slope the basis cannot carry (an
+  insulated rim: every eigenfunction is flat there).
 
 The evidence p(d | alpha, l, s, rho) comes from one thin SVD per (l, s, rho) (evidence_spectrum;
 the full SVD of LinearGaussianProblem only where the posterior has weight); the
@@ -76,7 +84,8 @@ from .strength_average import mixture_summary
 LOG_AMPLITUDE_SD = math.log(10.0) / 4.0
 LENGTH_RANGE = (1.0 / 20.0, 4.0)      # times the face size D
 N_LENGTHS = 9
-ORDERS = (0.5, 1.0, 1.5, 2.0)
+#: the Matern smoothness nu of the family; the precision's exponent is s = nu + d / 2
+SMOOTHNESS = (0.25, 0.5, 1.0, 1.5, 2.0)
 #: grid of the axisymmetric ratio rho (powers of 2) and its hyperprior: log2 rho ~ N(centre, sd^2)
 AXISYMMETRIC_RATIOS = tuple(2.0 ** k for k in range(-2, 5))
 RATIO_LOG2_CENTRE, RATIO_LOG2_SD = 1.0, 1.0
@@ -110,6 +119,16 @@ def face_area(basis) -> float:
     """Area of the unknown face [m^2]: 2 pi r_w L (a wall of radius r_w; per metre on a long
     part) or pi (a^2 - a_i^2) (end faces)."""
     return basis.model.cylinder.face_area(basis.face)
+
+
+def face_dimension(basis) -> int:
+    """d: 1 for a long part's wall (a circle in theta), else 2."""
+    return 1 if is_wall(basis.face) and basis.model.cylinder.long else 2
+
+
+def matern_exponent(basis, smoothness: float) -> float:
+    """s = nu + d / 2: the precision exponent of Matern smoothness nu on the face (d = face_dimension)."""
+    return float(smoothness) + 0.5 * face_dimension(basis)
 
 
 def face_size(basis) -> float:
@@ -172,14 +191,16 @@ class LearnedPrior:
     """
 
     def __init__(self, problem: LinearGaussianProblem, basis, nominal=None, nominal_factor: float = 1.0,
-                 lengths=None, orders=None, spread=None, ratios=None):
+                 lengths=None, smoothness=None, spread=None, ratios=None):
         a = face_size(basis)
         self.length_range = (LENGTH_RANGE[0] * a, LENGTH_RANGE[1] * a)
         self.lengths = (np.geomspace(*self.length_range, N_LENGTHS) if lengths is None
                         else np.asarray(lengths, dtype=float).ravel())
-        self.orders = tuple(float(s) for s in (ORDERS if orders is None else orders))
-        if self.lengths.size < 1 or len(self.orders) < 1 or np.any(self.lengths <= 0):
-            raise InverseError("the prior family needs positive length scales and at least one order")
+        self.smoothness = tuple(float(x) for x in (SMOOTHNESS if smoothness is None else smoothness))
+        if self.lengths.size < 1 or len(self.smoothness) < 1 or np.any(self.lengths <= 0) \
+                or min(self.smoothness) <= 0:
+            raise InverseError("the prior family needs positive length scales and smoothness values")
+        self.orders = tuple(matern_exponent(basis, nu) for nu in self.smoothness)
         K = problem.K
         nominal = np.zeros(K, dtype=bool) if nominal is None else np.asarray(nominal, dtype=bool)
         free = ~nominal
@@ -328,10 +349,11 @@ class LearnedPrior:
             return float(mean[0]), float(sd[0])
         return mean, sd
 
-    def band(self, B, level: float = 0.95, offset=None):
-        """Mean, sd and the equal-tailed `level` band (lower, upper) of offset + B c (mixture quantiles)."""
+    def band(self, B, level: float = 0.95, offset=None, extra_variance=None):
+        """Mean, sd and the equal-tailed `level` band (lower, upper) of offset + B c (mixture
+        quantiles; + an independent term of variance extra_variance)."""
         w, mi, si = self.band_components(B, offset, merge_limit(B))
-        return mixture_summary(w, mi, si, level, scalar=np.ndim(B) == 1)
+        return mixture_summary(w, mi, si, level, scalar=np.ndim(B) == 1, extra_variance=extra_variance)
 
     def prior_sd(self, B) -> np.ndarray:
         """sd of B c under the prior averaged over the hyperparameter posterior:
@@ -388,7 +410,7 @@ class LearnedPrior:
             "family": "whittle-matern", "length_scale_m": float(self.lengths[int(np.argmax(w_l))]),
             "length_scale_90_m": [float(l90[0]), float(l90[1])],
             "length_scale_hyperprior_m": [float(self.length_range[0]), float(self.length_range[1])],
-            "order_weights": {f"{s:g}": float(w) for s, w in zip(self.orders, w_s)},
+            "smoothness_weights": {f"{nu:g}": float(w) for nu, w in zip(self.smoothness, w_s)},
             "axisymmetric_ratio_weights": {f"{x:g}": float(w) for x, w in zip(self.ratios, w_r)},
             "strength_90": [float(a90[0]), float(a90[1])],
             "amplitude_median": float(s90[1]), "amplitude_90": [float(s90[0]), float(s90[2])],

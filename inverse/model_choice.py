@@ -124,10 +124,11 @@ class ModelMixture:
             ss.append(np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", Bi, C, Bi), 0.0))[None, :])
         return np.concatenate(ws), np.vstack(ms), np.vstack(ss)
 
-    def band(self, B, level: float = 0.95, offset=None):
-        """Mean, sd and the equal-tailed `level` band (lower, upper) of offset + B c."""
+    def band(self, B, level: float = 0.95, offset=None, extra_variance=None):
+        """Mean, sd and the equal-tailed `level` band (lower, upper) of offset + B c (+ an
+        independent term of variance extra_variance)."""
         w, mi, si = self._parts(B, offset, merge_limit(B))
-        return mixture_summary(w, mi, si, level, scalar=np.ndim(B) == 1)
+        return mixture_summary(w, mi, si, level, scalar=np.ndim(B) == 1, extra_variance=extra_variance)
 
     def samples(self, n, seed=0) -> np.ndarray:
         """n draws (n, size) of the coefficient vector from the mixture: a component by its

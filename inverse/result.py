@@ -35,14 +35,16 @@ class Posterior:
     averaged: object = None
     calibration: object = None
 
-    def band(self, B, offset=None, level=0.95):
-        """Mean, sd, lower, upper of offset + B c (equal-tailed `level` band), c alone."""
+    def band(self, B, offset=None, level=0.95, extra_variance=None):
+        """Mean, sd, lower, upper of offset + B c (equal-tailed `level` band), c alone (+ an
+        independent term of variance extra_variance (Q,), the left-out modes' at the face)."""
         B = np.atleast_2d(B)
         offset = np.zeros(B.shape[0]) if offset is None else np.asarray(offset, float)
         if self.averaged is not None:
-            return self.averaged.band(B, level=level, offset=offset)
+            return self.averaged.band(B, level=level, offset=offset, extra_variance=extra_variance)
         mean = offset + B @ self.c
-        sd = np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", B, self.C, B), 0.0))
+        sd = np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", B, self.C, B), 0.0)
+                     + (0.0 if extra_variance is None else extra_variance))
         zq = z_factor(level)
         return mean, sd, mean - zq * sd, mean + zq * sd
 
@@ -60,14 +62,15 @@ class Posterior:
         mean = np.asarray(k, float) + F @ self.c + S @ cal.mean_step
         return mean, np.hstack([F, S])
 
-    def figures(self, builder, design, level=0.95):
+    def figures(self, builder, design, level=0.95, extra_variance=None):
         """Mean, sd, lower, upper of the figure builder(design) -> (F, k): k + F c, with the
-        joint uncertainty of calibrated parameters, var = J C_joint J^T."""
+        joint uncertainty of calibrated parameters, var = J C_joint J^T (+ extra_variance)."""
         if self.calibration is None:
             F, k = builder(design)
-            return self.band(F, k, level)
+            return self.band(F, k, level, extra_variance)
         mean, J = self._joint(builder, design)
-        sd = np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", J, self.calibration.covariance, J), 0.0))
+        sd = np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", J, self.calibration.covariance, J), 0.0)
+                     + (0.0 if extra_variance is None else extra_variance))
         zq = z_factor(level)
         return mean, sd, mean - zq * sd, mean + zq * sd
 
@@ -180,19 +183,27 @@ class FitResult:
     # ------------------------------------------------------------------ construction
     @classmethod
     def build(cls, *, spec, design, readings, kept, problem, choice, posterior, sensors,
-              set_aside, warnings, monte_carlo, extra=None, power_tail=None):
+              set_aside, warnings, monte_carlo, extra=None, power_tail=None, face_tail=None):
         """Derived figures of a fit.  spec: the inverse.problem.Problem; design: the model
         columns (design.Design or the zone model's); problem: the LinearGaussianProblem of
         the kept sensors; extra: further summary keys; power_tail: (h, X, residual, variance)
         of the left-out modes' share of the total power (truncation.tail_power: the power
-        becomes p . c + k + h . (residual - X c) with the variance added)."""
+        becomes p . c + k + h . (residual - X c) with the variance added); face_tail: points ->
+        (dF, dk, variance), the left-out modes' part of the face map: k + dk + (F + dF) c with
+        the variance (Q,) added to its bands (dF, dk None: variance only; truncation.face_tail)."""
         cyl, opts = design.cylinder, spec.options
         face, quantity = design.face_name, design.quantity
         unit = "K" if quantity == "temperature" else "W/m^2"
         pts = display_grid(face, cyl, *opts.grid)
         on_grid = _evaluated_once(lambda d: face_on(d, pts), design)
+        tail_variance = None
+        if face_tail is not None:
+            dF, dk, tail_variance = face_tail(pts)
+            if dF is not None:
+                F, k = face_on(design, pts)
+                on_grid = _evaluated_once(lambda d: face_on(d, pts), design, (F + dF, k + dk))
 
-        mean, sd, lower, upper = posterior.figures(on_grid, design)
+        mean, sd, lower, upper = posterior.figures(on_grid, design, extra_variance=tail_variance)
         if monte_carlo is not None:
             s = monte_carlo["samples"]
             mean, sd = s.mean(axis=0), s.std(axis=0, ddof=1)

@@ -71,9 +71,12 @@ def mixture_band(weights, means, sds, level: float = 0.95):
     return np.minimum(lower, upper), np.maximum(lower, upper)
 
 
-def mixture_summary(weights, means, sds, level: float = 0.95, scalar: bool = False):
+def mixture_summary(weights, means, sds, level: float = 0.95, scalar: bool = False, extra_variance=None):
     """Mean, sd and the equal-tailed `level` band (lower, upper) of the Gaussian mixture
-    (weights (m,), means and sds (m, q)): arrays (q,), or floats when `scalar` (q = 1)."""
+    (weights (m,), means and sds (m, q)): arrays (q,), or floats when `scalar` (q = 1).
+    extra_variance (q,): an independent Gaussian term added to every component."""
+    if extra_variance is not None:
+        sds = np.sqrt(sds ** 2 + np.asarray(extra_variance, float))
     mean = weights @ means
     sd = np.sqrt(weights @ (sds ** 2 + (means - mean) ** 2))
     lower, upper = mixture_band(weights, means, sds, level)
@@ -142,8 +145,9 @@ class StrengthAverage:
         pv = (B**2) @ (1.0 / self.problem.prior_diag)
         return np.sqrt(pv * float(self._w @ (1.0 / self._a)))
 
-    def band(self, B, level: float = 0.95, offset=None):
-        """Mean, sd and the equal-tailed `level` band (lower, upper) of offset + B c.
+    def band(self, B, level: float = 0.95, offset=None, extra_variance=None):
+        """Mean, sd and the equal-tailed `level` band (lower, upper) of offset + B c
+        (+ an independent term of variance extra_variance).
 
         lower/upper solve sum_i w_i Phi((x - mean_i) / sd_i) = (1 -+ level) / 2 (bisection).
         """
@@ -152,7 +156,11 @@ class StrengthAverage:
         mean, sd = self.predict(B, offset)
         mean_i, sd_i = self.problem.predict(B, self._a, offset)
         m = self._a.size
-        lower, upper = mixture_band(self._w, mean_i.reshape(m, -1), sd_i.reshape(m, -1), level)
+        sd_i = sd_i.reshape(m, -1)
+        if extra_variance is not None:
+            sd_i = np.sqrt(sd_i ** 2 + np.asarray(extra_variance, float))
+            sd = np.sqrt(sd ** 2 + np.asarray(extra_variance, float))
+        lower, upper = mixture_band(self._w, mean_i.reshape(m, -1), sd_i, level)
         if np.ndim(mean) == 0:
             lower, upper = lower[0], upper[0]
         return mean, sd, lower, upper

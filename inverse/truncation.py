@@ -62,19 +62,62 @@ def left_out(design, big) -> np.ndarray:
     return (big.m[:ne] > design.harmonics) | (big.n_index[:ne] >= design.terms)
 
 
+def _tail_variances(big, mask, prior) -> np.ndarray:
+    """v_k = E[1 / (alpha P_k)] (T,) [unit^2] of `big`'s modes in `mask`, averaged over the
+    hyperparameter posterior of `prior`."""
+    v = np.zeros(int(mask.sum()))
+    for (length, order, rho), alphas, w in prior.hyperparameters():
+        v += float(w @ (1.0 / alphas)) / matern_precision(big, length, order, rho)[:big.n_eigen][mask]
+    return v
+
+
 def _tail_parts(design, r, theta, z, prior, powers=False):
     """(G_tail (n, T) [K per unit coefficient], v (T,) [unit^2]) at points, for `prior`;
     with powers=True also p_tail (T,) [W per unit coefficient], each left-out mode's heat into
     the part through the face."""
     big = design.model.basis(*enlarged_size(design, nearest_distance(design, r, z), TAIL_DECAY))
     mask = left_out(design, big)
-    v = np.zeros(int(mask.sum()))
     if not mask.any():
+        v = np.zeros(0)
         return (np.zeros((np.size(r), 0)), v) + ((v,) if powers else ())
     G = big.fields(r, theta, z)[0][:, :big.n_eigen][:, mask]
-    for (length, order, rho), alphas, w in prior.hyperparameters():
-        v += float(w @ (1.0 / alphas)) / matern_precision(big, length, order, rho)[:big.n_eigen][mask]
+    v = _tail_variances(big, mask, prior)
     return (G, v) + ((big.powers()[:big.n_eigen][mask],) if powers else ())
+
+
+def face_tail(design, points, prior, rd=None, noise_covariance=None):
+    """The left-out modes' part of the unknown face at `points` (face_grid.display_grid's,
+    with u, v and lines), up to the enlarged basis's caps: (H (Q, n) [face unit / K],
+    variance (Q,) [face unit^2]).
+
+    As for the power (tail_power), given the residual r = d - t0 - X c of the kept columns
+    at the sensors `rd` (noise S = noise_covariance, the tail's own signal included):
+    face value = B c + k + H r + e,  H = Phi_t V G_t^T S^-1,
+    var e = diag(Phi_t V Phi_t^T) - diag(H G_t V Phi_t^T),  V = diag(v_k) (_tail_variances).
+    Without readings (rd None) H = 0 and var e = sum_k Phi_k(x)^2 v_k, the prior's.  Finite
+    because the family's exponent exceeds half the face's dimension
+    (hyperprior.matern_exponent), so the bands no longer depend on the basis size."""
+    big = design.model.basis(*enlarged_size(design, 0.0, TAIL_DECAY))
+    mask = left_out(design, big)
+    n = 0 if rd is None else rd.n
+    if not mask.any():
+        return np.zeros((np.size(points.u), n)), np.zeros(np.size(points.u))
+    phi = big.face_values_lines(*points.lines)[0] if points.lines is not None else \
+        big.face_values(points.u, points.v)
+    phi = phi[:, :big.n_eigen][:, mask]
+    v = _tail_variances(big, mask, prior)
+    variance = (phi ** 2) @ v
+    if rd is None:
+        return np.zeros((phi.shape[0], 0)), variance
+    A = big.fields(rd.r, rd.theta, rd.z)[0][:, :big.n_eigen][:, mask] * v     # G_t V (n, T)
+    cross = phi @ A.T                                                          # Phi_t V G_t^T (Q, n)
+    H = np.linalg.solve(noise_covariance, cross.T).T
+    return H, np.maximum(variance - np.einsum("qn,qn->q", H, cross), 0.0)
+
+
+def face_tail_variance(design, points, prior) -> np.ndarray:
+    """The left-out modes' prior variance (Q,) at `points` of the face (face_tail without readings)."""
+    return face_tail(design, points, prior)[1]
 
 
 def tail_power(design, rd, prior, noise_covariance):

@@ -95,6 +95,6 @@ def test_summary_json_reports_what_the_data_chose(chuck):
     assert lo == pytest.approx(A / 20) and hi == pytest.approx(4 * A)
     assert lo * (1 - 1e-9) <= prior["length_scale_90_m"][0] <= prior["length_scale_m"] * 1.0001
     assert prior["length_scale_m"] <= prior["length_scale_90_m"][1] * 1.0001 <= hi * 1.0001
-    assert sum(prior["order_weights"].values()) == pytest.approx(1.0)
+    assert sum(prior["smoothness_weights"].values()) == pytest.approx(1.0)
     assert prior["amplitude_90"][0] < prior["amplitude_median"] < prior["amplitude_90"][1]
     assert prior["amplitude_unit"] == "W/m^2"
