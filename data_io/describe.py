@@ -10,7 +10,7 @@ import numpy as np
 import pandas as pd
 
 from ..forward.geometry import is_wall
-from ..inverse.layout import FAR_FRACTION, angular_note
+from ..inverse.layout import FAR_FRACTION, angular_note, edge_gap_note
 from . import thermocouples as tc
 from .case import Case
 from .units import format_quantity, from_si
@@ -64,9 +64,7 @@ def layout_notes(case: Case, layout: pd.DataFrame) -> list[str]:
     if n < 3:
         notes.append(f"only {n} sensor{'s' if n > 1 else ''}: the fit can estimate little more "
                      f"than the mean of the {face} face")
-    angular = angular_note(face, a, r, th)
-    if angular:
-        notes.append(angular)
+    notes += [note for note in (angular_note(face, a, r, th), edge_gap_note(face, cyl, r, z)) if note]
     if is_wall(face):
         dist = cyl.depth(face, r, z)
         if n >= 2 and np.ptp(z) < 1e-6 * max(a, 1e-300) and not math.isinf(cyl.height):

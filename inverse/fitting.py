@@ -29,7 +29,7 @@ from .design import NOMINAL_PRECISION_FACTOR, Design, smooth_prior
 from .diagnostics import screen_outliers, sensor_table
 from .functionals import face_functionals
 from .hyperprior import LearnedPrior, face_size, learn_prior
-from .layout import FAR_FRACTION, angular_note
+from .layout import FAR_FRACTION, angular_note, edge_gap_note
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem
 from .marginal_columns import MarginalColumns
@@ -482,9 +482,8 @@ def _misfit_warnings(screen):
 
 def _layout_warnings(face, cyl, rd):
     out = []
-    angular = angular_note(face, cyl.radius, rd.r, rd.theta)
-    if angular:
-        out.append(angular)
+    out += [note for note in (angular_note(face, cyl.radius, rd.r, rd.theta),
+                              edge_gap_note(face, cyl, rd.r, rd.z)) if note]
     dist = cyl.depth(face, rd.r, rd.z)
     size, what = (cyl.thickness, "wall thickness") if cyl.hollow else (cyl.radius, "radius")
     if dist.size and dist.min() > FAR_FRACTION * size:

@@ -40,3 +40,30 @@ def test_fit_warns_about_one_sector_layout(fem):  # noqa: F811
     with threadpool_limits(1):
         res = inverse.fit(case(), readings(r, th, z, fem.temperature(r, th, z), seed=1), grid=(3, 4))
     assert any("cover only 80 deg" in w for w in res.warnings), res.warnings
+
+
+def test_edge_gap_note_cases():
+    """Stretches next to a face's edges with no sensor over them (END_GAP_FRACTION of the extent)."""
+    import heatsight.forward as fw
+    from heatsight.inverse.layout import END_GAP_FRACTION, edge_gap_note
+    tube = fw.Cylinder(0.08, 0.60, 45.0, inner_radius=0.05)
+    z = np.array([0.12, 0.25, 0.37, 0.48])                     # the tube demo's four heights
+    note = edge_gap_note("bore", tube, np.full(4, 0.06), z)
+    assert "z = 0-120 mm and z = 480-600 mm" in note and "each of those edges" in note
+    spread = np.array([0.05, 0.3, 0.55])                       # within 0.15 x 600 mm of both ends
+    assert edge_gap_note("bore", tube, np.full(3, 0.06), spread) is None
+    # just inside and just beyond the fraction at the bottom end
+    near = END_GAP_FRACTION * 0.60
+    assert edge_gap_note("side", tube, np.full(2, 0.07), [0.99 * near, 0.59]) is None
+    assert "z = 0-" in edge_gap_note("side", tube, np.full(2, 0.07), [1.01 * near, 0.59])
+    # end faces: the rim of a solid part (its axis is no edge), both walls' edges of a hollow one
+    solid = fw.Cylinder(0.15, 0.04, 16.0)
+    assert edge_gap_note("bottom", solid, [0.0, 0.05, 0.10], [0.005] * 3) == \
+        edge_gap_note("bottom", solid, [0.06, 0.10], [0.005] * 2)
+    assert "r = 100-150 mm" in edge_gap_note("bottom", solid, [0.0, 0.05, 0.10], [0.005] * 3)
+    assert edge_gap_note("bottom", solid, [0.0, 0.13], [0.005] * 2) is None
+    assert "r = 50-60 mm" in edge_gap_note("top", tube, [0.06, 0.075], [0.59] * 2)
+    # a long tube's wall and a semi-infinite bar's side have no axial edges
+    long = fw.Cylinder(0.08, 1.0, 45.0, inner_radius=0.05, long=True)
+    assert edge_gap_note("bore", long, [0.06], [0.0]) is None
+    assert edge_gap_note("side", fw.Cylinder(0.05, math.inf, 45.0), [0.045], [0.01]) is None
