@@ -30,8 +30,8 @@ left-out modes' signal (truncation.py: a full noise covariance): C is still the 
 each candidate's noise variance adds its own share of those modes (`PlanState.variances`),
 but a new sensor's share is taken as independent of the others' (approximate: the exact
 refit would correlate them).  Without readings the prior has fixed hyperparameters:
-l = the face size, order 1, amplitude sigma_f = the expected variation the user states
-(sigma_f^2 = sum_k' 1 / (alpha w_k), hyperprior.py), i.e. alpha = sum_k' 1 / w_k / sigma_f^2.
+l = the face size, smoothness nu = 1 (exponent nu + d/2), amplitude sigma_f = the expected
+variation the user states (sigma_f^2 = sum_k' 1 / (alpha w_k), hyperprior.py), i.e. alpha = sum_k' 1 / w_k / sigma_f^2.
 """
 
 from __future__ import annotations
@@ -46,7 +46,7 @@ from .design import NOMINAL_PRECISION_FACTOR, Design, nominal_direction
 from .errors import InverseError
 from .face_grid import display_grid
 from .functionals import functional_matrix
-from .hyperprior import face_size, matern_precision
+from .hyperprior import face_size, matern_exponent, matern_precision, matern_weights
 from .truncation import tail_variance
 from .noise import noise_covariance
 from .plan_rules import COVARIANCES, _xyz, min_distance
@@ -55,8 +55,8 @@ from .readings import DEFAULT_SIGMA_K
 #: a target "depends on a single sensor" when losing that one sensor multiplies its sd by
 #: more than this (common practice, no source)
 SINGLE_SENSOR_RATIO = 1.5
-#: order of the default (no readings) prior: the gradient smoothing default of fit
-DEFAULT_ORDER = 1.0
+#: Matern smoothness nu of the default (no readings) prior, a member of the learned family
+DEFAULT_SMOOTHNESS = 1.0
 
 
 @dataclass
@@ -242,7 +242,7 @@ def state_from_fit(result, which, zones=(), new_sigma=None, new_offset_sd=None,
 
 def state_from_prior(spec, which, expected_variation, sensors=None, new_sigma=None, new_offset_sd=0.0,
                      zones=()) -> PlanState:
-    """The PlanState without readings: prior at l = face size, order 1, amplitude
+    """The PlanState without readings: prior at l = face size, smoothness nu = 1, amplitude
     `expected_variation` [face unit]; sensors: (names, r, theta, z, sigma, offset_sd) of the
     existing layout or None."""
     opts = spec.options
@@ -251,9 +251,10 @@ def state_from_prior(spec, which, expected_variation, sensors=None, new_sigma=No
     design = Design(spec.cylinder, spec.faces, opts.tolerance, *opts.basis_size)
     basis = design.basis
     length = face_size(basis)
-    P = matern_precision(basis, length, DEFAULT_ORDER)
+    order = matern_exponent(basis, DEFAULT_SMOOTHNESS)
+    P = matern_precision(basis, length, order)
     u = nominal_direction(basis)
-    w = (1.0 + length ** 2 * basis.surface_eigenvalues()) ** DEFAULT_ORDER
+    w = matern_weights(basis, length, order)
     alpha = float(np.sum(1.0 / w[u == 0])) / expected_variation ** 2
     P[u > 0] *= NOMINAL_PRECISION_FACTOR
     common = float(opts.common_offset_sd or 0.0)
@@ -268,7 +269,7 @@ def state_from_prior(spec, which, expected_variation, sensors=None, new_sigma=No
     if common > 0:
         targets = _pad(targets, 1)
     sigma = float(new_sigma) if new_sigma is not None else (float(np.median(sig)) if len(names) else DEFAULT_SIGMA_K)
-    text = (f"prior without readings: length scale {length * 1e3:.3g} mm, order {DEFAULT_ORDER:g}, "
+    text = (f"prior without readings: length scale {length * 1e3:.3g} mm, smoothness {DEFAULT_SMOOTHNESS:g}, "
             f"expected variation {expected_variation:.3g} (strength {alpha:.3g})")
     existing = {"names": list(names), "r": np.asarray(r, float), "theta": np.asarray(th, float),
                 "z": np.asarray(z, float), "variance": np.asarray(var, float)}
