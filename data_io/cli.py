@@ -167,16 +167,22 @@ def _run_check(args) -> int:
         if notes:
             lines.append("layout notes:")
             lines += [f"  - {n}" for n in notes]
-    if case.unknown_face is not None:
-        extra = "" if case.sensors.readings is not None else " (give the readings with --readings)"
-        lines.append(f"ready for: fit (unknown face: {case.unknown_face}){extra}")
-    else:
-        lines.append("ready for: simulate (every face is known)")
     # the forward model's own set-up checks (well-posedness); a coarse tolerance keeps it quick
     try:
         case.build_model(CHECK_TOLERANCE)
     except ForwardModelError as exc:
         raise InputError(str(exc), file=case.path) from None
+    if case.unknown_face is not None:
+        from ..inverse.pinned_edges import pinned_edge_notes_for_case
+
+        edges = pinned_edge_notes_for_case(case)
+        if edges:
+            lines.append("series notes:")
+            lines += [f"  - {n}" for n in edges]
+        extra = "" if case.sensors.readings is not None else " (give the readings with --readings)"
+        lines.append(f"ready for: fit (unknown face: {case.unknown_face}){extra}")
+    else:
+        lines.append("ready for: simulate (every face is known)")
     for w in warnings:
         _warn(w)
     current().answer("\n".join(lines), {"case": str(case.path), "lines": lines, "warnings": warnings})

@@ -18,7 +18,7 @@ _EXPORTS = {
     "LearnedPrior": "hyperprior", "learn_prior": "hyperprior",
     "unresolved_warning": "resolution",
     "Z95": "bands",
-    "fit": "fitting", "prior_diagonal": "design",
+    "fit": "fitting", "prior_diagonal": "design", "pinned_edge_notes_for_case": "pinned_edges",
     "FitOptions": "problem", "Problem": "problem", "Zone": "problem",
     "SensorReadings": "readings",
     "FitResult": "result", "Posterior": "result",

@@ -33,6 +33,7 @@ from .layout import FAR_FRACTION, angular_note, edge_gap_note
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem
 from .marginal_columns import MarginalColumns
+from .pinned_edges import pinned_edge_notes
 from .lmfit_solver import fit_linear_lmfit
 from .model_choice import MIXED_MODELS, ModelMixture, embedded_mixture, log_evidence_on_all, model_weights
 from .monte_carlo import placement_draws
@@ -120,7 +121,7 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     warnings[:0] = [w for w in screen.warnings if not (learned and w in screen.choice.warnings)]
 
     warnings += _layout_warnings(face, spec.cylinder, rd.subset(screen.kept))
-    warnings += _pinned_edge_warnings(design)
+    warnings += pinned_edge_notes(design)
     warnings += _unresolved_warnings(post, screen, columns, design, spec, rd)
     warnings += _misfit_warnings(screen)
     if hasattr(post.averaged, "description") and "prior" not in model_info:
@@ -489,36 +490,6 @@ def _layout_warnings(face, cyl, rd):
     if dist.size and dist.min() > FAR_FRACTION * size:
         out.append(f"the nearest sensor is {dist.min() * 1e3:.3g} mm from the unknown face "
                    f"(over {FAR_FRACTION:.0%} of the {what}): fine detail of the profile is unresolved")
-    return out
-
-
-#: a face edge counts as pinned where every column's face value stays below this share of
-#: the columns' largest face value (round-off of functions that vanish there)
-PINNED = 1e-9
-
-
-def _pinned_edge_warnings(design):
-    """An unknown flux face whose columns all vanish along one of its edges (a hollow part's
-    unknown wall beside an end held at a temperature: its axial eigenfunctions vanish there
-    and it has no corner columns yet): the map and its band are held at the known part along
-    that edge, whatever the true flux does there.  (The solid part's faces have corner columns
-    wherever this could happen.)"""
-    if design.quantity == "temperature":
-        return []
-    cyl, face = design.cylinder, design.face_name
-    lo, hi = face_interval(face, cyl)
-    around = np.linspace(0.0, 2.0 * np.pi, 24, endpoint=False)
-    wall = is_wall(face)
-    edges = (("bottom", lo), ("top", hi)) if wall else (("side", hi),) + ((("bore", lo),) if lo > 0 else ())
-    pts = display_grid(face, cyl, 21, 24)
-    scale = float(np.abs(design.face(pts.u, pts.v)[0]).max())
-    out = []
-    for neighbour, at in edges:
-        u, v = (around, np.full(around.size, at)) if wall else (np.full(around.size, at), around)
-        if float(np.abs(design.face(u, v)[0]).max()) <= PINNED * scale:
-            out.append(f"the heat flux on the {face} face is not estimated where it meets the {neighbour} face "
-                       f"(held at a temperature): every column of the series vanishes along that edge, so the "
-                       f"map has a band of zero width there whatever the true flux does; read it a few mm away")
     return out
 
 

@@ -137,6 +137,22 @@ def test_check_explains_the_wall(tmp_path, monkeypatch, capsys):
         assert line in out
 
 
+def test_check_says_where_the_bore_flux_is_not_estimated(tmp_path, monkeypatch, capsys):
+    """An unknown bore flux beside an end held at a temperature: every axial eigenfunction
+    vanishes at that end, so `check` says the flux is not estimated there (as `fit` warns);
+    with both ends insulated it says nothing of the kind."""
+    text = WALLS.format(height="300 mm", bore="unknown-flux", bore_value="",
+                        side='condition = "temperature"\nvalue = "200 degC"') \
+        + '[faces.top]\ncondition = "insulated"\n[faces.bottom]\ncondition = "temperature"\nvalue = "150 degC"\n' \
+        + '[sensors]\nlayout = "layout.csv"\n'
+    out = _check(tmp_path, monkeypatch, capsys, text)
+    assert "series notes:" in out and "not estimated where it meets the bottom face" in out
+    assert "meets the top face" not in out
+    insulated = text.replace('condition = "temperature"\nvalue = "150 degC"', 'condition = "insulated"')
+    out = _check(tmp_path, monkeypatch, capsys, insulated)
+    assert "series notes:" not in out and "not estimated" not in out
+
+
 def test_check_says_z_is_ignored_on_a_long_part(tmp_path, monkeypatch, capsys):
     text = WALLS.format(height="long", bore="unknown-flux", bore_value="",
                         side='condition = "temperature"\nvalue = "50 degC"') + '[sensors]\nlayout = "layout.csv"\n'

@@ -1,0 +1,52 @@
+"""Edges of an unknown flux face where the series cannot carry the flux.
+
+A hollow part's unknown wall beside an end held at a temperature: its axial eigenfunctions
+vanish there and it has no corner columns yet, so the map and its band are held at the known
+part along that edge whatever the true flux does.  Found from the columns' own face values,
+so the note goes away when such columns arrive.  Used by `fit` (warnings) and `check` (notes).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..forward.geometry import is_wall
+
+from .design import Design
+from .face_grid import display_grid, face_interval
+from .problem import Problem
+
+
+#: a face edge counts as pinned where every column's face value stays below this share of
+#: the columns' largest face value (round-off of functions that vanish there)
+PINNED = 1e-9
+
+
+def pinned_edge_notes(design) -> list[str]:
+    """One sentence per edge of an unknown flux face along which every column of `design`
+    vanishes (below PINNED of their largest face value); none for a temperature face.  (The
+    solid part's faces have corner columns wherever this could happen.)"""
+    if design.quantity == "temperature":
+        return []
+    cyl, face = design.cylinder, design.face_name
+    lo, hi = face_interval(face, cyl)
+    around = np.linspace(0.0, 2.0 * np.pi, 24, endpoint=False)
+    wall = is_wall(face)
+    edges = (("bottom", lo), ("top", hi)) if wall else (("side", hi),) + ((("bore", lo),) if lo > 0 else ())
+    pts = display_grid(face, cyl, 21, 24)
+    scale = float(np.abs(design.face(pts.u, pts.v)[0]).max())
+    out = []
+    for neighbour, at in edges:
+        u, v = (around, np.full(around.size, at)) if wall else (np.full(around.size, at), around)
+        if float(np.abs(design.face(u, v)[0]).max()) <= PINNED * scale:
+            out.append(f"the heat flux on the {face} face is not estimated where it meets the {neighbour} face "
+                       f"(held at a temperature): every column of the series vanishes along that edge, so the "
+                       f"map has a band of zero width there whatever the true flux does; read it a few mm away")
+    return out
+
+
+def pinned_edge_notes_for_case(case) -> list[str]:
+    """pinned_edge_notes for a case (anything Problem.from_case takes), building its columns."""
+    spec = Problem.from_case(case)
+    opts = spec.options
+    return pinned_edge_notes(Design(spec.cylinder, spec.faces, opts.tolerance, *opts.basis_size))
