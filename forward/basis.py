@@ -19,7 +19,7 @@ class UnknownBasis:
     flux into the part [W/m^2] (unknown-flux).
     """
 
-    def __init__(self, model, harmonics: int, terms: int):
+    def __init__(self, model, harmonics: int, terms: int, corners: bool = True):
         self.model = model
         self._norms = None
         self.face = model.unknown_face
@@ -35,7 +35,7 @@ class UnknownBasis:
         m, is_sin, ev = np.concatenate(ms), np.concatenate(sins), np.concatenate(ev)
         self.n_index = np.concatenate(nidx)
         self.modes = families.modes(self.face, m, is_sin, ev)
-        if model.cylinder.hollow:
+        if model.cylinder.hollow or not corners:
             self.rim = []  # no corner columns on a hollow part yet (see DEVELOPERS.md)
             self.mix = np.zeros((ev.size, 0))
         elif self.face == "side":

@@ -395,9 +395,10 @@ class CylinderModel:
         return total
 
     # --- the unknown face's basis -------------------------------------------------------------------
-    def basis(self, harmonics: int, terms: int) -> UnknownBasis:
+    def basis(self, harmonics: int, terms: int, corners: bool = True) -> UnknownBasis:
         """Fields of the unknown face's eigenfunctions: m = 0..harmonics (cos and sin), `terms`
-        radial (end face) or axial (side) functions for each."""
+        radial (end face) or axial (side) functions for each; corners=False leaves out the
+        corner columns (for uses that need the eigenfunctions alone)."""
         if self.unknown_face is None:
             raise ForwardModelError("this case has no unknown face")
-        return UnknownBasis(self, int(harmonics), int(terms))
+        return UnknownBasis(self, int(harmonics), int(terms), corners)

@@ -27,7 +27,7 @@ from scipy.special import logsumexp
 from .calibration import calibrate, learned_calibration
 from .design import NOMINAL_PRECISION_FACTOR, Design, smooth_prior
 from .diagnostics import screen_outliers, sensor_table
-from .functionals import face_functionals
+from .functionals import face_functionals, functional_matrix
 from .hyperprior import LearnedPrior, face_size, learn_prior
 from .layout import FAR_FRACTION, angular_note, edge_gap_note
 from .errors import InverseError
@@ -48,7 +48,8 @@ from .result import FitResult, Posterior, valid_zones, zone_area
 from .strength import choose_strength, default_alphas
 from .strength_average import StrengthAverage
 from .threads import few_threads
-from .truncation import face_tail, face_tail_variance, nearest_distance, tail_covariance, tail_power
+from .truncation import (face_tail, face_tail_variance, functional_tails, left_out_columns, nearest_distance,
+                         tail_covariance, tail_power)
 from .zones import ZoneDesign, ZoneModel, edge_room, edge_widths, with_edge
 
 #: reduced chi-square above which the readings scatter more than stated (common practice, no source)
@@ -138,7 +139,7 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     power_tail = face_tail = None
     if tail_prior is not None and post.calibration is None and mc is None:
         power_tail, face_tail = _tails(model_info["model"], columns, design, rd, screen.kept, problem, tail_prior,
-                                       zone_model)
+                                       zone_model, valid_zones(spec.zones, face, spec.cylinder, []))
     elif tail_prior is not None and mc is None:     # calibrated: the left-out modes' prior variance
         lead_prior = _lead_tail_prior(model_info["model"], tail_prior, zone_model)
 
@@ -200,25 +201,31 @@ def _lead_tail_prior(model, tail_prior, zone_model):
     return tail_prior if model == "smooth" else zone_model[0].tail_prior
 
 
-def _tails(model, columns, design, rd, kept, problem, tail_prior, zone_model):
+def _tails(model, columns, design, rd, kept, problem, tail_prior, zone_model, zones):
     """The left-out modes under the model that leads, given the kept sensors' residual, for
-    FitResult.build: (power_tail, face_tail). power_tail = (h, X, residual, variance): their
-    share of the total power (truncation.tail_power); face_tail: points -> (dF, dk,
-    variance), their part of the face map, k + dk + (F + dF) c with the variance added
-    (truncation.face_tail). zone_model: (the leading ZoneModel, the zone columns' field at
-    the sensors (n, J'))."""
+    FitResult.build: (functional_tail, face_tail). functional_tail = (X, residual, {name: (h,
+    variance)}): their share of the total power (truncation.tail_power), the face mean and
+    each zone mean (truncation.functional_tails), value = k + f . c + h . (residual - X c) with the
+    variance added; face_tail: points -> (dF, dk, variance), their part of the face map,
+    k + dk + (F + dF) c with the variance added (truncation.face_tail). zone_model: (the
+    leading ZoneModel, the zone columns' field at the sensors (n, J'))."""
     idx = np.flatnonzero(kept)
     lin = problem if model == "smooth" else zone_model[0].smooth      # its readings, noise and columns
     prior = _lead_tail_prior(model, tail_prior, zone_model)
     X = lin.G[idx] if columns is design else np.hstack([lin.G[idx], zone_model[1][idx]])
     S = lin.noise.covariance[np.ix_(idx, idx)]
     kept_rd, residual = rd.subset(idx), lin.d[idx] - lin.t0[idx]
-    h, var = tail_power(design, kept_rd, prior, S)
+    rows = {"total_power": tail_power(design, kept_rd, prior, S)}
+    left = left_out_columns(design)
+    if left is not None:        # the face and zone means' share, on the fit's quadrature rule
+        names, F_t, _ = functional_matrix(left, zones)
+        means = [i for i, name in enumerate(names) if name != "total_power"]
+        rows.update(zip([names[i] for i in means], functional_tails(left, F_t[means], kept_rd, prior, S)))
 
     def on_face(points):
         H, variance = face_tail(design, points, prior, kept_rd, S)
         return -H @ X, H @ residual, variance
-    return (h, X, residual, var), on_face
+    return (X, residual, rows), on_face
 
 
 def _truncation_warnings(ev, rd):

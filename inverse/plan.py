@@ -66,6 +66,8 @@ class Target:
     name: str
     F: np.ndarray
     kind: str = "scalar"
+    #: variance no sensor here reduces: the left-out modes' remaining share of a fitted figure
+    extra_variance: float = 0.0
 
 
 @dataclass
@@ -109,7 +111,8 @@ class PlanState:
     def target_sd(self, C=None) -> np.ndarray:
         """sd of every target under C (default self.C); a map: the RMS of its pointwise sds."""
         C = self.C if C is None else C
-        return np.array([_group_sd(np.einsum("qk,kl,ql->q", t.F, C, t.F)) for t in self.targets])
+        return np.array([_group_sd(np.einsum("qk,kl,ql->q", t.F, C, t.F) + t.extra_variance)
+                         for t in self.targets])
 
 
 def _group_sd(var):
@@ -151,7 +154,19 @@ def target_list(design, zones, which, grid=(11, 24)) -> list:
 
 
 def _pad(targets, extra):
-    return [Target(t.name, np.hstack([t.F, np.zeros((t.F.shape[0], extra))]), t.kind) for t in targets]
+    return [Target(t.name, np.hstack([t.F, np.zeros((t.F.shape[0], extra))]), t.kind, t.extra_variance)
+            for t in targets]
+
+
+def _with_tails(targets, tails):
+    """Scalar targets as the fit reports them: with the left-out modes' share (FitResult's
+    functional_tails: rows f - X^T h, their remaining variance held fixed, as no new sensor
+    is planned to see those modes)."""
+    if tails is None:
+        return targets
+    X, _, rows = tails
+    return [Target(t.name, t.F - (rows[t.name][0] @ X)[None, :], t.kind, rows[t.name][1])
+            if t.kind == "scalar" and t.name in rows else t for t in targets]
 
 
 # ------------------------------------------------------------------------------ the covariance
@@ -210,7 +225,7 @@ def state_from_fit(result, which, zones=(), new_sigma=None, new_offset_sd=None,
     post, rd, kept = result.posterior, result.readings, np.asarray(result.kept, bool)
     common = float(getattr(result.options, "common_offset_sd", 0.0) or 0.0)
     design = result.design
-    targets = target_list(design, zones, which)
+    targets = _with_tails(target_list(design, zones, which), result.functional_tails)
     sub = rd.subset(kept)
     sigma = float(np.median(sub.sigma)) if new_sigma is None else float(new_sigma)
     tau = float(np.median(sub.offset_sd)) if new_offset_sd is None else float(new_offset_sd)

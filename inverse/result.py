@@ -7,8 +7,6 @@ calibrated face parameters' uncertainty through the joint linearization when the
 
 from __future__ import annotations
 
-import math
-
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -179,6 +177,9 @@ class FitResult:
     monte_carlo: dict | None = field(repr=False, default=None)
     calibration: object = field(repr=False, default=None)
     options: object = field(repr=False, default=None)
+    #: (X, residual, {name: (h, variance)}): the left-out modes' share of the face mean, the
+    #: power and the zone means (build's power_tail), or None
+    functional_tails: object = field(repr=False, default=None)
 
     # ------------------------------------------------------------------ construction
     @classmethod
@@ -186,9 +187,10 @@ class FitResult:
               set_aside, warnings, monte_carlo, extra=None, power_tail=None, face_tail=None):
         """Derived figures of a fit.  spec: the inverse.problem.Problem; design: the model
         columns (design.Design or the zone model's); problem: the LinearGaussianProblem of
-        the kept sensors; extra: further summary keys; power_tail: (h, X, residual, variance)
-        of the left-out modes' share of the total power (truncation.tail_power: the power
-        becomes p . c + k + h . (residual - X c) with the variance added); face_tail: points ->
+        the kept sensors; extra: further summary keys; power_tail: (X, residual, {name: (h,
+        variance)}), the left-out modes' share of the total power, the face mean and the zone
+        means (truncation.tail_power, functional_tails: each becomes f . c + k + h . (residual - X c)
+        with the variance added); face_tail: points ->
         (dF, dk, variance), the left-out modes' part of the face map: k + dk + (F + dF) c with
         the variance (Q,) added to its bands (dF, dk None: variance only; truncation.face_tail)."""
         cyl, opts = design.cylinder, spec.options
@@ -214,17 +216,17 @@ class FitResult:
         # linear functionals over the face (quadrature rule): mean, power, zones, jointly
         valid = valid_zones(spec.zones, face, cyl, warnings)
         names, F, k = functional_matrix(design, valid)
+        extra_var = None
         if power_tail is not None:
-            h, X, resid, _ = power_tail
-            i = names.index("total_power")
-            F, k = F.copy(), np.array(k, float)
-            F[i] -= h @ X
-            k[i] += h @ resid
+            X, resid, rows = power_tail
+            F, k, extra_var = F.copy(), np.array(k, float), np.zeros(len(names))
+            for i, name in enumerate(names):
+                if name in rows:
+                    h, extra_var[i] = rows[name]
+                    F[i] -= h @ X
+                    k[i] += h @ resid
         on_quadrature = _evaluated_once(lambda d: functional_matrix(d, valid)[1:], design, (F, k))
-        f_mean, f_sd, _, _ = posterior.figures(on_quadrature, design)
-        if power_tail is not None:
-            f_sd = np.array(f_sd, float)
-            f_sd[i] = math.sqrt(f_sd[i] ** 2 + power_tail[3])
+        f_mean, f_sd, _, _ = posterior.figures(on_quadrature, design, extra_variance=extra_var)
 
         # extremes and non-uniformity from posterior draws on the display grid
         prof = posterior.draws(on_grid, design, 400, seed=1)
@@ -269,7 +271,7 @@ class FitResult:
         summary.update(extra or {})
         return cls(face, quantity, unit, cyl, grid, pts.shape, summary, sens, curve, list(warnings),
                    posterior, design, problem, readings, kept, zones,
-                   cal.info() if cal is not None else None, monte_carlo, cal, opts)
+                   cal.info() if cal is not None else None, monte_carlo, cal, opts, power_tail)
 
     # ------------------------------------------------------------------ queries
     def face_profile(self, u, v, level=0.95):

@@ -75,7 +75,7 @@ def _tail_parts(design, r, theta, z, prior, powers=False):
     """(G_tail (n, T) [K per unit coefficient], v (T,) [unit^2]) at points, for `prior`;
     with powers=True also p_tail (T,) [W per unit coefficient], each left-out mode's heat into
     the part through the face."""
-    big = design.model.basis(*enlarged_size(design, nearest_distance(design, r, z), TAIL_DECAY))
+    big = design.model.basis(*enlarged_size(design, nearest_distance(design, r, z), TAIL_DECAY), corners=False)
     mask = left_out(design, big)
     if not mask.any():
         v = np.zeros(0)
@@ -97,7 +97,7 @@ def face_tail(design, points, prior, rd=None, noise_covariance=None):
     Without readings (rd None) H = 0 and var e = sum_k Phi_k(x)^2 v_k, the prior's.  Finite
     because the family's exponent exceeds half the face's dimension
     (hyperprior.matern_exponent), so the bands no longer depend on the basis size."""
-    big = design.model.basis(*enlarged_size(design, 0.0, TAIL_DECAY))
+    big = design.model.basis(*enlarged_size(design, 0.0, TAIL_DECAY), corners=False)
     mask = left_out(design, big)
     n = 0 if rd is None else rd.n
     if not mask.any():
@@ -113,6 +113,55 @@ def face_tail(design, points, prior, rd=None, noise_covariance=None):
     cross = phi @ A.T                                                          # Phi_t V G_t^T (Q, n)
     H = np.linalg.solve(noise_covariance, cross.T).T
     return H, np.maximum(variance - np.einsum("qn,qn->q", H, cross), 0.0)
+
+
+class LeftOutColumns:
+    """The left-out modes of `big` (mask) as model columns for functionals.face_functionals:
+    face values on the face (no known part), so zone and face means of the tail come from
+    the same quadrature rule as the fit's own."""
+
+    def __init__(self, design, big, mask):
+        self.big, self.mask = big, mask
+        self.face_name, self.quantity, self.cylinder = design.face_name, design.quantity, design.cylinder
+
+    def _pick(self, phi):
+        phi = phi[:, :self.big.n_eigen][:, self.mask]
+        return phi, np.zeros(phi.shape[0])
+
+    def face(self, u, v):
+        return self._pick(self.big.face_values(u, v))
+
+    def face_grid(self, along, around):
+        return self._pick(self.big.face_values_lines(along, around)[0])
+
+    def powers(self):
+        return self.big.powers()[:self.big.n_eigen][self.mask], 0.0
+
+
+def left_out_columns(design):
+    """The modes `design` leaves out, up to the enlarged basis's caps, as LeftOutColumns (None
+    when it leaves none out)."""
+    big = design.model.basis(*enlarged_size(design, 0.0, TAIL_DECAY), corners=False)
+    mask = left_out(design, big)
+    return LeftOutColumns(design, big, mask) if mask.any() else None
+
+
+def functional_tails(columns, rows, rd, prior, noise_covariance) -> list:
+    """[(h (n,), variance)] for linear functionals of the face whose weights on the left-out
+    modes `columns` (LeftOutColumns) are `rows` (q, T), e.g. the face and zone means from the
+    fit's quadrature rule (functionals.functional_matrix): their share given the readings, as
+    for the power (tail_power):
+    value = k + f . c + h . r + e,  h = S^-1 G_t V f_t,  var e = f_t V f_t - h . (G_t V f_t).
+    (The power keeps tail_power, whose modes stop where the sensors stop seeing them: a
+    temperature face's power weights a mode by its wavenumber.)"""
+    big, mask = columns.big, columns.mask
+    rows = np.atleast_2d(rows)
+    v = _tail_variances(big, mask, prior)
+    A = big.fields(rd.r, rd.theta, rd.z)[0][:, :big.n_eigen][:, mask] * v      # G_t V (n, T)
+    a = A @ rows.T                                                              # G_t V f_t (n, q)
+    H = np.linalg.solve(noise_covariance, a)
+    var = np.maximum(np.einsum("qt,t,qt->q", rows, v, rows) - np.einsum("nq,nq->q", H, a), 0.0)
+    return [(H[:, j], float(var[j])) for j in range(rows.shape[0])]
 
 
 def face_tail_variance(design, points, prior) -> np.ndarray:

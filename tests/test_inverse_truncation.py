@@ -127,3 +127,57 @@ def test_tail_power_is_zero_on_a_flux_face():
     h, extra = tail_power(design, rd, OneComponent(0.01, 1.5, 2e-7), np.eye(rd.n))
     # a non-uniform flux mode carries no net heat: round-off only (W per K of residual, W^2)
     assert np.abs(h).max() < 1e-10 and extra < 1e-20
+
+
+def test_zone_tails_equal_the_enlarged_models_posterior():
+    """A zone mean and the face mean with the left-out modes' share (functional_tails: f . c +
+    h . (d - G c) plus its variance) against the exact Gaussian posterior of the same averages
+    under the enlarged basis (the conditional of a jointly Gaussian model), at one set of
+    hyperparameters; the averages' weights from the fit's own quadrature rule."""
+    from heatsight.inverse import Zone
+    from heatsight.inverse.functionals import functional_matrix
+    from heatsight.inverse.truncation import LeftOutColumns, _tail_variances, functional_tails, left_out_columns
+    cyl = fw.Cylinder(A, L, K)
+    faces = {"side": fw.UnknownTemperature(), "bottom": fw.Temperature(300.0), "top": fw.Convection(50.0, 300.0)}
+    design = Design(cyl, faces, 1e-8, 2, 4)
+    n = 6
+    r, th = A - np.array([0.002, 0.003, 0.004, 0.006, 0.01, 0.015]), np.linspace(0.3, 5.0, n)
+    z = np.linspace(0.004, 0.026, n)
+    rd = SensorReadings([f"s{i}" for i in range(n)], r, th, z, np.full(n, 300.0), np.full(n, 0.1),
+                        np.zeros(n), np.zeros(n))
+    length, order, alpha = 0.01, 2.0, 1e-3
+    prior = OneComponent(length, order, alpha)
+    zones = [Zone("band", "side", (0.5, 2.5), z=(0.01, 0.02))]
+    big = design.model.basis(*enlarged_size(design, 0.0, TAIL_DECAY))
+    ne = big.n_eigen
+    out = left_out(design, big)
+    every = np.ones(ne, dtype=bool)
+    names, Fb, _ = functional_matrix(LeftOutColumns(design, big, every), zones)
+    Gb = big.fields(r, th, z)[0][:, :ne]
+    Pb = alpha * matern_precision(big, length, order)[:ne]
+    S0 = np.diag(np.full(n, 0.1 ** 2))
+    y = np.random.default_rng(4).normal(0.0, 2.0, n)
+    Cb = np.linalg.inv(Gb.T @ np.linalg.solve(S0, Gb) + np.diag(Pb))
+    mb = Cb @ Gb.T @ np.linalg.solve(S0, y)
+    keep = ~out
+    G, P = Gb[:, keep], Pb[keep]
+    S = S0 + (Gb[:, out] / Pb[out]) @ Gb[:, out].T          # the same left-out modes in the noise
+    np.testing.assert_allclose(_tail_variances(big, out, prior), 1.0 / Pb[out], rtol=1e-12)
+    C = np.linalg.inv(G.T @ np.linalg.solve(S, G) + np.diag(P))
+    m = C @ G.T @ np.linalg.solve(S, y)
+    left = left_out_columns(design)
+    assert np.array_equal(left.mask, out)
+    tail_names, F_t, _ = functional_matrix(left, zones)
+    assert tail_names == names
+    means = [names.index("mean"), names.index("band")]
+    rows = dict(zip(["mean", "band"], functional_tails(left, F_t[means], rd, prior, S)))
+    for name in rows:
+        fb = Fb[names.index(name)]
+        h, extra = rows[name]
+        f = fb[keep] - G.T @ h
+        exact_mean, exact_var = fb @ mb, fb @ Cb @ fb
+        if name == "band":      # the zone's own share: without it its variance is 1.9 % short
+            assert abs(fb[keep] @ C @ fb[keep] - exact_var) > 1e-2 * exact_var
+        assert f @ m + h @ y == pytest.approx(exact_mean, rel=1e-8, abs=1e-8 * np.sqrt(exact_var))
+        assert f @ C @ f + extra == pytest.approx(exact_var, rel=1e-7)
+        assert extra > 0
