@@ -41,6 +41,21 @@ def design_and_readings(depths):
     return design, rd
 
 
+def wall_design_and_readings(depths):
+    """An unknown wall between a temperature base and a convective top (its axial modes carry
+    net heat; on an end face beside an insulated rim only the uniform mode does), sensors at
+    `depths` [m] from the wall."""
+    cyl = fw.Cylinder(A, L, K)
+    faces = {"side": fw.UnknownTemperature(), "bottom": fw.Temperature(300.0), "top": fw.Convection(50.0, 300.0)}
+    design = Design(cyl, faces, 1e-8, 2, 4)
+    n = len(depths)
+    r, th = A - np.asarray(depths, float), np.linspace(0.3, 5.0, n)
+    z = np.linspace(0.004, 0.026, n)
+    rd = SensorReadings([f"s{i}" for i in range(n)], r, th, z, np.full(n, 300.0), np.full(n, 0.1),
+                        np.zeros(n), np.zeros(n))
+    return design, rd
+
+
 def test_tail_equals_difference_of_prior_predictive_covariances():
     design, rd = design_and_readings([0.004, 0.006, 0.01, 0.015])
     length, order, alpha = 0.01, 1.5, 2e-7
@@ -82,16 +97,8 @@ def test_tail_power_equals_the_enlarged_models_posterior():
     noise) against the exact Gaussian posterior of the power under the enlarged basis (the
     textbook conditional of a jointly Gaussian model), at one set of hyperparameters."""
     from heatsight.inverse.truncation import tail_power
-    cyl = fw.Cylinder(A, L, K)
-    # an unknown wall between a temperature base and a convective top: its axial modes carry
-    # net heat (on an end face beside an insulated rim only the uniform mode does)
-    faces = {"side": fw.UnknownTemperature(), "bottom": fw.Temperature(300.0), "top": fw.Convection(50.0, 300.0)}
-    design = Design(cyl, faces, 1e-8, 2, 4)
-    n = 6
-    r, th = A - np.array([0.003, 0.004, 0.006, 0.008, 0.01, 0.015]), np.linspace(0.3, 5.0, n)
-    z = np.linspace(0.004, 0.026, n)
-    rd = SensorReadings([f"s{i}" for i in range(n)], r, th, z, np.full(n, 300.0), np.full(n, 0.1),
-                        np.zeros(n), np.zeros(n))
+    design, rd = wall_design_and_readings([0.003, 0.004, 0.006, 0.008, 0.01, 0.015])
+    n, r, th, z = rd.n, rd.r, rd.theta, rd.z
     length, order, alpha = 0.01, 1.0, 1e-3
     prior = OneComponent(length, order, alpha)
     big = design.model.basis(*enlarged_size(design, nearest_distance(design, rd.r, rd.z), TAIL_DECAY))
@@ -137,14 +144,8 @@ def test_zone_tails_equal_the_enlarged_models_posterior():
     from heatsight.inverse import Zone
     from heatsight.inverse.functionals import functional_matrix
     from heatsight.inverse.truncation import LeftOutColumns, _tail_variances, functional_tails, left_out_columns
-    cyl = fw.Cylinder(A, L, K)
-    faces = {"side": fw.UnknownTemperature(), "bottom": fw.Temperature(300.0), "top": fw.Convection(50.0, 300.0)}
-    design = Design(cyl, faces, 1e-8, 2, 4)
-    n = 6
-    r, th = A - np.array([0.002, 0.003, 0.004, 0.006, 0.01, 0.015]), np.linspace(0.3, 5.0, n)
-    z = np.linspace(0.004, 0.026, n)
-    rd = SensorReadings([f"s{i}" for i in range(n)], r, th, z, np.full(n, 300.0), np.full(n, 0.1),
-                        np.zeros(n), np.zeros(n))
+    design, rd = wall_design_and_readings([0.002, 0.003, 0.004, 0.006, 0.01, 0.015])
+    n, r, th, z = rd.n, rd.r, rd.theta, rd.z
     length, order, alpha = 0.01, 2.0, 1e-3
     prior = OneComponent(length, order, alpha)
     zones = [Zone("band", "side", (0.5, 2.5), z=(0.01, 0.02))]
