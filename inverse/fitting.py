@@ -136,19 +136,19 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     elif opts.monte_carlo:
         warnings.append("Monte Carlo draws of sensor positions are not available with the zone model; "
                         "the bands are the zone model's posterior")
-    power_tail = face_tail = None
+    figure_tails = map_tail = None
     if tail_prior is not None and post.calibration is None and mc is None:
-        power_tail, face_tail = _tails(model_info["model"], columns, design, rd, screen.kept, problem, tail_prior,
+        figure_tails, map_tail = _tails(model_info["model"], columns, design, rd, screen.kept, problem, tail_prior,
                                        zone_model, valid_zones(spec.zones, face, spec.cylinder, []))
     elif tail_prior is not None and mc is None:     # calibrated: the left-out modes' prior variance
         lead_prior = _lead_tail_prior(model_info["model"], tail_prior, zone_model)
 
-        def face_tail(points):
+        def map_tail(points):
             return None, None, face_tail_variance(design, points, lead_prior)
     return FitResult.build(spec=spec, design=columns, readings=rd, kept=screen.kept, problem=screen.problem,
                            choice=screen.choice, posterior=post, sensors=screen.table,
                            set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)),
-                           monte_carlo=mc, extra=model_info, power_tail=power_tail, face_tail=face_tail)
+                           monte_carlo=mc, extra=model_info, figure_tails=figure_tails, map_tail=map_tail)
 
 
 # ------------------------------------------------------------------------ design, prior, noise
@@ -203,10 +203,10 @@ def _lead_tail_prior(model, tail_prior, zone_model):
 
 def _tails(model, columns, design, rd, kept, problem, tail_prior, zone_model, zones):
     """The left-out modes under the model that leads, given the kept sensors' residual, for
-    FitResult.build: (functional_tail, face_tail). functional_tail = (X, residual, {name: (h,
+    FitResult.build: (figure_tails, map_tail). figure_tails = (X, residual, {name: (h,
     variance)}): their share of the total power (truncation.tail_power), the face mean and
     each zone mean (truncation.functional_tails), value = k + f . c + h . (residual - X c) with the
-    variance added; face_tail: points -> (dF, dk, variance), their part of the face map,
+    variance added; map_tail: points -> (dF, dk, variance), their part of the face map,
     k + dk + (F + dF) c with the variance added (truncation.face_tail). zone_model: (the
     leading ZoneModel, the zone columns' field at the sensors (n, J'))."""
     idx = np.flatnonzero(kept)

@@ -178,19 +178,19 @@ class FitResult:
     calibration: object = field(repr=False, default=None)
     options: object = field(repr=False, default=None)
     #: (X, residual, {name: (h, variance)}): the left-out modes' share of the face mean, the
-    #: power and the zone means (build's power_tail), or None
+    #: power and the zone means (build's figure_tails), or None
     functional_tails: object = field(repr=False, default=None)
 
     # ------------------------------------------------------------------ construction
     @classmethod
     def build(cls, *, spec, design, readings, kept, problem, choice, posterior, sensors,
-              set_aside, warnings, monte_carlo, extra=None, power_tail=None, face_tail=None):
+              set_aside, warnings, monte_carlo, extra=None, figure_tails=None, map_tail=None):
         """Derived figures of a fit.  spec: the inverse.problem.Problem; design: the model
         columns (design.Design or the zone model's); problem: the LinearGaussianProblem of
-        the kept sensors; extra: further summary keys; power_tail: (X, residual, {name: (h,
+        the kept sensors; extra: further summary keys; figure_tails: (X, residual, {name: (h,
         variance)}), the left-out modes' share of the total power, the face mean and the zone
         means (truncation.tail_power, functional_tails: each becomes f . c + k + h . (residual - X c)
-        with the variance added); face_tail: points ->
+        with the variance added); map_tail: points ->
         (dF, dk, variance), the left-out modes' part of the face map: k + dk + (F + dF) c with
         the variance (Q,) added to its bands (dF, dk None: variance only; truncation.face_tail)."""
         cyl, opts = design.cylinder, spec.options
@@ -199,8 +199,8 @@ class FitResult:
         pts = display_grid(face, cyl, *opts.grid)
         on_grid = _evaluated_once(lambda d: face_on(d, pts), design)
         tail_variance = None
-        if face_tail is not None:
-            dF, dk, tail_variance = face_tail(pts)
+        if map_tail is not None:
+            dF, dk, tail_variance = map_tail(pts)
             if dF is not None:
                 F, k = face_on(design, pts)
                 on_grid = _evaluated_once(lambda d: face_on(d, pts), design, (F + dF, k + dk))
@@ -217,8 +217,8 @@ class FitResult:
         valid = valid_zones(spec.zones, face, cyl, warnings)
         names, F, k = functional_matrix(design, valid)
         extra_var = None
-        if power_tail is not None:
-            X, resid, rows = power_tail
+        if figure_tails is not None:
+            X, resid, rows = figure_tails
             F, k, extra_var = F.copy(), np.array(k, float), np.zeros(len(names))
             for i, name in enumerate(names):
                 if name in rows:
@@ -271,7 +271,7 @@ class FitResult:
         summary.update(extra or {})
         return cls(face, quantity, unit, cyl, grid, pts.shape, summary, sens, curve, list(warnings),
                    posterior, design, problem, readings, kept, zones,
-                   cal.info() if cal is not None else None, monte_carlo, cal, opts, power_tail)
+                   cal.info() if cal is not None else None, monte_carlo, cal, opts, figure_tails)
 
     # ------------------------------------------------------------------ queries
     def face_profile(self, u, v, level=0.95):
