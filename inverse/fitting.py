@@ -144,7 +144,7 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
         lead_prior = _lead_tail_prior(model_info["model"], tail_prior, zone_model)
 
         def map_tail(points):
-            return None, None, face_tail_variance(design, points, lead_prior)
+            return None, None, face_tail_variance(design, points, lead_prior, rd.subset(screen.kept))
     return FitResult.build(spec=spec, design=columns, readings=rd, kept=screen.kept, problem=screen.problem,
                            choice=screen.choice, posterior=post, sensors=screen.table,
                            set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)),
@@ -216,7 +216,7 @@ def _tails(model, columns, design, rd, kept, problem, tail_prior, zone_model, zo
     S = lin.noise.covariance[np.ix_(idx, idx)]
     kept_rd, residual = rd.subset(idx), lin.d[idx] - lin.t0[idx]
     rows = {"total_power": tail_power(design, kept_rd, prior, S)}
-    left = left_out_columns(design)
+    left = left_out_columns(design, kept_rd)
     if left is not None:        # the face and zone means' share, on the fit's quadrature rule
         names, F_t, _ = functional_matrix(left, zones)
         means = [i for i, name in enumerate(names) if name != "total_power"]

@@ -51,13 +51,13 @@ Hyperpriors (proper, weakly informative):
   variance sum_k Phi_k(x)^2 / P_k converges only for s > d / 2, so with s <= d / 2 a band at a
   point of the face is set by how many modes the basis keeps (measured on the platen
   scenario with s = 0.5 .. 2 directly: the half band at the centre 16,500, 43,800 and 55,500
-  W/m^2 with the default, 40 and 60 radial terms; now 22,900 and 22,800 with the default and
+  W/m^2 with the default, 40 and 60 radial terms; now 22,100 and 22,100 with the default and
   40). With nu > 0 the modes the basis leaves out have a finite variance at the face, and the
   bands carry it (truncation.face_tail). Measured choices of the range: with nu from 0.5 the
   roughest value carried the most weight on several scenarios and the wall beside a cooled
   end set aside two healthy sensors in each of three seeds (their leave-one-out predictions
   too sure); 0.25 mends that, and its modes beyond the enlarged basis's caps still move the
-  bands by under 3 % (platen, 3x the terms). Orders up to 5 sharpen the bands on smooth
+  bands by under 5 % (tests/test_fit_face_tail.py, 3x the terms). Orders up to 5 sharpen the bands on smooth
   finite-element truths further, but the data then prefer the smoothest orders and zone
   means become overconfident where the truth has a slope the basis cannot carry (an
   insulated rim: every eigenfunction is flat there).

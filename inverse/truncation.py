@@ -71,11 +71,17 @@ def _tail_variances(big, mask, prior) -> np.ndarray:
     return v
 
 
+def enlarged_basis(design, r, z):
+    """The enlarged basis of the left-out modes for sensors at (r, z) [m]: every mode down to
+    TAIL_DECAY at the nearest of them (enlarged_size), eigenfunctions only (no corner columns)."""
+    return design.model.basis(*enlarged_size(design, nearest_distance(design, r, z), TAIL_DECAY), corners=False)
+
+
 def _tail_parts(design, r, theta, z, prior, powers=False):
     """(G_tail (n, T) [K per unit coefficient], v (T,) [unit^2]) at points, for `prior`;
     with powers=True also p_tail (T,) [W per unit coefficient], each left-out mode's heat into
     the part through the face."""
-    big = design.model.basis(*enlarged_size(design, nearest_distance(design, r, z), TAIL_DECAY), corners=False)
+    big = enlarged_basis(design, r, z)
     mask = left_out(design, big)
     if not mask.any():
         v = np.zeros(0)
@@ -85,21 +91,21 @@ def _tail_parts(design, r, theta, z, prior, powers=False):
     return (G, v) + ((big.powers()[:big.n_eigen][mask],) if powers else ())
 
 
-def face_tail(design, points, prior, rd=None, noise_covariance=None):
+def face_tail(design, points, prior, rd, noise_covariance=None):
     """The left-out modes' part of the unknown face at `points` (face_grid.display_grid's,
-    with u, v and lines), up to the enlarged basis's caps: (H (Q, n) [face unit / K],
-    variance (Q,) [face unit^2]).
+    with u, v and lines), over the enlarged basis of the sensors `rd` (enlarged_basis):
+    (H (Q, n) [face unit / K], variance (Q,) [face unit^2]).
 
     As for the power (tail_power), given the residual r = d - t0 - X c of the kept columns
     at the sensors `rd` (noise S = noise_covariance, the tail's own signal included):
     face value = B c + k + H r + e,  H = Phi_t V G_t^T S^-1,
     var e = diag(Phi_t V Phi_t^T) - diag(H G_t V Phi_t^T),  V = diag(v_k) (_tail_variances).
-    Without readings (rd None) H = 0 and var e = sum_k Phi_k(x)^2 v_k, the prior's.  Finite
+    Without noise_covariance H = 0 and var e = sum_k Phi_k(x)^2 v_k, the prior's.  Finite
     because the family's exponent exceeds half the face's dimension
     (hyperprior.matern_exponent), so the bands no longer depend on the basis size."""
-    big = design.model.basis(*enlarged_size(design, 0.0, TAIL_DECAY), corners=False)
+    big = enlarged_basis(design, rd.r, rd.z)
     mask = left_out(design, big)
-    n = 0 if rd is None else rd.n
+    n = 0 if noise_covariance is None else rd.n
     if not mask.any():
         return np.zeros((np.size(points.u), n)), np.zeros(np.size(points.u))
     phi = big.face_values_lines(*points.lines)[0] if points.lines is not None else \
@@ -107,7 +113,7 @@ def face_tail(design, points, prior, rd=None, noise_covariance=None):
     phi = phi[:, :big.n_eigen][:, mask]
     v = _tail_variances(big, mask, prior)
     variance = (phi ** 2) @ v
-    if rd is None:
+    if noise_covariance is None:
         return np.zeros((phi.shape[0], 0)), variance
     A = big.fields(rd.r, rd.theta, rd.z)[0][:, :big.n_eigen][:, mask] * v     # G_t V (n, T)
     cross = phi @ A.T                                                          # Phi_t V G_t^T (Q, n)
@@ -138,10 +144,10 @@ class LeftOutColumns:
         return self.big.powers()[:self.big.n_eigen][self.mask], 0.0
 
 
-def left_out_columns(design):
-    """The modes `design` leaves out, up to the enlarged basis's caps, as LeftOutColumns (None
-    when it leaves none out)."""
-    big = design.model.basis(*enlarged_size(design, 0.0, TAIL_DECAY), corners=False)
+def left_out_columns(design, rd):
+    """The modes `design` leaves out, over the enlarged basis of the sensors `rd`
+    (enlarged_basis), as LeftOutColumns (None when it leaves none out)."""
+    big = enlarged_basis(design, rd.r, rd.z)
     mask = left_out(design, big)
     return LeftOutColumns(design, big, mask) if mask.any() else None
 
@@ -164,9 +170,10 @@ def functional_tails(columns, rows, rd, prior, noise_covariance) -> list:
     return [(H[:, j], float(var[j])) for j in range(rows.shape[0])]
 
 
-def face_tail_variance(design, points, prior) -> np.ndarray:
-    """The left-out modes' prior variance (Q,) at `points` of the face (face_tail without readings)."""
-    return face_tail(design, points, prior)[1]
+def face_tail_variance(design, points, prior, rd) -> np.ndarray:
+    """The left-out modes' prior variance (Q,) at `points` of the face (face_tail without the
+    readings' residual)."""
+    return face_tail(design, points, prior, rd)[1]
 
 
 def tail_power(design, rd, prior, noise_covariance):

@@ -149,7 +149,7 @@ def test_zone_tails_equal_the_enlarged_models_posterior():
     length, order, alpha = 0.01, 2.0, 1e-3
     prior = OneComponent(length, order, alpha)
     zones = [Zone("band", "side", (0.5, 2.5), z=(0.01, 0.02))]
-    big = design.model.basis(*enlarged_size(design, 0.0, TAIL_DECAY))
+    big = design.model.basis(*enlarged_size(design, nearest_distance(design, rd.r, rd.z), TAIL_DECAY))
     ne = big.n_eigen
     out = left_out(design, big)
     every = np.ones(ne, dtype=bool)
@@ -166,7 +166,7 @@ def test_zone_tails_equal_the_enlarged_models_posterior():
     np.testing.assert_allclose(_tail_variances(big, out, prior), 1.0 / Pb[out], rtol=1e-12)
     C = np.linalg.inv(G.T @ np.linalg.solve(S, G) + np.diag(P))
     m = C @ G.T @ np.linalg.solve(S, y)
-    left = left_out_columns(design)
+    left = left_out_columns(design, rd)
     assert np.array_equal(left.mask, out)
     tail_names, F_t, _ = functional_matrix(left, zones)
     assert tail_names == names
