@@ -103,22 +103,15 @@ def face_tail(design, points, prior, rd, noise_covariance=None):
     Without noise_covariance H = 0 and var e = sum_k Phi_k(x)^2 v_k, the prior's.  Finite
     because the family's exponent exceeds half the face's dimension
     (hyperprior.matern_exponent), so the bands no longer depend on the basis size."""
-    big = enlarged_basis(design, rd.r, rd.z)
-    mask = left_out(design, big)
+    left = left_out_columns(design, rd)
     n = 0 if noise_covariance is None else rd.n
-    if not mask.any():
+    if left is None:
         return np.zeros((np.size(points.u), n)), np.zeros(np.size(points.u))
-    phi = big.face_values_lines(*points.lines)[0] if points.lines is not None else \
-        big.face_values(points.u, points.v)
-    phi = phi[:, :big.n_eigen][:, mask]
-    v = _tail_variances(big, mask, prior)
-    variance = (phi ** 2) @ v
+    phi = (left.face_grid(*points.lines) if points.lines is not None else left.face(points.u, points.v))[0]
     if noise_covariance is None:
-        return np.zeros((phi.shape[0], 0)), variance
-    A = big.fields(rd.r, rd.theta, rd.z)[0][:, :big.n_eigen][:, mask] * v     # G_t V (n, T)
-    cross = phi @ A.T                                                          # Phi_t V G_t^T (Q, n)
-    H = np.linalg.solve(noise_covariance, cross.T).T
-    return H, np.maximum(variance - np.einsum("qn,qn->q", H, cross), 0.0)
+        return np.zeros((phi.shape[0], 0)), (phi ** 2) @ _tail_variances(left.big, left.mask, prior)
+    H, variance = _conditional(left, phi, rd, prior, noise_covariance)
+    return H.T, variance
 
 
 class LeftOutColumns:
@@ -160,14 +153,20 @@ def functional_tails(columns, rows, rd, prior, noise_covariance) -> list:
     value = k + f . c + h . r + e,  h = S^-1 G_t V f_t,  var e = f_t V f_t - h . (G_t V f_t).
     (The power keeps tail_power, whose modes stop where the sensors stop seeing them: a
     temperature face's power weights a mode by its wavenumber.)"""
+    H, var = _conditional(columns, np.atleast_2d(rows), rd, prior, noise_covariance)
+    return [(H[:, j], float(var[j])) for j in range(var.size)]
+
+
+def _conditional(columns, rows, rd, prior, noise_covariance):
+    """(h (n, q), var e (q,)) of the functionals f_t = rows (q, T) of the left-out modes
+    `columns` given the residual at the sensors `rd`: h = S^-1 G_t V f_t,
+    var e = f_t V f_t - h . (G_t V f_t) (functional_tails, face_tail)."""
     big, mask = columns.big, columns.mask
-    rows = np.atleast_2d(rows)
     v = _tail_variances(big, mask, prior)
     A = big.fields(rd.r, rd.theta, rd.z)[0][:, :big.n_eigen][:, mask] * v      # G_t V (n, T)
     a = A @ rows.T                                                              # G_t V f_t (n, q)
     H = np.linalg.solve(noise_covariance, a)
-    var = np.maximum(np.einsum("qt,t,qt->q", rows, v, rows) - np.einsum("nq,nq->q", H, a), 0.0)
-    return [(H[:, j], float(var[j])) for j in range(rows.shape[0])]
+    return H, np.maximum(np.einsum("qt,t,qt->q", rows, v, rows) - np.einsum("nq,nq->q", H, a), 0.0)
 
 
 def face_tail_variance(design, points, prior, rd) -> np.ndarray:
