@@ -78,7 +78,7 @@ def test_bands_cover_the_fem_truth(platen):
 
 def test_exponent_is_smoothness_plus_half_the_face_dimension():
     """Whittle-Matern: precision (kappa^2 - Laplacian)^(nu + d/2) (Lindgren, Rue and
-    Lindstrom 2011, the SPDE link; definition)."""
+    Lindstrom 2011, the SPDE link, from memory; definition)."""
     solid = fw.CylinderModel(fw.Cylinder(0.1, 0.05, 20.0), {"bottom": fw.UnknownFlux(),
                                                             "top": fw.Temperature(300.0), "side": fw.Insulated()})
     assert face_dimension(solid.basis(4, 6)) == 2 and matern_exponent(solid.basis(4, 6), 0.5) == 1.5
