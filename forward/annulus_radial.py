@@ -170,18 +170,23 @@ class _Walls:
         dmy = (jy * djy + yy * dyy) / my  # y M'
         return i * math.pi + np.arctan2(my * sn, dmy * sn + TWO_PI_INV / my * cs)
 
-    def roots(self, have: int, n: int, previous: float) -> np.ndarray:
-        """Roots have..n-1 of the family (kappa a), each bracketed on a grid of Omega."""
+    def roots(self, have: int, n: int) -> np.ndarray:
+        """Roots have..n-1 of the family (kappa a), each bracketed on a grid of Omega.
+
+        The grid always runs from the family's start (m / ratio, or lower for m = 0), also
+        when roots 0..have-1 are known: a grid starting at a known root puts that root on a
+        bracket's end, where the cross product's sign is rounding noise (the bracket then
+        holds no sign change, or the known root is found again)."""
         first = 1 if self.has_zero_mode else 0
         start = max(have, first)
-        targets = self.omega_b + math.pi * np.arange(start, n)
         out = np.zeros(n - have)
-        if targets.size == 0:
+        if start >= n:
             return out
+        targets = self.omega_b + math.pi * np.arange(first, n)
         span = self.ratio - 1.0
-        lo = previous if start > first else (self.m / self.ratio if self.m > 0 else 1e-3 / self.ratio)
+        lo = self.m / self.ratio if self.m > 0 else 1e-3 / self.ratio
         for _ in range(200):  # m = 0: lower the start until no eigenvalue lies below it
-            if self.m > 0 or start > first or self.omega(np.array([lo]))[0] < targets[0]:
+            if self.m > 0 or self.omega(np.array([lo]))[0] < targets[0]:
                 break
             lo *= 0.125
         hi = max(lo, 2.0 * self.m) + (targets[-1] + 2.0 * math.pi) / (0.8 * span)
@@ -189,8 +194,9 @@ class _Walls:
             hi = 2.0 * hi
         grid = np.linspace(lo, hi, max(33, 3 * targets.size + 1))
         omega = np.maximum.accumulate(self.omega(grid))
-        k = np.clip(np.searchsorted(omega, targets), 1, grid.size - 1)
-        out[start - have:] = self._refine(grid[k - 1], grid[k], omega[k - 1], omega[k], targets)
+        wanted = targets[start - first:]
+        k = np.clip(np.searchsorted(omega, wanted), 1, grid.size - 1)
+        out[start - have:] = self._refine(grid[k - 1], grid[k], omega[k - 1], omega[k], wanted)
         return out
 
     def _refine(self, lo, hi, om_lo, om_hi, targets):
@@ -258,11 +264,7 @@ def annulus_eigenvalues(inner, outer, m: int, n: int, a: float, b: float, k: flo
     walls = _Walls(inner, outer, m, ratio, biot_a, biot_b)
     key = ("annulus", m, ratio, inner.kind, biot_a, outer.kind, biot_b)
 
-    def extend(have, n):
-        previous = ROOT_CACHE.get(key, have, lambda *_: np.zeros(0))[-1] if have else 0.0
-        return walls.roots(have, n, previous)
-
-    return ROOT_CACHE.get(key, n, extend) / a
+    return ROOT_CACHE.get(key, n, walls.roots) / a
 
 
 class AnnulusRadial:

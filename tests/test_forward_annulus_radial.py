@@ -282,6 +282,30 @@ def test_range_finite_ascending_separated_and_complete():
                     assert np.abs(f_roots).max() < 1e-9
 
 
+@pytest.mark.parametrize("ka, kb, m, q, steps", [
+    ("N", "N", 2, 3.0, (68, 89)),        # failed before: bracket [105.25, 108.07] without sign change
+    ("N", "N", 28, 3.0, (32, 40, 58, 91)),  # gave wrong roots before (2.8 % off)
+    ("R", "N", 44, 1.5, (71, 93, 106)),
+    ("R", "R", 18, 1.5, (32, 43, 103)),
+    ("D", "R", 0, 10.0, (5, 120)),
+])
+def test_roots_grown_in_steps_equal_one_computation(ka, kb, m, q, steps):
+    """A cached table grown by later, longer requests (another fit asking for more terms)
+    holds the same roots as one computation of the longest request.  Regression: the growth
+    once started its bracketing grid at the last known root, whose cross-product sign is
+    rounding noise there."""
+    from heatsight.forward.roots import ROOT_CACHE
+    a = 0.02
+    inner, outer = cond(ka, 2.0, a), cond(kb, 5.0, q * a)
+    ROOT_CACHE.clear()
+    for n in steps:
+        grown = annulus_eigenvalues(inner, outer, m, n, a, q * a, K)
+    ROOT_CACHE.clear()
+    once = annulus_eigenvalues(inner, outer, m, steps[-1], a, q * a, K)
+    assert np.all(np.diff(grown) > 0)
+    assert np.allclose(grown, once, rtol=1e-13, atol=0.0)
+
+
 def test_modulus_phase_tables_match_mpmath():
     # mpmath.besselj / bessely and their derivatives at 20 digits (reference library)
     mpmath.mp.dps = 20
