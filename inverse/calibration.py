@@ -32,6 +32,10 @@ STEP_IN_SD = 0.05
 NOMINAL_SHARE = 1e-6
 #: lower bounds of the calibrated parameters: h [W/(m^2 K)], ambient [K]
 LOWER = {"h": 1e-6, "ambient": 1.0}
+#: lmfit's ftol, xtol and gtol for the joint fit: its parameters' sd are ~1e-2 of their value,
+#: so a relative step of 1e-9 is far below anything the answer shows, while the last
+#: iterations to 1e-12 cost three design builds each (~0.5 s on a wall with corners)
+CALIBRATION_TOLERANCE = 1e-9
 #: under the learned prior, a parameter without a declared prior gets a weak Gaussian one:
 #: centred on the joint fit's value, this many of its sd wide (common practice, no source)
 WEAK_PRIOR_FACTOR = 10.0
@@ -111,7 +115,7 @@ class Calibration:
                        covariance=covariance, sd=sd, mixture=mixture, _designs={})
 
     def _design_at(self, values):
-        key = tuple(np.round(values, 14))
+        key = _design_key(values)
         if key not in self._designs:
             self._designs[key] = self.rebuild(values)
         return self._designs[key]
@@ -128,6 +132,11 @@ class Calibration:
             Fd, kd = builder(self._design_at(dn))
             cols.append((np.asarray(ku) + np.asarray(Fu) @ c - np.asarray(kd) - np.asarray(Fd) @ c) / (2 * h))
         return np.stack(cols, axis=-1)
+
+
+def _design_key(values) -> tuple:
+    """Key of the designs built at parameter values (p,)."""
+    return tuple(np.round(np.asarray(values, float), 14))
 
 
 def calibrated_faces(faces, keys, values):
@@ -170,15 +179,26 @@ def calibrate(design, rd, kept, problem, alpha, P, spec) -> Calibration:
     names = [f"{f}_{w}" for f, w in keys]
     sub = rd.subset(kept)
 
+    # the last designs lmfit asked for (the answer's is among them), from `design` itself at
+    # the start
+    built = {_design_key([params[n].value for n in names]): design}
+
     def design_fn(values):
-        return calibrated_design(design, keys, [values[n] for n in names]).sensors(sub.r, sub.theta, sub.z)
+        key = _design_key([values[n] for n in names])
+        if key not in built:
+            while len(built) >= 3:
+                built.pop(next(iter(built)))
+            built[key] = calibrated_design(design, keys, [values[n] for n in names])
+        return built[key].sensors(sub.r, sub.theta, sub.z)
 
     P = flat_nominal(P, nominal_direction(design.basis), problem, alpha)
     lf = fit_lmfit(design_fn, params, problem.d, problem.noise, P, alpha, c0=problem.c0,
-                   priors=priors or None)
+                   priors=priors or None, tol=CALIBRATION_TOLERANCE)
     values = np.array([lf.values[n] for n in names], float)
     sd = np.array([lf.sd.get(n, np.nan) for n in names], float)
-    return Calibration(keys, values, sd, lf.coefficients, lf.covariance, calibrated_design(design, keys, values))
+    key = _design_key(values)
+    final = built[key] if key in built else calibrated_design(design, keys, values)
+    return Calibration(keys, values, sd, lf.coefficients, lf.covariance, final, _designs={key: final})
 
 
 def learned_calibration(cal, rd, kept, problem, nominal, nominal_factor, spec):

@@ -159,9 +159,10 @@ def fit_lmfit(design, params, d, noise, prior_diag, alpha, c0=None, priors=None,
             t0 = np.broadcast_to(np.asarray(t0, dtype=float), (n,))
             if G.shape != (n, K):
                 raise InverseError(f"design() returned G of shape {G.shape}, expected {(n, K)}")
-            if len(cache) > 8:
-                cache.clear()
+            while len(cache) >= 8:          # the least recently used goes
+                cache.pop(next(iter(cache)))
             cache[key] = (G, t0)
+        cache[key] = cache.pop(key)         # now the most recently used
         return cache[key]
 
     def unpack(pars):
@@ -181,9 +182,9 @@ def fit_lmfit(design, params, d, noise, prior_diag, alpha, c0=None, priors=None,
 
     def jacobian(pars, **_):
         c, values = unpack(pars)
-        return _jacobian(c, values)
+        return _jacobian(c, values, central=False)
 
-    def _jacobian(c, values):
+    def _jacobian(c, values, central=True):
         G, _ = design_at(values)
         r = data_rows(c, values)
         _, dphi = _robust(r, loss, f_scale)
@@ -191,20 +192,26 @@ def fit_lmfit(design, params, d, noise, prior_diag, alpha, c0=None, priors=None,
         J[:n, :K] = wh.whiten(G)
         J[n:n + K, :K] = np.diag(sqrt_ap)
         for j, name in enumerate(tnames):
-            J[:n, K + j] = _fd_column(name, c, values)
+            J[:n, K + j] = _fd_column(name, c, values, central)
         J[:n] *= dphi[:, None]
         for i, name in enumerate(pnames):
             if name in tnames:
                 J[n + K + i, K + tnames.index(name)] = 1.0 / priors[name][1]
         return J
 
-    def _fd_column(name, c, values):
+    def _fd_column(name, c, values, central):
+        """d(whitened data rows)/d theta: central differences, or during the iterations one
+        step from theta, whose design is cached already (one design build per column instead
+        of two; the final Jacobian, which gives the covariance, is central)."""
         par = user[name]
         x = values[name]
         h = fd_rel_step * (abs(x) if x != 0 else 1.0)
         lo = -np.inf if par.min is None else par.min
         hi = np.inf if par.max is None else par.max
-        up, dn = min(x + h, hi), max(x - h, lo)
+        if central:
+            up, dn = min(x + h, hi), max(x - h, lo)
+        else:
+            up, dn = (x + h, x) if x + h <= hi else (x, max(x - h, lo))
         vu, vd = dict(values), dict(values)
         vu[name], vd[name] = up, dn
         if up == dn:

@@ -3,8 +3,9 @@
 Readings come from the scikit-fem reference solver (tests/fem_cylinder.py) plus seeded
 noise, not from the fitted Bessel-Fourier basis.  The linearized sd of every derived figure
 (var f = J C_joint J^T, J = [df/dc, df/dtheta]) is checked against a seeded Monte Carlo that
-draws (c, theta) jointly from the posterior and recomputes each figure exactly on a design
-rebuilt at the drawn theta.
+draws (c, theta) jointly from the posterior and recomputes each figure on the design at the
+drawn theta (rebuilt exactly at Chebyshev nodes in theta and interpolated; checked exactly
+at two draws).
 """
 
 import types
@@ -76,13 +77,17 @@ def test_linearized_joint_sd_matches_monte_carlo(wall_fit):
     assert np.all(shift <= 0.3)
 
 
-def _linearized_vs_monte_carlo(res, at, face_pts, seed, n=300):
+def _linearized_vs_monte_carlo(res, at, face_pts, seed, n=300, nodes=17):
     """(linearized sd / Monte Carlo sd, |MC mean - linearized mean| / MC sd) of _figures:
     (c, theta) drawn jointly from the calibration's posterior (Cholesky: the covariance is
     positive definite; its entries reach ~1e9 (W/m^2)^2, beyond the absolute tolerance of the
-    default method's check), each figure recomputed exactly on the columns rebuilt at the
-    drawn theta."""
+    default method's check), each figure k(theta) + F(theta) c on the columns rebuilt at the
+    drawn theta.  theta is one parameter (h), so F and k are computed exactly on columns
+    rebuilt at `nodes` Chebyshev points spanning the draws and interpolated (barycentric,
+    scipy.interpolate); the interpolation is checked against exact rebuilds at two draws."""
+    from scipy.interpolate import BarycentricInterpolator
     cal = res.calibration
+    assert cal.values.size == 1
     builder = lambda d: _figures(d, at, face_pts)  # noqa: E731
     with threadpool_limits(1):
         mean_lin, sd_lin, _, _ = res.posterior.figures(builder, res.design)
@@ -90,7 +95,17 @@ def _linearized_vs_monte_carlo(res, at, face_pts, seed, n=300):
         K = cal.coefficients.size
         draws = rng.multivariate_normal(np.concatenate([cal.coefficients, cal.mean]), cal.covariance, size=n,
                                         method="cholesky")
-        values = np.array([(lambda F, k: k + F @ x[:K])(*builder(cal.rebuild(x[K:]))) for x in draws])
+        h = draws[:, K]
+        lo, hi = h.min(), h.max()
+        x = 0.5 * (lo + hi) + 0.5 * (hi - lo) * np.cos(np.pi * (np.arange(nodes) + 0.5) / nodes)
+        built = [builder(cal.rebuild(np.array([xi]))) for xi in x]
+        F_of = BarycentricInterpolator(x, np.array([np.asarray(F) for F, _ in built]))
+        k_of = BarycentricInterpolator(x, np.array([np.asarray(k) for _, k in built]))
+        values = np.array([k_of(hj) + F_of(hj) @ c for hj, c in zip(h, draws[:, :K])])
+        for j in (int(np.argmin(h)), 0):      # the end of the span and a typical draw
+            F, k = builder(cal.rebuild(h[j:j + 1]))
+            exact = np.asarray(k) + np.asarray(F) @ draws[j, :K]
+            assert np.allclose(values[j], exact, rtol=1e-8, atol=1e-8 * np.abs(exact).max())
     sd_mc = values.std(axis=0, ddof=1)
     return sd_lin / sd_mc, np.abs(values.mean(axis=0) - mean_lin) / sd_mc
 
