@@ -4,6 +4,7 @@ the backward recurrence underflow (regression: garbage J_0 once orders passed ~1
 import numpy as np
 import scipy.special as sp
 
+from heatsight.forward import bessel
 from heatsight.forward.bessel import _JTable, besselj
 
 
@@ -15,7 +16,10 @@ def test_high_order_table_matches_scipy():
         assert np.abs(table.v[m] - sp.jv(m, x)).max() < 1e-12
 
 
-def test_besselj_after_growing_to_high_order():
+def test_besselj_after_growing_to_high_order(monkeypatch):
+    # from a fresh shared table: one that earlier tests grew to large arguments would be
+    # rebuilt here at twice their orders over all those arguments (tens of seconds)
+    monkeypatch.setattr(bessel, "_table", None)
     x = np.linspace(0.0, 30.0, 301)
     besselj(np.full(x.size, 150), x)  # grow the shared table to a high order first
     assert np.abs(besselj(np.zeros(x.size, int), x) - sp.j0(x)).max() < 1e-12  # scipy.special.j0
