@@ -102,8 +102,11 @@ class CornerColumn:
     def fields(self, r, theta, z, gradient=False):
         """Temperature (P,) [K per unit coefficient] and gradient (3, P) [K/m] (zeros unless
         gradient)."""
-        t = self.lifting.temperature(r, theta, z)
-        g = self.lifting.gradient(r, theta, z) if gradient else np.zeros((3, t.size))
+        if gradient:
+            t, g = self.lifting.field_values(r, theta, z)
+        else:
+            t = self.lifting.temperature(r, theta, z)
+            g = np.zeros((3, t.size))
         for s in self.fixes:
             ts, gs, _ = s.evaluate(r, theta, z, gradient=gradient)
             t = t + ts

@@ -101,12 +101,21 @@ class PolynomialLifting:
     def _c(self):
         return curvature_coefficient(self.m, self.radius, self.height)
 
-    def _parts(self, r, theta, z):
+    def _angles(self, theta, gradient):
+        """Theta_m (P, J) and, when gradient, dTheta_m/dtheta / m (P, J); sin and cos only
+        where some term needs them (corner columns are single terms)."""
+        arg = np.multiply.outer(np.asarray(theta, float), self.m)
+        sin = np.sin(arg) if (self.is_sin.any() or gradient) else None
+        cos = np.cos(arg) if (not self.is_sin.all() or gradient) else None
+        th = sin if self.is_sin.all() else (cos if not self.is_sin.any() else np.where(self.is_sin, sin, cos))
+        if not gradient:
+            return th, None
+        return th, np.where(self.is_sin, cos, -sin)
+
+    def _parts(self, r, theta, z, gradient=True):
         a, L = self.radius, self.height
         rho = (np.asarray(r, float) / a)[:, None]
-        arg = np.multiply.outer(np.asarray(theta, float), self.m)
-        th = np.where(self.is_sin, np.sin(arg), np.cos(arg))
-        dth_m = np.where(self.is_sin, np.cos(arg), -np.sin(arg))
+        th, dth_m = self._angles(theta, gradient)
         if math.isfinite(L):
             zeta = (np.asarray(z, float) / L)[:, None]
         else:
@@ -122,6 +131,15 @@ class PolynomialLifting:
         if self.empty:
             return np.zeros((3,) + np.asarray(r).shape)
         return self.columns(r, theta, z, gradient=True)[1] @ np.ones(self.m.size)
+
+    def field_values(self, r, theta, z):
+        """(temperature (P,), gradient (3, P)) in one pass (what a Robin face's operator needs)."""
+        if self.empty:
+            shape = np.asarray(r).shape
+            return np.zeros(shape), np.zeros((3,) + shape)
+        t, g = self.columns(r, theta, z, gradient=True)
+        ones = np.ones(self.m.size)
+        return t @ ones, g @ ones
 
     def _rz_factors(self, rho, zeta, gradient):
         """Per-term factors multiplying Theta_m (rows: points or (r, z) pairs, columns:
@@ -144,7 +162,7 @@ class PolynomialLifting:
 
     def columns(self, r, theta, z, gradient=False):
         """Per-term temperature (P, J) and gradient (3, P, J) (d/dr, (1/r) d/dtheta, d/dz)."""
-        rho, zeta, th, dth_m = self._parts(r, theta, z)
+        rho, zeta, th, dth_m = self._parts(r, theta, z, gradient)
         t, dr, dtheta, dz = self._rz_factors(rho, zeta, gradient)
         if not gradient:
             return t * th, None
@@ -160,9 +178,7 @@ class PolynomialLifting:
             return np.zeros(shape), (np.zeros((3,) + shape) if gradient else None)
         rho = np.repeat(r / a, z.size)[:, None]
         zeta = (np.tile(z, r.size) / L if math.isfinite(L) else np.zeros(r.size * z.size))[:, None]
-        arg = np.multiply.outer(theta, self.m)
-        th = np.where(self.is_sin, np.sin(arg), np.cos(arg))
-        dth_m = np.where(self.is_sin, np.cos(arg), -np.sin(arg))
+        th, dth_m = self._angles(theta, gradient)
 
         def on_grid(f, ang):
             return (f @ ang.T).reshape(r.size, z.size, theta.size).transpose(0, 2, 1)

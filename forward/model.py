@@ -299,9 +299,14 @@ class CylinderModel:
         r, th, z = self._face_points(face, u, v)
         shape = r.shape
         r, th, z = r.ravel(), th.ravel(), z.ravel()
-        # only what the operator uses: T ('D'), dT/dn ('N'), both ('R')
-        w = field.temperature(r, th, z) if condition.kind != "N" else np.zeros(r.size)
-        dn = normal_component(face, field.gradient(r, th, z)) if condition.kind != "D" else np.zeros(r.size)
+        # only what the operator uses: T ('D'), dT/dn ('N'), both ('R', in one pass where the
+        # field offers it)
+        if condition.kind == "R" and hasattr(field, "field_values"):
+            w, g = field.field_values(r, th, z)
+            dn = normal_component(face, g)
+        else:
+            w = field.temperature(r, th, z) if condition.kind != "N" else np.zeros(r.size)
+            dn = normal_component(face, field.gradient(r, th, z)) if condition.kind != "D" else np.zeros(r.size)
         return condition.operator(w, dn, self.k).reshape(shape)
 
     def _lifting_operator(self, face, cond, u, v):
@@ -347,8 +352,10 @@ class CylinderModel:
         r, theta, z = self._check_points(r, theta, z)
         shape = r.shape
         r, theta, z = r.ravel(), theta.ravel(), z.ravel()
-        t = self.lifting.temperature(r, theta, z)
-        g = self.lifting.gradient(r, theta, z) if gradient else 0.0
+        if gradient:
+            t, g = self.lifting.field_values(r, theta, z)
+        else:
+            t, g = self.lifting.temperature(r, theta, z), 0.0
         tail = np.zeros_like(t)
         for s in self.series:
             ts, gs, es = s.evaluate(r, theta, z, gradient=gradient)

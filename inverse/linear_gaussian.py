@@ -102,15 +102,16 @@ class LinearGaussianProblem:
         # L^-1 G, reused by with_prior (many priors, one design)
         self._Gw = self.noise.whiten(G) if whitened_design is None else whitened_design
         A = self._Gw * p_isqrt[None, :]
-        U, s, Vt = np.linalg.svd(A, full_matrices=True)
+        # U whole (n, n: the data-space directions beyond the rank carry the residual), V only
+        # for the r = min(n, K) singular pairs: the K - r directions the data cannot see enter
+        # through the projector I - V_r V_r^T (_null_projector), not a K x K rotation
+        U, s, Vt = np.linalg.svd(A, full_matrices=n > K)
         self._U, self._s = U, s
         self._r = s.size
-        self._Z = p_isqrt[:, None] * Vt.T          # column j: direction in c of singular pair j
-        self._Vt_r, self._p_isqrt = Vt[: s.size], p_isqrt
+        self._Z = p_isqrt[:, None] * Vt.T          # (K, r), column j: direction in c of singular pair j
+        self._Vt_r, self._p_isqrt = Vt, p_isqrt
         self._s2_n = np.zeros(n)
         self._s2_n[: self._r] = s**2
-        self._s2_K = np.zeros(K)
-        self._s2_K[: self._r] = s**2
         self._set_data(d)
 
     # ------------------------------------------------------------------ set-up helpers
@@ -233,33 +234,51 @@ class LinearGaussianProblem:
         return _out(f @ self._QM.T, scalar)
 
     # ------------------------------------------------------------------ uncertainty
-    def _var_K(self, a):
-        """1 / (s_j^2 + alpha) for all K directions (s = 0 in the null space of A)."""
-        return 1.0 / (self._s2_K[None, :] + a[:, None])
+    def _var_r(self, a):
+        """1 / (s_j^2 + alpha) for the r singular directions, (m, r)."""
+        return 1.0 / (self._s[None, :] ** 2 + a[:, None])
+
+    @cached_property
+    def _null_projector(self):
+        """P^-1/2 (I - V_r V_r^T) P^-1/2 (K, K), or None when r = K: the directions of c the data
+        do not see, which keep the prior's variance 1/alpha in the P-metric."""
+        if self._r >= self.K:
+            return None
+        proj = np.eye(self.K) - self._Vt_r.T @ self._Vt_r
+        return self._p_isqrt[:, None] * proj * self._p_isqrt[None, :]
 
     def posterior_covariance(self, alpha):
-        """C = (G^T S^-1 G + alpha P)^-1 = P^-1/2 V diag(1 / (s^2 + alpha)) V^T P^-1/2.
+        """C = (G^T S^-1 G + alpha P)^-1
+             = P^-1/2 [V_r diag(1 / (s^2 + alpha)) V_r^T + (I - V_r V_r^T) / alpha] P^-1/2.
 
         Directions of c the data do not see (s = 0, e.g. K > n) keep the prior
         variance 1/alpha in the P-metric. Shape (K, K) or (m, K, K).
         """
         a, scalar = _as_alphas(alpha)
-        v = self._var_K(a)
-        return _out(np.einsum("kj,mj,lj->mkl", self._Z, v, self._Z), scalar)
+        C = np.einsum("kj,mj,lj->mkl", self._Z, self._var_r(a), self._Z)
+        if self._null_projector is not None:
+            C += (1.0 / a)[:, None, None] * self._null_projector[None]
+        return _out(C, scalar)
 
     def weighted_posterior_covariance(self, alphas, weights) -> np.ndarray:
-        """sum_i w_i C(alpha_i) = P^-1/2 V diag(sum_i w_i / (s^2 + alpha_i)) V^T P^-1/2, (K, K)."""
+        """sum_i w_i C(alpha_i) = P^-1/2 [V_r diag(sum_i w_i / (s^2 + alpha_i)) V_r^T
+        + (sum_i w_i / alpha_i) (I - V_r V_r^T)] P^-1/2, (K, K)."""
         a, _ = _as_alphas(alphas)
         w = np.asarray(weights, dtype=float)
         if w.shape != a.shape:
             raise InverseError("one weight per alpha")
-        v = w @ self._var_K(a)
-        return (self._Z * v[None, :]) @ self._Z.T
+        C = (self._Z * (w @ self._var_r(a))[None, :]) @ self._Z.T
+        if self._null_projector is not None:
+            C += float(w @ (1.0 / a)) * self._null_projector
+        return C
 
     def posterior_sd(self, alpha):
         """sqrt(diag C), shape (K,) or (m, K)."""
         a, scalar = _as_alphas(alpha)
-        return _out(np.sqrt(self._var_K(a) @ (self._Z**2).T), scalar)
+        var = self._var_r(a) @ (self._Z ** 2).T
+        if self._null_projector is not None:
+            var = var + (1.0 / a)[:, None] * np.diag(self._null_projector)[None, :]
+        return _out(np.sqrt(var), scalar)
 
     def _predict_variance(self, B, a):
         """diag(B C(alpha) B^T) for alphas a (m,), (m, q), without the K x K rotation:

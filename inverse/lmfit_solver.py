@@ -115,7 +115,7 @@ def fit_lmfit(design, params, d, noise, prior_diag, alpha, c0=None, priors=None,
     priors: {name: (mean, sd)} Gaussian priors on nonlinear parameters.
     loss: 'linear' | 'soft_l1' | 'huber' on the whitened sensor residuals, scale f_scale
     (in noise sds). scale_covar=False: sigma is known, covariance not rescaled by the
-    reduced chi-square. fd_rel_step: central-difference step relative to |theta| (1 if theta = 0).
+    reduced chi-square. fd_rel_step: difference step relative to |theta| (1 if theta = 0).
     The coefficients start at c0.
     """
     if loss not in LOSSES:

@@ -71,6 +71,14 @@ def _tail_variances(big, mask, prior) -> np.ndarray:
     return v
 
 
+def _masked_variances(big, mask, prior) -> np.ndarray:
+    """_tail_variances over every eigenfunction of `big` (n_eigen,), 0 outside `mask`: the
+    kept modes then drop out of a product with all of big's columns, which are not copied."""
+    v = np.zeros(big.n_eigen)
+    v[mask] = _tail_variances(big, mask, prior)
+    return v
+
+
 def enlarged_basis(design, r, z):
     """The enlarged basis of the left-out modes for sensors at (r, z) [m]: every mode down to
     TAIL_DECAY at the nearest of them (enlarged_size), eigenfunctions only (no corner columns)."""
@@ -109,7 +117,7 @@ def face_tail(design, points, prior, rd, noise_covariance=None):
         return np.zeros((np.size(points.u), n)), np.zeros(np.size(points.u))
     phi = (left.face_grid(*points.lines) if points.lines is not None else left.face(points.u, points.v))[0]
     if noise_covariance is None:
-        return np.zeros((phi.shape[0], 0)), (phi ** 2) @ _tail_variances(left.big, left.mask, prior)
+        return np.zeros((phi.shape[0], 0)), (phi ** 2) @ _masked_variances(left.big, left.mask, prior)
     H, variance = _conditional(left, phi, rd, prior, noise_covariance)
     return H.T, variance
 
@@ -117,14 +125,16 @@ def face_tail(design, points, prior, rd, noise_covariance=None):
 class LeftOutColumns:
     """The left-out modes of `big` (mask) as model columns for functionals.face_functionals:
     face values on the face (no known part), so zone and face means of the tail come from
-    the same quadrature rule as the fit's own."""
+    the same quadrature rule as the fit's own.  The columns are all of big's eigenfunctions
+    (a view, not a copy of ~all of them): the modes the fit keeps carry zero variance in
+    _conditional (_masked_variances), so they drop out."""
 
     def __init__(self, design, big, mask):
         self.big, self.mask = big, mask
         self.face_name, self.quantity, self.cylinder = design.face_name, design.quantity, design.cylinder
 
     def _pick(self, phi):
-        phi = phi[:, :self.big.n_eigen][:, self.mask]
+        phi = phi[:, :self.big.n_eigen]
         return phi, np.zeros(phi.shape[0])
 
     def face(self, u, v):
@@ -134,7 +144,7 @@ class LeftOutColumns:
         return self._pick(self.big.face_values_lines(along, around)[0])
 
     def powers(self):
-        return self.big.powers()[:self.big.n_eigen][self.mask], 0.0
+        return self.big.powers()[:self.big.n_eigen], 0.0
 
 
 def left_out_columns(design, rd):
@@ -161,9 +171,9 @@ def _conditional(columns, rows, rd, prior, noise_covariance):
     """(h (n, q), var e (q,)) of the functionals f_t = rows (q, T) of the left-out modes
     `columns` given the residual at the sensors `rd`: h = S^-1 G_t V f_t,
     var e = f_t V f_t - h . (G_t V f_t) (functional_tails, face_tail)."""
-    big, mask = columns.big, columns.mask
-    v = _tail_variances(big, mask, prior)
-    A = big.fields(rd.r, rd.theta, rd.z)[0][:, :big.n_eigen][:, mask] * v      # G_t V (n, T)
+    big = columns.big
+    v = _masked_variances(big, columns.mask, prior)                            # 0 on the kept modes
+    A = big.fields(rd.r, rd.theta, rd.z)[0][:, :big.n_eigen] * v              # G_t V (n, T)
     a = A @ rows.T                                                              # G_t V f_t (n, q)
     H = np.linalg.solve(noise_covariance, a)
     return H, np.maximum(np.einsum("qt,t,qt->q", rows, v, rows) - np.einsum("nq,nq->q", H, a), 0.0)
