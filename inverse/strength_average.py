@@ -18,6 +18,11 @@ import numpy as np
 from scipy.special import ndtr, ndtri
 
 SQRT_2PI = float(np.sqrt(2.0 * np.pi))
+#: a mixture quantile is taken once a Newton step is below this share of the largest component
+#: sd: Newton's error after such a step is ~its square.  Asking every step to reach 1e-12 instead
+#: sent points whose F carries round-off of that size into bisection: 16 iterations per point
+#: on the demo's face map (324 components x 2,952 points) against 3.5, the quantiles 1e-12 apart
+NEWTON_STOP = 1e-7
 
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem
@@ -30,7 +35,9 @@ def mixture_band(weights, means, sds, level: float = 0.95):
     weights (m,), means and sds (m, q): solves F(x) = sum_i w_i Phi((x - mean_i) / sd_i) =
     (1 -+ level) / 2 for each of the q quantities by Newton steps on F (F' = the mixture
     density) started at the moment-matched Gaussian quantile and kept inside a bisection
-    bracket. Returns two arrays (q,).
+    bracket, until a Newton step is below NEWTON_STOP of the largest component sd (the
+    error after it is of the order of that step squared) or any step below 1e-12 of it.
+    Returns two arrays (q,).
     """
     if not 0 < level < 1:
         raise InverseError("level must lie between 0 and 1")
@@ -58,7 +65,8 @@ def mixture_band(weights, means, sds, level: float = 0.95):
                 newton = x[act] - F / dens
             ok = np.isfinite(newton) & (newton > lo[act]) & (newton < hi[act])
             x_new = np.where(ok, newton, 0.5 * (lo[act] + hi[act]))
-            done = np.abs(x_new - x[act]) <= 1e-12 * scale[act] + 1e-14 * np.abs(x[act])
+            step = np.abs(x_new - x[act])
+            done = (step <= 1e-12 * scale[act] + 1e-14 * np.abs(x[act])) | (ok & (step <= NEWTON_STOP * scale[act]))
             x[act] = x_new
             act = act[~done]
             if act.size == 0:
