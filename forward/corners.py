@@ -196,7 +196,7 @@ class PolynomialLifting:
         sel = (self.m == 0) & ~self.is_sin
         if not sel.any():
             return 0.0
-        al, be, ga, c = self.alpha[sel], self.beta[sel], self.gamma[sel], self._c()[sel]
+        be, ga, c = self.beta[sel], self.gamma[sel], self._c()[sel]
         de = self.delta[sel]
         if not math.isfinite(L):
             return 0.0

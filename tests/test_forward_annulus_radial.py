@@ -8,7 +8,6 @@ Chebyshev collocation of the Sturm-Liouville problem (Trefethen, Spectral Method
 ch. 6, differentiation matrix formula, from memory).
 """
 
-import math
 
 import mpmath
 import numpy as np
