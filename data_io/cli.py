@@ -17,10 +17,14 @@ import sys
 import traceback
 import warnings as py_warnings
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from .arguments import positive_float
 from .console import Console, use
 from .errors import InputError
+
+if TYPE_CHECKING:       # pandas loads on first use, not at start-up (`heatsight --help`)
+    import pandas as pd
 
 PROG = "heatsight"
 #: relative truncation tolerance of the series, unless --tolerance is given
