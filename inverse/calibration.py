@@ -160,7 +160,7 @@ def calibrate(design, rd, kept, problem, alpha, P, spec) -> Calibration:
     import lmfit
 
     params = lmfit.Parameters()
-    priors, keys = {}, []
+    priors, keys, starts = {}, [], []
     for (face, what), prior in dict(spec).items():
         cond = design.faces.get(face)
         if not isinstance(cond, Convection):
@@ -173,15 +173,16 @@ def calibrate(design, rd, kept, problem, alpha, P, spec) -> Calibration:
         start = cond.h if what == "h" else float(cond.ambient)
         params.add(name, value=start, min=LOWER[what])
         keys.append((face, what))
+        starts.append(start)
         if prior is not None:
             priors[name] = tuple(prior)
     keys = tuple(keys)
     names = [f"{f}_{w}" for f, w in keys]
     sub = rd.subset(kept)
 
-    # the last designs lmfit asked for (the answer's is among them), from `design` itself at
-    # the start
-    built = {_design_key([params[n].value for n in names]): design}
+    # the last designs lmfit asked for (the answer's is among them), and `design` itself at
+    # its own values (lmfit starts there unless a bound moved the start)
+    built = {_design_key(starts): design}
 
     def design_fn(values):
         key = _design_key([values[n] for n in names])

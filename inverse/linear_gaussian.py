@@ -245,6 +245,9 @@ class LinearGaussianProblem:
         if self._r >= self.K:
             return None
         proj = np.eye(self.K) - self._Vt_r.T @ self._Vt_r
+        # its diagonal as the rows' squared norms (proj = proj proj^T): 1 - sum_j V_kj^2 loses
+        # its digits where the data pin coordinate k (sum ~ 1), and 1/p_k can make that large
+        np.fill_diagonal(proj, np.sum(proj ** 2, axis=1))
         return self._p_isqrt[:, None] * proj * self._p_isqrt[None, :]
 
     def posterior_covariance(self, alpha):

@@ -35,8 +35,10 @@ def mixture_band(weights, means, sds, level: float = 0.95):
     weights (m,), means and sds (m, q): solves F(x) = sum_i w_i Phi((x - mean_i) / sd_i) =
     (1 -+ level) / 2 for each of the q quantities by Newton steps on F (F' = the mixture
     density) started at the moment-matched Gaussian quantile and kept inside a bisection
-    bracket, until a Newton step is below NEWTON_STOP of the largest component sd (the
-    error after it is of the order of that step squared) or any step below 1e-12 of it.
+    bracket, until a Newton step is below NEWTON_STOP of the largest component sd taken where
+    F is within NEWTON_STOP of its target (the error after it is of the order of that step
+    squared; the second condition keeps a short step beside a very narrow component, where
+    the density is huge and F still far off, from ending it), or any step below 1e-12 of it.
     Returns two arrays (q,).
     """
     if not 0 < level < 1:
@@ -66,7 +68,8 @@ def mixture_band(weights, means, sds, level: float = 0.95):
             ok = np.isfinite(newton) & (newton > lo[act]) & (newton < hi[act])
             x_new = np.where(ok, newton, 0.5 * (lo[act] + hi[act]))
             step = np.abs(x_new - x[act])
-            done = (step <= 1e-12 * scale[act] + 1e-14 * np.abs(x[act])) | (ok & (step <= NEWTON_STOP * scale[act]))
+            newton_done = ok & (step <= NEWTON_STOP * scale[act]) & (np.abs(F) <= NEWTON_STOP)
+            done = newton_done | (step <= 1e-12 * scale[act] + 1e-14 * np.abs(x[act]))
             x[act] = x_new
             act = act[~done]
             if act.size == 0:

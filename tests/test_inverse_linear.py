@@ -214,3 +214,25 @@ def test_monotone_in_alpha(seed, n, K):
     assert np.all(np.diff(sn) <= 1e-9 * sn[0] + 1e-300)
     assert np.all((eff >= 0) & (eff <= min(n, K) + 1e-9))
     assert np.all((prob.hat_diagonal(a) > -1e-12) & (prob.hat_diagonal(a) < 1 + 1e-12))
+
+
+def test_covariance_where_the_data_pin_a_coordinate_under_a_nearly_flat_prior():
+    """More modes than readings, one coordinate pinned hard by a reading and nearly free in
+    the prior (as the nominal level under calibration): the posterior sd and covariance against
+    the dense inverse of the normal equations (numpy.linalg.inv).  Regression: the null-space
+    projector's diagonal as 1 - sum_j V_kj^2 was 9 % off for that coordinate."""
+    rng = np.random.default_rng(0)
+    n, K = 8, 30
+    G = rng.standard_normal((n, K)) * np.geomspace(1.0, 1e-3, K)
+    G[:, 0] = 0.0
+    G[0, 0] = 1e3
+    P = (1.0 + np.arange(K)) ** 4.0
+    P[0] = 1e-12
+    pb = LinearGaussianProblem(G, rng.standard_normal(n), 0.0, np.full(n, 0.01), P)
+    for a in (1e-3, 1.0):
+        exact = np.linalg.inv(G.T @ G / 0.01 + a * np.diag(P))
+        np.testing.assert_allclose(pb.posterior_sd(a), np.sqrt(np.diag(exact)), rtol=1e-10)
+        np.testing.assert_allclose(pb.posterior_covariance(a), exact, rtol=0,
+                                   atol=1e-10 * np.abs(exact).max())
+        np.testing.assert_allclose(pb.weighted_posterior_covariance(np.array([a]), np.array([1.0])),
+                                   exact, rtol=0, atol=1e-10 * np.abs(exact).max())

@@ -71,3 +71,21 @@ def test_narrow_grid_reduces_to_plug_in():
         StrengthAverage(prob, [0.1, 0.2, 1.0])
     edge = StrengthAverage(prob, np.geomspace(1e3, 1e5, 10))
     assert edge.warnings and "edge" in edge.warnings[0]
+
+
+def test_band_beside_a_very_narrow_component():
+    """A light component with a round-off sd sitting where Newton starts (a near-pinned
+    quantity in a model mixture): the limits still put the mixture's CDF (scipy.stats.norm) at
+    2.5 % and 97.5 %.  Regression: a short Newton step beside it (huge density, F far off) once
+    ended the search at F = 0.90."""
+    from scipy.special import ndtri
+    from scipy.stats import norm
+    from heatsight.inverse.strength_average import mixture_band
+    w = np.array([0.9, 0.099, 0.001])
+    m = np.array([[0.0], [5.0], [0.0]])
+    s = np.array([[1.0], [0.5], [1e-11]])
+    mean = w @ m
+    m[2, 0] = (mean + ndtri(0.975) * np.sqrt(w @ (s ** 2 + (m - mean) ** 2)))[0]
+    lo, hi = mixture_band(w, m, s)
+    for limit, p in ((lo, 0.025), (hi, 0.975)):
+        assert w @ norm.cdf((limit[0] - m[:, 0]) / s[:, 0]) == pytest.approx(p, abs=1e-9)
