@@ -215,15 +215,15 @@ def _tails(model, columns, design, rd, kept, problem, tail_prior, zone_model, zo
     X = lin.G[idx] if columns is design else np.hstack([lin.G[idx], zone_model[1][idx]])
     S = lin.noise.covariance[np.ix_(idx, idx)]
     kept_rd, residual = rd.subset(idx), lin.d[idx] - lin.t0[idx]
-    rows = {"total_power": tail_power(design, kept_rd, prior, S)}
-    left = left_out_columns(design, kept_rd)
+    left = left_out_columns(design, kept_rd)        # one enlarged basis for every share below
+    rows = {"total_power": tail_power(left, kept_rd, prior, S)}
     if left is not None:        # the face and zone means' share, on the fit's quadrature rule
         names, F_t, _ = functional_matrix(left, zones)
         means = [i for i, name in enumerate(names) if name != "total_power"]
         rows.update(zip([names[i] for i in means], functional_tails(left, F_t[means], kept_rd, prior, S)))
 
     def on_face(points):
-        H, variance = face_tail(design, points, prior, kept_rd, S)
+        H, variance = face_tail(left, points, prior, kept_rd, S)
         return -H @ X, H @ residual, variance
     return (X, residual, rows), on_face
 

@@ -85,24 +85,20 @@ def enlarged_basis(design, r, z):
     return design.model.basis(*enlarged_size(design, nearest_distance(design, r, z), TAIL_DECAY), corners=False)
 
 
-def _tail_parts(design, r, theta, z, prior, powers=False):
-    """(G_tail (n, T) [K per unit coefficient], v (T,) [unit^2]) at points, for `prior`;
-    with powers=True also p_tail (T,) [W per unit coefficient], each left-out mode's heat into
-    the part through the face."""
+def _tail_parts(design, r, theta, z, prior):
+    """(G_tail (n, T) [K per unit coefficient], v (T,) [unit^2]) at points, for `prior`."""
     big = enlarged_basis(design, r, z)
     mask = left_out(design, big)
     if not mask.any():
-        v = np.zeros(0)
-        return (np.zeros((np.size(r), 0)), v) + ((v,) if powers else ())
+        return np.zeros((np.size(r), 0)), np.zeros(0)
     G = big.fields(r, theta, z)[0][:, :big.n_eigen][:, mask]
-    v = _tail_variances(big, mask, prior)
-    return (G, v) + ((big.powers()[:big.n_eigen][mask],) if powers else ())
+    return G, _tail_variances(big, mask, prior)
 
 
-def face_tail(design, points, prior, rd, noise_covariance=None):
+def face_tail(left, points, prior, rd, noise_covariance=None):
     """The left-out modes' part of the unknown face at `points` (face_grid.display_grid's,
-    with u, v and lines), over the enlarged basis of the sensors `rd` (enlarged_basis):
-    (H (Q, n) [face unit / K], variance (Q,) [face unit^2]).
+    with u, v and lines): (H (Q, n) [face unit / K], variance (Q,) [face unit^2]); left: the
+    LeftOutColumns of the sensors `rd` (left_out_columns), None when no mode is left out.
 
     As for the power (tail_power), given the residual r = d - t0 - X c of the kept columns
     at the sensors `rd` (noise S = noise_covariance, the tail's own signal included):
@@ -111,7 +107,6 @@ def face_tail(design, points, prior, rd, noise_covariance=None):
     Without noise_covariance H = 0 and var e = sum_k Phi_k(x)^2 v_k, the prior's.  Finite
     because the family's exponent exceeds half the face's dimension
     (hyperprior.matern_exponent), so the bands no longer depend on the basis size."""
-    left = left_out_columns(design, rd)
     n = 0 if noise_covariance is None else rd.n
     if left is None:
         return np.zeros((np.size(points.u), n)), np.zeros(np.size(points.u))
@@ -160,9 +155,7 @@ def functional_tails(columns, rows, rd, prior, noise_covariance) -> list:
     modes `columns` (LeftOutColumns) are `rows` (q, T), e.g. the face and zone means from the
     fit's quadrature rule (functionals.functional_matrix): their share given the readings, as
     for the power (tail_power):
-    value = k + f . c + h . r + e,  h = S^-1 G_t V f_t,  var e = f_t V f_t - h . (G_t V f_t).
-    (The power keeps tail_power, whose modes stop where the sensors stop seeing them: a
-    temperature face's power weights a mode by its wavenumber.)"""
+    value = k + f . c + h . r + e,  h = S^-1 G_t V f_t,  var e = f_t V f_t - h . (G_t V f_t)."""
     H, var = _conditional(columns, np.atleast_2d(rows), rd, prior, noise_covariance)
     return [(H[:, j], float(var[j])) for j in range(var.size)]
 
@@ -182,12 +175,13 @@ def _conditional(columns, rows, rd, prior, noise_covariance):
 def face_tail_variance(design, points, prior, rd) -> np.ndarray:
     """The left-out modes' prior variance (Q,) at `points` of the face (face_tail without the
     readings' residual)."""
-    return face_tail(design, points, prior, rd)[1]
+    return face_tail(left_out_columns(design, rd), points, prior, rd)[1]
 
 
-def tail_power(design, rd, prior, noise_covariance):
+def tail_power(left, rd, prior, noise_covariance):
     """The left-out modes' share of the heat into the part through the unknown face, given
-    the readings: (h (n,) [W/K], extra variance [W^2]).
+    the readings: (h (n,) [W/K], extra variance [W^2]); left: the LeftOutColumns of the
+    sensors `rd` (left_out_columns), None when no mode is left out.
 
     With the tail c_t ~ N(0, V) marginalized into the noise S (tail_covariance), the readings'
     residual r = d - t0 - X c of the kept columns carries it: c_t | c, d ~
@@ -195,11 +189,11 @@ def tail_power(design, rd, prior, noise_covariance):
     P = p . c + k + h . r + e,  h = S^-1 G_t V p_t,  var e = p_t V p_t - h . (G_t V p_t).
     Zero on a flux face (a non-uniform mode carries no net heat); on a temperature face the
     power weights a mode by its wavenumber, so the modes the basis leaves out count.
-    rd: the kept sensors; noise_covariance (n, n) [K^2]: their S, tail included."""
-    G, v, p = _tail_parts(design, rd.r, rd.theta, rd.z, prior, powers=True)
-    a = G @ (v * p)
-    h = np.linalg.solve(noise_covariance, a)
-    return h, float(max(p @ (v * p) - h @ a, 0.0))
+    rd: the kept sensors; noise_covariance (n, n) [K^2]: their S, tail included.
+    Each mode's power p_t is the functional's row (functional_tails, _conditional)."""
+    if left is None:
+        return np.zeros(rd.n), 0.0
+    return functional_tails(left, left.powers()[0], rd, prior, noise_covariance)[0]
 
 
 def tail_variance(design, r, theta, z, prior) -> np.ndarray:
