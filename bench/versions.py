@@ -4,7 +4,7 @@
 
 BEFORE and AFTER are git revisions (AFTER defaults to the working tree).  Each is laid out as
 an importable `heatsight` package in a temporary folder (`git archive`; the package-dir
-mapping of pyproject.toml), and child processes alternate between the two: one warm-up fit,
+mapping of that revision's pyproject.toml), and child processes alternate between the two: one warm-up fit,
 then --repeat timed `heatsight.fit` calls each, one BLAS thread.  Prints the median times, their
 ratio (after / before) and whether the two summaries agree number by number
 (compare_summaries.py, --rtol, default 1e-9).  This machine's speed moves by tens of per cent from hour to
@@ -22,15 +22,12 @@ import subprocess
 import sys
 import tarfile
 import tempfile
+import tomllib
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from compare_summaries import compare  # noqa: E402
-
-#: where each subpackage lives in the repository (pyproject.toml's package-dir)
-PACKAGE_DIRS = {"heatsight": "heatsight", "forward": "forward", "inverse": "inverse",
-                "data_io": "data_io", "demo_data": "demo_data"}
 
 CHILD = r"""
 import json, sys, time
@@ -59,11 +56,11 @@ def lay_out(revision: str | None, into: Path) -> Path:
                               capture_output=True).stdout
         with tarfile.open(fileobj=io.BytesIO(data)) as tar:
             tar.extractall(src, filter="data")
-    pkg = into / "pkg" / "heatsight"
-    shutil.copytree(src / "heatsight", pkg)
-    for sub, folder in PACKAGE_DIRS.items():
-        if sub != "heatsight":
-            shutil.copytree(src / folder, pkg / sub)
+    # where each package lives in that revision: its pyproject.toml's package-dir
+    with open(src / "pyproject.toml", "rb") as f:
+        package_dir = tomllib.load(f)["tool"]["setuptools"]["package-dir"]
+    for package, folder in sorted(package_dir.items()):     # parents before their subpackages
+        shutil.copytree(src / folder, into / "pkg" / Path(*package.split(".")))
     return into / "pkg"
 
 

@@ -295,18 +295,18 @@ class CylinderModel:
 
     def face_operator(self, field, face, condition, u, v):
         """B_F[field] on a face at face coordinates (u, v), by the face's condition (its
-        boundary operator); field: anything with temperature(r, theta, z) and gradient(...)."""
+        boundary operator); field: a PolynomialLifting (temperature, gradient, and both in one
+        pass: field_values)."""
         r, th, z = self._face_points(face, u, v)
         shape = r.shape
         r, th, z = r.ravel(), th.ravel(), z.ravel()
-        # only what the operator uses: T ('D'), dT/dn ('N'), both ('R', in one pass where the
-        # field offers it)
-        if condition.kind == "R" and hasattr(field, "field_values"):
+        # only what the operator uses: T ('D'), dT/dn ('N'), both in one pass ('R')
+        if condition.kind == "R":
             w, g = field.field_values(r, th, z)
             dn = normal_component(face, g)
         else:
-            w = field.temperature(r, th, z) if condition.kind != "N" else np.zeros(r.size)
-            dn = normal_component(face, field.gradient(r, th, z)) if condition.kind != "D" else np.zeros(r.size)
+            w = field.temperature(r, th, z) if condition.kind == "D" else np.zeros(r.size)
+            dn = normal_component(face, field.gradient(r, th, z)) if condition.kind == "N" else np.zeros(r.size)
         return condition.operator(w, dn, self.k).reshape(shape)
 
     def _lifting_operator(self, face, cond, u, v):
