@@ -27,6 +27,14 @@ from .errors import InputError
 DEFAULT_WORKERS = 2
 #: seconds to wait for a scheduler given with --scheduler
 CONNECT_TIMEOUT_S = 20
+#: dask settings of the local cluster's workers (the README gives them for a real cluster).
+#: dask's nannies start their workers with glibc's MALLOC_TRIM_THRESHOLD_ = 64 KiB; any such
+#: variable switches off glibc's adaptive mmap threshold, so every array above 128 KiB is
+#: mapped and unmapped afresh and the fits' many short-lived posterior arrays cost page faults
+#: (a part 8 -> 14 s, 6 s of it system time); None unsets it.  dask's sampling profiler of the
+#: task thread is off (no dashboard reads it).  The BLAS thread variables (one thread) stay.
+LOCAL_WORKER_CONFIG = {"distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOLD_": None,
+                       "distributed.worker.profile.enabled": False}
 
 
 def fleet_parts(paths) -> list[Path]:
@@ -84,8 +92,11 @@ def _client(scheduler, workers):
             raise InputError(f"--scheduler {scheduler}: cannot reach the scheduler ({exc})") from None
     import logging
 
-    cluster = LocalCluster(n_workers=int(workers), threads_per_worker=1, processes=True, dashboard_address=None,
-                           silence_logs=logging.ERROR)
+    import dask
+
+    with dask.config.set(LOCAL_WORKER_CONFIG):
+        cluster = LocalCluster(n_workers=int(workers), threads_per_worker=1, processes=True, dashboard_address=None,
+                               silence_logs=logging.ERROR)
     return Client(cluster, set_as_default=False)
 
 
