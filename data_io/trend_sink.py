@@ -99,7 +99,10 @@ class ParquetSink:
         table = pa.Table.from_arrays(self._arrays(columns), names=[c[0] for c in columns])
         if self.writer is None:
             self.schema = table.schema
-            self.writer = pq.ParquetWriter(self.stream, self.schema)
+            # dictionary pages only for text: on doubles pyarrow builds a dictionary, finds it
+            # too large and falls back, which made writing 3.6x slower and the file larger
+            self.writer = pq.ParquetWriter(self.stream, self.schema,
+                                           use_dictionary=[c[0] for c in columns if c[1] == "text"])
         if table.num_rows:
             self.writer.write_table(table)
 
