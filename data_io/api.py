@@ -155,7 +155,8 @@ class Fit:
             "measured [degC]": t(s["measured"].to_numpy(float)), "fitted [degC]": t(s["fitted"].to_numpy(float)),
             "residual [K]": s["residual"].to_numpy(float), "standardized": s["standardized"].to_numpy(float),
             "loo predicted [degC]": t(s["loo_predicted"].to_numpy(float)), "loo sd [K]": s["loo_sd"].to_numpy(float),
-            "standardized loo": s["standardized_loo"].to_numpy(float), "flag": s["flag"].astype(str).to_numpy()})
+            "standardized loo": s["standardized_loo"].to_numpy(float),
+            "offset caught beyond [K]": s["caught_offset"].to_numpy(float), "flag": s["flag"].astype(str).to_numpy()})
 
     # ------------------------------------------------------------------ anywhere in the part
     def predict(self, points, theta=None, z=None, *, return_std: bool = True):

@@ -47,5 +47,5 @@ def points_columns(frame: pd.DataFrame) -> pd.DataFrame:
 def sensor_columns(frame: pd.DataFrame) -> pd.DataFrame:
     """sensors.csv: positions in mm and deg, readings in degC, differences and sds in K."""
     names = {"measured": "measured_degC", "fitted": "fitted_degC", "residual": "residual_K",
-             "loo_predicted": "loo_predicted_degC", "loo_sd": "loo_sd_K"}
+             "loo_predicted": "loo_predicted_degC", "loo_sd": "loo_sd_K", "caught_offset": "caught_offset_K"}
     return in_mm(frame).rename(columns=names)

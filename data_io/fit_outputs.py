@@ -60,7 +60,8 @@ def sensor_records(result) -> list[dict]:
             "measured": temp(row["measured"]), "fitted": temp(row["fitted"]),
             "residual": float(row["residual"]), "standardized": float(row["standardized"]),
             "loo_predicted": temp(row["loo_predicted"]), "loo_sd": float(row["loo_sd"]),
-            "standardized_loo": float(row["standardized_loo"]), "flag": str(row["flag"]),
+            "standardized_loo": float(row["standardized_loo"]), "caught_offset": float(row["caught_offset"]),
+            "flag": str(row["flag"]),
         })
     return out
 

@@ -17,6 +17,7 @@ import math
 from pathlib import Path
 
 from ..inverse.bands import Z95
+from ..inverse.diagnostics import UNCHECKED_OFFSET_K
 
 from . import plots
 from .csv_out import atomic_write_text
@@ -251,7 +252,7 @@ def _sensor_table(result) -> str:
     score_col = "score" if "score" in sens else "standardized_loo"
     head = ["sensor", "r [mm]", "θ [°]", "z [mm]", "measured [°C]", "fitted [°C]", "residual [K]",
             "prediction from the others [°C]", "reading − prediction [K]", "± (95 %) [K]",
-            "score", "flag"]
+            "score", "offset caught beyond [K]", "flag"]
     flags = plots._flags(result)  # noqa: SLF001 (same layer)
     rows = []
     for i, (_, row) in enumerate(sens.iterrows()):
@@ -270,6 +271,8 @@ def _sensor_table(result) -> str:
             sig(half95(from_si(row.get("loo_sd"), "temperature_difference", "K")))
             if _finite(row.get("loo_sd")) else "–",
             f"{row.get(score_col):+.2f}" if _finite(row.get(score_col)) else "–",
+            sig(from_si(row.get("caught_offset"), "temperature_difference", "K"))
+            if _finite(row.get("caught_offset")) else "–",
         ]
         rows.append(f'<tr class="{cls}"><td>{_e(row.get("sensor"))}</td>'
                     + "".join(f'<td class="num">{_e(c)}</td>' for c in cells)
@@ -285,7 +288,9 @@ def _sensor_table(result) -> str:
         lead = "<p>No sensor was set aside.</p>"
     note = (f"<p class=\"sub\">The score compares each reading with what the other sensors predict, "
             f"in predictive standard deviations; beyond ±{t:.2f} a sensor is treated as faulty or "
-            f"misplaced. The ± column is the 95 % interval of that prediction. Temperatures in °C, "
+            f"misplaced. The ± column is the 95 % interval of that prediction; a fixed offset of a "
+            f"reading is caught only beyond the size in the next column (beyond "
+            f"{sig(UNCHECKED_OFFSET_K)} K the others cannot vouch for the sensor). Temperatures in °C, "
             f"differences in K.</p>")
     return lead + note + table
 

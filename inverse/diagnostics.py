@@ -39,8 +39,11 @@ from .strength import StrengthChoice, choose_strength, default_alphas
 FAMILY_LEVEL = 0.02
 MODEL_SUSPECT_COUNT = 3        # common practice, no source
 MODEL_SUSPECT_FRACTION = 0.15  # common practice, no source
+#: a sensor whose offset the screening would catch only beyond this is reported unchecked:
+#: four times a class 2 type K tolerance of 2.5 K (IEC 60584-1, from memory); our own rule
+UNCHECKED_OFFSET_K = 10.0
 COLUMNS = ("sensor", "measured", "fitted", "residual", "standardized", "leverage",
-           "loo_predicted", "loo_sd", "standardized_loo", "flag")
+           "loo_predicted", "loo_sd", "standardized_loo", "caught_offset", "flag")
 
 
 def default_threshold(n_sensors: int, family_level: float = FAMILY_LEVEL) -> float:
@@ -65,7 +68,8 @@ def sensor_table(problem: LinearGaussianProblem, alpha: float, names=None,
 
     measured d_i, fitted t0_i + G_i c, residual d_i - fitted_i, standardized = residual /
     sqrt(S_ii), leverage H_ii, loo_predicted E[d_i | d_-i], loo_sd its predictive sd,
-    standardized_loo = (d_i - loo_predicted) / loo_sd, flag 'ok' or 'suspect'
+    standardized_loo = (d_i - loo_predicted) / loo_sd, caught_offset = threshold * loo_sd
+    [K] (the smallest fixed offset of the reading the check catches), flag 'ok' or 'suspect'
     (|standardized_loo| > threshold, default `default_threshold(n)`).
     """
     alpha = float(alpha)
@@ -82,6 +86,7 @@ def sensor_table(problem: LinearGaussianProblem, alpha: float, names=None,
         "loo_predicted": problem.loo_predicted(alpha),
         "loo_sd": problem.loo_sd(alpha),
         "standardized_loo": z,
+        "caught_offset": t * problem.loo_sd(alpha),
         "flag": np.where(np.abs(z) > t, "suspect", "ok"),
     }, columns=list(COLUMNS))
 
@@ -227,9 +232,28 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
     table = _final_table(problem, sub, idx, keep, choice.alpha, names)
     table["score"] = score
     t = default_threshold(sub.n, family_level) if threshold is None else float(threshold)
+    table["caught_offset"] = t * table["loo_sd"]
     table["flag"] = np.where(~keep, "set aside", np.where(np.abs(score) > t, "suspect", "ok"))
     table = table[list(COLUMNS[:-1]) + ["score", "flag"]]
     return Screening(out, keep, sub, choice, table, warns)
+
+
+def unchecked_warnings(table, limit: float = UNCHECKED_OFFSET_K) -> list[str]:
+    """One warning naming the sensors in the fit that the others cannot check: caught_offset
+    [K] (threshold x the sd of the prediction from the others) beyond `limit`.  Such a sensor
+    sees its part of the face nearly alone (leverage near 1), so a fault there moves the
+    answer without showing in any score."""
+    fit = table[table["flag"] != "set aside"]
+    weak = fit[fit["caught_offset"] > limit]
+    if weak.empty:
+        return []
+    lo, hi = weak["caught_offset"].min(), weak["caught_offset"].max()
+    size = f"{lo:.2g} K" if f"{lo:.2g}" == f"{hi:.2g}" else f"{lo:.2g}-{hi:.2g} K"
+    who = ("None of the sensors can" if len(weak) == len(fit)
+           else f"{len(weak)} of {len(fit)} sensors ({', '.join(map(str, weak['sensor']))}) cannot")
+    return [f"{who} be checked by the others: a fixed offset of one of them would show "
+            f"only beyond {size} (each sensor's caught offset), so a smaller fault would move the answer near it "
+            f"without any sign. What would help: a second sensor near each of them, or sensors calibrated in place"]
 
 
 def _final_table(problem, sub, idx, keep, alpha, names):

@@ -26,7 +26,7 @@ from scipy.special import logsumexp
 
 from .calibration import calibrate, learned_calibration
 from .design import NOMINAL_PRECISION_FACTOR, Design, smooth_prior
-from .diagnostics import screen_outliers, sensor_table
+from .diagnostics import screen_outliers, sensor_table, unchecked_warnings
 from .functionals import face_functionals, functional_matrix
 from .hyperprior import LearnedPrior, face_size, learn_prior
 from .layout import FAR_FRACTION, angular_note, edge_gap_note
@@ -292,13 +292,14 @@ def _screen(problem, rd, opts, gross=()) -> _Screen:
     request = opts.strength_request
     if opts.keep_all_sensors:
         choice = choose_strength(problem, request)
-        return _Screen(choice, problem, np.ones(rd.n, dtype=bool),
-                       sensor_table(problem, choice.alpha, names=rd.names), [], list(choice.warnings))
+        table = sensor_table(problem, choice.alpha, names=rd.names)
+        return _Screen(choice, problem, np.ones(rd.n, dtype=bool), table, [],
+                       list(choice.warnings) + unchecked_warnings(table))
     s = screen_outliers(problem, strength=request, threshold=opts.threshold, names=rd.names,
                         preset=list(gross), model_first=True)
     warnings = list(s.warnings) + [f"sensor {x.sensor} set aside: {x.reason}" for x in s.set_aside]
     return _Screen(s.strength, s.problem, s.kept, s.table, list(s.set_aside),
-                   warnings + list(s.strength.warnings))
+                   warnings + list(s.strength.warnings) + unchecked_warnings(s.table))
 
 
 # ------------------------------------------------------------------------ posterior

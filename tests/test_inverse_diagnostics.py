@@ -116,3 +116,40 @@ def test_fixed_strength_screening_uses_that_alpha():
     assert out.set_aside[0].score == pytest.approx(prob.standardized_loo(0.01)[0])
     ev = screen_outliers(prob)
     assert ev.strength.alpha == pytest.approx(choose_strength(prob.subset(np.arange(n) != 0)).alpha)
+
+
+def test_caught_offset_is_the_smallest_offset_the_check_flags():
+    """A reading sitting at its prediction from the others is flagged once a fixed offset
+    exceeds caught_offset = threshold x loo_sd, and not below it (the prediction from the
+    others does not depend on the reading itself). The loo_sd is the conditional sd of a
+    Gaussian, 1 / sqrt((Sigma^-1)_ii) with Sigma = S + G (alpha P)^-1 G^T (the textbook
+    conditioning identity, computed here with numpy)."""
+    n, alpha = 20, 0.05
+    rng, G, p = layout(n, 10, 5)
+    d = readings(rng, G, p, 0.5)
+    prob = LinearGaussianProblem(G, d, 20.0, np.full(n, 0.25), p)
+    Sigma = 0.25 * np.eye(n) + G @ np.diag(1.0 / (alpha * p)) @ G.T
+    t = default_threshold(n)
+    table = sensor_table(prob, alpha)
+    assert np.allclose(table["caught_offset"], t / np.sqrt(np.diag(np.linalg.inv(Sigma))), rtol=1e-9)
+    for i in (0, 7, 13):
+        at_prediction = d.copy()
+        at_prediction[i] = table["loo_predicted"][i]
+        for factor, flag in ((1.01, "suspect"), (0.99, "ok"), (-1.01, "suspect")):
+            shifted = at_prediction.copy()
+            shifted[i] += factor * table["caught_offset"][i]
+            assert sensor_table(prob.with_data(shifted), alpha)["flag"][i] == flag
+
+
+def test_sensors_the_others_cannot_check_are_named_once():
+    import pandas as pd
+
+    from heatsight.inverse.diagnostics import UNCHECKED_OFFSET_K, unchecked_warnings
+
+    table = pd.DataFrame({"sensor": ["A", "B", "C", "D"], "caught_offset": [2.0, 14.0, 31.0, 50.0],
+                          "flag": ["ok", "ok", "suspect", "set aside"]})
+    (w,) = unchecked_warnings(table)
+    assert w.startswith("2 of 3 sensors (B, C) cannot be checked") and "14-31 K" in w
+    assert unchecked_warnings(table.assign(caught_offset=[UNCHECKED_OFFSET_K] * 4)) == []
+    (w,) = unchecked_warnings(table.assign(caught_offset=[12.0] * 4))
+    assert w.startswith("None of the sensors can be checked") and "beyond 12 K" in w
