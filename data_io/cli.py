@@ -259,7 +259,7 @@ def build_parser(only: str | None = None) -> argparse.ArgumentParser:
     """The parser; `only` names the one command built in full (None: all of them; "": none)."""
     parser = _Parser(
         prog=PROG,
-        description="Infer the unseen face of a heated solid cylinder from thermocouple readings.",
+        description="Infer the unseen face of a heated cylinder, solid or hollow, from thermocouple readings.",
         epilog="examples:\n  heatsight demo\n  heatsight check plate.toml\n"
                "  heatsight fit plate.toml --readings readings.csv --out plate-fit\n"
                "  heatsight simulate plate.toml --at points.csv --out field.csv\n\n"
