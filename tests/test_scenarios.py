@@ -51,7 +51,8 @@ NOT_MET = {
     ("top_temperature", "zones"): "4 of 6 (centre +2.4, contact ring -2.6 sd)",
     ("calibrated_convection", "sharpness"): "1.03",
     ("chuck_class2", "rel_rms"): "1.04",
-    ("tube_bore_temperature", "sharpness"): "1.28",
+    ("tube_bore_temperature", "sharpness"): "1.28, from the kept broken TC07 (with its 6 K taken off: "
+                                            "0.92, relative RMS 0.29, coverage 0.99)",
     ("tube_bore_temperature", "zones"): "4 of 6 (cool streak +3.6, bore 90-180 deg +2.9 sd)",
     ("tube_bore_temperature", "sensors"): "broken TC07 (6 K high, 10 mm from the bore) kept: no sensor "
                                           "there can be checked by the others below 10-17 K (caught "
