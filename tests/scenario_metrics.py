@@ -74,8 +74,10 @@ def score(scn, res) -> Score:
     s.power_z = _z(res.summary["total_power_W"], scn.power, res.summary["total_power_sd_W"])
     s.set_aside = tuple(res.summary.get("set_aside", ()))
     # the smallest fixed offset the check against the others catches, per broken sensor [K]
-    caught = dict(zip(res.sensors["sensor"], res.sensors["caught_offset"]))
-    s.extra["caught_offset"] = {b: float(caught[b]) for b in scn.broken if b in caught}
+    table = getattr(res, "sensors", None)
+    if table is not None:
+        caught = dict(zip(table["sensor"], table["caught_offset"]))
+        s.extra["caught_offset"] = {b: float(caught[b]) for b in scn.broken if b in caught}
     cal = res.summary.get("calibrated")
     if cal:
         s.extra["calibrated"] = {k: (v["value"], v["sd"]) for k, v in cal.items()}
