@@ -156,7 +156,7 @@ class Fit:
             "residual [K]": s["residual"].to_numpy(float), "standardized": s["standardized"].to_numpy(float),
             "loo predicted [degC]": t(s["loo_predicted"].to_numpy(float)), "loo sd [K]": s["loo_sd"].to_numpy(float),
             "standardized loo": s["standardized_loo"].to_numpy(float),
-            "offset caught beyond [K]": s["caught_offset"].to_numpy(float), "flag": s["flag"].astype(str).to_numpy()})
+            "caught offset [K]": s["caught_offset"].to_numpy(float), "flag": s["flag"].astype(str).to_numpy()})
 
     # ------------------------------------------------------------------ anywhere in the part
     def predict(self, points, theta=None, z=None, *, return_std: bool = True):

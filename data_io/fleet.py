@@ -28,8 +28,9 @@ DEFAULT_WORKERS = 2
 #: seconds to wait for a scheduler given with --scheduler
 CONNECT_TIMEOUT_S = 20
 #: dask settings of the local cluster's workers (the README gives them for a real cluster).
-#: dask's nannies start their workers with glibc's MALLOC_TRIM_THRESHOLD_ = 64 KiB; any such
-#: variable switches off glibc's adaptive mmap threshold, so every array above 128 KiB is
+#: dask's nannies start their workers with glibc's MALLOC_TRIM_THRESHOLD_ = 64 KiB; setting the
+#: trim threshold (like the mmap threshold, top pad or mmap max; mallopt(3), from memory)
+#: switches off glibc's adaptive mmap threshold, so every array above 128 KiB is
 #: mapped and unmapped afresh and the fits' many short-lived posterior arrays cost page faults
 #: (a part 8 -> 14 s, 6 s of it system time); None unsets it.  dask's sampling profiler of the
 #: task thread is off (no dashboard reads it).  The BLAS thread variables (one thread) stay.

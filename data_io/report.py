@@ -252,7 +252,7 @@ def _sensor_table(result) -> str:
     score_col = "score" if "score" in sens else "standardized_loo"
     head = ["sensor", "r [mm]", "θ [°]", "z [mm]", "measured [°C]", "fitted [°C]", "residual [K]",
             "prediction from the others [°C]", "reading − prediction [K]", "± (95 %) [K]",
-            "score", "offset caught beyond [K]", "flag"]
+            "score", "caught offset [K]", "flag"]
     flags = plots._flags(result)  # noqa: SLF001 (same layer)
     rows = []
     for i, (_, row) in enumerate(sens.iterrows()):
@@ -289,9 +289,9 @@ def _sensor_table(result) -> str:
     note = (f"<p class=\"sub\">The score compares each reading with what the other sensors predict, "
             f"in predictive standard deviations; beyond ±{t:.2f} a sensor is treated as faulty or "
             f"misplaced. The ± column is the 95 % interval of that prediction; a fixed offset of a "
-            f"reading is caught only beyond the size in the next column (beyond "
-            f"{sig(UNCHECKED_OFFSET_K)} K the others cannot vouch for the sensor). Temperatures in °C, "
-            f"differences in K.</p>")
+            f"reading is caught only beyond its “caught offset” (past "
+            f"{sig(UNCHECKED_OFFSET_K)} K the fit warns: the others check that sensor only for large "
+            f"faults). Temperatures in °C, differences in K.</p>")
     return lead + note + table
 
 

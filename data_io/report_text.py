@@ -101,11 +101,11 @@ GLOSSARY = (
                                    "position (leave-one-out); a faulty or misplaced thermocouple "
                                    "stands out against it."),
     ("score", "reading minus the prediction from the others, in its predictive standard deviations."),
-    ("offset caught beyond", "the smallest fixed offset of a reading that the check against the "
-                             "others would catch: the limit times the standard deviation of the "
-                             "prediction from the others. A sensor alone on its part of the face has a "
-                             "large one: the others cannot vouch for it, and the answer there rests "
-                             "on it alone."),
+    ("caught offset", "the smallest fixed offset of a reading that the check against the others "
+                      "would catch: half the width of the range of readings the prediction from the "
+                      "others accepts (the limit times its standard deviation, for one smoothing "
+                      "strength). A sensor alone on its part of the face has a large one: the others "
+                      "check it only for large faults, and the answer there rests on it."),
     ("set aside", "left out of the fit because its score is beyond the limit; its reading is still "
                   "listed."),
     ("smoothing strength α", "how strongly the fit prefers a smooth face over following every reading; "

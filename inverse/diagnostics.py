@@ -29,18 +29,19 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
-from scipy.special import log_ndtr, logsumexp, ndtri_exp
-from scipy.special import ndtri
+from scipy.special import log_ndtr, logsumexp, ndtr, ndtri, ndtri_exp
 
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem
 from .strength import StrengthChoice, choose_strength, default_alphas
+from .strength_average import mixture_band
 
 FAMILY_LEVEL = 0.02
 MODEL_SUSPECT_COUNT = 3        # common practice, no source
 MODEL_SUSPECT_FRACTION = 0.15  # common practice, no source
-#: a sensor whose offset the screening would catch only beyond this is reported unchecked:
-#: four times a class 2 type K tolerance of 2.5 K (IEC 60584-1, from memory); our own rule
+#: a sensor whose fixed offset the check catches only beyond this is named in a warning: four
+#: times the 2.5 K of a class 2 type K tolerance at moderate temperature (IEC 60584-1: 2.5 K
+#: or 0.75 % of the temperature in degC, whichever is larger; from memory); our own rule
 UNCHECKED_OFFSET_K = 10.0
 COLUMNS = ("sensor", "measured", "fitted", "residual", "standardized", "leverage",
            "loo_predicted", "loo_sd", "standardized_loo", "caught_offset", "flag")
@@ -69,12 +70,13 @@ def sensor_table(problem: LinearGaussianProblem, alpha: float, names=None,
     measured d_i, fitted t0_i + G_i c, residual d_i - fitted_i, standardized = residual /
     sqrt(S_ii), leverage H_ii, loo_predicted E[d_i | d_-i], loo_sd its predictive sd,
     standardized_loo = (d_i - loo_predicted) / loo_sd, caught_offset = threshold * loo_sd
-    [K] (the smallest fixed offset of the reading the check catches), flag 'ok' or 'suspect'
+    [K] (the smallest fixed offset of the reading this check flags), flag 'ok' or 'suspect'
     (|standardized_loo| > threshold, default `default_threshold(n)`).
     """
     alpha = float(alpha)
     t = default_threshold(problem.n) if threshold is None else float(threshold)
-    z = problem.standardized_loo(alpha)
+    loo = LooScores(problem.standardized_loo(alpha), problem.loo_predicted(alpha), problem.loo_sd(alpha))
+    z = loo.z
     fitted = problem.fitted(alpha)
     return pd.DataFrame({
         "sensor": _names(names, problem.n),
@@ -83,10 +85,10 @@ def sensor_table(problem: LinearGaussianProblem, alpha: float, names=None,
         "residual": problem.d - fitted,
         "standardized": problem.standardized_residuals(alpha),
         "leverage": problem.hat_diagonal(alpha),
-        "loo_predicted": problem.loo_predicted(alpha),
-        "loo_sd": problem.loo_sd(alpha),
+        "loo_predicted": loo.predicted,
+        "loo_sd": loo.sd,
         "standardized_loo": z,
-        "caught_offset": t * problem.loo_sd(alpha),
+        "caught_offset": loo.caught_offset(t),
         "flag": np.where(np.abs(z) > t, "suspect", "ok"),
     }, columns=list(COLUMNS))
 
@@ -94,11 +96,29 @@ def sensor_table(problem: LinearGaussianProblem, alpha: float, names=None,
 @dataclass(frozen=True)
 class LooScores:
     """Alpha-averaged leave-one-out check of every reading: z (n,) standardized score,
-    predicted (n,) mean and sd (n,) of reading i given the others [K]."""
+    predicted (n,) mean and sd (n,) of reading i given the others [K]; components: the
+    predictive mixture (weights, means, sds), each (m, n), when averaged over alpha."""
 
     z: np.ndarray
     predicted: np.ndarray
     sd: np.ndarray
+    components: tuple | None = None
+
+    def caught_offset(self, threshold: float) -> np.ndarray:
+        """(n,) [K]: the smallest fixed offset of a reading, from the middle of its predictive
+        distribution given the others, that the check flags: half the width of the interval
+        [Q(Phi(-t)), Q(Phi(t))] of that distribution (|z| > t outside it); t sd for one alpha,
+        the mixture's quantiles (heavier tails) when averaged."""
+        t = float(threshold)
+        if self.components is None:
+            return t * self.sd
+        w, mean, sd = self.components
+        level = 2.0 * float(ndtr(t)) - 1.0
+        out = np.empty(self.sd.size)
+        for i in range(out.size):
+            lo, hi = mixture_band(w[:, i], mean[:, i:i + 1], sd[:, i:i + 1], level)
+            out[i] = 0.5 * float(hi[0] - lo[0])
+        return out
 
 
 def averaged_loo(problem: LinearGaussianProblem, alphas=None) -> LooScores:
@@ -124,7 +144,7 @@ def averaged_loo(problem: LinearGaussianProblem, alphas=None) -> LooScores:
     pred = problem.d[None, :] - e
     mean = np.sum(w * pred, axis=0)
     var = np.sum(w * (sd**2 + (pred - mean) ** 2), axis=0)
-    return LooScores(z, mean, np.sqrt(var))
+    return LooScores(z, mean, np.sqrt(var), (w, pred, sd))
 
 
 @dataclass(frozen=True)
@@ -146,7 +166,8 @@ class Screening:
     set_aside: in the order they were set aside; kept: boolean mask (n,) of sensors in the
     final fit; problem, strength: the final fit; table: `sensor_table` columns for all n
     sensors (set-aside ones predicted from the final fit) plus `score`, the screening
-    statistic (for set-aside sensors, its value when they were set aside); flag 'ok',
+    statistic (for set-aside sensors, its value when they were set aside), `caught_offset`
+    of that statistic (LooScores.caught_offset; NaN for a set-aside sensor); flag 'ok',
     'suspect' (|score| > threshold but not set aside) or 'set aside'.
     """
 
@@ -187,16 +208,22 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
         keep[s.index] = False
         score[s.index] = s.score
     n_preset = len(out)
-    while True:
-        idx = np.flatnonzero(keep)
-        sub = problem if idx.size == n else problem.subset(idx)
+
+    def check(sub):
         if fixed:
             a = float(strength)
-            sc = LooScores(sub.standardized_loo(a), sub.loo_predicted(a), sub.loo_sd(a))
-        else:
-            sc = averaged_loo(sub)
+            return LooScores(sub.standardized_loo(a), sub.loo_predicted(a), sub.loo_sd(a))
+        return averaged_loo(sub)
+
+    def limit(m):
+        return default_threshold(m, family_level) if threshold is None else float(threshold)
+
+    while True:       # ends with sc the check of the sensors still in (sub, idx)
+        idx = np.flatnonzero(keep)
+        sub = problem if idx.size == n else problem.subset(idx)
+        sc = check(sub)
         score[idx] = sc.z
-        t = default_threshold(sub.n, family_level) if threshold is None else float(threshold)
+        t = limit(sub.n)
         j = int(np.argmax(np.abs(sc.z)))
         if abs(sc.z[j]) <= t:
             break
@@ -219,10 +246,8 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
         idx = np.flatnonzero(keep)
         sub = problem if idx.size == n else problem.subset(idx)
         out = out[:n_preset]
-        if fixed:
-            score[idx] = sub.standardized_loo(float(strength))
-        else:
-            score[idx] = averaged_loo(sub).z
+        sc = check(sub)
+        score[idx] = sc.z
         warns.append(f"{len(together)} sensors ({', '.join(s.sensor for s in together)}) disagree with the "
                      "model together: the model (face conditions, h or ambient, the prior or the sensor "
                      "positions) is the likelier culprit than that many faults, so none of them is set "
@@ -231,29 +256,37 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
     warns.extend(choice.warnings)
     table = _final_table(problem, sub, idx, keep, choice.alpha, names)
     table["score"] = score
-    t = default_threshold(sub.n, family_level) if threshold is None else float(threshold)
-    table["caught_offset"] = t * table["loo_sd"]
+    t = limit(sub.n)
+    caught = np.full(n, np.nan)           # a set-aside sensor is no longer checked
+    caught[idx] = sc.caught_offset(t)
+    table["caught_offset"] = caught
     table["flag"] = np.where(~keep, "set aside", np.where(np.abs(score) > t, "suspect", "ok"))
     table = table[list(COLUMNS[:-1]) + ["score", "flag"]]
     return Screening(out, keep, sub, choice, table, warns)
 
 
 def unchecked_warnings(table, limit: float = UNCHECKED_OFFSET_K) -> list[str]:
-    """One warning naming the sensors in the fit that the others cannot check: caught_offset
-    [K] (threshold x the sd of the prediction from the others) beyond `limit`.  Such a sensor
-    sees its part of the face nearly alone (leverage near 1), so a fault there moves the
-    answer without showing in any score."""
+    """One warning naming the sensors in the fit that the others can check only for large
+    faults: caught_offset [K] beyond `limit`.  Such a sensor sees its part of the face nearly
+    alone (leverage near 1), so a smaller fault there moves the answer without showing in
+    any score."""
     fit = table[table["flag"] != "set aside"]
     weak = fit[fit["caught_offset"] > limit]
     if weak.empty:
         return []
-    lo, hi = weak["caught_offset"].min(), weak["caught_offset"].max()
-    size = f"{lo:.2g} K" if f"{lo:.2g}" == f"{hi:.2g}" else f"{lo:.2g}-{hi:.2g} K"
-    who = ("None of the sensors can" if len(weak) == len(fit)
-           else f"{len(weak)} of {len(fit)} sensors ({', '.join(map(str, weak['sensor']))}) cannot")
-    return [f"{who} be checked by the others: a fixed offset of one of them would show "
-            f"only beyond {size} (each sensor's caught offset), so a smaller fault would move the answer near it "
-            f"without any sign. What would help: a second sensor near each of them, or sensors calibrated in place"]
+    lo, hi = (f"{x:.0f}" for x in (weak["caught_offset"].min(), weak["caught_offset"].max()))
+    size = f"{lo} K" if lo == hi else f"{lo}-{hi} K"
+    names = ", ".join(map(str, weak["sensor"]))
+    if len(weak) == 1:
+        who, them = f"Sensor {names} is", "it"
+    elif len(weak) == len(fit):
+        who, them = "Every sensor is", "each of them"
+    else:
+        who, them = f"{len(weak)} of {len(fit)} sensors ({names}) are", "each of them"
+    return [f"{who} checked by the others only for large faults: an offset would show only beyond {size} "
+            f"(the caught offset of each sensor), so a smaller fault would move the answer near {them} "
+            f"without any sign. What would help: a second sensor near {them}, or calibrating the "
+            f"thermocouples in place"]
 
 
 def _final_table(problem, sub, idx, keep, alpha, names):

@@ -292,7 +292,7 @@ def _screen(problem, rd, opts, gross=()) -> _Screen:
     request = opts.strength_request
     if opts.keep_all_sensors:
         choice = choose_strength(problem, request)
-        table = sensor_table(problem, choice.alpha, names=rd.names)
+        table = sensor_table(problem, choice.alpha, names=rd.names, threshold=opts.threshold)
         return _Screen(choice, problem, np.ones(rd.n, dtype=bool), table, [],
                        list(choice.warnings) + unchecked_warnings(table))
     s = screen_outliers(problem, strength=request, threshold=opts.threshold, names=rd.names,

@@ -177,7 +177,7 @@ def summarize(times, values, index, window: float) -> WindowStats:
     ref = np.nan_to_num(np.nanmedian(sample, axis=0)) if np.isfinite(sample).any() else np.zeros(n)
     Xc = np.where(ok, X - ref, 0.0)
 
-    # window sums as one sparse (windows x rows) product: 5x np.add.reduceat along axis 0
+    # window sums as one sparse (windows x rows) product: 5x faster than np.add.reduceat along axis 0
     windows = sparse.csr_matrix((np.ones(t.size), np.arange(t.size), np.r_[starts, t.size]),
                                 shape=(starts.size, t.size))
 

@@ -51,7 +51,14 @@ def test_fit_writes_every_output(tmp_path, monkeypatch, capsys):
         assert key in summary
     assert summary["face"] == "bottom" and summary["quantity"] == "heat_flux" and summary["unit"] == "W/m^2"
     s0 = summary["sensors"][0]
-    assert set(s0) >= {"sensor", "measured", "fitted", "residual", "standardized", "loo_predicted", "flag"}
+    assert set(s0) >= {"sensor", "measured", "fitted", "residual", "standardized", "loo_predicted",
+                       "caught_offset", "flag"}
+    with open(out / "sensors.csv") as fh:
+        rows = list(csv.DictReader(fh))
+    assert {"loo_sd_K", "caught_offset_K"} <= set(rows[0])        # the unit in the column name
+    kept = [r for r in rows if r["flag"] != "set aside"]
+    assert all(float(r["caught_offset_K"]) >= 2.5 * float(r["loo_sd_K"]) for r in kept)   # t > 2.5 here
+    assert "caught offset [K]" in (out / "report.html").read_text(encoding="utf-8")
     # spreadsheet formula injection: the sensor named "=cmd" is neutralized in CSV outputs
     text = (out / "sensors.csv").read_text()
     assert "'=cmd" in text and "\n=cmd" not in text

@@ -119,11 +119,12 @@ def test_fixed_strength_screening_uses_that_alpha():
 
 
 def test_caught_offset_is_the_smallest_offset_the_check_flags():
-    """A reading sitting at its prediction from the others is flagged once a fixed offset
-    exceeds caught_offset = threshold x loo_sd, and not below it (the prediction from the
-    others does not depend on the reading itself). The loo_sd is the conditional sd of a
-    Gaussian, 1 / sqrt((Sigma^-1)_ii) with Sigma = S + G (alpha P)^-1 G^T (the textbook
-    conditioning identity, computed here with numpy)."""
+    """At one alpha: a reading sitting at its prediction from the others is flagged once a
+    fixed offset exceeds caught_offset = threshold x loo_sd, and not below it (the prediction
+    from the others does not depend on the reading itself). The loo_sd against the
+    conditional sd of a Gaussian, 1 / sqrt((Sigma^-1)_ii) with Sigma = S + G (alpha P)^-1 G^T
+    (the leave-one-out predictive variance, e.g. Rasmussen & Williams, Gaussian Processes for
+    Machine Learning, sec. 5.4.2, from memory; computed here with numpy)."""
     n, alpha = 20, 0.05
     rng, G, p = layout(n, 10, 5)
     d = readings(rng, G, p, 0.5)
@@ -149,7 +150,42 @@ def test_sensors_the_others_cannot_check_are_named_once():
     table = pd.DataFrame({"sensor": ["A", "B", "C", "D"], "caught_offset": [2.0, 14.0, 31.0, 50.0],
                           "flag": ["ok", "ok", "suspect", "set aside"]})
     (w,) = unchecked_warnings(table)
-    assert w.startswith("2 of 3 sensors (B, C) cannot be checked") and "14-31 K" in w
+    assert w.startswith("2 of 3 sensors (B, C) are checked by the others only for large faults") and "14-31 K" in w
     assert unchecked_warnings(table.assign(caught_offset=[UNCHECKED_OFFSET_K] * 4)) == []
     (w,) = unchecked_warnings(table.assign(caught_offset=[12.0] * 4))
-    assert w.startswith("None of the sensors can be checked") and "beyond 12 K" in w
+    assert w.startswith("Every sensor is checked by the others only for large faults") and "beyond 12 K" in w
+    (w,) = unchecked_warnings(table.assign(caught_offset=[2.0, 2.0, 152.4, 50.0]))
+    assert w.startswith("Sensor C is checked") and "beyond 152 K" in w and "near it " in w
+
+
+def test_caught_offset_of_the_averaged_check_is_where_the_score_crosses_the_threshold():
+    """The screening's check is averaged over alpha (heavier tails than one Gaussian): the
+    caught offset is half the distance between the two readings whose score is -t and +t,
+    found here by scipy's brentq on the score itself; a set-aside sensor has none."""
+    from scipy.optimize import brentq
+
+    n = 20
+    rng, G, p = layout(n, 10, 31)
+    d = readings(rng, G, p, 0.5)
+    prob = LinearGaussianProblem(G, d, 20.0, np.full(n, 0.25), p)
+    t = default_threshold(n)
+    sc = averaged_loo(prob)
+    caught = sc.caught_offset(t)
+    for i in (0, 13):
+        def score(x):
+            e = d.copy()
+            e[i] = x
+            return averaged_loo(prob.with_data(e)).z[i]
+        m, wide = sc.predicted[i], 50 * sc.sd[i]
+        hi = brentq(lambda x: score(x) - t, m, m + wide, xtol=1e-10)
+        lo = brentq(lambda x: score(x) + t, m - wide, m, xtol=1e-10)
+        assert caught[i] == pytest.approx(0.5 * (hi - lo), rel=1e-6)
+        assert caught[i] > t * sc.sd[i] * 0.99            # the mixture's tails: not below t sd
+    bad = d.copy()
+    bad[7] += 8.0
+    out = screen_outliers(prob.with_data(bad))
+    assert out.table["flag"][7] == "set aside" and np.isnan(out.table["caught_offset"][7])
+    kept = out.problem
+    np.testing.assert_allclose(out.table["caught_offset"].drop(index=7).to_numpy(),
+                               averaged_loo(kept).caught_offset(default_threshold(kept.n)), rtol=1e-12)
+
