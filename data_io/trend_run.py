@@ -134,11 +134,11 @@ class TrendRun:
         from .. import inverse
         from .tables import offset_sd
 
-        def fit(readings, strength):
+        def fit(readings, strength, **overrides):
             try:
                 # logs are inverted with the smooth model (inverse.batch); "auto" means it here
                 model = "smooth" if getattr(self.case.fit, "model", "auto") == "auto" else None
-                return inverse.fit(self.case, readings, strength=strength, model=model)
+                return inverse.fit(self.case, readings, strength=strength, model=model, **overrides)
             except (InverseError, ForwardModelError) as exc:
                 raise InputError(f"fit of the reference window: {exc}", file=self.case.path) from None
 

@@ -34,6 +34,9 @@ REFERENCE_DRIFT_FRACTION = 0.25
 #: when streaming every Nth row, rows wait for the first steady window; past this many the
 #: steadiest complete window so far becomes the reference
 MAX_PENDING_ROWS = 200_000
+#: display grid (radial or axial, angular) of a reference fit whose map nobody sees: the first
+#: of the two fits when the strength then comes from all steady windows
+PROBE_GRID = (3, 4)
 
 
 class TrendError(InverseError):
@@ -138,7 +141,8 @@ class TrendModel:
               steady=None, joint_evidence: bool = True, streaming_hint: bool = False) -> "TrendModel":
         """Fit the reference window i and fix the sensors and strengths.
 
-        fit(readings, strength) -> FitResult (strength None: the case's rule); offset_sd(level
+        fit(readings, strength, **overrides) -> FitResult (strength None: the case's rule;
+        overrides: inverse.fit's, here the display grid); offset_sd(level
         (n,) [K]) -> (tau (n,) [K], notes); steady: indices of every steady window (windows
         mode) for the joint evidence, used when joint_evidence (the case asks for the
         evidence), else None (streaming: the reference window's own choice stands)."""
@@ -162,13 +166,17 @@ class TrendModel:
             return u, BatchSolver.from_fit(result, s.r[u], s.theta[u], s.z[u], offset_sd=tau[u],
                                            position_tolerance=s.position_tolerance[u], zones=zones)
 
-        result = fit(rd, None)
+        joint = steady is not None and joint_evidence
+        # followed by the fit at the joint strength, this one gives only its screening, model
+        # and prior: its face map is never shown, so it is evaluated on a token grid (the bands
+        # on the display grid cost ~1.3 s of a 7 s part)
+        result = fit(rd, None, **({"grid": PROBE_GRID} if joint else {}))
         aside = set(result.summary["set_aside"])
         used, solver = solver_for(result, aside)
         strength_rule = f"{result.summary['strength_method']} of the reference window"
         sig2 = stats.sigma(floor) ** 2
         means = np.where(stats.valid, stats.mean, np.nan)
-        if steady is not None and joint_evidence:
+        if joint:
             alpha, notes = solver.joint_strength(means[steady][:, used], sig2[steady][:, used])
             warnings.extend(notes)
             result = fit(rd, alpha)

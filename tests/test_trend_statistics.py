@@ -99,7 +99,7 @@ def test_model_of_a_reference_window():
     stats, mask = steady.detect(t, x, WINDOW, drift_limit=0.5)
     sensors = trend.SensorSet(list(lay.index), lay["r"].to_numpy(), lay["theta"].to_numpy(), lay["z"].to_numpy(),
                               np.full(n, 0.5), np.zeros(n))
-    model = trend.TrendModel.build(lambda rd, strength: inverse.fit(case, rd, strength=strength), stats, 0, sensors,
+    model = trend.TrendModel.build(lambda rd, strength, **kw: inverse.fit(case, rd, strength=strength, **kw), stats, 0, sensors,
                                    lambda level: (np.full(n, 0.3), []), floor=0.05, zones=case.zones)
     assert model.ref_window == (0.0, WINDOW - DT) and model.used.all()
     assert model.strength_rule.endswith("of the reference window") and model.change_rule.startswith("half")
