@@ -115,3 +115,29 @@ def test_model_of_a_reference_window():
     with pytest.raises(trend.TrendError, match="only 0 sensor"):
         empty = steady.detect(t, np.full_like(x, np.nan), WINDOW)[0]
         trend.TrendModel.build(None, empty, 0, sensors, lambda level: (np.zeros(n), []), floor=0.05)
+
+
+def test_the_replaced_reference_fit_runs_on_a_token_grid():
+    """With the strength from all steady windows the reference window is fitted twice; only
+    the second answer is kept, so the first runs on trend.PROBE_GRID and the kept one on the
+    display grid (41 x 72 points by default)."""
+    from heatsight import inverse
+
+    case, lay, t_nom, _, _ = platen()
+    n = len(lay)
+    rng = np.random.default_rng(4)
+    t = np.arange(0.0, 3 * WINDOW, DT)
+    x = t_nom[None, :] + rng.normal(0.0, 0.05, (t.size, n))
+    stats, mask = steady.detect(t, x, WINDOW, drift_limit=0.5)
+    sensors = trend.SensorSet(list(lay.index), lay["r"].to_numpy(), lay["theta"].to_numpy(), lay["z"].to_numpy(),
+                              np.full(n, 0.5), np.zeros(n))
+    calls = []
+
+    def fit(rd, strength, **kw):
+        calls.append((strength, kw))
+        return inverse.fit(case, rd, strength=strength, **kw)
+
+    model = trend.TrendModel.build(fit, stats, 0, sensors, lambda level: (np.full(n, 0.3), []), floor=0.05,
+                                   zones=case.zones, steady=np.flatnonzero(mask))
+    assert [kw for _, kw in calls] == [{"grid": trend.PROBE_GRID}, {}] and calls[1][0] is not None
+    assert len(model.result.grid) == 41 * 72 and model.strength_rule.startswith("joint evidence")
