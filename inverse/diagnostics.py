@@ -75,7 +75,7 @@ def sensor_table(problem: LinearGaussianProblem, alpha: float, names=None,
     """
     alpha = float(alpha)
     t = default_threshold(problem.n) if threshold is None else float(threshold)
-    loo = LooScores(problem.standardized_loo(alpha), problem.loo_predicted(alpha), problem.loo_sd(alpha))
+    loo = LooScores.at(problem, alpha)
     z = loo.z
     fitted = problem.fitted(alpha)
     return pd.DataFrame({
@@ -104,6 +104,11 @@ class LooScores:
     sd: np.ndarray
     components: tuple | None = None
 
+    @classmethod
+    def at(cls, problem: LinearGaussianProblem, alpha: float) -> "LooScores":
+        """The check at one alpha: z = standardized LOO error, E[d_i | d_-i] and its sd."""
+        return cls(problem.standardized_loo(alpha), problem.loo_predicted(alpha), problem.loo_sd(alpha))
+
     def caught_offset(self, threshold: float) -> np.ndarray:
         """(n,) [K]: the smallest fixed offset of a reading, from the middle of its predictive
         distribution given the others, that the check flags: half the width of the interval
@@ -112,13 +117,8 @@ class LooScores:
         t = float(threshold)
         if self.components is None:
             return t * self.sd
-        w, mean, sd = self.components
-        level = 2.0 * float(ndtr(t)) - 1.0
-        out = np.empty(self.sd.size)
-        for i in range(out.size):
-            lo, hi = mixture_band(w[:, i], mean[:, i:i + 1], sd[:, i:i + 1], level)
-            out[i] = 0.5 * float(hi[0] - lo[0])
-        return out
+        lo, hi = mixture_band(*self.components, 2.0 * float(ndtr(t)) - 1.0)     # weights per sensor
+        return 0.5 * (hi - lo)
 
 
 def averaged_loo(problem: LinearGaussianProblem, alphas=None) -> LooScores:
@@ -210,10 +210,7 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
     n_preset = len(out)
 
     def check(sub):
-        if fixed:
-            a = float(strength)
-            return LooScores(sub.standardized_loo(a), sub.loo_predicted(a), sub.loo_sd(a))
-        return averaged_loo(sub)
+        return LooScores.at(sub, float(strength)) if fixed else averaged_loo(sub)
 
     def limit(m):
         return default_threshold(m, family_level) if threshold is None else float(threshold)

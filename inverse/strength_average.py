@@ -32,7 +32,7 @@ from .strength import default_alphas
 def mixture_band(weights, means, sds, level: float = 0.95):
     """Equal-tailed `level` band (lower, upper) of the Gaussian mixture sum_i w_i N(mean_i, sd_i^2).
 
-    weights (m,), means and sds (m, q): solves F(x) = sum_i w_i Phi((x - mean_i) / sd_i) =
+    weights (m,), or (m, q) when each quantity has its own, means and sds (m, q): solves F(x) = sum_i w_i Phi((x - mean_i) / sd_i) =
     (1 -+ level) / 2 for each of the q quantities by Newton steps on F (F' = the mixture
     density) started at the moment-matched Gaussian quantile and kept inside a bisection
     bracket, until a Newton step is below NEWTON_STOP of the largest component sd taken where
@@ -46,8 +46,14 @@ def mixture_band(weights, means, sds, level: float = 0.95):
     w = np.asarray(weights, dtype=float)
     mi = np.asarray(means, dtype=float)
     si = np.maximum(np.asarray(sds, dtype=float), 1e-300)  # a pinned point (sd 0) keeps its mean
-    mean = w @ mi
-    sd = np.sqrt(w @ (si**2 + (mi - mean) ** 2))
+    shared = w.ndim == 1
+
+    def total(x, cols=slice(None)):
+        """sum_i w_i x_i per quantity (the columns `cols` of x)."""
+        return w @ x if shared else np.einsum("mq,mq->q", w[:, cols], x)
+
+    mean = total(mi)
+    sd = np.sqrt(total(si**2 + (mi - mean) ** 2))
     scale = np.maximum(np.max(si, axis=0), 1e-300)
 
     def quantile(prob):
@@ -59,8 +65,8 @@ def mixture_band(weights, means, sds, level: float = 0.95):
             m_, s_ = mi[:, act], si[:, act]
             with np.errstate(over="ignore"):          # a pinned component (sd ~ 0): exp(-inf) = 0
                 u = (x[act][None, :] - m_) / s_
-                F = w @ ndtr(u) - prob
-                dens = w @ (np.exp(-0.5 * u**2) / s_) / SQRT_2PI
+                F = total(ndtr(u), act) - prob
+                dens = total(np.exp(-0.5 * u**2) / s_, act) / SQRT_2PI
             lo[act] = np.where(F < 0, x[act], lo[act])
             hi[act] = np.where(F < 0, hi[act], x[act])
             with np.errstate(divide="ignore", invalid="ignore"):
