@@ -1,25 +1,28 @@
-"""Prior with learned hyperparameters: strength, length scale, Matern smoothness and the
-axisymmetric amplitude ratio.
+"""Prior with learned hyperparameters: strength, length scale, Matern smoothness, the
+axisymmetric amplitude ratio and the axisymmetric profile's dimension.
 
 Family (a Whittle-Matern form in the face eigenbasis):
 
-    c ~ N(c0, (alpha P(l, s, rho))^-1),   P_k(l, s, rho) = (N_k / A) (1 + l^2 ev_k)^s / rho_k^2,
+    c ~ N(c0, (alpha P(l, s, rho, s0))^-1),   P_k(l, s, rho, s0) = (N_k / A) (1 + l^2 ev_k)^s_k / rho_k^2,
 
 N_k = integral Phi_k^2 dA [m^2], A = face area [m^2], ev_k = surface eigenvalue [1/m^2],
 l = length scale [m], s = nu + d / 2 the exponent of Matern smoothness nu, rho_k = rho for the axisymmetric modes (m = 0)
 and 1 for the others: rho is the axisymmetric amplitude ratio, the sd of the face's
 axisymmetric part (its radial profile on an end face, its axial profile on a wall) relative
-to a stationary field's. The nominal direction (the fitted level of the
+to a stationary field's; s_k = s0 = nu + d0 / 2 for the axisymmetric modes and s for the
+others, d0 the axisymmetric part's dimension: with d0 = 2 it is the angular mean of the
+face's field, a profile of smoothness nu + 1/2; with d0 = 1 a profile of its own along the
+radius (or height), as rough as the field (smoothness nu). The nominal direction (the fitted level of the
 nominal profile) keeps its nearly flat prior: its P_k is multiplied by `nominal_factor`.
 The strength is written through the amplitude sigma_f [face unit]:
 
-    sigma_f^2 = (1 / alpha) sum_k' 1 / w_k,   w_k = (1 + l^2 ev_k)^s / rho_k^2,
+    sigma_f^2 = (1 / alpha) sum_k' 1 / w_k,   w_k = (1 + l^2 ev_k)^s_k / rho_k^2,
 
 (k' = all but the nominal direction) = the prior mean square of the face's deviation from
-the nominal profile over the face, so that sigma_f means the same thing for every (l, s, rho).
+the nominal profile over the face, so that sigma_f means the same thing for every (l, s, rho, s0).
 
 Hyperpriors (proper, weakly informative):
-- log sigma_f ~ N(log sigma_ref(l, s, rho), LOG_AMPLITUDE_SD^2), LOG_AMPLITUDE_SD = ln(10) / 4
+- log sigma_f ~ N(log sigma_ref(l, s, rho, s0), LOG_AMPLITUDE_SD^2), LOG_AMPLITUDE_SD = ln(10) / 4
   (95 % of the mass within a factor 3 of sigma_ref). sigma_ref is the amplitude whose
   prior-predictive whitened signal variance, averaged over the sensors, equals
   max(mean(y^2) - 1, 1): the readings' whitened spread about the nominal profile beyond the
@@ -36,8 +39,8 @@ Hyperpriors (proper, weakly informative):
 - log l uniform on [D / 20, 4 D], D = the face's size (the radius for an end face, the
   larger of radius and height for the side): from well below the sensor spacing of any
   practical layout to smoother than the face itself.
-- log2 rho ~ N(1, 2^2) on the points rho = 2^-3 ... 2^7 (AXISYMMETRIC_RATIOS, weights
-  normalized over the points; the outer points lie 2 and 3 sd out). Heaters are mostly rings and
+- log2 rho ~ N(1, 1) on the points rho = 2^-2 ... 2^4 (AXISYMMETRIC_RATIOS, weights
+  normalized over the points; the outer points lie 3 sd out). Heaters are mostly rings and
   bands, so a face's profile along its radius (or its height) usually varies more than it
   does around the axis; one stationary amplitude learned from both is too large for the
   angular part and too small for the axisymmetric one. Measured on the one-sector platen
@@ -46,6 +49,14 @@ Hyperpriors (proper, weakly informative):
   heater's radial edge out to the insulated rim in every direction; the evidence rises with
   rho (log p(d) -38.4, -37.4, -36.6, -36.1 at rho = 1, 2, 3, 5) and at rho = 5 the power is
   606.3 +- 5.4 W (0.3 sd). Skipped where the face has no free axisymmetric mode (a long tube).
+- d0 uniform on {1, 2} (PROFILE_DIMENSIONS) where the face has free axisymmetric modes and
+  d = 2. Ring heaters, contact rings and band heaters are one-dimensional features with edges
+  of their own, as sharp as anything else on the face, while the angular mean of a
+  two-dimensional field is half an order smoother than the field: with d0 = 2 alone the
+  axisymmetric profile's bands were too narrow at a band heater's edge or a contact ring
+  between sensor rings (the modes of m >= 1 padded them). The evidence prefers d0 = 1 on most
+  finite-element scenarios and weighs the two per fit; figures in DEVELOPERS.md ("The
+  axisymmetric profile's dimension").
 - s = nu + d / 2, d = the face's dimension (2; 1 on a long part's wall, a circle), with the
   Matern smoothness nu uniform on {0.25, 0.5, 1, 1.5, 2} (SMOOTHNESS): the field's pointwise
   variance sum_k Phi_k(x)^2 / P_k converges only for s > d / 2, so with s <= d / 2 a band at a
@@ -62,11 +73,11 @@ Hyperpriors (proper, weakly informative):
   means become overconfident where the truth has a slope the basis cannot carry (an
   insulated rim: every eigenfunction is flat there).
 
-The evidence p(d | alpha, l, s, rho) comes from one thin SVD per (l, s, rho) (evidence_spectrum;
+The evidence p(d | alpha, l, s, rho, s0) comes from one thin SVD per point (evidence_spectrum;
 the full SVD of LinearGaussianProblem only where the posterior has weight); the
 amplitude is integrated on a grid in log sigma_f that is extended until both edges carry a
 negligible weight, so no answer depends on where that grid ends. The posterior of c is the
-mixture sum_i w_i N(c_i, C_i) over (sigma_f, l, s, rho) with weights evidence x hyperprior.
+mixture sum_i w_i N(c_i, C_i) over (sigma_f, l, s, rho, s0) with weights evidence x hyperprior.
 """
 
 from __future__ import annotations
@@ -89,17 +100,23 @@ SMOOTHNESS = (0.25, 0.5, 1.0, 1.5, 2.0)
 #: grid of the axisymmetric ratio rho (powers of 2) and its hyperprior: log2 rho ~ N(centre, sd^2)
 AXISYMMETRIC_RATIOS = tuple(2.0 ** k for k in range(-2, 5))
 RATIO_LOG2_CENTRE, RATIO_LOG2_SD = 1.0, 1.0
+#: the axisymmetric part's dimension d0 (its exponent nu + d0 / 2), uniform over the values
+PROFILE_DIMENSIONS = (1, 2)
+#: array elements (points x amplitudes x readings) of one block of the evidence's array
+#: operation: bounds its memory (a few arrays of this many doubles, 8 MB each)
+EVIDENCE_BLOCK = 2 ** 20
 #: grid step in units of LOG_AMPLITUDE_SD, starting half-width, and the weight (relative to
 #: the largest) below which an edge of the amplitude grid counts as negligible
 STEP, HALF_WIDTH, EDGE = 0.1, 5.0, 1e-9
 #: components whose weights sum to less than this are dropped from the mixture
 TAIL = 1e-3
-#: for pointwise bands over many points, neighbouring amplitudes of one (l, s, rho) are merged
-#: (moment-matched) until about this many components remain: the 95 % limits move by about
-#: 1 % of the sd (demo, 2952 points, against 1024 components: 0.46 % at 256, 1.0 % at 128;
-#: tests/test_inverse_hyperprior.py's prior-dominated case: 1.2 % at 256, 4 % at 128, where
-#: each (l, s, rho) is merged into one component)
-BAND_COMPONENTS = 256
+#: for pointwise bands over many points, neighbouring amplitudes of one (l, s, rho, s0) are
+#: merged (moment-matched) until about this many components remain: the 95 % limits move by
+#: about 1 % of the sd (demo, 2952 points, against 1024 components, before the profile
+#: dimension: 0.46 % at 256, 1.0 % at 128; tests/test_inverse_hyperprior.py's prior-dominated
+#: case, 4383 components with it: 3.4 % at 256, 1.0 % at 384, 1.4 % at 512 - the figure
+#: depends on where the groups fall, so read it as 1-1.5 %)
+BAND_COMPONENTS = 384
 #: posterior sd / prior sd of log sigma_f above which the hyperprior, not the data, sets the amplitude
 PRIOR_DOMINATED = 0.55  # a one-sided bound leaves ~0.6 (half-normal sd 0.60); informative data give 0.1-0.3
 
@@ -141,9 +158,16 @@ def face_size(basis) -> float:
     return cyl.radius
 
 
-def _weights(ev, axis, length, order, axisymmetric):
+def _weights(ev, axis, length, order, axisymmetric, axis_order=None):
+    if axis_order is not None and axis_order != order:
+        order = np.where(axis, axis_order, order)
     w = (1.0 + length ** 2 * ev) ** order
     return w if axisymmetric == 1.0 else w / np.where(axis, axisymmetric ** 2, 1.0)
+
+
+def profile_order(basis, order, dimension) -> float:
+    """s0 = nu + d0 / 2 for the precision exponent s = nu + d / 2 of the face (d = face_dimension)."""
+    return float(order) - 0.5 * (face_dimension(basis) - dimension)
 
 
 def axisymmetric_modes(basis) -> np.ndarray:
@@ -151,15 +175,16 @@ def axisymmetric_modes(basis) -> np.ndarray:
     return (basis.m == 0) & (np.arange(basis.m.size) < basis.n_eigen)
 
 
-def matern_weights(basis, length, order, axisymmetric=1.0) -> np.ndarray:
-    """w_k = (1 + l^2 ev_k)^s / rho_k^2 (dimensionless), rho_k = rho on the axisymmetric
-    eigenfunctions, else 1."""
-    return _weights(basis.surface_eigenvalues(), axisymmetric_modes(basis), length, order, axisymmetric)
+def matern_weights(basis, length, order, axisymmetric=1.0, axis_order=None) -> np.ndarray:
+    """w_k = (1 + l^2 ev_k)^s_k / rho_k^2 (dimensionless), rho_k = rho and s_k = axis_order (s0;
+    default s) on the axisymmetric eigenfunctions, else 1 and s."""
+    return _weights(basis.surface_eigenvalues(), axisymmetric_modes(basis), length, order, axisymmetric,
+                    axis_order)
 
 
-def matern_precision(basis, length, order, axisymmetric=1.0) -> np.ndarray:
-    """P_k = (N_k / A) w_k (dimensionless), l [m], s >= 0, rho > 0 (matern_weights)."""
-    return basis.norms() / face_area(basis) * matern_weights(basis, length, order, axisymmetric)
+def matern_precision(basis, length, order, axisymmetric=1.0, axis_order=None) -> np.ndarray:
+    """P_k = (N_k / A) w_k (dimensionless), l [m], s >= 0, rho > 0, s0 > 0 (matern_weights)."""
+    return basis.norms() / face_area(basis) * matern_weights(basis, length, order, axisymmetric, axis_order)
 
 
 def merge_neighbours(w, means, sds, group):
@@ -182,7 +207,7 @@ def _weighted_quantiles(x, w, q):
 
 
 class LearnedPrior:
-    """Posterior averaged over (sigma_f, l, s, rho); same interface as StrengthAverage.
+    """Posterior averaged over (sigma_f, l, s, rho, d0); same interface as StrengthAverage.
 
     problem: the LinearGaussianProblem of the fit (its prior mean c0, readings and noise are
     kept; its prior precision is replaced by the family). basis: the unknown-face basis
@@ -191,7 +216,7 @@ class LearnedPrior:
     """
 
     def __init__(self, problem: LinearGaussianProblem, basis, nominal=None, nominal_factor: float = 1.0,
-                 lengths=None, smoothness=None, spread=None, ratios=None):
+                 lengths=None, smoothness=None, spread=None, ratios=None, dimensions=None):
         a = face_size(basis)
         self.length_range = (LENGTH_RANGE[0] * a, LENGTH_RANGE[1] * a)
         self.lengths = (np.geomspace(*self.length_range, N_LENGTHS) if lengths is None
@@ -205,32 +230,40 @@ class LearnedPrior:
         nominal = np.zeros(K, dtype=bool) if nominal is None else np.asarray(nominal, dtype=bool)
         free = ~nominal
         ratios = AXISYMMETRIC_RATIOS if ratios is None else ratios
+        dimensions = PROFILE_DIMENSIONS if dimensions is None else dimensions
         axis = axisymmetric_modes(basis)
-        self.ratios = tuple(float(x) for x in ratios) if np.any(free & axis) else (1.0,)
+        # the axisymmetric part's own hyperparameters exist only where it has free modes, and
+        # its dimension only on a two-dimensional face
+        has_axis, d = bool(np.any(free & axis)), face_dimension(basis)
+        self.ratios = tuple(float(x) for x in ratios) if has_axis else (1.0,)
+        self.dimensions = tuple(int(x) for x in dimensions) if has_axis and d == 2 else (d,)
         Gw = problem.whitened_design
         spread = max(float(readings_spread(problem) if spread is None else spread), 1.0)
         self.problem = problem
         ev, scale = basis.surface_eigenvalues(), basis.norms() / face_area(basis)
-        combos, precisions, spectra, log_ref, T = [], [], [], [], []
+        combos, precisions, log_ref, T = [], [], [], []
         for rho in self.ratios:
-            for s in self.orders:
-                for l in self.lengths:
-                    w = _weights(ev, axis, l, s, rho)
-                    t = float(np.sum(1.0 / w[free]))
-                    P = scale * w                   # matern_precision(basis, l, s, rho)
-                    P[nominal] *= nominal_factor
-                    unit_signal = float(np.mean((Gw[:, free] ** 2) @ (1.0 / (P[free] * t))))
-                    combos.append((l, s, rho))
-                    precisions.append(P)
-                    spectra.append(evidence_spectrum(Gw, problem.y, P))
-                    log_ref.append(0.5 * math.log(spread / unit_signal))
-                    T.append(t)
-        self.combos, self._precisions, self._spectra, self._problems = combos, precisions, spectra, {}
-        # log hyperprior mass of each (l, s, rho) point: uniform over (l, s), log2 rho normal
+            for d0 in self.dimensions:
+                for s in self.orders:
+                    s0 = profile_order(basis, s, d0)
+                    for l in self.lengths:
+                        w = _weights(ev, axis, l, s, rho, s0)
+                        t = float(np.sum(1.0 / w[free]))
+                        P = scale * w                   # matern_precision(basis, l, s, rho, s0)
+                        P[nominal] *= nominal_factor
+                        unit_signal = float(np.mean((Gw[:, free] ** 2) @ (1.0 / (P[free] * t))))
+                        combos.append((l, s, rho, s0))
+                        precisions.append(P)
+                        log_ref.append(0.5 * math.log(spread / unit_signal))
+                        T.append(t)
+        self.combos, self._precisions, self._problems = combos, precisions, {}
+        # (s^2, beta) of every point, (combos, n) each
+        self._S2, self._Beta = (np.array(x) for x in zip(*(evidence_spectrum(Gw, problem.y, P) for P in precisions)))
+        # log hyperprior mass of each (l, s, rho, d0) point: uniform over (l, s, d0), log2 rho normal
         lr = -0.5 * ((np.log2(self.ratios) - RATIO_LOG2_CENTRE) / RATIO_LOG2_SD) ** 2
         lr -= math.log(np.sum(np.exp(lr)))
-        self.combo_log_prior = np.repeat(lr, len(self.orders) * self.lengths.size) - math.log(
-            len(self.orders) * self.lengths.size)
+        n_rest = len(self.dimensions) * len(self.orders) * self.lengths.size
+        self.combo_log_prior = np.repeat(lr, n_rest) - math.log(n_rest)
         self._log_ref, self._T = np.array(log_ref), np.array(T)
         self._integrate()
         self._prune()
@@ -240,14 +273,16 @@ class LearnedPrior:
         """log of evidence x hyperprior on the grid z = (log sigma_f - log sigma_ref) / LOG_AMPLITUDE_SD.
 
         Shape (combos, z). The hyperprior density of log sigma_f is N(z; 0, 1) / LOG_AMPLITUDE_SD
-        (the same Jacobian for every combo); (l, s, rho) carry combo_log_prior.
+        (the same Jacobian for every combo); (l, s, rho, d0) carry combo_log_prior.
         """
         out = np.empty((len(self.combos), zgrid.size))
         logdet = self.problem.noise.logdet
-        for j, (s2, beta) in enumerate(self._spectra):
-            alphas = self.alphas_for(j, zgrid)
-            out[j] = log_evidence_from_spectrum(s2, beta, alphas, logdet) - 0.5 * zgrid ** 2 + self.combo_log_prior[j]
-        return out
+        block = max(1, EVIDENCE_BLOCK // (zgrid.size * self._S2.shape[1]))
+        for j in range(0, len(self.combos), block):
+            rows = slice(j, j + block)
+            out[rows] = log_evidence_from_spectrum(self._S2[rows], self._Beta[rows], self.alphas_for(rows, zgrid),
+                                                   logdet)
+        return out - 0.5 * zgrid ** 2 + self.combo_log_prior[:, None]
 
     def problem_for(self, j) -> LinearGaussianProblem:
         """The LinearGaussianProblem of hyperparameter point j (combos[j]), built on first use:
@@ -258,9 +293,13 @@ class LearnedPrior:
         return self._problems[j]
 
     def alphas_for(self, j, z):
-        """alpha = T / sigma_f^2 for combo j at grid values z."""
-        log_sf = self._log_ref[j] + LOG_AMPLITUDE_SD * np.asarray(z, float)
-        return self._T[j] * np.exp(-2.0 * log_sf)
+        """alpha = T / sigma_f^2 for combo j at grid values z: (z,) for one combo, (combos, z)
+        for a slice or index array j."""
+        T, ref = self._T[j], self._log_ref[j]
+        if np.ndim(T):
+            T, ref = T[:, None], ref[:, None]
+        log_sf = ref + LOG_AMPLITUDE_SD * np.asarray(z, float)
+        return T * np.exp(-2.0 * log_sf)
 
     def _integrate(self):
         lo, hi = -HALF_WIDTH, HALF_WIDTH
@@ -308,7 +347,7 @@ class LearnedPrior:
         return [(pb.prior_diag, a, w) for pb, a, w in self._parts]
 
     def hyperparameters(self):
-        """[((length [m], order, axisymmetric ratio), alphas (n_i,), weights (n_i,))] of the
+        """[((length [m], order, axisymmetric ratio, axisymmetric order), alphas (n_i,), weights (n_i,))] of the
         mixture's components."""
         return [(ls, a, w) for ls, (_, a, w) in zip(self._part_combos, self._parts)]
 
@@ -326,7 +365,7 @@ class LearnedPrior:
 
     def band_components(self, B, offset, limit=None):
         """Weights (m,), means and sds (m, q) of the mixture's components for offset + B c;
-        with `limit`, neighbouring amplitudes of one (l, s, rho) are merged (merge_neighbours)."""
+        with `limit`, neighbouring amplitudes of one (l, s, rho, s0) are merged (merge_neighbours)."""
         means, sds, ws = [], [], []
         n_total = sum(a.size for _, a, _ in self._parts)
         group = 1 if limit is None else max(1, math.ceil(n_total / limit))
@@ -364,9 +403,11 @@ class LearnedPrior:
 
     # ------------------------------------------------------------------ what the data chose
     def _marginals(self):
-        n_l = self.lengths.size
-        by_combo = self.weights.sum(axis=1).reshape(len(self.ratios), len(self.orders), n_l)
-        return by_combo.sum(axis=(0, 1)), by_combo.sum(axis=(0, 2)), by_combo.sum(axis=(1, 2))
+        """Posterior weights of the length scales, orders, axisymmetric ratios and profile dimensions."""
+        by_combo = self.weights.sum(axis=1).reshape(len(self.ratios), len(self.dimensions), len(self.orders),
+                                                    self.lengths.size)
+        return (by_combo.sum(axis=(0, 1, 2)), by_combo.sum(axis=(0, 1, 3)), by_combo.sum(axis=(1, 2, 3)),
+                by_combo.sum(axis=(0, 2, 3)))
 
     def amplitude_posterior(self):
         """(posterior mean, sd) of z = (log sigma_f - log sigma_ref) / LOG_AMPLITUDE_SD; prior N(0, 1)."""
@@ -390,10 +431,10 @@ class LearnedPrior:
         return tuple(out)
 
     def description(self) -> dict:
-        """What the data chose, for summary.json: length scale mode and 90 % range [m], order
-        and axisymmetric-ratio weights, 90 % ranges of alpha and of the amplitude sigma_f [face unit], and how far
-        the amplitude's posterior narrowed its prior."""
-        w_l, w_s, w_r = self._marginals()
+        """What the data chose, for summary.json: length scale mode and 90 % range [m], order,
+        axisymmetric-ratio and (where averaged) profile-dimension weights, 90 % ranges of alpha and
+        of the amplitude sigma_f [face unit], and how far the amplitude's posterior narrowed its prior."""
+        w_l, w_s, w_r, w_d = self._marginals()
         ll = np.log(self.lengths)
         l90 = np.exp(_weighted_quantiles(ll, w_l, (0.05, 0.95))) if self.lengths.size > 1 else \
             np.repeat(self.lengths, 2)
@@ -406,7 +447,7 @@ class LearnedPrior:
         a90 = np.exp(_weighted_quantiles(np.log(alph), wts, (0.05, 0.95)))
         s90 = np.exp(_weighted_quantiles(log_sf, wts, (0.05, 0.5, 0.95)))
         _, zsd = self.amplitude_posterior()
-        return {
+        out = {
             "family": "whittle-matern", "length_scale_m": float(self.lengths[int(np.argmax(w_l))]),
             "length_scale_90_m": [float(l90[0]), float(l90[1])],
             "length_scale_hyperprior_m": [float(self.length_range[0]), float(self.length_range[1])],
@@ -418,9 +459,13 @@ class LearnedPrior:
             "hyperprior_dominated": bool(zsd > PRIOR_DOMINATED),
             "log_marginal_likelihood": self.log_marginal,
         }
+        if len(self.dimensions) > 1:
+            out["axisymmetric_dimension_weights"] = {f"{d}": float(w) for d, w in zip(self.dimensions, w_d)}
+        return out
 
 
 def learn_prior(problem: LinearGaussianProblem, basis, nominal=None, nominal_factor: float = 1.0,
                 spread=None) -> LearnedPrior:
-    """Posterior of the unknown face averaged over strength, length scale and order (see module doc)."""
+    """Posterior of the unknown face averaged over strength, length scale, order, axisymmetric
+    ratio and profile dimension (see module doc)."""
     return LearnedPrior(problem, basis, nominal, nominal_factor, spread=spread)

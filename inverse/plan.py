@@ -172,17 +172,18 @@ def _with_tails(targets, tails):
 # ------------------------------------------------------------------------------ the covariance
 def dominant_component(posterior, problem):
     """(LinearGaussianProblem, alpha, weight, text) of the component the planner uses: for a
-    learned prior the (length scale, order, axisymmetric ratio) of largest posterior weight (summed over the
+    learned prior the (length scale, order, axisymmetric ratio and order) of largest posterior weight (summed over the
     amplitude) at its amplitude of largest weight."""
     avg = posterior.averaged
     parts = getattr(avg, "_parts", None)
-    if parts:                                    # learned prior: (problem, alphas, weights) per (l, s, rho)
-        best = max(range(len(parts)), key=lambda k: float(np.sum(parts[k][2])))   # the (l, s, rho) of largest weight
+    if parts:                                    # learned prior: (problem, alphas, weights) per (l, s, rho, s0)
+        best = max(range(len(parts)), key=lambda k: float(np.sum(parts[k][2])))   # the (l, s, rho, s0) of largest weight
         pb, a, w = parts[best]
         i = int(np.argmax(w))                                        # its amplitude of largest weight
-        length, order, rho = avg.hyperparameters()[best][0]
+        length, order, rho, axis_order = avg.hyperparameters()[best][0]
+        own = f" (axisymmetric part {axis_order:g})" if axis_order != order else ""
         text = (f"the learned prior's dominant hyperparameters: length scale {length * 1e3:.3g} mm, order "
-                f"{order:g}, axisymmetric ratio {rho:g} (weight {float(np.sum(w)):.2f}), strength {a[i]:.3g}")
+                f"{order:g}{own}, axisymmetric ratio {rho:g} (weight {float(np.sum(w)):.2f}), strength {a[i]:.3g}")
         return pb, float(a[i]), float(np.sum(w)), text
     if avg is not None and hasattr(avg, "alpha_mixture"):
         a, w = avg.alpha_mixture()

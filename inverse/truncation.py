@@ -6,11 +6,11 @@ and a fit that assumes those modes are zero explains their signal with the kept 
 biased zone means and power with confident bands, and healthy sensors that look broken.
 Under the prior family of the fit (hyperprior.py) the left-out modes k are independent,
 
-    c_k ~ N(0, 1 / (alpha P_k(l, s, rho))),   P_k = (N_k / A) (1 + l^2 ev_k)^s / rho_k^2,
+    c_k ~ N(0, 1 / (alpha P_k(l, s, rho, s0))),   P_k = (N_k / A) (1 + l^2 ev_k)^s_k / rho_k^2,
 
 so their signal at the sensors is Gaussian with covariance
 
-    S_tail = G_tail diag(v) G_tail^T,   v_k = E[1 / (alpha P_k(l, s, rho))]  [K^2],
+    S_tail = G_tail diag(v) G_tail^T,   v_k = E[1 / (alpha P_k(l, s, rho, s0))]  [K^2],
 
 the expectation over the hyperparameters' posterior. The fit adds S_tail to the noise.
 G_tail: the fields of an enlarged basis's eigenfunctions that the fit's basis does not keep,
@@ -66,8 +66,8 @@ def _tail_variances(big, mask, prior) -> np.ndarray:
     """v_k = E[1 / (alpha P_k)] (T,) [unit^2] of `big`'s modes in `mask`, averaged over the
     hyperparameter posterior of `prior`."""
     v = np.zeros(int(mask.sum()))
-    for (length, order, rho), alphas, w in prior.hyperparameters():
-        v += float(w @ (1.0 / alphas)) / matern_precision(big, length, order, rho)[:big.n_eigen][mask]
+    for (length, order, rho, axis_order), alphas, w in prior.hyperparameters():
+        v += float(w @ (1.0 / alphas)) / matern_precision(big, length, order, rho, axis_order)[:big.n_eigen][mask]
     return v
 
 

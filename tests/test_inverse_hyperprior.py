@@ -20,11 +20,11 @@ A, L, K = 0.08, 0.03, 20.0
 SIGMA = 0.2
 
 
-def make(sigma=SIGMA, n=14, seed=3, amplitude=5.0, nominal_factor=1e-4):
+def make(sigma=SIGMA, n=14, seed=3, amplitude=5.0, nominal_factor=1e-4, terms=4):
     cyl = fw.Cylinder(A, L, K)
     faces = {"bottom": fw.UnknownTemperature(), "top": fw.Convection(50.0, 300.0), "side": fw.Insulated()}
     model = fw.CylinderModel(cyl, faces, tolerance=1e-8)
-    basis = model.basis(2, 4)
+    basis = model.basis(2, terms)
     rng = np.random.default_rng(seed)
     r = A * np.sqrt(rng.uniform(0, 0.9, n))
     th = rng.uniform(0, 2 * np.pi, n)
@@ -44,11 +44,13 @@ def test_log_evidence_matches_multivariate_normal_density():
     basis, prob, nominal = make()
     lp = learn_prior(prob, basis, nominal, 1.0)
     n_ls = lp.lengths.size * len(lp.orders)
-    # (l, s, rho) points whose predictive covariance scipy can factor, at rho = 1/2, 1 and 8
-    for j in (0, 7, 12, n_ls + 7, 4 * n_ls + 12):
+    n_rho = n_ls * len(lp.dimensions)
+    # (l, s, rho, s0) points whose predictive covariance scipy can factor, at rho = 1/4 (both
+    # profile dimensions), 1/2 and 2
+    for j in (0, 7, 12, n_ls + 7, n_rho + 7, 3 * n_rho + 12):
         pb = lp.problem_for(j)
-        l, s, rho = lp.combos[j]
-        P = matern_precision(basis, l, s, rho)
+        l, s, rho, s0 = lp.combos[j]
+        P = matern_precision(basis, l, s, rho, s0)
         np.testing.assert_allclose(pb.prior_diag, P, rtol=1e-12)
         for z in (-2.0, 0.0, 1.0):
             alpha = float(lp.alphas_for(j, z))
@@ -75,7 +77,7 @@ def test_amplitude_integral_matches_quad():
         # abs: quad's own accuracy on (l, s) points carrying ~1e-9 of the weight
         assert grid.sum() == pytest.approx(val, rel=1e-6, abs=1e-7)
         total += val
-    # marginal likelihood over (sigma_f, l, s, rho) with the hyperprior's mass on the (l, s, rho) points
+    # marginal likelihood over (sigma_f, l, s, rho, s0) with the hyperprior's mass on the (l, s, rho, s0) points
     assert np.exp(lp.combo_log_prior).sum() == pytest.approx(1.0, rel=1e-12)
     assert total == pytest.approx(1.0, rel=1e-6)
 
@@ -192,14 +194,14 @@ def test_axisymmetric_ratio_learned_from_the_readings(rho_true, side):
 
 
 def test_evidence_from_the_spectrum_equals_the_full_svd_at_every_point():
-    # the learned prior weighs every (l, s, rho) point from an n x n eigendecomposition and
+    # the learned prior weighs every (l, s, rho, s0) point from a thin SVD without V and
     # builds the full SVD only where the posterior has weight: the two must agree everywhere
     basis, prob, nominal = make()
     lp = learn_prior(prob, basis, nominal, 1e-4)
     for j in range(0, len(lp.combos), 5):
         z = lp.z[:: max(1, lp.z.size // 7)]
         alphas = lp.alphas_for(j, z)
-        s2, beta = lp._spectra[j]
+        s2, beta = lp._S2[j], lp._Beta[j]
         fast = log_evidence_from_spectrum(s2, beta, alphas, prob.noise.logdet)
         np.testing.assert_allclose(fast, lp.problem_for(j).log_evidence(alphas), rtol=1e-9, atol=1e-8)
 
@@ -230,3 +232,36 @@ def test_merged_band_limits_stay_within_a_few_per_cent_of_the_sd():
     lo_ref, hi_ref = mixture_band(w, mi, si)
     assert np.max(np.abs(lo - lo_ref) / sd) < 0.03
     assert np.max(np.abs(hi - hi_ref) / sd) < 0.03
+
+
+# ------------------------------------------------------------------ the axisymmetric profile's dimension
+def test_profile_dimension_sets_only_the_axisymmetric_exponent():
+    # Whittle-Matern exponent nu + d/2 (the SPDE link between smoothness and the precision's
+    # power, Lindgren, Rue & Lindstrom 2011, from memory): the axisymmetric modes of a profile
+    # of its own (d0 = 1) have exponent nu + 1/2, the face's other modes nu + 1
+    basis, prob, nominal = make()
+    l, nu = 0.4 * A, 1.0
+    s = hyperprior.matern_exponent(basis, nu)
+    s0 = hyperprior.profile_order(basis, s, 1)
+    assert s == pytest.approx(nu + 1.0) and s0 == pytest.approx(nu + 0.5)
+    ev = basis.surface_eigenvalues()
+    expect = np.where(hyperprior.axisymmetric_modes(basis), (1 + l**2 * ev) ** (nu + 0.5), (1 + l**2 * ev) ** (nu + 1))
+    np.testing.assert_allclose(hyperprior.matern_weights(basis, l, s, 1.0, s0), expect, rtol=1e-13)
+    np.testing.assert_allclose(hyperprior.matern_weights(basis, l, s, 1.0, s), (1 + l**2 * ev) ** s, rtol=1e-13)
+    lp = learn_prior(prob, basis, nominal, 1e-4)
+    assert lp.dimensions == hyperprior.PROFILE_DIMENSIONS
+    assert set(lp.description()["axisymmetric_dimension_weights"]) == {"1", "2"}
+
+
+def test_profile_dimension_is_averaged_with_equal_prior_odds():
+    # p(d) of the family averaged over d0 in {1, 2} with prior 1/2 each equals the mean of the
+    # two single-dimension families' p(d) (law of total probability), and the reported weights
+    # are their posterior odds
+    basis, prob, nominal = make(n=40, sigma=0.05, terms=10)
+    both = learn_prior(prob, basis, nominal, 1e-4)
+    one, two = (LearnedPrior(prob, basis, nominal, 1e-4, dimensions=(d,)) for d in (1, 2))
+    expect = np.logaddexp(one.log_marginal, two.log_marginal) - math.log(2.0)
+    # (each amplitude grid ends where its edges carry < 1e-9 of the peak: agreement to ~1e-9)
+    assert both.log_marginal == pytest.approx(expect, abs=1e-7)
+    w1 = both.description()["axisymmetric_dimension_weights"]["1"]
+    assert w1 == pytest.approx(1.0 / (1.0 + math.exp(two.log_marginal - one.log_marginal)), abs=1e-7)

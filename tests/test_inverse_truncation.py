@@ -23,7 +23,7 @@ class OneComponent:
     """A stand-in for LearnedPrior with a single (l, s, alpha) component."""
 
     def __init__(self, length, order, alpha):
-        self.h = [((length, order, 1.0), np.array([alpha]), np.array([1.0]))]
+        self.h = [((length, order, 1.0, order), np.array([alpha]), np.array([1.0]))]
 
     def hyperparameters(self):
         return self.h

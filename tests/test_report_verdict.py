@@ -257,7 +257,8 @@ def test_keys_of_newer_fits_are_shown_when_present(demo):
     s.update(model="zones", model_weights={"smooth": 0.1, "zones": 0.9},
              unresolved="these readings cannot resolve zone inner",
              prior={"length_scale_m": 0.04, "length_scale_90_m": [0.02, 0.08], "hyperprior_dominated": True,
-                    "axisymmetric_ratio_weights": {"1": 0.1, "4": 0.7, "8": 0.2}})
+                    "axisymmetric_ratio_weights": {"1": 0.1, "4": 0.7, "8": 0.2},
+                    "axisymmetric_dimension_weights": {"1": 0.8, "2": 0.2}})
     res = dataclasses.replace(demo.raw, summary=s)
     text = " ".join(verdict.verdict(res))
     frac = 100 * weak["power_W"] / 150.0
@@ -267,6 +268,7 @@ def test_keys_of_newer_fits_are_shown_when_present(demo):
     html = report.render_report(res, figures={})
     assert "share of nominal power" in html and "length scale 40 mm (90 % range 20 to 80 mm)" in html
     assert "axisymmetric part (rings, bands) 4 times as strong as the rest (probability 0.70)" in html
+    assert "the rings and bands with edges of their own, as rough as the rest of the face (probability 0.80)" in html
 
 
 def test_extremes_stand_in_for_zones(demo):

@@ -34,30 +34,34 @@ FAST = ("platen_flux", "top_temperature", "side_flux", "calibrated_convection", 
 HOLLOW = ("tube_bore_temperature", "tube_bore_flux")  # issue 11: the bore of a process tube
 
 # Goals not met by the fit (scale 0.5, seed 0, default fit: model "auto" (the smooth and the
-# zone model averaged by their evidence), learned prior with the axisymmetric ratio, the
-# left-out modes marginalized into the noise, gross-fault and model-first screening, the
-# unseen-wall corner columns).  Met since the suite was written: platen coverage (0.76 ->
-# 0.88), power (+2.5 -> -0.4 sd) and zone means (0/3 -> 3/3), top_temperature sharpness
-# (1.33 -> 0.28), side_flux relative RMS and sharpness (0.41, 0.21), chuck coverage and zones
-# (0.02 -> 1.00, 0/4 -> 4/4), the cooled-end wall's power (+12 -> -1.5 sd), coverage (0.76 ->
-# 0.87), zone means (0/2 -> 2/2) and sensors (healthy TC19 no longer set aside), the tube
-# bore flux's sharpness (1.02 -> 0.79), pooled coverage (0.70 -> 0.92), calibrated convection's
-# relative RMS (0.54 -> 0.49) and zone means (0/2 -> 2/2: calibration under the learned prior
-# and with the zone model).
+# zone model averaged by their evidence), learned prior with the axisymmetric ratio and the
+# axisymmetric profile's dimension, the left-out modes marginalized into the noise,
+# gross-fault and model-first screening, the unseen-wall corner columns).  Met since the suite
+# was written: platen coverage (0.76 -> 0.88), power (+2.5 -> -0.4 sd) and zone means (0/3 ->
+# 3/3), top_temperature sharpness (1.33 -> 0.28) and coverage (0.84 -> 0.88, the profile of
+# its own for the contact ring), side_flux relative RMS and sharpness (0.41, 0.21), chuck
+# coverage and zones (0.02 -> 1.00, 0/4 -> 4/4), the cooled-end wall's power (+12 -> -1.5 sd),
+# coverage (0.76 -> 0.87), zone means (0/2 -> 2/2) and sensors (healthy TC19 no longer set
+# aside), pooled coverage (0.70 -> 0.92), calibrated convection's relative RMS (0.54 -> 0.47)
+# and zone means (0/2 -> 2/2: calibration under the learned prior and with the zone model).
+# The tube bore flux's sharpness was met (1.02 -> 0.79) and is lost again to the profile
+# dimension (below).
 NOT_MET = {
-    ("platen_flux", "rel_rms"): "0.83", ("platen_flux", "sharpness"): "1.58",
-    ("top_temperature", "coverage"): "0.84 (the contact ring between the sensor rings; bands no longer "
-                                     "widened by the basis size, which gave 0.88)",
-    ("top_temperature", "zones"): "4 of 6 (centre +2.4, contact ring -2.6 sd)",
-    ("calibrated_convection", "sharpness"): "1.03",
+    ("platen_flux", "rel_rms"): "0.76", ("platen_flux", "sharpness"): "1.69",
+    ("top_temperature", "zones"): "4 of 6 (centre +2.1, contact ring -2.2 sd)",
+    ("calibrated_convection", "sharpness"): "1.10",
     ("chuck_class2", "rel_rms"): "1.04",
-    ("tube_bore_temperature", "sharpness"): "1.28, from the kept broken TC07 (with its 6 K taken off: "
-                                            "0.92, relative RMS 0.29, coverage 0.99)",
-    ("tube_bore_temperature", "zones"): "4 of 6 (cool streak +3.6, bore 90-180 deg +2.9 sd)",
+    ("tube_bore_temperature", "sharpness"): "1.32, from the kept broken TC07 (with its 6 K taken off: "
+                                            "0.92, relative RMS 0.29, coverage 0.99, before the profile "
+                                            "dimension)",
+    ("tube_bore_temperature", "zones"): "4 of 6 (cool streak +3.7, bore 90-180 deg +2.8 sd)",
     ("tube_bore_temperature", "sensors"): "broken TC07 (6 K high, 10 mm from the bore) kept: the others "
                                           "catch an offset of a sensor there only beyond its caught "
                                           "offset (the fit warns)",
-    ("tube_bore_flux", "zones"): "5 of 7 (fouled side -5.4, bore 0-90 deg +3.9 sd)",
+    ("tube_bore_flux", "sharpness"): "1.13 (0.87 before the axisymmetric profile's dimension: its rough "
+                                     "1-D prior, which the evidence here prefers by 0.6 only, widens the "
+                                     "bands along the bore where coverage was 0.96; now 0.97)",
+    ("tube_bore_flux", "zones"): "5 of 7 (fouled side -5.5, bore 0-90 deg +4.0 sd)",
 }
 
 
