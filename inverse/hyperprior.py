@@ -258,7 +258,8 @@ class LearnedPrior:
                         T.append(t)
         self.combos, self._precisions, self._problems = combos, precisions, {}
         # (s^2, beta) of every point, (combos, n) each
-        self._S2, self._Beta = (np.array(x) for x in zip(*(evidence_spectrum(Gw, problem.y, P) for P in precisions)))
+        spectra = [evidence_spectrum(Gw, problem.y, P) for P in precisions]
+        self._S2, self._Beta = np.array([x for x, _ in spectra]), np.array([b for _, b in spectra])
         # log hyperprior mass of each (l, s, rho, d0) point: uniform over (l, s, d0), log2 rho normal
         lr = -0.5 * ((np.log2(self.ratios) - RATIO_LOG2_CENTRE) / RATIO_LOG2_SD) ** 2
         lr -= math.log(np.sum(np.exp(lr)))

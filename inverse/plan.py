@@ -177,7 +177,8 @@ def dominant_component(posterior, problem):
     avg = posterior.averaged
     parts = getattr(avg, "_parts", None)
     if parts:                                    # learned prior: (problem, alphas, weights) per (l, s, rho, s0)
-        best = max(range(len(parts)), key=lambda k: float(np.sum(parts[k][2])))   # the (l, s, rho, s0) of largest weight
+        # the (l, s, rho, s0) of largest weight
+        best = max(range(len(parts)), key=lambda k: float(np.sum(parts[k][2])))
         pb, a, w = parts[best]
         i = int(np.argmax(w))                                        # its amplitude of largest weight
         length, order, rho, axis_order = avg.hyperparameters()[best][0]
