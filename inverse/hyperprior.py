@@ -108,6 +108,9 @@ EVIDENCE_BLOCK = 2 ** 20
 #: grid step in units of LOG_AMPLITUDE_SD, starting half-width, and the weight (relative to
 #: the largest) below which an edge of the amplitude grid counts as negligible
 STEP, HALF_WIDTH, EDGE = 0.1, 5.0, 1e-9
+#: bytes of the thin SVDs the evidence computes that are kept for building the weighted
+#: points' problems (above it each such point computes its SVD again)
+SVD_MEMORY = 64 * 2 ** 20
 #: components whose weights sum to less than this are dropped from the mixture
 TAIL = 1e-3
 #: for pointwise bands over many points, neighbouring amplitudes of one (l, s, rho, s0) are
@@ -257,9 +260,13 @@ class LearnedPrior:
                         log_ref.append(0.5 * math.log(spread / unit_signal))
                         T.append(t)
         self.combos, self._precisions, self._problems = combos, precisions, {}
-        # (s^2, beta) of every point, (combos, n) each
-        spectra = [evidence_spectrum(Gw, problem.y, P) for P in precisions]
-        self._S2, self._Beta = np.array([x for x, _ in spectra]), np.array([b for _, b in spectra])
+        # (s^2, beta) of every point, (combos, n) each; the SVDs kept for the points that carry
+        # weight (problem_for) while they fit in SVD_MEMORY
+        n, K = Gw.shape
+        keep = n <= K and 8 * len(precisions) * n * (n + K + 1) <= SVD_MEMORY
+        spectra = [evidence_spectrum(Gw, problem.y, P, keep) for P in precisions]
+        self._S2, self._Beta = np.array([x[0] for x in spectra]), np.array([x[1] for x in spectra])
+        self._svds = [x[2] for x in spectra] if keep else None
         # log hyperprior mass of each (l, s, rho, d0) point: uniform over (l, s, d0), log2 rho normal
         lr = -0.5 * ((np.log2(self.ratios) - RATIO_LOG2_CENTRE) / RATIO_LOG2_SD) ** 2
         lr -= math.log(np.sum(np.exp(lr)))
@@ -268,6 +275,7 @@ class LearnedPrior:
         self._log_ref, self._T = np.array(log_ref), np.array(T)
         self._integrate()
         self._prune()
+        self._svds = None          # the weighted points' problems hold theirs
 
     # ------------------------------------------------------------------ hyperparameter posterior
     def _log_weights(self, zgrid):
@@ -290,7 +298,8 @@ class LearnedPrior:
         the evidence of every point needs only its spectrum (evidence_spectrum), the
         posterior only the points that carry weight."""
         if j not in self._problems:
-            self._problems[j] = self.problem.with_prior(self._precisions[j])
+            svd = self._svds[j] if self._svds is not None else None
+            self._problems[j] = self.problem.with_prior(self._precisions[j], svd)
         return self._problems[j]
 
     def alphas_for(self, j, z):

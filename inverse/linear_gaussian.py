@@ -40,22 +40,23 @@ def _out(x, scalar):
     return x[0] if scalar else x
 
 
-def evidence_spectrum(Gw, y, prior_diag):
+def evidence_spectrum(Gw, y, prior_diag, keep=False):
     """(s^2 (n,), beta (n,)) of A = Gw P^-1/2 = U diag(s) V^T (Gw = L^-1 G,
     y = L^-1 (d - t0 - G c0), beta = U^T y, s = 0 beyond the rank): all the evidence needs,
     from the thin SVD (no V beyond the rank: ~4x cheaper than LinearGaussianProblem's full
     one for 20 readings x 130 modes) when one design is tried with many priors. (The
     eigenpairs of A A^T would be cheaper still but lose the small s^2 next to a nearly flat
-    prior direction: 0.3 nats of the evidence near its peak in tests/test_inverse_hyperprior.py.)"""
-    A = Gw / np.sqrt(np.asarray(prior_diag, dtype=float))[None, :]
-    U, s, _ = np.linalg.svd(A, full_matrices=False)
+    prior direction: 0.3 nats of the evidence near its peak in tests/test_inverse_hyperprior.py.)
+    keep=True also returns the SVD (U, s, V^T) for LinearGaussianProblem(svd=...) (n <= K)."""
+    A = Gw * (1.0 / np.sqrt(np.asarray(prior_diag, dtype=float)))[None, :]   # as LinearGaussianProblem's
+    U, s, Vt = np.linalg.svd(A, full_matrices=False)
     s2 = np.zeros(Gw.shape[0])
     s2[: s.size] = s ** 2
     beta = np.zeros(s2.size)
     beta[: s.size] = U.T @ y
     if s.size < s2.size:          # more readings than modes: the rest of y is residual (s = 0)
         beta[s.size] = np.sqrt(max(float(y @ y - beta @ beta), 0.0))
-    return s2, beta
+    return (s2, beta, (U, s, Vt)) if keep else (s2, beta)
 
 
 def log_evidence_from_spectrum(s2, beta, alphas, logdet_noise):
@@ -76,7 +77,7 @@ class LinearGaussianProblem:
     `noise`: variances sigma_i^2 (n,) [K^2], a full SPD (n, n) covariance, or a Whitener.
     """
 
-    def __init__(self, G, d, t0, noise, prior_diag, c0=None, whitened_design=None):
+    def __init__(self, G, d, t0, noise, prior_diag, c0=None, whitened_design=None, svd=None):
         G = np.asarray(G, dtype=float)
         if G.ndim != 2:
             raise InverseError("design matrix G must be 2-D (readings x coefficients)")
@@ -108,7 +109,8 @@ class LinearGaussianProblem:
         # U whole (n, n: the data-space directions beyond the rank carry the residual), V only
         # for the r = min(n, K) singular pairs: the K - r directions the data cannot see enter
         # through the projector I - V_r V_r^T (_null_projector), not a K x K rotation
-        U, s, Vt = np.linalg.svd(A, full_matrices=n > K)
+        # svd: the same decomposition, computed by the caller (evidence_spectrum(keep=True), n <= K)
+        U, s, Vt = np.linalg.svd(A, full_matrices=n > K) if svd is None or n > K else svd
         self._U, self._s = U, s
         self._r = s.size
         self._Z = p_isqrt[:, None] * Vt.T          # (K, r), column j: direction in c of singular pair j
@@ -137,10 +139,11 @@ class LinearGaussianProblem:
         """L^-1 G (n, K), computed once and shared by with_prior."""
         return self._Gw
 
-    def with_prior(self, prior_diag) -> "LinearGaussianProblem":
-        """Same readings, noise and prior mean, another prior precision diagonal P (K,) (new SVD)."""
+    def with_prior(self, prior_diag, svd=None) -> "LinearGaussianProblem":
+        """Same readings, noise and prior mean, another prior precision diagonal P (K,) (new SVD,
+        or `svd`, the thin SVD of L^-1 G P^-1/2 already computed)."""
         return LinearGaussianProblem(self.G, self.d, self.t0, self.noise, prior_diag, self.c0,
-                                     whitened_design=self._Gw)
+                                     whitened_design=self._Gw, svd=svd)
 
     def subset(self, keep) -> "LinearGaussianProblem":
         """Problem restricted to readings `keep` (index array or boolean mask).
