@@ -195,9 +195,9 @@ def _prior_text(prior: dict) -> str:
     dims = prior.get("axisymmetric_dimension_weights") or {}
     if len(dims) > 1:
         own = float(dims.get("1", 0.0))
-        parts.append("the rings and bands with edges of their own, as rough as the rest of the face"
-                     if own >= 0.5 else "the rings and bands smoother than the rest (like an average around the axis)")
-        parts[-1] += f" (probability {max(own, 1.0 - own):.2f})"
+        shape = ("with edges of their own, as rough as the rest of the face" if own >= 0.5
+                 else "smoother than the rest (like an average around the axis)")
+        parts.append(f"the rings and bands {shape} (probability {max(own, 1.0 - own):.2f})")
     if prior.get("hyperprior_dominated"):
         parts.append("the size of the departures from the nominal profile is set by the prior, not the readings")
     return "; ".join(parts) or ", ".join(f"{k}" for k in prior)

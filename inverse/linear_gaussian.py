@@ -40,6 +40,12 @@ def _out(x, scalar):
     return x[0] if scalar else x
 
 
+def prior_scaled_svd(Gw, p_isqrt, full=False):
+    """SVD (U, s, V^T) of A = Gw P^-1/2 (Gw = L^-1 G (n, K), p_isqrt = P^-1/2 (K,)); thin unless
+    `full` (U whole). One rule, so that evidence_spectrum's decomposition is the problem's."""
+    return np.linalg.svd(Gw * p_isqrt[None, :], full_matrices=full)
+
+
 def evidence_spectrum(Gw, y, prior_diag, keep=False):
     """(s^2 (n,), beta (n,)) of A = Gw P^-1/2 = U diag(s) V^T (Gw = L^-1 G,
     y = L^-1 (d - t0 - G c0), beta = U^T y, s = 0 beyond the rank): all the evidence needs,
@@ -48,8 +54,7 @@ def evidence_spectrum(Gw, y, prior_diag, keep=False):
     eigenpairs of A A^T would be cheaper still but lose the small s^2 next to a nearly flat
     prior direction: 0.3 nats of the evidence near its peak in tests/test_inverse_hyperprior.py.)
     keep=True also returns the SVD (U, s, V^T) for LinearGaussianProblem(svd=...) (n <= K)."""
-    A = Gw * (1.0 / np.sqrt(np.asarray(prior_diag, dtype=float)))[None, :]   # as LinearGaussianProblem's
-    U, s, Vt = np.linalg.svd(A, full_matrices=False)
+    U, s, Vt = prior_scaled_svd(Gw, 1.0 / np.sqrt(np.asarray(prior_diag, dtype=float)))
     s2 = np.zeros(Gw.shape[0])
     s2[: s.size] = s ** 2
     beta = np.zeros(s2.size)
@@ -105,12 +110,11 @@ class LinearGaussianProblem:
         p_isqrt = 1.0 / np.sqrt(p)
         # L^-1 G, reused by with_prior (many priors, one design)
         self._Gw = self.noise.whiten(G) if whitened_design is None else whitened_design
-        A = self._Gw * p_isqrt[None, :]
         # U whole (n, n: the data-space directions beyond the rank carry the residual), V only
         # for the r = min(n, K) singular pairs: the K - r directions the data cannot see enter
         # through the projector I - V_r V_r^T (_null_projector), not a K x K rotation
         # svd: the same decomposition, computed by the caller (evidence_spectrum(keep=True), n <= K)
-        U, s, Vt = np.linalg.svd(A, full_matrices=n > K) if svd is None or n > K else svd
+        U, s, Vt = prior_scaled_svd(self._Gw, p_isqrt, n > K) if svd is None or n > K else svd
         self._U, self._s = U, s
         self._r = s.size
         self._Z = p_isqrt[:, None] * Vt.T          # (K, r), column j: direction in c of singular pair j

@@ -172,8 +172,8 @@ def _with_tails(targets, tails):
 # ------------------------------------------------------------------------------ the covariance
 def dominant_component(posterior, problem):
     """(LinearGaussianProblem, alpha, weight, text) of the component the planner uses: for a
-    learned prior the (length scale, order, axisymmetric ratio and order) of largest posterior weight (summed over the
-    amplitude) at its amplitude of largest weight."""
+    learned prior the (length scale, order, axisymmetric ratio and order) of largest posterior
+    weight (summed over the amplitude) at its amplitude of largest weight."""
     avg = posterior.averaged
     parts = getattr(avg, "_parts", None)
     if parts:                                    # learned prior: (problem, alphas, weights) per (l, s, rho, s0)
