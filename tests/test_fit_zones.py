@@ -247,7 +247,7 @@ def test_evidence_keeps_the_smooth_model_on_a_smooth_truth():
 def test_learned_zone_posterior_equals_the_componentwise_joint_solve(readings, monkeypatch):
     """The zone model's learned posterior (c, z) from the remainder's mixture and the zone
     levels' conditional (zones.ZoneModel.learned_fit) against the direct route: the joint
-    posterior of (c, z) solved for every (sigma_f, l, s, rho) component, then moment-matched."""
+    posterior of (c, z) solved for every (alpha, l, s, rho, s0) component, then moment-matched."""
     from heatsight.inverse import zones as zm
     seen = {}
     original = zm.ZoneModel.learned_fit
@@ -268,18 +268,18 @@ def test_learned_zone_posterior_equals_the_componentwise_joint_solve(readings, m
     W = smooth.noise.whiten(X)
     H, b0 = W.T @ W, W.T @ smooth.noise.whiten(smooth.d - smooth.t0)
     x0 = np.concatenate([np.zeros(model.P.size), model.mu])
-    means, covs, ws = [], [], []
-    for P, alphas, w in fit.prior.components():
-        for a, wi in zip(alphas, w):
-            prec = np.concatenate([a * P, 1.0 / model.s ** 2])
-            C = np.linalg.inv(H + np.diag(prec))
-            means.append(C @ (b0 + prec * x0))
-            covs.append(wi * C)
-            ws.append(wi)
-    ws = np.asarray(ws) / np.sum(ws)
-    M = np.array(means)
-    mean = ws @ M
-    cov = sum(covs) / sum(w.sum() for _, _, w in fit.prior.components()) + (M - mean).T @ ((M - mean) * ws[:, None])
+    eye = np.eye(H.shape[0])
+    means, ws, cov_sum = [], [], np.zeros_like(H)
+    for P, alphas, w in fit.prior.components():        # one batched inverse per (l, s, rho, s0)
+        prec = np.hstack([np.multiply.outer(alphas, P), np.broadcast_to(1.0 / model.s ** 2, (alphas.size, model.s.size))])
+        C = np.linalg.inv(H + prec[:, :, None] * eye)
+        means.append(np.einsum("kij,kj->ki", C, b0 + prec * x0))
+        ws.append(w)
+        cov_sum += np.einsum("k,kij->ij", w, C)
+    ws = np.concatenate(ws)
+    M = np.vstack(means)
+    mean = ws @ M / ws.sum()
+    cov = cov_sum / ws.sum() + (M - mean).T @ ((M - mean) * (ws / ws.sum())[:, None])
     scale = np.sqrt(np.diag(cov))
     np.testing.assert_allclose(fit.c, mean, atol=1e-6 * float(np.max(np.abs(mean))))
     np.testing.assert_allclose(fit.C / np.outer(scale, scale), cov / np.outer(scale, scale), atol=1e-6)
