@@ -190,17 +190,6 @@ def matern_precision(basis, length, order, axisymmetric=1.0, axis_order=None) ->
     return basis.norms() / face_area(basis) * matern_weights(basis, length, order, axisymmetric, axis_order)
 
 
-def merge_neighbours(w, means, sds, group):
-    """Merge runs of `group` neighbouring components (rows) into one each, keeping each run's
-    weight, mean and variance (sum w_i (sd_i^2 + (m_i - m)^2) / sum w_i)."""
-    starts = np.arange(0, w.size, group)
-    W = np.add.reduceat(w, starts)
-    M = np.add.reduceat(w[:, None] * means, starts, axis=0) / W[:, None]
-    idx = np.repeat(np.arange(starts.size), np.diff(np.append(starts, w.size)))
-    V = np.add.reduceat(w[:, None] * (sds ** 2 + (means - M[idx]) ** 2), starts, axis=0) / W[:, None]
-    return W, M, np.sqrt(V)
-
-
 def _weighted_quantiles(x, w, q):
     """Quantiles q of a discrete distribution (values x, weights w), interpolated in the cdf."""
     order = np.argsort(x)
@@ -375,15 +364,17 @@ class LearnedPrior:
 
     def band_components(self, B, offset, limit=None):
         """Weights (m,), means and sds (m, q) of the mixture's components for offset + B c;
-        with `limit`, neighbouring amplitudes of one (l, s, rho, s0) are merged (merge_neighbours)."""
+        with `limit`, neighbouring amplitudes of one (l, s, rho, s0) are merged
+        (LinearGaussianProblem.predict_merged)."""
         means, sds, ws = [], [], []
         n_total = sum(a.size for _, a, _ in self._parts)
         group = 1 if limit is None else max(1, math.ceil(n_total / limit))
         for pb, a, w in self._parts:
-            mi, si = pb.predict(B, a, offset)
-            mi, si = np.reshape(mi, (a.size, -1)), np.reshape(si, (a.size, -1))
             if group > 1:
-                w, mi, si = merge_neighbours(w, mi, si, group)
+                w, mi, si = pb.predict_merged(B, a, w, group, offset)
+            else:
+                mi, si = pb.predict(B, a, offset)
+                mi, si = np.reshape(mi, (a.size, -1)), np.reshape(si, (a.size, -1))
             means.append(mi)
             sds.append(si)
             ws.append(w)

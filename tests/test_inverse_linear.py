@@ -236,3 +236,33 @@ def test_covariance_where_the_data_pin_a_coordinate_under_a_nearly_flat_prior():
                                    atol=1e-10 * np.abs(exact).max())
         np.testing.assert_allclose(pb.weighted_posterior_covariance(np.array([a]), np.array([1.0])),
                                    exact, rtol=0, atol=1e-10 * np.abs(exact).max())
+
+
+@pytest.mark.parametrize("pinned", [False, True])
+def test_merged_prediction_equals_the_moments_of_explicit_posteriors(pinned):
+    """predict_merged against the moments of the merged runs (weight sum w_i, mean
+    sum w_i m_i / W, variance sum w_i (sd_i^2 + (m_i - m)^2) / W, law of total variance),
+    each component's mean and sd from the dense posterior (numpy.linalg.inv); with a
+    coordinate pinned by a reading and nearly free in the prior, where the part of B the data
+    do not see must not come from a difference of large numbers."""
+    G, d, t0, S, p, c0 = toy(10, 24, 3)
+    if pinned:
+        G[:, 0], G[0, 0], p[0] = 0.0, 1e3, 1e-12
+    pb = LinearGaussianProblem(G, d, t0, S, p, c0)
+    rng = np.random.default_rng(4)
+    B = rng.standard_normal((50, 24)) / np.sqrt(p if not pinned else np.append(1.0, p[1:]))[None, :]
+    alphas, w = np.geomspace(1e-2, 1e2, 7), rng.uniform(0.2, 1.0, 7)
+    offset = rng.standard_normal(50)
+    W, mean, sd = pb.predict_merged(B, alphas, w, 3, offset)
+    for g, run in enumerate((slice(0, 3), slice(3, 6), slice(6, 7))):
+        ms, vs = [], []
+        for a in alphas[run]:
+            _, C, c, _ = explicit(G, d, t0, S, p, c0, a)
+            ms.append(offset + B @ c)
+            vs.append(np.einsum("qk,kl,ql->q", B, C, B))
+        wi = w[run] / w[run].sum()
+        m = wi @ np.array(ms)
+        v = wi @ (np.array(vs) + (np.array(ms) - m) ** 2)
+        assert W[g] == pytest.approx(w[run].sum())
+        np.testing.assert_allclose(mean[g], m, rtol=0, atol=1e-9 * np.abs(m).max())
+        np.testing.assert_allclose(sd[g], np.sqrt(v), rtol=1e-7)
