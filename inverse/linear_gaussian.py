@@ -31,7 +31,7 @@ def _as_alphas(alpha):
     a = np.asarray(alpha, dtype=float)
     if a.ndim > 1:
         raise InverseError("alpha must be a number or a 1-D array of numbers")
-    if a.size == 0 or not np.all(np.isfinite(a)) or np.any(a <= 0):
+    if a.size == 0 or not (a.min() > 0.0 and a.max() < np.inf):      # NaN fails both
         raise InverseError("smoothing strength alpha must be positive and finite")
     return np.atleast_1d(a), a.ndim == 0
 
