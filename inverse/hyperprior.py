@@ -351,12 +351,13 @@ class LearnedPrior:
         return [(ls, a, w) for ls, (_, a, w) in zip(self._part_combos, self._parts)]
 
     def posterior_covariance(self) -> np.ndarray:
-        """Mixture covariance sum_i w_i (C_i + c_i c_i^T) - m m^T, (K, K)."""
-        m = self.coefficients()
-        out = -np.outer(m, m)
+        """Mixture covariance sum_i w_i (C_i + d_i d_i^T) - e e^T, (K, K), d_i = c_i - c0 and
+        e = sum_i w_i d_i (every point shares the prior mean c0; LinearGaussianProblem.weighted_moments)."""
+        first, second = 0.0, 0.0
         for pb, a, w in self._parts:
-            M = pb.coefficients(a)
-            out += pb.weighted_posterior_covariance(a, w) + (M.T * w) @ M
+            f, s = pb.weighted_moments(a, w)
+            first, second = first + f, second + s
+        out = second - np.outer(first, first)
         return 0.5 * (out + out.T)
 
     def posterior_sd(self) -> np.ndarray:

@@ -267,15 +267,29 @@ class LinearGaussianProblem:
         return 1.0 / (self._s[None, :] ** 2 + a[:, None])
 
     @cached_property
+    def _unseen(self):
+        """u_k = (I - V_r V_r^T)_kk (K,): the share of coordinate k, in the prior's metric, that
+        the data do not see. 1 - sum_j V_kj^2 where that keeps its digits (u >= 1e-3: relative
+        error below 1e-12), else the squared norm of the projector's row k (it is idempotent):
+        1 - sum_j V_kj^2 loses its digits where the data pin coordinate k, and 1/p_k can make
+        that error large."""
+        V = self._Vt_r.T
+        u = 1.0 - np.einsum("kj,kj->k", V, V)
+        near = np.flatnonzero(u < 1e-3)
+        if near.size:
+            rows = -(V[near] @ self._Vt_r)
+            rows[np.arange(near.size), near] += 1.0
+            u[near] = np.einsum("ik,ik->i", rows, rows)
+        return u
+
+    @cached_property
     def _null_projector(self):
         """P^-1/2 (I - V_r V_r^T) P^-1/2 (K, K), or None when r = K: the directions of c the data
-        do not see, which keep the prior's variance 1/alpha in the P-metric."""
+        do not see, which keep the prior's variance 1/alpha in the P-metric (diagonal: _unseen)."""
         if self._r >= self.K:
             return None
         proj = np.eye(self.K) - self._Vt_r.T @ self._Vt_r
-        # its diagonal as the rows' squared norms (proj = proj proj^T): 1 - sum_j V_kj^2 loses
-        # its digits where the data pin coordinate k (sum ~ 1), and 1/p_k can make that large
-        np.fill_diagonal(proj, np.sum(proj ** 2, axis=1))
+        np.fill_diagonal(proj, self._unseen)
         return self._p_isqrt[:, None] * proj * self._p_isqrt[None, :]
 
     def posterior_covariance(self, alpha):
@@ -291,17 +305,30 @@ class LinearGaussianProblem:
             C += (1.0 / a)[:, None, None] * self._null_projector[None]
         return _out(C, scalar)
 
-    def weighted_posterior_covariance(self, alphas, weights) -> np.ndarray:
-        """sum_i w_i C(alpha_i) = P^-1/2 [V_r diag(sum_i w_i / (s^2 + alpha_i)) V_r^T
-        + (sum_i w_i / alpha_i) (I - V_r V_r^T)] P^-1/2, (K, K)."""
+    def weighted_moments(self, alphas, weights):
+        """Moments about c0 of the mixture sum_i w_i N(c_i, C(alpha_i)) over alphas (m,):
+        first = sum_i w_i (c_i - c0) = Z F^T w (K,) and
+        second = sum_i w_i [C(alpha_i) + (c_i - c0)(c_i - c0)^T]
+               = Z [diag(sum_i w_i / (s^2 + alpha_i)) + F^T W F] Z^T + t P^-1/2 (I - V_r V_r^T) P^-1/2
+        (K, K), F_ij = beta_j s_j / (s_j^2 + alpha_i), t = sum_i w_i / alpha_i: formed in the r
+        singular directions, the unseen directions' diagonal from _unseen. With weights summing
+        to 1 the mixture's covariance is second - first first^T."""
         a, _ = _as_alphas(alphas)
         w = np.asarray(weights, dtype=float)
         if w.shape != a.shape:
             raise InverseError("one weight per alpha")
-        C = (self._Z * (w @ self._var_r(a))[None, :]) @ self._Z.T
-        if self._null_projector is not None:
-            C += float(w @ (1.0 / a)) * self._null_projector
-        return C
+        r = self._r
+        F = self._s[None, :] / (self._s[None, :] ** 2 + a[:, None]) * self._beta[None, :r]     # (m, r)
+        core = (F.T * w) @ F
+        core[np.diag_indices(r)] += w @ self._var_r(a)
+        first = self._Z @ (w @ F)
+        ZC = self._Z @ core
+        if r >= self.K:
+            return first, ZC @ self._Z.T
+        t = float(w @ (1.0 / a))
+        second = (ZC - t * self._Z) @ self._Z.T
+        np.fill_diagonal(second, np.einsum("kj,kj->k", ZC, self._Z) + t * self._p_isqrt ** 2 * self._unseen)
+        return first, second
 
     def posterior_sd(self, alpha):
         """sqrt(diag C), shape (K,) or (m, K)."""

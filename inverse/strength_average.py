@@ -139,12 +139,9 @@ class StrengthAverage:
 
     def posterior_covariance(self) -> np.ndarray:
         """Mixture covariance of c, (K, K)."""
-        pb = self.problem
-        M = pb.coefficients(self._a)                       # (m, K)
-        m = self._w @ M
-        within = pb.weighted_posterior_covariance(self._a, self._w)
-        between = (M - m).T @ ((M - m) * self._w[:, None])
-        return within + between
+        first, second = self.problem.weighted_moments(self._a, self._w)
+        out = second - np.outer(first, first)
+        return 0.5 * (out + out.T)
 
     def posterior_sd(self) -> np.ndarray:
         return np.sqrt(np.diag(self.posterior_covariance()))
