@@ -259,10 +259,15 @@ def test_learned_zone_posterior_equals_the_componentwise_joint_solve(readings, m
         return out
 
     monkeypatch.setattr(zm.ZoneModel, "learned_fit", spy)
-    with threadpool_limits(1):
+    with threadpool_limits(1):          # here and in the direct route: two test workers share two cores
         inverse.fit(case(), readings[0], model="zones", grid=(6, 12))
-    model, fit = seen["model"], seen["fit"]
-    idx = np.flatnonzero(seen["kept"])
+        _componentwise_check(seen["model"], seen["kept"], seen["fit"])
+
+
+def _componentwise_check(model, kept, fit):
+    """The joint posterior of (c, z) by dense inverses (numpy.linalg.inv), one per component,
+    moment-matched, against the zone model's learned fit."""
+    idx = np.flatnonzero(kept)
     smooth = model.smooth.subset(idx)
     X = np.hstack([smooth.G, model.Gz[idx]])
     W = smooth.noise.whiten(X)
