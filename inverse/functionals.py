@@ -4,7 +4,7 @@ Each is value = k + f . c (f (K,), k a number) in the face's unit (K or W/m^2; W
 power), from a Gauss x trapezoid rule on the face.  `design` is any model columns object
 with .face(u, v), .powers(), .face_name, .quantity and .cylinder (design.Design, or the
 zone model's columns); one with .face_grid(along, around) is evaluated on the rule's grid
-lines (face_grid.face_on).
+lines, block by block (face_grid.face_sums).
 """
 
 from __future__ import annotations
@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..forward.geometry import is_wall
-from .face_grid import face_on, quadrature
+from .face_grid import face_sums, quadrature
 
 
 def face_functionals(design, zones=()) -> list:
@@ -22,26 +22,19 @@ def face_functionals(design, zones=()) -> list:
     cyl, face = design.cylinder, design.face_name
     quad = quadrature(face, cyl, breaks=_breaks(list(zones or ()) + list(
         getattr(design, "zones", ())), face, cyl.wall_radius(face)))
-    Bq, kq = face_on(design, quad)
-
-    def average(weights):
-        total = float(weights.sum())
-        return weights @ Bq / total, float(weights @ kq) / total
-
-    f_mean, k_mean = average(quad.weights)
-    out = [("mean", f_mean, k_mean)]
+    masks = [(zone.name, np.asarray(zone.contains(quad.u, quad.v), dtype=bool)) for zone in zones or ()
+             if (getattr(zone, "face", None) or face) == face]
+    masks = [(name, mask) for name, mask in masks if mask.any()]
+    weights = np.vstack([quad.weights] + [quad.weights * mask for _, mask in masks])
+    sums, known = face_sums(design, quad, weights)
+    area = weights.sum(axis=1)
+    f, k = sums / area[:, None], known / area                 # each weight vector's average
+    out = [("mean", f[0], float(k[0]))]
     if design.quantity == "heat_flux":
-        area = float(quad.weights.sum())
-        out.append(("total_power", f_mean * area, k_mean * area))
+        out.append(("total_power", f[0] * area[0], float(k[0] * area[0])))
     else:
         out.append(("total_power",) + design.powers())
-    for zone in zones or ():
-        if (getattr(zone, "face", None) or face) != face:
-            continue
-        mask = np.asarray(zone.contains(quad.u, quad.v), dtype=bool)
-        if mask.any():
-            out.append((zone.name,) + average(quad.weights * mask))
-    return out
+    return out + [(name, f[i], float(k[i])) for i, (name, _) in enumerate(masks, start=1)]
 
 
 def _breaks(zones, face, radius):

@@ -75,3 +75,20 @@ def test_display_grid_and_rule_on_lines_equal_pointwise(name):
         fp, kp = points[n]
         assert np.abs(f - fp).max() <= 1e-12 * max(np.abs(fp).max(), 1e-300)
         assert abs(k - kp) <= 1e-12 * max(abs(kp), 1.0)
+
+
+@pytest.mark.parametrize("name", list(CASES))
+def test_face_sums_in_blocks_equal_the_whole_matrix(name, monkeypatch):
+    """face_sums over blocks of a few grid lines (or points) equals weights @ face_on's whole
+    matrix, on lines and point by point."""
+    from heatsight.inverse import face_grid
+    cyl, faces = CASES[name]
+    design = Design(cyl, faces, 1e-8, 4, 6)
+    pts = quadrature(design.face_name, cyl, 16, 24)
+    W = np.vstack([pts.weights, pts.weights * (np.arange(pts.u.size) % 3 == 0)])
+    B, known = face_on(design, pts)
+    monkeypatch.setattr(face_grid, "FACE_SUM_BLOCK", 3 * 24 * design.size)       # three lines a block
+    for columns in (design, _Pointwise(design)):
+        F, k = face_grid.face_sums(columns, pts, W)
+        np.testing.assert_allclose(F, W @ B, rtol=0, atol=1e-13 * np.abs(W @ B).max())
+        np.testing.assert_allclose(k, W @ known, rtol=0, atol=1e-13 * max(np.abs(W @ known).max(), 1.0))
