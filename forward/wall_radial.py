@@ -29,17 +29,19 @@ OUTWARD = {"side": 1.0, "bore": -1.0}  # sign of dr along each wall's outward no
 
 def _scaled_bessel(kind, m, beta, r, a, b):
     """(f, df/dr) of a scaled modified Bessel solution at radii r: kind 'I' (scaled by
-    e^{-beta b}) or 'K' (scaled by e^{beta a}); arrays broadcast together; beta > 0."""
+    e^{-beta b}) or 'K' (scaled by e^{beta a}); arrays broadcast together; beta > 0, r > 0.
+    Derivatives from two orders (DLMF 10.29.2, from memory), sums of like-signed terms:
+    I_m' = I_{m+1} + (m / x) I_m,  K_m' = -(K_{m-1} + (m / x) K_m)."""
     x = beta * r
     if kind == "I":
         e = np.exp(-beta * (b - r))
-        f = special.ive(m, x) * e
-        df = beta * 0.5 * (special.ive(m - 1, x) + special.ive(m + 1, x)) * e
+        f = special.ive(m, x)
+        df = beta * (special.ive(m + 1, x) + m / x * f) * e
     else:
         e = np.exp(-beta * (r - a))
-        f = special.kve(m, x) * e
-        df = -beta * 0.5 * (special.kve(m - 1, x) + special.kve(m + 1, x)) * e
-    return f, df
+        f = special.kve(m, x)
+        df = -beta * (special.kve(m - 1, x) + m / x * f) * e
+    return f * e, df
 
 
 def _power_pair(m, r, r_w, a, b, wall):

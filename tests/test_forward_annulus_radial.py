@@ -321,3 +321,29 @@ def test_modulus_phase_tables_match_mpmath():
                 worst = max(worst, abs(float((got - want) / size)))
     mpmath.mp.dps = 15
     assert worst < 3e-13  # of the modulus (the house J table: 4e-13)
+
+
+@pytest.mark.parametrize("kind", ["I", "K"])
+def test_scaled_modified_bessel_and_derivative_match_mpmath(kind):
+    """wall_radial._scaled_bessel (f, df/dr) of I_m (scaled by e^{-beta b}) and K_m (scaled by
+    e^{beta a}) against mpmath.besseli / besselk and mpmath.diff at 30 digits, from small to
+    large beta r and orders 0..40."""
+    from heatsight.forward.wall_radial import _scaled_bessel
+    a, b = 0.02, 0.05
+    mpmath.mp.dps = 30
+    for m in (0, 1, 3, 12, 40):
+        for beta in (0.5, 40.0, 900.0):
+            r = np.array([a, 0.031, b])
+            f, df = _scaled_bessel(kind, np.full(3, m), beta, r, a, b)
+            for i, ri in enumerate(r):
+                x = mpmath.mpf(beta) * mpmath.mpf(float(ri))
+                if kind == "I":
+                    fn, scale = (lambda t: mpmath.besseli(m, t)), mpmath.exp(-mpmath.mpf(beta) * b)
+                else:
+                    fn, scale = (lambda t: mpmath.besselk(m, t)), mpmath.exp(mpmath.mpf(beta) * a)
+                ref_f = fn(x) * scale
+                ref_df = mpmath.mpf(beta) * mpmath.diff(fn, x) * scale
+                if abs(ref_f) < 1e-280 or abs(ref_f) > 1e280:
+                    continue                    # beyond double range: scaled out of the fit's use
+                assert float(f[i]) == pytest.approx(float(ref_f), rel=1e-12)
+                assert float(df[i]) == pytest.approx(float(ref_df), rel=1e-12)
