@@ -407,7 +407,7 @@ class _Split:
 
 def bench_demofit(repeat):
     """The demo's fit (heatsight.fit, warm) with the face display grid and quadrature rule
-    evaluated on grid lines (face_grid.face_on -> Design.face_grid) and point by point (the
+    evaluated on grid lines (face_grid.face_on, face_sums -> Design.face_grid) and point by point (the
     same fit with Design.face_grid hidden), and where its time goes."""
     from importlib import resources
     import heatsight
@@ -438,7 +438,7 @@ def bench_demofit(repeat):
     for key in times:
         split = _Split()
         undo = [split.wrap(result, "face_on", "face values (display grid, quadrature)"),
-                split.wrap(functionals, "face_on", "face values (display grid, quadrature)"),
+                split.wrap(functionals, "face_sums", "face values (display grid, quadrature)"),
                 split.wrap(design_mod.Design, "__init__", "model + basis build"),
                 split.wrap(design_mod.Design, "at", "fields at the sensors"),
                 split.wrap(result.Posterior, "figures", "bands of the figures (posterior.figures)"),

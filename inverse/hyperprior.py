@@ -351,13 +351,16 @@ class LearnedPrior:
         return [(ls, a, w) for ls, (_, a, w) in zip(self._part_combos, self._parts)]
 
     def posterior_covariance(self) -> np.ndarray:
-        """Mixture covariance sum_i w_i (C_i + d_i d_i^T) - e e^T, (K, K), d_i = c_i - c0 and
-        e = sum_i w_i d_i (every point shares the prior mean c0; LinearGaussianProblem.weighted_moments)."""
-        first, second = 0.0, 0.0
-        for pb, a, w in self._parts:
-            f, s = pb.weighted_moments(a, w)
-            first, second = first + f, second + s
-        out = second - np.outer(first, first)
+        """Mixture covariance (K, K): each point's scatter about its own mean
+        (LinearGaussianProblem.weighted_moments) plus the scatter of those means,
+        sum_p W_p (d_p - e)(d_p - e)^T, d_p the point's mean offset from the shared prior mean
+        c0 and e = sum_p W_p d_p / sum_p W_p."""
+        moments = [pb.weighted_moments(a, w) for pb, a, w in self._parts]
+        W = np.array([m[0] for m in moments])
+        D = np.array([m[1] for m in moments])
+        e = W @ D / W.sum()
+        spread = (D - e) * np.sqrt(W / W.sum())[:, None]
+        out = sum(m[2] for m in moments) / W.sum() + spread.T @ spread
         return 0.5 * (out + out.T)
 
     def posterior_sd(self) -> np.ndarray:

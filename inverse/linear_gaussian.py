@@ -135,9 +135,10 @@ class LinearGaussianProblem:
         self._Vt_r, self._p_isqrt = Vt, p_isqrt
         self._s2_n = np.zeros(n)
         self._s2_n[: self._r] = s**2
-        for name, attr in vars(type(self)).items():   # cached values of another prior go
-            if isinstance(attr, cached_property):
-                self.__dict__.pop(name, None)
+        for cls in type(self).__mro__:                 # cached values of another prior go
+            for name, attr in vars(cls).items():
+                if isinstance(attr, cached_property):
+                    self.__dict__.pop(name, None)
 
     def _set_data(self, d):
         self.d = d
@@ -306,29 +307,35 @@ class LinearGaussianProblem:
         return _out(C, scalar)
 
     def weighted_moments(self, alphas, weights):
-        """Moments about c0 of the mixture sum_i w_i N(c_i, C(alpha_i)) over alphas (m,):
-        first = sum_i w_i (c_i - c0) = Z F^T w (K,) and
-        second = sum_i w_i [C(alpha_i) + (c_i - c0)(c_i - c0)^T]
-               = Z [diag(sum_i w_i / (s^2 + alpha_i)) + F^T W F] Z^T + t P^-1/2 (I - V_r V_r^T) P^-1/2
-        (K, K), F_ij = beta_j s_j / (s_j^2 + alpha_i), t = sum_i w_i / alpha_i: formed in the r
-        singular directions, the unseen directions' diagonal from _unseen. With weights summing
-        to 1 the mixture's covariance is second - first first^T."""
+        """The mixture sum_i w_i N(c_i, C(alpha_i)) over alphas (m,) as (W, d, S): its weight
+        W = sum_i w_i, mean offset d = cbar - c0 = Z fbar (K,) and scatter about its own mean
+        S = sum_i w_i [C(alpha_i) + (c_i - cbar)(c_i - cbar)^T]
+          = Z [diag(sum_i w_i / (s^2 + alpha_i)) + (F - fbar)^T W (F - fbar)] Z^T
+            + t P^-1/2 (I - V_r V_r^T) P^-1/2   (K, K),
+        F_ij = beta_j s_j / (s_j^2 + alpha_i), fbar = F^T w / W, t = sum_i w_i / alpha_i: in the
+        r singular directions, the deviations taken before they are squared (no moment about
+        c0 minus a squared mean, which cancels when the mean lies many sds from c0), the
+        unseen directions' diagonal from _unseen. The mixture's covariance is S / W."""
         a, _ = _as_alphas(alphas)
         w = np.asarray(weights, dtype=float)
         if w.shape != a.shape:
             raise InverseError("one weight per alpha")
+        W = float(w.sum())
+        if not W > 0:
+            raise InverseError("the weights must sum to a positive number")
         r = self._r
         F = self._s[None, :] / (self._s[None, :] ** 2 + a[:, None]) * self._beta[None, :r]     # (m, r)
-        core = (F.T * w) @ F
+        fbar = (w @ F) / W
+        dev = F - fbar
+        core = (dev.T * w) @ dev
         core[np.diag_indices(r)] += w @ self._var_r(a)
-        first = self._Z @ (w @ F)
         ZC = self._Z @ core
         if r >= self.K:
-            return first, ZC @ self._Z.T
+            return W, self._Z @ fbar, ZC @ self._Z.T
         t = float(w @ (1.0 / a))
-        second = (ZC - t * self._Z) @ self._Z.T
-        np.fill_diagonal(second, np.einsum("kj,kj->k", ZC, self._Z) + t * self._p_isqrt ** 2 * self._unseen)
-        return first, second
+        S = (ZC - t * self._Z) @ self._Z.T
+        np.fill_diagonal(S, np.einsum("kj,kj->k", ZC, self._Z) + t * self._p_isqrt ** 2 * self._unseen)
+        return W, self._Z @ fbar, S
 
     def posterior_sd(self, alpha):
         """sqrt(diag C), shape (K,) or (m, K)."""
@@ -379,7 +386,7 @@ class LinearGaussianProblem:
         starts = np.arange(0, a.size, max(int(group), 1))
         run = np.repeat(np.arange(starts.size), np.diff(np.append(starts, a.size)))
         W = np.add.reduceat(w, starts)
-        share = w / W[run]                                   # weights within each run
+        share = np.divide(w, W[run], out=np.zeros_like(w), where=W[run] > 0)     # within each run
         r, s2 = self._r, self._s[None, :] ** 2
         f = self._s[None, :] / (s2 + a[:, None])              # (m, r)
         fbar = np.add.reduceat(share[:, None] * f, starts, axis=0)
@@ -391,9 +398,7 @@ class LinearGaussianProblem:
         if rest is not None:
             var += np.add.reduceat(share / a, starts)[:, None] * rest[None, :]
         spread = XV @ ((f - fbar[run]) * self._beta[None, :r]).T          # B (c_i - cbar), (q, m)
-        members = np.zeros((a.size, starts.size))
-        members[np.arange(a.size), run] = share
-        var += ((spread ** 2) @ members).T
+        var += np.add.reduceat(spread ** 2 * share[None, :], starts, axis=1).T
         return W, mean, np.sqrt(var)
 
     def predict(self, B, alpha, offset=None):

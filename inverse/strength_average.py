@@ -139,9 +139,8 @@ class StrengthAverage:
 
     def posterior_covariance(self) -> np.ndarray:
         """Mixture covariance of c, (K, K)."""
-        first, second = self.problem.weighted_moments(self._a, self._w)
-        out = second - np.outer(first, first)
-        return 0.5 * (out + out.T)
+        W, _, S = self.problem.weighted_moments(self._a, self._w)
+        return 0.5 * (S + S.T) / W
 
     def posterior_sd(self) -> np.ndarray:
         return np.sqrt(np.diag(self.posterior_covariance()))
