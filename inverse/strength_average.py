@@ -143,7 +143,9 @@ class StrengthAverage:
         return 0.5 * (S + S.T) / W
 
     def posterior_sd(self) -> np.ndarray:
-        return np.sqrt(np.diag(self.posterior_covariance()))
+        """sqrt of the mixture covariance's diagonal (a round-off negative taken as zero, as in
+        hyperprior.LearnedPrior.posterior_sd)."""
+        return np.sqrt(np.maximum(np.diag(self.posterior_covariance()), 0.0))
 
     def predict(self, B, offset=None):
         """Mixture mean and sd of offset + B c; shapes (q,) (or scalars for B of shape (K,))."""
