@@ -16,7 +16,7 @@ Units: d, t0, residuals in K; S in K^2; c in the unit of the unknown face's data
 from __future__ import annotations
 
 import copy
-from functools import cached_property
+from functools import cache, cached_property
 
 import numpy as np
 
@@ -42,6 +42,22 @@ def _prior_diagonal(prior_diag, K):
     if p.shape != (K,) or not np.all(np.isfinite(p)) or np.any(p <= 0):
         raise InverseError(f"prior_diag must be {K} positive finite values")
     return p
+
+
+def _alphas_and_weights(alphas, weights):
+    """Strengths (m,) (_as_alphas) and one weight for each, as floats."""
+    a, _ = _as_alphas(alphas)
+    w = np.asarray(weights, dtype=float)
+    if w.shape != a.shape:
+        raise InverseError("one weight per alpha")
+    return a, w
+
+
+@cache
+def _cached_names(cls):
+    """Names of cls's cached_property values (along its MRO): what a new prior invalidates."""
+    return tuple(name for c in cls.__mro__ for name, attr in vars(c).items()
+                 if isinstance(attr, cached_property))
 
 
 def _out(x, scalar):
@@ -135,10 +151,8 @@ class LinearGaussianProblem:
         self._Vt_r, self._p_isqrt = Vt, p_isqrt
         self._s2_n = np.zeros(n)
         self._s2_n[: self._r] = s**2
-        for cls in type(self).__mro__:                 # cached values of another prior go
-            for name, attr in vars(cls).items():
-                if isinstance(attr, cached_property):
-                    self.__dict__.pop(name, None)
+        for name in _cached_names(type(self)):       # cached values of another prior go
+            self.__dict__.pop(name, None)
 
     def _set_data(self, d):
         self.d = d
@@ -207,7 +221,7 @@ class LinearGaussianProblem:
         """MAP coefficients c = c0 + P^-1/2 V diag(s / (s^2 + alpha)) U^T y, shape (K,) or (m, K)."""
         a, scalar = _as_alphas(alpha)
         r = self._r
-        w = self._s[None, :] / (self._s[None, :] ** 2 + a[:, None])          # (m, r)
+        w = self._gain_r(a)                                                 # (m, r)
         c = self.c0[None, :] + (w * self._beta[None, :r]) @ self._Z[:, :r].T
         return _out(c, scalar)
 
@@ -247,7 +261,7 @@ class LinearGaussianProblem:
         """L-curve ordinate: ||P^1/2 (c - c0)|| = sqrt(sum_j (s_j beta_j / (s_j^2 + alpha))^2)."""
         a, scalar = _as_alphas(alpha)
         r = self._r
-        w = self._s[None, :] / (self._s[None, :] ** 2 + a[:, None])
+        w = self._gain_r(a)
         return _out(np.sqrt(np.sum((w * self._beta[None, :r]) ** 2, axis=1)), scalar)
 
     def effective_parameters(self, alpha):
@@ -266,6 +280,10 @@ class LinearGaussianProblem:
     def _var_r(self, a):
         """1 / (s_j^2 + alpha) for the r singular directions, (m, r)."""
         return 1.0 / (self._s[None, :] ** 2 + a[:, None])
+
+    def _gain_r(self, a):
+        """s_j / (s_j^2 + alpha) for the r singular directions, (m, r): c - c0 = Z diag(gain) beta."""
+        return self._s[None, :] / (self._s[None, :] ** 2 + a[:, None])
 
     @cached_property
     def _unseen(self):
@@ -293,6 +311,12 @@ class LinearGaussianProblem:
         np.fill_diagonal(proj, self._unseen)
         return self._p_isqrt[:, None] * proj * self._p_isqrt[None, :]
 
+    @cached_property
+    def _unseen_variance(self):
+        """diag(_null_projector) = u_k / p_k (K,), without forming the K x K projector; None
+        when r = K."""
+        return None if self._r >= self.K else self._p_isqrt ** 2 * self._unseen
+
     def posterior_covariance(self, alpha):
         """C = (G^T S^-1 G + alpha P)^-1
              = P^-1/2 [V_r diag(1 / (s^2 + alpha)) V_r^T + (I - V_r V_r^T) / alpha] P^-1/2.
@@ -316,15 +340,12 @@ class LinearGaussianProblem:
         r singular directions, the deviations taken before they are squared (no moment about
         c0 minus a squared mean, which cancels when the mean lies many sds from c0), the
         unseen directions' diagonal from _unseen. The mixture's covariance is S / W."""
-        a, _ = _as_alphas(alphas)
-        w = np.asarray(weights, dtype=float)
-        if w.shape != a.shape:
-            raise InverseError("one weight per alpha")
+        a, w = _alphas_and_weights(alphas, weights)
         W = float(w.sum())
         if not W > 0:
             raise InverseError("the weights must sum to a positive number")
         r = self._r
-        F = self._s[None, :] / (self._s[None, :] ** 2 + a[:, None]) * self._beta[None, :r]     # (m, r)
+        F = self._gain_r(a) * self._beta[None, :r]                                  # (m, r)
         fbar = (w @ F) / W
         dev = F - fbar
         core = (dev.T * w) @ dev
@@ -334,15 +355,15 @@ class LinearGaussianProblem:
             return W, self._Z @ fbar, ZC @ self._Z.T
         t = float(w @ (1.0 / a))
         S = (ZC - t * self._Z) @ self._Z.T
-        np.fill_diagonal(S, np.einsum("kj,kj->k", ZC, self._Z) + t * self._p_isqrt ** 2 * self._unseen)
+        np.fill_diagonal(S, np.einsum("kj,kj->k", ZC, self._Z) + t * self._unseen_variance)
         return W, self._Z @ fbar, S
 
     def posterior_sd(self, alpha):
         """sqrt(diag C), shape (K,) or (m, K)."""
         a, scalar = _as_alphas(alpha)
         var = self._var_r(a) @ (self._Z ** 2).T
-        if self._null_projector is not None:
-            var = var + (1.0 / a)[:, None] * np.diag(self._null_projector)[None, :]
+        if self._unseen_variance is not None:
+            var = var + (1.0 / a)[:, None] * self._unseen_variance[None, :]
         return _out(np.sqrt(var), scalar)
 
     def _projected(self, B):
@@ -376,25 +397,22 @@ class LinearGaussianProblem:
         (f_i - fbar), f_i = s / (s^2 + alpha_i): the moments of predict's components, without
         their (m, q) means formed in the coefficients' K dimensions (2.2x faster for a face
         map). Shapes (g,), (g, q), (g, q), g = ceil(m / group)."""
-        a, _ = _as_alphas(alphas)
-        w = np.asarray(weights, dtype=float)
+        a, w = _alphas_and_weights(alphas, weights)
         B = np.atleast_2d(np.asarray(B, dtype=float))
-        if w.shape != a.shape:
-            raise InverseError("one weight per alpha")
         if B.shape[1] != self.K:
             raise InverseError(f"linear map B must have {self.K} columns")
         starts = np.arange(0, a.size, max(int(group), 1))
         run = np.repeat(np.arange(starts.size), np.diff(np.append(starts, a.size)))
         W = np.add.reduceat(w, starts)
         share = np.divide(w, W[run], out=np.zeros_like(w), where=W[run] > 0)     # within each run
-        r, s2 = self._r, self._s[None, :] ** 2
-        f = self._s[None, :] / (s2 + a[:, None])              # (m, r)
+        r = self._r
+        f = self._gain_r(a)                                    # (m, r)
         fbar = np.add.reduceat(share[:, None] * f, starts, axis=0)
         mean = (self.c0[None, :] + (fbar * self._beta[None, :r]) @ self._Z.T) @ B.T
         if offset is not None:
             mean = mean + np.asarray(offset, dtype=float)
         XV, rest = self._projected(B)
-        var = np.add.reduceat(share[:, None] / (s2 + a[:, None]), starts, axis=0) @ (XV ** 2).T
+        var = np.add.reduceat(share[:, None] * self._var_r(a), starts, axis=0) @ (XV ** 2).T
         if rest is not None:
             var += np.add.reduceat(share / a, starts)[:, None] * rest[None, :]
         spread = XV @ ((f - fbar[run]) * self._beta[None, :r]).T          # B (c_i - cbar), (q, m)
