@@ -2,14 +2,17 @@
 
 Per run (one scenario, one noise seed), from the public FitResult only:
 
-    relative RMS error   sqrt(mean (estimate - truth)^2) / sd(truth), over the display grid
-    coverage             fraction of grid points whose truth lies inside the 95 % band
+    relative RMS error   sqrt(mean (estimate - truth)^2) / sd(truth), over the face
+    coverage             share of the face whose truth lies inside the 95 % band
     sharpness            mean half band (upper - lower) / 2 / sd(truth)
     zone error           (zone mean - true zone mean) / zone sd, per zone
     power error          (total power - true power) / its sd
     set aside            sensors the fit set aside, against the scenario's broken ones
 
-sd(truth) is the plain standard deviation of the truth over the grid points.
+Means and sd(truth) are over the face's area: each display-grid point weighs by the area of its
+cell (face_weights). On an end face the grid is uniform in r and theta, so a plain mean over
+its points counts the centre 72 times and weighs a ring by its number of points, not its
+area; the plain means are kept in Score.extra["grid_points"] for comparison.
 """
 
 from __future__ import annotations
@@ -51,6 +54,39 @@ class Score:
         return self.error is None and set(self.broken) == set(self.set_aside)
 
 
+def _cells(u, periodic=False):
+    """Widths of the cells around sorted grid values u: edges half-way between neighbours,
+    the outer edges at the first and last value (or wrapped, for a periodic angle)."""
+    u = np.asarray(u, float)
+    if u.size == 1:
+        return np.array([2.0 * math.pi if periodic else 1.0])
+    if periodic:
+        ext = np.concatenate(([u[-1] - 2.0 * math.pi], u, [u[0] + 2.0 * math.pi]))
+        return 0.5 * (ext[2:] - ext[:-2])
+    edges = np.concatenate(([u[0]], 0.5 * (u[1:] + u[:-1]), [u[-1]]))
+    return np.diff(edges)
+
+
+def face_weights(grid) -> np.ndarray:
+    """Area [m^2] of each display-grid point's cell (per metre of a long part's wall): on an end
+    face (z constant) the annulus piece (r_hi^2 - r_lo^2) / 2 x dtheta, on a wall (r constant)
+    r dtheta dz. Their sum is the face's area."""
+    r, th, z = (np.asarray(grid[c], float) for c in ("r_m", "theta_rad", "z_m"))
+    ut, it = np.unique(th, return_inverse=True)
+    dth = _cells(ut, periodic=True)[it]
+    if np.ptp(r) > 0:                       # an end face: cells in r are pieces of annuli
+        ur, ir = np.unique(r, return_inverse=True)
+        edges = np.concatenate(([ur[0]], 0.5 * (ur[1:] + ur[:-1]), [ur[-1]]))
+        piece = 0.5 * (edges[1:] ** 2 - edges[:-1] ** 2)
+        # the points at r = 0 share one cell: split it between them
+        count = np.bincount(ir)
+        share = np.where(ur == 0.0, 1.0 / count, 1.0)
+        return (piece * share)[ir] * np.where(ur[ir] == 0.0, 2.0 * math.pi, dth)
+    uz, iz = np.unique(z, return_inverse=True)
+    dz = _cells(uz)[iz] if uz.size > 1 else 1.0
+    return r * dth * dz
+
+
 def _z(value, truth, sd):
     if sd is None or not np.isfinite(sd) or sd <= 0:
         return math.inf
@@ -61,12 +97,18 @@ def score(scn, res) -> Score:
     """Score one FitResult against the scenario's truth."""
     g = res.grid
     truth = scn.truth_on(g)
-    sd_t = float(np.std(truth))
     est, lo, hi = (g[c].to_numpy() for c in ("estimate", "lower", "upper"))
     s = Score(scn.name, 0, broken=tuple(scn.broken), rms_goal=scn.rms_goal, resolves=scn.resolves)
-    s.rel_rms = float(np.sqrt(np.mean((est - truth) ** 2)) / sd_t)
-    s.coverage = float(np.mean((truth >= lo) & (truth <= hi)))
-    s.sharpness = float(np.mean(0.5 * (hi - lo)) / sd_t)
+    area = face_weights(g)
+    for key, w in (("grid_points", np.full(truth.size, 1.0 / truth.size)), ("face", area / area.sum())):
+        sd_t = math.sqrt(float(np.sum(w * (truth - np.sum(w * truth)) ** 2)))
+        figures = dict(rel_rms=math.sqrt(float(np.sum(w * (est - truth) ** 2))) / sd_t,
+                       coverage=float(np.sum(w * ((truth >= lo) & (truth <= hi)))),
+                       sharpness=float(np.sum(w * 0.5 * (hi - lo))) / sd_t)
+        if key == "face":
+            s.rel_rms, s.coverage, s.sharpness = figures["rel_rms"], figures["coverage"], figures["sharpness"]
+        else:
+            s.extra[key] = figures
     fitted = {z["name"]: z for z in res.summary.get("zones", [])}
     # a declared zone the fit did not report counts as missed (infinite error)
     s.zone_z = {name: (_z(fitted[name]["mean"], true, fitted[name]["sd"]) if name in fitted else math.inf)

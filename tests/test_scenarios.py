@@ -45,22 +45,26 @@ HOLLOW = ("tube_bore_temperature", "tube_bore_flux")  # issue 11: the bore of a 
 # aside), pooled coverage (0.70 -> 0.92), calibrated convection's relative RMS (0.54 -> 0.47)
 # and zone means (0/2 -> 2/2: calibration under the learned prior and with the zone model).
 # The tube bore flux's sharpness was met (1.02 -> 0.79) and is lost again to the profile
-# dimension (below).
+# dimension (below).  Figures are over the face's area (scenario_metrics.face_weights); by the
+# grid's points, which count an end face's centre 72 times, platen 0.76 / 1.69 (relative RMS /
+# sharpness) and calibrated convection 0.47 / 1.10: the platen's sharpness is met by area
+# (0.99), the calibrated platen's relative RMS is not (0.52; 0.41 over seeds 0-2).
 NOT_MET = {
-    ("platen_flux", "rel_rms"): "0.76", ("platen_flux", "sharpness"): "1.69",
+    ("platen_flux", "rel_rms"): "0.58",
     ("top_temperature", "zones"): "4 of 6 (centre +2.1, contact ring -2.2 sd)",
-    ("calibrated_convection", "sharpness"): "1.10",
-    ("chuck_class2", "rel_rms"): "1.04",
-    ("tube_bore_temperature", "sharpness"): "1.32, from the kept broken TC07 (with its 6 K taken off: "
+    ("calibrated_convection", "rel_rms"): "0.52 (seed 0; 0.41 over seeds 0-2)",
+    ("calibrated_convection", "sharpness"): "1.06",
+    ("chuck_class2", "rel_rms"): "1.06",
+    ("tube_bore_temperature", "sharpness"): "1.31, from the kept broken TC07 (with its 6 K taken off: "
                                             "0.92, relative RMS 0.29, coverage 0.99, before the profile "
                                             "dimension)",
     ("tube_bore_temperature", "zones"): "4 of 6 (cool streak +3.7, bore 90-180 deg +2.8 sd)",
     ("tube_bore_temperature", "sensors"): "broken TC07 (6 K high, 10 mm from the bore) kept: the others "
                                           "catch an offset of a sensor there only beyond its caught "
                                           "offset (the fit warns)",
-    ("tube_bore_flux", "sharpness"): "1.13 (0.87 before the axisymmetric profile's dimension: its rough "
+    ("tube_bore_flux", "sharpness"): "1.17 (0.87 before the axisymmetric profile's dimension: its rough "
                                      "1-D prior, which the evidence here prefers by 0.6 only, widens the "
-                                     "bands along the bore where coverage was 0.96; now 0.97)",
+                                     "bands along the bore where coverage was 0.96; now 0.98)",
     ("tube_bore_flux", "zones"): "5 of 7 (fouled side -5.5, bore 0-90 deg +4.0 sd)",
 }
 
@@ -188,7 +192,9 @@ def test_scores_follow_their_definitions():
     R, TH = np.meshgrid(r, th, indexing="ij")
     grid = pd.DataFrame({"r_m": R.ravel(), "theta_rad": TH.ravel(), "z_m": scn.case.cylinder.height})
     truth = scn.truth_on(grid)
-    sd = truth.std()
+    w = sm.face_weights(grid)
+    w = w / w.sum()
+    sd = np.sqrt(np.sum(w * (truth - np.sum(w * truth)) ** 2))      # the face's sd, by area
     grid["estimate"] = truth + 0.3 * sd
     grid["lower"], grid["upper"] = grid.estimate - 0.2 * sd, grid.estimate + 0.2 * sd
     zones = [{"name": n, "mean": m + 1.0, "sd": 0.5} for n, m in scn.zone_means.items()]
@@ -203,6 +209,21 @@ def test_scores_follow_their_definitions():
     assert s.power_z == pytest.approx(-3.0) and not s.aside_ok
     met = {g.split()[0] + " " + g.split()[1]: m for g, m, _ in sm.goals([s])}
     assert met["relative RMS"] and not met["every total"] and not met["every broken"]
+
+
+def test_face_weights_are_cell_areas():
+    """The display grid's cells tile the face: their areas sum to pi a^2 (an end face), pi (a^2 -
+    b^2) (an annulus) and 2 pi r L (a wall), elementary areas; a ring's share grows with r."""
+    th = np.linspace(0, 2 * np.pi, 72, endpoint=False)
+    for r0, a in ((0.0, 0.15), (0.04, 0.07)):
+        R, TH = np.meshgrid(np.linspace(r0, a, 41), th, indexing="ij")
+        w = sm.face_weights(pd.DataFrame({"r_m": R.ravel(), "theta_rad": TH.ravel(), "z_m": 0.0}))
+        assert w.sum() == pytest.approx(np.pi * (a ** 2 - r0 ** 2), rel=1e-12)  # elementary area
+        ring = w.reshape(41, 72).sum(axis=1)
+        assert np.all(np.diff(ring[1:-1]) > 0)
+    TH, Z = np.meshgrid(th, np.linspace(0.0, 0.4, 33), indexing="ij")
+    w = sm.face_weights(pd.DataFrame({"r_m": 0.04, "theta_rad": TH.ravel(), "z_m": Z.ravel()}))
+    assert w.sum() == pytest.approx(2 * np.pi * 0.04 * 0.4, rel=1e-12)        # elementary area
 
 
 # ------------------------------------------------------------------ the goals (issue 9)
