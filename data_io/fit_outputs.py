@@ -107,7 +107,8 @@ def summary_dict(result, *, case_path=None, readings_path=None) -> dict:
         "sensors": sensor_records(result),
         "caution": CAUTION,
     }
-    for key in ("model", "model_evidence", "model_weights", "zone_edge_widths_m", "zone_edge_weights"):
+    for key in ("model", "model_evidence", "model_weights", "zone_edge_widths_m", "zone_edge_weights",
+                "zone_level_prior_sd"):
         # the face model (inverse.zones)
         if key in s:
             out[key] = s[key]

@@ -50,7 +50,7 @@ from .strength_average import StrengthAverage
 from .threads import few_threads
 from .truncation import (face_tail, face_tail_variance, functional_tails, left_out_columns, nearest_distance,
                          tail_covariance, tail_power)
-from .zones import ZoneDesign, ZoneModel, edge_room, edge_widths, with_edge
+from .zones import ZONE_LEVEL_FACTORS, ZONE_PRIOR_FACTOR, ZoneDesign, ZoneModel, edge_room, edge_widths, with_edge
 
 #: reduced chi-square above which the readings scatter more than stated (common practice, no source)
 CHI2_WARNING = 4.0
@@ -107,12 +107,21 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
         design = post.calibration.design
     # each model screens the sensors itself: a sensor one model cannot explain may be
     # healthy under the other (model_choice.py compares them on all the readings)
-    zone_models = _zone_models(spec, design, rd, base, warnings, _learned(opts), shift)
+    zone_models = _zone_models(spec, design, rd, base, warnings, post, shift)
     if zone_models and _learned(opts):
         first = zone_models[0]
-        first.add_tail(design, rd, u > 0, _screen(first.marginal, rd, opts, gross).kept)
+        ok_zones = _screen(first.marginal, rd, opts, gross).kept
+        # the zone levels' scale is chosen before the remainder's tail is learned (a scale too
+        # small leaves the zones' structure to the tail, whose variance then widens every
+        # band) and again with it
+        choose = isinstance(post.averaged, LearnedPrior)
+        for zm in zone_models if choose else []:
+            zm.choose_level_scale(ok_zones, post.averaged.leading())
+        first.add_tail(design, rd, u > 0, ok_zones)
         for other in zone_models[1:]:
             other.share_tail(first)
+        for zm in zone_models if choose else []:
+            zm.choose_level_scale(ok_zones, post.averaged.leading())
     zscreens = [_screen(zm.marginal, rd, opts, gross) for zm in zone_models]
     columns, post, screen, model_info, zone_model = _choose_model(opts, design, zone_models, zscreens, smooth,
                                                                   post, u, problem, warnings)
@@ -341,10 +350,13 @@ def _posterior(design, rd, screen, P, u, opts, warnings) -> Posterior:
     return post
 
 
-def _zone_models(spec, design, rd, problem, warnings, learned, shift=None):
+def _zone_models(spec, design, rd, problem, warnings, post, shift=None):
     """The zone models (zones.ZoneModel on all sensors), one per edge width
     (zones.edge_widths; the declared zones alone with the fixed prior), when asked for (model
     "zones" or "auto") and zones with ranges are declared on the unknown face, else [].
+    The zone levels' prior sd: with the learned prior (post.averaged a LearnedPrior) on the
+    scale of the smooth model's amplitude (its median; the factor is chosen later,
+    ZoneModel.choose_level_scale), else ZONE_PRIOR_FACTOR x the face's level scale.
     shift: the calibrated parameters' step columns and prior (calibration.learned_calibration),
     integrated out with the zone levels; calibration with the fixed prior has no zone model."""
     opts = spec.options
@@ -361,9 +373,13 @@ def _zone_models(spec, design, rd, problem, warnings, learned, shift=None):
     if opts.calibrate and shift is None:
         return []
     areas = [zone_area(z, design.face_name, cyl) for z in zones]
-    pts = display_grid(design.face_name, cyl, 11, 24)
-    B, known = design.face(pts.u, pts.v)
-    scale = float(np.sqrt(np.mean((known + B @ problem.c0) ** 2)))
+    learned = _learned(opts)
+    if isinstance(post.averaged, LearnedPrior):
+        scale, factor = float(post.averaged.amplitude_quantiles(0.5)), ZONE_LEVEL_FACTORS[1]
+    else:
+        pts = display_grid(design.face_name, cyl, 11, 24)
+        B, known = design.face(pts.u, pts.v)
+        scale, factor = float(np.sqrt(np.mean((known + B @ problem.c0) ** 2))), ZONE_PRIOR_FACTOR
     # The remainder keeps the smooth prior's nearly flat nominal direction: the face between
     # and around the zones has a level of its own (a background), which zone levels alone
     # cannot carry without biasing every zone.
@@ -377,7 +393,8 @@ def _zone_models(spec, design, rd, problem, warnings, learned, shift=None):
     models, J = [], len(zones)
     for i, (width, zs) in enumerate(zip(widths, sets)):
         models.append(ZoneModel(design, rd, problem, zs, areas, scale, remainder, every.big,
-                                every.A[i * J:(i + 1) * J], edge_width=width, shift=shift))
+                                every.A[i * J:(i + 1) * J], edge_width=width, shift=shift,
+                                level_factor=factor))
     return models
 
 
@@ -434,6 +451,8 @@ def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem,
     if len(fits) > 1:      # the zone model's edge widths [m] and their posterior weights
         info["zone_edge_widths_m"] = [float(zm.edge_width) for zm in zone_models]
         info["zone_edge_weights"] = [float(w) for w in w_edge]
+    # the zone levels' prior sd [face unit] (per edge width; zones.ZoneModel.choose_level_scale)
+    info["zone_level_prior_sd"] = [float(np.max(zm.s)) for zm in zone_models]
     # the widths that carry weight; their zone columns side by side after the smooth ones
     use = [i for i in range(len(fits)) if w_edge[i] > MIXED_MODELS]
     lead = max(use, key=lambda i: w_edge[i])

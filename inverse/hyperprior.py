@@ -414,6 +414,18 @@ class LearnedPrior:
         return (by_combo.sum(axis=(0, 1, 2)), by_combo.sum(axis=(0, 1, 3)), by_combo.sum(axis=(1, 2, 3)),
                 by_combo.sum(axis=(0, 2, 3)))
 
+    def amplitude_quantiles(self, q):
+        """Posterior quantiles q of the amplitude sigma_f [face unit]."""
+        log_sf = (self._log_ref[:, None] + LOG_AMPLITUDE_SD * self.z[None, :]).ravel()
+        return np.exp(_weighted_quantiles(log_sf, self.weights.ravel(), q))
+
+    def leading(self):
+        """(precision P (K,), strengths alpha (z,), log hyperprior weights of the amplitude
+        grid (z,)) of the hyperparameter point (l, s, rho, d0) with the most posterior weight."""
+        j = int(np.argmax(self.weights.sum(axis=1)))
+        log_w = -0.5 * self.z ** 2
+        return self._precisions[j], self.alphas_for(j, self.z), log_w - np.logaddexp.reduce(log_w)
+
     def amplitude_posterior(self):
         """(posterior mean, sd) of z = (log sigma_f - log sigma_ref) / LOG_AMPLITUDE_SD; prior N(0, 1)."""
         wz = self.weights.sum(axis=0)
@@ -443,14 +455,9 @@ class LearnedPrior:
         ll = np.log(self.lengths)
         l90 = np.exp(_weighted_quantiles(ll, w_l, (0.05, 0.95))) if self.lengths.size > 1 else \
             np.repeat(self.lengths, 2)
-        alph, log_sf, wts = [], [], []
-        for j in range(len(self.combos)):
-            alph.append(self.alphas_for(j, self.z))
-            log_sf.append(self._log_ref[j] + LOG_AMPLITUDE_SD * self.z)
-            wts.append(self.weights[j])
-        alph, log_sf, wts = np.concatenate(alph), np.concatenate(log_sf), np.concatenate(wts)
-        a90 = np.exp(_weighted_quantiles(np.log(alph), wts, (0.05, 0.95)))
-        s90 = np.exp(_weighted_quantiles(log_sf, wts, (0.05, 0.5, 0.95)))
+        alph = np.concatenate([self.alphas_for(j, self.z) for j in range(len(self.combos))])
+        a90 = np.exp(_weighted_quantiles(np.log(alph), self.weights.ravel(), (0.05, 0.95)))
+        s90 = self.amplitude_quantiles((0.05, 0.5, 0.95))
         _, zsd = self.amplitude_posterior()
         out = {
             "family": "whittle-matern", "length_scale_m": float(self.lengths[int(np.argmax(w_l))]),

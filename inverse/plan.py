@@ -231,7 +231,10 @@ def state_from_fit(result, which, zones=(), new_sigma=None, new_offset_sd=None,
     sub = rd.subset(kept)
     sigma = float(np.median(sub.sigma)) if new_sigma is None else float(new_sigma)
     tau = float(np.median(sub.offset_sd)) if new_offset_sd is None else float(new_offset_sd)
-    exact = post.calibration is None and result.summary.get("model") != "zones"
+    # a model average (smooth and zone models) is, like the zone model, no Gaussian posterior
+    # of the readings: its updates are approximate
+    exact = post.calibration is None and result.summary.get("model") != "zones" \
+        and not result.summary.get("model_averaged")
     if exact and (covariance == "dominant" or common > 0 or post.averaged is None):
         pb, alpha, _, text = dominant_component(post, result.problem)
         var = _independent_variance(pb.noise, common)
@@ -392,7 +395,8 @@ def sensor_value(state: PlanState) -> pd.DataFrame:
         row["sole_support"] = ", ".join(t.name for t, q in zip(state.targets, ratio) if q > SINGLE_SENSOR_RATIO)
         rows.append(row)
     frame = pd.DataFrame(rows)
-    frame["rank"] = frame["largest_ratio"].rank(ascending=False, method="first").astype(int)
+    # a sensor whose loss the covariance cannot show (NaN) ranks last
+    frame["rank"] = frame["largest_ratio"].rank(ascending=False, method="first", na_option="bottom").astype(int)
     return frame.sort_values("rank").reset_index(drop=True)
 
 
