@@ -114,14 +114,16 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
         # the zone levels' scale is chosen before the remainder's tail is learned (a scale too
         # small leaves the zones' structure to the tail, whose variance then widens every
         # band) and again with it
-        choose = isinstance(post.averaged, LearnedPrior)
-        for zm in zone_models if choose else []:
-            zm.choose_level_scale(ok_zones, post.averaged.leading())
+        leading = post.averaged.leading() if isinstance(post.averaged, LearnedPrior) else None
+
+        def choose_level_scales():
+            for zm in zone_models if leading is not None else []:
+                zm.choose_level_scale(ok_zones, leading)
+        choose_level_scales()
         first.add_tail(design, rd, u > 0, ok_zones)
         for other in zone_models[1:]:
             other.share_tail(first)
-        for zm in zone_models if choose else []:
-            zm.choose_level_scale(ok_zones, post.averaged.leading())
+        choose_level_scales()
     zscreens = [_screen(zm.marginal, rd, opts, gross) for zm in zone_models]
     columns, post, screen, model_info, zone_model = _choose_model(opts, design, zone_models, zscreens, smooth,
                                                                   post, u, problem, warnings)

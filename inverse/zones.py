@@ -46,7 +46,7 @@ ZONE_PRIOR_FACTOR = 10.0
 #: learned prior: zone level prior sd = f x the smooth model's amplitude sigma_f, f among these
 #: (half decades), the one the evidence prefers. A vague sd costs the zone model ln(s / posterior
 #: sd) nats per zone whatever the data say (Lindley's paradox, from memory): at 10x the face's
-#: level (12,000 W/m^2 on tube_bore_flux, 460 K on a bore temperature) the zone model lost by
+#: level (sd 120,000 W/m^2 on tube_bore_flux; 4,600 K on a bore at 460 K) the zone model lost by
 #: 17 nats while all its zone means lay within 0.9 sd and the smooth answer's fouled side 5.5 sd
 #: off. A single f fails the other way: f = 1 shrank three sharp rings' levels (every zone 2.6-4
 #: sd low, evidence -42.1 against -35.1 at f = 3.2).

@@ -54,17 +54,21 @@ class Score:
         return self.error is None and set(self.broken) == set(self.set_aside)
 
 
+def _edges(u):
+    """Cell edges around sorted grid values u (n,): half-way between neighbours, the outer
+    edges at the first and last value (n + 1,)."""
+    return np.concatenate(([u[0]], 0.5 * (u[1:] + u[:-1]), [u[-1]]))
+
+
 def _cells(u, periodic=False):
-    """Widths of the cells around sorted grid values u: edges half-way between neighbours,
-    the outer edges at the first and last value (or wrapped, for a periodic angle)."""
+    """Widths of the cells around sorted grid values u (_edges; wrapped for a periodic angle)."""
     u = np.asarray(u, float)
     if u.size == 1:
         return np.array([2.0 * math.pi if periodic else 1.0])
     if periodic:
         ext = np.concatenate(([u[-1] - 2.0 * math.pi], u, [u[0] + 2.0 * math.pi]))
         return 0.5 * (ext[2:] - ext[:-2])
-    edges = np.concatenate(([u[0]], 0.5 * (u[1:] + u[:-1]), [u[-1]]))
-    return np.diff(edges)
+    return np.diff(_edges(u))
 
 
 def face_weights(grid) -> np.ndarray:
@@ -76,7 +80,7 @@ def face_weights(grid) -> np.ndarray:
     dth = _cells(ut, periodic=True)[it]
     if np.ptp(r) > 0:                       # an end face: cells in r are pieces of annuli
         ur, ir = np.unique(r, return_inverse=True)
-        edges = np.concatenate(([ur[0]], 0.5 * (ur[1:] + ur[:-1]), [ur[-1]]))
+        edges = _edges(ur)
         piece = 0.5 * (edges[1:] ** 2 - edges[:-1] ** 2)
         # the points at r = 0 share one cell: split it between them
         count = np.bincount(ir)
@@ -85,6 +89,14 @@ def face_weights(grid) -> np.ndarray:
     uz, iz = np.unique(z, return_inverse=True)
     dz = _cells(uz)[iz] if uz.size > 1 else 1.0
     return r * dth * dz
+
+
+def _weighted_figures(w, truth, est, lo, hi) -> dict:
+    """Relative RMS, coverage and sharpness with weights w (summing to 1) over the grid points."""
+    sd_t = math.sqrt(float(np.sum(w * (truth - np.sum(w * truth)) ** 2)))
+    return dict(rel_rms=math.sqrt(float(np.sum(w * (est - truth) ** 2))) / sd_t,
+                coverage=float(np.sum(w * ((truth >= lo) & (truth <= hi)))),
+                sharpness=float(np.sum(w * 0.5 * (hi - lo))) / sd_t)
 
 
 def _z(value, truth, sd):
@@ -100,15 +112,9 @@ def score(scn, res) -> Score:
     est, lo, hi = (g[c].to_numpy() for c in ("estimate", "lower", "upper"))
     s = Score(scn.name, 0, broken=tuple(scn.broken), rms_goal=scn.rms_goal, resolves=scn.resolves)
     area = face_weights(g)
-    for key, w in (("grid_points", np.full(truth.size, 1.0 / truth.size)), ("face", area / area.sum())):
-        sd_t = math.sqrt(float(np.sum(w * (truth - np.sum(w * truth)) ** 2)))
-        figures = dict(rel_rms=math.sqrt(float(np.sum(w * (est - truth) ** 2))) / sd_t,
-                       coverage=float(np.sum(w * ((truth >= lo) & (truth <= hi)))),
-                       sharpness=float(np.sum(w * 0.5 * (hi - lo))) / sd_t)
-        if key == "face":
-            s.rel_rms, s.coverage, s.sharpness = figures["rel_rms"], figures["coverage"], figures["sharpness"]
-        else:
-            s.extra[key] = figures
+    face = _weighted_figures(area / area.sum(), truth, est, lo, hi)
+    s.rel_rms, s.coverage, s.sharpness = face["rel_rms"], face["coverage"], face["sharpness"]
+    s.extra["grid_points"] = _weighted_figures(np.full(truth.size, 1.0 / truth.size), truth, est, lo, hi)
     fitted = {z["name"]: z for z in res.summary.get("zones", [])}
     # a declared zone the fit did not report counts as missed (infinite error)
     s.zone_z = {name: (_z(fitted[name]["mean"], true, fitted[name]["sd"]) if name in fitted else math.inf)
