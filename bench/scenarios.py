@@ -116,8 +116,8 @@ def main(argv=None):
         print(f"{name:<22} {fmt(np.mean([s.rel_rms for s in ss])):>5}{goal} "
               f"{fmt(np.mean([s.coverage for s in ss])):>6} {fmt(np.mean([s.sharpness for s in ss])):>5}{res} "
               f"{zones:>12} {fmt(sign * worst_p, '+.1f'):>7}  {list(ss[0].broken)} -> {list(ss[0].set_aside)}")
-        for s in ss[:1]:
-            if s.zone_z:
+        for s in ss:     # the first seed, and every seed with a zone beyond 2 sd
+            if s.zone_z and (s is ss[0] or max(map(abs, s.zone_z.values())) > sm.WITHIN_SD):
                 print(f"{'':<22} zone error / sd (seed {s.seed}): "
                       + ", ".join(f"{k} {v:+.1f}" for k, v in s.zone_z.items()))
         for s in ss:

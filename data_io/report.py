@@ -170,13 +170,12 @@ def _how_fitted(result) -> str:
     if isinstance(widths, list) and isinstance(weights, list) and len(widths) == len(weights) > 1:
         text = ", ".join(("sharp" if not w else f"{sig(from_si(w, 'length', 'mm'), 2)} mm") + f" {p:.2f}"
                          for w, p in zip(widths, weights) if _finite(w) and _finite(p))
-        rows.append(("width of the zones' edges (probabilities; averaged over)", text))
+        rows.append(("width of the zones' edges, the widest zone's (probabilities; averaged over)", text))
     levels = s.get("zone_level_prior_sd")
     if isinstance(levels, list) and levels and all(_finite(x) for x in levels):
-        unit = "K" if s.get("quantity") == "temperature" else "W/m²"
         rows.append(("how far a zone's level may depart from the background before the readings "
                      "(prior sd, the scale the evidence chose)",
-                     ", ".join(f"{sig(x, 2)} {unit}" for x in sorted(set(levels)))))
+                     ", ".join(_Fmt(result).sd(x) for x in sorted(set(levels)))))
     prior = s.get("prior")
     if isinstance(prior, dict):
         rows.append(("what the data chose for the smoothness", _prior_text(prior)))

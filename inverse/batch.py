@@ -154,7 +154,7 @@ class BatchSolver:
         strength of a FitResult (alpha: override).  Shared variance: offset_sd^2 plus the
         placement variance (grad T . dx)^2 with dx uniform in +-position_tolerance, grad T from
         the result's posterior mean (fixed at the reference, like the model)."""
-        if result.summary.get("model", "smooth") != "smooth" or result.summary.get("model_averaged"):
+        if not result.smooth_only:
             raise InverseError("logs are inverted with the smooth model; set [fit] model = \"smooth\" "
                                "for trend (the zone model serves single snapshots)")
         design = result.design

@@ -44,13 +44,13 @@ from .resolution import unresolved_warning
 from .robust import gross_faults, nominal_level
 from .face_grid import display_grid, face_interval
 from ..forward.geometry import is_wall
-from .result import FitResult, Posterior, valid_zones, zone_area
+from .result import FitResult, Posterior, valid_zones
 from .strength import choose_strength, default_alphas
 from .strength_average import StrengthAverage
 from .threads import few_threads
 from .truncation import (face_tail, face_tail_variance, functional_tails, left_out_columns, nearest_distance,
                          tail_covariance, tail_power)
-from .zones import ZONE_LEVEL_FACTORS, ZONE_PRIOR_FACTOR, ZoneDesign, ZoneModel, edge_room, edge_widths, with_edge
+from .zones import ZONE_LEVEL_FACTORS, ZONE_PRIOR_FACTOR, ZoneDesign, ZoneModel, edge_rooms, edge_widths, with_edge
 
 #: reduced chi-square above which the readings scatter more than stated (common practice, no source)
 CHI2_WARNING = 4.0
@@ -374,7 +374,6 @@ def _zone_models(spec, design, rd, problem, warnings, post, shift=None):
         return []
     if opts.calibrate and shift is None:
         return []
-    areas = [zone_area(z, design.face_name, cyl) for z in zones]
     learned = _learned(opts)
     if isinstance(post.averaged, LearnedPrior):
         scale, factor = float(post.averaged.amplitude_quantiles(0.5)), ZONE_LEVEL_FACTORS[1]
@@ -387,14 +386,14 @@ def _zone_models(spec, design, rd, problem, warnings, post, shift=None):
     # cannot carry without biasing every zone.
     remainder, _ = smooth_prior(design.basis, cyl.radius, opts.smoothing)
     side = is_wall(design.face_name)
-    room = edge_room(zones, side, cyl.wall_radius(design.face_name), face_interval(design.face_name, cyl))
-    widths = edge_widths(zones, face_size(design.basis), room, design.quantity) if learned else (None,)
+    rooms = edge_rooms(zones, side, cyl.wall_radius(design.face_name), face_interval(design.face_name, cyl))
+    widths = edge_widths(zones, face_size(design.basis), rooms, design.quantity) if learned else (None,)
     # every width's zones projected in one go (one rule split at all their breaks)
     sets = [with_edge(zones, width) for width in widths]
     every = ZoneDesign(design, [z for zs in sets for z in zs], nearest_distance(design, rd.r, rd.z))
     models, J = [], len(zones)
     for i, (width, zs) in enumerate(zip(widths, sets)):
-        models.append(ZoneModel(design, rd, problem, zs, areas, scale, remainder, every.big,
+        models.append(ZoneModel(design, rd, problem, zs, scale, remainder, every.big,
                                 every.A[i * J:(i + 1) * J], edge_width=width, shift=shift,
                                 level_factor=factor))
     return models
@@ -408,7 +407,7 @@ def _zone_fit(opts, design, zone_model, zscreen, post, u, problem):
         X = np.hstack([problem.G, zone_model.level_columns])
         logz = log_evidence_on_all(zf.log_evidence["zones"], zscreen.kept, X, problem.t0, problem.d,
                                    zone_model.smooth.noise.sd ** 2, zf.c, zf.C)
-        return replace(zf, log_evidence={"zones": logz})
+        return replace(zf, log_evidence={"zones": logz + zone_model.level_choice_correction})
     marginal = zone_model.marginal.subset(np.flatnonzero(zscreen.kept))
     alphas = default_alphas(marginal) if opts.strength_method == "evidence" else np.array([zscreen.choice.alpha])
     return zone_model.fit(zscreen.kept, alphas)
@@ -450,11 +449,13 @@ def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem,
     p_zones = float(weights["zones"])
     if opts.model == "auto" and p_zones <= MIXED_MODELS:
         return design, post, smooth, {"model": "smooth", **info}, None
-    if len(fits) > 1:      # the zone model's edge widths [m] and their posterior weights
+    if len(fits) > 1:      # the zone model's edge widths [m] (the widest zone's) and their posterior weights
         info["zone_edge_widths_m"] = [float(zm.edge_width) for zm in zone_models]
         info["zone_edge_weights"] = [float(w) for w in w_edge]
-    # the zone levels' prior sd [face unit] (per edge width; zones.ZoneModel.choose_level_scale)
-    info["zone_level_prior_sd"] = [float(np.max(zm.s)) for zm in zone_models]
+    if hasattr(post.averaged, "log_marginal"):
+        # the zone levels' prior sd [face unit] the evidence chose (per edge width;
+        # zones.ZoneModel.choose_level_scale)
+        info["zone_level_prior_sd"] = [float(np.max(zm.s)) for zm in zone_models]
     # the widths that carry weight; their zone columns side by side after the smooth ones
     use = [i for i in range(len(fits)) if w_edge[i] > MIXED_MODELS]
     lead = max(use, key=lambda i: w_edge[i])

@@ -231,10 +231,9 @@ def state_from_fit(result, which, zones=(), new_sigma=None, new_offset_sd=None,
     sub = rd.subset(kept)
     sigma = float(np.median(sub.sigma)) if new_sigma is None else float(new_sigma)
     tau = float(np.median(sub.offset_sd)) if new_offset_sd is None else float(new_offset_sd)
-    # a model average (smooth and zone models) is, like the zone model, no Gaussian posterior
-    # of the readings: its updates are approximate
-    exact = post.calibration is None and result.summary.get("model") != "zones" \
-        and not result.summary.get("model_averaged")
+    # the zone model or a model average is no Gaussian posterior of the readings: its
+    # updates are approximate
+    exact = post.calibration is None and result.smooth_only
     if exact and (covariance == "dominant" or common > 0 or post.averaged is None):
         pb, alpha, _, text = dominant_component(post, result.problem)
         var = _independent_variance(pb.noise, common)

@@ -181,6 +181,13 @@ class FitResult:
     #: power and the zone means (build's figure_tails), or None
     functional_tails: object = field(repr=False, default=None)
 
+    @property
+    def smooth_only(self) -> bool:
+        """Is the answer the smooth model's alone (no zone columns, no average with the zone
+        model)?  Only then is it the posterior of `problem`'s columns, which planning's exact
+        updates and the batch inversion of logs build on."""
+        return self.summary.get("model", "smooth") == "smooth" and not self.summary.get("model_averaged")
+
     # ------------------------------------------------------------------ construction
     @classmethod
     def build(cls, *, spec, design, readings, kept, problem, choice, posterior, sensors,

@@ -12,15 +12,20 @@ flat nominal level (a background between and around the zones). With the learned
 (the default) P is the Whittle-Matern family of hyperprior.py, its strength, length scale
 and order averaged by the remainder's own evidence, the amplitude scale the smooth model's
 (`remainder_spread`, `learned_fit`); with the fixed prior, P = prior_diagonal
-and the strength alone is averaged (`fit`); z ~ N(mu, diag(s^2)), mu the nominal level (nominal power / zone
-area) or 0. With the learned prior s = f x max(sigma_f, |mu|), sigma_f the smooth model's
-amplitude [face unit] (its posterior median: how far the face departs from its nominal
-profile) and f in ZONE_LEVEL_FACTORS the one the evidence prefers (`choose_level_scale`);
-with the fixed prior s = ZONE_PRIOR_FACTOR x the face's level scale (weak).  Marginalizing z gives
-d ~ N(t0 + G c0 + G_zone mu, S + G_zone diag(s^2) G_zone^T + G (alpha P)^-1 G^T), so the
-evidence p(d | alpha, zones) is exact. It compares with the smooth model's evidence under
-the same hyperpriors (learned prior: both integrated over strength, length scale and order;
-fixed prior: both on one log-alpha grid), equal prior model odds.
+and the strength alone is averaged (`fit`); z ~ N(0, diag(s^2)): a zone's level departs from
+the background's by a prior amount. With the learned prior s = f sigma_f, sigma_f the smooth
+model's amplitude [face unit] (its posterior median: how far the face departs from its
+nominal profile) and f in ZONE_LEVEL_FACTORS, integrated out with equal prior mass: the
+evidence at each f (`choose_level_scale`), the answer at the best one, whose evidence is
+corrected to the average (`level_choice_correction`); with the fixed prior s =
+ZONE_PRIOR_FACTOR x the face's level scale (weak).  A zone's nominal power is a yardstick
+for its delivered fraction, not a prior mean: a prior centred on the rating pulls a weak
+heater towards "as rated" wherever the readings are thin, and on a temperature face a power
+is no level at all.  Marginalizing z gives d ~ N(t0 + G c0, S + G_zone diag(s^2) G_zone^T +
+G (alpha P)^-1 G^T), so the evidence p(d | alpha, zones) is exact. It compares with the
+smooth model's evidence under the same hyperpriors (learned prior: both integrated over
+strength, length scale and order; fixed prior: both on one log-alpha grid), equal prior
+model odds.
 """
 
 from __future__ import annotations
@@ -60,10 +65,12 @@ MAX_TERMS, MAX_HARMONICS = 120, 40
 #: edge alone put zone means 3-4 sd off on finite-element heaters with 8-10 mm tanh edges
 #: (bench/scenarios.py sparse_sector, side_flux), each width's own evidence weighs it.
 EDGE_FRACTIONS = (0.0, 1.0 / 15.0, 2.0 / 15.0)
-#: ... and at most this share of the smallest distance between two edges (edge_room)
+#: ... each zone's at most this share of the gap to a neighbouring zone's edge (edge_rooms):
+#: ramps wider than the gap between two rings made their levels trade off ...
 EDGE_ROOM = 0.25
-
-
+#: ... and at most this share of the zone's own extent (along, and around at its radius): a
+#: ramp as wide as the zone leaves it no plateau
+OWN_ROOM = 0.5
 def zone_breaks(zone, side, radius):
     """Break points of a zone's windows: (along [m], around [rad])."""
     half = 0.5 * zone.edge
@@ -119,39 +126,60 @@ def projection(basis, zones):
     return A
 
 
-def edge_room(zones, side, radius, span) -> float:
-    """The smallest distance [m] between two different edges of the zones (along the radius or
-    the height, and around at each zone's own radius; the face's own ends excluded): no edge
-    ramp may be wider than EDGE_ROOM x this, or neighbouring ramps would overlap."""
+def _disjoint(a, b) -> bool:
+    return a[1] <= b[0] or b[1] <= a[0]
+
+
+def edge_rooms(zones, side, radius, span) -> np.ndarray:
+    """The widest edge ramp [m] each zone may take: EDGE_ROOM x the gap from its edges to the
+    nearest edge of a zone it does not overlap along the radius (end face) or the height
+    (wall), and OWN_ROOM x its own extent along and around (at its mid radius on an end
+    face, the wall's radius on a wall); edges at the face's own ends do not count.  Zones
+    that overlap (a streak across quadrants) are separate columns whose ramps may cross."""
     lo_face, hi_face = span
-    along, room = set(), math.inf
-    for z in zones:
-        lo, hi = z.z if side else z.r
-        along.update(x for x in (lo, hi) if lo_face * (1 + 1e-12) < x < hi_face * (1 - 1e-12))
-        room = min(room, hi - lo)
+
+    def along(z):
+        return z.z if side else z.r
+
+    def inner(x):
+        return lo_face * (1 + 1e-12) < x < hi_face * (1 - 1e-12)
+
+    out = np.full(len(zones), math.inf)
+    for j, z in enumerate(zones):
+        lo, hi = along(z)
+        room = OWN_ROOM * (hi - lo)
         if not z.full_turn:
             at = radius if side else 0.5 * (z.r[0] + z.r[1])
-            room = min(room, (z.theta[1] - z.theta[0]) * at, (2 * math.pi - (z.theta[1] - z.theta[0])) * at)
-    edges = np.array(sorted(along))
-    if edges.size > 1:
-        room = min(room, float(np.min(np.diff(edges))))
-    return room
+            span_t = z.theta[1] - z.theta[0]
+            room = min(room, OWN_ROOM * span_t * at, OWN_ROOM * (2 * math.pi - span_t) * at)
+        mine = [x for x in (lo, hi) if inner(x)]
+        for other in zones:
+            if other is z or not _disjoint(along(other), (lo, hi)):
+                continue
+            for x in (x for x in along(other) if inner(x)):
+                gaps = [abs(x - e) for e in mine if abs(x - e) > 1e-12 * max(hi_face, 1.0)]
+                if gaps:
+                    room = min(room, EDGE_ROOM * min(gaps))
+        out[j] = room
+    return out
 
 
-def edge_widths(zones, size, room=math.inf, quantity="flux") -> tuple:
-    """Edge widths [m] the zone model is averaged over: the declared ones when any zone
-    declares an edge (None: keep the zones as declared), else EDGE_FRACTIONS x the face size,
-    each at most EDGE_ROOM x `room` (edge_room), repeats dropped.  On a temperature face the
-    sharp edge is left out: a step in temperature has a singular heat flux (no total power)."""
+def edge_widths(zones, size, rooms=None, quantity="flux") -> tuple:
+    """Edge settings the zone model is averaged over: (None,) when any zone declares an edge
+    (keep the zones as declared), else one tuple of per-zone widths [m] per EDGE_FRACTIONS
+    value f: min(f x the face size, the zone's room (edge_rooms)), repeats dropped.  On a
+    temperature face the sharp edge is left out: a step in temperature has a singular heat
+    flux (no total power)."""
     if any(getattr(z, "edge", 0.0) > 0 for z in zones):
         return (None,)
+    rooms = np.full(len(zones), math.inf) if rooms is None else np.asarray(rooms, float)
     fractions = [f for f in EDGE_FRACTIONS if f > 0 or quantity != "temperature"]
-    return tuple(dict.fromkeys(min(f * float(size), EDGE_ROOM * room) for f in fractions))
+    return tuple(dict.fromkeys(tuple(float(min(f * float(size), r)) for r in rooms) for f in fractions))
 
 
-def with_edge(zones, width):
-    """The zones with edge width `width` [m] (None: as declared)."""
-    return list(zones) if width is None else [replace(z, edge=float(width)) for z in zones]
+def with_edge(zones, widths):
+    """The zones with edge widths `widths` [m] (one per zone; None: as declared)."""
+    return list(zones) if widths is None else [replace(z, edge=float(w)) for z, w in zip(zones, widths)]
 
 
 class ZoneDesign:
@@ -237,14 +265,13 @@ class ZoneFit:
     prior: object = None    # the remainder's LearnedPrior (learned_fit), else None
 
 
-def zone_prior(zones, level_scale, areas, factor=ZONE_PRIOR_FACTOR):
-    """(mu, s) of the zone levels [face unit]: nominal power / area (or 0), and the sd
-    factor x max(level_scale, |mu|)."""
-    mu = np.array([(z.nominal / a) if getattr(z, "nominal", None) else 0.0 for z, a in zip(zones, areas)])
-    scale = max(float(level_scale), float(np.max(np.abs(mu))) if mu.size else 0.0)
-    if not scale > 0:
-        raise InverseError("zone model: the face level scale is zero; give a nominal power")
-    return mu, np.full(mu.size, factor * scale)
+def zone_prior(n_zones, level_scale, factor=ZONE_PRIOR_FACTOR):
+    """(mu, s) of the zone levels [face unit]: mean 0 (a departure from the background) and
+    sd factor x level_scale for every zone."""
+    if not float(level_scale) > 0:
+        raise InverseError("zone model: the face's level scale is zero (every reading at the "
+                           "nominal profile); use model = \"smooth\"")
+    return np.zeros(n_zones), np.full(n_zones, factor * float(level_scale))
 
 
 class ZoneModel:
@@ -254,13 +281,16 @@ class ZoneModel:
     alpha * remainder_prior) whose noise is S + G_zone diag(s^2) G_zone^T; screening,
     strength and evidence of the zone model work on it."""
 
-    def __init__(self, design, rd, smooth, zones, areas, level_scale, remainder_prior, big=None, A=None,
+    def __init__(self, design, rd, smooth, zones, level_scale, remainder_prior, big=None, A=None,
                  edge_width=None, shift=None, level_factor=ZONE_PRIOR_FACTOR):
-        self.edge_width = edge_width      # [m] the width its zones were given (None: as declared)
+        # [m] the widest edge its zones were given (edge_widths; None: as declared)
+        self.edge_width = None if edge_width is None else float(np.max(edge_width))
         self.columns = ZoneDesign(design, zones, nearest_distance(design, rd.r, rd.z), big, A)
         self.Gz = self.columns.sensors(rd.r, rd.theta, rd.z)[0][:, design.size:]
-        self._prior_of = lambda factor: zone_prior(zones, level_scale, areas, factor)  # noqa: E731
+        self._prior_of = lambda factor: zone_prior(len(zones), level_scale, factor)  # noqa: E731
         self.level_factor = level_factor
+        # log of (mean over f of p(d | f)) / p(d | chosen f), <= 0 (choose_level_scale)
+        self.level_choice_correction = 0.0
         self.mu, self.s = self._prior_of(level_factor)
         self.P = np.asarray(remainder_prior, float)
         # calibrated parameters' step (calibration.learned_calibration): (columns (n, p), prior
@@ -297,7 +327,10 @@ class ZoneModel:
         (hyperprior.LearnedPrior.leading): log p(d | f) = logsumexp_alpha(log p(d | alpha, f) +
         log w_alpha), the amplitude integrated under its hyperprior (a cheap stand-in for the
         full learned evidence; the remainder's own prior is learned afterwards at that f).
-        Returns {f: log p(d | f)}."""
+        f has equal prior mass on its grid, so the zone model's evidence is the mean over f,
+        not the best f's (a choice by the evidence alone would favour the zone model by up to
+        ln 4 nats): `level_choice_correction` = logsumexp_f log p(d | f) - ln n_f - max_f,
+        added to the evidence computed at the chosen f.  Returns {f: log p(d | f)}."""
         idx = np.flatnonzero(kept)
         P, alphas, log_w = leading
         out = {}
@@ -306,6 +339,8 @@ class ZoneModel:
             problem = self._levels_for(self.smooth, mu, s, P).marginal.subset(idx)
             out[f] = float(logsumexp(problem.log_evidence(alphas) + log_w))
         self.level_factor = max(out, key=out.get)
+        values = np.array(list(out.values()))
+        self.level_choice_correction = float(logsumexp(values) - math.log(values.size) - values.max())
         self.mu, self.s = self._prior_of(self.level_factor)
         self._set_smooth(self.smooth)
         return out

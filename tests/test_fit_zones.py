@@ -300,21 +300,32 @@ def _componentwise_check(model, kept, fit):
 def test_edge_widths_fit_between_neighbouring_edges():
     # three rings 10 mm apart (tests/scenario_cases.py three_rings): no ramp wider than a
     # quarter of that gap; declared edges are kept as they are
-    from heatsight.inverse.zones import EDGE_FRACTIONS, EDGE_ROOM, edge_room, edge_widths
+    from heatsight.inverse.zones import EDGE_FRACTIONS, EDGE_ROOM, OWN_ROOM, edge_rooms, edge_widths
     rings = [(0.0, 0.045), (0.055, 0.095), (0.105, 0.145)]
     zs = [inverse.Zone(f"ring{i}", "bottom", (0.0, 2 * math.pi), r=r) for i, r in enumerate(rings)]
-    room = edge_room(zs, False, 0.15, (0.0, 0.15))
-    assert room == pytest.approx(0.010)
-    widths = edge_widths(zs, 0.15, room)
-    assert widths == (0.0, pytest.approx(EDGE_ROOM * 0.010))          # 10 mm and 20 mm both capped
+    rooms = edge_rooms(zs, False, 0.15, (0.0, 0.15))
+    assert rooms == pytest.approx([EDGE_ROOM * 0.010] * 3)
+    widths = edge_widths(zs, 0.15, rooms)
+    assert widths == ((0.0,) * 3, tuple(pytest.approx(EDGE_ROOM * 0.010) for _ in range(3)))  # 10 and 20 mm capped
     wide = [inverse.Zone("half", "bottom", (0.0, math.pi), r=(0.03, 0.13))]
-    assert edge_widths(wide, 0.15, edge_room(wide, False, 0.15, (0.0, 0.15))) == \
-        tuple(pytest.approx(f * 0.15) for f in EDGE_FRACTIONS)
+    assert edge_widths(wide, 0.15, edge_rooms(wide, False, 0.15, (0.0, 0.15))) == \
+        tuple((pytest.approx(f * 0.15),) for f in EDGE_FRACTIONS)
     declared = [inverse.Zone("ring", "bottom", (0.0, 2 * math.pi), r=(0.02, 0.04), edge=0.003)]
     assert edge_widths(declared, 0.15) == (None,)
     # a temperature face never gets a sharp step (its heat flux would be singular)
-    assert edge_widths(wide, 0.15, edge_room(wide, False, 0.15, (0.0, 0.15)), "temperature") == \
-        tuple(pytest.approx(f * 0.15) for f in EDGE_FRACTIONS if f > 0)
+    assert edge_widths(wide, 0.15, edge_rooms(wide, False, 0.15, (0.0, 0.15)), "temperature") == \
+        tuple((pytest.approx(f * 0.15),) for f in EDGE_FRACTIONS if f > 0)
+    # a wall: a 60 deg streak across four quadrants (which it overlaps: no cap from their
+    # edges) is held by its own arc; the quadrants and an end band 20 mm above them by that gap
+    a = 0.04
+    quads = [inverse.Zone(f"q{i}", "bore", (i * math.pi / 2, (i + 1) * math.pi / 2), z=(0.0, 0.30))
+             for i in range(4)]
+    streak = inverse.Zone("streak", "bore", (math.radians(220), math.radians(280)), z=(0.05, 0.33))
+    end = inverse.Zone("end", "bore", (0.0, 2 * math.pi), z=(0.32, 0.40))
+    rooms = edge_rooms(quads + [streak, end], True, a, (0.0, 0.40))
+    assert rooms[:4] == pytest.approx([EDGE_ROOM * 0.020] * 4)
+    assert rooms[4] == pytest.approx(OWN_ROOM * math.radians(60) * a)
+    assert rooms[5] == pytest.approx(EDGE_ROOM * 0.020)
 
 
 def test_zone_level_scale_is_the_evidence_best_of_its_factors(readings, monkeypatch):
@@ -354,10 +365,9 @@ def test_zone_level_scale_is_the_evidence_best_of_its_factors(readings, monkeypa
     assert set(out) == set(zm.ZONE_LEVEL_FACTORS)
     for f, value in out.items():
         mu, s = model._prior_of(f)
-        # mu: a zone's nominal power over its area, or 0; s = f x one scale for every zone
-        # (max of sigma_f and the largest |mu|)
-        assert np.count_nonzero(mu) == 5 and np.allclose(s, f * model._prior_of(1.0)[1][0])
-        assert model._prior_of(1.0)[1][0] >= np.max(np.abs(mu))
+        # mu = 0 although these zones declare nominal powers (a yardstick, not a prior mean);
+        # s = f x one scale for every zone
+        assert not np.any(mu) and np.allclose(s, f * model._prior_of(1.0)[1][0])
         base = sm.noise.covariance + (Gz * s ** 2) @ Gz.T
         le = [log_normal(sm.d, sm.t0 + Gz @ mu, base + (sm.G / (a * P)) @ sm.G.T) for a in alphas]
         # the direct route loses ~5e-6 nats to the nearly flat direction (measured); the
@@ -365,3 +375,8 @@ def test_zone_level_scale_is_the_evidence_best_of_its_factors(readings, monkeypa
         assert value == pytest.approx(float(logsumexp(np.array(le) + log_w)), abs=1e-4)
     assert model.level_factor == max(out, key=out.get)
     assert np.allclose(model.s, model._prior_of(model.level_factor)[1])
+    # f is integrated out with equal prior mass: the zone model's evidence is corrected from
+    # the best f's to the mean over f (<= 0, >= -ln 4)
+    v = np.array(list(out.values()))
+    assert model.level_choice_correction == pytest.approx(math.log(np.mean(np.exp(v - v.max()))))
+    assert -math.log(v.size) <= model.level_choice_correction <= 0.0
