@@ -11,6 +11,7 @@ code with the solver: no inverse crime.
 import json
 import math
 import types
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -357,7 +358,7 @@ def test_zone_level_scale_is_the_evidence_best_of_its_factors(readings, monkeypa
     monkeypatch.setattr(zm.ZoneModel, "choose_level_scale", spy)
     rd, _ = readings
     with threadpool_limits(1):
-        inverse.fit(case(), rd, model="zones", grid=(8, 12))
+        rated = inverse.fit(case(), rd, model="zones", grid=(8, 12))
     model, kept, (P, alphas, log_w), out = seen[-1]
     idx = np.flatnonzero(kept)
     sm = model.smooth.subset(idx)
@@ -380,3 +381,13 @@ def test_zone_level_scale_is_the_evidence_best_of_its_factors(readings, monkeypa
     v = np.array(list(out.values()))
     assert model.level_choice_correction == pytest.approx(math.log(np.mean(np.exp(v - v.max()))))
     assert -math.log(v.size) <= model.level_choice_correction <= 0.0
+    # the nominal powers are a yardstick only: without them the zone means are the same, and
+    # each delivered fraction is the zone's power over its nominal
+    plain = case()
+    plain.zones = [replace(z, nominal=None) for z in plain.zones]
+    with threadpool_limits(1):
+        unrated = inverse.fit(plain, rd, model="zones", grid=(8, 12))
+    for a, b, z in zip(rated.summary["zones"], unrated.summary["zones"], zones()):
+        assert a["mean"] == pytest.approx(b["mean"], rel=1e-9) and a["sd"] == pytest.approx(b["sd"], rel=1e-9)
+        if z.nominal:
+            assert a["delivered_fraction"] == pytest.approx(a["power_W"] / z.nominal, rel=1e-9)
