@@ -241,6 +241,15 @@ class ZoneDesign:
         u, v = (np.asarray(x, float).ravel() for x in (u, v))
         return np.hstack([B, self._indicators(u, v)]), known
 
+    def face_grid(self, along, around):
+        """face() on the grid of lines along (r or z) x around (theta), along major: the
+        smooth columns once per line (Design.face_grid), the indicators per point."""
+        B, known = self.smooth.face_grid(along, around)
+        S, TH = (a.ravel() for a in np.meshgrid(np.asarray(along, float), np.asarray(around, float),
+                                                 indexing="ij"))
+        u, v = (TH, S) if is_wall(self.face_name) else (S, TH)
+        return np.hstack([B, self._indicators(u, v)]), known
+
     def powers(self):
         p, known = self.smooth.powers()
         return np.concatenate([p, self.A @ self.big.powers()[:self.big.n_eigen]]), known

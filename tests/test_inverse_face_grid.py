@@ -92,3 +92,25 @@ def test_face_sums_in_blocks_equal_the_whole_matrix(name, monkeypatch):
         F, k = face_grid.face_sums(columns, pts, W)
         np.testing.assert_allclose(F, W @ B, rtol=0, atol=1e-13 * np.abs(W @ B).max())
         np.testing.assert_allclose(k, W @ known, rtol=0, atol=1e-13 * max(np.abs(W @ known).max(), 1.0))
+
+
+@pytest.mark.parametrize("name", list(CASES))
+def test_zone_columns_on_lines_equal_pointwise(name):
+    """The zone model's columns (smooth columns | zone indicators) on grid lines equal
+    ZoneDesign.face point by point, and so do the face functionals built on them."""
+    from heatsight.inverse.zones import ZoneDesign
+    cyl, faces = CASES[name]
+    design = Design(cyl, faces, 1e-8, 4, 6)
+    zones = _zones(design.face_name, cyl)
+    columns = ZoneDesign(design, zones, None, big=design.basis)
+    for pts in (display_grid(design.face_name, cyl, 9, 12), quadrature(design.face_name, cyl, 16, 24)):
+        B, known = face_on(columns, pts)
+        Bp, kp = columns.face(pts.u, pts.v)
+        assert B.shape == Bp.shape == (pts.u.size, design.size + len(zones))
+        assert np.abs(B - Bp).max() <= 1e-13 * np.abs(Bp).max()
+        assert np.abs(known - kp).max() <= 1e-13 * max(1.0, np.abs(kp).max())
+    grid = {n: (f, k) for n, f, k in face_functionals(columns, zones)}
+    points = {n: (f, k) for n, f, k in face_functionals(_Pointwise(columns), zones)}
+    for n in grid:
+        assert np.abs(grid[n][0] - points[n][0]).max() <= 1e-12 * max(np.abs(points[n][0]).max(), 1e-300)
+        assert abs(grid[n][1] - points[n][1]) <= 1e-12 * max(abs(points[n][1]), 1.0)
