@@ -108,23 +108,18 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     # each model screens the sensors itself: a sensor one model cannot explain may be
     # healthy under the other (model_choice.py compares them on all the readings)
     zone_models = _zone_models(spec, design, rd, base, warnings, post, shift)
+    leading = post.averaged.leading() if isinstance(post.averaged, LearnedPrior) and zone_models else None
     if zone_models and _learned(opts):
-        first = zone_models[0]
-        ok_zones = _screen(first.marginal, rd, opts, gross).kept
         # the zone levels' scale is chosen before the remainder's tail is learned (a scale too
         # small leaves the zones' structure to the tail, whose variance then widens every
-        # band) and again with it
-        leading = post.averaged.leading() if isinstance(post.averaged, LearnedPrior) else None
-
-        def choose_level_scales():
-            for zm in zone_models if leading is not None else []:
-                zm.choose_level_scale(ok_zones, leading)
-        choose_level_scales()
-        first.add_tail(design, rd, u > 0, ok_zones)
+        # band), the tail on the sensors that pass at that scale
+        first = zone_models[0]
+        if leading is not None:
+            first.choose_level_scale(_screen(first.marginal, rd, opts, gross).kept, leading)
+        first.add_tail(design, rd, u > 0, _screen(first.marginal, rd, opts, gross).kept)
         for other in zone_models[1:]:
             other.share_tail(first)
-        choose_level_scales()
-    zscreens = [_screen(zm.marginal, rd, opts, gross) for zm in zone_models]
+    zscreens = [_settled_screen(zm, rd, opts, gross, leading) for zm in zone_models]
     columns, post, screen, model_info, zone_model = _choose_model(opts, design, zone_models, zscreens, smooth,
                                                                   post, u, problem, warnings)
     # the chosen model's screening notes lead; a learned prior's answer drops the fixed
@@ -397,6 +392,20 @@ def _zone_models(spec, design, rd, problem, warnings, post, shift=None):
                                 every.A[i * J:(i + 1) * J], edge_width=width, shift=shift,
                                 level_factor=factor))
     return models
+
+
+def _settled_screen(zone_model, rd, opts, gross, leading, rounds=3):
+    """The zone model's own screening, its levels' scale chosen (ZoneModel.choose_level_scale,
+    when `leading` is given) on the sensors that screening keeps: chosen, screened again,
+    until the kept sensors stop changing (at most `rounds` choices)."""
+    screen = _screen(zone_model.marginal, rd, opts, gross)
+    for _ in range(rounds if leading is not None else 0):
+        kept = screen.kept
+        zone_model.choose_level_scale(kept, leading)
+        screen = _screen(zone_model.marginal, rd, opts, gross)
+        if np.array_equal(screen.kept, kept):
+            break
+    return screen
 
 
 def _zone_fit(opts, design, zone_model, zscreen, post, u, problem):
