@@ -39,7 +39,8 @@ Schema (design §3; every dimensional value is a string with its unit)::
     theta = ["0 deg", "120 deg"]   # optional, default the full turn; start < end, span <= 360 deg
     z = ["0 mm", "20 mm"]          # walls (side, bore) only; default the whole height (none on a long part)
     nominal = "400 W"              # optional: the zone's nominal power (delivered fraction reported; not a prior)
-    edge = "5 mm"                  # optional: edge width in the zone model; default unknown (averaged over widths)
+    edge = "5 mm"                  # optional: edge width in the zone model; default unknown (averaged over
+                                   # widths; sharp with prior = "fixed" or Monte Carlo)
 
 Every face of the part must be given: bottom, side and (finite parts) top, and the bore
 of a hollow part.  A semi-infinite part (height = "infinite") has no top face; a long part

@@ -175,7 +175,7 @@ def _how_fitted(result) -> str:
     if isinstance(levels, list) and levels and all(_finite(x) for x in levels):
         rows.append(("how far a zone's level may depart from the background before the readings "
                      "(prior sd, the scale the evidence chose)",
-                     ", ".join(_Fmt(result).sd(x) for x in sorted(set(levels)))))
+                     ", ".join(map(_Fmt(result).sd, sorted(set(levels))))))
     prior = s.get("prior")
     if isinstance(prior, dict):
         rows.append(("what the data chose for the smoothness", _prior_text(prior)))

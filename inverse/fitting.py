@@ -376,6 +376,10 @@ def _zone_models(spec, design, rd, problem, warnings, post, shift=None):
         pts = display_grid(design.face_name, cyl, 11, 24)
         B, known = design.face(pts.u, pts.v)
         scale, factor = float(np.sqrt(np.mean((known + B @ problem.c0) ** 2))), ZONE_PRIOR_FACTOR
+    if not scale > 0:
+        warnings.append("the zone model needs a scale for its levels, and the face's is zero; "
+                        "the smooth model is used")
+        return []
     # The remainder keeps the smooth prior's nearly flat nominal direction: the face between
     # and around the zones has a level of its own (a background), which zone levels alone
     # cannot carry without biasing every zone.
@@ -397,14 +401,19 @@ def _zone_models(spec, design, rd, problem, warnings, post, shift=None):
 def _settled_screen(zone_model, rd, opts, gross, leading, rounds=3):
     """The zone model's own screening, its levels' scale chosen (ZoneModel.choose_level_scale,
     when `leading` is given) on the sensors that screening keeps: chosen, screened again,
-    until the kept sensors stop changing (at most `rounds` choices)."""
+    until the kept sensors stop changing; after `rounds` screenings that still move (a
+    sensor at the threshold, in and out with the scale) the scale is chosen once more on the
+    last screening's sensors, which are returned."""
     screen = _screen(zone_model.marginal, rd, opts, gross)
-    for _ in range(rounds if leading is not None else 0):
+    if leading is None:
+        return screen
+    for _ in range(rounds):
         kept = screen.kept
         zone_model.choose_level_scale(kept, leading)
         screen = _screen(zone_model.marginal, rd, opts, gross)
         if np.array_equal(screen.kept, kept):
-            break
+            return screen
+    zone_model.choose_level_scale(screen.kept, leading)
     return screen
 
 

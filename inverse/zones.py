@@ -65,12 +65,15 @@ MAX_TERMS, MAX_HARMONICS = 120, 40
 #: edge alone put zone means 3-4 sd off on finite-element heaters with 8-10 mm tanh edges
 #: (bench/scenarios.py sparse_sector, side_flux), each width's own evidence weighs it.
 EDGE_FRACTIONS = (0.0, 1.0 / 15.0, 2.0 / 15.0)
-#: ... each zone's at most this share of the gap to a neighbouring zone's edge (edge_rooms):
-#: ramps wider than the gap between two rings made their levels trade off ...
+#: ... each zone's at most this share of the gap to the nearest edge of a zone beside it along
+#: the radius (end face) or the height (wall), or of the rest of the turn beside a sector
+#: (edge_rooms): ramps wider than the gap between two rings made their levels trade off ...
 EDGE_ROOM = 0.25
 #: ... and at most this share of the zone's own extent (along, and around at its radius): a
 #: ramp as wide as the zone leaves it no plateau
 OWN_ROOM = 0.5
+
+
 def zone_breaks(zone, side, radius):
     """Break points of a zone's windows: (along [m], around [rad])."""
     half = 0.5 * zone.edge
@@ -130,12 +133,19 @@ def _disjoint(a, b) -> bool:
     return a[1] <= b[0] or b[1] <= a[0]
 
 
+def _same(x, y) -> bool:
+    return abs(x - y) <= 1e-12 * max(abs(x), abs(y), 1.0)
+
+
 def edge_rooms(zones, side, radius, span) -> np.ndarray:
-    """The widest edge ramp [m] each zone may take: EDGE_ROOM x the gap from its edges to the
-    nearest edge of a zone it does not overlap along the radius (end face) or the height
-    (wall), and OWN_ROOM x its own extent along and around (at its mid radius on an end
-    face, the wall's radius on a wall); edges at the face's own ends do not count.  Zones
-    that overlap (a streak across quadrants) are separate columns whose ramps may cross."""
+    """The widest edge ramp [m] each zone may take: OWN_ROOM x its own extent along and around
+    (at its mid radius on an end face, the wall's radius on a wall), EDGE_ROOM x the rest of
+    the turn beside a sector, and EDGE_ROOM x the gap from its edges to the nearest edge of a
+    zone it does not overlap along the radius (end face) or the height (wall); edges at the
+    face's own ends do not count, and a zone without an edge on the face gets 0 (its width
+    changes nothing).  Zones that overlap (a streak across quadrants) are separate columns
+    whose ramps may cross; zones that share an edge share the smaller room, so that their
+    indicators still add up to 1 across it (`Zone.indicator`)."""
     lo_face, hi_face = span
 
     def along(z):
@@ -144,23 +154,43 @@ def edge_rooms(zones, side, radius, span) -> np.ndarray:
     def inner(x):
         return lo_face * (1 + 1e-12) < x < hi_face * (1 - 1e-12)
 
+    def edges(z):
+        return [x for x in along(z) if inner(x)], ([] if z.full_turn else
+                                                    [t % (2 * math.pi) for t in z.theta])
+
     out = np.full(len(zones), math.inf)
     for j, z in enumerate(zones):
         lo, hi = along(z)
+        mine, turn = edges(z)
+        if not (mine or turn):
+            out[j] = 0.0
+            continue
         room = OWN_ROOM * (hi - lo)
-        if not z.full_turn:
+        if turn:
             at = radius if side else 0.5 * (z.r[0] + z.r[1])
             span_t = z.theta[1] - z.theta[0]
-            room = min(room, OWN_ROOM * span_t * at, OWN_ROOM * (2 * math.pi - span_t) * at)
-        mine = [x for x in (lo, hi) if inner(x)]
+            room = min(room, OWN_ROOM * span_t * at, EDGE_ROOM * (2 * math.pi - span_t) * at)
         for other in zones:
             if other is z or not _disjoint(along(other), (lo, hi)):
                 continue
-            for x in (x for x in along(other) if inner(x)):
-                gaps = [abs(x - e) for e in mine if abs(x - e) > 1e-12 * max(hi_face, 1.0)]
-                if gaps:
-                    room = min(room, EDGE_ROOM * min(gaps))
+            gaps = [abs(x - e) for x in edges(other)[0] for e in mine if not _same(x, e)]
+            if gaps:
+                room = min(room, EDGE_ROOM * min(gaps))
         out[j] = room
+    # zones sharing an edge (along, or around where both cover the same radii / heights)
+    # take the smaller room of the two, passed on until nothing changes
+    shares = [(i, j) for i in range(len(zones)) for j in range(i + 1, len(zones))
+              if any(_same(x, y) for x in edges(zones[i])[0] for y in edges(zones[j])[0])
+              or (not _disjoint(along(zones[i]), along(zones[j]))
+                  and any(_same(x, y) for x in edges(zones[i])[1] for y in edges(zones[j])[1]))]
+    changed = True
+    while changed:
+        changed = False
+        for i, j in shares:
+            low = min(out[i], out[j])
+            if out[i] != low or out[j] != low:
+                out[i] = out[j] = low
+                changed = True
     return out
 
 

@@ -329,6 +329,34 @@ def test_edge_widths_fit_between_neighbouring_edges():
     assert rooms[5] == pytest.approx(EDGE_ROOM * 0.020)
 
 
+def test_zones_sharing_an_edge_keep_summing_to_one():
+    # zones that share an edge take the same ramp there, so their indicators add up to 1 across
+    # it for every edge setting (a ring 0-20 mm inside a ring 20-150 mm; three sectors of one
+    # ring); a zone with no edge on the face gets no ramp settings of its own; a semi-infinite
+    # part's wall still caps two bands 5 mm apart (the face's length is infinite)
+    from heatsight.inverse.zones import EDGE_ROOM, edge_rooms, edge_widths, with_edge
+    a = 0.15
+    cases = [[inverse.Zone("in", "bottom", (0.0, 2 * math.pi), r=(0.0, 0.02)),
+              inverse.Zone("out", "bottom", (0.0, 2 * math.pi), r=(0.02, a))],
+             [inverse.Zone(f"s{i}", "bottom", (t0, t1), r=(0.05, 0.12))
+              for i, (t0, t1) in enumerate([(0.0, 0.5), (0.5, 2.1), (2.1, 2 * math.pi)])]]
+    t = np.linspace(0.0, 2 * math.pi, 721)
+    # across the rings' shared edge everywhere; around the sectors' ring at its mid radius
+    for zs, r in zip(cases, (np.linspace(0.0, a, 301), np.array([0.085]))):
+        rooms = edge_rooms(zs, False, a, (0.0, a))
+        assert np.ptp(rooms) == 0.0
+        R, T = (x.ravel() for x in np.meshgrid(r, t, indexing="ij"))
+        for widths in edge_widths(zs, a, rooms):
+            total = sum(z.indicator(R, T, a, a) for z in with_edge(zs, widths))
+            assert np.allclose(total, 1.0, atol=1e-12)
+    whole = [inverse.Zone("all", "bottom", (0.0, 2 * math.pi), r=(0.0, a))]
+    assert edge_rooms(whole, False, a, (0.0, a)) == pytest.approx([0.0])
+    assert edge_widths(whole, a, edge_rooms(whole, False, a, (0.0, a))) == ((0.0,),)
+    bands = [inverse.Zone("low", "side", (0.0, 2 * math.pi), z=(0.02, 0.06)),
+             inverse.Zone("high", "side", (0.0, 2 * math.pi), z=(0.065, 0.12))]
+    assert edge_rooms(bands, True, 0.04, (0.0, math.inf)) == pytest.approx([EDGE_ROOM * 0.005] * 2)
+
+
 def test_zone_level_scale_is_the_evidence_best_of_its_factors(readings, monkeypatch):
     """The zone levels' prior sd (zones.ZoneModel.choose_level_scale): for each factor f the
     evidence at the smooth model's leading hyperparameters, amplitude integrated, against
@@ -356,9 +384,24 @@ def test_zone_level_scale_is_the_evidence_best_of_its_factors(readings, monkeypa
         return out
 
     monkeypatch.setattr(zm.ZoneModel, "choose_level_scale", spy)
+    from heatsight.inverse import fitting as ft
+    on_all, original_all = [], ft.log_evidence_on_all
+
+    def spy_all(*args, **kwargs):
+        on_all.append(original_all(*args, **kwargs))
+        return on_all[-1]
+
+    monkeypatch.setattr(ft, "log_evidence_on_all", spy_all)
     rd, _ = readings
     with threadpool_limits(1):
         rated = inverse.fit(case(), rd, model="zones", grid=(8, 12))
+    # the zone model's evidence is the mean over its edge widths of each width's evidence on all
+    # the readings plus its own correction for the choice of f: added once, per width
+    models = list(dict.fromkeys(m for m, *_ in seen))
+    le = np.array(on_all[:len(models)]) + np.array([m.level_choice_correction for m in models])
+    assert len(models) > 1 and any(m.level_choice_correction < -1e-6 for m in models)
+    assert rated.summary["model_evidence"]["zones"] == pytest.approx(
+        float(logsumexp(le) - math.log(len(models))), abs=1e-9)
     model, kept, (P, alphas, log_w), out = seen[-1]
     idx = np.flatnonzero(kept)
     sm = model.smooth.subset(idx)
