@@ -151,10 +151,28 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
 
         def map_tail(points):
             return None, None, face_tail_variance(design, points, lead_prior, rd.subset(screen.kept))
+    sensors = _answer_residuals(screen.table, post, columns, rd, problem.noise.sd)
     return FitResult.build(spec=spec, design=columns, readings=rd, kept=screen.kept, problem=screen.problem,
-                           choice=screen.choice, posterior=post, sensors=screen.table,
+                           choice=screen.choice, posterior=post, sensors=sensors,
                            set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)),
                            monte_carlo=mc, extra=model_info, figure_tails=figure_tails, map_tail=map_tail)
+
+
+def _answer_residuals(table, post, columns, rd, reading_sd):
+    """The sensor table with `fitted` the answer's own posterior mean at each sensor (every
+    model it averages, its zone levels and calibrated parameters; the left-out modes are not
+    in it), `residual` = measured - fitted and `standardized` = residual / the reading's sd
+    (noise, offsets, placement and the left-out modes: `reading_sd` (n,)).  The screening's
+    own problem may hold part of the model as noise (the zone model's levels, integrated
+    out), whose fit alone left residuals of several kelvin at healthy sensors."""
+    mean = post.figures(lambda d: d.sensors(rd.r, rd.theta, rd.z), columns)[0]
+    row = {name: i for i, name in enumerate(rd.names)}
+    i = np.array([row[str(name)] for name in table["sensor"]], dtype=int)
+    out = table.copy()
+    out["fitted"] = mean[i]
+    out["residual"] = out["measured"].to_numpy(float) - mean[i]
+    out["standardized"] = out["residual"].to_numpy() / np.asarray(reading_sd, float)[i]
+    return out
 
 
 # ------------------------------------------------------------------------ design, prior, noise
