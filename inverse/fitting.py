@@ -151,21 +151,29 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
 
         def map_tail(points):
             return None, None, face_tail_variance(design, points, lead_prior, rd.subset(screen.kept))
-    sensors = _answer_residuals(screen.table, post, columns, rd, problem.noise.sd)
+    sensors = _answer_residuals(screen.table, post, columns, rd, problem, zone_model)
     return FitResult.build(spec=spec, design=columns, readings=rd, kept=screen.kept, problem=screen.problem,
                            choice=screen.choice, posterior=post, sensors=sensors,
                            set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)),
                            monte_carlo=mc, extra=model_info, figure_tails=figure_tails, map_tail=map_tail)
 
 
-def _answer_residuals(table, post, columns, rd, reading_sd):
+def _answer_residuals(table, post, columns, rd, problem, zone_model):
     """The sensor table with `fitted` the answer's own posterior mean at each sensor (every
     model it averages, its zone levels and calibrated parameters; the left-out modes are not
     in it), `residual` = measured - fitted and `standardized` = residual / the reading's sd
-    (noise, offsets, placement and the left-out modes: `reading_sd` (n,)).  The screening's
-    own problem may hold part of the model as noise (the zone model's levels, integrated
-    out), whose fit alone left residuals of several kelvin at healthy sensors."""
-    mean = post.figures(lambda d: d.sensors(rd.r, rd.theta, rd.z), columns)[0]
+    (noise, offsets, placement and the left-out modes: the smooth `problem`'s).  The
+    screening's own problem may hold part of the model as noise (the zone model's levels,
+    integrated out), whose fit alone left residuals of several kelvin at healthy sensors.
+    The columns at the sensors are the ones already formed (`problem.G` and the zone columns
+    of `zone_model`, (model, columns) or None): a hollow part's enlarged basis takes ~1 s to
+    evaluate again."""
+    if post.calibration is None:
+        X = problem.G if zone_model is None else np.hstack([problem.G, zone_model[1]])
+        mean = problem.t0 + X @ post.c
+    else:
+        mean = post.figure_mean(lambda d: d.sensors(rd.r, rd.theta, rd.z), columns)
+    reading_sd = problem.noise.sd
     row = {name: i for i, name in enumerate(rd.names)}
     i = np.array([row[str(name)] for name in table["sensor"]], dtype=int)
     out = table.copy()

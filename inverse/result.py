@@ -60,6 +60,14 @@ class Posterior:
         mean = np.asarray(k, float) + F @ self.c + S @ cal.mean_step
         return mean, np.hstack([F, S])
 
+    def figure_mean(self, builder, design):
+        """Posterior mean of the figure builder(design) -> (F, k): k + F c, with the calibrated
+        parameters' step when there are any (no bands: the mean is linear in c)."""
+        if self.calibration is None:
+            F, k = builder(design)
+            return np.asarray(k, float) + np.atleast_2d(F) @ self.c
+        return self._joint(builder, design)[0]
+
     def figures(self, builder, design, level=0.95, extra_variance=None):
         """Mean, sd, lower, upper of the figure builder(design) -> (F, k): k + F c, with the
         joint uncertainty of calibrated parameters, var = J C_joint J^T (+ extra_variance)."""

@@ -210,6 +210,10 @@ def test_zone_model_with_h_calibrated_recovers_zones_h_and_power(zone_fit):
     assert abs(s["total_power_W"] - power_exact) <= 2.0 * s["total_power_sd_W"]   # closed-form integral
     # the zone answer's design carries the fitted h, as the smooth one does
     assert res.design.faces["top"].h == pytest.approx(res.calibration.values[0], rel=1e-12)
+    # the sensor table's fitted values are the answer's prediction, calibrated h included
+    rd = res.readings
+    t = res.sensors.set_index("sensor").loc[list(rd.names)]
+    np.testing.assert_allclose(t["fitted"].to_numpy(), res.predict(rd.r, rd.theta, rd.z)[0], rtol=0, atol=1e-9)
 
 
 def test_zone_model_joint_sd_matches_monte_carlo(zone_fit):
