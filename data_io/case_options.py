@@ -12,7 +12,7 @@ from ..forward.geometry import FACE_NAMES as ALL_FACES, Cylinder, is_wall
 from ..inverse.errors import InverseError
 from ..inverse.plan_rules import COVARIANCES, DRILL_FACES, PlanRules
 from ..inverse.problem import (CALIBRATABLE, FACE_NAMES, LOSSES, MODELS, PRIORS, SMOOTHING_ORDER,
-                               STRENGTH_METHODS, FitOptions, Zone)
+                               STRENGTH_METHODS, FitOptions, Zone, default_ranges)
 
 from .case_context import _Ctx, _show
 from .units import format_quantity, parse_quantity
@@ -204,11 +204,8 @@ def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> t
             theta = _range(ctx, zone, "theta", f"{where}.theta", "angle")
             if theta[1] - theta[0] > 2 * math.pi * (1 + 1e-12):
                 raise ctx.error(f"{where}.theta", "the angle range spans more than 360 deg")
-        r = z = None
-        if wall and cylinder.long:
-            z = (0.0, cylinder.axial_length)   # nothing varies along z: a theta window over the per-metre span
-        elif wall:
-            z = (0.0, cylinder.height)
+        r = z = None      # a range left out: the whole span (inverse.problem.default_ranges)
+        if wall and not cylinder.long:
             if "z" in zone:
                 z = _range(ctx, zone, "z", f"{where}.z", "length")
                 if z[0] < 0 or z[1] > cylinder.height * (1 + 1e-9):
@@ -216,9 +213,8 @@ def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> t
                                                   f"({format_quantity(cylinder.height, 'length')})")
             elif cylinder.semi_infinite:
                 raise ctx.error(f"{where}.z", "a side zone of a semi-infinite part needs a z range")
-        else:
+        elif not wall:
             a, b = cylinder.inner_radius, cylinder.radius
-            r = (a, b)
             if "r" in zone:
                 r = _range(ctx, zone, "r", f"{where}.r", "length")
                 if cylinder.hollow and r[0] < a * (1 - 1e-9):
@@ -242,7 +238,8 @@ def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> t
                                   file=ctx.path)
             if not (math.isfinite(edge) and edge >= 0):
                 raise ctx.error(f"{where}.edge", f"expected an edge width >= 0, e.g. \"5 mm\"; got {zone['edge']!r}")
-        out.append(Zone(name=name, face=face, theta=theta, r=r, z=z, nominal=nominal, edge=edge or 0.0))
+        out.append(default_ranges(Zone(name=name, face=face, theta=theta, r=r, z=z, nominal=nominal,
+                                       edge=edge or 0.0), wall, cylinder))
     return tuple(out)
 
 

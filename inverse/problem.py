@@ -12,6 +12,7 @@ from dataclasses import dataclass, field, fields, replace
 
 import numpy as np
 
+from ..forward.geometry import is_wall
 from .errors import InverseError
 from .strength import METHODS as STRENGTH_METHODS  # rules chosen from the data; "fixed" takes a number
 #: prior smoothness order s of P_k = (N_k / A) (1 + a^2 ev_k)^s
@@ -292,6 +293,23 @@ class Zone:
         return self.along(u, span_end, span_start) * self.around(v, radius)
 
 
+def default_ranges(zone, wall: bool, cylinder):
+    """The zone with the range it leaves out filled in: r = inner radius..radius on an end
+    face, z = 0..height on a wall (0..the per-metre span on a long part); a zone on the wall
+    of a semi-infinite part must give its own z range.  Other zone objects pass unchanged."""
+    if not isinstance(zone, Zone):
+        return zone
+    if wall:
+        if zone.z is not None:
+            return zone
+        if cylinder.long:
+            return replace(zone, z=(0.0, cylinder.axial_length))
+        if not math.isfinite(cylinder.height):
+            raise InverseError(f"zone {zone.name}: a zone on the wall of a semi-infinite part needs a z range")
+        return replace(zone, z=(0.0, cylinder.height))
+    return zone if zone.r is not None else replace(zone, r=(cylinder.inner_radius, cylinder.radius))
+
+
 # ---------------------------------------------------------------------------- problem
 
 
@@ -330,4 +348,10 @@ class Problem:
         opts = opts.with_overrides(**overrides)
         if base is not None:
             return replace(base, options=opts)
-        return cls(case.cylinder, dict(case.faces), tuple(getattr(case, "zones", None) or ()), opts)
+        faces = dict(case.faces)
+        unknown = [f for f, c in faces.items() if getattr(c, "unknown", False)]
+        zones = []
+        for zone in getattr(case, "zones", None) or ():
+            face = getattr(zone, "face", None) or (unknown[0] if len(unknown) == 1 else None)
+            zones.append(zone if face is None else default_ranges(zone, is_wall(face), case.cylinder))
+        return cls(case.cylinder, faces, tuple(zones), opts)

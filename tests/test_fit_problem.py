@@ -91,3 +91,20 @@ def test_zone_model_with_calibration_needs_the_learned_prior():
     with pytest.raises(inverse.InverseError, match="zone model with calibrated face parameters needs the learned"):
         inverse.fit(types.SimpleNamespace(cylinder=cyl, faces=faces), rd, model="zones",
                     calibrate={("top", "h"): None}, prior="fixed")
+
+
+def test_zones_without_a_range_cover_the_whole_span():
+    """A Zone given through the API without r (end face) or z (wall) covers the face's whole
+    span, as a case file's zone does; a semi-infinite part's wall zone must give z."""
+    cyl = fw.Cylinder(0.1, 0.05, 20.0)
+    faces = {"bottom": fw.UnknownFlux(), "top": fw.Convection(50.0, 300.0), "side": fw.Insulated()}
+    half = inverse.Zone("half", None, (0.0, math.pi))
+    band = inverse.Zone("band", "side", (0.0, 1.0))
+    p = Problem.from_case(types.SimpleNamespace(cylinder=cyl, faces=faces, zones=[half, band]))
+    assert p.zones[0].r == (0.0, 0.1) and p.zones[0].z is None
+    assert p.zones[1].z == (0.0, 0.05) and p.zones[1].r is None
+    bar = fw.Cylinder(0.1, math.inf, 20.0)
+    with pytest.raises(inverse.InverseError, match="semi-infinite part needs a z range"):
+        Problem.from_case(types.SimpleNamespace(cylinder=bar, faces={"bottom": fw.UnknownFlux(),
+                                                                     "side": fw.Convection(10.0, 300.0)},
+                                                zones=[band]))
