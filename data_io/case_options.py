@@ -11,7 +11,7 @@ from typing import Any, Callable
 from ..forward.geometry import FACE_NAMES as ALL_FACES, Cylinder, is_wall
 from ..inverse.errors import InverseError
 from ..inverse.plan_rules import COVARIANCES, DRILL_FACES, PlanRules
-from ..inverse.problem import (CALIBRATABLE, FACE_NAMES, LOSSES, MODELS, PRIORS, SMOOTHING_ORDER,
+from ..inverse.problem import (CALIBRATABLE, LOSSES, MODELS, PRIORS, SMOOTHING_ORDER,
                                STRENGTH_METHODS, FitOptions, Zone, default_ranges)
 
 from .case_context import _Ctx, _show
