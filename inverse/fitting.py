@@ -151,18 +151,18 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
 
         def map_tail(points):
             return None, None, face_tail_variance(design, points, lead_prior, rd.subset(screen.kept))
-    sensors = _answer_residuals(screen.table, post, columns, rd, problem, zone_model)
+    sensors = _answer_residuals(screen.table, post, columns, rd, problem, zone_model, model_info["model"] == "zones")
     return FitResult.build(spec=spec, design=columns, readings=rd, kept=screen.kept, problem=screen.problem,
                            choice=screen.choice, posterior=post, sensors=sensors,
                            set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)),
                            monte_carlo=mc, extra=model_info, figure_tails=figure_tails, map_tail=map_tail)
 
 
-def _answer_residuals(table, post, columns, rd, problem, zone_model):
+def _answer_residuals(table, post, columns, rd, problem, zone_model, zones_lead=False):
     """The sensor table with `fitted` the answer's own posterior mean at each sensor (every
     model it averages, its zone levels and calibrated parameters; the left-out modes are not
     in it), `residual` = measured - fitted and `standardized` = residual / the reading's sd
-    (noise, offsets, placement and the left-out modes: the smooth `problem`'s).  The
+    (noise, offsets, placement and the left-out modes: the leading model's).  The
     screening's own problem may hold part of the model as noise (the zone model's levels,
     integrated out), whose fit alone left residuals of several kelvin at healthy sensors.
     The columns at the sensors are the ones already formed (`problem.G` and the zone columns
@@ -173,12 +173,18 @@ def _answer_residuals(table, post, columns, rd, problem, zone_model):
         mean = problem.t0 + X @ post.c
     else:
         mean = post.figure_mean(lambda d: d.sensors(rd.r, rd.theta, rd.z), columns)
-    reading_sd = problem.noise.sd
+    # the readings' sd: the leading model's noise (its own left-out modes)
+    reading_sd = zone_model[0].smooth.noise.sd if zones_lead and zone_model is not None else problem.noise.sd
     row = {name: i for i, name in enumerate(rd.names)}
     i = np.array([row[str(name)] for name in table["sensor"]], dtype=int)
     out = table.copy()
+    # the screening's readings may be shifted (calibrated parameters' prior centre moved to
+    # their value: marginal_columns), its leave-one-out predictions with them
+    measured = np.asarray(rd.temperature, float)[i]
+    out["loo_predicted"] = out["loo_predicted"].to_numpy(float) + (measured - out["measured"].to_numpy(float))
+    out["measured"] = measured
     out["fitted"] = mean[i]
-    out["residual"] = out["measured"].to_numpy(float) - mean[i]
+    out["residual"] = measured - mean[i]
     out["standardized"] = out["residual"].to_numpy() / np.asarray(reading_sd, float)[i]
     return out
 
@@ -429,7 +435,8 @@ def _settled_screen(zone_model, rd, opts, gross, leading, rounds=3):
     when `leading` is given) on the sensors that screening keeps: chosen, screened again,
     until the kept sensors stop changing; after `rounds` screenings that still move (a
     sensor at the threshold, in and out with the scale) the scale is chosen once more on the
-    last screening's sensors, which are returned."""
+    last screening's sensors and the screening at that scale is returned (its problem,
+    strength and table match the scale the answer uses)."""
     screen = _screen(zone_model.marginal, rd, opts, gross)
     if leading is None:
         return screen
@@ -440,7 +447,7 @@ def _settled_screen(zone_model, rd, opts, gross, leading, rounds=3):
         if np.array_equal(screen.kept, kept):
             return screen
     zone_model.choose_level_scale(screen.kept, leading)
-    return screen
+    return _screen(zone_model.marginal, rd, opts, gross)
 
 
 def _zone_fit(opts, design, zone_model, zscreen, post, u, problem):

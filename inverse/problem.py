@@ -346,12 +346,12 @@ class Problem:
                 opts = FitOptions(**{f.name: getattr(given, f.name) for f in fields(FitOptions)
                                      if getattr(given, f.name, None) is not None})
         opts = opts.with_overrides(**overrides)
-        if base is not None:
-            return replace(base, options=opts)
-        faces = dict(case.faces)
+        cylinder, faces = case.cylinder, dict(case.faces)
         unknown = [f for f, c in faces.items() if getattr(c, "unknown", False)]
         zones = []
         for zone in getattr(case, "zones", None) or ():
             face = getattr(zone, "face", None) or (unknown[0] if len(unknown) == 1 else None)
-            zones.append(zone if face is None else default_ranges(zone, is_wall(face), case.cylinder))
-        return cls(case.cylinder, faces, tuple(zones), opts)
+            zones.append(zone if face is None else default_ranges(zone, is_wall(face), cylinder))
+        if base is not None:
+            return replace(base, zones=tuple(zones), options=opts)
+        return cls(cylinder, faces, tuple(zones), opts)

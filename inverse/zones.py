@@ -145,7 +145,9 @@ def edge_rooms(zones, side, radius, span) -> np.ndarray:
     face's own ends do not count, and a zone without an edge on the face gets 0 (its width
     changes nothing).  Zones that overlap (a streak across quadrants) are separate columns
     whose ramps may cross; zones that share an edge share the smaller room, so that their
-    indicators still add up to 1 across it (`Zone.indicator`)."""
+    indicators still add up to 1 across it (`Zone.indicator`), except across an angular edge
+    of sectors with different radial (axial) spans, whose angular ramps are the width over
+    each one's own mid radius.  Gaps around the turn between two sectors are not counted."""
     lo_face, hi_face = span
 
     def along(z):
@@ -177,11 +179,15 @@ def edge_rooms(zones, side, radius, span) -> np.ndarray:
             if gaps:
                 room = min(room, EDGE_ROOM * min(gaps))
         out[j] = room
-    # zones sharing an edge (along, or around where both cover the same radii / heights)
-    # take the smaller room of the two, passed on until nothing changes
+    # zones sharing an edge (along, or around where both span the same radii / heights: an
+    # angular ramp is the width over the zone's own mid radius) take the smaller room of the
+    # two, passed on until nothing changes
+    def same_span(a, b):
+        return all(_same(x, y) for x, y in zip(along(a), along(b)))
+
     shares = [(i, j) for i in range(len(zones)) for j in range(i + 1, len(zones))
               if any(_same(x, y) for x in edges(zones[i])[0] for y in edges(zones[j])[0])
-              or (not _disjoint(along(zones[i]), along(zones[j]))
+              or (same_span(zones[i], zones[j])
                   and any(_same(x, y) for x in edges(zones[i])[1] for y in edges(zones[j])[1]))]
     changed = True
     while changed:

@@ -52,9 +52,17 @@ def test_fluid_side_h_calibrated_with_a_prior_on_a_long_tube():
     h = 898 +- 1.6 and 3008 +- 0.45 W/m, 18 sd off; now 905 +- 16 and 3029 +- 45 W/m.)"""
     faces = {"side": fw.UnknownFlux(), "bore": fw.Convection(700.0, T_FLUID)}
     case = type("Case", (), {"cylinder": LONG, "faces": faces})()
-    res = inverse.fit(case, _readings(), calibrate={("bore", "h"): (700.0, 300.0)})
+    rd = _readings()
+    res = inverse.fit(case, rd, calibrate={("bore", "h"): (700.0, 300.0)})
     cal = res.summary["calibrated"]["bore_h"]
     assert abs(cal["value"] - H_TRUE) <= 2 * cal["sd"], cal               # closed form's h
+    # the sensor table: the readings as given (not the calibration's shifted ones), the answer's
+    # prediction, and their difference
+    t = res.sensors.set_index("sensor").loc[list(rd.names)]
+    np.testing.assert_array_equal(t["measured"].to_numpy(), rd.temperature)
+    np.testing.assert_allclose(t["fitted"].to_numpy(), res.predict(rd.r, rd.theta, rd.z)[0], rtol=0, atol=1e-9)
+    np.testing.assert_allclose(t["residual"].to_numpy(), rd.temperature - t["fitted"].to_numpy(), rtol=0, atol=1e-12)
+    assert np.max(np.abs(t["standardized"].to_numpy())) < 4.0
     power = res.summary["total_power_W"]                                   # per metre on a long part
     assert abs(power - 2 * math.pi * B * Q) <= 2 * res.summary["total_power_sd_W"]
 

@@ -214,6 +214,8 @@ def test_zone_model_with_h_calibrated_recovers_zones_h_and_power(zone_fit):
     rd = res.readings
     t = res.sensors.set_index("sensor").loc[list(rd.names)]
     np.testing.assert_allclose(t["fitted"].to_numpy(), res.predict(rd.r, rd.theta, rd.z)[0], rtol=0, atol=1e-9)
+    np.testing.assert_array_equal(t["measured"].to_numpy(), rd.temperature)
+    assert np.max(np.abs(t["standardized"].to_numpy())) < 4.0
 
 
 def test_zone_model_joint_sd_matches_monte_carlo(zone_fit):

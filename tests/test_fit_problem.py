@@ -103,6 +103,9 @@ def test_zones_without_a_range_cover_the_whole_span():
     p = Problem.from_case(types.SimpleNamespace(cylinder=cyl, faces=faces, zones=[half, band]))
     assert p.zones[0].r == (0.0, 0.1) and p.zones[0].z is None
     assert p.zones[1].z == (0.0, 0.05) and p.zones[1].r is None
+    # a ready-made Problem too
+    q = Problem.from_case(Problem(cyl, faces, (half, band)))
+    assert q.zones == p.zones
     bar = fw.Cylinder(0.1, math.inf, 20.0)
     with pytest.raises(inverse.InverseError, match="semi-infinite part needs a z range"):
         Problem.from_case(types.SimpleNamespace(cylinder=bar, faces={"bottom": fw.UnknownFlux(),
