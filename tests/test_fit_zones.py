@@ -440,3 +440,23 @@ def test_zone_level_scale_is_the_evidence_best_of_its_factors(readings, monkeypa
         assert a["mean"] == pytest.approx(b["mean"], rel=1e-9) and a["sd"] == pytest.approx(b["sd"], rel=1e-9)
         if z.nominal:
             assert a["delivered_fraction"] == pytest.approx(a["power_W"] / z.nominal, rel=1e-9)
+
+
+def test_zone_model_without_a_level_scale_leaves_the_smooth_model():
+    """Readings at the ambient temperature everywhere (no heat: every face flux zero) with the
+    fixed prior: the face's level scale is zero, so the zone levels have no prior scale; the
+    fit keeps the smooth model and says why, instead of failing."""
+    cyl = fw.Cylinder(0.1, 0.03, 20.0)
+    faces = {"bottom": fw.UnknownFlux(), "top": fw.Convection(50.0, 300.0), "side": fw.Insulated()}
+    rings = [inverse.Zone("in", "bottom", (0.0, 2 * math.pi), r=(0.0, 0.05)),
+             inverse.Zone("out", "bottom", (0.0, 2 * math.pi), r=(0.05, 0.1))]
+    rng = np.random.default_rng(0)
+    n = 12
+    rd = inverse.SensorReadings([f"T{i}" for i in range(n)], 0.09 * np.sqrt(rng.uniform(0, 1, n)),
+                                rng.uniform(0, 2 * math.pi, n), rng.choice([0.005, 0.015], n),
+                                np.full(n, 300.0), 0.1, 0.0, 0.0)
+    res = inverse.fit(types.SimpleNamespace(cylinder=cyl, faces=faces, zones=rings), rd, model="zones",
+                      prior="fixed", grid=(6, 12))
+    assert res.summary["model"] == "smooth"
+    assert any("zone model needs a scale for its levels" in w for w in res.warnings)
+    assert abs(res.summary["total_power_W"]) <= 2.0 * res.summary["total_power_sd_W"]   # no heat in
