@@ -174,7 +174,7 @@ def _answer_residuals(table, post, columns, rd, problem, zone_model, zones_lead=
     else:
         mean = post.figure_mean(lambda d: d.sensors(rd.r, rd.theta, rd.z), columns)
     # the readings' sd: the leading model's noise (its own left-out modes)
-    reading_sd = zone_model[0].smooth.noise.sd if zones_lead and zone_model is not None else problem.noise.sd
+    reading_sd = zone_model[0].smooth.noise.sd if zones_lead else problem.noise.sd
     row = {name: i for i, name in enumerate(rd.names)}
     i = np.array([row[str(name)] for name in table["sensor"]], dtype=int)
     out = table.copy()
