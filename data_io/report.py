@@ -192,6 +192,9 @@ def _prior_text(prior: dict) -> str:
         if isinstance(ls90, (list, tuple)) and len(ls90) == 2 and all(_finite(x) for x in ls90):
             parts[-1] += (f" (90 % range {sig(from_si(ls90[0], 'length', 'mm'), 2)} to "
                           f"{sig(from_si(ls90[1], 'length', 'mm'), 2)} mm)")
+    if _finite(prior.get("smooth_limit_weight")) and prior["smooth_limit_weight"] > 0.6:
+        parts.append("the smoothest profiles the prior family holds (probability "
+                     f"{prior['smooth_limit_weight']:.2f})")
     ratios = prior.get("axisymmetric_ratio_weights") or {}
     if len(ratios) > 1:
         best = max(ratios, key=ratios.get)

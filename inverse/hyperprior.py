@@ -38,7 +38,13 @@ Hyperpriors (proper, weakly informative):
   (same figures on the platen and wall scenarios).
 - log l uniform on [D / 20, 4 D], D = the face's size (the radius for an end face, the
   larger of radius and height for the side): from well below the sensor spacing of any
-  practical layout to smoother than the face itself.
+  practical layout to smoother than the face itself. At the long end the family converges:
+  with sigma_f fixed, (1 + l^2 ev_k)^-s over its sum tends to ev_k^-s over its sum, within
+  (1 + 1 / (l^2 ev_min))^s; where 4 D gives l^2 ev_min >= SMOOTH_LIMIT (end faces: the first
+  eigenvalue of m = 1 is about (1.84 / a)^2, so 16 x 3.4 = 54) the longest point is the
+  family's smooth limit, not an edge, and weight there reads "the smoothest profiles the
+  family holds" (summary's `smooth_limit_weight`), with no warning. A wall whose height
+  exceeds its radius several times stays short of it, and keeps the warning.
 - log2 rho ~ N(1, 1) on the points rho = 2^-2 ... 2^4 (AXISYMMETRIC_RATIOS, weights
   normalized over the points; the outer points lie 3 sd out). Heaters are mostly rings and
   bands, so a face's profile along its radius (or its height) usually varies more than it
@@ -95,6 +101,11 @@ from .strength_average import mixture_summary
 LOG_AMPLITUDE_SD = math.log(10.0) / 4.0
 LENGTH_RANGE = (1.0 / 20.0, 4.0)      # times the face size D
 N_LENGTHS = 9
+#: l^2 ev_min at which the family has reached its smooth limit: with the amplitude
+#: normalized (T), every free mode's prior variance is then within (1 + 1 / SMOOTH_LIMIT)^s
+#: of its value as l -> infinity (2 % for each unit of the exponent), so longer length scales
+#: hold no other prior and weight at the longest one is no edge of the family
+SMOOTH_LIMIT = 50.0
 #: the Matern smoothness nu of the family; the precision's exponent is s = nu + d / 2
 SMOOTHNESS = (0.25, 0.5, 1.0, 1.5, 2.0)
 #: grid of the axisymmetric ratio rho (powers of 2) and its hyperprior: log2 rho ~ N(centre, sd^2)
@@ -217,6 +228,7 @@ class LearnedPrior:
         if self.lengths.size < 1 or len(self.smoothness) < 1 or np.any(self.lengths <= 0) \
                 or min(self.smoothness) <= 0:
             raise InverseError("the prior family needs positive length scales and smoothness values")
+        self.length_range = (float(self.lengths.min()), float(self.lengths.max()))
         self.orders = tuple(matern_exponent(basis, nu) for nu in self.smoothness)
         K = problem.K
         nominal = np.zeros(K, dtype=bool) if nominal is None else np.asarray(nominal, dtype=bool)
@@ -233,6 +245,9 @@ class LearnedPrior:
         spread = max(float(readings_spread(problem) if spread is None else spread), 1.0)
         self.problem = problem
         ev, scale = basis.surface_eigenvalues(), basis.norms() / face_area(basis)
+        ev_free = ev[free]
+        self.reaches_smooth_limit = bool(ev_free.size and np.all(ev_free > 0)
+                                         and self.lengths.max() ** 2 * ev_free.min() >= SMOOTH_LIMIT)
         combos, precisions, log_ref, T = [], [], [], []
         for rho in self.ratios:
             for d0 in self.dimensions:
@@ -435,12 +450,15 @@ class LearnedPrior:
     @property
     def warnings(self) -> tuple[str, ...]:
         """Notes on hyperparameters set by their hyperprior rather than the data: the length
-        scale pressed against an end of its range. (An amplitude the data cannot fix is
-        `description()['hyperprior_dominated']`, reported by inverse.resolution.)"""
+        scale pressed against an end of its range, the longest one only where the family has
+        not reached its smooth limit there (SMOOTH_LIMIT: beyond it no other prior remains).
+        (An amplitude the data cannot fix is `description()['hyperprior_dominated']`, reported
+        by inverse.resolution.)"""
         out = []
         w_l = self._marginals()[0]
         if self.lengths.size >= 4:
-            for end, mass in (("shortest", w_l[:2].sum()), ("longest", w_l[-2:].sum())):
+            ends = [("shortest", w_l[:2].sum())] + ([] if self.reaches_smooth_limit else [("longest", w_l[-2:].sum())])
+            for end, mass in ends:
                 if mass > 0.6:
                     out.append(f"the prior's length scale is pressed against the {end} value its hyperprior "
                                f"allows ({self.length_range[0] * 1e3:.3g}-{self.length_range[1] * 1e3:.3g} mm, "
@@ -463,6 +481,8 @@ class LearnedPrior:
             "family": "whittle-matern", "length_scale_m": float(self.lengths[int(np.argmax(w_l))]),
             "length_scale_90_m": [float(l90[0]), float(l90[1])],
             "length_scale_hyperprior_m": [float(self.length_range[0]), float(self.length_range[1])],
+            "length_scale_range_reaches_smooth_limit": self.reaches_smooth_limit,
+            "smooth_limit_weight": float(w_l[-2:].sum()) if self.reaches_smooth_limit else 0.0,
             "smoothness_weights": {f"{nu:g}": float(w) for nu, w in zip(self.smoothness, w_s)},
             "axisymmetric_ratio_weights": {f"{x:g}": float(w) for x, w in zip(self.ratios, w_r)},
             "strength_90": [float(a90[0]), float(a90[1])],

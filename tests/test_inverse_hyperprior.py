@@ -265,3 +265,41 @@ def test_profile_dimension_is_averaged_with_equal_prior_odds():
     assert both.log_marginal == pytest.approx(expect, abs=1e-7)
     w1 = both.description()["axisymmetric_dimension_weights"]["1"]
     assert w1 == pytest.approx(1.0 / (1.0 + math.exp(two.log_marginal - one.log_marginal)), abs=1e-7)
+
+
+def _normalized_variances(basis, nominal, length, order):
+    """1 / (T w_k) over the free modes: the family's prior variances at amplitude 1."""
+    v = 1.0 / hyperprior.matern_weights(basis, length, order)[~nominal]
+    return v / v.sum()
+
+
+def test_longest_length_scale_is_the_smooth_limit_when_the_family_has_converged_there():
+    # with the amplitude normalized, (1 + l^2 ev)^-s over its sum tends to ev^-s over its sum as
+    # l -> infinity; once l^2 ev_min >= SMOOTH_LIMIT every variance is within
+    # (1 + 1 / SMOOTH_LIMIT)^s of that limit (bound derived in hyperprior.SMOOTH_LIMIT's note)
+    basis, prob, nominal = make()
+    lp = LearnedPrior(prob, basis, nominal, 1e-4)
+    short = LearnedPrior(prob, basis, nominal, 1e-4, lengths=np.geomspace(0.05 * A, 0.6 * A, 5))
+    assert lp.reaches_smooth_limit and not short.reaches_smooth_limit
+    for s in lp.orders:
+        bound = (1.0 + 1.0 / hyperprior.SMOOTH_LIMIT) ** s - 1.0
+        far = _normalized_variances(basis, nominal, 1e3 * lp.lengths[-1], s)
+        assert np.max(np.abs(_normalized_variances(basis, nominal, lp.lengths[-1], s) / far - 1)) <= bound
+        # the short range's top is not there yet: the rule is not vacuous
+        assert np.max(np.abs(_normalized_variances(basis, nominal, short.lengths[-1], s) / far - 1)) > 10 * bound
+
+
+def test_weight_at_the_longest_length_warns_only_short_of_the_smooth_limit():
+    basis, prob, nominal = make()
+    for lengths, warns in ((None, False), (np.geomspace(0.05 * A, 0.6 * A, 5), True)):
+        lp = LearnedPrior(prob, basis, nominal, 1e-4, lengths=lengths)
+        w = np.zeros_like(lp.weights).reshape(-1, lp.lengths.size, lp.z.size)
+        w[:, -1, :] = 1.0                   # every weight at the longest length scale
+        lp.weights = (w / w.sum()).reshape(lp.weights.shape)
+        text = " ".join(lp.warnings)
+        assert ("longest" in text) == warns
+        desc = lp.description()
+        assert desc["length_scale_range_reaches_smooth_limit"] == (not warns)
+        assert desc["smooth_limit_weight"] == pytest.approx(0.0 if warns else 1.0)
+        if warns:   # the range the fit used, in mm
+            assert f"{0.05 * A * 1e3:.3g}-{0.6 * A * 1e3:.3g} mm" in text
