@@ -78,6 +78,36 @@ class Console:
         return tqdm(total=total, desc=f"  {label}", file=self.stderr, leave=False)
 
 
+    def status(self) -> "_Status":
+        """A one-line status of a long command's steps on stderr: .show(text) replaces the
+        line, .close() clears it; shown only on a terminal (not quiet, not --json); with
+        --verbose each step is a line of its own instead."""
+        try:
+            terminal = bool(self.stderr.isatty())
+        except (AttributeError, ValueError, OSError):
+            terminal = False
+        return _Status(self, terminal and not (self.quiet or self.json))
+
+
+class _Status:
+    def __init__(self, console, live: bool):
+        self.console, self.live, self.width = console, live, 0
+
+    def show(self, text: str) -> None:
+        if self.console.verbose:
+            self.console.step(text)
+            return
+        if self.live:
+            line = f"{PROG}: {printable(text)}"
+            print("\r" + line.ljust(self.width), end="", file=self.console.stderr, flush=True)
+            self.width = len(line)
+
+    def close(self) -> None:
+        if self.live and self.width:
+            print("\r" + " " * self.width + "\r", end="", file=self.console.stderr, flush=True)
+            self.width = 0
+
+
 class _Silent:
     def update(self, n: int = 1) -> None:
         pass

@@ -39,10 +39,17 @@ def run_fit(case_path, *, readings=None, at=None, out=None, overwrite=False, mon
     folder, create = output_folder(Path(out) if out else case.folder / f"{case.path.stem}-fit", case, overwrite,
                                    inputs=[readings_path, at])
     current().step(f"fitting {case.path} to {readings_path}")
-    result, points = fit_case(case, readings_path, at=at, monte_carlo=monte_carlo, seed=seed,
-                              progress=_Draws() if monte_carlo else None)
+    status = current().status()
+    try:
+        result, points = fit_case(case, readings_path, at=at, monte_carlo=monte_carlo, seed=seed,
+                                  progress=_Draws() if monte_carlo else None,
+                                  stage=lambda k, n, text: status.show(f"fitting [{k}/{n}]: {text}"))
+        status.show(f"drawing the figures and the report for {folder}")
+        files = output_files(result, case, readings_path, points)
+    finally:
+        status.close()
     current().step(f"writing the outputs into {folder}")
-    write_outputs(folder, create, output_files(result, case, readings_path, points))
+    write_outputs(folder, create, files)
     text = console_summary(result, folder)
     if echo is not None:
         echo(text)

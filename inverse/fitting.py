@@ -56,16 +56,19 @@ from .zones import ZONE_LEVEL_FACTORS, ZONE_PRIOR_FACTOR, ZoneDesign, ZoneModel,
 CHI2_WARNING = 4.0
 
 @few_threads
-def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
+def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResult:
     """Fit the unknown face of `problem` (an inverse.Problem, or anything with .cylinder,
     .faces and optionally .zones and .fit; see Problem.from_case) to `readings`
     (SensorReadings or a table with r, theta, z, temperature, sigma, offset_sd,
     position_tolerance in SI).  Keyword overrides are FitOptions fields; strength may be
     'evidence' | 'auto' | 'gcv' | 'lcurve' | 'discrepancy' | a number, and calibrate a
     {(face, 'h' | 'ambient'): (prior mean, prior sd) or None}.  progress(done, total) is
-    called during Monte Carlo draws.  BLAS runs on one thread inside (inverse.threads)."""
+    called during Monte Carlo draws, stage(k, n, text) as each of the fit's n steps begins
+    (k = 1..n; a step that does not apply is skipped).  BLAS runs on one thread inside
+    (inverse.threads)."""
     spec = Problem.from_case(problem, **overrides)
     opts = spec.options
+    step = _Steps(stage, opts, spec)
     face = spec.unknown_face
     rd = as_readings(readings)
     if rd.n < 2:
@@ -75,6 +78,7 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
                            "(strength = \"evidence\", prior = \"learned\", no Monte Carlo); "
                            "use model = \"smooth\" or drop calibrate")
 
+    step("series of the part at the sensors")
     design = Design(spec.cylinder, spec.faces, opts.tolerance, *opts.basis_size)
     P, u = smooth_prior(design.basis, spec.cylinder.radius, opts.smoothing)
     warnings: list[str] = []
@@ -88,8 +92,10 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
     ok[[g.index for g in gross]] = False
     base = _with_placement(_linear_problem(G, t0, noise, rd, P, u, ok), rd, ev, dG, P, u, ok, opts)
     if opts.calibrate:
+        step("calibrating " + ", ".join(f"{face}.{what}" for face, what in opts.calibrate))
         design = _calibrated_design(design, rd, base, P, opts, gross)
         base = _linear_problem(*design.sensors(rd.r, rd.theta, rd.z), base.noise, rd, P, u, ok)
+    step("screening the sensors, learning the prior")
     # the left-out modes' variance is learned without the sensors a first screening (without
     # it) suspects: a broken sensor would otherwise widen it and hide itself; with calibrated
     # parameters, at the calibrated ones
@@ -107,6 +113,8 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
         design = post.calibration.design
     # each model screens the sensors itself: a sensor one model cannot explain may be
     # healthy under the other (model_choice.py compares them on all the readings)
+    if step.zones:
+        step("the heater-zone model")
     zone_models = _zone_models(spec, design, rd, base, warnings, post, shift)
     leading = post.averaged.leading() if isinstance(post.averaged, LearnedPrior) and zone_models else None
     if zone_models and _learned(opts):
@@ -135,6 +143,7 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
         model_info = {**model_info, "prior": post.averaged.description()}
     mc = None
     if opts.monte_carlo and columns is design:
+        step("Monte Carlo draws of the sensor positions")
         alphas = post.averaged.alpha_mixture() if post.averaged is not None else \
             (np.array([screen.choice.alpha]), np.ones(1))
         mc = placement_draws(design, rd, screen.kept, P, screen.problem, alphas, int(opts.monte_carlo),
@@ -151,11 +160,28 @@ def fit(problem, readings, *, progress=None, **overrides) -> FitResult:
 
         def map_tail(points):
             return None, None, face_tail_variance(design, points, lead_prior, rd.subset(screen.kept))
+    step("bands, zones and power of the answer")
     sensors = _answer_residuals(screen.table, post, columns, rd, problem, zone_model, model_info["model"] == "zones")
     return FitResult.build(spec=spec, design=columns, readings=rd, kept=screen.kept, problem=screen.problem,
                            choice=screen.choice, posterior=post, sensors=sensors,
                            set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)),
                            monte_carlo=mc, extra=model_info, figure_tails=figure_tails, map_tail=map_tail)
+
+
+class _Steps:
+    """stage(k, n, text) as each step of a fit begins (fit's `stage`; None: silent).  n counts
+    the steps this fit takes: the series, the screening with the prior, the answer's bands,
+    and the calibration, the zone model and the Monte Carlo draws where they apply."""
+
+    def __init__(self, stage, opts, spec):
+        self.stage, self.done = stage, 0
+        self.zones = bool(spec.zones) and opts.model != "smooth"
+        self.total = 3 + bool(opts.calibrate) + self.zones + bool(opts.monte_carlo)
+
+    def __call__(self, text):
+        self.done = min(self.done + 1, self.total)
+        if self.stage is not None:
+            self.stage(self.done, self.total, text)
 
 
 def _answer_residuals(table, post, columns, rd, problem, zone_model, zones_lead=False):

@@ -3,7 +3,9 @@ warnings on stderr; Python's own warnings kept off stderr unless --verbose; --ve
 package metadata; --help without the numerical stack."""
 
 import importlib.metadata
+import io
 import json
+import re
 import subprocess
 import sys
 import warnings
@@ -88,3 +90,33 @@ def test_every_command_takes_the_console_options(capsys):
         assert main([command, "--help"]) == 0
         text = capsys.readouterr().out
         assert "--quiet" in text and "--verbose" in text and "--json" in text, command
+
+
+class _Terminal(io.StringIO):
+    """stderr as a terminal sees it."""
+
+    def isatty(self):
+        return True
+
+
+def test_fit_shows_its_steps_on_a_terminal_and_clears_the_line(folder, monkeypatch):
+    err = _Terminal()
+    monkeypatch.setattr(sys, "stderr", err)
+    assert main(["fit", "case.toml", "--out", "o"]) == 0
+    text = err.getvalue()
+    steps = re.findall(r"\rheatsight: fitting \[(\d+)/(\d+)\]: ", text)
+    n = int(steps[0][1])
+    assert [int(k) for k, _ in steps] == list(range(1, n + 1)) and {t for _, t in steps} == {str(n)}
+    assert "\rheatsight: drawing the figures and the report for o" in text
+    # the status line is blanked before anything else is written on stderr
+    last = text.rindex("\rheatsight: drawing")
+    blank = re.search(r"\r +\r", text[last:])
+    assert blank is not None and "\r" not in text[last + blank.end():]
+
+
+def test_fit_steps_are_lines_with_verbose_and_absent_otherwise(folder, capsys):
+    assert main(["fit", "case.toml", "--out", "o1"]) == 0
+    assert "fitting [" not in capsys.readouterr().err          # not a terminal: no status line
+    assert main(["fit", "case.toml", "--out", "o2", "--verbose"]) == 0
+    err = capsys.readouterr().err
+    assert "heatsight: fitting [1/" in err and "\r" not in err
