@@ -6,7 +6,6 @@ import argparse
 from pathlib import Path
 
 from .arguments import count
-from .errors import InputError
 
 
 class _Draws:
