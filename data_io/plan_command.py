@@ -82,8 +82,9 @@ def _layout_sensors(case, warnings):
             sigma, tau)
 
 
-def _state(case, which, readings_path, warnings, result=None):
-    """(PlanState, FitResult or None, expected-variation note); `result`: a fit already made."""
+def _state(case, which, readings_path, warnings, result=None, say=None):
+    """(PlanState, FitResult or None, expected-variation note); `result`: a fit already made;
+    say(text): the fit's steps as they begin."""
     from ..inverse.plan import state_from_fit, state_from_prior
     from ..inverse.problem import Problem
 
@@ -96,7 +97,8 @@ def _state(case, which, readings_path, warnings, result=None):
         if case.sensors.layout is None:
             raise InputError("readings need the sensor layout: add [sensors] layout = \"layout.csv\"",
                              file=case.path, where="sensors.layout")
-        result, _ = fit_case(case, readings_path)
+        result, _ = fit_case(case, readings_path,
+                             stage=None if say is None else (lambda k, n, text: say(f"fitting [{k}/{n}]: {text}")))
         warnings += result.warnings
         return state_from_fit(result, which, case.zones, opts.sigma, opts.offset_sd, opts.covariance), result, ""
     quantity = _quantity(case)
@@ -162,10 +164,12 @@ def _candidates(case, state, frame, path, face, warnings):
     return r[ok], th[ok], z[ok]
 
 
-def compute_plan(case, add: int, candidates=None, targets=None, readings=None, fit=None) -> PlanRun:
+def compute_plan(case, add: int, candidates=None, targets=None, readings=None, fit=None, stage=None) -> PlanRun:
     """Plan `add` new sensors for the case (a data_io Case): targets as in inverse.plan.target_list
     (default `default_targets`), readings: a snapshot path (default: the case's, if any); fit:
-    a FitResult of these readings already made (not refitted)."""
+    a FitResult of these readings already made (not refitted); stage(text): each step as it
+    begins (the command line's status line)."""
+    say = stage or (lambda text: None)
     from ..inverse.plan import greedy, sensor_value
     from ..inverse.plan_rules import drill_face
 
@@ -186,10 +190,12 @@ def compute_plan(case, add: int, candidates=None, targets=None, readings=None, f
     warnings: list[str] = []
     try:
         face = drill_face(case.plan.rules, case.unknown_face, case.cylinder)
-        state, fit, note = _state(case, which, readings_path, warnings, fit)
+        state, fit, note = _state(case, which, readings_path, warnings, fit, say)
         pos = _candidates(case, state, frame, cand_path, face, warnings)
+        say(f"choosing {add} of {np.size(pos[0])} candidate positions")
         rows = state.rows(*pos)
         plan = greedy(state, rows, add, pos, case.plan.rules.spacing)
+        say("ranking the sensors by what their loss would cost")
         value = sensor_value(state)
     except (InverseError, ForwardModelError) as exc:
         raise InputError(str(exc), file=case.path) from None
@@ -221,8 +227,13 @@ def _run_plan(args) -> int:
     folder, create = output_folder(Path(args.out) if args.out else case.folder / f"{case.path.stem}-plan", case,
                                    args.overwrite, names=PLAN_OUTPUT_NAMES, inputs=[args.readings, cand])
     current().step(f"planning {args.add} new sensor(s) for {case.path}")
-    run = compute_plan(case, args.add, cand, targets or None, args.readings)
-    files, summary = output_files(run)
+    status = current().status()
+    try:
+        run = compute_plan(case, args.add, cand, targets or None, args.readings, stage=status.show)
+        status.show(f"drawing the figures and the report for {folder}")
+        files, summary = output_files(run)
+    finally:
+        status.close()
     write_outputs(folder, create, files)
     for w in run.warnings:
         current().warn(w)

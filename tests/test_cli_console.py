@@ -120,3 +120,15 @@ def test_fit_steps_are_lines_with_verbose_and_absent_otherwise(folder, capsys):
     assert main(["fit", "case.toml", "--out", "o2", "--verbose"]) == 0
     err = capsys.readouterr().err
     assert "heatsight: fitting [1/" in err and "\r" not in err
+
+
+def test_plan_shows_its_steps_on_a_terminal(folder, monkeypatch):
+    err = _Terminal()
+    monkeypatch.setattr(sys, "stderr", err)
+    assert main(["plan", "case.toml", "--add", "1", "--out", "p"]) == 0
+    shown = [line.strip() for line in err.getvalue().split("\r") if line.strip()]
+    first = [i for i, line in enumerate(shown) if line.startswith("heatsight: fitting [1/")][0]
+    steps = [line.split(": ", 1)[1] for line in shown[first:] if not line.startswith("heatsight: warning")]
+    assert steps[-3].startswith("choosing 1 of ") and steps[-3].endswith(" candidate positions")
+    assert steps[-2] == "ranking the sensors by what their loss would cost"
+    assert steps[-1] == "drawing the figures and the report for p"
