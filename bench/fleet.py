@@ -1,10 +1,12 @@
 """Benchmark of `heatsight trend` over a fleet of parts; prints figures measured in this run.
 
 8 parts (the demo platen with its own invented log each: a steady heater, noise and
-offsets drawn per part) are trended
-  1. one after another in this process (imports warm, like a loop over the parts), and
-  2. as one fleet on a new local dask cluster of 2 worker processes (data_io.fleet; the
-     cluster's start-up and the workers' imports are counted).
+offsets drawn per part) are trended, each way in a fresh Python process whose imports are
+counted (as a command line run):
+  1. one after another (a loop over the parts, data_io.trend_command.run_part), and
+  2. as one fleet on a new local dask cluster of 2 worker processes (data_io.fleet.run_fleet
+     as `heatsight trend A.toml B.toml ...` runs it: the parts' modules imported first, the
+     workers forked on Linux; the cluster's start-up is counted).
 Goal: (1) / (2) >= 1.6, and the numbers identical to 1e-12: every column of each part's
 trend.parquet (full doubles) and the summary's reference figures are compared, and the
 largest relative difference is printed.
@@ -19,6 +21,7 @@ import json
 import os
 import platform
 import shutil
+import subprocess
 import sys
 import tempfile
 import time
@@ -84,10 +87,17 @@ def max_rel_difference(a: Path, b: Path) -> float:
     return worst
 
 
-def main() -> None:
-    from heatsight.data_io.fleet import run_fleet
-    from heatsight.data_io.trend_command import run_part
+def _process(code: str) -> float:
+    """Seconds of a fresh Python process running `code` (BLAS on one thread, as the command line)."""
+    env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1", MKL_NUM_THREADS="1")
+    t = time.perf_counter()
+    res = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True)
+    if res.returncode != 0:
+        raise SystemExit(f"run failed:\n{res.stderr[-3000:]}")
+    return time.perf_counter() - t
 
+
+def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     ap.add_argument("--parts", type=int, default=8)
     ap.add_argument("--hours", type=float, default=2.0, help="hours of log per part (10 s sampling)")
@@ -99,18 +109,18 @@ def main() -> None:
     try:
         cases = make_parts(tmp, args.parts, args.hours)
         options = {"fmt": "parquet"}
-        t = time.perf_counter()
-        for c in cases:
-            rec = run_part(str(c), str(tmp / "seq" / f"{c.stem}-trend"), options)
-            if rec["status"] != "done":
-                raise SystemExit(f"part failed: {rec}")
-        t_seq = time.perf_counter() - t
-
-        t = time.perf_counter()
-        records, status = run_fleet(cases, run_part, out=tmp / "fleet", workers=args.workers, options=options)
-        t_fleet = time.perf_counter() - t
-        if status != 0:
-            raise SystemExit(f"fleet failed: {records}")
+        parts = json.dumps([str(c) for c in cases])
+        seq = (f"import json\nfrom heatsight.data_io.trend_command import run_part\n"
+               f"for c in json.loads({parts!r}):\n"
+               f"    rec = run_part(c, {str(tmp / 'seq')!r} + '/' + c.rsplit('/', 1)[1][:-5] + '-trend', {options!r})\n"
+               f"    assert rec['status'] == 'done', rec\n")
+        fleet = (f"import json\nfrom heatsight.data_io.fleet import run_fleet\n"
+                 f"from heatsight.data_io.trend_command import preload_part, run_part\n"
+                 f"records, status = run_fleet(json.loads({parts!r}), run_part, out={str(tmp / 'fleet')!r}, "
+                 f"workers={args.workers}, options={options!r}, preload=preload_part)\n"
+                 f"assert status == 0, records\n")
+        t_seq = _process(seq)
+        t_fleet = _process(fleet)
         worst = max(max_rel_difference(tmp / "seq" / f"{c.stem}-trend", tmp / "fleet" / f"{c.stem}-trend")
                     for c in cases)
         print(f"{args.parts} parts, {args.hours:g} h of log each: one after another {t_seq:.1f} s; "

@@ -19,6 +19,7 @@ the parts that succeeded have their outputs in every case.
 from __future__ import annotations
 
 import os
+import sys
 from pathlib import Path
 
 from .errors import InputError
@@ -36,6 +37,12 @@ CONNECT_TIMEOUT_S = 20
 #: task thread is off (no dashboard reads it).  The BLAS thread variables (one thread) stay.
 LOCAL_WORKER_CONFIG = {"distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOLD_": None,
                        "distributed.worker.profile.enabled": False}
+#: how the local cluster starts its workers: on Linux by fork, after the parts' modules are
+#: imported here (run_fleet's `preload`), so that no worker imports the numerical stack again
+#: (bench/fleet.py, both ways in fresh processes: 8 two-hour parts 1.26x with spawn, 1.53-1.64x
+#: by fork on two cores, the same numbers); elsewhere
+#: dask's default (spawn: fork is not safe on macOS and absent on Windows)
+LOCAL_START_METHOD = "fork" if sys.platform.startswith("linux") else None
 
 
 def fleet_parts(paths) -> list[Path]:
@@ -79,9 +86,10 @@ def part_folders(parts, out) -> list[Path | None]:
     return folders
 
 
-def _client(scheduler, workers):
+def _client(scheduler, workers, preload=None):
     """A dask.distributed Client: of the cluster at `scheduler`, or of a new local cluster
-    of `workers` processes with one thread each (closed with the client)."""
+    of `workers` processes with one thread each (closed with the client), started after
+    preload() (LOCAL_START_METHOD)."""
     try:
         from dask.distributed import Client, LocalCluster
     except ImportError:
@@ -95,7 +103,12 @@ def _client(scheduler, workers):
 
     import dask
 
-    with dask.config.set(LOCAL_WORKER_CONFIG):
+    config = dict(LOCAL_WORKER_CONFIG)
+    if LOCAL_START_METHOD is not None:
+        config["distributed.worker.multiprocessing-method"] = LOCAL_START_METHOD
+    if preload is not None:
+        preload()
+    with dask.config.set(config):
         cluster = LocalCluster(n_workers=int(workers), threads_per_worker=1, processes=True, dashboard_address=None,
                                silence_logs=logging.ERROR)
     return Client(cluster, set_as_default=False)
@@ -107,12 +120,14 @@ def exit_status(records) -> int:
     return 1 if "failed" in states else 2 if "bad input" in states else 0
 
 
-def run_fleet(paths, task, *, out=None, scheduler=None, workers=None, options=None, report=None, client=None):
+def run_fleet(paths, task, *, out=None, scheduler=None, workers=None, options=None, report=None, client=None,
+              preload=None):
     """Run task(case path, output folder or None, options) -> record (a module-level
     function, data_io.trend_command.run_part) for every part; returns (records in the parts'
     order, exit status).
     report(i, n, record) is called as each part finishes (progress per part); `client`: an
-    existing dask Client to use (else one is made from scheduler / workers and closed)."""
+    existing dask Client to use (else one is made from scheduler / workers and closed);
+    preload(): imports the task needs, run here before a local cluster forks its workers."""
     parts = fleet_parts(paths)
     folders = part_folders(parts, out)
     workers = int(workers or min(DEFAULT_WORKERS, os.cpu_count() or 1))
@@ -121,7 +136,7 @@ def run_fleet(paths, task, *, out=None, scheduler=None, workers=None, options=No
     options = dict(options or {})
     own = client is None
     if own:
-        client = _client(scheduler, workers)
+        client = _client(scheduler, workers, preload)
     try:
         from dask.distributed import as_completed
 

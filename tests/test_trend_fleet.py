@@ -117,3 +117,30 @@ def test_local_workers_keep_glibc_adaptive_heap_and_one_blas_thread():
         cluster = client.cluster
         client.close()
         cluster.close()
+
+
+_PRELOADED = []
+
+
+def _preload():
+    _PRELOADED.append(True)
+
+
+def _probe(case, out, options):
+    """A fleet task reporting whether the worker holds the parent's preloaded state."""
+    return {"case": case, "status": "done", "preloaded": bool(_PRELOADED)}
+
+
+@pytest.mark.skipif(not fleet.LOCAL_START_METHOD, reason="the local cluster forks its workers on Linux only")
+def test_local_workers_start_from_the_preloaded_parent(tmp_path):
+    """On Linux the local cluster forks its workers after run_fleet's preload, so the parts'
+    modules are not imported again in each worker (bench/fleet.py); a worker started fresh
+    (spawn) would import this module anew and see no preload."""
+    cases = []
+    for name in ("a", "b"):
+        (tmp_path / f"{name}.toml").write_text("")
+        cases.append(tmp_path / f"{name}.toml")
+    _PRELOADED.clear()
+    records, status = fleet.run_fleet(cases, _probe, workers=1, preload=_preload)
+    assert status == 0 and [r["preloaded"] for r in records] == [True, True]
+    _PRELOADED.clear()
