@@ -388,9 +388,10 @@ class LearnedPrior:
         means, sds, ws = [], [], []
         n_total = sum(a.size for _, a, _ in self._parts)
         group = 1 if limit is None else max(1, math.ceil(n_total / limit))
+        B2 = np.square(np.asarray(B, dtype=float)) if group > 1 else None      # shared by every point's projection
         for pb, a, w in self._parts:
             if group > 1:
-                w, mi, si = pb.predict_merged(B, a, w, group, offset)
+                w, mi, si = pb.predict_merged(B, a, w, group, offset, B2)
             else:
                 mi, si = pb.predict(B, a, offset)
                 mi, si = np.reshape(mi, (a.size, -1)), np.reshape(si, (a.size, -1))

@@ -317,3 +317,28 @@ def test_weighted_moments_equal_the_mixture_of_explicit_posteriors(n, K, case):
     cov = np.einsum("i,ikl->kl", wn, Cs) + ((cs - mean).T * wn) @ (cs - mean)
     np.testing.assert_allclose(scatter / W, cov, rtol=0, atol=1e-8 * np.abs(cov).max())
     np.testing.assert_allclose(np.diag(scatter / W), np.diag(cov), rtol=1e-7)
+
+
+@pytest.mark.parametrize("n,K,pinned", [(10, 24, False), (10, 24, True), (6, 40, True), (16, 8, False)])
+def test_projection_without_forming_the_scaled_map_matches_extended_precision(n, K, pinned):
+    """_projected (X V_r and the unseen rest ||X (I - V_r V_r^T)||^2 of X = B P^-1/2, from one
+    product per prior with the flat columns split off) against the direct projection in numpy's
+    extended precision (longdouble), with and without B^2 given; a nearly flat pinned
+    coordinate (prior precision 1e-12) and a few long-scale columns make several flat ones."""
+    G, d, t0, S, p, c0 = toy(n, K, 5)
+    p[1:4] = 1e-6                               # long-scale modes: sd 1000x the others'
+    if pinned:
+        G[:, 0], G[0, 0], p[0] = 0.0, 1e3, 1e-12
+    pb = LinearGaussianProblem(G, d, t0, S, p, c0)
+    B = np.random.default_rng(6).standard_normal((200, K))
+    X = B.astype(np.longdouble) / np.sqrt(p.astype(np.longdouble))[None, :]
+    Vt = pb._Vt_r.astype(np.longdouble)
+    XV = X @ Vt.T
+    rest = X - XV @ Vt
+    for B2 in (None, B * B):
+        got_v, got_r = pb._projected(B, B2)
+        np.testing.assert_allclose(got_v, np.asarray(XV, float), rtol=0, atol=1e-13 * float(np.abs(XV).max()))
+        if n >= K:
+            assert got_r is None
+        else:
+            np.testing.assert_allclose(got_r, np.asarray(np.einsum("qk,qk->q", rest, rest), float), rtol=1e-9)
