@@ -115,9 +115,9 @@ def main() -> None:
                f"    rec = run_part(c, {str(tmp / 'seq')!r} + '/' + c.rsplit('/', 1)[1][:-5] + '-trend', {options!r})\n"
                f"    assert rec['status'] == 'done', rec\n")
         fleet = (f"import json\nfrom heatsight.data_io.fleet import run_fleet\n"
-                 f"from heatsight.data_io.trend_command import preload_part, run_part\n"
+                 f"from heatsight.data_io.trend_command import PART_MODULES, run_part\n"
                  f"records, status = run_fleet(json.loads({parts!r}), run_part, out={str(tmp / 'fleet')!r}, "
-                 f"workers={args.workers}, options={options!r}, preload=preload_part)\n"
+                 f"workers={args.workers}, options={options!r}, preload=PART_MODULES)\n"
                  f"assert status == 0, records\n")
         t_seq = _process(seq)
         t_fleet = _process(fleet)

@@ -9,8 +9,9 @@ redirected stderr never receives carriage-return lines.
 
 from __future__ import annotations
 
+import shutil
 import sys
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 PROG = "heatsight"
 #: console lines of the summaries that are warnings (they are moved to stderr)
@@ -32,6 +33,7 @@ class Console:
     json: bool = False
     out: object = None       # streams; None: sys.stdout / sys.stderr at the time of writing
     err: object = None
+    _status: object = field(default=None, repr=False, compare=False)
 
     @property
     def stdout(self):
@@ -64,7 +66,10 @@ class Console:
             print("\n".join(body), file=self.stdout)
 
     def progress(self, total: int, label: str):
-        """A progress bar with .update(n) and .close(); silent unless stderr is a terminal."""
+        """A progress bar with .update(n) and .close(); silent unless stderr is a terminal.
+        A status line on show (status()) is cleared first: the bar takes its line."""
+        if self._status is not None:
+            self._status.close()
         try:
             terminal = bool(self.stderr.isatty())
         except (AttributeError, ValueError, OSError):
@@ -86,10 +91,14 @@ class Console:
             terminal = bool(self.stderr.isatty())
         except (AttributeError, ValueError, OSError):
             terminal = False
-        return _Status(self, terminal and not (self.quiet or self.json))
+        self._status = _Status(self, terminal and not (self.quiet or self.json))
+        return self._status
 
 
 class _Status:
+    """The status line: one line of stderr, cut to the terminal's width (a wrapped line could
+    not be rewritten in place)."""
+
     def __init__(self, console, live: bool):
         self.console, self.live, self.width = console, live, 0
 
@@ -98,7 +107,9 @@ class _Status:
             self.console.step(text)
             return
         if self.live:
+            room = max(shutil.get_terminal_size(fallback=(80, 24)).columns - 1, 10)
             line = f"{PROG}: {printable(text)}"
+            line = line if len(line) <= room else line[:room - 3] + "..."
             print("\r" + line.ljust(self.width), end="", file=self.console.stderr, flush=True)
             self.width = len(line)
 

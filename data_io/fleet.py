@@ -37,12 +37,14 @@ CONNECT_TIMEOUT_S = 20
 #: task thread is off (no dashboard reads it).  The BLAS thread variables (one thread) stay.
 LOCAL_WORKER_CONFIG = {"distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOLD_": None,
                        "distributed.worker.profile.enabled": False}
-#: how the local cluster starts its workers: on Linux by fork, after the parts' modules are
-#: imported here (run_fleet's `preload`), so that no worker imports the numerical stack again
-#: (bench/fleet.py, both ways in fresh processes: 8 two-hour parts 1.26x with spawn, 1.53-1.64x
-#: by fork on two cores, the same numbers); elsewhere
-#: dask's default (spawn: fork is not safe on macOS and absent on Windows)
-LOCAL_START_METHOD = "fork" if sys.platform.startswith("linux") else None
+#: how the local cluster starts its workers: on Linux from a fork server that has imported
+#: what a part needs (run_fleet's `preload`, e.g. trend_command.PART_MODULES), so that no worker
+#: imports the numerical stack again: bench/fleet.py, both ways in fresh processes, 8 two-hour
+#: parts on two workers 1.26x with dask's default (spawn), 1.48-1.57x this way, the same
+#: numbers.  The server is a fresh single-threaded process, so nothing forks a parent that
+#: runs dask's threads; it starts with the nannies' environment (BLAS on one thread).
+#: Elsewhere dask's default (spawn).
+LOCAL_START_METHOD = "forkserver" if sys.platform.startswith("linux") else None
 
 
 def fleet_parts(paths) -> list[Path]:
@@ -86,10 +88,11 @@ def part_folders(parts, out) -> list[Path | None]:
     return folders
 
 
-def _client(scheduler, workers, preload=None):
+def _client(scheduler, workers, preload=()):
     """A dask.distributed Client: of the cluster at `scheduler`, or of a new local cluster
-    of `workers` processes with one thread each (closed with the client), started after
-    preload() (LOCAL_START_METHOD)."""
+    of `workers` processes with one thread each (closed with the client), its workers
+    started with the modules `preload` imported (LOCAL_START_METHOD; the fork server is one
+    per process: the first local cluster's list holds for the later ones)."""
     try:
         from dask.distributed import Client, LocalCluster
     except ImportError:
@@ -106,8 +109,11 @@ def _client(scheduler, workers, preload=None):
     config = dict(LOCAL_WORKER_CONFIG)
     if LOCAL_START_METHOD is not None:
         config["distributed.worker.multiprocessing-method"] = LOCAL_START_METHOD
-    if preload is not None:
-        preload()
+        if preload:
+            from distributed.utils import get_mp_context
+            with dask.config.set(config):
+                ctx = get_mp_context()          # dask sets its own list here first
+            ctx.set_forkserver_preload(["distributed", *preload])
     with dask.config.set(config):
         cluster = LocalCluster(n_workers=int(workers), threads_per_worker=1, processes=True, dashboard_address=None,
                                silence_logs=logging.ERROR)
@@ -121,13 +127,14 @@ def exit_status(records) -> int:
 
 
 def run_fleet(paths, task, *, out=None, scheduler=None, workers=None, options=None, report=None, client=None,
-              preload=None):
+              preload=()):
     """Run task(case path, output folder or None, options) -> record (a module-level
     function, data_io.trend_command.run_part) for every part; returns (records in the parts'
     order, exit status).
     report(i, n, record) is called as each part finishes (progress per part); `client`: an
     existing dask Client to use (else one is made from scheduler / workers and closed);
-    preload(): imports the task needs, run here before a local cluster forks its workers."""
+    preload: names of the modules the task needs, loaded in a local cluster's workers before
+    they start (LOCAL_START_METHOD)."""
     parts = fleet_parts(paths)
     folders = part_folders(parts, out)
     workers = int(workers or min(DEFAULT_WORKERS, os.cpu_count() or 1))

@@ -134,15 +134,11 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
     return summary, folder
 
 
-def preload_part() -> None:
-    """Import what run_part uses (its imports are otherwise made on first use), so that a local
-    cluster's forked workers start with them (data_io.fleet.LOCAL_START_METHOD)."""
-    import importlib
-
-    for name in ("case", "csv_out", "fit_steps", "logs", "plots", "report", "trend_plot", "tables",
-                 "trend_run", "trend_sink", "trend_text", "limits"):
-        importlib.import_module(f"{__package__}.{name}")
-    importlib.import_module("..inverse.fitting", __package__)
+#: the modules run_part uses (imported on first use otherwise): a local cluster's workers start
+#: with them loaded (data_io.fleet.LOCAL_START_METHOD)
+PART_MODULES = tuple(f"{__package__}.{name}" for name in (
+    "trend_command", "case", "csv_out", "fit_steps", "logs", "plots", "report", "trend_plot", "tables",
+    "trend_run", "trend_sink", "trend_text", "limits")) + (f"{__package__.rsplit('.', 1)[0]}.inverse.fitting",)
 
 
 def run_part(case_path: str, out: str | None, options: dict) -> dict:
@@ -195,7 +191,7 @@ def _fleet(args) -> int:
     options = dict(every=args.every, window=args.window, drift=args.drift, sigma_floor=args.sigma_floor,
                    overwrite=args.overwrite, tz=args.tz, fmt=args.format)
     records, status = run_fleet(args.case, run_part, out=args.out, scheduler=args.scheduler, workers=args.workers,
-                                options=options, report=report, preload=preload_part)
+                                options=options, report=report, preload=PART_MODULES)
     done = sum(r["status"] == "done" for r in records)
     con.answer(f"{done} of {len(records)} parts done", {"parts": records, "done": done, "exit_status": status})
     return status

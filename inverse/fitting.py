@@ -149,6 +149,7 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
         mc = placement_draws(design, rd, screen.kept, P, screen.problem, alphas, int(opts.monte_carlo),
                              opts.seed, opts.grid, progress)
     elif opts.monte_carlo:
+        step.skip()
         warnings.append("Monte Carlo draws of sensor positions are not available with the zone model; "
                         "the bands are the zone model's posterior")
     figure_tails = map_tail = None
@@ -182,6 +183,10 @@ class _Steps:
         self.done = min(self.done + 1, self.total)
         if self.stage is not None:
             self.stage(self.done, self.total, text)
+
+    def skip(self):
+        """A counted step that does not run after all (the Monte Carlo draws under the zone model)."""
+        self.total -= 1
 
 
 def _answer_residuals(table, post, columns, rd, problem, zone_model, zones_lead=False):

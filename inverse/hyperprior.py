@@ -38,13 +38,19 @@ Hyperpriors (proper, weakly informative):
   (same figures on the platen and wall scenarios).
 - log l uniform on [D / 20, 4 D], D = the face's size (the radius for an end face, the
   larger of radius and height for the side): from well below the sensor spacing of any
-  practical layout to smoother than the face itself. At the long end the family converges:
-  with sigma_f fixed, (1 + l^2 ev_k)^-s over its sum tends to ev_k^-s over its sum, within
-  (1 + 1 / (l^2 ev_min))^s; where 4 D gives l^2 ev_min >= SMOOTH_LIMIT (end faces: the first
-  eigenvalue of m = 1 is about (1.84 / a)^2, so 16 x 3.4 = 54) the longest point is the
-  family's smooth limit, not an edge, and weight there reads "the smoothest profiles the
-  family holds" (summary's `smooth_limit_weight`), with no warning. A wall whose height
-  exceeds its radius several times stays short of it, and keeps the warning.
+  practical layout to smoother than the face itself. At the long end a point whose
+  axisymmetric modes share the others' exponent (s0 = s: d0 = 2, or a long part's wall)
+  converges: with sigma_f fixed, rho_k^2 (1 + l^2 ev_k)^-s over its sum tends to
+  rho_k^2 ev_k^-s over its sum, every term within (1 + 1 / (l^2 ev_min))^s (ev_min: the
+  smallest eigenvalue of a free mode); where the longest l gives l^2 ev_min >= SMOOTH_LIMIT
+  such a point is the family's smooth limit, not an edge, and its weight reads "the smoothest
+  profiles the family holds" (summary's `smooth_limit_weight`), with no warning.  Whether a
+  face gets there depends on its lowest mode: an end face with an insulated rim has m = 1 at
+  about (1.84 / a)^2, so 16 x 3.39 = 54 (there); a convective rim or end has a lower m = 0 mode
+  (5-14); a wall with insulated ends has m = 1 at 1 / r_w^2, so 16 (D / r_w)^2: walls taller
+  than 1.77 r_w get there.  A point
+  with d0 = 1 (s0 = s - 1/2) never converges: a longer l raises its axisymmetric part like a
+  larger rho, so its weight at the longest l keeps the warning.
 - log2 rho ~ N(1, 1) on the points rho = 2^-2 ... 2^4 (AXISYMMETRIC_RATIOS, weights
   normalized over the points; the outer points lie 3 sd out). Heaters are mostly rings and
   bands, so a face's profile along its radius (or its height) usually varies more than it
@@ -101,10 +107,10 @@ from .strength_average import mixture_summary
 LOG_AMPLITUDE_SD = math.log(10.0) / 4.0
 LENGTH_RANGE = (1.0 / 20.0, 4.0)      # times the face size D
 N_LENGTHS = 9
-#: l^2 ev_min at which the family has reached its smooth limit: with the amplitude
-#: normalized (T), every free mode's prior variance is then within (1 + 1 / SMOOTH_LIMIT)^s
-#: of its value as l -> infinity (2 % for each unit of the exponent), so longer length scales
-#: hold no other prior and weight at the longest one is no edge of the family
+#: l^2 ev_min at which a hyperparameter point with s0 = s has reached the family's smooth
+#: limit: with the amplitude normalized (T), every free mode's prior variance is then within
+#: (1 + 1 / SMOOTH_LIMIT)^s of its value as l -> infinity (2 % for each unit of the
+#: exponent), so longer length scales hold no other prior for it
 SMOOTH_LIMIT = 50.0
 #: the Matern smoothness nu of the family; the precision's exponent is s = nu + d / 2
 SMOOTHNESS = (0.25, 0.5, 1.0, 1.5, 2.0)
@@ -246,8 +252,8 @@ class LearnedPrior:
         self.problem = problem
         ev, scale = basis.surface_eigenvalues(), basis.norms() / face_area(basis)
         ev_free = ev[free]
-        self.reaches_smooth_limit = bool(ev_free.size and np.all(ev_free > 0)
-                                         and self.lengths.max() ** 2 * ev_free.min() >= SMOOTH_LIMIT)
+        converged = bool(ev_free.size and np.all(ev_free > 0)
+                         and self.lengths.max() ** 2 * ev_free.min() >= SMOOTH_LIMIT)
         combos, precisions, log_ref, T = [], [], [], []
         for rho in self.ratios:
             for d0 in self.dimensions:
@@ -264,6 +270,9 @@ class LearnedPrior:
                         log_ref.append(0.5 * math.log(spread / unit_signal))
                         T.append(t)
         self.combos, self._precisions, self._problems = combos, precisions, {}
+        # the points whose longest length scale is the family's smooth limit (SMOOTH_LIMIT)
+        self._at_limit = np.array([converged and math.isclose(s, s0) for (_, s, _, s0) in combos])
+        self.reaches_smooth_limit = bool(self._at_limit.any())
         # (s^2, beta) of every point, (combos, n) each; the SVDs kept for the points that carry
         # weight (problem_for) while they fit in SVD_MEMORY
         n, K = Gw.shape
@@ -451,20 +460,27 @@ class LearnedPrior:
     @property
     def warnings(self) -> tuple[str, ...]:
         """Notes on hyperparameters set by their hyperprior rather than the data: the length
-        scale pressed against an end of its range, the longest one only where the family has
-        not reached its smooth limit there (SMOOTH_LIMIT: beyond it no other prior remains).
+        scale pressed against an end of its range, the longest one counting only the points
+        short of the family's smooth limit (SMOOTH_LIMIT: beyond it no other prior remains).
         (An amplitude the data cannot fix is `description()['hyperprior_dominated']`, reported
         by inverse.resolution.)"""
         out = []
         w_l = self._marginals()[0]
         if self.lengths.size >= 4:
-            ends = [("shortest", w_l[:2].sum())] + ([] if self.reaches_smooth_limit else [("longest", w_l[-2:].sum())])
-            for end, mass in ends:
+            longest, _ = self._long_end()
+            for end, mass in (("shortest", w_l[:2].sum()), ("longest", longest)):
                 if mass > 0.6:
                     out.append(f"the prior's length scale is pressed against the {end} value its hyperprior "
                                f"allows ({self.length_range[0] * 1e3:.3g}-{self.length_range[1] * 1e3:.3g} mm, "
                                f"{100 * mass:.0f} % of the weight in the outer two points)")
         return tuple(out)
+
+    def _long_end(self):
+        """(weight at the two longest length scales of the points short of the smooth limit,
+        that of the points at it)."""
+        by_combo = self.weights.sum(axis=1)
+        outer = np.arange(by_combo.size) % self.lengths.size >= self.lengths.size - 2
+        return float(by_combo[outer & ~self._at_limit].sum()), float(by_combo[outer & self._at_limit].sum())
 
     def description(self) -> dict:
         """What the data chose, for summary.json: length scale mode and 90 % range [m], order,
@@ -483,7 +499,7 @@ class LearnedPrior:
             "length_scale_90_m": [float(l90[0]), float(l90[1])],
             "length_scale_hyperprior_m": [float(self.length_range[0]), float(self.length_range[1])],
             "length_scale_range_reaches_smooth_limit": self.reaches_smooth_limit,
-            "smooth_limit_weight": float(w_l[-2:].sum()) if self.reaches_smooth_limit else 0.0,
+            "smooth_limit_weight": self._long_end()[1],
             "smoothness_weights": {f"{nu:g}": float(w) for nu, w in zip(self.smoothness, w_s)},
             "axisymmetric_ratio_weights": {f"{x:g}": float(w) for x, w in zip(self.ratios, w_r)},
             "strength_90": [float(a90[0]), float(a90[1])],

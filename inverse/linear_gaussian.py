@@ -401,7 +401,8 @@ class LinearGaussianProblem:
         ||X_o||^2 = B^2 p_o^-1: one product B [Z_o | Z_c] per prior instead of two and the
         elementwise passes over (q, K).  The flat columns, which a nearly flat prior level makes
         huge where the data pin them, never enter a difference of large numbers; a row whose
-        first term keeps less than CANCEL_GUARD of ||X_o||^2 is projected directly."""
+        first term keeps less than CANCEL_GUARD of ||X_o||^2 is projected directly (the guard
+        looks at that term alone: the other two are products, not differences)."""
         if self._s.size == self.K:
             return B @ self._Z, None
         flat, Zoc, Zf, WW, p2o = self._projection_parts

@@ -132,3 +132,25 @@ def test_plan_shows_its_steps_on_a_terminal(folder, monkeypatch):
     assert steps[-3].startswith("choosing 1 of ") and steps[-3].endswith(" candidate positions")
     assert steps[-2] == "ranking the sensors by what their loss would cost"
     assert steps[-1] == "drawing the figures and the report for p"
+
+
+def test_status_line_is_cut_to_the_terminal_and_gives_way_to_a_progress_bar(monkeypatch):
+    import os
+
+    from heatsight.data_io.console import Console
+
+    monkeypatch.setattr("shutil.get_terminal_size", lambda fallback=None: os.terminal_size((40, 24)))
+    err = _Terminal()
+    con = Console(err=err)
+    status = con.status()
+    status.show("x" * 100)
+    line = err.getvalue().split("\r")[-1]
+    assert len(line) == 39 and line.endswith("...")          # one row: \r can rewrite it
+    monkeypatch.setitem(sys.modules, "tqdm", None)            # the plain bar
+    bar = con.progress(3, "drawing")
+    text = err.getvalue()
+    assert text.endswith("\r" + " " * 39 + "\r")              # the status line cleared first
+    bar.update(3)
+    bar.close()
+    status.close()                                            # nothing left to clear
+    assert err.getvalue().count("\r" + " " * 39 + "\r") == 1

@@ -460,3 +460,14 @@ def test_zone_model_without_a_level_scale_leaves_the_smooth_model():
     assert res.summary["model"] == "smooth"
     assert any("zone model needs a scale for its levels" in w for w in res.warnings)
     assert abs(res.summary["total_power_W"]) <= 2.0 * res.summary["total_power_sd_W"]   # no heat in
+
+
+def test_fit_steps_count_what_runs(readings):
+    """stage(k, n, text): steps 1..n in order, the last one k = n, also where a counted step
+    does not run (Monte Carlo draws asked for while the zone model answers)."""
+    rd, _ = readings
+    for kwargs in ({"model": "zones", "monte_carlo": 3, "grid": (9, 12)}, {"model": "smooth", "grid": (9, 12)}):
+        calls = []
+        inverse.fit(case(), rd, stage=lambda k, n, text: calls.append((k, n, text)), **kwargs)
+        assert [k for k, _, _ in calls] == list(range(1, len(calls) + 1))
+        assert calls[-1][0] == calls[-1][1] and calls[-1][2].startswith("bands")

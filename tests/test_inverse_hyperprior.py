@@ -267,39 +267,53 @@ def test_profile_dimension_is_averaged_with_equal_prior_odds():
     assert w1 == pytest.approx(1.0 / (1.0 + math.exp(two.log_marginal - one.log_marginal)), abs=1e-7)
 
 
-def _normalized_variances(basis, nominal, length, order):
-    """1 / (T w_k) over the free modes: the family's prior variances at amplitude 1."""
-    v = 1.0 / hyperprior.matern_weights(basis, length, order)[~nominal]
+def _normalized_variances(basis, nominal, length, order, rho, axis_order):
+    """rho_k^2 / w_k over the free modes, normalized: the family's prior variances at amplitude 1
+    for one hyperparameter point (its own ratio rho and axisymmetric exponent s0)."""
+    v = 1.0 / hyperprior.matern_weights(basis, length, order, rho, axis_order)[~nominal]
     return v / v.sum()
 
 
-def test_longest_length_scale_is_the_smooth_limit_when_the_family_has_converged_there():
-    # with the amplitude normalized, (1 + l^2 ev)^-s over its sum tends to ev^-s over its sum as
-    # l -> infinity; once l^2 ev_min >= SMOOTH_LIMIT every variance is within
-    # (1 + 1 / SMOOTH_LIMIT)^s of that limit (bound derived in hyperprior.SMOOTH_LIMIT's note)
+def test_longest_length_scale_is_the_smooth_limit_only_where_the_family_has_converged():
+    # a point with s0 = s: rho_k^2 (1 + l^2 ev)^-s over its sum tends to rho_k^2 ev^-s over its
+    # sum as l -> infinity, every term within (1 + 1 / SMOOTH_LIMIT)^s once l^2 ev_min >=
+    # SMOOTH_LIMIT (hyperprior's note); with s0 = s - 1/2 (d0 = 1) the axisymmetric share keeps
+    # growing with l, so such points are never at the limit
     basis, prob, nominal = make()
     lp = LearnedPrior(prob, basis, nominal, 1e-4)
     short = LearnedPrior(prob, basis, nominal, 1e-4, lengths=np.geomspace(0.05 * A, 0.6 * A, 5))
     assert lp.reaches_smooth_limit and not short.reaches_smooth_limit
-    for s in lp.orders:
+    top = lp.lengths[-1]
+    seen = set()
+    for j, (length, s, rho, s0) in enumerate(lp.combos):
+        if length != top:
+            continue
+        far = _normalized_variances(basis, nominal, 1e3 * top, s, rho, s0)
+        dev = np.max(np.abs(_normalized_variances(basis, nominal, top, s, rho, s0) / far - 1))
         bound = (1.0 + 1.0 / hyperprior.SMOOTH_LIMIT) ** s - 1.0
-        far = _normalized_variances(basis, nominal, 1e3 * lp.lengths[-1], s)
-        assert np.max(np.abs(_normalized_variances(basis, nominal, lp.lengths[-1], s) / far - 1)) <= bound
-        # the short range's top is not there yet: the rule is not vacuous
-        assert np.max(np.abs(_normalized_variances(basis, nominal, short.lengths[-1], s) / far - 1)) > 10 * bound
+        assert lp._at_limit[j] == math.isclose(s, s0)
+        seen.add(bool(lp._at_limit[j]))
+        if lp._at_limit[j]:
+            assert dev <= bound
+            # the short range's top is not there yet: the rule is not vacuous
+            assert np.max(np.abs(_normalized_variances(basis, nominal, short.lengths[-1], s, rho, s0) / far - 1)) \
+                > 10 * bound
+        else:
+            assert dev > 10 * bound
+    assert seen == {True, False}
 
 
 def test_weight_at_the_longest_length_warns_only_short_of_the_smooth_limit():
     basis, prob, nominal = make()
-    for lengths, warns in ((None, False), (np.geomspace(0.05 * A, 0.6 * A, 5), True)):
+    for lengths, profile, warns in ((None, 2, False), (None, 1, True),
+                                    (np.geomspace(0.05 * A, 0.6 * A, 5), 2, True)):
         lp = LearnedPrior(prob, basis, nominal, 1e-4, lengths=lengths)
-        w = np.zeros_like(lp.weights).reshape(-1, lp.lengths.size, lp.z.size)
-        w[:, -1, :] = 1.0                   # every weight at the longest length scale
+        w = np.zeros_like(lp.weights).reshape(len(lp.ratios), len(lp.dimensions), -1, lp.lengths.size, lp.z.size)
+        w[:, lp.dimensions.index(profile), :, -1, :] = 1.0       # every weight at the longest length
         lp.weights = (w / w.sum()).reshape(lp.weights.shape)
         text = " ".join(lp.warnings)
         assert ("longest" in text) == warns
         desc = lp.description()
-        assert desc["length_scale_range_reaches_smooth_limit"] == (not warns)
         assert desc["smooth_limit_weight"] == pytest.approx(0.0 if warns else 1.0)
-        if warns:   # the range the fit used, in mm
+        if lengths is not None:   # the range the fit used, in mm
             assert f"{0.05 * A * 1e3:.3g}-{0.6 * A * 1e3:.3g} mm" in text

@@ -319,18 +319,34 @@ def test_weighted_moments_equal_the_mixture_of_explicit_posteriors(n, K, case):
     np.testing.assert_allclose(np.diag(scatter / W), np.diag(cov), rtol=1e-7)
 
 
-@pytest.mark.parametrize("n,K,pinned", [(10, 24, False), (10, 24, True), (6, 40, True), (16, 8, False)])
-def test_projection_without_forming_the_scaled_map_matches_extended_precision(n, K, pinned):
+@pytest.mark.parametrize("n,K,pinned,flat,seen", [(10, 24, False, True, False), (10, 24, True, True, False),
+                                                  (6, 40, True, True, False), (16, 8, False, True, False),
+                                                  (10, 24, False, False, False), (10, 24, True, True, True)])
+def test_projection_without_forming_the_scaled_map_matches_extended_precision(n, K, pinned, flat, seen):
     """_projected (X V_r and the unseen rest ||X (I - V_r V_r^T)||^2 of X = B P^-1/2, from one
     product per prior with the flat columns split off) against the direct projection in numpy's
     extended precision (longdouble), with and without B^2 given; a nearly flat pinned
-    coordinate (prior precision 1e-12) and a few long-scale columns make several flat ones."""
+    coordinate (prior precision 1e-12) and a few long-scale columns make several flat ones
+    (`flat`; none otherwise); `seen`: rows almost wholly in the directions the data see, whose
+    rest the difference of norms would lose (CANCEL_GUARD projects them directly)."""
+    from heatsight.inverse.linear_gaussian import CANCEL_GUARD
+
     G, d, t0, S, p, c0 = toy(n, K, 5)
-    p[1:4] = 1e-6                               # long-scale modes: sd 1000x the others'
+    if flat:
+        p[1:4] = 1e-6                           # long-scale modes: sd 1000x the others'
     if pinned:
         G[:, 0], G[0, 0], p[0] = 0.0, 1e3, 1e-12
     pb = LinearGaussianProblem(G, d, t0, S, p, c0)
-    B = np.random.default_rng(6).standard_normal((200, K))
+    rng = np.random.default_rng(6)
+    B = rng.standard_normal((200, K))
+    if seen:
+        B = (rng.standard_normal((200, pb._r)) @ pb._Vt_r + 1e-7 * B) * np.sqrt(p)[None, :]
+        fl, Zoc, _, _, p2o = pb._projection_parts
+        XoV = (B @ Zoc)[:, :pb._r]
+        total = (B * B) @ p2o
+        assert np.any(total - np.einsum("qr,qr->q", XoV, XoV) < CANCEL_GUARD * total)   # the guard's rows
+    if not flat and not pinned:
+        assert pb._projection_parts[0].size == 0
     X = B.astype(np.longdouble) / np.sqrt(p.astype(np.longdouble))[None, :]
     Vt = pb._Vt_r.astype(np.longdouble)
     XV = X @ Vt.T

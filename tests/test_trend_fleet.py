@@ -101,46 +101,67 @@ def _worker_settings():
     import os
 
     import dask
+    from threadpoolctl import threadpool_info
 
+    blas = sorted({i["num_threads"] for i in threadpool_info() if i["user_api"] == "blas"})
     return (os.environ.get("MALLOC_TRIM_THRESHOLD_"), os.environ.get("OPENBLAS_NUM_THREADS"),
-            dask.config.get("distributed.worker.profile.enabled"))
+            dask.config.get("distributed.worker.profile.enabled"), blas)
 
 
 def test_local_workers_keep_glibc_adaptive_heap_and_one_blas_thread():
     """dask's nannies set MALLOC_TRIM_THRESHOLD_ for their workers, which fixes glibc's mmap
     threshold at 128 KiB (a part ran 8 -> 14 s in a worker); the local cluster unsets it and
     keeps BLAS on one thread per worker."""
-    client = fleet._client(None, 1)
+    from heatsight.data_io.trend_command import PART_MODULES
+
+    client = fleet._client(None, 1, PART_MODULES)
     try:
-        assert list(client.run(_worker_settings).values()) == [(None, "1", False)]
+        assert list(client.run(_worker_settings).values()) == [(None, "1", False, [1])]
     finally:
         cluster = client.cluster
         client.close()
         cluster.close()
 
 
-_PRELOADED = []
+
+_PROBE = """
+import sys
+from heatsight.data_io import fleet
+
+def probe(case, out, options):
+    return {"case": case, "status": "done", "loaded": "wave" in sys.modules}
+
+if __name__ == "__main__":
+    records, status = fleet.run_fleet(sys.argv[1:], probe, workers=1, preload=["wave"])
+    assert status == 0, records
+    print(",".join(str(r["loaded"]) for r in records))
+"""
 
 
-def _preload():
-    _PRELOADED.append(True)
+@pytest.mark.skipif(not fleet.LOCAL_START_METHOD, reason="the local cluster preloads its workers on Linux only")
+def test_local_workers_start_with_the_preloaded_modules(tmp_path):
+    """On Linux the local cluster's workers come from a fork server that imported run_fleet's
+    `preload` list first (a fresh process: the server is one per process); a spawned worker
+    would not hold the marker module (stdlib `wave`, which nothing here imports)."""
+    import subprocess
+    import sys
 
-
-def _probe(case, out, options):
-    """A fleet task reporting whether the worker holds the parent's preloaded state."""
-    return {"case": case, "status": "done", "preloaded": bool(_PRELOADED)}
-
-
-@pytest.mark.skipif(not fleet.LOCAL_START_METHOD, reason="the local cluster forks its workers on Linux only")
-def test_local_workers_start_from_the_preloaded_parent(tmp_path):
-    """On Linux the local cluster forks its workers after run_fleet's preload, so the parts'
-    modules are not imported again in each worker (bench/fleet.py); a worker started fresh
-    (spawn) would import this module anew and see no preload."""
     cases = []
     for name in ("a", "b"):
         (tmp_path / f"{name}.toml").write_text("")
-        cases.append(tmp_path / f"{name}.toml")
-    _PRELOADED.clear()
-    records, status = fleet.run_fleet(cases, _probe, workers=1, preload=_preload)
-    assert status == 0 and [r["preloaded"] for r in records] == [True, True]
-    _PRELOADED.clear()
+        cases.append(str(tmp_path / f"{name}.toml"))
+    (tmp_path / "probe.py").write_text(_PROBE)
+    res = subprocess.run([sys.executable, str(tmp_path / "probe.py"), *cases], capture_output=True, text=True,
+                         cwd=tmp_path, timeout=300)
+    assert res.returncode == 0, res.stderr[-2000:]
+    assert res.stdout.strip() == "True,True"
+
+
+def test_the_parts_modules_exist():
+    """A name in PART_MODULES that does not import would be skipped silently by the fork server."""
+    import importlib
+
+    from heatsight.data_io.trend_command import PART_MODULES
+
+    for name in PART_MODULES:
+        importlib.import_module(name)
