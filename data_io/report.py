@@ -192,6 +192,11 @@ def _prior_text(prior: dict) -> str:
         if isinstance(ls90, (list, tuple)) and len(ls90) == 2 and all(_finite(x) for x in ls90):
             parts[-1] += (f" (90 % range {sig(from_si(ls90[0], 'length', 'mm'), 2)} to "
                           f"{sig(from_si(ls90[1], 'length', 'mm'), 2)} mm)")
+    widened, hyper = prior.get("length_scale_range_widened_from_m"), prior.get("length_scale_hyperprior_m")
+    if isinstance(widened, (list, tuple)) and isinstance(hyper, (list, tuple)) and len(widened) == len(hyper) == 2 \
+            and all(_finite(x) for x in (*widened, *hyper)):
+        parts.append(f"the longest length scale tried widened from {sig(from_si(widened[1], 'length', 'mm'), 2)} to "
+                     f"{sig(from_si(hyper[1], 'length', 'mm'), 2)} mm, as the readings favoured the longest ones")
     if _finite(prior.get("smooth_limit_weight")) and prior["smooth_limit_weight"] > 0.6:
         parts.append("the smoothest profiles the prior family holds (probability "
                      f"{prior['smooth_limit_weight']:.2f})")

@@ -50,7 +50,10 @@ Hyperpriors (proper, weakly informative):
   (5-14); a wall with insulated ends has m = 1 at 1 / r_w^2, so 16 (D / r_w)^2: walls taller
   than 1.77 r_w get there.  A point
   with d0 = 1 (s0 = s - 1/2) never converges: a longer l raises its axisymmetric part like a
-  larger rho, so its weight at the longest l keeps the warning.
+  larger rho.  When such points hold more than LONG_END_MASS of the weight at the two longest
+  values, learn_prior widens the range (two more points of its log step at a time, up to
+  MAX_LENGTH x D) and the summary says so (`length_scale_range_widened_from_m`); a warning
+  remains only if the cap is reached still pressed.
 - log2 rho ~ N(1, 1) on the points rho = 2^-2 ... 2^4 (AXISYMMETRIC_RATIOS, weights
   normalized over the points; the outer points lie 3 sd out). Heaters are mostly rings and
   bands, so a face's profile along its radius (or its height) usually varies more than it
@@ -112,6 +115,12 @@ N_LENGTHS = 9
 #: (1 + 1 / SMOOTH_LIMIT)^s of its value as l -> infinity (2 % for each unit of the
 #: exponent), so longer length scales hold no other prior for it
 SMOOTH_LIMIT = 50.0
+#: learn_prior widens the length scales' range while the points short of the smooth limit hold
+#: more than this share of the weight at its two longest values ...
+LONG_END_MASS = 0.6
+#: ... up to this many times the face size D (d0 = 1 points: a longer l raises the axisymmetric
+#: part's share like a larger rho; at 128 D the angular part's is ~1/60 of its share at 4 D)
+MAX_LENGTH = 128.0
 #: the Matern smoothness nu of the family; the precision's exponent is s = nu + d / 2
 SMOOTHNESS = (0.25, 0.5, 1.0, 1.5, 2.0)
 #: grid of the axisymmetric ratio rho (powers of 2) and its hyperprior: log2 rho ~ N(centre, sd^2)
@@ -235,6 +244,7 @@ class LearnedPrior:
                 or min(self.smoothness) <= 0:
             raise InverseError("the prior family needs positive length scales and smoothness values")
         self.length_range = (float(self.lengths.min()), float(self.lengths.max()))
+        self.widened_from = None        # learn_prior: the range before it was widened
         self.orders = tuple(matern_exponent(basis, nu) for nu in self.smoothness)
         K = problem.K
         nominal = np.zeros(K, dtype=bool) if nominal is None else np.asarray(nominal, dtype=bool)
@@ -469,7 +479,7 @@ class LearnedPrior:
         if self.lengths.size >= 4:
             longest, _ = self._long_end()
             for end, mass in (("shortest", w_l[:2].sum()), ("longest", longest)):
-                if mass > 0.6:
+                if mass > LONG_END_MASS:
                     out.append(f"the prior's length scale is pressed against the {end} value its hyperprior "
                                f"allows ({self.length_range[0] * 1e3:.3g}-{self.length_range[1] * 1e3:.3g} mm, "
                                f"{100 * mass:.0f} % of the weight in the outer two points)")
@@ -499,6 +509,8 @@ class LearnedPrior:
             "length_scale_90_m": [float(l90[0]), float(l90[1])],
             "length_scale_hyperprior_m": [float(self.length_range[0]), float(self.length_range[1])],
             "length_scale_range_reaches_smooth_limit": self.reaches_smooth_limit,
+            "length_scale_range_widened_from_m": (None if self.widened_from is None
+                                                  else [float(x) for x in self.widened_from]),
             "smooth_limit_weight": self._long_end()[1],
             "smoothness_weights": {f"{nu:g}": float(w) for nu, w in zip(self.smoothness, w_s)},
             "axisymmetric_ratio_weights": {f"{x:g}": float(w) for x, w in zip(self.ratios, w_r)},
@@ -516,5 +528,15 @@ class LearnedPrior:
 def learn_prior(problem: LinearGaussianProblem, basis, nominal=None, nominal_factor: float = 1.0,
                 spread=None) -> LearnedPrior:
     """Posterior of the unknown face averaged over strength, length scale, order, axisymmetric
-    ratio and profile dimension (see module doc)."""
-    return LearnedPrior(problem, basis, nominal, nominal_factor, spread=spread)
+    ratio and profile dimension (see module doc); the length scales' range widened at its
+    long end, two points of its own log step at a time, while the points short of the smooth
+    limit hold more than LONG_END_MASS of the weight at its two longest values (up to
+    MAX_LENGTH x D; the description says so)."""
+    lp = LearnedPrior(problem, basis, nominal, nominal_factor, spread=spread)
+    start, top = lp.length_range, MAX_LENGTH * face_size(basis)
+    while lp.lengths.size >= 4 and lp._long_end()[0] > LONG_END_MASS and lp.lengths.max() < top:
+        step = lp.lengths[-1] / lp.lengths[-2]
+        lengths = np.append(lp.lengths, lp.lengths[-1] * step ** np.arange(1.0, 3.0))
+        lp = LearnedPrior(problem, basis, nominal, nominal_factor, lengths=lengths, spread=spread)
+    lp.widened_from = start if lp.length_range != start else None
+    return lp

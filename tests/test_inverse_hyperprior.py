@@ -317,3 +317,33 @@ def test_weight_at_the_longest_length_warns_only_short_of_the_smooth_limit():
         assert desc["smooth_limit_weight"] == pytest.approx(0.0 if warns else 1.0)
         if lengths is not None:   # the range the fit used, in mm
             assert f"{0.05 * A * 1e3:.3g}-{0.6 * A * 1e3:.3g} mm" in text
+
+
+def test_learn_prior_widens_the_length_range_while_its_long_end_is_pressed(monkeypatch):
+    basis, prob, nominal = make()
+    monkeypatch.setattr(hyperprior, "LONG_END_MASS", 1.0)       # never pressed: the default range
+    plain = hyperprior.learn_prior(prob, basis, nominal, 1e-4)
+    assert plain.widened_from is None and plain.description()["length_scale_range_widened_from_m"] is None
+    monkeypatch.setattr(hyperprior, "LONG_END_MASS", -1.0)      # always pressed: widened to the cap
+    wide = hyperprior.learn_prior(prob, basis, nominal, 1e-4)
+    D = hyperprior.face_size(basis)
+    assert wide.widened_from == plain.length_range
+    assert wide.lengths.max() >= hyperprior.MAX_LENGTH * D > wide.lengths[-3]
+    np.testing.assert_allclose(np.diff(np.log(wide.lengths)), np.diff(np.log(plain.lengths))[0], rtol=1e-12)
+    np.testing.assert_allclose(wide.lengths[:plain.lengths.size], plain.lengths, rtol=1e-12)
+    assert wide.description()["length_scale_hyperprior_m"][1] == pytest.approx(wide.lengths.max())
+
+
+def test_platen_pressing_the_longest_length_gets_a_wider_range():
+    """The platen scenario (finite-element readings; its weight on d0 = 1 points at the longest
+    length scale): the range is widened and the fit no longer warns about its long end."""
+    import scenario_cases
+    from heatsight import inverse
+
+    scn = scenario_cases.make("platen_flux", seed=0, scale=0.5)
+    res = inverse.fit(scn.case, scn.readings, **scn.fit_kwargs)
+    prior = res.summary["prior"]
+    D = 0.15
+    assert prior["length_scale_range_widened_from_m"] == pytest.approx([D / 20, 4 * D])
+    assert prior["length_scale_hyperprior_m"][1] > 4 * D
+    assert not any("longest" in w for w in res.warnings)

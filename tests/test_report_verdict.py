@@ -257,7 +257,8 @@ def test_keys_of_newer_fits_are_shown_when_present(demo):
     s.update(model="zones", model_weights={"smooth": 0.1, "zones": 0.9},
              unresolved="these readings cannot resolve zone inner",
              prior={"length_scale_m": 0.04, "length_scale_90_m": [0.02, 0.08], "hyperprior_dominated": True,
-                    "smooth_limit_weight": 0.75,
+                    "smooth_limit_weight": 0.75, "length_scale_range_widened_from_m": [0.0075, 0.6],
+                    "length_scale_hyperprior_m": [0.0075, 5.37],
                     "axisymmetric_ratio_weights": {"1": 0.1, "4": 0.7, "8": 0.2},
                     "axisymmetric_dimension_weights": {"1": 0.8, "2": 0.2}})
     res = dataclasses.replace(demo.raw, summary=s)
@@ -271,6 +272,8 @@ def test_keys_of_newer_fits_are_shown_when_present(demo):
     assert "axisymmetric part (rings, bands) 4 times as strong as the rest (probability 0.70)" in html
     assert "the rings and bands with edges of their own, as rough as the rest of the face (probability 0.80)" in html
     assert "the smoothest profiles the prior family holds (probability 0.75)" in html
+    assert "the longest length scale tried widened from 600 to 5400 mm, as the readings favoured the longest ones" \
+        in html
 
 
 def test_extremes_stand_in_for_zones(demo):

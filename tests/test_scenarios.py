@@ -55,9 +55,14 @@ HOLLOW = ("tube_bore_temperature", "tube_bore_flux")  # issue 11: the bore of a 
 # level_choice_correction) and each zone's edge ramp is held by its own room (zones.
 # edge_rooms): the platen's sharpness (1.003 -> 1.00, at the goal), the tube bore
 # temperature's zones (5 -> 6 of 6: cool streak -3.8 -> -0.7 sd); lost: top_temperature's
-# zones (5 -> 4 of 6) and the tube bore flux's sharpness (1.03 -> 1.17).
+# zones (5 -> 4 of 6) and the tube bore flux's sharpness (1.03 -> 1.17).  Since the learned
+# prior widens its length scales' range when the readings press its long end (hyperprior.
+# learn_prior): the platen's coverage 0.905 -> 0.932 and relative RMS 0.577 -> 0.559; lost: its
+# sharpness (0.997 -> 1.066).
 NOT_MET = {
-    ("platen_flux", "rel_rms"): "0.58",
+    ("platen_flux", "rel_rms"): "0.56",
+    ("platen_flux", "sharpness"): "1.07 (0.997 before the length scales' range was widened where the "
+                                  "readings press its long end; coverage 0.905 -> 0.932)",
     ("calibrated_convection", "rel_rms"): "0.50 (seed 0; 0.41 over seeds 0-2)",
     ("chuck_class2", "rel_rms"): "1.08",
     ("top_temperature", "zones"): "4 of 6 (centre +2.06, contact ring -2.08 sd: the smooth model's answer, "
