@@ -124,7 +124,10 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
         first = zone_models[0]
         if leading is not None:
             first.choose_level_scale(_screen(first.marginal, rd, opts, gross).kept, leading)
-        first.add_tail(design, rd, u > 0, _screen(first.marginal, rd, opts, gross).kept)
+        # the zone models' learned priors take the smooth model's length scales (widened or
+        # not, hyperprior.learn_prior): both models are compared under one hyperprior
+        first.add_tail(design, rd, u > 0, _screen(first.marginal, rd, opts, gross).kept,
+                       like=post.averaged if isinstance(post.averaged, LearnedPrior) else None)
         for other in zone_models[1:]:
             other.share_tail(first)
     zscreens = [_settled_screen(zm, rd, opts, gross, leading) for zm in zone_models]
@@ -372,11 +375,12 @@ def _screen(problem, rd, opts, gross=()) -> _Screen:
 
 
 # ------------------------------------------------------------------------ posterior
-def _posterior(design, rd, screen, P, u, opts, warnings) -> Posterior:
+def _posterior(design, rd, screen, P, u, opts, warnings, like=None) -> Posterior:
     """Posterior of c: joint with calibrated parameters (under the learned prior, when it
     answers: calibration.learned_calibration); with the evidence, averaged over strength,
-    length scale and order of the learned prior (prior "learned", hyperprior.py) or over
-    alpha alone (prior "fixed"); at one alpha; or from the robust lmfit path."""
+    length scale and order of the learned prior (prior "learned", hyperprior.py; on the
+    length scales of `like`, a LearnedPrior, when given) or over alpha alone (prior
+    "fixed"); at one alpha; or from the robust lmfit path."""
     final, alpha = screen.problem, screen.choice.alpha
     if opts.calibrate:
         cal = calibrate(design, rd, screen.kept, final, alpha, P, opts.calibration)
@@ -384,11 +388,11 @@ def _posterior(design, rd, screen, P, u, opts, warnings) -> Posterior:
         if not _learned(opts):
             return Posterior(cal.coefficients, cal.covariance[:K, :K], alpha, None, cal)
         cal, avg, notes = learned_calibration(cal, rd, screen.kept, final, u > 0, NOMINAL_PRECISION_FACTOR,
-                                              opts.calibration)
+                                              opts.calibration, like)
         warnings[:] = [w for w in warnings if w not in screen.choice.warnings] + list(avg.warnings) + notes
         return Posterior(cal.coefficients, cal.covariance[:K, :K], alpha, avg, cal)
     if _learned(opts):
-        avg = learn_prior(final, design.basis, nominal=u > 0, nominal_factor=NOMINAL_PRECISION_FACTOR)
+        avg = learn_prior(final, design.basis, nominal=u > 0, nominal_factor=NOMINAL_PRECISION_FACTOR, like=like)
         # the fixed prior's strength-grid notes do not apply to the learned prior's answer
         warnings[:] = [w for w in warnings if w not in screen.choice.warnings] + list(avg.warnings)
         post = Posterior(avg.coefficients(), avg.posterior_covariance(), alpha, avg)
@@ -485,7 +489,8 @@ def _zone_fit(opts, design, zone_model, zscreen, post, u, problem):
     """One zone model's posterior (ZoneFit) with its evidence on all the readings (learned
     prior) or against the smooth model on its kept sensors (fixed prior)."""
     if hasattr(post.averaged, "log_marginal"):
-        zf = zone_model.learned_fit(zscreen.kept, design.basis, u > 0, NOMINAL_PRECISION_FACTOR)
+        zf = zone_model.learned_fit(zscreen.kept, design.basis, u > 0, NOMINAL_PRECISION_FACTOR,
+                                    like=post.averaged)
         X = np.hstack([problem.G, zone_model.level_columns])
         logz = log_evidence_on_all(zf.log_evidence["zones"], zscreen.kept, X, problem.t0, problem.d,
                                    zone_model.smooth.noise.sd ** 2, zf.c, zf.C)

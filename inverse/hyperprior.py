@@ -50,10 +50,13 @@ Hyperpriors (proper, weakly informative):
   (5-14); a wall with insulated ends has m = 1 at 1 / r_w^2, so 16 (D / r_w)^2: walls taller
   than 1.77 r_w get there.  A point
   with d0 = 1 (s0 = s - 1/2) never converges: a longer l raises its axisymmetric part like a
-  larger rho.  When such points hold more than LONG_END_MASS of the weight at the two longest
-  values, learn_prior widens the range (two more points of its log step at a time, up to
-  MAX_LENGTH x D) and the summary says so (`length_scale_range_widened_from_m`); a warning
-  remains only if the cap is reached still pressed.
+  larger rho.  When the points short of the limit (these, and any on a face whose lowest
+  mode keeps l^2 ev_min below SMOOTH_LIMIT) hold more than LONG_END_MASS of the weight at the
+  two longest values, learn_prior widens the range (two more points of its log step at a
+  time, the top at most MAX_LENGTH x D) and the summary says so
+  (`length_scale_range_widened_from_m`); a warning remains only if the cap stops it still
+  pressed.  A fit decides this on the smooth model's learned prior, and the zone models'
+  remainders take the same grid (`like`): the models are compared under one hyperprior.
 - log2 rho ~ N(1, 1) on the points rho = 2^-2 ... 2^4 (AXISYMMETRIC_RATIOS, weights
   normalized over the points; the outer points lie 3 sd out). Heaters are mostly rings and
   bands, so a face's profile along its radius (or its height) usually varies more than it
@@ -118,8 +121,9 @@ SMOOTH_LIMIT = 50.0
 #: learn_prior widens the length scales' range while the points short of the smooth limit hold
 #: more than this share of the weight at its two longest values ...
 LONG_END_MASS = 0.6
-#: ... up to this many times the face size D (d0 = 1 points: a longer l raises the axisymmetric
-#: part's share like a larger rho; at 128 D the angular part's is ~1/60 of its share at 4 D)
+#: ... with its top at most this many times the face size D (from 4 D with the default grid:
+#: 12, 36 and 108 D; d0 = 1 points: a longer l raises the axisymmetric part's share like a
+#: larger rho, its variance over the angular part's growing like l, 27x from 4 D to 108 D)
 MAX_LENGTH = 128.0
 #: the Matern smoothness nu of the family; the precision's exponent is s = nu + d / 2
 SMOOTHNESS = (0.25, 0.5, 1.0, 1.5, 2.0)
@@ -526,17 +530,26 @@ class LearnedPrior:
 
 
 def learn_prior(problem: LinearGaussianProblem, basis, nominal=None, nominal_factor: float = 1.0,
-                spread=None) -> LearnedPrior:
+                spread=None, like=None) -> LearnedPrior:
     """Posterior of the unknown face averaged over strength, length scale, order, axisymmetric
-    ratio and profile dimension (see module doc); the length scales' range widened at its
-    long end, two points of its own log step at a time, while the points short of the smooth
-    limit hold more than LONG_END_MASS of the weight at its two longest values (up to
-    MAX_LENGTH x D; the description says so)."""
+    ratio and profile dimension (see module doc).  like: an earlier LearnedPrior of the same
+    fit whose length scales (and their widening) this one shares, so that every model of a fit
+    is compared under one hyperprior; without it the range is widened at its long end, two
+    points of its own log step at a time, while the points short of the smooth limit hold more
+    than LONG_END_MASS of the weight at its two longest values (the top at most MAX_LENGTH x D;
+    the description says so)."""
+    if like is not None:
+        lp = LearnedPrior(problem, basis, nominal, nominal_factor, lengths=like.lengths, spread=spread)
+        lp.widened_from = like.widened_from
+        return lp
     lp = LearnedPrior(problem, basis, nominal, nominal_factor, spread=spread)
-    start, top = lp.length_range, MAX_LENGTH * face_size(basis)
-    while lp.lengths.size >= 4 and lp._long_end()[0] > LONG_END_MASS and lp.lengths.max() < top:
+    start, top = lp.length_range, MAX_LENGTH * face_size(basis) * (1.0 + 1e-9)
+    while lp.lengths.size >= 4 and lp._long_end()[0] > LONG_END_MASS:
         step = lp.lengths[-1] / lp.lengths[-2]
-        lengths = np.append(lp.lengths, lp.lengths[-1] * step ** np.arange(1.0, 3.0))
-        lp = LearnedPrior(problem, basis, nominal, nominal_factor, lengths=lengths, spread=spread)
+        more = lp.lengths[-1] * step ** np.arange(1.0, 3.0)
+        if more[-1] > top:
+            break
+        lp = LearnedPrior(problem, basis, nominal, nominal_factor, lengths=np.append(lp.lengths, more),
+                          spread=spread)
     lp.widened_from = start if lp.length_range != start else None
     return lp

@@ -390,13 +390,13 @@ class ZoneModel:
         self._set_smooth(self.smooth)
         return out
 
-    def add_tail(self, design, rd, nominal, ok):
+    def add_tail(self, design, rd, nominal, ok, like=None):
         """The remainder's left-out modes marginalized into the noise (truncation.py), their
         variance from a first learned remainder prior on the readings `ok`: the zones carry
         the sharp structure, so the remainder's tail is its own, not the smooth model's."""
         idx = np.flatnonzero(ok)
         first = learn_prior(self.marginal.subset(idx), design.basis, nominal=nominal,
-                            nominal_factor=NOMINAL_PRECISION_FACTOR, spread=self.remainder_spread(idx))
+                            nominal_factor=NOMINAL_PRECISION_FACTOR, spread=self.remainder_spread(idx), like=like)
         sm = self.smooth
         self.tail_prior = first
         self._set_smooth(LinearGaussianProblem(sm.G, sm.d, sm.t0, sm.noise.covariance
@@ -452,7 +452,7 @@ class ZoneModel:
         604.7 W; with the smooth model's scale +1.0 sd.)"""
         return readings_spread(self.smooth.subset(idx))
 
-    def learned_fit(self, kept, basis, nominal, nominal_factor) -> "ZoneFit":
+    def learned_fit(self, kept, basis, nominal, nominal_factor, like=None) -> "ZoneFit":
         """Posterior of (c, z) (and the calibrated parameters' step, when given) with the
         remainder's Whittle-Matern prior learned from the data (hyperprior.LearnedPrior on
         the marginal problem: strength, length scale and order averaged with their
@@ -463,7 +463,7 @@ class ZoneModel:
         hyperpriors; the comparison with the smooth model is model_choice's (weights None)."""
         idx = np.flatnonzero(kept)
         lp = learn_prior(self.marginal.subset(idx), basis, nominal=nominal, nominal_factor=nominal_factor,
-                         spread=self.remainder_spread(idx))
+                         spread=self.remainder_spread(idx), like=like)
         mean, cov = self._levels.joint(lp.coefficients(), lp.posterior_covariance(), idx)
         log_a = sum(float(w @ np.log(alphas)) for _, alphas, w in lp.hyperparameters())
         return ZoneFit(mean, cov, math.exp(log_a), {"zones": float(lp.log_marginal)},

@@ -266,8 +266,8 @@ def test_learned_zone_posterior_equals_the_componentwise_joint_solve(readings, m
     seen = {}
     original = zm.ZoneModel.learned_fit
 
-    def spy(self, kept, *args):
-        out = original(self, kept, *args)
+    def spy(self, kept, *args, **kwargs):
+        out = original(self, kept, *args, **kwargs)
         if "fit" not in seen:         # the first edge width's (sharp edges)
             seen["model"], seen["kept"], seen["fit"] = self, kept, out
         return out
@@ -471,3 +471,26 @@ def test_fit_steps_count_what_runs(readings):
         inverse.fit(case(), rd, stage=lambda k, n, text: calls.append((k, n, text)), **kwargs)
         assert [k for k, _, _ in calls] == list(range(1, len(calls) + 1))
         assert calls[-1][0] == calls[-1][1] and calls[-1][2].startswith("bands")
+
+
+def test_zone_models_share_the_smooth_models_length_scales(readings, monkeypatch):
+    """The smooth and the zone model are compared under one hyperprior: every learned prior of
+    the zone models takes the smooth model's length scales (hyperprior.learn_prior's `like`),
+    widened or not."""
+    from heatsight.inverse import hyperprior, zones as zones_module
+
+    rd, _ = readings
+    seen = []
+    real = hyperprior.learn_prior
+
+    def recorded(*args, like=None, **kwargs):
+        out = real(*args, like=like, **kwargs)
+        seen.append((like, out))
+        return out
+    monkeypatch.setattr(zones_module, "learn_prior", recorded)
+    monkeypatch.setattr(hyperprior, "LONG_END_MASS", -1.0)      # every free choice widens
+    res = inverse.fit(case(), rd, grid=(9, 12))
+    assert seen and all(like is not None for like, _ in seen)
+    for like, out in seen:
+        np.testing.assert_array_equal(out.lengths, like.lengths)
+    assert res.summary["prior"]["length_scale_range_widened_from_m"] is not None

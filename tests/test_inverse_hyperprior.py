@@ -320,18 +320,36 @@ def test_weight_at_the_longest_length_warns_only_short_of_the_smooth_limit():
 
 
 def test_learn_prior_widens_the_length_range_while_its_long_end_is_pressed(monkeypatch):
+    """Two points of the grid's log step per widening, checked anew after each: pressed for k
+    builds, then not, gives exactly k widenings; weight at the smooth limit alone does not
+    widen; always pressed stops where the next top would pass MAX_LENGTH x D."""
     basis, prob, nominal = make()
-    monkeypatch.setattr(hyperprior, "LONG_END_MASS", 1.0)       # never pressed: the default range
     plain = hyperprior.learn_prior(prob, basis, nominal, 1e-4)
-    assert plain.widened_from is None and plain.description()["length_scale_range_widened_from_m"] is None
-    monkeypatch.setattr(hyperprior, "LONG_END_MASS", -1.0)      # always pressed: widened to the cap
-    wide = hyperprior.learn_prior(prob, basis, nominal, 1e-4)
     D = hyperprior.face_size(basis)
-    assert wide.widened_from == plain.length_range
-    assert wide.lengths.max() >= hyperprior.MAX_LENGTH * D > wide.lengths[-3]
-    np.testing.assert_allclose(np.diff(np.log(wide.lengths)), np.diff(np.log(plain.lengths))[0], rtol=1e-12)
-    np.testing.assert_allclose(wide.lengths[:plain.lengths.size], plain.lengths, rtol=1e-12)
+    step = plain.lengths[-1] / plain.lengths[-2]
+    for k in (0, 1, 2):
+        builds = []
+
+        def long_end(self, k=k, builds=builds):
+            builds.append(self.lengths.size)
+            return (1.0, 0.0) if len(builds) <= k else (0.0, 1.0)     # (short of the limit, at it)
+        monkeypatch.setattr(LearnedPrior, "_long_end", long_end)
+        lp = hyperprior.learn_prior(prob, basis, nominal, 1e-4)
+        assert lp.lengths.size == plain.lengths.size + 2 * k
+        assert (lp.widened_from is None) == (k == 0)
+        if k:
+            assert lp.widened_from == plain.length_range
+            np.testing.assert_allclose(np.diff(np.log(lp.lengths)), math.log(step), rtol=1e-12)
+            np.testing.assert_allclose(lp.lengths[:plain.lengths.size], plain.lengths, rtol=1e-12)
+    monkeypatch.setattr(LearnedPrior, "_long_end", lambda self: (1.0, 0.0))
+    wide = hyperprior.learn_prior(prob, basis, nominal, 1e-4)
+    assert wide.lengths[-1] <= hyperprior.MAX_LENGTH * D < wide.lengths[-1] * step ** 2
     assert wide.description()["length_scale_hyperprior_m"][1] == pytest.approx(wide.lengths.max())
+    assert wide.description()["length_scale_range_widened_from_m"] == pytest.approx(list(plain.length_range))
+    # a prior given `like` takes its grid and its widening as they are
+    same = hyperprior.learn_prior(prob, basis, nominal, 1e-4, like=wide)
+    np.testing.assert_array_equal(same.lengths, wide.lengths)
+    assert same.widened_from == wide.widened_from
 
 
 def test_platen_pressing_the_longest_length_gets_a_wider_range():
