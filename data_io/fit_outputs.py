@@ -7,7 +7,8 @@ import numpy as np
 import pandas as pd
 
 from .display import FILE_UNITS, deg, file_display, power_unit, power_words
-from .report_format import eng, pm95, percent
+from .report_format import _finite, eng, percent, pm95, sig
+from .units import from_si
 
 #: sensor readings and predictions are temperatures whatever the face quantity
 _TEMPERATURE = file_display("temperature")
@@ -183,13 +184,23 @@ def summary_lines(result) -> list[str]:
     if "calibrated" in s:
         for key, c in s["calibrated"].items():
             lines.append(f"  fitted {c['face']}.{c['parameter']} = {_pm(c['value'], c['sd'], c['unit'])}")
-    lines.append(f"  smoothing strength {s['strength']:.3g} ({s['strength_method']}); misfit chi-square "
-                 f"{eng(s['chi2'])} for {s['n_sensors_used']} sensors used")
+    lines.append(f"  {_smoothness_words(s)}; misfit chi-square {eng(s['chi2'])} for {s['n_sensors_used']} sensors used")
     if s["set_aside"]:
         lines.append(f"  set aside: {', '.join(s['set_aside'])}")
     for w in s["warnings"]:
         lines.append(f"  warning: {w}")
     return lines
+
+
+def _smoothness_words(s: dict) -> str:
+    """How smooth the answer was made, in words people read: the learned prior's length scale
+    (mm, with its 90 % range) where the readings chose it, else the strength alpha."""
+    prior = s.get("prior") if isinstance(s.get("prior"), dict) else {}
+    ls, ls90 = prior.get("length_scale_m"), prior.get("length_scale_90_m")
+    if _finite(ls) and isinstance(ls90, (list, tuple)) and len(ls90) == 2 and all(_finite(x) for x in ls90):
+        mm = [sig(float(from_si(x, "length", "mm")), 2) for x in (ls, *ls90)]
+        return f"length scale the readings chose {mm[0]} mm (90 % range {mm[1]} to {mm[2]} mm)"
+    return f"smoothing strength {s['strength']:.3g} ({s['strength_method']})"
 
 
 def console_summary(result, folder) -> str:

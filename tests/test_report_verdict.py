@@ -285,3 +285,14 @@ def test_extremes_stand_in_for_zones(demo):
     assert first.startswith("The lowest value is ") and "(95 %) at r = 150.0 mm, θ = " in first
     angle = float(re.search(r"at r = 150.0 mm, θ = ([0-9.]+)°", first).group(1))
     assert abs(angle - 150.0) <= 30.0      # truth.json: the weak sector is centred at 150 deg
+
+
+def test_console_names_the_length_scale_the_readings_chose(demo):
+    """Under the learned prior the console says how smooth the answer is in millimetres (the
+    length scale and its 90 % range from summary.json's prior), not as a bare strength alpha."""
+    lines = summary_lines(demo.raw)
+    prior = demo.raw.summary["prior"]
+    line = next(ln for ln in lines if "length scale the readings chose" in ln)
+    mm = [report.sig(1e3 * x, 2) for x in (prior["length_scale_m"], *prior["length_scale_90_m"])]
+    assert f"chose {mm[0]} mm (90 % range {mm[1]} to {mm[2]} mm)" in line
+    assert not re.search(r"\d\.\d+e[+-]\d", line) and "smoothing strength" not in " ".join(lines)
