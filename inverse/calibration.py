@@ -202,7 +202,7 @@ def calibrate(design, rd, kept, problem, alpha, P, spec) -> Calibration:
     return Calibration(keys, values, sd, lf.coefficients, lf.covariance, final, _designs={key: final})
 
 
-def learned_calibration(cal, rd, kept, problem, nominal, nominal_factor, spec, like=None):
+def learned_calibration(cal, rd, kept, problem, nominal, nominal_factor, spec):
     """(Calibration, LearnedPrior, warnings): the calibrated parameters and the face under the
     learned prior (hyperprior.learn_prior: strength, length scale and order averaged) instead
     of the joint fit's fixed strength.  At the linearization point theta_l,
@@ -214,8 +214,7 @@ def learned_calibration(cal, rd, kept, problem, nominal, nominal_factor, spec, l
     theta_l += E delta until |E delta| <= STEP_TOLERANCE sd; the answer is at that theta_l.
     cal: the joint fit (`calibrate`); rd: all readings, kept: the mask of those the fit uses,
     problem: the kept readings' LinearGaussianProblem (noise, prior mean c0) at cal.values;
-    nominal: the basis's nominal direction (mask); like: a LearnedPrior whose length scales
-    the learned prior shares (hyperprior.learn_prior), or None; spec: the {(face, parameter): prior or
+    nominal: the basis's nominal direction (mask); spec: the {(face, parameter): prior or
     None} of `calibrate`.  The answer carries step_prior and step_columns (at every reading),
     for other models of the face on the same parameters (the zone model)."""
     spec = dict(spec)
@@ -232,8 +231,7 @@ def learned_calibration(cal, rd, kept, problem, nominal, nominal_factor, spec, l
         J = lin.sensitivity(at_sensors, c).reshape(rd.n, -1)
         base = LinearGaussianProblem(G[idx], problem.d, t0[idx], problem.noise, problem.prior_diag, problem.c0)
         cols = MarginalColumns(base, J[idx], centre - at, width)
-        prior = learn_prior(cols.marginal, lin.design.basis, nominal=nominal, nominal_factor=nominal_factor,
-                            like=like)
+        prior = learn_prior(cols.marginal, lin.design.basis, nominal=nominal, nominal_factor=nominal_factor)
         mean, cov = cols.joint(prior.coefficients(), prior.posterior_covariance(), np.arange(idx.size))
         c, step, sd = mean[:K], mean[K:], np.sqrt(np.diag(cov)[K:])
         if np.all(np.abs(step) <= STEP_TOLERANCE * sd):

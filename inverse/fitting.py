@@ -116,7 +116,8 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
     if step.zones:
         step("the heater-zone model")
     zone_models = _zone_models(spec, design, rd, base, warnings, post, shift)
-    leading = post.averaged.leading() if isinstance(post.averaged, LearnedPrior) and zone_models else None
+    learned_prior = post.averaged if isinstance(post.averaged, LearnedPrior) else None
+    leading = learned_prior.leading() if learned_prior is not None and zone_models else None
     if zone_models and _learned(opts):
         # the zone levels' scale is chosen before the remainder's tail is learned (a scale too
         # small leaves the zones' structure to the tail, whose variance then widens every
@@ -126,8 +127,7 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
             first.choose_level_scale(_screen(first.marginal, rd, opts, gross).kept, leading)
         # the zone models' learned priors take the smooth model's length scales (widened or
         # not, hyperprior.learn_prior): both models are compared under one hyperprior
-        first.add_tail(design, rd, u > 0, _screen(first.marginal, rd, opts, gross).kept,
-                       like=post.averaged if isinstance(post.averaged, LearnedPrior) else None)
+        first.add_tail(design, rd, u > 0, _screen(first.marginal, rd, opts, gross).kept, like=learned_prior)
         for other in zone_models[1:]:
             other.share_tail(first)
     zscreens = [_settled_screen(zm, rd, opts, gross, leading) for zm in zone_models]
@@ -375,12 +375,11 @@ def _screen(problem, rd, opts, gross=()) -> _Screen:
 
 
 # ------------------------------------------------------------------------ posterior
-def _posterior(design, rd, screen, P, u, opts, warnings, like=None) -> Posterior:
+def _posterior(design, rd, screen, P, u, opts, warnings) -> Posterior:
     """Posterior of c: joint with calibrated parameters (under the learned prior, when it
     answers: calibration.learned_calibration); with the evidence, averaged over strength,
-    length scale and order of the learned prior (prior "learned", hyperprior.py; on the
-    length scales of `like`, a LearnedPrior, when given) or over alpha alone (prior
-    "fixed"); at one alpha; or from the robust lmfit path."""
+    length scale and order of the learned prior (prior "learned", hyperprior.py) or over
+    alpha alone (prior "fixed"); at one alpha; or from the robust lmfit path."""
     final, alpha = screen.problem, screen.choice.alpha
     if opts.calibrate:
         cal = calibrate(design, rd, screen.kept, final, alpha, P, opts.calibration)
@@ -388,11 +387,11 @@ def _posterior(design, rd, screen, P, u, opts, warnings, like=None) -> Posterior
         if not _learned(opts):
             return Posterior(cal.coefficients, cal.covariance[:K, :K], alpha, None, cal)
         cal, avg, notes = learned_calibration(cal, rd, screen.kept, final, u > 0, NOMINAL_PRECISION_FACTOR,
-                                              opts.calibration, like)
+                                              opts.calibration)
         warnings[:] = [w for w in warnings if w not in screen.choice.warnings] + list(avg.warnings) + notes
         return Posterior(cal.coefficients, cal.covariance[:K, :K], alpha, avg, cal)
     if _learned(opts):
-        avg = learn_prior(final, design.basis, nominal=u > 0, nominal_factor=NOMINAL_PRECISION_FACTOR, like=like)
+        avg = learn_prior(final, design.basis, nominal=u > 0, nominal_factor=NOMINAL_PRECISION_FACTOR)
         # the fixed prior's strength-grid notes do not apply to the learned prior's answer
         warnings[:] = [w for w in warnings if w not in screen.choice.warnings] + list(avg.warnings)
         post = Posterior(avg.coefficients(), avg.posterior_covariance(), alpha, avg)

@@ -286,7 +286,6 @@ class LearnedPrior:
         self.combos, self._precisions, self._problems = combos, precisions, {}
         # the points whose longest length scale is the family's smooth limit (SMOOTH_LIMIT)
         self._at_limit = np.array([converged and math.isclose(s, s0) for (_, s, _, s0) in combos])
-        self.reaches_smooth_limit = bool(self._at_limit.any())
         # (s^2, beta) of every point, (combos, n) each; the SVDs kept for the points that carry
         # weight (problem_for) while they fit in SVD_MEMORY
         n, K = Gw.shape
@@ -488,6 +487,11 @@ class LearnedPrior:
                                f"allows ({self.length_range[0] * 1e3:.3g}-{self.length_range[1] * 1e3:.3g} mm, "
                                f"{100 * mass:.0f} % of the weight in the outer two points)")
         return tuple(out)
+
+    @property
+    def reaches_smooth_limit(self) -> bool:
+        """Is the longest length scale the smooth limit of any hyperparameter point?"""
+        return bool(self._at_limit.any())
 
     def _long_end(self):
         """(weight at the two longest length scales of the points short of the smooth limit,
