@@ -70,11 +70,7 @@ class Console:
         A status line on show (status()) is cleared first: the bar takes its line."""
         if self._status is not None:
             self._status.close()
-        try:
-            terminal = bool(self.stderr.isatty())
-        except (AttributeError, ValueError, OSError):
-            terminal = False
-        if self.quiet or self.json or not terminal:
+        if self.quiet or self.json or not self._terminal():
             return _Silent()
         try:
             from tqdm import tqdm
@@ -82,17 +78,19 @@ class Console:
             return _PlainBar(total, label, self.stderr)
         return tqdm(total=total, desc=f"  {label}", file=self.stderr, leave=False)
 
-
     def status(self) -> "_Status":
         """A one-line status of a long command's steps on stderr: .show(text) replaces the
         line, .close() clears it; shown only on a terminal (not quiet, not --json); with
         --verbose each step is a line of its own instead."""
-        try:
-            terminal = bool(self.stderr.isatty())
-        except (AttributeError, ValueError, OSError):
-            terminal = False
-        self._status = _Status(self, terminal and not (self.quiet or self.json))
+        self._status = _Status(self, self._terminal() and not (self.quiet or self.json))
         return self._status
+
+    def _terminal(self) -> bool:
+        """Is stderr a terminal (bars and status lines are drawn only there)?"""
+        try:
+            return bool(self.stderr.isatty())
+        except (AttributeError, ValueError, OSError):
+            return False
 
 
 class _Status:

@@ -7,8 +7,7 @@ import numpy as np
 import pandas as pd
 
 from .display import FILE_UNITS, deg, file_display, power_unit, power_words
-from .report_format import _finite, eng, percent, pm95, sig
-from .units import from_si
+from .report_format import eng, length_scale_text, percent, pm95
 
 #: sensor readings and predictions are temperatures whatever the face quantity
 _TEMPERATURE = file_display("temperature")
@@ -195,11 +194,9 @@ def summary_lines(result) -> list[str]:
 def _smoothness_words(s: dict) -> str:
     """How smooth the answer was made, in words people read: the learned prior's length scale
     (mm, with its 90 % range) where the readings chose it, else the strength alpha."""
-    prior = s.get("prior") if isinstance(s.get("prior"), dict) else {}
-    ls, ls90 = prior.get("length_scale_m"), prior.get("length_scale_90_m")
-    if _finite(ls) and isinstance(ls90, (list, tuple)) and len(ls90) == 2 and all(_finite(x) for x in ls90):
-        mm = [sig(float(from_si(x, "length", "mm")), 2) for x in (ls, *ls90)]
-        return f"length scale the readings chose {mm[0]} mm (90 % range {mm[1]} to {mm[2]} mm)"
+    length = length_scale_text(s["prior"]) if isinstance(s.get("prior"), dict) else None
+    if length is not None:
+        return f"length scale the readings chose {length}"
     return f"smoothing strength {s['strength']:.3g} ({s['strength_method']})"
 
 

@@ -22,7 +22,7 @@ from ..inverse.diagnostics import UNCHECKED_OFFSET_K
 from . import plots
 from .csv_out import atomic_write_text
 from .report_format import (_celsius, _celsius_number, _deg, _e, _finite, _Fmt, _mm, _position, _power,
-                            half95, sig)
+                            half95, length_scale_text, sig)
 from .report_text import CAUTIONS, CSS, FIGURE_CAPTIONS, GLOSSARY, HOLLOW_CAUTION, LONG_CAPTIONS
 from .display import power_unit
 from .units import from_si, to_display, ureg
@@ -186,12 +186,9 @@ def _how_fitted(result) -> str:
 
 def _prior_text(prior: dict) -> str:
     parts = []
-    ls, ls90 = prior.get("length_scale_m"), prior.get("length_scale_90_m")
-    if _finite(ls):
-        parts.append(f"length scale {sig(from_si(ls, 'length', 'mm'), 2)} mm")
-        if isinstance(ls90, (list, tuple)) and len(ls90) == 2 and all(_finite(x) for x in ls90):
-            parts[-1] += (f" (90 % range {sig(from_si(ls90[0], 'length', 'mm'), 2)} to "
-                          f"{sig(from_si(ls90[1], 'length', 'mm'), 2)} mm)")
+    length = length_scale_text(prior)
+    if length is not None:
+        parts.append(f"length scale {length}")
     widened, hyper = prior.get("length_scale_range_widened_from_m"), prior.get("length_scale_hyperprior_m")
     if isinstance(widened, (list, tuple)) and isinstance(hyper, (list, tuple)) and len(widened) == len(hyper) == 2 \
             and all(_finite(x) for x in (*widened, *hyper)):

@@ -49,6 +49,19 @@ def sig(x, n: int = 2) -> str:
     return f"{x:.{d}f}" if d > 0 else f"{round(x, d):.0f}"
 
 
+def length_scale_text(prior: dict) -> str | None:
+    """The learned prior's length scale in mm with its 90 % range where summary.json's
+    `prior` has one ("39 mm (90 % range 23 to 190 mm)"), else None."""
+    ls, ls90 = prior.get("length_scale_m"), prior.get("length_scale_90_m")
+    if not _finite(ls):
+        return None
+    text = f"{sig(from_si(ls, 'length', 'mm'), 2)} mm"
+    if isinstance(ls90, (list, tuple)) and len(ls90) == 2 and all(_finite(x) for x in ls90):
+        lo, hi = (sig(from_si(x, "length", "mm"), 2) for x in ls90)
+        text += f" (90 % range {lo} to {hi} mm)"
+    return text
+
+
 def eng(x, n: int = VALUE_DIGITS) -> str:
     """x with n significant digits, no exponent, integer digits kept (11568 -> '11568',
     817.68 -> '818', 0.022137 -> '0.0221'); a tiny or huge magnitude falls back to 'a.bce±NN'."""
