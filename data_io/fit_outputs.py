@@ -108,7 +108,7 @@ def summary_dict(result, *, case_path=None, readings_path=None) -> dict:
         "caution": CAUTION,
     }
     for key in ("model", "model_evidence", "model_weights", "zone_edge_widths_m", "zone_edge_weights",
-                "zone_level_prior_sd"):
+                "zone_level_prior_sd", "zone_level_probability"):
         # the face model (inverse.zones)
         if key in s:
             out[key] = s[key]

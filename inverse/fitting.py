@@ -541,10 +541,15 @@ def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem,
     if hasattr(post.averaged, "log_marginal"):
         # the zone levels' prior sd [face unit] the evidence chose (per edge width;
         # zones.ZoneModel.choose_level_scale)
-        info["zone_level_prior_sd"] = [float(np.max(zm.s)) for zm in zone_models]
+        info["zone_level_prior_sd"] = [zm.level_scale for zm in zone_models]
     # the widths that carry weight; their zone columns side by side after the smooth ones
     use = [i for i in range(len(fits)) if w_edge[i] > MIXED_MODELS]
     lead = max(use, key=lambda i: w_edge[i])
+    if hasattr(post.averaged, "log_marginal"):
+        # each zone's probability of a level of its own, departing from the background
+        # (ZoneModel.choose_level_scale; the leading edge width's)
+        info["zone_level_probability"] = {z.name: float(pz) for z, pz in zip(zone_models[lead].columns.zones,
+                                                                             zone_models[lead].inclusion)}
     K, J = design.size, len(zone_models[0].columns.zones)
     all_zones = [z for i in use for z in zone_models[i].columns.zones]
     columns = ZoneDesign(design, all_zones, None, zone_models[lead].columns.big,

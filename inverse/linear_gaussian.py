@@ -572,6 +572,18 @@ class LinearGaussianProblem:
         a, scalar = _as_alphas(alpha)
         return _out(log_evidence_from_spectrum(self._s2_n, self._beta, a, self.noise.logdet), scalar)
 
+    def column_gains(self, X, alpha):
+        """(Q (m, q, q), b (m, q)) of extra columns X (n, q) [K per unit] at strengths alpha (m,):
+        Q = X_w^T C^-1 X_w, b = X_w^T C^-1 y, C = I + A A^T / alpha the whitened prior-predictive
+        covariance of the readings (X_w = L^-1 X, y = L^-1 (d - t0 - G c0)).  With a prior
+        z ~ N(0, diag(s^2)) on the columns' coefficients (matrix determinant lemma, Woodbury):
+        log p(d | alpha, z integrated out) = log_evidence(alpha) - 1/2 log det(I + s Q s)
+        + 1/2 (s b)^T (I + s Q s)^-1 (s b)."""
+        a, _ = _as_alphas(alpha)
+        Xu = self._U.T @ self.noise.whiten(np.asarray(X, float).reshape(self.n, -1))     # (n, q)
+        g = a[:, None] / (self._s2_n[None, :] + a[:, None])                              # (m, n)
+        return np.einsum("ni,mn,nj->mij", Xu, g, Xu), (g * self._beta[None, :]) @ Xu
+
     def gcv(self, alpha):
         """Generalized cross-validation V = n ||(I - H) y||^2 / (trace(I - H))^2 (whitened, H = hat)."""
         a, scalar = _as_alphas(alpha)

@@ -6,6 +6,7 @@ Marginal in c (`marginal`): d - X mu ~ N(t0 + G c, S + X diag(s^2) X^T), so scre
 strength, evidence and the learned prior of c work on an ordinary LinearGaussianProblem.
 Given c (`conditional`): z | c, d ~ N(a - K c, D^-1) with
     D = X^T S^-1 X + diag(1 / s^2),   a = D^-1 (X^T S^-1 (d - t0) + mu / s^2),
+(D^-1 formed as s (I + s X^T S^-1 X s)^-1 s, so that s = 0 holds z at mu = 0),
     K = D^-1 X^T S^-1 G,
 the same for every prior of c; so for c ~ (m, C) (`joint`):
     E z = a - K m,   Cov(z, c) = -K C,   Cov z = D^-1 + K C K^T.
@@ -39,9 +40,15 @@ class MarginalColumns:
         sub = self.base.subset(idx)
         Wx, Wg = sub.noise.whiten(self.X[idx]), sub.noise.whiten(sub.G)
         yw = sub.noise.whiten(sub.d - sub.t0)
-        Dinv = np.linalg.inv(Wx.T @ Wx + np.diag(1.0 / self.s ** 2))
+        # D^-1 = s M^-1 s, M = I + s X_w^T X_w s (s = diag(s)): finite for a column held at its
+        # prior mean (s = 0, mu = 0: a zone without a level of its own), whose z is then 0
+        s = self.s
+        Minv = np.linalg.inv(np.eye(s.size) + s[:, None] * (Wx.T @ Wx) * s[None, :])
+        Dinv = s[:, None] * Minv * s[None, :]
         Dinv = 0.5 * (Dinv + Dinv.T)
-        return Dinv @ (Wx.T @ yw + self.mu / self.s ** 2), Dinv @ (Wx.T @ Wg), Dinv
+        mu_over_s = np.divide(self.mu, s, out=np.zeros_like(self.mu), where=s > 0)
+        a = Dinv @ (Wx.T @ yw) + s * (Minv @ mu_over_s)
+        return a, Dinv @ (Wx.T @ Wg), Dinv
 
     def joint(self, c, C, idx):
         """(mean (K + q,), covariance) of (c, z) on the readings idx, c ~ (c, C) from the

@@ -363,14 +363,15 @@ def test_zones_sharing_an_edge_keep_summing_to_one():
     assert edge_rooms(bands, True, 0.04, (0.0, math.inf)) == pytest.approx([EDGE_ROOM * 0.005] * 2)
 
 
-def test_zone_level_scale_is_the_evidence_best_of_its_factors(readings, monkeypatch):
-    """The zone levels' prior sd (zones.ZoneModel.choose_level_scale): for each factor f the
-    evidence at the smooth model's leading hyperparameters, amplitude integrated, against
+def test_zone_levels_prior_is_averaged_over_scale_and_sets(readings, monkeypatch):
+    """The zone levels' prior (zones.ZoneModel.choose_level_scale): for each factor f and set
+    S of zones with a level of their own, the evidence at the leading hyperparameters it is
+    given (the smooth model's, then the learned remainder's), amplitude integrated, against
     the Gaussian marginal likelihood of the readings formed directly,
-        d ~ N(t0 + G_z mu, S + G_z s_f^2 G_z^T + G (alpha P)^-1 G^T),
-    by its Cholesky factor (scipy.linalg, reference library; the nominal level's nearly flat
-    prior makes the covariance too ill-conditioned for scipy.stats.multivariate_normal's
-    eigenvalue check); the chosen factor is the best."""
+        d ~ N(t0, S + G_z diag(s_f,S^2) G_z^T + G (alpha P)^-1 G^T),
+    by its Cholesky factor (scipy.linalg, reference library), the nominal level's nearly flat
+    column through the determinant lemma (inside one Cholesky factor it cost up to 5e-3
+    nats); the prior averaged over (f, S) by their posterior."""
     from scipy.linalg import cho_factor, cho_solve
     from scipy.special import logsumexp
 
@@ -402,34 +403,92 @@ def test_zone_level_scale_is_the_evidence_best_of_its_factors(readings, monkeypa
     with threadpool_limits(1):
         rated = inverse.fit(case(), rd, model="zones", grid=(8, 12))
     # the zone model's evidence is the mean over its edge widths of each width's evidence on all
-    # the readings plus its own correction for the choice of f: added once, per width
+    # the readings plus its own correction for the choice of (f, S): added once, per width
     models = list(dict.fromkeys(m for m, *_ in seen))
     le = np.array(on_all[:len(models)]) + np.array([m.level_choice_correction for m in models])
-    assert len(models) > 1 and any(m.level_choice_correction < -1e-6 for m in models)
+    assert len(models) > 1 and any(abs(m.level_choice_correction) > 1e-6 for m in models)
+    # each model chooses at the smooth model's leading hyperparameters, then once more at its
+    # learned remainder's (ZoneModel.learned_fit), whose choice the answer keeps
+    for m in models:
+        points = [lead[0] for mm, _, lead, _ in seen if mm is m]
+        assert len(points) >= 2 and not np.array_equal(points[0], points[-1])
     assert rated.summary["model_evidence"]["zones"] == pytest.approx(
         float(logsumexp(le) - math.log(len(models))), abs=1e-9)
     model, kept, (P, alphas, log_w), out = seen[-1]
     idx = np.flatnonzero(kept)
     sm = model.smooth.subset(idx)
     Gz = model.Gz[idx]
-    assert set(out) == set(zm.ZONE_LEVEL_FACTORS)
-    for f, value in out.items():
+    J = len(zones())
+    sets = zm.level_sets(J)
+    assert set(out) == {(f, tuple(S)) for f in zm.ZONE_LEVEL_FACTORS for S in sets}
+    assert len(sets) == 2 ** J - 1
+    # p(S) = 1 / (J C(J, k)), a proper prior over the non-empty sets
+    assert np.exp(zm.level_set_log_prior(sets)).sum() == pytest.approx(1.0, abs=1e-12)
+    every = tuple([True] * J)
+    scale = model._prior_of(1.0)[1][0]
+
+    def log_normal_flat(x, cov, F, v):
+        """log N(x; 0, cov + F diag(v) F^T) for the nearly flat columns F (variances v, many
+        orders above the rest): the rest by its Cholesky factor, F through the determinant
+        lemma and Woodbury, so that the flat direction costs no digits."""
+        c = cho_factor(cov, lower=True)
+        B = np.sqrt(v)[None, :] * F
+        M = np.eye(v.size) + B.T @ cho_solve(c, B)
+        b = B.T @ cho_solve(c, x)
+        return float(log_normal(x, 0.0, cov) - 0.5 * np.linalg.slogdet(M)[1] + 0.5 * b @ np.linalg.solve(M, b))
+
+    flat = P < 1e-6 * np.median(P)
+    assert 0 < flat.sum() < 3
+
+    def direct(s, leading=(P, alphas, log_w)):
+        """log p(d | zone levels ~ N(0, diag(s^2))), amplitude integrated, formed directly."""
+        P, alphas, log_w = leading
+        flat = P < 1e-6 * np.median(P)
+        base = sm.noise.covariance + (Gz * s ** 2) @ Gz.T
+        le = [log_normal_flat(sm.d - sm.t0, base + (sm.G[:, ~flat] / (a * P[~flat])) @ sm.G[:, ~flat].T,
+                              sm.G[:, flat], 1.0 / (a * P[flat])) for a in alphas]
+        return float(logsumexp(np.array(le) + log_w))
+
+    # the determinant-lemma evidence of every factor against the direct Gaussian marginal
+    # likelihood for every zone, one zone alone and the two first
+    for f in zm.ZONE_LEVEL_FACTORS:
         mu, s = model._prior_of(f)
         # mu = 0 although these zones declare nominal powers (a yardstick, not a prior mean);
         # s = f x one scale for every zone
-        assert not np.any(mu) and np.allclose(s, f * model._prior_of(1.0)[1][0])
-        base = sm.noise.covariance + (Gz * s ** 2) @ Gz.T
-        le = [log_normal(sm.d, sm.t0 + Gz @ mu, base + (sm.G / (a * P)) @ sm.G.T) for a in alphas]
-        # the direct route loses ~5e-6 nats to the nearly flat direction (measured); the
-        # factors' evidences differ by nats
-        assert value == pytest.approx(float(logsumexp(np.array(le) + log_w)), abs=1e-4)
-    assert model.level_factor == max(out, key=out.get)
-    assert np.allclose(model.s, model._prior_of(model.level_factor)[1])
-    # f is integrated out with equal prior mass: the zone model's evidence is corrected from
-    # the best f's to the mean over f (<= 0, >= -ln 4)
-    v = np.array(list(out.values()))
-    assert model.level_choice_correction == pytest.approx(math.log(np.mean(np.exp(v - v.max()))))
-    assert -math.log(v.size) <= model.level_choice_correction <= 0.0
+        assert not np.any(mu) and np.allclose(s, f * scale)
+        for S in (every, tuple(j == 0 for j in range(J)), tuple(j < 2 for j in range(J))):
+            assert out[(f, S)] == pytest.approx(direct(np.where(S, s, 0.0)), abs=1e-6)
+    # (f, S) averaged with their posterior (f with equal prior mass): each zone's level sd is
+    # the root of its prior variance's posterior mean, 0 where a set leaves the zone out
+    log_prior = dict(zip(map(tuple, sets), zm.level_set_log_prior(sets)))
+
+    def averaged(out):
+        keys = list(out)
+        post = np.array([out[k] + log_prior[k[1]] for k in keys])
+        p = np.exp(post - logsumexp(post))
+        in_set = np.array([k[1] for k in keys], float)
+        f2 = np.array([k[0] for k in keys]) ** 2
+        mean = float(logsumexp(post) - math.log(len(zm.ZONE_LEVEL_FACTORS)))
+        return np.sqrt((p * f2) @ in_set) * scale, p @ in_set, mean
+
+    # the choice at the learned remainder's point is kept where some zone's sd moves by more
+    # than SAME_LEVEL_SD (in log), else the one before it stands (and the remainder is not
+    # learned again)
+    calls = [(lead, o) for mm, _, lead, o in seen if mm is model]
+    s_last, inclusion, mean = averaged(calls[-1][1])
+    s_before, inclusion_before, mean_before = averaged(calls[-2][1])
+    kept_call = calls[-1]
+    if np.max(np.abs(np.log(s_last / s_before))) < zm.SAME_LEVEL_SD:
+        s_last, inclusion, mean, kept_call = s_before, inclusion_before, mean_before, calls[-2]
+    assert np.allclose(model.s, s_last, rtol=1e-12)
+    assert np.allclose(model.inclusion, inclusion, rtol=1e-12)
+    assert 0.0 < model.inclusion.min() and model.inclusion.max() <= 1.0
+    # the zone model's evidence, computed at that prior, is corrected to the prior-weighted
+    # mean over (f, S), both at the leading point of the choice that stands
+    assert model.level_choice_correction == pytest.approx(mean - direct(model.s, kept_call[0]), abs=1e-6)
+    lead = rated.summary["zone_level_probability"]
+    assert list(lead) == [z.name for z in zones()]
+    assert any(np.allclose(list(lead.values()), m.inclusion) for m in models)
     # the nominal powers are a yardstick only: without them the zone means are the same, and
     # each delivered fraction is the zone's power over its nominal
     plain = case()
@@ -494,3 +553,21 @@ def test_zone_models_share_the_smooth_models_length_scales(readings, monkeypatch
     for like, out in seen:
         np.testing.assert_array_equal(out.lengths, like.lengths)
     assert res.summary["prior"]["length_scale_range_widened_from_m"] is not None
+
+
+def test_level_sets_and_their_prior():
+    """zones.level_sets / level_set_log_prior: every non-empty set of zones up to
+    MAX_CHOSEN_ZONES, the count uniform and the sets of one count alike; beyond it, all zones
+    keep their level."""
+    from heatsight.inverse import zones as zm
+
+    sets = zm.level_sets(3)
+    assert {tuple(x) for x in sets} == {(a, b, c) for a in (0, 1) for b in (0, 1) for c in (0, 1)} - {(0, 0, 0)}
+    p = dict(zip(map(tuple, sets), np.exp(zm.level_set_log_prior(sets))))
+    # count 1, 2, 3 each 1/3: one zone alone 1/9, two 1/9, all three 1/3
+    assert p[(True, False, False)] == pytest.approx(1 / 9) and p[(True, True, False)] == pytest.approx(1 / 9)
+    assert p[(True, True, True)] == pytest.approx(1 / 3)
+    many = zm.level_sets(zm.MAX_CHOSEN_ZONES + 1)
+    assert many.shape == (1, zm.MAX_CHOSEN_ZONES + 1) and many.all()
+    assert zm.level_set_log_prior(many) == pytest.approx([0.0])
+    assert zm.level_sets(zm.MAX_CHOSEN_ZONES).shape[0] == 2 ** zm.MAX_CHOSEN_ZONES - 1

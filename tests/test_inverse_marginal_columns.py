@@ -61,3 +61,51 @@ def test_conditional_on_a_subset_uses_those_readings_alone(stacked):
     sub = MarginalColumns(base.subset(idx), X[idx], mu, s).conditional(np.arange(idx.size))
     for x, y in zip((a, K, Dinv), sub):
         assert x == pytest.approx(y, rel=1e-12, abs=1e-14)
+
+
+@pytest.mark.parametrize("alpha", [0.1, 2.0])
+def test_a_column_held_at_its_prior_mean_is_the_model_without_it(stacked, alpha):
+    """s_j = 0 (a zone without a level of its own, inverse.zones): z_j = 0 with no variance and
+    no covariance, and (c, the other z) as in the model without column j (the direct stacked
+    posterior above, column j left out)."""
+    base, X, mu, s = stacked
+    mu0, s0 = mu.copy(), s.copy()
+    mu0[1], s0[1] = 0.0, 0.0
+    cols = MarginalColumns(base, X, mu0, s0)
+    idx = np.arange(base.n)
+    mean, cov = cols.joint(cols.marginal.coefficients(alpha), cols.marginal.posterior_covariance(alpha), idx)
+    K = base.K
+    assert mean[K + 1] == 0.0 and np.all(cov[K + 1] == 0.0) and np.all(cov[:, K + 1] == 0.0)
+    keep = np.array([0, 2])
+    H = np.hstack([base.G, X[:, keep]])
+    Si = np.linalg.inv(base.noise.covariance)
+    prec = np.concatenate([alpha * base.prior_diag, 1.0 / s[keep] ** 2])
+    cov_direct = np.linalg.inv(H.T @ Si @ H + np.diag(prec))
+    mean_direct = cov_direct @ (H.T @ Si @ (base.d - base.t0) + prec * np.concatenate([base.c0, mu[keep]]))
+    rest = np.concatenate([np.arange(K), K + keep])
+    assert mean[rest] == pytest.approx(mean_direct, rel=1e-9, abs=1e-10)
+    assert cov[np.ix_(rest, rest)] == pytest.approx(cov_direct, rel=1e-8, abs=1e-11)
+
+
+def test_column_gains_give_the_evidence_of_every_set_of_columns(stacked):
+    """LinearGaussianProblem.column_gains with zones.added_levels_log_evidence (determinant
+    lemma): log p(d | alpha, z_S ~ N(0, diag(s_S^2))) for every non-empty set S of the columns,
+    against the stacked model's Gaussian by scipy.stats.multivariate_normal (reference
+    library)."""
+    from heatsight.inverse.zones import added_levels_log_evidence, level_sets
+
+    base, X, _, s = stacked
+    alphas = np.array([0.1, 0.7, 2.0])
+    Q, b = base.column_gains(X, alphas)
+    sets = level_sets(X.shape[1])
+    assert sets.shape == (7, 3)
+    # blocks of one set at a time give the same numbers as all at once
+    got = base.log_evidence(alphas)[:, None] + added_levels_log_evidence(Q, b, s, sets)
+    assert got == pytest.approx(base.log_evidence(alphas)[:, None]
+                                + added_levels_log_evidence(Q, b, s, sets, block=1), rel=1e-13)
+    for i, a in enumerate(alphas):
+        for j, S in enumerate(sets):
+            v = np.where(S, s, 0.0) ** 2
+            Sd = base.noise.covariance + (base.G / (a * base.prior_diag)) @ base.G.T + (X * v) @ X.T
+            ref = multivariate_normal(base.t0 + base.G @ base.c0, Sd).logpdf(base.d)
+            assert got[i, j] == pytest.approx(ref, rel=1e-10)

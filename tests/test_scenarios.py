@@ -58,18 +58,20 @@ HOLLOW = ("tube_bore_temperature", "tube_bore_flux")  # issue 11: the bore of a 
 # zones (5 -> 4 of 6) and the tube bore flux's sharpness (1.03 -> 1.17).  Since the learned
 # prior widens its length scales' range when the readings press its long end (hyperprior.
 # learn_prior): the platen's coverage 0.905 -> 0.932 and relative RMS 0.577 -> 0.559; lost: its
-# sharpness (0.997 -> 1.068).
+# sharpness (0.997 -> 1.068).  Since the zone model averages over which zones carry a level of
+# their own (ZoneModel.choose_level_scale, level_sets): the tube bore flux's sharpness (1.17 ->
+# 0.99; its four quadrant zones, declared to be reported, no longer charge the zone model four
+# levels' Occam factors); lost: calibrated convection's relative RMS (0.50 -> 0.57).
 NOT_MET = {
-    ("platen_flux", "rel_rms"): "0.56",
-    ("platen_flux", "sharpness"): "1.07 (0.997 before the length scales' range was widened where the "
+    ("platen_flux", "rel_rms"): "0.55",
+    ("platen_flux", "sharpness"): "1.09 (0.997 before the length scales' range was widened where the "
                                   "readings press its long end; coverage 0.905 -> 0.932)",
-    ("calibrated_convection", "rel_rms"): "0.50 (seed 0; 0.41 over seeds 0-2)",
+    ("calibrated_convection", "rel_rms"): "0.57 (seed 0; 0.47 over seeds 0-2; 0.50 and 0.41 before the "
+                                          "zone model averaged over which zones carry a level: the edge "
+                                          "zone's level at probability 0.43)",
     ("chuck_class2", "rel_rms"): "1.08",
-    ("top_temperature", "zones"): "4 of 6 (centre +2.06, contact ring -2.08 sd: the smooth model's answer, "
-                                  "p = 0.98, the zone model 4.1 nats behind)",
-    ("tube_bore_flux", "sharpness"): "1.17 (the smooth model at p = 0.75; 0.87 before the axisymmetric "
-                                     "profile's dimension, 1.03 before the zone model's evidence counted "
-                                     "the choice of its levels' scale)",
+    ("top_temperature", "zones"): "4 of 6 (centre +2.1, contact ring -2.1 sd: the smooth model's answer, "
+                                  "the zone model 5.6 nats behind)",
 }
 
 
