@@ -174,12 +174,12 @@ def _how_fitted(result) -> str:
     levels = s.get("zone_level_prior_sd")
     if isinstance(levels, list) and levels and all(_finite(x) for x in levels):
         rows.append(("how far a zone's level may depart from the background before the readings "
-                     "(prior sd, the scale the evidence chose)",
+                     "(prior sd at the scale the evidence finds most probable)",
                      ", ".join(map(_Fmt(result).sd, sorted(set(levels))))))
     own = s.get("zone_level_probability")
     if isinstance(own, dict) and own and all(_finite(v) for v in own.values()):
-        rows.append(("probability that a zone's level departs from the background (otherwise the "
-                     "smooth remainder carries it)", ", ".join(f"{k} {v:.2f}" for k, v in own.items())))
+        rows.append(("probability that a zone's level departs from the background, under the zone model "
+                     "(otherwise the smooth remainder carries it)", ", ".join(f"{k} {v:.2f}" for k, v in own.items())))
     prior = s.get("prior")
     if isinstance(prior, dict):
         rows.append(("what the data chose for the smoothness", _prior_text(prior)))

@@ -50,7 +50,8 @@ from .strength_average import StrengthAverage
 from .threads import few_threads
 from .truncation import (face_tail, face_tail_variance, functional_tails, left_out_columns, nearest_distance,
                          tail_covariance, tail_power)
-from .zones import ZONE_LEVEL_FACTORS, ZONE_PRIOR_FACTOR, ZoneDesign, ZoneModel, edge_rooms, edge_widths, with_edge
+from .zones import (ZONE_LEVEL_FACTORS, ZONE_PRIOR_FACTOR, ZoneDesign, ZoneModel, edge_rooms, edge_widths, level_sets,
+                    with_edge)
 
 #: reduced chi-square above which the readings scatter more than stated (common practice, no source)
 CHI2_WARNING = 4.0
@@ -465,12 +466,15 @@ def _zone_models(spec, design, rd, problem, warnings, post, shift=None):
 
 
 def _settled_screen(zone_model, rd, opts, gross, leading, rounds=3):
-    """The zone model's own screening, its levels' scale chosen (ZoneModel.choose_level_scale,
-    when `leading` is given) on the sensors that screening keeps: chosen, screened again,
-    until the kept sensors stop changing; after `rounds` screenings that still move (a
-    sensor at the threshold, in and out with the scale) the scale is chosen once more on the
-    last screening's sensors and the screening at that scale is returned (its problem,
-    strength and table match the scale the answer uses)."""
+    """The zone model's own screening, its levels' prior chosen (ZoneModel.choose_level_scale,
+    when `leading` is given: the smooth model's leading hyperparameters) on the sensors that
+    screening keeps: chosen, screened again, until the kept sensors stop changing; after
+    `rounds` screenings that still move (a sensor at the threshold, in and out with the
+    choice) it is chosen once more on the last screening's sensors and the screening at that
+    choice is returned.  The answer's prior is chosen once more at the learned remainder's
+    own point (ZoneModel.learned_fit) without screening again: on the tube bore (seed 2) the
+    choice there gave the cool streak's level an sd of 44 K, which explained the broken
+    TC07's +6 K away, and screening again at it kept the sensor (zone 4.3 sd off)."""
     screen = _screen(zone_model.marginal, rd, opts, gross)
     if leading is None:
         return screen
@@ -545,11 +549,12 @@ def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem,
     # the widths that carry weight; their zone columns side by side after the smooth ones
     use = [i for i in range(len(fits)) if w_edge[i] > MIXED_MODELS]
     lead = max(use, key=lambda i: w_edge[i])
-    if hasattr(post.averaged, "log_marginal"):
-        # each zone's probability of a level of its own, departing from the background
-        # (ZoneModel.choose_level_scale; the leading edge width's)
+    if hasattr(post.averaged, "log_marginal") and len(level_sets(len(zone_models[lead].columns.zones))) > 1:
+        # each zone's probability of a level of its own under the zone model, departing from
+        # the background (ZoneModel.choose_level_scale), over the edge widths that carry weight
+        inclusion = sum(w_edge[i] * zone_models[i].inclusion for i in use) / w_edge[use].sum()
         info["zone_level_probability"] = {z.name: float(pz) for z, pz in zip(zone_models[lead].columns.zones,
-                                                                             zone_models[lead].inclusion)}
+                                                                             inclusion)}
     K, J = design.size, len(zone_models[0].columns.zones)
     all_zones = [z for i in use for z in zone_models[i].columns.zones]
     columns = ZoneDesign(design, all_zones, None, zone_models[lead].columns.big,

@@ -573,7 +573,8 @@ class LinearGaussianProblem:
         return _out(log_evidence_from_spectrum(self._s2_n, self._beta, a, self.noise.logdet), scalar)
 
     def column_gains(self, X, alpha):
-        """(Q (m, q, q), b (m, q)) of extra columns X (n, q) [K per unit] at strengths alpha (m,):
+        """(Q (m, q, q) [unit^-2], b (m, q) [unit^-1]) of extra columns X (n, q) [K per unit of
+        their coefficients] at strengths alpha (m,):
         Q = X_w^T C^-1 X_w, b = X_w^T C^-1 y, C = I + A A^T / alpha the whitened prior-predictive
         covariance of the readings (X_w = L^-1 X, y = L^-1 (d - t0 - G c0)).  With a prior
         z ~ N(0, diag(s^2)) on the columns' coefficients (matrix determinant lemma, Woodbury):

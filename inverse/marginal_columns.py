@@ -5,8 +5,9 @@
 Marginal in c (`marginal`): d - X mu ~ N(t0 + G c, S + X diag(s^2) X^T), so screening,
 strength, evidence and the learned prior of c work on an ordinary LinearGaussianProblem.
 Given c (`conditional`): z | c, d ~ N(a - K c, D^-1) with
-    D = X^T S^-1 X + diag(1 / s^2),   a = D^-1 (X^T S^-1 (d - t0) + mu / s^2),
-(D^-1 formed as s (I + s X^T S^-1 X s)^-1 s, so that s = 0 holds z at mu = 0),
+    D = X^T S^-1 X + diag(1 / s^2),   a = D^-1 (X^T S^-1 (d - t0) + mu / s^2)
+      = mu + D^-1 X^T S^-1 (d - t0 - X mu),
+(D^-1 formed as s (I + s X^T S^-1 X s)^-1 s, so that a column with s = 0 is held at its mu),
     K = D^-1 X^T S^-1 G,
 the same for every prior of c; so for c ~ (m, C) (`joint`):
     E z = a - K m,   Cov(z, c) = -K C,   Cov z = D^-1 + K C K^T.
@@ -46,8 +47,7 @@ class MarginalColumns:
         Minv = np.linalg.inv(np.eye(s.size) + s[:, None] * (Wx.T @ Wx) * s[None, :])
         Dinv = s[:, None] * Minv * s[None, :]
         Dinv = 0.5 * (Dinv + Dinv.T)
-        mu_over_s = np.divide(self.mu, s, out=np.zeros_like(self.mu), where=s > 0)
-        a = Dinv @ (Wx.T @ yw) + s * (Minv @ mu_over_s)
+        a = self.mu + Dinv @ (Wx.T @ (yw - Wx @ self.mu))
         return a, Dinv @ (Wx.T @ Wg), Dinv
 
     def joint(self, c, C, idx):

@@ -13,12 +13,15 @@ flat nominal level (a background between and around the zones). With the learned
 and order averaged by the remainder's own evidence, the amplitude scale the smooth model's
 (`remainder_spread`, `learned_fit`); with the fixed prior, P = prior_diagonal
 and the strength alone is averaged (`fit`); z ~ N(0, diag(s^2)): a zone's level departs from
-the background's by a prior amount. With the learned prior s = f sigma_f, sigma_f the smooth
-model's amplitude [face unit] (its posterior median: how far the face departs from its
-nominal profile) and f in ZONE_LEVEL_FACTORS, integrated out with equal prior mass: the
-evidence at each f (`choose_level_scale`), the answer at the best one, whose evidence is
-corrected to the average (`level_choice_correction`); with the fixed prior s =
-ZONE_PRIOR_FACTOR x the face's level scale (weak).  A zone's nominal power is a yardstick
+the background's by a prior amount. With the learned prior s_j = f sigma_f for the zones of a
+set S that carry a level of their own and 0 for the others, sigma_f the smooth model's
+amplitude [face unit] (its posterior median: how far the face departs from its nominal
+profile), f in ZONE_LEVEL_FACTORS with equal prior mass and S with the prior of
+level_set_log_prior; (f, S) weighed by their evidence (`choose_level_scale`, chosen again at
+the learned remainder's leading point: `refine_level_choice`) into one Gaussian prior with
+the mixture's second moment per zone, whose evidence is corrected to the mixture's
+(`level_choice_correction`); with the fixed prior s = ZONE_PRIOR_FACTOR x the face's level
+scale (weak) for every zone.  A zone's nominal power is a yardstick
 for its delivered fraction, not a prior mean: a prior centred on the rating pulls a weak
 heater towards "as rated" wherever the readings are thin, and on a temperature face a power
 is no level at all.  Marginalizing z gives d ~ N(t0 + G c0, S + G_zone diag(s^2) G_zone^T +
@@ -49,7 +52,7 @@ from .truncation import enlarged_size, nearest_distance, tail_covariance
 #: practice, no source)
 ZONE_PRIOR_FACTOR = 10.0
 #: learned prior: zone level prior sd = f x the smooth model's amplitude sigma_f, f among these
-#: (half decades), the one the evidence prefers. A vague sd costs the zone model ln(s / posterior
+#: (half decades), averaged by the evidence (choose_level_scale). A vague sd costs the zone model ln(s / posterior
 #: sd) nats per zone whatever the data say (Lindley's paradox, from memory): at 10x the face's
 #: level (sd 120,000 W/m^2 on tube_bore_flux; 4,600 K on a bore at 460 K) the zone model lost by
 #: 17 nats while all its zone means lay within 0.9 sd and the smooth answer's fouled side 5.5 sd
@@ -60,9 +63,10 @@ ZONE_LEVEL_FACTORS = (1.0, 10.0 ** 0.5, 10.0, 10.0 ** 1.5)
 #: zones; with more, every zone keeps its level (choose_level_scale).  The sets' evidences cost
 #: 0.07-0.24 s per choice at 8 zones (40-80 amplitudes, four factors), 0.5-0.9 s at 10
 MAX_CHOSEN_ZONES = 8
-#: the levels' prior chosen again at the learned remainder's hyperparameters (learned_fit) is
-#: kept only when some zone's level sd moves by more than this (in log): below it the
-#: remainder is not learned again (a change of 5 % in s moves the evidence by ~0.05 nats per zone)
+#: the levels' prior chosen again at the learned remainder's hyperparameters
+#: (refine_level_choice) is kept only when some zone's level sd moves by more than this (in
+#: log): below it the remainder is not learned again (5 % in s moves the evidence by ~0.05
+#: nats per zone)
 SAME_LEVEL_SD = 0.05
 #: the projection keeps modes down to exp(-kappa d_min) = PROJECTION_DECAY at the nearest sensor
 PROJECTION_DECAY = 1e-5
@@ -332,8 +336,10 @@ def level_set_log_prior(sets) -> np.ndarray:
     """log p(S) of level_sets' sets: the number k of zones with a level of their own uniform
     on 1..J and, given k, every set of k zones alike, p(S) = 1 / (J C(J, k)): a prior on the
     count, not 1/2 per zone, so that many declared zones do not make a few real ones
-    improbable (the multiplicity correction of variable selection; the uniform count is the
-    beta-binomial prior with a uniform inclusion probability, common practice, no source)."""
+    improbable: a uniform prior on the probability that a zone has a level makes the count
+    uniform on 0..J (a beta-binomial), and J C(J, k) follows on leaving out k = 0, the smooth
+    model's own case (the multiplicity correction of variable selection, Scott & Berger 2010,
+    from memory)."""
     sets = np.asarray(sets, bool)
     J, k = sets.shape[1], sets.sum(axis=1)
     if sets.shape[0] == 1:
@@ -420,6 +426,7 @@ class ZoneModel:
         self.smooth = smooth
         self._levels = self._levels_for(smooth, self.mu, self.s, self.P)
         self.marginal = self._levels.marginal
+        self._learned = None        # (key, the remainder's LearnedPrior) (_remainder_prior)
 
     def choose_level_scale(self, kept, leading) -> dict:
         """The zone levels' prior from the readings `kept`: how large a level may be (sd
@@ -440,9 +447,12 @@ class ZoneModel:
         (f, S) flipped between near-equal sets (semi_infinite, 0.05 nats apart; coverage
         0.80 -> 0.28).  The averaged prior is one Gaussian with the mixture's second moment:
         zone j's level sd s_j = sqrt(sum_{f,S} p(f, S | d) 1[j in S] (f sigma_f)^2), its
-        `inclusion` = sum_{f,S} p(f, S | d) 1[j in S].  The zone model's evidence, computed
-        at that prior, is corrected to the prior-weighted mean over (f, S):
-        `level_choice_correction` = log sum_{f,S} p(f) p(S) p(d | f, S) - log p(d | s).
+        `inclusion` = sum_{f,S} p(f, S | d) 1[j in S] (the sets' correlation between zones is
+        not kept).  The zone model's evidence, computed at that prior, is corrected to the
+        prior-weighted mean over (f, S), the ratio taken at `leading` (assumed the same at
+        the other hyperparameters):
+        `level_choice_correction` = log sum_{f,S} p(f) p(S) p(d | f, S) - log p(d | s), of
+        either sign.  Zone levels have prior mean 0 here (zone_prior).
         Returns {(f, S as a tuple of bools): log p(d | f, S)}."""
         idx = np.flatnonzero(kept)
         P, alphas, log_w = leading
@@ -545,6 +555,35 @@ class ZoneModel:
         604.7 W; with the smooth model's scale +1.0 sd.)"""
         return readings_spread(self.smooth.subset(idx))
 
+    def _remainder_prior(self, kept, basis, nominal, nominal_factor, like):
+        """The remainder's LearnedPrior on the marginal problem of the readings `kept`, kept
+        until the levels' prior changes (_set_smooth)."""
+        key = (np.asarray(kept, bool).tobytes(), id(like), bool(np.any(nominal)), nominal_factor)
+        if self._learned is None or self._learned[0] != key:
+            idx = np.flatnonzero(kept)
+            lp = learn_prior(self.marginal.subset(idx), basis, nominal=nominal, nominal_factor=nominal_factor,
+                             spread=self.remainder_spread(idx), like=like)
+            self._learned = (key, lp)
+        return self._learned[1]
+
+    def refine_level_choice(self, kept, basis, nominal, nominal_factor, like=None) -> bool:
+        """Choose the levels' prior once more (choose_level_scale) at the leading point of the
+        remainder's prior learned on the readings `kept`, instead of the smooth model's: the
+        smooth model's remainder is rougher and carries heater bands itself, so at its point a
+        zone's level looked less needed (tube_bore_flux: the fouled side's level probability
+        0.91 -> 1.0, the quadrants' 0.2-0.3 -> 0.05-0.08, the zone model's evidence -54.0 ->
+        -51.4).  The new choice stands when some zone's level sd moves by more than
+        SAME_LEVEL_SD (in log); else the one before stays, with its learned remainder.  True
+        when the choice changed."""
+        lp = self._remainder_prior(kept, basis, nominal, nominal_factor, like)
+        before, learned = self._level_choice(), self._learned
+        self.choose_level_scale(kept, lp.leading())
+        if np.max(np.abs(np.log(self.s / before[1]))) >= SAME_LEVEL_SD:
+            return True
+        self._restore_level_choice(before)
+        self._learned = learned
+        return False
+
     def learned_fit(self, kept, basis, nominal, nominal_factor, like=None) -> "ZoneFit":
         """Posterior of (c, z) (and the calibrated parameters' step, when given) with the
         remainder's Whittle-Matern prior learned from the data (hyperprior.LearnedPrior on
@@ -554,24 +593,14 @@ class ZoneModel:
         z | c is the same Gaussian in every component (marginal_columns.MarginalColumns.joint).
         log_evidence holds {"zones": log p(d_kept | zone model)} integrated over the
         hyperpriors; the comparison with the smooth model is model_choice's (weights None).
-        When the levels' prior was chosen (choose_level_scale, at the smooth model's leading
-        hyperparameters), it is chosen once more at the learned remainder's own leading point
-        and the remainder learned again: the smooth model's remainder is rougher than the
-        zone model's and carries heater bands itself, so at its point a zone's level looked
-        less needed (tube_bore_flux: the fouled side's level probability 0.91 -> 1.0, the
-        quadrants' 0.2-0.3 -> 0.05-0.08; the zone model's evidence -54.0 -> -51.4)."""
+        Where the levels' prior was chosen (choose_level_scale, at the smooth model's leading
+        point), it is chosen once more at the learned remainder's own (refine_level_choice)
+        and the remainder learned again where that moves it; the sensors `kept` stay those of
+        the screening at the first choice (fitting._settled_screen says why)."""
         idx = np.flatnonzero(kept)
-        spread = self.remainder_spread(idx)
-        lp = learn_prior(self.marginal.subset(idx), basis, nominal=nominal, nominal_factor=nominal_factor,
-                         spread=spread, like=like)
-        if self.levels_chosen:
-            before = self._level_choice()
-            self.choose_level_scale(kept, lp.leading())
-            if np.max(np.abs(np.log(self.s / before[1]))) < SAME_LEVEL_SD:
-                self._restore_level_choice(before)       # the same prior: lp stands
-            else:
-                lp = learn_prior(self.marginal.subset(idx), basis, nominal=nominal, nominal_factor=nominal_factor,
-                                 spread=spread, like=like)
+        lp = self._remainder_prior(kept, basis, nominal, nominal_factor, like)
+        if self.levels_chosen and self.refine_level_choice(kept, basis, nominal, nominal_factor, like):
+            lp = self._remainder_prior(kept, basis, nominal, nominal_factor, like)
         mean, cov = self._levels.joint(lp.coefficients(), lp.posterior_covariance(), idx)
         log_a = sum(float(w @ np.log(alphas)) for _, alphas, w in lp.hyperparameters())
         return ZoneFit(mean, cov, math.exp(log_a), {"zones": float(lp.log_marginal)},

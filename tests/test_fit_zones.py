@@ -571,3 +571,45 @@ def test_level_sets_and_their_prior():
     assert many.shape == (1, zm.MAX_CHOSEN_ZONES + 1) and many.all()
     assert zm.level_set_log_prior(many) == pytest.approx([0.0])
     assert zm.level_sets(zm.MAX_CHOSEN_ZONES).shape[0] == 2 ** zm.MAX_CHOSEN_ZONES - 1
+
+
+@pytest.mark.parametrize("same", [0.0, math.inf])
+def test_levels_chosen_again_at_the_remainders_point(readings, monkeypatch, same):
+    """ZoneModel.refine_level_choice: the levels' prior chosen once more at the learned
+    remainder's leading point (ZoneModel.learned_fit).  Kept (SAME_LEVEL_SD = 0): the
+    remainder is learned again for the answer; dropped (SAME_LEVEL_SD = inf): the choice
+    before it stands and its learned remainder is reused (one learned prior per model).
+    Either way the sensors are those of the zone model's screening at the first choice."""
+    from heatsight.inverse import fitting as ft
+    from heatsight.inverse import zones as zm
+
+    monkeypatch.setattr(zm, "SAME_LEVEL_SD", same)
+    learned, fits = [], []
+    original_learn = zm.learn_prior
+
+    def spy_learn(problem, *args, **kwargs):
+        learned.append(problem)
+        return original_learn(problem, *args, **kwargs)
+
+    original_fit = ft._zone_fit
+
+    def spy_fit(opts, design, zone_model, zscreen, *args):
+        idx = np.flatnonzero(zscreen.kept)
+        fits.append((zone_model, zscreen, zone_model.s.copy(), zone_model.marginal.subset(idx).noise.covariance))
+        return original_fit(opts, design, zone_model, zscreen, *args)
+
+    monkeypatch.setattr(zm, "learn_prior", spy_learn)
+    monkeypatch.setattr(ft, "_zone_fit", spy_fit)
+    rd, _ = readings
+    with threadpool_limits(1):
+        inverse.fit(case(), rd, model="zones", grid=(8, 12))
+    # the zone models' learned priors (add_tail's first one aside)
+    n_models = len(fits)
+    assert n_models > 1
+    if same == 0.0:
+        assert len(learned) - 1 >= 2 * n_models
+    else:
+        assert len(learned) - 1 == n_models
+    for zone_model, zscreen, s, covariance in fits:
+        assert zscreen.problem.noise.covariance == pytest.approx(covariance, rel=1e-12, abs=1e-15)
+        assert np.array_equal(zone_model.s, s) == (same == math.inf)

@@ -65,23 +65,24 @@ def test_conditional_on_a_subset_uses_those_readings_alone(stacked):
 
 @pytest.mark.parametrize("alpha", [0.1, 2.0])
 def test_a_column_held_at_its_prior_mean_is_the_model_without_it(stacked, alpha):
-    """s_j = 0 (a zone without a level of its own, inverse.zones): z_j = 0 with no variance and
-    no covariance, and (c, the other z) as in the model without column j (the direct stacked
-    posterior above, column j left out)."""
+    """s_j = 0 (a zone without a level of its own, inverse.zones): z_j = mu_j with no variance
+    and no covariance, and (c, the other z) as in the model with column j's part X_j mu_j
+    taken off the readings and the column left out (the direct stacked posterior above)."""
     base, X, mu, s = stacked
-    mu0, s0 = mu.copy(), s.copy()
-    mu0[1], s0[1] = 0.0, 0.0
-    cols = MarginalColumns(base, X, mu0, s0)
+    s0 = s.copy()
+    s0[1] = 0.0
+    cols = MarginalColumns(base, X, mu, s0)
     idx = np.arange(base.n)
     mean, cov = cols.joint(cols.marginal.coefficients(alpha), cols.marginal.posterior_covariance(alpha), idx)
     K = base.K
-    assert mean[K + 1] == 0.0 and np.all(cov[K + 1] == 0.0) and np.all(cov[:, K + 1] == 0.0)
+    assert mean[K + 1] == pytest.approx(mu[1], rel=1e-14) and np.all(cov[K + 1] == 0.0) and np.all(cov[:, K + 1] == 0.0)
     keep = np.array([0, 2])
     H = np.hstack([base.G, X[:, keep]])
     Si = np.linalg.inv(base.noise.covariance)
     prec = np.concatenate([alpha * base.prior_diag, 1.0 / s[keep] ** 2])
     cov_direct = np.linalg.inv(H.T @ Si @ H + np.diag(prec))
-    mean_direct = cov_direct @ (H.T @ Si @ (base.d - base.t0) + prec * np.concatenate([base.c0, mu[keep]]))
+    mean_direct = cov_direct @ (H.T @ Si @ (base.d - base.t0 - X[:, 1] * mu[1])
+                                + prec * np.concatenate([base.c0, mu[keep]]))
     rest = np.concatenate([np.arange(K), K + keep])
     assert mean[rest] == pytest.approx(mean_direct, rel=1e-9, abs=1e-10)
     assert cov[np.ix_(rest, rest)] == pytest.approx(cov_direct, rel=1e-8, abs=1e-11)
