@@ -66,7 +66,7 @@ class Console:
             print("\n".join(body), file=self.stdout)
 
     def progress(self, total: int, label: str):
-        """A progress bar with .update(n) and .close(); silent unless stderr is a terminal.
+        """A progress bar with .update(n), .describe(label) and .close(); silent unless stderr is a terminal.
         A status line on show (status()) is cleared first: the bar takes its line."""
         if self._status is not None:
             self._status.close()
@@ -76,7 +76,7 @@ class Console:
             from tqdm import tqdm
         except ImportError:
             return _PlainBar(total, label, self.stderr)
-        return tqdm(total=total, desc=f"  {label}", file=self.stderr, leave=False)
+        return _TqdmBar(tqdm(total=total, desc=f"  {label}", file=self.stderr, leave=False))
 
     def status(self) -> "_Status":
         """A one-line status of a long command's steps on stderr: .show(text) replaces the
@@ -121,8 +121,27 @@ class _Silent:
     def update(self, n: int = 1) -> None:
         pass
 
+    def describe(self, label: str) -> None:
+        pass
+
     def close(self) -> None:
         pass
+
+
+class _TqdmBar:
+    """A tqdm bar with .update(n), .describe(label) and .close()."""
+
+    def __init__(self, bar):
+        self.bar = bar
+
+    def update(self, n: int = 1) -> None:
+        self.bar.update(n)
+
+    def describe(self, label: str) -> None:
+        self.bar.set_description_str(f"  {printable(label)}")
+
+    def close(self) -> None:
+        self.bar.close()
 
 
 class _PlainBar:
@@ -136,8 +155,14 @@ class _PlainBar:
     def update(self, n: int = 1) -> None:
         self.done += n
         filled = int(self.WIDTH * min(self.done, self.total) / self.total)
-        print(f"\r  {self.label} {self.done}/{self.total} [{'#' * filled}{'.' * (self.WIDTH - filled)}]",
-              end="", file=self.stream, flush=True)
+        line = f"  {self.label} {self.done}/{self.total} [{'#' * filled}{'.' * (self.WIDTH - filled)}]"
+        print("\r" + line.ljust(getattr(self, "width", 0)), end="", file=self.stream, flush=True)
+        self.width = len(line)
+
+    def describe(self, label: str) -> None:
+        """Another label, the bar redrawn."""
+        self.label = printable(label)
+        self.update(0)
 
     def close(self) -> None:
         if self.done:

@@ -33,17 +33,32 @@ class Progress:
     """The log's progress bar (data_io.console: stderr, silent when stderr is not a terminal),
     drawn from PROGRESS_MIN_CHUNKS chunks on."""
 
+    LABEL = "reading the log: chunk"
+
     def __init__(self, total: int, enabled: bool):
         from .console import current, _Silent
 
         total = max(int(total), 1)
-        self.bar = current().progress(total, "reading the log: chunk") if enabled and total >= \
+        self.bar = current().progress(total, self.LABEL) if enabled and total >= \
             PROGRESS_MIN_CHUNKS else _Silent()
+        self.open = True
+
+    @property
+    def live(self) -> bool:
+        """Is a bar drawn (and still open)?"""
+        from .console import _Silent
+
+        return self.open and not isinstance(self.bar, _Silent)
+
+    def note(self, text: str | None = None):
+        """Say beside the bar what holds it up (text; None: back to reading the log)."""
+        self.bar.describe(text or self.LABEL)
 
     def step(self):
         self.bar.update(1)
 
     def close(self):
+        self.open = False
         self.bar.close()
 
 
@@ -132,13 +147,16 @@ class TrendRun:
 
     def _setup(self, i: int, steady=None) -> None:
         from .. import inverse
+        from .console import current
         from .tables import offset_sd
 
         def fit(readings, strength, **overrides):
+            what = "fitting the reference window" + ("" if strength is None else " at the joint strength")
             try:
                 # logs are inverted with the smooth model (inverse.batch); "auto" means it here
                 model = "smooth" if getattr(self.case.fit, "model", "auto") == "auto" else None
-                return inverse.fit(self.case, readings, strength=strength, model=model, **overrides)
+                return inverse.fit(self.case, readings, strength=strength, model=model,
+                                   stage=lambda k, n, text: show(f"{what} [{k}/{n}]: {text}"), **overrides)
             except (InverseError, ForwardModelError) as exc:
                 raise InputError(f"fit of the reference window: {exc}", file=self.case.path) from None
 
@@ -146,12 +164,22 @@ class TrendRun:
             tau, notes = offset_sd(self.layout.frame.loc[self.names], level)
             return tau, [f"{self.layout.path}: {n}" for n in notes]
 
+        # the steps of the reference fit: beside the log's bar while it is drawn (--every),
+        # else on the status line
+        bar = self.progress if self.progress is not None and self.progress.live else None
+        status = None if bar is not None else current().status()
+        show = bar.note if bar is not None else status.show
         try:
             self.model = stats_trend.TrendModel.build(
                 fit, self.windows.stats, i, self.sensors, offsets, floor=self.floor, zones=self.case.zones,
                 steady=steady, joint_evidence=getattr(self.case.fit, "strength_method", "evidence") == "evidence")
         except InverseError as exc:
             raise InputError(str(exc), file=self.cols.path) from None
+        finally:
+            if bar is not None:
+                bar.note(None)
+            else:
+                status.close()
         self.warnings.extend(self.model.warnings)
         self.units = file_display(self.model.result.quantity)
 
@@ -257,7 +285,7 @@ class TrendRun:
     def _run(self, stream, progress: Progress, expected_rows: int):
         from .logs import read_ahead
 
-        self.stream = stream
+        self.stream, self.progress = stream, progress
         chunks = read_ahead(iter(self.reader), READ_AHEAD) if READ_AHEAD > 0 else iter(self.reader)
         for chunk in chunks:
             self.windows.add(chunk.times, chunk.values)
