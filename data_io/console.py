@@ -151,12 +151,13 @@ class _PlainBar:
 
     def __init__(self, total: int, label: str, stream):
         self.total, self.label, self.stream, self.done = max(int(total), 1), label, stream, 0
+        self.width = 0
 
     def update(self, n: int = 1) -> None:
         self.done += n
         filled = int(self.WIDTH * min(self.done, self.total) / self.total)
         line = f"  {self.label} {self.done}/{self.total} [{'#' * filled}{'.' * (self.WIDTH - filled)}]"
-        print("\r" + line.ljust(getattr(self, "width", 0)), end="", file=self.stream, flush=True)
+        print("\r" + line.ljust(self.width), end="", file=self.stream, flush=True)
         self.width = len(line)
 
     def describe(self, label: str) -> None:

@@ -133,6 +133,7 @@ class TrendRun:
         self.last_row = None
         self.first_row = None
         self.units = None
+        self.progress = None        # the log's Progress while the stream runs (_run)
 
     # ---------------------------------------------------------------- statistics (inverse.trend)
     def _reference(self, final: bool) -> int | None:

@@ -578,7 +578,9 @@ class ZoneModel:
         lp = self._remainder_prior(kept, basis, nominal, nominal_factor, like)
         before, learned = self._level_choice(), self._learned
         self.choose_level_scale(kept, lp.leading())
-        if np.max(np.abs(np.log(self.s / before[1]))) >= SAME_LEVEL_SD:
+        with np.errstate(divide="ignore", invalid="ignore"):     # a level sd of 0 (an underflowed weight)
+            moved = np.abs(np.log(self.s / before[1]))
+        if np.any(moved[~np.isnan(moved)] >= SAME_LEVEL_SD):
             return True
         self._restore_level_choice(before)
         self._learned = learned

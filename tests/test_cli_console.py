@@ -150,6 +150,11 @@ def test_status_line_is_cut_to_the_terminal_and_gives_way_to_a_progress_bar(monk
     bar = con.progress(3, "drawing")
     text = err.getvalue()
     assert text.endswith("\r" + " " * 39 + "\r")              # the status line cleared first
+    bar.describe("fitting the reference window [1/3]: series")    # what holds the bar up
+    bar.describe("drawing")
+    shown = err.getvalue().split("\r")
+    assert shown[-2].startswith("  fitting the reference window [1/3]: series 0/3 [")
+    assert shown[-1].startswith("  drawing 0/3 [") and len(shown[-1]) == len(shown[-2])   # blanked to its end
     bar.update(3)
     bar.close()
     status.close()                                            # nothing left to clear
