@@ -50,8 +50,8 @@ from .strength_average import StrengthAverage
 from .threads import few_threads
 from .truncation import (face_tail, face_tail_variance, functional_tails, left_out_columns, nearest_distance,
                          tail_covariance, tail_power)
-from .zones import (ZONE_LEVEL_FACTORS, ZONE_PRIOR_FACTOR, ZoneDesign, ZoneModel, edge_rooms, edge_widths, level_sets,
-                    with_edge)
+from .zones import (MAX_CHOSEN_ZONES, ZONE_LEVEL_FACTORS, ZONE_PRIOR_FACTOR, ZoneDesign, ZoneModel, edge_rooms,
+                    edge_widths, level_sets, with_edge)
 
 #: reduced chi-square above which the readings scatter more than stated (common practice, no source)
 CHI2_WARNING = 4.0
@@ -447,6 +447,11 @@ def _zone_models(spec, design, rd, problem, warnings, post, shift=None):
         warnings.append("the zone model needs a scale for its levels, and the face's is zero; "
                         "the smooth model is used")
         return []
+    if isinstance(post.averaged, LearnedPrior) and len(zones) > MAX_CHOSEN_ZONES:
+        warnings.append(f"{len(zones)} zones on the {design.face_name} face: the zone model weighs which "
+                        f"zones carry a level of their own only up to {MAX_CHOSEN_ZONES} zones, so here every "
+                        "zone keeps one, and zones that do not differ from their surroundings count against "
+                        "it; declare the heaters' zones alone for a fairer comparison with the smooth model")
     # The remainder keeps the smooth prior's nearly flat nominal direction: the face between
     # and around the zones has a level of its own (a background), which zone levels alone
     # cannot carry without biasing every zone.

@@ -613,3 +613,27 @@ def test_levels_chosen_again_at_the_remainders_point(readings, monkeypatch, same
     for zone_model, zscreen, s, covariance in fits:
         assert zscreen.problem.noise.covariance == pytest.approx(covariance, rel=1e-12, abs=1e-15)
         assert np.array_equal(zone_model.s, s) == (same == math.inf)
+
+
+def test_more_zones_than_are_weighed_keep_every_level_and_say_so(readings):
+    """Beyond MAX_CHOSEN_ZONES zones every zone keeps its level (level_sets): the fit says so
+    and gives no level probabilities; at the cap there is no such warning."""
+    from heatsight.inverse import zones as zm
+
+    rd, _ = readings
+    extra = [inverse.Zone(f"outer {j}", "bottom", (j * math.pi / 2, (j + 1) * math.pi / 2), r=RINGS[2])
+             for j in range(4)]
+    many = case()
+    many.zones = zones() + extra[:zm.MAX_CHOSEN_ZONES + 1 - len(zones())]
+    assert len(many.zones) == zm.MAX_CHOSEN_ZONES + 1
+    with threadpool_limits(1):
+        fit = inverse.fit(many, rd, model="zones", grid=(8, 12))
+    said = [w for w in fit.summary["warnings"] if "carry a level of their own only up to" in w]
+    assert len(said) == 1 and f"{zm.MAX_CHOSEN_ZONES + 1} zones" in said[0]
+    assert "zone_level_probability" not in fit.summary
+    fewer = case()
+    fewer.zones = many.zones[:zm.MAX_CHOSEN_ZONES]
+    with threadpool_limits(1):
+        fit = inverse.fit(fewer, rd, model="zones", grid=(8, 12))
+    assert not any("carry a level of their own only up to" in w for w in fit.summary["warnings"])
+    assert len(fit.summary["zone_level_probability"]) == zm.MAX_CHOSEN_ZONES
