@@ -156,7 +156,11 @@ class _PlainBar:
     def update(self, n: int = 1) -> None:
         self.done += n
         filled = int(self.WIDTH * min(self.done, self.total) / self.total)
-        line = f"  {self.label} {self.done}/{self.total} [{'#' * filled}{'.' * (self.WIDTH - filled)}]"
+        bar = f" {self.done}/{self.total} [{'#' * filled}{'.' * (self.WIDTH - filled)}]"
+        # one row, as the status line: a wrapped line could not be redrawn in place
+        room = max(shutil.get_terminal_size(fallback=(80, 24)).columns - 1 - len(bar), 10)
+        label = f"  {self.label}"
+        line = (label if len(label) <= room else label[:room - 3] + "...") + bar
         print("\r" + line.ljust(self.width), end="", file=self.stream, flush=True)
         self.width = len(line)
 
@@ -166,7 +170,7 @@ class _PlainBar:
         self.update(0)
 
     def close(self) -> None:
-        if self.done:
+        if self.width:
             print("", file=self.stream, flush=True)
 
 

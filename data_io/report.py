@@ -177,9 +177,11 @@ def _how_fitted(result) -> str:
                      "(prior sd at the scale the evidence finds most probable)",
                      ", ".join(map(_Fmt(result).sd, sorted(set(levels))))))
     own = s.get("zone_level_probability")
-    if isinstance(own, dict) and own and all(_finite(v) for v in own.values()):
-        rows.append(("probability that a zone's level departs from the background, under the zone model "
-                     "(otherwise the smooth remainder carries it)", ", ".join(f"{k} {v:.2f}" for k, v in own.items())))
+    p_zones = (s.get("model_weights") or {}).get("zones") if isinstance(s.get("model_weights"), dict) else None
+    if isinstance(own, dict) and own and all(_finite(v) for v in own.values()) and _finite(p_zones):
+        rows.append((f"if the face is read zone by zone (probability {p_zones:.2f}): the chance that each "
+                     "zone's level steps away from the face around it at its edges",
+                     ", ".join(f"{k} {v:.2f}" for k, v in own.items())))
     prior = s.get("prior")
     if isinstance(prior, dict):
         rows.append(("what the data chose for the smoothness", _prior_text(prior)))

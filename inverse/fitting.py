@@ -448,10 +448,11 @@ def _zone_models(spec, design, rd, problem, warnings, post, shift=None):
                         "the smooth model is used")
         return []
     if isinstance(post.averaged, LearnedPrior) and len(zones) > MAX_CHOSEN_ZONES:
-        warnings.append(f"{len(zones)} zones on the {design.face_name} face: the zone model weighs which "
-                        f"zones carry a level of their own only up to {MAX_CHOSEN_ZONES} zones, so here every "
-                        "zone keeps one, and zones that do not differ from their surroundings count against "
-                        "it; declare the heaters' zones alone for a fairer comparison with the smooth model")
+        warnings.append(f"{len(zones)} zones declared on the {design.face_name} face: beyond {MAX_CHOSEN_ZONES}, "
+                        "heatsight does not test which zones really differ from the face around them and treats "
+                        "each as a heater of its own, so zones declared only for reporting make the zone-by-zone "
+                        "answer look less likely than it is; declare only zones that match separately "
+                        "powered heaters")
     # The remainder keeps the smooth prior's nearly flat nominal direction: the face between
     # and around the zones has a level of its own (a background), which zone levels alone
     # cannot carry without biasing every zone.
@@ -508,6 +509,16 @@ def _zone_fit(opts, design, zone_model, zscreen, post, u, problem):
     return zone_model.fit(zscreen.kept, alphas)
 
 
+def _at_answer_prior(zscreen, zone_model, opts):
+    """The zone model's screening with its problem and strength at the levels' prior the
+    answer uses, where ZoneModel.learned_fit chose it again at the learned remainder's point:
+    the same sensors; the table's leave-one-out columns stay the screening's."""
+    if not zone_model.refined:
+        return zscreen
+    problem = zone_model.marginal.subset(np.flatnonzero(zscreen.kept))
+    return replace(zscreen, problem=problem, choice=choose_strength(problem, opts.strength_request))
+
+
 def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem, warnings):
     """(model columns, posterior, screening, summary keys, (leading zone model, zone columns
     at the sensors) or None): the smooth model, the zone model when asked (model = "zones"),
@@ -523,6 +534,7 @@ def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem,
     if not zone_models:
         return design, post, smooth, {"model": "smooth"}, None
     fits = [_zone_fit(opts, design, zm, zs, post, u, problem) for zm, zs in zip(zone_models, zscreens)]
+    zscreens = [_at_answer_prior(zs, zm, opts) for zs, zm in zip(zscreens, zone_models)]
     le = np.array([f.log_evidence["zones"] for f in fits])
     cal = post.calibration
     p = 0 if cal is None else cal.values.size

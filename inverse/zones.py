@@ -395,6 +395,7 @@ class ZoneModel:
         # chosen)
         self.inclusion = np.ones(len(zones))
         self.levels_chosen = False
+        self.refined = False        # learned_fit chose the levels' prior again (refine_level_choice)
         # log of (prior-weighted mean over (f, S) of p(d | f, S)) / p(d | the averaged prior)
         # (choose_level_scale)
         self.level_choice_correction = 0.0
@@ -426,7 +427,7 @@ class ZoneModel:
         self.smooth = smooth
         self._levels = self._levels_for(smooth, self.mu, self.s, self.P)
         self.marginal = self._levels.marginal
-        self._learned = None        # (key, the remainder's LearnedPrior) (_remainder_prior)
+        self._learned = None        # (key, basis, like, the remainder's LearnedPrior) (_remainder_prior)
 
     def choose_level_scale(self, kept, leading) -> dict:
         """The zone levels' prior from the readings `kept`: how large a level may be (sd
@@ -558,13 +559,14 @@ class ZoneModel:
     def _remainder_prior(self, kept, basis, nominal, nominal_factor, like):
         """The remainder's LearnedPrior on the marginal problem of the readings `kept`, kept
         until the levels' prior changes (_set_smooth)."""
-        key = (np.asarray(kept, bool).tobytes(), id(like), bool(np.any(nominal)), nominal_factor)
-        if self._learned is None or self._learned[0] != key:
+        key = (np.asarray(kept, bool).tobytes(), np.asarray(nominal).tobytes(), float(nominal_factor))
+        held = self._learned
+        if held is None or held[0] != key or held[1] is not basis or held[2] is not like:
             idx = np.flatnonzero(kept)
             lp = learn_prior(self.marginal.subset(idx), basis, nominal=nominal, nominal_factor=nominal_factor,
                              spread=self.remainder_spread(idx), like=like)
-            self._learned = (key, lp)
-        return self._learned[1]
+            self._learned = (key, basis, like, lp)
+        return self._learned[3]
 
     def refine_level_choice(self, kept, basis, nominal, nominal_factor, like=None) -> bool:
         """Choose the levels' prior once more (choose_level_scale) at the leading point of the
@@ -601,7 +603,8 @@ class ZoneModel:
         the screening at the first choice (fitting._settled_screen says why)."""
         idx = np.flatnonzero(kept)
         lp = self._remainder_prior(kept, basis, nominal, nominal_factor, like)
-        if self.levels_chosen and self.refine_level_choice(kept, basis, nominal, nominal_factor, like):
+        self.refined = self.levels_chosen and self.refine_level_choice(kept, basis, nominal, nominal_factor, like)
+        if self.refined:
             lp = self._remainder_prior(kept, basis, nominal, nominal_factor, like)
         mean, cov = self._levels.joint(lp.coefficients(), lp.posterior_covariance(), idx)
         log_a = sum(float(w @ np.log(alphas)) for _, alphas, w in lp.hyperparameters())

@@ -150,10 +150,12 @@ def test_status_line_is_cut_to_the_terminal_and_gives_way_to_a_progress_bar(monk
     bar = con.progress(3, "drawing")
     text = err.getvalue()
     assert text.endswith("\r" + " " * 39 + "\r")              # the status line cleared first
-    bar.describe("fitting the reference window [1/3]: series")    # what holds the bar up
+    monkeypatch.setattr("shutil.get_terminal_size", lambda fallback=None: os.terminal_size((80, 24)))
+    bar.describe("fitting the reference window [1/3]: " + "y" * 80)    # what holds the bar up
     bar.describe("drawing")
     shown = err.getvalue().split("\r")
-    assert shown[-2].startswith("  fitting the reference window [1/3]: series 0/3 [")
+    assert shown[-2].startswith("  fitting the reference window [1/3]: y...")
+    assert len(shown[-2]) == 79 and "...  0/3 [" not in shown[-2] and "... 0/3 [" in shown[-2]   # one row
     assert shown[-1].startswith("  drawing 0/3 [") and len(shown[-1]) == len(shown[-2])   # blanked to its end
     bar.update(3)
     bar.close()

@@ -363,7 +363,7 @@ def test_zones_sharing_an_edge_keep_summing_to_one():
     assert edge_rooms(bands, True, 0.04, (0.0, math.inf)) == pytest.approx([EDGE_ROOM * 0.005] * 2)
 
 
-def test_zone_levels_prior_is_averaged_over_scale_and_sets(readings, monkeypatch):
+def test_zone_levels_prior_is_averaged_over_scale_and_sets(readings, monkeypatch, tmp_path):
     """The zone levels' prior (zones.ZoneModel.choose_level_scale): for each factor f and set
     S of zones with a level of their own, the evidence at the leading hyperparameters it is
     given (the smooth model's, then the learned remainder's), amplitude integrated, against
@@ -486,9 +486,21 @@ def test_zone_levels_prior_is_averaged_over_scale_and_sets(readings, monkeypatch
     # the zone model's evidence, computed at that prior, is corrected to the prior-weighted
     # mean over (f, S), both at the leading point of the choice that stands
     assert model.level_choice_correction == pytest.approx(mean - direct(model.s, kept_call[0]), abs=1e-6)
+    # the summary's probabilities: the edge widths' (those that carry weight) weighted by
+    # their posterior weights; `models` holds the widths in order
     lead = rated.summary["zone_level_probability"]
     assert list(lead) == [z.name for z in zones()]
-    assert any(np.allclose(list(lead.values()), m.inclusion) for m in models)
+    w = np.array(rated.summary["zone_edge_weights"])
+    assert len(w) == len(models)
+    use = w > 1e-3
+    expected = sum(wi * m.inclusion for wi, m, u in zip(w, models, use) if u) / w[use].sum()
+    assert np.allclose(list(lead.values()), expected, rtol=1e-12)
+    # the report gives them beside the zone model's probability
+    from heatsight.data_io import report
+    page = report.write_report(rated, tmp_path / "report.html").read_text(encoding="utf-8")
+    p_z = rated.summary["model_weights"]["zones"]
+    assert f"if the face is read zone by zone (probability {p_z:.2f})" in page
+    assert ", ".join(f"{k} {v:.2f}" for k, v in lead.items()) in page
     # the nominal powers are a yardstick only: without them the zone means are the same, and
     # each delivered fraction is the zone's power over its nominal
     plain = case()
@@ -577,42 +589,51 @@ def test_level_sets_and_their_prior():
 def test_levels_chosen_again_at_the_remainders_point(readings, monkeypatch, same):
     """ZoneModel.refine_level_choice: the levels' prior chosen once more at the learned
     remainder's leading point (ZoneModel.learned_fit).  Kept (SAME_LEVEL_SD = 0): the
-    remainder is learned again for the answer; dropped (SAME_LEVEL_SD = inf): the choice
-    before it stands and its learned remainder is reused (one learned prior per model).
-    Either way the sensors are those of the zone model's screening at the first choice."""
+    remainder is learned again for the answer, on the sensors of the zone model's first
+    screening, and the screening handed on has its problem and strength at the new prior
+    (fitting._at_answer_prior); dropped (SAME_LEVEL_SD = inf): the choice before it stands,
+    its learned remainder is reused (one learned prior per model) and the screening is the
+    first one."""
     from heatsight.inverse import fitting as ft
     from heatsight.inverse import zones as zm
 
     monkeypatch.setattr(zm, "SAME_LEVEL_SD", same)
-    learned, fits = [], []
+    learned, handed = [], []
     original_learn = zm.learn_prior
 
     def spy_learn(problem, *args, **kwargs):
-        learned.append(problem)
+        learned.append(problem.n)
         return original_learn(problem, *args, **kwargs)
 
-    original_fit = ft._zone_fit
+    original_at = ft._at_answer_prior
 
-    def spy_fit(opts, design, zone_model, zscreen, *args):
-        idx = np.flatnonzero(zscreen.kept)
-        fits.append((zone_model, zscreen, zone_model.s.copy(), zone_model.marginal.subset(idx).noise.covariance))
-        return original_fit(opts, design, zone_model, zscreen, *args)
+    def spy_at(zscreen, zone_model, opts):
+        out = original_at(zscreen, zone_model, opts)
+        handed.append((zscreen, zone_model, out))
+        return out
 
     monkeypatch.setattr(zm, "learn_prior", spy_learn)
-    monkeypatch.setattr(ft, "_zone_fit", spy_fit)
+    monkeypatch.setattr(ft, "_at_answer_prior", spy_at)
     rd, _ = readings
     with threadpool_limits(1):
         inverse.fit(case(), rd, model="zones", grid=(8, 12))
-    # the zone models' learned priors (add_tail's first one aside)
-    n_models = len(fits)
+    n_models = len(handed)
     assert n_models > 1
-    if same == 0.0:
-        assert len(learned) - 1 >= 2 * n_models
-    else:
-        assert len(learned) - 1 == n_models
-    for zone_model, zscreen, s, covariance in fits:
-        assert zscreen.problem.noise.covariance == pytest.approx(covariance, rel=1e-12, abs=1e-15)
-        assert np.array_equal(zone_model.s, s) == (same == math.inf)
+    # add_tail's learned prior first, then each model's: two where the choice moved, else one,
+    # every one on the sensors the model's screening kept
+    per_model = 2 if same == 0.0 else 1
+    assert len(learned) - 1 == per_model * n_models
+    assert learned[1:] == [int(zs.kept.sum()) for zs, _, _ in handed for _ in range(per_model)]
+    for first, zone_model, out in handed:
+        assert zone_model.refined == (same == 0.0)
+        assert np.array_equal(out.kept, first.kept) and out.table is first.table
+        final = zone_model.marginal.subset(np.flatnonzero(first.kept)).noise.covariance
+        if same == 0.0:
+            assert out.problem.noise.covariance == pytest.approx(final, rel=1e-12, abs=1e-15)
+            assert not np.allclose(first.problem.noise.covariance, final, rtol=1e-6, atol=0.0)
+        else:
+            assert out is first
+            assert first.problem.noise.covariance == pytest.approx(final, rel=1e-12, abs=1e-15)
 
 
 def test_more_zones_than_are_weighed_keep_every_level_and_say_so(readings):
@@ -628,12 +649,12 @@ def test_more_zones_than_are_weighed_keep_every_level_and_say_so(readings):
     assert len(many.zones) == zm.MAX_CHOSEN_ZONES + 1
     with threadpool_limits(1):
         fit = inverse.fit(many, rd, model="zones", grid=(8, 12))
-    said = [w for w in fit.summary["warnings"] if "carry a level of their own only up to" in w]
+    said = [w for w in fit.summary["warnings"] if "does not test which zones really differ" in w]
     assert len(said) == 1 and f"{zm.MAX_CHOSEN_ZONES + 1} zones" in said[0]
     assert "zone_level_probability" not in fit.summary
     fewer = case()
     fewer.zones = many.zones[:zm.MAX_CHOSEN_ZONES]
     with threadpool_limits(1):
         fit = inverse.fit(fewer, rd, model="zones", grid=(8, 12))
-    assert not any("carry a level of their own only up to" in w for w in fit.summary["warnings"])
+    assert not any("does not test which zones really differ" in w for w in fit.summary["warnings"])
     assert len(fit.summary["zone_level_probability"]) == zm.MAX_CHOSEN_ZONES
