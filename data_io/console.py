@@ -93,6 +93,20 @@ class Console:
             return False
 
 
+def _one_row(text: str, beside: int = 0) -> str:
+    """`text` cut with "..." to fit one row of the terminal next to `beside` more characters:
+    a wrapped line could not be redrawn in place."""
+    room = max(shutil.get_terminal_size(fallback=(80, 24)).columns - 1 - beside, 10)
+    return text if len(text) <= room else text[:room - 3] + "..."
+
+
+def _redraw(stream, line: str, width: int) -> int:
+    """Write `line` over the row's last one (`width` characters, blanked where longer);
+    returns the new width."""
+    print("\r" + line.ljust(width), end="", file=stream, flush=True)
+    return len(line)
+
+
 class _Status:
     """The status line: one line of stderr, cut to the terminal's width (a wrapped line could
     not be rewritten in place)."""
@@ -105,11 +119,7 @@ class _Status:
             self.console.step(text)
             return
         if self.live:
-            room = max(shutil.get_terminal_size(fallback=(80, 24)).columns - 1, 10)
-            line = f"{PROG}: {printable(text)}"
-            line = line if len(line) <= room else line[:room - 3] + "..."
-            print("\r" + line.ljust(self.width), end="", file=self.console.stderr, flush=True)
-            self.width = len(line)
+            self.width = _redraw(self.console.stderr, _one_row(f"{PROG}: {printable(text)}"), self.width)
 
     def close(self) -> None:
         if self.live and self.width:
@@ -157,12 +167,7 @@ class _PlainBar:
         self.done += n
         filled = int(self.WIDTH * min(self.done, self.total) / self.total)
         bar = f" {self.done}/{self.total} [{'#' * filled}{'.' * (self.WIDTH - filled)}]"
-        # one row, as the status line: a wrapped line could not be redrawn in place
-        room = max(shutil.get_terminal_size(fallback=(80, 24)).columns - 1 - len(bar), 10)
-        label = f"  {self.label}"
-        line = (label if len(label) <= room else label[:room - 3] + "...") + bar
-        print("\r" + line.ljust(self.width), end="", file=self.stream, flush=True)
-        self.width = len(line)
+        self.width = _redraw(self.stream, _one_row(f"  {self.label}", len(bar)) + bar, self.width)
 
     def describe(self, label: str) -> None:
         """Another label, the bar redrawn."""

@@ -582,7 +582,7 @@ class LinearGaussianProblem:
         + 1/2 (s b)^T (I + s Q s)^-1 (s b)."""
         a, _ = _as_alphas(alpha)
         Xu = self._U.T @ self.noise.whiten(np.asarray(X, float).reshape(self.n, -1))     # (n, q)
-        g = a[:, None] / (self._s2_n[None, :] + a[:, None])                              # (m, n)
+        g = self._filters_n(a)[1]                          # alpha / (s^2 + alpha), (m, n): C^-1's eigenvalues
         return np.einsum("ni,mn,nj->mij", Xu, g, Xu), (g * self._beta[None, :]) @ Xu
 
     def gcv(self, alpha):

@@ -467,10 +467,10 @@ class ZoneModel:
             return logsumexp(le0[:, None] + added_levels_log_evidence(Q, b, s, sets) + log_w[:, None], axis=0)
 
         sets = level_sets(J)
-        table = np.array([evidence(self._prior_of(f)[1], sets) for f in ZONE_LEVEL_FACTORS])      # (n_f, n_S)
+        scales = np.array([self._prior_of(f)[1] for f in ZONE_LEVEL_FACTORS])                 # (n_f, J)
+        table = np.array([evidence(s, sets) for s in scales])                                 # (n_f, n_S)
         post = table + level_set_log_prior(sets)[None, :]
         p = np.exp(post - logsumexp(post))
-        scales = np.array([self._prior_of(f)[1] for f in ZONE_LEVEL_FACTORS])                 # (n_f, J)
         self.inclusion = p.sum(axis=0) @ sets
         self.level_factor = ZONE_LEVEL_FACTORS[int(np.argmax(p.sum(axis=1)))]
         self.mu = np.zeros(J)
