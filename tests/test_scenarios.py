@@ -1,6 +1,6 @@
-"""The fast part of the scenario suite (bench/scenarios.py runs all ten, at full meshes).
+"""The fast part of the scenario suite (bench/scenarios.py runs all of them).
 
-Six scenarios of tests/scenario_cases.py on half-size FEM meshes (shown converged below),
+Nine scenarios of tests/scenario_cases.py on half-size FEM meshes (shown converged below),
 noise seed 0.  Each goal of issue 9 is a test: goals the current fit meets are asserted;
 goals it does not meet yet are xfail(strict=True) with the figure measured when this file
 was written, so they turn into failures (to be promoted) the day they are met.
@@ -29,7 +29,7 @@ import scenario_fem as sf
 import scenario_metrics as sm
 
 SCALE = 0.5
-FAST = ("platen_flux", "top_temperature", "side_flux", "calibrated_convection", "chuck_class2",
+FAST = ("platen_flux", "platen_heater_zones", "top_temperature", "side_flux", "calibrated_convection", "chuck_class2",
         "wall_cooled_end", "tube_bore_temperature", "tube_bore_flux")
 HOLLOW = ("tube_bore_temperature", "tube_bore_flux")  # issue 11: the bore of a process tube
 
@@ -61,7 +61,11 @@ HOLLOW = ("tube_bore_temperature", "tube_bore_flux")  # issue 11: the bore of a 
 # sharpness (0.997 -> 1.068).  Since the zone model averages over which zones carry a level of
 # their own (ZoneModel.choose_level_scale, level_sets): the tube bore flux's sharpness (1.17 ->
 # 0.99; its four quadrant zones, declared to be reported, no longer charge the zone model four
-# levels' Occam factors); lost: calibrated convection's relative RMS (0.50 -> 0.57).
+# levels' Occam factors); lost: calibrated convection's relative RMS (0.50 -> 0.57).  Since
+# the zone model's remainder is smooth (zones.REMAINDER_SMOOTHNESS, nu >= 1) and edge ramps may
+# take half the gap between zones (zones.EDGE_ROOM): the tube bore flux's sharpness 0.99 ->
+# 0.62; platen_heater_zones (added then) coverage 0.71 -> 0.88 and zone means 1/3 -> 3/3
+# (2.0-2.3 sd -> 1.0-1.2 sd).
 NOT_MET = {
     ("platen_flux", "rel_rms"): "0.55",
     ("platen_flux", "sharpness"): "1.09 (0.997 before the length scales' range was widened where the "
