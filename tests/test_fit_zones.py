@@ -306,8 +306,8 @@ def _componentwise_check(model, kept, fit):
 
 
 def test_edge_widths_fit_between_neighbouring_edges():
-    # three rings 10 mm apart (tests/scenario_cases.py three_rings): no ramp wider than a
-    # quarter of that gap; declared edges are kept as they are
+    # three rings 10 mm apart (tests/scenario_cases.py three_rings): no ramp wider than
+    # EDGE_ROOM (half) of that gap; declared edges are kept as they are
     from heatsight.inverse.zones import EDGE_FRACTIONS, EDGE_ROOM, OWN_ROOM, edge_rooms, edge_widths
     rings = [(0.0, 0.045), (0.055, 0.095), (0.105, 0.145)]
     zs = [inverse.Zone(f"ring{i}", "bottom", (0.0, 2 * math.pi), r=r) for i, r in enumerate(rings)]
@@ -318,6 +318,15 @@ def test_edge_widths_fit_between_neighbouring_edges():
     wide = [inverse.Zone("half", "bottom", (0.0, math.pi), r=(0.03, 0.13))]
     assert edge_widths(wide, 0.15, edge_rooms(wide, False, 0.15, (0.0, 0.15))) == \
         tuple((pytest.approx(f * 0.15),) for f in EDGE_FRACTIONS)
+    # one width reached two ways counts once: the platen's heaters (rings 20 mm apart on a
+    # 150 mm radius) reach 10 mm as 1/15 of the radius and as half the gap, which differ in
+    # the last bit (0.01 against 0.010000000000000002); counted twice, the 10 mm ramp had two
+    # thirds of the prior mass
+    heaters = [inverse.Zone("inner", "bottom", (0.0, 2 * math.pi), r=(0.0, 0.06)),
+               inverse.Zone("outer", "bottom", (0.0, 2 * math.pi), r=(0.08, 0.14))]
+    assert EDGE_ROOM == 0.5 and EDGE_FRACTIONS[1] == 1.0 / 15.0
+    assert edge_widths(heaters, 0.15, edge_rooms(heaters, False, 0.15, (0.0, 0.15))) == \
+        ((0.0, 0.0), (pytest.approx(0.010), pytest.approx(0.010)))
     declared = [inverse.Zone("ring", "bottom", (0.0, 2 * math.pi), r=(0.02, 0.04), edge=0.003)]
     assert edge_widths(declared, 0.15) == (None,)
     # a temperature face never gets a sharp step (its heat flux would be singular)
