@@ -127,7 +127,8 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
         if leading is not None:
             first.choose_level_scale(_screen(first.marginal, rd, opts, gross).kept, leading)
         # the zone models' learned priors take the smooth model's length scales (widened or
-        # not, hyperprior.learn_prior): both models are compared under one hyperprior
+        # not, hyperprior.learn_prior): both models are compared on one grid of length scales
+        # and one amplitude hyperprior (the remainder's orders are smooth: zones.REMAINDER_SMOOTHNESS)
         first.add_tail(design, rd, u > 0, _screen(first.marginal, rd, opts, gross).kept, like=learned_prior)
         for other in zone_models[1:]:
             other.share_tail(first)

@@ -10,7 +10,8 @@ which converges at interior sensors (each mode decays into the part).
 Priors: the remainder c ~ N(0, (alpha P)^-1), P the smooth model's prior with its nearly
 flat nominal level (a background between and around the zones). With the learned prior
 (the default) P is the Whittle-Matern family of hyperprior.py, its strength, length scale
-and order averaged by the remainder's own evidence, the amplitude scale the smooth model's
+and order averaged by the remainder's own evidence (the smooth orders REMAINDER_SMOOTHNESS
+only: the levels carry the steps), the amplitude scale the smooth model's
 (`remainder_spread`, `learned_fit`); with the fixed prior, P = prior_diagonal
 and the strength alone is averaged (`fit`); z ~ N(0, diag(s^2)): a zone's level departs from
 the background's by a prior amount. With the learned prior s_j = f sigma_f for the zones of a
@@ -26,9 +27,9 @@ for its delivered fraction, not a prior mean: a prior centred on the rating pull
 heater towards "as rated" wherever the readings are thin, and on a temperature face a power
 is no level at all.  Marginalizing z gives d ~ N(t0 + G c0, S + G_zone diag(s^2) G_zone^T +
 G (alpha P)^-1 G^T), so the evidence p(d | alpha, zones) is exact. It compares with the
-smooth model's evidence under the same hyperpriors (learned prior: both integrated over
-strength, length scale and order; fixed prior: both on one log-alpha grid), equal prior
-model odds.
+smooth model's evidence (learned prior: both integrated over strength, length scale and
+order, on one grid of length scales and one amplitude hyperprior, the remainder's orders its
+own; fixed prior: both on one log-alpha grid), equal prior model odds.
 """
 
 from __future__ import annotations
@@ -80,8 +81,8 @@ EDGE_FRACTIONS = (0.0, 1.0 / 15.0, 2.0 / 15.0)
 #: ... each zone's at most this share of the gap to the nearest edge of a zone beside it along
 #: the radius (end face) or the height (wall), or of the rest of the turn beside a sector
 #: (edge_rooms): ramps wider than the gap between two rings made their levels trade off.  Half
-#: the gap: two facing ramps, each centred on its edge, then meet at most at the gap's middle.
-#: A quarter capped the platen's heaters (rings 20 mm apart, tanh edges about 9 mm from 10 to
+#: the gap: each ramp is centred on its edge (zone_breaks), so two facing ramps reach a quarter
+#: of the gap into it each and its middle half stays the background's.  A quarter capped the platen's heaters (rings 20 mm apart, tanh edges about 9 mm from 10 to
 #: 90 %) at 5 mm ramps, and their zone means sat 2.0-2.5 sd off with a pointwise coverage of
 #: 0.69-0.71 (bench/scenarios.py platen_heater_zones; 10 mm ramps: 0.5-1.3 sd, 0.87-0.89).
 #: Cost: three sharp rings 10 mm apart, relative RMS 0.07 -> 0.13, coverage 1.00 both ways ...
@@ -91,7 +92,7 @@ EDGE_ROOM = 0.5
 OWN_ROOM = 0.5
 #: Matern smoothness nu of the zone model's remainder (hyperprior.SMOOTHNESS: the smooth
 #: model's, from 0.25): the levels carry the steps at the declared edges, so what is left is
-#: smooth: nu >= 1 (its field about once differentiable).  With the rough orders the remainder's
+#: smooth: nu >= 1 (differentiable in mean square for nu > 1, at the edge of it for nu = 1).  With the rough orders the remainder's
 #: modes beyond the basis doubled the bands (tube_bore_flux, 3 seeds: sharpness 1.03 -> 0.63,
 #: relative RMS 0.27 -> 0.30, coverage 0.99 -> 0.96, zones 21/21 both ways); where the
 #: declared zones miss a step the smooth model, rough orders and all, takes the weight.
@@ -234,9 +235,13 @@ def edge_widths(zones, size, rooms=None, quantity="flux") -> tuple:
         return (None,)
     rooms = np.full(len(zones), math.inf) if rooms is None else np.asarray(rooms, float)
     fractions = [f for f in EDGE_FRACTIONS if f > 0 or quantity != "temperature"]
-    # widths rounded to 1e-12 m, so that one width reached two ways (2 f x size, a room) counts once
-    return tuple(dict.fromkeys(tuple(round(float(min(f * float(size), r)), 12) for r in rooms)
-                               for f in fractions))
+    out = []
+    for f in fractions:
+        widths = tuple(float(min(f * float(size), r)) for r in rooms)
+        # a width reached two ways (1/15 of the size, and a room) counts once (_same)
+        if not any(all(_same(x, y) for x, y in zip(widths, seen)) for seen in out):
+            out.append(widths)
+    return tuple(out)
 
 
 def with_edge(zones, widths):
@@ -512,10 +517,7 @@ class ZoneModel:
         """The remainder's left-out modes marginalized into the noise (truncation.py), their
         variance from a first learned remainder prior on the readings `ok`: the zones carry
         the sharp structure, so the remainder's tail is its own, not the smooth model's."""
-        idx = np.flatnonzero(ok)
-        first = learn_prior(self.marginal.subset(idx), design.basis, nominal=nominal,
-                            nominal_factor=NOMINAL_PRECISION_FACTOR, spread=self.remainder_spread(idx), like=like,
-                            smoothness=REMAINDER_SMOOTHNESS)
+        first = self._learn_remainder(np.flatnonzero(ok), design.basis, nominal, NOMINAL_PRECISION_FACTOR, like)
         sm = self.smooth
         self.tail_prior = first
         self._set_smooth(LinearGaussianProblem(sm.G, sm.d, sm.t0, sm.noise.covariance
@@ -565,11 +567,17 @@ class ZoneModel:
         """The amplitude scale of the remainder's learned prior (hyperprior.LearnedPrior's
         `spread`): the smooth model's, the whitened mean square of the readings beyond the
         noise about the nominal profile, so that both models' evidences are integrated over
-        the same hyperpriors.  (The spread left after the zone levels' own fit made the
+        the same amplitude hyperprior.  (The spread left after the zone levels' own fit made the
         remainder's prior as tight as the zones' fit where the sensors are, and the face
         where none are as certain: sparse_sector's power +2.1 sd, 619.8 +- 7.2 W against
         604.7 W; with the smooth model's scale +1.0 sd.)"""
         return readings_spread(self.smooth.subset(idx))
+
+    def _learn_remainder(self, idx, basis, nominal, nominal_factor, like):
+        """The remainder's LearnedPrior on the marginal problem of the readings `idx`: the
+        smooth model's amplitude scale and length scales (`like`), the orders REMAINDER_SMOOTHNESS."""
+        return learn_prior(self.marginal.subset(idx), basis, nominal=nominal, nominal_factor=nominal_factor,
+                           spread=self.remainder_spread(idx), like=like, smoothness=REMAINDER_SMOOTHNESS)
 
     def _remainder_prior(self, kept, basis, nominal, nominal_factor, like):
         """The remainder's LearnedPrior on the marginal problem of the readings `kept`, kept
@@ -577,10 +585,7 @@ class ZoneModel:
         key = (np.asarray(kept, bool).tobytes(), np.asarray(nominal).tobytes(), float(nominal_factor))
         held = self._learned
         if held is None or held[0] != key or held[1] is not basis or held[2] is not like:
-            idx = np.flatnonzero(kept)
-            lp = learn_prior(self.marginal.subset(idx), basis, nominal=nominal, nominal_factor=nominal_factor,
-                             spread=self.remainder_spread(idx), like=like,
-                             smoothness=REMAINDER_SMOOTHNESS)
+            lp = self._learn_remainder(np.flatnonzero(kept), basis, nominal, nominal_factor, like)
             self._learned = (key, basis, like, lp)
         return self._learned[3]
 

@@ -146,19 +146,8 @@ def _quadrant_zones(face, name, r=None, z=None, start=0.0):
 # ------------------------------------------------------------------ the scenarios
 def platen_flux(seed=0, scale=1.0):
     """Unknown bottom heat flux of a stainless platen: two ring heaters (smooth edges) with a
-    cos(theta) tilt; convection-cooled top, insulated rim; one sensor reads 6 K high."""
-    return _platen("platen_flux", platen_flux.__doc__, 0.15, seed, scale)
-
-
-def platen_heater_zones(seed=0, scale=1.0):
-    """The platen with its zones declared as the heaters themselves (inner 0-60 mm, outer
-    80-140 mm in two halves), as an engineer who knows the heater drawing would: the zone
-    model then leads, and the heaters' edges (tanh, about 9 mm from 10 to 90 %) are softer
-    than a sharp step."""
-    return _platen("platen_heater_zones", platen_heater_zones.__doc__, 0.14, seed, scale)
-
-
-def _platen(name, story, outer_end, seed, scale):
+    cos(theta) tilt; convection-cooled top, insulated rim; one sensor reads 6 K high.  The
+    outer zones are declared to the rim, 10 mm past the heater."""
     a, L, k = 0.15, 0.04, 16.0     # stainless steel ~16 W/(m K) (from memory)
 
     def q(r, th):
@@ -168,11 +157,29 @@ def _platen(name, story, outer_end, seed, scale):
                       dict(nr=90, nz=24, grade={"bottom": 3.0}), m_cap=8)
     layout = (_circle(0.125, 0.005, 8) + _circle(0.07, 0.005, 4, 20) + [(0.0, 0.0, 0.005)]
               + _circle(0.10, 0.012, 4, 65) + [(0.04, 100, 0.025), (0.09, 220, 0.025), (0.13, 340, 0.025)])
-    zones = [Zone("inner", "bottom", (0.0, TWO_PI), r=(0.0, 0.06)),
-             Zone("outer 0-180", "bottom", (0.0, math.pi), r=(0.08, outer_end)),
-             Zone("outer 180-360", "bottom", (math.pi, TWO_PI), r=(0.08, outer_end))]
-    return _build(name, story, q, phys, layout, seed=seed, scale=scale,
-                  sigma=0.15, zones=zones, broken=("TC18",))
+    return _build("platen_flux", platen_flux.__doc__, q, phys, layout, seed=seed, scale=scale,
+                  sigma=0.15, zones=_platen_zones(0.15), broken=("TC18",))
+
+
+def _platen_zones(outer_end):
+    return [Zone("inner", "bottom", (0.0, TWO_PI), r=(0.0, 0.06)),
+            Zone("outer 0-180", "bottom", (0.0, math.pi), r=(0.08, outer_end)),
+            Zone("outer 180-360", "bottom", (math.pi, TWO_PI), r=(0.08, outer_end))]
+
+
+def platen_heater_zones(seed=0, scale=1.0):
+    """The platen's readings with its zones declared as the heaters themselves (inner 0-60
+    mm, outer 80-140 mm in two halves), as an engineer who knows the heater drawing would:
+    the zone model then leads, and the heaters' edges (tanh, about 9 mm from 10 to 90 %) are
+    softer than a sharp step."""
+    scn = platen_flux(seed=seed, scale=scale)
+    truth, phys, pos = _PHYSICS["platen_heater_zones"] = _PHYSICS["platen_flux"]
+    zones = _platen_zones(0.14)
+    case = types.SimpleNamespace(**{**vars(scn.case), "zones": zones})
+    zmeans = {zn.name: sf.face_average(truth, phys.unknown, phys.radius, phys.height, zn.contains)[0]
+              for zn in zones}
+    return replace(scn, name="platen_heater_zones", story=platen_heater_zones.__doc__, case=case,
+                   zone_means=zmeans)
 
 
 def top_temperature(seed=0, scale=1.0):
