@@ -1,6 +1,6 @@
 """The fast part of the scenario suite (bench/scenarios.py runs all of them).
 
-Nine scenarios of tests/scenario_cases.py on half-size FEM meshes (shown converged below),
+Ten scenarios of tests/scenario_cases.py on half-size FEM meshes (shown converged below),
 noise seed 0.  Each goal of issue 9 is a test: goals the current fit meets are asserted;
 goals it does not meet yet are xfail(strict=True) with the figure measured when this file
 was written, so they turn into failures (to be promoted) the day they are met.
@@ -30,6 +30,7 @@ import scenario_metrics as sm
 
 SCALE = 0.5
 FAST = ("platen_flux", "platen_heater_zones", "top_temperature", "side_flux", "calibrated_convection", "chuck_class2",
+        "chuck_calibrated",
         "wall_cooled_end", "tube_bore_temperature", "tube_bore_flux")
 HOLLOW = ("tube_bore_temperature", "tube_bore_flux")  # issue 11: the bore of a process tube
 
@@ -74,6 +75,15 @@ NOT_MET = {
                                           "smooth remainder, 0.50 and 0.41 before it averaged over which zones "
                                           "carry a level: the edge zone's level at probability 0.43)",
     ("chuck_class2", "rel_rms"): "1.08",
+    # the heater ends at 140 mm in a stretch no sensor sees (beyond 110 mm): the learned prior's
+    # amplitude (~800 W/m^2, from the readings' spread) makes a drop of 5,000 W/m^2 there
+    # improbable, so both models carry the ring's power out to the rim and the zones come out
+    # low with narrow bands; the fit warns about the unseen edge stretch.  A zone over the rim
+    # (120-150 mm) puts the zone model's means within 2.2 sd, but the smooth model leads (0.92)
+    ("chuck_calibrated", "rel_rms"): "0.88 (rim stretch 140-150 mm: +1.8 truth sd)",
+    ("chuck_calibrated", "sharpness"): "1.56",
+    ("chuck_calibrated", "zones"): "1 of 4 (-3.2, -0.5, -3.1, -3.6 sd)",
+    ("chuck_calibrated", "power"): "+2.2 sd",
     ("platen_heater_zones", "coverage"): "0.84 (0.76 / 0.86 in seeds 1 / 2; 0.67 / 0.53 / 0.68 with ramps of "
                                          "at most a quarter of the gap: the tilt rides on the rings, so what "
                                          "the levels leave has the rings' edges, which the smooth remainder "
@@ -126,7 +136,7 @@ def test_hollow_series_with_true_bore_reproduces_fem_readings(name):
     assert np.abs(series - fem).max() <= 0.05 * scn.readings.sigma.min()  # reference: scikit-fem
 
 
-@pytest.mark.parametrize("name", [n for n in FAST if n != "chuck_class2" and n not in HOLLOW]
+@pytest.mark.parametrize("name", [n for n in FAST if not n.startswith("chuck") and n not in HOLLOW]
                          + ["semi_infinite"])
 def test_series_with_true_face_reproduces_fem_readings(name):
     """heatsight's series with the true face prescribed gives the scikit-fem readings to a
