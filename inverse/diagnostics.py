@@ -297,7 +297,7 @@ def _final_table(problem, sub, idx, keep, alpha, names):
         d = problem.d[gone]
         extra = pd.DataFrame({
             "sensor": [names[i] for i in gone], "measured": d, "fitted": fitted,
-            "residual": d - fitted, "standardized": (d - fitted) / problem.noise.sd[gone],
+            "residual": d - fitted, "standardized": (d - fitted) / problem.noise.own_sd[gone],
             "leverage": 0.0, "loo_predicted": mean, "loo_sd": sd,
             "standardized_loo": (d - mean) / sd, "flag": "set aside"}, index=gone)
         rows = pd.concat([rows, extra])

@@ -48,6 +48,7 @@ from .result import FitResult, Posterior, valid_zones
 from .strength import choose_strength, default_alphas
 from .strength_average import StrengthAverage
 from .threads import few_threads
+from .stretch import stretch_steps
 from .truncation import (face_tail, face_tail_variance, functional_tails, left_out_columns, nearest_distance,
                          tail_covariance, tail_power)
 from .zones import (MAX_CHOSEN_ZONES, ZONE_LEVEL_FACTORS, ZONE_PRIOR_FACTOR, ZoneDesign, ZoneModel, edge_rooms,
@@ -100,8 +101,9 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
     # the left-out modes' variance is learned without the sensors a first screening (without
     # it) suspects: a broken sensor would otherwise widen it and hide itself; with calibrated
     # parameters, at the calibrated ones
-    problem, tail_prior = (_with_tail(base, design, rd, P, u, _screen(base, rd, opts, gross).kept)
-                           if _learned(opts) else (base, None))
+    problem, tail_prior, steps = (_with_tail(base, design, rd, P, u, _screen(base, rd, opts, gross).kept,
+                                             stretch=not opts.calibrate)
+                                  if _learned(opts) else (base, None, None))
 
     smooth = _screen(problem, rd, opts, gross)
     post = _posterior(design, rd, smooth, P, u, opts, warnings)
@@ -129,11 +131,12 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
         # the zone models' learned priors take the smooth model's length scales (widened or
         # not, hyperprior.learn_prior): both models are compared on one grid of length scales
         # and one amplitude hyperprior (the remainder's orders are smooth: zones.REMAINDER_SMOOTHNESS)
-        first.add_tail(design, rd, u > 0, _screen(first.marginal, rd, opts, gross).kept, like=learned_prior)
+        first.add_tail(design, rd, u > 0, _screen(first.marginal, rd, opts, gross).kept, like=learned_prior,
+                       extra=0.0 if steps is None else (steps.at_readings * steps.v) @ steps.at_readings.T)
         for other in zone_models[1:]:
             other.share_tail(first)
     zscreens = [_settled_screen(zm, rd, opts, gross, leading) for zm in zone_models]
-    columns, post, screen, model_info, zone_model = _choose_model(opts, design, zone_models, zscreens, smooth,
+    columns, post, screen, model_info, zone_model = _choose_model(opts, design, zone_models, zscreens, smooth, steps,
                                                                   post, u, problem, warnings)
     # the chosen model's screening notes lead; a learned prior's answer drops the fixed
     # prior's strength-grid notes
@@ -160,14 +163,15 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
     figure_tails = map_tail = None
     if tail_prior is not None and post.calibration is None and mc is None:
         figure_tails, map_tail = _tails(model_info["model"], columns, design, rd, screen.kept, problem, tail_prior,
-                                       zone_model, valid_zones(spec.zones, face, spec.cylinder, []))
+                                       zone_model, valid_zones(spec.zones, face, spec.cylinder, []), steps)
     elif tail_prior is not None and mc is None:     # calibrated: the left-out modes' prior variance
         lead_prior = _lead_tail_prior(model_info["model"], tail_prior, zone_model)
 
         def map_tail(points):
-            return None, None, face_tail_variance(design, points, lead_prior, rd.subset(screen.kept))
+            return None, None, face_tail_variance(design, points, lead_prior, rd.subset(screen.kept), steps)
     step("bands, zones and power of the answer")
-    sensors = _answer_residuals(screen.table, post, columns, rd, problem, zone_model, model_info["model"] == "zones")
+    sensors = _answer_residuals(screen.table, post, columns, rd, problem, zone_model, model_info["model"] == "zones",
+                                steps, screen.kept)
     return FitResult.build(spec=spec, design=columns, readings=rd, kept=screen.kept, problem=screen.problem,
                            choice=screen.choice, posterior=post, sensors=sensors,
                            set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)),
@@ -194,7 +198,7 @@ class _Steps:
         self.total -= 1
 
 
-def _answer_residuals(table, post, columns, rd, problem, zone_model, zones_lead=False):
+def _answer_residuals(table, post, columns, rd, problem, zone_model, zones_lead=False, steps=None, kept=None):
     """The sensor table with `fitted` the answer's own posterior mean at each sensor (every
     model it averages, its zone levels and calibrated parameters; the left-out modes are not
     in it), `residual` = measured - fitted and `standardized` = residual / the reading's sd
@@ -203,14 +207,20 @@ def _answer_residuals(table, post, columns, rd, problem, zone_model, zones_lead=
     integrated out), whose fit alone left residuals of several kelvin at healthy sensors.
     The columns at the sensors are the ones already formed (`problem.G` and the zone columns
     of `zone_model`, (model, columns) or None): a hollow part's enlarged basis takes ~1 s to
-    evaluate again."""
+    evaluate again.  The unseen stretches' steps (`steps`, marginalized into the noise) add
+    their conditional mean given the residual at the sensors `kept`, G_s V G_s,k^T S_kk^-1 r_k;
+    the reading's sd is its own (Whitener.own_sd), without the steps' shared variance."""
     if post.calibration is None:
         X = problem.G if zone_model is None else np.hstack([problem.G, zone_model[1]])
         mean = problem.t0 + X @ post.c
     else:
         mean = post.figure_mean(lambda d: d.sensors(rd.r, rd.theta, rd.z), columns)
     # the readings' sd: the leading model's noise (its own left-out modes)
-    reading_sd = zone_model[0].smooth.noise.sd if zones_lead else problem.noise.sd
+    lin = zone_model[0].smooth if zones_lead else problem
+    reading_sd = lin.noise.own_sd
+    if steps is not None and kept is not None and post.calibration is None:
+        m, v = _steps_given_kept(steps, lin, kept, np.asarray(rd.temperature, float) - mean)
+        mean, reading_sd = mean + m, np.sqrt(reading_sd ** 2 + v)
     row = {name: i for i, name in enumerate(rd.names)}
     i = np.array([row[str(name)] for name in table["sensor"]], dtype=int)
     out = table.copy()
@@ -226,6 +236,31 @@ def _answer_residuals(table, post, columns, rd, problem, zone_model, zones_lead=
 
 
 # ------------------------------------------------------------------------ design, prior, noise
+def _steps_given_kept(steps, lin, kept, residual):
+    """(m (n,) [K], v (n,) [K^2]): the unseen stretches' steps (stretch.StretchSteps) at every
+    reading given the residual (n,) [K] at the readings `kept`, under lin's noise S (which
+    holds them): m = G V G_k^T S_kk^-1 r_k, v = diag(G V G^T - G V G_k^T S_kk^-1 G_k V G^T)."""
+    k = np.flatnonzero(kept)
+    G = steps.at_readings
+    B = (G * steps.v) @ G[k].T                                          # G V G_k^T (n, k)
+    Skk = lin.noise.covariance[np.ix_(k, k)]
+    m = B @ np.linalg.solve(Skk, residual[k])
+    v = np.einsum("ij,j,ij->i", G, steps.v, G) - np.einsum("ik,ki->i", B, np.linalg.solve(Skk, B.T))
+    return m, np.maximum(v, 0.0)
+
+
+def _with_steps_given_kept(steps, problem, lin, kept, fitted):
+    """(t0 (n,), noise variance (n,)) of every reading for log_evidence_on_all: the readings'
+    own variance (Whitener.own_sd), and with the unseen stretches' steps their conditional
+    mean added to t0 and their conditional variance to the noise (_steps_given_kept), so that
+    a set-aside reading over the stretch is judged with them.  fitted (n,) [K]: X c."""
+    var = lin.noise.own_sd ** 2
+    if steps is None:
+        return problem.t0, var
+    m, v = _steps_given_kept(steps, lin, kept, problem.d - problem.t0 - fitted)
+    return problem.t0 + m, var + v
+
+
 def _linear_problem(G, t0, noise, rd, P, u, ok):
     """The linear Gaussian problem with prior mean gamma u, gamma the GLS level of u over the
     readings `ok` (those that passed the gross-fault screen)."""
@@ -259,14 +294,27 @@ def _learned(opts) -> bool:
     return opts.strength_method == "evidence" and opts.prior == "learned" and not opts.monte_carlo
 
 
-def _with_tail(problem, design, rd, P, u, ok):
-    """(problem, prior): the modes the basis leaves out, marginalized into the noise
-    (truncation.py), their variance from a first learned prior on the readings `ok` (those a
-    first screening kept), and that prior."""
+def _with_tail(problem, design, rd, P, u, ok, stretch=True):
+    """(problem, prior, steps): the modes the basis leaves out and the steps over an unseen
+    edge stretch of a flux face (stretch.py), marginalized into the noise (truncation.py), the
+    modes' variance from a first learned prior on the readings `ok` (those a first screening
+    kept), the steps' from the face mean under it; that prior; the StretchSteps or None
+    (always None without `stretch`: with calibrated face parameters, whose answer would not
+    carry the steps' share).  The steps' variance at each reading is marked as shared
+    (Whitener's shared_variance), so that a reading's own sd leaves it out."""
     first = learn_prior(problem.subset(np.flatnonzero(ok)), design.basis, nominal=u > 0,
                         nominal_factor=NOMINAL_PRECISION_FACTOR)
+    _, F, k = functional_matrix(design)
+    steps = (stretch_steps(design, rd.subset(np.flatnonzero(ok)), abs(float(k[0] + F[0] @ first.coefficients())))
+             if stretch else None)
     S = problem.noise.covariance + tail_covariance(design, rd, first)
-    return _linear_problem(problem.G, problem.t0, S, rd, P, u, ok), first
+    shared = None
+    if steps is not None:
+        steps.at_readings = steps.fields(rd.r, rd.theta, rd.z)       # the fit's readings, all of them
+        shared = (steps.at_readings * steps.v) @ steps.at_readings.T
+        S = S + shared
+    noise = Whitener(S, shared_variance=None if shared is None else np.diag(shared))
+    return _linear_problem(problem.G, problem.t0, noise, rd, P, u, ok), first, steps
 
 
 def _lead_tail_prior(model, tail_prior, zone_model):
@@ -275,7 +323,7 @@ def _lead_tail_prior(model, tail_prior, zone_model):
     return tail_prior if model == "smooth" else zone_model[0].tail_prior
 
 
-def _tails(model, columns, design, rd, kept, problem, tail_prior, zone_model, zones):
+def _tails(model, columns, design, rd, kept, problem, tail_prior, zone_model, zones, steps=None):
     """The left-out modes under the model that leads, given the kept sensors' residual, for
     FitResult.build: (figure_tails, map_tail). figure_tails = (X, residual, {name: (h,
     variance)}): their share of the total power (truncation.tail_power), the face mean and
@@ -290,14 +338,21 @@ def _tails(model, columns, design, rd, kept, problem, tail_prior, zone_model, zo
     S = lin.noise.covariance[np.ix_(idx, idx)]
     kept_rd, residual = rd.subset(idx), lin.d[idx] - lin.t0[idx]
     left = left_out_columns(design, kept_rd)        # one enlarged basis for every share below
-    rows = {"total_power": tail_power(left, kept_rd, prior, S)}
-    if left is not None:        # the face and zone means' share, on the fit's quadrature rule
-        names, F_t, _ = functional_matrix(left, zones)
+    rows = {"total_power": tail_power(left, kept_rd, prior, S, steps)}
+    if left is not None or steps is not None:       # the face and zone means' share, on the fit's quadrature rule
+        names, F_t, _ = functional_matrix(left if left is not None else steps, zones)
         means = [i for i, name in enumerate(names) if name != "total_power"]
-        rows.update(zip([names[i] for i in means], functional_tails(left, F_t[means], kept_rd, prior, S)))
+        F_s = None
+        if steps is not None:
+            names_s, F_s, _ = functional_matrix(steps, zones)
+            at = {name: row for name, row in zip(names_s, F_s)}
+            # a zone the steps' rule finds empty (split at their edges too) takes no share of them
+            F_s = np.array([at.get(names[i], np.zeros(F_s.shape[1])) for i in means])
+        rows.update(zip([names[i] for i in means],
+                        functional_tails(left, None if left is None else F_t[means], kept_rd, prior, S, steps, F_s)))
 
     def on_face(points):
-        H, variance = face_tail(left, points, prior, kept_rd, S)
+        H, variance = face_tail(left, points, prior, kept_rd, S, steps)
         return -H @ X, H @ residual, variance
     return (X, residual, rows), on_face
 
@@ -495,15 +550,15 @@ def _settled_screen(zone_model, rd, opts, gross, leading, rounds=3):
     return _screen(zone_model.marginal, rd, opts, gross)
 
 
-def _zone_fit(opts, design, zone_model, zscreen, post, u, problem):
+def _zone_fit(opts, design, zone_model, zscreen, post, u, problem, steps=None):
     """One zone model's posterior (ZoneFit) with its evidence on all the readings (learned
     prior) or against the smooth model on its kept sensors (fixed prior)."""
     if hasattr(post.averaged, "log_marginal"):
         zf = zone_model.learned_fit(zscreen.kept, design.basis, u > 0, NOMINAL_PRECISION_FACTOR,
                                     like=post.averaged)
         X = np.hstack([problem.G, zone_model.level_columns])
-        logz = log_evidence_on_all(zf.log_evidence["zones"], zscreen.kept, X, problem.t0, problem.d,
-                                   zone_model.smooth.noise.sd ** 2, zf.c, zf.C)
+        t0, var = _with_steps_given_kept(steps, problem, zone_model.smooth, zscreen.kept, X @ zf.c)
+        logz = log_evidence_on_all(zf.log_evidence["zones"], zscreen.kept, X, t0, problem.d, var, zf.c, zf.C)
         return replace(zf, log_evidence={"zones": logz + zone_model.level_choice_correction})
     marginal = zone_model.marginal.subset(np.flatnonzero(zscreen.kept))
     alphas = default_alphas(marginal) if opts.strength_method == "evidence" else np.array([zscreen.choice.alpha])
@@ -520,7 +575,7 @@ def _at_answer_prior(zscreen, zone_model, opts):
     return replace(zscreen, problem=problem, choice=choose_strength(problem, opts.strength_request))
 
 
-def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem, warnings):
+def _choose_model(opts, design, zone_models, zscreens, smooth, steps, post, u, problem, warnings):
     """(model columns, posterior, screening, summary keys, (leading zone model, zone columns
     at the sensors) or None): the smooth model, the zone model when asked (model = "zones"),
     or with "auto" both averaged with their posterior probabilities
@@ -534,7 +589,7 @@ def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem,
     every component, and the answer's Calibration carries the mixture's joint posterior."""
     if not zone_models:
         return design, post, smooth, {"model": "smooth"}, None
-    fits = [_zone_fit(opts, design, zm, zs, post, u, problem) for zm, zs in zip(zone_models, zscreens)]
+    fits = [_zone_fit(opts, design, zm, zs, post, u, problem, steps) for zm, zs in zip(zone_models, zscreens)]
     zscreens = [_at_answer_prior(zs, zm, opts) for zs, zm in zip(zscreens, zone_models)]
     le = np.array([f.log_evidence["zones"] for f in fits])
     cal = post.calibration
@@ -543,8 +598,9 @@ def _choose_model(opts, design, zone_models, zscreens, smooth, post, u, problem,
     Xs, cs, Cs = (problem.G, post.c, post.C) if cal is None else \
         (np.hstack([problem.G, cal.step_columns]), np.concatenate([post.c, cal.mean_step]), cal.covariance)
     if hasattr(post.averaged, "log_marginal"):
-        logz = {"smooth": log_evidence_on_all(post.averaged.log_marginal, smooth.kept, Xs, problem.t0,
-                                              problem.d, problem.noise.sd ** 2, cs, Cs),
+        t0, var = _with_steps_given_kept(steps, problem, problem, smooth.kept, Xs @ cs)
+        logz = {"smooth": log_evidence_on_all(post.averaged.log_marginal, smooth.kept, Xs, t0,
+                                              problem.d, var, cs, Cs),
                 "zones": float(logsumexp(le) - math.log(le.size))}
     else:
         logz = dict(fits[0].log_evidence)

@@ -10,7 +10,9 @@
   edge of the face longer than END_GAP_FRACTION of its extent with no sensor over it is an
   extrapolation: the map there follows the sensors' profile, while heat leaves or enters at
   an edge (a liquid inlet, a cooled end, a heater's end). The tube demo's inlet end, 120 mm
-  of 600 beyond its sensors, came out 16 K warm with a band of +-13 K (95 %).
+  of 600 beyond its sensors, came out 16 K warm with a band of +-13 K (95 %).  On an
+  unknown heat-flux face the fit lets such a stretch step away from the rest (stretch.py),
+  which widens its bands there instead.
 """
 
 from __future__ import annotations
@@ -61,29 +63,37 @@ def angular_note(face: str, radius: float, r, theta) -> str | None:
     return None
 
 
-def edge_gap_note(face: str, cylinder, r, z) -> str | None:
-    """One sentence when a stretch of the unknown face next to one of its edges, longer than
-    END_GAP_FRACTION of the face's extent, has no sensor over it; else None. The edges lie
-    along z on a wall (none on a long part or beyond a semi-infinite one) and along r on an
-    end face (the rim, and the bore's edge on a hollow part; a solid part's axis is not an
-    edge). r, z: the sensors' positions [m]."""
+def edge_gaps(face: str, cylinder, r, z) -> list:
+    """[(a, b)] [m]: the stretches of the unknown face next to one of its edges, longer than
+    END_GAP_FRACTION of the face's extent, with no sensor over them. The edges lie along z on
+    a wall (none on a long part or beyond a semi-infinite one) and along r on an end face (the
+    rim, and the bore's edge on a hollow part; a solid part's axis is not an edge). r, z: the
+    sensors' positions [m]."""
     wall = is_wall(face)
     if wall and (cylinder.long or not math.isfinite(cylinder.height)):
-        return None
+        return []
     x = np.asarray(z if wall else r, dtype=float)
     lo, hi = face_interval(face, cylinder)
     extent = hi - lo
     if x.size == 0 or extent <= 0:
-        return None
+        return []
     gaps = []
     if (wall or cylinder.hollow) and x.min() - lo > END_GAP_FRACTION * extent:
-        gaps.append((lo, x.min()))
+        gaps.append((lo, float(x.min())))
     if hi - x.max() > END_GAP_FRACTION * extent:
-        gaps.append((x.max(), hi))
+        gaps.append((float(x.max()), hi))
+    return gaps
+
+
+def edge_gap_note(face: str, cylinder, r, z) -> str | None:
+    """One sentence when the unknown face has an unseen edge stretch (edge_gaps), else None."""
+    gaps = edge_gaps(face, cylinder, r, z)
     if not gaps:
         return None
+    wall = is_wall(face)
     what = "z" if wall else "r"
     where = " and ".join(f"{what} = {a * 1e3:.4g}-{b * 1e3:.4g} mm" for a, b in gaps)
-    return (f"no sensor over the {face} face's edge stretch {where}: the map there extrapolates the "
-            f"sensors' profile, and next to an inlet, a cooled end or a heater's end its bands can be "
-            f"too narrow; a thermocouple near {'that edge' if len(gaps) == 1 else 'each of those edges'} settles it")
+    return (f"no sensor over the {face} face's edge stretch {where}: the readings cannot see where a heater "
+            f"ends, an inlet or a cooled end there (an unknown heat flux may step away from the rest of the "
+            f"face there, which widens its bands; an unknown temperature's bands there can be too narrow); "
+            f"a thermocouple near {'that edge' if len(gaps) == 1 else 'each of those edges'} settles it")

@@ -243,9 +243,10 @@ class LinearGaussianProblem:
         return _out(self.d[None, :] - np.atleast_2d(self.fitted(a)), scalar)
 
     def standardized_residuals(self, alpha):
-        """Residuals in units of each reading's noise sd: (d_i - fitted_i) / sqrt(S_ii)."""
+        """Residuals in units of each reading's own noise sd: (d_i - fitted_i) / own_sd_i
+        (sqrt(S_ii) less what marginalized columns share, noise.Whitener.own_sd)."""
         a, scalar = _as_alphas(alpha)
-        return _out(np.atleast_2d(self.residuals(a)) / self.noise.sd[None, :], scalar)
+        return _out(np.atleast_2d(self.residuals(a)) / self.noise.own_sd[None, :], scalar)
 
     def whitened_residuals(self, alpha):
         """L^-1 (d - t0 - G c) = U diag(g) U^T y, shape (n,) or (m, n)."""

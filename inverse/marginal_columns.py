@@ -21,6 +21,7 @@ from __future__ import annotations
 import numpy as np
 
 from .linear_gaussian import LinearGaussianProblem
+from .noise import Whitener
 
 
 class MarginalColumns:
@@ -31,8 +32,12 @@ class MarginalColumns:
         self.base = base
         self.X = np.asarray(X, float).reshape(base.n, -1)
         self.mu, self.s = np.asarray(mu, float), np.asarray(s, float)
-        S = base.noise.covariance + (self.X * self.s ** 2) @ self.X.T
-        self.marginal = LinearGaussianProblem(base.G, base.d - self.X @ self.mu, base.t0, S,
+        added = (self.X * self.s ** 2) @ self.X.T
+        # the columns integrated out are shared by the readings, like what the base noise
+        # already shares (Whitener.own_sd leaves both out)
+        noise = Whitener(base.noise.covariance + added,
+                         shared_variance=base.noise.shared_variance + np.diag(added))
+        self.marginal = LinearGaussianProblem(base.G, base.d - self.X @ self.mu, base.t0, noise,
                                               base.prior_diag if prior_diag is None else prior_diag,
                                               base.c0 if c0 is None else c0)
 

@@ -49,7 +49,10 @@ def noise_covariance(sigma, offset_sd=None, common_offset_sd=None, repeats: int 
 class Whitener:
     """Whitening by the Cholesky factor of the noise covariance S = L L^T."""
 
-    def __init__(self, noise, n: int | None = None):
+    def __init__(self, noise, n: int | None = None, shared_variance=None):
+        """shared_variance (n,) [K^2]: the part of each S_ii that columns marginalized into the
+        noise share across the readings (the unseen stretches' steps, stretch.py), left out
+        of `own_sd`."""
         s = np.asarray(noise, dtype=float)
         if s.ndim == 0:
             if n is None:
@@ -77,11 +80,24 @@ class Whitener:
         if n is not None and self._sd.size != n:
             raise InverseError(f"noise describes {self._sd.size} readings, expected {n}")
         self.n = self._sd.size
+        self._shared = (np.zeros(self.n) if shared_variance is None
+                        else np.broadcast_to(np.asarray(shared_variance, float), (self.n,)).copy())
 
     @property
     def sd(self) -> np.ndarray:
         """Marginal noise sd of each reading, sqrt(S_ii) [K]."""
         return self._sd
+
+    @property
+    def shared_variance(self) -> np.ndarray:
+        """(n,) [K^2]: the part of each S_ii that marginalized columns share across the readings."""
+        return self._shared
+
+    @property
+    def own_sd(self) -> np.ndarray:
+        """Each reading's own sd [K]: sqrt(S_ii) less the columns the readings share
+        (shared_variance), the scale of a reading's residual and of a new sensor's noise."""
+        return np.sqrt(np.maximum(self._sd ** 2 - self._shared, 0.0))
 
     @property
     def variance(self) -> np.ndarray:
@@ -126,5 +142,5 @@ class Whitener:
         """Noise model of the readings `index` (a Gaussian's marginal: the sub-block of S)."""
         index = np.asarray(index)
         if self.diagonal:
-            return Whitener(self._sd[index] ** 2)
-        return Whitener(self.covariance[np.ix_(index, index)])
+            return Whitener(self._sd[index] ** 2, shared_variance=self._shared[index])
+        return Whitener(self.covariance[np.ix_(index, index)], shared_variance=self._shared[index])

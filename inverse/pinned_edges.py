@@ -22,10 +22,10 @@ from .problem import Problem
 PINNED = 1e-9
 
 
-def pinned_edge_notes(design) -> list[str]:
-    """One sentence per edge of an unknown flux face along which every column of `design`
-    vanishes (below PINNED of their largest face value); none for a temperature face.  (The
-    solid part's faces have corner columns wherever this could happen.)"""
+def pinned_edges(design) -> list:
+    """[(neighbour face, coordinate [m])] of each edge of an unknown flux face along which
+    every column of `design` vanishes (below PINNED of their largest face value); none for a
+    temperature face.  (The solid part's faces have corner columns wherever this could happen.)"""
     if design.quantity == "temperature":
         return []
     cyl, face = design.cylinder, design.face_name
@@ -39,10 +39,17 @@ def pinned_edge_notes(design) -> list[str]:
     for neighbour, at in edges:
         u, v = (around, np.full(around.size, at)) if wall else (np.full(around.size, at), around)
         if float(np.abs(design.face(u, v)[0]).max()) <= PINNED * scale:
-            out.append(f"the heat flux on the {face} face is not estimated where it meets the {neighbour} face "
-                       f"(held at a temperature): every column of the series vanishes along that edge, so the "
-                       f"map has a band of zero width there whatever the true flux does; read it a few mm away")
+            out.append((neighbour, at))
     return out
+
+
+def pinned_edge_notes(design) -> list[str]:
+    """One sentence per pinned edge of an unknown flux face (pinned_edges)."""
+    face = design.face_name
+    return [f"the heat flux on the {face} face is not estimated where it meets the {neighbour} face "
+            f"(held at a temperature): every column of the series vanishes along that edge, so the "
+            f"map has a band of zero width there whatever the true flux does; read it a few mm away"
+            for neighbour, _ in pinned_edges(design)]
 
 
 def pinned_edge_notes_for_case(case) -> list[str]:

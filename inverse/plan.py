@@ -196,8 +196,10 @@ def dominant_component(posterior, problem):
 def _independent_variance(noise, common_sd):
     """Per-reading variances s_i^2 [K^2] once the common offset is taken into the state. The
     learned prior's left-out modes (truncation.py) correlate the readings; planning keeps
-    each reading's own share of them and leaves out the correlation (approximate)."""
-    return noise.sd ** 2 - common_sd ** 2
+    each reading's own share of them and leaves out the correlation (approximate).  The
+    unseen stretches' steps (stretch.py), shared by the readings, are left out (own_sd): the
+    plan does not yet see them shrink."""
+    return noise.own_sd ** 2 - common_sd ** 2
 
 
 def _state_covariance(G, var, prior_precision, common_sd):

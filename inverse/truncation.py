@@ -95,10 +95,11 @@ def _tail_parts(design, r, theta, z, prior):
     return G, _tail_variances(big, mask, prior)
 
 
-def face_tail(left, points, prior, rd, noise_covariance=None):
+def face_tail(left, points, prior, rd, noise_covariance=None, steps=None):
     """The left-out modes' part of the unknown face at `points` (face_grid.display_grid's,
     with u, v and lines): (H (Q, n) [face unit / K], variance (Q,) [face unit^2]); left: the
-    LeftOutColumns of the sensors `rd` (left_out_columns), None when no mode is left out.
+    LeftOutColumns of the sensors `rd` (left_out_columns), None when no mode is left out;
+    steps: the unseen stretches' steps (stretch.StretchSteps, marginalized alike), or None.
 
     As for the power (tail_power), given the residual r = d - t0 - X c of the kept columns
     at the sensors `rd` (noise S = noise_covariance, the tail's own signal included):
@@ -107,13 +108,20 @@ def face_tail(left, points, prior, rd, noise_covariance=None):
     Without noise_covariance H = 0 and var e = sum_k Phi_k(x)^2 v_k, the prior's.  Finite
     because the family's exponent exceeds half the face's dimension
     (hyperprior.matern_exponent), so the bands no longer depend on the basis size."""
-    n = 0 if noise_covariance is None else rd.n
-    if left is None:
-        return np.zeros((np.size(points.u), n)), np.zeros(np.size(points.u))
-    phi = (left.face_grid(*points.lines) if points.lines is not None else left.face(points.u, points.v))[0]
+    def rows_of(cols):
+        return (cols.face_grid(*points.lines) if points.lines is not None else cols.face(points.u, points.v))[0]
+    parts = [(left, rows_of(left), prior)] if left is not None else []
+    if steps is not None:
+        parts.append((steps, rows_of(steps), None))
+    q = np.size(points.u)
     if noise_covariance is None:
-        return np.zeros((phi.shape[0], 0)), (phi ** 2) @ _masked_variances(left.big, left.mask, prior)
-    H, variance = _conditional(left, phi, rd, prior, noise_covariance)
+        variance = np.zeros(q)
+        for cols, phi, pr in parts:
+            variance += (phi ** 2) @ _column_variances(cols, pr)
+        return np.zeros((q, 0)), variance
+    if not parts:
+        return np.zeros((q, rd.n)), np.zeros(q)
+    H, variance = _conditional(parts, rd, noise_covariance)
     return H.T, variance
 
 
@@ -150,38 +158,59 @@ def left_out_columns(design, rd):
     return LeftOutColumns(design, big, mask) if mask.any() else None
 
 
-def functional_tails(columns, rows, rd, prior, noise_covariance) -> list:
+def functional_tails(columns, rows, rd, prior, noise_covariance, steps=None, step_rows=None) -> list:
     """[(h (n,), variance)] for linear functionals of the face whose weights on the left-out
-    modes `columns` (LeftOutColumns) are `rows` (q, T), e.g. the face and zone means from the
-    fit's quadrature rule (functionals.functional_matrix): their share given the readings, as
-    for the power (tail_power):
+    modes `columns` (LeftOutColumns, or None) are `rows` (q, T), e.g. the face and zone means
+    from the fit's quadrature rule (functionals.functional_matrix), and on the unseen
+    stretches' `steps` (stretch.StretchSteps) `step_rows` (q, J): their share given the
+    readings, as for the power (tail_power):
     value = k + f . c + h . r + e,  h = S^-1 G_t V f_t,  var e = f_t V f_t - h . (G_t V f_t)."""
-    H, var = _conditional(columns, np.atleast_2d(rows), rd, prior, noise_covariance)
+    parts = [] if columns is None else [(columns, np.atleast_2d(rows), prior)]
+    if steps is not None:
+        parts.append((steps, np.atleast_2d(step_rows), None))
+    if not parts:
+        return []
+    H, var = _conditional(parts, rd, noise_covariance)
     return [(H[:, j], float(var[j])) for j in range(var.size)]
 
 
-def _conditional(columns, rows, rd, prior, noise_covariance):
-    """(h (n, q), var e (q,)) of the functionals f_t = rows (q, T) of the left-out modes
-    `columns` given the residual at the sensors `rd`: h = S^-1 G_t V f_t,
-    var e = f_t V f_t - h . (G_t V f_t) (functional_tails, face_tail)."""
-    big = columns.big
-    v = _masked_variances(big, columns.mask, prior)                            # 0 on the kept modes
-    A = big.fields(rd.r, rd.theta, rd.z)[0][:, :big.n_eigen] * v              # G_t V (n, T)
-    a = A @ rows.T                                                              # G_t V f_t (n, q)
+def _column_variances(cols, prior) -> np.ndarray:
+    """The prior variances of the columns: the left-out modes' under `prior` (0 on the kept
+    modes, _masked_variances), the steps' own (StretchSteps.v)."""
+    return cols.v if prior is None else _masked_variances(cols.big, cols.mask, prior)
+
+
+def _column_fields(cols, rd) -> np.ndarray:
+    if hasattr(cols, "big"):
+        return cols.big.fields(rd.r, rd.theta, rd.z)[0][:, :cols.big.n_eigen]
+    return cols.fields(rd.r, rd.theta, rd.z)
+
+
+def _conditional(parts, rd, noise_covariance):
+    """(h (n, q), var e (q,)) of functionals whose rows f (q, T) on each part's columns are
+    given, parts = [(columns, f, prior)], the columns' coefficients independent a priori with
+    variances V (_column_variances), given the residual at the sensors `rd`:
+    a = sum G V f^T, h = S^-1 a, var e = sum f V f - h . a (functional_tails, face_tail)."""
+    a, prior_var = 0.0, 0.0
+    for cols, rows, pr in parts:
+        v = _column_variances(cols, pr)
+        a = a + (_column_fields(cols, rd) * v) @ rows.T                           # G V f^T (n, q)
+        prior_var = prior_var + np.einsum("qt,t,qt->q", rows, v, rows)
     H = np.linalg.solve(noise_covariance, a)
-    return H, np.maximum(np.einsum("qt,t,qt->q", rows, v, rows) - np.einsum("nq,nq->q", H, a), 0.0)
+    return H, np.maximum(prior_var - np.einsum("nq,nq->q", H, a), 0.0)
 
 
-def face_tail_variance(design, points, prior, rd) -> np.ndarray:
-    """The left-out modes' prior variance (Q,) at `points` of the face (face_tail without the
-    readings' residual)."""
-    return face_tail(left_out_columns(design, rd), points, prior, rd)[1]
+def face_tail_variance(design, points, prior, rd, steps=None) -> np.ndarray:
+    """The left-out modes' (and the unseen stretches' steps') prior variance (Q,) at `points`
+    of the face (face_tail without the readings' residual)."""
+    return face_tail(left_out_columns(design, rd), points, prior, rd, steps=steps)[1]
 
 
-def tail_power(left, rd, prior, noise_covariance):
+def tail_power(left, rd, prior, noise_covariance, steps=None):
     """The left-out modes' share of the heat into the part through the unknown face, given
     the readings: (h (n,) [W/K], extra variance [W^2]); left: the LeftOutColumns of the
-    sensors `rd` (left_out_columns), None when no mode is left out.
+    sensors `rd` (left_out_columns), None when no mode is left out; steps: the unseen
+    stretches' steps (stretch.StretchSteps) or None, whose powers count alike.
 
     With the tail c_t ~ N(0, V) marginalized into the noise S (tail_covariance), the readings'
     residual r = d - t0 - X c of the kept columns carries it: c_t | c, d ~
@@ -191,9 +220,10 @@ def tail_power(left, rd, prior, noise_covariance):
     power weights a mode by its wavenumber, so the modes the basis leaves out count.
     rd: the kept sensors; noise_covariance (n, n) [K^2]: their S, tail included.
     Each mode's power p_t is the functional's row (functional_tails, _conditional)."""
-    if left is None:
+    if left is None and steps is None:
         return np.zeros(rd.n), 0.0
-    return functional_tails(left, left.powers()[0], rd, prior, noise_covariance)[0]
+    return functional_tails(left, None if left is None else left.powers()[0], rd, prior, noise_covariance,
+                            steps, None if steps is None else steps.powers()[0])[0]
 
 
 def tail_variance(design, r, theta, z, prior) -> np.ndarray:

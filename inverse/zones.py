@@ -47,6 +47,7 @@ from .design import NOMINAL_PRECISION_FACTOR
 from .hyperprior import learn_prior, readings_spread
 from .linear_gaussian import LinearGaussianProblem
 from .marginal_columns import MarginalColumns
+from .noise import Whitener
 from .truncation import enlarged_size, nearest_distance, tail_covariance
 
 #: fixed prior: zone level prior sd = this factor x the face's level scale (weak; common
@@ -513,15 +514,19 @@ class ZoneModel:
         self.mu, self.s, self.inclusion, self.level_factor, self.level_choice_correction = choice
         self._set_smooth(self.smooth)
 
-    def add_tail(self, design, rd, nominal, ok, like=None):
+    def add_tail(self, design, rd, nominal, ok, like=None, extra=0.0):
         """The remainder's left-out modes marginalized into the noise (truncation.py), their
         variance from a first learned remainder prior on the readings `ok`: the zones carry
-        the sharp structure, so the remainder's tail is its own, not the smooth model's."""
+        the sharp structure, so the remainder's tail is its own, not the smooth model's.
+        extra (n, n) [K^2]: more marginalized columns' covariance, the smooth model's own
+        (the unseen stretches' steps, stretch.py), so that both models hold them."""
         first = self._learn_remainder(np.flatnonzero(ok), design.basis, nominal, NOMINAL_PRECISION_FACTOR, like)
         sm = self.smooth
         self.tail_prior = first
-        self._set_smooth(LinearGaussianProblem(sm.G, sm.d, sm.t0, sm.noise.covariance
-                                               + tail_covariance(design, rd, first), sm.prior_diag, sm.c0))
+        shared = None if np.ndim(extra) < 2 else np.diag(extra)
+        self._set_smooth(LinearGaussianProblem(sm.G, sm.d, sm.t0,
+                                               Whitener(sm.noise.covariance + tail_covariance(design, rd, first)
+                                                        + extra, shared_variance=shared), sm.prior_diag, sm.c0))
 
     def share_tail(self, other: "ZoneModel"):
         """The left-out modes' variance of `other` (add_tail), reused: zone models that

@@ -110,3 +110,20 @@ def test_column_gains_give_the_evidence_of_every_set_of_columns(stacked):
             Sd = base.noise.covariance + (base.G / (a * base.prior_diag)) @ base.G.T + (X * v) @ X.T
             ref = multivariate_normal(base.t0 + base.G @ base.c0, Sd).logpdf(base.d)
             assert got[i, j] == pytest.approx(ref, rel=1e-10)
+
+
+def test_integrated_columns_are_shared_noise():
+    """The columns integrated out (and what the base noise already shares, noise.Whitener's
+    shared_variance) are left out of each reading's own sd: own_sd^2 = S_ii - shared_i."""
+    from heatsight.inverse.noise import Whitener
+
+    rng = np.random.default_rng(4)
+    n, K = 7, 3
+    G, X = rng.normal(size=(n, K)), rng.normal(size=(n, 2))
+    shared = np.full(n, 0.5)
+    noise = Whitener(np.diag(np.full(n, 0.01)) + np.outer(np.ones(n), np.ones(n)) * 0.5, shared_variance=shared)
+    base = LinearGaussianProblem(G, rng.normal(size=n), np.zeros(n), noise, np.ones(K))
+    mc = MarginalColumns(base, X, np.zeros(2), np.array([2.0, 3.0]))
+    np.testing.assert_allclose(mc.marginal.noise.own_sd, np.full(n, 0.1), rtol=1e-12)
+    np.testing.assert_allclose(mc.marginal.noise.sd ** 2, 0.51 + X ** 2 @ np.array([4.0, 9.0]), rtol=1e-12)
+    np.testing.assert_allclose(base.subset([1, 3]).noise.own_sd, [0.1, 0.1], rtol=1e-12)

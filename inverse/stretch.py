@@ -1,0 +1,111 @@
+"""Steps over an unseen edge stretch of the unknown face, marginalized like the left-out modes.
+
+A stretch of the face next to one of its edges with no sensor over it (layout.edge_gaps) is
+where heaters end, inlets and cooled ends sit, and where the readings say least.  A
+stationary prior, whose amplitude is learned where the sensors are, holds a drop there as
+large as the face's own level for improbable, so the fit carried a heater's power out to a
+rim it never reached (tests/scenario_cases.py chuck_calibrated: three of four zone means
+2.9-4.3 sd low).  Here the stretch may depart from the rest of the face by steps:
+
+    q(x) += sum_j s_j H_j(x),   s_j ~ N(0, level^2 / J),   j = 1..J = STEPS per stretch,
+
+H_j the indicator of the part of the stretch beyond the j-th of J points evenly inside it
+(at (j / (J + 1)) of its length from the sensors' side: a step at the outermost sensor
+itself would be pinned by it), so that at the face's edge the steps add up to a prior sd of
+`level` [face unit]: how far the face's own level is from zero.  The steps are marginalized
+into the readings' covariance, S += G_s diag(v) G_s^T, and, with the left-out modes
+(truncation.py), their conditional mean and variance given the residual reach the face map,
+the total power, the face mean and the zone means.  Only on an unknown-flux face: on a
+temperature face a heater's end shows as a slope, not a step, and its size has no such scale.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..forward.geometry import is_wall
+
+from .face_grid import face_interval
+from .functionals import functional_matrix
+from .layout import edge_gaps
+from .pinned_edges import pinned_edges
+from .problem import Zone
+from .truncation import nearest_distance
+from .zones import ZoneDesign
+
+#: steps per unseen stretch
+STEPS = 3
+
+
+class StretchSteps:
+    """The steps over the unseen edge stretches of `design`'s face (columns for
+    functionals.face_functionals: face, face_grid, powers) with their prior variances `v`
+    (J,) [face unit^2], their field at sensors from the projection on an enlarged basis
+    (zones.ZoneDesign)."""
+
+    def __init__(self, design, zones, level, nearest):
+        self.zones = list(zones)
+        self.columns = ZoneDesign(design, self.zones, nearest)
+        self.v = np.full(len(self.zones), float(level) ** 2 / STEPS)
+        self.face_name, self.quantity, self.cylinder = design.face_name, design.quantity, design.cylinder
+        self.at_readings = None     # G_s (n, J) at the fit's readings, set by the fit (fitting._with_tail)
+
+    def fields(self, r, theta, z) -> np.ndarray:
+        """G_s (n, J) [K per face unit]: each step's field at the points."""
+        return self.columns.sensors(r, theta, z)[0][:, -len(self.zones):]
+
+    def covariance(self, rd) -> np.ndarray:
+        """G_s diag(v) G_s^T (n, n) [K^2] at the sensors of `rd`."""
+        G = self.fields(rd.r, rd.theta, rd.z)
+        return (G * self.v) @ G.T
+
+    def face(self, u, v):
+        u, v = (np.asarray(x, float).ravel() for x in (u, v))
+        return self.columns._indicators(u, v), np.zeros(u.size)
+
+    def face_grid(self, along, around):
+        S, TH = (a.ravel() for a in np.meshgrid(np.asarray(along, float), np.asarray(around, float),
+                                                 indexing="ij"))
+        return self.face(*((TH, S) if is_wall(self.face_name) else (S, TH)))
+
+    def powers(self):
+        """(p (J,) [W per face unit], 0): each step's heat into the part per unit level, its
+        area from the fit's quadrature rule of the exact indicator (the projection on the
+        enlarged basis gave 0.95-0.98 of it beside a side held at a temperature)."""
+        names, F, _ = functional_matrix(self)
+        return F[names.index("total_power")], 0.0
+
+
+def stretch_zones(face, cylinder, r, z, pinned=()) -> list:
+    """The step regions (Zone, full turn) over each unseen edge stretch of `face` for sensors
+    at (r, z) [m] (layout.edge_gaps): STEPS per stretch, each from a point j / (STEPS + 1) of
+    the stretch's length away from the sensors out to the face's edge; none at an edge in
+    `pinned` (coordinates [m], pinned_edges.pinned_edges: the series holds the map there, and
+    says so)."""
+    lo_face, hi_face = face_interval(face, cylinder)
+    wall = is_wall(face)
+    out = []
+    for a, b in edge_gaps(face, cylinder, r, z):
+        outward = math.isclose(b, hi_face, rel_tol=1e-12, abs_tol=1e-12)
+        edge = hi_face if outward else lo_face
+        if any(math.isclose(edge, x, rel_tol=1e-12, abs_tol=1e-12) for x in pinned):
+            continue
+        for j in range(1, STEPS + 1):
+            x = a + (b - a) * j / (STEPS + 1) if outward else b - (b - a) * j / (STEPS + 1)
+            span = (x, hi_face) if outward else (lo_face, x)
+            out.append(Zone(f"unseen stretch step {len(out) + 1}", face, (0.0, 2 * math.pi),
+                            **({"z": span} if wall else {"r": span})))
+    return out
+
+
+def stretch_steps(design, rd, level):
+    """StretchSteps of the unknown-flux face of `design` for the sensors of `rd` with prior sd
+    `level` [face unit] at the edge, or None (no unseen stretch, a temperature face, level 0)."""
+    if design.quantity != "heat_flux" or not level > 0:
+        return None
+    zones = stretch_zones(design.face_name, design.cylinder, rd.r, rd.z, [x for _, x in pinned_edges(design)])
+    if not zones:
+        return None
+    return StretchSteps(design, zones, level, nearest_distance(design, rd.r, rd.z))

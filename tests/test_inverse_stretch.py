@@ -1,0 +1,124 @@
+"""Steps over an unseen edge stretch of a flux face (inverse/stretch.py), marginalized with the
+left-out modes (inverse/truncation.py).
+
+The scenario-level check (a heater that ends where no sensor sees, its zone means within
+2 sd) is tests/test_scenarios.py's chuck_calibrated; here the pieces.
+"""
+
+import math
+import types
+
+import numpy as np
+import pytest
+
+import heatsight.forward as fw
+from heatsight.inverse.design import Design
+from heatsight.inverse.functionals import functional_matrix
+from heatsight.inverse.readings import SensorReadings
+from heatsight.inverse.stretch import STEPS, stretch_steps, stretch_zones
+from heatsight.inverse.truncation import functional_tails
+
+A, L, K = 0.15, 0.025, 170.0
+
+
+def chuck_design():
+    faces = {"bottom": fw.UnknownFlux(), "top": fw.Convection(300.0, 300.0), "side": fw.Insulated()}
+    return Design(fw.Cylinder(A, L, K), faces, 1e-6, 6, 8)
+
+
+def chuck_sensors():
+    r = np.array([0.05] * 4 + [0.11] * 8)
+    th = np.radians(np.r_[np.arange(4) * 90.0, 22.5 + np.arange(8) * 45.0])
+    return SensorReadings([f"T{i}" for i in range(r.size)], r, th, np.full(r.size, 0.010),
+                          np.full(r.size, 330.0), 0.1, 0.0, 0.0)
+
+
+def test_steps_lie_inside_the_unseen_stretch():
+    # the chuck: sensors out to 110 mm of 150; three steps from 120, 130, 140 mm to the rim
+    cyl = fw.Cylinder(A, L, K)
+    zs = stretch_zones("bottom", cyl, [0.05, 0.11], [0.01, 0.01])
+    assert len(zs) == STEPS == 3
+    assert [z.r for z in zs] == [pytest.approx((x, 0.15)) for x in (0.12, 0.13, 0.14)]
+    assert all(z.full_turn for z in zs)
+    # a wall with both ends unseen: steps from each end inwards, none over the sensors
+    wall = fw.Cylinder(0.05, 0.40, K)
+    zs = stretch_zones("side", wall, [0.04, 0.04], [0.10, 0.30])
+    spans = sorted(z.z for z in zs)
+    assert spans == [pytest.approx(s) for s in sorted([(0.0, 0.025), (0.0, 0.05), (0.0, 0.075),
+                                                        (0.325, 0.40), (0.35, 0.40), (0.375, 0.40)])]
+    # sensors near every edge: no stretch
+    assert stretch_zones("bottom", cyl, [0.05, 0.14], [0.01, 0.01]) == []
+
+
+def test_steps_only_on_a_flux_face_with_a_level():
+    d, rd = chuck_design(), chuck_sensors()
+    assert stretch_steps(d, rd, 0.0) is None
+    steps = stretch_steps(d, rd, 4000.0)
+    assert steps is not None and steps.v == pytest.approx([4000.0 ** 2 / STEPS] * STEPS)
+    faces = {"bottom": fw.UnknownTemperature(), "top": fw.Convection(300.0, 300.0), "side": fw.Insulated()}
+    assert stretch_steps(Design(fw.Cylinder(A, L, K), faces, 1e-6, 6, 8), rd, 40.0) is None
+
+
+def test_steps_power_is_their_area():
+    # a step's heat into the part is its level times its area pi (a^2 - x^2) (elementary integral)
+    steps = stretch_steps(chuck_design(), chuck_sensors(), 4000.0)
+    areas = [math.pi * (A ** 2 - z.r[0] ** 2) for z in steps.zones]
+    np.testing.assert_allclose(steps.powers()[0], areas, rtol=2e-3)
+
+
+def test_marginalized_steps_give_the_gaussian_conditional():
+    """functional_tails with the steps marginalized into S = N + G V G^T equals the posterior
+    of the steps computed in information form, C = (V^-1 + G^T N^-1 G)^-1, mean C G^T N^-1 r
+    (the two are equal by the Woodbury identity; textbook Gaussian conditioning)."""
+    d, rd = chuck_design(), chuck_sensors()
+    steps = stretch_steps(d, rd, 4000.0)
+    G = steps.fields(rd.r, rd.theta, rd.z)
+    N = np.diag(np.full(rd.n, 0.1 ** 2))
+    S = N + steps.covariance(rd)
+    r = np.random.default_rng(3).normal(0.0, 0.5, rd.n)
+    names, F, _ = functional_matrix(steps, [])
+    (h_mean, var_mean), (h_power, var_power) = functional_tails(None, None, rd, None, S, steps, F)
+    C = np.linalg.inv(np.diag(1.0 / steps.v) + G.T @ np.linalg.solve(N, G))
+    mean = C @ G.T @ np.linalg.solve(N, r)
+    for f, h, var in ((F[0], h_mean, var_mean), (F[1], h_power, var_power)):
+        assert h @ r == pytest.approx(f @ mean, rel=1e-8)
+        assert var == pytest.approx(f @ C @ f, rel=1e-6)
+    assert names[:2] == ["mean", "total_power"]
+
+
+def test_no_steps_at_an_edge_the_series_holds():
+    # a tube's bore flux beside an end held at a temperature: every column vanishes along that
+    # edge (pinned_edges; the fit says so), so no step is put there; the other end's stretch
+    # keeps its steps
+    cyl = fw.Cylinder(0.08, 0.30, 45.0, inner_radius=0.05)
+    faces = {"side": fw.Flux(2000.0), "bore": fw.UnknownFlux(), "bottom": fw.Temperature(450.0),
+             "top": fw.Insulated()}
+    d = Design(cyl, faces, 1e-6, 4, 8)
+    z = np.linspace(0.08, 0.20, 6)
+    rd = SensorReadings([f"T{i}" for i in range(z.size)], np.full(z.size, 0.06), np.zeros(z.size), z,
+                        np.full(z.size, 460.0), 0.05, 0.0, 0.0)
+    steps = stretch_steps(d, rd, 5000.0)
+    assert steps is not None and [zn.z[1] for zn in steps.zones] == [pytest.approx(0.30)] * STEPS
+    assert stretch_zones("bore", cyl, rd.r, rd.z) != stretch_zones("bore", cyl, rd.r, rd.z, [0.0])
+
+
+def test_fit_marks_the_steps_as_shared_noise():
+    """A chuck whose heater ends at 140 mm, sensors out to 110 mm, readings from heatsight's
+    own series (a behaviour check of the wiring, not of accuracy): the steps are in every
+    model's noise, each reading's own sd leaves them out, and the sensor table's residuals
+    are in units of that own sd."""
+    from heatsight import inverse
+
+    def q(r, th):
+        return 5000.0 * (np.asarray(r) < 0.14)
+    cyl = fw.Cylinder(A, L, K)
+    known = {"top": fw.Convection(300.0, 300.0), "side": fw.Insulated()}
+    rd0 = chuck_sensors()
+    t = fw.CylinderModel(cyl, {**known, "bottom": fw.Flux(q)}, tolerance=1e-6).evaluate(rd0.r, rd0.theta, rd0.z).temperature
+    rd = SensorReadings(rd0.names, rd0.r, rd0.theta, rd0.z, t, 0.1, 0.0, 0.0)
+    case = types.SimpleNamespace(cylinder=cyl, faces={**known, "bottom": fw.UnknownFlux()}, zones=[])
+    res = inverse.fit(case, rd, grid=(12, 24))
+    noise = res.problem.noise
+    assert np.all(noise.sd > 3.0 * noise.own_sd)               # the steps' shared variance is large here
+    assert noise.own_sd == pytest.approx(np.full(rd.n, 0.1), rel=0.2)   # sigma and the left-out modes
+    assert np.max(np.abs(res.sensors["standardized"])) < 4.0
