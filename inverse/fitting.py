@@ -147,6 +147,8 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
     warnings += pinned_edge_notes(design)
     warnings += _unresolved_warnings(post, screen, columns, design, spec, rd)
     warnings += _misfit_warnings(screen)
+    if steps is not None:
+        model_info = {**model_info, **steps.summary()}
     if hasattr(post.averaged, "description") and "prior" not in model_info:
         model_info = {**model_info, "prior": post.averaged.description()}
     mc = None

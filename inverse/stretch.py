@@ -48,9 +48,18 @@ class StretchSteps:
     def __init__(self, design, zones, level, nearest):
         self.zones = list(zones)
         self.columns = ZoneDesign(design, self.zones, nearest)
-        self.v = np.full(len(self.zones), float(level) ** 2 / STEPS)
+        self.level = float(level)
+        self.v = np.full(len(self.zones), self.level ** 2 / STEPS)
         self.face_name, self.quantity, self.cylinder = design.face_name, design.quantity, design.cylinder
         self.at_readings = None     # G_s (n, J) at the fit's readings, set by the fit (fitting._with_tail)
+
+    def summary(self) -> dict:
+        """For summary.json: where each step begins [m] (r on an end face, z on a wall) and the
+        prior sd the steps reach at the face's edge [face unit]."""
+        _, hi = face_interval(self.face_name, self.cylinder)
+        spans = [z.z if is_wall(self.face_name) else z.r for z in self.zones]
+        starts = [a if math.isclose(b, hi, rel_tol=1e-12, abs_tol=1e-12) else b for a, b in spans]
+        return {"unseen_stretch_steps_m": [float(x) for x in starts], "unseen_stretch_level_sd": self.level}
 
     def fields(self, r, theta, z) -> np.ndarray:
         """G_s (n, J) [K per face unit]: each step's field at the points."""

@@ -122,3 +122,9 @@ def test_fit_marks_the_steps_as_shared_noise():
     assert np.all(noise.sd > 3.0 * noise.own_sd)               # the steps' shared variance is large here
     assert noise.own_sd == pytest.approx(np.full(rd.n, 0.1), rel=0.2)   # sigma and the left-out modes
     assert np.max(np.abs(res.sensors["standardized"])) < 4.0
+    # summary.json says where the steps begin and how large they may be
+    from heatsight.data_io.fit_outputs import summary_dict
+
+    out = summary_dict(res)
+    assert out["unseen_stretch_steps_m"] == [pytest.approx(x) for x in (0.12, 0.13, 0.14)]
+    assert out["unseen_stretch_level_sd"] == pytest.approx(res.summary["mean"], rel=0.1)
