@@ -49,8 +49,8 @@ from .strength import choose_strength, default_alphas
 from .strength_average import StrengthAverage
 from .threads import few_threads
 from .stretch import stretch_steps
-from .truncation import (face_tail, face_tail_variance, functional_tails, left_out_columns, nearest_distance,
-                         tail_covariance, tail_power)
+from .truncation import (conditional, face_tail, face_tail_variance, functional_tails, left_out_columns,
+                         nearest_distance, tail_covariance, tail_power)
 from .zones import (MAX_CHOSEN_ZONES, ZONE_LEVEL_FACTORS, ZONE_PRIOR_FACTOR, ZoneDesign, ZoneModel, edge_rooms,
                     edge_widths, level_sets, with_edge)
 
@@ -132,7 +132,7 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
         # not, hyperprior.learn_prior): both models are compared on one grid of length scales
         # and one amplitude hyperprior (the remainder's orders are smooth: zones.REMAINDER_SMOOTHNESS)
         first.add_tail(design, rd, u > 0, _screen(first.marginal, rd, opts, gross).kept, like=learned_prior,
-                       extra=0.0 if steps is None else (steps.at_readings * steps.v) @ steps.at_readings.T)
+                       extra=0.0 if steps is None else steps.covariance)
         for other in zone_models[1:]:
             other.share_tail(first)
     zscreens = [_settled_screen(zm, rd, opts, gross, leading) for zm in zone_models]
@@ -241,14 +241,12 @@ def _answer_residuals(table, post, columns, rd, problem, zone_model, zones_lead=
 def _steps_given_kept(steps, lin, kept, residual):
     """(m (n,) [K], v (n,) [K^2]): the unseen stretches' steps (stretch.StretchSteps) at every
     reading given the residual (n,) [K] at the readings `kept`, under lin's noise S (which
-    holds them): m = G V G_k^T S_kk^-1 r_k, v = diag(G V G^T - G V G_k^T S_kk^-1 G_k V G^T)."""
+    holds them): m = G V G_k^T S_kk^-1 r_k, v = diag(G V G^T - G V G_k^T S_kk^-1 G_k V G^T)
+    (truncation.conditional, each reading's step fields as a functional's row)."""
     k = np.flatnonzero(kept)
     G = steps.at_readings
-    B = (G * steps.v) @ G[k].T                                          # G V G_k^T (n, k)
-    Skk = lin.noise.covariance[np.ix_(k, k)]
-    m = B @ np.linalg.solve(Skk, residual[k])
-    v = np.einsum("ij,j,ij->i", G, steps.v, G) - np.einsum("ik,ki->i", B, np.linalg.solve(Skk, B.T))
-    return m, np.maximum(v, 0.0)
+    H, v = conditional([(G[k], steps.v, G)], lin.noise.covariance[np.ix_(k, k)])
+    return H.T @ residual[k], v
 
 
 def _with_steps_given_kept(steps, problem, lin, kept, fitted):
@@ -312,8 +310,7 @@ def _with_tail(problem, design, rd, P, u, ok, stretch=True):
     S = problem.noise.covariance + tail_covariance(design, rd, first)
     shared = None
     if steps is not None:
-        steps.at_readings = steps.fields(rd.r, rd.theta, rd.z)       # the fit's readings, all of them
-        shared = (steps.at_readings * steps.v) @ steps.at_readings.T
+        shared = steps.attach(rd).covariance
         S = S + shared
     noise = Whitener(S, shared_variance=None if shared is None else np.diag(shared))
     return _linear_problem(problem.G, problem.t0, noise, rd, P, u, ok), first, steps
@@ -341,17 +338,16 @@ def _tails(model, columns, design, rd, kept, problem, tail_prior, zone_model, zo
     kept_rd, residual = rd.subset(idx), lin.d[idx] - lin.t0[idx]
     left = left_out_columns(design, kept_rd)        # one enlarged basis for every share below
     rows = {"total_power": tail_power(left, kept_rd, prior, S, steps)}
-    if left is not None or steps is not None:       # the face and zone means' share, on the fit's quadrature rule
-        names, F_t, _ = functional_matrix(left if left is not None else steps, zones)
-        means = [i for i, name in enumerate(names) if name != "total_power"]
-        F_s = None
-        if steps is not None:
-            names_s, F_s, _ = functional_matrix(steps, zones)
-            at = {name: row for name, row in zip(names_s, F_s)}
-            # a zone the steps' rule finds empty (split at their edges too) takes no share of them
-            F_s = np.array([at.get(names[i], np.zeros(F_s.shape[1])) for i in means])
-        rows.update(zip([names[i] for i in means],
-                        functional_tails(left, None if left is None else F_t[means], kept_rd, prior, S, steps, F_s)))
+    # the face and zone means' share, on the fit's quadrature rule: each marginalized set's rows
+    # by name (a zone the steps' rule finds empty, split at their edges too, takes no share)
+    tables = [dict(zip(*functional_matrix(c, zones)[:2])) if c is not None else None for c in (left, steps)]
+    if any(t is not None for t in tables):
+        names = [n for n in next(t for t in tables if t is not None) if n != "total_power"]
+
+        def rows_on(t):
+            return None if t is None else np.array([t.get(n, np.zeros(len(t["mean"]))) for n in names])
+        rows.update(zip(names, functional_tails(left, rows_on(tables[0]), kept_rd, prior, S, steps,
+                                                rows_on(tables[1]))))
 
     def on_face(points):
         H, variance = face_tail(left, points, prior, kept_rd, S, steps)

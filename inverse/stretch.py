@@ -51,7 +51,21 @@ class StretchSteps:
         self.level = float(level)
         self.v = np.full(len(self.zones), self.level ** 2 / STEPS)
         self.face_name, self.quantity, self.cylinder = design.face_name, design.quantity, design.cylinder
-        self.at_readings = None     # G_s (n, J) at the fit's readings, set by the fit (fitting._with_tail)
+        self.at_readings = None     # G_s (n, J) at the fit's readings (attach)
+
+    def attach(self, rd) -> "StretchSteps":
+        """Hold the steps' fields at the fit's readings `rd` (all of them, in its order)."""
+        self.at_readings = self.fields(rd.r, rd.theta, rd.z)
+        return self
+
+    @property
+    def covariance(self) -> np.ndarray:
+        """G_s diag(v) G_s^T (n, n) [K^2] at the readings held (attach)."""
+        return (self.at_readings * self.v) @ self.at_readings.T
+
+    def variances(self, prior=None) -> np.ndarray:
+        """v (J,) [face unit^2]: the steps' own prior variances (`prior` is not theirs)."""
+        return self.v
 
     def summary(self) -> dict:
         """For summary.json: where each step begins [m] (r on an end face, z on a wall) and the
@@ -64,11 +78,6 @@ class StretchSteps:
     def fields(self, r, theta, z) -> np.ndarray:
         """G_s (n, J) [K per face unit]: each step's field at the points."""
         return self.columns.sensors(r, theta, z)[0][:, -len(self.zones):]
-
-    def covariance(self, rd) -> np.ndarray:
-        """G_s diag(v) G_s^T (n, n) [K^2] at the sensors of `rd`."""
-        G = self.fields(rd.r, rd.theta, rd.z)
-        return (G * self.v) @ G.T
 
     def face(self, u, v):
         u, v = (np.asarray(x, float).ravel() for x in (u, v))

@@ -110,18 +110,16 @@ def face_tail(left, points, prior, rd, noise_covariance=None, steps=None):
     (hyperprior.matern_exponent), so the bands no longer depend on the basis size."""
     def rows_of(cols):
         return (cols.face_grid(*points.lines) if points.lines is not None else cols.face(points.u, points.v))[0]
-    parts = [(left, rows_of(left), prior)] if left is not None else []
-    if steps is not None:
-        parts.append((steps, rows_of(steps), None))
+    cols = [c for c in (left, steps) if c is not None]
     q = np.size(points.u)
     if noise_covariance is None:
         variance = np.zeros(q)
-        for cols, phi, pr in parts:
-            variance += (phi ** 2) @ _column_variances(cols, pr)
+        for c in cols:
+            variance += (rows_of(c) ** 2) @ c.variances(prior)
         return np.zeros((q, 0)), variance
-    if not parts:
+    if not cols:
         return np.zeros((q, rd.n)), np.zeros(q)
-    H, variance = _conditional(parts, rd, noise_covariance)
+    H, variance = conditional(_parts(cols, [rows_of(c) for c in cols], rd, prior), noise_covariance)
     return H.T, variance
 
 
@@ -130,7 +128,7 @@ class LeftOutColumns:
     face values on the face (no known part), so zone and face means of the tail come from
     the same quadrature rule as the fit's own.  The columns are all of big's eigenfunctions
     (a view, not a copy of ~all of them): the modes the fit keeps carry zero variance in
-    _conditional (_masked_variances), so they drop out."""
+    conditional (_masked_variances), so they drop out."""
 
     def __init__(self, design, big, mask):
         self.big, self.mask = big, mask
@@ -149,6 +147,14 @@ class LeftOutColumns:
     def powers(self):
         return self.big.powers()[:self.big.n_eigen], 0.0
 
+    def fields(self, r, theta, z) -> np.ndarray:
+        """G_t (n, T) [K per unit coefficient]: every eigenfunction's field at the points."""
+        return self.big.fields(r, theta, z)[0][:, :self.big.n_eigen]
+
+    def variances(self, prior) -> np.ndarray:
+        """v (T,) [unit^2] under the learned prior `prior`, 0 on the kept modes."""
+        return _masked_variances(self.big, self.mask, prior)
+
 
 def left_out_columns(design, rd):
     """The modes `design` leaves out, over the enlarged basis of the sensors `rd`
@@ -165,36 +171,29 @@ def functional_tails(columns, rows, rd, prior, noise_covariance, steps=None, ste
     stretches' `steps` (stretch.StretchSteps) `step_rows` (q, J): their share given the
     readings, as for the power (tail_power):
     value = k + f . c + h . r + e,  h = S^-1 G_t V f_t,  var e = f_t V f_t - h . (G_t V f_t)."""
-    parts = [] if columns is None else [(columns, np.atleast_2d(rows), prior)]
-    if steps is not None:
-        parts.append((steps, np.atleast_2d(step_rows), None))
-    if not parts:
+    pairs = [(c, np.atleast_2d(f)) for c, f in ((columns, rows), (steps, step_rows)) if c is not None]
+    if not pairs:
         return []
-    H, var = _conditional(parts, rd, noise_covariance)
+    H, var = conditional(_parts([c for c, _ in pairs], [f for _, f in pairs], rd, prior), noise_covariance)
     return [(H[:, j], float(var[j])) for j in range(var.size)]
 
 
-def _column_variances(cols, prior) -> np.ndarray:
-    """The prior variances of the columns: the left-out modes' under `prior` (0 on the kept
-    modes, _masked_variances), the steps' own (StretchSteps.v)."""
-    return cols.v if prior is None else _masked_variances(cols.big, cols.mask, prior)
+def _parts(columns, rows, rd, prior) -> list:
+    """[(G, v, f)] of each marginalized column set (LeftOutColumns, stretch.StretchSteps: both
+    give fields and variances) at the sensors `rd`, with the functionals' rows f on it."""
+    return [(c.fields(rd.r, rd.theta, rd.z), c.variances(prior), f) for c, f in zip(columns, rows)]
 
 
-def _column_fields(cols, rd) -> np.ndarray:
-    if hasattr(cols, "big"):
-        return cols.big.fields(rd.r, rd.theta, rd.z)[0][:, :cols.big.n_eigen]
-    return cols.fields(rd.r, rd.theta, rd.z)
-
-
-def _conditional(parts, rd, noise_covariance):
-    """(h (n, q), var e (q,)) of functionals whose rows f (q, T) on each part's columns are
-    given, parts = [(columns, f, prior)], the columns' coefficients independent a priori with
-    variances V (_column_variances), given the residual at the sensors `rd`:
-    a = sum G V f^T, h = S^-1 a, var e = sum f V f - h . a (functional_tails, face_tail)."""
+def conditional(parts, noise_covariance):
+    """(h (n, q), var e (q,)) of q functionals of columns marginalized into the readings'
+    noise S (n, n) [K^2], given the residual r at the readings: parts = [(G (n, T), v (T,),
+    f (q, T))], each set's fields at the readings, independent prior variances and the
+    functionals' rows on it; the functionals' conditional mean is h . r with variance
+    a = sum G V f^T, h = S^-1 a, var e = sum f V f - h . a (functional_tails, face_tail;
+    fitting._steps_given_kept)."""
     a, prior_var = 0.0, 0.0
-    for cols, rows, pr in parts:
-        v = _column_variances(cols, pr)
-        a = a + (_column_fields(cols, rd) * v) @ rows.T                           # G V f^T (n, q)
+    for G, v, rows in parts:
+        a = a + (G * v) @ rows.T                                                   # G V f^T (n, q)
         prior_var = prior_var + np.einsum("qt,t,qt->q", rows, v, rows)
     H = np.linalg.solve(noise_covariance, a)
     return H, np.maximum(prior_var - np.einsum("nq,nq->q", H, a), 0.0)
@@ -219,7 +218,7 @@ def tail_power(left, rd, prior, noise_covariance, steps=None):
     Zero on a flux face (a non-uniform mode carries no net heat); on a temperature face the
     power weights a mode by its wavenumber, so the modes the basis leaves out count.
     rd: the kept sensors; noise_covariance (n, n) [K^2]: their S, tail included.
-    Each mode's power p_t is the functional's row (functional_tails, _conditional)."""
+    Each mode's power p_t is the functional's row (functional_tails, conditional)."""
     if left is None and steps is None:
         return np.zeros(rd.n), 0.0
     return functional_tails(left, None if left is None else left.powers()[0], rd, prior, noise_covariance,

@@ -74,7 +74,7 @@ def test_marginalized_steps_give_the_gaussian_conditional():
     steps = stretch_steps(d, rd, 4000.0)
     G = steps.fields(rd.r, rd.theta, rd.z)
     N = np.diag(np.full(rd.n, 0.1 ** 2))
-    S = N + steps.covariance(rd)
+    S = N + steps.attach(rd).covariance
     r = np.random.default_rng(3).normal(0.0, 0.5, rd.n)
     names, F, _ = functional_matrix(steps, [])
     (h_mean, var_mean), (h_power, var_power) = functional_tails(None, None, rd, None, S, steps, F)
