@@ -128,9 +128,10 @@ def simulation(name, seeds, n_add, scale):
                 if kind in sds:
                     cover[kind].append(e <= Z95 * sds[kind][j])
                     predicted[kind].append(sds[kind][j] / sd0[n])
+        along = cand[2] if face == "side" else cand[0]
+        where = ", ".join(f"({1e3 * along[j]:.0f}, {math.degrees(cand[1][j]):.0f})" for j in choices["mixture"])
         print(f"  seed {seed:2d}: " + "  ".join(f"{k} {rows[k][-1]:.3f}" for k in kinds)
-              + f"  (RMS |error| / sd before; mixture picks at "
-              f"{', '.join(f'{math.degrees(cand[1][j]):.0f}' for j in choices['mixture'])} deg)", flush=True)
+              + f"  (RMS |error| / sd before; mixture picks at (r or z mm, deg) {where})", flush=True)
     for j, n in enumerate(names):
         cp = {k: np.array(cover[k]).reshape(-1, len(names))[:, j].mean() for k in cover}
         print(f"  {n:12s} median |error| / sd before: " + ", ".join(f"{k} {np.median(per_target[n][k]):.2f}"

@@ -195,11 +195,8 @@ def band_maps(run):
     from ..inverse.face_grid import display_grid
 
     cyl = run.case.cylinder
-    design = run.state.design
-    pts = display_grid(design.face_name, cyl, 15, 36)
-    B = design.face(pts.u, pts.v)[0]
-    if run.state.common_offset:
-        B = np.hstack([B, np.zeros((B.shape[0], 1))])
+    pts = display_grid(run.state.design.face_name, cyl, 15, 36)
+    B = run.state.face_rows(pts.u, pts.v)
     before = run.display.diff(np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", B, run.state.C, B), 0.0)))
     after = run.display.diff(np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", B, run.plan.C_after, B), 0.0)))
     shape = pts.shape

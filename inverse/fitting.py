@@ -49,8 +49,8 @@ from .strength import choose_strength, default_alphas
 from .strength_average import StrengthAverage
 from .threads import few_threads
 from .stretch import stretch_steps
-from .truncation import (conditional, face_tail, face_tail_variance, functional_tails, left_out_columns,
-                         nearest_distance, tail_covariance, tail_power)
+from .truncation import (MarginalSets, conditional, face_tail, face_tail_variance, left_out_columns,
+                         nearest_distance, tail_covariance)
 from .zones import (MAX_CHOSEN_ZONES, ZONE_LEVEL_FACTORS, ZONE_PRIOR_FACTOR, ZoneDesign, ZoneModel, edge_rooms,
                     edge_widths, level_sets, with_edge)
 
@@ -162,9 +162,9 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
         step.skip()
         warnings.append("Monte Carlo draws of sensor positions are not available with the zone model; "
                         "the bands are the zone model's posterior")
-    figure_tails = map_tail = None
+    figure_tails = map_tail = marginal = None
     if tail_prior is not None and post.calibration is None and mc is None:
-        figure_tails, map_tail = _tails(model_info["model"], columns, design, rd, screen.kept, problem, tail_prior,
+        figure_tails, map_tail, marginal = _tails(model_info["model"], columns, design, rd, screen.kept, problem, tail_prior,
                                        zone_model, valid_zones(spec.zones, face, spec.cylinder, []), steps)
     elif tail_prior is not None and mc is None:     # calibrated: the left-out modes' prior variance
         lead_prior = _lead_tail_prior(model_info["model"], tail_prior, zone_model)
@@ -177,7 +177,8 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
     return FitResult.build(spec=spec, design=columns, readings=rd, kept=screen.kept, problem=screen.problem,
                            choice=screen.choice, posterior=post, sensors=sensors,
                            set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)),
-                           monte_carlo=mc, extra=model_info, figure_tails=figure_tails, map_tail=map_tail)
+                           monte_carlo=mc, extra=model_info, figure_tails=figure_tails, map_tail=map_tail,
+                           marginal=marginal)
 
 
 class _Steps:
@@ -323,13 +324,14 @@ def _lead_tail_prior(model, tail_prior, zone_model):
 
 
 def _tails(model, columns, design, rd, kept, problem, tail_prior, zone_model, zones, steps=None):
-    """The left-out modes under the model that leads, given the kept sensors' residual, for
-    FitResult.build: (figure_tails, map_tail). figure_tails = (X, residual, {name: (h,
-    variance)}): their share of the total power (truncation.tail_power), the face mean and
-    each zone mean (truncation.functional_tails), value = k + f . c + h . (residual - X c) with the
-    variance added; map_tail: points -> (dF, dk, variance), their part of the face map,
-    k + dk + (F + dF) c with the variance added (truncation.face_tail). zone_model: (the
-    leading ZoneModel, the zone columns' field at the sensors (n, J'))."""
+    """The left-out modes and the unseen stretches' steps under the model that leads, given the
+    kept sensors' residual, for FitResult.build: (figure_tails, map_tail, marginal).
+    figure_tails = (X, residual, {name: (h, variance)}): their share of the total power, the
+    face mean and each zone mean (truncation.MarginalSets.shares), value = k + f . c + h .
+    (residual - X c) with the variance added; map_tail: points -> (dF, dk, variance), their
+    part of the face map, k + dk + (F + dF) c with the variance added (truncation.face_tail);
+    marginal: the truncation.MarginalSets (planning carries the steps in its state).
+    zone_model: (the leading ZoneModel, the zone columns' field at the sensors (n, J'))."""
     idx = np.flatnonzero(kept)
     lin = problem if model == "smooth" else zone_model[0].smooth      # its readings, noise and columns
     prior = _lead_tail_prior(model, tail_prior, zone_model)
@@ -337,22 +339,12 @@ def _tails(model, columns, design, rd, kept, problem, tail_prior, zone_model, zo
     S = lin.noise.covariance[np.ix_(idx, idx)]
     kept_rd, residual = rd.subset(idx), lin.d[idx] - lin.t0[idx]
     left = left_out_columns(design, kept_rd)        # one enlarged basis for every share below
-    rows = {"total_power": tail_power(left, kept_rd, prior, S, steps)}
-    # the face and zone means' share, on the fit's quadrature rule: each marginalized set's rows
-    # by name (a zone the steps' rule finds empty, split at their edges too, takes no share)
-    tables = [dict(zip(*functional_matrix(c, zones)[:2])) if c is not None else None for c in (left, steps)]
-    if any(t is not None for t in tables):
-        names = [n for n in next(t for t in tables if t is not None) if n != "total_power"]
-
-        def rows_on(t):
-            return None if t is None else np.array([t.get(n, np.zeros(len(t["mean"]))) for n in names])
-        rows.update(zip(names, functional_tails(left, rows_on(tables[0]), kept_rd, prior, S, steps,
-                                                rows_on(tables[1]))))
+    marginal = MarginalSets(left, prior, steps, kept_rd, S, X)
 
     def on_face(points):
         H, variance = face_tail(left, points, prior, kept_rd, S, steps)
         return -H @ X, H @ residual, variance
-    return (X, residual, rows), on_face
+    return (X, residual, marginal.shares(zones)), on_face, marginal
 
 
 def _truncation_warnings(ev, rd):

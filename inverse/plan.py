@@ -29,7 +29,9 @@ an approximation, said in `source`.  With the learned prior, the fit's readings 
 left-out modes' signal (truncation.py: a full noise covariance): C is still the fit's, and
 each candidate's noise variance adds its own share of those modes (`PlanState.variances`),
 but a new sensor's share is taken as independent of the others' (approximate: the exact
-refit would correlate them).  Without readings the prior has fixed hyperparameters:
+refit would correlate them).  Steps over an unseen edge stretch of a flux face (stretch.py),
+which the fit marginalizes, are part of the state, x = (c, s, [b_c]) (plan_steps.py): a
+sensor over the stretch settles them, and the plan credits it.  Without readings the prior has fixed hyperparameters:
 l = the face size, smoothness nu = 1 (exponent nu + d/2), amplitude sigma_f = the expected
 variation the user states (sigma_f^2 = sum_k' 1 / (alpha w_k), hyperprior.py), i.e. alpha = sum_k' 1 / w_k / sigma_f^2.
 """
@@ -50,6 +52,7 @@ from .hyperprior import face_size, matern_exponent, matern_precision, matern_wei
 from .truncation import tail_variance
 from .noise import noise_covariance
 from .plan_rules import COVARIANCES, _xyz, min_distance
+from .plan_steps import figure_rows, joint_covariance, noise_without_steps, step_fields
 from .readings import DEFAULT_SIGMA_K
 
 #: a target "depends on a single sensor" when losing that one sensor multiplies its sd by
@@ -68,6 +71,8 @@ class Target:
     kind: str = "scalar"
     #: variance no sensor here reduces: the left-out modes' remaining share of a fitted figure
     extra_variance: float = 0.0
+    #: a map's points on the face (face_grid.display_grid), None for a scalar
+    points: object = None
 
 
 @dataclass
@@ -86,6 +91,8 @@ class PlanState:
     source: str
     zone_names: list = field(default_factory=list)
     tail_prior: object = None   # the learned prior whose left-out modes add to a new sensor's noise
+    #: the unseen stretches' steps (stretch.StretchSteps) carried in the state after c, or None
+    steps: object = None
 
     def variances(self, r, theta, z) -> np.ndarray:
         """Noise variance [K^2] of new sensors at (r, theta, z): the new-sensor variance plus,
@@ -99,8 +106,21 @@ class PlanState:
 
     def rows(self, r, theta, z) -> np.ndarray:
         """Rows g (P, S) of new sensors at (r, theta, z) [m, rad, m]: K per unit state."""
-        G, _ = self.design.sensors(np.atleast_1d(r), np.atleast_1d(theta), np.atleast_1d(z))
-        return np.hstack([G, np.ones((G.shape[0], 1))]) if self.common_offset else G
+        r, theta, z = (np.atleast_1d(x) for x in (r, theta, z))
+        G, _ = self.design.sensors(r, theta, z)
+        return self._state_columns(G, None if self.steps is None else self.steps.fields(r, theta, z), 1.0)
+
+    def face_rows(self, u, v) -> np.ndarray:
+        """Rows (P, S) of the face values at face coordinates (u, v): face unit per unit state."""
+        B = self.design.face(u, v)[0]
+        return self._state_columns(B, None if self.steps is None else self.steps.face(u, v)[0], 0.0)
+
+    def _state_columns(self, on_c, on_steps, on_offset):
+        """The state's columns in order: c, the steps (if carried), the common offset (if any)."""
+        parts = [on_c] + ([on_steps] if self.steps is not None else [])
+        if self.common_offset:
+            parts.append(np.full((on_c.shape[0], 1), on_offset))
+        return np.hstack(parts) if len(parts) > 1 else on_c
 
     def target_matrix(self):
         """(F (q, S): every target's rows stacked, group (q,): the index of each row's target)."""
@@ -139,7 +159,7 @@ def target_list(design, zones, which, grid=(11, 24)) -> list:
         elif item == "face":
             cyl = design.cylinder
             pts = display_grid(design.face_name, cyl, *grid)
-            out.append(Target("face", design.face(pts.u, pts.v)[0], "map"))
+            out.append(Target("face", design.face(pts.u, pts.v)[0], "map", points=pts))
         elif item in zone_names:
             out.append(Target(item, F[names.index(item)][None, :]))
         else:
@@ -154,8 +174,24 @@ def target_list(design, zones, which, grid=(11, 24)) -> list:
 
 
 def _pad(targets, extra):
-    return [Target(t.name, np.hstack([t.F, np.zeros((t.F.shape[0], extra))]), t.kind, t.extra_variance)
+    return [Target(t.name, np.hstack([t.F, np.zeros((t.F.shape[0], extra))]), t.kind, t.extra_variance, t.points)
             for t in targets]
+
+
+def _with_steps(targets, marginal, zones, N):
+    """Targets on the state (c, s) (plan_steps.py): a scalar figure's row [f - h X, f_s - h
+    G_s] with the left-out modes' remaining variance; the face map's rows [B, B_s]."""
+    rows = figure_rows(marginal, zones, N)
+    out = []
+    for t in targets:
+        if t.kind == "map":
+            F = np.hstack([t.F, marginal.steps.face(t.points.u, t.points.v)[0]])
+            out.append(Target(t.name, F, t.kind, t.extra_variance, t.points))
+        else:
+            extra, variance = rows[t.name]
+            F = np.hstack([t.F, np.zeros((1, extra.size - t.F.shape[1]))]) + extra[None, :]
+            out.append(Target(t.name, F, t.kind, variance))
+    return out
 
 
 def _with_tails(targets, tails):
@@ -165,7 +201,7 @@ def _with_tails(targets, tails):
     if tails is None:
         return targets
     X, _, rows = tails
-    return [Target(t.name, t.F - (rows[t.name][0] @ X)[None, :], t.kind, rows[t.name][1])
+    return [Target(t.name, t.F - (rows[t.name][0] @ X)[None, :], t.kind, rows[t.name][1], t.points)
             if t.kind == "scalar" and t.name in rows else t for t in targets]
 
 
@@ -198,7 +234,7 @@ def _independent_variance(noise, common_sd):
     learned prior's left-out modes (truncation.py) correlate the readings; planning keeps
     each reading's own share of them and leaves out the correlation (approximate).  The
     unseen stretches' steps (stretch.py), shared by the readings, are left out (own_sd): the
-    plan does not yet see them shrink."""
+    state carries them (plan_steps.py)."""
     return noise.own_sd ** 2 - common_sd ** 2
 
 
@@ -229,7 +265,14 @@ def state_from_fit(result, which, zones=(), new_sigma=None, new_offset_sd=None,
     post, rd, kept = result.posterior, result.readings, np.asarray(result.kept, bool)
     common = float(getattr(result.options, "common_offset_sd", 0.0) or 0.0)
     design = result.design
-    targets = _with_tails(target_list(design, zones, which), result.functional_tails)
+    marginal = result.marginal
+    steps = None if marginal is None else marginal.steps
+    targets = target_list(design, zones, which)
+    if steps is None:
+        targets = _with_tails(targets, result.functional_tails)
+    else:
+        N = noise_without_steps(marginal)
+        targets = _with_steps(targets, marginal, zones, N)
     sub = rd.subset(kept)
     sigma = float(np.median(sub.sigma)) if new_sigma is None else float(new_sigma)
     tau = float(np.median(sub.offset_sd)) if new_offset_sd is None else float(new_offset_sd)
@@ -239,26 +282,33 @@ def state_from_fit(result, which, zones=(), new_sigma=None, new_offset_sd=None,
     if exact and (covariance == "dominant" or common > 0 or post.averaged is None):
         pb, alpha, _, text = dominant_component(post, result.problem)
         var = _independent_variance(pb.noise, common)
-        C = _state_covariance(pb.G, var, alpha * pb.prior_diag, common)
-    elif exact:
-        var = _independent_variance(result.problem.noise, 0.0)
-        C = post.C
-        text = ("the fit's posterior covariance, moment-matched over its hyperparameters (each pick the exact "
-                "update of that Gaussian)")
+        G, precision = pb.G, alpha * pb.prior_diag
+        if steps is not None:        # the steps as columns of their own, with their prior
+            G, precision = np.hstack([G, step_fields(marginal)]), np.append(precision, 1.0 / steps.v)
+        C = _state_covariance(G, var, precision, common)
     else:
-        var = _independent_variance(result.problem.noise, common)
         C = post.C
-        if common > 0:   # b_c given c: its posterior from the readings' residual direction (approximate)
-            C = np.pad(C, ((0, 1), (0, 1)))
-            C[-1, -1] = common ** 2
-        text = ("the fit's covariance of the face coefficients (zone model or calibrated face parameters): "
-                "planned sds are approximate")
+        if steps is not None:
+            C = joint_covariance(C, marginal.X, step_fields(marginal), steps.v, N)
+        if exact:
+            var = _independent_variance(result.problem.noise, 0.0)
+            text = ("the fit's posterior covariance, moment-matched over its hyperparameters (each pick the exact "
+                    "update of that Gaussian)")
+        else:
+            var = _independent_variance(result.problem.noise, common)
+            if common > 0:   # b_c given c: its posterior from the readings' residual direction (approximate)
+                C = np.pad(C, ((0, 1), (0, 1)))
+                C[-1, -1] = common ** 2
+            text = ("the fit's covariance of the face coefficients (zone model or calibrated face parameters): "
+                    "planned sds are approximate")
+    if steps is not None:
+        text += f"; the {steps.v.size} steps over the unseen edge stretch are part of the state"
     if common > 0:
         targets = _pad(targets, 1)
     existing = {"names": list(sub.names), "r": sub.r, "theta": sub.theta, "z": sub.z, "variance": var}
     tail = post.averaged if hasattr(post.averaged, "hyperparameters") else None
     return PlanState(C, design, common > 0, targets, sigma ** 2 + tau ** 2, existing, text,
-                     [t.name for t in targets if t.name not in ("total_power", "mean", "face")], tail)
+                     [t.name for t in targets if t.name not in ("total_power", "mean", "face")], tail, steps)
 
 
 def state_from_prior(spec, which, expected_variation, sensors=None, new_sigma=None, new_offset_sd=0.0,

@@ -188,6 +188,8 @@ class FitResult:
     #: (X, residual, {name: (h, variance)}): the left-out modes' share of the face mean, the
     #: power and the zone means (build's figure_tails), or None
     functional_tails: object = field(repr=False, default=None)
+    #: the sets marginalized into the kept readings' noise (truncation.MarginalSets), or None
+    marginal: object = field(repr=False, default=None)
 
     @property
     def smooth_only(self) -> bool:
@@ -199,7 +201,7 @@ class FitResult:
     # ------------------------------------------------------------------ construction
     @classmethod
     def build(cls, *, spec, design, readings, kept, problem, choice, posterior, sensors,
-              set_aside, warnings, monte_carlo, extra=None, figure_tails=None, map_tail=None):
+              set_aside, warnings, monte_carlo, extra=None, figure_tails=None, map_tail=None, marginal=None):
         """Derived figures of a fit.  spec: the inverse.problem.Problem; design: the model
         columns (design.Design or the zone model's); problem: the LinearGaussianProblem of
         the kept sensors; extra: further summary keys; figure_tails: (X, residual, {name: (h,
@@ -207,7 +209,8 @@ class FitResult:
         means (truncation.tail_power, functional_tails: each becomes f . c + k + h . (residual - X c)
         with the variance added); map_tail: points ->
         (dF, dk, variance), the left-out modes' part of the face map: k + dk + (F + dF) c with
-        the variance (Q,) added to its bands (dF, dk None: variance only; truncation.face_tail)."""
+        the variance (Q,) added to its bands (dF, dk None: variance only; truncation.face_tail);
+        marginal: the truncation.MarginalSets behind them (kept for planning)."""
         cyl, opts = design.cylinder, spec.options
         face, quantity = design.face_name, design.quantity
         unit = "K" if quantity == "temperature" else "W/m^2"
@@ -286,7 +289,7 @@ class FitResult:
         summary.update(extra or {})
         return cls(face, quantity, unit, cyl, grid, pts.shape, summary, sens, curve, list(warnings),
                    posterior, design, problem, readings, kept, zones,
-                   cal.info() if cal is not None else None, monte_carlo, cal, opts, figure_tails)
+                   cal.info() if cal is not None else None, monte_carlo, cal, opts, figure_tails, marginal)
 
     # ------------------------------------------------------------------ queries
     def face_profile(self, u, v, level=0.95):
