@@ -27,7 +27,7 @@ from scipy.special import logsumexp
 from .calibration import calibrate, learned_calibration
 from .design import NOMINAL_PRECISION_FACTOR, Design, smooth_prior
 from .diagnostics import screen_outliers, sensor_table, unchecked_warnings
-from .functionals import face_functionals, functional_matrix
+from .functionals import face_functionals
 from .hyperprior import LearnedPrior, face_size, learn_prior
 from .layout import FAR_FRACTION, angular_note, edge_gap_note
 from .errors import InverseError
@@ -48,9 +48,10 @@ from .result import FitResult, Posterior, valid_zones
 from .strength import choose_strength, default_alphas
 from .strength_average import StrengthAverage
 from .threads import few_threads
-from .stretch import stretch_steps
-from .truncation import (MarginalSets, conditional, face_tail, face_tail_variance, left_out_columns,
-                         nearest_distance, tail_covariance)
+from .stretch import step_level, stretch_steps
+from .marginal_sets import MarginalSets
+from .truncation import (conditional, face_tail, face_tail_variance, left_out_columns, nearest_distance,
+                         tail_covariance)
 from .zones import (MAX_CHOSEN_ZONES, ZONE_LEVEL_FACTORS, ZONE_PRIOR_FACTOR, ZoneDesign, ZoneModel, edge_rooms,
                     edge_widths, level_sets, with_edge)
 
@@ -305,8 +306,7 @@ def _with_tail(problem, design, rd, P, u, ok, stretch=True):
     (Whitener's shared_variance), so that a reading's own sd leaves it out."""
     first = learn_prior(problem.subset(np.flatnonzero(ok)), design.basis, nominal=u > 0,
                         nominal_factor=NOMINAL_PRECISION_FACTOR)
-    _, F, k = functional_matrix(design)
-    steps = (stretch_steps(design, rd.subset(np.flatnonzero(ok)), abs(float(k[0] + F[0] @ first.coefficients())))
+    steps = (stretch_steps(design, rd.subset(np.flatnonzero(ok)), step_level(design, first.coefficients()))
              if stretch else None)
     S = problem.noise.covariance + tail_covariance(design, rd, first)
     shared = None
@@ -327,10 +327,10 @@ def _tails(model, columns, design, rd, kept, problem, tail_prior, zone_model, zo
     """The left-out modes and the unseen stretches' steps under the model that leads, given the
     kept sensors' residual, for FitResult.build: (figure_tails, map_tail, marginal).
     figure_tails = (X, residual, {name: (h, variance)}): their share of the total power, the
-    face mean and each zone mean (truncation.MarginalSets.shares), value = k + f . c + h .
+    face mean and each zone mean (marginal_sets.MarginalSets.shares), value = k + f . c + h .
     (residual - X c) with the variance added; map_tail: points -> (dF, dk, variance), their
     part of the face map, k + dk + (F + dF) c with the variance added (truncation.face_tail);
-    marginal: the truncation.MarginalSets (planning carries the steps in its state).
+    marginal: the marginal_sets.MarginalSets (planning carries the steps in its state).
     zone_model: (the leading ZoneModel, the zone columns' field at the sensors (n, J'))."""
     idx = np.flatnonzero(kept)
     lin = problem if model == "smooth" else zone_model[0].smooth      # its readings, noise and columns

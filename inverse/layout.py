@@ -10,9 +10,9 @@
   edge of the face longer than END_GAP_FRACTION of its extent with no sensor over it is an
   extrapolation: the map there follows the sensors' profile, while heat leaves or enters at
   an edge (a liquid inlet, a cooled end, a heater's end). The tube demo's inlet end, 120 mm
-  of 600 beyond its sensors, came out 16 K warm with a band of +-13 K (95 %).  On an
-  unknown heat-flux face the fit lets such a stretch step away from the rest (stretch.py),
-  which widens its bands there instead.
+  of 600 beyond its sensors, came out 16 K warm with a band of +-13 K (95 %).  The fit lets
+  such a stretch step (a heat flux) or bend by ramps (a temperature) away from the rest
+  (stretch.py), which widens its bands there instead.
 """
 
 from __future__ import annotations
@@ -94,6 +94,6 @@ def edge_gap_note(face: str, cylinder, r, z) -> str | None:
     what = "z" if wall else "r"
     where = " and ".join(f"{what} = {a * 1e3:.4g}-{b * 1e3:.4g} mm" for a, b in gaps)
     return (f"no sensor over the {face} face's edge stretch {where}: the readings cannot see where a heater "
-            f"ends, an inlet or a cooled end there (an unknown heat flux may step away from the rest of the "
-            f"face there, which widens its bands; an unknown temperature's bands there can be too narrow); "
+            f"ends, an inlet or a cooled end there (the fit lets an unknown heat flux step, and an unknown "
+            f"temperature bend, away from the rest of the face there, which widens its bands); "
             f"a thermocouple near {'that edge' if len(gaps) == 1 else 'each of those edges'} settles it")

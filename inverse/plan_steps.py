@@ -15,7 +15,7 @@ so with c | d ~ N(m, C) the joint covariance is
 
 A figure f . c + f_s . s + (left-out modes) becomes the row [f - h X, f_s - h G_s] on x, with
 the left-out modes' share h = N^-1 G_t V f_t given the residual of both and their remaining
-variance held fixed (truncation.MarginalSets.shares with_steps=False).
+variance held fixed (marginal_sets.MarginalSets.shares with_steps=False).
 """
 
 from __future__ import annotations

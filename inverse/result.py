@@ -188,7 +188,7 @@ class FitResult:
     #: (X, residual, {name: (h, variance)}): the left-out modes' share of the face mean, the
     #: power and the zone means (build's figure_tails), or None
     functional_tails: object = field(repr=False, default=None)
-    #: the sets marginalized into the kept readings' noise (truncation.MarginalSets), or None
+    #: the sets marginalized into the kept readings' noise (marginal_sets.MarginalSets), or None
     marginal: object = field(repr=False, default=None)
 
     @property
@@ -210,7 +210,7 @@ class FitResult:
         with the variance added); map_tail: points ->
         (dF, dk, variance), the left-out modes' part of the face map: k + dk + (F + dF) c with
         the variance (Q,) added to its bands (dF, dk None: variance only; truncation.face_tail);
-        marginal: the truncation.MarginalSets behind them (kept for planning)."""
+        marginal: the marginal_sets.MarginalSets behind them (kept for planning)."""
         cyl, opts = design.cylinder, spec.options
         face, quantity = design.face_name, design.quantity
         unit = "K" if quantity == "temperature" else "W/m^2"

@@ -15,8 +15,15 @@ itself would be pinned by it), so that at the face's edge the steps add up to a 
 `level` [face unit]: how far the face's own level is from zero.  The steps are marginalized
 into the readings' covariance, S += G_s diag(v) G_s^T, and, with the left-out modes
 (truncation.py), their conditional mean and variance given the residual reach the face map,
-the total power, the face mean and the zone means.  Only on an unknown-flux face: on a
-temperature face a heater's end shows as a slope, not a step, and its size has no such scale.
+the total power, the face mean and the zone means.
+
+On an unknown-temperature face the departure is continuous: each H_j is then a linear ramp
+from its point (0) to the face's edge (1), a cooled end or an inlet bending the profile away
+from what the sensors see, and `level` is how much the face varies where it is seen (the
+spread, max - min, of the first fit's face map [K]): the tube demo's bore at the liquid's
+inlet, 16 K under the flat extrapolation of four stations 130 mm apart, lay 3 sd outside
+the bands before.  None at an edge the series holds (pinned_edges.pinned_edges) nor, on a
+temperature face, beside a face held at a known temperature (the corner's value is known).
 """
 
 from __future__ import annotations
@@ -25,9 +32,10 @@ import math
 
 import numpy as np
 
+from ..forward.faces import Temperature
 from ..forward.geometry import is_wall
 
-from .face_grid import face_interval
+from .face_grid import display_grid, face_interval
 from .functionals import functional_matrix
 from .layout import edge_gaps
 from .pinned_edges import pinned_edges
@@ -68,11 +76,12 @@ class StretchSteps:
         return self.v
 
     def summary(self) -> dict:
-        """For summary.json: where each step begins [m] (r on an end face, z on a wall) and the
-        prior sd the steps reach at the face's edge [face unit]."""
+        """For summary.json: where each step (or ramp) begins [m] (r on an end face, z on a
+        wall) and the prior sd the steps reach at the face's edge [face unit]."""
         _, hi = face_interval(self.face_name, self.cylinder)
-        spans = [z.z if is_wall(self.face_name) else z.r for z in self.zones]
-        starts = [a if math.isclose(b, hi, rel_tol=1e-12, abs_tol=1e-12) else b for a, b in spans]
+        spans = [(z.z if is_wall(self.face_name) else z.r, 0.5 * z.edge) for z in self.zones]
+        starts = [a - half if math.isclose(b, hi, rel_tol=1e-12, abs_tol=1e-12) else b + half
+                  for (a, b), half in spans]
         return {"unseen_stretch_steps_m": [float(x) for x in starts], "unseen_stretch_level_sd": self.level}
 
     def fields(self, r, theta, z) -> np.ndarray:
@@ -89,19 +98,24 @@ class StretchSteps:
         return self.face(*((TH, S) if is_wall(self.face_name) else (S, TH)))
 
     def powers(self):
-        """(p (J,) [W per face unit], 0): each step's heat into the part per unit level, its
-        area from the fit's quadrature rule of the exact indicator (the projection on the
-        enlarged basis gave 0.95-0.98 of it beside a side held at a temperature)."""
+        """(p (J,) [W per face unit], 0): each step's heat into the part per unit level; on a
+        flux face its area from the fit's quadrature rule of the exact indicator (the
+        projection on the enlarged basis gave 0.95-0.98 of it beside a side held at a
+        temperature), on a temperature face the heat its ramp's field carries in through the
+        face (the projection's, as for the zone model's columns)."""
+        if self.quantity == "temperature":
+            return self.columns.powers()[0][-len(self.zones):], 0.0
         names, F, _ = functional_matrix(self)
         return F[names.index("total_power")], 0.0
 
 
-def stretch_zones(face, cylinder, r, z, pinned=()) -> list:
+def stretch_zones(face, cylinder, r, z, pinned=(), ramps=False) -> list:
     """The step regions (Zone, full turn) over each unseen edge stretch of `face` for sensors
     at (r, z) [m] (layout.edge_gaps): STEPS per stretch, each from a point j / (STEPS + 1) of
     the stretch's length away from the sensors out to the face's edge; none at an edge in
-    `pinned` (coordinates [m], pinned_edges.pinned_edges: the series holds the map there, and
-    says so)."""
+    `pinned` (coordinates [m]: pinned_edges.pinned_edges, the series holds the map there, and
+    says so; _held_edges).  ramps: each region a linear ramp from its point (0) to the edge
+    (1) instead of a step: a window whose edge, as wide as the region, is centred half way."""
     lo_face, hi_face = face_interval(face, cylinder)
     wall = is_wall(face)
     out = []
@@ -112,18 +126,45 @@ def stretch_zones(face, cylinder, r, z, pinned=()) -> list:
             continue
         for j in range(1, STEPS + 1):
             x = a + (b - a) * j / (STEPS + 1) if outward else b - (b - a) * j / (STEPS + 1)
-            span = (x, hi_face) if outward else (lo_face, x)
+            inner = 0.5 * (x + edge) if ramps else x
+            span = (inner, hi_face) if outward else (lo_face, inner)
             out.append(Zone(f"unseen stretch step {len(out) + 1}", face, (0.0, 2 * math.pi),
-                            **({"z": span} if wall else {"r": span})))
+                            edge=abs(edge - x) if ramps else 0.0, **({"z": span} if wall else {"r": span})))
     return out
 
 
+def _held_edges(design) -> list:
+    """Coordinates [m] of the edges of `design`'s face beside a face held at a known
+    temperature (the bottom and top of a wall; the side and the bore of an end face)."""
+    lo, hi = face_interval(design.face_name, design.cylinder)
+    neighbours = (("bottom", lo), ("top", hi)) if is_wall(design.face_name) else (("bore", lo), ("side", hi))
+    return [at for name, at in neighbours if isinstance(design.faces.get(name), Temperature)]
+
+
+def step_level(design, coefficients) -> float:
+    """The prior sd the steps reach at the face's edge [face unit], from the coefficients of
+    a first fit: on a flux face |face mean| (a heater's end takes the flux to zero), on a
+    temperature face the spread (max - min) of its face map on a 21 x 24 grid (how much the
+    face varies where it is seen)."""
+    c = np.asarray(coefficients, float)
+    if design.quantity == "temperature":
+        pts = display_grid(design.face_name, design.cylinder, 21, 24)
+        B, k = design.face(pts.u, pts.v)
+        values = B @ c + k
+        return float(values.max() - values.min())
+    _, F, k = functional_matrix(design)
+    return abs(float(k[0] + F[0] @ c))
+
+
 def stretch_steps(design, rd, level):
-    """StretchSteps of the unknown-flux face of `design` for the sensors of `rd` with prior sd
-    `level` [face unit] at the edge, or None (no unseen stretch, a temperature face, level 0)."""
-    if design.quantity != "heat_flux" or not level > 0:
+    """StretchSteps of the unknown face of `design` for the sensors of `rd` with prior sd
+    `level` [face unit] at the edge (step_level): steps on a flux face, ramps on a
+    temperature face; None when there is no unseen stretch or the level is 0."""
+    if not level > 0:
         return None
-    zones = stretch_zones(design.face_name, design.cylinder, rd.r, rd.z, [x for _, x in pinned_edges(design)])
+    ramps = design.quantity == "temperature"
+    held = [x for _, x in pinned_edges(design)] + (_held_edges(design) if ramps else [])
+    zones = stretch_zones(design.face_name, design.cylinder, rd.r, rd.z, held, ramps)
     if not zones:
         return None
     return StretchSteps(design, zones, level, nearest_distance(design, rd.r, rd.z))

@@ -1,5 +1,5 @@
-"""Steps over an unseen edge stretch of a flux face (inverse/stretch.py), marginalized with the
-left-out modes (inverse/truncation.py).
+"""Steps (ramps on a temperature face) over an unseen edge stretch of the unknown face
+(inverse/stretch.py), marginalized with the left-out modes (inverse/truncation.py).
 
 The scenario-level check (a heater that ends where no sensor sees, its zone means within
 2 sd) is tests/test_scenarios.py's chuck_calibrated; here the pieces.
@@ -15,7 +15,8 @@ import heatsight.forward as fw
 from heatsight.inverse.design import Design
 from heatsight.inverse.functionals import functional_matrix
 from heatsight.inverse.readings import SensorReadings
-from heatsight.inverse.stretch import STEPS, stretch_steps, stretch_zones
+from heatsight.inverse.face_grid import display_grid
+from heatsight.inverse.stretch import STEPS, step_level, stretch_steps, stretch_zones
 from heatsight.inverse.truncation import functional_tails
 
 A, L, K = 0.15, 0.025, 170.0
@@ -50,13 +51,47 @@ def test_steps_lie_inside_the_unseen_stretch():
     assert stretch_zones("bottom", cyl, [0.05, 0.14], [0.01, 0.01]) == []
 
 
-def test_steps_only_on_a_flux_face_with_a_level():
+def test_steps_on_a_flux_face_need_a_level():
     d, rd = chuck_design(), chuck_sensors()
     assert stretch_steps(d, rd, 0.0) is None
     steps = stretch_steps(d, rd, 4000.0)
     assert steps is not None and steps.v == pytest.approx([4000.0 ** 2 / STEPS] * STEPS)
+    assert all(z.edge == 0.0 for z in steps.zones)
+
+
+def test_ramps_on_a_temperature_face():
+    # an unknown temperature departs continuously: each region is a linear ramp from its point
+    # (0) out to the rim (1), its prior variance level^2 / STEPS as for the steps
     faces = {"bottom": fw.UnknownTemperature(), "top": fw.Convection(300.0, 300.0), "side": fw.Insulated()}
-    assert stretch_steps(Design(fw.Cylinder(A, L, K), faces, 1e-6, 6, 8), rd, 40.0) is None
+    d, rd = Design(fw.Cylinder(A, L, K), faces, 1e-6, 6, 8), chuck_sensors()
+    steps = stretch_steps(d, rd, 12.0)
+    assert steps is not None and steps.v == pytest.approx([12.0 ** 2 / STEPS] * STEPS)
+    assert steps.summary()["unseen_stretch_steps_m"] == pytest.approx([0.12, 0.13, 0.14])
+    for zone, x in zip(steps.zones, (0.12, 0.13, 0.14)):
+        r = np.array([x - 0.002, x, 0.5 * (x + A), A])
+        H = steps.face(r, np.zeros(r.size))[0][:, steps.zones.index(zone)]
+        np.testing.assert_allclose(H, [0.0, 0.0, 0.5, 1.0], atol=1e-12)
+    # none beside a face held at a known temperature (the corner's value is known there)
+    held = dict(faces, side=fw.Temperature(350.0))
+    assert stretch_steps(Design(fw.Cylinder(A, L, K), held, 1e-6, 6, 8), rd, 12.0) is None
+
+
+def test_step_level_rule():
+    """A flux face's steps reach |face mean| at the edge, a temperature face's ramps the spread
+    (max - min) of the face map; both from the coefficients of a first fit."""
+    d = chuck_design()
+    c = np.zeros(d.basis.size)
+    c[0] = 1.0
+    names, F, k = functional_matrix(d)
+    assert step_level(d, c) == pytest.approx(abs(k[0] + F[0] @ c))
+    faces = {"bottom": fw.UnknownTemperature(), "top": fw.Convection(300.0, 300.0), "side": fw.Insulated()}
+    dt = Design(fw.Cylinder(A, L, K), faces, 1e-6, 6, 8)
+    ct = np.zeros(dt.basis.size)
+    ct[np.flatnonzero(dt.basis.m == 1)[0]] = 2.0       # a cos(theta) pattern: its map spans +-2 x its largest value
+    pts = display_grid("bottom", dt.cylinder, 21, 24)
+    values = dt.face(pts.u, pts.v)[0] @ ct + dt.face(pts.u, pts.v)[1]
+    assert step_level(dt, ct) == pytest.approx(values.max() - values.min())
+    assert step_level(dt, ct) > 0
 
 
 def test_steps_power_is_their_area():

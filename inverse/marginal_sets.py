@@ -1,0 +1,66 @@
+"""What a fit marginalized into its kept readings' noise, for the figures' shares and for
+planning: the left-out modes (truncation.py) and the unseen stretches' steps (stretch.py)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .functionals import functional_matrix
+from .truncation import functional_tails
+
+
+def functional_rows(columns, zones=()) -> dict:
+    """{name: row (T,)} of a marginalized set (LeftOutColumns, stretch.StretchSteps) on the
+    fit's quadrature rule: the face mean and each zone mean by name
+    (functionals.functional_matrix), the total power from the set's own powers()."""
+    names, F, _ = functional_matrix(columns, zones)
+    rows = dict(zip(names, F))
+    rows["total_power"] = np.asarray(columns.powers()[0], float)
+    return rows
+
+
+@dataclass
+class MarginalSets:
+    """The column sets a fit marginalized into its kept readings' noise: the left-out modes
+    `left` (LeftOutColumns or None) under the learned prior `prior`, the unseen stretches'
+    `steps` (stretch.StretchSteps or None), the kept readings `rd`, their noise covariance
+    `S` (n, n) [K^2] with both sets' signal, and the kept model columns' fields `X` (n, K)."""
+
+    left: object
+    prior: object
+    steps: object
+    rd: object
+    S: np.ndarray
+    X: np.ndarray
+
+    def rows(self, zones=()):
+        """(names, rows of `left` (q, T) or None, rows of `steps` (q, J) or None) for the total
+        power, the face mean and each zone mean (functional_rows; a zone one set's rule finds
+        empty, split at the other's edges too, takes no share of it)."""
+        tables = [None if c is None else functional_rows(c, zones) for c in (self.left, self.steps)]
+        first = next((t for t in tables if t is not None), None)
+        if first is None:
+            return [], None, None
+        names = ["total_power"] + [n for n in first if n != "total_power"]
+
+        def on(t):
+            if t is None:
+                return None
+            size = len(next(iter(t.values())))
+            return np.array([t.get(n, np.zeros(size)) for n in names])
+        return names, on(tables[0]), on(tables[1])
+
+    def shares(self, zones=(), with_steps=True, noise_covariance=None) -> dict:
+        """{name: (h (n,), variance)}: each figure's share of the sets given the residual r =
+        d - t0 - X c at the kept readings, value = k + f . c + h . r + e (functional_tails);
+        with_steps=False: the left-out modes' share alone, given the residual of the steps
+        too, under `noise_covariance` (the noise without the steps' signal)."""
+        names, left_rows, step_rows = self.rows(zones)
+        steps = self.steps if with_steps else None
+        if self.left is None and steps is None:
+            return {n: (np.zeros(self.rd.n), 0.0) for n in names}
+        S = self.S if noise_covariance is None else noise_covariance
+        return dict(zip(names, functional_tails(self.left, left_rows, self.rd, self.prior, S, steps,
+                                                step_rows if with_steps else None)))
