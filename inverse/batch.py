@@ -54,6 +54,7 @@ from .threads import few_threads
 from .face_grid import display_grid
 from .design import nominal_direction as _nominal_direction
 from .functionals import face_functionals  # noqa: F401  (also exported from here)
+from .truncation import face_tail
 
 #: grid (radial or axial x angular points) on which a trend searches the extremes; coarser
 #: than fit's 41 x 72 so that millions of rows stay quick (the MAP extremes move by a small
@@ -145,6 +146,11 @@ class BatchSolver:
             change_names = [n for n in self.names if n not in ("mean", "total_power")]
         self.change_names = list(change_names)
         self._functionals = [(n, F[i], float(self.kq[i])) for i, n in enumerate(self.names)]
+        # what a fit carries beyond this solver's single prior (with_fit_uncertainty): the
+        # functionals' (nf,) and the extreme-search grid's points' (Q,) variances
+        self.model_var = np.zeros(self.nf)
+        self.model_var_grid = np.zeros(self.Q)
+        self.grid_points = None     # the grid's face points (from_fit), for the grid's share
 
     # ------------------------------------------------------------------ construction
     @classmethod
@@ -168,9 +174,35 @@ class BatchSolver:
             grad = ev.gradient + np.einsum("dpk,k->dp", dG, result.posterior.c)
             shared = shared + (grad ** 2).sum(axis=0) * tol ** 2 / 3.0
         pts = display_grid(basis.face, cyl, *grid)
-        return cls(G, t0, P, result.posterior.alpha if alpha is None else alpha,
-                   face_functionals(design, zones), basis.face_values(pts.u, pts.v),
-                   basis.known_face_values(pts.u, pts.v), shared, _nominal_direction(basis))
+        solver = cls(G, t0, P, result.posterior.alpha if alpha is None else alpha,
+                     face_functionals(design, zones), basis.face_values(pts.u, pts.v),
+                     basis.known_face_values(pts.u, pts.v), shared, _nominal_direction(basis))
+        solver.grid_points = pts
+        return solver
+
+    def with_fit_uncertainty(self, result, d_ref, rv_ref) -> "BatchSolver":
+        """The same solver, its absolute figures also carrying what the fit `result` of the
+        reference row (readings d_ref (n,) [K], random variances rv_ref (n,) [K^2]) holds
+        beyond this solver's single prior at one strength -- the learned prior's left-out
+        modes, the unseen stretch's steps, the spread over its hyperparameters -- held the
+        same in every row, as the offsets are (a property of the layout and the prior, not of
+        a row's noise):
+            functional f:  var_f += max(var_f(fit) - var_f(this solver, reference row), 0),
+        so that the reference row's sds are the fit's; a point of the extreme-search grid: the
+        left-out modes' and steps' conditional variance there (truncation.face_tail on
+        FitResult.marginal).  Changes (`changes`) carry none of it: it cancels in them."""
+        S = result.summary
+        fit_sd = {"mean": S["mean_sd"], "total_power": S["total_power_sd_W"],
+                  **{z["name"]: z["sd"] for z in S.get("zones", [])}}
+        own = self.solve(np.asarray(d_ref, float)[None, :], np.asarray(rv_ref, float)).sd[0]
+        new = object.__new__(BatchSolver)
+        new.__dict__.update(self.__dict__)
+        new.model_var = np.array([max(fit_sd[name] ** 2 - own[i] ** 2, 0.0) if name in fit_sd and np.isfinite(own[i])
+                                  else 0.0 for i, name in enumerate(self.names)])
+        m = getattr(result, "marginal", None)
+        if m is not None and self.grid_points is not None and self.Q:
+            new.model_var_grid = face_tail(m.left, self.grid_points, m.prior, m.rd, m.S, m.steps)[1]
+        return new
 
     # ------------------------------------------------------------------ estimators
     def _estimators(self, v, noise):
@@ -345,7 +377,7 @@ class BatchSolver:
         eg, kg = e[:, nf:, :], self.kq[nf:]
         vals = x @ e[0, :nf, :].T if e.shape[0] == 1 else np.einsum("rqn,rn->rq", e[j, :nf, :], x)
         est.values[rows] = vals + self.kq[None, :nf]
-        est.sd[rows] = np.sqrt(np.maximum(var[j, :nf], 0.0))
+        est.sd[rows] = np.sqrt(np.maximum(var[j, :nf], 0.0) + self.model_var[None, :])
         if self.Q == 0:
             return
         if e.shape[0] == 1:
@@ -356,13 +388,16 @@ class BatchSolver:
         vmin = np.einsum("rn,rn->r", eg[j, imin], x) + kg[imin]
         vmax = np.einsum("rn,rn->r", eg[j, imax], x) + kg[imax]
         vg = var[:, nf:]
-        s_min, s_max = vg[j, imin], vg[j, imax]
+        m_min, m_max = self.model_var_grid[imin], self.model_var_grid[imax]
+        s_min, s_max = vg[j, imin] + m_min, vg[j, imax] + m_max
         pa, pb = phi[j, imax], phi[j, imin]
         seen = np.einsum("rk,rk,rk->r", pa, pb, inv[j])
         if self._gram is not None:
             total = self._gram[imax, imin]
         else:
             total = np.einsum("rk,rk->r", self.Fn[nf + imax], self.Fn[nf + imin])
+        # the grid's model share enters max - min as independent at the two points (it is
+        # positively correlated there when they are close: an upper bound)
         cov = seen + (total - np.einsum("rk,rk->r", pa, pb)) / self.alpha
         est.min[rows], est.max[rows] = vmin, vmax
         est.min_sd[rows], est.max_sd[rows] = np.sqrt(np.maximum(s_min, 0)), np.sqrt(np.maximum(s_max, 0))

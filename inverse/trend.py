@@ -5,8 +5,11 @@ Works on window statistics (inverse.steady.WindowStats) and arrays; no files.
 - Reference window (`choose_reference`): the first steady window that has settled (largest
   drift at most REFERENCE_DRIFT_FRACTION x the drift limit); else the first steady window,
   with a warning; else (only when streaming every Nth row) the steadiest complete window.
-- Model (`TrendModel.build`): the reference window is fitted (sensor screening), which fixes
-  the sensors of the whole trend.  Strength: the one the joint evidence of all steady windows
+- Model (`TrendModel.build`): the reference window is fitted as `fit` would (sensor
+  screening), which fixes the sensors of the whole trend; the absolute figures of every row
+  carry what that fit holds beyond the trend's single prior (BatchSolver.with_fit_uncertainty:
+  the learned prior's left-out modes, an unseen stretch's steps, its hyperparameters' spread),
+  so that the reference row's sds are the fit's; changes do not (it cancels).  Strength: the one the joint evidence of all steady windows
   prefers (windows mode, when the fit's rule is the evidence), else the reference window's own
   choice.  Changes from the reference are estimated from the readings' difference
   d_row - d_ref (offsets cancel) with variance S_row + S_ref, at the joint evidence of the
@@ -115,8 +118,9 @@ def no_steady_window(stats, drift_limit: float, window: float, names) -> TrendEr
 class TrendModel:
     """What the reference window fixes for the whole trend.
 
-    result: the reference fit (FitResult); used (n,) bool: sensors kept; solver, changes:
-    BatchSolvers of absolute values and of changes; tau (n,) offset sd [K]; ref_window
+    result: the reference fit (FitResult, as `fit` makes it); used (n,) bool: sensors kept
+    (set_aside: the others, by either fit); solver, changes: BatchSolvers of absolute values
+    (at the trend's strength, carrying the reference fit's further uncertainty) and of changes; tau (n,) offset sd [K]; ref_window
     (start, end) [s]; ref_d, ref_rv: reference readings [K] and their random variances [K^2]
     of the used sensors; strength_rule, change_rule: how the strengths were chosen."""
 
@@ -131,6 +135,7 @@ class TrendModel:
     strength_rule: str
     change_rule: str
     warnings: list = field(default_factory=list)
+    set_aside: list = field(default_factory=list)    # sensors left out of the trend
 
     @property
     def zone_names(self) -> list:
@@ -167,10 +172,9 @@ class TrendModel:
                                            position_tolerance=s.position_tolerance[u], zones=zones)
 
         joint = steady is not None and joint_evidence
-        # followed by the fit at the joint strength, this one gives only its screening, model
-        # and prior: its face map is never shown, so it is evaluated on a token grid (the bands
-        # on the display grid cost ~1.3 s of a 7 s part)
-        result = fit(rd, None, **({"grid": PROBE_GRID} if joint else {}))
+        # the reference fit, as `fit` makes it: the answer shown for the reference window, and
+        # what the trend's absolute figures carry beyond its single prior (with_fit_uncertainty)
+        result = fit(rd, None)
         aside = set(result.summary["set_aside"])
         used, solver = solver_for(result, aside)
         strength_rule = f"{result.summary['strength_method']} of the reference window"
@@ -179,10 +183,12 @@ class TrendModel:
         if joint:
             alpha, notes = solver.joint_strength(means[steady][:, used], sig2[steady][:, used])
             warnings.extend(notes)
-            result = fit(rd, alpha)
-            result.summary["strength_method"] = "evidence of all steady windows"
-            aside |= set(result.summary["set_aside"])
-            used, solver = solver_for(result, aside)
+            # the fit at the joint strength gives the trend's solver and its screening; its face
+            # map is never shown, so it is evaluated on a token grid (the bands on the display
+            # grid cost ~1.3 s of a 7 s part)
+            fixed = fit(rd, alpha, grid=PROBE_GRID)
+            aside |= set(fixed.summary["set_aside"])
+            used, solver = solver_for(fixed, aside)
             strength_rule = f"joint evidence of the {len(steady)} steady windows"
         for name in sorted(aside):
             warnings.append(f"sensor {name} was set aside in the reference window and is left out of the trend")
@@ -195,6 +201,7 @@ class TrendModel:
                             f"one zone shows in all of them; {cure}")
         ref_d = np.where(valid, mean, np.nan)[used]
         ref_rv = np.where(valid, sig ** 2, np.nan)[used]
+        solver = solver.with_fit_uncertainty(result, ref_d, np.where(np.isfinite(ref_rv), ref_rv, 1.0))
         changes = solver.changes()
         change_rule = "half the trend's strength (the prior of a difference of two profiles)"
         others = [] if steady is None else [w for w in steady if w != i]
@@ -205,7 +212,7 @@ class TrendModel:
             changes = solver.changes(alpha_c)
             change_rule = f"joint evidence of the {len(others)} differences to the reference window"
         return cls(result, used, solver, changes, tau, ref_window, ref_d, ref_rv, strength_rule, change_rule,
-                   warnings)
+                   warnings, sorted(aside))
 
     def changes_of(self, d, rv, reference_mask=None):
         """Changes of each zone from the reference and their noise-only sd, (R, zones) each:

@@ -119,10 +119,11 @@ def test_model_of_a_reference_window():
         trend.TrendModel.build(None, empty, 0, sensors, lambda level: (np.zeros(n), []), floor=0.05)
 
 
-def test_the_replaced_reference_fit_runs_on_a_token_grid():
-    """With the strength from all steady windows the reference window is fitted twice; only
-    the second answer is kept, so the first runs on trend.PROBE_GRID and the kept one on the
-    display grid (41 x 72 points by default)."""
+def test_the_joint_strength_fit_runs_on_a_token_grid():
+    """With the strength from all steady windows the reference window is fitted twice: as
+    `fit` would (the case's rule; the answer shown, on the display grid, 41 x 72 points by
+    default), then at the joint strength for the trend's solver, whose map nobody sees (on
+    trend.PROBE_GRID)."""
     from heatsight import inverse
 
     case, lay, t_nom, _, _ = platen()
@@ -141,5 +142,6 @@ def test_the_replaced_reference_fit_runs_on_a_token_grid():
 
     model = trend.TrendModel.build(fit, stats, 0, sensors, lambda level: (np.full(n, 0.3), []), floor=0.05,
                                    zones=case.zones, steady=np.flatnonzero(mask))
-    assert [kw for _, kw in calls] == [{"grid": trend.PROBE_GRID}, {}] and calls[1][0] is not None
+    assert [kw for _, kw in calls] == [{}, {"grid": trend.PROBE_GRID}]
+    assert calls[0][0] is None and calls[1][0] is not None
     assert len(model.result.grid) == 41 * 72 and model.strength_rule.startswith("joint evidence")
