@@ -144,7 +144,7 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
     learned = hasattr(post.averaged, "description") or "prior" in model_info
     warnings[:0] = [w for w in screen.warnings if not (learned and w in screen.choice.warnings)]
 
-    warnings += _layout_warnings(face, spec.cylinder, rd.subset(screen.kept))
+    warnings += _layout_warnings(face, spec.cylinder, rd.subset(screen.kept), steps, design.quantity)
     warnings += pinned_edge_notes(design)
     warnings += _unresolved_warnings(post, screen, columns, design, spec, rd)
     warnings += _misfit_warnings(screen)
@@ -297,10 +297,10 @@ def _learned(opts) -> bool:
 
 
 def _with_tail(problem, design, rd, P, u, ok, stretch=True):
-    """(problem, prior, steps): the modes the basis leaves out and the steps over an unseen
-    edge stretch of a flux face (stretch.py), marginalized into the noise (truncation.py), the
-    modes' variance from a first learned prior on the readings `ok` (those a first screening
-    kept), the steps' from the face mean under it; that prior; the StretchSteps or None
+    """(problem, prior, steps): the modes the basis leaves out and the steps (ramps on a
+    temperature face) over an unseen edge stretch (stretch.py), marginalized into the noise
+    (truncation.py), the modes' variance from a first learned prior on the readings `ok` (those
+    a first screening kept), the steps' from its face map (stretch.step_level); that prior; the StretchSteps or None
     (always None without `stretch`: with calibrated face parameters, whose answer would not
     carry the steps' share).  The steps' variance at each reading is marked as shared
     (Whitener's shared_variance), so that a reading's own sd leaves it out."""
@@ -671,10 +671,12 @@ def _misfit_warnings(screen):
     return []
 
 
-def _layout_warnings(face, cyl, rd):
+def _layout_warnings(face, cyl, rd, steps=None, quantity="heat_flux"):
+    """Layout notes for the kept sensors `rd`; steps: the fit's StretchSteps or None (the
+    edge-stretch note says whether this fit lets the stretch depart)."""
     out = []
     out += [note for note in (angular_note(face, cyl.radius, rd.r, rd.theta),
-                              edge_gap_note(face, cyl, rd.r, rd.z)) if note]
+                              edge_gap_note(face, cyl, rd.r, rd.z, steps is not None, quantity)) if note]
     dist = cyl.depth(face, rd.r, rd.z)
     size, what = (cyl.thickness, "wall thickness") if cyl.hollow else (cyl.radius, "radius")
     if dist.size and dist.min() > FAR_FRACTION * size:

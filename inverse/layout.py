@@ -85,15 +85,25 @@ def edge_gaps(face: str, cylinder, r, z) -> list:
     return gaps
 
 
-def edge_gap_note(face: str, cylinder, r, z) -> str | None:
-    """One sentence when the unknown face has an unseen edge stretch (edge_gaps), else None."""
+def edge_gap_note(face: str, cylinder, r, z, carried=None, quantity: str = "heat_flux") -> str | None:
+    """One sentence when the unknown face has an unseen edge stretch (edge_gaps), else None.
+    carried: does the fit let the stretch depart from the rest of the face (stretch.py: steps
+    of a heat flux, ramps of a temperature)?  None: said of fits in general (`check`)."""
     gaps = edge_gaps(face, cylinder, r, z)
     if not gaps:
         return None
     wall = is_wall(face)
     what = "z" if wall else "r"
     where = " and ".join(f"{what} = {a * 1e3:.4g}-{b * 1e3:.4g} mm" for a, b in gaps)
+    if carried is None:
+        how = ("a fit with the learned prior lets an unknown heat flux step, and an unknown temperature bend, "
+               "away from the rest of the face there, which widens its bands")
+    elif carried:
+        how = (f"this fit lets the {'temperature bend' if quantity == 'temperature' else 'heat flux step'} away "
+               f"from the rest of the face there, which widens its bands")
+    else:
+        how = ("this fit does not let the face depart there (calibrated face parameters, a fixed prior, or an "
+               "edge held by the series or by a known temperature), so its bands there can be too narrow")
     return (f"no sensor over the {face} face's edge stretch {where}: the readings cannot see where a heater "
-            f"ends, an inlet or a cooled end there (the fit lets an unknown heat flux step, and an unknown "
-            f"temperature bend, away from the rest of the face there, which widens its bands); "
+            f"ends, an inlet or a cooled end there ({how}); "
             f"a thermocouple near {'that edge' if len(gaps) == 1 else 'each of those edges'} settles it")

@@ -29,9 +29,9 @@ an approximation, said in `source`.  With the learned prior, the fit's readings 
 left-out modes' signal (truncation.py: a full noise covariance): C is still the fit's, and
 each candidate's noise variance adds its own share of those modes (`PlanState.variances`),
 but a new sensor's share is taken as independent of the others' (approximate: the exact
-refit would correlate them).  Steps over an unseen edge stretch of a flux face (stretch.py),
-which the fit marginalizes, are part of the state, x = (c, s, [b_c]) (plan_steps.py): a
-sensor over the stretch settles them, and the plan credits it.  Without readings the prior has fixed hyperparameters:
+refit would correlate them).  Steps (ramps on a temperature face) over an unseen edge
+stretch (stretch.py), which the fit marginalizes, are part of the state, x = (c, s, [b_c])
+(plan_steps.py): a sensor over the stretch settles them, and the plan credits it.  Without readings the prior has fixed hyperparameters:
 l = the face size, smoothness nu = 1 (exponent nu + d/2), amplitude sigma_f = the expected
 variation the user states (sigma_f^2 = sum_k' 1 / (alpha w_k), hyperprior.py), i.e. alpha = sum_k' 1 / w_k / sigma_f^2.
 """

@@ -19,8 +19,9 @@ the total power, the face mean and the zone means.
 
 On an unknown-temperature face the departure is continuous: each H_j is then a linear ramp
 from its point (0) to the face's edge (1), a cooled end or an inlet bending the profile away
-from what the sensors see, and `level` is how much the face varies where it is seen (the
-spread, max - min, of the first fit's face map [K]): the tube demo's bore at the liquid's
+from what the sensors see, and `level` is the spread (max - min) of the first fit's face map
+[K] (mostly how much the face varies where it is seen: over an unseen stretch that map
+extrapolates): the tube demo's bore at the liquid's
 inlet, 16 K under the flat extrapolation of four stations 130 mm apart, lay 3 sd outside
 the bands before.  None at an edge the series holds (pinned_edges.pinned_edges) nor, on a
 temperature face, beside a face held at a known temperature (the corner's value is known).
@@ -144,8 +145,9 @@ def _held_edges(design) -> list:
 def step_level(design, coefficients) -> float:
     """The prior sd the steps reach at the face's edge [face unit], from the coefficients of
     a first fit: on a flux face |face mean| (a heater's end takes the flux to zero), on a
-    temperature face the spread (max - min) of its face map on a 21 x 24 grid (how much the
-    face varies where it is seen)."""
+    temperature face the spread (max - min) of its face map on a 21 x 24 grid over the whole
+    face (mostly how much the face varies where it is seen; the map extrapolates over an
+    unseen stretch)."""
     c = np.asarray(coefficients, float)
     if design.quantity == "temperature":
         pts = display_grid(design.face_name, design.cylinder, 21, 24)

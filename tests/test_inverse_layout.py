@@ -50,6 +50,11 @@ def test_edge_gap_note_cases():
     z = np.array([0.12, 0.25, 0.37, 0.48])                     # the tube demo's four heights
     note = edge_gap_note("bore", tube, np.full(4, 0.06), z)
     assert "z = 0-120 mm and z = 480-600 mm" in note and "each of those edges" in note
+    # what the note says the fit does there: in general (check), as this fit does, or not
+    assert "a fit with the learned prior lets" in note
+    assert "lets the temperature bend" in edge_gap_note("bore", tube, np.full(4, 0.06), z, True, "temperature")
+    assert "lets the heat flux step" in edge_gap_note("bore", tube, np.full(4, 0.06), z, True, "heat_flux")
+    assert "can be too narrow" in edge_gap_note("bore", tube, np.full(4, 0.06), z, False, "temperature")
     spread = np.array([0.05, 0.3, 0.55])                       # within 0.15 x 600 mm of both ends
     assert edge_gap_note("bore", tube, np.full(3, 0.06), spread) is None
     # just inside and just beyond the fraction at the bottom end

@@ -77,21 +77,46 @@ def test_ramps_on_a_temperature_face():
 
 
 def test_step_level_rule():
-    """A flux face's steps reach |face mean| at the edge, a temperature face's ramps the spread
-    (max - min) of the face map; both from the coefficients of a first fit."""
+    """A flux face's steps reach |face mean| at the edge: the sign of the face does not
+    matter.  A temperature face's ramps reach the spread (max - min) of its map: for one
+    cos(theta) mode of amplitude f(r) over a uniform known part, twice the largest |f| on the
+    grid's radii (the grid's angles include 0 and 180 deg), whatever the mode's sign."""
     d = chuck_design()
     c = np.zeros(d.basis.size)
     c[0] = 1.0
     names, F, k = functional_matrix(d)
-    assert step_level(d, c) == pytest.approx(abs(k[0] + F[0] @ c))
+    assert k[0] == 0.0 and step_level(d, c) == pytest.approx(abs(F[0] @ c)) == pytest.approx(step_level(d, -c))
     faces = {"bottom": fw.UnknownTemperature(), "top": fw.Convection(300.0, 300.0), "side": fw.Insulated()}
     dt = Design(fw.Cylinder(A, L, K), faces, 1e-6, 6, 8)
     ct = np.zeros(dt.basis.size)
-    ct[np.flatnonzero(dt.basis.m == 1)[0]] = 2.0       # a cos(theta) pattern: its map spans +-2 x its largest value
-    pts = display_grid("bottom", dt.cylinder, 21, 24)
-    values = dt.face(pts.u, pts.v)[0] @ ct + dt.face(pts.u, pts.v)[1]
-    assert step_level(dt, ct) == pytest.approx(values.max() - values.min())
-    assert step_level(dt, ct) > 0
+    ct[np.flatnonzero((dt.basis.m == 1) & (np.arange(dt.basis.size) < dt.basis.n_eigen))[0]] = 2.0
+    radii = display_grid("bottom", dt.cylinder, 21, 24).r
+    B, known = dt.face(np.unique(radii), np.zeros(np.unique(radii).size))
+    assert np.ptp(known) == 0.0          # a uniform known part (the top's ambient) does not count
+    assert step_level(dt, ct) == pytest.approx(2 * np.abs(B @ ct).max(), rel=1e-12)
+    assert step_level(dt, -ct) == pytest.approx(step_level(dt, ct), rel=1e-12)
+
+
+def test_ramps_match_the_series_with_that_face_temperature():
+    """Each ramp's field at points near the rim and its heat into the part (projected on the
+    enlarged basis, as the zone model's columns are) against heatsight's forward series
+    solved with that ramp as the bottom's known temperature (the exact Dirichlet series, no
+    projection): 1e-3 of the ramp's level, 1e-3 of the power."""
+    faces = {"bottom": fw.UnknownTemperature(), "top": fw.Convection(300.0, 300.0), "side": fw.Insulated()}
+    cyl = fw.Cylinder(A, L, K)
+    steps = stretch_steps(Design(cyl, faces, 1e-6, 6, 8), chuck_sensors(), 12.0)
+    r = np.array([0.10, 0.12, 0.13, 0.14, 0.149])
+    th, z = np.zeros(r.size), np.full(r.size, 0.01)
+    G = steps.fields(r, th, z)
+    base = fw.CylinderModel(cyl, dict(faces, bottom=fw.Temperature(300.0)), tolerance=1e-8)
+    for j, zone in enumerate(steps.zones):
+        def ramp(rr, tt, zone=zone):
+            return 300.0 + zone.along(np.asarray(rr, float), A, 0.0) * np.ones_like(np.asarray(tt, float))
+        model = fw.CylinderModel(cyl, dict(faces, bottom=fw.Temperature(ramp)), tolerance=1e-8)
+        T = model.evaluate(r, th, z).temperature - base.evaluate(r, th, z).temperature
+        np.testing.assert_allclose(G[:, j], T, atol=1e-3)
+        power = model.face_power("bottom") - base.face_power("bottom")
+        assert steps.powers()[0][j] == pytest.approx(power, rel=1e-3)
 
 
 def test_steps_power_is_their_area():

@@ -126,3 +126,15 @@ def test_first_pick_settles_the_unseen_stretch(fitted):
     assert r[plan.picks[0]] > OUTERMOST + 0.01
     outer = plan.target_names.index("outer")
     assert plan.sd[1, outer] < 0.75 * plan.sd[0, outer]
+
+
+def test_zone_model_state_starts_from_the_fit(fitted):
+    """The zone model's columns (its levels after the face modes) take the steps after them
+    too: the planner's sds before any pick are the zone fit's reported ones."""
+    case, res = fitted
+    zres = inverse.fit(case, res.readings, harmonics=6, terms=6, grid=(4, 8), model="zones")
+    assert zres.marginal is not None and zres.marginal.steps is not None
+    state = pl.state_from_fit(zres, ["zones", "power"], case.zones)
+    assert state.C.shape[0] == zres.design.size + zres.marginal.steps.v.size
+    reported = [z["sd"] for z in zres.summary["zones"]] + [zres.summary["total_power_sd_W"]]
+    np.testing.assert_allclose(state.target_sd(), reported, rtol=1e-6)
