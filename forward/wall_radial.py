@@ -101,9 +101,13 @@ class WallRadial:
         return self.c1 * f1 - self.c2 * f2, self.c1 * d1 - self.c2 * d2
 
     def values(self, r):
-        """q, dq/dr [1/m] and m q / r [1/m] at radii r (P,), each (P, K)."""
+        """q, dq/dr [1/m] and m q / r [1/m] at radii r (P,), each (P, K).  The Bessel
+        functions are evaluated once per distinct radius: points of a grid, the layers of a
+        plan's candidates or sensors drilled to a few depths share a handful of radii."""
         r = np.asarray(r, float).ravel()
-        n, dn = self._combination(r)
+        radii, back = np.unique(r, return_inverse=True)          # sorted: always map back
+        n, dn = self._combination(radii)
+        n, dn = n[back.ravel()], dn[back.ravel()]
         q, dq = n / self.n_w, dn / self.n_w
         return q, dq, self.m * q / r[:, None]
 

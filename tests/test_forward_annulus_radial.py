@@ -347,3 +347,19 @@ def test_scaled_modified_bessel_and_derivative_match_mpmath(kind):
                     continue                    # beyond double range: scaled out of the fit's use
                 assert float(f[i]) == pytest.approx(float(ref_f), rel=1e-12)
                 assert float(df[i]) == pytest.approx(float(ref_df), rel=1e-12)
+
+
+def test_wall_radial_values_in_any_order_and_with_repeats():
+    """WallRadial.values evaluates the Bessel functions once per distinct radius: radii given
+    unsorted, distinct or repeated, give each radius's own values (each evaluated alone)."""
+    from heatsight.forward.faces import EndCondition as EC
+    from heatsight.forward.wall_radial import WallRadial
+    m = np.array([0, 0, 1, 3, 7])
+    beta = np.array([0.0, 12.0, 5.0, 40.0, 300.0])
+    wr = WallRadial("side", EC("R", 600.0), m, beta, 0.05, 0.08, 45.0)
+    for r in (np.array([0.07, 0.051, 0.079, 0.06]), np.array([0.06, 0.07, 0.06, 0.051, 0.07])):
+        q, dq, mq = wr.values(r)
+        for i, ri in enumerate(r):
+            one = wr.values(np.array([ri]))
+            for got, want in zip((q, dq, mq), one):
+                np.testing.assert_array_equal(got[i], want[0])
