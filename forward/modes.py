@@ -28,12 +28,15 @@ __all__ = ["EndCondition", "EndFaceModes", "SideModes"]
 
 
 def _theta_parts(m, is_sin, theta):
-    """Theta_m(theta) and dTheta/dtheta / m (so m = 0 needs no special case)."""
-    arg = np.multiply.outer(theta, m)
+    """Theta_m(theta) and dTheta/dtheta / m (so m = 0 needs no special case).  cos and sin
+    are taken once per distinct angle (sensors on a few radial lines, a plan's candidate
+    grid) and gathered: the same numbers."""
+    theta = np.asarray(theta, float)
+    angles, back = np.unique(theta, return_inverse=True)
+    back = back.reshape(theta.shape)
+    arg = np.multiply.outer(angles, m)
     c, s = np.cos(arg), np.sin(arg)
-    th = np.where(is_sin, s, c)
-    dth_over_m = np.where(is_sin, c, -s)
-    return th, dth_over_m
+    return np.where(is_sin, s, c)[back], np.where(is_sin, c, -s)[back]
 
 
 @dataclass

@@ -363,3 +363,4 @@ def test_wall_radial_values_in_any_order_and_with_repeats():
             one = wr.values(np.array([ri]))
             for got, want in zip((q, dq, mq), one):
                 np.testing.assert_array_equal(got[i], want[0])
+

@@ -179,3 +179,16 @@ def test_one_order_lookup_equals_the_array_path_and_scipy():
         assert np.array_equal(one, table(np.full(x.shape, m), x))
         assert np.abs(one - special.jv(m, x)).max() < 1e-12  # scipy.special.jv
     assert np.array_equal(bessel.besselj(-1, x[:3]), -bessel.besselj(1, x[:3]))  # J_{-1} = -J_1
+
+
+def test_theta_parts_in_any_order_and_with_repeats():
+    """modes._theta_parts takes cos / sin once per distinct angle: the same numbers as
+    cos(m theta), sin(m theta) (numpy) at every point, angles unsorted and repeated."""
+    from heatsight.forward.modes import _theta_parts
+    m = np.array([0, 1, 1, 4, 9])
+    is_sin = np.array([False, False, True, True, False])
+    theta = np.array([[2.0, 0.1, 2.0], [5.5, 0.1, 3.0]])
+    th, dth = _theta_parts(m, is_sin, theta)
+    arg = theta[..., None] * m
+    np.testing.assert_array_equal(th, np.where(is_sin, np.sin(arg), np.cos(arg)))
+    np.testing.assert_array_equal(dth, np.where(is_sin, np.cos(arg), -np.sin(arg)))
