@@ -115,14 +115,17 @@ class EndFaceModes:
         return np.asarray(z, float) if self.face == "bottom" else self.height - np.asarray(z, float)
 
     def fields(self, r, theta, z, gradient=True):
-        """Temperature per unit coefficient (P, K) and, optionally, its gradient (3, P, K)."""
+        """Temperature per unit coefficient (P, K) and, optionally, its gradient (3, P, K).
+        The Bessel functions are evaluated once per distinct radius and gathered."""
         r = np.asarray(r, float)
-        x = np.multiply.outer(r, self.kappa)
+        radii, back = np.unique(r, return_inverse=True)
+        back = back.reshape(r.shape)
+        x = np.multiply.outer(radii, self.kappa)
         th, dth = _theta_parts(self.m, self.is_sin, np.asarray(theta, float))
         zh, dzh = self.axial(self.zeta(z))
         if not gradient:
-            return besselj(self.m, x) * th * zh, None
-        jm1, j, jp1 = besselj_triplet(self.m, x)
+            return besselj(self.m, x)[back] * th * zh, None
+        jm1, j, jp1 = (f[back] for f in besselj_triplet(self.m, x))
         t = j * th * zh
         sign = 1.0 if self.face == "bottom" else -1.0
         grad = np.stack([
