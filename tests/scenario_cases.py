@@ -406,11 +406,58 @@ def _hollow(name):
     return make_hollow
 
 
+# ------------------------------------------------------------------ the bundled tube demo
+_TUBE_DEMO: dict = {}
+
+
+def _tube_demo_fem(fine=False):
+    """The tube demo's FEM solution (demo_data/generate_tube_demo.py: scikit-fem, a
+    fixed point over the fouled bore's coupled harmonics), once per process; fine: twice the
+    cells and harmonics up to 24 (its own convergence check)."""
+    from heatsight.demo_data import generate_tube_demo as gen
+
+    if fine not in _TUBE_DEMO:
+        _TUBE_DEMO[fine] = gen.solve(nr=24, nz=600, m_max=24)[0] if fine else gen.solve()[0]
+    return gen, _TUBE_DEMO[fine]
+
+
+def tube_demo(seed=0, scale=1.0):
+    """The bundled tube demo (demo_data/tube): a steel process tube's bore temperature
+    under two band heaters, fouled around 200 deg, the liquid entering at the bottom at
+    190 degC; four stations of five thermocouples at z = 120-480 mm of 600 (none near the
+    ends, the stations level with the heaters' edges); TC13 reads 5 K high.  Seed 0 is the
+    bundled readings' noise; the FEM's own mesh (scale is not used)."""
+    from heatsight.data_io.case import load_case
+
+    gen, sols = _tube_demo_fem()
+    demo = load_case(gen.OUT / "tube.toml", purpose="fit")
+    layout = gen.sensors()
+    names = [x[0] for x in layout]
+    r, theta, z = (np.array([x[i] for x in layout], float) for i in (1, 2, 3))
+    r, theta, z = r * 1e-3, np.radians(theta), z * 1e-3
+    T = gen.field(sols, r, theta, z) + np.random.default_rng(gen.SEED + seed).normal(0.0, gen.SIGMA, r.size)
+    T[names.index(gen.BAD_SENSOR)] += gen.BAD_OFFSET
+    rd = inverse.SensorReadings(names, r, theta, z, T, gen.SIGMA, 0.0, 0.0)
+    case = types.SimpleNamespace(cylinder=demo.cylinder, faces=dict(demo.faces), zones=list(demo.zones),
+                                 fit=types.SimpleNamespace())
+
+    def truth(u, v):
+        u, v = np.asarray(u, float), np.asarray(v, float)
+        angles, ia = np.unique(u, return_inverse=True)
+        heights, iz = np.unique(v, return_inverse=True)
+        return gen.bore_field(sols, angles, heights)[ia.reshape(u.shape), iz.reshape(v.shape)]
+    th, zb, Tb, _ = gen.bore_truth(sols, np.linspace(0.0, gen.L, 1201))
+    means = gen.zone_means(th, zb, Tb)
+    return Scenario("tube_demo", tube_demo.__doc__, case, rd, truth, "bore",
+                    float(sols[(0, "cos")].heat_in("bore")), means, (gen.BAD_SENSOR,), {}, 0.5, True,
+                    {"fem": "demo_data/generate_tube_demo.py"})
+
+
 SCENARIOS = {f.__name__: f for f in (platen_flux, platen_heater_zones, top_temperature, wall_temperature, side_flux,
                                      semi_infinite, sparse_sector, chuck_class2, chuck_calibrated,
                                      calibrated_convection, three_rings, three_rings_zones,
                                      wall_cooled_end, _hollow("tube_bore_temperature"),
-                                     _hollow("tube_bore_flux"), _hollow("tube_cooled_end"))}
+                                     _hollow("tube_bore_flux"), _hollow("tube_cooled_end"), tube_demo)}
 NAMES = tuple(SCENARIOS)
 
 
@@ -429,6 +476,14 @@ def mesh_check(name, scale=1.0):
 
     if name in scenario_hollow.NAMES:
         return scenario_hollow.mesh_check(name, scale)
+    if name == "tube_demo":
+        scn = make(name)
+        gen, coarse = _tube_demo_fem()
+        _, fine = _tube_demo_fem(fine=True)
+        rd = scn.readings
+        diff = float(np.abs(gen.field(fine, rd.r, rd.theta, rd.z) - gen.field(coarse, rd.r, rd.theta, rd.z)).max())
+        heat = {"fem_heat_in": coarse[(0, "cos")].heat_in("bore")}, {"fem_heat_in": fine[(0, "cos")].heat_in("bore")}
+        return diff, float(rd.sigma.min()), heat[0], heat[1]
     scn = make(name, scale=scale)
     truth, phys, pos = _PHYSICS[name]
     lvl1 = fem_readings(name, truth, phys, pos, scale, level=1)
