@@ -131,7 +131,7 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
             first.choose_level_scale(_screen(first.marginal, rd, opts, gross).kept, leading)
         # the zone models' learned priors take the smooth model's length scales (widened or
         # not, hyperprior.learn_prior): both models are compared on one grid of length scales
-        # and one amplitude hyperprior (the remainder's orders are smooth: zones.REMAINDER_SMOOTHNESS)
+        # and one amplitude hyperprior
         first.add_tail(design, rd, u > 0, _screen(first.marginal, rd, opts, gross).kept, like=learned_prior,
                        extra=0.0 if steps is None else steps.covariance)
         for other in zone_models[1:]:

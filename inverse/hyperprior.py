@@ -57,7 +57,7 @@ Hyperpriors (proper, weakly informative):
   (`length_scale_range_widened_from_m`); a warning remains only if the cap stops it still
   pressed.  A fit decides this on the smooth model's learned prior, and the zone models'
   remainders take the same grid (`like`): the models are compared on one grid of length
-  scales (the remainder's orders are its own: zones.REMAINDER_SMOOTHNESS).
+  scales and orders.
 - log2 rho ~ N(1, 1) on the points rho = 2^-2 ... 2^4 (AXISYMMETRIC_RATIOS, weights
   normalized over the points; the outer points lie 3 sd out). Heaters are mostly rings and
   bands, so a face's profile along its radius (or its height) usually varies more than it
@@ -535,21 +535,19 @@ class LearnedPrior:
 
 
 def learn_prior(problem: LinearGaussianProblem, basis, nominal=None, nominal_factor: float = 1.0,
-                spread=None, like=None, smoothness=None) -> LearnedPrior:
+                spread=None, like=None) -> LearnedPrior:
     """Posterior of the unknown face averaged over strength, length scale, order, axisymmetric
     ratio and profile dimension (see module doc).  like: an earlier LearnedPrior of the same
     fit whose length scales (and their widening) this one shares, so that every model of a fit
     is compared on one grid of length scales; without it the range is widened at its long end, two
     points of its own log step at a time, while the points short of the smooth limit hold more
     than LONG_END_MASS of the weight at its two longest values (the top at most MAX_LENGTH x D;
-    the description says so).  smoothness: the Matern orders nu averaged over (default
-    SMOOTHNESS; the zone model's remainder takes zones.REMAINDER_SMOOTHNESS)."""
+    the description says so)."""
     if like is not None:
-        lp = LearnedPrior(problem, basis, nominal, nominal_factor, lengths=like.lengths, spread=spread,
-                          smoothness=smoothness)
+        lp = LearnedPrior(problem, basis, nominal, nominal_factor, lengths=like.lengths, spread=spread)
         lp.widened_from = like.widened_from
         return lp
-    lp = LearnedPrior(problem, basis, nominal, nominal_factor, spread=spread, smoothness=smoothness)
+    lp = LearnedPrior(problem, basis, nominal, nominal_factor, spread=spread)
     start, top = lp.length_range, MAX_LENGTH * face_size(basis) * (1.0 + 1e-9)
     while lp.lengths.size >= 4 and lp._long_end()[0] > LONG_END_MASS:
         step = lp.lengths[-1] / lp.lengths[-2]
@@ -557,6 +555,6 @@ def learn_prior(problem: LinearGaussianProblem, basis, nominal=None, nominal_fac
         if more[-1] > top:
             break
         lp = LearnedPrior(problem, basis, nominal, nominal_factor, lengths=np.append(lp.lengths, more),
-                          spread=spread, smoothness=smoothness)
+                          spread=spread)
     lp.widened_from = start if lp.length_range != start else None
     return lp

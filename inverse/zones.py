@@ -10,8 +10,9 @@ which converges at interior sensors (each mode decays into the part).
 Priors: the remainder c ~ N(0, (alpha P)^-1), P the smooth model's prior with its nearly
 flat nominal level (a background between and around the zones). With the learned prior
 (the default) P is the Whittle-Matern family of hyperprior.py, its strength, length scale
-and order averaged by the remainder's own evidence (the smooth orders REMAINDER_SMOOTHNESS
-only: the levels carry the steps), the amplitude scale the smooth model's
+and order averaged by the remainder's own evidence (over the smooth model's orders: the
+readings cannot tell them apart, and between sensors the rough ones are what keeps the bands
+honest), the amplitude scale the smooth model's
 (`remainder_spread`, `learned_fit`); with the fixed prior, P = prior_diagonal
 and the strength alone is averaged (`fit`); z ~ N(0, diag(s^2)): a zone's level departs from
 the background's by a prior amount. With the learned prior s_j = f sigma_f for the zones of a
@@ -91,13 +92,6 @@ EDGE_ROOM = 0.5
 #: ... and at most this share of the zone's own extent (along, and around at its radius): a
 #: ramp as wide as the zone leaves it no plateau
 OWN_ROOM = 0.5
-#: Matern smoothness nu of the zone model's remainder (hyperprior.SMOOTHNESS: the smooth
-#: model's, from 0.25): the levels carry the steps at the declared edges, so what is left is
-#: smooth: nu >= 1 (differentiable in mean square for nu > 1, at the edge of it for nu = 1).  With the rough orders the remainder's
-#: modes beyond the basis doubled the bands (tube_bore_flux, 3 seeds: sharpness 1.03 -> 0.63,
-#: relative RMS 0.27 -> 0.30, coverage 0.99 -> 0.96, zones 21/21 both ways); where the
-#: declared zones miss a step the smooth model, rough orders and all, takes the weight.
-REMAINDER_SMOOTHNESS = (1.0, 1.5, 2.0)
 
 
 def zone_breaks(zone, side, radius):
@@ -580,9 +574,9 @@ class ZoneModel:
 
     def _learn_remainder(self, idx, basis, nominal, nominal_factor, like):
         """The remainder's LearnedPrior on the marginal problem of the readings `idx`: the
-        smooth model's amplitude scale and length scales (`like`), the orders REMAINDER_SMOOTHNESS."""
+        smooth model's amplitude scale and length scales (`like`) and its orders."""
         return learn_prior(self.marginal.subset(idx), basis, nominal=nominal, nominal_factor=nominal_factor,
-                           spread=self.remainder_spread(idx), like=like, smoothness=REMAINDER_SMOOTHNESS)
+                           spread=self.remainder_spread(idx), like=like)
 
     def _remainder_prior(self, kept, basis, nominal, nominal_factor, like):
         """The remainder's LearnedPrior on the marginal problem of the readings `kept`, kept

@@ -63,9 +63,9 @@ HOLLOW = ("tube_bore_temperature", "tube_bore_flux")  # issue 11: the bore of a 
 # their own (ZoneModel.choose_level_scale, level_sets): the tube bore flux's sharpness (1.17 ->
 # 0.99; its four quadrant zones, declared to be reported, no longer charge the zone model four
 # levels' Occam factors); lost: calibrated convection's relative RMS (0.50 -> 0.57).  Since
-# the zone model's remainder is smooth (zones.REMAINDER_SMOOTHNESS, nu >= 1) and edge ramps may
-# take half the gap between zones (zones.EDGE_ROOM): the tube bore flux's sharpness 0.99 ->
-# 0.62; platen_heater_zones (added then: the platen's readings, its zones declared as the
+# the zone model's remainder was smooth (nu >= 1, session 29; the smooth model's orders again
+# since session 30) and edge ramps may take half the gap between zones (zones.EDGE_ROOM): the
+# tube bore flux's sharpness 0.99 -> 0.62 (0.99 again with the rough orders, seed 0); platen_heater_zones (added then: the platen's readings, its zones declared as the
 # heaters) zone means 1/3 -> 3/3 (3.0 / 2.0 / 3.0 -> 1.6 / 0.9 / 1.6 sd), coverage 0.67 -> 0.84.
 # Since the unseen edge stretch of a flux face may step (inverse/stretch.py): chuck_calibrated
 # (added then) zone means 1/4 -> 4/4 (-3.2 / -0.5 / -3.1 / -3.6 -> -1.5 / +0.4 / -1.5 / -1.5 sd)
