@@ -140,8 +140,11 @@ def trend_html(summary: dict, figure_png: bytes, reader_timestamps: bool) -> str
     parts.append(f'<figure id="figure-trend"><img alt="{e(caption)}" src="data:image/png;base64,{data}">'
                  f"<figcaption>{e(caption)}</figcaption></figure>")
     parts += [f"<p>Inverted: {e(what)}, from {e(summary['rows_read'])} logged rows. The reference is the first "
-              f"steady window ({e(when)}); its fit is the one reported above, and it fixes the smoothing "
-              f"strength and the sensors of the whole trend.</p>",
+              f"steady window ({e(when)}); its fit, made as `fit` makes it, is the one reported above. "
+              f"The trend uses the sensors it kept (less any the trend's own strength sets aside, named in the "
+              f"warnings); its smoothing strength comes from the {e(summary['strength_method'])}. Every row's "
+              f"absolute figures also carry what that fit knows it cannot see, so their sds are at least the "
+              f"fit's.</p>",
               f"<p>A zone's change is estimated from the difference of the readings to the reference window, "
               f"in which the thermocouple offsets (the same at every time) cancel; its uncertainty is that of "
               f"the random noise only. A zone is flagged when its change exceeds "

@@ -187,21 +187,30 @@ class BatchSolver:
         modes, the unseen stretch's steps, the spread over its hyperparameters -- held the
         same in every row, as the offsets are (a property of the layout and the prior, not of
         a row's noise):
-            functional f:  var_f += max(var_f(fit) - var_f(this solver, reference row), 0),
-        so that the reference row's sds are the fit's; a point of the extreme-search grid: the
-        left-out modes' and steps' conditional variance there (truncation.face_tail on
-        FitResult.marginal).  Changes (`changes`) carry none of it: it cancels in them."""
+            var += max(var(fit) - var(this solver, reference row), 0)
+        for each functional (mean, power, zone means) and each point of the extreme-search
+        grid (the fit's pointwise variance there with the left-out modes' and steps' share,
+        truncation.face_tail on FitResult.marginal), so that the reference row's sds are at
+        least the fit's (equal where the fit's are the wider).  Changes (`changes`) carry none
+        of it: it cancels in them."""
         S = result.summary
         fit_sd = {"mean": S["mean_sd"], "total_power": S["total_power_sd_W"],
                   **{z["name"]: z["sd"] for z in S.get("zones", [])}}
-        own = self.solve(np.asarray(d_ref, float)[None, :], np.asarray(rv_ref, float)).sd[0]
+        d_ref, rv_ref = np.asarray(d_ref, float), np.asarray(rv_ref, float)
+        own = self.solve(d_ref[None, :], rv_ref).sd[0]
         new = object.__new__(BatchSolver)
         new.__dict__.update(self.__dict__)
         new.model_var = np.array([max(fit_sd[name] ** 2 - own[i] ** 2, 0.0) if name in fit_sd and np.isfinite(own[i])
                                   else 0.0 for i, name in enumerate(self.names)])
-        m = getattr(result, "marginal", None)
-        if m is not None and self.grid_points is not None and self.Q:
-            new.model_var_grid = face_tail(m.left, self.grid_points, m.prior, m.rd, m.S, m.steps)[1]
+        if self.grid_points is not None and self.Q:
+            pts = self.grid_points
+            fit_var = result.face_profile(pts.u, pts.v)[1] ** 2
+            m = getattr(result, "marginal", None)
+            if m is not None:
+                fit_var = fit_var + face_tail(m.left, pts, m.prior, m.rd, m.S, m.steps)[1]
+            v = np.isfinite(d_ref)
+            own_grid = self._estimators(v, (rv_ref[v] + self.shared_var[v])[None, :])[1][0, self.nf:]
+            new.model_var_grid = np.maximum(fit_var - own_grid, 0.0)
         return new
 
     # ------------------------------------------------------------------ estimators
@@ -226,12 +235,14 @@ class BatchSolver:
         return e, var, phi[:, self.nf:, :], inv
 
     def with_alpha(self, alpha) -> "BatchSolver":
-        """The same solver at another strength."""
+        """The same solver at another strength (without a fit's further uncertainty, which
+        with_fit_uncertainty sets for one strength)."""
         new = object.__new__(BatchSolver)
         new.__dict__.update(self.__dict__)
         if not (np.isfinite(alpha) and alpha > 0):
             raise InverseError("alpha must be positive and finite")
         new.alpha = float(alpha)
+        new.model_var, new.model_var_grid = np.zeros(self.nf), np.zeros(self.Q)
         return new
 
     def changes(self, alpha=None) -> "BatchSolver":
@@ -396,8 +407,8 @@ class BatchSolver:
             total = self._gram[imax, imin]
         else:
             total = np.einsum("rk,rk->r", self.Fn[nf + imax], self.Fn[nf + imin])
-        # the grid's model share enters max - min as independent at the two points (it is
-        # positively correlated there when they are close: an upper bound)
+        # the grid's model share enters max - min as independent at the two points (approximate:
+        # it is correlated there)
         cov = seen + (total - np.einsum("rk,rk->r", pa, pb)) / self.alpha
         est.min[rows], est.max[rows] = vmin, vmax
         est.min_sd[rows], est.max_sd[rows] = np.sqrt(np.maximum(s_min, 0)), np.sqrt(np.maximum(s_max, 0))

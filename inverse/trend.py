@@ -184,15 +184,18 @@ class TrendModel:
             alpha, notes = solver.joint_strength(means[steady][:, used], sig2[steady][:, used])
             warnings.extend(notes)
             # the fit at the joint strength gives the trend's solver and its screening; its face
-            # map is never shown, so it is evaluated on a token grid (the bands on the display
-            # grid cost ~1.3 s of a 7 s part)
+            # map is never shown, so it is evaluated on a token grid
             fixed = fit(rd, alpha, grid=PROBE_GRID)
             aside |= set(fixed.summary["set_aside"])
             used, solver = solver_for(fixed, aside)
             strength_rule = f"joint evidence of the {len(steady)} steady windows"
+        shown = set(result.summary["set_aside"])
         for name in sorted(aside):
-            warnings.append(f"sensor {name} was set aside in the reference window and is left out of the trend")
-        edf = float(result.summary["effective_parameters"])
+            warnings.append(f"sensor {name} was set aside in the reference window and is left out of the trend"
+                            if name in shown else
+                            f"sensor {name} was set aside at the trend's smoothing strength and is left out of "
+                            f"the trend (the reference window's fit shown keeps it)")
+        edf = float((fixed if joint else result).summary["effective_parameters"])
         if edf < 2.0 and solver.change_names:
             cure = ("run without --every (the strength then comes from all steady windows) or fix [fit] "
                     "strength in the case" if steady is None else "fix [fit] strength in the case to resolve zones")

@@ -482,8 +482,9 @@ def mesh_check(name, scale=1.0):
         _, fine = _tube_demo_fem(fine=True)
         rd = scn.readings
         diff = float(np.abs(gen.field(fine, rd.r, rd.theta, rd.z) - gen.field(coarse, rd.r, rd.theta, rd.z)).max())
-        heat = {"fem_heat_in": coarse[(0, "cos")].heat_in("bore")}, {"fem_heat_in": fine[(0, "cos")].heat_in("bore")}
-        return diff, float(rd.sigma.min()), heat[0], heat[1]
+        facts = [dict(nr=nr, nz=nz, m_max=m, fem_heat_in=sols[(0, "cos")].heat_in("bore"))
+                 for (nr, nz, m), sols in (((12, 300, 16), coarse), ((24, 600, 24), fine))]
+        return diff, float(rd.sigma.min()), facts[0], facts[1]
     scn = make(name, scale=scale)
     truth, phys, pos = _PHYSICS[name]
     lvl1 = fem_readings(name, truth, phys, pos, scale, level=1)
