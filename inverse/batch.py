@@ -54,7 +54,6 @@ from .threads import few_threads
 from .face_grid import display_grid
 from .design import nominal_direction as _nominal_direction
 from .functionals import face_functionals  # noqa: F401  (also exported from here)
-from .truncation import face_tail
 
 #: grid (radial or axial x angular points) on which a trend searches the extremes; coarser
 #: than fit's 41 x 72 so that millions of rows stay quick (the MAP extremes move by a small
@@ -147,10 +146,9 @@ class BatchSolver:
         self.change_names = list(change_names)
         self._functionals = [(n, F[i], float(self.kq[i])) for i, n in enumerate(self.names)]
         # what a fit carries beyond this solver's single prior (with_fit_uncertainty): the
-        # functionals' (nf,) and the extreme-search grid's points' (Q,) variances
+        # functionals' (nf,) and the extremes' (min, max, max - min) variances
         self.model_var = np.zeros(self.nf)
-        self.model_var_grid = np.zeros(self.Q)
-        self.grid_points = None     # the grid's face points (from_fit), for the grid's share
+        self.model_var_extremes = np.zeros(3)
 
     # ------------------------------------------------------------------ construction
     @classmethod
@@ -174,11 +172,9 @@ class BatchSolver:
             grad = ev.gradient + np.einsum("dpk,k->dp", dG, result.posterior.c)
             shared = shared + (grad ** 2).sum(axis=0) * tol ** 2 / 3.0
         pts = display_grid(basis.face, cyl, *grid)
-        solver = cls(G, t0, P, result.posterior.alpha if alpha is None else alpha,
-                     face_functionals(design, zones), basis.face_values(pts.u, pts.v),
-                     basis.known_face_values(pts.u, pts.v), shared, _nominal_direction(basis))
-        solver.grid_points = pts
-        return solver
+        return cls(G, t0, P, result.posterior.alpha if alpha is None else alpha,
+                   face_functionals(design, zones), basis.face_values(pts.u, pts.v),
+                   basis.known_face_values(pts.u, pts.v), shared, _nominal_direction(basis))
 
     def with_fit_uncertainty(self, result, d_ref, rv_ref) -> "BatchSolver":
         """The same solver, its absolute figures also carrying what the fit `result` of the
@@ -188,29 +184,23 @@ class BatchSolver:
         same in every row, as the offsets are (a property of the layout and the prior, not of
         a row's noise):
             var += max(var(fit) - var(this solver, reference row), 0)
-        for each functional (mean, power, zone means) and each point of the extreme-search
-        grid (the fit's pointwise variance there with the left-out modes' and steps' share,
-        truncation.face_tail on FitResult.marginal), so that the reference row's sds are at
-        least the fit's (equal where the fit's are the wider).  Changes (`changes`) carry none
-        of it: it cancels in them."""
+        for each functional (mean, power, zone means) and each extreme (min, max, max - min;
+        the fit's from its posterior draws), so that the reference row's sds are at least the
+        fit's (equal where the fit's are the wider).  Changes (`changes`) carry none of it:
+        it cancels in them."""
         S = result.summary
         fit_sd = {"mean": S["mean_sd"], "total_power": S["total_power_sd_W"],
                   **{z["name"]: z["sd"] for z in S.get("zones", [])}}
-        d_ref, rv_ref = np.asarray(d_ref, float), np.asarray(rv_ref, float)
-        own = self.solve(d_ref[None, :], rv_ref).sd[0]
+        own = self.solve(np.asarray(d_ref, float)[None, :], np.asarray(rv_ref, float))
+
+        def extra(fit, mine):
+            return max(float(fit) ** 2 - float(mine) ** 2, 0.0) if np.isfinite(mine) else 0.0
         new = object.__new__(BatchSolver)
         new.__dict__.update(self.__dict__)
-        new.model_var = np.array([max(fit_sd[name] ** 2 - own[i] ** 2, 0.0) if name in fit_sd and np.isfinite(own[i])
-                                  else 0.0 for i, name in enumerate(self.names)])
-        if self.grid_points is not None and self.Q:
-            pts = self.grid_points
-            fit_var = result.face_profile(pts.u, pts.v)[1] ** 2
-            m = getattr(result, "marginal", None)
-            if m is not None:
-                fit_var = fit_var + face_tail(m.left, pts, m.prior, m.rd, m.S, m.steps)[1]
-            v = np.isfinite(d_ref)
-            own_grid = self._estimators(v, (rv_ref[v] + self.shared_var[v])[None, :])[1][0, self.nf:]
-            new.model_var_grid = np.maximum(fit_var - own_grid, 0.0)
+        new.model_var = np.array([extra(fit_sd[name], own.sd[0, i]) if name in fit_sd else 0.0
+                                  for i, name in enumerate(self.names)])
+        new.model_var_extremes = np.array([extra(S[key], getattr(own, key)[0]) if self.Q else 0.0
+                                           for key in ("min_sd", "max_sd", "nonuniformity_sd")])
         return new
 
     # ------------------------------------------------------------------ estimators
@@ -242,7 +232,7 @@ class BatchSolver:
         if not (np.isfinite(alpha) and alpha > 0):
             raise InverseError("alpha must be positive and finite")
         new.alpha = float(alpha)
-        new.model_var, new.model_var_grid = np.zeros(self.nf), np.zeros(self.Q)
+        new.model_var, new.model_var_extremes = np.zeros(self.nf), np.zeros(3)
         return new
 
     def changes(self, alpha=None) -> "BatchSolver":
@@ -399,21 +389,20 @@ class BatchSolver:
         vmin = np.einsum("rn,rn->r", eg[j, imin], x) + kg[imin]
         vmax = np.einsum("rn,rn->r", eg[j, imax], x) + kg[imax]
         vg = var[:, nf:]
-        m_min, m_max = self.model_var_grid[imin], self.model_var_grid[imax]
-        s_min, s_max = vg[j, imin] + m_min, vg[j, imax] + m_max
+        s_min, s_max = vg[j, imin], vg[j, imax]
         pa, pb = phi[j, imax], phi[j, imin]
         seen = np.einsum("rk,rk,rk->r", pa, pb, inv[j])
         if self._gram is not None:
             total = self._gram[imax, imin]
         else:
             total = np.einsum("rk,rk->r", self.Fn[nf + imax], self.Fn[nf + imin])
-        # the grid's model share enters max - min as independent at the two points (approximate:
-        # it is correlated there)
         cov = seen + (total - np.einsum("rk,rk->r", pa, pb)) / self.alpha
         est.min[rows], est.max[rows] = vmin, vmax
-        est.min_sd[rows], est.max_sd[rows] = np.sqrt(np.maximum(s_min, 0)), np.sqrt(np.maximum(s_max, 0))
+        mv = self.model_var_extremes
+        est.min_sd[rows] = np.sqrt(np.maximum(s_min, 0) + mv[0])
+        est.max_sd[rows] = np.sqrt(np.maximum(s_max, 0) + mv[1])
         est.nonuniformity[rows] = vmax - vmin
-        est.nonuniformity_sd[rows] = np.sqrt(np.maximum(s_min + s_max - 2 * cov, 0.0))
+        est.nonuniformity_sd[rows] = np.sqrt(np.maximum(s_min + s_max - 2 * cov, 0.0) + mv[2])
 
 
 def _joint(terms, alphas):
