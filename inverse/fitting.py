@@ -339,7 +339,7 @@ def _tails(model, columns, design, rd, kept, problem, tail_prior, zone_model, zo
     S = lin.noise.covariance[np.ix_(idx, idx)]
     kept_rd, residual = rd.subset(idx), lin.d[idx] - lin.t0[idx]
     left = left_out_columns(design, kept_rd)        # one enlarged basis for every share below
-    marginal = MarginalSets(left, prior, steps, kept_rd, S, X)
+    marginal = MarginalSets(left, prior, steps, kept_rd, S, X, None if steps is None else steps.at_readings[idx])
 
     def on_face(points):
         H, variance = face_tail(left, points, prior, kept_rd, S, steps)

@@ -3,7 +3,7 @@ planning: the left-out modes (truncation.py) and the unseen stretches' steps (st
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -26,7 +26,8 @@ class MarginalSets:
     """The column sets a fit marginalized into its kept readings' noise: the left-out modes
     `left` (LeftOutColumns or None) under the learned prior `prior`, the unseen stretches'
     `steps` (stretch.StretchSteps or None), the kept readings `rd`, their noise covariance
-    `S` (n, n) [K^2] with both sets' signal, and the kept model columns' fields `X` (n, K)."""
+    `S` (n, n) [K^2] with both sets' signal, the kept model columns' fields `X` (n, K), and
+    the steps' fields there `step_fields` (n, J) [K per face unit] (None without steps)."""
 
     left: object
     prior: object
@@ -34,11 +35,26 @@ class MarginalSets:
     rd: object
     S: np.ndarray
     X: np.ndarray
+    step_fields: np.ndarray | None = None
+    #: rows by zones (rows): the fit's figures and the planner ask for the same ones
+    _rows: dict = field(default_factory=dict, repr=False, compare=False)
 
     def rows(self, zones=()):
         """(names, rows of `left` (q, T) or None, rows of `steps` (q, J) or None) for the total
         power, the face mean and each zone mean (functional_rows; a zone one set's rule finds
-        empty, split at the other's edges too, takes no share of it)."""
+        empty, split at the other's edges too, takes no share of it).  Each set's rows are
+        evaluated once per set of zones (an enlarged basis on the quadrature rule), zones
+        compared by value (inverse.problem.Zone is frozen)."""
+        key = tuple(zones)
+        try:
+            hash(key)
+        except TypeError:           # zone objects that are not values (no cache)
+            return self._rows_of(zones)
+        if key not in self._rows:
+            self._rows[key] = self._rows_of(zones)
+        return self._rows[key]
+
+    def _rows_of(self, zones):
         tables = [None if c is None else functional_rows(c, zones) for c in (self.left, self.steps)]
         first = next((t for t in tables if t is not None), None)
         if first is None:

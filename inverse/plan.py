@@ -52,7 +52,7 @@ from .hyperprior import face_size, matern_exponent, matern_precision, matern_wei
 from .truncation import tail_variance
 from .noise import noise_covariance
 from .plan_rules import COVARIANCES, _xyz, min_distance
-from .plan_steps import figure_rows, joint_covariance, noise_without_steps, step_fields
+from .plan_steps import figure_rows, joint_covariance, noise_without_steps
 from .readings import DEFAULT_SIGMA_K
 
 #: a target "depends on a single sensor" when losing that one sensor multiplies its sd by
@@ -284,12 +284,12 @@ def state_from_fit(result, which, zones=(), new_sigma=None, new_offset_sd=None,
         var = _independent_variance(pb.noise, common)
         G, precision = pb.G, alpha * pb.prior_diag
         if steps is not None:        # the steps as columns of their own, with their prior
-            G, precision = np.hstack([G, step_fields(marginal)]), np.append(precision, 1.0 / steps.v)
+            G, precision = np.hstack([G, marginal.step_fields]), np.append(precision, 1.0 / steps.v)
         C = _state_covariance(G, var, precision, common)
     else:
         C = post.C
         if steps is not None:
-            C = joint_covariance(C, marginal.X, step_fields(marginal), steps.v, N)
+            C = joint_covariance(C, marginal.X, marginal.step_fields, steps.v, N)
         if exact:
             var = _independent_variance(result.problem.noise, 0.0)
             text = ("the fit's posterior covariance, moment-matched over its hyperparameters (each pick the exact "

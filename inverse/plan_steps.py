@@ -38,14 +38,8 @@ def joint_covariance(C, X, Gs, v, N) -> np.ndarray:
 
 def noise_without_steps(marginal) -> np.ndarray:
     """N (n, n) [K^2]: the kept readings' noise covariance without the steps' signal."""
-    Gs = step_fields(marginal)
+    Gs = marginal.step_fields
     return marginal.S - (Gs * marginal.steps.v) @ Gs.T
-
-
-def step_fields(marginal) -> np.ndarray:
-    """G_s (n, J) [K per face unit]: the steps' fields at the kept readings."""
-    rd = marginal.rd
-    return marginal.steps.fields(rd.r, rd.theta, rd.z)
 
 
 def figure_rows(marginal, zones, N):
@@ -54,7 +48,7 @@ def figure_rows(marginal, zones, N):
     rows), i.e. (-h X, f_s - h G_s), and the left-out modes' remaining variance."""
     names, _, step_rows = marginal.rows(zones)
     shares = marginal.shares(zones, with_steps=False, noise_covariance=N)
-    Gs = step_fields(marginal)
+    Gs = marginal.step_fields
     out = {}
     for i, name in enumerate(names):
         h, variance = shares[name]

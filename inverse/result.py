@@ -206,7 +206,7 @@ class FitResult:
         columns (design.Design or the zone model's); problem: the LinearGaussianProblem of
         the kept sensors; extra: further summary keys; figure_tails: (X, residual, {name: (h,
         variance)}), the left-out modes' share of the total power, the face mean and the zone
-        means (truncation.tail_power, functional_tails: each becomes f . c + k + h . (residual - X c)
+        means (marginal_sets.MarginalSets.shares: each becomes f . c + k + h . (residual - X c)
         with the variance added); map_tail: points ->
         (dF, dk, variance), the left-out modes' part of the face map: k + dk + (F + dF) c with
         the variance (Q,) added to its bands (dF, dk None: variance only; truncation.face_tail);

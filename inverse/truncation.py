@@ -101,7 +101,7 @@ def face_tail(left, points, prior, rd, noise_covariance=None, steps=None):
     LeftOutColumns of the sensors `rd` (left_out_columns), None when no mode is left out;
     steps: the unseen stretches' steps (stretch.StretchSteps, marginalized alike), or None.
 
-    As for the power (tail_power), given the residual r = d - t0 - X c of the kept columns
+    As for a figure (functional_tails), given the residual r = d - t0 - X c of the kept columns
     at the sensors `rd` (noise S = noise_covariance, the tail's own signal included):
     face value = B c + k + H r + e,  H = Phi_t V G_t^T S^-1,
     var e = diag(Phi_t V Phi_t^T) - diag(H G_t V Phi_t^T),  V = diag(v_k) (_tail_variances).
@@ -166,11 +166,17 @@ def left_out_columns(design, rd):
 
 def functional_tails(columns, rows, rd, prior, noise_covariance, steps=None, step_rows=None) -> list:
     """[(h (n,), variance)] for linear functionals of the face whose weights on the left-out
-    modes `columns` (LeftOutColumns, or None) are `rows` (q, T), e.g. the face and zone means
-    from the fit's quadrature rule (functionals.functional_matrix), and on the unseen
-    stretches' `steps` (stretch.StretchSteps) `step_rows` (q, J): their share given the
-    readings, as for the power (tail_power):
-    value = k + f . c + h . r + e,  h = S^-1 G_t V f_t,  var e = f_t V f_t - h . (G_t V f_t)."""
+    modes `columns` (LeftOutColumns, or None) are `rows` (q, T), e.g. the total power (the
+    modes' powers) and the face and zone means from the fit's quadrature rule
+    (functionals.functional_matrix; marginal_sets.functional_rows names both), and on the
+    unseen stretches' `steps` (stretch.StretchSteps) `step_rows` (q, J): their share given the
+    readings.  With the tail c_t ~ N(0, V) marginalized into the noise S (tail_covariance),
+    the residual r = d - t0 - X c of the kept columns at the sensors `rd` carries it:
+    c_t | c, d ~ N(V G_t^T S^-1 r, V - V G_t^T S^-1 G_t V), so
+    value = k + f . c + h . r + e,  h = S^-1 G_t V f_t,  var e = f_t V f_t - h . (G_t V f_t).
+    (The total power's share is zero on a flux face beside an insulated rim, where only the
+    uniform mode carries heat; on a temperature face the power weights a mode by its
+    wavenumber, so the modes the basis leaves out count.)"""
     pairs = [(c, np.atleast_2d(f)) for c, f in ((columns, rows), (steps, step_rows)) if c is not None]
     if not pairs:
         return []
@@ -203,26 +209,6 @@ def face_tail_variance(design, points, prior, rd, steps=None) -> np.ndarray:
     """The left-out modes' (and the unseen stretches' steps') prior variance (Q,) at `points`
     of the face (face_tail without the readings' residual)."""
     return face_tail(left_out_columns(design, rd), points, prior, rd, steps=steps)[1]
-
-
-def tail_power(left, rd, prior, noise_covariance, steps=None):
-    """The left-out modes' share of the heat into the part through the unknown face, given
-    the readings: (h (n,) [W/K], extra variance [W^2]); left: the LeftOutColumns of the
-    sensors `rd` (left_out_columns), None when no mode is left out; steps: the unseen
-    stretches' steps (stretch.StretchSteps) or None, whose powers count alike.
-
-    With the tail c_t ~ N(0, V) marginalized into the noise S (tail_covariance), the readings'
-    residual r = d - t0 - X c of the kept columns carries it: c_t | c, d ~
-    N(V G_t^T S^-1 r, V - V G_t^T S^-1 G_t V), so the total power is
-    P = p . c + k + h . r + e,  h = S^-1 G_t V p_t,  var e = p_t V p_t - h . (G_t V p_t).
-    Zero on a flux face (a non-uniform mode carries no net heat); on a temperature face the
-    power weights a mode by its wavenumber, so the modes the basis leaves out count.
-    rd: the kept sensors; noise_covariance (n, n) [K^2]: their S, tail included.
-    Each mode's power p_t is the functional's row (functional_tails, conditional)."""
-    if left is None and steps is None:
-        return np.zeros(rd.n), 0.0
-    return functional_tails(left, None if left is None else left.powers()[0], rd, prior, noise_covariance,
-                            steps, None if steps is None else steps.powers()[0])[0]
 
 
 def tail_variance(design, r, theta, z, prior) -> np.ndarray:

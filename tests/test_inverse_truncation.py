@@ -92,11 +92,13 @@ def test_enlarged_size_grows_as_the_sensor_nears_the_face():
 
 
 def test_tail_power_equals_the_enlarged_models_posterior():
-    """The total power of a temperature face with the left-out modes' share (tail_power:
-    p . c + h . (d - G c) plus its variance, c from the fit's basis with the tail in the
-    noise) against the exact Gaussian posterior of the power under the enlarged basis (the
-    textbook conditional of a jointly Gaussian model), at one set of hyperparameters."""
-    from heatsight.inverse.truncation import left_out_columns, tail_power
+    """The total power of a temperature face with the left-out modes' share (the fit's route,
+    marginal_sets.MarginalSets.shares: p . c + h . (d - G c) plus its variance, c from the
+    fit's basis with the tail in the noise) against the exact Gaussian posterior of the power
+    under the enlarged basis (the textbook conditional of a jointly Gaussian model), at one
+    set of hyperparameters."""
+    from heatsight.inverse.marginal_sets import MarginalSets
+    from heatsight.inverse.truncation import left_out_columns
     design, rd = wall_design_and_readings([0.003, 0.004, 0.006, 0.008, 0.01, 0.015])
     n, r, th, z = rd.n, rd.r, rd.theta, rd.z
     length, order, alpha = 0.01, 1.0, 1e-3
@@ -118,7 +120,7 @@ def test_tail_power_equals_the_enlarged_models_posterior():
     S = S0 + tail_covariance(design, rd, prior)
     C = np.linalg.inv(G.T @ np.linalg.solve(S, G) + np.diag(P))
     m = C @ G.T @ np.linalg.solve(S, y)
-    h, extra = tail_power(left_out_columns(design, rd), rd, prior, S)
+    h, extra = MarginalSets(left_out_columns(design, rd), prior, None, rd, S, G).shares()["total_power"]
     f = p - G.T @ h
     # the tail's share matters here: without it the power is off by 2 % and its variance by more
     assert abs(p @ m - exact_mean) > 1e-2 * abs(exact_mean)
@@ -130,8 +132,11 @@ def test_tail_power_equals_the_enlarged_models_posterior():
 
 def test_tail_power_is_zero_on_a_flux_face():
     design, rd = design_and_readings([0.004, 0.006, 0.01, 0.015])
-    from heatsight.inverse.truncation import left_out_columns, tail_power
-    h, extra = tail_power(left_out_columns(design, rd), rd, OneComponent(0.01, 1.5, 2e-7), np.eye(rd.n))
+    from heatsight.inverse.marginal_sets import MarginalSets
+    from heatsight.inverse.truncation import left_out_columns
+    sets = MarginalSets(left_out_columns(design, rd), OneComponent(0.01, 1.5, 2e-7), None, rd, np.eye(rd.n),
+                        np.zeros((rd.n, 0)))
+    h, extra = sets.shares()["total_power"]
     # a non-uniform flux mode carries no net heat: round-off only (W per K of residual, W^2)
     assert np.abs(h).max() < 1e-10 and extra < 1e-20
 
