@@ -22,6 +22,15 @@ from .problem import Problem
 PINNED = 1e-9
 
 
+def face_edges(face: str, cylinder) -> list:
+    """[(neighbour face, coordinate [m])] of the edges of `face`: a wall's bottom and top
+    (z), an end face's side and, on a hollow part, its bore (r)."""
+    lo, hi = face_interval(face, cylinder)
+    if is_wall(face):
+        return [("bottom", lo), ("top", hi)]
+    return [("side", hi)] + ([("bore", lo)] if lo > 0 else [])
+
+
 def pinned_edges(design) -> list:
     """[(neighbour face, coordinate [m])] of each edge of an unknown flux face along which
     every column of `design` vanishes (below PINNED of their largest face value); none for a
@@ -29,14 +38,12 @@ def pinned_edges(design) -> list:
     if design.quantity == "temperature":
         return []
     cyl, face = design.cylinder, design.face_name
-    lo, hi = face_interval(face, cyl)
     around = np.linspace(0.0, 2.0 * np.pi, 24, endpoint=False)
     wall = is_wall(face)
-    edges = (("bottom", lo), ("top", hi)) if wall else (("side", hi),) + ((("bore", lo),) if lo > 0 else ())
     pts = display_grid(face, cyl, 21, 24)
     scale = float(np.abs(design.face(pts.u, pts.v)[0]).max())
     out = []
-    for neighbour, at in edges:
+    for neighbour, at in face_edges(face, cyl):
         u, v = (around, np.full(around.size, at)) if wall else (np.full(around.size, at), around)
         if float(np.abs(design.face(u, v)[0]).max()) <= PINNED * scale:
             out.append((neighbour, at))

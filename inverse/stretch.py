@@ -39,7 +39,7 @@ from ..forward.geometry import is_wall
 from .face_grid import display_grid, face_interval
 from .functionals import functional_matrix
 from .layout import edge_gaps
-from .pinned_edges import pinned_edges
+from .pinned_edges import face_edges, pinned_edges
 from .problem import Zone
 from .truncation import nearest_distance
 from .zones import ZoneDesign
@@ -136,10 +136,9 @@ def stretch_zones(face, cylinder, r, z, pinned=(), ramps=False) -> list:
 
 def _held_edges(design) -> list:
     """Coordinates [m] of the edges of `design`'s face beside a face held at a known
-    temperature (the bottom and top of a wall; the side and the bore of an end face)."""
-    lo, hi = face_interval(design.face_name, design.cylinder)
-    neighbours = (("bottom", lo), ("top", hi)) if is_wall(design.face_name) else (("bore", lo), ("side", hi))
-    return [at for name, at in neighbours if isinstance(design.faces.get(name), Temperature)]
+    temperature (pinned_edges.face_edges)."""
+    return [at for name, at in face_edges(design.face_name, design.cylinder)
+            if isinstance(design.faces.get(name), Temperature)]
 
 
 def step_level(design, coefficients) -> float:

@@ -9,7 +9,7 @@ Works on window statistics (inverse.steady.WindowStats) and arrays; no files.
   screening), which fixes the sensors of the whole trend; the absolute figures of every row
   carry what that fit holds beyond the trend's single prior (BatchSolver.with_fit_uncertainty:
   the learned prior's left-out modes, an unseen stretch's steps, its hyperparameters' spread),
-  so that the reference row's sds are the fit's; changes do not (it cancels).  Strength: the one the joint evidence of all steady windows
+  so that the reference row's sds are at least the fit's; changes do not (it cancels).  Strength: the one the joint evidence of all steady windows
   prefers (windows mode, when the fit's rule is the evidence), else the reference window's own
   choice.  Changes from the reference are estimated from the readings' difference
   d_row - d_ref (offsets cancel) with variance S_row + S_ref, at the joint evidence of the

@@ -29,8 +29,8 @@ heater towards "as rated" wherever the readings are thin, and on a temperature f
 is no level at all.  Marginalizing z gives d ~ N(t0 + G c0, S + G_zone diag(s^2) G_zone^T +
 G (alpha P)^-1 G^T), so the evidence p(d | alpha, zones) is exact. It compares with the
 smooth model's evidence (learned prior: both integrated over strength, length scale and
-order, on one grid of length scales and one amplitude hyperprior, the remainder's orders its
-own; fixed prior: both on one log-alpha grid), equal prior model odds.
+order, on one grid of length scales and orders and one amplitude hyperprior; fixed prior:
+both on one log-alpha grid), equal prior model odds.
 """
 
 from __future__ import annotations
