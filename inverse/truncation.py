@@ -196,7 +196,7 @@ def conditional(parts, noise_covariance):
     f (q, T))], each set's fields at the readings, independent prior variances and the
     functionals' rows on it; the functionals' conditional mean is h . r with variance
     a = sum G V f^T, h = S^-1 a, var e = sum f V f - h . a (functional_tails, face_tail;
-    fitting._steps_given_kept)."""
+    fit_problem.steps_given_kept)."""
     a, prior_var = 0.0, 0.0
     for G, v, rows in parts:
         a = a + (G * v) @ rows.T                                                   # G V f^T (n, q)

@@ -620,7 +620,7 @@ class ZoneModel:
         Where the levels' prior was chosen (choose_level_scale, at the smooth model's leading
         point), it is chosen once more at the learned remainder's own (refine_level_choice)
         and the remainder learned again where that moves it; the sensors `kept` stay those of
-        the screening at the first choice (fitting._settled_screen says why)."""
+        the screening at the first choice (fit_screening.settled_screen says why)."""
         idx = np.flatnonzero(kept)
         lp = self._remainder_prior(kept, basis, nominal, nominal_factor, like)
         self.refined = self.levels_chosen and self.refine_level_choice(kept, basis, nominal, nominal_factor, like)

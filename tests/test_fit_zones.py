@@ -402,7 +402,7 @@ def test_zone_levels_prior_is_averaged_over_scale_and_sets(readings, monkeypatch
         return out
 
     monkeypatch.setattr(zm.ZoneModel, "choose_level_scale", spy)
-    from heatsight.inverse import fitting as ft
+    from heatsight.inverse import fit_models as ft
     on_all, original_all = [], ft.log_evidence_on_all
 
     def spy_all(*args, **kwargs):
@@ -607,10 +607,10 @@ def test_levels_chosen_again_at_the_remainders_point(readings, monkeypatch, same
     remainder's leading point (ZoneModel.learned_fit).  Kept (SAME_LEVEL_SD = 0): the
     remainder is learned again for the answer, on the sensors of the zone model's first
     screening, and the screening handed on has its problem and strength at the new prior
-    (fitting._at_answer_prior); dropped (SAME_LEVEL_SD = inf): the choice before it stands,
+    (fit_screening.at_answer_prior); dropped (SAME_LEVEL_SD = inf): the choice before it stands,
     its learned remainder is reused (one learned prior per model) and the screening is the
     first one."""
-    from heatsight.inverse import fitting as ft
+    from heatsight.inverse import fit_models as ft
     from heatsight.inverse import zones as zm
 
     monkeypatch.setattr(zm, "SAME_LEVEL_SD", same)
@@ -621,7 +621,7 @@ def test_levels_chosen_again_at_the_remainders_point(readings, monkeypatch, same
         learned.append(problem.n)
         return original_learn(problem, *args, **kwargs)
 
-    original_at = ft._at_answer_prior
+    original_at = ft.at_answer_prior
 
     def spy_at(zscreen, zone_model, opts):
         out = original_at(zscreen, zone_model, opts)
@@ -629,7 +629,7 @@ def test_levels_chosen_again_at_the_remainders_point(readings, monkeypatch, same
         return out
 
     monkeypatch.setattr(zm, "learn_prior", spy_learn)
-    monkeypatch.setattr(ft, "_at_answer_prior", spy_at)
+    monkeypatch.setattr(ft, "at_answer_prior", spy_at)
     rd, _ = readings
     with threadpool_limits(1):
         inverse.fit(case(), rd, model="zones", grid=(8, 12))
