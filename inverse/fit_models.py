@@ -19,13 +19,14 @@ from .model_choice import MIXED_MODELS, ModelMixture, embedded_mixture, log_evid
 from .result import Posterior, valid_zones
 from .strength import default_alphas
 from .truncation import nearest_distance
-from .zones import (MAX_CHOSEN_ZONES, ZONE_LEVEL_FACTORS, ZONE_PRIOR_FACTOR, ZoneDesign, ZoneModel, edge_rooms,
-                    edge_widths, level_sets, with_edge)
+from .zone_columns import ZoneDesign
+from .zone_edges import edge_rooms, edge_widths, with_edge
+from .zones import MAX_CHOSEN_ZONES, ZONE_LEVEL_FACTORS, ZONE_PRIOR_FACTOR, ZoneModel, level_sets
 
 
 def build_zone_models(spec, design, rd, problem, warnings, post, shift=None):
     """The zone models (zones.ZoneModel on all sensors), one per edge width
-    (zones.edge_widths; the declared zones alone with the fixed prior), when asked for (model
+    (zone_edges.edge_widths; the declared zones alone with the fixed prior), when asked for (model
     "zones" or "auto") and zones with ranges are declared on the unknown face, else [].
     The zone levels' prior sd: with the learned prior (post.averaged a LearnedPrior) on the
     scale of the smooth model's amplitude (its median; the factor is chosen later,
@@ -100,7 +101,7 @@ def choose_model(opts, design, zone_models, zscreens, smooth, steps, post, u, pr
     at the sensors) or None): the smooth model, the zone model when asked (model = "zones"),
     or with "auto" both averaged with their posterior probabilities
     (model_choice.embedded_mixture; a model below MIXED_MODELS is dropped).  The zone model
-    is itself an average over its edge widths (zones.edge_widths, equal prior mass each;
+    is itself an average over its edge widths (zone_edges.edge_widths, equal prior mass each;
     with the learned prior): its evidence is the widths' mean, each width weighs by its own.
     With the learned prior each model keeps its own screening and the evidences cover all
     the readings (model_choice.py); with the fixed prior both are compared on the zone

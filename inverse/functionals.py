@@ -39,7 +39,7 @@ def face_functionals(design, zones=()) -> list:
 
 def _breaks(zones, face, radius):
     """Zone edges on `face` (Zone objects; other zone objects have no known edges), or None."""
-    from .zones import zone_breaks
+    from .zone_edges import zone_breaks
 
     along, around = [], []
     for zone in zones:

@@ -42,7 +42,7 @@ from .layout import edge_gaps
 from .pinned_edges import face_edges, pinned_edges
 from .problem import Zone
 from .truncation import nearest_distance
-from .zones import ZoneDesign
+from .zone_columns import ZoneDesign
 
 #: steps per unseen stretch
 STEPS = 3
@@ -52,7 +52,7 @@ class StretchSteps:
     """The steps over the unseen edge stretches of `design`'s face (columns for
     functionals.face_functionals: face, face_grid, powers) with their prior variances `v`
     (J,) [face unit^2], their field at sensors from the projection on an enlarged basis
-    (zones.ZoneDesign)."""
+    (zone_columns.ZoneDesign)."""
 
     def __init__(self, design, zones, level, nearest):
         self.zones = list(zones)

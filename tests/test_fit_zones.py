@@ -134,8 +134,8 @@ def test_zone_model_on_ring_heaters(readings):
     # 0.2: the figure measured with the ramps' present room (0.192) and a small margin; our
     # own bound, no source, meant to catch bands that grow.  It was 0.1 while the zone model took every edge as
     # declared (sharp): measured 0.055 then, 0.118 with the average over edge widths
-    # (zones.edge_widths: 0 and 5 mm here, weights 0.57 / 0.43), 0.15 until the ramps' room
-    # went from a quarter to half the gap between rings (zones.EDGE_ROOM: 0, 8 and 10 mm
+    # (zone_edges.edge_widths: 0 and 5 mm here, weights 0.57 / 0.43), 0.15 until the ramps' room
+    # went from a quarter to half the gap between rings (zone_edges.EDGE_ROOM: 0, 8 and 10 mm
     # here; measured 0.192), which soft heater edges need.  This truth is exactly sharp;
     # within a few mm of each edge the readings, 4-8 mm deep, cannot tell a sharp edge from a
     # 10 mm one, so the bands there are wide.
@@ -178,7 +178,7 @@ def test_zone_columns_match_fem_fields():
     # (cos coefficients of the 90-degree window: 1/4 and 2 sin(m pi/4) / (pi m), elementary).
     from heatsight.inverse.design import Design
     from heatsight.inverse.functionals import functional_matrix
-    from heatsight.inverse.zones import ZoneDesign
+    from heatsight.inverse.zone_columns import ZoneDesign
 
     faces = {"bottom": fw.UnknownFlux(), "top": fw.Convection(H, TAMB), "side": fw.Insulated()}
     design = Design(fw.Cylinder(A, L, K), faces, 1e-8, 6, 10)
@@ -213,7 +213,7 @@ def test_zone_columns_with_edges_match_fem_fields():
     # coefficients are those of the sharp window times sin(m d / 2) / (m d / 2) (convolution
     # theorem); reference fields from scikit-fem with the ramps' ends on mesh nodes.
     from heatsight.inverse.design import Design
-    from heatsight.inverse.zones import ZoneDesign
+    from heatsight.inverse.zone_columns import ZoneDesign
 
     w = 0.004
     faces = {"bottom": fw.UnknownFlux(), "top": fw.Convection(H, TAMB), "side": fw.Insulated()}
@@ -309,7 +309,7 @@ def _componentwise_check(model, kept, fit):
 def test_edge_widths_fit_between_neighbouring_edges():
     # three rings 10 mm apart (tests/scenario_cases.py three_rings): no ramp wider than
     # EDGE_ROOM (half) of that gap; declared edges are kept as they are
-    from heatsight.inverse.zones import EDGE_FRACTIONS, EDGE_ROOM, OWN_ROOM, edge_rooms, edge_widths
+    from heatsight.inverse.zone_edges import EDGE_FRACTIONS, EDGE_ROOM, OWN_ROOM, edge_rooms, edge_widths
     rings = [(0.0, 0.045), (0.055, 0.095), (0.105, 0.145)]
     zs = [inverse.Zone(f"ring{i}", "bottom", (0.0, 2 * math.pi), r=r) for i, r in enumerate(rings)]
     rooms = edge_rooms(zs, False, 0.15, (0.0, 0.15))
@@ -351,7 +351,7 @@ def test_zones_sharing_an_edge_keep_summing_to_one():
     # it for every edge setting (a ring 0-20 mm inside a ring 20-150 mm; three sectors of one
     # ring); a zone with no edge on the face gets no ramp settings of its own; a semi-infinite
     # part's wall still caps two bands 5 mm apart (the face's length is infinite)
-    from heatsight.inverse.zones import EDGE_ROOM, edge_rooms, edge_widths, with_edge
+    from heatsight.inverse.zone_edges import EDGE_ROOM, edge_rooms, edge_widths, with_edge
     a = 0.15
     cases = [[inverse.Zone("in", "bottom", (0.0, 2 * math.pi), r=(0.0, 0.02)),
               inverse.Zone("out", "bottom", (0.0, 2 * math.pi), r=(0.02, a))],

@@ -98,7 +98,7 @@ def test_face_sums_in_blocks_equal_the_whole_matrix(name, monkeypatch):
 def test_zone_columns_on_lines_equal_pointwise(name):
     """The zone model's columns (smooth columns | zone indicators) on grid lines equal
     ZoneDesign.face point by point, and so do the face functionals built on them."""
-    from heatsight.inverse.zones import ZoneDesign
+    from heatsight.inverse.zone_columns import ZoneDesign
     cyl, faces = CASES[name]
     design = Design(cyl, faces, 1e-8, 4, 6)
     zones = _zones(design.face_name, cyl)

@@ -64,7 +64,7 @@ HOLLOW = ("tube_bore_temperature", "tube_bore_flux")  # issue 11: the bore of a 
 # 0.99; its four quadrant zones, declared to be reported, no longer charge the zone model four
 # levels' Occam factors); lost: calibrated convection's relative RMS (0.50 -> 0.57).  Since
 # the zone model's remainder was smooth (nu >= 1, session 29; the smooth model's orders again
-# since session 30) and edge ramps may take half the gap between zones (zones.EDGE_ROOM): the
+# since session 30) and edge ramps may take half the gap between zones (zone_edges.EDGE_ROOM): the
 # tube bore flux's sharpness 0.99 -> 0.62 (0.99 again with the rough orders, seed 0); platen_heater_zones (added then: the platen's readings, its zones declared as the
 # heaters) zone means 1/3 -> 3/3 (3.0 / 2.0 / 3.0 -> 1.6 / 0.9 / 1.6 sd), coverage 0.67 -> 0.84.
 # Since the unseen edge stretch of a flux face may step (inverse/stretch.py): chuck_calibrated
