@@ -74,9 +74,20 @@ def listing(folder: Path | None = None) -> list[str]:
     return out
 
 
+def against_truth(truth: float, mean: float, sd: float) -> str:
+    """How far the scenario's truth lies from the fit's answer mean +- sd (same unit): in sd,
+    and whether the 95 % band (mean +- Z95 sd) holds it, so the demo checks itself in the open."""
+    from ..inverse.bands import Z95
+
+    if not sd > 0:
+        return "no band to compare"
+    z = (truth - mean) / sd
+    return f"{abs(z):.1f} sd away, {'inside' if abs(z) <= Z95 else 'OUTSIDE'} the 95 % band"
+
+
 def _truth_lines(case: Path, summary: dict, power_unit: str) -> list[str]:
     """What the scenario's truth.json says next to what the fit found (nothing without it)."""
-    from .report_format import power_pm
+    from .report_format import eng, pm95, power_pm
     from .units import from_si
 
     truth_file = case.parent / "truth.json"
@@ -88,22 +99,30 @@ def _truth_lines(case: Path, summary: dict, power_unit: str) -> list[str]:
     found = []
     if zones and summary.get("quantity") == "heat_flux":
         weakest = min(zones, key=lambda z: z["mean"])
+        true_q = (truth.get("zone_mean_W_m2") or {}).get(weakest["name"])
         found.append(f"weakest zone {weakest['name']} ({weakest['deviation_from_face_mean']:+.0f} W/m^2 "
-                     f"from the face mean)")
+                     f"from the face mean" + (f"; fit {pm95(eng(weakest['mean']), weakest['sd'], 'W/m^2')}, "
+                                              f"truth {true_q:.0f} W/m^2: "
+                                              f"{against_truth(true_q, weakest['mean'], weakest['sd'])})"
+                                              if true_q is not None else ")"))
     elif zones:
         warmest = max(zones, key=lambda z: z["mean"])
         true_c = (truth.get("zone_mean_degC") or {}).get(warmest["name"])
+        fit_c = from_si(warmest["mean"], "temperature", "degC")
         found.append(f"warmest zone {warmest['name']} ({warmest['deviation_from_face_mean']:+.1f} K from the "
-                     f"face mean" + (f"; truth {true_c:.1f} degC, fit {from_si(warmest['mean'], 'temperature', 'degC'):.1f} degC)"
+                     f"face mean" + (f"; fit {pm95(f'{fit_c:.1f}', warmest['sd'], 'degC')}, truth {true_c:.1f} "
+                                     f"degC: {against_truth(true_c, fit_c, warmest['sd'])})"
                                      if true_c is not None else ")"))
     power, sd = summary.get("total_power_W"), summary.get("total_power_sd_W")
     if "total_power_W" in truth and power is not None:
         if summary.get("face") == "bore" and power < 0:     # said from the fluid's side
             found.append(f"heat into the fluid {power_pm(-power, sd, power_unit)} "
-                         f"(truth {-truth['total_power_W']:.0f} {power_unit})")
+                         f"(truth {-truth['total_power_W']:.0f} {power_unit}: "
+                         f"{against_truth(truth['total_power_W'], power, sd)})")
         else:
             found.append(f"total power {power_pm(power, sd, power_unit)} "
-                         f"(truth {truth['total_power_W']:.0f} {power_unit})")
+                         f"(truth {truth['total_power_W']:.0f} {power_unit}: "
+                         f"{against_truth(truth['total_power_W'], power, sd)})")
     if found:
         bad = f" (the scenario's faulty sensor: {truth['bad_sensor']})" if "bad_sensor" in truth else ""
         found.append(f"set aside: {', '.join(summary.get('set_aside') or []) or 'none'}{bad}")

@@ -4,6 +4,7 @@ The tube scenario's data are written by another change; here the registry is tes
 platen and on a temporary copy of it standing in as 'tube' (in tmp_path only)."""
 
 import fnmatch
+import json
 import shutil
 import tomllib
 from pathlib import Path
@@ -65,7 +66,7 @@ def test_named_demo_runs_from_its_own_folder(installed, tmp_path, capsys):
     assert main(["demo", "tube", "--out", str(out)]) == 0
     text = capsys.readouterr().out
     assert "demo truth: TUBE COPY:" in text
-    assert "(truth 818 W)" in text                  # demo_data/truth.json: 818.2 W (our scenario)
+    assert "(truth 818 W: " in text                 # demo_data/truth.json: 818.2 W (our scenario)
     assert (out / "report.html").is_file() and (out / "summary.json").is_file()
 
 
@@ -82,3 +83,19 @@ def test_package_data_names_every_demo_file():
             if path.is_file() and path.suffix in (".toml", ".csv", ".json"):
                 rel = path.relative_to(PLATEN).as_posix()
                 assert any(fnmatch.fnmatch(rel, g) and rel.count("/") == g.count("/") for g in globs), rel
+
+
+def test_demo_says_where_each_truth_lies_against_the_band(tmp_path):
+    """The demo checks itself in the open: each truth shown beside the fit says how many sd it
+    lies from the answer and whether the 95 % band (mean +- 1.96 sd, the normal quantile)
+    holds it.  Truths here are made up for the check."""
+    assert demos.against_truth(10.0, 9.0, 1.0) == "1.0 sd away, inside the 95 % band"
+    assert demos.against_truth(7.0, 9.0, 1.0) == "2.0 sd away, OUTSIDE the 95 % band"   # 2 > 1.96
+    assert demos.against_truth(1.0, 1.0, 0.0) == "no band to compare"
+    (tmp_path / "truth.json").write_text(json.dumps({"total_power_W": 100.0, "zone_mean_W_m2": {"a": 50.0}}))
+    summary = {"quantity": "heat_flux", "total_power_W": 103.0, "total_power_sd_W": 1.0,
+               "zones": [{"name": "a", "mean": 45.0, "sd": 2.0, "deviation_from_face_mean": -5.0},
+                         {"name": "b", "mean": 60.0, "sd": 2.0, "deviation_from_face_mean": 5.0}]}
+    line = demos._truth_lines(tmp_path / "case.toml", summary, "W")[-1]
+    assert "weakest zone a" in line and "truth 50 W/m^2: 2.5 sd away, OUTSIDE the 95 % band" in line
+    assert "(truth 100 W: 3.0 sd away, OUTSIDE the 95 % band)" in line
