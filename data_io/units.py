@@ -18,21 +18,8 @@ import pint
 
 from .errors import InputError
 
-
-
-def _registry() -> pint.UnitRegistry:
-    """pint's default registry, its parsed definitions cached in the user's cache folder
-    (pint's cache_folder=":auto:"; 0.014 s instead of 0.14 s from the second run on, which
-    every command pays at start-up).  Where that folder cannot be used (no home, read-only,
-    a cache half written by another process) the registry is parsed afresh: the same units."""
-    try:
-        return pint.UnitRegistry(cache_folder=":auto:")
-    except Exception:  # noqa: BLE001 - any failure of the cache only costs the parse
-        return pint.UnitRegistry()
-
-
 #: The one unit registry of the package.
-ureg = _registry()
+ureg = pint.UnitRegistry()
 
 
 @dataclass(frozen=True)

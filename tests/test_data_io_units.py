@@ -98,29 +98,3 @@ def test_format_quantity():
     assert format_quantity(0.15, "length") == "150 mm"
     assert format_quantity(298.15, "temperature") == "25 degC"
     assert format_quantity(math.inf, "length") == "infinite"
-
-
-@pytest.mark.parametrize("cache_home", ["usable", "unusable"])
-def test_registry_with_or_without_its_cache(tmp_path, cache_home):
-    """The registry's parsed definitions are cached in the user's cache folder; where that
-    folder cannot be made (here a path below a plain file) the definitions are parsed afresh.
-    Either way the conversions are pint's own (NIST SP 811: 1 in = 25.4 mm exactly, 0 degF =
-    255.372 K; from memory)."""
-    import os
-    import subprocess
-    import sys
-
-    if cache_home == "usable":
-        home = tmp_path / "cache"
-    else:
-        (tmp_path / "file").write_text("not a folder")
-        home = tmp_path / "file" / "cache"
-    code = ("from heatsight.data_io.units import ureg\n"
-            "print(ureg.Quantity(1, 'in').to('mm').magnitude, ureg.Quantity(0, 'degF').to('K').magnitude)\n")
-    env = dict(os.environ, XDG_CACHE_HOME=str(home))
-    for _ in range(2):          # the second run reads the cache it wrote, where it could
-        out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, check=True)
-        inch, zero_f = map(float, out.stdout.split())
-        assert inch == pytest.approx(25.4, rel=1e-12)
-        assert zero_f == pytest.approx(255.3722222, abs=1e-6)
-    assert (home / "pint").is_dir() == (cache_home == "usable")
