@@ -110,7 +110,7 @@ def summary_dict(result, *, case_path=None, readings_path=None) -> dict:
     for key in ("model", "model_evidence", "model_weights", "zone_edge_widths_m", "zone_edge_weights",
                 "zone_level_prior_sd", "zone_level_probability", "unseen_stretch_steps_m",
                 "unseen_stretch_level_sd"):
-        # the face model (inverse.zones; the unseen edge stretch's steps, inverse.stretch)
+        # the face model (inverse.fit_models; the unseen edge stretch's steps, inverse.stretch)
         if key in s:
             out[key] = s[key]
     if "calibrated" in s:

@@ -12,12 +12,11 @@ from scipy.special import logsumexp
 from ..forward.geometry import is_wall
 from .design import NOMINAL_PRECISION_FACTOR, smooth_prior
 from .face_grid import display_grid, face_interval
-from .fit_problem import is_learned, with_steps_given_kept
-from .fit_screening import at_answer_prior
+from .fit_problem import with_steps_given_kept
 from .hyperprior import LearnedPrior, face_size
 from .model_choice import MIXED_MODELS, ModelMixture, embedded_mixture, log_evidence_on_all, model_weights
 from .result import Posterior, valid_zones
-from .strength import default_alphas
+from .strength import choose_strength, default_alphas
 from .truncation import nearest_distance
 from .zone_columns import ZoneDesign
 from .zone_edges import edge_rooms, edge_widths, with_edge
@@ -46,7 +45,7 @@ def build_zone_models(spec, design, rd, problem, warnings, post, shift=None):
         return []
     if opts.calibrate and shift is None:
         return []
-    learned = is_learned(opts)
+    learned = opts.learned_prior
     if isinstance(post.averaged, LearnedPrior):
         scale, factor = float(post.averaged.amplitude_quantiles(0.5)), ZONE_LEVEL_FACTORS[1]
     else:
@@ -189,3 +188,13 @@ def choose_model(opts, design, zone_models, zscreens, smooth, steps, post, u, pr
         info["prior"] = zf.prior.description()
     return (columns, Posterior(c, C, zf.alpha, mixture, calibrated), zscreens[lead], {"model": "zones", **info},
             zone_model)
+
+
+def at_answer_prior(zscreen, zone_model, opts):
+    """The zone model's screening with its problem and strength at the levels' prior the
+    answer uses, where ZoneModel.learned_fit chose it again at the learned remainder's point:
+    the same sensors; the table's leave-one-out columns stay the screening's."""
+    if not zone_model.refined:
+        return zscreen
+    problem = zone_model.marginal.subset(np.flatnonzero(zscreen.kept))
+    return replace(zscreen, problem=problem, choice=choose_strength(problem, opts.strength_request))

@@ -5,7 +5,6 @@ from __future__ import annotations
 
 from .calibration import calibrate, learned_calibration
 from .design import NOMINAL_PRECISION_FACTOR
-from .fit_problem import is_learned
 from .hyperprior import learn_prior
 from .lmfit_solver import fit_linear_lmfit
 from .result import Posterior
@@ -21,13 +20,13 @@ def smooth_posterior(design, rd, screen, P, u, opts, warnings) -> Posterior:
     if opts.calibrate:
         cal = calibrate(design, rd, screen.kept, final, alpha, P, opts.calibration)
         K = P.size
-        if not is_learned(opts):
+        if not opts.learned_prior:
             return Posterior(cal.coefficients, cal.covariance[:K, :K], alpha, None, cal)
         cal, avg, notes = learned_calibration(cal, rd, screen.kept, final, u > 0, NOMINAL_PRECISION_FACTOR,
                                               opts.calibration)
         warnings[:] = [w for w in warnings if w not in screen.choice.warnings] + list(avg.warnings) + notes
         return Posterior(cal.coefficients, cal.covariance[:K, :K], alpha, avg, cal)
-    if is_learned(opts):
+    if opts.learned_prior:
         avg = learn_prior(final, design.basis, nominal=u > 0, nominal_factor=NOMINAL_PRECISION_FACTOR)
         # the fixed prior's strength-grid notes do not apply to the learned prior's answer
         warnings[:] = [w for w in warnings if w not in screen.choice.warnings] + list(avg.warnings)

@@ -18,11 +18,6 @@ from .stretch import step_level, stretch_steps
 from .truncation import conditional, face_tail, left_out_columns, tail_covariance
 
 
-def is_learned(opts) -> bool:
-    """Is the answer the learned prior's (hyperprior.py)?"""
-    return opts.strength_method == "evidence" and opts.prior == "learned" and not opts.monte_carlo
-
-
 def steps_given_kept(steps, lin, kept, residual):
     """(m (n,) [K], v (n,) [K^2]): the unseen stretches' steps (stretch.StretchSteps) at every
     reading given the residual (n,) [K] at the readings `kept`, under lin's noise S (which

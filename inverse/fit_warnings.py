@@ -1,5 +1,5 @@
-"""The warnings of inverse.fit that read the answer: series truncation at a sensor, misfit,
-the layout (layout.py) and what the readings cannot resolve (resolution.py)."""
+"""inverse.fit's notes and warnings: series truncation at a sensor, the layout of the kept
+sensors (layout.py), misfit of the answer and what the readings cannot resolve (resolution.py)."""
 
 from __future__ import annotations
 

@@ -12,9 +12,9 @@ order of a Whittle-Matern prior: hyperprior.py), GCV, L-curve, discrepancy or fi
 parameters calibrated jointly (calibration.py) and the heater-zone model (zones.py).
 
 The steps, each a function of its own module: the readings' problem with its noise, placement,
-left-out modes and unseen-stretch steps (fit_problem.py), calibration and screening
-(fit_screening.py), the smooth model's posterior (fit_posterior.py), the zone models and the
-choice of model (fit_models.py), warnings (fit_warnings.py), derived figures (result.py).
+left-out modes and unseen-stretch steps (fit_problem.py), calibration (fit_calibration.py),
+screening (fit_screening.py), the smooth model's posterior (fit_posterior.py), the zone models
+and the choice of model (fit_models.py), warnings (fit_warnings.py), derived figures (result.py).
 """
 
 from __future__ import annotations
@@ -25,9 +25,10 @@ from .design import Design, smooth_prior
 from .errors import InverseError
 from .fit_models import build_zone_models, choose_model
 from .fit_posterior import smooth_posterior
-from .fit_problem import (answer_tails, is_learned, lead_tail_prior, linear_problem, reading_noise,
+from .fit_problem import (answer_tails, lead_tail_prior, linear_problem, reading_noise,
                           steps_given_kept, with_placement, with_tail)
-from .fit_screening import calibrated_design, screen_sensors, settled_screen, step_screening
+from .fit_calibration import calibrated_design, step_screening
+from .fit_screening import screen_sensors, settled_screen
 from .fit_warnings import layout_warnings, misfit_warnings, truncation_warnings, unresolved_warnings
 from .hyperprior import LearnedPrior
 from .monte_carlo import placement_draws
@@ -58,7 +59,7 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
     rd = as_readings(readings)
     if rd.n < 2:
         raise InverseError(f"at least 2 usable sensors are needed, got {rd.n}")
-    if opts.calibrate and opts.model == "zones" and not is_learned(opts):
+    if opts.calibrate and opts.model == "zones" and not opts.learned_prior:
         raise InverseError("the zone model with calibrated face parameters needs the learned prior "
                            "(strength = \"evidence\", prior = \"learned\", no Monte Carlo); "
                            "use model = \"smooth\" or drop calibrate")
@@ -86,7 +87,7 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
     # parameters, at the calibrated ones
     problem, tail_prior, steps = (with_tail(base, design, rd, P, u, screen_sensors(base, rd, opts, gross).kept,
                                              stretch=not opts.calibrate)
-                                  if is_learned(opts) else (base, None, None))
+                                  if opts.learned_prior else (base, None, None))
 
     smooth = screen_sensors(problem, rd, opts, gross)
     post = smooth_posterior(design, rd, smooth, P, u, opts, warnings)
@@ -104,7 +105,7 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
     zone_models = build_zone_models(spec, design, rd, base, warnings, post, shift)
     learned_prior = post.averaged if isinstance(post.averaged, LearnedPrior) else None
     leading = learned_prior.leading() if learned_prior is not None and zone_models else None
-    if zone_models and is_learned(opts):
+    if zone_models and opts.learned_prior:
         # the zone levels' scale is chosen before the remainder's tail is learned (a scale too
         # small leaves the zones' structure to the tail, whose variance then widens every
         # band), the tail on the sensors that pass at that scale

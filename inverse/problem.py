@@ -130,6 +130,12 @@ class FitOptions:
 
     # ------------------------------------------------------------------ derived settings
     @property
+    def learned_prior(self) -> bool:
+        """Is the answer the learned prior's (hyperprior.py): the evidence, prior "learned", no
+        Monte Carlo draws?"""
+        return self.strength_method == "evidence" and self.prior == "learned" and not self.monte_carlo
+
+    @property
     def strength_request(self):
         """What the strength rule is asked: a method name or the fixed alpha."""
         return float(self.strength) if self.strength_method == "fixed" else self.strength_method

@@ -607,7 +607,7 @@ def test_levels_chosen_again_at_the_remainders_point(readings, monkeypatch, same
     remainder's leading point (ZoneModel.learned_fit).  Kept (SAME_LEVEL_SD = 0): the
     remainder is learned again for the answer, on the sensors of the zone model's first
     screening, and the screening handed on has its problem and strength at the new prior
-    (fit_screening.at_answer_prior); dropped (SAME_LEVEL_SD = inf): the choice before it stands,
+    (fit_models.at_answer_prior); dropped (SAME_LEVEL_SD = inf): the choice before it stands,
     its learned remainder is reused (one learned prior per model) and the screening is the
     first one."""
     from heatsight.inverse import fit_models as ft
