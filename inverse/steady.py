@@ -174,7 +174,9 @@ def summarize(times, values, index, window: float) -> WindowStats:
     tt = t - np.repeat(t[starts], n_rows)              # time since the window's first sample
     # shift each sensor by a typical value so that the sums below lose no digits
     sample = X[:: max(1, t.size // 256)]
-    ref = np.nan_to_num(np.nanmedian(sample, axis=0)) if np.isfinite(sample).any() else np.zeros(n)
+    seen = np.isfinite(sample).any(axis=0)           # a sensor silent over the sample stays at 0
+    ref = np.zeros(n)
+    ref[seen] = np.nanmedian(sample[:, seen], axis=0)
     Xc = np.where(ok, X - ref, 0.0)
 
     # window sums as one sparse (windows x rows) product: 5x faster than np.add.reduceat along axis 0

@@ -221,7 +221,12 @@ class TrendModel:
         """Changes of each zone from the reference and their noise-only sd, (R, zones) each:
         d (R, used) readings [K], rv ((used,) or (R, used)) their random variances [K^2];
         rows in reference_mask (the reference window itself) are exactly 0 +- 0."""
-        ch = self.changes.solve(d - self.ref_d, rv + self.ref_rv)
+        var = rv + self.ref_rv
+        if np.ndim(var) == 1 and not np.all(np.isfinite(var)):
+            # a sensor without a reading in the reference window has no change (its difference
+            # is NaN, so every row leaves it out); its variance only has to be a number
+            var = np.where(np.isfinite(var), var, 1.0)
+        ch = self.changes.solve(d - self.ref_d, var)
         change, csd = ch.values, ch.sd
         if reference_mask is not None and np.any(reference_mask):
             change[reference_mask], csd[reference_mask] = 0.0, 0.0

@@ -284,3 +284,28 @@ def test_refusals_before_reading(tmp_path, monkeypatch, capsys):
     assert code == 2 and "not empty" in cap.err and (folder / "busy" / "note.txt").read_text() == "keep me"
     code, cap = trend(folder, monkeypatch, capsys, "--log", "missing.csv")
     assert code == 2 and "missing.csv: file not found" in cap.err
+
+
+def test_every_nth_row_with_a_sensor_silent_in_the_reference_window(tmp_path):
+    """A thermocouple open at start-up (an overflow code, then empty cells) that recovers later:
+    --every runs as the windows mode does; its changes are left out of the rows where the
+    reference window has no reading of it, and the others' changes are those of the same log
+    with that sensor's column blank throughout (the change of a zone is the same problem
+    without that sensor)."""
+    folder = make_folder(tmp_path)
+    make_log(folder, hours=1.0, seed=5)
+    log = pd.read_csv(folder / "log.csv")
+    log.loc[:15, "TC20"] = 9.9e37          # a logger's overflow code
+    log.loc[16:70, "TC20"] = np.nan
+    log.to_csv(folder / "log.csv", index=False, float_format="%.4f")
+    summary, out = run_trend(folder / "platen.toml", log=folder / "log.csv", every=10, echo=lambda s: None)
+    rows = read_trend(out)
+    assert summary["trend_rows"] == len(rows) > 0
+    change = [c for c in rows.columns if c.endswith(("_change", "_change_sd"))]
+    assert change and np.isfinite(rows[change].to_numpy()).all()
+    blank = log.copy()
+    blank["TC20"] = np.nan
+    blank.to_csv(folder / "blank.csv", index=False, float_format="%.4f")
+    _, out2 = run_trend(folder / "platen.toml", log=folder / "blank.csv", every=10, out=folder / "blank",
+                        echo=lambda s: None)
+    np.testing.assert_allclose(rows[change].to_numpy(), read_trend(out2)[change].to_numpy(), rtol=1e-9, atol=1e-9)
