@@ -77,7 +77,8 @@ def output_folder(out, case, overwrite: bool, names=FIT_OUTPUT_NAMES, inputs=())
     `overwrite`, and any output (of `names`, or a PNG) that would replace one of the run's
     inputs (the case's files and `inputs`: --readings, --at, --log), a folder, or a file
     heatsight did not write there (`--overwrite` replaces only heatsight's own earlier
-    outputs, listed in the folder's summary.json)."""
+    outputs, listed in the folder's summary.json; those this run does not write are removed
+    when it commits, so the folder and its summary.json agree)."""
     out = Path(out)
     if out.exists() and not out.is_dir():
         raise InputError("exists and is not a folder; --out names a folder", file=out)
@@ -86,7 +87,9 @@ def output_folder(out, case, overwrite: bool, names=FIT_OUTPUT_NAMES, inputs=())
     every_input = [Path(p) for p in list(case.input_files()) + [p for p in inputs if p is not None]]
     resolved = {p.resolve() for p in every_input}
     existing = sorted(out.iterdir()) if out.is_dir() else []
-    for target in [out / name for name in names] + [p for p in existing if p.suffix == ".png"]:
+    # heatsight's earlier outputs this run does not write go when it commits (OutputSet)
+    earlier = [out / name for name in sorted(own_outputs(out)) if name not in names]
+    for target in [out / name for name in names] + [p for p in existing if p.suffix == ".png"] + earlier:
         if target.resolve() in resolved or any(_same(target, p) for p in every_input):
             raise InputError(f"{target.name} in the output folder is an input of this run; choose another --out",
                              file=out)
@@ -208,7 +211,9 @@ class OutputSet:
     Use as a context manager: ``add(name, bytes_or_text)`` stages files (in temporary
     files inside `folder`); on a clean exit they are renamed into place (the files they
     replace are kept aside until every rename succeeded, and put back otherwise); on an error the temporary files are removed and
-    nothing is left behind.
+    nothing is left behind.  A set that writes a summary.json also removes, once every
+    rename succeeded, heatsight's earlier outputs there (own_outputs) that it did not write:
+    a --overwrite run without --at leaves no points.csv of an earlier run behind, unlisted.
     """
 
     def __init__(self, folder):
@@ -238,6 +243,8 @@ class OutputSet:
     def _commit(self) -> None:
         aside: list[tuple[Path, Path]] = []      # (target, its earlier version kept aside)
         done: list[Path] = []
+        written = {name for name, _ in self._staged}
+        stale = sorted(own_outputs(self.folder) - written) if "summary.json" in written else []
         try:
             for name, staged in self._staged:
                 target = self.folder / name
@@ -250,6 +257,12 @@ class OutputSet:
                     os.replace(target, keep)
                 os.replace(staged, target)
                 done.append(target)
+            for name in stale:
+                target = self.folder / name
+                if target.is_file() and not target.is_symlink():
+                    keep = Path(tempfile.mkdtemp(prefix=f".{name}.", suffix=".old", dir=self.folder)) / name
+                    aside.append((target, keep))
+                    os.replace(target, keep)
         except BaseException:
             for target in done:
                 try:

@@ -79,6 +79,34 @@ def test_fit_default_folder_next_to_case_and_refuses_non_empty(tmp_path, monkeyp
     assert code == 0, cap.err
 
 
+def test_overwrite_removes_its_own_earlier_outputs_and_keeps_the_users(tmp_path, monkeypatch, capsys):
+    """--overwrite replaces heatsight's earlier outputs: one this run does not write (points.csv
+    without --at) goes, so the folder and its summary.json agree and a later run with --at is
+    not refused; a file of the user's own stays, and an earlier output that is an input of this
+    run is refused before anything is written."""
+    _write(tmp_path, files(**{"case.toml": FIT, "layout.csv": GOOD_LAYOUT, "readings.csv": GOOD_READINGS,
+                              "points.csv": "r [mm],theta [deg],z [mm]\n0,0,20\n"}))
+    code, cap = _run(tmp_path, monkeypatch, capsys, ["fit", "case.toml", "--at", "points.csv", "--out", "res"])
+    assert code == 0, cap.err
+    out = tmp_path / "res"
+    (out / "notes.txt").write_text("mine")
+    code, cap = _run(tmp_path, monkeypatch, capsys, ["fit", "case.toml", "--out", "res", "--overwrite"])
+    assert code == 0, cap.err
+    listed = set(json.loads((out / "summary.json").read_text())["output_files"])
+    assert not (out / "points.csv").exists() and "points.csv" not in listed
+    assert {p.name for p in out.iterdir()} == listed | {"notes.txt"}
+    code, cap = _run(tmp_path, monkeypatch, capsys, ["fit", "case.toml", "--at", "points.csv", "--out", "res",
+                                                     "--overwrite"])
+    assert code == 0, cap.err
+    assert (out / "points.csv").is_file() and (out / "notes.txt").read_text() == "mine"
+    # an earlier output given as an input of this run: refused, nothing written or removed
+    before = snapshot(out)
+    code, cap = _run(tmp_path, monkeypatch, capsys, ["fit", "case.toml", "--readings", "res/points.csv",
+                                                     "--out", "res", "--overwrite"])
+    assert code == 2 and "points.csv in the output folder is an input of this run" in cap.err, cap.err
+    assert snapshot(out) == before
+
+
 LOG = "time [s],TC1,TC2,TC3\n0,85,80,40\n10,85.1,80.1,40.1\n"
 
 FIT_CASES = {
