@@ -247,14 +247,26 @@ def _parse(raw: RawTable, spec: tuple[Column, ...], what: str) -> dict:
     return values
 
 
+def closest_name(name: str, names, cutoff: float = 0.6) -> str | None:
+    """The name of `names` that `name` most likely means: the same name in other letter case
+    ('tc06' for 'TC06'), else the closest by difflib's ratio (>= cutoff) with case ignored;
+    None when none is close."""
+    folded = {str(n).casefold(): n for n in names}
+    key = str(name).casefold()
+    if key in folded:
+        return folded[key]
+    close = difflib.get_close_matches(key, list(folded), n=1, cutoff=cutoff)
+    return folded[close[0]] if close else None
+
+
 def likely_typo(extra: list[str], absent: list[str]) -> tuple[str, str] | None:
     """(channel, sensor) when a channel that is not in the layout looks like a misspelt layout
-    sensor that has no reading: the one rule for snapshots and logs.  Other extra channels
-    (loggers record water, ambient...) are ignored with a warning."""
+    sensor that has no reading (closest_name): the one rule for snapshots and logs.  Other
+    extra channels (loggers record water, ambient...) are ignored with a warning."""
     for name in extra:
-        close = difflib.get_close_matches(name, absent, n=1, cutoff=0.6)
-        if close:
-            return name, close[0]
+        close = closest_name(name, absent)
+        if close is not None:
+            return name, close
     return None
 
 

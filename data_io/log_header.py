@@ -5,13 +5,12 @@ that are not sensors (kept with a warning and ignored)."""
 from __future__ import annotations
 
 import codecs
-import difflib
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
-from .csv_in import check_printable, likely_typo
+from .csv_in import check_printable, closest_name, likely_typo
 from .errors import InputError
 from .plant_files import SNIFF_BYTES, TextFormat, _head, rows, sniff
 from .units import column_unit, convert, split_header
@@ -151,5 +150,5 @@ def open_log(path, layout) -> LogColumns:
 
 def _did_you_mean(name, known) -> str:
     """'; did you mean 'TC1'?' for the closest known sensor id, or ''."""
-    close = difflib.get_close_matches(name, list(known), n=1) if known is not None else []
-    return f"; did you mean '{close[0]}'?" if close else ""
+    close = closest_name(name, known) if known is not None else None
+    return f"; did you mean '{close}'?" if close is not None else ""

@@ -84,6 +84,8 @@ def test_snapshot_missing_sensor_warns(tmp_path, layout):
     ("sensor,temperature\nTC1,80 degC\n", "put the unit in the header"),
     ("sensor,temperature\nTC9,80\n", "sensor 'TC9' is not in the layout"),
     ("sensor,temperature\nTC,80\n", "did you mean 'TC"),
+    ("sensor,temperature\nTC1,80\ntc2,81\n", "sensor 'tc2' is not in the layout"),    # letter case only
+    ("sensor,temperature\nTC1,80\ntc2,81\n", "did you mean 'TC2', which has no reading"),
     ("sensor,temperature\nTC1,2000\n", "likely an open circuit"),
     ("sensor,temperature [K]\nTC3,-5\n", "absolute zero"),
     ("sensor,temp\nTC1,80\n", "unknown column 'temp'"),

@@ -95,6 +95,8 @@ def test_numeric_times_with_a_unit(tmp_path, layout):
     ("time,TC1\n2024-01-01T00:00:00,80\n2024-01-01T00:00:10+01:00,80\n", "mix times with and without"),
     ("time [s],TC1\n2024-01-01T00:00:00,80\n", "timestamps need no unit"),
     ("time,AMB\n0,20\n", "none of the log's columns (AMB) is a sensor of the layout"),
+    ("time,tc1\n0,20\n", "sensor 'tc1' is not in the layout; did you mean 'TC1'"),    # letter case only
+    ("time,TC1,tc2\n0,20,21\n", "did you mean 'TC2'"),
     ("TC1,TC2\n80,81\n", "a log starts with a time column"),
     ("time,TC1,TC1\n0,80,80\n", "sensor 'TC1' appears twice"),
     ("time,TC1 [psi]\n0,80\n", "unit 'psi'"),
