@@ -230,6 +230,21 @@ def _parse_face(ctx: _Ctx, name: str, table: dict, cylinder: Cylinder) -> tuple[
 # ---------------------------------------------------------------------------- load
 
 
+def _check_calibrated_faces(ctx, calibrate, faces) -> None:
+    """[fit] calibrate names parameters of convection faces only, and an ambient only where
+    it is one temperature (a profile cannot be calibrated): said at load, so `check` refuses
+    what `fit` would."""
+    for face, what in calibrate:
+        cond = faces.get(face)
+        if cond is None or cond.condition != "convection":
+            now = "absent" if cond is None else f"'{cond.condition}'"
+            raise ctx.error("fit.calibrate", f"'{face}.{what}': only h or ambient of a convection face can be "
+                                             f"calibrated, and faces.{face} is {now}")
+        if what == "ambient" and not cond.is_uniform:
+            raise ctx.error("fit.calibrate", f"'{face}.{what}': faces.{face} has an ambient profile, which "
+                                             "cannot be calibrated; give one ambient temperature")
+
+
 def load_case(path, purpose: str | None = None) -> Case:
     """Read and validate a case file; `purpose` "fit" or "simulate" adds that command's checks.
 
@@ -292,6 +307,7 @@ def load_case(path, purpose: str | None = None) -> Case:
         sensors = SensorFiles(layout, readings)
 
     fit = _parse_fit(ctx, ctx.table(doc, "fit", "fit", required=False))
+    _check_calibrated_faces(ctx, fit.calibrate, faces)
     zones = _parse_zones(ctx, doc.get("zones"), cylinder, unknown[0] if unknown else None)
     plan = _parse_plan(ctx, ctx.table(doc, "plan", "plan", required=False),
                        faces[unknown[0]].condition if unknown else None)

@@ -168,6 +168,17 @@ def test_profile_faces(tmp_path):
     assert tmp_path / "side.csv" in case.input_files()
 
 
+def test_calibrating_an_ambient_profile_is_refused_at_load(tmp_path):
+    """An ambient given as a profile has no one value to calibrate: `check` (load_case) says so,
+    naming fit.calibrate, as `fit` would; its h may still be calibrated."""
+    text = BASE.replace('ambient = "77 degF"', 'profile = "amb.csv"')
+    amb = "r [mm],theta [deg],value [degC]\n0,0,20\n150,0,20\n150,90,20\n"
+    with pytest.raises(InputError, match="fit.calibrate: 'top.ambient': faces.top has an ambient profile"):
+        load_case(make(tmp_path, text + '\n[fit]\ncalibrate = ["top.ambient"]\n', {"amb.csv": amb}))
+    case = load_case(make(tmp_path, text + '\n[fit]\ncalibrate = ["top.h"]\n', {"amb.csv": amb}))
+    assert case.fit.calibrate == (("top", "h"),)
+
+
 def test_flux_profile(tmp_path):
     text = BASE.replace('condition = "unknown-flux"', 'condition = "flux"\nprofile = "q.csv"')
     q = "r [mm],theta [deg],value [kW/m^2]\n0,0,5\n150,0,1\n"  + "75,0,3\n"
@@ -255,6 +266,11 @@ BAD_CASES = {
     "zone range not a list": (BASE + '\n[[zones]]\nname = "a"\nr = "0 mm"\n', "expected a list of two values"),
     "zone theta too wide": (BASE + '\n[[zones]]\nname = "a"\ntheta = ["0 deg", "400 deg"]\n', "spans more than 360 deg"),
     "bad model": (BASE + '\n[fit]\nmodel = "zone"\n', "fit.model: got 'zone'; did you mean 'zones'?"),
+    "calibrate a temperature face": (BASE + '\n[fit]\ncalibrate = ["side.h"]\n',
+                                     "fit.calibrate: 'side.h': only h or ambient of a convection face can be "
+                                     "calibrated, and faces.side is 'temperature'"),
+    "calibrate the unknown face": (BASE + '\n[fit]\ncalibrate = ["bottom.ambient"]\n',
+                                   "faces.bottom is 'unknown-flux'"),
     "zone nominal without unit": (BASE + '\n[[zones]]\nname = "a"\nnominal = "400"\n', "zones[1].nominal"),
     "zone nominal not a power": (BASE + '\n[[zones]]\nname = "a"\nnominal = "400 K"\n', "zones[1].nominal"),
     "zone nominal zero": (BASE + '\n[[zones]]\nname = "a"\nnominal = "0 W"\n', "expected a non-zero power"),
