@@ -67,6 +67,21 @@ def _z_or_zero(v: dict, n: int) -> None:
 # ---------------------------------------------------------------------------- layout
 
 
+#: the smallest random scatter of a reading [K] taken: 0.1 mK, below any thermocouple logger's
+#: resolution (common practice, no source); smaller values only make the fit's arithmetic fail
+MIN_SIGMA_K = 1e-4
+
+
+def _check_sigma(raw, path, sigma) -> None:
+    """A sigma column's values [K] (NaN: not given) must be positive and at least MIN_SIGMA_K."""
+    for i in np.flatnonzero(np.isfinite(sigma) & ~(sigma > 0)):
+        raise InputError("sigma must be positive", file=path, where=raw.where(int(i), raw.column("sigma")))
+    for i in np.flatnonzero(np.isfinite(sigma) & (sigma < MIN_SIGMA_K)):
+        raise InputError(f"sigma {sigma[i]:.3g} K is below {MIN_SIGMA_K:g} K, finer than any thermocouple "
+                         f"logger resolves; give the readings' real scatter", file=path,
+                         where=raw.where(int(i), raw.column("sigma")))
+
+
 def read_layout(path, cylinder) -> Table:
     """Read the sensor layout CSV.
 
@@ -86,8 +101,7 @@ def read_layout(path, cylinder) -> Table:
     warnings: list[str] = []
     n = len(ids)
     sigma = v.get("sigma", np.full(n, np.nan))
-    for i in np.flatnonzero(np.isfinite(sigma) & ~(sigma > 0)):
-        raise InputError("sigma must be positive", file=raw.path, where=raw.where(int(i), raw.column("sigma")))
+    _check_sigma(raw, raw.path, sigma)
     ptol = v.get("position_tolerance", np.full(n, np.nan))
     for i in np.flatnonzero(np.isfinite(ptol) & (ptol < 0)):
         raise InputError("position_tolerance must not be negative", file=raw.path,
@@ -229,8 +243,7 @@ def read_snapshot(path, layout: Table) -> Table:
         temps[over] = np.nan
     _check_range(path, [raw.where(i, tcol) for i in range(len(ids))], ids, temps, lay)
     sig = v.get("sigma", np.full(len(ids), np.nan))
-    for i in np.flatnonzero(np.isfinite(sig) & ~(sig > 0)):
-        raise InputError("sigma must be positive", file=path, where=raw.where(int(i), raw.column("sigma")))
+    _check_sigma(raw, path, sig)
     dropped = [s for s, t in zip(ids, temps) if not np.isfinite(t)]
     if dropped:
         warnings.append(f"{path}: no valid reading (empty, NaN or inf) for sensor"

@@ -271,7 +271,8 @@ def unchecked_warnings(table, limit: float = UNCHECKED_OFFSET_K) -> list[str]:
     weak = fit[fit["caught_offset"] > limit]
     if weak.empty:
         return []
-    lo, hi = (f"{x:.0f}" for x in (weak["caught_offset"].min(), weak["caught_offset"].max()))
+    lo, hi = (f"{x:.0f}" if x < 1e6 else f"{x:.2g}" for x in (weak["caught_offset"].min(),
+                                                              weak["caught_offset"].max()))
     size = f"{lo} K" if lo == hi else f"{lo}-{hi} K"
     names = ", ".join(map(str, weak["sensor"]))
     if len(weak) == 1:

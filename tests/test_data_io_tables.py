@@ -94,6 +94,7 @@ def test_snapshot_missing_sensor_warns(tmp_path, layout):
     ("", "the file is empty"),
     ("sensor,temperature\n", "no data rows"),
     ("sensor,temperature,sigma\nTC1,80,-1\n", "sigma must be positive"),
+    ("sensor,temperature,sigma [K]\nTC1,80,1e-9\n", "line 2, column 'sigma [K]': sigma 1e-09 K is below 0.0001 K"),
 ])
 def test_snapshot_refuses(tmp_path, layout, text, fragment):
     p = write(tmp_path, "readings.csv", text)
@@ -117,6 +118,7 @@ def test_snapshot_refuses(tmp_path, layout, text, fragment):
     ("sensor,r,theta,z,type,class\nA,0.1,0,0.02,J,3\n", "no tolerance is defined for type J"),
     ("sensor,r,theta,z,class\nA,0.1,0,0.02,1\n", "without a thermocouple type"),
     ("sensor,r,theta,z,sigma\nA,0.1,0,0.02,0\n", "sigma must be positive"),
+    ("sensor,r,theta,z,sigma [mK]\nA,0.1,0,0.02,0.01\n", "column 'sigma [mK]': sigma 1e-05 K is below 0.0001 K"),
     ("sensor,r,r,z\nA,0.1,0,0.02\n", "appears twice"),
     ("sensor,r,theta,z\n,0.1,0,0.02\n", "missing sensor"),
 ])

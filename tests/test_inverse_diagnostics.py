@@ -156,6 +156,8 @@ def test_sensors_the_others_cannot_check_are_named_once():
     assert w.startswith("Every sensor is checked by the others only for large faults") and "beyond 12 K" in w
     (w,) = unchecked_warnings(table.assign(caught_offset=[2.0, 2.0, 152.4, 50.0]))
     assert w.startswith("Sensor C is checked") and "beyond 152 K" in w and "near it " in w
+    (w,) = unchecked_warnings(table.assign(caught_offset=[2.0, 2.0, 4.86e150, 50.0]))   # a sigma of 1e9 K
+    assert "beyond 4.9e+150 K" in w and len(w) < 400
 
 
 def test_caught_offset_of_the_averaged_check_is_where_the_score_crosses_the_threshold():
