@@ -42,7 +42,10 @@ def count(text: str) -> int:
 
 def whole(text: str) -> int:
     """A whole number >= 1."""
-    value = count(text)
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
     if value < 1:
         raise argparse.ArgumentTypeError(f"expected a whole number >= 1, got {text!r}")
     return value

@@ -101,8 +101,8 @@ def output_folder(out, case, overwrite: bool, names=FIT_OUTPUT_NAMES, inputs=())
             raise InputError(f"{target.name} in the output folder is a folder; move it or choose another --out",
                              file=out)
         if target.exists() and target.name not in own:
-            raise InputError(f"{target.name} in the output folder was not written by heatsight, so --overwrite "
-                             f"leaves it alone; move it or choose another --out", file=out)
+            raise InputError(f"{target.name} in the output folder was not written by heatsight, which never "
+                             f"replaces such a file; move it or choose another --out", file=out)
     _probe(out if out.is_dir() else out.parent)
     return out, not out.exists()
 

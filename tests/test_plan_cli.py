@@ -94,6 +94,7 @@ BAD = {
     "missing candidates file": (["--candidates", "nowhere.csv"], "nowhere.csv: candidates file not found"),
     "bad candidate columns": (["--candidates", "holes.csv"], "holes.csv"),
     "add zero": (["--add", "0"], "expected a whole number >= 1"),
+    "add negative": (["--add", "-1"], "expected a whole number >= 1, got '-1'"),
     "unknown target zone": (["--target", "outer 90-120"], "unknown target 'outer 90-120'"),
 }
 
