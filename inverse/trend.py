@@ -21,6 +21,7 @@ Works on window statistics (inverse.steady.WindowStats) and arrays; no files.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -29,6 +30,7 @@ from .bands import Z95
 from .batch import TREND_FAMILY_LEVEL, BatchSolver, change_threshold
 from .errors import InverseError
 from .readings import SensorReadings
+from .steady import MIN_SAMPLES
 
 #: the reference is the first steady window whose largest drift is at most this fraction of
 #: the drift limit: a window just inside the limit may still be settling, and a baseline must
@@ -100,6 +102,13 @@ def no_steady_window(stats, drift_limit: float, window: float, names) -> TrendEr
     complete = stats.complete & stats.valid.any(axis=1)
     if not complete.any():
         span = stats.end.max() - stats.start.min() if stats.size else 0
+        rows = int(stats.n_rows.sum()) if stats.size else 0
+        step = span / (rows - 1) if rows > 1 else math.inf
+        if span >= window and step > window / (MIN_SAMPLES - 1) / 1.001:
+            # the rows lie too far apart for MIN_SAMPLES of them in one window
+            longer = float(f"{MIN_SAMPLES * step:.2g}")
+            return TrendError(f"the log's rows are about {step:.3g} s apart, too far apart for {MIN_SAMPLES} of them "
+                              f"in a window of {window:g} s; give a longer --window (at least {longer:g} s)")
         return TrendError(f"no complete window of {window:g} s in the log (it spans {span:.6g} s); "
                           f"give a shorter --window")
     md = np.where(complete, stats.max_drift(), np.inf)

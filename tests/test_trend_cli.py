@@ -227,6 +227,8 @@ def _rows(times, value="110"):
     ("".join(f"{t},{100 + t / 100}," + ",".join(["110"] * 4) + "\n" for t in range(0, 4000, 10)), [],
      "no steady window: in every 600-s window some sensor drifts by 0.5 K or more"),
     (_rows(range(0, 300, 10)), [], "no complete window of 600 s"),
+    (_rows(range(0, 24000, 600)), [], "the log's rows are about 600 s apart, too far apart for 3 of them in a "
+                                      "window of 600 s; give a longer --window (at least 1800 s)"),
     (_rows(range(0, 4000, 10)), ["--every", "0"], "expected a whole number >= 1"),
     (_rows(range(0, 4000, 10)), ["--window", "-5"], "expected a positive number"),
 ])
