@@ -148,11 +148,14 @@ def read_layout(path, cylinder) -> Table:
 
 
 def readings_form(path) -> str:
-    """"snapshot" when the file has sensor and temperature columns, else "log" (from the
-    header alone, so a large log is not read here)."""
+    """"snapshot" when the file has sensor and temperature columns or starts with a sensor
+    column (a snapshot with a wrong second header is then told what a snapshot needs, not
+    that a log needs a time column), else "log" (from the header alone, so a large log is
+    not read here)."""
     from .log_header import header_names
 
-    return "snapshot" if {"sensor", "temperature"} <= set(header_names(path)) else "log"
+    names = header_names(path)
+    return "snapshot" if {"sensor", "temperature"} <= set(names) or names[:1] == ["sensor"] else "log"
 
 
 def _check_range(path, where_of, sensors, temps, layout_frame) -> None:

@@ -127,6 +127,12 @@ FIT_CASES = {
                               "nope.csv"),
     "reading of an unknown sensor": (files(**{"case.toml": FIT, "readings.csv": READINGS.replace("TC2", "TC8")}),
                                      ["fit", "case.toml", "--out", "res"], "not in the layout"),
+    # a snapshot with a wrong second header is told what a snapshot needs, not what a log needs
+    "snapshot with a misnamed column": (files(**{"case.toml": FIT, "readings.csv": "sensor,temp [degC]\nTC1,85\n"}),
+                                        ["fit", "case.toml", "--out", "res"],
+                                        "unknown column 'temp [degC]' in snapshot readings"),
+    "the layout as readings": (files(**{"case.toml": FIT}), ["fit", "case.toml", "--readings", "layout.csv"],
+                               "unknown column 'r"),
 }
 
 
