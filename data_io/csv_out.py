@@ -8,6 +8,7 @@ altered.
 
 from __future__ import annotations
 
+import contextlib
 import io
 import json
 import math
@@ -205,6 +206,18 @@ def write_json(obj, path) -> None:
     atomic_write_text(path, json_text(obj))
 
 
+@contextlib.contextmanager
+def named_os_errors(path):
+    """An OSError raised without a file name (a full disk while writing to an open file) names
+    `path`, so that the one-line message says where."""
+    try:
+        yield
+    except OSError as exc:
+        if exc.filename is not None or exc.errno is None:
+            raise
+        raise OSError(exc.errno, exc.strerror or str(exc), str(path)) from exc
+
+
 class OutputSet:
     """Write several output files so that either all of them appear or none does.
 
@@ -234,10 +247,11 @@ class OutputSet:
     def add(self, name: str, data) -> Path:
         if isinstance(data, str):
             data = data.encode("utf-8")
-        with self.stream(name) as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
+        with named_os_errors(self.folder / name):
+            with self.stream(name) as fh:
+                fh.write(data)
+                fh.flush()
+                os.fsync(fh.fileno())
         return self.folder / name
 
     def _commit(self) -> None:

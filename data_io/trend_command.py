@@ -59,7 +59,7 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
     chunk_rows: rows per chunk of the log (default logs.DEFAULT_CHUNK_ROWS); fmt: "csv"
     (trend.csv) or "parquet" (trend.parquet)."""
     from .case import load_case
-    from .csv_out import OUTPUT_FILES_KEY, OutputSet, json_text
+    from .csv_out import OUTPUT_FILES_KEY, OutputSet, json_text, named_os_errors
     from .fit_steps import case_text
     from .logs import DEFAULT_CHUNK_ROWS, LogReader, count_rows, open_log
     from .plots import face_map, figure_png, sensor_health
@@ -99,7 +99,7 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
         folder.mkdir()
     try:
         with OutputSet(folder) as outset:
-            with outset.stream(names[0]) as fh:
+            with named_os_errors(folder / names[0]), outset.stream(names[0]) as fh:
                 sink = open_sink(fmt, fh)
                 run.run(sink, bar, expected)
                 sink.close()

@@ -107,6 +107,25 @@ def test_overwrite_removes_its_own_earlier_outputs_and_keeps_the_users(tmp_path,
     assert snapshot(out) == before
 
 
+def test_a_full_disk_names_the_file_and_leaves_nothing(tmp_path, monkeypatch, capsys):
+    """A write that fails without a file name (ENOSPC on an open file) is reported naming the
+    output file being written, exit 2, and the new folder is removed."""
+    import errno
+
+    from heatsight.data_io import csv_out
+
+    _write(tmp_path, files(**{"case.toml": FIT, "layout.csv": GOOD_LAYOUT, "readings.csv": GOOD_READINGS}))
+
+    def full(fd):
+        raise OSError(errno.ENOSPC, "No space left on device")
+
+    monkeypatch.setattr(csv_out.os, "fsync", full)
+    code, cap = _run(tmp_path, monkeypatch, capsys, ["fit", "case.toml", "--out", "res"])
+    assert code == 2 and "No space left on device" in cap.err and "a file:" not in cap.err, cap.err
+    assert "res/estimate.csv: No space left" in cap.err and cap.err.count("\n") == 1
+    assert not (tmp_path / "res").exists()
+
+
 LOG = "time [s],TC1,TC2,TC3\n0,85,80,40\n10,85.1,80.1,40.1\n"
 
 FIT_CASES = {
