@@ -8,7 +8,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .functionals import functional_matrix
-from .truncation import functional_tails
+from .truncation import conditional, functional_tails
 
 
 def functional_rows(columns, zones=()) -> dict:
@@ -80,3 +80,17 @@ class MarginalSets:
         S = self.S if noise_covariance is None else noise_covariance
         return dict(zip(names, functional_tails(self.left, left_rows, self.rd, self.prior, S, steps,
                                                 step_rows if with_steps else None)))
+
+    def at_points(self, r, theta, z):
+        """(H (Q, n), variance (Q,)): the sets' part of the temperature at points (r, theta, z)
+        [m, rad, m] given the residual r_k = d - t0 - X c at the kept readings, value = t0 + G c
+        + H r_k + e (truncation.conditional with each set's fields at the points as its rows)."""
+        cols = [c for c in (self.left, self.steps) if c is not None]
+        q = np.size(r)
+        if not cols:
+            return np.zeros((q, self.rd.n)), np.zeros(q)
+        rd = self.rd
+        parts = [(self.step_fields if c is self.steps and self.step_fields is not None
+                  else c.fields(rd.r, rd.theta, rd.z), c.variances(self.prior), c.fields(r, theta, z)) for c in cols]
+        H, variance = conditional(parts, self.S)
+        return H.T, variance

@@ -8,6 +8,7 @@ calibrated face parameters' uncertainty through the joint linearization when the
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from types import SimpleNamespace
 
 import numpy as np
 import pandas as pd
@@ -190,6 +191,9 @@ class FitResult:
     functional_tails: object = field(repr=False, default=None)
     #: the sets marginalized into the kept readings' noise (marginal_sets.MarginalSets), or None
     marginal: object = field(repr=False, default=None)
+    #: points -> (dF, dk, variance): the left-out modes' and steps' part of the face at points
+    #: with u, v (and lines or None), as the face map takes it (build's map_tail), or None
+    map_tail: object = field(repr=False, default=None)
 
     @property
     def smooth_only(self) -> bool:
@@ -289,17 +293,36 @@ class FitResult:
         summary.update(extra or {})
         return cls(face, quantity, unit, cyl, grid, pts.shape, summary, sens, curve, list(warnings),
                    posterior, design, problem, readings, kept, zones,
-                   cal.info() if cal is not None else None, monte_carlo, cal, opts, figure_tails, marginal)
+                   cal.info() if cal is not None else None, monte_carlo, cal, opts, figure_tails, marginal,
+                   map_tail)
 
     # ------------------------------------------------------------------ queries
     def face_profile(self, u, v, level=0.95):
-        """Estimate, sd, lower, upper of the face quantity at face coordinates (u, v)."""
-        return self.posterior.figures(lambda d: d.face(u, v), self.design, level)
+        """Estimate, sd, lower, upper of the face quantity at face coordinates (u, v), as the
+        face map gives them: with the left-out modes' and the unseen stretches' part
+        (map_tail) where the fit has one."""
+        u, v = (np.ravel(np.asarray(x, float)) for x in (u, v))
+        builder, extra = (lambda d: d.face(u, v)), None
+        if self.map_tail is not None:
+            dF, dk, extra = self.map_tail(SimpleNamespace(u=u, v=v, lines=None))
+            if dF is not None:
+                F, k = self.design.face(u, v)
+                builder = _evaluated_once(builder, self.design, (F + dF, k + dk))
+        return self.posterior.figures(builder, self.design, level, extra_variance=extra)
 
     def predict(self, r, theta, z, level=0.95):
-        """Temperature [K] with sd and band anywhere inside the part: (mean, sd, lower, upper)."""
+        """Temperature [K] with sd and band anywhere inside the part: (mean, sd, lower, upper),
+        with the marginalized sets' part given the kept readings (MarginalSets.at_points), as
+        the face map has it on the face: t0 + G c + H (residual - X c) and its variance.  A fit
+        with calibrated face parameters keeps its columns' part alone here."""
         r, theta, z = (np.atleast_1d(np.asarray(x, float)) for x in (r, theta, z))
-        return self.posterior.figures(lambda d: d.sensors(r, theta, z), self.design, level)
+        builder, extra = (lambda d: d.sensors(r, theta, z)), None
+        if self.marginal is not None and self.functional_tails is not None:
+            H, extra = self.marginal.at_points(r, theta, z)
+            X, residual = self.functional_tails[0], self.functional_tails[1]
+            G, t0 = self.design.sensors(r, theta, z)
+            builder = _evaluated_once(builder, self.design, (G - H @ X, t0 + H @ residual))
+        return self.posterior.figures(builder, self.design, level, extra_variance=extra)
 
     def predict_flux(self, r, theta, z):
         """Heat-flux vector -k grad T [W/m^2] (3, P) at points (posterior mean)."""
