@@ -156,6 +156,7 @@ class Fit:
             "residual [K]": s["residual"].to_numpy(float), "standardized": s["standardized"].to_numpy(float),
             "loo predicted [degC]": t(s["loo_predicted"].to_numpy(float)), "loo sd [K]": s["loo_sd"].to_numpy(float),
             "standardized loo": s["standardized_loo"].to_numpy(float),
+            "score": (s["score"] if "score" in s else s["standardized_loo"]).to_numpy(float),
             "caught offset [K]": s["caught_offset"].to_numpy(float), "flag": s["flag"].astype(str).to_numpy()})
 
     # ------------------------------------------------------------------ anywhere in the part

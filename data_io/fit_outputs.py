@@ -60,8 +60,9 @@ def sensor_records(result) -> list[dict]:
             "measured": temp(row["measured"]), "fitted": temp(row["fitted"]),
             "residual": float(row["residual"]), "standardized": float(row["standardized"]),
             "loo_predicted": temp(row["loo_predicted"]), "loo_sd": float(row["loo_sd"]),
-            "standardized_loo": float(row["standardized_loo"]), "caught_offset": float(row["caught_offset"]),
-            "flag": str(row["flag"]),
+            "standardized_loo": float(row["standardized_loo"]),
+            "score": float(row["score"]) if "score" in row else float(row["standardized_loo"]),
+            "caught_offset": float(row["caught_offset"]), "flag": str(row["flag"]),
         })
     return out
 

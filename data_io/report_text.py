@@ -100,7 +100,9 @@ GLOSSARY = (
     ("prediction from the others", "what the fit of all other sensors predicts at a sensor's "
                                    "position (leave-one-out); a faulty or misplaced thermocouple "
                                    "stands out against it."),
-    ("score", "reading minus the prediction from the others, in its predictive standard deviations."),
+    ("score", "reading minus the prediction from the others, in its predictive standard deviations, "
+              "over the smoothing strengths the fit weighs: the number the screening decides on "
+              "(sensors.csv's standardized_loo is the same at the answer's single strength)."),
     ("caught offset", "the smallest fixed offset of a reading that the check against the others "
                       "would catch: half the width of the range of readings the prediction from the "
                       "others accepts (the limit times its standard deviation, for one smoothing "

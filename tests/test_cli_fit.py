@@ -59,6 +59,11 @@ def test_fit_writes_every_output(tmp_path, monkeypatch, capsys):
     kept = [r for r in rows if r["flag"] != "set aside"]
     assert all(float(r["caught_offset_K"]) >= 2.5 * float(r["loo_sd_K"]) for r in kept)   # t > 2.5 here
     assert "caught offset [K]" in (out / "report.html").read_text(encoding="utf-8")
+    # one score everywhere: the screening's, in sensors.csv, summary.json and the report's table
+    report = (out / "report.html").read_text(encoding="utf-8")
+    for row, s in zip(rows, summary["sensors"]):
+        assert float(row["score"]) == pytest.approx(s["score"], rel=1e-9)
+        assert f">{float(row['score']):+.2f}<" in report
     # spreadsheet formula injection: the sensor named "=cmd" is neutralized in CSV outputs
     text = (out / "sensors.csv").read_text()
     assert "'=cmd" in text and "\n=cmd" not in text
