@@ -22,7 +22,7 @@ import pandas as pd
 
 from .display import deg, display_for, file_display, mm, power_unit
 from .errors import InputError
-from .report_format import eng, pm95, power_pm
+from .report_format import pm95_of, power_pm
 from .units import convert, split_header, ureg
 
 #: units of the columns of a points table handed to `Fit.predict` when its header names none
@@ -48,8 +48,27 @@ def fit(case_path, *, readings=None, **options) -> "Fit":
     if unknown:
         raise InputError(f"heatsight.fit: unknown option {unknown[0]!r}; the options are {', '.join(allowed)}")
     case, readings_path = load_fit_case(case_path, readings, how_to_give="pass readings=")
+    _check_overrides(case, options)
     result, _ = fit_case(case, readings_path, **options)
     return Fit(result, case, readings_path)
+
+
+def _check_overrides(case, options) -> None:
+    """The keyword options checked as the case file's are (values, then the sizes of
+    limits.check_case and the draws' limit), before any work."""
+    from dataclasses import replace
+
+    from ..inverse.errors import InverseError
+    from .limits import MAX_MONTE_CARLO, check_case, check_count
+
+    given = {k: v for k, v in options.items() if k != "progress"}
+    try:
+        merged = case.fit.with_overrides(**given)
+    except (InverseError, TypeError, ValueError) as exc:
+        raise InputError(f"heatsight.fit: {exc}") from None
+    check_case(replace(case, fit=merged))
+    if merged.monte_carlo:
+        check_count(int(merged.monte_carlo), MAX_MONTE_CARLO, "monte_carlo", "draws")
 
 
 class Fit:
@@ -78,7 +97,7 @@ class Fit:
         s, d = self.raw.summary, display_for(self.raw)
         mean, sd = s["mean"], s["mean_sd"]
         rows = [("face", f"{self.face} ({self.quantity.replace('_', ' ')})"),
-                ("mean", pm95(eng(d.value(mean)), d.diff(sd), d.symbol)),
+                ("mean", pm95_of(d.value(mean), d.diff(sd), d.symbol)),
                 ("power in", power_pm(s["total_power_W"], s["total_power_sd_W"], power_unit(self.raw.cylinder)))]
         rows.append(("set aside", ", ".join(s["set_aside"]) or "none"))
         return rows

@@ -87,7 +87,7 @@ def against_truth(truth: float, mean: float, sd: float) -> str:
 
 def _truth_lines(case: Path, summary: dict, power_unit: str) -> list[str]:
     """What the scenario's truth.json says next to what the fit found (nothing without it)."""
-    from .report_format import eng, pm95, power_pm
+    from .report_format import pm95, pm95_of, power_pm
     from .units import from_si
 
     truth_file = case.parent / "truth.json"
@@ -101,7 +101,7 @@ def _truth_lines(case: Path, summary: dict, power_unit: str) -> list[str]:
         weakest = min(zones, key=lambda z: z["mean"])
         true_q = (truth.get("zone_mean_W_m2") or {}).get(weakest["name"])
         found.append(f"weakest zone {weakest['name']} ({weakest['deviation_from_face_mean']:+.0f} W/m^2 "
-                     f"from the face mean" + (f"; fit {pm95(eng(weakest['mean']), weakest['sd'], 'W/m^2')}, "
+                     f"from the face mean" + (f"; fit {pm95_of(weakest['mean'], weakest['sd'], 'W/m^2')}, "
                                               f"truth {true_q:.0f} W/m^2: "
                                               f"{against_truth(true_q, weakest['mean'], weakest['sd'])})"
                                               if true_q is not None else ")"))

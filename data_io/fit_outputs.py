@@ -7,7 +7,7 @@ import numpy as np
 import pandas as pd
 
 from .display import FILE_UNITS, deg, file_display, power_unit, power_words
-from .report_format import eng, length_scale_text, percent, pm95
+from .report_format import eng, length_scale_text, percent, pm95_of
 
 #: sensor readings and predictions are temperatures whatever the face quantity
 _TEMPERATURE = file_display("temperature")
@@ -149,7 +149,7 @@ def points_frame(result, points) -> pd.DataFrame:
 def _pm(value, sd, unit) -> str:
     """'11568 ± 22 W/m^2 (95 %)': value with 3 significant digits (data_io.report_format), the
     half-width Z95 x sd with 2."""
-    return pm95(eng(value), sd, unit)
+    return pm95_of(value, sd, unit)
 
 
 def _at(where) -> str:

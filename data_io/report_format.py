@@ -45,6 +45,8 @@ def sig(x, n: int = 2) -> str:
     x = float(x)
     if x == 0:
         return "0"
+    if abs(x) >= 1e12:                       # no integer of a dozen digits and more
+        return f"{x:.{n - 1}e}"
     d = n - 1 - int(math.floor(math.log10(abs(x))))
     return f"{x:.{d}f}" if d > 0 else f"{round(x, d):.0f}"
 
@@ -90,6 +92,22 @@ def pm95(value: str, sd_shown, unit: str) -> str:
     if not _finite(sd_shown):
         return f"{value} {unit}".strip()
     return f"{value} ± {sig(half95(sd_shown), SPREAD_DIGITS)} {unit} (95 %)".replace("  ", " ")
+
+
+def pm95_of(x, sd, unit: str) -> str:
+    """'11.57 ± 0.025 kW/m² (95 %)': x with eng's significant digits, or more decimals where
+    its last digit would be coarser than the half-width (11.6 ± 0.025 would round the value
+    by more than its own band), then pm95."""
+    if not _finite(x):
+        return "–"
+    text = eng(x)
+    half = half95(sd) if _finite(sd) else math.nan
+    if _finite(half) and half > 0 and "e" not in text:
+        need = math.ceil(-math.log10(half))
+        have = len(text.split(".")[1]) if "." in text else 0
+        if need > have:
+            text = f"{float(x):.{need}f}"
+    return pm95(text, sd, unit)
 
 
 def percent(x, n: int = 2) -> str:
@@ -152,6 +170,8 @@ class _Fmt:
         if self.d.quantity == "temperature" and _finite(sd):
             half = half95(sd)
             return f"{_celsius_number(si, _decimals_for(half))} °C ± {sig(half, SPREAD_DIGITS)} K (95 %)"
+        if self.d.quantity != "temperature" and _finite(si):
+            return pm95_of(self.d.value(si), sd, unit)
         return pm95(value, sd, unit)
 
 
@@ -208,4 +228,4 @@ def _power(w, sd=None, unit: str = "W") -> str:
 
 def power_pm(w, sd=None, unit: str = "W") -> str:
     """Power for people: '818 ± 1.6 W (95 %)' (or W/m on a long part)."""
-    return pm95(eng(w), sd, unit) if _finite(w) else "–"
+    return pm95_of(w, sd, unit)

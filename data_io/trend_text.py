@@ -14,7 +14,7 @@ from html import escape
 import numpy as np
 
 from .display import FILE_UNITS, display_of, symbol
-from .report_format import eng, pm95
+from .report_format import eng, pm95_of
 
 
 def _every_words(n) -> str:
@@ -52,7 +52,7 @@ class _Units:
         """'-4.98 ± 0.29 kW/m² (95 %)' (report) or '-4980 ± 290 W/m^2 (95 %)' (console)."""
         if not _finite(x):
             return "–"
-        return pm95(eng(x * self.scale), sd * self.scale if _finite(sd) else None, self.diff_unit)
+        return pm95_of(x * self.scale, sd * self.scale if _finite(sd) else None, self.diff_unit)
 
 
 def _seconds(t) -> str:

@@ -103,7 +103,7 @@ class FitOptions:
             raise _fail("keep_all_sensors", f"expected True or False, got {self.keep_all_sensors!r}")
         for key, low in (("terms", 1), ("harmonics", 0)):
             v = getattr(self, key)
-            if v is not None and (isinstance(v, bool) or int(v) != v or v < low):
+            if v is not None and not _whole_at_least(v, low):
                 raise _fail(key, f"expected a whole number >= {low}, got {v!r}")
         for key in ("common_offset_sd", "threshold"):
             v = getattr(self, key)
@@ -113,7 +113,7 @@ class FitOptions:
             raise _fail("tolerance", f"expected a positive number, got {self.tolerance!r}")
         if len(self.grid) != 2 or min(self.grid) < 2:
             raise _fail("grid", f"expected two sizes >= 2, got {self.grid!r}")
-        if int(self.monte_carlo) != self.monte_carlo or self.monte_carlo < 0:
+        if not _whole_at_least(self.monte_carlo, 0):
             raise _fail("monte_carlo", f"expected a whole number >= 0, got {self.monte_carlo!r}")
         keys = []
         for item in self.calibrate:
@@ -186,8 +186,18 @@ def fit_option_names() -> list[str]:
     return ["strength"] + [f.name for f in fields(FitOptions) if f.name not in internal]
 
 
+def _whole_at_least(v, low) -> bool:
+    """Is v a whole number (not a bool, not text) >= low?"""
+    return (isinstance(v, (int, float, np.integer, np.floating)) and not isinstance(v, (bool, np.bool_))
+            and math.isfinite(v) and int(v) == v and v >= low)
+
+
 def _strength_fields(value) -> dict:
     if isinstance(value, str):
+        try:
+            return {"strength_method": "fixed", "strength": float(value)}     # "1e-6": a number as text
+        except ValueError:
+            pass
         s = value.strip().lower()
         s = "evidence" if s == "auto" else s[5:] if s.startswith("auto:") else s
         return {"strength_method": s, "strength": None}
@@ -196,10 +206,18 @@ def _strength_fields(value) -> dict:
 
 def _calibration_fields(value) -> dict:
     if isinstance(value, dict):
-        keys = tuple(tuple(k) for k in value)
-        priors = tuple((k[0], k[1], float(p[0]), float(p[1])) for k, p in value.items() if p is not None)
+        keys = tuple(_calibration_key(k) for k in value)
+        priors = tuple((*_calibration_key(k), float(p[0]), float(p[1])) for k, p in value.items() if p is not None)
         return {"calibrate": keys, "calibration_priors": priors}
-    return {"calibrate": tuple(tuple(k) for k in value), "calibration_priors": ()}
+    return {"calibrate": tuple(_calibration_key(k) for k in value), "calibration_priors": ()}
+
+
+def _calibration_key(key) -> tuple:
+    """(face, parameter) from a pair or from the case file's "face.parameter" text."""
+    if isinstance(key, str):
+        face, dot, what = key.strip().partition(".")
+        return (face, what) if dot else (key,)
+    return tuple(key)
 
 
 # ---------------------------------------------------------------------------- zones

@@ -227,6 +227,18 @@ def test_pm95_writes_the_level():
     assert pm95("818", 0.7962, "W") == f"818 ± {report.sig(norm.ppf(0.975) * 0.7962, 2)} W (95 %)"  # scipy quantile
 
 
+@pytest.mark.parametrize("x, sd, text", [
+    (11.5689, 0.0125, "11.57 ± 0.024 kW/m² (95 %)"),     # 11.6 would round by more than its band
+    (817.7, 0.9, "818 ± 1.8 kW/m² (95 %)"),              # three digits hold the band
+    (-4980.0, 148.0, "-4980 ± 290 kW/m² (95 %)"),
+    (2.4e31, 1e30, "2.40e+31 ± 2.0e+30 kW/m² (95 %)"),   # no 31-digit integer
+])
+def test_a_value_is_never_rounded_by_more_than_its_band(x, sd, text):
+    # the last digit shown is at most the 95 % half-width (common practice, no source)
+    from heatsight.data_io.report_format import pm95_of
+    assert pm95_of(x, sd, "kW/m²") == text
+
+
 @pytest.mark.parametrize("half, decimals", [(1.8, 1), (18.0, 0), (0.7, 2), (0.05, 2), (180.0, 0)])
 def test_temperature_rounded_to_its_interval(half, decimals):
     # a value is written to the last digit of its 2-significant-digit ± (common practice, no source)
