@@ -108,3 +108,32 @@ def test_write_report_writes_what_the_command_writes(demo, monkeypatch, capsys):
     assert console.splitlines()[:-1] == [x for x in fit.summary().splitlines() if not x.startswith("  warning: ")]
     with pytest.raises(InputError, match="not empty"):
         fit.write_report(folder / "lib")
+
+
+@pytest.mark.parametrize("options, fragment", [
+    ({"harmonics": 100}, "harmonics = 100 is more than 48"),
+    ({"terms": 300}, "terms = 300 is more than 200"),
+    ({"monte_carlo": 10 ** 7}, "monte_carlo 10000000 is more than 100000"),
+    ({"terms": "ten"}, "fit option terms: expected a whole number >= 1, got 'ten'"),
+    ({"smoothing": "smooth"}, "fit option smoothing: got 'smooth'"),
+    ({"nonsense": 1}, "unknown option 'nonsense'"),
+])
+def test_keyword_options_are_checked_like_the_case_files(demo, monkeypatch, options, fragment):
+    """Sizes and values given as keywords meet the case file's limits before any work (they
+    ran for minutes, or asked for 220 GiB, before); one message, no traceback of our own."""
+    from heatsight.data_io import fit_steps
+
+    def no_fit(*args, **kwargs):
+        raise AssertionError("the fit ran")
+
+    monkeypatch.setattr(fit_steps, "fit_case", no_fit)
+    folder, _ = demo
+    with pytest.raises(InputError, match=fragment):
+        heatsight.fit(folder / "platen.toml", **options)
+
+
+def test_keyword_calibrate_and_strength_take_the_case_files_spelling():
+    from heatsight.inverse.problem import FitOptions
+
+    o = FitOptions().with_overrides(calibrate=["top.h"], strength="1e-6")
+    assert o.calibrate == (("top", "h"),) and o.strength_method == "fixed" and o.strength == 1e-6
