@@ -23,7 +23,7 @@ import pandas as pd
 from .display import deg, display_for, file_display, mm, power_unit
 from .errors import InputError
 from .report_format import pm95_of, power_pm
-from .units import convert, split_header, ureg
+from .units import column_unit, convert, split_header, ureg
 
 #: units of the columns of a points table handed to `Fit.predict` when its header names none
 POINT_UNITS = {"r": "mm", "theta": "deg", "z": "mm"}
@@ -196,12 +196,14 @@ class Fit:
             raise InputError(f"predict: r, theta and z need the same length, got {r_m.size}, {th.size}, {z_m.size}")
         if not (np.all(np.isfinite(r_m)) and np.all(np.isfinite(th)) and np.all(np.isfinite(z_m))):
             raise InputError("predict: every coordinate must be a finite number")
-        inside = self.raw.cylinder.contains(r_m, z_m) & (r_m >= 0)
+        cyl = self.raw.cylinder
+        inside = cyl.contains(r_m, z_m) & (r_m >= 0)
         if not np.all(inside):
             i = int(np.flatnonzero(~inside)[0])
+            bore = f"inner radius {mm(cyl.inner_radius):.6g} mm, " if cyl.hollow else ""
+            height = "long" if getattr(cyl, "long", False) else f"{mm(cyl.height):.6g} mm"
             raise InputError(f"point {i + 1} (r = {mm(r_m[i]):.6g} mm, z = {mm(z_m[i]):.6g} mm) lies outside "
-                             f"the part (radius {mm(self.raw.cylinder.radius):.6g} mm, height "
-                             f"{mm(self.raw.cylinder.height):.6g} mm)")
+                             f"the part ({bore}radius {mm(cyl.radius):.6g} mm, height {height})")
         mean, sd, _, _ = self.raw.predict(r_m, th, z_m)
         out = _TEMPERATURE.value(mean)
         return (out, _TEMPERATURE.diff(sd)) if return_std else out
@@ -214,6 +216,8 @@ class Fit:
                 name, unit = split_header(str(header))
                 key = name.strip().lower()
                 if key in POINT_UNITS:
+                    # the header's unit checked as a CSV header's is (one message naming it)
+                    column_unit(unit, _DIMENSIONS[key], f"column '{header}'")
                     cols[key] = convert(points[header].to_numpy(float), unit or POINT_UNITS[key], _DIMENSIONS[key])
             missing = [k for k in POINT_UNITS if k not in cols]
             if missing:
@@ -255,11 +259,19 @@ class Fit:
         """Write the files of ``heatsight fit --out folder`` (estimate.csv, sensors.csv,
         summary.json, figures, report.html; points.csv for the query points table `at`)
         through the command's own code; returns the folder."""
-        from .csv_out import output_folder
+        import os
+
+        from .csv_out import API_WORDS, output_folder
         from .fit_steps import output_files, write_outputs
         from .tables import read_points
 
-        folder, create = output_folder(Path(folder), self.case, overwrite, inputs=[self.readings_path, at])
+        if not isinstance(folder, (str, os.PathLike)):
+            raise InputError(f"write_report: folder must be a path (str or pathlib.Path), got {type(folder).__name__}")
+        if at is not None and not isinstance(at, (str, os.PathLike)):
+            raise InputError(f"write_report: at must be the path of a CSV file of points (r, theta, z), got "
+                             f"{type(at).__name__}; predict() takes a table of points")
+        folder, create = output_folder(Path(folder), self.case, overwrite, inputs=[self.readings_path, at],
+                                       words=API_WORDS)
         points = read_points(at, self.case.cylinder) if at else None
         write_outputs(folder, create, output_files(self.raw, self.case, self.readings_path, points))
         return folder
@@ -305,12 +317,12 @@ class Plan:
         return f"<heatsight Plan of {self.raw.case.path.name}: {self.summary()}>"
 
     def write(self, folder, *, overwrite: bool = False) -> Path:
-        from .csv_out import output_folder
+        from .csv_out import API_WORDS, output_folder
         from .fit_steps import write_outputs
         from .plan_outputs import PLAN_OUTPUT_NAMES, output_files
 
         folder, create = output_folder(Path(folder), self.raw.case, overwrite, names=PLAN_OUTPUT_NAMES,
-                                       inputs=[self.raw.readings_path, self.raw.candidates_path])
+                                       inputs=[self.raw.readings_path, self.raw.candidates_path], words=API_WORDS)
         write_outputs(folder, create, output_files(self.raw)[0])
         return folder
 

@@ -71,7 +71,15 @@ def own_outputs(folder: Path) -> set[str]:
     return {n for n in listed if isinstance(n, str) and n and "/" not in n and n not in (".", "..")}
 
 
-def output_folder(out, case, overwrite: bool, names=FIT_OUTPUT_NAMES, inputs=()) -> tuple[Path, bool]:
+#: how the messages of output_folder name the folder option and overwriting: the command
+#: line's words (default) and the Python API's (write_report, Plan.write)
+CLI_WORDS = {"another": "choose another --out", "overwrite": "add --overwrite", "names": "--out names a folder",
+             "writable": "choose a folder you may write to with --out"}
+API_WORDS = {"another": "give another folder", "overwrite": "pass overwrite=True", "names": "give a folder",
+             "writable": "give a folder you may write to"}
+
+
+def output_folder(out, case, overwrite: bool, names=FIT_OUTPUT_NAMES, inputs=(), words=None) -> tuple[Path, bool]:
     """The output folder `out` and whether it must be created.
 
     Refused: a file where the folder should be, a missing parent, a non-empty folder without
@@ -79,10 +87,12 @@ def output_folder(out, case, overwrite: bool, names=FIT_OUTPUT_NAMES, inputs=())
     inputs (the case's files and `inputs`: --readings, --at, --log), a folder, or a file
     heatsight did not write there (`--overwrite` replaces only heatsight's own earlier
     outputs, listed in the folder's summary.json; those this run does not write are removed
-    when it commits, so the folder and its summary.json agree)."""
+    when it commits, so the folder and its summary.json agree).  words: CLI_WORDS (default)
+    or API_WORDS, how the messages name the folder option and overwriting."""
+    w = CLI_WORDS if words is None else words
     out = Path(out)
     if out.exists() and not out.is_dir():
-        raise InputError("exists and is not a folder; --out names a folder", file=out)
+        raise InputError(f"exists and is not a folder; {w['names']}", file=out)
     if not out.parent.is_dir():
         raise InputError(f"the folder {out.parent} does not exist", file=out)
     every_input = [Path(p) for p in list(case.input_files()) + [p for p in inputs if p is not None]]
@@ -92,28 +102,28 @@ def output_folder(out, case, overwrite: bool, names=FIT_OUTPUT_NAMES, inputs=())
     earlier = [out / name for name in sorted(own_outputs(out)) if name not in names]
     for target in [out / name for name in names] + [p for p in existing if p.suffix == ".png"] + earlier:
         if target.resolve() in resolved or any(_same(target, p) for p in every_input):
-            raise InputError(f"{target.name} in the output folder is an input of this run; choose another --out",
+            raise InputError(f"{target.name} in the output folder is an input of this run; {w['another']}",
                              file=out)
     if existing and not overwrite:
-        raise InputError("the output folder is not empty; choose another --out or add --overwrite", file=out)
+        raise InputError(f"the output folder is not empty; {w['another']} or {w['overwrite']}", file=out)
     own = own_outputs(out)
     for target in [out / name for name in names]:
         if target.is_dir():
-            raise InputError(f"{target.name} in the output folder is a folder; move it or choose another --out",
+            raise InputError(f"{target.name} in the output folder is a folder; move it or {w['another']}",
                              file=out)
         if target.exists() and target.name not in own:
             raise InputError(f"{target.name} in the output folder was not written by heatsight, which never "
-                             f"replaces such a file; move it or choose another --out", file=out)
-    _probe(out if out.is_dir() else out.parent)
+                             f"replaces such a file; move it or {w['another']}", file=out)
+    _probe(out if out.is_dir() else out.parent, w)
     return out, not out.exists()
 
 
-def _probe(folder: Path) -> None:
+def _probe(folder: Path, words=None) -> None:
     """Refuse, before any work, a folder where nothing can be created (read-only, /proc...)."""
     try:
         os.rmdir(tempfile.mkdtemp(prefix=".heatsight-probe.", dir=folder))
     except OSError as exc:
-        raise InputError(f"cannot write here ({exc.strerror or exc}); choose a folder you may write to with --out",
+        raise InputError(f"cannot write here ({exc.strerror or exc}); {(words or CLI_WORDS)['writable']}",
                          file=folder) from None
 
 

@@ -108,3 +108,15 @@ def test_points_and_profiles_hold_what_the_map_holds(demo):
     assert np.max(np.abs(m2 - est)) < 0.5 and np.max(np.abs(s2 / sd - 1.0)) < 0.1
     truth = np.array([gen.bore_field(sols, np.array([t]), np.array([zz]))[0, 0] for t, zz in zip(th, z)])
     assert np.mean((truth >= lo2) & (truth <= hi2)) >= 0.5
+
+
+def test_a_point_in_the_bore_is_refused_naming_the_bore(demo):
+    from heatsight.data_io.api import Fit
+    from heatsight.data_io.errors import InputError
+
+    _, res = demo
+    case = load_case(gen.OUT / "tube.toml", purpose="fit")
+    fit = Fit(res, case, case.sensors.readings)
+    with pytest.raises(InputError, match=r"lies outside the part \(inner radius 50 mm, radius 80 mm"):
+        fit.predict([30.0, 0.0, 100.0])
+
