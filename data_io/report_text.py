@@ -96,8 +96,8 @@ GLOSSARY = (
                    "distance of the estimate with 95 % probability (1.96 standard deviations)."),
     ("95 % band", "the 95 % interval at each point of the face, drawn as shading or as a width map: the "
                   "2.5 and 97.5 % points of the answer averaged over the models and smoothing settings the "
-                  "fit weighs, so it can sit unevenly about the estimate and is not always ±1.96 of the "
-                  "sd listed beside it."),
+                  "fit weighs, so it can sit unevenly about the estimate and is not always 1.96 "
+                  "standard deviations either side of it."),
     ("face mean", "the average of the estimated quantity over the whole estimated face."),
     ("zone", "a region of the face named in the case file, such as the area under one heater."),
     ("prediction from the others", "what the fit of all other sensors predicts at a sensor's "
