@@ -45,7 +45,7 @@ def sig(x, n: int = 2) -> str:
     x = float(x)
     if x == 0:
         return "0"
-    if abs(x) >= 1e12:                       # no integer of a dozen digits and more
+    if abs(x) >= 1e12 or abs(x) < 1e-6:      # no dozen-digit integer, no string of zeros
         return f"{x:.{n - 1}e}"
     d = n - 1 - int(math.floor(math.log10(abs(x))))
     return f"{x:.{d}f}" if d > 0 else f"{round(x, d):.0f}"
@@ -102,8 +102,10 @@ def pm95_of(x, sd, unit: str) -> str:
         return "–"
     text = eng(x)
     half = half95(sd) if _finite(sd) else math.nan
-    if _finite(half) and half > 0 and "e" not in text:
-        need = math.ceil(-math.log10(half))
+    if _finite(half) and half > 0 and "e" not in text and float(x) != 0:
+        # at most 7 significant digits: a figure known to 1e-12 is shown as exact, not to 12 places
+        whole = int(math.floor(math.log10(abs(float(x))))) + 1 if float(x) != 0 else 1
+        need = min(math.ceil(-math.log10(half)), max(7 - whole, 0))
         have = len(text.split(".")[1]) if "." in text else 0
         if need > have:
             text = f"{float(x):.{need}f}"

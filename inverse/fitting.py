@@ -73,7 +73,7 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
     # Gross faults (overflow codes and the like) go before anything the readings feed: the
     # nominal level, the placement variance, the strength.
     noise = reading_noise(rd, opts)
-    gross = [] if opts.keep_all_sensors else gross_faults(rd.temperature - t0, G @ u, noise, rd.names)
+    gross = [] if opts.keep_all_sensors else gross_faults(rd.temperature - t0, G @ u, noise, rd.names, rd.temperature)
     ok = np.ones(rd.n, dtype=bool)
     ok[[g.index for g in gross]] = False
     base = with_placement(linear_problem(G, t0, noise, rd, P, u, ok), rd, ev, dG, P, u, ok, opts)

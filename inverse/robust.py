@@ -14,7 +14,13 @@ built:
 2. standardized residuals e_i = (r_i - gamma_L1 g_i) / sd_i, robust scale
    s = max(1.4826 MAD(e), 1) (1.4826 MAD = sd for a normal sample), and a reading is a gross
    fault when |e_i - median(e)| > GROSS_Z s. Such a reading is set aside before the fit;
-   everything milder is left to the leave-one-out screening (inverse.diagnostics).
+   everything milder is left to the leave-one-out screening (inverse.diagnostics).  Several
+   readings that far out together (diagnostics.model_suspect: a heated sector of a thin wall
+   20 K above the rest, read with 0.1 K sigma, put six genuine readings 30 robust sds out)
+   are a feature of the field more likely than as many faults: of those that lie within GROSS_Z
+   robust sds of another reading only those whose temperature no thermocouple reads (outside
+   0 to PLAUSIBLE_K) are set aside here, the others go to the leave-one-out screening, which
+   suspects the model first; a reading far from every other is set aside as before.
 3. the nominal level of the fit is then the generalized-least-squares level over the
    readings that are not gross faults.
 """
@@ -23,13 +29,16 @@ from __future__ import annotations
 
 import numpy as np
 
-from .diagnostics import SetAside
+from .diagnostics import SetAside, model_suspect
 
 #: |robust z| beyond which a reading is a gross fault. A conduction field seen through a
 #: smooth nominal profile does not put one sensor 25 robust sds from the rest; real but
 #: strong local features stay well inside (common practice, no source).
 GROSS_Z = 25.0
 MAD_TO_SD = 1.4826  # 1 / Phi^-1(3/4), normal consistency of the MAD (Hampel 1974)
+#: the highest temperature a thermocouple reads [K]: type B and C sensors top out near 2100 and
+#: 2600 K (from memory), so a reading above 3000 K is a code or a fault, never a temperature
+PLAUSIBLE_K = 3000.0
 
 
 def _weighted_median(x, w):
@@ -53,8 +62,11 @@ def robust_level(residual, nominal_field, var) -> float:
     return _weighted_median(r[use] / g[use], np.abs(g[use]) / sd[use])
 
 
-def gross_faults(residual, nominal_field, var, names) -> list[SetAside]:
-    """Readings beyond GROSS_Z robust sds of the robust nominal fit (see module doc), worst first."""
+def gross_faults(residual, nominal_field, var, names, temperature=None) -> list[SetAside]:
+    """Readings beyond GROSS_Z robust sds of the robust nominal fit (see module doc), worst first;
+    of those with another reading within GROSS_Z robust sds (a group), when several are
+    (diagnostics.model_suspect), only those whose `temperature` [K] (the readings themselves;
+    None: no such rule) lies outside 0..PLAUSIBLE_K; a reading far from every other stays out."""
     r, g, sd = np.asarray(residual, float), np.asarray(nominal_field, float), _sd(var)
     if r.size < 3:
         return []
@@ -70,6 +82,15 @@ def gross_faults(residual, nominal_field, var, names) -> list[SetAside]:
                             f"reading {r[i] + 0.0:.4g} K above the known field is {abs(z[i]):.3g} robust sds "
                             f"from the level of the other sensors (limit {GROSS_Z:g}): a gross fault "
                             "(logger overflow code, broken wire or unit mix-up)"))
+    if temperature is not None and out:
+        # a reading with another within GROSS_Z robust sds of it belongs to a group; several in
+        # groups that far out are a feature unless no thermocouple reads their temperature
+        near = np.array([np.min(np.abs(np.delete(z, s.index) - z[s.index])) for s in out])
+        grouped = [s for s, d in zip(out, near) if d <= GROSS_Z]
+        if model_suspect(len(grouped), r.size):
+            T = np.asarray(temperature, float)
+            kept = {s.index for s in grouped if 0.0 < T[s.index] <= PLAUSIBLE_K}
+            out = [s for s in out if s.index not in kept]
     return out
 
 

@@ -39,6 +39,26 @@ def test_robust_level_ignores_a_wild_reading():
     assert nominal_level(r, g, np.diag(var), keep) == pytest.approx(nominal_level(r, g, var, keep), rel=1e-12)
 
 
+def test_a_group_far_out_is_a_feature_unless_no_thermocouple_reads_it():
+    """Six of eighteen readings 20 K above the rest with 0.1 K sigma (a heated sector of a thin
+    wall: 200 sds) were set aside as gross faults; several that far out together go to the
+    leave-one-out screening unless their temperatures are impossible (robust.PLAUSIBLE_K)."""
+    g = np.ones(18)
+    r = np.r_[np.full(6, 20.0), np.zeros(12)] + 0.1 * np.random.default_rng(1).standard_normal(18)
+    var = np.full(18, 0.01)
+    names = [f"T{i:02d}" for i in range(18)]
+    T = 423.15 + r
+    assert gross_faults(r, g, var, names, T) == []
+    assert len(gross_faults(r, g, var, names)) == 6          # without temperatures: as before
+    r2, T2 = r.copy(), T.copy()
+    r2[:3] = T2[:3] = 9.9e37                                   # three overflow codes: still out
+    assert sorted(f.index for f in gross_faults(r2, g, var, names, T2)) == [0, 1, 2]
+    r3, T3 = r.copy(), T.copy()
+    r3[7] += 500.0
+    T3[7] += 500.0                                             # one wild reading alone: out
+    assert [f.index for f in gross_faults(r3, g, var, names, T3)] == [7]
+
+
 @pytest.mark.parametrize("bad", [9.9e37, 1e9, 999999.0])
 def test_extreme_reading_does_not_move_the_answer(clean, bad):  # noqa: F811
     with threadpool_limits(1):

@@ -232,6 +232,8 @@ def test_pm95_writes_the_level():
     (817.7, 0.9, "818 ± 1.8 kW/m² (95 %)"),              # three digits hold the band
     (-4980.0, 148.0, "-4980 ± 290 kW/m² (95 %)"),
     (2.4e31, 1e30, "2.40e+31 ± 2.0e+30 kW/m² (95 %)"),   # no 31-digit integer
+    (-4189.301531715689, 3.6e-12, "-4189.302 ± 7.1e-12 kW/m² (95 %)"),   # known exactly: 7 digits at most
+    (0.0, 1e-13, "0 ± 2.0e-13 kW/m² (95 %)"),
 ])
 def test_a_value_is_never_rounded_by_more_than_its_band(x, sd, text):
     # the last digit shown is at most the 95 % half-width (common practice, no source)
