@@ -55,7 +55,10 @@ def pinned_edge_notes(design) -> list[str]:
     face = design.face_name
     return [f"the heat flux on the {face} face is not estimated where it meets the {neighbour} face "
             f"(held at a temperature): every column of the series vanishes along that edge, so the "
-            f"map has a band of zero width there whatever the true flux does; read it a few mm away"
+            f"map has a band of zero width there whatever the true flux does; read it a few mm away. "
+            f"The total power and the zone means that reach that edge leave out what flows in along "
+            f"it and can be off by more than their sd (a uniform bore flux beside an end at a known "
+            f"temperature: total power 4-6 sd low)"
             for neighbour, _ in pinned_edges(design)]
 
 
