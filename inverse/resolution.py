@@ -27,6 +27,9 @@ import numpy as np
 UNRESOLVED_RATIO = 0.7
 #: declared offset rms / readings' spread above which offsets rival the signal (common practice, no source)
 OFFSET_RATIO = 0.5
+#: a zone whose mean differs from the face mean by less than this (relative, in its rows on the
+#: coefficients) covers the whole face: its deviation is round-off, not a quantity to resolve
+WHOLE_FACE = 1e-6
 
 
 def _post_and_prior_sd(posterior, problem, B):
@@ -56,7 +59,10 @@ def unresolved_warning(posterior, problem, functionals, face: str, offset_sd=Non
             rows.append(f)
             names.append("the face mean" if name == "mean" else "the total power")
         else:
-            rows.append(f - f_mean)
+            dev = f - f_mean
+            if f_mean is not None and np.linalg.norm(dev) <= WHOLE_FACE * np.linalg.norm(f):
+                continue        # a zone over the whole face: its mean is the face mean's, no deviation
+            rows.append(dev)
             names.append(f"zone {name}")
     unresolved = []
     mix = getattr(posterior, "averaged", None)
