@@ -178,7 +178,7 @@ def summary_lines(result) -> list[str]:
     width = max([10] + [len(str(z["name"])) for z in s["zones"]])
     for z in s["zones"]:
         dev = z["deviation_from_face_mean"]
-        rel = f" ({'+' if dev >= 0 else ''}{percent(dev / s['mean'])})" \
+        rel = f" ({'+' if dev >= 0 else '-'}{percent(abs(dev / s['mean']))})" \
             if s["quantity"] == "heat_flux" and s["mean"] else ""
         lines.append(f"  zone {z['name']:<{width}} {_pm(z['mean'], z['sd'], u)}, "
                      f"{'+' if dev >= 0 else '-'}{eng(abs(dev))} {du}{rel} from the face mean")

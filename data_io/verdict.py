@@ -61,6 +61,10 @@ def zone_sentences(summary, fmt: _Fmt) -> list[str]:
     low = min(zones, key=lambda z: float(z["mean"]))
     high = max(zones, key=lambda z: float(z["mean"]))
     weak, strong = ("coldest", "hottest") if fmt.d.quantity == "temperature" else ("weakest", "strongest")
+    if fmt.d.quantity != "temperature" and _finite(mean) and float(mean) < 0:
+        # heat leaves the part through this face (a bore heating the fluid): the strongest zone
+        # is the one that passes the most, the most negative flux
+        low, high = high, low
     if low is high:
         return [f"The one zone is {_zone_phrase(low, fmt, mean)}."]
     if all(_inside(z, mean) for z in zones):

@@ -310,3 +310,24 @@ def test_console_names_the_length_scale_the_readings_chose(demo):
     mm = [report.sig(1e3 * x, 2) for x in (prior["length_scale_m"], *prior["length_scale_90_m"])]
     assert f"chose {mm[0]} mm (90 % range {mm[1]} to {mm[2]} mm)" in line
     assert not re.search(r"\d\.\d+e[+-]\d", line) and "smoothing strength" not in " ".join(lines)
+
+
+def test_a_face_that_passes_heat_out_ranks_zones_by_the_heat_they_pass():
+    """A bore that heats the fluid has a negative heat flux into the part: the strongest zone
+    is the one passing the most heat (the most negative flux), not the one passing the least
+    (invented figures for the check)."""
+    import types
+
+    import pandas as pd
+
+    from heatsight.data_io.report_format import _Fmt
+    from heatsight.data_io.verdict import zone_sentences
+
+    result = types.SimpleNamespace(quantity="heat_flux", face="bore",
+                                   grid=pd.DataFrame({"estimate": [-9000.0, -6000.0]}))
+    zones = [{"name": "fouled", "mean": -6000.0, "sd": 50.0, "lower": -6100.0, "upper": -5900.0,
+              "deviation_from_face_mean": 1400.0},
+             {"name": "clean", "mean": -8500.0, "sd": 50.0, "lower": -8600.0, "upper": -8400.0,
+              "deviation_from_face_mean": -1100.0}]
+    text = " ".join(zone_sentences({"mean": -7400.0, "zones": zones}, _Fmt(result)))
+    assert "The weakest zone is fouled" in text and "The strongest zone is clean" in text
