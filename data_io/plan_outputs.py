@@ -144,10 +144,16 @@ def console_line(run) -> str:
 
 
 # ------------------------------------------------------------------------------ figures
+def _long(run) -> bool:
+    """A long part: nothing varies along z, so its figures show the cross-section (theta, r)."""
+    return bool(getattr(run.case.cylinder, "long", False))
+
+
 def _face_xy(run, r, th, z):
-    """Plot coordinates: (theta [rad], r [mm]) on a polar end-face map; (theta [deg], z [mm]) on the side."""
+    """Plot coordinates: (theta [rad], r [mm]) on a polar end-face map; (theta [deg], z [mm]) on the
+    side; (theta [deg], r [mm]) through the wall of a long part."""
     if is_wall(run.case.unknown_face):
-        return _deg(th), _mm(z)
+        return _deg(th), _mm(r if _long(run) else z)
     return np.mod(np.asarray(th, float), 2 * math.pi), _mm(r)
 
 
@@ -156,7 +162,12 @@ def _axes(run, fig, pos=111):
         ax = fig.add_subplot(pos)
         ax.set_xlim(0, 360)
         ax.set_xlabel("angle θ [°]")
-        ax.set_ylabel("height z [mm]")
+        if _long(run):
+            cyl = run.case.cylinder
+            ax.set_ylim(float(_mm(cyl.inner_radius)), float(_mm(cyl.radius)))
+            ax.set_ylabel("radius r [mm] (through the wall)")
+        else:
+            ax.set_ylabel("height z [mm]")
         return ax
     ax = fig.add_subplot(pos, projection="polar")
     ax.set_ylim(0, float(_mm(run.case.cylinder.radius)))
@@ -199,6 +210,8 @@ def band_maps(run):
     B = run.state.face_rows(pts.u, pts.v)
     before = run.display.diff(np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", B, run.state.C, B), 0.0)))
     after = run.display.diff(np.sqrt(np.maximum(np.einsum("qk,kl,ql->q", B, run.plan.C_after, B), 0.0)))
+    if _long(run):
+        return _band_curves(run, pts, before, after)
     shape = pts.shape
     s = (pts.z if is_wall(run.case.unknown_face) else pts.r).reshape(shape)
     t = np.asarray(pts.theta, float).reshape(shape)
@@ -215,6 +228,22 @@ def band_maps(run):
         mesh = ax.pcolormesh(xx, _mm(s), v, cmap=BAND_CMAP, vmin=0.0, vmax=hi, shading="gouraud")
         ax.set_title(title, fontsize=10, pad=12)
     fig.colorbar(mesh, ax=fig.axes, label=f"sd of the {run.display.words} [{run.display.diff_symbol}]", shrink=0.8)
+    return fig
+
+
+def _band_curves(run, pts, before, after):
+    """A long part's face is a curve around the axis: its sd now and after the picks against theta."""
+    order = np.argsort(np.asarray(pts.theta, float))
+    deg = np.degrees(np.asarray(pts.theta, float)[order])
+    fig = new_figure(8.0, 4.4)
+    ax = fig.add_subplot(111)
+    ax.plot(deg, np.asarray(before)[order], color="#444444", label="sd now")
+    ax.plot(deg, np.asarray(after)[order], color="#d03c50", label=f"sd after {len(run.plan.picks)} new")
+    ax.set_xlim(0, 360)
+    ax.set_ylim(bottom=0.0)
+    ax.set_xlabel("angle θ [°]")
+    ax.set_ylabel(f"sd of the {run.display.words} [{run.display.diff_symbol}]")
+    ax.legend(fontsize=8, frameon=False)
     return fig
 
 

@@ -118,3 +118,24 @@ def test_long_wall_is_a_theta_curve(tmp_path):
     band = plots.band_width_map(result).axes[0]
     width = next(ln for ln in band.get_lines() if ln.get_gid() == "band:theta").get_ydata()
     assert np.all(width > 0)
+
+
+def test_a_long_parts_plan_is_drawn_as_its_cross_section(tmp_path):
+    """A long part has no height to map: the plan's band figure shows the sd now and after the
+    picks against theta, and its layout places holes by angle and radius through the wall (both
+    were empty before: a map of one line of z)."""
+    from heatsight.data_io.plan_command import compute_plan
+    from heatsight.data_io.plan_outputs import band_maps, layout_figure
+
+    a, b, ti, to = 0.040, 0.060, 180.0, 50.0
+    sensors = [(r, t, 0.0) for t in range(0, 360, 45) for r in (0.045, 0.055)]
+    tube = lambda r, z: ti + (to - ti) * math.log(r / a) / math.log(b / a)   # noqa: E731 (closed form)
+    _fit(tmp_path, LONG_TUBE, sensors, tube)
+    run = compute_plan(load_case(tmp_path / "case.toml"), 2)
+    ax = band_maps(run).axes[0]
+    now, after = (ln.get_ydata() for ln in ax.get_lines()[:2])
+    assert len(now) == len(after) > 10 and np.all(after <= now + 1e-9) and np.any(after < now)
+    lay = layout_figure(run).axes[0]
+    assert lay.get_ylim() == pytest.approx((40.0, 60.0))
+    marks = [ln for ln in lay.get_lines() if ln.get_label() == "existing sensor"][0]
+    assert np.allclose(sorted(set(np.round(marks.get_ydata(), 6))), [45.0, 55.0])
