@@ -103,10 +103,23 @@ class Posterior:
 
 
 def zone_area(zone, face, cylinder, n=1024):
-    """Area [m^2] of a zone by the midpoint rule on n x n cells of the face (theta x r with
-    weight r on end faces, theta x z on a wall; per metre on a long part's walls)."""
-    th = 2.0 * np.pi * (np.arange(n) + 0.5) / n
+    """Area [m^2] of a zone (per metre on a long part's walls): exact for a window in theta and
+    r (end face) or z (wall), span x (b^2 - a^2) / 2 or span x R x (b - a) with the window
+    clipped to the face; other regions (anything with `contains`) by the midpoint rule on n x n
+    cells of the face (theta x r with weight r, theta x z), whose cells cut a narrow zone's edge
+    (a 2 deg zone came out 5.5 % large)."""
     lo, hi = face_interval(face, cylinder)
+    theta = getattr(zone, "theta", None)
+    if theta is not None and hasattr(zone, "r") and hasattr(zone, "z"):
+        span = min(float(theta[1]) - float(theta[0]), 2.0 * np.pi)
+        window = zone.z if is_wall(face) else zone.r
+        a, b = (lo, hi) if window is None else (max(float(window[0]), lo), min(float(window[1]), hi))
+        if b <= a:
+            return 0.0
+        if is_wall(face):
+            return span * cylinder.wall_radius(face) * (b - a)
+        return span * 0.5 * (b * b - a * a)
+    th = 2.0 * np.pi * (np.arange(n) + 0.5) / n
     span = hi - lo
     s = lo + span * (np.arange(n) + 0.5) / n
     S, TH = np.meshgrid(s, th, indexing="ij")
