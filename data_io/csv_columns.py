@@ -18,7 +18,10 @@ _LENGTHS = {"r_m": "r_mm", "z_m": "z_mm"}
 
 
 def unit_token(unit: str) -> str:
-    """A unit as it stands in a column name: "W/m^2" -> "W_m2", "degC" -> "degC"."""
+    """A unit as it stands in a column name: "W/m^2" -> "W_m2", "degC" -> "degC", and a long
+    part's power "W/m" -> "W_per_m" (as summary.json's keys, never to be read as W/m^2)."""
+    if unit == "W/m":
+        return "W_per_m"
     return unit.replace("/", "_").replace("^", "").replace("*", "").replace("(", "").replace(")", "")
 
 

@@ -88,7 +88,9 @@ def summary_dict(result, *, case_path=None, readings_path=None) -> dict:
                  "deviation_from_face_mean": z["deviation_from_face_mean"]}
         if "power_W" in z:
             entry.update({f"power_{pk}": z["power_W"], f"power_sd_{pk}": z["power_sd_W"]})
-        for key in ("nominal_W", "delivered_fraction", "delivered_fraction_sd"):
+        if "nominal_W" in z:
+            entry[f"nominal_{pk}"] = z["nominal_W"]          # W/m on a long part, as its power
+        for key in ("delivered_fraction", "delivered_fraction_sd"):
             if key in z:
                 entry[key] = z[key]
         zones.append(entry)

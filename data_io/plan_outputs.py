@@ -31,9 +31,12 @@ BAND_CMAP = "magma"
 
 # ------------------------------------------------------------------------------ units
 def target_unit(run, name: str, shown: bool = False) -> str:
-    """Unit of a target's sd: W for the total power, else the face's difference unit in files
+    """Unit of a target's sd: W for the total power (W/m on a long part,
+    data_io.display.power_unit), else the face's difference unit in files
     (data_io.display.file_display) or, `shown`, on the console, figures and report."""
-    return "W" if name == "total_power" else _display(run, shown).diff_unit
+    from .display import power_unit
+
+    return power_unit(run.case.cylinder) if name == "total_power" else _display(run, shown).diff_unit
 
 
 def _display(run, shown):

@@ -139,3 +139,19 @@ def test_a_long_parts_plan_is_drawn_as_its_cross_section(tmp_path):
     assert lay.get_ylim() == pytest.approx((40.0, 60.0))
     marks = [ln for ln in lay.get_lines() if ln.get_label() == "existing sensor"][0]
     assert np.allclose(sorted(set(np.round(marks.get_ydata(), 6))), [45.0, 55.0])
+
+
+def test_a_long_parts_files_name_powers_per_metre(tmp_path):
+    """Every power of a long part is per metre: plan.csv's column and a zone's nominal rating in
+    summary.json say so (they said _W)."""
+    from heatsight.data_io.csv_columns import unit_token
+    from heatsight.data_io.plan_command import compute_plan
+    from heatsight.data_io.plan_outputs import picks_frame
+
+    assert unit_token("W/m") == "W_per_m" and unit_token("W/m^2") == "W_m2"
+    a, b, ti, to = 0.040, 0.060, 180.0, 50.0
+    sensors = [(r, t, 0.0) for t in range(0, 360, 45) for r in (0.045, 0.055)]
+    tube = lambda r, z: ti + (to - ti) * math.log(r / a) / math.log(b / a)   # noqa: E731 (closed form)
+    _fit(tmp_path, LONG_TUBE, sensors, tube)
+    frame = picks_frame(compute_plan(load_case(tmp_path / "case.toml"), 1, targets=["power"]))
+    assert "sd_total_power_W_per_m" in frame.columns
