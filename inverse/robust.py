@@ -17,10 +17,11 @@ built:
    everything milder is left to the leave-one-out screening (inverse.diagnostics).  Several
    readings that far out together (diagnostics.model_suspect: a heated sector of a thin wall
    20 K above the rest, read with 0.1 K sigma, put six genuine readings 30 robust sds out)
-   are a feature of the field more likely than as many faults: of those that lie within GROSS_Z
-   robust sds of another reading only those whose temperature no thermocouple reads (outside
-   0 to PLAUSIBLE_K) are set aside here, the others go to the leave-one-out screening, which
-   suspects the model first; a reading far from every other is set aside as before.
+   are a feature of the field more likely than as many faults: a group (each within GROSS_Z
+   robust sds of another far-out reading at a different value, within FEATURE_K of the other
+   readings and below PLAUSIBLE_K) goes to the leave-one-out screening, which suspects the model
+   first.  Identical readings (channels stuck at a logger's full scale or open at the room's
+   temperature), readings far from every other and impossible temperatures are set aside here.
 3. the nominal level of the fit is then the generalized-least-squares level over the
    readings that are not gross faults.
 """
@@ -39,6 +40,13 @@ MAD_TO_SD = 1.4826  # 1 / Phi^-1(3/4), normal consistency of the MAD (Hampel 197
 #: the highest temperature a thermocouple reads [K]: type B and C sensors top out near 2100 and
 #: 2600 K (from memory), so a reading above 3000 K is a code or a fault, never a temperature
 PLAUSIBLE_K = 3000.0
+#: readings of one group that differ by less than this [K] are one value: a stuck channel, not a
+#: feature (a logger writes at least 0.01 K; common practice, no source)
+SAME_READING_K = 1e-3
+#: how far [K] from the other readings' median a group may lie and still be a feature of the
+#: part (a heated zone, a cooled end); beyond it, a channel's full scale or a unit mix-up
+#: (common practice, no source)
+FEATURE_K = 500.0
 
 
 def _weighted_median(x, w):
@@ -63,10 +71,9 @@ def robust_level(residual, nominal_field, var) -> float:
 
 
 def gross_faults(residual, nominal_field, var, names, temperature=None) -> list[SetAside]:
-    """Readings beyond GROSS_Z robust sds of the robust nominal fit (see module doc), worst first;
-    of those with another reading within GROSS_Z robust sds (a group), when several are
-    (diagnostics.model_suspect), only those whose `temperature` [K] (the readings themselves;
-    None: no such rule) lies outside 0..PLAUSIBLE_K; a reading far from every other stays out."""
+    """Readings beyond GROSS_Z robust sds of the robust nominal fit (see module doc), worst first,
+    less a group of them that is a feature (module doc; needs `temperature` [K], the readings
+    themselves: None keeps every far-out reading out)."""
     r, g, sd = np.asarray(residual, float), np.asarray(nominal_field, float), _sd(var)
     if r.size < 3:
         return []
@@ -82,15 +89,24 @@ def gross_faults(residual, nominal_field, var, names, temperature=None) -> list[
                             f"reading {r[i] + 0.0:.4g} K above the known field is {abs(z[i]):.3g} robust sds "
                             f"from the level of the other sensors (limit {GROSS_Z:g}): a gross fault "
                             "(logger overflow code, broken wire or unit mix-up)"))
-    if temperature is not None and out:
-        # a reading with another within GROSS_Z robust sds of it belongs to a group; several in
-        # groups that far out are a feature unless no thermocouple reads their temperature
-        near = np.array([np.min(np.abs(np.delete(z, s.index) - z[s.index])) for s in out])
-        grouped = [s for s, d in zip(out, near) if d <= GROSS_Z]
-        if model_suspect(len(grouped), r.size):
-            T = np.asarray(temperature, float)
-            kept = {s.index for s in grouped if 0.0 < T[s.index] <= PLAUSIBLE_K}
-            out = [s for s in out if s.index not in kept]
+    if temperature is not None and len(out) > 1:
+        T = np.asarray(temperature, float)
+        flagged = np.array([s.index for s in out])
+        rest = np.setdiff1d(np.arange(r.size), flagged)
+        level = float(np.median(T[rest])) if rest.size else float(np.median(T))
+
+        def grouped(i):
+            # another far-out reading within GROSS_Z robust sds of it, at a different value: stuck
+            # or open channels read one value (a logger's full scale, the room), real ones scatter
+            others = flagged[flagged != i]
+            close = np.abs(z[others] - z[i]) <= GROSS_Z
+            return bool(np.any(close & (np.abs(T[others] - T[i]) > SAME_READING_K)))
+
+        group = [s for s in out if grouped(s.index) and 0.0 < T[s.index] <= PLAUSIBLE_K
+                 and abs(T[s.index] - level) <= FEATURE_K]
+        if model_suspect(len(group), r.size):
+            spared = {s.index for s in group}
+            out = [s for s in out if s.index not in spared]
     return out
 
 
