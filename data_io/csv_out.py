@@ -54,6 +54,10 @@ def check_output_path(path, inputs=()) -> Path:
 
 #: files a fit writes into its output folder (a trend adds its own); none may be an input
 FIT_OUTPUT_NAMES = ("estimate.csv", "sensors.csv", "summary.json", "points.csv", "report.html")
+#: the data files any heatsight command writes (fit, plan, trend; figures are *.png): the only
+#: earlier outputs an --overwrite run removes, whatever else a summary.json lists
+REMOVABLE_OUTPUTS = frozenset(FIT_OUTPUT_NAMES) | {"plan.csv", "sensors_value.csv", "plan.html", "trend.csv",
+                                                   "trend.parquet"}
 #: the key of summary.json listing the files of its run: --overwrite replaces only these
 OUTPUT_FILES_KEY = "output_files"
 
@@ -99,7 +103,8 @@ def output_folder(out, case, overwrite: bool, names=FIT_OUTPUT_NAMES, inputs=(),
     resolved = {p.resolve() for p in every_input}
     existing = sorted(out.iterdir()) if out.is_dir() else []
     # heatsight's earlier outputs this run does not write go when it commits (OutputSet)
-    earlier = [out / name for name in sorted(own_outputs(out)) if name not in names]
+    earlier = [out / name for name in sorted(own_outputs(out)) if name not in names
+               and (name in REMOVABLE_OUTPUTS or name.endswith(".png")) and "\x00" not in name]
     for target in [out / name for name in names] + [p for p in existing if p.suffix == ".png"] + earlier:
         if target.resolve() in resolved or any(_same(target, p) for p in every_input):
             raise InputError(f"{target.name} in the output folder is an input of this run; {w['another']}",
@@ -268,7 +273,8 @@ class OutputSet:
         aside: list[tuple[Path, Path]] = []      # (target, its earlier version kept aside)
         done: list[Path] = []
         written = {name for name, _ in self._staged}
-        stale = sorted(own_outputs(self.folder) - written) if "summary.json" in written else []
+        stale = sorted(n for n in own_outputs(self.folder) - written
+                       if n in REMOVABLE_OUTPUTS or n.endswith(".png")) if "summary.json" in written else []
         try:
             for name, staged in self._staged:
                 target = self.folder / name
@@ -283,10 +289,14 @@ class OutputSet:
                 done.append(target)
             for name in stale:
                 target = self.folder / name
-                if target.is_file() and not target.is_symlink():
-                    keep = Path(tempfile.mkdtemp(prefix=f".{name}.", suffix=".old", dir=self.folder)) / name
+                try:
+                    if not target.is_file() or target.is_symlink():
+                        continue
+                    keep = Path(tempfile.mkdtemp(prefix=".stale.", suffix=".old", dir=self.folder)) / name
                     aside.append((target, keep))
                     os.replace(target, keep)
+                except (OSError, ValueError):         # an odd name: left as it is
+                    continue
         except BaseException:
             for target in done:
                 try:

@@ -104,6 +104,14 @@ def test_overwrite_removes_its_own_earlier_outputs_and_keeps_the_users(tmp_path,
                                                      "--overwrite"])
     assert code == 0, cap.err
     assert (out / "points.csv").is_file() and (out / "notes.txt").read_text() == "mine"
+    # a summary.json that lists the user's file (copied, edited, stale) never gets it removed:
+    # only names heatsight writes are
+    s = json.loads((out / "summary.json").read_text())
+    s["output_files"] += ["notes.txt", "../case.toml", "x" * 300]
+    (out / "summary.json").write_text(json.dumps(s))
+    code, cap = _run(tmp_path, monkeypatch, capsys, ["fit", "case.toml", "--out", "res", "--overwrite"])
+    assert code == 0, cap.err
+    assert (out / "notes.txt").read_text() == "mine" and (tmp_path / "case.toml").is_file()
     # an earlier output given as an input of this run: refused, nothing written or removed
     before = snapshot(out)
     code, cap = _run(tmp_path, monkeypatch, capsys, ["fit", "case.toml", "--readings", "res/points.csv",
