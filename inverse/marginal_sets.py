@@ -21,6 +21,10 @@ def functional_rows(columns, zones=()) -> dict:
     return rows
 
 
+#: points per block in MarginalSets.at_points
+POINT_BLOCK = 512
+
+
 @dataclass
 class MarginalSets:
     """The column sets a fit marginalized into its kept readings' noise: the left-out modes
@@ -86,11 +90,19 @@ class MarginalSets:
         [m, rad, m] given the residual r_k = d - t0 - X c at the kept readings, value = t0 + G c
         + H r_k + e (truncation.conditional with each set's fields at the points as its rows)."""
         cols = [c for c in (self.left, self.steps) if c is not None]
-        q = np.size(r)
+        r, theta, z = (np.atleast_1d(np.asarray(x, float)).ravel() for x in (r, theta, z))
+        q = r.size
         if not cols:
             return np.zeros((q, self.rd.n)), np.zeros(q)
         rd = self.rd
-        parts = [(self.step_fields if c is self.steps and self.step_fields is not None
-                  else c.fields(rd.r, rd.theta, rd.z), c.variances(self.prior), c.fields(r, theta, z)) for c in cols]
-        H, variance = conditional(parts, self.S)
-        return H.T, variance
+        at_readings = [(self.step_fields if c is self.steps and self.step_fields is not None
+                        else c.fields(rd.r, rd.theta, rd.z), c.variances(self.prior)) for c in cols]
+        H, variance = np.zeros((q, rd.n)), np.zeros(q)
+        # points in blocks: the enlarged basis has ~10x the fit's columns (a points table of
+        # 5,000 rows took 500 MB at once)
+        for lo in range(0, q, POINT_BLOCK):
+            sl = slice(lo, min(lo + POINT_BLOCK, q))
+            parts = [(G, v, c.fields(r[sl], theta[sl], z[sl])) for (G, v), c in zip(at_readings, cols)]
+            h, var = conditional(parts, self.S)
+            H[sl], variance[sl] = h.T, var
+        return H, variance

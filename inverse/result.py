@@ -313,7 +313,8 @@ class FitResult:
     def face_profile(self, u, v, level=0.95):
         """Estimate, sd, lower, upper of the face quantity at face coordinates (u, v), as the
         face map gives them: with the left-out modes' and the unseen stretches' part
-        (map_tail) where the fit has one."""
+        (map_tail) where the fit has one (a Monte Carlo fit's map comes from its draws; this
+        is its posterior's)."""
         u, v = (np.ravel(np.asarray(x, float)) for x in (u, v))
         builder, extra = (lambda d: d.face(u, v)), None
         if self.map_tail is not None:
@@ -327,7 +328,8 @@ class FitResult:
         """Temperature [K] with sd and band anywhere inside the part: (mean, sd, lower, upper),
         with the marginalized sets' part given the kept readings (MarginalSets.at_points), as
         the face map has it on the face: t0 + G c + H (residual - X c) and its variance.  A fit
-        with calibrated face parameters keeps its columns' part alone here."""
+        with calibrated face parameters keeps its columns' part alone here (its map adds the
+        left-out modes' prior variance, which inside the part has no conditional form here)."""
         r, theta, z = (np.atleast_1d(np.asarray(x, float)) for x in (r, theta, z))
         builder, extra = (lambda d: d.sensors(r, theta, z)), None
         if self.marginal is not None and self.functional_tails is not None:
