@@ -149,8 +149,8 @@ def points_frame(result, points) -> pd.DataFrame:
 
 
 def _pm(value, sd, unit) -> str:
-    """'11568 ± 22 W/m^2 (95 %)': value with 3 significant digits (data_io.report_format), the
-    half-width Z95 x sd with 2."""
+    """'11568 ± 22 W/m^2 (95 %)': the value to at least 3 significant digits and to the last digit
+    its band needs, the half-width Z95 x sd with 2 (report_format.pm95_of)."""
     return pm95_of(value, sd, unit)
 
 

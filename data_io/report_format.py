@@ -39,13 +39,15 @@ def _finite(x) -> bool:
 
 
 def sig(x, n: int = 2) -> str:
-    """x rounded to n significant digits, written without an exponent (0.016, 1000, 2.5)."""
+    """x rounded to n significant digits, without an exponent (0.016, 1000, 2.5) unless its size
+    is 1e12 or more, or below 1e-6 (2.0e+30, 7.1e-12)."""
     if not _finite(x):
         return "–"
     x = float(x)
     if x == 0:
         return "0"
-    if abs(x) >= 1e12 or abs(x) < 1e-6:      # no dozen-digit integer, no string of zeros
+    rounded = abs(float(f"{x:.{n - 1}e}"))
+    if rounded >= 1e12 or rounded < 1e-6:    # judged after rounding: no dozen-digit integer, no zeros
         return f"{x:.{n - 1}e}"
     d = n - 1 - int(math.floor(math.log10(abs(x))))
     return f"{x:.{d}f}" if d > 0 else f"{round(x, d):.0f}"
@@ -163,7 +165,8 @@ class _Fmt:
         return f"{sign}{text} {self.d.diff_symbol}"
 
     def pm(self, si, sd_si) -> str:
-        """'11.6 ± 0.022 kW/m² (95 %)': value with the half-width of its 95 % interval."""
+        """'11.57 ± 0.022 kW/m² (95 %)': value with the half-width of its 95 % interval
+        (pm95_of; a temperature to the decimals of its half-width, at most 2)."""
         if self.d.quantity == "temperature":
             value, unit = _celsius_number(si), "°C"
         else:
@@ -218,14 +221,9 @@ def _position(face, at) -> str:
 
 
 def _power(w, sd=None, unit: str = "W") -> str:
-    """Power to 4 significant digits with its 95 % half-width: '817.7 W ± 1.6 W (95 %)'
-    (unit W/m on a long part: data_io.display.power_unit)."""
-    if not _finite(w):
-        return "–"
-    text = f"{w:.4g} {unit}"
-    if _finite(sd):
-        text += f" ± {sig(half95(sd), SPREAD_DIGITS)} {unit} (95 %)"
-    return text
+    """Power with its 95 % half-width, the one rule of pm95_of: '818 ± 1.6 W (95 %)' (unit W/m on
+    a long part: data_io.display.power_unit)."""
+    return pm95_of(w, sd, unit) if _finite(sd) else (f"{eng(w)} {unit}" if _finite(w) else "–")
 
 
 def power_pm(w, sd=None, unit: str = "W") -> str:

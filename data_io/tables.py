@@ -19,7 +19,7 @@ import numpy as np
 import pandas as pd
 
 from . import thermocouples as tc
-from .csv_in import Column, Table, _check_sensor_ids, _parse, check_inside, likely_typo, read_raw
+from .csv_in import Column, Table, _check_sensor_ids, _parse, check_inside, closest_name, likely_typo, read_raw
 from .errors import InputError
 from .limits import MAX_TEMPERATURE_K
 
@@ -216,8 +216,8 @@ def read_snapshot(path, layout: Table) -> Table:
     known = [i for i, s in enumerate(ids) if s in lay.index]
     if not known:
         s = ids[0]
-        close = difflib.get_close_matches(s, list(lay.index), n=1)
-        hint = f"; did you mean '{close[0]}'?" if close else ""
+        close = closest_name(s, list(lay.index))
+        hint = f"; did you mean '{close}'?" if close is not None else ""
         raise InputError(f"none of the sensors is in the layout: sensor '{s}' is not in the layout "
                          f"({layout.path}){hint}", file=path, where=raw.where(0, scol))
     typo = likely_typo([s for s in ids if s not in lay.index], [s for s in lay.index if s not in ids])
