@@ -67,6 +67,11 @@ def _check_overrides(case, options) -> None:
     except (InverseError, TypeError, ValueError) as exc:
         raise InputError(f"heatsight.fit: {exc}") from None
     check_case(replace(case, fit=merged))
+    from ..inverse.calibration import calibration_refusal
+    for face, what in merged.calibrate:
+        refusal = calibration_refusal(case.faces, face, what)
+        if refusal:
+            raise InputError(f"heatsight.fit: calibrate: {refusal}")
     if merged.monte_carlo:
         check_count(int(merged.monte_carlo), MAX_MONTE_CARLO, "monte_carlo", "draws")
 

@@ -231,18 +231,14 @@ def _parse_face(ctx: _Ctx, name: str, table: dict, cylinder: Cylinder) -> tuple[
 
 
 def _check_calibrated_faces(ctx, calibrate, faces) -> None:
-    """[fit] calibrate names parameters of convection faces only, and an ambient only where
-    it is one temperature (a profile cannot be calibrated): said at load, so `check` refuses
-    what `fit` would."""
+    """[fit] calibrate names what the fit can calibrate (inverse.calibration.calibration_refusal),
+    said at load so that `check` refuses what `fit` would."""
+    from ..inverse.calibration import calibration_refusal
+
     for face, what in calibrate:
-        cond = faces.get(face)
-        if cond is None or cond.condition != "convection":
-            now = "absent" if cond is None else f"'{cond.condition}'"
-            raise ctx.error("fit.calibrate", f"'{face}.{what}': only h or ambient of a convection face can be "
-                                             f"calibrated, and faces.{face} is {now}")
-        if what == "ambient" and not cond.is_uniform:
-            raise ctx.error("fit.calibrate", f"'{face}.{what}': faces.{face} has an ambient profile, which "
-                                             "cannot be calibrated; give one ambient temperature")
+        refusal = calibration_refusal(faces, face, what)
+        if refusal:
+            raise ctx.error("fit.calibrate", refusal)
 
 
 def load_case(path, purpose: str | None = None) -> Case:

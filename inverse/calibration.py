@@ -154,6 +154,23 @@ def calibrated_design(design, keys, values):
     return design.with_faces(calibrated_faces(design.faces, keys, values))
 
 
+def calibration_refusal(faces, face: str, what: str) -> str | None:
+    """Why the parameter `what` of `face` cannot be calibrated (faces: name -> FaceCondition), or
+    None: only h or a single ambient temperature of a convection face (the one rule, for the
+    fit and for the case file's check at load)."""
+    cond = faces.get(face)
+    if not isinstance(cond, Convection):
+        now = "absent" if cond is None else f"'{cond.condition}'"
+        return (f"'{face}.{what}': only h or ambient of a convection face can be calibrated, and "
+                f"faces.{face} is {now}")
+    if what not in ("h", "ambient"):
+        return f"'{face}.{what}': a calibrated parameter is 'h' or 'ambient'"
+    if what == "ambient" and callable(cond.ambient):
+        return (f"'{face}.{what}': faces.{face} has an ambient profile, which cannot be calibrated; give one "
+                "ambient temperature")
+    return None
+
+
 def calibrate(design, rd, kept, problem, alpha, P, spec) -> Calibration:
     """Joint fit of c and the convection parameters in `spec` {(face, parameter): prior
     (mean, sd) or None} through lmfit at the fixed strength alpha, on the kept sensors."""
@@ -163,12 +180,9 @@ def calibrate(design, rd, kept, problem, alpha, P, spec) -> Calibration:
     priors, keys, starts = {}, [], []
     for (face, what), prior in dict(spec).items():
         cond = design.faces.get(face)
-        if not isinstance(cond, Convection):
-            raise InverseError(f"can only calibrate h or ambient of a convection face, not {face}.{what}")
-        if what not in ("h", "ambient"):
-            raise InverseError(f"calibration parameter must be 'h' or 'ambient', got {what!r}")
-        if what == "ambient" and callable(cond.ambient):
-            raise InverseError(f"face {face}: an ambient profile cannot be calibrated")
+        refusal = calibration_refusal(design.faces, face, what)
+        if refusal:
+            raise InverseError(refusal)
         name = f"{face}_{what}"
         start = cond.h if what == "h" else float(cond.ambient)
         params.add(name, value=start, min=LOWER[what])

@@ -147,6 +147,7 @@ def test_predict_names_a_bad_unit(demo, column, fragment):
     ({"terms": "ten"}, "fit option terms: expected a whole number >= 1, got 'ten'"),
     ({"smoothing": "smooth"}, "fit option smoothing: got 'smooth'"),
     ({"nonsense": 1}, "unknown option 'nonsense'"),
+    ({"calibrate": ["side.h"]}, "calibrate: 'side.h': only h or ambient of a convection face"),
 ])
 def test_keyword_options_are_checked_like_the_case_files(demo, monkeypatch, options, fragment):
     """Sizes and values given as keywords meet the case file's limits before any work (they
