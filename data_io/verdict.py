@@ -85,7 +85,6 @@ def extreme_sentence(result, fmt: _Fmt) -> str:
 
 def level_sentence(result, fmt: _Fmt) -> str:
     s = result.summary
-    d = fmt.d
     text = f"Face mean {fmt.pm(s.get('mean'), s.get('mean_sd'))}"
     power = s.get("total_power_W")
     if _finite(power):
