@@ -154,7 +154,11 @@ def _range(ctx: _Ctx, zone: dict, key: str, where: str, dimension: str) -> tuple
     lo = parse_quantity(value[0], dimension, f"{where}[0]", file=ctx.path)
     hi = parse_quantity(value[1], dimension, f"{where}[1]", file=ctx.path)
     if not lo < hi:
-        raise ctx.error(where, f"the first value must be below the second, got {value!r}")
+        hint = ""
+        if dimension == "angle":       # a sector across theta = 0 is written from below 0
+            hint = (f"; a sector across 0 deg starts below 0, e.g. [\"{math.degrees(lo) - 360:g} deg\", "
+                    f"\"{math.degrees(hi):g} deg\"]")
+        raise ctx.error(where, f"the first value must be below the second, got {value!r}{hint}")
     return lo, hi
 
 

@@ -264,6 +264,8 @@ BAD_CASES = {
     "zone z on end face": (BASE + '\n[[zones]]\nname = "a"\nz = ["0 mm", "5 mm"]\n', "zones[1].z: a zone on the bottom face takes r and theta, not z"),
     "zone reversed range": (BASE + '\n[[zones]]\nname = "a"\nr = ["50 mm", "0 mm"]\n', "the first value must be below the second"),
     "zone range not a list": (BASE + '\n[[zones]]\nname = "a"\nr = "0 mm"\n', "expected a list of two values"),
+    "zone across 0 deg": (BASE + '\n[[zones]]\nname = "a"\ntheta = ["330 deg", "30 deg"]\n',
+                          'a sector across 0 deg starts below 0, e.g. ["-30 deg", "30 deg"]'),
     "zone theta too wide": (BASE + '\n[[zones]]\nname = "a"\ntheta = ["0 deg", "400 deg"]\n', "spans more than 360 deg"),
     "bad model": (BASE + '\n[fit]\nmodel = "zone"\n', "fit.model: got 'zone'; did you mean 'zones'?"),
     "calibrate a temperature face": (BASE + '\n[fit]\ncalibrate = ["side.h"]\n',
