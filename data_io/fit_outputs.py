@@ -154,9 +154,10 @@ def _pm(value, sd, unit) -> str:
     return pm95_of(value, sd, unit)
 
 
-def _at(where) -> str:
-    return (f"at r = {eng(where['r_m'] * 1e3)} mm, theta = {where['theta_deg']:.0f} deg, "
-            f"z = {eng(where['z_m'] * 1e3)} mm")
+def _at(where, long: bool = False) -> str:
+    """Where a figure lies; a long part has no height to name."""
+    text = f"at r = {eng(where['r_m'] * 1e3)} mm, theta = {where['theta_deg']:.0f} deg"
+    return text if long else f"{text}, z = {eng(where['z_m'] * 1e3)} mm"
 
 
 def summary_lines(result) -> list[str]:
@@ -168,10 +169,11 @@ def summary_lines(result) -> list[str]:
     pk, pu = power_key(result), s["power_unit"]
     power, power_sd = s[f"total_power_{pk}"], s[f"total_power_sd_{pk}"]
     du = FILE_UNITS[s["quantity"]][1]
+    long = bool(getattr(result.cylinder, "long", False))
     lines = [f"{s['face']} face {s['quantity'].replace('_', ' ')} ({u}):",
              f"  mean            {_pm(s['mean'], s['mean_sd'], u)}",
-             f"  min             {_pm(s['min'], s['min_sd'], u)} {_at(s['min_at'])}",
-             f"  max             {_pm(s['max'], s['max_sd'], u)} {_at(s['max_at'])}",
+             f"  min             {_pm(s['min'], s['min_sd'], u)} {_at(s['min_at'], long)}",
+             f"  max             {_pm(s['max'], s['max_sd'], u)} {_at(s['max_at'], long)}",
              f"  max - min       {_pm(s['nonuniformity'], s['nonuniformity_sd'], du)}",
              f"  total power in  {_pm(power, power_sd, pu)}"
              + (" (per metre of length)" if pu == "W/m" else "")]

@@ -104,6 +104,9 @@ def pm95_of(x, sd, unit: str) -> str:
         return "–"
     text = eng(x)
     half = half95(sd) if _finite(sd) else math.nan
+    if _finite(half) and half > 0 and "e" in text and abs(float(x)) < half:
+        # a value lost inside its band (1.49e-07 ± 0.55): written to the band's last digit
+        text = f"{float(x):.{max(math.ceil(-math.log10(half)), 0)}f}"
     if _finite(half) and half > 0 and "e" not in text and float(x) != 0:
         # at most 7 significant digits: a figure known to 1e-12 is shown as exact, not to 12 places
         whole = int(math.floor(math.log10(abs(float(x))))) + 1 if float(x) != 0 else 1

@@ -234,6 +234,7 @@ def test_pm95_writes_the_level():
     (2.4e31, 1e30, "2.40e+31 ± 2.0e+30 kW/m² (95 %)"),   # no 31-digit integer
     (-4189.301531715689, 3.6e-12, "-4189.302 ± 7.1e-12 kW/m² (95 %)"),   # known exactly: 7 digits at most
     (0.0, 1e-13, "0 ± 2.0e-13 kW/m² (95 %)"),
+    (1.49e-07, 0.28, "0.0 ± 0.55 kW/m² (95 %)"),        # a value lost inside its band
 ])
 def test_a_value_is_never_rounded_by_more_than_its_band(x, sd, text):
     # the last digit shown is at most the 95 % half-width (common practice, no source)
