@@ -249,9 +249,10 @@ def _version() -> str:
 
 def _add_console_options(p) -> None:
     g = p.add_argument_group("console")
-    g.add_argument("-q", "--quiet", action="store_true", help="print nothing but warnings and errors")
-    g.add_argument("-v", "--verbose", action="store_true",
-                   help="also print the steps of the run and Python's own warnings (on stderr)")
+    loud = g.add_mutually_exclusive_group()          # one or the other, never both
+    loud.add_argument("-q", "--quiet", action="store_true", help="print nothing but warnings and errors")
+    loud.add_argument("-v", "--verbose", action="store_true",
+                      help="also print the steps of the run and Python's own warnings (on stderr)")
     g.add_argument("--json", action="store_true", help="print the summary as JSON on stdout (for scripts)")
 
 

@@ -161,3 +161,10 @@ def test_status_line_is_cut_to_the_terminal_and_gives_way_to_a_progress_bar(monk
     bar.close()
     status.close()                                            # nothing left to clear
     assert err.getvalue().count("\r" + " " * 39 + "\r") == 1
+
+
+def test_quiet_and_verbose_together_are_refused(capsys):
+    """-q and -v ask for opposite things: one clear usage error, exit 2."""
+    assert main(["check", "case.toml", "-q", "-v"]) == 2
+    err = capsys.readouterr().err
+    assert "not allowed with argument -q/--quiet" in err and err.count("\n") == 1
