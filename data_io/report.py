@@ -303,13 +303,17 @@ def _sensor_table(result) -> str:
              + "".join(rows) + "</table>")
     aside = list(result.summary.get("set_aside") or [])
     t = plots.sensor_threshold(result)
+    # the default limit grows with the number of sensors checked (Bonferroni): say for how many
+    which = "" if result.summary.get("threshold") is not None else (
+        f" (the limit for the {int(result.summary.get('n_sensors_used') or len(sens))} sensors in the fit; "
+        "one set aside earlier met the limit for the sensors then in it)")
     if aside:
         lead = ("<p>Set aside (left out of the fit; their row shows the prediction of the final fit): "
                 + ", ".join(f"<strong>{_e(s)}</strong>" for s in aside) + ".</p>")
     else:
         lead = "<p>No sensor was set aside.</p>"
     note = (f"<p class=\"sub\">The score compares each reading with what the other sensors predict, "
-            f"in predictive standard deviations; beyond ±{t:.2f} a sensor is treated as faulty or "
+            f"in predictive standard deviations; beyond ±{t:.2f}{which} a sensor is treated as faulty or "
             f"misplaced. The ± column is the 95 % interval of that prediction; a fixed offset of a "
             f"reading is caught only beyond its “caught offset” (past "
             f"{sig(UNCHECKED_OFFSET_K)} K the fit warns: the others check that sensor only for large "

@@ -146,6 +146,8 @@ def test_set_aside_sensors_listed(full_page, plate):
     assert len(rows) == len(plate.summary["set_aside"]) == 1
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in rows[0]
     assert "Set aside" in text and "<strong>&lt;script&gt;" in text
+    # the default limit depends on how many sensors are checked: the note says for how many
+    assert f"the limit for the {plate.summary['n_sensors_used']} sensors in the fit" in text
     # every sensor has a row
     sensors = text.split('id="sensors"')[1].split("</section>")[0]
     assert sensors.count("<tr class=") == N
