@@ -75,6 +75,14 @@ def own_outputs(folder: Path) -> set[str]:
     return {n for n in listed if isinstance(n, str) and n and "/" not in n and n not in (".", "..")}
 
 
+def stale_outputs(folder: Path, written) -> list[str]:
+    """heatsight's earlier outputs in `folder` (own_outputs) that a run writing the names
+    `written` leaves behind and removes: only names heatsight writes (REMOVABLE_OUTPUTS and
+    figures, *.png), whatever else a summary.json lists."""
+    return sorted(n for n in own_outputs(folder) - set(written)
+                  if (n in REMOVABLE_OUTPUTS or n.endswith(".png")) and "\x00" not in n)
+
+
 #: how the messages of output_folder name the folder option and overwriting: the command
 #: line's words (default) and the Python API's (write_report, Plan.write)
 CLI_WORDS = {"another": "choose another --out", "overwrite": "add --overwrite", "names": "--out names a folder",
@@ -103,8 +111,7 @@ def output_folder(out, case, overwrite: bool, names=FIT_OUTPUT_NAMES, inputs=(),
     resolved = {p.resolve() for p in every_input}
     existing = sorted(out.iterdir()) if out.is_dir() else []
     # heatsight's earlier outputs this run does not write go when it commits (OutputSet)
-    earlier = [out / name for name in sorted(own_outputs(out)) if name not in names
-               and (name in REMOVABLE_OUTPUTS or name.endswith(".png")) and "\x00" not in name]
+    earlier = [out / name for name in stale_outputs(out, names)]
     for target in [out / name for name in names] + [p for p in existing if p.suffix == ".png"] + earlier:
         if target.resolve() in resolved or any(_same(target, p) for p in every_input):
             raise InputError(f"{target.name} in the output folder is an input of this run; {w['another']}",
@@ -273,8 +280,7 @@ class OutputSet:
         aside: list[tuple[Path, Path]] = []      # (target, its earlier version kept aside)
         done: list[Path] = []
         written = {name for name, _ in self._staged}
-        stale = sorted(n for n in own_outputs(self.folder) - written
-                       if n in REMOVABLE_OUTPUTS or n.endswith(".png")) if "summary.json" in written else []
+        stale = stale_outputs(self.folder, written) if "summary.json" in written else []
         try:
             for name, staged in self._staged:
                 target = self.folder / name
