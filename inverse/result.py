@@ -137,6 +137,20 @@ def _evaluated_once(builder, design, value=None):
     return lambda d: at_design if d is design else builder(d)
 
 
+def _face_with_tail(rows, design, points, map_tail):
+    """(builder, extra variance (Q,) or None) of the face at `points` (rows(d) -> (F, k)), the
+    rows evaluated once at the fitted `design` with the left-out modes' and steps' part
+    (map_tail(points) -> (dF, dk, variance), dF None: variance only) added where the fit has
+    one: the face map (FitResult.build) and face_profile alike."""
+    F, k = rows(design)
+    extra = None
+    if map_tail is not None:
+        dF, dk, extra = map_tail(points)
+        if dF is not None:
+            F, k = F + dF, k + dk
+    return _evaluated_once(rows, design, (F, k)), extra
+
+
 def valid_zones(zones, face, cyl, warnings) -> list:
     """The zones on the estimated face that cover part of it; the others are reported."""
     quad = quadrature(face, cyl)
@@ -232,13 +246,7 @@ class FitResult:
         face, quantity = design.face_name, design.quantity
         unit = "K" if quantity == "temperature" else "W/m^2"
         pts = display_grid(face, cyl, *opts.grid)
-        on_grid = _evaluated_once(lambda d: face_on(d, pts), design)
-        tail_variance = None
-        if map_tail is not None:
-            dF, dk, tail_variance = map_tail(pts)
-            if dF is not None:
-                F, k = face_on(design, pts)
-                on_grid = _evaluated_once(lambda d: face_on(d, pts), design, (F + dF, k + dk))
+        on_grid, tail_variance = _face_with_tail(lambda d: face_on(d, pts), design, pts, map_tail)
 
         mean, sd, lower, upper = posterior.figures(on_grid, design, extra_variance=tail_variance)
         if monte_carlo is not None:
@@ -316,12 +324,8 @@ class FitResult:
         (map_tail) where the fit has one (a Monte Carlo fit's map comes from its draws; this
         is its posterior's)."""
         u, v = (np.ravel(np.asarray(x, float)) for x in (u, v))
-        builder, extra = (lambda d: d.face(u, v)), None
-        if self.map_tail is not None:
-            dF, dk, extra = self.map_tail(SimpleNamespace(u=u, v=v, lines=None))
-            if dF is not None:
-                F, k = self.design.face(u, v)
-                builder = _evaluated_once(builder, self.design, (F + dF, k + dk))
+        builder, extra = _face_with_tail(lambda d: d.face(u, v), self.design, SimpleNamespace(u=u, v=v, lines=None),
+                                         self.map_tail)
         return self.posterior.figures(builder, self.design, level, extra_variance=extra)
 
     def predict(self, r, theta, z, level=0.95):
