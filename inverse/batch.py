@@ -176,6 +176,12 @@ class BatchSolver:
                    face_functionals(design, zones), basis.face_values(pts.u, pts.v),
                    basis.known_face_values(pts.u, pts.v), shared, _nominal_direction(basis))
 
+    def _copy(self) -> "BatchSolver":
+        """A shallow copy sharing the arrays (the variants below change a few attributes)."""
+        new = object.__new__(BatchSolver)
+        new.__dict__.update(self.__dict__)
+        return new
+
     def with_fit_uncertainty(self, result, d_ref, rv_ref) -> "BatchSolver":
         """The same solver, its absolute figures also carrying what the fit `result` of the
         reference row (readings d_ref (n,) [K], random variances rv_ref (n,) [K^2]) holds
@@ -195,8 +201,7 @@ class BatchSolver:
 
         def extra(fit, mine):
             return max(float(fit) ** 2 - float(mine) ** 2, 0.0) if np.isfinite(mine) else 0.0
-        new = object.__new__(BatchSolver)
-        new.__dict__.update(self.__dict__)
+        new = self._copy()
         new.model_var = np.array([extra(fit_sd[name], own.sd[0, i]) if name in fit_sd else 0.0
                                   for i, name in enumerate(self.names)])
         new.model_var_extremes = np.array([extra(S[key], getattr(own, key)[0]) if self.Q else 0.0
@@ -227,8 +232,7 @@ class BatchSolver:
     def with_alpha(self, alpha) -> "BatchSolver":
         """The same solver at another strength (without a fit's further uncertainty, which
         with_fit_uncertainty sets for one strength)."""
-        new = object.__new__(BatchSolver)
-        new.__dict__.update(self.__dict__)
+        new = self._copy()
         if not (np.isfinite(alpha) and alpha > 0):
             raise InverseError("alpha must be positive and finite")
         new.alpha = float(alpha)
