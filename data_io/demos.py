@@ -87,7 +87,7 @@ def against_truth(truth: float, mean: float, sd: float) -> str:
 
 def _truth_lines(case: Path, summary: dict, power_unit: str) -> list[str]:
     """What the scenario's truth.json says next to what the fit found (nothing without it)."""
-    from .report_format import pm95, pm95_of, power_pm
+    from .report_format import _decimals_for, half95, pm95, pm95_of, power_pm
     from .units import from_si
 
     truth_file = case.parent / "truth.json"
@@ -109,8 +109,9 @@ def _truth_lines(case: Path, summary: dict, power_unit: str) -> list[str]:
         warmest = max(zones, key=lambda z: z["mean"])
         true_c = (truth.get("zone_mean_degC") or {}).get(warmest["name"])
         fit_c = from_si(warmest["mean"], "temperature", "degC")
+        shown = f"{fit_c:.{_decimals_for(half95(warmest['sd']))}f}"     # to its band's last digit, as the report
         found.append(f"warmest zone {warmest['name']} ({warmest['deviation_from_face_mean']:+.1f} K from the "
-                     f"face mean" + (f"; fit {pm95(f'{fit_c:.1f}', warmest['sd'], 'degC')}, truth {true_c:.1f} "
+                     f"face mean" + (f"; fit {pm95(shown, warmest['sd'], 'degC')}, truth {true_c:.1f} "
                                      f"degC: {against_truth(true_c, fit_c, warmest['sd'])})"
                                      if true_c is not None else ")"))
     power, sd = summary.get("total_power_W"), summary.get("total_power_sd_W")

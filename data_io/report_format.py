@@ -109,7 +109,7 @@ def pm95_of(x, sd, unit: str) -> str:
         text = f"{float(x):.{max(math.ceil(-math.log10(half)), 0)}f}"
     if _finite(half) and half > 0 and "e" not in text and float(x) != 0:
         # at most 7 significant digits: a figure known to 1e-12 is shown as exact, not to 12 places
-        whole = int(math.floor(math.log10(abs(float(x))))) + 1 if float(x) != 0 else 1
+        whole = int(math.floor(math.log10(abs(float(x))))) + 1
         need = min(math.ceil(-math.log10(half)), max(7 - whole, 0))
         have = len(text.split(".")[1]) if "." in text else 0
         if need > have:
