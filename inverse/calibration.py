@@ -24,6 +24,7 @@ from .hyperprior import learn_prior
 from .linear_gaussian import LinearGaussianProblem
 from .lmfit_solver import fit_lmfit
 from .marginal_columns import MarginalColumns
+from .problem import CALIBRATABLE
 
 #: central-difference step of a calibrated parameter, relative to its sd (common practice, no source)
 STEP_IN_SD = 0.05
@@ -163,8 +164,8 @@ def calibration_refusal(faces, face: str, what: str) -> str | None:
         now = "absent" if cond is None else f"'{cond.condition}'"
         return (f"'{face}.{what}': only h or ambient of a convection face can be calibrated, and "
                 f"faces.{face} is {now}")
-    if what not in ("h", "ambient"):
-        return f"'{face}.{what}': a calibrated parameter is 'h' or 'ambient'"
+    if what not in CALIBRATABLE:
+        return f"'{face}.{what}': a calibrated parameter is {' or '.join(repr(w) for w in CALIBRATABLE)}"
     if what == "ambient" and callable(cond.ambient):
         return (f"'{face}.{what}': faces.{face} has an ambient profile, which cannot be calibrated; give one "
                 "ambient temperature")
