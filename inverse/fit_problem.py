@@ -10,7 +10,7 @@ import numpy as np
 from .design import NOMINAL_PRECISION_FACTOR
 from .hyperprior import learn_prior
 from .linear_gaussian import LinearGaussianProblem
-from .marginal_sets import MarginalSets
+from .marginal_sets import MarginalSets, prior_at_points
 from .noise import Whitener, noise_covariance
 from .robust import nominal_level
 from .strength import choose_strength
@@ -98,12 +98,14 @@ def lead_tail_prior(model, tail_prior, zone_model):
 
 def answer_tails(model, columns, design, rd, kept, problem, tail_prior, zone_model, zones, steps=None):
     """The left-out modes and the unseen stretches' steps under the model that leads, given the
-    kept sensors' residual, for FitResult.build: (figure_tails, map_tail, marginal).
+    kept sensors' residual, for FitResult.build: (figure_tails, map_tail, point_tail, marginal).
     figure_tails = (X, residual, {name: (h, variance)}): their share of the total power, the
     face mean and each zone mean (marginal_sets.MarginalSets.shares), value = k + f . c + h .
     (residual - X c) with the variance added; map_tail: points -> (dF, dk, variance), their
     part of the face map, k + dk + (F + dF) c with the variance added (truncation.face_tail);
-    marginal: the marginal_sets.MarginalSets (planning carries the steps in its state).
+    point_tail: points (r, theta, z) -> (dG, dt0, variance), their part of the temperature
+    inside the part alike (MarginalSets.at_points); marginal: the marginal_sets.MarginalSets
+    (planning carries the steps in its state).
     zone_model: (the leading ZoneModel, the zone columns' field at the sensors (n, J'))."""
     idx = np.flatnonzero(kept)
     lin = problem if model == "smooth" else zone_model[0].smooth      # its readings, noise and columns
@@ -117,4 +119,24 @@ def answer_tails(model, columns, design, rd, kept, problem, tail_prior, zone_mod
     def on_face(points):
         H, variance = face_tail(left, points, prior, kept_rd, S, steps)
         return -H @ X, H @ residual, variance
-    return (X, residual, marginal.shares(zones)), on_face, marginal
+
+    def at_points(points):
+        H, variance = marginal.at_points(points.r, points.theta, points.z)
+        return -H @ X, H @ residual, variance
+    return (X, residual, marginal.shares(zones)), on_face, at_points, marginal
+
+
+def calibrated_tails(design, rd, kept, prior, steps=None):
+    """(map_tail, point_tail) of a fit with calibrated face parameters, as answer_tails's but
+    variance only: the left-out modes' (and steps') prior variance on the face
+    (truncation.face_tail without the readings) and inside the part
+    (marginal_sets.prior_at_points), not given the readings' residual."""
+    kept_rd = rd.subset(np.flatnonzero(kept))
+    left = left_out_columns(design, kept_rd)
+
+    def on_face(points):
+        return None, None, face_tail(left, points, prior, kept_rd, steps=steps)[1]
+
+    def at_points(points):
+        return None, None, prior_at_points((left, steps), prior, points.r, points.theta, points.z)
+    return on_face, at_points

@@ -25,7 +25,7 @@ from .design import Design, smooth_prior
 from .errors import InverseError
 from .fit_models import build_zone_models, choose_model
 from .fit_posterior import smooth_posterior
-from .fit_problem import (answer_tails, lead_tail_prior, linear_problem, reading_noise,
+from .fit_problem import (answer_tails, calibrated_tails, lead_tail_prior, linear_problem, reading_noise,
                           steps_given_kept, with_placement, with_tail)
 from .fit_calibration import calibrated_design, step_screening
 from .fit_screening import screen_sensors, settled_screen
@@ -38,7 +38,6 @@ from .readings import as_readings
 from .result import FitResult, valid_zones
 from .robust import gross_faults
 from .threads import few_threads
-from .truncation import face_tail_variance
 
 
 @few_threads
@@ -146,15 +145,14 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
         step.skip()
         warnings.append("Monte Carlo draws of sensor positions are not available with the zone model; "
                         "the bands are the zone model's posterior")
-    figure_tails = map_tail = marginal = None
+    figure_tails = map_tail = point_tail = marginal = None
     if tail_prior is not None and post.calibration is None and mc is None:
-        figure_tails, map_tail, marginal = answer_tails(model_info["model"], columns, design, rd, screen.kept, problem, tail_prior,
-                                       zone_model, valid_zones(spec.zones, face, spec.cylinder, []), steps)
+        figure_tails, map_tail, point_tail, marginal = answer_tails(
+            model_info["model"], columns, design, rd, screen.kept, problem, tail_prior, zone_model,
+            valid_zones(spec.zones, face, spec.cylinder, []), steps)
     elif tail_prior is not None and mc is None:     # calibrated: the left-out modes' prior variance
-        lead_prior = lead_tail_prior(model_info["model"], tail_prior, zone_model)
-
-        def map_tail(points):
-            return None, None, face_tail_variance(design, points, lead_prior, rd.subset(screen.kept), steps)
+        map_tail, point_tail = calibrated_tails(design, rd, screen.kept,
+                                                lead_tail_prior(model_info["model"], tail_prior, zone_model), steps)
     step("bands, zones and power of the answer")
     sensors = _answer_residuals(screen.table, post, columns, rd, problem, zone_model, model_info["model"] == "zones",
                                 steps, screen.kept)
@@ -162,6 +160,7 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
                            choice=screen.choice, posterior=post, sensors=sensors,
                            set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)),
                            monte_carlo=mc, extra=model_info, figure_tails=figure_tails, map_tail=map_tail,
+                           point_tail=point_tail,
                            marginal=marginal)
 
 

@@ -21,8 +21,22 @@ def functional_rows(columns, zones=()) -> dict:
     return rows
 
 
-#: points per block in MarginalSets.at_points
+#: points per block in MarginalSets.at_points and prior_at_points
 POINT_BLOCK = 512
+
+
+def prior_at_points(sets, prior, r, theta, z) -> np.ndarray:
+    """The prior variance (Q,) [K^2] of column sets (LeftOutColumns, stretch.StretchSteps; None
+    entries skipped) at points (r, theta, z) [m, rad, m]: sum_t fields_t(x)^2 v_t, not given
+    the readings (a calibrated fit's, whose face map adds the same variance on the face)."""
+    r, theta, z = (np.atleast_1d(np.asarray(x, float)).ravel() for x in (r, theta, z))
+    out = np.zeros(r.size)
+    for c in (c for c in sets if c is not None):
+        v = c.variances(prior)
+        for lo in range(0, r.size, POINT_BLOCK):
+            sl = slice(lo, min(lo + POINT_BLOCK, r.size))
+            out[sl] += (c.fields(r[sl], theta[sl], z[sl]) ** 2) @ v
+    return out
 
 
 @dataclass

@@ -137,15 +137,15 @@ def _evaluated_once(builder, design, value=None):
     return lambda d: at_design if d is design else builder(d)
 
 
-def _face_with_tail(rows, design, points, map_tail):
-    """(builder, extra variance (Q,) or None) of the face at `points` (rows(d) -> (F, k)), the
+def _with_tail(rows, design, points, tail):
+    """(builder, extra variance (Q,) or None) of a figure at `points` (rows(d) -> (F, k)), the
     rows evaluated once at the fitted `design` with the left-out modes' and steps' part
-    (map_tail(points) -> (dF, dk, variance), dF None: variance only) added where the fit has
-    one: the face map (FitResult.build) and face_profile alike."""
+    (tail(points) -> (dF, dk, variance), dF None: variance only) added where the fit has one:
+    the face map (FitResult.build) and face_profile with map_tail, predict with point_tail."""
     F, k = rows(design)
     extra = None
-    if map_tail is not None:
-        dF, dk, extra = map_tail(points)
+    if tail is not None:
+        dF, dk, extra = tail(points)
         if dF is not None:
             F, k = F + dF, k + dk
     return _evaluated_once(rows, design, (F, k)), extra
@@ -221,6 +221,9 @@ class FitResult:
     #: points -> (dF, dk, variance): the left-out modes' and steps' part of the face at points
     #: with u, v (and lines or None), as the face map takes it (build's map_tail), or None
     map_tail: object = field(repr=False, default=None)
+    #: points with r, theta, z -> (dG, dt0, variance): their part of the temperature inside the
+    #: part (build's point_tail), or None
+    point_tail: object = field(repr=False, default=None)
 
     @property
     def smooth_only(self) -> bool:
@@ -232,7 +235,8 @@ class FitResult:
     # ------------------------------------------------------------------ construction
     @classmethod
     def build(cls, *, spec, design, readings, kept, problem, choice, posterior, sensors,
-              set_aside, warnings, monte_carlo, extra=None, figure_tails=None, map_tail=None, marginal=None):
+              set_aside, warnings, monte_carlo, extra=None, figure_tails=None, map_tail=None, marginal=None,
+              point_tail=None):
         """Derived figures of a fit.  spec: the inverse.problem.Problem; design: the model
         columns (design.Design or the zone model's); problem: the LinearGaussianProblem of
         the kept sensors; extra: further summary keys; figure_tails: (X, residual, {name: (h,
@@ -241,12 +245,13 @@ class FitResult:
         with the variance added); map_tail: points ->
         (dF, dk, variance), the left-out modes' part of the face map: k + dk + (F + dF) c with
         the variance (Q,) added to its bands (dF, dk None: variance only; truncation.face_tail);
+        point_tail: the same for temperatures inside the part (predict; points with r, theta, z);
         marginal: the marginal_sets.MarginalSets behind them (kept for planning)."""
         cyl, opts = design.cylinder, spec.options
         face, quantity = design.face_name, design.quantity
         unit = "K" if quantity == "temperature" else "W/m^2"
         pts = display_grid(face, cyl, *opts.grid)
-        on_grid, tail_variance = _face_with_tail(lambda d: face_on(d, pts), design, pts, map_tail)
+        on_grid, tail_variance = _with_tail(lambda d: face_on(d, pts), design, pts, map_tail)
 
         mean, sd, lower, upper = posterior.figures(on_grid, design, extra_variance=tail_variance)
         if monte_carlo is not None:
@@ -315,7 +320,7 @@ class FitResult:
         return cls(face, quantity, unit, cyl, grid, pts.shape, summary, sens, curve, list(warnings),
                    posterior, design, problem, readings, kept, zones,
                    cal.info() if cal is not None else None, monte_carlo, cal, opts, figure_tails, marginal,
-                   map_tail)
+                   map_tail, point_tail)
 
     # ------------------------------------------------------------------ queries
     def face_profile(self, u, v, level=0.95):
@@ -324,23 +329,19 @@ class FitResult:
         (map_tail) where the fit has one (a Monte Carlo fit's map comes from its draws; this
         is its posterior's)."""
         u, v = (np.ravel(np.asarray(x, float)) for x in (u, v))
-        builder, extra = _face_with_tail(lambda d: d.face(u, v), self.design, SimpleNamespace(u=u, v=v, lines=None),
+        builder, extra = _with_tail(lambda d: d.face(u, v), self.design, SimpleNamespace(u=u, v=v, lines=None),
                                          self.map_tail)
         return self.posterior.figures(builder, self.design, level, extra_variance=extra)
 
     def predict(self, r, theta, z, level=0.95):
         """Temperature [K] with sd and band anywhere inside the part: (mean, sd, lower, upper),
-        with the marginalized sets' part given the kept readings (MarginalSets.at_points), as
-        the face map has it on the face: t0 + G c + H (residual - X c) and its variance.  A fit
-        with calibrated face parameters keeps its columns' part alone here (its map adds the
-        left-out modes' prior variance, which inside the part has no conditional form here)."""
+        with the marginalized sets' part (point_tail) as the face map has it on the face: given
+        the kept readings, t0 + G c + H (residual - X c) and its variance
+        (MarginalSets.at_points); with calibrated face parameters their prior variance alone,
+        as that map adds it."""
         r, theta, z = (np.atleast_1d(np.asarray(x, float)) for x in (r, theta, z))
-        builder, extra = (lambda d: d.sensors(r, theta, z)), None
-        if self.marginal is not None and self.functional_tails is not None:
-            H, extra = self.marginal.at_points(r, theta, z)
-            X, residual = self.functional_tails[0], self.functional_tails[1]
-            G, t0 = self.design.sensors(r, theta, z)
-            builder = _evaluated_once(builder, self.design, (G - H @ X, t0 + H @ residual))
+        builder, extra = _with_tail(lambda d: d.sensors(r, theta, z), self.design,
+                                    SimpleNamespace(r=r, theta=theta, z=z), self.point_tail)
         return self.posterior.figures(builder, self.design, level, extra_variance=extra)
 
     def predict_flux(self, r, theta, z):

@@ -205,12 +205,6 @@ def conditional(parts, noise_covariance):
     return H, np.maximum(prior_var - np.einsum("nq,nq->q", H, a), 0.0)
 
 
-def face_tail_variance(design, points, prior, rd, steps=None) -> np.ndarray:
-    """The left-out modes' (and the unseen stretches' steps') prior variance (Q,) at `points`
-    of the face (face_tail without the readings' residual)."""
-    return face_tail(left_out_columns(design, rd), points, prior, rd, steps=steps)[1]
-
-
 def tail_variance(design, r, theta, z, prior) -> np.ndarray:
     """diag(S_tail) (n,) [K^2] at points (r, theta, z) [m, rad, m] (see tail_covariance)."""
     G, v = _tail_parts(design, np.asarray(r, float), np.asarray(theta, float), np.asarray(z, float), prior)

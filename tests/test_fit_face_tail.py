@@ -1,7 +1,7 @@
 """The face's bands do not depend on how many modes the basis keeps.
 
 A pointwise band of the unknown face is the posterior sd of the kept modes plus the prior
-variance of the modes the basis leaves out (truncation.face_tail_variance).  That sum is
+variance of the modes the basis leaves out (truncation.face_tail).  That sum is
 finite only when the prior's exponent exceeds half the face's dimension (a Matern field
 with smoothness nu > 0, hyperprior.matern_exponent); with an exponent of 0.5 or 1 on a
 2-D face the band at the centre grew from 16,500 to 55,500 W/m^2 as the radial terms went
