@@ -104,8 +104,11 @@ GLOSSARY = (
                                    "position (leave-one-out); a faulty or misplaced thermocouple "
                                    "stands out against it."),
     ("score", "reading minus the prediction from the others, in its predictive standard deviations, "
-              "over the smoothing strengths the fit weighs: the number the screening decides on "
-              "(sensors.csv's standardized_loo is the same at the answer's single strength)."),
+              "over the smoothing strengths the fit weighs: the number the screening decides on. "
+              "The prediction and its ± are that same prediction's mean and 95 % interval "
+              "(1.96 standard deviations; sensors.csv's loo_sd_K); sensors.csv's standardized_loo "
+              "is reading minus prediction over that sd, which the score matches except where the "
+              "strengths disagree and the prediction's tails are heavier."),
     ("caught offset", "the smallest fixed offset of a reading that the check against the others "
                       "would catch: half the width of the range of readings the prediction from the "
                       "others accepts (the limit times its standard deviation, for one smoothing "

@@ -165,7 +165,8 @@ class Screening:
 
     set_aside: in the order they were set aside; kept: boolean mask (n,) of sensors in the
     final fit; problem, strength: the final fit; table: `sensor_table` columns for all n
-    sensors (set-aside ones predicted from the final fit) plus `score`, the screening
+    sensors (set-aside ones predicted from the final fit; the kept ones' loo_predicted,
+    loo_sd and standardized_loo from the screening's own check, LooScores) plus `score`, the screening
     statistic (for set-aside sensors, its value when they were set aside), `caught_offset`
     of that statistic (LooScores.caught_offset; NaN for a set-aside sensor); flag 'ok',
     'suspect' (|score| > threshold but not set aside) or 'set aside'.
@@ -252,6 +253,12 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
     choice = choose_strength(sub, strength)
     warns.extend(choice.warnings)
     table = _final_table(problem, sub, idx, keep, choice.alpha, names)
+    # the kept sensors' prediction from the others is the one the score judges (averaged over
+    # alpha: the predictive mixture's mean and sd), so that the table's prediction, its sd and
+    # the score describe one check
+    table.loc[idx, "loo_predicted"] = sc.predicted
+    table.loc[idx, "loo_sd"] = sc.sd
+    table.loc[idx, "standardized_loo"] = (sub.d - sc.predicted) / sc.sd
     table["score"] = score
     t = limit(sub.n)
     caught = np.full(n, np.nan)           # a set-aside sensor is no longer checked

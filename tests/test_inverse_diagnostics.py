@@ -77,6 +77,31 @@ def test_sensor_table_matches_problem():
     assert (tight["flag"] == "suspect").all()
 
 
+def test_screening_table_shows_the_prediction_its_score_judges():
+    """The kept sensors' prediction from the others and its sd in the screening's table are
+    the alpha-averaged predictive mixture's mean and sd (averaged_loo), the check behind the
+    score, not one alpha's (the report shows them beside the score); the score is that
+    mixture's probability-integral transform, so for a sensor within the mixture's bulk it is
+    close to (reading - mean) / sd."""
+    n = 20
+    rng, G, p = layout(n, 10, 31)
+    d = readings(rng, G, p, 0.5)
+    d[7] += 8.0
+    prob = LinearGaussianProblem(G, d, 20.0, np.full(n, 0.25), p)
+    out = screen_outliers(prob)
+    idx = np.flatnonzero(out.kept)
+    check = averaged_loo(out.problem)
+    t = out.table.iloc[idx]
+    np.testing.assert_allclose(t["loo_predicted"], check.predicted, rtol=1e-12)
+    np.testing.assert_allclose(t["loo_sd"], check.sd, rtol=1e-12)
+    np.testing.assert_allclose(t["standardized_loo"], (t["measured"] - t["loo_predicted"]) / t["loo_sd"])
+    np.testing.assert_allclose(t["score"], check.z, rtol=1e-12)
+    bulk = np.abs(check.z) < 2.0
+    assert np.max(np.abs(t["standardized_loo"].to_numpy()[bulk] - check.z[bulk])) < 0.3
+    # the set-aside sensor keeps its held-out prediction from the final fit
+    assert out.table.iloc[7]["flag"] == "set aside"
+
+
 def test_cap_on_set_aside_sensors_warns():
     n = 16
     rng, G, p = layout(n, 8, 60)
