@@ -60,7 +60,29 @@ def _sensor_rug(ax, result):
                     markersize=14, transform=ax.get_xaxis_transform(), gid=f"sensors:{flag}", **style)
 
 
+#: vertical step [axes fraction] between rows of zone labels, and the rows at most
+LABEL_ROW_STEP, LABEL_ROWS = 0.06, 4
+
+
+def _label_rows(extents) -> list[int]:
+    """Row of each label (extents: (left, right) [deg], in drawing order): the first row, from
+    the top, where it overlaps no label already placed; labels that fit nowhere share the
+    last row."""
+    placed: list[list[tuple[float, float]]] = [[] for _ in range(LABEL_ROWS)]
+    rows = []
+    for left, right in extents:
+        row = next((k for k, taken in enumerate(placed)
+                    if all(right <= a or left >= b for a, b in taken)), LABEL_ROWS - 1)
+        placed[row].append((left, right))
+        rows.append(row)
+    return rows
+
+
 def _zone_spans(ax, result, zones):
+    """Each zone's theta window shaded (gid 'zone:<name>') and named at the top; names that
+    would overlap go to rows below (_label_rows; widths from the text as drawn, on the axes
+    before the layout's last adjustment)."""
+    labels = []
     for z in zones or ():
         if (getattr(z, "face", None) or result.face) != result.face:
             continue
@@ -69,8 +91,23 @@ def _zone_spans(ax, result, zones):
             pieces = [(lo, min(hi, 360.0))] + ([(0.0, hi - 360.0)] if hi > 360.0 else [])
             for a, b in pieces:
                 ax.axvspan(a, b, color="#e8e8e8", zorder=0, gid=f"zone:{z.name}")
-            ax.annotate(str(z.name), ((lo + min(hi, 360.0)) / 2, 0.97), xycoords=("data", "axes fraction"),
-                        ha="center", va="top", fontsize=7, color="#333333")
+            labels.append(ax.annotate(str(z.name), ((lo + min(hi, 360.0)) / 2, 0.97),
+                                      xycoords=("data", "axes fraction"), ha="center", va="top", fontsize=7,
+                                      color="#333333", gid=f"zone label:{z.name}"))
+    if len(labels) < 2:
+        return
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    canvas = ax.figure.canvas
+    renderer = (canvas if hasattr(canvas, "get_renderer") else FigureCanvasAgg(ax.figure)).get_renderer()
+    to_data = ax.transData.inverted()
+    extents = []
+    for text in labels:
+        box = text.get_window_extent(renderer)
+        (left, _), (right, _) = to_data.transform([(box.x0, box.y0), (box.x1, box.y0)])
+        extents.append((left, right))
+    for text, row in zip(labels, _label_rows(extents)):
+        text.set_y(0.97 - LABEL_ROW_STEP * row)
 
 
 def face_curve(result, *, zones=()) -> Figure:

@@ -120,6 +120,27 @@ def test_long_wall_is_a_theta_curve(tmp_path):
     assert np.all(width > 0)
 
 
+def test_zone_names_on_the_long_curve_do_not_overlap():
+    """Zone names sit at the top of their theta windows; a name that would overlap another
+    goes to a row below (quadrants with a narrower zone inside one, as engineers declare a
+    fouled side or a weld inside a quadrant)."""
+    import types
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from heatsight.data_io import wall_curve
+    from heatsight.inverse import Zone
+    assert wall_curve._label_rows([(0, 10), (5, 15), (20, 30), (8, 12), (11, 19)]) == [0, 1, 0, 2, 0]
+    fig, ax = wall_curve._axes("zones")
+    zones = [Zone(name, "bore", (math.radians(a), math.radians(b))) for name, a, b in
+             [("bore 0-90 deg", 0, 90), ("fouled side", 30, 75), ("inlet weld", 40, 50), ("east", 80, 100),
+              ("bore 270-360 deg", 270, 360)]]
+    wall_curve._zone_spans(ax, types.SimpleNamespace(face="bore"), zones)
+    renderer = FigureCanvasAgg(fig).get_renderer()
+    fig.draw(renderer)
+    boxes = [t.get_window_extent(renderer) for t in ax.texts if str(t.get_gid()).startswith("zone label:")]
+    assert len(boxes) == len(zones)
+    assert not any(a.overlaps(b) for i, a in enumerate(boxes) for b in boxes[i + 1:])
+
+
 def test_a_long_parts_plan_is_drawn_as_its_cross_section(tmp_path):
     """A long part has no height to map: the plan's band figure shows the sd now and after the
     picks against theta, and its layout places holes by angle and radius through the wall (both
