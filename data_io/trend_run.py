@@ -186,6 +186,7 @@ class TrendRun:
 
     def _set_flags(self, rows: int) -> None:
         self.flags = stats_trend.ChangeFlags(self.model.zone_names, rows)
+        self.checks = stats_trend.RowChecks([s for s, u in zip(self.names, self.model.used) if u], rows)
 
     @property
     def result(self):
@@ -266,7 +267,8 @@ class TrendRun:
 
     def _rows(self, times, values):
         used = self.model.used
-        d, rv = values[:, used], self.sensors.reading_sigma[used] ** 2
+        rv = self.sensors.reading_sigma[used] ** 2
+        d = self.model.checked(self.checks, times, values[:, used], rv)
         self._write(times, times, np.ones(times.size), self.model.solver.solve(d, rv), d, rv)
 
     def _flush_pending(self):
@@ -328,6 +330,7 @@ class TrendRun:
         for lo in range(0, steady.size, WINDOW_BATCH):
             w = steady[lo:lo + WINDOW_BATCH]
             d, rv = means[w][:, used], sig2[w][:, used]
+            d = self.model.checked(self.checks, stats.start[w], d, rv, reference_mask=(w == ref))
             self._write(stats.start[w], stats.end[w], stats.n_rows[w], self.model.solver.solve(d, rv), d, rv,
                         reference_mask=(w == ref))
 
@@ -356,6 +359,22 @@ class TrendRun:
             if self.reader.timestamps:
                 rec["first_flagged_start_iso"] = str(self.reader.iso([f.first_flagged_start_s])[0])
             rec.update(change_at_first_flag=f.change_at_first_flag, change_sd_at_first_flag=f.change_sd_at_first_flag)
+            out.append(rec)
+        return out
+
+    def _when(self, t) -> str:
+        """A row's start time for a sentence: ISO 8601 for timestamps, else seconds or hours."""
+        from .trend_text import log_time
+
+        return str(self.reader.iso([t])[0]) if self.reader.timestamps else f"t = {log_time(t)}"
+
+    def _fault_records(self) -> list[dict]:
+        out = []
+        for f in self.checks.found():
+            rec = {"sensor": f.sensor, "rows": f.rows, "first_start_s": f.first_start_s,
+                   "last_start_s": f.last_start_s, "largest_score": f.largest_score}
+            if self.reader.timestamps:
+                rec["first_start_iso"] = str(self.reader.iso([f.first_start_s])[0])
             out.append(rec)
         return out
 
@@ -389,7 +408,9 @@ class TrendRun:
             "flag_threshold_sd": self.flags.threshold, "flag_family_level": self.flags.family_level,
             "flag_comparisons": int(self.flags.comparisons),
             "flags": self._flag_records(),
-            "warnings": list(dict.fromkeys(self.warnings + list(self.result.warnings))),
+            "sensor_faults": self._fault_records(), "sensor_check_threshold_sd": self.checks.threshold,
+            "warnings": list(dict.fromkeys(self.checks.warnings(self._when) + self.warnings
+                                           + list(self.result.warnings))),
             "caution": CAUTION,
             "reference_fit": summary_dict(self.result, case_path=case_path, readings_path=log_path),
         }

@@ -55,13 +55,13 @@ class _Units:
         return pm95_of(x * self.scale, sd * self.scale if _finite(sd) else None, self.diff_unit)
 
 
-def _seconds(t) -> str:
+def log_time(t) -> str:
     """A time on the log's axis: hours from 2 h on (as on the trend figure), else seconds."""
     return f"{eng(t / 3600.0)} h" if abs(t) >= 7200.0 else f"{eng(t)} s"
 
 
 def _when(f) -> str:
-    return f.get("first_flagged_start_iso") or f"t = {_seconds(f['first_flagged_start_s'])}"
+    return f.get("first_flagged_start_iso") or f"t = {log_time(f['first_flagged_start_s'])}"
 
 
 def _rows(n) -> str:
@@ -87,6 +87,10 @@ def flag_sentences(summary: dict, report: bool = True) -> list[str]:
         n = len(summary["zones"])
         out.append(f"No zone changed beyond its flag limit over the log ({summary['trend_rows']} rows inverted"
                    + (f", {n} zones followed)." if n else "; the case defines no zones)."))
+    for f in summary.get("sensor_faults") or ():
+        when = f.get("first_start_iso") or f"t = {log_time(f['first_start_s'])}"
+        out.append(f"Sensor {f['sensor']} disagreed with the others from {when} and was left out of "
+                   f"{_rows(f['rows'])}: check that thermocouple (a fault, not a heater change).")
     return out
 
 
@@ -106,7 +110,7 @@ def trend_html(summary: dict, figure_png: bytes, reader_timestamps: bool) -> str
     e = lambda s: escape(str(s), quote=True)  # noqa: E731
     ref = summary["reference_window"]
     when = (f"{ref['start_iso']} to {ref['end_iso']}" if "start_iso" in ref
-            else f"t = {_seconds(ref['start_s'])} to {_seconds(ref['end_s'])}")
+            else f"t = {log_time(ref['start_s'])} to {log_time(ref['end_s'])}")
     if summary["mode"] == "every":
         what = f"{_every_words(summary['every'])} of the log ({summary['trend_rows']} rows)"
     else:
@@ -152,7 +156,16 @@ def trend_html(summary: dict, figure_png: bytes, reader_timestamps: bool) -> str
               f"chance of any false flag over all {summary['flag_comparisons']} rows and zones below "
               f"{summary['flag_family_level']:.0%}). A large change of one zone spreads a little into its "
               f"neighbours through the fit's smoothing, so judge flags by the size of the change: the zone "
-              f"that moves most is where the change is.</p>"]
+              f"that moves most is where the change is.</p>",
+              f"<p>Before a row is inverted, each sensor's change is checked against what the other sensors "
+              f"predict (a limit of {summary.get('sensor_check_threshold_sd', math.nan):.2f} sd, over all rows "
+              f"and sensors); one beyond it is left out of that row, so that a thermocouple failing partway "
+              f"through the log is not read as a heater's change.</p>"]
+    own = [w for w in summary.get("warnings") or ()
+           if w not in set((summary.get("reference_fit") or {}).get("warnings") or ())]
+    if own:
+        parts.append("<p>Warnings of the trend:</p><ul class=\"warnings\">"
+                     + "".join(f"<li>{e(w)}</li>" for w in own) + "</ul>")
     return "\n".join(parts)
 
 

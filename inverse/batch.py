@@ -63,6 +63,8 @@ TREND_GRID = (21, 48)
 TREND_FAMILY_LEVEL = 0.02
 #: fewest valid sensors for a row to be inverted
 MIN_SENSORS = 3
+#: tail probability beyond which a row departs from the prior mean (departing_rows)
+DEPARTURE_LEVEL = 1e-3
 #: bound on the size of stacked intermediate arrays (elements)
 _BLOCK_ELEMENTS = 4_000_000
 
@@ -209,25 +211,63 @@ class BatchSolver:
         return new
 
     # ------------------------------------------------------------------ estimators
-    def _estimators(self, v, noise):
+    def _estimators(self, v, noise, rows=None):
         """For pattern v (n,) bool and U noise vectors (U, n_v) of total variance: estimator
         rows e (U, q, n_v), posterior variances (U, q), phi (U, Q, r) and 1/(s^2+alpha) (U, r)
-        for the grid covariances."""
+        for the grid covariances.  rows: the quantities' rows (q, K) instead of the
+        functionals' and the grid's (the sensors' own, G_v: e is then the hat matrix)."""
         Gv = self.G[v]
+        Fq = self.Fq if rows is None else np.asarray(rows, float)
+        Fn = self.Fn if rows is None else Fq * self.p_isqrt[None, :]
         sd = np.sqrt(noise)
         A = (Gv[None, :, :] / sd[:, :, None]) * self.p_isqrt[None, None, :]
         Uu, s, Vt = np.linalg.svd(A, full_matrices=False)
-        phi = np.einsum("qk,urk->uqr", self.Fn, Vt)
+        phi = np.einsum("qk,urk->uqr", Fn, Vt)
         inv = 1.0 / (s ** 2 + self.alpha)
         a = np.einsum("uqr,unr->uqn", phi * (s * inv)[:, None, :], Uu) / sd[:, None, :]
         gu = Gv @ self.u
         W = 1.0 / noise
         den = np.sum(W * gu ** 2, axis=1)
         g = np.where(den[:, None] > 0, W * gu / np.where(den > 0, den, 1.0)[:, None], 0.0)
-        e = a + (self.fu[None, :] - a @ gu)[:, :, None] * g[:, None, :]
-        var = np.einsum("uqr,ur->uq", phi ** 2, inv) + np.maximum(self.fn2[None, :] - np.sum(phi ** 2, axis=2),
+        fu = self.fu if rows is None else Fq @ self.u
+        e = a + (fu[None, :] - a @ gu)[:, :, None] * g[:, None, :]
+        fn2 = self.fn2 if rows is None else np.sum(Fn ** 2, axis=1)
+        var = np.einsum("uqr,ur->uq", phi ** 2, inv) + np.maximum(fn2[None, :] - np.sum(phi ** 2, axis=2),
                                                                   0.0) / self.alpha
         return e, var, phi[:, self.nf:, :], inv
+
+    @few_threads
+    def leave_one_out(self, d, random_var) -> np.ndarray:
+        """z (R, n): each reading's check against the other readings of its row, (d_i - E[d_i |
+        the row's others]) / its predictive sd, under this solver's model (NaN where missing,
+        and in rows with fewer than MIN_SENSORS + 1 readings).  The answer is linear in the
+        readings, fitted = t0 + H (d - t0) with H the hat matrix of the row's pattern and
+        noise; for such a Gaussian posterior mean the leave-one-out residual is r_i / (1 -
+        H_ii), r = d - fitted, with predictive variance S_ii / (1 - H_ii), so
+            z_i = r_i / sqrt(S_ii (1 - H_ii)),
+        S the row's noise variance (random_var + the shared variance)."""
+        d = np.atleast_2d(np.asarray(d, float))
+        rv = np.broadcast_to(np.asarray(random_var, float), d.shape)
+        valid = np.isfinite(d) & np.isfinite(rv) & (rv > 0)
+        z = np.full(d.shape, np.nan)
+        for rows in _pattern_groups(valid):
+            v = valid[rows[0]]
+            if v.sum() < MIN_SENSORS + 1:
+                continue
+            cols = np.flatnonzero(v)
+            x = d[np.ix_(rows, cols)] - self.t0[v]
+            rvs, which = np.unique(rv[np.ix_(rows, cols)], axis=0, return_inverse=True)
+            which = which.ravel()
+            step = max(1, _BLOCK_ELEMENTS // (cols.size * cols.size))
+            for lo in range(0, rvs.shape[0], step):
+                noise = rvs[lo:lo + step] + self.shared_var[v][None, :]
+                H = self._estimators(v, noise, rows=self.G[v])[0]           # (U, n_v, n_v)
+                sel = np.flatnonzero((which >= lo) & (which < lo + step))
+                j = which[sel] - lo
+                resid = x[sel] - np.einsum("rqn,rn->rq", H[j], x[sel])
+                h = np.diagonal(H, axis1=1, axis2=2)[j]
+                z[np.ix_(rows[sel], cols)] = resid / np.sqrt(noise[j] * np.maximum(1.0 - h, 1e-12))
+        return z
 
     def with_alpha(self, alpha) -> "BatchSolver":
         """The same solver at another strength (without a fit's further uncertainty, which
@@ -288,6 +328,19 @@ class BatchSolver:
                 rest[part] = np.maximum(np.sum(y ** 2, axis=1) - np.sum(beta ** 2, axis=1), 0.0)
                 logdet[part] = np.sum(np.log(noise), axis=1)
         return s2, b2, rest, count, logdet
+
+    def departing_rows(self, d, random_var, level: float = DEPARTURE_LEVEL) -> np.ndarray:
+        """(R,) bool: rows whose readings depart from this solver's prior mean (its known field
+        and gamma times the nominal profile, gamma the row's own GLS level) by more than their
+        noise allows: the whitened rest |y|^2 beyond chi^2 with (readings - 1) degrees of
+        freedom at tail probability `level`.  For a change solver: rows that changed other than
+        by a scaling of the nominal profile."""
+        from scipy.stats import chi2
+
+        s2, b2, rest, count, _ = self._evidence_terms(d, random_var)
+        total = np.nansum(b2, axis=1) + rest
+        dof = np.maximum(count - 1, 1)
+        return (count > MIN_SENSORS) & (chi2.sf(total, dof) < level)
 
     def joint_log_evidence(self, d, random_var, alphas) -> np.ndarray:
         """sum over rows of log p(d_row | alpha) for each alpha of `alphas`: the rows' profiles

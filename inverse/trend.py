@@ -13,7 +13,10 @@ Works on window statistics (inverse.steady.WindowStats) and arrays; no files.
   prefers (windows mode, when the fit's rule is the evidence), else the reference window's own
   choice.  Changes from the reference are estimated from the readings' difference
   d_row - d_ref (offsets cancel) with variance S_row + S_ref, at the joint evidence of the
-  other steady windows' differences, else half the trend's strength.
+  other steady windows' differences that depart beyond the noise (windows mode), else half
+  the trend's strength (CHANGE_RULE).  Before they are inverted, each row's readings are
+  checked against each other (RowChecks): a sensor failing partway through the log is left
+  out of the rows where it disagrees, not read as a heater's change.
 - Flags (`ChangeFlags`): |change| / sd(change) > Phi^-1(1 - level / (2 m)), m = rows x zones
   (Bonferroni, family-wise TREND_FAMILY_LEVEL); rows before the reference (the part still
   settling) are never flagged.
@@ -28,6 +31,7 @@ import numpy as np
 
 from .bands import Z95
 from .batch import TREND_FAMILY_LEVEL, BatchSolver, change_threshold
+from .diagnostics import model_suspect
 from .errors import InverseError
 from .readings import SensorReadings
 from .steady import MIN_SAMPLES
@@ -42,6 +46,15 @@ MAX_PENDING_ROWS = 200_000
 #: display grid (radial or axial, angular) of a reference fit whose map nobody sees: the first
 #: of the two fits when the strength then comes from all steady windows
 PROBE_GRID = (3, 4)
+
+
+#: how a change's strength is set when no difference to the reference departs beyond the noise
+#: (or when streaming): BatchSolver.changes' default, the prior of the difference of two
+#: independent profiles.  In windows mode the joint evidence of the differences that do depart
+#: sets it; until session 32 every steady window's difference voted, and on an 8-hour log whose
+#: last window lost 10 % in one sector the strength came out 1e10 times the trend's, the change
+#: uniform over every zone (-60 +- 5 W/m^2 each, where one zone lost 299 W/m^2).
+CHANGE_RULE = "half the trend's strength (the prior of a difference of two profiles)"
 
 
 class TrendError(InverseError):
@@ -180,17 +193,24 @@ class TrendModel:
             return u, BatchSolver.from_fit(result, s.r[u], s.theta[u], s.z[u], offset_sd=tau[u],
                                            position_tolerance=s.position_tolerance[u], zones=zones)
 
-        joint = steady is not None and joint_evidence
         # the reference fit, as `fit` makes it: the answer shown for the reference window, and
         # what the trend's absolute figures carry beyond its single prior (with_fit_uncertainty)
         result = fit(rd, None)
         aside = set(result.summary["set_aside"])
         used, solver = solver_for(result, aside)
+        joint = steady is not None and joint_evidence
         strength_rule = f"{result.summary['strength_method']} of the reference window"
         sig2 = stats.sigma(floor) ** 2
         means = np.where(stats.valid, stats.mean, np.nan)
         if joint:
-            alpha, notes = solver.joint_strength(means[steady][:, used], sig2[steady][:, used])
+            # the windows' readings checked against each other first (RowChecks, at the
+            # reference fit's strength): a sensor failing partway through the log must not set
+            # the strength of every row
+            X, RV = means[steady][:, used], sig2[steady][:, used]
+            X = RowChecks([n for n, u in zip(s.names, used) if u], len(steady)).clean(
+                solver.changes(), np.where(valid, mean, np.nan)[used], np.where(valid, sig ** 2, np.nan)[used],
+                stats.start[steady], X, RV, reference_mask=(steady == i))
+            alpha, notes = solver.joint_strength(X, RV)
             warnings.extend(notes)
             # the fit at the joint strength gives the trend's solver and its screening; its face
             # map is never shown, so it is evaluated on a token grid
@@ -214,17 +234,29 @@ class TrendModel:
         ref_d = np.where(valid, mean, np.nan)[used]
         ref_rv = np.where(valid, sig ** 2, np.nan)[used]
         solver = solver.with_fit_uncertainty(result, ref_d, np.where(np.isfinite(ref_rv), ref_rv, 1.0))
-        changes = solver.changes()
-        change_rule = "half the trend's strength (the prior of a difference of two profiles)"
+        changes, change_rule = solver.changes(), CHANGE_RULE
         others = [] if steady is None else [w for w in steady if w != i]
         if others and joint_evidence:
-            X = means[others][:, used] - ref_d
-            RV = sig2[others][:, used] + ref_rv
-            alpha_c, _ = changes.joint_strength(X, RV)
-            changes = solver.changes(alpha_c)
-            change_rule = f"joint evidence of the {len(others)} differences to the reference window"
+            # the joint evidence of the differences that changed beyond the noise other than by
+            # a scaling of the nominal profile (BatchSolver.departing_rows), checked first
+            # (RowChecks): windows that did not change would each vote for no change at all,
+            # which leaves a change only the nearly free nominal direction
+            X, RV = means[others][:, used] - ref_d, sig2[others][:, used] + ref_rv
+            X = RowChecks([n for n, u in zip(s.names, used) if u], len(others)).clean(
+                changes, np.zeros(X.shape[1]), np.zeros(X.shape[1]), stats.start[others], X, RV)
+            moved = changes.departing_rows(X, RV)
+            if moved.any():
+                alpha_c, _ = changes.joint_strength(X[moved], RV[moved])
+                changes = solver.changes(alpha_c)
+                change_rule = (f"joint evidence of the {int(moved.sum())} of {len(others)} differences to the "
+                               f"reference window that changed beyond the noise")
         return cls(result, used, solver, changes, tau, ref_window, ref_d, ref_rv, strength_rule, change_rule,
                    warnings, sorted(aside))
+
+    def checked(self, checks, start, d, rv, reference_mask=None):
+        """Rows d (R, used) [K] with the readings a RowChecks sets aside as NaN (rv: their random
+        variances [K^2]; start (R,) [s]), against this trend's change solver and reference."""
+        return checks.clean(self.changes, self.ref_d, self.ref_rv, start, d, rv, reference_mask)
 
     def changes_of(self, d, rv, reference_mask=None):
         """Changes of each zone from the reference and their noise-only sd, (R, zones) each:
@@ -240,6 +272,96 @@ class TrendModel:
         if reference_mask is not None and np.any(reference_mask):
             change[reference_mask], csd[reference_mask] = 0.0, 0.0
         return change, csd
+
+
+@dataclass
+class SensorFault:
+    """Running record of one sensor's rows set aside by RowChecks: how many, the first and
+    last such row's start [s] and the largest |score| seen."""
+
+    sensor: str
+    rows: int = 0
+    first_start_s: float | None = None
+    last_start_s: float | None = None
+    largest_score: float = 0.0
+
+
+class RowChecks:
+    """Each row's readings checked against the row's other sensors before it is inverted: a
+    thermocouple that fails partway through a log (a jump, an open circuit) must not become a
+    heater's change.  The check is on the change from the reference window (the change
+    solver's leave-one-out score, BatchSolver.leave_one_out: offsets cancel, the noise is the
+    random noise only), Bonferroni over `rows` x sensors at TREND_FAMILY_LEVEL family-wise.
+    In a row the worst reading beyond the limit is set aside (left out of that row's absolute
+    figures and changes alike) and the row checked again, up to a quarter of its sensors;
+    when several go together (diagnostics.model_suspect) the model is blamed, as `fit` does,
+    and the row keeps them all.  The reference window itself is not checked (its fit screens
+    its sensors)."""
+
+    def __init__(self, names, rows: int, family_level: float = TREND_FAMILY_LEVEL):
+        self.names = list(names)
+        self.comparisons = max(int(rows), 1) * max(len(self.names), 1)
+        self.threshold = change_threshold(self.comparisons, family_level)
+        self.faults = {n: SensorFault(n) for n in self.names}
+        self.model_rows = 0           # rows where several sensors disagreed together (kept)
+
+    def clean(self, changes, ref_d, ref_rv, start, d, rv, reference_mask=None) -> np.ndarray:
+        """The rows d (R, n) [K] with the readings set aside as NaN (a copy), recorded; rv
+        ((n,) or (R, n)) their random variances [K^2]; start (R,) [s]; changes: the change
+        solver (BatchSolver.changes) and ref_d, ref_rv (n,) the reference window's readings
+        and random variances (TrendModel.checked passes its own)."""
+        d = np.asarray(d, float)
+        out = d.copy()
+        R, n = d.shape
+        var = np.broadcast_to(np.asarray(rv, float), d.shape) + np.asarray(ref_rv, float)[None, :]
+        todo = np.ones(R, bool) if reference_mask is None else ~np.asarray(reference_mask, bool)
+        aside = np.zeros(d.shape, bool)
+        for _ in range(max(1, n // 4)):
+            rows = np.flatnonzero(todo)
+            if not rows.size:
+                break
+            z = np.abs(changes.leave_one_out(out[rows] - ref_d, var[rows]))
+            z = np.where(np.isfinite(z), z, -1.0)
+            worst = np.argmax(z, axis=1)
+            score = z[np.arange(rows.size), worst]
+            over = score > self.threshold
+            hit, col = rows[over], worst[over]
+            aside[hit, col] = True
+            out[hit, col] = np.nan
+            todo[:] = False
+            todo[hit] = True
+            for j, sc in zip(col, score[over]):
+                f = self.faults[self.names[j]]
+                f.largest_score = max(f.largest_score, float(sc))
+        count = aside.sum(axis=1)
+        together = np.array([model_suspect(int(k), n) for k in count], bool)
+        if together.any():               # several at once: the model, not the sensors
+            self.model_rows += int(together.sum())
+            out[together], aside[together] = d[together], False
+        start = np.asarray(start, float)
+        for j in np.flatnonzero(aside.any(axis=0)):
+            f, at = self.faults[self.names[j]], start[aside[:, j]]
+            f.rows += int(at.size)
+            f.first_start_s = float(at.min()) if f.first_start_s is None else min(f.first_start_s, float(at.min()))
+            f.last_start_s = float(at.max()) if f.last_start_s is None else max(f.last_start_s, float(at.max()))
+        return out
+
+    def found(self) -> list[SensorFault]:
+        """The sensors set aside in at least one row."""
+        return [f for f in self.faults.values() if f.rows]
+
+    def warnings(self, when) -> list[str]:
+        """One sentence per sensor set aside in some rows (when(seconds) -> text of a time)."""
+        out = [f"sensor {f.sensor} disagreed with the other sensors in {f.rows} row(s) from {when(f.first_start_s)} "
+               f"to {when(f.last_start_s)} (its change from the reference window up to {f.largest_score:.3g} of its "
+               f"sd from what the others predict, limit {self.threshold:.2f}) and was left out of those rows: "
+               f"a thermocouple failing or coming loose partway through the log; check it before reading a "
+               f"zone's change there as the heater's" for f in self.found()]
+        if self.model_rows:
+            out.append(f"in {self.model_rows} row(s) several sensors disagreed with the others together; the "
+                       f"model (a change sharper than the prior allows, or the part's conditions) is the likelier "
+                       f"cause, so none was left out")
+        return out
 
 
 def band95(value, sd):

@@ -1,0 +1,120 @@
+"""Trend rows a user meets daily: a thermocouple failing partway through a log, and a change
+in one sector late in a long log.
+
+Readings come from forward.CylinderModel of the demo platen with a known heater pattern
+(tests/test_trend_batch.py's `platen`: nominal, and the outer 60-180 sector off), plus seeded
+offsets and noise; the leave-one-out scores are checked against refits without each reading
+(the textbook Gaussian predictive distribution, computed directly).
+"""
+
+import json
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from heatsight.data_io.cli import main
+from heatsight.inverse.batch import BatchSolver
+from test_trend_batch import WEAK_ZONE, platen
+from test_trend_cli import DT, WINDOW, make_folder
+
+
+def test_leave_one_out_equals_refits_without_each_reading():
+    """BatchSolver.leave_one_out from the hat matrix equals, for every reading, the predictive
+    distribution of that reading from a solver of the row's other readings: mean t0_i + G_i c
+    and variance G_i C G_i^T + S_ii (missing readings stay out of both)."""
+    rng = np.random.default_rng(3)
+    n, K = 9, 14
+    x, z = rng.uniform(0, 1, n), rng.uniform(0.05, 0.4, n)
+    k = np.arange(K)
+    G = np.cos(np.pi * k * x[:, None]) * np.exp(-np.pi * k * z[:, None])
+    P = 1.0 + (np.pi * k) ** 2
+    P[0] = 1e-4                                   # a nearly free nominal level, as fit's
+    u = np.eye(K)[0]
+    t0, shared = rng.normal(300.0, 1.0, n), rng.uniform(0.01, 0.05, n)
+    solver = BatchSolver(G, t0, P, 0.3, [("mean", u, 0.0)], np.zeros((0, K)), np.zeros(0), shared, u)
+    d = t0 + G @ (rng.normal(0, 1, K) / np.sqrt(0.3 * P)) + rng.normal(0, 0.1, n)
+    rows = np.vstack([d, d + 0.5])
+    rows[1, 3] = np.nan
+    rv = rng.uniform(0.005, 0.02, n)
+    z_all = solver.leave_one_out(rows, rv)
+    assert np.isnan(z_all[1, 3])
+    for r in range(2):
+        for i in np.flatnonzero(np.isfinite(rows[r])):
+            keep = np.isfinite(rows[r]) & (np.arange(n) != i)
+            others = BatchSolver(G[keep], t0[keep], P, 0.3, [("at_i", G[i], t0[i])], np.zeros((0, K)),
+                                 np.zeros(0), shared[keep], u)
+            e = others.solve(rows[r, keep][None, :], rv[keep])
+            direct = (rows[r, i] - e.values[0, 0]) / np.sqrt(e.sd[0, 0] ** 2 + rv[i] + shared[i])
+            assert z_all[r, i] == pytest.approx(direct, rel=1e-5, abs=1e-7)
+
+
+def _log(folder, lam, *, fault=None, seed=0, offset_sd=0.5, noise=0.05):
+    """log.csv of the demo layout: lam (rows,) the weak sector's lost fraction per row (DT
+    apart); fault = (sensor, from [s], reading change [K] or None for an open circuit at
+    1372 degC)."""
+    _, lay, t_nom, t_off, _ = platen()
+    rng = np.random.default_rng(seed)
+    t = np.arange(lam.size) * DT
+    T = t_nom + lam[:, None] * (t_off - t_nom)
+    T = T + rng.normal(0.0, offset_sd, t_nom.size) + rng.normal(0.0, noise, T.shape)
+    frame = pd.DataFrame(T - 273.15, columns=list(lay.index))
+    if fault is not None:
+        name, start, jump = fault
+        late = t >= start
+        frame.loc[late, name] = 1372.0 if jump is None else frame.loc[late, name] + jump
+    frame.insert(0, "time [s]", t)
+    frame.to_csv(folder / "log.csv", index=False, float_format="%.4f")
+
+
+def _trend(folder, monkeypatch):
+    monkeypatch.chdir(folder)
+    assert main(["trend", "platen.toml", "--log", "log.csv", "--out", "out", "-q"]) == 0
+    return json.loads((folder / "out" / "summary.json").read_text())
+
+
+@pytest.mark.parametrize("jump", [3.0, None], ids=["reads 3 K high", "open circuit"])
+def test_a_sensor_failing_partway_is_left_out_not_read_as_a_heater(tmp_path, monkeypatch, jump):
+    """Nothing changes in the part; from t = 2 h TC09 reads 3 K high (a junction coming loose)
+    or 1372 degC (open circuit).  Before, every zone was flagged with changes of hundreds of
+    W/m^2 (a false heater alarm, no warning); now TC09 is left out of those rows, named in a
+    warning and in summary.json's sensor_faults, and no zone is flagged."""
+    folder = make_folder(tmp_path)
+    rows = int(4 * 3600 / DT)
+    _log(folder, np.zeros(rows), fault=("TC09", 7200.0, jump))
+    summary = _trend(folder, monkeypatch)
+    faults = summary["sensor_faults"]
+    assert [f["sensor"] for f in faults] == ["TC09"]
+    windows_after = summary["trend_rows"] - int(7200 / WINDOW)
+    assert faults[0]["rows"] == windows_after and faults[0]["first_start_s"] == pytest.approx(7200.0)
+    assert summary["flags"] == []
+    assert any("sensor TC09 disagreed" in w for w in summary["warnings"])
+
+
+def test_a_healthy_log_leaves_every_sensor_in(tmp_path, monkeypatch):
+    """Bonferroni over rows x sensors: a steady heater with offsets and noise leaves no
+    reading out (with 24 windows x 20 sensors the limit is 4.1 sd)."""
+    folder = make_folder(tmp_path)
+    _log(folder, np.zeros(int(4 * 3600 / DT)), seed=5)
+    summary = _trend(folder, monkeypatch)
+    assert summary["sensor_faults"] == [] and summary["flags"] == []
+    assert summary["sensor_check_threshold_sd"] > 4.0
+
+
+def test_a_change_in_the_last_window_lands_in_its_zone(tmp_path, monkeypatch):
+    """Eight steady hours, then the last window's outer 60-180 sector 10 % weaker.  The
+    strength of the changes comes from the differences that changed beyond the noise: before,
+    every window voted and the 47 that did not change left the change only the nominal
+    direction, -60 W/m^2 in every zone, all five flagged, where one zone lost 299."""
+    folder = make_folder(tmp_path)
+    rows = int(8 * 3600 / DT)
+    lam = np.where(np.arange(rows) * DT >= 8 * 3600 - WINDOW, 0.1, 0.0)
+    _log(folder, lam, seed=2)
+    summary = _trend(folder, monkeypatch)
+    truth = 0.1 * platen()[4][WEAK_ZONE]          # the zone's change [W/m^2]
+    assert [f["zone"] for f in summary["flags"]] == [WEAK_ZONE]
+    last = summary["last_row"]["changes"]
+    assert last[WEAK_ZONE][0] == pytest.approx(truth, rel=0.3)
+    others = [abs(v[0]) for z, v in last.items() if z != WEAK_ZONE]
+    assert max(others) < 0.2 * abs(last[WEAK_ZONE][0])
+    assert "changed beyond the noise" in summary["change_strength_method"]
