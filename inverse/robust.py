@@ -13,7 +13,9 @@ built:
 
 2. standardized residuals e_i = (r_i - gamma_L1 g_i) / sd_i, robust scale
    s = max(1.4826 MAD(e), 1) (1.4826 MAD = sd for a normal sample), and a reading is a gross
-   fault when |e_i - median(e)| > GROSS_Z s. Such a reading is set aside before the fit;
+   fault when |e_i - median(e)| > GROSS_Z s and its departure |e_i - median(e)| sd_i [K] is
+   beyond SIGNAL_SHARE of the nominal profile's typical size at the sensors (median
+   |gamma_L1 g_i|: readings that agree among themselves make s small). Such a reading is set aside before the fit;
    everything milder is left to the leave-one-out screening (inverse.diagnostics).  Several
    readings that far out together (diagnostics.model_suspect: a heated sector of a thin wall
    20 K above the rest, read with 0.1 K sigma, put six genuine readings 30 robust sds out)
@@ -40,6 +42,16 @@ MAD_TO_SD = 1.4826  # 1 / Phi^-1(3/4), normal consistency of the MAD (Hampel 197
 #: the highest temperature a thermocouple reads [K]: type B and C sensors top out near 2100 and
 #: 2600 K (from memory), so a reading above 3000 K is a code or a fault, never a temperature
 PLAUSIBLE_K = 3000.0
+#: a reading departs from the robust nominal fit by at least this share of the nominal profile's
+#: typical size at the sensors (median |gamma_L1 g_i|) before it can be a gross fault.  The
+#: robust scale comes from the other readings' agreement, and readings agree tightly whenever
+#: several sensors share a radius and depth: three thermocouples at 0, 120 and 240 deg in a
+#: tube's wall over a bore of 150 + 20 cos(theta) degC read 138.2, 116.4 and 116.4 degC, and the
+#: first, 218 robust sds out, was set aside as a "gross fault"; the answer was then a flat bore
+#: of 140.8 +- 0.21 degC, the power 84 sd off.  Codes, open circuits and unit mix-ups depart by
+#: far more than half the heating they sit in; smaller faults are the leave-one-out screening's,
+#: which judges them against the model (common practice, no source).
+SIGNAL_SHARE = 0.5
 #: readings of one group that differ by less than this [K] are one value: a stuck channel, not a
 #: feature (a logger writes at least 0.01 K; common practice, no source)
 SAME_READING_K = 1e-3
@@ -77,14 +89,21 @@ def gross_faults(residual, nominal_field, var, names, temperature=None) -> list[
     r, g, sd = np.asarray(residual, float), np.asarray(nominal_field, float), _sd(var)
     if r.size < 3:
         return []
-    e = (r - robust_level(r, g, var) * g) / sd
+    level = robust_level(r, g, var)
+    e = (r - level * g) / sd
     med = float(np.median(e))
     scale = max(MAD_TO_SD * float(np.median(np.abs(e - med))), 1.0)
     z = (e - med) / scale
+    # what the unknown face's nominal profile puts at the sensors [K]: a reading that departs
+    # by less than SIGNAL_SHARE of it may be a feature of the face, however tightly the other
+    # readings agree among themselves (see SIGNAL_SHARE)
+    floor = SIGNAL_SHARE * float(np.median(np.abs(level * g)))
     out = []
     for i in np.argsort(-np.abs(z)):
         if abs(z[i]) <= GROSS_Z or len(out) >= (r.size - 1) // 2:
             break
+        if abs(e[i] - med) * sd[i] <= floor:
+            continue
         out.append(SetAside(str(names[i]), int(i), float(z[i]), GROSS_Z,
                             f"reading {r[i] + 0.0:.4g} K above the known field is {abs(z[i]):.3g} robust sds "
                             f"from the level of the other sensors (limit {GROSS_Z:g}): a gross fault "

@@ -118,3 +118,47 @@ def test_fit_keeps_sensors_that_fail_together(clean):  # noqa: F811
         res = inverse.fit(case(), rd, grid=(3, 4))
     assert res.summary["set_aside"] == [] and res.summary["n_sensors_used"] == len(NAMES)
     assert any("likelier culprit" in w for w in res.warnings)
+
+
+def test_three_sensors_that_agree_do_not_make_the_fourth_a_gross_fault(tmp_path):
+    """A long steel tube (bore 50 mm, outside 80 mm, k 45 W/(m K), outside convection 500
+    W/(m^2 K) to 25 degC), bore at 150 + 20 cos(theta) degC, three thermocouples at r = 70 mm,
+    0 / 120 / 240 deg.  Two of them read alike, which made the robust scale of the gross-fault
+    pass the noise alone: the first sensor, 22 K above them, was set aside as a "gross fault"
+    (218 robust sds), and the answer was a flat bore of 140.8 +- 0.21 degC with the power 84 sd
+    off.  It departs by far less than the heating it sits in (robust.SIGNAL_SHARE): it stays.
+
+    Readings from the closed forms (plane r-theta conduction in an annulus, separation of
+    variables, from memory): the uniform part T_i - q' ln(r / a_i) / (2 pi k) with q' =
+    (T_i - T_inf) / R', R' = ln(a_o / a_i) / (2 pi k) + 1 / (2 pi a_o h) (series resistance of
+    the wall and the outside film), and the cos(theta) part (A r + B / r) cos(theta) with A a_i +
+    B / a_i = 20 K and -k dT/dr = h T at a_o."""
+    import math
+
+    import heatsight
+
+    ai, ao, k, h, tinf, ti, amp = 0.05, 0.08, 45.0, 500.0, 25.0, 150.0, 20.0
+    R = math.log(ao / ai) / (2 * math.pi * k) + 1.0 / (2 * math.pi * ao * h)
+    q = (ti - tinf) / R
+    A, B = np.linalg.solve([[ai, 1.0 / ai], [k + h * ao, -k / ao ** 2 + h / ao]], [amp, 0.0])
+    r, theta = 0.07, np.radians([0.0, 120.0, 240.0])
+    T = ti - q * math.log(r / ai) / (2 * math.pi * k) + (A * r + B / r) * np.cos(theta)
+    T = T + np.array([0.03, -0.05, 0.02])                  # noise of 0.1 K thermocouples
+    (tmp_path / "case.toml").write_text(
+        '[part]\nradius = "80 mm"\ninner_radius = "50 mm"\nheight = "long"\nconductivity = "45 W/(m*K)"\n'
+        '[faces.bore]\ncondition = "unknown-temperature"\n'
+        '[faces.side]\ncondition = "convection"\nh = "500 W/(m^2*K)"\nambient = "25 degC"\n'
+        '[sensors]\nlayout = "layout.csv"\nreadings = "readings.csv"\n')
+    (tmp_path / "layout.csv").write_text("sensor,r [mm],theta [deg],sigma [K]\n"
+                                         + "".join(f"TC{i + 1},70,{a},0.1\n" for i, a in enumerate((0, 120, 240))))
+    (tmp_path / "readings.csv").write_text("sensor,temperature [degC]\n"
+                                           + "".join(f"TC{i + 1},{t:.4f}\n" for i, t in enumerate(T)))
+    with threadpool_limits(1):
+        res = heatsight.fit(str(tmp_path / "case.toml")).raw
+    assert res.summary["set_aside"] == []
+    power, sd = res.summary["total_power_W"], res.summary["total_power_sd_W"]
+    assert abs(power - q) <= 2 * sd                                            # per metre
+    # the bore at 0 deg (170 degC) and 180 deg (130 degC) inside the 95 % bands
+    mean, _, lo, hi = res.face_profile(np.radians([0.0, 180.0]), np.zeros(2))
+    truth = np.array([ti + amp, ti - amp]) + 273.15
+    assert np.all((lo <= truth) & (truth <= hi)), (lo, mean, hi)
