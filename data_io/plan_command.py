@@ -201,6 +201,9 @@ def compute_plan(case, add: int, candidates=None, targets=None, readings=None, f
         raise InputError(str(exc), file=case.path) from None
     if len(plan.picks) < add:
         warnings.append(f"only {len(plan.picks)} of the {add} sensors asked for fit the rules")
+    if case.cylinder.hollow and len(plan.picks):      # the plan proposes holes in a wall
+        from .report_text import HOLLOW_CAUTION
+        warnings.append(HOLLOW_CAUTION)
     quantity = _quantity(case)
     display = display_of(quantity, case.unknown_face, fit.grid["estimate"]) if fit is not None else \
         file_display(quantity, case.unknown_face)

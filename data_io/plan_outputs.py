@@ -16,8 +16,9 @@ import pandas as pd
 from ..forward.geometry import is_wall
 
 from .csv_columns import unit_token
-from .display import symbol
+from .display import power_unit, symbol
 from .figure_style import DPI, LITERAL, new_figure
+from .report import cautions_of
 from .report_format import sig
 from .units import from_si
 
@@ -116,8 +117,8 @@ def summary_dict(run) -> dict:
     r, th, z = run.candidates
     p = run.plan.picks
     sd = run.plan.sd
-    targets = [{"name": n, "unit": "W" if n == "total_power" else ("K" if run.quantity == "temperature" else
-                                                                   "W/m^2"),
+    targets = [{"name": n, "unit": power_unit(run.case.cylinder) if n == "total_power" else
+                ("K" if run.quantity == "temperature" else "W/m^2"),
                 "sd_now": float(sd[0, j]), "sd_after": float(sd[-1, j])}
                for j, n in enumerate(run.plan.target_names)]
     sole = [{"sensor": s, "targets": t} for s, t in zip(run.value.get("sensor", []), run.value.get("sole_support", []))
@@ -129,7 +130,7 @@ def summary_dict(run) -> dict:
         "picks": [{"r_m": float(r[j]), "theta_rad": float(th[j]), "z_m": float(z[j])} for j in p],
         "targets": targets, "detection_limit_sd": detection_limit(len(run.state.zone_names)),
         "single_sensor_ratio": SINGLE_SENSOR_RATIO, "single_sensor_targets": sole,
-        "warnings": list(run.warnings),
+        "warnings": list(run.warnings), "cautions": list(cautions_of(run.case.cylinder)),
     }
 
 
@@ -277,8 +278,8 @@ def report_section(run, figures) -> str:
             f"<h3>Value of the existing sensors</h3>{sole_text}"
             f"{value.to_html(index=False, float_format=lambda x: f'{x:.4g}', na_rep='')}"
             f"{imgs}{'<h3>Warnings</h3><ul>' + warn + '</ul>' if warn else ''}"
-            "<p>Planned sds assume the model and the prior hold; they support engineering judgement and do not "
-            "replace direct measurement, interlocks or inspection.</p></section>")
+            "<p>Planned sds assume the model and the prior hold.</p><h3>Cautions</h3><ul>"
+            + "".join(f"<li>{escape(c)}</li>" for c in cautions_of(run.case.cylinder)) + "</ul></section>")
 
 
 def output_files(run):

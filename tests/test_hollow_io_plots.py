@@ -160,6 +160,14 @@ def test_a_long_parts_plan_is_drawn_as_its_cross_section(tmp_path):
     assert lay.get_ylim() == pytest.approx((40.0, 60.0))
     marks = [ln for ln in lay.get_lines() if ln.get_label() == "existing sensor"][0]
     assert np.allclose(sorted(set(np.round(marks.get_ydata(), 6))), [45.0, 55.0])
+    # the plan proposes holes in a wall that may hold fluid under pressure: its warnings, its
+    # report and its summary say so (they did not), and its powers are per metre
+    from heatsight.data_io.plan_outputs import output_files
+    from heatsight.data_io.report_text import HOLLOW_CAUTION
+    assert HOLLOW_CAUTION in run.warnings
+    files, summary = output_files(run)
+    assert HOLLOW_CAUTION in summary["cautions"] and "pressure" in dict(files)["plan.html"]
+    assert {t["unit"] for t in summary["targets"] if t["name"] == "total_power"} == {"W/m"}
 
 
 def test_a_long_parts_files_name_powers_per_metre(tmp_path):
