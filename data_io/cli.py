@@ -158,8 +158,10 @@ def _run_check(args) -> int:
         warnings += layout.warnings
         lines += describe_sensors(layout)
         lines += sensor_depths(case, layout)
+    form = None
     if case.sensors.readings is not None:
-        if readings_form(case.sensors.readings) == "snapshot":
+        form = readings_form(case.sensors.readings)
+        if form == "snapshot":
             readings = read_snapshot(case.sensors.readings, layout)
         else:       # streamed, keeping counts: memory does not grow with the log
             from .logs import summarize_log
@@ -183,8 +185,12 @@ def _run_check(args) -> int:
         if edges:
             lines.append("series notes:")
             lines += [f"  - {n}" for n in edges]
-        extra = "" if case.sensors.readings is not None else " (give the readings with --readings)"
-        lines.append(f"ready for: fit (unknown face: {case.unknown_face}){extra}")
+        if form == "log":     # fit and plan take a snapshot; a log is trend's
+            lines.append(f"ready for: trend (unknown face: {case.unknown_face}); the readings are a log, and fit "
+                         f"and plan take a snapshot: give one with --readings")
+        else:
+            extra = "" if form is not None else " (give the readings with --readings)"
+            lines.append(f"ready for: fit (unknown face: {case.unknown_face}){extra}")
     else:
         lines.append("ready for: simulate (every face is known)")
     for w in warnings:

@@ -51,8 +51,8 @@ def fit_case(case, readings_path, *, at=None, **options):
 
     layout = read_layout(case.sensors.layout, case.cylinder)
     if readings_form(readings_path) == "log":
-        raise InputError("is a log (a time column, then one column per sensor); fit takes a snapshot "
-                         "with columns sensor, temperature", file=readings_path)
+        raise InputError("is a log (a time column, then one column per sensor); fit and plan take a snapshot "
+                         "with columns sensor, temperature (follow a log with heatsight trend)", file=readings_path)
     snapshot = read_snapshot(readings_path, layout)
     points = read_points(at, case.cylinder) if at else None
     rd = SensorReadings.from_frame(snapshot.frame)

@@ -168,3 +168,18 @@ def test_quiet_and_verbose_together_are_refused(capsys):
     assert main(["check", "case.toml", "-q", "-v"]) == 2
     err = capsys.readouterr().err
     assert "not allowed with argument -q/--quiet" in err and err.count("\n") == 1
+
+
+def test_check_of_a_case_whose_readings_are_a_log_says_trend_not_fit(tmp_path, monkeypatch, capsys):
+    """A case naming a log as its readings: `check` said "ready for: fit", and fit and plan then
+    refused the log.  It now says trend, and fit and plan name both commands and trend."""
+    from test_cli_hostile import LOG, LOG_FIT
+
+    setup(tmp_path, dict(GOOD, **{"case.toml": LOG_FIT, "log.csv": LOG}))
+    monkeypatch.chdir(tmp_path)
+    assert main(["check", "case.toml"]) == 0
+    out = capsys.readouterr().out
+    assert "ready for: trend" in out and "ready for: fit" not in out
+    assert main(["fit", "case.toml"]) == 2
+    err = capsys.readouterr().err
+    assert "fit and plan take a snapshot" in err and "heatsight trend" in err
