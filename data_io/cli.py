@@ -80,9 +80,14 @@ def simulate_frame(case, points, tolerance: float = DEFAULT_TOLERANCE) -> tuple[
     err = np.asarray(ev.truncation_error, float)
     if err.size and np.nanmax(err) > TRUNCATION_WARNING_K:
         i = int(np.nanargmax(err))
+        capped = any(s.n_terms >= s.n_cap for s in model.series)
+        cure = ("the series already stops at its cap of terms, so a smaller --tolerance changes nothing: "
+                "read such points a little inside the part, and where a face's data jump (a temperature "
+                "step, or two faces held at different temperatures where they meet) expect the field "
+                "right beside the jump to be off by about that much" if capped else
+                "lower --tolerance to reduce it")
         warnings.append(f"the series truncation error reaches {err[i]:.3g} K at point {i + 1} of "
-                        f"{points.path} (points on or very near a face with data need many terms; "
-                        f"lower --tolerance to reduce it)")
+                        f"{points.path} (points on or very near a face with data need many terms; {cure})")
     return frame, warnings
 
 

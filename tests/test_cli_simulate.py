@@ -156,3 +156,16 @@ def test_internal_error_exit_1(tmp_path, capsys, monkeypatch):
     assert main(["simulate", str(case), "--at", str(pts)]) == 1
     err = capsys.readouterr().err
     assert err.startswith("heatsight: internal error: ZeroDivisionError") and "Traceback" not in err
+
+
+def test_truncation_warning_says_when_a_smaller_tolerance_cannot_help(tmp_path, capsys):
+    """A bottom face at 100 degC beside a side and top at 0 degC (the classic finite-cylinder
+    problem: the data jump where the bottom meets the side), a point 0.01 mm above the bottom:
+    the series stops at its cap of terms and the warning said "lower --tolerance", which gave
+    the same numbers at 1e-3 and 1e-12.  It now says a smaller tolerance changes nothing."""
+    text = SLAB.replace('value = "212 degF"', 'value = "100 degC"').replace('value = "20 degC"', 'value = "0 degC"')
+    text = text.replace('condition = "insulated"', 'condition = "temperature"\nvalue = "0 degC"')
+    case, pts = slab(tmp_path, text, "r [mm],theta [deg],z [mm]\n0,0,0.01\n0,0,10\n")
+    assert main(["simulate", str(case), "--at", str(pts), "--tolerance", "1e-12"]) == 0
+    err = capsys.readouterr().err
+    assert "truncation error reaches" in err and "changes nothing" in err and "lower --tolerance" not in err
