@@ -241,8 +241,10 @@ def _check_calibrated_faces(ctx, calibrate, faces) -> None:
             raise ctx.error("fit.calibrate", refusal)
 
 
-def load_case(path, purpose: str | None = None) -> Case:
-    """Read and validate a case file; `purpose` "fit" or "simulate" adds that command's checks.
+def load_case(path, purpose: str | None = None, readings_given: bool = False) -> Case:
+    """Read and validate a case file; `purpose` "fit" or "simulate" adds that command's checks;
+    `readings_given`: the command line gives the readings (--readings, --log), so the case's
+    own `[sensors] readings` file need not exist (it is then left out: sensors.readings None).
 
     Raises InputError (file, key, what is expected) for anything wrong.  Builds the forward
     objects (Cylinder, face conditions) but solves nothing.
@@ -297,7 +299,8 @@ def load_case(path, purpose: str | None = None) -> Case:
     if sens is not None:
         ctx.check_keys(sens, SENSOR_KEYS, "sensors")
         layout = ctx.path_value(sens, "layout", "sensors.layout") if "layout" in sens else None
-        readings = ctx.path_value(sens, "readings", "sensors.readings") if "readings" in sens else None
+        readings = ctx.path_value(sens, "readings", "sensors.readings") \
+            if "readings" in sens and not readings_given else None
         if readings is not None and layout is None:
             raise ctx.error("sensors.layout", "readings are given without a layout; add layout = \"layout.csv\"")
         sensors = SensorFiles(layout, readings)

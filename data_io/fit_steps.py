@@ -30,7 +30,7 @@ def load_fit_case(case_path, readings=None, *, how_to_give="give --readings FILE
 
     from .limits import check_case
 
-    case = load_case(case_path, purpose="fit")
+    case = load_case(case_path, purpose="fit", readings_given=bool(readings))
     case.require("fit")
     check_case(case)
     readings_path = Path(readings) if readings else case.sensors.readings

@@ -220,7 +220,7 @@ def _run_plan(args) -> int:
     from .limits import check_case
     from .plan_outputs import PLAN_OUTPUT_NAMES, console_line, output_files
 
-    case = load_case(args.case)
+    case = load_case(args.case, readings_given=bool(args.readings))
     check_case(case)
     targets = [t for group in (args.target or []) for t in group.split(",") if t.strip()]
     targets = [t.strip() for t in targets]

@@ -74,7 +74,7 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
 
     fmt = require_format(fmt)
     names = output_names(fmt)
-    case = load_case(case_path, purpose="fit")
+    case = load_case(case_path, purpose="fit", readings_given=bool(log))
     case.require("fit")
     check_case(case)
     if every is not None:

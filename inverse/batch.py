@@ -412,6 +412,8 @@ class BatchSolver:
         rvs (U, n_v), row r uses rvs[which[r]]."""
         n_v = int(v.sum())
         q = self.nf + self.Q
+        if q == 0:            # nothing to estimate (changes of a case without zones)
+            return
         per_noise = max(1, _BLOCK_ELEMENTS // (q * max(n_v, 1)))
         by_noise = np.argsort(which, kind="stable")
         cuts = np.searchsorted(which[by_noise], np.arange(0, rvs.shape[0] + per_noise, per_noise))

@@ -183,3 +183,21 @@ def test_check_of_a_case_whose_readings_are_a_log_says_trend_not_fit(tmp_path, m
     assert main(["fit", "case.toml"]) == 2
     err = capsys.readouterr().err
     assert "fit and plan take a snapshot" in err and "heatsight trend" in err
+
+
+def test_readings_given_on_the_command_line_need_no_case_readings_file(tmp_path, monkeypatch, capsys):
+    """`trend --log` and `fit --readings` take the readings from the command line; a case naming
+    a readings file that does not exist was refused ("sensors.readings: file not found").  (This
+    case declares no zones: its trend ended in an internal error, the changes' solver having
+    nothing to estimate.)"""
+    from test_cli_hostile import LOG
+
+    missing = GOOD["case.toml"].replace('readings = "readings.csv"', 'readings = "gone.csv"')
+    setup(tmp_path, dict(GOOD, **{"case.toml": missing, "log.csv": LOG}))
+    monkeypatch.chdir(tmp_path)
+    assert main(["fit", "case.toml", "--readings", "readings.csv", "--out", "f", "-q"]) == 0
+    assert main(["trend", "case.toml", "--log", "log.csv", "--window", "30", "--out", "t", "-q"]) == 0
+    err = capsys.readouterr().err
+    assert "gone.csv" not in err and "file not found" not in err
+    assert main(["fit", "case.toml", "--out", "g"]) == 2             # without --readings it is still needed
+    assert "gone.csv" in capsys.readouterr().err
