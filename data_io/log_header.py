@@ -135,10 +135,10 @@ def open_log(path, layout) -> LogColumns:
     if typo is not None:
         raise InputError(f"column '{typo[0]}' is not a sensor of the layout ({layout.path}); did you mean "
                          f"'{typo[1]}', which has no column?", file=path, where=where)
+    # (a channel close to a sensor without a column was refused above as a likely typo; the
+    # sensors close to the rest have their columns, so no "did you mean" for them)
     for h in ignored:
-        close = _did_you_mean(split_header(h)[0], known)
-        hint = f" ({close[2:]})" if close else ""
-        warnings.append(f"{path}: column '{h}' is not a sensor of the layout; ignored{hint}")
+        warnings.append(f"{path}: column '{h}' is not a sensor of the layout; ignored")
     if absent:
         warnings.append(f"{path}: no column for sensor{'s' if len(absent) > 1 else ''} {', '.join(absent)} "
                         f"of the layout; the trend uses the others")

@@ -11,7 +11,6 @@ Line numbers in messages are those of the file as an editor shows them (header =
 
 from __future__ import annotations
 
-import difflib
 from dataclasses import replace
 from pathlib import Path
 
@@ -225,12 +224,12 @@ def read_snapshot(path, layout: Table) -> Table:
         i = ids.index(typo[0])
         raise InputError(f"sensor '{typo[0]}' is not in the layout ({layout.path}); did you mean '{typo[1]}', "
                          f"which has no reading?", file=path, where=raw.where(i, scol))
+    # (a sensor close to a layout sensor without a reading was refused above as a likely typo;
+    # the layout sensors close to the rest have their readings, so no "did you mean" for them)
     for i, s in enumerate(ids):
         if s not in lay.index:
-            close = difflib.get_close_matches(s, list(lay.index), n=1)
-            hint = f" (did you mean '{close[0]}'?)" if close else ""
             warnings.append(f"{path}: {raw.where(i, scol)}: sensor '{s}' is not a sensor of the layout; "
-                            f"ignored{hint}")
+                            f"ignored")
     if len(known) < len(ids):
         raw.cells = [raw.cells[i] for i in known]
         raw.lines = [raw.lines[i] for i in known]

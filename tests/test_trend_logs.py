@@ -176,3 +176,13 @@ def test_short_row_found_across_text_blocks(tmp_path, layout, monkeypatch, block
     p = write(tmp_path, "time,TC1,TC2\n" + rows + "100,80\n" + after, "cut.csv")
     with pytest.raises(InputError, match="line 12 has 2 fields but the header has 3"):
         read_all(p, layout, chunk_rows=3)
+
+
+def test_an_extra_channel_is_not_offered_a_sensor_that_has_its_column(tmp_path, layout):
+    """A log with every layout sensor and an extra channel TC4: the warning offered "did you
+    mean 'TC3'?", a sensor whose column is there; only a sensor without a column is a likely
+    typo (refused as such, test_refusals_name_the_line_across_chunk_boundaries)."""
+    text = "time,TC1,TC2,TC3,TC4\n" + "".join(f"{t},80,81,82,83\n" for t in range(0, 100, 10))
+    cols, *_ = read_all(write(tmp_path, text), layout)
+    note = next(w for w in cols.warnings if "'TC4'" in w)
+    assert "is not a sensor of the layout; ignored" in note and "did you mean" not in note
