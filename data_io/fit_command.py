@@ -31,7 +31,7 @@ def run_fit(case_path, *, readings=None, at=None, out=None, overwrite=False, mon
     goes to `echo` (default: the command's data_io.console, which also serves --json)."""
     from .console import current
     from .csv_out import output_folder
-    from .fit_outputs import console_summary
+    from .fit_outputs import console_summary, summary_dict
     from .fit_steps import fit_case, load_fit_case, output_files, write_outputs
 
     case, readings_path = load_fit_case(case_path, readings)
@@ -53,7 +53,9 @@ def run_fit(case_path, *, readings=None, at=None, out=None, overwrite=False, mon
     if echo is not None:
         echo(text)
     else:
-        current().answer(text, {**result.summary, "outputs": str(folder), **(json_extra or {})})
+        # --json prints what summary.json holds (user units, the unit named), not the fit's SI summary
+        current().answer(text, {**summary_dict(result, case_path=case.path, readings_path=readings_path),
+                                "outputs": str(folder), **(json_extra or {})})
     return result, folder
 
 

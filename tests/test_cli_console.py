@@ -201,3 +201,14 @@ def test_readings_given_on_the_command_line_need_no_case_readings_file(tmp_path,
     assert "gone.csv" not in err and "file not found" not in err
     assert main(["fit", "case.toml", "--out", "g"]) == 2             # without --readings it is still needed
     assert "gone.csv" in capsys.readouterr().err
+
+
+def test_json_of_fit_is_its_summary_file(folder, capsys):
+    """`fit --json` printed the fit's SI summary (kelvin, radians, no unit keys) where
+    summary.json holds user units; it now prints what summary.json holds, plus `outputs`."""
+    assert main(["fit", "case.toml", "--out", "o", "--json"]) == 0
+    printed = json.loads(capsys.readouterr().out)
+    written = json.loads((folder / "o" / "summary.json").read_text())
+    assert set(printed) - set(written) == {"outputs"}
+    for key in ("mean", "mean_sd", "min_at", "total_power_W", "power_unit", "caution"):
+        assert printed[key] == written[key], key
