@@ -169,6 +169,12 @@ def trend_html(summary: dict, figure_png: bytes, reader_timestamps: bool) -> str
     return "\n".join(parts)
 
 
+def _reference_sensors(summary: dict) -> int:
+    """The sensors the reference window's fit used (not those without a reading there)."""
+    used = (summary.get("reference_fit") or {}).get("n_sensors_used")
+    return int(used) if used is not None else len(summary["sensors_used"])
+
+
 def console_lines(summary: dict, folder) -> str:
     """The trend for the terminal: the flags first, then what was read, in file units."""
     u = _Units(summary, False)
@@ -181,7 +187,7 @@ def console_lines(summary: dict, folder) -> str:
               f"  trend rows      {summary['trend_rows']}"
               + (f" ({_every_words(summary['every'])})" if summary["mode"] == "every" else " (steady windows)"),
               f"  reference       t = {eng(ref['start_s'])} to {eng(ref['end_s'])} s; "
-              f"{len(summary['sensors_used'])} sensors"
+              f"{_reference_sensors(summary)} sensors in its fit"
               + (f" (set aside: {', '.join(summary['set_aside'])})" if summary["set_aside"] else ""),
               f"  flag limit      |change| > {summary['flag_threshold_sd']:.2f} sd of the noise"]
     last = summary.get("last_row")

@@ -118,3 +118,17 @@ def test_a_change_in_the_last_window_lands_in_its_zone(tmp_path, monkeypatch):
     others = [abs(v[0]) for z, v in last.items() if z != WEAK_ZONE]
     assert max(others) < 0.2 * abs(last[WEAK_ZONE][0])
     assert "changed beyond the noise" in summary["change_strength_method"]
+
+
+def test_the_console_counts_the_sensors_the_reference_fit_used(tmp_path, monkeypatch, capsys):
+    """A channel that stays empty (TC05) is no sensor of the reference fit: the console said
+    "20 sensors" where the fit and trend.csv used 19."""
+    folder = make_folder(tmp_path)
+    _log(folder, np.zeros(int(2 * 3600 / DT)), seed=3)
+    log = pd.read_csv(folder / "log.csv")
+    log["TC05"] = np.nan
+    log.to_csv(folder / "log.csv", index=False, float_format="%.4f")
+    monkeypatch.chdir(folder)
+    assert main(["trend", "platen.toml", "--log", "log.csv", "--out", "out"]) == 0
+    out = capsys.readouterr().out
+    assert "; 19 sensors in its fit" in out
