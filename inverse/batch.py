@@ -262,11 +262,16 @@ class BatchSolver:
             for lo in range(0, rvs.shape[0], step):
                 noise = rvs[lo:lo + step] + self.shared_var[v][None, :]
                 H = self._estimators(v, noise, rows=self.G[v])[0]           # (U, n_v, n_v)
+                h = np.diagonal(H, axis1=1, axis2=2)
+                # rows by their noise: one product per distinct noise (a million rows logged at
+                # one noise level share one hat matrix; gathering it per row would take GBs)
                 sel = np.flatnonzero((which >= lo) & (which < lo + step))
-                j = which[sel] - lo
-                resid = x[sel] - np.einsum("rqn,rn->rq", H[j], x[sel])
-                h = np.diagonal(H, axis1=1, axis2=2)[j]
-                z[np.ix_(rows[sel], cols)] = resid / np.sqrt(noise[j] * np.maximum(1.0 - h, 1e-12))
+                order = sel[np.argsort(which[sel], kind="stable")]
+                cuts = np.flatnonzero(np.diff(which[order])) + 1
+                for part in np.split(order, cuts):
+                    u = int(which[part[0]]) - lo
+                    resid = x[part] - x[part] @ H[u].T
+                    z[np.ix_(rows[part], cols)] = resid / np.sqrt(noise[u] * np.maximum(1.0 - h[u], 1e-12))
         return z
 
     def with_alpha(self, alpha) -> "BatchSolver":
