@@ -240,38 +240,52 @@ class BatchSolver:
     def leave_one_out(self, d, random_var) -> np.ndarray:
         """z (R, n): each reading's check against the other readings of its row, (d_i - E[d_i |
         the row's others]) / its predictive sd, under this solver's model (NaN where missing,
-        and in rows with fewer than MIN_SENSORS + 1 readings).  The answer is linear in the
-        readings, fitted = t0 + H (d - t0) with H the hat matrix of the row's pattern and
-        noise; for such a Gaussian posterior mean the leave-one-out residual is r_i / (1 -
-        H_ii), r = d - fitted, with predictive variance S_ii / (1 - H_ii), so
+        and in rows with fewer than MIN_SENSORS + 1 readings); random_var (n,) for every row or
+        (R, n) per row [K^2].  The answer is linear in the readings, fitted = t0 + H (d - t0)
+        with H the hat matrix of the row's pattern and noise; for such a Gaussian posterior
+        mean the leave-one-out residual is r_i / (1 - H_ii), r = d - fitted, with predictive
+        variance S_ii / (1 - H_ii), so
             z_i = r_i / sqrt(S_ii (1 - H_ii)),
-        S the row's noise variance (random_var + the shared variance)."""
+        S the row's noise variance (random_var + the shared variance).  Rows of one pattern
+        and noise share one hat matrix and one product (a million rows logged at one noise
+        level cost one factorization per missing-value pattern, as in solve)."""
         d = np.atleast_2d(np.asarray(d, float))
-        rv = np.broadcast_to(np.asarray(random_var, float), d.shape)
-        valid = np.isfinite(d) & np.isfinite(rv) & (rv > 0)
+        rv = np.asarray(random_var, float)
+        per_row = rv.ndim == 2
+        valid = np.isfinite(d) & ((np.isfinite(rv) & (rv > 0)) if per_row else
+                                  np.broadcast_to(np.isfinite(rv) & (rv > 0), d.shape))
         z = np.full(d.shape, np.nan)
         for rows in _pattern_groups(valid):
             v = valid[rows[0]]
             if v.sum() < MIN_SENSORS + 1:
                 continue
             cols = np.flatnonzero(v)
-            x = d[np.ix_(rows, cols)] - self.t0[v]
-            rvs, which = np.unique(rv[np.ix_(rows, cols)], axis=0, return_inverse=True)
-            which = which.ravel()
+            whole = rows.size == d.shape[0] and cols.size == d.shape[1]
+            x = (d if whole else d[np.ix_(rows, cols)]) - self.t0[v]
+            if per_row:
+                rvs, which = np.unique(rv[np.ix_(rows, cols)], axis=0, return_inverse=True)
+                which = which.ravel()
+            else:
+                rvs, which = rv[v][None, :], np.zeros(rows.size, dtype=int)
+            out = np.empty(x.shape)
             step = max(1, _BLOCK_ELEMENTS // (cols.size * cols.size))
             for lo in range(0, rvs.shape[0], step):
                 noise = rvs[lo:lo + step] + self.shared_var[v][None, :]
                 H = self._estimators(v, noise, rows=self.G[v])[0]           # (U, n_v, n_v)
-                h = np.diagonal(H, axis1=1, axis2=2)
-                # rows by their noise: one product per distinct noise (a million rows logged at
-                # one noise level share one hat matrix; gathering it per row would take GBs)
+                scale = 1.0 / np.sqrt(noise * np.maximum(1.0 - np.diagonal(H, axis1=1, axis2=2), 1e-12))
+                # z = x (I - H)^T diag(scale): one product per distinct noise
+                M = (np.eye(cols.size)[None, :, :] - np.swapaxes(H, 1, 2)) * scale[:, None, :]
+                if rvs.shape[0] == 1:
+                    np.matmul(x, M[0], out=out)
+                    continue
                 sel = np.flatnonzero((which >= lo) & (which < lo + step))
                 order = sel[np.argsort(which[sel], kind="stable")]
-                cuts = np.flatnonzero(np.diff(which[order])) + 1
-                for part in np.split(order, cuts):
-                    u = int(which[part[0]]) - lo
-                    resid = x[part] - x[part] @ H[u].T
-                    z[np.ix_(rows[part], cols)] = resid / np.sqrt(noise[u] * np.maximum(1.0 - h[u], 1e-12))
+                for part in np.split(order, np.flatnonzero(np.diff(which[order])) + 1):
+                    out[part] = x[part] @ M[int(which[part[0]]) - lo]
+            if whole:
+                z = out
+            else:
+                z[np.ix_(rows, cols)] = out
         return z
 
     def with_alpha(self, alpha) -> "BatchSolver":

@@ -313,15 +313,19 @@ class RowChecks:
         d = np.asarray(d, float)
         out = d.copy()
         R, n = d.shape
-        var = np.broadcast_to(np.asarray(rv, float), d.shape) + np.asarray(ref_rv, float)[None, :]
+        rv = np.asarray(rv, float)
+        var = rv + np.asarray(ref_rv, float)          # (n,) for every row, or (R, n)
         todo = np.ones(R, bool) if reference_mask is None else ~np.asarray(reference_mask, bool)
         aside = np.zeros(d.shape, bool)
         for _ in range(max(1, n // 4)):
             rows = np.flatnonzero(todo)
             if not rows.size:
                 break
-            z = np.abs(changes.leave_one_out(out[rows] - ref_d, var[rows]))
-            z = np.where(np.isfinite(z), z, -1.0)
+            every = rows.size == R                     # the first pass: no copy of the rows
+            z = changes.leave_one_out((out if every else out[rows]) - ref_d,
+                                      var if var.ndim == 1 or every else var[rows])
+            np.abs(z, out=z)
+            z[np.isnan(z)] = -1.0
             worst = np.argmax(z, axis=1)
             score = z[np.arange(rows.size), worst]
             over = score > self.threshold
@@ -334,7 +338,9 @@ class RowChecks:
                 f = self.faults[self.names[j]]
                 f.largest_score = max(f.largest_score, float(sc))
         count = aside.sum(axis=1)
-        together = np.array([model_suspect(int(k), n) for k in count], bool)
+        together = np.zeros(R, bool)
+        several = np.flatnonzero(count >= 2)            # model_suspect needs two at least
+        together[several] = [model_suspect(int(k), n) for k in count[several]]
         if together.any():               # several at once: the model, not the sensors
             self.model_rows += int(together.sum())
             out[together], aside[together] = d[together], False
