@@ -104,7 +104,7 @@ def _run_simulate(args) -> int:
     case = load_case(args.case, purpose="simulate")
     at = Path(args.at)
     if args.out is not None:
-        check_output_path(args.out, case.input_files() + [at])
+        check_output_path(args.out, case.input_files() + [at], overwrite=args.overwrite)
     points = read_points(at, case.cylinder)
     current().step(f"simulating {len(points.frame)} points of {case.path}")
     try:
@@ -135,6 +135,7 @@ def _add_simulate(sub, help) -> None:
     p.add_argument("case", metavar="CASE.toml", help="case file (TOML)")
     p.add_argument("--at", required=True, metavar="POINTS.csv", help="query points: r, theta, z")
     p.add_argument("--out", metavar="FILE", help="output CSV file (default: standard output)")
+    p.add_argument("--overwrite", action="store_true", help="allow replacing an existing --out file")
     p.add_argument("--tolerance", type=positive_float, default=DEFAULT_TOLERANCE, metavar="REL",
                    help=f"relative truncation tolerance of the series (default {DEFAULT_TOLERANCE:g})")
     p.set_defaults(run=_run_simulate)

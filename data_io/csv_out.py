@@ -33,9 +33,10 @@ def neutralize(cell):
     return cell
 
 
-def check_output_path(path, inputs=()) -> Path:
-    """Refuse an output path whose folder is missing, that is a folder, or that is one of
-    the input files (inputs are never overwritten).  Returns the path."""
+def check_output_path(path, inputs=(), overwrite: bool = False) -> Path:
+    """Refuse an output path whose folder is missing, that is a folder, that is one of the
+    input files (inputs are never overwritten), or that exists unless `overwrite` (as the
+    output folders of fit, plan and trend).  Returns the path."""
     path = Path(path)
     if path.is_dir():
         raise InputError("is a folder; expected an output file name", file=path)
@@ -49,6 +50,8 @@ def check_output_path(path, inputs=()) -> Path:
             same = False
         if same or path.resolve() == Path(p).resolve():
             raise InputError("is an input file of this run; choose another output name", file=path)
+    if path.exists() and not overwrite:
+        raise InputError("exists; give --overwrite to replace it, or another name", file=path)
     return path
 
 

@@ -169,3 +169,17 @@ def test_truncation_warning_says_when_a_smaller_tolerance_cannot_help(tmp_path, 
     assert main(["simulate", str(case), "--at", str(pts), "--tolerance", "1e-12"]) == 0
     err = capsys.readouterr().err
     assert "truncation error reaches" in err and "changes nothing" in err and "lower --tolerance" not in err
+
+
+def test_simulate_does_not_replace_an_existing_file_without_overwrite(tmp_path, capsys):
+    """`simulate --out FILE` replaced any existing file silently (a copy of a layout, say);
+    fit, plan and trend refuse a non-empty folder without --overwrite, and so does simulate
+    an existing file now, leaving it unchanged."""
+    case, pts = slab(tmp_path)
+    other = tmp_path / "other_layout.csv"
+    other.write_text("sensor,r [mm],theta [deg],z [mm]\nTC1,0,0,5\n")
+    before = other.read_bytes()
+    assert main(["simulate", str(case), "--at", str(pts), "--out", str(other)]) == 2
+    assert "exists; give --overwrite" in capsys.readouterr().err and other.read_bytes() == before
+    assert main(["simulate", str(case), "--at", str(pts), "--out", str(other), "--overwrite"]) == 0
+    assert pd.read_csv(other).columns.tolist() == SIMULATE_COLUMNS
