@@ -91,8 +91,16 @@ def _state(case, which, readings_path, warnings, result=None, say=None):
     from .fit_steps import fit_case
 
     opts = case.plan
+
+    def from_fit(result):
+        state = state_from_fit(result, which, case.zones, opts.sigma, opts.offset_sd, opts.covariance)
+        if opts.covariance == "dominant" and "dominant" not in state.source:
+            warnings.append("[plan] covariance = \"dominant\" serves a fit answered by the smooth model alone; "
+                            f"this fit's answer is not, so the plan uses {state.source}")
+        return state, result, ""
+
     if result is not None:
-        return state_from_fit(result, which, case.zones, opts.sigma, opts.offset_sd, opts.covariance), result, ""
+        return from_fit(result)
     if readings_path is not None:
         if case.sensors.layout is None:
             raise InputError("readings need the sensor layout: add [sensors] layout = \"layout.csv\"",
@@ -100,7 +108,7 @@ def _state(case, which, readings_path, warnings, result=None, say=None):
         result, _ = fit_case(case, readings_path,
                              stage=None if say is None else (lambda k, n, text: say(f"fitting [{k}/{n}]: {text}")))
         warnings += result.warnings
-        return state_from_fit(result, which, case.zones, opts.sigma, opts.offset_sd, opts.covariance), result, ""
+        return from_fit(result)
     quantity = _quantity(case)
     variation = opts.expected_variation
     note = ""

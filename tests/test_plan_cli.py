@@ -90,6 +90,18 @@ def test_plan_from_readings_and_fit_plan(tmp_path, capsys, monkeypatch):
     assert sd[0] == pytest.approx(zone["sd"], rel=1e-8)
 
 
+def test_a_dominant_covariance_the_fit_cannot_give_is_said(tmp_path, capsys, monkeypatch):
+    """`[plan] covariance = "dominant"` serves a fit answered by the smooth model alone; the
+    demo's answer averages the zone model in, and the option was silently ignored (the same
+    files as the default).  The plan now says which covariance it used instead."""
+    folder = make_folder(tmp_path, readings=True, plan='\n[plan]\ncovariance = "dominant"\n')
+    monkeypatch.chdir(folder)
+    assert main(["plan", "platen.toml", "--add", "1", "--out", "out"]) == 0
+    summary = json.loads((folder / "out" / "summary.json").read_text())
+    note = [w for w in summary["warnings"] if 'covariance = "dominant"' in w]
+    assert note and summary["covariance"] in note[0]
+
+
 BAD = {
     "missing candidates file": (["--candidates", "nowhere.csv"], "nowhere.csv: candidates file not found"),
     "bad candidate columns": (["--candidates", "holes.csv"], "holes.csv"),
