@@ -29,6 +29,9 @@ WINDOW_BATCH = 4096
 READ_AHEAD = 2
 
 
+#: fewest rows a trend should have; fewer from --every N draws a warning
+MIN_TREND_ROWS = 3
+
 class Progress:
     """The log's progress bar (data_io.console: stderr, silent when stderr is not a terminal),
     drawn from PROGRESS_MIN_CHUNKS chunks on."""
@@ -315,6 +318,11 @@ class TrendRun:
                 self._setup(self._reference(final=True))
                 self._set_flags(math.ceil(self.row_counter / self.every))
                 self._flush_pending()
+            if self.every > 1 and self.trend_rows < MIN_TREND_ROWS:
+                self.warnings.append(f"--every {self.every} keeps only {self.trend_rows} of the log's "
+                                     f"{self.row_counter} rows: there is no trend to follow; give a smaller "
+                                     f"--every (at most {max(self.row_counter // MIN_TREND_ROWS, 1)} for "
+                                     f"{MIN_TREND_ROWS} rows)")
             return
         stats = self.windows.stats
         steady = np.flatnonzero(stats.steady(self.drift))

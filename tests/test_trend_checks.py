@@ -132,3 +132,15 @@ def test_the_console_counts_the_sensors_the_reference_fit_used(tmp_path, monkeyp
     assert main(["trend", "platen.toml", "--log", "log.csv", "--out", "out"]) == 0
     out = capsys.readouterr().out
     assert "; 19 sensors in its fit" in out
+
+
+def test_every_beyond_the_log_is_said(tmp_path, monkeypatch, capsys):
+    """`--every 5000` on a 2,880-row log kept one row: the headline said "No zone changed"
+    and the figure was empty, with no warning."""
+    folder = make_folder(tmp_path)
+    _log(folder, np.zeros(2880), seed=4)
+    monkeypatch.chdir(folder)
+    assert main(["trend", "platen.toml", "--log", "log.csv", "--every", "5000", "--out", "out"]) == 0
+    summary = json.loads((folder / "out" / "summary.json").read_text())
+    assert summary["trend_rows"] == 1
+    assert any("--every 5000 keeps only 1 of the log's 2880 rows" in w for w in summary["warnings"])
