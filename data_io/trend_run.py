@@ -332,6 +332,7 @@ class TrendRun:
         ref = self._reference(final=True)
         self._setup(ref, steady)
         self._set_flags(steady.size)
+        self._unsteady_note(stats)
         sig2 = stats.sigma(self.floor) ** 2
         means = np.where(stats.valid, stats.mean, np.nan)
         used = self.model.used
@@ -341,6 +342,20 @@ class TrendRun:
             d = self.model.checked(self.checks, stats.start[w], d, rv, reference_mask=(w == ref))
             self._write(stats.start[w], stats.end[w], stats.n_rows[w], self.model.solver.solve(d, rv), d, rv,
                         reference_mask=(w == ref))
+
+    def _unsteady_note(self, stats) -> None:
+        """A warning naming the complete windows left out as not steady (the part changing):
+        a change while the part moves shows only once it settles."""
+        moving = np.flatnonzero(stats.complete & ~stats.steady(self.drift))
+        if not moving.size:
+            return
+        runs = np.split(moving, np.flatnonzero(np.diff(moving) > 1) + 1)
+        spans = [f"{self._when(stats.start[r[0]])} to {self._when(stats.end[r[-1]])}" for r in runs[:3]]
+        more = f" and {len(runs) - 3} more stretches" if len(runs) > 3 else ""
+        self.warnings.append(f"{moving.size} of {int(stats.complete.sum())} windows were not steady (a sensor "
+                             f"drifted {self.drift:g} K or more): {'; '.join(spans)}{more}. The trend leaves "
+                             f"them out, so a change while the part was moving shows only once it settles; "
+                             f"follow it row by row with --every")
 
     # ---------------------------------------------------------------- summaries
     def figure_data(self) -> dict:

@@ -144,3 +144,19 @@ def test_every_beyond_the_log_is_said(tmp_path, monkeypatch, capsys):
     summary = json.loads((folder / "out" / "summary.json").read_text())
     assert summary["trend_rows"] == 1
     assert any("--every 5000 keeps only 1 of the log's 2880 rows" in w for w in summary["warnings"])
+
+
+def test_windows_left_out_as_not_steady_are_said(tmp_path, monkeypatch):
+    """The outer sector weakens by 40 % between t = 2 h and 3 h, then holds: those windows
+    drift beyond the limit and are left out of the trend, which said nothing of them."""
+    folder = make_folder(tmp_path)
+    t = np.arange(int(4 * 3600 / DT)) * DT
+    _log(folder, 0.4 * np.clip((t - 7200.0) / 3600.0, 0.0, 1.0), seed=6)
+    summary = _trend(folder, monkeypatch)
+    moving = summary["windows"]["complete"] - summary["windows"]["steady"]
+    assert moving >= 5
+    note = next(w for w in summary["warnings"] if "were not steady" in w)
+    assert note.startswith(f"{moving} of {summary['windows']['complete']} windows") and "t = 2.00 h" in note
+    assert WEAK_ZONE in [f["zone"] for f in summary["flags"]]
+    last = summary["last_row"]["changes"]
+    assert max(last, key=lambda z: abs(last[z][0])) == WEAK_ZONE
