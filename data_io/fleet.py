@@ -174,5 +174,7 @@ def part_line(i: int, n: int, rec: dict) -> str:
     head = f"part {i}/{n} {rec['case']}"
     if rec["status"] == "done":
         flags = f"; flagged: {', '.join(rec['flags'])}" if rec["flags"] else "; no flags"
+        if rec.get("sensor_faults"):
+            flags += f"; sensors left out of some rows: {', '.join(rec['sensor_faults'])}"
         return f"{head}: done in {rec['seconds']:.1f} s, {rec['trend_rows']} trend rows{flags}; outputs in {rec['folder']}"
     return f"{head}: {rec['status']}: {rec['error']}"

@@ -144,7 +144,7 @@ PART_MODULES = tuple(f"{__package__}.{name}" for name in (
 def run_part(case_path: str, out: str | None, options: dict) -> dict:
     """One part, on a worker: the one-part trend, its console text kept.  Returns a record
     with "case", "status" ("done", "bad input" or "failed"), and "folder", "text",
-    "trend_rows", "flags", "seconds" or "error"."""
+    "trend_rows", "flags", "sensor_faults", "warnings", "seconds" or "error"."""
     import time
 
     from ..forward.errors import ForwardModelError
@@ -165,7 +165,8 @@ def run_part(case_path: str, out: str | None, options: dict) -> dict:
         return {**rec, "status": "failed", "error": f"internal error: {type(exc).__name__}: {exc}"}
     return {**rec, "status": "done", "folder": str(folder), "text": "\n".join(text),
             "trend_rows": summary["trend_rows"], "flags": [f["zone"] for f in summary["flags"]],
-            "seconds": time.perf_counter() - t}
+            "sensor_faults": [f["sensor"] for f in summary.get("sensor_faults") or ()],
+            "warnings": list(summary["warnings"]), "seconds": time.perf_counter() - t}
 
 
 def _fleet(args) -> int:
@@ -184,7 +185,10 @@ def _fleet(args) -> int:
         line = part_line(i, n, rec)
         if rec["status"] != "done":
             print(f"{PROG}: error: {printable(line)}", file=con.stderr)
-        elif not (con.quiet or con.json):
+            return
+        for w in rec.get("warnings") or ():      # each part's warnings, named by its case
+            print(f"{PROG}: warning: {printable(rec['case'])}: {printable(w)}", file=con.stderr)
+        if not (con.quiet or con.json):
             print(line, file=con.stdout)
             sys.stdout.flush()
 

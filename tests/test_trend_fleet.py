@@ -53,6 +53,8 @@ def test_fleet_matches_one_by_one_and_goes_on_past_a_bad_part(tmp_path, capsys):
         for key in ("last_row", "first_row", "strength", "change_strength"):
             assert _close(sa[key], sb[key]), key
         assert _close(sa["reference_fit"]["mean"], sb["reference_fit"]["mean"])
+        # each part's warnings reach the console, named by its case (they stayed in its files)
+        assert sa["warnings"] and all(f"heatsight: warning: {case}: {w}" in err for w in sa["warnings"])
 
 
 def _close(x, y, rel=1e-12):
