@@ -202,8 +202,11 @@ def _fleet(args) -> int:
 
 
 def _run(args) -> int:
-    if len(args.case) > 1 or Path(args.case[0]).is_dir() or args.scheduler or args.workers:
+    if len(args.case) > 1 or Path(args.case[0]).is_dir() or args.scheduler:
         return _fleet(args)
+    if args.workers:
+        raise InputError("--workers serves several parts (case files or a folder of them); one case runs in "
+                         "this process: leave --workers out")
     run_trend(args.case[0], log=args.log, every=args.every, out=args.out, window=args.window, drift=args.drift,
               sigma_floor=args.sigma_floor, overwrite=args.overwrite, tz=args.tz, fmt=args.format)
     return 0
@@ -251,6 +254,6 @@ def add_trend(sub, help) -> None:
                    help="run the parts on the dask cluster at ADDRESS (e.g. tcp://10.0.0.5:8786; default: a local "
                         "cluster)")
     p.add_argument("--workers", type=whole, metavar="N",
-                   help="processes of the local cluster for several parts (default 2, at most the cores)")
+                   help="processes of the local cluster for several parts (default 2, or the cores if fewer)")
     p.add_argument("--overwrite", action="store_true", help="allow writing into a non-empty folder")
     p.set_defaults(run=_run)

@@ -167,3 +167,12 @@ def test_the_parts_modules_exist():
 
     for name in PART_MODULES:
         importlib.import_module(name)
+
+
+def test_workers_with_one_case_is_refused_in_words(tmp_path, capsys):
+    """`--workers` with one case switched to the fleet quietly (output in DIR/<case>-trend, and
+    with --log: "--log serves one part" though one part was given); it is refused now."""
+    a = _part(tmp_path, "a", 0)
+    assert main(["trend", str(a), "--log", str(a.parent / "log.csv"), "--workers", "1"]) == 2
+    err = capsys.readouterr().err
+    assert "--workers serves several parts" in err and "--log serves one part" not in err
