@@ -1,10 +1,11 @@
 """Face profiles read from CSV and interpolated between their points.
 
-End faces (bottom, top): columns ``r, theta, value``; interpolation is piecewise linear
-over a Delaunay triangulation in Cartesian x = r cos(theta), y = r sin(theta), with the
-nearest point's value outside the convex hull of the points.  When every point (off the
-axis) has the same theta, the profile is taken as axisymmetric and interpolated linearly
-in r alone.
+End faces (bottom, top): columns ``r, theta, value``; a full polar grid (rings x rays, an
+axis point allowed) is interpolated bilinearly in (r, theta), periodic in theta; other
+tables piecewise linearly over a Delaunay triangulation in Cartesian x = r cos(theta),
+y = r sin(theta), with the nearest point's value outside the convex hull of the points.
+When every point (off the axis) has the same theta, the profile is taken as axisymmetric
+and interpolated linearly in r alone.
 
 Walls (side, and the bore of a hollow part): columns ``theta, z, value``; interpolation in
 (arc length r_w*theta, z) with r_w the wall's radius, periodic in theta (the table is
@@ -110,6 +111,48 @@ def _scattered(pts: np.ndarray, vals: np.ndarray, raw: RawTable):
     return f
 
 
+def _polar_grid(r, theta, vals, radius):
+    """f(r, theta) bilinear in (r, theta), periodic in theta, when the off-axis points are a
+    full grid of rings x rays (every ring at every ray's angle, at least 2 of each; a point on
+    the axis, if any, closes the grid at r = 0), else None.  Outside the rings' span the
+    nearest ring's value.  (A Cartesian triangulation of such a table puts chords between
+    its rays: an axisymmetric profile on 10-degree rays came out 0.5 % low midway between
+    them, and the face's power with it.)"""
+    from scipy.interpolate import RegularGridInterpolator
+
+    off = r > 1e-9 * radius
+    r_off, t_off = r[off], np.mod(theta[off], TWO_PI)
+    # rings and rays found to 1e-9 (of the radius, of a turn), kept at their values as given
+    rkey, i = np.unique(np.round(r_off / radius, 9), return_inverse=True)
+    tkey, j = np.unique(np.round(t_off / TWO_PI, 9), return_inverse=True)
+    if rkey.size < 2 or tkey.size < 2 or off.sum() != rkey.size * tkey.size:
+        return None
+    grid = np.full((rkey.size, tkey.size), np.nan)
+    grid[i.ravel(), j.ravel()] = vals[off]
+    if np.isnan(grid).any():
+        return None
+    radii = np.zeros(rkey.size)
+    radii[i.ravel()] = r_off
+    ts = np.zeros(tkey.size)
+    ts[j.ravel()] = t_off
+    if (~off).any():                       # the axis point: one value at every angle
+        radii = np.r_[0.0, radii]
+        grid = np.vstack([np.full(ts.size, float(vals[~off][0])), grid])
+    # periodic in theta: the first ray again after the last, the last before the first
+    angles = np.r_[ts[-1] - TWO_PI, ts, ts[0] + TWO_PI]
+    table = np.hstack([grid[:, -1:], grid, grid[:, :1]])
+    interp = RegularGridInterpolator((radii, angles), table)
+
+    def f(rr, t):
+        rr = np.clip(np.asarray(rr, float), radii[0], radii[-1])
+        tt = np.mod(np.asarray(t, float) - angles[0], TWO_PI) + angles[0]
+        shape = np.broadcast(rr, tt).shape
+        return interp(np.column_stack([np.broadcast_to(rr, shape).ravel(),
+                                       np.broadcast_to(tt, shape).ravel()])).reshape(shape)
+
+    return f
+
+
 def load_profile(path, face: str, quantity: str, cylinder) -> TableProfile:
     """Read a profile CSV for `face` ("bottom", "top", "side", "bore") of `quantity`
     ("temperature": value is an absolute temperature, default unit degC; "heat_flux":
@@ -182,11 +225,16 @@ def load_profile(path, face: str, quantity: str, cylinder) -> TableProfile:
             desc = "axisymmetric (all points at one theta), interpolated in r"
             func = lambda rr, t: np.interp(rr, rs, vv)  # noqa: E731
         else:
-            if _collinear(pts):
-                raise InputError("the profile points lie on one line across the face; spread them over "
-                                 "the face, or give them all at one theta for an axisymmetric profile",
-                                 file=path)
-            f2 = _scattered(pts, vals, raw)
-            desc = "interpolated over the face"
-            func = lambda rr, t: f2(rr * np.cos(t), rr * np.sin(t))  # noqa: E731
+            polar = _polar_grid(r, theta[keep], vals, a)
+            if polar is not None:
+                desc = "a polar grid (rings x rays), interpolated linearly in r and theta"
+                func = polar
+            else:
+                if _collinear(pts):
+                    raise InputError("the profile points lie on one line across the face; spread them over "
+                                     "the face, or give them all at one theta for an axisymmetric profile",
+                                     file=path)
+                f2 = _scattered(pts, vals, raw)
+                desc = "interpolated over the face"
+                func = lambda rr, t: f2(rr * np.cos(t), rr * np.sin(t))  # noqa: E731
     return TableProfile(path, face, quantity, int(keep.size), func, desc, vals)
