@@ -7,6 +7,8 @@ r = a - depth.  A candidate position is admissible when
     depth_min <= depth <= depth_max                    (depth along the hole [m])
     distance to every face >= face_distance            [m]
     distance to every other sensor >= spacing          [m] (existing ones and earlier picks)
+    hole clear of every existing sensor's hole         [m] (hole_clearance: the holes taken
+                                                        from the same face, within spacing)
     theta outside every excluded angular range         [rad, periodic]
     r and z outside every excluded radial / axial range [m].
 
@@ -109,6 +111,27 @@ def _xyz(r, theta, z):
     return np.column_stack([r * np.cos(theta), r * np.sin(theta), z])
 
 
+def hole_clearance(face: str, cylinder, r, theta, z, existing) -> np.ndarray:
+    """Smallest distance [m] between the hole drilled from `face` to each position (r,
+    theta, z) and the hole an existing sensor would have from the same face, over the stretch
+    both holes occupy (from the face to the shallower tip): holes from an end face are
+    parallel, sqrt(r^2 + r_e^2 - 2 r r_e cos(dtheta)) apart; radial holes from the side are
+    closest at the shallower tip's radius rho, sqrt((2 rho sin(dtheta / 2))^2 + dz^2) (dz = 0
+    on a long part).  inf without existing sensors."""
+    r, theta, z = (np.atleast_1d(np.asarray(v, float)) for v in (r, theta, z))
+    re, te, ze = (np.atleast_1d(np.asarray(v, float)) for v in existing)
+    if re.size == 0:
+        return np.full(r.shape, np.inf)
+    dth = theta[:, None] - te[None, :]
+    if face == "side":
+        rho = np.maximum(r[:, None], re[None, :])
+        dz = 0.0 if getattr(cylinder, "long", False) else z[:, None] - ze[None, :]
+        d2 = (2.0 * rho * np.sin(0.5 * dth)) ** 2 + dz ** 2
+    else:
+        d2 = r[:, None] ** 2 + re[None, :] ** 2 - 2.0 * r[:, None] * re[None, :] * np.cos(dth)
+    return np.sqrt(np.maximum(d2, 0.0)).min(axis=1)
+
+
 def min_distance(points, others) -> np.ndarray:
     """Distance [m] from each of `points` (P, 3) to the nearest of `others` (Q, 3) (inf if none),
     in blocks so 5,000 x 5,000 stays small."""
@@ -155,6 +178,8 @@ def admissible(rules: PlanRules, face: str, cylinder, r, theta, z, existing=None
     if existing is not None and len(existing[0]):
         near = min_distance(_xyz(r, theta, z), _xyz(*existing)) < rules.spacing
         reject(near, "too close to an existing sensor")
+        reject(hole_clearance(face, cylinder, r, theta, z, existing) < rules.spacing,
+               f"on the path of an existing sensor's hole (if that one was drilled from the {face} too)")
     return reason == "", reason
 
 

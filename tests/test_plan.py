@@ -19,7 +19,7 @@ from heatsight import inverse
 from heatsight.inverse import plan as pl
 from heatsight.inverse.linear_gaussian import LinearGaussianProblem
 from heatsight.inverse.noise import noise_covariance
-from heatsight.inverse.plan_rules import PlanRules, admissible, candidate_grid, drill_face
+from heatsight.inverse.plan_rules import PlanRules, admissible, candidate_grid, drill_face, hole_clearance
 from heatsight.inverse.problem import Problem, Zone
 
 A, L, K = 0.15, 0.04, 16.0
@@ -239,6 +239,25 @@ def test_rules_arithmetic():
     assert np.all(admissible(rules, "top", cyl, *g)[0]) and g[0].size > 0
     assert drill_face(PlanRules(), "bottom", fw.Cylinder(A, math.inf, K)) == "side"
     assert drill_face(PlanRules(), "side", cyl) == "top"
+
+
+def test_a_new_hole_may_not_run_down_an_existing_one():
+    """A tip 19 mm above an existing one at the same (r, theta), drilled from the same face,
+    lies in that sensor's hole (tips 19 mm apart passed the spacing rule); radial holes from
+    the side meet where the shallower one ends.  Plain geometry (distance between parallel
+    lines; chord 2 rho sin(dtheta / 2) between radial ones)."""
+    cyl = fw.Cylinder(A, L, K)
+    rules = PlanRules(spacing=0.005)
+    existing = (np.array([0.127, 0.0]), np.array([0.0, 0.0]), np.array([0.006, 0.006]))
+    r, th = np.array([0.127, 0.0, 0.127, 0.127]), np.radians([0.0, 0.0, 3.0, 10.0])
+    z = np.array([0.025, 0.030, 0.025, 0.025])
+    ok, why = admissible(rules, "top", cyl, r, th, z, existing)
+    # 127 mm x 3 deg: 6.6 mm off the hole's axis (clear); 10 deg: 22 mm
+    assert list(ok) == [False, False, True, True]
+    assert why[0].startswith("on the path of an existing sensor's hole")
+    d = hole_clearance("side", cyl, np.array([0.12]), np.radians([2.0]), np.array([0.02]),
+                       (np.array([0.10]), np.array([0.0]), np.array([0.02])))
+    assert d[0] == pytest.approx(2 * 0.12 * math.sin(math.radians(1.0)), rel=1e-12)
 
 
 def test_bad_requests():
