@@ -321,8 +321,8 @@ class TrendRun:
             if self.every > 1 and self.trend_rows < MIN_TREND_ROWS:
                 self.warnings.append(f"--every {self.every} keeps only {self.trend_rows} of the log's "
                                      f"{self.row_counter} rows: there is no trend to follow; give a smaller "
-                                     f"--every (at most {max(self.row_counter // MIN_TREND_ROWS, 1)} for "
-                                     f"{MIN_TREND_ROWS} rows)")
+                                     f"--every (at most {max((self.row_counter - 1) // (MIN_TREND_ROWS - 1), 1)} "
+                                     f"for {MIN_TREND_ROWS} rows)")
             return
         stats = self.windows.stats
         steady = np.flatnonzero(stats.steady(self.drift))

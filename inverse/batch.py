@@ -63,6 +63,8 @@ TREND_GRID = (21, 48)
 TREND_FAMILY_LEVEL = 0.02
 #: fewest valid sensors for a row to be inverted
 MIN_SENSORS = 3
+#: 1 - H_ii at or below which a reading cannot be checked by its row's others (leave_one_out)
+LOO_MIN_FREEDOM = 1e-9
 #: tail probability beyond which a row departs from the prior mean (departing_rows)
 DEPARTURE_LEVEL = 1e-3
 #: bound on the size of stacked intermediate arrays (elements)
@@ -246,7 +248,10 @@ class BatchSolver:
         mean the leave-one-out residual is r_i / (1 - H_ii), r = d - fitted, with predictive
         variance S_ii / (1 - H_ii), so
             z_i = r_i / sqrt(S_ii (1 - H_ii)),
-        S the row's noise variance (random_var + the shared variance).  Rows of one pattern
+        S the row's noise variance (random_var + the shared variance): exact for a fixed prior
+        mean, and close to it here, where the level of the nominal profile is the row's own
+        (its prior is nearly free; with a stiff one the others' level is not refitted).  NaN
+        where 1 - H_ii <= LOO_MIN_FREEDOM (the model fits that reading by itself).  Rows of one pattern
         and noise share one hat matrix and one product (a million rows logged at one noise
         level cost one factorization per missing-value pattern, as in solve)."""
         d = np.atleast_2d(np.asarray(d, float))
@@ -268,11 +273,15 @@ class BatchSolver:
             else:
                 rvs, which = rv[v][None, :], np.zeros(rows.size, dtype=int)
             out = np.empty(x.shape)
-            step = max(1, _BLOCK_ELEMENTS // (cols.size * cols.size))
+            step = max(1, _BLOCK_ELEMENTS // (cols.size * max(cols.size, self.K)))     # the SVD stack
             for lo in range(0, rvs.shape[0], step):
                 noise = rvs[lo:lo + step] + self.shared_var[v][None, :]
                 H = self._estimators(v, noise, rows=self.G[v])[0]           # (U, n_v, n_v)
-                scale = 1.0 / np.sqrt(noise * np.maximum(1.0 - np.diagonal(H, axis1=1, axis2=2), 1e-12))
+                # a reading the model fits by itself (1 - H_ii at round-off) cannot be checked by
+                # the others: NaN, not a score blown up from round-off
+                one_minus = 1.0 - np.diagonal(H, axis1=1, axis2=2)
+                scale = np.where(one_minus > LOO_MIN_FREEDOM, 1.0 / np.sqrt(noise * np.maximum(one_minus, 1e-300)),
+                                 np.nan)
                 # z = x (I - H)^T diag(scale): one product per distinct noise
                 M = (np.eye(cols.size)[None, :, :] - np.swapaxes(H, 1, 2)) * scale[:, None, :]
                 if rvs.shape[0] == 1:

@@ -61,6 +61,9 @@ SINGLE_SENSOR_RATIO = 1.5
 #: eigenvalues of an implied prior precision below this share of its largest are raised to
 #: it (consistent_covariance); the answers move by under 1 % between 1e-8 and 1e-4
 CONSISTENT_FLOOR = 1e-6
+#: ... and an eigenvalue counts as positive above this share of the largest (the learned
+#: prior's nearly free nominal level sits near 3e-9 of it on the demo)
+CONSISTENT_TOLERANCE = 1e-12
 #: Matern smoothness nu of the default (no readings) prior, a member of the learned family
 DEFAULT_SMOOTHNESS = 1.0
 
@@ -284,6 +287,7 @@ def state_from_fit(result, which, zones=(), new_sigma=None, new_offset_sd=None,
     exact = post.calibration is None and result.smooth_only
     if exact and (covariance == "dominant" or common > 0 or post.averaged is None):
         pb, alpha, _, text = dominant_component(post, result.problem)
+        text = f"the dominant component: {text}"
         var = _independent_variance(pb.noise, common)
         G, precision = pb.G, alpha * pb.prior_diag
         if steps is not None:        # the steps as columns of their own, with their prior
@@ -361,8 +365,9 @@ def add_sensor(C, g, variance):
 def consistent_covariance(C, G, variance):
     """C itself when it is the posterior of some Gaussian prior given the sensors' rows G (n, S)
     with independent variances (n,) [K^2], i.e. when the implied prior precision
-    J0 = C^-1 - G^T diag(1 / variance) G is positive definite; else the posterior of J0 with
-    its eigenvalues raised to CONSISTENT_FLOOR x the largest.  A covariance moment-matched over
+    J0 = C^-1 - G^T diag(1 / variance) G is positive definite (eigenvalues above
+    CONSISTENT_TOLERANCE of the largest); else the posterior of J0 with its other eigenvalues
+    raised to CONSISTENT_FLOOR x the largest.  A covariance moment-matched over
     hyperparameters or models is wider than any one Gaussian with these sensors, and taking a
     sensor out of it (remove_sensor) then divides by a predictive variance beyond the sensor's
     own noise: losing the platen demo's TC09 came out as 2,757 W/m^2 on a zone whose sd is
@@ -372,10 +377,15 @@ def consistent_covariance(C, G, variance):
     data = (G.T / np.asarray(variance, float)) @ G
     J0 = 0.5 * (J + J.T) - data
     w, Q = np.linalg.eigh(0.5 * (J0 + J0.T))
-    floor = CONSISTENT_FLOOR * max(float(w.max()), 0.0)
-    if w.min() > floor:
+    top = max(float(w.max()), 0.0)
+    if w.min() > CONSISTENT_TOLERANCE * top:       # positive definite: C is that Gaussian's own
         return C
-    Jf = (Q * np.maximum(w, floor)) @ Q.T + data
+    # only the directions with no positive prior precision are raised (a nearly free nominal
+    # level keeps its small one)
+    w = np.where(w > CONSISTENT_TOLERANCE * top, w, CONSISTENT_FLOOR * top)
+    if not top > 0:
+        return C
+    Jf = (Q * w) @ Q.T + data
     d = 1.0 / np.sqrt(np.diag(Jf))
     out = d[:, None] * np.linalg.inv(d[:, None] * Jf * d[None, :]) * d[None, :]
     return 0.5 * (out + out.T)

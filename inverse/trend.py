@@ -244,7 +244,7 @@ class TrendModel:
             X, RV = means[others][:, used] - ref_d, sig2[others][:, used] + ref_rv
             X = RowChecks([n for n, u in zip(s.names, used) if u], len(others)).clean(
                 changes, np.zeros(X.shape[1]), np.zeros(X.shape[1]), stats.start[others], X, RV)
-            moved = changes.departing_rows(X, RV)
+            moved = changes.departing_rows(X, RV, level=TREND_FAMILY_LEVEL / len(others))
             if moved.any():
                 alpha_c, _ = changes.joint_strength(X[moved], RV[moved])
                 changes = solver.changes(alpha_c)
@@ -293,14 +293,18 @@ class RowChecks:
     solver's leave-one-out score, BatchSolver.leave_one_out: offsets cancel, the noise is the
     random noise only), Bonferroni over `rows` x sensors at TREND_FAMILY_LEVEL family-wise.
     In a row the worst reading beyond the limit is set aside (left out of that row's absolute
-    figures and changes alike) and the row checked again, up to a quarter of its sensors;
+    figures and changes alike) when the row's other readings show no change of their own
+    (BatchSolver.departing_rows, Bonferroni over the rows: a heater change seen mostly by one
+    thermocouple, its neighbours moving a little, is the part's, and stays), and the row is
+    checked again, up to a quarter of its sensors;
     when several go together (diagnostics.model_suspect) the model is blamed, as `fit` does,
     and the row keeps them all.  The reference window itself is not checked (its fit screens
     its sensors)."""
 
     def __init__(self, names, rows: int, family_level: float = TREND_FAMILY_LEVEL):
         self.names = list(names)
-        self.comparisons = max(int(rows), 1) * max(len(self.names), 1)
+        self.rows, self.family_level = max(int(rows), 1), float(family_level)
+        self.comparisons = self.rows * max(len(self.names), 1)
         self.threshold = change_threshold(self.comparisons, family_level)
         self.faults = {n: SensorFault(n) for n in self.names}
         self.model_rows = 0           # rows where several sensors disagreed together (kept)
@@ -317,6 +321,7 @@ class RowChecks:
         var = rv + np.asarray(ref_rv, float)          # (n,) for every row, or (R, n)
         todo = np.ones(R, bool) if reference_mask is None else ~np.asarray(reference_mask, bool)
         aside = np.zeros(d.shape, bool)
+        scores = np.zeros(d.shape)
         for _ in range(max(1, n // 4)):
             rows = np.flatnonzero(todo)
             if not rows.size:
@@ -328,15 +333,20 @@ class RowChecks:
             z[np.isnan(z)] = -1.0
             worst = np.argmax(z, axis=1)
             score = z[np.arange(rows.size), worst]
-            over = score > self.threshold
+            over = np.flatnonzero(score > self.threshold)
             hit, col = rows[over], worst[over]
+            # a fault only where the row's other readings show no change of their own: a heater
+            # change seen mostly by one sensor (its neighbours moving a little) is the part's
+            without = out[hit] - ref_d
+            without[np.arange(hit.size), col] = np.nan
+            alone = ~changes.departing_rows(without, var[hit] if var.ndim == 2 else var,
+                                            level=self.family_level / max(self.rows, 1))
+            hit, col, sc = hit[alone], col[alone], score[over][alone]
             aside[hit, col] = True
             out[hit, col] = np.nan
+            scores[hit, col] = sc
             todo[:] = False
             todo[hit] = True
-            for j, sc in zip(col, score[over]):
-                f = self.faults[self.names[j]]
-                f.largest_score = max(f.largest_score, float(sc))
         count = aside.sum(axis=1)
         together = np.zeros(R, bool)
         several = np.flatnonzero(count >= 2)            # model_suspect needs two at least
@@ -344,6 +354,9 @@ class RowChecks:
         if together.any():               # several at once: the model, not the sensors
             self.model_rows += int(together.sum())
             out[together], aside[together] = d[together], False
+        for j in np.flatnonzero(aside.any(axis=0)):
+            f = self.faults[self.names[j]]
+            f.largest_score = max(f.largest_score, float(scores[aside[:, j], j].max()))
         start = np.asarray(start, float)
         for j in np.flatnonzero(aside.any(axis=0)):
             f, at = self.faults[self.names[j]], start[aside[:, j]]

@@ -100,6 +100,14 @@ def test_a_dominant_covariance_the_fit_cannot_give_is_said(tmp_path, capsys, mon
     summary = json.loads((folder / "out" / "summary.json").read_text())
     note = [w for w in summary["warnings"] if 'covariance = "dominant"' in w]
     assert note and summary["covariance"] in note[0]
+    # a fit the option serves (the smooth model at one strength) takes it, without the note
+    text = (folder / "platen.toml").read_text()
+    (folder / "platen.toml").write_text(text.replace('[fit]\nstrength = "auto"\n',
+                                                     '[fit]\nmodel = "smooth"\nprior = "fixed"\nstrength = "auto:gcv"\n'))
+    assert main(["plan", "platen.toml", "--add", "1", "--out", "out2"]) == 0
+    summary = json.loads((folder / "out2" / "summary.json").read_text())
+    assert "dominant component" in summary["covariance"]
+    assert not [w for w in summary["warnings"] if 'covariance = "dominant"' in w]
 
 
 BAD = {
