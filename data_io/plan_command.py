@@ -202,7 +202,7 @@ def compute_plan(case, add: int, candidates=None, targets=None, readings=None, f
         pos = _candidates(case, state, frame, cand_path, face, warnings)
         say(f"choosing {add} of {np.size(pos[0])} candidate positions")
         rows = state.rows(*pos)
-        plan = greedy(state, rows, add, pos, case.plan.rules.spacing)
+        plan = greedy(state, rows, add, pos, case.plan.rules.spacing, face=face, cylinder=case.cylinder)
         say("ranking the sensors by what their loss would cost")
         value = sensor_value(state)
     except (InverseError, ForwardModelError) as exc:

@@ -51,7 +51,7 @@ from .functionals import functional_matrix
 from .hyperprior import face_size, matern_exponent, matern_precision, matern_weights
 from .truncation import tail_variance
 from .noise import noise_covariance
-from .plan_rules import COVARIANCES, _xyz, min_distance
+from .plan_rules import COVARIANCES, clear_of_pick
 from .plan_steps import figure_rows, joint_covariance, noise_without_steps
 from .readings import DEFAULT_SIGMA_K
 
@@ -412,10 +412,11 @@ class Plan:
 
 
 def greedy(state: PlanState, rows, n_add: int, positions=None, spacing: float = 0.0,
-           variance=None) -> Plan:
+           variance=None, face: str | None = None, cylinder=None) -> Plan:
     """Pick `n_add` of the candidates (rows (N, S); positions (r, theta, z) for the spacing
-    rule between picks; variance (N,) or the state's new-sensor variance) one at a time,
-    each the largest weighted fall of the targets' variance (module doc)."""
+    rule between picks, and their holes' clearance when the drilling face and the cylinder
+    are given; variance (N,) or the state's new-sensor variance) one at a time, each the
+    largest weighted fall of the targets' variance (module doc)."""
     rows = np.asarray(rows, float)
     N = rows.shape[0]
     if n_add < 1:
@@ -435,7 +436,6 @@ def greedy(state: PlanState, rows, n_add: int, positions=None, spacing: float = 
     d = np.einsum("nk,kn->n", rows, CG)          # g^T C g
     W = F @ CG                                   # (q, N)
     free = np.ones(N, dtype=bool)
-    xyz = _xyz(*positions) if positions is not None else None
     sds = [state.target_sd(C)]
     picks = []
     for _ in range(min(n_add, N)):
@@ -452,8 +452,8 @@ def greedy(state: PlanState, rows, n_add: int, positions=None, spacing: float = 
         C -= np.outer(u, u) / den
         picks.append(j)
         free[j] = False
-        if xyz is not None and spacing > 0:
-            free &= min_distance(xyz, xyz[j][None, :]) >= spacing
+        if positions is not None and spacing > 0:
+            free &= clear_of_pick(positions, j, spacing, face, cylinder)
         sds.append(state.target_sd(C))
     return Plan(picks, np.array(sds), 0.5 * (C + C.T), [t.name for t in state.targets])
 

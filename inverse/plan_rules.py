@@ -8,7 +8,9 @@ r = a - depth.  A candidate position is admissible when
     distance to every face >= face_distance            [m]
     distance to every other sensor >= spacing          [m] (existing ones and earlier picks)
     hole clear of every existing sensor's hole         [m] (hole_clearance: the holes taken
-                                                        from the same face, within spacing)
+                                                        from the same face, within spacing;
+                                                        and of every earlier pick's hole,
+                                                        clear_of_pick)
     theta outside every excluded angular range         [rad, periodic]
     r and z outside every excluded radial / axial range [m].
 
@@ -130,6 +132,19 @@ def hole_clearance(face: str, cylinder, r, theta, z, existing) -> np.ndarray:
     else:
         d2 = r[:, None] ** 2 + re[None, :] ** 2 - 2.0 * r[:, None] * re[None, :] * np.cos(dth)
     return np.sqrt(np.maximum(d2, 0.0)).min(axis=1)
+
+
+def clear_of_pick(positions, pick: int, spacing: float, face: str | None = None, cylinder=None) -> np.ndarray:
+    """True for each candidate (positions (r, theta, z) [m, rad, m]) still drillable once a
+    sensor goes in at candidate `pick`: its tip at least `spacing` [m] from the pick's tip and,
+    when the drilling face is given, its hole at least `spacing` from the pick's hole
+    (hole_clearance: every new hole comes from that face)."""
+    r, theta, z = (np.atleast_1d(np.asarray(v, float)) for v in positions)
+    at = (r[pick:pick + 1], theta[pick:pick + 1], z[pick:pick + 1])
+    ok = min_distance(_xyz(r, theta, z), _xyz(*at)) >= spacing
+    if face is not None:
+        ok &= hole_clearance(face, cylinder, r, theta, z, at) >= spacing
+    return ok
 
 
 def min_distance(points, others) -> np.ndarray:

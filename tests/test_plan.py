@@ -346,3 +346,23 @@ def test_losing_a_sensor_from_a_moment_matched_covariance_stays_near_a_refit():
     for planned, reference in ((row["sd_if_lost:outer 60-180"], zone["sd"]),
                                (row["sd_if_lost:total_power"], refit["total_power_sd_W"])):
         assert reference / 1.5 <= planned <= 1.5 * reference, (planned, reference)
+
+
+def test_picks_do_not_share_a_hole(fitted):
+    """Six picks from the rules' grid within a 40-degree window (four depths at each (r,
+    theta), drilled from the top): no pick's hole may pass within the spacing of another's
+    (parallel holes from one face, sqrt(r1^2 + r2^2 - 2 r1 r2 cos(dtheta)) apart: plain
+    geometry).  Before, only the tips' distance was checked: two picks at r = 6.2 mm, 15 deg,
+    12 mm and 38 mm deep, shared one hole."""
+    case, res = fitted
+    state = pl.state_from_fit(res, ["zones", "power"], case.zones)
+    rules = PlanRules(exclude_theta=((math.radians(40.0), 2 * math.pi),))
+    cyl = fw.Cylinder(A, L, K)
+    (r, th, z), face = _candidates(state, rules)
+    plan = pl.greedy(state, state.rows(r, th, z), 6, (r, th, z), rules.spacing, face=face, cylinder=cyl)
+    pr, pt, pz = r[plan.picks], th[plan.picks], z[plan.picks]
+    assert len(plan.picks) == 6
+    for i in range(len(pr)):
+        others = np.arange(len(pr)) != i
+        gap = hole_clearance(face, cyl, pr[i:i + 1], pt[i:i + 1], pz[i:i + 1], (pr[others], pt[others], pz[others]))
+        assert gap[0] >= rules.spacing
