@@ -92,8 +92,11 @@ footer { color: var(--muted); font-size: 0.82em; margin-top: 28px; }
 
 #: (term, meaning): the few terms that stay in the report
 GLOSSARY = (
-    ("± … (95 %)", "the 95 % interval: with the model's assumptions, the true value lies within this "
-                   "distance of the estimate with 95 % probability (1.96 standard deviations)."),
+    ("± … (95 %)", "1.96 standard deviations of the answer, over the models and smoothing settings "
+                   "the fit weighs: with the model's assumptions the true value lies within this "
+                   "distance of the estimate with about 95 % probability (exactly so when the settings "
+                   "agree; where they disagree the answer's tails are heavier, and the 95 % band "
+                   "below gives its exact 2.5 and 97.5 % points)."),
     ("95 % band", "the 95 % interval at each point of the face, drawn as shading or as a width map: the "
                   "2.5 and 97.5 % points of the answer averaged over the models and smoothing settings the "
                   "fit weighs, so it can sit unevenly about the estimate and is not always 1.96 "
