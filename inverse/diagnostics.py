@@ -226,9 +226,11 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
         if abs(sc.z[j]) <= t:
             break
         if len(out) - n_preset >= cap or sub.n - 1 < min_kept:
+            why = (f"setting it aside would leave fewer than {min_kept} sensors in the fit"
+                   if sub.n - 1 < min_kept else
+                   f"{len(out) - n_preset} already are, the most this screening sets aside of {n} sensors")
             warns.append(f"sensor {names[idx[j]]} still exceeds the threshold (|score| = {abs(sc.z[j]):.2f} > "
-                         f"{t:.2f}) but no more sensors are set aside (limit {cap}, at least {min_kept} kept); "
-                         "check the model and the sensor layout")
+                         f"{t:.2f}) but is kept: {why}; check the model and the sensor layout")
             break
         i = int(idx[j])
         diff = float(sub.d[j] - sc.predicted[j])

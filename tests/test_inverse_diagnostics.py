@@ -111,7 +111,11 @@ def test_cap_on_set_aside_sensors_warns():
     full = screen_outliers(prob)
     assert sorted(s.index for s in full.set_aside) == [2, 9, 11]
     capped = screen_outliers(prob, max_set_aside=1)
-    assert len(capped.set_aside) == 1 and "no more sensors are set aside" in capped.warnings[-1]
+    assert len(capped.set_aside) == 1
+    assert "is kept: 1 already are, the most this screening sets aside of 16 sensors" in capped.warnings[-1]
+    # three sensors, one far off: setting it aside would leave two
+    few = screen_outliers(prob.subset(np.array([0, 1, 2])), threshold=0.5)
+    assert not few.set_aside and "would leave fewer than 3 sensors in the fit" in few.warnings[-1]
     assert (capped.table["flag"] == "suspect").sum() >= 1
 
 
