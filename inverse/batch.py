@@ -67,6 +67,8 @@ MIN_SENSORS = 3
 LOO_MIN_FREEDOM = 1e-9
 #: tail probability beyond which a row departs from the prior mean (departing_rows)
 DEPARTURE_LEVEL = 1e-3
+#: strengths of the grid a row's change is averaged over by its own evidence (solve_averaged)
+ROW_STRENGTHS = 17
 #: bound on the size of stacked intermediate arrays (elements)
 _BLOCK_ELEMENTS = 4_000_000
 
@@ -326,6 +328,7 @@ class BatchSolver:
         beta^2 = (U^T y)^2 (R, n), the rest of ||y||^2 beyond the rank, the number of
         readings and log det S, with y the whitened readings minus the GLS prior mean."""
         d = np.atleast_2d(np.asarray(d, float))
+        shared = np.ndim(random_var) == 1         # one noise for every row: one SVD per pattern
         rv = np.broadcast_to(np.asarray(random_var, float), d.shape)
         valid = np.isfinite(d) & np.isfinite(rv) & (rv > 0)
         R = d.shape[0]
@@ -338,6 +341,10 @@ class BatchSolver:
                 continue
             Gv, cols = self.G[v], np.flatnonzero(v)
             gu = Gv @ self.u
+            if shared:
+                noise1 = rv[rows[0], cols] + self.shared_var[v]
+                Us, svs, _ = np.linalg.svd(Gv / np.sqrt(noise1)[:, None] * self.p_isqrt[None, :],
+                                           full_matrices=False)
             step = max(1, _BLOCK_ELEMENTS // (Gv.size + 1))
             for lo in range(0, rows.size, step):
                 part = rows[lo:lo + step]
@@ -348,9 +355,12 @@ class BatchSolver:
                 den = np.sum(W * gu ** 2, axis=1)
                 gamma = np.where(den > 0, np.sum(W * gu * x, axis=1) / np.where(den > 0, den, 1.0), 0.0)
                 y = (x - gamma[:, None] * gu[None, :]) / sd
-                A = (Gv[None, :, :] / sd[:, :, None]) * self.p_isqrt[None, None, :]
-                Uu, sv, _ = np.linalg.svd(A, full_matrices=False)
-                beta = np.einsum("unr,un->ur", Uu, y)
+                if shared:
+                    sv, beta = np.broadcast_to(svs, (part.size, svs.size)), y @ Us
+                else:
+                    A = (Gv[None, :, :] / sd[:, :, None]) * self.p_isqrt[None, None, :]
+                    Uu, sv, _ = np.linalg.svd(A, full_matrices=False)
+                    beta = np.einsum("unr,un->ur", Uu, y)
                 r = sv.shape[1]
                 s2[part, :r], b2[part, :r] = sv ** 2, beta ** 2
                 rest[part] = np.maximum(np.sum(y ** 2, axis=1) - np.sum(beta ** 2, axis=1), 0.0)
@@ -382,12 +392,7 @@ class BatchSolver:
         from scipy.optimize import minimize_scalar
 
         terms = self._evidence_terms(d, random_var)
-        s2 = terms[0]
-        top = float(np.nanmax(s2)) if np.any(np.isfinite(s2)) else 0.0
-        if not top > 0:
-            raise InverseError("no row has enough sensors to choose the smoothing strength")
-        low = float(np.nanmin(np.where(s2 > 1e-12 * top, s2, np.nan)))
-        grid = np.geomspace(low / margin, top * margin, int(num))
+        grid = _strength_grid(terms[0], num, margin)
         le = _joint(terms, grid)
         i = int(np.argmax(le))
         if i in (0, grid.size - 1):
@@ -398,6 +403,46 @@ class BatchSolver:
                               bounds=(np.log(grid[i - 1]), np.log(grid[i + 1])), method="bounded",
                               options={"xatol": 1e-7})
         return float(np.exp(res.x) if -res.fun >= le[i] else grid[i]), []
+
+    def strength_grid(self, random_var, num: int = ROW_STRENGTHS, margin: float = 1e2) -> np.ndarray:
+        """Strengths alpha, log-spaced over the squared singular values of the whitened,
+        prior-scaled design of all sensors at noise random_var (n,) or at each of several
+        (k, n) [K^2] (times 1/margin .. margin): the range over which the evidence moves."""
+        rv = np.asarray(random_var, float)
+        return _strength_grid(self._evidence_terms(np.zeros((max(1, rv.shape[0]) if rv.ndim == 2 else 1, self.n)),
+                                                   rv)[0], num, margin)
+
+    def row_log_evidence(self, d, random_var, alphas) -> np.ndarray:
+        """(R, A): log p(d_row | alpha) for each row and each alpha of `alphas` (NaN for rows
+        with too few sensors)."""
+        return _row_evidence(self._evidence_terms(d, random_var), np.atleast_1d(np.asarray(alphas, float)))
+
+    def solve_averaged(self, d, random_var, alphas) -> BatchEstimates:
+        """The functionals of each row averaged over the strengths `alphas` (a uniform prior
+        over that log-spaced grid), weighted by the row's own evidence:
+        w_ra = p(d_r | alpha_a) / sum_b p(d_r | alpha_b),  mean_r = sum_a w_ra m_ra,
+        var_r = sum_a w_ra (sd_ra^2 + m_ra^2) - mean_r^2  (a Gaussian mixture's moments;
+        sd: this solver's kind, noise-only for a change solver).  Only the functionals: a
+        solver with an extremes grid is refused."""
+        if self.Q:
+            raise InverseError("solve_averaged averages the functionals only (a solver without a grid)")
+        alphas = np.atleast_1d(np.asarray(alphas, float))
+        logev = self.row_log_evidence(d, random_var, alphas)
+        known = np.all(np.isfinite(logev), axis=1)
+        w = np.zeros_like(logev)
+        if known.any():
+            e = logev[known] - np.max(logev[known], axis=1, keepdims=True)
+            w[known] = np.exp(e) / np.sum(np.exp(e), axis=1, keepdims=True)
+        parts = [self.with_alpha(a).solve(d, random_var) for a in alphas]
+        m = np.stack([p.values for p in parts])                 # (A, R, nf)
+        v = np.stack([p.sd for p in parts]) ** 2
+        wa = w.T[:, :, None]
+        mean = np.sum(wa * np.nan_to_num(m), axis=0)
+        var = np.sum(wa * np.nan_to_num(v + m ** 2), axis=0) - mean ** 2
+        out = parts[0]
+        out.values = np.where(known[:, None], mean, np.nan)
+        out.sd = np.where(known[:, None], np.sqrt(np.maximum(var, 0.0)), np.nan)
+        return out
 
     # ------------------------------------------------------------------ solving
     @few_threads
@@ -493,15 +538,38 @@ class BatchSolver:
 
 
 def _joint(terms, alphas):
-    """sum_rows -1/2 [n log 2 pi + log det S + sum_j log(1 + s_j^2/alpha) + sum_j beta_j^2
-    alpha / (s_j^2 + alpha) + rest] (the log evidence of LinearGaussianProblem, row by row)."""
+    """sum over the rows with readings of `_row_evidence` (A,)."""
+    ev = _row_evidence(terms, alphas)
+    return np.sum(ev[terms[3] > 0], axis=0)
+
+
+def _row_evidence(terms, alphas):
+    """(R, A): -1/2 [n log 2 pi + log det S + sum_j log(1 + s_j^2/alpha) + sum_j beta_j^2
+    alpha / (s_j^2 + alpha) + rest] for each row and alpha (the log evidence of
+    LinearGaussianProblem, row by row; NaN for rows with no readings), in blocks of rows."""
     s2, b2, rest, count, logdet = terms
-    use = count > 0
-    s2, b2 = np.nan_to_num(s2[use]), np.nan_to_num(b2[use])
-    a = alphas[:, None, None]
-    per = (np.sum(np.log1p(s2[None] / a), axis=2) + np.sum(b2[None] * a / (s2[None] + a), axis=2)
-           + rest[use][None, :] + (count[use] * np.log(2 * np.pi) + logdet[use])[None, :])
-    return -0.5 * per.sum(axis=1)
+    s2, b2 = np.nan_to_num(s2), np.nan_to_num(b2)
+    out = np.full((s2.shape[0], alphas.size), np.nan)
+    a = alphas[None, :, None]
+    step = max(1, _BLOCK_ELEMENTS // max(1, alphas.size * s2.shape[1]))
+    for lo in range(0, s2.shape[0], step):
+        sl = slice(lo, lo + step)
+        s, b = s2[sl, None, :], b2[sl, None, :]
+        per = (np.sum(np.log1p(s / a), axis=2) + np.sum(b * a / (s + a), axis=2)
+               + (rest[sl] + count[sl] * np.log(2 * np.pi) + logdet[sl])[:, None])
+        out[sl] = -0.5 * per
+    out[count == 0] = np.nan
+    return out
+
+
+def _strength_grid(s2, num, margin):
+    """num strengths log-spaced from the smallest squared singular value above 1e-12 of the
+    largest, / margin, to the largest x margin (s2: squared singular values, NaN-padded)."""
+    top = float(np.nanmax(s2)) if np.any(np.isfinite(s2)) else 0.0
+    if not top > 0:
+        raise InverseError("no row has enough sensors to choose the smoothing strength")
+    low = float(np.nanmin(np.where(s2 > 1e-12 * top, s2, np.nan)))
+    return np.geomspace(low / margin, top * margin, int(num))
 
 
 def _extremes(E, k, x):

@@ -13,8 +13,8 @@ Works on window statistics (inverse.steady.WindowStats) and arrays; no files.
   prefers (windows mode, when the fit's rule is the evidence), else the reference window's own
   choice.  Changes from the reference are estimated from the readings' difference
   d_row - d_ref (offsets cancel) with variance S_row + S_ref, at the joint evidence of the
-  other steady windows' differences that depart beyond the noise (windows mode), else half
-  the trend's strength (CHANGE_RULE).  Before they are inverted, each row's readings are
+  other steady windows' differences that depart beyond the noise (windows mode), else
+  averaged over strengths by each row's own evidence (CHANGE_RULE).  Before they are inverted, each row's readings are
   checked against each other (RowChecks): a sensor failing partway through the log is left
   out of the rows where it disagrees, not read as a heater's change.
 - Flags (`ChangeFlags`): |change| / sd(change) > Phi^-1(1 - level / (2 m)), m = rows x zones
@@ -49,12 +49,17 @@ PROBE_GRID = (3, 4)
 
 
 #: how a change's strength is set when no difference to the reference departs beyond the noise
-#: (or when streaming): BatchSolver.changes' default, the prior of the difference of two
-#: independent profiles.  In windows mode the joint evidence of the differences that do depart
-#: sets it; until session 32 every steady window's difference voted, and on an 8-hour log whose
-#: last window lost 10 % in one sector the strength came out 1e10 times the trend's, the change
-#: uniform over every zone (-60 +- 5 W/m^2 each, where one zone lost 299 W/m^2).
-CHANGE_RULE = "half the trend's strength (the prior of a difference of two profiles)"
+#: (or when streaming every Nth row, where no later window can be looked at): each row's change
+#: is averaged over a log-spaced grid of strengths (BatchSolver.strength_grid, uniform in log
+#: alpha over the range where the evidence moves), weighted by that row's own evidence
+#: (BatchSolver.solve_averaged).  Until session 33 half the trend's strength was used: when the
+#: offsets hide the profile the reference fit sits at its stiffest, and on the demo platen a
+#: 10 % loss of one sector came out as -226 +- 6 W/m^2 in every zone, all five flagged, where
+#: one zone lost 1043.  In windows mode the joint evidence of the differences that depart sets
+#: one strength; until session 32 every steady window's difference voted, and on an 8-hour log
+#: whose last window lost 10 % in one sector the strength came out 1e10 times the trend's, the
+#: change uniform over every zone (-60 +- 5 W/m^2 each, where one zone lost 299 W/m^2).
+CHANGE_RULE = "each row's own evidence, averaged over {num} strengths from {lo:.3g} to {hi:.3g} (uniform in log)"
 
 
 class TrendError(InverseError):
@@ -158,6 +163,7 @@ class TrendModel:
     change_rule: str
     warnings: list = field(default_factory=list)
     set_aside: list = field(default_factory=list)    # sensors left out of the trend
+    change_alphas: np.ndarray | None = None          # each row's own evidence over these (CHANGE_RULE)
 
     @property
     def zone_names(self) -> list:
@@ -234,7 +240,13 @@ class TrendModel:
         ref_d = np.where(valid, mean, np.nan)[used]
         ref_rv = np.where(valid, sig ** 2, np.nan)[used]
         solver = solver.with_fit_uncertainty(result, ref_d, np.where(np.isfinite(ref_rv), ref_rv, 1.0))
-        changes, change_rule = solver.changes(), CHANGE_RULE
+        changes = solver.changes()
+        # the grid spans the noise of a single reading's difference (streaming) and of a window
+        # mean's (windows mode)
+        single = np.asarray(s.reading_sigma, float)[used] ** 2
+        pair = np.vstack([single, np.where(np.isfinite(ref_rv), ref_rv, single)]) + np.nan_to_num(ref_rv)
+        change_alphas = changes.strength_grid(pair)
+        change_rule = CHANGE_RULE.format(num=change_alphas.size, lo=change_alphas[0], hi=change_alphas[-1])
         others = [] if steady is None else [w for w in steady if w != i]
         if others and joint_evidence:
             # the joint evidence of the differences that changed beyond the noise other than by
@@ -247,11 +259,11 @@ class TrendModel:
             moved = changes.departing_rows(X, RV, level=TREND_FAMILY_LEVEL / len(others))
             if moved.any():
                 alpha_c, _ = changes.joint_strength(X[moved], RV[moved])
-                changes = solver.changes(alpha_c)
+                changes, change_alphas = solver.changes(alpha_c), None
                 change_rule = (f"joint evidence of the {int(moved.sum())} of {len(others)} differences to the "
                                f"reference window that changed beyond the noise")
         return cls(result, used, solver, changes, tau, ref_window, ref_d, ref_rv, strength_rule, change_rule,
-                   warnings, sorted(aside))
+                   warnings, sorted(aside), change_alphas)
 
     def checked(self, checks, start, d, rv, reference_mask=None):
         """Rows d (R, used) [K] with the readings a RowChecks sets aside as NaN (rv: their random
@@ -267,7 +279,10 @@ class TrendModel:
             # a sensor without a reading in the reference window has no change (its difference
             # is NaN, so every row leaves it out); its variance only has to be a number
             var = np.where(np.isfinite(var), var, 1.0)
-        ch = self.changes.solve(d - self.ref_d, var)
+        if self.change_alphas is None:
+            ch = self.changes.solve(d - self.ref_d, var)
+        else:
+            ch = self.changes.solve_averaged(d - self.ref_d, var, self.change_alphas)
         change, csd = ch.values, ch.sd
         if reference_mask is not None and np.any(reference_mask):
             change[reference_mask], csd[reference_mask] = 0.0, 0.0

@@ -165,6 +165,56 @@ def test_joint_evidence_is_the_sum_of_row_evidences():
     assert np.argmax(solver.joint_log_evidence(D, RV, grid)) == 3 and not notes
 
 
+def test_row_evidence_is_each_rows_fit_evidence():
+    """One noise for every row (one SVD per pattern) and a noise per row give each row's
+    log evidence of `inverse.fit`'s LinearGaussianProblem (the Gaussian marginal likelihood,
+    computed there from its own SVD); a row with a sensor missing as well."""
+    case, lay, *_ = platen()
+    solver = BatchSolver.from_fit(reference_fit(), lay["r"], lay["theta"], lay["z"], offset_sd=0.5,
+                                  zones=case.zones)
+    D = _rows(seed=4, rows=4)                   # rows 1 and 3 with sensors missing
+    rv = np.random.default_rng(5).uniform(0.005, 0.02, D.shape[1])
+    alphas = np.array([1e-8, 1e-6, 1e-4, 1e-2])
+    shared = solver.row_log_evidence(D, rv, alphas)
+    per_row = solver.row_log_evidence(D, np.tile(rv, (4, 1)), alphas)
+    for i in range(4):
+        f = inverse.fit(case, readings(D[i], np.sqrt(rv), 0.5), strength=1e-4, keep_all_sensors=True,
+                        model="smooth")
+        np.testing.assert_allclose(shared[i], f.problem.log_evidence(alphas), rtol=1e-10)
+        np.testing.assert_allclose(per_row[i], shared[i], rtol=1e-12)
+
+
+def test_changes_averaged_over_strengths_by_each_rows_evidence():
+    """solve_averaged: per row, the Gaussian mixture over the strengths with weights
+    p(d | alpha) / sum (uniform prior over the grid): mean sum w m, variance
+    sum w (sd^2 + m^2) - mean^2 (law of total variance), the components from single-strength
+    solves; a row with a loss in one sector puts its weight on weaker strengths than a row
+    with nothing changing."""
+    case, lay, t_nom, t_off, _ = platen()
+    changes = BatchSolver.from_fit(reference_fit(), lay["r"], lay["theta"], lay["z"], offset_sd=0.5,
+                                   zones=case.zones).changes()
+    rng = np.random.default_rng(8)
+    ref = t_nom + rng.normal(0.0, 0.05, t_nom.size)
+    X = np.vstack([t_nom + rng.normal(0.0, 0.05, t_nom.size), t_off + rng.normal(0.0, 0.05, t_nom.size)]) - ref
+    rv = np.full(t_nom.size, 2 * 0.05 ** 2)
+    grid = changes.strength_grid(rv)
+    got = changes.solve_averaged(X, rv, grid)
+    ev = changes.row_log_evidence(X, rv, grid)
+    w = np.exp(ev - ev.max(axis=1, keepdims=True))
+    w /= w.sum(axis=1, keepdims=True)
+    parts = [changes.with_alpha(a).solve(X, rv) for a in grid]
+    m = np.stack([p.values for p in parts])
+    v = np.stack([p.sd for p in parts]) ** 2
+    for i in range(2):
+        mean = w[i] @ m[:, i, :]
+        np.testing.assert_allclose(got.values[i], mean, rtol=1e-12)
+        np.testing.assert_allclose(got.sd[i] ** 2, w[i] @ (v[:, i, :] + m[:, i, :] ** 2) - mean ** 2, rtol=1e-9)
+    centre = w @ np.log(grid)
+    assert centre[1] < centre[0] - np.log(100.0)
+    with pytest.raises(inverse.InverseError):
+        BatchSolver.from_fit(reference_fit(), lay["r"], lay["theta"], lay["z"]).solve_averaged(X, rv, grid)
+
+
 def test_offsets_cancel_in_changes_but_widen_the_level():
     """Constant per-sensor offsets: zone changes and the trend of the non-uniformity are the
     same with and without them; the absolute level moves and its sd carries the offsets.

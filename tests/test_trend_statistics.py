@@ -104,7 +104,7 @@ def test_model_of_a_reference_window():
                                                                           **kw), stats, 0, sensors,
                                    lambda level: (np.full(n, 0.3), []), floor=0.05, zones=case.zones)
     assert model.ref_window == (0.0, WINDOW - DT) and model.used.all()
-    assert model.strength_rule.endswith("of the reference window") and model.change_rule.startswith("half")
+    assert model.strength_rule.endswith("of the reference window") and model.change_rule.startswith("each row")
     assert model.zone_names == [z.name for z in case.zones]
     means = np.where(stats.valid, stats.mean, np.nan)
     rv = stats.sigma(0.05) ** 2
