@@ -17,6 +17,15 @@ from .display import FILE_UNITS, display_of, symbol
 from .report_format import eng, pm95_of
 
 
+def _window_count(summary) -> str:
+    """'22 of 24 complete windows (and 1 incomplete)': the steady ones among the complete, as
+    the not-steady warning counts them."""
+    w = summary["windows"]
+    rest = w["total"] - w["complete"]
+    return (f"{w['steady']} of {w['complete']} complete windows"
+            + (f" (and {rest} incomplete, not used)" if rest else ""))
+
+
 def _every_words(n) -> str:
     """'every row', 'every 2nd row', 'every 60th row'."""
     if n == 1:
@@ -114,8 +123,8 @@ def trend_html(summary: dict, figure_png: bytes, reader_timestamps: bool) -> str
     if summary["mode"] == "every":
         what = f"{_every_words(summary['every'])} of the log ({summary['trend_rows']} rows)"
     else:
-        what = (f"every steady window: {summary['windows']['steady']} of {summary['windows']['total']} windows of "
-                f"{summary['window_s']:g} s had every sensor within {summary['drift_K']:g} K")
+        what = (f"every steady window: {_window_count(summary)} of {summary['window_s']:g} s had every sensor "
+                f"within {summary['drift_K']:g} K")
     parts = [_flag_list(summary)]
     rows = []
     first, last = summary.get("first_row"), summary.get("last_row")
@@ -183,7 +192,7 @@ def console_lines(summary: dict, folder) -> str:
              f"{summary['log']}:"]
     lines += [f"  {t}" for t in flag_sentences(summary, report=False)]
     lines += [f"  rows read       {summary['rows_read']}; windows of {summary['window_s']:g} s: "
-              f"{summary['windows']['steady']} steady of {summary['windows']['total']}",
+              f"{_window_count(summary)}",
               f"  trend rows      {summary['trend_rows']}"
               + (f" ({_every_words(summary['every'])})" if summary["mode"] == "every" else " (steady windows)"),
               f"  reference       t = {eng(ref['start_s'])} to {eng(ref['end_s'])} s; "

@@ -203,6 +203,22 @@ def test_windows_left_out_as_not_steady_are_said(tmp_path, monkeypatch):
     assert max(last, key=lambda z: abs(last[z][0])) == WEAK_ZONE
 
 
+def test_the_window_counts_agree(tmp_path, monkeypatch, capsys):
+    """A 4-h log with one more row at t = 4 h: its 25th window is incomplete.  The warning
+    counted 24 windows and the console "22 steady of 25"; both now count the complete ones."""
+    folder = make_folder(tmp_path)
+    t = np.arange(int(4 * 3600 / DT) + 1) * DT
+    _log(folder, 0.4 * np.clip((t - 7200.0) / 3600.0, 0.0, 1.0), seed=6)
+    monkeypatch.chdir(folder)
+    assert main(["trend", "platen.toml", "--log", "log.csv", "--out", "out"]) == 0
+    summary = json.loads((folder / "out" / "summary.json").read_text())
+    w = summary["windows"]
+    assert (w["total"], w["complete"]) == (25, 24)
+    text = capsys.readouterr()
+    assert f"{w['steady']} of 24 complete windows (and 1 incomplete, not used)" in text.out
+    assert f"{24 - w['steady']} of 24 windows were not steady" in text.err + text.out
+
+
 def test_a_heater_loss_under_one_thermocouple_is_the_parts_not_a_fault(tmp_path, monkeypatch):
     """Half the flux of a 30-degree arc of the outer ring lost from t = 2 h, right under TC06:
     it drops 11.6 K, its neighbours 1.5-3 K (the forward series of that flux; the fields are
