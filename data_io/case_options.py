@@ -249,7 +249,7 @@ def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> t
 
 # ---------------------------------------------------------------------------- [plan]
 
-PLAN_KEYS = ("drill_from", "depth_min", "depth_max", "face_distance", "spacing", "exclude_theta",
+PLAN_KEYS = ("drill_from", "existing_from", "depth_min", "depth_max", "face_distance", "spacing", "exclude_theta",
              "exclude_r", "exclude_z", "angle_step", "positions", "depths", "expected_variation",
              "sigma", "offset_sd", "covariance")
 
@@ -289,11 +289,12 @@ def _parse_plan(ctx: _Ctx, table: dict | None, unknown: str | None) -> PlanOptio
         return PlanOptions()
     ctx.check_keys(table, PLAN_KEYS, "plan")
     rules: dict = {}
-    if "drill_from" in table:
-        face = str(table["drill_from"]).strip().lower()
-        if face not in DRILL_FACES:
-            raise ctx.error("plan.drill_from", f"expected one of: {', '.join(DRILL_FACES)}, got {table['drill_from']!r}")
-        rules["drill_face"] = face
+    for key, rule in (("drill_from", "drill_face"), ("existing_from", "existing_face")):
+        if key in table:
+            face = str(table[key]).strip().lower()
+            if face not in DRILL_FACES:
+                raise ctx.error(f"plan.{key}", f"expected one of: {', '.join(DRILL_FACES)}, got {table[key]!r}")
+            rules[rule] = face
     for key in ("depth_min", "depth_max", "face_distance", "spacing"):
         if key in table:
             rules[key] = _plan_length(ctx, table, key)

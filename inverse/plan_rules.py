@@ -7,8 +7,9 @@ r = a - depth.  A candidate position is admissible when
     depth_min <= depth <= depth_max                    (depth along the hole [m])
     distance to every face >= face_distance            [m]
     distance to every other sensor >= spacing          [m] (existing ones and earlier picks)
-    hole clear of every existing sensor's hole         [m] (hole_clearance: the holes taken
-                                                        from the same face, within spacing;
+    hole clear of every existing sensor's hole         [m] (hole_clearance: the present holes
+                                                        taken from existing_face, default the
+                                                        same face, within spacing;
                                                         and of every earlier pick's hole,
                                                         clear_of_pick)
     theta outside every excluded angular range         [rad, periodic]
@@ -44,11 +45,13 @@ DEFAULT_DEPTHS = 4
 @dataclass(frozen=True)
 class PlanRules:
     """Drilling rules (SI, radians).  drill_face None: opposite the unknown face (see
-    `default_drill_face`).  exclude_theta: [(lo, hi)] angular ranges [rad]; exclude_r /
+    `default_drill_face`); existing_face: the face the present sensors' holes were drilled
+    from (None: assumed drill_face's).  exclude_theta: [(lo, hi)] angular ranges [rad]; exclude_r /
     exclude_z: [(lo, hi)] radial / axial ranges [m]; depth_max None: as deep as the part
     allows."""
 
     drill_face: str | None = None
+    existing_face: str | None = None
     depth_min: float = 0.0
     depth_max: float | None = None
     face_distance: float = DEFAULT_FACE_DISTANCE
@@ -77,13 +80,17 @@ def default_drill_face(unknown_face: str, cylinder) -> str:
 
 
 def drill_face(rules: PlanRules, unknown_face: str, cylinder) -> str:
+    """The face new holes go in from (checked, as the present holes' face when given)."""
     face = rules.drill_face or default_drill_face(unknown_face, cylinder)
-    if face not in DRILL_FACES:
-        raise InverseError(f"holes are drilled from one of {', '.join(DRILL_FACES)}, got {face!r}")
-    if getattr(cylinder, "long", False) and face != "side":
-        raise InverseError("a long part is drilled from its outer wall (side): it has no end faces")
-    if face == "top" and math.isinf(cylinder.height):
-        raise InverseError("a semi-infinite part has no top face to drill from")
+    for f in (face, rules.existing_face):
+        if f is None:
+            continue
+        if f not in DRILL_FACES:
+            raise InverseError(f"holes are drilled from one of {', '.join(DRILL_FACES)}, got {f!r}")
+        if getattr(cylinder, "long", False) and f != "side":
+            raise InverseError("a long part is drilled from its outer wall (side): it has no end faces")
+        if f == "top" and math.isinf(cylinder.height):
+            raise InverseError("a semi-infinite part has no top face to drill from")
     return face
 
 
@@ -113,25 +120,60 @@ def _xyz(r, theta, z):
     return np.column_stack([r * np.cos(theta), r * np.sin(theta), z])
 
 
-def hole_clearance(face: str, cylinder, r, theta, z, existing) -> np.ndarray:
-    """Smallest distance [m] between the hole drilled from `face` to each position (r,
-    theta, z) and the hole an existing sensor would have from the same face, over the stretch
-    both holes occupy (from the face to the shallower tip): holes from an end face are
-    parallel, sqrt(r^2 + r_e^2 - 2 r r_e cos(dtheta)) apart; radial holes from the side are
-    closest at the shallower tip's radius rho, sqrt((2 rho sin(dtheta / 2))^2 + dz^2) (dz = 0
-    on a long part).  inf without existing sensors."""
+def hole_ends(face: str, cylinder, r, theta, z):
+    """(start, tip) (N, 3) [m] of holes drilled from `face` to the tips (r, theta, z): an end
+    face's hole is axial, from z = L (top) or 0 (bottom) at (r, theta); the side's is radial,
+    from r = a at (theta, z).  On a long part z is 0 (nothing varies along the axis)."""
     r, theta, z = (np.atleast_1d(np.asarray(v, float)) for v in (r, theta, z))
-    re, te, ze = (np.atleast_1d(np.asarray(v, float)) for v in existing)
-    if re.size == 0:
-        return np.full(r.shape, np.inf)
-    dth = theta[:, None] - te[None, :]
+    if getattr(cylinder, "long", False):
+        z = np.zeros_like(r)
+    tip = _xyz(r, theta, z)
     if face == "side":
-        rho = np.maximum(r[:, None], re[None, :])
-        dz = 0.0 if getattr(cylinder, "long", False) else z[:, None] - ze[None, :]
-        d2 = (2.0 * rho * np.sin(0.5 * dth)) ** 2 + dz ** 2
+        start = _xyz(np.full_like(r, cylinder.radius), theta, z)
     else:
-        d2 = r[:, None] ** 2 + re[None, :] ** 2 - 2.0 * r[:, None] * re[None, :] * np.cos(dth)
-    return np.sqrt(np.maximum(d2, 0.0)).min(axis=1)
+        start = tip.copy()
+        start[:, 2] = cylinder.height if face == "top" else 0.0
+    return start, tip
+
+
+def segment_distance(p0, p1, q0, q1) -> np.ndarray:
+    """Smallest distance [m] between segments p0-p1 (N, 3) and q0-q1 (M, 3), (N, M): the
+    closest points s, t in [0, 1] of the two lines, clamped to the segments (a segment of
+    zero length is its point)."""
+    d1 = (p1 - p0)[:, None, :]
+    d2 = (q1 - q0)[None, :, :]
+    w = p0[:, None, :] - q0[None, :, :]
+    a, e = np.sum(d1 * d1, axis=2), np.sum(d2 * d2, axis=2)
+    b, c, f = np.sum(d1 * d2, axis=2), np.sum(d1 * w, axis=2), np.sum(d2 * w, axis=2)
+    tiny = 1e-30
+    den = a * e - b * b
+    s = np.where(den > 1e-12 * np.maximum(a * e, tiny), np.clip((b * f - c * e) / np.maximum(den, tiny), 0, 1), 0.0)
+    t = np.where(e > tiny, (b * s + f) / np.maximum(e, tiny), 0.0)
+    low, high = t < 0, t > 1
+    t = np.clip(t, 0.0, 1.0)
+    s = np.where(low, np.clip(-c / np.maximum(a, tiny), 0, 1), s)
+    s = np.where(high, np.clip((b - c) / np.maximum(a, tiny), 0, 1), s)
+    s = np.where(a > tiny, s, 0.0)
+    gap = w + s[:, :, None] * d1 - t[:, :, None] * d2
+    return np.sqrt(np.sum(gap * gap, axis=2))
+
+
+def hole_clearance(face: str, cylinder, r, theta, z, existing, existing_face: str | None = None) -> np.ndarray:
+    """Smallest distance [m] between the hole drilled from `face` to each position (r, theta,
+    z) and the holes of the existing sensors (r, theta, z), drilled from `existing_face`
+    (default: the same face): the distance of the two segments, face to tip
+    (segment_distance; parallel holes from one end face are sqrt(r^2 + r_e^2 - 2 r r_e
+    cos(dtheta)) apart; level radial holes from the side rho sin(dtheta) apart, rho the
+    shallower tip's radius).  inf without existing sensors."""
+    r = np.atleast_1d(np.asarray(r, float))
+    if np.atleast_1d(existing[0]).size == 0:
+        return np.full(r.shape, np.inf)
+    p0, p1 = hole_ends(face, cylinder, r, theta, z)
+    q0, q1 = hole_ends(existing_face or face, cylinder, *existing)
+    out = np.empty(r.shape)
+    for i in range(0, r.size, 2048):
+        out[i:i + 2048] = segment_distance(p0[i:i + 2048], p1[i:i + 2048], q0, q1).min(axis=1)
+    return out
 
 
 def clear_of_pick(positions, pick: int, spacing: float, face: str | None = None, cylinder=None) -> np.ndarray:
@@ -193,8 +235,11 @@ def admissible(rules: PlanRules, face: str, cylinder, r, theta, z, existing=None
     if existing is not None and len(existing[0]):
         near = min_distance(_xyz(r, theta, z), _xyz(*existing)) < rules.spacing
         reject(near, "too close to an existing sensor")
-        reject(hole_clearance(face, cylinder, r, theta, z, existing) < rules.spacing,
-               f"on the path of an existing sensor's hole (if that one was drilled from the {face} too)")
+        other = rules.existing_face or face
+        where = (f"drilled from the {other}" if rules.existing_face else
+                 f"if that one was drilled from the {face} too; [plan] existing_from says where they were")
+        reject(hole_clearance(face, cylinder, r, theta, z, existing, other) < rules.spacing,
+               f"on the path of an existing sensor's hole ({where})")
     return reason == "", reason
 
 

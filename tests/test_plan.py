@@ -244,8 +244,8 @@ def test_rules_arithmetic():
 def test_a_new_hole_may_not_run_down_an_existing_one():
     """A tip 19 mm above an existing one at the same (r, theta), drilled from the same face,
     lies in that sensor's hole (tips 19 mm apart passed the spacing rule); radial holes from
-    the side meet where the shallower one ends.  Plain geometry (distance between parallel
-    lines; chord 2 rho sin(dtheta / 2) between radial ones)."""
+    the side come closest where the shallower one ends.  Plain geometry (distance between
+    parallel lines; from a point to a line)."""
     cyl = fw.Cylinder(A, L, K)
     rules = PlanRules(spacing=0.005)
     existing = (np.array([0.127, 0.0]), np.array([0.0, 0.0]), np.array([0.006, 0.006]))
@@ -257,7 +257,8 @@ def test_a_new_hole_may_not_run_down_an_existing_one():
     assert why[0].startswith("on the path of an existing sensor's hole")
     d = hole_clearance("side", cyl, np.array([0.12]), np.radians([2.0]), np.array([0.02]),
                        (np.array([0.10]), np.array([0.0]), np.array([0.02])))
-    assert d[0] == pytest.approx(2 * 0.12 * math.sin(math.radians(1.0)), rel=1e-12)
+    # the shallower tip (r = 120 mm) to the other hole's axis: 0.12 sin(2 deg)
+    assert d[0] == pytest.approx(0.12 * math.sin(math.radians(2.0)), rel=1e-12)
 
 
 def test_bad_requests():
@@ -366,3 +367,26 @@ def test_picks_do_not_share_a_hole(fitted):
         others = np.arange(len(pr)) != i
         gap = hole_clearance(face, cyl, pr[i:i + 1], pt[i:i + 1], pz[i:i + 1], (pr[others], pt[others], pz[others]))
         assert gap[0] >= rules.spacing
+
+
+def test_present_holes_drilled_from_another_face():
+    """Holes drilled radially from the side beside thermocouples whose holes came down from
+    the top: a radial hole at theta = 0, z = 20 mm to r = 40 mm passes through the vertical
+    hole of the sensor at r = 127 mm, theta = 0 (z from 6 to 40 mm) and is refused once
+    [plan] existing_from says so; assumed drilled from the side as well, the two were 14 mm
+    apart and it passed.  Segment distances against plain geometry: two perpendicular
+    segments, one through the other (0), and a point beside a segment (its offset)."""
+    cyl = fw.Cylinder(A, L, K)
+    existing = (np.array([0.127]), np.array([0.0]), np.array([0.006]))
+    r, th, z = np.array([0.040, 0.040]), np.radians([0.0, 20.0]), np.array([0.020, 0.020])
+    same, _ = admissible(PlanRules(drill_face="side"), "side", cyl, r, th, z, existing)
+    ok, why = admissible(PlanRules(drill_face="side", existing_face="top"), "side", cyl, r, th, z, existing)
+    assert list(same) == [True, True] and list(ok) == [False, True]
+    assert "drilled from the top" in why[0]
+    d = hole_clearance("side", cyl, r[:1], th[:1], z[:1], existing, "top")
+    assert d[0] == pytest.approx(0.0, abs=1e-15)
+    # at 20 deg the radial hole passes the vertical one at 127 sin(20 deg) = 43.4 mm
+    d20 = hole_clearance("side", cyl, r[1:], th[1:], z[1:], existing, "top")
+    assert d20[0] == pytest.approx(0.127 * math.sin(math.radians(20.0)), rel=1e-12)
+    with pytest.raises(inverse.InverseError, match="no top face"):
+        drill_face(PlanRules(existing_face="top"), "side", fw.Cylinder(A, math.inf, K))

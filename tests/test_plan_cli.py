@@ -136,6 +136,7 @@ def test_bad_input(tmp_path, capsys, monkeypatch, name):
 
 def test_bad_plan_table(tmp_path, capsys, monkeypatch):
     for table, fragment in (('\n[plan]\ndrill_from = "inside"\n', "plan.drill_from"),
+                            ('\n[plan]\nexisting_from = "rim"\n', "plan.existing_from"),
                             ('\n[plan]\nspacing = 5\n', "plan.spacing"),
                             ('\n[plan]\nexpected_variation = "2 K"\n', "plan.expected_variation"),
                             ('\n[plan]\nspacng = "5 mm"\n', "did you mean 'spacing'")):
