@@ -417,31 +417,91 @@ class BatchSolver:
         with too few sensors)."""
         return _row_evidence(self._evidence_terms(d, random_var), np.atleast_1d(np.asarray(alphas, float)))
 
+    @few_threads
     def solve_averaged(self, d, random_var, alphas) -> BatchEstimates:
         """The functionals of each row averaged over the strengths `alphas` (a uniform prior
         over that log-spaced grid), weighted by the row's own evidence:
         w_ra = p(d_r | alpha_a) / sum_b p(d_r | alpha_b),  mean_r = sum_a w_ra m_ra,
         var_r = sum_a w_ra (sd_ra^2 + m_ra^2) - mean_r^2  (a Gaussian mixture's moments;
-        sd: this solver's kind, noise-only for a change solver).  Only the functionals: a
+        sd: this solver's kind, noise-only for a change solver).  With one noise for every
+        row (random_var (n,)), per missing-value pattern one SVD gives every row's evidence
+        (log p(d | alpha) up to a term free of alpha: -1/2 [sum_j log(1 + s_j^2/alpha) +
+        sum_j beta_j^2 alpha / (s_j^2 + alpha)]) and the estimators at every strength one
+        product; with a noise per row, one `solve` per strength.  Only the functionals: a
         solver with an extremes grid is refused."""
         if self.Q:
             raise InverseError("solve_averaged averages the functionals only (a solver without a grid)")
         alphas = np.atleast_1d(np.asarray(alphas, float))
-        logev = self.row_log_evidence(d, random_var, alphas)
+        d = np.atleast_2d(np.asarray(d, float))
+        rv = np.asarray(random_var, float)
+        if rv.ndim == 2:
+            return self._averaged_by_solves(d, rv, alphas)
+        if rv.shape != (self.n,) or np.any(~(rv > 0)):
+            raise InverseError(f"random_var must be {self.n} positive variances")
+        R = d.shape[0]
+        valid = np.isfinite(d)
+        nan = lambda *shape: np.full(shape, np.nan)  # noqa: E731
+        est = BatchEstimates(self.names, nan(R, self.nf), nan(R, self.nf), nan(R), nan(R), nan(R), nan(R),
+                             nan(R), nan(R), valid.sum(axis=1))
+        for rows in _pattern_groups(valid):
+            v = valid[rows[0]]
+            if v.sum() >= MIN_SENSORS and self.nf:
+                self._average_group(v, rows, d[np.ix_(rows, np.flatnonzero(v))] - self.t0[v],
+                                    rv[v] + self.shared_var[v], alphas, est)
+        return est
+
+    def _average_group(self, v, rows, x, noise, alphas, est):
+        """solve_averaged for the rows `rows` (readings minus t0: x) of pattern v at one noise
+        vector (n_v,) [K^2]."""
+        sd = np.sqrt(noise)
+        Gv = self.G[v]
+        Uu, s, _ = np.linalg.svd(Gv / sd[:, None] * self.p_isqrt[None, :], full_matrices=False)
+        s2 = s ** 2
+        occam = np.sum(np.log1p(s2[None, :] / alphas[:, None]), axis=1)          # (A,)
+        shrink = alphas[None, :] / (s2[:, None] + alphas[None, :])                   # (r, A)
+        E, V = [], []
+        for a in alphas:
+            e, var, _, _ = self.with_alpha(a)._estimators(v, noise[None, :])
+            E.append(e[0, :self.nf])
+            V.append(np.einsum("qn,n->q", e[0, :self.nf] ** 2, noise) if self.sd_kind == "noise" else var[0, :self.nf])
+        E, V = np.concatenate(E), np.stack(V)                                        # (A nf, n_v), (A, nf)
+        gu = Gv @ self.u
+        W = 1.0 / noise
+        den = float(np.sum(W * gu ** 2))
+        A_, nf = alphas.size, self.nf
+        step = max(1, _BLOCK_ELEMENTS // (A_ * (nf + Uu.shape[1]) + x.shape[1]))
+        for lo in range(0, rows.size, step):
+            xb = x[lo:lo + step]
+            gamma = (xb @ (W * gu)) / den if den > 0 else np.zeros(xb.shape[0])
+            beta = ((xb - gamma[:, None] * gu[None, :]) / sd) @ Uu
+            logev = -0.5 * (occam[None, :] + (beta ** 2) @ shrink)                    # (B, A)
+            w = np.exp(logev - logev.max(axis=1, keepdims=True))
+            w /= w.sum(axis=1, keepdims=True)
+            vals = (xb @ E.T).reshape(-1, A_, nf) + self.kq[None, None, :nf]
+            mean = np.einsum("ba,baf->bf", w, vals)
+            second = np.einsum("ba,baf->bf", w, V[None] + vals ** 2)
+            part = rows[lo:lo + step]
+            est.values[part] = mean
+            est.sd[part] = np.sqrt(np.maximum(second - mean ** 2, 0.0) + self.model_var[None, :])
+
+    def _averaged_by_solves(self, d, rv, alphas) -> BatchEstimates:
+        """solve_averaged with a noise per row: the weights from row_log_evidence, one `solve`
+        per strength."""
+        logev = self.row_log_evidence(d, rv, alphas)
         known = np.all(np.isfinite(logev), axis=1)
         w = np.zeros_like(logev)
         if known.any():
             e = logev[known] - np.max(logev[known], axis=1, keepdims=True)
             w[known] = np.exp(e) / np.sum(np.exp(e), axis=1, keepdims=True)
-        parts = [self.with_alpha(a).solve(d, random_var) for a in alphas]
+        parts = [self.with_alpha(a).solve(d, rv) for a in alphas]
         m = np.stack([p.values for p in parts])                 # (A, R, nf)
-        v = np.stack([p.sd for p in parts]) ** 2
+        v2 = np.stack([p.sd for p in parts]) ** 2
         wa = w.T[:, :, None]
         mean = np.sum(wa * np.nan_to_num(m), axis=0)
-        var = np.sum(wa * np.nan_to_num(v + m ** 2), axis=0) - mean ** 2
+        var = np.sum(wa * np.nan_to_num(v2 + m ** 2), axis=0) - mean ** 2
         out = parts[0]
         out.values = np.where(known[:, None], mean, np.nan)
-        out.sd = np.where(known[:, None], np.sqrt(np.maximum(var, 0.0)), np.nan)
+        out.sd = np.where(known[:, None], np.sqrt(np.maximum(var, 0.0) + self.model_var[None, :]), np.nan)
         return out
 
     # ------------------------------------------------------------------ solving

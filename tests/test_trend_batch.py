@@ -211,6 +211,14 @@ def test_changes_averaged_over_strengths_by_each_rows_evidence():
         np.testing.assert_allclose(got.sd[i] ** 2, w[i] @ (v[:, i, :] + m[:, i, :] ** 2) - mean ** 2, rtol=1e-9)
     centre = w @ np.log(grid)
     assert centre[1] < centre[0] - np.log(100.0)
+    # one SVD per pattern (one noise for every row) and one solve per strength (a noise per
+    # row) agree, a row with a sensor missing among them
+    Y = np.vstack([X, X[1]])
+    Y[2, 4] = np.nan
+    one, each = changes.solve_averaged(Y, rv, grid), changes.solve_averaged(Y, np.tile(rv, (3, 1)), grid)
+    np.testing.assert_allclose(one.values, each.values, rtol=1e-9, atol=1e-9 * np.abs(each.values).max())
+    np.testing.assert_allclose(one.sd, each.sd, rtol=1e-7)
+    assert not np.allclose(one.values[2], one.values[1])
     with pytest.raises(inverse.InverseError):
         BatchSolver.from_fit(reference_fit(), lay["r"], lay["theta"], lay["z"]).solve_averaged(X, rv, grid)
 
