@@ -14,7 +14,7 @@ from .plots import LINE_COLOURS, _new_figure
 def trend_figure(trend: dict) -> Figure:
     """The face over time: the face mean with its 95 % band; each zone with its 95 % band; and
     each zone's change from the reference window against its flag limit (threshold x the
-    noise-only sd of the change), flagged points marked.
+    sd of the change), flagged points marked.
 
     `trend` holds plain arrays in SI: ``quantity`` ('temperature' | 'heat_flux'), ``face``,
     ``time`` (P,) (hours as floats, or numpy datetime64), ``time_label``, ``mean`` (dict of

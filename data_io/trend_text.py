@@ -159,13 +159,15 @@ def trend_html(summary: dict, figure_png: bytes, reader_timestamps: bool) -> str
               f"absolute figures also carry what that fit knows it cannot see, so their sds are at least the "
               f"fit's.</p>",
               f"<p>A zone's change is estimated from the difference of the readings to the reference window, "
-              f"in which the thermocouple offsets (the same at every time) cancel; its uncertainty is that of "
-              f"the random noise only. A zone is flagged when its change exceeds "
-              f"{summary['flag_threshold_sd']:.2f} standard deviations of that noise (a limit that keeps the "
+              f"in which the thermocouple offsets (the same at every time) cancel; its uncertainty is the "
+              f"random noise's and what the sensors cannot see of the change (the spread of a change between "
+              f"them, which the fit's smoothing fills in). A zone is flagged when its change exceeds "
+              f"{summary['flag_threshold_sd']:.2f} of its standard deviations (a limit that keeps the "
               f"chance of any false flag over all {summary['flag_comparisons']} rows and zones below "
               f"{summary['flag_family_level']:.0%}). A large change of one zone spreads a little into its "
-              f"neighbours through the fit's smoothing, so judge flags by the size of the change: the zone "
-              f"that moves most is where the change is.</p>",
+              f"neighbours through the fit's smoothing, within their bands; the zone that moves most is "
+              f"where the change is. A smoothed change of a zone with sharp edges comes out somewhat "
+              f"smaller than it is.</p>",
               f"<p>Before a row is inverted, each sensor's change is checked against what the other sensors "
               f"predict (a limit of {summary.get('sensor_check_threshold_sd', math.nan):.2f} sd, over all rows "
               f"and sensors); one beyond it is left out of that row, so that a thermocouple failing partway "
@@ -198,7 +200,7 @@ def console_lines(summary: dict, folder) -> str:
               f"  reference       t = {eng(ref['start_s'])} to {eng(ref['end_s'])} s; "
               f"{_reference_sensors(summary)} sensors in its fit"
               + (f" (set aside: {', '.join(summary['set_aside'])})" if summary["set_aside"] else ""),
-              f"  flag limit      |change| > {summary['flag_threshold_sd']:.2f} sd of the noise"]
+              f"  flag limit      |change| > {summary['flag_threshold_sd']:.2f} sd of the change"]
     last = summary.get("last_row")
     for z in summary["zones"]:
         ch = last["changes"][z] if last else (math.nan, math.nan)

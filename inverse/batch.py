@@ -38,8 +38,12 @@ that difference, so the change is estimated against the random noise only
 (S_row + S_ref), with its own smoothing strength (a prior N(gamma u, (alpha P)^-1) on the
 change of the coefficients).  Estimating it from the difference of two absolute estimates
 instead would shrink it with the offsets' variance, which dominates each row's noise.  Its
-sd is the noise-only sd of the estimator ("noise" sds: sqrt(e_f^2 . S)), which is what a
-change is judged against: with nothing changing, change / sd ~ N(0, 1).
+sd ("change" sds) is the posterior sd at a fixed level plus the spread of the row's own
+level, (f.u - a_f . G u)^2 / (u^T G^T S^-1 G u): what the noise and the unseen part of the
+change leave open, so a change that spills into a neighbouring zone through the smoothing
+stays within that zone's band.  With nothing changing, change / sd is at most N(0, 1); the
+estimator's noise alone ("noise" sds: sqrt(e_f^2 . S)), which the flags used until session
+33, flagged such neighbours.
 """
 
 from __future__ import annotations
@@ -82,7 +86,7 @@ def change_threshold(n_comparisons: int, family_level: float = TREND_FAMILY_LEVE
 @dataclass
 class BatchEstimates:
     """Per-row answers (SI): values and sds of the functionals (R, nf) in the order of
-    `names` (posterior sds, or noise-only sds for a change solver); extremes of the MAP
+    `names` (posterior sds; for a change solver with the row's level's spread); extremes of the MAP
     profile (R,) with sds (NaN for a change solver); n_used (R,) valid sensors (rows with
     fewer than MIN_SENSORS are NaN)."""
 
@@ -134,8 +138,8 @@ class BatchSolver:
         F = np.array([np.asarray(f[1], float) for f in functionals]).reshape(len(functionals), self.K)
         B = np.asarray(grid_B, float).reshape(-1, self.K)
         self.nf, self.Q = F.shape[0], B.shape[0]
-        if sd_kind not in ("posterior", "noise"):
-            raise InverseError("sd_kind must be 'posterior' or 'noise'")
+        if sd_kind not in ("posterior", "noise", "change"):
+            raise InverseError("sd_kind must be 'posterior', 'noise' or 'change'")
         self.sd_kind = sd_kind
         self.Fq = np.vstack([F, B])
         self.kq = np.concatenate([[float(f[2]) for f in functionals], np.asarray(grid_known, float)])
@@ -238,6 +242,11 @@ class BatchSolver:
         fn2 = self.fn2 if rows is None else np.sum(Fn ** 2, axis=1)
         var = np.einsum("uqr,ur->uq", phi ** 2, inv) + np.maximum(fn2[None, :] - np.sum(phi ** 2, axis=2),
                                                                   0.0) / self.alpha
+        if self.sd_kind == "change":
+            # the nominal profile's level is the row's own (GLS, variance 1/den): its spread
+            # adds (f.u - a_f . G u)^2 / den to the posterior variance at a fixed level
+            lead = fu[None, :] - a @ gu
+            var = var + np.where(den[:, None] > 0, lead ** 2 / np.where(den > 0, den, 1.0)[:, None], 0.0)
         return e, var, phi[:, self.nf:, :], inv
 
     @few_threads
@@ -312,14 +321,15 @@ class BatchSolver:
     def changes(self, alpha=None) -> "BatchSolver":
         """Solver for changes: rows are differences of readings d_row - d_ref, random_var
         their variances (S_row + S_ref); t0, the known part of the face and the shared
-        variance cancel; the functionals are those of `change_names`; sds are noise-only.
+        variance cancel; the functionals are those of `change_names`; sds are the changes' own
+        (sd_kind "change": posterior, with the spread of the row's level of the nominal profile).
         alpha: its strength (default half this solver's: the prior of the difference of two
         independent profiles)."""
         funcs = [(n, f, 0.0) for n, f, _ in self._functionals if n in self.change_names]
         return BatchSolver(self.G, np.zeros(self.n), 1.0 / self.p_isqrt ** 2,
                            self.alpha / 2 if alpha is None else alpha, funcs, np.zeros((0, self.K)),
                            np.zeros(0), np.zeros(self.n), self.u, change_names=[f[0] for f in funcs],
-                           sd_kind="noise")
+                           sd_kind="change")
 
     # ------------------------------------------------------------------ strength
     @few_threads
@@ -423,7 +433,7 @@ class BatchSolver:
         over that log-spaced grid), weighted by the row's own evidence:
         w_ra = p(d_r | alpha_a) / sum_b p(d_r | alpha_b),  mean_r = sum_a w_ra m_ra,
         var_r = sum_a w_ra (sd_ra^2 + m_ra^2) - mean_r^2  (a Gaussian mixture's moments;
-        sd: this solver's kind, noise-only for a change solver).  With one noise for every
+        sd: this solver's kind).  With one noise for every
         row (random_var (n,)), per missing-value pattern one SVD gives every row's evidence
         (log p(d | alpha) up to a term free of alpha: -1/2 [sum_j log(1 + s_j^2/alpha) +
         sum_j beta_j^2 alpha / (s_j^2 + alpha)]) and the estimators at every strength one

@@ -271,7 +271,7 @@ class TrendModel:
         return checks.clean(self.changes, self.ref_d, self.ref_rv, start, d, rv, reference_mask)
 
     def changes_of(self, d, rv, reference_mask=None):
-        """Changes of each zone from the reference and their noise-only sd, (R, zones) each:
+        """Changes of each zone from the reference and their sd (the change solver's), (R, zones) each:
         d (R, used) readings [K], rv ((used,) or (R, used)) their random variances [K^2];
         rows in reference_mask (the reference window itself) are exactly 0 +- 0."""
         var = rv + self.ref_rv
