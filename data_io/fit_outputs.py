@@ -7,7 +7,7 @@ import numpy as np
 import pandas as pd
 
 from .display import FILE_UNITS, deg, file_display, power_unit, power_words
-from .report_format import eng, length_scale_text, percent, pm95_of
+from .report_format import eng, flux_relation, length_scale_text, pm95_of
 
 #: sensor readings and predictions are temperatures whatever the face quantity
 _TEMPERATURE = file_display("temperature")
@@ -182,8 +182,10 @@ def summary_lines(result) -> list[str]:
     width = max([10] + [len(str(z["name"])) for z in s["zones"]])
     for z in s["zones"]:
         dev = z["deviation_from_face_mean"]
-        rel = f" ({'+' if dev >= 0 else '-'}{percent(abs(dev / s['mean']))})" \
-            if s["quantity"] == "heat_flux" and s["mean"] else ""
+        rel = ""
+        if s["quantity"] == "heat_flux" and s["mean"]:
+            size, relation = flux_relation(dev, s["mean"])
+            rel = f" ({size} {relation})" if "heat" in relation else f" ({'+' if dev >= 0 else '-'}{size})"
         lines.append(f"  zone {z['name']:<{width}} {_pm(z['mean'], z['sd'], u)}, "
                      f"{'+' if dev >= 0 else '-'}{eng(abs(dev))} {du}{rel} from the face mean")
     if "calibrated" in s:

@@ -122,6 +122,17 @@ def percent(x, n: int = 2) -> str:
     return f"{sig(100.0 * float(x), n)} %" if _finite(x) else "–"
 
 
+def flux_relation(dev, mean) -> tuple[str, str]:
+    """(size, relation) of a zone's flux deviation dev from the face mean (same unit):
+    ('16 %', 'below') or 'above'; on a face that heat leaves through (mean < 0: a bore heating
+    the fluid) a less negative flux passes less heat: ('33 %', 'less heat out') or 'more heat
+    out'."""
+    size = percent(abs(float(dev)) / abs(float(mean)))
+    if float(mean) < 0:
+        return size, "less heat out" if dev > 0 else "more heat out"
+    return size, "below" if dev < 0 else "above"
+
+
 class _Fmt:
     """Formatting of the face quantity of one result in its display unit."""
 

@@ -17,7 +17,7 @@ import math
 import numpy as np
 
 from .display import power_unit, power_words
-from .report_format import _Fmt, _finite, _position, eng, half95, percent, power_pm, sig
+from .report_format import _Fmt, _finite, _position, eng, flux_relation, half95, percent, power_pm, sig
 from .units import from_si
 
 #: words of a warning that says the data cannot resolve something
@@ -38,12 +38,12 @@ def _zone_phrase(z, fmt: _Fmt, mean_si, distance: bool = True) -> str:
         dev = float(z["mean"]) - float(mean_si)
     text = f"{z.get('name', '')}, at {fmt.pm(z.get('mean'), z.get('sd'))}"
     if distance and _finite(dev):
-        side = "below" if dev < 0 else "above"
         if temp or not _finite(mean_si) or float(mean_si) == 0:
-            size = fmt.eng_diff(abs(dev))
+            text += f", {fmt.eng_diff(abs(dev))} {'below' if dev < 0 else 'above'} the face mean"
         else:
-            size = percent(abs(dev) / abs(float(mean_si)))
-        text += f", {size} {side} the face mean"
+            size, relation = flux_relation(dev, mean_si)
+            text += f", {size} {relation} than the face mean" if "heat" in relation else \
+                f", {size} {relation} the face mean"
     frac, frac_sd = z.get("delivered_fraction"), z.get("delivered_fraction_sd")
     if _finite(frac):
         text += f"; it delivers {percent(frac, 3)}"

@@ -332,3 +332,18 @@ def test_a_face_that_passes_heat_out_ranks_zones_by_the_heat_they_pass():
               "deviation_from_face_mean": -1100.0}]
     text = " ".join(zone_sentences({"mean": -7400.0, "zones": zones}, _Fmt(result)))
     assert "The weakest zone is fouled" in text and "The strongest zone is clean" in text
+    # and its distance in heat passed: 1400 / 7400 = 19 % less (it said "19 % above the face
+    # mean" beside "weakest"), 1100 / 7400 = 15 % more
+    assert "19 % less heat out than the face mean" in text and "15 % more heat out than the face mean" in text
+    assert "above" not in text and "below" not in text
+
+
+def test_a_zones_share_of_heat_out_in_words():
+    """The rule the console's zone lines and the verdict share: on a face heat leaves through
+    '19 % less heat out' where the console printed '(+19 %)' for the zone passing less heat
+    (invented figures)."""
+    from heatsight.data_io.report_format import flux_relation
+
+    assert flux_relation(1400.0, -7400.0) == ("19 %", "less heat out")
+    assert flux_relation(-1100.0, -7400.0) == ("15 %", "more heat out")
+    assert flux_relation(-1100.0, 7400.0) == ("15 %", "below")
