@@ -102,6 +102,7 @@ class LogReader:
         self.missing = np.zeros(n, np.int64)
         self.out_of_range = np.zeros(n, np.int64)
         self._range_first: list = [None] * n
+        self._empty_lines = np.zeros((n, 2), np.int64)       # first and last line of an empty reading
         self._types = [layout.frame.at[s, "type"] if layout is not None else "" for s in columns.sensors]
         lo, hi = np.zeros(n), np.full(n, MAX_TEMPERATURE_K)
         for i, typ in enumerate(self._types):
@@ -183,6 +184,13 @@ class LogReader:
         values = np.empty((len(frame), self.cols.n))
         for i, col in enumerate(self.cols.positions):
             values[:, i] = self._sensor(frame[col], lines, col)
+        empty = np.isnan(values)
+        if empty.any():
+            for i in np.flatnonzero(empty.any(axis=0)):
+                at = lines[np.flatnonzero(empty[:, i])]
+                if not self._empty_lines[i, 0]:
+                    self._empty_lines[i, 0] = int(at[0])
+                self._empty_lines[i, 1] = int(at[-1])
         values = self._screen(values, lines)
         self.missing += np.isnan(values).sum(axis=0)
         self._note_gaps(t, lines)
@@ -334,6 +342,7 @@ class LogReader:
     def warnings(self, with_path: bool = True) -> list[str]:
         cols, out = self.cols, []
         path = cols.path if with_path else "the log"
+        empty: dict = {}                    # (count, first line, last line) -> sensors
         for i, s in enumerate(cols.sensors):
             n_bad = int(self.out_of_range[i])
             if n_bad:
@@ -347,7 +356,14 @@ class LogReader:
             if self.rows and int(self.missing[i]) == self.rows:
                 out.append(f"{path}: sensor '{s}' has no valid reading")
             elif n_missing > 0:
-                out.append(f"{path}: sensor '{s}' has {_plural(n_missing, 'empty, NaN or inf reading')} (missing)")
+                empty.setdefault((n_missing, *map(int, self._empty_lines[i])), []).append(s)
+        for (n_missing, first, last), names in empty.items():
+            where = f"line {first}" if first == last else f"lines {first} to {last}"
+            who = (f"sensor '{names[0]}' has" if len(names) == 1 else
+                   f"{'all ' if len(names) == len(cols.sensors) else ''}{len(names)} sensors "
+                   f"({', '.join(names[:6])}{', ...' if len(names) > 6 else ''}) have")
+            out.append(f"{path}: {who} {_plural(n_missing, 'empty, NaN or inf reading')}"
+                       f"{' each' if len(names) > 1 else ''} ({where}; missing)")
         if self.gaps:
             examples = ", ".join(f"lines {a}-{b} ({d:.4g} s)" for a, b, d in self._gap_examples)
             out.append(f"{path}: {_plural(self.gaps, 'gap')} in time longer than {GAP_FACTOR:g} typical steps "

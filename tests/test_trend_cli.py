@@ -263,6 +263,7 @@ def test_extra_and_missing_columns_and_gaps_are_warnings(tmp_path, monkeypatch, 
     frame.insert(0, "time [s]", t)
     frame["water [degC]"] = 40.0
     frame.loc[5, "TC02"] = np.nan
+    frame.loc[40, [c for c in frame.columns if c.startswith("TC")]] = np.nan     # a row the logger lost
     frame.to_csv(folder / "log.csv", index=False, float_format="%.4f")
     code, cap = trend(folder, monkeypatch, capsys, "--log", "log.csv", "--out", "res")
     assert code == 0, cap.err
@@ -270,7 +271,12 @@ def test_extra_and_missing_columns_and_gaps_are_warnings(tmp_path, monkeypatch, 
     text = " | ".join(warnings)
     assert "column 'water [degC]' is not a sensor of the layout; ignored" in text
     assert "no column for sensor TC07" in text
-    assert "1 gap in time" in text and "TC02' has 1 empty" in text
+    assert "1 gap in time" in text
+    # the empty row is one warning for the 18 sensors with no other gap, with its line (header line 1, row 40
+    # on line 42); TC02 has its own two, lines 7 and 42
+    assert "sensor 'TC02' has 2 empty, NaN or inf readings (lines 7 to 42; missing)" in text
+    assert "log.csv: 18 sensors (TC01, TC03, TC04, TC05, TC06, TC08, ...) have 1 empty, NaN or inf reading each (line 42" in text
+    assert sum("empty, NaN or inf" in w for w in warnings) == 2
     assert "TC07" not in json.loads((folder / "res" / "summary.json").read_text())["sensors_used"]
     assert "warning: " in cap.err and "warning: " not in cap.out    # issue 10: warnings go to stderr
 
