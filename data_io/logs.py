@@ -145,7 +145,7 @@ class LogReader:
             detail = (f"line {int(m.group(1)) + cols.header_line} has {m.group(2)} fields" if m else msg)
             raise InputError(f"malformed CSV: {detail} but the header has {width}; every line needs one field "
                              f"per column (fields separated by {fmt.separator_name})", file=cols.path) from None
-        except UnicodeDecodeError as exc:
+        except UnicodeDecodeError:
             line = undecodable_line(cols.path, fmt.encoding)
             at = f"line {line}: " if line else ""
             raise InputError(f"{at}is not {ENCODING_NAMES.get(fmt.encoding, fmt.encoding)} text like the lines "
