@@ -207,6 +207,10 @@ def compute_plan(case, add: int, candidates=None, targets=None, readings=None, f
         value = sensor_value(state)
     except (InverseError, ForwardModelError) as exc:
         raise InputError(str(exc), file=case.path) from None
+    if face == case.unknown_face:
+        warnings.append(f"the holes go in from the {face} face, the face being estimated: check that it can be "
+                        "reached (a heater, a cooling plate or the fluid may cover it) and that the holes do not "
+                        "change what it does ([plan] drill_from)")
     if len(plan.picks) < add:
         warnings.append(f"only {len(plan.picks)} of the {add} sensors asked for fit the rules")
     if case.cylinder.hollow and len(plan.picks):      # the plan proposes holes in a wall

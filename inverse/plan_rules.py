@@ -263,8 +263,11 @@ def candidate_grid(rules: PlanRules, face: str, cylinder, existing=None):
     dmax = min(rules.depth_max if rules.depth_max is not None else deep, deep)
     dmin = max(rules.depth_min, g)
     if dmax < dmin:
-        raise InverseError(f"no depth is allowed: the depth range ends at {dmax * 1e3:.3g} mm, below "
-                           f"{dmin * 1e3:.3g} mm")
+        upper = ("[plan] depth_max" if rules.depth_max is not None and rules.depth_max <= deep else
+                 f"the part's {'wall' if face == 'side' else 'height'} less [plan] face_distance")
+        lower = "[plan] depth_min" if rules.depth_min >= g else "[plan] face_distance"
+        raise InverseError(f"no depth is allowed: the depth range ends at {dmax * 1e3:.3g} mm ({upper}), below "
+                           f"{dmin * 1e3:.3g} mm ({lower})")
     depths = np.linspace(dmin, dmax, rules.depths) if rules.depths > 1 else np.array([0.5 * (dmin + dmax)])
     n_theta = max(1, int(round(2 * math.pi / rules.angle_step)))
     theta = 2 * math.pi * np.arange(n_theta) / n_theta

@@ -138,6 +138,9 @@ def test_bad_plan_table(tmp_path, capsys, monkeypatch):
     for table, fragment in (('\n[plan]\ndrill_from = "inside"\n', "plan.drill_from"),
                             ('\n[plan]\nexisting_from = "rim"\n', "plan.existing_from"),
                             ('\n[plan]\nspacing = 5\n', "plan.spacing"),
+                            ('\n[plan]\ndepth_min = "50 mm"\n',
+                             "the depth range ends at 38 mm (the part's height less [plan] face_distance), below "
+                             "50 mm ([plan] depth_min)"),
                             ('\n[plan]\nexpected_variation = "2 K"\n', "plan.expected_variation"),
                             ('\n[plan]\nspacng = "5 mm"\n', "did you mean 'spacing'")):
         folder = tmp_path / fragment.split("'")[0].strip().replace(" ", "_")
@@ -148,3 +151,14 @@ def test_bad_plan_table(tmp_path, capsys, monkeypatch):
         err = capsys.readouterr().err
         assert code == 2 and fragment in err and err.count("\n") == 1, err
         assert not (folder / "out").exists()
+
+
+def test_holes_through_the_estimated_face_are_questioned(tmp_path, capsys, monkeypatch):
+    """drill_from = "bottom" on the platen: the holes would go in through its heater face, the
+    one being estimated; the plan was made without a word."""
+    folder = make_folder(tmp_path, plan=PLAN_TABLE + 'drill_from = "bottom"\n')
+    monkeypatch.chdir(folder)
+    code = main(["plan", "platen.toml", "--add", "1", "--out", "out"])
+    err = capsys.readouterr().err
+    assert code == 0, err
+    assert "the holes go in from the bottom face, the face being estimated" in err
