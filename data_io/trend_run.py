@@ -130,6 +130,7 @@ class TrendRun:
         self.pending_rows = 0
         self.row_counter = 0
         self.trend_rows = 0
+        self.log_end = 0.0              # the last time [s] seen, for times said in one unit
         self.skipped = 0
         self.stream = None
         self.digest = Digest()
@@ -229,6 +230,7 @@ class TrendRun:
         R = start.size
         if R == 0:
             return
+        self.log_end = max(self.log_end, float(np.max(end)))
         zones = self.model.zone_names
         change, csd = self.model.changes_of(d, rv, reference_mask)
         flag = self.flags.update(start, end, change, csd, self.ref_window[0])
@@ -349,6 +351,7 @@ class TrendRun:
         moving = np.flatnonzero(stats.complete & ~stats.steady(self.drift))
         if not moving.size:
             return
+        self.log_end = max(self.log_end, float(np.max(stats.end)))
         runs = np.split(moving, np.flatnonzero(np.diff(moving) > 1) + 1)
         spans = [f"{self._when(stats.start[r[0]])} to {self._when(stats.end[r[-1]])}" for r in runs[:3]]
         more = f" and {len(runs) - 3} more stretches" if len(runs) > 3 else ""
@@ -389,7 +392,7 @@ class TrendRun:
         """A row's start time for a sentence: ISO 8601 for timestamps, else seconds or hours."""
         from .trend_text import log_time
 
-        return str(self.reader.iso([t])[0]) if self.reader.timestamps else f"t = {log_time(t)}"
+        return str(self.reader.iso([t])[0]) if self.reader.timestamps else f"t = {log_time(t, self.log_end)}"
 
     def _fault_records(self) -> list[dict]:
         out = []

@@ -64,13 +64,23 @@ class _Units:
         return pm95_of(x * self.scale, sd * self.scale if _finite(sd) else None, self.diff_unit)
 
 
-def log_time(t) -> str:
-    """A time on the log's axis: hours from 2 h on (as on the trend figure), else seconds."""
-    return f"{eng(t / 3600.0)} h" if abs(t) >= 7200.0 else f"{eng(t)} s"
+def log_time(t, span=None) -> str:
+    """A time on the log's axis, in one unit for the whole log: hours when the log (span: its
+    last time [s]; default t itself) reaches 2 h, as on the trend figure, else seconds."""
+    return f"{eng(t / 3600.0)} h" if abs(t if span is None else span) >= 7200.0 else f"{eng(t)} s"
 
 
-def _when(f) -> str:
-    return f.get("first_flagged_start_iso") or f"t = {log_time(f['first_flagged_start_s'])}"
+def _span(summary) -> float:
+    """The log's last time [s] the summary holds: its last row's, or a flag's or a sensor
+    fault's when later (0 without any)."""
+    times = [(summary.get("last_row") or {}).get("end_s")]
+    times += [f.get("first_flagged_end_s", f.get("first_flagged_start_s")) for f in summary.get("flags") or ()]
+    times += [f.get("last_start_s") for f in summary.get("sensor_faults") or ()]
+    return max([float(t) for t in times if t is not None and _finite(t)] or [0.0])
+
+
+def _when(f, span) -> str:
+    return f.get("first_flagged_start_iso") or f"t = {log_time(f['first_flagged_start_s'], span)}"
 
 
 def _rows(n) -> str:
@@ -88,7 +98,7 @@ def flag_sentences(summary: dict, report: bool = True) -> list[str]:
     for f in sorted(summary["flags"], key=size):
         z = f["zone"]
         ch = (last.get("changes") or {}).get(z)
-        text = f"Zone {z} changed beyond its flag limit from {_when(f)} ({_rows(f['flagged_rows'])} flagged)"
+        text = f"Zone {z} changed beyond its flag limit from {_when(f, _span(summary))} ({_rows(f['flagged_rows'])} flagged)"
         if ch:
             text += f"; by the last row it has changed by {u.change(ch[0], ch[1])} from the reference window"
         out.append(text + ".")
@@ -97,7 +107,7 @@ def flag_sentences(summary: dict, report: bool = True) -> list[str]:
         out.append(f"No zone changed beyond its flag limit over the log ({summary['trend_rows']} rows inverted"
                    + (f", {n} zones followed)." if n else "; the case defines no zones)."))
     for f in summary.get("sensor_faults") or ():
-        when = f.get("first_start_iso") or f"t = {log_time(f['first_start_s'])}"
+        when = f.get("first_start_iso") or f"t = {log_time(f['first_start_s'], _span(summary))}"
         out.append(f"Sensor {f['sensor']} disagreed with the others from {when} and was left out of "
                    f"{_rows(f['rows'])}: check that thermocouple (a fault, not a heater change).")
     return out
@@ -119,7 +129,7 @@ def trend_html(summary: dict, figure_png: bytes, reader_timestamps: bool) -> str
     e = lambda s: escape(str(s), quote=True)  # noqa: E731
     ref = summary["reference_window"]
     when = (f"{ref['start_iso']} to {ref['end_iso']}" if "start_iso" in ref
-            else f"t = {log_time(ref['start_s'])} to {log_time(ref['end_s'])}")
+            else f"t = {log_time(ref['start_s'], _span(summary))} to {log_time(ref['end_s'], _span(summary))}")
     if summary["mode"] == "every":
         what = f"{_every_words(summary['every'])} of the log ({summary['trend_rows']} rows)"
     else:
@@ -134,7 +144,7 @@ def trend_html(summary: dict, figure_png: bytes, reader_timestamps: bool) -> str
     flagged_first = sorted(summary["zones"], key=lambda z: not any(x["zone"] == z for x in summary["flags"]))
     for z in flagged_first:
         f = next((x for x in summary["flags"] if x["zone"] == z), None)
-        flagged = f"yes, from {_when(f)} ({_rows(f['flagged_rows'])})" if f else "no"
+        flagged = f"yes, from {_when(f, _span(summary))} ({_rows(f['flagged_rows'])})" if f else "no"
         ch = last["changes"].get(z) if last else None
         rows.append(f"<tr><td>{e(z)}</td><td>{e(flagged)}</td>"
                     f"<td class=\"num\">{e(u.change(ch[0], ch[1]) if ch else '–')}</td>"
@@ -197,7 +207,7 @@ def console_lines(summary: dict, folder) -> str:
               f"{_window_count(summary)}",
               f"  trend rows      {summary['trend_rows']}"
               + (f" ({_every_words(summary['every'])})" if summary["mode"] == "every" else " (steady windows)"),
-              f"  reference       t = {eng(ref['start_s'])} to {eng(ref['end_s'])} s; "
+              f"  reference       t = {log_time(ref['start_s'], _span(summary))} to {log_time(ref['end_s'], _span(summary))}; "
               f"{_reference_sensors(summary)} sensors in its fit"
               + (f" (set aside: {', '.join(summary['set_aside'])})" if summary["set_aside"] else ""),
               f"  flag limit      |change| > {summary['flag_threshold_sd']:.2f} sd of the change"]

@@ -8,6 +8,7 @@ offsets and noise; the leave-one-out scores are checked against refits without e
 """
 
 import json
+import re
 
 import numpy as np
 import pandas as pd
@@ -217,6 +218,25 @@ def test_the_window_counts_agree(tmp_path, monkeypatch, capsys):
     text = capsys.readouterr()
     assert f"{w['steady']} of 24 complete windows (and 1 incomplete, not used)" in text.out
     assert f"{24 - w['steady']} of 24 windows were not steady" in text.err + text.out
+
+
+def test_times_are_said_in_one_unit_per_log(tmp_path, monkeypatch, capsys):
+    """A sensor failing from t = 1 h in a 4-h log: its warning said "t = 3600 s" beside the
+    figure's hours and "t = 2.33 h" elsewhere in the same block; a log that reaches 2 h now
+    says every time in hours."""
+    from heatsight.data_io.trend_text import log_time
+
+    assert log_time(3600.0, 14400.0) == "1.00 h" and log_time(3600.0, 3600.0) == "3600 s"
+    folder = make_folder(tmp_path)
+    _log(folder, np.zeros(int(4 * 3600 / DT)), fault=("TC09", 3600.0, 3.0))
+    monkeypatch.chdir(folder)
+    assert main(["trend", "platen.toml", "--log", "log.csv", "--out", "out"]) == 0
+    text = capsys.readouterr()
+    said = text.out + text.err
+    assert "TC09 disagreed with the others from t = 1.00 h" in said
+    assert "reference       t = 0 h to 0.164 h" in said and not re.search(r"t = [0-9.]+ s", said)
+    summary = json.loads((folder / "out" / "summary.json").read_text())
+    assert any("t = 1.00 h" in w for w in summary["warnings"] if "TC09" in w)
 
 
 def test_a_heater_loss_under_one_thermocouple_is_the_parts_not_a_fault(tmp_path, monkeypatch):
