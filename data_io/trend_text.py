@@ -176,8 +176,9 @@ def trend_html(summary: dict, figure_png: bytes, reader_timestamps: bool) -> str
               f"chance of any false flag over all {summary['flag_comparisons']} rows and zones below "
               f"{summary['flag_family_level']:.0%}). A large change of one zone spreads a little into its "
               f"neighbours through the fit's smoothing, within their bands; the zone that moves most is "
-              f"where the change is. A smoothed change of a zone with sharp edges comes out somewhat "
-              f"smaller than it is.</p>",
+              f"where the change is. Each zone may change by a step of its own over its whole area as well "
+              f"as smoothly, so a heater zone's loss keeps its edges; a change that follows no zone is "
+              f"smoothed and comes out somewhat smaller than it is.</p>",
               f"<p>Before a row is inverted, each sensor's change is checked against what the other sensors "
               f"predict (a limit of {summary.get('sensor_check_threshold_sd', math.nan):.2f} sd, over all rows "
               f"and sensors); one beyond it is left out of that row, so that a thermocouple failing partway "
