@@ -85,7 +85,7 @@ def test_trend_reference_row_is_the_fit_and_holds_the_truth(tmp_path):
     assert rows["nonuniformity_sd_K"].iloc[0] == pytest.approx(ref["nonuniformity_sd"], rel=1e-6)
     truth = json.loads((gen.OUT / "truth.json").read_text())["total_power_W"]
     assert abs(rows["total_power_W"].iloc[0] - truth) < 2 * rows["total_power_sd_W"].iloc[0]
-    # changes carry none of it: noise-only sds, a few hundredths of a kelvin here
+    # changes carry none of it (offsets, the left-out modes): a few hundredths of a kelvin here
     assert rows[f"{zone}_change_sd_K"].max() < 0.05
 
 
