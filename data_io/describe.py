@@ -121,8 +121,20 @@ def describe_case(case: Case) -> list[str]:
     strength = f"{f.strength:g} (fixed)" if f.strength_method == "fixed" else f"auto ({f.strength_method})"
     extra = "".join(f", {key} {getattr(f, key)}" for key in ("terms", "harmonics") if getattr(f, key) is not None)
     if case.unknown_face:
-        lines.append(f"fit: strength {strength}, smoothing {f.smoothing}, keep_all_sensors "
+        learned = getattr(f, "prior", "learned") == "learned" and f.strength_method == "evidence"
+        prior = ("prior learned (strength, length scale and smoothness order from the readings)" if learned
+                 else f"prior fixed (strength {strength}, smoothing {f.smoothing})")
+        lines.append(f"fit: {prior}, model {getattr(f, 'model', 'auto')}, keep_all_sensors "
                      f"{'true' if f.keep_all_sensors else 'false'}{extra}")
+        more = []
+        if f.calibrate:
+            more.append("calibrated with the face: " + ", ".join(f"{face}.{p}" for face, p in f.calibrate))
+        if f.common_offset_sd is not None:
+            more.append(f"an offset shared by all sensors, sd {format_quantity(f.common_offset_sd, 'temperature_difference')}")
+        if f.loss != "linear":
+            more.append(f"loss {f.loss}")
+        if more:
+            lines.append("fit: " + "; ".join(more))
     for z in case.zones:
         th = f"theta {math.degrees(z.theta[0]):.4g} to {math.degrees(z.theta[1]):.4g} deg"
         if z.r is not None:

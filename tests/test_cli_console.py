@@ -39,6 +39,22 @@ def test_json_rows_of_simulate(tmp_path, monkeypatch, capsys):
     assert data["columns"][:3] == ["r_mm", "theta_deg", "z_mm"] and len(data["rows"]) == 2
 
 
+def test_check_says_what_the_fit_will_do(folder, capsys):
+    """check named a smoothing the default learned prior does not use and left out a
+    calibration; it now says which prior, which model, and what is fitted with the face."""
+    assert main(["check", "case.toml"]) == 0
+    out = capsys.readouterr().out
+    assert "fit: prior learned (strength, length scale and smoothness order from the readings), model auto" in out
+    assert "smoothing" not in out
+    text = (folder / "case.toml").read_text()
+    (folder / "case.toml").write_text(text + '\n[fit]\nprior = "fixed"\ncommon_offset = "0.5 K"\n'
+                                             'calibrate = ["top.h"]\n')
+    assert main(["check", "case.toml"]) == 0
+    out = capsys.readouterr().out
+    assert "fit: prior fixed (strength auto (evidence), smoothing gradient)" in out
+    assert "fit: calibrated with the face: top.h; an offset shared by all sensors, sd 0.5 K" in out
+
+
 def test_quiet_prints_nothing_but_warnings(folder, capsys):
     (folder / "readings.csv").write_text((folder / "readings.csv").read_text() + "water,20\n")
     assert main(["check", "case.toml", "--quiet"]) == 0
