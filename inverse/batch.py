@@ -356,15 +356,16 @@ class BatchSolver:
         funcs = [(n, f, 0.0) for n, f, _ in self._functionals if n in self.change_names]
         G, P, u = self.G, 1.0 / self.p_isqrt ** 2, self.u
         steps = self.zone_steps()
-        if steps is not None:
+        if steps is not None and all(n in steps[1] for n, _, _ in funcs):
             # a step level per zone, its prior variance at strength alpha that of its zone's mean
             # under the smooth prior (the nominal direction left out): v_j / alpha
             Gz, rows, names = steps
             free = u > 0
             v = np.array([np.sum(rows[n][:self.K][~free] ** 2 / P[~free]) for n in names])
-            G, P = np.hstack([G, Gz]), np.concatenate([P, 1.0 / v])
-            u = np.concatenate([u, np.zeros(len(names))])
-            funcs = [(n, rows[n], 0.0) for n, _, _ in funcs]
+            keep = v > 0                # a zone all of whose mean is the nominal level has no step
+            G, P = np.hstack([G, Gz[:, keep]]), np.concatenate([P, 1.0 / v[keep]])
+            u = np.concatenate([u, np.zeros(int(keep.sum()))])
+            funcs = [(n, np.concatenate([rows[n][:self.K], rows[n][self.K:][keep]]), 0.0) for n, _, _ in funcs]
         return BatchSolver(G, np.zeros(self.n), P, self.alpha / 2 if alpha is None else alpha, funcs,
                            np.zeros((0, G.shape[1])), np.zeros(0), np.zeros(self.n), u,
                            change_names=[f[0] for f in funcs], sd_kind="change")
