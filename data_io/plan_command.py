@@ -172,6 +172,27 @@ def _candidates(case, state, frame, path, face, warnings):
     return r[ok], th[ok], z[ok]
 
 
+def heated_entries(case, face, positions, picks) -> str:
+    """A warning naming the picks whose hole enters the drill face where the case gives that
+    face a heat flux (a heater may cover it there), or ''."""
+    from ..forward.faces import Flux
+    from .plan_outputs import PICK_PREFIX
+    from .report_format import eng
+
+    cond = case.faces.get(face)
+    if not isinstance(cond, Flux) or not len(picks):
+        return ""
+    r, th, z = (np.asarray(x, float)[list(picks)] for x in positions)
+    q = np.broadcast_to(np.asarray(cond.data(th, z) if face == "side" else cond.data(r, th), float), r.shape)
+    hot = np.flatnonzero(np.abs(q) > 0)
+    if not hot.size:
+        return ""
+    names = ", ".join(f"{PICK_PREFIX}{i + 1}" for i in hot)
+    return (f"{names} {'enters' if hot.size == 1 else 'enter'} the {face} face where the case gives it a heat flux (up to "
+            f"{eng(float(np.max(np.abs(q[hot]))))} W/m^2): a heater may cover it there; check that they "
+            f"can be drilled, or keep the grid off it with [plan] exclude_theta / exclude_r / exclude_z")
+
+
 def compute_plan(case, add: int, candidates=None, targets=None, readings=None, fit=None, stage=None) -> PlanRun:
     """Plan `add` new sensors for the case (a data_io Case): targets as in inverse.plan.target_list
     (default `default_targets`), readings: a snapshot path (default: the case's, if any); fit:
@@ -211,6 +232,9 @@ def compute_plan(case, add: int, candidates=None, targets=None, readings=None, f
         warnings.append(f"the holes go in from the {face} face, the face being estimated: check that it can be "
                         "reached (a heater, a cooling plate or the fluid may cover it) and that the holes do not "
                         "change what it does ([plan] drill_from)")
+    covered = heated_entries(case, face, pos, plan.picks)
+    if covered:
+        warnings.append(covered)
     if len(plan.picks) < add:
         warnings.append(f"only {len(plan.picks)} of the {add} sensors asked for fit the rules")
     if case.cylinder.hollow and len(plan.picks):      # the plan proposes holes in a wall

@@ -162,3 +162,20 @@ def test_holes_through_the_estimated_face_are_questioned(tmp_path, capsys, monke
     err = capsys.readouterr().err
     assert code == 0, err
     assert "the holes go in from the bottom face, the face being estimated" in err
+
+
+def test_holes_entering_a_heated_stretch_of_the_drill_face_are_named():
+    """A tube's outer wall carries a band heater at z = 80-260 mm (a flux profile): the plan
+    put a hole's entry under it without a word (the tube demo's new4 at z = 225 mm).  Picks
+    whose entry point gets a heat flux are named (invented positions)."""
+    import types
+
+    import heatsight.forward as fw
+    from heatsight.data_io.plan_command import heated_entries
+
+    band = fw.Flux(lambda th, z: np.where((np.asarray(z) >= 0.08) & (np.asarray(z) <= 0.26), 11000.0, 0.0))
+    case = types.SimpleNamespace(faces={"side": band, "top": fw.Insulated()})
+    pos = (np.array([0.07, 0.07, 0.07]), np.radians([0.0, 90.0, 180.0]), np.array([0.05, 0.225, 0.30]))
+    text = heated_entries(case, "side", pos, [0, 1, 2])
+    assert text.startswith("new2 enters the side face where the case gives it a heat flux (up to 11000 W/m^2)")
+    assert heated_entries(case, "side", pos, [0, 2]) == "" and heated_entries(case, "top", pos, [1]) == ""
