@@ -148,12 +148,17 @@ def segment_distance(p0, p1, q0, q1) -> np.ndarray:
     tiny = 1e-30
     den = a * e - b * b
     s = np.where(den > 1e-12 * np.maximum(a * e, tiny), np.clip((b * f - c * e) / np.maximum(den, tiny), 0, 1), 0.0)
-    t = np.where(e > tiny, (b * s + f) / np.maximum(e, tiny), 0.0)
+    t = (b * s + f) / np.maximum(e, tiny)
     low, high = t < 0, t > 1
     t = np.clip(t, 0.0, 1.0)
     s = np.where(low, np.clip(-c / np.maximum(a, tiny), 0, 1), s)
     s = np.where(high, np.clip((b - c) / np.maximum(a, tiny), 0, 1), s)
+    # a point for a segment: the other's nearest point to it
+    point_q = e <= tiny
+    s = np.where(point_q, np.clip(-c / np.maximum(a, tiny), 0, 1), s)
+    t = np.where(point_q, 0.0, t)
     s = np.where(a > tiny, s, 0.0)
+    t = np.where((a <= tiny) & ~point_q, np.clip(f / np.maximum(e, tiny), 0, 1), t)
     gap = w + s[:, :, None] * d1 - t[:, :, None] * d2
     return np.sqrt(np.sum(gap * gap, axis=2))
 
