@@ -210,8 +210,11 @@ class BatchSolver:
             zd = ZoneDesign(design, zones, nearest_distance(design, r, z))
             Gz = zd.at(r, theta, z)[0][:, self.K:]
             rows = {name: f for name, f, _ in face_functionals(zd, zones)}
-            if all(zn.name in rows for zn in zones):
-                self._steps = (Gz, rows, [zn.name for zn in zones])
+            has = np.array([zn.name in rows for zn in zones])     # a zone covering nothing has none
+            if has.any():
+                keep = np.concatenate([np.ones(self.K, bool), has])
+                self._steps = (Gz[:, has], {n: f[keep] for n, f in rows.items()},
+                               [zn.name for zn, h in zip(zones, has) if h])
         return self._steps
 
     def _copy(self) -> "BatchSolver":
@@ -356,16 +359,17 @@ class BatchSolver:
         funcs = [(n, f, 0.0) for n, f, _ in self._functionals if n in self.change_names]
         G, P, u = self.G, 1.0 / self.p_isqrt ** 2, self.u
         steps = self.zone_steps()
-        if steps is not None and all(n in steps[1] for n, _, _ in funcs):
+        if steps is not None:
             # a step level per zone, its prior variance at strength alpha that of its zone's mean
             # under the smooth prior (the nominal direction left out): v_j / alpha
             Gz, rows, names = steps
             free = u > 0
             v = np.array([np.sum(rows[n][:self.K][~free] ** 2 / P[~free]) for n in names])
-            keep = v > 0                # a zone all of whose mean is the nominal level has no step
+            keep = v > 1e-12 * max(float(np.max(v)), 1e-300)   # a zone whose mean is all nominal level: none
             G, P = np.hstack([G, Gz[:, keep]]), np.concatenate([P, 1.0 / v[keep]])
             u = np.concatenate([u, np.zeros(int(keep.sum()))])
-            funcs = [(n, np.concatenate([rows[n][:self.K], rows[n][self.K:][keep]]), 0.0) for n, _, _ in funcs]
+            funcs = [(n, np.concatenate([rows[n][:self.K], rows[n][self.K:][keep]]) if n in rows else
+                      np.concatenate([f, np.zeros(int(keep.sum()))]), 0.0) for n, f, _ in funcs]
         return BatchSolver(G, np.zeros(self.n), P, self.alpha / 2 if alpha is None else alpha, funcs,
                            np.zeros((0, G.shape[1])), np.zeros(0), np.zeros(self.n), u,
                            change_names=[f[0] for f in funcs], sd_kind="change")
@@ -485,6 +489,8 @@ class BatchSolver:
         rv = np.asarray(random_var, float)
         if rv.ndim == 2:
             return self._averaged_by_solves(d, rv, alphas)
+        if d.shape[1] != self.n:
+            raise InverseError(f"rows must have {self.n} readings, got {d.shape[1]}")
         if rv.shape != (self.n,) or np.any(~(rv > 0)):
             raise InverseError(f"random_var must be {self.n} positive variances")
         R = d.shape[0]

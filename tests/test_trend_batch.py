@@ -271,6 +271,20 @@ def test_a_sectors_loss_with_sharp_edges_is_held_by_its_zones_step(loss):
     assert np.median(np.abs(miss)) > 3.0
 
 
+def test_a_zone_covering_nothing_leaves_the_others_their_steps():
+    """A zone declared beyond the rim (r = 200-300 mm of a 150 mm platen) covers nothing: it
+    switched the steps off for every zone, silently; now the others keep theirs."""
+    from heatsight.inverse.problem import Zone
+
+    case, lay, *_ = platen()
+    zones = list(case.zones) + [Zone("beyond the rim", "bottom", (0.0, 2 * np.pi), r=(0.2, 0.3))]
+    solver = BatchSolver.from_fit(reference_fit(), lay["r"], lay["theta"], lay["z"], zones=zones)
+    changes = solver.changes()
+    assert changes.K == solver.K + len(case.zones)
+    with pytest.raises(inverse.InverseError, match="rows must have 20 readings"):
+        changes.solve_averaged(np.zeros((2, 10)), np.full(20, 0.01), changes.strength_grid(np.full(20, 0.01)))
+
+
 def test_offsets_cancel_in_changes_but_widen_the_level():
     """Constant per-sensor offsets: zone changes and the trend of the non-uniformity are the
     same with and without them; the absolute level moves and its sd carries the offsets.
