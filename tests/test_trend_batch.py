@@ -249,8 +249,8 @@ def test_a_sectors_loss_with_sharp_edges_is_held_by_its_zones_step(loss):
     the exact series of that heater pattern: no draw from the prior); each row's change is
     averaged over strengths by its own evidence.  With a step level per zone the weak zone's
     change is within 2 sd of the truth and the others within 2 sd of theirs (largest 1.3 and
-    0.7 sd); the smooth change alone, which rounds the step's edges off, misses the weak zone
-    by a median 3.9 and 4.3 sd over the rows."""
+    0.8 sd); the smooth change alone, which rounds the step's edges off, misses the weak zone
+    by a median 2.8 and 3.0 sd over the rows."""
     case, lay, t_nom, t_off, truth = platen()
     solver = BatchSolver.from_fit(reference_fit(), lay["r"], lay["theta"], lay["z"], offset_sd=0.5,
                                   zones=case.zones)
@@ -268,7 +268,29 @@ def test_a_sectors_loss_with_sharp_edges_is_held_by_its_zones_step(loss):
     plain = smooth.changes()
     old = plain.solve_averaged(rows - ref, rv, plain.strength_grid(rv))
     miss = (old.value(WEAK_ZONE) - loss * truth[WEAK_ZONE]) / old.sd_of(WEAK_ZONE)
-    assert np.median(np.abs(miss)) > 3.0
+    assert np.median(np.abs(miss)) > 2.5
+
+
+def test_a_small_loss_read_row_by_row_does_not_flag_unchanged_zones():
+    """A loss of 0.3-1 % of one sector, one row each, 20 noise draws: the averaged change of an
+    unchanged zone beyond the flag limit for 120 comparisons (Bonferroni, 2 % family-wise) in
+    at most 5 % of the rows.  With the strength grid stretched by the nominal direction's
+    nearly flat prior, 7 of its 17 strengths left every other direction shrunk to nothing and
+    such rows came out uniform over the zones: 20 of 120 rows flagged an unchanged zone."""
+    case, lay, t_nom, t_off, _ = platen()
+    changes = BatchSolver.from_fit(reference_fit(), lay["r"], lay["theta"], lay["z"], offset_sd=0.5,
+                                   zones=case.zones).changes()
+    rv = np.full(t_nom.size, 2 * 0.05 ** 2)
+    grid = changes.strength_grid(rv)
+    losses = np.array([0.003, 0.004, 0.005, 0.006, 0.0075, 0.01])
+    others = [i for i, n in enumerate(changes.names) if n != WEAK_ZONE]
+    limit = change_threshold(120)
+    false = 0
+    for seed in range(20):
+        noise = np.random.default_rng(seed).normal(0.0, np.sqrt(rv), t_nom.size)
+        est = changes.solve_averaged(losses[:, None] * (t_off - t_nom)[None, :] + noise, rv, grid)
+        false += int(np.sum(np.max(np.abs(est.values[:, others]) / est.sd[:, others], axis=1) > limit))
+    assert false <= 0.05 * 20 * losses.size
 
 
 def test_a_zone_covering_nothing_leaves_the_others_their_steps():
