@@ -189,7 +189,7 @@ def heated_entries(case, face, positions, picks) -> str:
         return ""
     names = ", ".join(f"{PICK_PREFIX}{i + 1}" for i in hot)
     return (f"{names} {'enters' if hot.size == 1 else 'enter'} the {face} face where the case gives it a heat flux (up to "
-            f"{eng(float(np.max(np.abs(q[hot]))))} W/m^2): a heater may cover it there; check that they "
+            f"{eng(float(np.max(np.abs(q[hot]))))} W/m^2): a heater or a cooler may cover it there; check that they "
             f"can be drilled, or keep the grid off it with [plan] exclude_theta / exclude_r / exclude_z")
 
 
