@@ -369,12 +369,10 @@ class RowChecks:
         if together.any():               # several at once: the model, not the sensors
             self.model_rows += int(together.sum())
             out[together], aside[together] = d[together], False
-        for j in np.flatnonzero(aside.any(axis=0)):
-            f = self.faults[self.names[j]]
-            f.largest_score = max(f.largest_score, float(scores[aside[:, j], j].max()))
         start = np.asarray(start, float)
         for j in np.flatnonzero(aside.any(axis=0)):
             f, at = self.faults[self.names[j]], start[aside[:, j]]
+            f.largest_score = max(f.largest_score, float(scores[aside[:, j], j].max()))
             f.rows += int(at.size)
             f.first_start_s = float(at.min()) if f.first_start_s is None else min(f.first_start_s, float(at.min()))
             f.last_start_s = float(at.max()) if f.last_start_s is None else max(f.last_start_s, float(at.max()))
