@@ -146,19 +146,15 @@ def segment_distance(p0, p1, q0, q1) -> np.ndarray:
     a, e = np.sum(d1 * d1, axis=2), np.sum(d2 * d2, axis=2)
     b, c, f = np.sum(d1 * d2, axis=2), np.sum(d1 * w, axis=2), np.sum(d2 * w, axis=2)
     tiny = 1e-30
+    point_p, point_q = a <= tiny, e <= tiny
     den = a * e - b * b
     s = np.where(den > 1e-12 * np.maximum(a * e, tiny), np.clip((b * f - c * e) / np.maximum(den, tiny), 0, 1), 0.0)
-    t = (b * s + f) / np.maximum(e, tiny)
-    low, high = t < 0, t > 1
-    t = np.clip(t, 0.0, 1.0)
-    s = np.where(low, np.clip(-c / np.maximum(a, tiny), 0, 1), s)
-    s = np.where(high, np.clip((b - c) / np.maximum(a, tiny), 0, 1), s)
-    # a point for a segment: the other's nearest point to it
-    point_q = e <= tiny
-    s = np.where(point_q, np.clip(-c / np.maximum(a, tiny), 0, 1), s)
-    t = np.where(point_q, 0.0, t)
-    s = np.where(a > tiny, s, 0.0)
-    t = np.where((a <= tiny) & ~point_q, np.clip(f / np.maximum(e, tiny), 0, 1), t)
+    t_line = np.where(point_q, 0.0, (b * s + f) / np.maximum(e, tiny))
+    t = np.clip(t_line, 0.0, 1.0)
+    # where t was clamped (or q is a point), s is p's nearest point to q(t)
+    s = np.where((t != t_line) | point_q, np.clip((b * t - c) / np.maximum(a, tiny), 0, 1), s)
+    s = np.where(point_p, 0.0, s)
+    t = np.where(point_p & ~point_q, np.clip(f / np.maximum(e, tiny), 0, 1), t)
     gap = w + s[:, :, None] * d1 - t[:, :, None] * d2
     return np.sqrt(np.sum(gap * gap, axis=2))
 
@@ -188,10 +184,10 @@ def clear_of_pick(positions, pick: int, spacing: float, face: str | None = None,
     (hole_clearance: every new hole comes from that face)."""
     r, theta, z = (np.atleast_1d(np.asarray(v, float)) for v in positions)
     at = (r[pick:pick + 1], theta[pick:pick + 1], z[pick:pick + 1])
-    ok = min_distance(_xyz(r, theta, z), _xyz(*at)) >= spacing
-    if face is not None:
-        ok &= hole_clearance(face, cylinder, r, theta, z, at) >= spacing
-    return ok
+    if face is None:
+        return min_distance(_xyz(r, theta, z), _xyz(*at)) >= spacing
+    # a hole holds its tip, so the holes' distance is at most the tips'
+    return hole_clearance(face, cylinder, r, theta, z, at) >= spacing
 
 
 def min_distance(points, others) -> np.ndarray:
