@@ -198,8 +198,8 @@ class BatchSolver:
         return out
 
     def zone_steps(self):
-        """(Gz (n, Z) [K per unit level], rows {zone name: f (K + Z,)}, own (Z,) the row of each
-        step's own zone) of a step of unit level over each zone with ranges on the face (its
+        """(Gz (n, Z) [K per unit level], rows {zone name: f (K + Z,)}, names (Z,) the zone of each
+        step) of a step of unit level over each zone with ranges on the face (its
         indicator projected on the enlarged basis, zone_columns.ZoneDesign: the zone model's
         columns, sharp edges), or None; built once."""
         if self._steps is None and self._step_source is not None:
@@ -402,16 +402,11 @@ class BatchSolver:
             for lo in range(0, rows.size, step):
                 part = rows[lo:lo + step]
                 noise = rv[np.ix_(part, cols)] + self.shared_var[v][None, :]
-                sd = np.sqrt(noise)
-                x = d[np.ix_(part, cols)] - self.t0[v]
-                W = 1.0 / noise
-                den = np.sum(W * gu ** 2, axis=1)
-                gamma = np.where(den > 0, np.sum(W * gu * x, axis=1) / np.where(den > 0, den, 1.0), 0.0)
-                y = (x - gamma[:, None] * gu[None, :]) / sd
+                y = _level_removed(d[np.ix_(part, cols)] - self.t0[v], gu, noise)
                 if shared:
                     sv, beta = np.broadcast_to(svs, (part.size, svs.size)), y @ Us
                 else:
-                    A = (Gv[None, :, :] / sd[:, :, None]) * self.p_isqrt[None, None, :]
+                    A = (Gv[None, :, :] / np.sqrt(noise)[:, :, None]) * self.p_isqrt[None, None, :]
                     Uu, sv, _ = np.linalg.svd(A, full_matrices=False)
                     beta = np.einsum("unr,un->ur", Uu, y)
                 r = sv.shape[1]
@@ -520,9 +515,6 @@ class BatchSolver:
         sd = np.sqrt(noise)
         Gv = self.G[v]
         Uu, s, _ = np.linalg.svd(Gv / sd[:, None] * self.p_isqrt[None, :], full_matrices=False)
-        s2 = s ** 2
-        occam = np.sum(np.log1p(s2[None, :] / alphas[:, None]), axis=1)          # (A,)
-        shrink = alphas[None, :] / (s2[:, None] + alphas[None, :])                   # (r, A)
         E, V = [], []
         for a in alphas:
             e, var, _, _ = self.with_alpha(a)._estimators(v, noise[None, :])
@@ -530,42 +522,30 @@ class BatchSolver:
             V.append(np.einsum("qn,n->q", e[0, :self.nf] ** 2, noise) if self.sd_kind == "noise" else var[0, :self.nf])
         E, V = np.concatenate(E), np.stack(V)                                        # (A nf, n_v), (A, nf)
         gu = Gv @ self.u
-        W = 1.0 / noise
-        den = float(np.sum(W * gu ** 2))
         A_, nf = alphas.size, self.nf
         step = max(1, _BLOCK_ELEMENTS // (A_ * (nf + Uu.shape[1]) + x.shape[1]))
         for lo in range(0, rows.size, step):
             xb = x[lo:lo + step]
-            gamma = (xb @ (W * gu)) / den if den > 0 else np.zeros(xb.shape[0])
-            beta = ((xb - gamma[:, None] * gu[None, :]) / sd) @ Uu
-            logev = -0.5 * (occam[None, :] + (beta ** 2) @ shrink)                    # (B, A)
-            w = np.exp(logev - logev.max(axis=1, keepdims=True))
-            w /= w.sum(axis=1, keepdims=True)
+            beta = _level_removed(xb, gu, noise) @ Uu
+            w = _weights(-0.5 * _alpha_terms(s ** 2, beta ** 2, alphas))
             vals = (xb @ E.T).reshape(-1, A_, nf) + self.kq[None, None, :nf]
-            mean = np.einsum("ba,baf->bf", w, vals)
-            second = np.einsum("ba,baf->bf", w, V[None] + vals ** 2)
             part = rows[lo:lo + step]
-            est.values[part] = mean
-            est.sd[part] = np.sqrt(np.maximum(second - mean ** 2, 0.0) + self.model_var[None, :])
+            est.values[part], sd = _mixture(w, vals, V[None])
+            est.sd[part] = np.sqrt(sd ** 2 + self.model_var[None, :])
 
     def _averaged_by_solves(self, d, rv, alphas) -> BatchEstimates:
         """solve_averaged with a noise per row: the weights from row_log_evidence, one `solve`
         per strength."""
         logev = self.row_log_evidence(d, rv, alphas)
         known = np.all(np.isfinite(logev), axis=1)
-        w = np.zeros_like(logev)
-        if known.any():
-            e = logev[known] - np.max(logev[known], axis=1, keepdims=True)
-            w[known] = np.exp(e) / np.sum(np.exp(e), axis=1, keepdims=True)
         parts = [self.with_alpha(a).solve(d, rv) for a in alphas]
-        m = np.stack([p.values for p in parts])                 # (A, R, nf)
-        v2 = np.stack([p.sd for p in parts]) ** 2
-        wa = w.T[:, :, None]
-        mean = np.sum(wa * np.nan_to_num(m), axis=0)
-        var = np.sum(wa * np.nan_to_num(v2 + m ** 2), axis=0) - mean ** 2
+        m = np.stack([p.values[known] for p in parts], axis=1)          # (R known, A, nf)
+        v2 = np.stack([p.sd[known] for p in parts], axis=1) ** 2
+        mean, sd = _mixture(_weights(logev[known]), m, v2)
         out = parts[0]
-        out.values = np.where(known[:, None], mean, np.nan)
-        out.sd = np.where(known[:, None], np.sqrt(np.maximum(var, 0.0) + self.model_var[None, :]), np.nan)
+        out.values, out.sd = np.full_like(out.values, np.nan), np.full_like(out.sd, np.nan)
+        out.values[known] = mean
+        out.sd[known] = np.sqrt(sd ** 2 + self.model_var[None, :])
         return out
 
     # ------------------------------------------------------------------ solving
@@ -674,16 +654,49 @@ def _row_evidence(terms, alphas):
     s2, b2, rest, count, logdet = terms
     s2, b2 = np.nan_to_num(s2), np.nan_to_num(b2)
     out = np.full((s2.shape[0], alphas.size), np.nan)
-    a = alphas[None, :, None]
     step = max(1, _BLOCK_ELEMENTS // max(1, alphas.size * s2.shape[1]))
     for lo in range(0, s2.shape[0], step):
         sl = slice(lo, lo + step)
-        s, b = s2[sl, None, :], b2[sl, None, :]
-        per = (np.sum(np.log1p(s / a), axis=2) + np.sum(b * a / (s + a), axis=2)
+        per = (_alpha_terms(s2[sl], b2[sl], alphas)
                + (rest[sl] + count[sl] * np.log(2 * np.pi) + logdet[sl])[:, None])
         out[sl] = -0.5 * per
     out[count == 0] = np.nan
     return out
+
+
+def _alpha_terms(s2, b2, alphas):
+    """(R, A): sum_j log(1 + s_j^2/alpha) + sum_j beta_j^2 alpha / (s_j^2 + alpha), the part of
+    -2 log p(d | alpha) that moves with alpha; s2 (R, r) per row, or (r,) shared by the rows
+    (then one product), b2 (R, r)."""
+    if s2.ndim == 1:
+        occam = np.sum(np.log1p(s2[None, :] / alphas[:, None]), axis=1)
+        return occam[None, :] + b2 @ (alphas[None, :] / (s2[:, None] + alphas[None, :]))
+    s, a = s2[:, None, :], alphas[None, :, None]
+    return np.sum(np.log1p(s / a), axis=2) + np.sum(b2[:, None, :] * a / (s + a), axis=2)
+
+
+def _weights(logev):
+    """(R, A): p(d_r | alpha_a) / sum_b p(d_r | alpha_b) from the log evidences (R, A)."""
+    w = np.exp(logev - logev.max(axis=1, keepdims=True))
+    return w / w.sum(axis=1, keepdims=True)
+
+
+def _mixture(w, m, v):
+    """Mean and sd (R, q) of the Gaussian mixtures sum_a w_ra N(m_raq, v_raq) (w (R, A); m, v
+    (R, A, q), v broadcast): mean sum w m, variance sum w (v + m^2) - mean^2."""
+    mean = np.einsum("ra,raq->rq", w, m)
+    second = np.einsum("ra,raq->rq", w, v + m ** 2)
+    return mean, np.sqrt(np.maximum(second - mean ** 2, 0.0))
+
+
+def _level_removed(x, gu, noise):
+    """(x - gamma G u) / sqrt(noise) for rows x (B, n): gamma each row's GLS level of the
+    nominal profile's field G u under the noise variances (n,) or (B, n) [K^2]."""
+    W = 1.0 / noise
+    den = np.sum(W * gu ** 2, axis=-1)
+    num = np.sum(W * gu * x, axis=1)
+    gamma = np.where(den > 0, num / np.where(den > 0, den, 1.0), 0.0)
+    return (x - gamma[:, None] * gu[None, :]) / np.sqrt(noise)
 
 
 def _strength_grid(s2, num, margin):
