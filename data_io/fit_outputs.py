@@ -184,8 +184,8 @@ def summary_lines(result) -> list[str]:
         dev = z["deviation_from_face_mean"]
         rel = ""
         if s["quantity"] == "heat_flux" and s["mean"]:
-            size, relation = flux_relation(dev, s["mean"])
-            rel = f" ({size} {relation})" if "heat" in relation else f" ({'+' if dev >= 0 else '-'}{size})"
+            size, relation = flux_relation(dev, s["mean"])     # heat out: in words; else signed
+            rel = f" ({size} {relation.removesuffix(' than')})" if s["mean"] < 0 else f" ({'+' if dev >= 0 else '-'}{size})"
         lines.append(f"  zone {z['name']:<{width}} {_pm(z['mean'], z['sd'], u)}, "
                      f"{'+' if dev >= 0 else '-'}{eng(abs(dev))} {du}{rel} from the face mean")
     if "calibrated" in s:

@@ -123,13 +123,13 @@ def percent(x, n: int = 2) -> str:
 
 
 def flux_relation(dev, mean) -> tuple[str, str]:
-    """(size, relation) of a zone's flux deviation dev from the face mean (same unit):
-    ('16 %', 'below') or 'above'; on a face that heat leaves through (mean < 0: a bore heating
-    the fluid) a less negative flux passes less heat: ('33 %', 'less heat out') or 'more heat
-    out'."""
+    """(size, relation) of a zone's flux deviation dev from the face mean (same unit), read
+    as '<size> <relation> the face mean': ('16 %', 'below') or 'above'; on a face that heat
+    leaves through (mean < 0: a bore heating the fluid) a less negative flux passes less heat:
+    ('33 %', 'less heat out than') or 'more heat out than'."""
     size = percent(abs(float(dev)) / abs(float(mean)))
     if float(mean) < 0:
-        return size, "less heat out" if dev > 0 else "more heat out"
+        return size, "less heat out than" if dev > 0 else "more heat out than"
     return size, "below" if dev < 0 else "above"
 
 

@@ -42,8 +42,7 @@ def _zone_phrase(z, fmt: _Fmt, mean_si, distance: bool = True) -> str:
             text += f", {fmt.eng_diff(abs(dev))} {'below' if dev < 0 else 'above'} the face mean"
         else:
             size, relation = flux_relation(dev, mean_si)
-            text += f", {size} {relation} than the face mean" if "heat" in relation else \
-                f", {size} {relation} the face mean"
+            text += f", {size} {relation} the face mean"
     frac, frac_sd = z.get("delivered_fraction"), z.get("delivered_fraction_sd")
     if _finite(frac):
         text += f"; it delivers {percent(frac, 3)}"

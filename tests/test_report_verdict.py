@@ -344,6 +344,6 @@ def test_a_zones_share_of_heat_out_in_words():
     (invented figures)."""
     from heatsight.data_io.report_format import flux_relation
 
-    assert flux_relation(1400.0, -7400.0) == ("19 %", "less heat out")
-    assert flux_relation(-1100.0, -7400.0) == ("15 %", "more heat out")
+    assert flux_relation(1400.0, -7400.0) == ("19 %", "less heat out than")
+    assert flux_relation(-1100.0, -7400.0) == ("15 %", "more heat out than")
     assert flux_relation(-1100.0, 7400.0) == ("15 %", "below")
