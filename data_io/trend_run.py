@@ -32,6 +32,7 @@ READ_AHEAD = 2
 #: fewest rows a trend should have; fewer from --every N draws a warning
 MIN_TREND_ROWS = 3
 
+
 class Progress:
     """The log's progress bar (data_io.console: stderr, silent when stderr is not a terminal),
     drawn from PROGRESS_MIN_CHUNKS chunks on."""

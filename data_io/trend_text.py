@@ -91,6 +91,7 @@ def flag_sentences(summary: dict, report: bool = True) -> list[str]:
     """The trend's flags in plain words, first thing a reader sees."""
     u = _Units(summary, report)
     last = summary.get("last_row") or {}
+    span = _span(summary)
     out = []
     def size(f):                  # the zone that moves most first
         ch = (last.get("changes") or {}).get(f["zone"])
@@ -98,7 +99,7 @@ def flag_sentences(summary: dict, report: bool = True) -> list[str]:
     for f in sorted(summary["flags"], key=size):
         z = f["zone"]
         ch = (last.get("changes") or {}).get(z)
-        text = f"Zone {z} changed beyond its flag limit from {_when(f, _span(summary))} ({_rows(f['flagged_rows'])} flagged)"
+        text = f"Zone {z} changed beyond its flag limit from {_when(f, span)} ({_rows(f['flagged_rows'])} flagged)"
         if ch:
             text += f"; by the last row it has changed by {u.change(ch[0], ch[1])} from the reference window"
         out.append(text + ".")
@@ -107,7 +108,7 @@ def flag_sentences(summary: dict, report: bool = True) -> list[str]:
         out.append(f"No zone changed beyond its flag limit over the log ({summary['trend_rows']} rows inverted"
                    + (f", {n} zones followed)." if n else "; the case defines no zones)."))
     for f in summary.get("sensor_faults") or ():
-        when = f.get("first_start_iso") or f"t = {log_time(f['first_start_s'], _span(summary))}"
+        when = f.get("first_start_iso") or f"t = {log_time(f['first_start_s'], span)}"
         out.append(f"Sensor {f['sensor']} disagreed with the others from {when} and was left out of "
                    f"{_rows(f['rows'])}: check that thermocouple (a fault, not a heater change).")
     return out
@@ -126,10 +127,11 @@ def trend_html(summary: dict, figure_png: bytes, reader_timestamps: bool) -> str
     """The report's trend section (safe HTML: every user or data string escaped): the flags,
     the table of zones, the figure, then how the flags are set."""
     u = _Units(summary, True)
+    span = _span(summary)
     e = lambda s: escape(str(s), quote=True)  # noqa: E731
     ref = summary["reference_window"]
     when = (f"{ref['start_iso']} to {ref['end_iso']}" if "start_iso" in ref
-            else f"t = {log_time(ref['start_s'], _span(summary))} to {log_time(ref['end_s'], _span(summary))}")
+            else f"t = {log_time(ref['start_s'], span)} to {log_time(ref['end_s'], span)}")
     if summary["mode"] == "every":
         what = f"{_every_words(summary['every'])} of the log ({summary['trend_rows']} rows)"
     else:
@@ -144,7 +146,7 @@ def trend_html(summary: dict, figure_png: bytes, reader_timestamps: bool) -> str
     flagged_first = sorted(summary["zones"], key=lambda z: not any(x["zone"] == z for x in summary["flags"]))
     for z in flagged_first:
         f = next((x for x in summary["flags"] if x["zone"] == z), None)
-        flagged = f"yes, from {_when(f, _span(summary))} ({_rows(f['flagged_rows'])})" if f else "no"
+        flagged = f"yes, from {_when(f, span)} ({_rows(f['flagged_rows'])})" if f else "no"
         ch = last["changes"].get(z) if last else None
         rows.append(f"<tr><td>{e(z)}</td><td>{e(flagged)}</td>"
                     f"<td class=\"num\">{e(u.change(ch[0], ch[1]) if ch else '–')}</td>"
@@ -201,6 +203,7 @@ def console_lines(summary: dict, folder) -> str:
     """The trend for the terminal: the flags first, then what was read, in file units."""
     u = _Units(summary, False)
     ref = summary["reference_window"]
+    span = _span(summary)
     lines = [f"trend of the {summary['face']} face {summary['quantity'].replace('_', ' ')} ({summary['unit']}) over "
              f"{summary['log']}:"]
     lines += [f"  {t}" for t in flag_sentences(summary, report=False)]
@@ -208,7 +211,7 @@ def console_lines(summary: dict, folder) -> str:
               f"{_window_count(summary)}",
               f"  trend rows      {summary['trend_rows']}"
               + (f" ({_every_words(summary['every'])})" if summary["mode"] == "every" else " (steady windows)"),
-              f"  reference       t = {log_time(ref['start_s'], _span(summary))} to {log_time(ref['end_s'], _span(summary))}; "
+              f"  reference       t = {log_time(ref['start_s'], span)} to {log_time(ref['end_s'], span)}; "
               f"{_reference_sensors(summary)} sensors in its fit"
               + (f" (set aside: {', '.join(summary['set_aside'])})" if summary["set_aside"] else ""),
               f"  flag limit      |change| > {summary['flag_threshold_sd']:.2f} sd of the change"]
