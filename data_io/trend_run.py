@@ -235,6 +235,8 @@ class TrendRun:
         zones = self.model.zone_names
         change, csd = self.model.changes_of(d, rv, reference_mask)
         flag = self.flags.update(start, end, change, csd, self.ref_window[0])
+        rows, lone = self.model.flag_support(d, rv, flag, self.flags.threshold)
+        self.flags.note_support(flag, rows, lone, self.checks.names)
         v = self.units.value
         data = [("time", start), ("time", end)]
         if self.reader.timestamps:
@@ -386,6 +388,9 @@ class TrendRun:
             if self.reader.timestamps:
                 rec["first_flagged_start_iso"] = str(self.reader.iso([f.first_flagged_start_s])[0])
             rec.update(change_at_first_flag=f.change_at_first_flag, change_sd_at_first_flag=f.change_sd_at_first_flag)
+            lone = f.lone_sensor()
+            rec.update(support_rows_examined=f.support_rows, rests_on_one_sensor=dict(f.rests_on),
+                       lone_sensor=lone[0] if lone else None)
             out.append(rec)
         return out
 

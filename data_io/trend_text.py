@@ -102,6 +102,12 @@ def flag_sentences(summary: dict, report: bool = True) -> list[str]:
         text = f"Zone {z} changed beyond its flag limit from {_when(f, span)} ({_rows(f['flagged_rows'])} flagged)"
         if ch:
             text += f"; by the last row it has changed by {u.change(ch[0], ch[1])} from the reference window"
+        lone = f.get("lone_sensor")
+        if lone:
+            text += (f". In {f['rests_on_one_sensor'][lone]} of the {_rows(f['support_rows_examined'])} examined "
+                     f"the flag rests on sensor {lone} alone (without its reading the change stays within the "
+                     f"limit): a drifting or loose thermocouple there would look the same, so check {lone} "
+                     f"before reading this as the heater's")
         out.append(text + ".")
     if not summary["flags"]:
         n = len(summary["zones"])

@@ -19,7 +19,10 @@ Works on window statistics (inverse.steady.WindowStats) and arrays; no files.
   out of the rows where it disagrees, not read as a heater's change.
 - Flags (`ChangeFlags`): |change| / sd(change) > Phi^-1(1 - level / (2 m)), m = rows x zones
   (Bonferroni, family-wise TREND_FAMILY_LEVEL); rows before the reference (the part still
-  settling) are never flagged.
+  settling) are never flagged.  Each flag's support (`TrendModel.flag_support`, case
+  deletion as in regression diagnostics): the flagged row is solved again with each reading
+  left out in turn; a flag that falls to the limit or below without one sensor rests on
+  that sensor alone, and a drifting or loose thermocouple there would look the same.
 """
 
 from __future__ import annotations
@@ -46,6 +49,9 @@ MAX_PENDING_ROWS = 200_000
 #: display grid (radial or axial, angular) of a reference fit whose map nobody sees: the first
 #: of the two fits when the strength then comes from all steady windows
 PROBE_GRID = (3, 4)
+#: flagged rows of one batch examined for their support (TrendModel.flag_support), evenly
+#: spread: each costs one solve per sensor
+SUPPORT_ROWS = 32
 
 
 #: how a change's strength is set when no difference to the reference departs beyond the noise
@@ -288,6 +294,32 @@ class TrendModel:
             change[reference_mask], csd[reference_mask] = 0.0, 0.0
         return change, csd
 
+    def flag_support(self, d, rv, flag, threshold: float, most: int | None = None):
+        """The one sensor each flag rests on, by case deletion: every flagged row of d (R, used)
+        [K] (at most `most`, default SUPPORT_ROWS, evenly spread) is solved again with each reading left out in turn
+        (rv ((used,) or (R, used)) [K^2], as changes_of).  Returns rows (k,), the rows examined,
+        and lone (k, zones): the index among the used sensors without whose reading the flag
+        of that zone would fall to `threshold` sd or below (the one that lowers it most), -1
+        where the flag stands without any single sensor or the zone is not flagged there."""
+        rows = np.flatnonzero(np.asarray(flag).any(axis=1))
+        most = SUPPORT_ROWS if most is None else most
+        if rows.size > most:
+            rows = rows[np.unique(np.linspace(0, rows.size - 1, most).round().astype(int))]
+        k, n = rows.size, d.shape[1]
+        lone = np.full((k, flag.shape[1]), -1)
+        if not k:
+            return rows, lone
+        without = np.repeat(d[rows], n, axis=0)
+        without[np.arange(k * n), np.tile(np.arange(n), k)] = np.nan
+        change, csd = self.changes_of(without, np.repeat(rv[rows], n, axis=0) if np.ndim(rv) == 2 else rv)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            score = (np.abs(change) / csd).reshape(k, n, -1)
+        score = np.where(np.isfinite(score), score, 0.0)   # no answer without it: no flag either
+        weakest = np.argmin(score, axis=1)
+        falls = np.take_along_axis(score, weakest[:, None, :], axis=1)[:, 0, :] <= threshold
+        lone[flag[rows] & falls] = weakest[flag[rows] & falls]
+        return rows, lone
+
 
 @dataclass
 class SensorFault:
@@ -413,6 +445,16 @@ class ZoneFlags:
     first_flagged_end_s: float | None = None
     change_at_first_flag: float | None = None
     change_sd_at_first_flag: float | None = None
+    support_rows: int = 0                               # flagged rows examined for their support
+    rests_on: dict = field(default_factory=dict)        # sensor -> rows whose flag rests on it alone
+
+    def lone_sensor(self):
+        """(sensor, rows) when one sensor alone carries at least half of the flagged rows
+        examined, else None."""
+        if not self.rests_on:
+            return None
+        name, rows = max(self.rests_on.items(), key=lambda kv: kv[1])
+        return (name, rows) if 2 * rows >= self.support_rows else None
 
 
 class ChangeFlags:
@@ -443,6 +485,16 @@ class ChangeFlags:
             if np.any(np.isfinite(score[:, j])):
                 info.largest_change_in_sd = max(info.largest_change_in_sd, float(np.nanmax(score[:, j])))
         return flag
+
+    def note_support(self, flag, rows, lone, sensor_names) -> None:
+        """Record flag_support's answer: flag (R, zones) this batch's flags, rows (k,) the rows
+        examined, lone (k, zones) the index of the sensor each flag rests on (-1: none)."""
+        examined = np.asarray(flag)[rows]
+        for j, z in enumerate(self.zone_names):
+            info = self.zones[z]
+            info.support_rows += int(examined[:, j].sum())
+            for i in lone[:, j][lone[:, j] >= 0]:
+                info.rests_on[sensor_names[i]] = info.rests_on.get(sensor_names[i], 0) + 1
 
     def flagged(self) -> list[ZoneFlags]:
         """The zones flagged at least once."""

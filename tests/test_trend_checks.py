@@ -62,10 +62,10 @@ def test_a_reading_the_model_fits_by_itself_is_not_scored():
     assert np.all(np.isnan(solver.leave_one_out(rng.normal(size=(2, n)), np.full(n, 0.01))))
 
 
-def _log(folder, lam, *, fault=None, seed=0, offset_sd=0.5, noise=0.05):
+def _log(folder, lam, *, fault=None, seed=0, offset_sd=0.5, noise=0.05, drift=None):
     """log.csv of the demo layout: lam (rows,) the weak sector's lost fraction per row (DT
     apart); fault = (sensor, from [s], reading change [K] or None for an open circuit at
-    1372 degC)."""
+    1372 degC); drift = (sensor, K per hour from t = 0)."""
     _, lay, t_nom, t_off, _ = platen()
     rng = np.random.default_rng(seed)
     t = np.arange(lam.size) * DT
@@ -76,6 +76,8 @@ def _log(folder, lam, *, fault=None, seed=0, offset_sd=0.5, noise=0.05):
         name, start, jump = fault
         late = t >= start
         frame.loc[late, name] = 1372.0 if jump is None else frame.loc[late, name] + jump
+    if drift is not None:
+        frame[drift[0]] += drift[1] * t / 3600.0
     frame.insert(0, "time [s]", t)
     frame.to_csv(folder / "log.csv", index=False, float_format="%.4f")
 
@@ -276,3 +278,54 @@ def test_a_heater_loss_under_one_thermocouple_is_the_parts_not_a_fault(tmp_path,
     assert summary["sensor_faults"] == []
     assert [f["zone"] for f in summary["flags"]] == ["outer 300-60"]
     assert summary["last_row"]["changes"]["outer 300-60"][0] == pytest.approx(truth, rel=0.3)
+
+
+def test_a_flag_resting_on_one_drifting_thermocouple_names_it(tmp_path, monkeypatch, capsys):
+    """Nothing changes in the part; TC12, the only thermocouple over its stretch of the outer
+    ring, drifts 0.5 K per hour (the demo case and its readings, 0.1 K noise every 10 s).  Its
+    zone is flagged from 1.33 h, an hour before the row checks name TC12 (alone over its
+    zone, its drift is what the others cannot predict).  Case deletion: without TC12's
+    reading none of those flags stands, so each flag says that it rests on TC12 alone, which
+    a drift would also explain (before, nothing said so)."""
+    import shutil
+
+    from test_trend_cli import CASE
+
+    for name in ("platen.toml", "layout.csv", "readings.csv"):
+        shutil.copy(CASE.parent / name, tmp_path / name)
+    ids = list(pd.read_csv(tmp_path / "layout.csv")["sensor"])
+    base = pd.read_csv(tmp_path / "readings.csv").set_index("sensor")["temperature [degC]"].loc[ids].to_numpy()
+    t = np.arange(0.0, 4 * 3600 + 1, DT)
+    T = base + np.random.default_rng(0).normal(0.0, 0.1, (t.size, len(ids)))
+    T[:, ids.index("TC12")] += 0.5 * t / 3600.0
+    frame = pd.DataFrame(T, columns=ids)
+    frame.insert(0, "time [s]", t)
+    frame.to_csv(tmp_path / "log.csv", index=False, float_format="%.3f")
+    monkeypatch.chdir(tmp_path)
+    assert main(["trend", "platen.toml", "--log", "log.csv", "--out", "out"]) == 0
+    summary = json.loads((tmp_path / "out" / "summary.json").read_text())
+    assert [f["zone"] for f in summary["flags"]] == ["outer 180-300"]
+    f = summary["flags"][0]
+    assert f["lone_sensor"] == "TC12"
+    assert f["rests_on_one_sensor"] == {"TC12": f["flagged_rows"]} and f["support_rows_examined"] == f["flagged_rows"]
+    assert f["first_flagged_start_s"] < summary["sensor_faults"][0]["first_start_s"]
+    assert "the flag rests on sensor TC12 alone" in capsys.readouterr().out
+
+
+def test_a_heater_loss_seen_by_several_thermocouples_rests_on_none(tmp_path, monkeypatch):
+    """The outer 60-180 sector 10 % weaker from t = 2 h: its flag stands without any single
+    reading, so no sensor is named; and with TC07 (over the neighbouring outer 300-60 zone)
+    reading 3 K high from t = 2.5 h, a flag of that zone rests on TC07 alone."""
+    folder = make_folder(tmp_path)
+    t = np.arange(int(4 * 3600 / DT)) * DT
+    lam = np.where(t >= 7200.0, 0.1, 0.0)
+    _log(folder, lam, seed=2)
+    flags = {f["zone"]: f for f in _trend(folder, monkeypatch)["flags"]}
+    assert list(flags) == [WEAK_ZONE]
+    assert flags[WEAK_ZONE]["lone_sensor"] is None and flags[WEAK_ZONE]["support_rows_examined"] > 0
+    _log(folder, lam, seed=2, fault=("TC07", 9000.0, 3.0))
+    flags = {f["zone"]: f for f in _trend(folder, monkeypatch, "--overwrite")["flags"]}
+    assert flags[WEAK_ZONE]["lone_sensor"] is None
+    for z, f in flags.items():
+        if z != WEAK_ZONE:
+            assert f["lone_sensor"] == "TC07", (z, f)
