@@ -37,10 +37,12 @@ thermocouple offsets and placement errors, the same at every time -- cancels exa
 that difference, so the change is estimated against the random noise only
 (S_row + S_ref), with its own smoothing strength (a prior N(gamma u, (alpha P)^-1) on the
 change of the coefficients) and, where zones with ranges are declared on the face, a step of
-its own level over each zone (`zone_steps`: the zone model's columns, zone_columns.ZoneDesign;
-its prior variance at strength alpha that of the zone's mean under the smooth prior, the
-nominal direction left out), so a heater zone's loss keeps its sharp edges instead of being
-rounded off (a sector's loss came out 8-13 % small, 4 sd).  Estimating it from the difference of two absolute estimates
+its own level over each zone (`zone_steps`: the zone model's columns, zone_columns.ZoneDesign,
+with one of its edge widths; its prior variance at strength alpha step_factor times that of
+the zone's mean under the smooth prior, the nominal direction left out), so a heater zone's
+loss keeps its sharp edges instead of being rounded off (a sector's loss came out 8-13 %
+small, 4 sd).  The caller weighs the edge widths and step factors (inverse.trend), by the
+joint evidence of the changed rows (`solve_weighted`) or by each row's own (`solve_mixture`).  Estimating it from the difference of two absolute estimates
 instead would shrink it with the offsets' variance, which dominates each row's noise.  Its
 sd ("change" sds) is the posterior sd at a fixed level plus the spread of the row's own
 level, (f.u - a_f . G u)^2 / (u^T G^T S^-1 G u): what the noise and the unseen part of the
@@ -77,6 +79,9 @@ LOO_MIN_FREEDOM = 1e-9
 DEPARTURE_LEVEL = 1e-3
 #: strengths of the grid a row's change is averaged over by its own evidence (solve_averaged)
 ROW_STRENGTHS = 17
+#: a pair of a mixture (solve_mixture) whose weight stays below this in every row of a block is
+#: left out of that block's products
+MIXTURE_CUT = 1e-12
 #: bound on the size of stacked intermediate arrays (elements)
 _BLOCK_ELEMENTS = 4_000_000
 
@@ -197,25 +202,35 @@ class BatchSolver:
             out._step_source = (design, r, theta, z, steps)
         return out
 
-    def zone_steps(self):
+    def zone_steps(self, edge: int = 0):
         """(Gz (n, Z) [K per unit level], rows {zone name: f (K + Z,)}, names (Z,) the zone of each
         step) of a step of unit level over each zone with ranges on the face (its
         indicator projected on the enlarged basis, zone_columns.ZoneDesign: the zone model's
-        columns, sharp edges), or None; built once."""
+        columns) with the edges of setting `edge` (an index into step_edges, the edge widths
+        the zone model averages over: sharp first), or None; built once for every setting."""
         if self._steps is None and self._step_source is not None:
             from .truncation import nearest_distance
-            from .zone_columns import ZoneDesign
+            from .zone_columns import designs_by_edge, edge_settings
 
             design, r, theta, z, zones = self._step_source
-            zd = ZoneDesign(design, zones, nearest_distance(design, r, z))
-            Gz = zd.at(r, theta, z)[0][:, self.K:]
-            rows = {name: f for name, f, _ in face_functionals(zd, zones)}
-            has = np.array([zn.name in rows for zn in zones])     # a zone covering nothing has none
-            if has.any():
+            widths = edge_settings(design, zones)
+            self._steps = []
+            for zd in designs_by_edge(design, zones, nearest_distance(design, r, z), widths):
+                Gz = zd.at(r, theta, z)[0][:, self.K:]
+                rows = {name: f for name, f, _ in face_functionals(zd, zd.zones)}
+                has = np.array([zn.name in rows for zn in zones])     # a zone covering nothing has none
+                if not has.any():
+                    self._steps = []
+                    break
                 keep = np.concatenate([np.ones(self.K, bool), has])
-                self._steps = (Gz[:, has], {n: f[keep] for n, f in rows.items()},
-                               [zn.name for zn, h in zip(zones, has) if h])
-        return self._steps
+                self._steps.append((Gz[:, has], {n: f[keep] for n, f in rows.items()},
+                                    [zn.name for zn, h in zip(zones, has) if h]))
+        return self._steps[edge] if self._steps else None
+
+    @property
+    def step_edges(self) -> int:
+        """How many edge settings the zones' steps come in (0: no steps)."""
+        return len(self._steps or []) if self.zone_steps() is not None else 0
 
     def _copy(self) -> "BatchSolver":
         """A shallow copy sharing the arrays (the variants below change a few attributes)."""
@@ -349,22 +364,26 @@ class BatchSolver:
         new.model_var, new.model_var_extremes = np.zeros(self.nf), np.zeros(3)
         return new
 
-    def changes(self, alpha=None) -> "BatchSolver":
+    def changes(self, alpha=None, step_factor: float = 1.0, edge: int = 0) -> "BatchSolver":
         """Solver for changes: rows are differences of readings d_row - d_ref, random_var
         their variances (S_row + S_ref); t0, the known part of the face and the shared
         variance cancel; the functionals are those of `change_names`; sds are the changes' own
         (sd_kind "change": posterior, with the spread of the row's level of the nominal profile).
         alpha: its strength (default half this solver's: the prior of the difference of two
-        independent profiles)."""
+        independent profiles); step_factor: the zones' steps' prior variance in units of their
+        zone mean's under the smooth prior (1: the same; large: the steps carry the change,
+        the smooth part stiffened at the strength the evidence then prefers; small: none);
+        edge: the steps' edge setting (zone_steps)."""
         funcs = [(n, f, 0.0) for n, f, _ in self._functionals if n in self.change_names]
         G, P, u = self.G, 1.0 / self.p_isqrt ** 2, self.u
-        steps = self.zone_steps()
+        steps = self.zone_steps(edge)
         if steps is not None:
-            # a step level per zone, its prior variance at strength alpha that of its zone's mean
-            # under the smooth prior (the nominal direction left out): v_j / alpha
+            # a step level per zone, its prior variance at strength alpha step_factor times that
+            # of its zone's mean under the smooth prior (the nominal direction left out):
+            # step_factor v_j / alpha
             Gz, rows, names = steps
             free = u > 0
-            v = np.array([np.sum(rows[n][:self.K][~free] ** 2 / P[~free]) for n in names])
+            v = step_factor * np.array([np.sum(rows[n][:self.K][~free] ** 2 / P[~free]) for n in names])
             keep = v > 1e-12 * max(float(np.max(v)), 1e-300)   # a zone whose mean is all nominal level: none
             G, P = np.hstack([G, Gz[:, keep]]), np.concatenate([P, 1.0 / v[keep]])
             u = np.concatenate([u, np.zeros(int(keep.sum()))])
@@ -437,6 +456,11 @@ class BatchSolver:
         """alpha maximizing `joint_log_evidence` on a log grid spanning the rows' squared
         singular values (times 1/margin .. margin), refined between the grid neighbours of the
         best point.  Returns (alpha, warnings)."""
+        alpha, _, notes = self.joint_best(d, random_var, num, margin)
+        return alpha, notes
+
+    def joint_best(self, d, random_var, num: int = 200, margin: float = 1e2):
+        """joint_strength with the joint log evidence there: (alpha, log evidence, warnings)."""
         from scipy.optimize import minimize_scalar
 
         terms = self._evidence_terms(d, random_var)
@@ -445,12 +469,15 @@ class BatchSolver:
         i = int(np.argmax(le))
         if i in (0, grid.size - 1):
             side = "smallest" if i == 0 else "largest"
-            return float(grid[i]), [f"the joint evidence of the rows is best at the {side} smoothing strength "
-                                    f"of its grid [{grid[0]:.3g}, {grid[-1]:.3g}]"]
+            return float(grid[i]), float(le[i]), [
+                f"the joint evidence of the rows is best at the {side} smoothing strength "
+                f"of its grid [{grid[0]:.3g}, {grid[-1]:.3g}]"]
         res = minimize_scalar(lambda t: -_joint(terms, np.array([np.exp(t)]))[0],
                               bounds=(np.log(grid[i - 1]), np.log(grid[i + 1])), method="bounded",
                               options={"xatol": 1e-7})
-        return float(np.exp(res.x) if -res.fun >= le[i] else grid[i]), []
+        if -res.fun >= le[i]:
+            return float(np.exp(res.x)), float(-res.fun), []
+        return float(grid[i]), float(le[i]), []
 
     def strength_grid(self, random_var, num: int = ROW_STRENGTHS, margin: float = 1e2) -> np.ndarray:
         """Strengths alpha, log-spaced over the squared singular values of the whitened,
@@ -474,79 +501,37 @@ class BatchSolver:
         with too few sensors)."""
         return _row_evidence(self._evidence_terms(d, random_var), np.atleast_1d(np.asarray(alphas, float)))
 
-    @few_threads
     def solve_averaged(self, d, random_var, alphas) -> BatchEstimates:
         """The functionals of each row averaged over the strengths `alphas` (a uniform prior
-        over that log-spaced grid), weighted by the row's own evidence:
-        w_ra = p(d_r | alpha_a) / sum_b p(d_r | alpha_b),  mean_r = sum_a w_ra m_ra,
-        var_r = sum_a w_ra (sd_ra^2 + m_ra^2) - mean_r^2  (a Gaussian mixture's moments;
-        sd: this solver's kind).  With one noise for every
-        row (random_var (n,)), per missing-value pattern one SVD gives every row's evidence
-        (log p(d | alpha) up to a term free of alpha: -1/2 [sum_j log(1 + s_j^2/alpha) +
-        sum_j beta_j^2 alpha / (s_j^2 + alpha)]) and the estimators at every strength one
-        product; with a noise per row, one `solve` per strength.  Only the functionals: a
-        solver with an extremes grid is refused."""
-        if self.Q:
-            raise InverseError("solve_averaged averages the functionals only (a solver without a grid)")
-        alphas = np.atleast_1d(np.asarray(alphas, float))
-        d = np.atleast_2d(np.asarray(d, float))
-        rv = np.asarray(random_var, float)
-        if rv.ndim == 2:
-            return self._averaged_by_solves(d, rv, alphas)
-        if d.shape[1] != self.n:
-            raise InverseError(f"rows must have {self.n} readings, got {d.shape[1]}")
-        if rv.shape != (self.n,) or np.any(~(rv > 0)):
-            raise InverseError(f"random_var must be {self.n} positive variances")
-        R = d.shape[0]
-        valid = np.isfinite(d)
-        nan = lambda *shape: np.full(shape, np.nan)  # noqa: E731
-        est = BatchEstimates(self.names, nan(R, self.nf), nan(R, self.nf), nan(R), nan(R), nan(R), nan(R),
-                             nan(R), nan(R), valid.sum(axis=1))
-        for rows in _pattern_groups(valid):
-            v = valid[rows[0]]
-            if v.sum() >= MIN_SENSORS and self.nf:
-                self._average_group(v, rows, d[np.ix_(rows, np.flatnonzero(v))] - self.t0[v],
-                                    rv[v] + self.shared_var[v], alphas, est)
-        return est
+        over that log-spaced grid), weighted by the row's own evidence: `solve_mixture` with
+        this solver alone."""
+        return solve_mixture([(self, alphas)], d, random_var)
 
-    def _average_group(self, v, rows, x, noise, alphas, est):
-        """solve_averaged for the rows `rows` (readings minus t0: x) of pattern v at one noise
-        vector (n_v,) [K^2]."""
+    def _averaging_terms(self, v, noise, alphas):
+        """For pattern v at one noise vector (n_v,) [K^2]: the whitened design's left singular
+        vectors Uu and singular values s, the functionals' estimators E (A nf, n_v) and
+        variances V (A, nf) at every strength of `alphas` (as _estimators gives them one
+        strength at a time, from the one SVD), and G u (n_v,)."""
+        Gv, nf = self.G[v], self.nf
         sd = np.sqrt(noise)
-        Gv = self.G[v]
-        Uu, s, _ = np.linalg.svd(Gv / sd[:, None] * self.p_isqrt[None, :], full_matrices=False)
-        E, V = [], []
-        for a in alphas:
-            e, var, _, _ = self.with_alpha(a)._estimators(v, noise[None, :])
-            E.append(e[0, :self.nf])
-            V.append(np.einsum("qn,n->q", e[0, :self.nf] ** 2, noise) if self.sd_kind == "noise" else var[0, :self.nf])
-        E, V = np.concatenate(E), np.stack(V)                                        # (A nf, n_v), (A, nf)
+        Uu, s, Vt = np.linalg.svd(Gv / sd[:, None] * self.p_isqrt[None, :], full_matrices=False)
+        phi = self.Fn[:nf] @ Vt.T                                         # (nf, r)
+        inv = 1.0 / (s[None, :] ** 2 + alphas[:, None])                   # (A, r)
+        a = np.einsum("qr,ar,nr->aqn", phi, s[None, :] * inv, Uu) / sd    # (A, nf, n_v)
         gu = Gv @ self.u
-        A_, nf = alphas.size, self.nf
-        step = max(1, _BLOCK_ELEMENTS // (A_ * (nf + Uu.shape[1]) + x.shape[1]))
-        for lo in range(0, rows.size, step):
-            xb = x[lo:lo + step]
-            beta = _level_removed(xb, gu, noise) @ Uu
-            w = _weights(-0.5 * _alpha_terms(s ** 2, beta ** 2, alphas))
-            vals = (xb @ E.T).reshape(-1, A_, nf) + self.kq[None, None, :nf]
-            part = rows[lo:lo + step]
-            est.values[part], sd = _mixture(w, vals, V[None])
-            est.sd[part] = np.sqrt(sd ** 2 + self.model_var[None, :])
-
-    def _averaged_by_solves(self, d, rv, alphas) -> BatchEstimates:
-        """solve_averaged with a noise per row: the weights from row_log_evidence, one `solve`
-        per strength."""
-        logev = self.row_log_evidence(d, rv, alphas)
-        known = np.all(np.isfinite(logev), axis=1)
-        parts = [self.with_alpha(a).solve(d, rv) for a in alphas]
-        m = np.stack([p.values[known] for p in parts], axis=1)          # (R known, A, nf)
-        v2 = np.stack([p.sd[known] for p in parts], axis=1) ** 2
-        mean, sd = _mixture(_weights(logev[known]), m, v2)
-        out = parts[0]
-        out.values, out.sd = np.full_like(out.values, np.nan), np.full_like(out.sd, np.nan)
-        out.values[known] = mean
-        out.sd[known] = np.sqrt(sd ** 2 + self.model_var[None, :])
-        return out
+        W = 1.0 / noise
+        den = float(np.sum(W * gu ** 2))
+        g = W * gu / den if den > 0 else np.zeros_like(gu)
+        lead = self.fu[None, :nf] - a @ gu                                # (A, nf)
+        E = a + lead[:, :, None] * g[None, None, :]
+        if self.sd_kind == "noise":
+            V = np.einsum("aqn,n->aq", E ** 2, noise)
+        else:
+            V = inv @ (phi ** 2).T + np.maximum(self.fn2[None, :nf] - np.sum(phi ** 2, axis=1)[None, :],
+                                                0.0) / alphas[:, None]
+            if self.sd_kind == "change" and den > 0:
+                V = V + lead ** 2 / den
+        return Uu, s, E.reshape(-1, Gv.shape[0]), V, gu
 
     # ------------------------------------------------------------------ solving
     @few_threads
@@ -639,6 +624,121 @@ class BatchSolver:
         est.max_sd[rows] = np.sqrt(np.maximum(s_max, 0) + mv[1])
         est.nonuniformity[rows] = vmax - vmin
         est.nonuniformity_sd[rows] = np.sqrt(np.maximum(s_min + s_max - 2 * cov, 0.0) + mv[2])
+
+
+@few_threads
+def solve_mixture(parts, d, random_var) -> BatchEstimates:
+    """The functionals of each row averaged over hyperparameters by the row's own evidence.
+
+    parts: [(solver, alphas)], solvers of the same sensors and functionals that differ in
+    their prior (e.g. the zones' steps' scale, BatchSolver.changes' step_factor), each with
+    a log-spaced grid of strengths; the prior is uniform over the parts and, within a part,
+    over its grid.  With p_ra the row's evidence at pair a (part and strength),
+
+        w_ra = p_ra / sum_b p_rb,  mean_r = sum_a w_ra m_ra,
+        var_r = sum_a w_ra (sd_ra^2 + m_ra^2) - mean_r^2   (a Gaussian mixture's moments).
+
+    The parts' evidences are comparable: scaling the prior of some columns leaves the span of
+    the design, and so the readings' part outside it and log det S, unchanged.  With one noise
+    for every row (random_var (n,)), per missing-value pattern and part one SVD gives every
+    row's evidence (log p(d | alpha) up to a term free of alpha and of the part: -1/2 [sum_j
+    log(1 + s_j^2/alpha) + sum_j beta_j^2 alpha / (s_j^2 + alpha)]) and the estimators at
+    every strength one product; with a noise per row (random_var (R, n)), the same per
+    distinct noise.  Only the functionals: a solver with an extremes grid is refused."""
+    first = parts[0][0]
+    for solver, _ in parts:
+        if solver.Q:
+            raise InverseError("solve_mixture averages the functionals only (a solver without a grid)")
+        if solver.names != first.names or solver.n != first.n:
+            raise InverseError("the parts of a mixture must share their sensors and functionals")
+    parts = [(solver, np.atleast_1d(np.asarray(alphas, float))) for solver, alphas in parts]
+    d = np.atleast_2d(np.asarray(d, float))
+    rv = np.asarray(random_var, float)
+    if d.shape[1] != first.n:
+        raise InverseError(f"rows must have {first.n} readings, got {d.shape[1]}")
+    per_row = rv.ndim == 2
+    if per_row and rv.shape != d.shape:
+        raise InverseError(f"random_var must have shape ({first.n},) or {d.shape}")
+    if not per_row and (rv.shape != (first.n,) or np.any(~(rv > 0))):
+        raise InverseError(f"random_var must be {first.n} positive variances")
+    R, nf = d.shape[0], first.nf
+    valid = np.isfinite(d) & ((np.isfinite(rv) & (rv > 0)) if per_row else True)
+    nan = lambda *shape: np.full(shape, np.nan)  # noqa: E731
+    est = BatchEstimates(first.names, nan(R, nf), nan(R, nf), nan(R), nan(R), nan(R), nan(R),
+                         nan(R), nan(R), valid.sum(axis=1))
+    if not nf:
+        return est
+    same = all(np.array_equal(solver.t0, first.t0) and np.array_equal(solver.shared_var, first.shared_var)
+               and np.allclose(solver.G @ solver.u, first.G @ first.u, rtol=1e-12, atol=0.0)
+               and np.array_equal(solver.kq[:nf], first.kq[:nf]) for solver, _ in parts)
+    if not same:
+        raise InverseError("the parts of a mixture must share their known field, shared variance and nominal level")
+    for group in _pattern_groups(valid):
+        v = valid[group[0]]
+        if v.sum() < MIN_SENSORS:
+            continue
+        cols = np.flatnonzero(v)
+        if per_row:           # rows of one noise together: one SVD per noise and prior
+            rvs, which = np.unique(rv[np.ix_(group, cols)], axis=0, return_inverse=True)
+            which = which.ravel()
+            order = np.argsort(which, kind="stable")
+            runs = np.split(order, np.flatnonzero(np.diff(which[order])) + 1)
+        else:
+            rvs, runs = rv[v][None, :], [np.arange(group.size)]
+        for run in runs:
+            _mixture_rows(parts, est, group[run], v, rvs[which[run[0]] if per_row else 0], d)
+    return est
+
+
+def _mixture_rows(parts, est, rows, v, rv, d):
+    """solve_mixture for `rows` of d, all of pattern v and random variances rv (n_v,) [K^2]:
+    the estimates written into est."""
+    first, nf, cols = parts[0][0], parts[0][0].nf, np.flatnonzero(v)
+    A = sum(alphas.size for _, alphas in parts)
+    ends = np.cumsum([alphas.size for _, alphas in parts])
+    noise = rv + first.shared_var[v]
+    terms = [solver._averaging_terms(v, noise, alphas) for solver, alphas in parts]
+    U = np.hstack([t[0] for t in terms])                             # (n_v, sum r)
+    cuts = np.cumsum([t[0].shape[1] for t in terms])
+    E3 = np.concatenate([t[2] for t in terms]).reshape(A, nf, -1)   # (A, nf, n_v)
+    V = np.concatenate([t[3] for t in terms])                       # (A, nf)
+    gu = terms[0][4]
+    x = d[np.ix_(rows, cols)] - first.t0[v]
+    step = max(1, _BLOCK_ELEMENTS // (A * nf + int(cuts[-1]) + cols.size))
+    for lo in range(0, rows.size, step):
+        xb = x[lo:lo + step]
+        beta2 = (_level_removed(xb, gu, noise) @ U) ** 2
+        logw = np.empty((xb.shape[0], A))
+        for i, ((_, alphas), (_, sv, _, _, _)) in enumerate(zip(parts, terms)):
+            b = beta2[:, (cuts[i - 1] if i else 0):cuts[i]]
+            logw[:, (ends[i - 1] if i else 0):ends[i]] = -0.5 * _alpha_terms(sv ** 2, b, alphas) - np.log(alphas.size)
+        w = _weights(logw)
+        # pairs of negligible weight in every row of the block are left out (their share of
+        # any row's mean below MIXTURE_CUT of it)
+        keep = np.flatnonzero(w.max(axis=0) > MIXTURE_CUT)
+        w = w[:, keep]
+        vals = (xb @ E3[keep].reshape(-1, E3.shape[2]).T).reshape(-1, keep.size, nf)
+        mean = np.matmul(w[:, None, :], vals)[:, 0]
+        second = w @ V[keep] + np.matmul(w[:, None, :], vals * vals)[:, 0]
+        part = rows[lo:lo + step]
+        est.values[part] = mean + first.kq[None, :nf]
+        est.sd[part] = np.sqrt(np.maximum(second - mean ** 2, 0.0) + first.model_var[None, :])
+
+
+def solve_weighted(parts, d, random_var) -> BatchEstimates:
+    """The functionals of rows d averaged over solvers with fixed weights: parts [(solver,
+    log weight)] (solvers of the same sensors and functionals; weights normalized here),
+    each row's mean and sd the Gaussian mixture's moments (as solve_mixture's)."""
+    logw = np.array([lw for _, lw in parts], float)
+    w = np.exp(logw - logw.max())
+    w /= w.sum()
+    solved = [solver.solve(d, random_var) for solver, _ in parts]
+    m = np.stack([p.values for p in solved], axis=1)                  # (R, parts, nf)
+    v2 = np.stack([p.sd for p in solved], axis=1) ** 2
+    mean, sd = _mixture(np.broadcast_to(w, (m.shape[0], w.size)), m, v2)
+    out = solved[0]
+    out.values, out.sd = mean, sd
+    return out
 
 
 def _joint(terms, alphas):

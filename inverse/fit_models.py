@@ -9,17 +9,15 @@ from dataclasses import replace
 import numpy as np
 from scipy.special import logsumexp
 
-from ..forward.geometry import is_wall
 from .design import NOMINAL_PRECISION_FACTOR, smooth_prior
-from .face_grid import display_grid, face_interval
+from .face_grid import display_grid
 from .fit_problem import with_steps_given_kept
-from .hyperprior import LearnedPrior, face_size
+from .hyperprior import LearnedPrior
 from .model_choice import MIXED_MODELS, ModelMixture, embedded_mixture, log_evidence_on_all, model_weights
 from .result import Posterior, valid_zones
 from .strength import choose_strength, default_alphas
 from .truncation import nearest_distance
-from .zone_columns import ZoneDesign
-from .zone_edges import edge_rooms, edge_widths, with_edge
+from .zone_columns import ZoneDesign, designs_by_edge, edge_settings
 from .zones import MAX_CHOSEN_ZONES, ZONE_LEVEL_FACTORS, ZONE_PRIOR_FACTOR, ZoneModel, level_sets
 
 
@@ -66,17 +64,11 @@ def build_zone_models(spec, design, rd, problem, warnings, post, shift=None):
     # and around the zones has a level of its own (a background), which zone levels alone
     # cannot carry without biasing every zone.
     remainder, _ = smooth_prior(design.basis, cyl.radius, opts.smoothing)
-    side = is_wall(design.face_name)
-    rooms = edge_rooms(zones, side, cyl.wall_radius(design.face_name), face_interval(design.face_name, cyl))
-    widths = edge_widths(zones, face_size(design.basis), rooms, design.quantity) if learned else (None,)
-    # every width's zones projected in one go (one rule split at all their breaks)
-    sets = [with_edge(zones, width) for width in widths]
-    every = ZoneDesign(design, [z for zs in sets for z in zs], nearest_distance(design, rd.r, rd.z))
-    models, J = [], len(zones)
-    for i, (width, zs) in enumerate(zip(widths, sets)):
-        models.append(ZoneModel(design, rd, problem, zs, scale, remainder, every.big,
-                                every.A[i * J:(i + 1) * J], edge_width=width, shift=shift,
-                                level_factor=factor))
+    widths = edge_settings(design, zones) if learned else (None,)
+    models = []
+    for width, zd in zip(widths, designs_by_edge(design, zones, nearest_distance(design, rd.r, rd.z), widths)):
+        models.append(ZoneModel(design, rd, problem, zd.zones, scale, remainder, zd.big, zd.A,
+                                edge_width=width, shift=shift, level_factor=factor))
     return models
 
 

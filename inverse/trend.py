@@ -12,9 +12,11 @@ Works on window statistics (inverse.steady.WindowStats) and arrays; no files.
   so that the reference row's sds are at least the fit's; changes do not (it cancels).  Strength: the one the joint evidence of all steady windows
   prefers (windows mode, when the fit's rule is the evidence), else the reference window's own
   choice.  Changes from the reference are estimated from the readings' difference
-  d_row - d_ref (offsets cancel) with variance S_row + S_ref, at the joint evidence of the
-  other steady windows' differences that depart beyond the noise (windows mode), else
-  averaged over strengths by each row's own evidence (CHANGE_RULE).  Before they are inverted, each row's readings are
+  d_row - d_ref (offsets cancel) with variance S_row + S_ref: a smooth change plus a step
+  over each declared zone, the steps' scale and edge width (`change_priors`) and the
+  strength weighed by the joint evidence of the other steady windows' differences that
+  depart beyond the noise (windows mode), else averaged over by each row's own evidence
+  (CHANGE_RULE).  Before they are inverted, each row's readings are
   checked against each other (RowChecks): a sensor failing partway through the log is left
   out of the rows where it disagrees, not read as a heater's change.
 - Flags (`ChangeFlags`): |change| / sd(change) > Phi^-1(1 - level / (2 m)), m = rows x zones
@@ -33,7 +35,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .bands import Z95
-from .batch import TREND_FAMILY_LEVEL, BatchSolver, change_threshold
+from .batch import TREND_FAMILY_LEVEL, BatchSolver, change_threshold, solve_mixture, solve_weighted
 from .diagnostics import model_suspect
 from .errors import InverseError
 from .readings import SensorReadings
@@ -66,6 +68,26 @@ SUPPORT_ROWS = 32
 #: whose last window lost 10 % in one sector the strength came out 1e10 times the trend's, the
 #: change uniform over every zone (-60 +- 5 W/m^2 each, where one zone lost 299 W/m^2).
 CHANGE_RULE = "each row's own evidence, averaged over {num} strengths from {lo:.3g} to {hi:.3g} (uniform in log)"
+#: the zones' steps' prior variance in a change, in units of their zone mean's variance under
+#: the smooth change prior (BatchSolver.changes' step_factor), uniform in log from "no step"
+#: (1e-2: the smooth change alone) to "steps alone" (1e6: the smooth part stiffened until it
+#: carries nothing; the joint evidence's best strength grows with the factor there).  The
+#: evidence chooses (windows mode) or each row's evidence averages over them (CHANGE_RULE).
+#: Until session 34 the factor was 1: on a sector 20 % weak that is exactly a declared zone
+#: the change came out -2181 +- 102 W/m^2 against -2543 (3.5 sd), the joint evidence of the
+#: changed windows rising by 6,700 nats from factor 1 to 1e5.
+STEP_FACTORS = tuple(float(f) for f in np.geomspace(1e-2, 1e6, 9))
+#: the change priors and strengths each row's own evidence averages over (CHANGE_RULE): the
+#: products of every pair cost in proportion to their number, so fewer than the joint evidence's
+ROW_STEP_FACTORS = (1e-2, 1e2, 1e6)
+ROW_PRIOR_STRENGTHS = 9
+#: change priors whose joint evidence is below this fraction of the best one's are left out
+#: of the weighed change (their weight is negligible)
+CHANGE_PRIOR_CUT = 1e-4
+WEIGHED_RULE = (", weighing {num} of {of} change priors by that evidence (the heaviest: the zones' steps at "
+                "{factor:.3g} times their smooth variance, edge width {edge} of {edges})")
+STEP_RULE = (", and over {num} scales of the zones' steps from {lo:.3g} to {hi:.3g} times their smooth variance "
+             "and {edges} edge widths")
 
 
 class TrendError(InverseError):
@@ -169,7 +191,9 @@ class TrendModel:
     change_rule: str
     warnings: list = field(default_factory=list)
     set_aside: list = field(default_factory=list)    # sensors left out of the trend
-    change_alphas: np.ndarray | None = None          # each row's own evidence over these (CHANGE_RULE)
+    change_mixture: list | None = None   # [(change solver, strengths)]: each row's own evidence over these (CHANGE_RULE)
+    change_step_factor: float | None = None   # the zones' steps' variance factor of the heaviest weighed prior
+    change_weighed: list | None = None   # [(change solver, log evidence)]: the priors the joint evidence weighs
 
     @property
     def zone_names(self) -> list:
@@ -247,12 +271,19 @@ class TrendModel:
         ref_rv = np.where(valid, sig ** 2, np.nan)[used]
         solver = solver.with_fit_uncertainty(result, ref_d, np.where(np.isfinite(ref_rv), ref_rv, 1.0))
         changes = solver.changes()
-        # the grid spans the noise of a single reading's difference (streaming) and of a window
+        # the grids span the noise of a single reading's difference (streaming) and of a window
         # mean's (windows mode)
         single = np.asarray(s.reading_sigma, float)[used] ** 2
         pair = np.vstack([single, np.where(np.isfinite(ref_rv), ref_rv, single)]) + np.nan_to_num(ref_rv)
-        change_alphas = changes.strength_grid(pair)
-        change_rule = CHANGE_RULE.format(num=change_alphas.size, lo=change_alphas[0], hi=change_alphas[-1])
+        priors = change_priors(solver)
+        mixture = [(c, c.strength_grid(pair, num=ROW_PRIOR_STRENGTHS)) for c in
+                   (solver.changes(step_factor=f, edge=e) for e, f in change_priors(solver, ROW_STEP_FACTORS))]
+        change_rule = CHANGE_RULE.format(num=mixture[0][1].size, lo=min(a[0] for _, a in mixture),
+                                         hi=max(a[-1] for _, a in mixture))
+        if len(priors) > 1:
+            change_rule += STEP_RULE.format(num=len(ROW_STEP_FACTORS), lo=ROW_STEP_FACTORS[0],
+                                            hi=ROW_STEP_FACTORS[-1], edges=solver.step_edges)
+        chosen, weighted = None, None
         others = [] if steady is None else [w for w in steady if w != i]
         if others and joint_evidence:
             # the joint evidence of the differences that changed beyond the noise other than by
@@ -264,12 +295,15 @@ class TrendModel:
                 changes, np.zeros(X.shape[1]), np.zeros(X.shape[1]), stats.start[others], X, RV)
             moved = changes.departing_rows(X, RV, level=TREND_FAMILY_LEVEL / len(others))
             if moved.any():
-                alpha_c, _ = changes.joint_strength(X[moved], RV[moved])
-                changes, change_alphas = solver.changes(alpha_c), None
+                weighted, chosen = _joint_change_prior(solver, priors, X[moved], RV[moved])
+                changes, mixture = weighted[0][0], None
                 change_rule = (f"joint evidence of the {int(moved.sum())} of {len(others)} differences to the "
                                f"reference window that changed beyond the noise")
+                if len(priors) > 1:
+                    change_rule += WEIGHED_RULE.format(num=len(weighted), of=len(priors), factor=chosen[1],
+                                                       edge=chosen[0] + 1, edges=solver.step_edges)
         return cls(result, used, solver, changes, tau, ref_window, ref_d, ref_rv, strength_rule, change_rule,
-                   warnings, sorted(aside), change_alphas)
+                   warnings, sorted(aside), mixture, None if chosen is None else chosen[1], weighted)
 
     def checked(self, checks, start, d, rv, reference_mask=None):
         """Rows d (R, used) [K] with the readings a RowChecks sets aside as NaN (rv: their random
@@ -285,10 +319,12 @@ class TrendModel:
             # a sensor without a reading in the reference window has no change (its difference
             # is NaN, so every row leaves it out); its variance only has to be a number
             var = np.where(np.isfinite(var), var, 1.0)
-        if self.change_alphas is None:
-            ch = self.changes.solve(d - self.ref_d, var)
+        if self.change_mixture is not None:
+            ch = solve_mixture(self.change_mixture, d - self.ref_d, var)
+        elif self.change_weighed is not None and len(self.change_weighed) > 1:
+            ch = solve_weighted(self.change_weighed, d - self.ref_d, var)
         else:
-            ch = self.changes.solve_averaged(d - self.ref_d, var, self.change_alphas)
+            ch = self.changes.solve(d - self.ref_d, var)
         change, csd = ch.values, ch.sd
         if reference_mask is not None and np.any(reference_mask):
             change[reference_mask], csd[reference_mask] = 0.0, 0.0
@@ -319,6 +355,31 @@ class TrendModel:
         falls = np.take_along_axis(score, weakest[:, None, :], axis=1)[:, 0, :] <= threshold
         lone[flag[rows] & falls] = weakest[flag[rows] & falls]
         return rows, lone
+
+
+def change_priors(solver, factors=None) -> list:
+    """The change priors (edge setting, step factor) a trend weighs: every edge setting of the
+    zones' steps (BatchSolver.step_edges) with every value of `factors` (default
+    STEP_FACTORS), or [(0, 1.0)] without steps."""
+    edges = solver.step_edges
+    factors = STEP_FACTORS if factors is None else factors
+    return [(e, f) for e in range(edges) for f in factors] if edges else [(0, 1.0)]
+
+
+def _joint_change_prior(solver, priors, X, RV):
+    """The change priors `priors` (change_priors), each at the strength the joint evidence of
+    the difference rows X (R, n) [K] with variances RV [K^2] prefers, weighed by that
+    evidence (a uniform prior over them; parts of weight below CHANGE_PRIOR_CUT x the
+    largest's left out): ([(change solver, log evidence)], (edge setting, step factor) of the
+    heaviest)."""
+    parts = []
+    for e, f in priors:
+        c = solver.changes(step_factor=f, edge=e)
+        alpha, le, _ = c.joint_best(X, RV)
+        parts.append((c.with_alpha(alpha), le, (e, f)))
+    top = max(le for _, le, _ in parts)
+    kept = [p for p in parts if p[1] >= top + math.log(CHANGE_PRIOR_CUT)]
+    return [(c, le) for c, le, _ in kept], max(kept, key=lambda p: p[1])[2]
 
 
 @dataclass

@@ -11,7 +11,7 @@ import numpy as np
 from ..forward.geometry import is_wall
 from .face_grid import face_interval, segments
 from .truncation import enlarged_size
-from .zone_edges import zone_breaks
+from .zone_edges import edge_rooms, edge_widths, with_edge, zone_breaks
 
 
 #: the projection keeps modes down to exp(-kappa d_min) = PROJECTION_DECAY at the nearest sensor
@@ -130,3 +130,23 @@ class ZoneDesign:
     def powers(self):
         p, known = self.smooth.powers()
         return np.concatenate([p, self.A @ self.big.powers()[:self.big.n_eigen]]), known
+
+
+def edge_settings(design, zones) -> tuple:
+    """The edge widths the zones are averaged over on design's face (zone_edges.edge_widths
+    of their rooms, zone_edges.edge_rooms): one tuple of per-zone widths [m] per setting, or
+    (None,) when a zone declares its own edge."""
+    from .hyperprior import face_size
+
+    cyl, face = design.cylinder, design.face_name
+    rooms = edge_rooms(zones, is_wall(face), cyl.wall_radius(face), face_interval(face, cyl))
+    return edge_widths(zones, face_size(design.basis), rooms, design.quantity)
+
+
+def designs_by_edge(design, zones, nearest, widths) -> list:
+    """One ZoneDesign of `zones` per edge setting of `widths` (zone_edges.with_edge), all
+    projected in one go (one quadrature rule split at all their breaks) on one enlarged basis."""
+    sets = [with_edge(zones, w) for w in widths]
+    every = ZoneDesign(design, [z for zs in sets for z in zs], nearest)
+    J = len(zones)
+    return [ZoneDesign(design, zs, None, big=every.big, A=every.A[i * J:(i + 1) * J]) for i, zs in enumerate(sets)]

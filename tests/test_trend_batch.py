@@ -363,3 +363,41 @@ def test_face_functionals_match_the_fit():
     for z in ref.summary["zones"]:
         f, k = funcs[z["name"]]
         assert f @ c + k == pytest.approx(z["mean"], rel=1e-3)
+
+
+def test_a_mixture_of_change_priors_weighs_every_pair_by_each_rows_evidence():
+    """solve_mixture over two change priors (the zones' steps at 1e-2 and 1e6 times their
+    smooth variance, sharp and widest edges), each with its own strength grid: per row, the
+    Gaussian mixture over every (prior, strength) pair with weights p(d | pair) / sum (a
+    uniform prior over the priors and, within each, over its grid), the evidences the full
+    row evidences (row_log_evidence: the readings' part outside the design and log det S
+    included, so that the parts' evidences are compared whole) and the components single
+    solves; the one-SVD path (one noise for every row) and the per-row path agree."""
+    from heatsight.inverse.batch import solve_mixture
+
+    case, lay, t_nom, t_off, _ = platen()
+    solver = BatchSolver.from_fit(reference_fit(), lay["r"], lay["theta"], lay["z"], offset_sd=0.5,
+                                  zones=case.zones)
+    assert solver.step_edges == 3
+    rng = np.random.default_rng(9)
+    ref = t_nom + rng.normal(0.0, 0.05, t_nom.size)
+    X = np.vstack([t_nom, t_off, t_nom + 0.2 * (t_off - t_nom)]) + rng.normal(0.0, 0.05, (3, t_nom.size)) - ref
+    X[2, 5] = np.nan
+    rv = np.full(t_nom.size, 2 * 0.05 ** 2)
+    parts = [(c, c.strength_grid(rv, num=5)) for c in (solver.changes(step_factor=1e-2, edge=0),
+                                                        solver.changes(step_factor=1e6, edge=2))]
+    got = solve_mixture(parts, X, rv)
+    ev = np.hstack([c.row_log_evidence(X, rv, g) - np.log(g.size) for c, g in parts])
+    w = np.exp(ev - ev.max(axis=1, keepdims=True))
+    w /= w.sum(axis=1, keepdims=True)
+    solved = [c.with_alpha(a).solve(X, rv) for c, g in parts for a in g]
+    m = np.stack([p.values for p in solved], axis=1)
+    v = np.stack([p.sd for p in solved], axis=1) ** 2
+    mean = np.einsum("ra,raq->rq", w, m)
+    np.testing.assert_allclose(got.values, mean, rtol=1e-9, atol=1e-9 * np.abs(mean).max())
+    np.testing.assert_allclose(got.sd ** 2, np.einsum("ra,raq->rq", w, v + m ** 2) - mean ** 2, rtol=1e-7)
+    # the loss of a whole sector leans on the steps alone
+    assert w[1, 5:].sum() > 0.99
+    each = solve_mixture(parts, X, np.tile(rv, (3, 1)))
+    np.testing.assert_allclose(got.values, each.values, rtol=1e-9, atol=1e-9 * np.abs(mean).max())
+    np.testing.assert_allclose(got.sd, each.sd, rtol=1e-7)
