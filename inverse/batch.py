@@ -175,11 +175,13 @@ class BatchSolver:
     # ------------------------------------------------------------------ construction
     @classmethod
     def from_fit(cls, result, r, theta, z, offset_sd=0.0, position_tolerance=0.0, zones=(),
-                 grid=TREND_GRID, alpha=None):
+                 grid=TREND_GRID, alpha=None, like=None):
         """Solver for sensors at (r, theta, z) [m, rad, m] with the model, smoothing and
         strength of a FitResult (alpha: override).  Shared variance: offset_sd^2 plus the
         placement variance (grad T . dx)^2 with dx uniform in +-position_tolerance, grad T from
-        the result's posterior mean (fixed at the reference, like the model)."""
+        the result's posterior mean (fixed at the reference, like the model).  like: a solver
+        from another fit of the same case; its zones' steps are shared when its sensors and
+        their design columns are these to rounding (the steps depend on nothing else)."""
         if not result.smooth_only:
             raise InverseError("logs are inverted with the smooth model; set [fit] model = \"smooth\" "
                                "for trend (the zone model serves single snapshots)")
@@ -200,6 +202,11 @@ class BatchSolver:
         steps = [zn for zn in zones or () if hasattr(zn, "indicator") and (zn.face or basis.face) == basis.face]
         if steps:
             out._step_source = (design, r, theta, z, steps)
+            if like is not None and like._step_source is not None and like.G.shape == G.shape:
+                _, r0, th0, z0, steps0 = like._step_source
+                if (steps0 == steps and np.allclose(like.G, G, rtol=1e-12, atol=1e-12 * float(np.abs(G).max()))
+                        and all(np.array_equal(a, b) for a, b in ((r0, r), (th0, theta), (z0, z)))):
+                    out._step_source, out._steps = like._step_source, like._steps
         return out
 
     def zone_steps(self, edge: int = 0):

@@ -224,10 +224,10 @@ class TrendModel:
         rd = SensorReadings([s.names[j] for j in k], s.r[k], s.theta[k], s.z[k], mean[k], sig[k], tau[k],
                             s.position_tolerance[k])
 
-        def solver_for(result, aside):
+        def solver_for(result, aside, like=None):
             u = np.array([n not in aside for n in s.names])
             return u, BatchSolver.from_fit(result, s.r[u], s.theta[u], s.z[u], offset_sd=tau[u],
-                                           position_tolerance=s.position_tolerance[u], zones=zones)
+                                           position_tolerance=s.position_tolerance[u], zones=zones, like=like)
 
         # the reference fit, as `fit` makes it: the answer shown for the reference window, and
         # what the trend's absolute figures carry beyond its single prior (with_fit_uncertainty)
@@ -252,7 +252,7 @@ class TrendModel:
             # map is never shown, so it is evaluated on a token grid
             fixed = fit(rd, alpha, grid=PROBE_GRID)
             aside |= set(fixed.summary["set_aside"])
-            used, solver = solver_for(fixed, aside)
+            used, solver = solver_for(fixed, aside, like=solver)
             strength_rule = f"joint evidence of the {len(steady)} steady windows"
         shown = set(result.summary["set_aside"])
         for name in sorted(aside):

@@ -401,3 +401,26 @@ def test_a_mixture_of_change_priors_weighs_every_pair_by_each_rows_evidence():
     each = solve_mixture(parts, X, np.tile(rv, (3, 1)))
     np.testing.assert_allclose(got.values, each.values, rtol=1e-9, atol=1e-9 * np.abs(mean).max())
     np.testing.assert_allclose(got.sd, each.sd, rtol=1e-7)
+
+
+def test_a_second_fits_solver_shares_the_zones_steps():
+    """The trend builds a solver from the reference fit and another from the fit at the
+    joint strength: the zones' steps (three edge widths, the costliest part) are built once
+    when the sensors and their design columns agree (to rounding), and the shared steps give
+    the same changes as steps built afresh; other sensors get their own."""
+    import heatsight.inverse as inv
+
+    case, lay, t_nom, t_off, _ = platen()
+    first = BatchSolver.from_fit(reference_fit(), lay["r"], lay["theta"], lay["z"], zones=case.zones)
+    first.zone_steps()
+    other = inv.fit(case, readings(t_nom + 0.3 * (t_off - t_nom), 0.1, 0.5), model="smooth", strength=1e-3)
+    shared = BatchSolver.from_fit(other, lay["r"], lay["theta"], lay["z"], zones=case.zones, like=first)
+    fresh = BatchSolver.from_fit(other, lay["r"], lay["theta"], lay["z"], zones=case.zones)
+    assert shared._steps is first._steps and fresh._steps is None
+    X = (t_off - t_nom)[None, :] * np.array([[0.1], [0.5]])
+    rv = np.full(t_nom.size, 0.01)
+    for e in range(3):
+        a, b = (s.changes(step_factor=100.0, edge=e).solve(X, rv) for s in (shared, fresh))
+        np.testing.assert_allclose(a.values, b.values, rtol=1e-9)
+    few = BatchSolver.from_fit(other, lay["r"][:-1], lay["theta"][:-1], lay["z"][:-1], zones=case.zones, like=first)
+    assert few._steps is None
