@@ -235,7 +235,7 @@ class TrendRun:
         zones = self.model.zone_names
         change, csd = self.model.changes_of(d, rv, reference_mask)
         flag = self.flags.update(start, end, change, csd, self.ref_window[0])
-        rows, lone = self.model.flag_support(d, rv, flag, self.flags.threshold)
+        rows, lone = self.model.flag_support(d, rv, flag)
         self.flags.note_support(flag, rows, lone, self.checks.names)
         v = self.units.value
         data = [("time", start), ("time", end)]

@@ -105,9 +105,9 @@ def flag_sentences(summary: dict, report: bool = True) -> list[str]:
         lone = f.get("lone_sensor")
         if lone:
             text += (f". In {f['rests_on_one_sensor'][lone]} of the {_rows(f['support_rows_examined'])} examined "
-                     f"the flag rests on sensor {lone} alone (without its reading the change stays within the "
-                     f"limit): a drifting or loose thermocouple there would look the same, so check {lone} "
-                     f"before reading this as the heater's")
+                     f"the flag rests on sensor {lone} alone (without its reading the other sensors show no "
+                     f"change there): a drifting or loose thermocouple there would look the same, so check "
+                     f"{lone} before reading this as the heater's")
         out.append(text + ".")
     if not summary["flags"]:
         n = len(summary["zones"])

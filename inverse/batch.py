@@ -42,8 +42,9 @@ with one of its edge widths; its prior variance at strength alpha step_factor ti
 the zone's mean under the smooth prior, the nominal direction left out), so a heater zone's
 loss keeps its sharp edges instead of being rounded off (a sector's loss came out 8-13 %
 small, 4 sd).  The caller weighs the edge widths and step factors (inverse.trend), by the
-joint evidence of the changed rows (`solve_weighted`) or by each row's own (`solve_mixture`).  Estimating it from the difference of two absolute estimates
-instead would shrink it with the offsets' variance, which dominates each row's noise.  Its
+joint evidence of the changed rows (`solve_weighted`) or by each row's own (`solve_mixture`).
+Estimating it from the difference of two absolute estimates instead would shrink it with the
+offsets' variance, which dominates each row's noise.  Its
 sd ("change" sds) is the posterior sd at a fixed level plus the spread of the row's own
 level, (f.u - a_f . G u)^2 / (u^T G^T S^-1 G u): what the noise and the unseen part of the
 change leave open, so a change that spills into a neighbouring zone through the smoothing
@@ -77,10 +78,11 @@ MIN_SENSORS = 3
 LOO_MIN_FREEDOM = 1e-9
 #: tail probability beyond which a row departs from the prior mean (departing_rows)
 DEPARTURE_LEVEL = 1e-3
-#: strengths of the grid a row's change is averaged over by its own evidence (solve_averaged)
+#: default number of strengths of `strength_grid` (a row's change averaged over them by its own
+#: evidence: solve_averaged, solve_mixture)
 ROW_STRENGTHS = 17
 #: a pair of a mixture (solve_mixture) whose weight stays below this in every row of a block is
-#: left out of that block's products
+#: left out of that block's products (a weight, not a share of the mean)
 MIXTURE_CUT = 1e-12
 #: bound on the size of stacked intermediate arrays (elements)
 _BLOCK_ELEMENTS = 4_000_000
@@ -214,7 +216,8 @@ class BatchSolver:
         step) of a step of unit level over each zone with ranges on the face (its
         indicator projected on the enlarged basis, zone_columns.ZoneDesign: the zone model's
         columns) with the edges of setting `edge` (an index into step_edges, the edge widths
-        the zone model averages over: sharp first), or None; built once for every setting."""
+        the zone model averages over, narrowest first: zone_columns.edge_settings), or None;
+        built once for every setting."""
         if self._steps is None and self._step_source is not None:
             from .truncation import nearest_distance
             from .zone_columns import designs_by_edge, edge_settings
@@ -222,7 +225,7 @@ class BatchSolver:
             design, r, theta, z, zones = self._step_source
             widths = edge_settings(design, zones)
             self._steps = []
-            for zd in designs_by_edge(design, zones, nearest_distance(design, r, z), widths):
+            for w, zd in zip(widths, designs_by_edge(design, zones, nearest_distance(design, r, z), widths)):
                 Gz = zd.at(r, theta, z)[0][:, self.K:]
                 rows = {name: f for name, f, _ in face_functionals(zd, zd.zones)}
                 has = np.array([zn.name in rows for zn in zones])     # a zone covering nothing has none
@@ -230,9 +233,14 @@ class BatchSolver:
                     self._steps = []
                     break
                 keep = np.concatenate([np.ones(self.K, bool), has])
+                widest = max(w) if w is not None else max(getattr(zn, "edge", 0.0) for zn in zones)
                 self._steps.append((Gz[:, has], {n: f[keep] for n, f in rows.items()},
-                                    [zn.name for zn, h in zip(zones, has) if h]))
-        return self._steps[edge] if self._steps else None
+                                    [zn.name for zn, h in zip(zones, has) if h], float(widest)))
+        return self._steps[edge][:3] if self._steps else None
+
+    def step_edge_width(self, edge: int) -> float:
+        """The widest edge [m] among the zones' steps of edge setting `edge`."""
+        return self._steps[edge][3] if self.zone_steps(edge) is not None else 0.0
 
     @property
     def step_edges(self) -> int:
@@ -645,8 +653,9 @@ def solve_mixture(parts, d, random_var) -> BatchEstimates:
         w_ra = p_ra / sum_b p_rb,  mean_r = sum_a w_ra m_ra,
         var_r = sum_a w_ra (sd_ra^2 + m_ra^2) - mean_r^2   (a Gaussian mixture's moments).
 
-    The parts' evidences are comparable: scaling the prior of some columns leaves the span of
-    the design, and so the readings' part outside it and log det S, unchanged.  With one noise
+    The parts' evidences are compared whole: log det S is the same for every part, and the
+    readings' part outside each design's span is added (the parts' columns may differ: the
+    zones' steps' edges).  With one noise
     for every row (random_var (n,)), per missing-value pattern and part one SVD gives every
     row's evidence (log p(d | alpha) up to a term free of alpha and of the part: -1/2 [sum_j
     log(1 + s_j^2/alpha) + sum_j beta_j^2 alpha / (s_j^2 + alpha)]) and the estimators at
@@ -714,14 +723,19 @@ def _mixture_rows(parts, est, rows, v, rv, d):
     step = max(1, _BLOCK_ELEMENTS // (A * nf + int(cuts[-1]) + cols.size))
     for lo in range(0, rows.size, step):
         xb = x[lo:lo + step]
-        beta2 = (_level_removed(xb, gu, noise) @ U) ** 2
+        y = _level_removed(xb, gu, noise)
+        beta2 = (y @ U) ** 2
+        yy = np.sum(y ** 2, axis=1)
         logw = np.empty((xb.shape[0], A))
         for i, ((_, alphas), (_, sv, _, _, _)) in enumerate(zip(parts, terms)):
             b = beta2[:, (cuts[i - 1] if i else 0):cuts[i]]
-            logw[:, (ends[i - 1] if i else 0):ends[i]] = -0.5 * _alpha_terms(sv ** 2, b, alphas) - np.log(alphas.size)
+            # the readings' part outside the design's span (zero where the design spans every
+            # reading; parts whose columns differ may differ in it)
+            rest = np.maximum(yy - np.sum(b, axis=1), 0.0)
+            logw[:, (ends[i - 1] if i else 0):ends[i]] = (-0.5 * (_alpha_terms(sv ** 2, b, alphas) + rest[:, None])
+                                                          - np.log(alphas.size))
         w = _weights(logw)
-        # pairs of negligible weight in every row of the block are left out (their share of
-        # any row's mean below MIXTURE_CUT of it)
+        # pairs of negligible weight (below MIXTURE_CUT) in every row of the block are left out
         keep = np.flatnonzero(w.max(axis=0) > MIXTURE_CUT)
         w = w[:, keep]
         vals = (xb @ E3[keep].reshape(-1, E3.shape[2]).T).reshape(-1, keep.size, nf)

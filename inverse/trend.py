@@ -23,8 +23,9 @@ Works on window statistics (inverse.steady.WindowStats) and arrays; no files.
   (Bonferroni, family-wise TREND_FAMILY_LEVEL); rows before the reference (the part still
   settling) are never flagged.  Each flag's support (`TrendModel.flag_support`, case
   deletion as in regression diagnostics): the flagged row is solved again with each reading
-  left out in turn; a flag that falls to the limit or below without one sensor rests on
-  that sensor alone, and a drifting or loose thermocouple there would look the same.
+  left out in turn; a flag whose zone shows no change without one sensor (within LONE_SCORE
+  sd of none) rests on that sensor alone, and a drifting or loose thermocouple there would
+  look the same.
 """
 
 from __future__ import annotations
@@ -54,38 +55,44 @@ PROBE_GRID = (3, 4)
 #: flagged rows of one batch examined for their support (TrendModel.flag_support), evenly
 #: spread: each costs one solve per sensor
 SUPPORT_ROWS = 32
+#: a flag rests on one sensor when, without its reading, the zone's change is within this many
+#: of its sd of none (the others see no change there, at about 95 %; common practice, no source)
+LONE_SCORE = 2.0
 
 
 #: how a change's strength is set when no difference to the reference departs beyond the noise
 #: (or when streaming every Nth row, where no later window can be looked at): each row's change
 #: is averaged over a log-spaced grid of strengths (BatchSolver.strength_grid, uniform in log
-#: alpha over the range where the evidence moves), weighted by that row's own evidence
-#: (BatchSolver.solve_averaged).  Until session 33 half the trend's strength was used: when the
-#: offsets hide the profile the reference fit sits at its stiffest, and on the demo platen a
-#: 10 % loss of one sector came out as -226 +- 6 W/m^2 in every zone, all five flagged, where
-#: one zone lost 1043.  In windows mode the joint evidence of the differences that depart sets
-#: one strength; until session 32 every steady window's difference voted, and on an 8-hour log
-#: whose last window lost 10 % in one sector the strength came out 1e10 times the trend's, the
-#: change uniform over every zone (-60 +- 5 W/m^2 each, where one zone lost 299 W/m^2).
+#: alpha over the range where the evidence moves) and over the change priors (STEP_FACTORS,
+#: edge widths), weighted by that row's own evidence (batch.solve_mixture).  Until session 33
+#: half the trend's strength was used: when the offsets hide the profile the reference fit sits
+#: at its stiffest, and on the demo platen a 10 % loss of one sector came out as -226 +- 6 W/m^2
+#: in every zone, all five flagged, where one zone lost 1043.  In windows mode the joint
+#: evidence of the differences that depart sets the strength; until session 32 every steady
+#: window's difference voted, and on an 8-hour log whose last window lost 10 % in one sector
+#: the strength came out 1e10 times the trend's, the change uniform over every zone (-60 +- 5
+#: W/m^2 each, where one zone lost 299 W/m^2).
 CHANGE_RULE = "each row's own evidence, averaged over {num} strengths from {lo:.3g} to {hi:.3g} (uniform in log)"
 #: the zones' steps' prior variance in a change, in units of their zone mean's variance under
-#: the smooth change prior (BatchSolver.changes' step_factor), uniform in log from "no step"
-#: (1e-2: the smooth change alone) to "steps alone" (1e6: the smooth part stiffened until it
-#: carries nothing; the joint evidence's best strength grows with the factor there).  The
-#: evidence chooses (windows mode) or each row's evidence averages over them (CHANGE_RULE).
-#: Until session 34 the factor was 1: on a sector 20 % weak that is exactly a declared zone
-#: the change came out -2181 +- 102 W/m^2 against -2543 (3.5 sd), the joint evidence of the
-#: changed windows rising by 6,700 nats from factor 1 to 1e5.
-STEP_FACTORS = tuple(float(f) for f in np.geomspace(1e-2, 1e6, 9))
-#: the change priors and strengths each row's own evidence averages over (CHANGE_RULE): the
-#: products of every pair cost in proportion to their number, so fewer than the joint evidence's
-ROW_STEP_FACTORS = (1e-2, 1e2, 1e6)
+#: the smooth change prior at the smooth change's own strength (BatchSolver.changes'
+#: step_factor), weighed with the zone model's edge widths by the evidence (`change_priors`);
+#: the smooth change keeps the strength it takes alone (factor 1).  Until session 34 the factor
+#: was 1 and the steps sharp: a sector 20 % weak that is exactly a declared zone came out -2211
+#: +- 53 W/m^2 against -2400 (3.6 sd).  A wide range (1e-2 .. 1e6, each factor at its own best
+#: strength) was tried in session 34 and dropped: the evidence chose "steps alone" (the smooth
+#: part stiffened to nothing), and a loss covering part of a zone was given to the whole zone
+#: with a tight sd (finite-element heaters: 4-12 sd off; the same loss 0.2-1.9 sd off with
+#: factor 1).  Within a factor of 10 of the tied prior the sharp sector is -2350 +- 43 and the
+#: finite-element cases stay within 2.4 sd (DEVELOPERS.md).
+STEP_FACTORS = (0.1, 1.0, 10.0)
+#: strengths per change prior a row's own evidence averages over (CHANGE_RULE): the products
+#: of every pair cost in proportion to their number
 ROW_PRIOR_STRENGTHS = 9
 #: change priors whose joint evidence is below this fraction of the best one's are left out
 #: of the weighed change (their weight is negligible)
 CHANGE_PRIOR_CUT = 1e-4
 WEIGHED_RULE = (", weighing {num} of {of} change priors by that evidence (the heaviest: the zones' steps at "
-                "{factor:.3g} times their smooth variance, edge width {edge} of {edges})")
+                "{factor:.3g} times their smooth variance, edges up to {edge:.3g} mm wide)")
 STEP_RULE = (", and over {num} scales of the zones' steps from {lo:.3g} to {hi:.3g} times their smooth variance "
              "and {edges} edge widths")
 
@@ -191,7 +198,8 @@ class TrendModel:
     change_rule: str
     warnings: list = field(default_factory=list)
     set_aside: list = field(default_factory=list)    # sensors left out of the trend
-    change_mixture: list | None = None   # [(change solver, strengths)]: each row's own evidence over these (CHANGE_RULE)
+    # [(change solver, strengths)]: each row's own evidence averages over these (CHANGE_RULE)
+    change_mixture: list | None = None
     change_step_factor: float | None = None   # the zones' steps' variance factor of the heaviest weighed prior
     change_weighed: list | None = None   # [(change solver, log evidence)]: the priors the joint evidence weighs
 
@@ -276,14 +284,7 @@ class TrendModel:
         single = np.asarray(s.reading_sigma, float)[used] ** 2
         pair = np.vstack([single, np.where(np.isfinite(ref_rv), ref_rv, single)]) + np.nan_to_num(ref_rv)
         priors = change_priors(solver)
-        mixture = [(c, c.strength_grid(pair, num=ROW_PRIOR_STRENGTHS)) for c in
-                   (solver.changes(step_factor=f, edge=e) for e, f in change_priors(solver, ROW_STEP_FACTORS))]
-        change_rule = CHANGE_RULE.format(num=mixture[0][1].size, lo=min(a[0] for _, a in mixture),
-                                         hi=max(a[-1] for _, a in mixture))
-        if len(priors) > 1:
-            change_rule += STEP_RULE.format(num=len(ROW_STEP_FACTORS), lo=ROW_STEP_FACTORS[0],
-                                            hi=ROW_STEP_FACTORS[-1], edges=solver.step_edges)
-        chosen, weighted = None, None
+        chosen, weighted, mixture = None, None, None
         others = [] if steady is None else [w for w in steady if w != i]
         if others and joint_evidence:
             # the joint evidence of the differences that changed beyond the noise other than by
@@ -295,15 +296,26 @@ class TrendModel:
                 changes, np.zeros(X.shape[1]), np.zeros(X.shape[1]), stats.start[others], X, RV)
             moved = changes.departing_rows(X, RV, level=TREND_FAMILY_LEVEL / len(others))
             if moved.any():
-                weighted, chosen = _joint_change_prior(solver, priors, X[moved], RV[moved])
-                changes, mixture = weighted[0][0], None
+                weighted, chosen, notes = _joint_change_prior(solver, priors, X[moved], RV[moved])
+                warnings.extend(notes)
+                changes = max(weighted, key=lambda p: p[1])[0]
                 change_rule = (f"joint evidence of the {int(moved.sum())} of {len(others)} differences to the "
                                f"reference window that changed beyond the noise")
                 if len(priors) > 1:
                     change_rule += WEIGHED_RULE.format(num=len(weighted), of=len(priors), factor=chosen[1],
-                                                       edge=chosen[0] + 1, edges=solver.step_edges)
+                                                       edge=1e3 * solver.step_edge_width(chosen[0]))
+        if weighted is None:
+            # each row's own evidence over the priors, at the strengths where the smooth change's
+            # own evidence moves
+            grid = changes.strength_grid(pair, num=ROW_PRIOR_STRENGTHS)
+            mixture = [(solver.changes(step_factor=f, edge=e), grid) for e, f in priors]
+            change_rule = CHANGE_RULE.format(num=grid.size, lo=grid[0], hi=grid[-1])
+            if len(priors) > 1:
+                change_rule += STEP_RULE.format(num=len(STEP_FACTORS), lo=STEP_FACTORS[0], hi=STEP_FACTORS[-1],
+                                                edges=solver.step_edges)
         return cls(result, used, solver, changes, tau, ref_window, ref_d, ref_rv, strength_rule, change_rule,
-                   warnings, sorted(aside), mixture, None if chosen is None else chosen[1], weighted)
+                   warnings, sorted(aside), mixture, None if chosen is None or len(priors) == 1 else chosen[1],
+                   weighted)
 
     def checked(self, checks, start, d, rv, reference_mask=None):
         """Rows d (R, used) [K] with the readings a RowChecks sets aside as NaN (rv: their random
@@ -330,13 +342,15 @@ class TrendModel:
             change[reference_mask], csd[reference_mask] = 0.0, 0.0
         return change, csd
 
-    def flag_support(self, d, rv, flag, threshold: float, most: int | None = None):
+    def flag_support(self, d, rv, flag, most: int | None = None):
         """The one sensor each flag rests on, by case deletion: every flagged row of d (R, used)
         [K] (at most `most`, default SUPPORT_ROWS, evenly spread) is solved again with each reading left out in turn
         (rv ((used,) or (R, used)) [K^2], as changes_of).  Returns rows (k,), the rows examined,
-        and lone (k, zones): the index among the used sensors without whose reading the flag
-        of that zone would fall to `threshold` sd or below (the one that lowers it most), -1
-        where the flag stands without any single sensor or the zone is not flagged there."""
+        and lone (k, zones): the index among the used sensors without whose reading the other
+        readings show no change of that zone (|change| / sd at most LONE_SCORE; the sensor
+        that lowers it most), -1 where they do (a change seen mostly by one sensor, its
+        neighbours moving a little, is the part's), where no answer is left without a sensor,
+        or where the zone is not flagged."""
         rows = np.flatnonzero(np.asarray(flag).any(axis=1))
         most = SUPPORT_ROWS if most is None else most
         if rows.size > most:
@@ -350,36 +364,37 @@ class TrendModel:
         change, csd = self.changes_of(without, np.repeat(rv[rows], n, axis=0) if np.ndim(rv) == 2 else rv)
         with np.errstate(invalid="ignore", divide="ignore"):
             score = (np.abs(change) / csd).reshape(k, n, -1)
-        score = np.where(np.isfinite(score), score, 0.0)   # no answer without it: no flag either
+        score = np.where(np.isfinite(score), score, np.inf)   # no answer without it: undecided
         weakest = np.argmin(score, axis=1)
-        falls = np.take_along_axis(score, weakest[:, None, :], axis=1)[:, 0, :] <= threshold
+        falls = np.take_along_axis(score, weakest[:, None, :], axis=1)[:, 0, :] <= LONE_SCORE
         lone[flag[rows] & falls] = weakest[flag[rows] & falls]
         return rows, lone
 
 
-def change_priors(solver, factors=None) -> list:
+def change_priors(solver) -> list:
     """The change priors (edge setting, step factor) a trend weighs: every edge setting of the
-    zones' steps (BatchSolver.step_edges) with every value of `factors` (default
-    STEP_FACTORS), or [(0, 1.0)] without steps."""
+    zones' steps (BatchSolver.step_edges) with every STEP_FACTORS value, or [(0, 1.0)] without
+    steps."""
     edges = solver.step_edges
-    factors = STEP_FACTORS if factors is None else factors
-    return [(e, f) for e in range(edges) for f in factors] if edges else [(0, 1.0)]
+    return [(e, f) for e in range(edges) for f in STEP_FACTORS] if edges else [(0, 1.0)]
 
 
 def _joint_change_prior(solver, priors, X, RV):
-    """The change priors `priors` (change_priors), each at the strength the joint evidence of
-    the difference rows X (R, n) [K] with variances RV [K^2] prefers, weighed by that
-    evidence (a uniform prior over them; parts of weight below CHANGE_PRIOR_CUT x the
-    largest's left out): ([(change solver, log evidence)], (edge setting, step factor) of the
-    heaviest)."""
+    """The change priors `priors` (change_priors) at the strength the joint evidence of the
+    difference rows X (R, n) [K] with variances RV [K^2] prefers for the tied prior (factor 1,
+    the first edge setting: the smooth change's own), each weighed by its joint evidence
+    there (a uniform prior over them; parts of weight below CHANGE_PRIOR_CUT x the largest's
+    left out): ([(change solver, log evidence)], (edge setting, step factor) of the heaviest,
+    warnings)."""
+    alpha, _, notes = solver.changes().joint_best(X, RV)
     parts = []
     for e, f in priors:
-        c = solver.changes(step_factor=f, edge=e)
-        alpha, le, _ = c.joint_best(X, RV)
-        parts.append((c.with_alpha(alpha), le, (e, f)))
+        c = solver.changes(alpha, step_factor=f, edge=e)
+        le = float(c.joint_log_evidence(X, RV, [alpha])[0]) if len(priors) > 1 else 0.0
+        parts.append((c, le, (e, f)))
     top = max(le for _, le, _ in parts)
     kept = [p for p in parts if p[1] >= top + math.log(CHANGE_PRIOR_CUT)]
-    return [(c, le) for c, le, _ in kept], max(kept, key=lambda p: p[1])[2]
+    return [(c, le) for c, le, _ in kept], max(kept, key=lambda p: p[1])[2], notes
 
 
 @dataclass
