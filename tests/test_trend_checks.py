@@ -82,6 +82,27 @@ def _log(folder, lam, *, fault=None, seed=0, offset_sd=0.5, noise=0.05, drift=No
     frame.to_csv(folder / "log.csv", index=False, float_format="%.4f")
 
 
+def _flux_step_log(tmp_path, flux, seed):
+    """The demo folder with log.csv: 4 h every DT of the nominal heater, and from t = 2 h of
+    the bottom flux `flux(r, theta)` [W/m^2] (the forward series), with offsets (0.5 K) and
+    noise (0.05 K) seeded."""
+    import heatsight.forward as fw
+
+    case, lay, t_nom, _, _ = platen()
+    faces = dict(case.faces, bottom=fw.Flux(flux))
+    t_new = fw.CylinderModel(case.cylinder, faces, tolerance=1e-7).evaluate(
+        lay["r"].to_numpy(), lay["theta"].to_numpy(), lay["z"].to_numpy()).temperature
+    folder = make_folder(tmp_path)
+    t = np.arange(int(4 * 3600 / DT)) * DT
+    rng = np.random.default_rng(seed)
+    T = (t_nom + (t >= 7200)[:, None] * (t_new - t_nom) + rng.normal(0, 0.5, t_nom.size)
+         + rng.normal(0, 0.05, (t.size, t_nom.size)))
+    frame = pd.DataFrame(T - 273.15, columns=list(lay.index))
+    frame.insert(0, "time [s]", t)
+    frame.to_csv(folder / "log.csv", index=False, float_format="%.4f")
+    return folder
+
+
 def _trend(folder, monkeypatch, *extra):
     monkeypatch.chdir(folder)
     assert main(["trend", "platen.toml", "--log", "log.csv", "--out", "out", "-q", *extra]) == 0
@@ -248,32 +269,21 @@ def test_a_heater_loss_under_one_thermocouple_is_the_parts_not_a_fault(tmp_path,
     exact).  The first row checks left TC06 out as "failing" in every window and the zone's
     change came out -651 W/m^2 against -1238 (another zone flagged); a reading is now a fault
     only where the row's other readings show no change of their own."""
-    import heatsight.forward as fw
     from heatsight.inverse.face_grid import quadrature
     from test_trend_batch import Q0
 
-    case, lay, t_nom, _, _ = platen()
+    case = platen()[0]
 
     def arc(r, th):
         ring = 0.5 * (1 + np.tanh((np.asarray(r) - 0.110) / 0.004))
         d = np.angle(np.exp(1j * np.asarray(th)))
         return ring * 0.5 * (1 - np.tanh((np.abs(d) - np.radians(15)) / 0.05))
 
-    faces = dict(case.faces, bottom=fw.Flux(lambda r, th: Q0 * (1 - 0.5 * arc(r, th))))
-    t_loc = fw.CylinderModel(case.cylinder, faces, tolerance=1e-7).evaluate(
-        lay["r"].to_numpy(), lay["theta"].to_numpy(), lay["z"].to_numpy()).temperature
     quad = quadrature("bottom", case.cylinder)
     zone = next(z for z in case.zones if z.name == "outer 300-60")
     w = quad.weights * zone.contains(quad.u, quad.v)
     truth = -float(w @ (0.5 * Q0 * arc(quad.u, quad.v))) / float(w.sum())
-    folder = make_folder(tmp_path)
-    t = np.arange(int(4 * 3600 / DT)) * DT
-    rng = np.random.default_rng(1)
-    T = (t_nom + (t >= 7200)[:, None] * (t_loc - t_nom) + rng.normal(0, 0.5, t_nom.size)
-         + rng.normal(0, 0.05, (t.size, t_nom.size)))
-    frame = pd.DataFrame(T - 273.15, columns=list(lay.index))
-    frame.insert(0, "time [s]", t)
-    frame.to_csv(folder / "log.csv", index=False, float_format="%.4f")
+    folder = _flux_step_log(tmp_path, lambda r, th: Q0 * (1 - 0.5 * arc(r, th)), seed=1)
     summary = _trend(folder, monkeypatch)
     assert summary["sensor_faults"] == []
     assert [f["zone"] for f in summary["flags"]] == ["outer 300-60"]
@@ -343,26 +353,13 @@ def test_a_sharp_sector_loss_the_shape_of_its_zone_is_measured_whole(tmp_path, m
     against -2400 (3.6 and 2.9 sd).  Their scale is now weighed by the evidence within a
     factor of 10 of the tied prior, and their edges over the zone model's widths: -2292 +- 72
     and -2287 +- 74 (1.5 sd), the other zones within 2.5 sd of 0."""
-    import heatsight.forward as fw
-
-    case, lay, t_nom, _, _ = platen()
     from test_trend_batch import Q0
 
     def sector(r, th):
         d = np.angle(np.exp(1j * (np.asarray(th) - 2 * np.pi / 3)))
         return ((np.asarray(r) > 0.1) & (np.abs(d) < np.pi / 3)).astype(float)
 
-    faces = dict(case.faces, bottom=fw.Flux(lambda r, th: Q0 * (1 - 0.2 * sector(r, th))))
-    t_low = fw.CylinderModel(case.cylinder, faces, tolerance=1e-7).evaluate(
-        lay["r"].to_numpy(), lay["theta"].to_numpy(), lay["z"].to_numpy()).temperature
-    folder = make_folder(tmp_path)
-    t = np.arange(int(4 * 3600 / DT)) * DT
-    rng = np.random.default_rng(4)
-    T = (t_nom + (t >= 7200)[:, None] * (t_low - t_nom) + rng.normal(0, 0.5, t_nom.size)
-         + rng.normal(0, 0.05, (t.size, t_nom.size)))
-    frame = pd.DataFrame(T - 273.15, columns=list(lay.index))
-    frame.insert(0, "time [s]", t)
-    frame.to_csv(folder / "log.csv", index=False, float_format="%.4f")
+    folder = _flux_step_log(tmp_path, lambda r, th: Q0 * (1 - 0.2 * sector(r, th)), seed=4)
     summary = _trend(folder, monkeypatch, *(["--every", every] if every else []))
     last = summary["last_row"]["changes"]
     value, sd = last[WEAK_ZONE]
