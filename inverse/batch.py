@@ -737,13 +737,11 @@ def _mixture_rows(parts, est, rows, v, rv, d):
         w = _weights(logw)
         # pairs of negligible weight (below MIXTURE_CUT) in every row of the block are left out
         keep = np.flatnonzero(w.max(axis=0) > MIXTURE_CUT)
-        w = w[:, keep]
         vals = (xb @ E3[keep].reshape(-1, E3.shape[2]).T).reshape(-1, keep.size, nf)
-        mean = np.matmul(w[:, None, :], vals)[:, 0]
-        second = w @ V[keep] + np.matmul(w[:, None, :], vals * vals)[:, 0]
+        mean, sd = _mixture(w[:, keep], vals, V[keep])
         part = rows[lo:lo + step]
         est.values[part] = mean + first.kq[None, :nf]
-        est.sd[part] = np.sqrt(np.maximum(second - mean ** 2, 0.0) + first.model_var[None, :])
+        est.sd[part] = np.sqrt(sd ** 2 + first.model_var[None, :])
 
 
 def solve_weighted(parts, d, random_var) -> BatchEstimates:
@@ -803,10 +801,12 @@ def _weights(logev):
 
 
 def _mixture(w, m, v):
-    """Mean and sd (R, q) of the Gaussian mixtures sum_a w_ra N(m_raq, v_raq) (w (R, A); m, v
-    (R, A, q), v broadcast): mean sum w m, variance sum w (v + m^2) - mean^2."""
-    mean = np.einsum("ra,raq->rq", w, m)
-    second = np.einsum("ra,raq->rq", w, v + m ** 2)
+    """Mean and sd (R, q) of the Gaussian mixtures sum_a w_ra N(m_raq, v_raq) (w (R, A); m
+    (R, A, q); v (R, A, q), or (A, q) shared by the rows): mean sum w m, variance
+    sum w (v + m^2) - mean^2."""
+    mean = np.matmul(w[:, None, :], m)[:, 0]
+    spread = w @ v if v.ndim == 2 else np.matmul(w[:, None, :], v)[:, 0]
+    second = spread + np.matmul(w[:, None, :], m * m)[:, 0]
     return mean, np.sqrt(np.maximum(second - mean ** 2, 0.0))
 
 

@@ -310,11 +310,12 @@ class TrendModel:
             # each row's own evidence over the priors, at the strengths where the smooth change's
             # own evidence moves
             grid = changes.strength_grid(pair, num=ROW_PRIOR_STRENGTHS)
-            mixture = [(solver.changes(step_factor=f, edge=e), grid) for e, f in change_priors(solver, ends_only=True)]
+            row_priors = change_priors(solver, ends_only=True)
+            mixture = [(solver.changes(step_factor=f, edge=e), grid) for e, f in row_priors]
             change_rule = CHANGE_RULE.format(num=grid.size, lo=grid[0], hi=grid[-1])
-            if len(priors) > 1:
+            if len(row_priors) > 1:
                 change_rule += STEP_RULE.format(num=len(STEP_FACTORS), lo=STEP_FACTORS[0], hi=STEP_FACTORS[-1],
-                                                edges=len({0, solver.step_edges - 1}))
+                                                edges=len({e for e, _ in row_priors}))
         return cls(result, used, solver, changes, tau, ref_window, ref_d, ref_rv, strength_rule, change_rule,
                    warnings, sorted(aside), mixture, None if chosen is None or len(priors) == 1 else chosen[1],
                    weighted)
@@ -346,13 +347,13 @@ class TrendModel:
 
     def flag_support(self, d, rv, flag, most: int | None = None):
         """The one sensor each flag rests on, by case deletion: every flagged row of d (R, used)
-        [K] (at most `most`, default SUPPORT_ROWS, evenly spread) is solved again with each reading left out in turn
-        (rv ((used,) or (R, used)) [K^2], as changes_of).  Returns rows (k,), the rows examined,
-        and lone (k, zones): the index among the used sensors without whose reading the other
-        readings show no change of that zone (|change| / sd at most LONE_SCORE; the sensor
-        that lowers it most), -1 where they do (a change seen mostly by one sensor, its
-        neighbours moving a little, is the part's), where no answer is left without a sensor,
-        or where the zone is not flagged."""
+        [K] (at most `most`, default SUPPORT_ROWS, evenly spread) is solved again with each
+        reading left out in turn (rv ((used,) or (R, used)) [K^2], as changes_of).  Returns
+        rows (k,), the rows examined, and lone (k, zones): the index among the used sensors
+        without whose reading the other readings show no change of that zone (|change| / sd
+        at most LONE_SCORE; the sensor that lowers it most), -1 where they do (a change seen
+        mostly by one sensor, its neighbours moving a little, is the part's), where no answer
+        is left without a sensor, or where the zone is not flagged."""
         rows = np.flatnonzero(np.asarray(flag).any(axis=1))
         most = SUPPORT_ROWS if most is None else most
         if rows.size > most:
