@@ -12,7 +12,8 @@ seeds) and then each goal of issue 9 as MET / NOT MET.  Columns:
     sharp    mean half band / sd of the truth
     zones    zone means within 2 sd / zones, and the largest |error| / sd
     power    (total power - truth) / sd (the worst over the seeds)
-    aside    sensors set aside: expected -> got (first seed)
+    aside    sensors set aside: expected -> got (first seed); below it, a doubtful sensor the
+             answer weighs (inverse.sensor_doubt) and its fault probability, per seed
 
 --fit passes keywords to inverse.fit (e.g. --fit smoothing=curvature --fit harmonics=10);
 values are read as int, float, true/false or text.  --mesh-check also solves each scenario on
@@ -124,6 +125,10 @@ def main(argv=None):
             if s.extra.get("calibrated"):
                 cal = ", ".join(f"{k} = {v:.3g} +- {sd:.2g}" for k, (v, sd) in s.extra["calibrated"].items())
                 print(f"{'':<22} calibrated (seed {s.seed}): {cal}")
+            if s.extra.get("doubt"):
+                d = s.extra["doubt"]
+                print(f"{'':<22} weighed (seed {s.seed}): {d['sensor']} broken with probability "
+                      f"{d['fault_probability']:.2f}")
             if s.error:
                 print(f"{'':<22} seed {s.seed} failed: {s.error}")
     print("(* relative RMS goal 0.8 on the sparse layout; - layout does not resolve the face: no sharpness goal)")

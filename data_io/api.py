@@ -181,7 +181,10 @@ class Fit:
             "loo predicted [degC]": t(s["loo_predicted"].to_numpy(float)), "loo sd [K]": s["loo_sd"].to_numpy(float),
             "standardized loo": s["standardized_loo"].to_numpy(float),
             "score": (s["score"] if "score" in s else s["standardized_loo"]).to_numpy(float),
-            "caught offset [K]": s["caught_offset"].to_numpy(float), "flag": s["flag"].astype(str).to_numpy()})
+            "caught offset [K]": s["caught_offset"].to_numpy(float),
+            "fault probability": (s["fault_probability"] if "fault_probability" in s
+                                  else pd.Series(np.nan, index=s.index)).to_numpy(float),
+            "flag": s["flag"].astype(str).to_numpy()})
 
     # ------------------------------------------------------------------ anywhere in the part
     def predict(self, points, theta=None, z=None, *, return_std: bool = True):

@@ -62,7 +62,10 @@ def sensor_records(result) -> list[dict]:
             "loo_predicted": temp(row["loo_predicted"]), "loo_sd": float(row["loo_sd"]),
             "standardized_loo": float(row["standardized_loo"]),
             "score": float(row["score"]) if "score" in row else float(row["standardized_loo"]),
-            "caught_offset": float(row["caught_offset"]), "flag": str(row["flag"]),
+            "caught_offset": float(row["caught_offset"]),
+            # the probability that the reading is broken, given the others (inverse.contamination)
+            "fault_probability": float(row["fault_probability"]) if "fault_probability" in row else None,
+            "flag": str(row["flag"]),
         })
     return out
 
@@ -112,8 +115,9 @@ def summary_dict(result, *, case_path=None, readings_path=None) -> dict:
     }
     for key in ("model", "model_evidence", "model_weights", "zone_edge_widths_m", "zone_edge_weights",
                 "zone_level_prior_sd", "zone_level_probability", "unseen_stretch_steps_m",
-                "unseen_stretch_level_sd"):
-        # the face model (inverse.fit_models; the unseen edge stretch's steps, inverse.stretch)
+                "unseen_stretch_level_sd", "sensor_doubt"):
+        # the face model (inverse.fit_models; the unseen edge stretch's steps, inverse.stretch;
+        # the doubtful sensor the answer weighs, inverse.sensor_doubt)
         if key in s:
             out[key] = s[key]
     if "calibrated" in s:

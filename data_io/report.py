@@ -18,6 +18,7 @@ from pathlib import Path
 
 from ..inverse.bands import Z95
 from ..inverse.diagnostics import UNCHECKED_OFFSET_K
+from ..inverse.sensor_doubt import DOUBT
 
 from . import plots
 from .csv_out import atomic_write_text
@@ -274,7 +275,7 @@ def _sensor_table(result) -> str:
     score_col = "score" if "score" in sens else "standardized_loo"
     head = ["sensor", "r [mm]", "θ [°]", "z [mm]", "measured [°C]", "fitted [°C]", "residual [K]",
             "prediction from the others [°C]", "reading − prediction [K]", "± (95 %) [K]",
-            "score", "caught offset [K]", "flag"]
+            "score", "caught offset [K]", "fault probability", "flag"]
     flags = plots._flags(result)  # noqa: SLF001 (same layer)
     rows = []
     for i, (_, row) in enumerate(sens.iterrows()):
@@ -295,6 +296,7 @@ def _sensor_table(result) -> str:
             f"{row.get(score_col):+.2f}" if _finite(row.get(score_col)) else "–",
             sig(from_si(row.get("caught_offset"), "temperature_difference", "K"))
             if _finite(row.get("caught_offset")) else "–",
+            f"{row.get('fault_probability'):.2f}" if _finite(row.get("fault_probability")) else "–",
         ]
         rows.append(f'<tr class="{cls}"><td>{_e(row.get("sensor"))}</td>'
                     + "".join(f'<td class="num">{_e(c)}</td>' for c in cells)
@@ -317,7 +319,9 @@ def _sensor_table(result) -> str:
             f"misplaced. The ± column is the 95 % interval of that prediction; a fixed offset of a "
             f"reading is caught only beyond its “caught offset” (past "
             f"{sig(UNCHECKED_OFFSET_K)} K the fit warns: the others check that sensor only for large "
-            f"faults). Temperatures in °C, differences in K.</p>")
+            f"faults). The fault probability is the chance that the reading is broken, given the "
+            f"others; above {DOUBT:g} the answer weighs the fit without that sensor too. "
+            f"Temperatures in °C, differences in K.</p>")
     return lead + note + table
 
 

@@ -117,6 +117,10 @@ GLOSSARY = (
                       "others accepts (the limit times its standard deviation, for one smoothing "
                       "strength). A sensor alone on its part of the face has a large one: the others "
                       "check it only for large faults, and the answer there rests on it."),
+    ("fault probability", "the chance that a sensor's reading is broken, given what the others predict "
+                          "(a broken reading taken as scattered by about 10 K about the truth, 2 % of "
+                          "sensors broken beforehand). When it is high for a sensor the screening kept, "
+                          "the answer blends the fit with that sensor and the fit without it."),
     ("set aside", "left out of the fit because its score is beyond the limit; its reading is still "
                   "listed."),
     ("smoothing strength α", "how strongly the fit prefers a smooth face over following every reading; "

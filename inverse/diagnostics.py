@@ -31,6 +31,7 @@ import numpy as np
 import pandas as pd
 from scipy.special import log_ndtr, logsumexp, ndtr, ndtri, ndtri_exp
 
+from .contamination import fault_probability
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem
 from .strength import StrengthChoice, choose_strength, default_alphas
@@ -38,6 +39,8 @@ from .strength_average import mixture_band
 
 FAMILY_LEVEL = 0.02
 MODEL_SUSPECT_COUNT = 3        # common practice, no source
+#: the fewest sensors a screening leaves in a fit
+MIN_KEPT = 3
 MODEL_SUSPECT_FRACTION = 0.15  # common practice, no source
 #: a sensor whose fixed offset the check catches only beyond this is named in a warning: four
 #: times the 2.5 K of a class 2 type K tolerance at moderate temperature (IEC 60584-1: 2.5 K
@@ -120,6 +123,16 @@ class LooScores:
         lo, hi = mixture_band(*self.components, 2.0 * float(ndtr(t)) - 1.0)     # weights per sensor
         return 0.5 * (hi - lo)
 
+    def fault_probability(self, d) -> np.ndarray:
+        """(n,): the probability that each reading d (n,) [K] is broken, given the others
+        (contamination.fault_probability on this predictive: one Gaussian, or the mixture
+        over alpha)."""
+        d = np.asarray(d, float)
+        if self.components is None:
+            return fault_probability(d - self.predicted, self.sd ** 2)
+        w, pred, sd = self.components
+        return fault_probability(d[None, :] - pred, sd ** 2, w)
+
 
 def averaged_loo(problem: LinearGaussianProblem, alphas=None) -> LooScores:
     """Predictive check of each reading from the others, averaged over alpha.
@@ -168,7 +181,8 @@ class Screening:
     sensors (set-aside ones predicted from the final fit; the kept ones' loo_predicted,
     loo_sd and standardized_loo from the screening's own check, LooScores) plus `score`, the screening
     statistic (for set-aside sensors, its value when they were set aside), `caught_offset`
-    of that statistic (LooScores.caught_offset; NaN for a set-aside sensor); flag 'ok',
+    of that statistic (LooScores.caught_offset; NaN for a set-aside sensor),
+    `fault_probability` (LooScores.fault_probability; NaN for a set-aside sensor); flag 'ok',
     'suspect' (|score| > threshold but not set aside) or 'set aside'.
     """
 
@@ -188,7 +202,7 @@ def model_suspect(count: int, n: int) -> bool:
 
 def screen_outliers(problem: LinearGaussianProblem, strength="evidence", threshold: float | None = None,
                     names=None, family_level: float = FAMILY_LEVEL, max_set_aside: int | None = None,
-                    min_kept: int = 3, preset=(), model_first: bool = False) -> Screening:
+                    min_kept: int = MIN_KEPT, preset=(), model_first: bool = False) -> Screening:
     """Set aside outlying sensors one at a time, then fit with alpha chosen by `strength`.
 
     Repeat on the sensors still in: score every sensor by `averaged_loo` (for a fixed
@@ -266,8 +280,11 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
     caught = np.full(n, np.nan)           # a set-aside sensor is no longer checked
     caught[idx] = sc.caught_offset(t)
     table["caught_offset"] = caught
+    fault = np.full(n, np.nan)            # and no longer weighed
+    fault[idx] = sc.fault_probability(sub.d)
+    table["fault_probability"] = fault
     table["flag"] = np.where(~keep, "set aside", np.where(np.abs(score) > t, "suspect", "ok"))
-    table = table[list(COLUMNS[:-1]) + ["score", "flag"]]
+    table = table[list(COLUMNS[:-1]) + ["score", "fault_probability", "flag"]]
     return Screening(out, keep, sub, choice, table, warns)
 
 

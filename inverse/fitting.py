@@ -14,7 +14,8 @@ parameters calibrated jointly (calibration.py) and the heater-zone model (zones.
 The steps, each a function of its own module: the readings' problem with its noise, placement,
 left-out modes and unseen-stretch steps (fit_problem.py), calibration (fit_calibration.py),
 screening (fit_screening.py), the smooth model's posterior (fit_posterior.py), the zone models
-and the choice of model (fit_models.py), warnings (fit_warnings.py), derived figures (result.py).
+and the choice of model (fit_models.py), warnings (fit_warnings.py), derived figures (result.py),
+a doubtful sensor weighed (sensor_doubt.py).
 """
 
 from __future__ import annotations
@@ -22,6 +23,7 @@ from __future__ import annotations
 import numpy as np
 
 from .design import Design, smooth_prior
+from .diagnostics import SetAside
 from .errors import InverseError
 from .fit_models import build_zone_models, choose_model
 from .fit_posterior import smooth_posterior
@@ -37,6 +39,7 @@ from .problem import Problem
 from .readings import as_readings
 from .result import FitResult, valid_zones
 from .robust import gross_faults
+from .sensor_doubt import weigh_doubtful
 from .threads import few_threads
 
 
@@ -53,8 +56,6 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
     (inverse.threads)."""
     spec = Problem.from_case(problem, **overrides)
     opts = spec.options
-    step = _Steps(stage, opts, spec)
-    face = spec.unknown_face
     rd = as_readings(readings)
     if rd.n < 2:
         raise InverseError(f"at least 2 usable sensors are needed, got {rd.n}")
@@ -62,7 +63,17 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
         raise InverseError("the zone model with calibrated face parameters needs the learned prior "
                            "(strength = \"evidence\", prior = \"learned\", no Monte Carlo); "
                            "use model = \"smooth\" or drop calibrate")
+    result = _fit(spec, rd, _Steps(stage, opts, spec), progress)
+    # a kept sensor whose fault the readings make likely is weighed: the answer mixes this
+    # fit with the one that sets it aside (sensor_doubt.py)
+    return weigh_doubtful(result, lambda j: _fit(spec, rd, _Steps(None, opts, spec), progress, aside=j))
 
+
+def _fit(spec, rd, step, progress, aside=None) -> FitResult:
+    """One fit of the readings rd (inverse.fit's steps); aside: the index of a reading set
+    aside from the start (the doubtful sensor's alternative, sensor_doubt.py)."""
+    opts = spec.options
+    face = spec.unknown_face
     step("series of the part at the sensors")
     design = Design(spec.cylinder, spec.faces, opts.tolerance, *opts.basis_size)
     P, u = smooth_prior(design.basis, spec.cylinder.radius, opts.smoothing)
@@ -73,6 +84,9 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
     # nominal level, the placement variance, the strength.
     noise = reading_noise(rd, opts)
     gross = [] if opts.keep_all_sensors else gross_faults(rd.temperature - t0, G @ u, noise, rd.names, rd.temperature)
+    if aside is not None:
+        gross.append(SetAside(rd.names[aside], aside, float("nan"), float("nan"),
+                              "weighed as possibly broken: this fit is the answer without it"))
     ok = np.ones(rd.n, dtype=bool)
     ok[[g.index for g in gross]] = False
     base = with_placement(linear_problem(G, t0, noise, rd, P, u, ok), rd, ev, dG, P, u, ok, opts)

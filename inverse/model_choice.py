@@ -3,8 +3,8 @@
 Each model screens the sensors itself (a sensor that one model cannot explain may be
 healthy under the other), so the two marginal likelihoods cover different readings. To
 compare them on the same data, every reading enters: the kept ones through the model's
-evidence, each set-aside one through a contamination model (a reading is broken with
-probability EPSILON and then scattered by OUTLIER_SD about the model's prediction):
+evidence, each set-aside one through the contamination model (contamination.py: a reading
+is broken with probability EPSILON and then scattered by OUTLIER_SD about the model's prediction):
 
     log p(d | M) ~ log p(d_kept | M) + n_kept log(1 - eps)
                    + sum_{i set aside} log[eps N(d_i; m_i, v_i + tau^2) + (1 - eps) N(d_i; m_i, v_i)],
@@ -20,33 +20,14 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.special import logsumexp
 
+from .contamination import EPSILON, set_aside_log_likelihood
 from .hyperprior import merge_limit
 from .strength_average import mixture_summary
 
-#: prior probability that a reading is broken: the screening's family-wise level (diagnostics.FAMILY_LEVEL)
-EPSILON = 0.02
 #: posterior probability below which a model is left out of the average (a numerical cut:
 #: its share of any mean or variance is then below 0.1 %)
 MIXED_MODELS = 1e-3
-#: spread of a broken reading about the prediction [K] (a failed junction or a wrong channel:
-#: several kelvin to tens of kelvin; common practice, no source)
-OUTLIER_SD = 10.0
-
-
-def _log_normal(x, var):
-    return -0.5 * (np.log(2.0 * math.pi * var) + x ** 2 / var)
-
-
-def set_aside_log_likelihood(resid, var) -> float:
-    """sum_i log[eps N(r_i; 0, v_i + tau^2) + (1 - eps) N(r_i; 0, v_i)] over set-aside readings."""
-    resid, var = np.asarray(resid, float), np.asarray(var, float)
-    if resid.size == 0:
-        return 0.0
-    both = np.stack([math.log(EPSILON) + _log_normal(resid, var + OUTLIER_SD ** 2),
-                     math.log1p(-EPSILON) + _log_normal(resid, var)])
-    return float(logsumexp(both, axis=0).sum())
 
 
 def log_evidence_on_all(log_evidence_kept, kept, X, t0, d, noise_var, c, C) -> float:

@@ -18,6 +18,7 @@ from ..forward.geometry import is_wall
 from .face_grid import display_grid, face_interval, face_on, quadrature
 from .functionals import functional_matrix
 from .model_choice import ModelMixture, gaussian_draws
+from .strength_average import answers_mixture
 
 __all__ = ["Posterior", "FitResult", "Z95"]
 
@@ -166,25 +167,31 @@ def valid_zones(zones, face, cyl, warnings) -> list:
     return out
 
 
+def zone_entry(name, mean, sd, area, nominal, quantity) -> dict:
+    """A zone's figures in the summary: its mean [face unit] with sd and 95 % band, area
+    [m^2], and on a heat-flux face its power [W] and, with a nominal power [W], the
+    delivered fraction, each with its sd."""
+    zm, zsd = float(mean), float(sd)
+    entry = {"name": name, "mean": zm, "sd": zsd, "lower": zm - Z95 * zsd, "upper": zm + Z95 * zsd,
+             "area_m2": area}
+    if quantity == "heat_flux":
+        entry.update(power_W=zm * area, power_sd_W=zsd * area)
+        if nominal:
+            entry.update(nominal_W=float(nominal), delivered_fraction=zm * area / nominal,
+                         delivered_fraction_sd=zsd * area / abs(nominal))
+    return entry
+
+
 def _zone_entries(zones, names, mean, sd, face, cyl, quantity, warnings):
     out = []
     for zone in zones:
         i = names.index(zone.name)
-        zm, zsd = float(mean[i]), float(sd[i])
         # The masked rule's zone edge is as coarse as its nodes (several % of the area of
         # a small zone); the area, and with it the power, comes from a fine midpoint rule.
-        za = zone_area(zone, face, cyl)
-        entry = {"name": zone.name, "mean": zm, "sd": zsd, "lower": zm - Z95 * zsd,
-                 "upper": zm + Z95 * zsd, "area_m2": za}
         nominal = getattr(zone, "nominal", None)
-        if quantity == "heat_flux":
-            entry.update(power_W=zm * za, power_sd_W=zsd * za)
-            if nominal:
-                entry.update(nominal_W=float(nominal), delivered_fraction=zm * za / nominal,
-                             delivered_fraction_sd=zsd * za / abs(nominal))
-        elif nominal:
+        if nominal and quantity != "heat_flux":
             warnings.append(f"zone {zone.name}: a nominal power needs a heat-flux face; not compared")
-        out.append(entry)
+        out.append(zone_entry(zone.name, mean[i], sd[i], zone_area(zone, face, cyl), nominal, quantity))
     return out
 
 
@@ -224,6 +231,9 @@ class FitResult:
     #: points with r, theta, z -> (dG, dt0, variance): their part of the temperature inside the
     #: part (build's point_tail), or None
     point_tail: object = field(repr=False, default=None)
+    #: (the fit with one doubtful sensor set aside (a FitResult), its weight): the answer is the
+    #: mixture of this fit and that one (sensor_doubt.py), or None
+    doubt: tuple | None = field(repr=False, default=None)
 
     @property
     def smooth_only(self) -> bool:
@@ -331,7 +341,8 @@ class FitResult:
         u, v = (np.ravel(np.asarray(x, float)) for x in (u, v))
         builder, extra = _with_tail(lambda d: d.face(u, v), self.design, SimpleNamespace(u=u, v=v, lines=None),
                                          self.map_tail)
-        return self.posterior.figures(builder, self.design, level, extra_variance=extra)
+        own = self.posterior.figures(builder, self.design, level, extra_variance=extra)
+        return self._with_doubt(own, lambda other: other.face_profile(u, v, level), level)
 
     def predict(self, r, theta, z, level=0.95):
         """Temperature [K] with sd and band anywhere inside the part: (mean, sd, lower, upper),
@@ -342,7 +353,16 @@ class FitResult:
         r, theta, z = (np.atleast_1d(np.asarray(x, float)) for x in (r, theta, z))
         builder, extra = _with_tail(lambda d: d.sensors(r, theta, z), self.design,
                                     SimpleNamespace(r=r, theta=theta, z=z), self.point_tail)
-        return self.posterior.figures(builder, self.design, level, extra_variance=extra)
+        own = self.posterior.figures(builder, self.design, level, extra_variance=extra)
+        return self._with_doubt(own, lambda other: other.predict(r, theta, z, level), level)
+
+    def _with_doubt(self, own, query, level):
+        """own (mean, sd, lower, upper), mixed with the same query of the fit without the
+        doubtful sensor where the answer weighs one (strength_average.answers_mixture)."""
+        if self.doubt is None:
+            return own
+        other, p = self.doubt
+        return answers_mixture(np.array([1.0 - p, p]), [own, query(other)], level)
 
     def predict_flux(self, r, theta, z):
         """Heat-flux vector -k grad T [W/m^2] (3, P) at points (posterior mean)."""

@@ -24,6 +24,7 @@ SQRT_2PI = float(np.sqrt(2.0 * np.pi))
 #: on the demo's face map (324 components x 2,952 points) against 3.5, the quantiles 1e-12 apart
 NEWTON_STOP = 1e-7
 
+from .bands import z_factor
 from .errors import InverseError
 from .linear_gaussian import LinearGaussianProblem
 from .strength import default_alphas
@@ -99,6 +100,20 @@ def mixture_summary(weights, means, sds, level: float = 0.95, scalar: bool = Fal
     lower, upper = mixture_band(weights, means, sds, level)
     if scalar:
         return float(mean[0]), float(sd[0]), float(lower[0]), float(upper[0])
+    return mean, sd, lower, upper
+
+
+def answers_mixture(weights, answers, level: float = 0.95):
+    """Mean, sd, lower, upper (q,) of a mixture of answers given as their own (mean, sd,
+    lower, upper) (q,) each, weights (m,): the mean and sd by the mixture's moments
+    (sum_i w_i m_i, sum_i w_i (sd_i^2 + (m_i - mean)^2)); the band from the mixture of
+    Gaussians centred on each answer's band with the sd its width implies, (upper - lower) /
+    (2 z(level)), so that an answer of weight 1 keeps its own band."""
+    w = np.asarray(weights, float)
+    m, s, lo, hi = (np.array([np.asarray(a[i], float) for a in answers]) for i in range(4))
+    mean = w @ m
+    sd = np.sqrt(w @ (s ** 2 + (m - mean) ** 2))
+    lower, upper = mixture_band(w, 0.5 * (lo + hi), (hi - lo) / (2.0 * z_factor(level)), level)
     return mean, sd, lower, upper
 
 

@@ -126,6 +126,8 @@ def score(scn, res) -> Score:
     if table is not None:
         caught = dict(zip(table["sensor"], table["caught_offset"]))
         s.extra["caught_offset"] = {b: float(caught[b]) for b in scn.broken if b in caught}
+    if res.summary.get("sensor_doubt"):
+        s.extra["doubt"] = dict(res.summary["sensor_doubt"])
     cal = res.summary.get("calibrated")
     if cal:
         s.extra["calibrated"] = {k: (v["value"], v["sd"]) for k, v in cal.items()}

@@ -48,7 +48,7 @@ def test_outlier_is_set_aside_and_named(seed, bad, sigma):
     row = out.table.iloc[bad]
     assert row["sensor"] == names[bad] and row["flag"] == "set aside"
     assert row["standardized_loo"] > 4 and abs(row["measured"] - row["loo_predicted"] - 8.0) < 4 * row["loo_sd"]
-    assert list(out.table.columns) == list(COLUMNS[:-1]) + ["score", "flag"] and (out.table["flag"] == "ok").sum() == n - 1
+    assert list(out.table.columns) == list(COLUMNS[:-1]) + ["score", "fault_probability", "flag"] and (out.table["flag"] == "ok").sum() == n - 1
 
 
 @pytest.mark.parametrize("n,K", [(16, 8), (32, 12), (64, 30)])

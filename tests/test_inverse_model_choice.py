@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from scipy.stats import norm
 
-from heatsight.inverse.model_choice import (EPSILON, OUTLIER_SD, log_evidence_on_all, model_weights,
-                                            set_aside_log_likelihood)
+from heatsight.inverse.contamination import EPSILON, OUTLIER_SD, set_aside_log_likelihood
+from heatsight.inverse.model_choice import log_evidence_on_all, model_weights
 
 
 def test_set_aside_term_is_the_contamination_mixture():

@@ -1,0 +1,143 @@
+"""A doubtful sensor weighed rather than decided (inverse.contamination, inverse.sensor_doubt)."""
+
+import math
+
+import numpy as np
+import pytest
+from scipy.stats import norm
+
+import scenario_cases as sc
+import scenario_metrics as sm
+from heatsight import inverse
+from heatsight.inverse.contamination import EPSILON, OUTLIER_SD, fault_probability
+from heatsight.inverse.diagnostics import averaged_loo
+from heatsight.inverse.linear_gaussian import LinearGaussianProblem
+from heatsight.inverse.sensor_doubt import DOUBT, most_doubtful
+from heatsight.inverse.strength_average import answers_mixture
+
+
+def _bayes(resid, var, weights):
+    """P(broken | r) by Bayes' rule on scipy.stats densities (the reference)."""
+    broken = sum(w * norm.pdf(r, 0, math.sqrt(v + OUTLIER_SD ** 2)) for r, v, w in zip(resid, var, weights))
+    healthy = sum(w * norm.pdf(r, 0, math.sqrt(v)) for r, v, w in zip(resid, var, weights))
+    return EPSILON * broken / (EPSILON * broken + (1 - EPSILON) * healthy)
+
+
+def test_fault_probability_is_bayes_rule_on_the_contamination_model():
+    r, v = np.array([0.1, 3.0, 4.9, 30.0]), np.array([0.25, 1.0, 1.84, 4.0])
+    ref = [_bayes([x], [s], [1.0]) for x, s in zip(r, v)]
+    assert fault_probability(r, v) == pytest.approx(ref, rel=1e-10)
+    # far beyond the predictive sd a fault is all but certain; inside it, less likely than a priori
+    p = fault_probability(r, v)
+    assert p[0] < EPSILON < p[2] and p[3] > 0.999
+
+
+def test_fault_probability_of_a_predictive_mixture():
+    # two components per reading (the screening's average over the prior's strength)
+    resid = np.array([[3.0, -0.5], [2.2, -0.4]])
+    var = np.array([[1.0, 0.3], [2.5, 0.2]])
+    w = np.array([[0.7, 0.4], [0.3, 0.6]])
+    ref = [_bayes(resid[:, i], var[:, i], w[:, i]) for i in range(2)]
+    assert fault_probability(resid, var, w) == pytest.approx(ref, rel=1e-10)
+
+
+def test_screening_check_weighs_an_offset_below_and_above_its_limit():
+    rng = np.random.default_rng(5)
+    n, K = 20, 10
+    x, z = rng.uniform(0, 1, n), rng.uniform(0.05, 0.5, n)
+    k = np.arange(K)
+    G = np.cos(np.pi * k * x[:, None]) * np.exp(-np.pi * k * z[:, None])
+    p = 1.0 + (np.pi * k) ** 2
+    d = 20.0 + G @ (rng.normal(size=K) / np.sqrt(0.01 * p)) + 0.5 * rng.normal(size=n)
+    prob = LinearGaussianProblem(G, d, 20.0, np.full(n, 0.25), p)
+    sc0 = averaged_loo(prob)
+    w, pred, sd = sc0.components
+    brute = [_bayes(d[i] - pred[:, i], sd[:, i] ** 2, w[:, i]) for i in range(n)]
+    assert sc0.fault_probability(d) == pytest.approx(brute, rel=1e-8)
+    # the same reading moved by 0, 2.5 and 6 of its predictive sds: doubt grows with the offset
+    i = int(np.argmin(np.abs(sc0.z)))
+    probs = []
+    for shift in (0.0, 2.5, 6.0):
+        dd = d.copy()
+        dd[i] += shift * sc0.sd[i]
+        s = averaged_loo(LinearGaussianProblem(G, dd, 20.0, np.full(n, 0.25), p))
+        probs.append(float(s.fault_probability(dd)[i]))
+    assert probs[0] < EPSILON and probs[0] < probs[1] < probs[2] and probs[2] > 0.9
+
+
+def test_answers_mixture_moments_and_band():
+    a = (np.array([1.0, 5.0]), np.array([0.5, 1.0]), np.array([0.02, 3.04]), np.array([1.98, 6.96]))
+    b = (np.array([3.0, 5.5]), np.array([0.4, 2.0]), np.array([2.216, 1.58]), np.array([3.784, 9.42]))
+    # weight 1 keeps an answer, band and all
+    for got, want in zip(answers_mixture(np.array([1.0, 0.0]), [a, b]), a):
+        assert got == pytest.approx(want, rel=1e-9)
+    w = np.array([0.7, 0.3])
+    mean, sd, lo, hi = answers_mixture(w, [a, b])
+    assert mean == pytest.approx(0.7 * a[0] + 0.3 * b[0], rel=1e-12)
+    second = 0.7 * (a[1] ** 2 + a[0] ** 2) + 0.3 * (b[1] ** 2 + b[0] ** 2)
+    assert sd == pytest.approx(np.sqrt(second - mean ** 2), rel=1e-12)        # law of total variance
+    # the band's ends are the mixture's 2.5 % and 97.5 % points (scipy.stats reference), each
+    # answer's Gaussian centred on its band with the sd its width implies
+    for q, x in ((0.025, lo), (0.975, hi)):
+        cdf = sum(wi * norm.cdf(x, 0.5 * (ans[2] + ans[3]), (ans[3] - ans[2]) / (2 * 1.959963984540054))
+                  for wi, ans in zip(w, (a, b)))
+        assert cdf == pytest.approx(q, abs=1e-7)
+
+
+def test_most_doubtful_takes_a_passed_sensor_beyond_the_cut():
+    import pandas as pd
+
+    t = pd.DataFrame({"sensor": list("ABCDE"), "fault_probability": [0.2, 0.9, DOUBT / 2, 0.01, 0.6],
+                      "flag": ["ok", "set aside", "ok", "ok", "suspect"]})
+    # E is beyond the limit but kept on purpose (the model blamed): not weighed; B is out
+    assert most_doubtful(t) == (0, 0.2)
+    t.loc[0, "fault_probability"] = DOUBT / 3
+    assert most_doubtful(t) is None
+    assert most_doubtful(t.drop(columns="fault_probability")) is None
+    # weighing never leaves fewer than three sensors in a fit
+    three = pd.DataFrame({"sensor": list("ABC"), "fault_probability": [0.4, 0.01, 0.01], "flag": ["ok"] * 3})
+    assert most_doubtful(three) is None
+    assert most_doubtful(pd.concat([three, three.iloc[:1].assign(sensor="D", fault_probability=0.01)])) == (0, 0.4)
+
+
+@pytest.fixture(scope="module")
+def tube_seed1():
+    """The tube bore scenario (finite-element readings), seed 1: TC07 reads 6 K high and its
+    score (3.1) stays below the screening's limit."""
+    scn = sc.make("tube_bore_temperature", seed=1, scale=0.5)
+    return scn, inverse.fit(scn.case, scn.readings, **scn.fit_kwargs)
+
+
+def test_a_fault_below_the_limit_is_weighed_and_the_zone_beside_it_holds(tube_seed1):
+    scn, res = tube_seed1
+    doubt = res.summary["sensor_doubt"]
+    assert doubt["sensor"] == "TC07" and DOUBT < doubt["fault_probability"] < 0.5
+    assert "TC07" not in res.summary["set_aside"]
+    assert any("weighs a fault of TC07" in w for w in res.warnings)
+    score = sm.score(scn, res)
+    # before the weighing the zone beside TC07 was 4.6 sd off (confidently wrong)
+    assert abs(score.zone_z["bore 90-180 deg"]) < 2.0
+    assert all(abs(z) < 2.0 for z in score.zone_z.values()) and abs(score.power_z) < 2.0
+    assert score.coverage >= 0.9
+    # face_profile (and so every figure drawn from it) gives the map's mixture, to the learned
+    # prior's merging of neighbouring amplitudes (which depends on how many points are asked)
+    g = res.grid.iloc[::97]
+    u, v = sc.sf.face_coords("bore", g["r_m"].to_numpy(), g["theta_rad"].to_numpy(), g["z_m"].to_numpy())
+    mean, sd, lo, hi = res.face_profile(u, v)
+    tol = 0.01 * float(np.median(g["upper"] - g["lower"]))
+    for got, col in ((mean, "estimate"), (lo, "lower"), (hi, "upper")):
+        assert got == pytest.approx(g[col].to_numpy(), abs=tol)
+    # and is not the fit without TC07 alone
+    other = res.doubt[0]
+    assert np.max(np.abs(res.grid["upper"] - res.grid["lower"] - (other.grid["upper"] - other.grid["lower"]))) > tol
+    # the sensor table is the fit's own, with the fault probability of every kept sensor
+    row = res.sensors.set_index("sensor").loc["TC07"]
+    assert row["fault_probability"] == pytest.approx(doubt["fault_probability"])
+
+
+def test_healthy_readings_are_not_weighed():
+    scn = sc.make("tube_bore_temperature", seed=0, scale=0.5)      # TC07 set aside, the rest healthy
+    res = inverse.fit(scn.case, scn.readings, **scn.fit_kwargs)
+    assert "sensor_doubt" not in res.summary and res.doubt is None
+    kept = res.sensors[res.sensors["flag"] != "set aside"]
+    assert kept["fault_probability"].max() < DOUBT
