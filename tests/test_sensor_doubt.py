@@ -141,3 +141,18 @@ def test_healthy_readings_are_not_weighed():
     assert "sensor_doubt" not in res.summary and res.doubt is None
     kept = res.sensors[res.sensors["flag"] != "set aside"]
     assert kept["fault_probability"].max() < DOUBT
+
+
+def test_the_weighed_sensor_reaches_summary_json_sensors_csv_and_the_report(tube_seed1):
+    from heatsight.data_io.csv_columns import sensor_columns
+    from heatsight.data_io.fit_outputs import summary_dict
+    from heatsight.data_io.report import render_report
+
+    _, res = tube_seed1
+    out = summary_dict(res)
+    assert out["sensor_doubt"]["sensor"] == "TC07"
+    rec = {r["sensor"]: r for r in out["sensors"]}
+    assert rec["TC07"]["fault_probability"] == pytest.approx(out["sensor_doubt"]["fault_probability"])
+    assert "fault_probability" in sensor_columns(res.sensors).columns
+    html = render_report(res, case_text=[], figures={}, title="t")
+    assert "fault probability" in html and "weighs a fault of TC07" in html
