@@ -9,6 +9,7 @@ from scipy.stats import norm
 import scenario_cases as sc
 import scenario_metrics as sm
 from heatsight import inverse
+from test_inverse_diagnostics import layout, readings
 from heatsight.inverse.contamination import EPSILON, OUTLIER_SD, fault_probability
 from heatsight.inverse.diagnostics import averaged_loo
 from heatsight.inverse.linear_gaussian import LinearGaussianProblem
@@ -42,13 +43,9 @@ def test_fault_probability_of_a_predictive_mixture():
 
 
 def test_screening_check_weighs_an_offset_below_and_above_its_limit():
-    rng = np.random.default_rng(5)
-    n, K = 20, 10
-    x, z = rng.uniform(0, 1, n), rng.uniform(0.05, 0.5, n)
-    k = np.arange(K)
-    G = np.cos(np.pi * k * x[:, None]) * np.exp(-np.pi * k * z[:, None])
-    p = 1.0 + (np.pi * k) ** 2
-    d = 20.0 + G @ (rng.normal(size=K) / np.sqrt(0.01 * p)) + 0.5 * rng.normal(size=n)
+    n = 20
+    rng, G, p = layout(n, 10, 5)             # the screening tests' synthetic layout and prior draws
+    d = readings(rng, G, p, 0.5)
     prob = LinearGaussianProblem(G, d, 20.0, np.full(n, 0.25), p)
     sc0 = averaged_loo(prob)
     w, pred, sd = sc0.components
