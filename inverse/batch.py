@@ -339,11 +339,7 @@ class BatchSolver:
             cols = np.flatnonzero(v)
             whole = rows.size == d.shape[0] and cols.size == d.shape[1]
             x = (d if whole else d[np.ix_(rows, cols)]) - self.t0[v]
-            if per_row:
-                rvs, which = np.unique(rv[np.ix_(rows, cols)], axis=0, return_inverse=True)
-                which = which.ravel()
-            else:
-                rvs, which = rv[v][None, :], np.zeros(rows.size, dtype=int)
+            rvs, which = _noise_groups(rv, rows, cols, per_row)
             out = np.empty(x.shape)
             step = max(1, _BLOCK_ELEMENTS // (cols.size * max(cols.size, self.K)))     # the SVD stack
             for lo in range(0, rvs.shape[0], step):
@@ -573,15 +569,9 @@ class BatchSolver:
             v = valid[rows[0]]
             if v.sum() < MIN_SENSORS:
                 continue
-            x = d[np.ix_(rows, np.flatnonzero(v))] - self.t0[v]
-            if per_row and rows.size > 1:
-                rvs, which = np.unique(rv[np.ix_(rows, np.flatnonzero(v))], axis=0, return_inverse=True)
-                which = which.ravel()
-            elif per_row:
-                rvs, which = rv[rows[0], v][None, :], np.zeros(1, dtype=int)
-            else:
-                rvs, which = rv[v][None, :], np.zeros(rows.size, dtype=int)
-            self._solve_group(v, rows, x, rvs, which, est)
+            cols = np.flatnonzero(v)
+            x = d[np.ix_(rows, cols)] - self.t0[v]
+            self._solve_group(v, rows, x, *_noise_groups(rv, rows, cols, per_row), est)
         return est
 
     def _solve_group(self, v, rows, x, rvs, which, est):
@@ -694,15 +684,11 @@ def solve_mixture(parts, d, random_var) -> BatchEstimates:
         if v.sum() < MIN_SENSORS:
             continue
         cols = np.flatnonzero(v)
-        if per_row:           # rows of one noise together: one SVD per noise and prior
-            rvs, which = np.unique(rv[np.ix_(group, cols)], axis=0, return_inverse=True)
-            which = which.ravel()
-            order = np.argsort(which, kind="stable")
-            runs = np.split(order, np.flatnonzero(np.diff(which[order])) + 1)
-        else:
-            rvs, runs = rv[v][None, :], [np.arange(group.size)]
-        for run in runs:
-            _mixture_rows(parts, est, group[run], v, rvs[which[run[0]] if per_row else 0], d)
+        # rows of one noise together: one SVD per noise and prior
+        rvs, which = _noise_groups(rv, group, cols, per_row)
+        order = np.argsort(which, kind="stable")
+        for run in np.split(order, np.flatnonzero(np.diff(which[order])) + 1):
+            _mixture_rows(parts, est, group[run], v, rvs[which[run[0]]], d)
     return est
 
 
@@ -862,6 +848,16 @@ def _extremes(E, k, x):
         near = np.flatnonzero(np.any(sign * prof >= (best - slack)[:, None], axis=0))
         out.append(near[np.argmax(sign * (x @ E[near].T + k[near]), axis=1)])
     return out[0], out[1]
+
+
+def _noise_groups(rv, rows, cols, per_row):
+    """(rvs (U, n_v), which (rows.size,)): the distinct random variances [K^2] of `rows` at
+    the readings `cols` and the one each row uses; one for every row when rv (n,) is shared
+    (per_row False) or a single row asks."""
+    if per_row and rows.size > 1:
+        rvs, which = np.unique(rv[np.ix_(rows, cols)], axis=0, return_inverse=True)
+        return rvs, which.ravel()
+    return (rv[rows[0], cols] if per_row else rv[cols])[None, :], np.zeros(rows.size, dtype=int)
 
 
 def _pattern_groups(valid):
