@@ -283,32 +283,52 @@ class BatchSolver:
     def _estimators(self, v, noise, rows=None):
         """For pattern v (n,) bool and U noise vectors (U, n_v) of total variance: estimator
         rows e (U, q, n_v), posterior variances (U, q), phi (U, Q, r) and 1/(s^2+alpha) (U, r)
-        for the grid covariances.  rows: the quantities' rows (q, K) instead of the
-        functionals' and the grid's (the sensors' own, G_v: e is then the hat matrix)."""
+        for the grid covariances, at this solver's strength (_estimator_core).  rows: the
+        quantities' rows (q, K) instead of the functionals' and the grid's (the sensors' own,
+        G_v: e is then the hat matrix)."""
         Gv = self.G[v]
-        Fq = self.Fq if rows is None else np.asarray(rows, float)
-        Fn = self.Fn if rows is None else Fq * self.p_isqrt[None, :]
         sd = np.sqrt(noise)
-        A = (Gv[None, :, :] / sd[:, :, None]) * self.p_isqrt[None, None, :]
-        Uu, s, Vt = np.linalg.svd(A, full_matrices=False)
-        phi = np.einsum("qk,urk->uqr", Fn, Vt)
-        inv = 1.0 / (s ** 2 + self.alpha)
-        a = np.einsum("uqr,unr->uqn", phi * (s * inv)[:, None, :], Uu) / sd[:, None, :]
-        gu = Gv @ self.u
+        Uu, s, Vt = np.linalg.svd((Gv[None, :, :] / sd[:, :, None]) * self.p_isqrt[None, None, :],
+                                  full_matrices=False)
+        Fq = self.Fq if rows is None else np.asarray(rows, float)
+        if rows is None:
+            Fn, fu, fn2 = self.Fn, self.fu, self.fn2
+        else:
+            Fn = Fq * self.p_isqrt[None, :]
+            fu, fn2 = Fq @ self.u, np.sum(Fn ** 2, axis=1)
+        e, var, phi, inv = self._estimator_core(Uu, s, Vt, noise, Gv @ self.u, Fn, fu, fn2,
+                                                np.array([self.alpha]))
+        return e[:, 0], var[:, 0], phi[:, self.nf:, :], inv[:, 0]
+
+    def _estimator_core(self, Uu, s, Vt, noise, gu, Fn, fu, fn2, alphas):
+        """The one rule of the row estimators, for U noise vectors (U, n_v) [K^2] and A
+        strengths `alphas` (A,): from the whitened design's SVD A_u = diag(1/sd_u) G_v P^-1/2 =
+        U_u diag(s_u) V_u^T, with phi = F P^-1/2 V (the quantities' rows F (q, K), Fn = F P^-1/2),
+        the estimator at a fixed level a = phi diag(s / (s^2 + alpha)) U^T diag(1/sd), the
+        nominal level the row's own (GLS over the readings, g = W G u / (u^T G^T W G u), W =
+        diag(1/noise)): e = a + (f.u - a G u) g^T, and the posterior variance
+            var = sum_r phi^2 / (s^2 + alpha) + (|Fn|^2 - sum_r phi^2) / alpha
+        (the second part: the directions the readings do not see), plus (f.u - a G u)^2 /
+        (u^T G^T W G u) for a change (sd_kind "change").  Returns e (U, A, q, n_v), var (U, A, q),
+        phi (U, q, r) and 1/(s^2 + alpha) (U, A, r)."""
+        sd = np.sqrt(noise)
+        phi = np.matmul(Fn[None], np.swapaxes(Vt, 1, 2))                     # (U, q, r)
+        inv = 1.0 / (s[:, None, :] ** 2 + alphas[None, :, None])
+        a = np.matmul(phi[:, None, :, :] * (s[:, None, :] * inv)[:, :, None, :], np.swapaxes(Uu, 1, 2)[:, None]) \
+            / sd[:, None, None, :]
         W = 1.0 / noise
         den = np.sum(W * gu ** 2, axis=1)
         g = np.where(den[:, None] > 0, W * gu / np.where(den > 0, den, 1.0)[:, None], 0.0)
-        fu = self.fu if rows is None else Fq @ self.u
-        e = a + (fu[None, :] - a @ gu)[:, :, None] * g[:, None, :]
-        fn2 = self.fn2 if rows is None else np.sum(Fn ** 2, axis=1)
-        var = np.einsum("uqr,ur->uq", phi ** 2, inv) + np.maximum(fn2[None, :] - np.sum(phi ** 2, axis=2),
-                                                                  0.0) / self.alpha
+        lead = fu[None, None, :] - a @ gu
+        e = a + lead[..., None] * g[:, None, None, :]
+        phi2 = phi ** 2
+        var = np.matmul(inv, np.swapaxes(phi2, 1, 2)) + np.maximum(fn2[None, :] - np.sum(phi2, axis=2),
+                                                                   0.0)[:, None, :] / alphas[None, :, None]
         if self.sd_kind == "change":
             # the nominal profile's level is the row's own (GLS, variance 1/den): its spread
             # adds (f.u - a_f . G u)^2 / den to the posterior variance at a fixed level
-            lead = fu[None, :] - a @ gu
-            var = var + np.where(den[:, None] > 0, lead ** 2 / np.where(den > 0, den, 1.0)[:, None], 0.0)
-        return e, var, phi[:, self.nf:, :], inv
+            var = var + np.where(den[:, None, None] > 0, lead ** 2 / np.where(den > 0, den, 1.0)[:, None, None], 0.0)
+        return e, var, phi, inv
 
     @few_threads
     def leave_one_out(self, d, random_var) -> np.ndarray:
@@ -521,27 +541,16 @@ class BatchSolver:
     def _averaging_terms(self, v, noise, alphas):
         """For pattern v at one noise vector (n_v,) [K^2]: the whitened design's left singular
         vectors Uu and singular values s, the functionals' estimators E (A nf, n_v) and
-        variances V (A, nf) at every strength of `alphas` (as _estimators gives them one
-        strength at a time, from the one SVD), and G u (n_v,)."""
+        variances V (A, nf) at every strength of `alphas` (_estimator_core, from the one SVD),
+        and G u (n_v,)."""
         Gv, nf = self.G[v], self.nf
-        sd = np.sqrt(noise)
-        Uu, s, Vt = np.linalg.svd(Gv / sd[:, None] * self.p_isqrt[None, :], full_matrices=False)
-        phi = self.Fn[:nf] @ Vt.T                                         # (nf, r)
-        inv = 1.0 / (s[None, :] ** 2 + alphas[:, None])                   # (A, r)
-        a = np.einsum("qr,ar,nr->aqn", phi, s[None, :] * inv, Uu) / sd    # (A, nf, n_v)
+        Uu, s, Vt = np.linalg.svd(Gv / np.sqrt(noise)[:, None] * self.p_isqrt[None, :], full_matrices=False)
         gu = Gv @ self.u
-        W = 1.0 / noise
-        den = float(np.sum(W * gu ** 2))
-        g = W * gu / den if den > 0 else np.zeros_like(gu)
-        lead = self.fu[None, :nf] - a @ gu                                # (A, nf)
-        E = a + lead[:, :, None] * g[None, None, :]
+        E, V, _, _ = self._estimator_core(Uu[None], s[None], Vt[None], noise[None], gu, self.Fn[:nf],
+                                          self.fu[:nf], self.fn2[:nf], alphas)
+        E, V = E[0], V[0]
         if self.sd_kind == "noise":
             V = np.einsum("aqn,n->aq", E ** 2, noise)
-        else:
-            V = inv @ (phi ** 2).T + np.maximum(self.fn2[None, :nf] - np.sum(phi ** 2, axis=1)[None, :],
-                                                0.0) / alphas[:, None]
-            if self.sd_kind == "change" and den > 0:
-                V = V + lead ** 2 / den
         return Uu, s, E.reshape(-1, Gv.shape[0]), V, gu
 
     # ------------------------------------------------------------------ solving
