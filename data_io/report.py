@@ -314,13 +314,18 @@ def _sensor_table(result) -> str:
                 + ", ".join(f"<strong>{_e(s)}</strong>" for s in aside) + ".</p>")
     else:
         lead = "<p>No sensor was set aside.</p>"
+    doubt = result.summary.get("sensor_doubt")
+    if doubt:
+        lead += (f"<p>Weighed as possibly broken: <strong>{_e(doubt['sensor'])}</strong> (probability "
+                 f"{doubt['fault_probability']:.2f}); the answer blends the fit with it and the fit without it.</p>")
     note = (f"<p class=\"sub\">The score compares each reading with what the other sensors predict, "
             f"in predictive standard deviations; beyond ±{t:.2f}{which} a sensor is treated as faulty or "
             f"misplaced. The ± column is the 95 % interval of that prediction; a fixed offset of a "
             f"reading is caught only beyond its “caught offset” (past "
             f"{sig(UNCHECKED_OFFSET_K)} K the fit warns: the others check that sensor only for large "
             f"faults). The fault probability is the chance that the reading is broken, given the "
-            f"others; above {DOUBT:g} the answer weighs the fit without that sensor too. "
+            f"others; when it is above {DOUBT:g} for sensors the screening kept (and it blamed no "
+            f"model), the answer also weighs the fit without the most doubtful of them. "
             f"Temperatures in °C, differences in K.</p>")
     return lead + note + table
 

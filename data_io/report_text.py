@@ -3,6 +3,8 @@ cautions and the style sheet.  Our own wording and colours."""
 
 from __future__ import annotations
 
+from ..inverse.contamination import EPSILON, OUTLIER_SD
+
 FIGURE_CAPTIONS = {
     "face_map": "The estimated face. Dashed outlines: the heater zones of the case. Markers: "
                 "thermocouples projected onto the face; a cross marks a sensor set aside. The colour "
@@ -118,9 +120,10 @@ GLOSSARY = (
                       "strength). A sensor alone on its part of the face has a large one: the others "
                       "check it only for large faults, and the answer there rests on it."),
     ("fault probability", "the chance that a sensor's reading is broken, given what the others predict "
-                          "(a broken reading taken as scattered by about 10 K about the truth, 2 % of "
-                          "sensors broken beforehand). When it is high for a sensor the screening kept, "
-                          "the answer blends the fit with that sensor and the fit without it."),
+                          f"(a broken reading taken as scattered by about {OUTLIER_SD:g} K about the truth, "
+                          f"{100 * EPSILON:g} % of sensors broken beforehand). When it is high for a sensor "
+                          "the screening kept, the answer blends the fit with that sensor and the fit "
+                          "without it."),
     ("set aside", "left out of the fit because its score is beyond the limit; its reading is still "
                   "listed."),
     ("smoothing strength α", "how strongly the fit prefers a smooth face over following every reading; "

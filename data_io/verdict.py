@@ -118,6 +118,10 @@ def sensor_sentences(result) -> list[str]:
                 out.append(f"{row['sensor']} {verb}: {why}.")
             else:
                 out.append(f"{row['sensor']} {verb}.")
+    doubt = result.summary.get("sensor_doubt")
+    if doubt:
+        out.append(f"{doubt['sensor']} may be broken (probability {doubt['fault_probability']:.2f}): "
+                   f"the answer blends the fit with it and the fit without it.")
     if not out:
         n = len(sens)
         out.append(f"All {n} thermocouples agree with each other; none was set aside.")

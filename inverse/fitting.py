@@ -63,10 +63,15 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
         raise InverseError("the zone model with calibrated face parameters needs the learned prior "
                            "(strength = \"evidence\", prior = \"learned\", no Monte Carlo); "
                            "use model = \"smooth\" or drop calibrate")
-    result = _fit(spec, rd, _Steps(stage, opts, spec), progress)
-    # a kept sensor whose fault the readings make likely is weighed: the answer mixes this
-    # fit with the one that sets it aside (sensor_doubt.py)
-    return weigh_doubtful(result, lambda j: _fit(spec, rd, _Steps(None, opts, spec), progress, aside=j))
+    steps = _Steps(stage, opts, spec)
+    result = _fit(spec, rd, steps, progress)
+
+    def without(j):
+        steps.extra(f"weighing sensor {rd.names[j]}: the fit without it")
+        return _fit(spec, rd, _Steps(None, opts, spec), None, aside=j)
+    # a sensor the screening passed whose fault the readings make likely is weighed: the
+    # answer mixes this fit with the one that sets it aside (sensor_doubt.py)
+    return weigh_doubtful(result, without, opts.loss)
 
 
 def _fit(spec, rd, step, progress, aside=None) -> FitResult:
@@ -181,7 +186,8 @@ def _fit(spec, rd, step, progress, aside=None) -> FitResult:
 class _Steps:
     """stage(k, n, text) as each step of a fit begins (fit's `stage`; None: silent).  n counts
     the steps this fit takes: the series, the screening with the prior, the answer's bands,
-    and the calibration, the zone model and the Monte Carlo draws where they apply."""
+    and the calibration, the zone model and the Monte Carlo draws where they apply; a
+    doubtful sensor's weighing, found at the end, adds one (`extra`)."""
 
     def __init__(self, stage, opts, spec):
         self.stage, self.done = stage, 0
@@ -196,6 +202,11 @@ class _Steps:
     def skip(self):
         """A counted step that does not run after all (the Monte Carlo draws under the zone model)."""
         self.total -= 1
+
+    def extra(self, text):
+        """A step found only at the end (weighing a doubtful sensor): counted as it begins."""
+        self.total += 1
+        self(text)
 
 
 def _answer_residuals(table, post, columns, rd, problem, zone_model, zones_lead=False, steps=None, kept=None):

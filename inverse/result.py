@@ -369,4 +369,8 @@ class FitResult:
         r, theta, z = (np.atleast_1d(np.asarray(x, float)) for x in (r, theta, z))
         _, _, ev, dG = self.design.at(r, theta, z, gradient=True)
         k = self.design.model.k
-        return -k * (ev.gradient + np.einsum("dpk,k->dp", dG, self.posterior.c))
+        own = -k * (ev.gradient + np.einsum("dpk,k->dp", dG, self.posterior.c))
+        if self.doubt is None:
+            return own
+        other, p = self.doubt          # linear in the answer: the mixture's mean is the weighted sum
+        return (1.0 - p) * own + p * other.predict_flux(r, theta, z)

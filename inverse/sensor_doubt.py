@@ -4,84 +4,107 @@ The screening (diagnostics.screen_outliers) sets a sensor aside only beyond its 
 limit: a hard decision.  A fault just below the limit stays in the fit, and the answer near
 it follows the fault with bands that know nothing of the doubt (a tube bore, seed 1 of the
 scenario suite: a thermocouple 6 K high, score 3.1 against a limit of 3.3, the bore's zone
-beside it 4.6 sd off).  So when the screening's own predictive (the reading given the
-others) makes a kept sensor's fault likely enough, the answer is the mixture of two fits:
+beside it 4.6 sd off).  So the answer is the mixture of two fits,
 
     p(answer | d) = (1 - p_j) p(answer | d, sensor j healthy) + p_j p(answer | d, j broken),
 
-p_j = P(sensor j broken | d) from the contamination model (contamination.py; the fit's
-diagnostics.LooScores.fault_probability, column `fault_probability` of the sensor table),
-j the most doubtful kept sensor, weighed when p_j > DOUBT.  "j broken" is the fit with j
-set aside (a broken reading says nothing of the part).  One sensor at most: the screening
-has already set aside every clear fault, and two faults at once below its limit are rarer
-than either (each fit costs a whole fit).  The mixture's mean and sd are its moments, its
-bands those of the mixture of the two answers' bands (strength_average.answers_mixture).
+"j broken" being the fit with j set aside (a broken reading says nothing of the part), and
+p_j = P(j broken | d) from the contamination model (contamination.py) on j's predictive from
+the others: eps N(d_j; m, v + tau^2) / [eps N(d_j; m, v + tau^2) + (1 - eps) N(d_j; m, v)].
+Which sensor: the one the screening passed (flag 'ok') with the largest fault probability in
+the screening's table (`fault_probability`, diagnostics.LooScores), when it exceeds DOUBT.
+The weight itself comes from the fit without j (m, v: its prediction of j, the sensor
+table's loo columns): the screening's predictive leaves j out of the strength's weights
+only, while the prior's length scale, order and amplitude were learned with d_j in, and a
+fault makes them rougher and its own predictive wider (tube bore, seed 1: p = 0.34 from the
+screening, 0.65 from the fit without TC07, whose length scale is 179 mm against 35 mm).
+
+Not weighed: when the screening blamed the model (a sensor flagged 'suspect': the
+contamination model assumes the model right), when setting j aside would leave fewer than
+diagnostics.MIN_KEPT sensors, and with a robust loss (which already down-weights j).  One
+sensor at most: the screening has already set every clear fault aside, two faults below its
+limit at once are rarer than either, and each weighed sensor costs a second fit; the
+warning names any other sensor above DOUBT.
+
+What is mixed: the face map (strength_average.answers_mixture), the face mean, the total
+power, the zones and the extremes (their mean and sd by the mixture's moments, the zones'
+bands as the map's), calibrated parameters, and the sensors' `fitted` (linear in the
+answer); `face_profile`, `predict` and `predict_flux` mix the two fits (FitResult.doubt).
+The model, the prior, the strength and chi2 in the summary are the fit that keeps j, on
+which `plan` and `trend` build.
 """
 
 from __future__ import annotations
 
-import math
 from dataclasses import replace
 
 import numpy as np
 import pandas as pd
 
+from .bands import Z95
+from .contamination import fault_probability
 from .diagnostics import MIN_KEPT
+from .errors import InverseError
 from .result import zone_entry
-from .strength_average import answers_mixture
+from .strength_average import answers_mixture, mixture_summary
 
 #: a kept sensor whose fault probability exceeds this is weighed: with the prior probability
 #: of a fault, contamination.EPSILON = 0.02, the readings then make a fault at least 5.4 times
 #: likelier than beforehand, "substantial" on Jeffreys' scale of Bayes factors (above 10^(1/2);
-#: from memory).  Healthy sensors of 20 stay below it in about 9 fits of 10 (the scenario
-#: suite's largest among sensors not broken: 0.04 except one model misfit, 0.2); each weighed
-#: sensor costs a second fit.
+#: from memory).  For a sensor predicted by the others to about 1 K this is a score of about
+#: 2.9 (0.3 % of healthy readings; one fit in 17 with 20 sensors), for 2 K about 2.3; below
+#: about 0.5 K of predictive sd only a score past the screening's limit gets there.  Each
+#: weighed sensor costs a second fit.
 DOUBT = 0.1
 
 
-def most_doubtful(table: pd.DataFrame):
-    """(row, fault probability) of the sensor most likely broken among those the screening
-    passed (flag 'ok'), if above DOUBT, else None.  None also when the screening did not weigh
-    the sensors (no `fault_probability`) or when setting one aside would leave fewer than
-    diagnostics.MIN_KEPT in the fit; a sensor beyond the limit that the screening kept on
-    purpose (the model blamed, or too few sensors left) is not weighed either."""
+def doubtful(table: pd.DataFrame) -> list[tuple[int, float]]:
+    """[(row, fault probability)] of the sensors the screening passed (flag 'ok') whose
+    fault probability exceeds DOUBT, most doubtful first; [] when the screening did not weigh
+    the sensors (no `fault_probability`), blamed the model (a sensor 'suspect') or would be
+    left with fewer than diagnostics.MIN_KEPT sensors."""
     if "fault_probability" not in table:
-        return None
+        return []
     p = table["fault_probability"].to_numpy(float)
     flag = table["flag"].to_numpy()
-    kept = (flag == "ok") & np.isfinite(p)
-    if not kept.any() or np.count_nonzero(flag != "set aside") - 1 < MIN_KEPT:
-        return None
-    j = int(np.argmax(np.where(kept, p, -1.0)))
-    return (j, float(p[j])) if p[j] > DOUBT else None
+    if np.any(flag == "suspect") or np.count_nonzero(flag != "set aside") - 1 < MIN_KEPT:
+        return []
+    rows = np.flatnonzero((flag == "ok") & np.isfinite(p) & (p > DOUBT))
+    return [(int(j), float(p[j])) for j in rows[np.argsort(-p[rows], kind="stable")]]
 
 
-def _moments(w, pairs):
-    """Mixture mean and sd of scalars given as (mean, sd) per component."""
-    m = np.array([a for a, _ in pairs], float)
-    s = np.array([b for _, b in pairs], float)
-    mean = float(w @ m)
-    return mean, math.sqrt(float(w @ (s ** 2 + (m - mean) ** 2)))
+def most_doubtful(table: pd.DataFrame):
+    """(row, fault probability) of the most doubtful sensor (`doubtful`), or None."""
+    found = doubtful(table)
+    return found[0] if found else None
 
 
-def weighed(primary, broken, p: float, sensor: str, warning: str):
+def _scalar(w, pairs):
+    """Mixture mean and sd of scalars given as (mean, sd) per fit."""
+    m, s = (np.array([[x[i]] for x in pairs], float) for i in (0, 1))
+    mean, sd, _, _ = mixture_summary(w, m, s, scalar=True)
+    return mean, sd
+
+
+def _answer(t):
+    return tuple(np.atleast_1d(np.asarray(t[c], float)) for c in ("mean", "sd", "lower", "upper"))
+
+
+def weighed(primary, broken, p: float, sensor: str, warnings):
     """The FitResult of the mixture (module doc): `primary` the fit with every kept sensor,
-    `broken` the fit with `sensor` set aside, p its probability of a fault.  The face map,
-    the face mean, the total power, the zones and the extremes are the mixture's; the sensor
-    table, the model and the prior are the primary fit's, which `plan` and `trend` build on
-    (face_profile and predict mix both fits: FitResult.doubt)."""
+    `broken` the fit with `sensor` set aside, p its probability of a fault; warnings: the
+    sentences that say so (they lead the answer's own)."""
     w = np.array([1.0 - p, p])
     g1, g2 = primary.grid, broken.grid
-    mean, sd, lower, upper = answers_mixture(w, [tuple(g[c].to_numpy(float) for c in ("estimate", "std", "lower",
-                                                                                         "upper"))
-                                                 for g in (g1, g2)])
+    cols = ("estimate", "std", "lower", "upper")
+    mean, sd, lower, upper = answers_mixture(w, [tuple(g[c].to_numpy(float) for c in cols) for g in (g1, g2)])
     grid = g1.copy()
     grid["estimate"], grid["std"], grid["lower"], grid["upper"] = mean, sd, lower, upper
     s1, s2 = primary.summary, broken.summary
     summary = dict(s1)
 
     def mix(key, sd_key):
-        return _moments(w, [(s1[key], s1[sd_key]), (s2[key], s2[sd_key])])
+        return _scalar(w, [(s1[key], s1[sd_key]), (s2[key], s2[sd_key])])
 
     summary["mean"], summary["mean_sd"] = mix("mean", "mean_sd")
     summary["total_power_W"], summary["total_power_sd_W"] = mix("total_power_W", "total_power_sd_W")
@@ -96,35 +119,83 @@ def weighed(primary, broken, p: float, sensor: str, warning: str):
     other = {z["name"]: z for z in s2["zones"]}
     zones = []
     for z in s1["zones"]:
-        o = other.get(z["name"], z)
-        zm, zsd = _moments(w, [(z["mean"], z["sd"]), (o["mean"], o["sd"])])
+        zm, zsd, lo, hi = (float(x[0]) for x in answers_mixture(w, [_answer(z), _answer(other[z["name"]])]))
         entry = zone_entry(z["name"], zm, zsd, z["area_m2"], z.get("nominal_W"), primary.quantity)
+        entry["lower"], entry["upper"] = lo, hi
         entry["deviation_from_face_mean"] = zm - summary["mean"]
         zones.append(entry)
     summary["zones"] = zones
+    calibration = summary.get("calibrated")
+    if calibration:
+        summary["calibrated"] = {key: dict(c, **dict(zip(("value", "sd"), _scalar(
+            w, [(c["value"], c["sd"]), (s2["calibrated"][key]["value"], s2["calibrated"][key]["sd"])]))))
+            for key, c in calibration.items()}
     summary["sensor_doubt"] = {"sensor": sensor, "fault_probability": p}
-    warnings = list(primary.warnings) + [warning]
-    summary["warnings"] = list(dict.fromkeys(list(s1["warnings"]) + [warning]))
-    return replace(primary, grid=grid, summary=summary, zones=zones, warnings=list(dict.fromkeys(warnings)),
+    notes = list(dict.fromkeys(list(warnings) + list(primary.warnings)))
+    summary["warnings"] = notes
+    return replace(primary, grid=grid, summary=summary, zones=zones, warnings=notes,
+                   nonlinear=summary.get("calibrated"), sensors=_mixed_sensors(primary, broken, w, sensor),
                    doubt=(broken, p))
 
 
-def doubt_warning(row, p: float) -> str:
-    """The plain sentence for the weighed sensor (`row` its sensor-table row)."""
-    name, delta = row["sensor"], float(row["measured"]) - float(row["loo_predicted"])
-    return (f"sensor {name} reads {delta:+.2g} K away from what the other sensors predict (score "
-            f"{float(row['score']):+.1f}, not far enough to set it aside): the answer weighs a fault of {name} "
-            f"(probability {p:.2f}) against a good reading, so its bands hold both; check or calibrate {name} "
-            f"in place to settle it")
+def _mixed_sensors(primary, broken, w, sensor):
+    """The primary fit's sensor table with `fitted` (and `residual`, `standardized`) the
+    mixture's own prediction at each sensor: linear in the answer, (1 - p) f_1 + p f_2; the
+    weighed sensor's fault probability the weight p."""
+    out = primary.sensors.copy()
+    out.loc[out["sensor"] == sensor, "fault_probability"] = 1.0 - w[0]     # the weight the answer gives it
+    other = broken.sensors.set_index("sensor")["fitted"]
+    fitted = w[0] * out["fitted"].to_numpy(float) + w[1] * other.loc[out["sensor"]].to_numpy(float)
+    # the reading's sd, residual / standardized (a residual of exactly 0 keeps a score of 0)
+    old_r, old_z = out["residual"].to_numpy(float), out["standardized"].to_numpy(float)
+    resid = out["measured"].to_numpy(float) - fitted
+    out["fitted"], out["residual"] = fitted, resid
+    out["standardized"] = np.divide(resid * old_z, old_r, out=np.zeros_like(resid), where=old_r != 0)
+    return out
 
 
-def weigh_doubtful(result, refit):
+def doubt_warnings(name: str, delta: float, sd: float, p: float, others, broken_warnings) -> list[str]:
+    """The plain sentences: the weighed sensor `name` (its reading minus the others'
+    prediction without it, delta [K], that prediction's sd [K], p its weight), the other
+    sensors above DOUBT (names), and what the fit without it warns of that the answer would
+    otherwise not say."""
+    out = [f"sensor {name} reads {delta:+.2g} K away from what the other sensors predict without it "
+           f"(+-{Z95 * sd:.2g} K at 95 %), not far enough out to set it aside: the answer weighs a fault of "
+           f"{name} (probability {p:.2f}) against a good reading, so its bands hold both; check or calibrate "
+           f"{name} in place to settle it"]
+    if others:
+        out.append(f"{', '.join(others)} also read{'s' if len(others) == 1 else ''} away from the others' "
+                   f"prediction (fault probability above {DOUBT:g}) but {'is' if len(others) == 1 else 'are'} "
+                   f"not weighed: only the most doubtful sensor is; check {'it' if len(others) == 1 else 'them'} too")
+    out += [f"without {name}: {w}" for w in broken_warnings if name not in w]
+    return out
+
+
+def weigh_doubtful(result, refit, loss: str = "linear"):
     """`result`, or the mixture with refit(j) (the same fit with reading j set aside) when a
-    kept sensor is doubtful (most_doubtful)."""
-    found = most_doubtful(result.sensors)
-    if found is None:
+    sensor the screening passed is doubtful (`doubtful`; not with a robust loss).  A refit
+    the readings cannot carry leaves `result` with a warning."""
+    found = doubtful(result.sensors) if loss == "linear" else []
+    if not found:
         return result
-    j, p = found
+    j, p_screen = found[0]
     row = result.sensors.iloc[j]
-    index = list(result.readings.names).index(str(row["sensor"]))
-    return weighed(result, refit(index), p, str(row["sensor"]), doubt_warning(row, p))
+    name = str(row["sensor"])
+    try:
+        broken = refit(list(result.readings.names).index(name))
+    except InverseError as exc:
+        note = (f"sensor {name} may be broken (fault probability {p_screen:.2f}), but the fit without it "
+                f"failed ({exc}); the answer keeps it")
+        out = replace(result, warnings=result.warnings + [note])
+        out.summary["warnings"] = list(out.summary["warnings"]) + [note]
+        return out
+    # the weight from the fit without j: its prediction of j learned from the others alone
+    held = broken.sensors.set_index("sensor").loc[name]
+    delta, sd = float(held["measured"]) - float(held["loo_predicted"]), float(held["loo_sd"])
+    p = float(fault_probability(np.array([delta]), np.array([sd ** 2]))[0])
+    if not np.isfinite(p):
+        p, delta, sd = p_screen, float(row["measured"]) - float(row["loo_predicted"]), float(row["loo_sd"])
+    new = [x for x in broken.warnings if x not in set(result.warnings)]
+    others = [str(result.sensors.iloc[i]["sensor"]) for i, _ in found[1:]]
+    return weighed(result, broken, p, name, doubt_warnings(name, delta, sd, p, others, new))
+

@@ -557,7 +557,8 @@ def test_fit_steps_count_what_runs(readings):
         calls = []
         inverse.fit(case(), rd, stage=lambda k, n, text: calls.append((k, n, text)), **kwargs)
         assert [k for k, _, _ in calls] == list(range(1, len(calls) + 1))
-        assert calls[-1][0] == calls[-1][1] and calls[-1][2].startswith("bands")
+        # the last step: the answer's bands, or the weighing of a doubtful sensor found after them
+        assert calls[-1][0] == calls[-1][1] and calls[-1][2].startswith(("bands", "weighing sensor"))
 
 
 def test_zone_models_share_the_smooth_models_length_scales(readings, monkeypatch):

@@ -13,7 +13,7 @@ from test_inverse_diagnostics import layout, readings
 from heatsight.inverse.contamination import EPSILON, OUTLIER_SD, fault_probability
 from heatsight.inverse.diagnostics import averaged_loo
 from heatsight.inverse.linear_gaussian import LinearGaussianProblem
-from heatsight.inverse.sensor_doubt import DOUBT, most_doubtful
+from heatsight.inverse.sensor_doubt import DOUBT, doubtful, most_doubtful, weigh_doubtful
 from heatsight.inverse.strength_average import answers_mixture
 
 
@@ -81,16 +81,19 @@ def test_answers_mixture_moments_and_band():
         assert cdf == pytest.approx(q, abs=1e-7)
 
 
-def test_most_doubtful_takes_a_passed_sensor_beyond_the_cut():
+def test_the_doubtful_are_passed_sensors_beyond_the_cut():
     import pandas as pd
 
-    t = pd.DataFrame({"sensor": list("ABCDE"), "fault_probability": [0.2, 0.9, DOUBT / 2, 0.01, 0.6],
-                      "flag": ["ok", "set aside", "ok", "ok", "suspect"]})
-    # E is beyond the limit but kept on purpose (the model blamed): not weighed; B is out
-    assert most_doubtful(t) == (0, 0.2)
-    t.loc[0, "fault_probability"] = DOUBT / 3
+    t = pd.DataFrame({"sensor": list("ABCDE"), "fault_probability": [0.2, 0.9, DOUBT / 2, 0.3, 0.01],
+                      "flag": ["ok", "set aside", "ok", "ok", "ok"]})
+    assert doubtful(t) == [(3, 0.3), (0, 0.2)] and most_doubtful(t) == (3, 0.3)     # B is out
+    t.loc[[0, 3], "fault_probability"] = DOUBT / 3
     assert most_doubtful(t) is None
     assert most_doubtful(t.drop(columns="fault_probability")) is None
+    # the screening blamed the model (a sensor kept but suspect): the contamination model,
+    # which assumes the model right, weighs nothing
+    blamed = t.assign(fault_probability=[0.2, 0.9, 0.01, 0.01, 0.6], flag=["ok", "set aside", "ok", "ok", "suspect"])
+    assert doubtful(blamed) == []
     # weighing never leaves fewer than three sensors in a fit
     three = pd.DataFrame({"sensor": list("ABC"), "fault_probability": [0.4, 0.01, 0.01], "flag": ["ok"] * 3})
     assert most_doubtful(three) is None
@@ -108,7 +111,14 @@ def tube_seed1():
 def test_a_fault_below_the_limit_is_weighed_and_the_zone_beside_it_holds(tube_seed1):
     scn, res = tube_seed1
     doubt = res.summary["sensor_doubt"]
-    assert doubt["sensor"] == "TC07" and DOUBT < doubt["fault_probability"] < 0.5
+    broken, p = res.doubt
+    # the weight comes from the fit without TC07 (its prediction of TC07 from the others
+    # alone, the prior learned without it), not from the screening's, whose prior TC07 made
+    # rougher (and its own prediction wider)
+    held = broken.sensors.set_index("sensor").loc["TC07"]
+    want = fault_probability(np.array([held["measured"] - held["loo_predicted"]]), np.array([held["loo_sd"] ** 2]))
+    assert doubt["sensor"] == "TC07" and doubt["fault_probability"] == pytest.approx(float(want[0])) == p
+    assert 0.5 < p < 0.8
     assert "TC07" not in res.summary["set_aside"]
     assert any("weighs a fault of TC07" in w for w in res.warnings)
     score = sm.score(scn, res)
@@ -153,3 +163,37 @@ def test_the_weighed_sensor_reaches_summary_json_sensors_csv_and_the_report(tube
     assert "fault_probability" in sensor_columns(res.sensors).columns
     html = render_report(res, case_text=[], figures={}, title="t")
     assert "fault probability" in html and "weighs a fault of TC07" in html
+
+
+def test_a_robust_loss_or_a_failed_refit_keeps_the_fit(tube_seed1):
+    from dataclasses import replace
+
+    _, res = tube_seed1
+    one = res.doubt[0]                          # a FitResult whose sensors pass; make TC03 doubtful
+    table = one.sensors.copy()
+    table.loc[table["sensor"] == "TC03", "fault_probability"] = 0.3
+    fake = replace(one, sensors=table, summary=dict(one.summary), warnings=list(one.warnings))
+
+    def refit(j):
+        raise inverse.InverseError("no level fixed")
+    assert weigh_doubtful(fake, refit, loss="soft_l1") is fake       # a robust loss already down-weights it
+    out = weigh_doubtful(fake, refit)
+    assert out.doubt is None and "sensor_doubt" not in out.summary
+    assert any("TC03 may be broken" in w and "the answer keeps it" in w for w in out.warnings)
+    assert out.summary["warnings"][-1] == out.warnings[-1]
+
+
+def test_the_verdict_names_the_weighed_sensor(tube_seed1):
+    from heatsight.data_io.verdict import sensor_sentences
+
+    _, res = tube_seed1
+    text = " ".join(sensor_sentences(res))
+    assert "TC07 may be broken" in text and "agree with each other" not in text
+
+
+def test_a_plan_from_a_weighed_fit_says_what_it_starts_from(tube_seed1):
+    from heatsight.inverse.plan import state_from_fit
+
+    _, res = tube_seed1
+    state = state_from_fit(res, ["mean"])
+    assert "the fit that keeps TC07" in state.source and "the plan's do not" in state.source
