@@ -89,11 +89,12 @@ def output_files(result, case, readings_path, points=None) -> list[tuple[str, ob
     from .csv_columns import estimate_columns, points_columns, sensor_columns
     from .csv_out import OUTPUT_FILES_KEY, csv_text, json_text
     from .fit_outputs import estimate_frame, points_frame, summary_dict
-    from .plots import all_figures, figure_png
+    from .figure_pngs import figure_pngs
+    from .plots import all_figures
     from .report import render_report
 
     summary = summary_dict(result, case_path=case.path, readings_path=readings_path)
-    figures = {name: figure_png(fig) for name, fig in all_figures(result, zones=case.zones).items()}
+    figures = figure_pngs(all_figures(result, zones=case.zones))
     html = render_report(result, case_text=case_text(case, readings_path), figures=figures,
                          title=f"heatsight fit: {case.path.name}")
     names = ["estimate.csv", "sensors.csv", "summary.json"] + (["points.csv"] if points is not None else []) + \

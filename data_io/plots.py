@@ -379,10 +379,11 @@ def save_figures(result, folder, *, dpi: int = DPI, names=FIGURE_NAMES, prefix: 
     unknown = [n for n in names if n not in _BUILDERS]
     if unknown:
         raise ValueError(f"unknown figure name(s) {unknown}; choose from {list(FIGURE_NAMES)}")
+    from .figure_pngs import figure_pngs
+
     out = {}
-    for name in names:
-        fig = _build(name, result, zones)
+    for name, png in figure_pngs({name: _build(name, result, zones) for name in names}, dpi).items():
         path = folder / f"{prefix}{name}.png"
-        atomic_write_bytes(path, figure_png(fig, dpi))
+        atomic_write_bytes(path, png)
         out[name] = path
     return out

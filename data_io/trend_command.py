@@ -62,7 +62,8 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
     from .csv_out import OUTPUT_FILES_KEY, OutputSet, json_text, named_os_errors
     from .fit_steps import case_text
     from .logs import DEFAULT_CHUNK_ROWS, LogReader, count_rows, open_log
-    from .plots import face_map, figure_png, sensor_health
+    from .figure_pngs import figure_pngs
+    from .plots import face_map, sensor_health
     from .report import render_report
     from .trend_plot import trend_figure
     from .tables import read_layout, readings_form
@@ -108,13 +109,15 @@ def run_trend(case_path, *, log=None, every=None, out=None, window=DEFAULT_WINDO
             summary = run.summary(case.path, log_path)
             summary["first_row"], summary["last_row"] = run.first_row, run.last_row
             summary[OUTPUT_FILES_KEY] = list(names)
-            png = figure_png(trend_figure(run.figure_data()))
+            pngs = figure_pngs({"trend": trend_figure(run.figure_data()),
+                                "face_map": face_map(run.result, zones=case.zones),
+                                "sensors": sensor_health(run.result)})
+            png = pngs.pop("trend")
             html = render_report(
                 run.result, title=f"heatsight trend: {case.path.name}",
                 case_text=case_text(case, log_path) + [("reference window", f"t = {run.ref_window[0]:.6g} to "
                                                                             f"{run.ref_window[1]:.6g} s")],
-                figures={"face_map": figure_png(face_map(run.result, zones=case.zones)),
-                         "sensors": figure_png(sensor_health(run.result))},
+                figures=pngs,
                 extra_sections=[("Trend over the log", trend_html(summary, png, reader.timestamps))],
                 lead=trend_lead(summary))
             outset.add("trend.png", png)
