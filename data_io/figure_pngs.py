@@ -10,6 +10,7 @@ figures are drawn one by one here.  The bytes are the same either way.
 
 from __future__ import annotations
 
+import io
 import os
 import pickle
 import sys
@@ -18,9 +19,14 @@ import threading
 from .figure_style import DPI
 
 
-def _png(fig, dpi) -> bytes:
-    from .plots import figure_png
+def figure_png(fig, dpi: int = DPI) -> bytes:
+    """PNG bytes of a matplotlib Figure (Agg renderer)."""
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=dpi)
+    return buf.getvalue()
 
+
+def _png(fig, dpi) -> bytes:
     return figure_png(fig, dpi)
 
 

@@ -17,7 +17,6 @@ part's wall varies with theta only: its figures are theta curves with their band
 
 from __future__ import annotations
 
-import io
 import math
 from pathlib import Path
 
@@ -30,6 +29,7 @@ from . import wall_curve
 from .csv_out import atomic_write_bytes
 from .display import display_for
 from .face_scale import colour_scale
+from .figure_pngs import figure_png, figure_pngs  # noqa: F401 (figure_png re-exported)
 from .figure_style import DPI, FLAG_COLOUR, LINE_COLOURS, LITERAL, new_figure as _new_figure
 from .sensor_plot import _flags, sensor_health, sensor_threshold  # noqa: F401 (re-exported)
 from .strength_plot import CRITERION_WORDS, EVIDENCE_DEPTH, strength_curve  # noqa: F401 (re-exported)
@@ -363,13 +363,6 @@ def all_figures(result, names=FIGURE_NAMES, *, zones=()) -> dict:
     return {n: _build(n, result, zones) for n in names}
 
 
-def figure_png(fig: Figure, dpi: int = DPI) -> bytes:
-    """PNG bytes of a figure (Agg renderer)."""
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=dpi)
-    return buf.getvalue()
-
-
 def save_figures(result, folder, *, dpi: int = DPI, names=FIGURE_NAMES, prefix: str = "", zones=()) -> dict:
     """Write the figures as PNG files `<prefix><name>.png` in `folder` (atomically each).
 
@@ -379,8 +372,6 @@ def save_figures(result, folder, *, dpi: int = DPI, names=FIGURE_NAMES, prefix: 
     unknown = [n for n in names if n not in _BUILDERS]
     if unknown:
         raise ValueError(f"unknown figure name(s) {unknown}; choose from {list(FIGURE_NAMES)}")
-    from .figure_pngs import figure_pngs
-
     out = {}
     for name, png in figure_pngs({name: _build(name, result, zones) for name in names}, dpi).items():
         path = folder / f"{prefix}{name}.png"
