@@ -51,10 +51,11 @@ from .strength_average import answers_mixture, mixture_summary
 #: a kept sensor whose fault probability exceeds this is weighed: with the prior probability
 #: of a fault, contamination.EPSILON = 0.02, the readings then make a fault at least 5.4 times
 #: likelier than beforehand, "substantial" on Jeffreys' scale of Bayes factors (above 10^(1/2);
-#: from memory).  For a sensor predicted by the others to about 1 K this is a score of about
-#: 2.9 (0.3 % of healthy readings; one fit in 17 with 20 sensors), for 2 K about 2.3; below
-#: about 0.5 K of predictive sd only a score past the screening's limit gets there.  Each
-#: weighed sensor costs a second fit.
+#: from memory).  The score where a Gaussian predictive reaches it (computed from
+#: contamination.py): 3.35 for a predictive sd of 0.2 K (about the screening's limit for 20
+#: sensors, 3.29), 3.07 for 0.5 K, 2.84 for 1 K, 2.63 for 2 K; healthy readings pass it 0.08,
+#: 0.22, 0.45 and 0.86 % of the time, so with 20 sensors alike 1.6, 4.2, 8.6 and 16 % of fits
+#: weigh one.  Each weighed sensor costs a second fit.
 DOUBT = 0.1
 
 
