@@ -198,6 +198,10 @@ def summary_lines(result) -> list[str]:
     lines.append(f"  {_smoothness_words(s)}; misfit chi-square {eng(s['chi2'])} for {s['n_sensors_used']} sensors used")
     if s["set_aside"]:
         lines.append(f"  set aside: {', '.join(s['set_aside'])}")
+    if s.get("sensor_doubt"):
+        d = s["sensor_doubt"]
+        lines.append(f"  weighed as possibly broken: {d['sensor']} (probability {d['fault_probability']:.2f}; "
+                     "the answer blends the fits with and without it)")
     for w in s["warnings"]:
         lines.append(f"  warning: {w}")
     return lines

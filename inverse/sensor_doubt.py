@@ -163,12 +163,15 @@ def doubt_warnings(name: str, delta: float, sd: float, p: float, others, broken_
     out = [f"sensor {name} reads {delta:+.2g} K away from what the other sensors predict without it "
            f"(+-{Z95 * sd:.2g} K at 95 %), not far enough out to set it aside: the answer weighs a fault of "
            f"{name} (probability {p:.2f}) against a good reading, so its bands hold both; check or calibrate "
-           f"{name} in place to settle it"]
+           f"{name} in place to settle it (a sharp feature of the face next to it, which the fit smooths, "
+           f"would look the same)"]
     if others:
         out.append(f"{', '.join(others)} also read{'s' if len(others) == 1 else ''} away from the others' "
                    f"prediction (fault probability above {DOUBT:g}) but {'is' if len(others) == 1 else 'are'} "
                    f"not weighed: only the most doubtful sensor is; check {'it' if len(others) == 1 else 'them'} too")
-    out += [f"without {name}: {w}" for w in broken_warnings if name not in w]
+    # the fit without it may warn of what the answer does not (a zone it alone saw); its
+    # screening's own set-aside notes repeat the answer's with other numbers
+    out += [f"without {name}: {w}" for w in broken_warnings if name not in w and " set aside: " not in w]
     return out
 
 

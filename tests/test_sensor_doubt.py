@@ -197,3 +197,11 @@ def test_a_plan_from_a_weighed_fit_says_what_it_starts_from(tube_seed1):
     _, res = tube_seed1
     state = state_from_fit(res, ["mean"])
     assert "the fit that keeps TC07" in state.source and "the plan's do not" in state.source
+
+
+def test_the_console_names_the_weighed_sensor(tube_seed1):
+    from heatsight.data_io.fit_outputs import summary_lines
+
+    _, res = tube_seed1
+    text = "\n".join(summary_lines(res))
+    assert "weighed as possibly broken: TC07 (probability 0.6" in text
