@@ -202,7 +202,7 @@ def model_suspect(count: int, n: int) -> bool:
 
 def screen_outliers(problem: LinearGaussianProblem, strength="evidence", threshold: float | None = None,
                     names=None, family_level: float = FAMILY_LEVEL, max_set_aside: int | None = None,
-                    min_kept: int = MIN_KEPT, preset=(), model_first: bool = False) -> Screening:
+                    min_kept: int = MIN_KEPT, preset=(), model_first: bool = False, protect=()) -> Screening:
     """Set aside outlying sensors one at a time, then fit with alpha chosen by `strength`.
 
     Repeat on the sensors still in: score every sensor by `averaged_loo` (for a fixed
@@ -211,6 +211,7 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
     in), set that sensor aside. Stops at `max_set_aside` (default n // 4: beyond that the
     model, not the sensors, is suspect) or when only `min_kept` sensors would remain.
     preset: SetAside entries (gross faults) out from the start. model_first: see module doc.
+    protect: indices of readings never set aside (their scores still reported and flagged).
     """
     n = problem.n
     names = _names(names, n)
@@ -236,7 +237,10 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
         sc = check(sub)
         score[idx] = sc.z
         t = limit(sub.n)
-        j = int(np.argmax(np.abs(sc.z)))
+        open_to = ~np.isin(idx, np.asarray(protect, dtype=int))
+        if not open_to.any():
+            break
+        j = int(np.argmax(np.where(open_to, np.abs(sc.z), -np.inf)))
         if abs(sc.z[j]) <= t:
             break
         if len(out) - n_preset >= cap or sub.n - 1 < min_kept:

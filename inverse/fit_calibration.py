@@ -12,7 +12,7 @@ from .calibration import calibrate
 from .diagnostics import screen_outliers
 from .fit_posterior import smooth_posterior
 from .fit_problem import linear_problem
-from .fit_screening import screen_sensors
+from .fit_screening import protected, screen_sensors
 from .marginal_columns import MarginalColumns
 from .strength import choose_strength
 
@@ -27,7 +27,7 @@ def calibrated_design(design, rd, problem, P, opts, gross):
     else:
         # at the nominal parameters the model is known to be off: no model-first rule here
         pre = screen_outliers(problem, strength=request, threshold=opts.threshold, names=rd.names,
-                              preset=gross)
+                              preset=gross, protect=protected(rd, opts))
         kept, alpha = pre.kept, pre.strength.alpha
     cal = calibrate(design, rd, kept, problem.subset(np.flatnonzero(kept)), alpha, P, opts.calibration)
     return cal.design

@@ -22,6 +22,12 @@ class Screening:
     warnings: list
 
 
+def protected(rd, opts) -> list[int]:
+    """Indices of the readings the screening never sets aside (FitOptions.keep_sensors)."""
+    keep = set(opts.keep_sensors)
+    return [i for i, name in enumerate(rd.names) if name in keep]
+
+
 def screen_sensors(problem, rd, opts, gross=()) -> Screening:
     """Screen the sensors (unless keep_all_sensors) and choose the strength: gross faults
     found first stay set aside; several sensors failing together blame the model
@@ -33,7 +39,7 @@ def screen_sensors(problem, rd, opts, gross=()) -> Screening:
         return Screening(choice, problem, np.ones(rd.n, dtype=bool), table, [],
                        list(choice.warnings) + unchecked_warnings(table))
     s = screen_outliers(problem, strength=request, threshold=opts.threshold, names=rd.names,
-                        preset=list(gross), model_first=True)
+                        preset=list(gross), model_first=True, protect=protected(rd, opts))
     warnings = list(s.warnings) + [f"sensor {x.sensor} set aside: {x.reason}" for x in s.set_aside]
     return Screening(s.strength, s.problem, s.kept, s.table, list(s.set_aside),
                    warnings + list(s.strength.warnings) + unchecked_warnings(s.table))

@@ -20,6 +20,8 @@ a doubtful sensor weighed (sensor_doubt.py).
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from .design import Design, smooth_prior
@@ -69,9 +71,15 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
     def without(j):
         steps.extra(f"weighing sensor {rd.names[j]}: the fit without it")
         return _fit(spec, rd, _Steps(None, opts, spec), None, aside=j)
-    # a sensor the screening passed whose fault the readings make likely is weighed: the
-    # answer mixes this fit with the one that sets it aside (sensor_doubt.py)
-    return weigh_doubtful(result, without, opts.loss)
+
+    def keeping(name):
+        steps.extra(f"weighing sensor {name}: the fit that keeps it")
+        kept = replace(spec, options=replace(opts, keep_sensors=opts.keep_sensors + (name,)))
+        return _fit(kept, rd, _Steps(None, opts, spec), None)
+    # a sensor the screening passed whose fault the readings make likely, or one it set aside
+    # whose fault they leave in doubt, is weighed: the answer mixes this fit with the one
+    # that sets it aside or keeps it (sensor_doubt.py)
+    return weigh_doubtful(result, without, opts.loss, keeping)
 
 
 def _fit(spec, rd, step, progress, aside=None) -> FitResult:

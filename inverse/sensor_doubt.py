@@ -19,6 +19,12 @@ only, while the prior's length scale, order and amplitude were learned with d_j 
 fault makes them rougher and its own predictive wider (tube bore, seed 1: p = 0.34 from the
 screening, 0.65 from the fit without TC07, whose length scale is 179 mm against 35 mm).
 
+The other side of the limit alike: when no passed sensor is doubtful, the set-aside sensor
+whose fault is least sure (its fault probability from the fit, which left it out) is weighed
+back when that probability is below 1 - DOUBT: the answer mixes the fit with the one that
+keeps it (FitOptions.keep_sensors), weighed 1 - p.  So the answer moves smoothly as a
+reading crosses the screening's limit instead of jumping from keeping it to dropping it.
+
 Not weighed: when the screening blamed the model (a sensor flagged 'suspect': the
 contamination model assumes the model right), when setting j aside would leave fewer than
 diagnostics.MIN_KEPT sensors, and with a robust loss (which already down-weights j).  One
@@ -91,11 +97,13 @@ def _answer(t):
     return tuple(np.atleast_1d(np.asarray(t[c], float)) for c in ("mean", "sd", "lower", "upper"))
 
 
-def weighed(primary, broken, p: float, sensor: str, warnings):
-    """The FitResult of the mixture (module doc): `primary` the fit with every kept sensor,
-    `broken` the fit with `sensor` set aside, p its probability of a fault; warnings: the
-    sentences that say so (they lead the answer's own)."""
-    w = np.array([1.0 - p, p])
+def weighed(primary, broken, q: float, sensor: str, warnings, fault: float | None = None):
+    """The FitResult of the mixture (module doc): `primary` the fit whose model, prior and
+    sensor table the answer keeps, `broken` the other fit, weighed q; `sensor` the one the
+    two fits differ by, `fault` its probability of a fault (default q: `broken` sets it
+    aside); warnings: the sentences that say so (they lead the answer's own)."""
+    p = q if fault is None else float(fault)
+    w = np.array([1.0 - q, q])
     g1, g2 = primary.grid, broken.grid
     cols = ("estimate", "std", "lower", "upper")
     mean, sd, lower, upper = answers_mixture(w, [tuple(g[c].to_numpy(float) for c in cols) for g in (g1, g2)])
@@ -135,16 +143,16 @@ def weighed(primary, broken, p: float, sensor: str, warnings):
     notes = list(dict.fromkeys(list(warnings) + list(primary.warnings)))
     summary["warnings"] = notes
     return replace(primary, grid=grid, summary=summary, zones=zones, warnings=notes,
-                   nonlinear=summary.get("calibrated"), sensors=_mixed_sensors(primary, broken, w, sensor),
-                   doubt=(broken, p))
+                   nonlinear=summary.get("calibrated"), sensors=_mixed_sensors(primary, broken, w, sensor, p),
+                   doubt=(broken, q))
 
 
-def _mixed_sensors(primary, broken, w, sensor):
+def _mixed_sensors(primary, broken, w, sensor, fault):
     """The primary fit's sensor table with `fitted` (and `residual`, `standardized`) the
-    mixture's own prediction at each sensor: linear in the answer, (1 - p) f_1 + p f_2; the
-    weighed sensor's fault probability the weight p."""
+    mixture's own prediction at each sensor: linear in the answer, w_1 f_1 + w_2 f_2; the
+    weighed sensor's fault probability the one the answer uses."""
     out = primary.sensors.copy()
-    out.loc[out["sensor"] == sensor, "fault_probability"] = 1.0 - w[0]     # the weight the answer gives it
+    out.loc[out["sensor"] == sensor, "fault_probability"] = fault
     other = broken.sensors.set_index("sensor")["fitted"]
     fitted = w[0] * out["fitted"].to_numpy(float) + w[1] * other.loc[out["sensor"]].to_numpy(float)
     # the reading's sd, residual / standardized (a residual of exactly 0 keeps a score of 0)
@@ -175,24 +183,27 @@ def doubt_warnings(name: str, delta: float, sd: float, p: float, others, broken_
     return out
 
 
-def weigh_doubtful(result, refit, loss: str = "linear"):
+def weigh_doubtful(result, refit, loss: str = "linear", keeping=None):
     """`result`, or the mixture with refit(j) (the same fit with reading j set aside) when a
-    sensor the screening passed is doubtful (`doubtful`; not with a robust loss).  A refit
-    the readings cannot carry leaves `result` with a warning."""
-    found = doubtful(result.sensors) if loss == "linear" else []
-    if not found:
+    sensor the screening passed is doubtful (`doubtful`); else, with `keeping` (keeping(name):
+    the same fit with that sensor never set aside), the mixture with the fit that keeps the
+    set-aside sensor whose fault is least sure, when its fault probability (from the fit
+    without it) is below 1 - DOUBT (`set_aside_doubt`).  Not with a robust loss.  A refit the
+    readings cannot carry leaves `result` with a warning."""
+    if loss != "linear":
         return result
+    found = doubtful(result.sensors)
+    if not found:
+        back = set_aside_doubt(result.sensors) if keeping is not None else None
+        return result if back is None else _weigh_back(result, keeping, *back)
     j, p_screen = found[0]
     row = result.sensors.iloc[j]
     name = str(row["sensor"])
     try:
         broken = refit(list(result.readings.names).index(name))
     except InverseError as exc:
-        note = (f"sensor {name} may be broken (fault probability {p_screen:.2f}), but the fit without it "
-                f"failed ({exc}); the answer keeps it")
-        out = replace(result, warnings=result.warnings + [note])
-        out.summary["warnings"] = list(out.summary["warnings"]) + [note]
-        return out
+        return _failed(result, f"sensor {name} may be broken (fault probability {p_screen:.2f}), but the fit "
+                               f"without it failed ({exc}); the answer keeps it")
     # the weight from the fit without j: its prediction of j learned from the others alone
     held = broken.sensors.set_index("sensor").loc[name]
     delta, sd = float(held["measured"]) - float(held["loo_predicted"]), float(held["loo_sd"])
@@ -203,3 +214,44 @@ def weigh_doubtful(result, refit, loss: str = "linear"):
     others = [str(result.sensors.iloc[i]["sensor"]) for i, _ in found[1:]]
     return weighed(result, broken, p, name, doubt_warnings(name, delta, sd, p, others, new))
 
+
+def set_aside_doubt(table: pd.DataFrame):
+    """(name, fault probability, delta [K], sd [K]) of the set-aside sensor whose fault is
+    least sure, from the fit's prediction of it without it (the table's loo columns of a
+    set-aside row), if that probability is below 1 - DOUBT; None when none is, or when the
+    screening blamed the model (a sensor 'suspect')."""
+    flag = table["flag"].to_numpy()
+    aside = np.flatnonzero(flag == "set aside")
+    if not aside.size or np.any(flag == "suspect"):
+        return None
+    rows = table.iloc[aside]
+    delta = (rows["measured"] - rows["loo_predicted"]).to_numpy(float)
+    sd = rows["loo_sd"].to_numpy(float)
+    ok = np.isfinite(delta) & np.isfinite(sd) & (sd > 0)
+    if not ok.any():
+        return None
+    p = np.where(ok, fault_probability(np.where(ok, delta, 0.0), np.where(ok, sd, 1.0) ** 2), np.inf)
+    i = int(np.argmin(p))
+    if not p[i] < 1.0 - DOUBT:
+        return None
+    return str(rows["sensor"].iat[i]), float(p[i]), float(delta[i]), float(sd[i])
+
+
+def _weigh_back(result, keeping, name, p, delta, sd):
+    """The mixture of `result` (sensor `name` set aside) with the fit that keeps it, weighed
+    1 - p (p: its fault probability from `result`)."""
+    try:
+        kept = keeping(name)
+    except InverseError as exc:
+        return _failed(result, f"sensor {name} was set aside, though a good reading that far out is not unlikely "
+                               f"(fault probability {p:.2f}); the fit that keeps it failed ({exc})")
+    note = (f"sensor {name} was set aside ({delta:+.2g} K from what the other sensors predict, +-{Z95 * sd:.2g} K "
+            f"at 95 %), but a good reading that far out is not unlikely (fault probability {p:.2f}): the answer "
+            f"also weighs the fit that keeps it (weight {1.0 - p:.2f}); check or calibrate {name} in place to "
+            f"settle it")
+    return weighed(result, kept, 1.0 - p, name, [note], fault=p)
+
+
+def _failed(result, note):
+    return replace(result, warnings=result.warnings + [note],
+                   summary={**result.summary, "warnings": list(result.summary["warnings"]) + [note]})

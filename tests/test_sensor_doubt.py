@@ -205,3 +205,55 @@ def test_the_console_names_the_weighed_sensor(tube_seed1):
     _, res = tube_seed1
     text = "\n".join(summary_lines(res))
     assert "weighed as possibly broken: TC07 (probability 0.6" in text
+
+
+def test_a_protected_reading_is_never_set_aside():
+    n = 20
+    rng, G, p = layout(n, 10, 31)
+    d = readings(rng, G, p, 0.5)
+    d[7] += 8.0                                                     # +8 K: a faulty thermocouple
+    prob = LinearGaussianProblem(G, d, 20.0, np.full(n, 0.25), p)
+    from heatsight.inverse.diagnostics import screen_outliers
+
+    assert [s.index for s in screen_outliers(prob).set_aside] == [7]
+    kept = screen_outliers(prob, protect=[7])
+    # kept and flagged (its fault may then push a neighbour out: the screening goes on)
+    assert 7 not in [s.index for s in kept.set_aside] and kept.kept[7] and kept.table["flag"].iat[7] == "suspect"
+
+
+def _demo_with(tmp_path, sensor, shift):
+    import shutil
+
+    import pandas as pd
+
+    from heatsight.data_io.case import load_case
+    from heatsight.data_io.fit_steps import fit_case
+    from heatsight.data_io.demos import demo_folder
+
+    demo = demo_folder()
+    for name in ("platen.toml", "layout.csv"):
+        shutil.copy(demo / name, tmp_path / name)
+    d = pd.read_csv(demo / "readings.csv")
+    col = next(c for c in d.columns if c.startswith("temperature"))
+    d.loc[d["sensor"] == sensor, col] += shift
+    d.to_csv(tmp_path / "readings.csv", index=False)
+    case = load_case(tmp_path / "platen.toml", purpose="fit")
+    return fit_case(case, case.sensors.readings)[0]
+
+
+def test_a_sensor_set_aside_whose_fault_is_unsure_is_weighed_back(tmp_path):
+    """The demo platen with TC09 read 1.5 K low: the screening sets it aside, but the fit
+    without it predicts it only to +-2.4 K (95 %), so a good reading that far out is not
+    unlikely: the answer also weighs the fit that keeps it; 2.5 K low, the fault is sure."""
+    res = _demo_with(tmp_path, "TC09", -1.5)
+    doubt = res.summary["sensor_doubt"]
+    assert "TC09" in res.summary["set_aside"] and doubt["sensor"] == "TC09"
+    other, q = res.doubt
+    assert "TC09" not in other.summary["set_aside"]                  # the other fit keeps it
+    assert q == pytest.approx(1.0 - doubt["fault_probability"]) and 0.0 < q < DOUBT + 0.1
+    row = res.sensors.set_index("sensor").loc["TC09"]
+    want = fault_probability(np.array([row["measured"] - row["loo_predicted"]]), np.array([row["loo_sd"] ** 2]))
+    assert doubt["fault_probability"] == pytest.approx(float(want[0]))
+    assert any("also weighs the fit that keeps it" in w for w in res.warnings)
+    sure = _demo_with(tmp_path, "TC09", -2.5)
+    assert "TC09" in sure.summary["set_aside"] and "sensor_doubt" not in sure.summary
