@@ -81,6 +81,15 @@ def _fit_count(out_key: str, minimum: int):
     return parse
 
 
+def _fit_keep_sensors(ctx: _Ctx, value, where: str) -> dict:
+    if not isinstance(value, list) or not all(isinstance(v, str) and v.strip() for v in value):
+        raise ctx.error(where, f"expected a list of sensor ids like [\"TC07\"], got {_show(value)}")
+    names = tuple(v.strip() for v in value)
+    if len(set(names)) != len(names):
+        raise ctx.error(where, "a sensor is listed twice")
+    return {"keep_sensors": names}
+
+
 def _fit_common_offset(ctx: _Ctx, value, where: str) -> dict:
     if not isinstance(value, str):
         raise ctx.error(where, f"expected a temperature difference with its unit, e.g. \"0.5 K\"; got {_show(value)}")
@@ -113,6 +122,7 @@ FIT_SCHEMA: dict[str, tuple[Callable[[Any, Any, str], dict], str]] = {
     "smoothing": (_fit_choice(SMOOTHING_KINDS, "smoothing"),
                   'prior on the unknown face: "size", "gradient" (default) or "curvature"'),
     "keep_all_sensors": (_fit_bool("keep_all_sensors"), "true keeps suspect sensors in the fit (default false)"),
+    "keep_sensors": (_fit_keep_sensors, 'sensors never set aside, e.g. ["TC07"] (thermocouples known good)'),
     "terms": (_fit_count("terms", 1), "number of radial/axial terms of the unknown face (default: automatic)"),
     "harmonics": (_fit_count("harmonics", 0), "number of angular harmonics (default: automatic)"),
     "loss": (_fit_choice(LOSSES, "loss"),

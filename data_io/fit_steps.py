@@ -50,6 +50,10 @@ def fit_case(case, readings_path, *, at=None, **options):
     from .tables import read_layout, read_points, read_snapshot, readings_form
 
     layout = read_layout(case.sensors.layout, case.cylinder)
+    unknown = [n for n in case.fit.keep_sensors if n not in set(layout.frame.index.astype(str))]
+    if unknown:
+        raise InputError(f"names {', '.join(unknown)}, not in the sensor layout; expected sensor ids of the layout",
+                         file=case.path, where="fit.keep_sensors")
     if readings_form(readings_path) == "log":
         raise InputError("is a log (a time column, then one column per sensor); fit and plan take a snapshot "
                          "with columns sensor, temperature (follow a log with heatsight trend)", file=readings_path)

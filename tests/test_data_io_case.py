@@ -98,6 +98,8 @@ def test_fit_options(tmp_path):
     fit = load_case(make(tmp_path, text)).fit
     assert (fit.smoothing, fit.keep_all_sensors, fit.terms, fit.harmonics) == ("curvature", True, 12, 4)
     assert fit.as_dict()["terms"] == 12
+    fit = load_case(make(tmp_path, BASE + '\n[fit]\nkeep_sensors = ["TC1", " TC2 "]\n')).fit
+    assert fit.keep_sensors == ("TC1", "TC2")
 
 
 def test_zones(tmp_path):
@@ -256,6 +258,8 @@ BAD_CASES = {
     "bad smoothing": (BASE + '\n[fit]\nsmoothing = "smooth"\n', "fit.smoothing"),
     "fit key typo": (BASE + '\n[fit]\nsmothing = "size"\n', "fit.smothing: unknown key 'smothing'; did you mean 'smoothing'?"),
     "bool as text": (BASE + '\n[fit]\nkeep_all_sensors = "yes"\n', "expected true or false"),
+    "keep_sensors as text": (BASE + '\n[fit]\nkeep_sensors = "TC1"\n', "fit.keep_sensors: expected a list of sensor ids"),
+    "keep_sensors twice": (BASE + '\n[fit]\nkeep_sensors = ["TC1", "TC1"]\n', "a sensor is listed twice"),
     "terms not integer": (BASE + "\n[fit]\nterms = 2.5\n", "expected a whole number"),
     "zones as table": (BASE + '\n[zones]\nname = "a"\n', "write each zone under [[zones]]"),
     "zone without name": (BASE + '\n[[zones]]\nr = ["0 mm", "5 mm"]\n', "zones[1].name: missing key 'name'"),

@@ -257,3 +257,21 @@ def test_a_sensor_set_aside_whose_fault_is_unsure_is_weighed_back(tmp_path):
     assert any("also weighs the fit that keeps it" in w for w in res.warnings)
     sure = _demo_with(tmp_path, "TC09", -2.5)
     assert "TC09" in sure.summary["set_aside"] and "sensor_doubt" not in sure.summary
+
+
+def test_keep_sensors_names_sensors_of_the_layout(tmp_path):
+    import shutil
+
+    from heatsight.data_io.case import load_case
+    from heatsight.data_io.demos import demo_folder
+    from heatsight.data_io.errors import InputError
+    from heatsight.data_io.fit_steps import fit_case
+
+    demo = demo_folder()
+    for name in ("platen.toml", "layout.csv", "readings.csv"):
+        shutil.copy(demo / name, tmp_path / name)
+    text = (tmp_path / "platen.toml").read_text()
+    (tmp_path / "platen.toml").write_text(text.replace("[fit]\n", '[fit]\nkeep_sensors = ["TC99"]\n'))
+    case = load_case(tmp_path / "platen.toml", purpose="fit")
+    with pytest.raises(InputError, match="fit.keep_sensors: names TC99, not in the sensor layout"):
+        fit_case(case, case.sensors.readings)
