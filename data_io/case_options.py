@@ -122,7 +122,8 @@ FIT_SCHEMA: dict[str, tuple[Callable[[Any, Any, str], dict], str]] = {
     "smoothing": (_fit_choice(SMOOTHING_KINDS, "smoothing"),
                   'prior on the unknown face: "size", "gradient" (default) or "curvature"'),
     "keep_all_sensors": (_fit_bool("keep_all_sensors"), "true keeps suspect sensors in the fit (default false)"),
-    "keep_sensors": (_fit_keep_sensors, 'sensors never set aside, e.g. ["TC07"] (thermocouples known good)'),
+    "keep_sensors": (_fit_keep_sensors, 'sensors the screening never sets aside nor weighs as possibly broken, '
+                                        'e.g. ["TC07"] (thermocouples known good; a gross fault still goes)'),
     "terms": (_fit_count("terms", 1), "number of radial/axial terms of the unknown face (default: automatic)"),
     "harmonics": (_fit_count("harmonics", 0), "number of angular harmonics (default: automatic)"),
     "loss": (_fit_choice(LOSSES, "loss"),

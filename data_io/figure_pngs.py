@@ -13,6 +13,7 @@ from __future__ import annotations
 import io
 import os
 import pickle
+import signal
 import sys
 import threading
 
@@ -58,10 +59,23 @@ def figure_pngs(figures: dict, dpi: int = DPI) -> dict:
         finally:
             os._exit(code)            # no exit handlers, no buffered output of the parent's
     os.close(write)
-    drawn = {n: _png(figures[n], dpi) for n in near}
-    with os.fdopen(read, "rb") as src:
-        data = src.read()
-    _, status = os.waitpid(pid, 0)
+    status, data = 1, b""
+    try:
+        drawn = {n: _png(figures[n], dpi) for n in near}
+        src, read = os.fdopen(read, "rb"), None        # the file object owns the descriptor now
+        with src:
+            data = src.read()
+        _, status = os.waitpid(pid, 0)
+        pid = None
+    finally:                          # this process failed or was interrupted: no child left behind
+        if read is not None:
+            os.close(read)
+        if pid is not None:
+            try:
+                os.kill(pid, signal.SIGKILL)
+            except ProcessLookupError:
+                pass
+            os.waitpid(pid, 0)
     child = {}
     if status == 0 and data:
         try:

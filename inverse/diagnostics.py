@@ -211,7 +211,8 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
     in), set that sensor aside. Stops at `max_set_aside` (default n // 4: beyond that the
     model, not the sensors, is suspect) or when only `min_kept` sensors would remain.
     preset: SetAside entries (gross faults) out from the start. model_first: see module doc.
-    protect: indices of readings never set aside (their scores still reported and flagged).
+    protect: indices of readings never set aside (their scores still reported and flagged);
+    when the worst reading beyond the threshold is one of them the screening stops, with a warning.
     """
     n = problem.n
     names = _names(names, n)
@@ -237,11 +238,15 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
         sc = check(sub)
         score[idx] = sc.z
         t = limit(sub.n)
-        open_to = ~np.isin(idx, np.asarray(protect, dtype=int))
-        if not open_to.any():
-            break
-        j = int(np.argmax(np.where(open_to, np.abs(sc.z), -np.inf)))
+        j = int(np.argmax(np.abs(sc.z)))
         if abs(sc.z[j]) <= t:
+            break
+        if int(idx[j]) in set(int(x) for x in protect):
+            # the worst reading is one the user vouches for: setting others aside in its place
+            # would only make room for it
+            warns.append(f"sensor {names[idx[j]]} is kept as asked (keep_sensors) although its score "
+                         f"{sc.z[j]:+.1f} is beyond {t:.2f}: no other sensor is set aside in its place; if it "
+                         "is not known good, drop it from keep_sensors")
             break
         if len(out) - n_preset >= cap or sub.n - 1 < min_kept:
             why = (f"setting it aside would leave fewer than {min_kept} sensors in the fit"

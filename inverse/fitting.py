@@ -66,6 +66,9 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
                            "(strength = \"evidence\", prior = \"learned\", no Monte Carlo); "
                            "use model = \"smooth\" or drop calibrate")
     steps = _Steps(stage, opts, spec)
+    unknown = [n for n in opts.keep_sensors if n not in set(rd.names)]
+    if unknown:
+        raise InverseError(f"keep_sensors names {', '.join(unknown)}, not a sensor with a usable reading")
     result = _fit(spec, rd, steps, progress)
 
     def without(j):
@@ -75,7 +78,7 @@ def fit(problem, readings, *, progress=None, stage=None, **overrides) -> FitResu
     def keeping(name):
         steps.extra(f"weighing sensor {name}: the fit that keeps it")
         kept = replace(spec, options=replace(opts, keep_sensors=opts.keep_sensors + (name,)))
-        return _fit(kept, rd, _Steps(None, opts, spec), None)
+        return _fit(kept, rd, _Steps(None, kept.options, kept), None)
     # a sensor the screening passed whose fault the readings make likely, or one it set aside
     # whose fault they leave in doubt, is weighed: the answer mixes this fit with the one
     # that sets it aside or keeps it (sensor_doubt.py)

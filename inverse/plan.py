@@ -312,7 +312,8 @@ def state_from_fit(result, which, zones=(), new_sigma=None, new_offset_sd=None,
         text += f"; the {steps.v.size} steps over the unseen edge stretch are part of the state"
     doubt = result.summary.get("sensor_doubt")
     if doubt:      # the answer mixes this fit with the one without a doubtful sensor (sensor_doubt.py)
-        text += (f"; the fit that keeps {doubt['sensor']}, which the answer weighs as possibly broken (probability "
+        which = "sets aside" if doubt.get("weighed_back") else "keeps"
+        text += (f"; the fit that {which} {doubt['sensor']}, which the answer weighs as possibly broken (probability "
                  f"{doubt['fault_probability']:.2f}): the answer's sds also carry that doubt, the plan's do not")
     if common > 0:
         targets = _pad(targets, 1)

@@ -47,8 +47,10 @@ class FitOptions:
     strength: the fixed smoothing strength alpha (> 0); None unless strength_method == "fixed".
     smoothing: prior order, "size" | "gradient" | "curvature" (SMOOTHING_ORDER).
     keep_all_sensors: True skips the screening (no sensor is set aside).
-    keep_sensors: names of sensors the screening never sets aside (a thermocouple known good;
-        the other fit of a doubtful sensor's weighing, sensor_doubt.py).
+    keep_sensors: names of sensors the leave-one-out screening never sets aside and the answer
+        never weighs as possibly broken (thermocouples known good; also the other fit of a
+        sensor weighed back, sensor_doubt.py); a gross fault (an overflow code, a reading no
+        part can produce) is still set aside.
     terms, harmonics: radial/axial terms and angular harmonics of the unknown face's
         basis; None = DEFAULT_TERMS / DEFAULT_HARMONICS.
     loss: sensor misfit (LOSSES).  common_offset_sd: prior sd [K] of one offset shared by
@@ -104,6 +106,8 @@ class FitOptions:
         choice("solver", SOLVERS)
         if not isinstance(self.keep_all_sensors, (bool, np.bool_)):
             raise _fail("keep_all_sensors", f"expected True or False, got {self.keep_all_sensors!r}")
+        if isinstance(self.keep_sensors, list):
+            object.__setattr__(self, "keep_sensors", tuple(self.keep_sensors))
         if not isinstance(self.keep_sensors, tuple) or not all(isinstance(x, str) for x in self.keep_sensors):
             raise _fail("keep_sensors", f"expected a tuple of sensor names, got {self.keep_sensors!r}")
         for key, low in (("terms", 1), ("harmonics", 0)):

@@ -36,8 +36,10 @@ What is mixed: the face map (strength_average.answers_mixture), the face mean, t
 power, the zones and the extremes (their mean and sd by the mixture's moments, the zones'
 bands as the map's), calibrated parameters, and the sensors' `fitted` (linear in the
 answer); `face_profile`, `predict` and `predict_flux` mix the two fits (FitResult.doubt).
-The model, the prior, the strength and chi2 in the summary are the fit that keeps j, on
-which `plan` and `trend` build.
+The model, the prior, the strength and chi2 in the summary are the answer's first fit (the
+one that keeps j; for a sensor weighed back, the one that set it aside), on which `plan` and
+`trend` build; summary.json's `sensor_doubt` says which (`weighed_back`).  A sensor named in
+FitOptions.keep_sensors is never weighed.
 """
 
 from __future__ import annotations
@@ -139,7 +141,7 @@ def weighed(primary, broken, q: float, sensor: str, warnings, fault: float | Non
         summary["calibrated"] = {key: dict(c, **dict(zip(("value", "sd"), _scalar(
             w, [(c["value"], c["sd"]), (s2["calibrated"][key]["value"], s2["calibrated"][key]["sd"])]))))
             for key, c in calibration.items()}
-    summary["sensor_doubt"] = {"sensor": sensor, "fault_probability": p}
+    summary["sensor_doubt"] = {"sensor": sensor, "fault_probability": p, "weighed_back": False}
     notes = list(dict.fromkeys(list(warnings) + list(primary.warnings)))
     summary["warnings"] = notes
     return replace(primary, grid=grid, summary=summary, zones=zones, warnings=notes,
@@ -192,7 +194,8 @@ def weigh_doubtful(result, refit, loss: str = "linear", keeping=None):
     readings cannot carry leaves `result` with a warning."""
     if loss != "linear":
         return result
-    found = doubtful(result.sensors)
+    vouched = set(getattr(result.options, "keep_sensors", ()) or ())      # known good: never weighed
+    found = [(j, p) for j, p in doubtful(result.sensors) if str(result.sensors.iloc[j]["sensor"]) not in vouched]
     if not found:
         back = set_aside_doubt(result.sensors) if keeping is not None else None
         return result if back is None else _weigh_back(result, keeping, *back)
@@ -245,11 +248,19 @@ def _weigh_back(result, keeping, name, p, delta, sd):
     except InverseError as exc:
         return _failed(result, f"sensor {name} was set aside, though a good reading that far out is not unlikely "
                                f"(fault probability {p:.2f}); the fit that keeps it failed ({exc})")
+    if set(kept.summary["set_aside"]) != set(result.summary["set_aside"]) - {name}:
+        # keeping it moved which other sensors are set aside: the two fits differ by more than it
+        return _failed(result, f"sensor {name} was set aside, though a good reading that far out is not unlikely "
+                               f"(fault probability {p:.2f}); keeping it sets other sensors aside "
+                               f"({', '.join(sorted(set(kept.summary['set_aside']) - set(result.summary['set_aside'])))}), "
+                               "so the answer leaves it out")
     note = (f"sensor {name} was set aside ({delta:+.2g} K from what the other sensors predict, +-{Z95 * sd:.2g} K "
             f"at 95 %), but a good reading that far out is not unlikely (fault probability {p:.2f}): the answer "
             f"also weighs the fit that keeps it (weight {1.0 - p:.2f}); check or calibrate {name} in place to "
             f"settle it")
-    return weighed(result, kept, 1.0 - p, name, [note], fault=p)
+    out = weighed(result, kept, 1.0 - p, name, [note], fault=p)
+    out.summary["sensor_doubt"]["weighed_back"] = True
+    return out
 
 
 def _failed(result, note):

@@ -64,3 +64,21 @@ def test_a_failing_child_leaves_the_drawing_to_this_process(monkeypatch):
     monkeypatch.setattr(fp, "_png", png)
     figs = _figures(4)
     assert fp.figure_pngs(figs) == {n: figure_png(f) for n, f in figs.items()}
+
+
+@pytest.mark.skipif(not fp._can_fork(), reason="forks on Linux only")
+def test_a_failure_here_leaves_no_child_and_no_open_pipe(monkeypatch):
+    parent = os.getpid()
+    real = fp._png
+
+    def png(fig, dpi):
+        if os.getpid() == parent:
+            raise RuntimeError("this process fails")
+        return real(fig, dpi)
+    monkeypatch.setattr(fp, "_png", png)
+    before = len(os.listdir("/proc/self/fd"))
+    with pytest.raises(RuntimeError, match="this process fails"):
+        fp.figure_pngs(_figures(4))
+    assert len(os.listdir("/proc/self/fd")) == before
+    with pytest.raises(ChildProcessError):          # the child was reaped
+        os.waitpid(-1, os.WNOHANG)

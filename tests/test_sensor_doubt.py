@@ -217,8 +217,9 @@ def test_a_protected_reading_is_never_set_aside():
 
     assert [s.index for s in screen_outliers(prob).set_aside] == [7]
     kept = screen_outliers(prob, protect=[7])
-    # kept and flagged (its fault may then push a neighbour out: the screening goes on)
-    assert 7 not in [s.index for s in kept.set_aside] and kept.kept[7] and kept.table["flag"].iat[7] == "suspect"
+    # kept and flagged; the screening stops there rather than set others aside in its place
+    assert kept.set_aside == [] and kept.kept[7] and kept.table["flag"].iat[7] == "suspect"
+    assert any("kept as asked" in w for w in kept.warnings)
 
 
 def _demo_with(tmp_path, sensor, shift):
@@ -275,3 +276,22 @@ def test_keep_sensors_names_sensors_of_the_layout(tmp_path):
     case = load_case(tmp_path / "platen.toml", purpose="fit")
     with pytest.raises(InputError, match="fit.keep_sensors: names TC99, not in the sensor layout"):
         fit_case(case, case.sensors.readings)
+
+
+def test_keep_sensors_in_the_api_names_usable_sensors(tube_seed1):
+    from heatsight.inverse.problem import FitOptions
+
+    assert FitOptions(keep_sensors=["TC07"]).keep_sensors == ("TC07",)
+    scn, _ = tube_seed1
+    with pytest.raises(inverse.InverseError, match="keep_sensors names TC99"):
+        inverse.fit(scn.case, scn.readings, keep_sensors=("TC99",))
+
+
+def test_a_sensor_known_good_is_not_weighed(tube_seed1):
+    """TC07 (6 K high, weighed at 0.65 otherwise) named known good: kept, not weighed, and
+    the screening, which finds it the worst reading, stops there with a warning if it is
+    beyond the limit."""
+    scn, _ = tube_seed1
+    res = inverse.fit(scn.case, scn.readings, keep_sensors=("TC07",))
+    assert "sensor_doubt" not in res.summary or res.summary["sensor_doubt"]["sensor"] != "TC07"
+    assert "TC07" not in res.summary["set_aside"]
