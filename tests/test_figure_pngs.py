@@ -76,9 +76,17 @@ def test_a_failure_here_leaves_no_child_and_no_open_pipe(monkeypatch):
             raise RuntimeError("this process fails")
         return real(fig, dpi)
     monkeypatch.setattr(fp, "_png", png)
+    children, fork = [], os.fork
+
+    def recorded():
+        pid = fork()
+        if pid:
+            children.append(pid)
+        return pid
+    monkeypatch.setattr(os, "fork", recorded)
     before = len(os.listdir("/proc/self/fd"))
     with pytest.raises(RuntimeError, match="this process fails"):
         fp.figure_pngs(_figures(4))
-    assert len(os.listdir("/proc/self/fd")) == before
+    assert len(os.listdir("/proc/self/fd")) == before and len(children) == 1
     with pytest.raises(ChildProcessError):          # the child was reaped
-        os.waitpid(-1, os.WNOHANG)
+        os.waitpid(children[0], os.WNOHANG)
