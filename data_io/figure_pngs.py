@@ -27,10 +27,6 @@ def figure_png(fig, dpi: int = DPI) -> bytes:
     return buf.getvalue()
 
 
-def _png(fig, dpi) -> bytes:
-    return figure_png(fig, dpi)
-
-
 def _can_fork() -> bool:
     return sys.platform.startswith("linux") and hasattr(os, "fork") and threading.active_count() == 1
 
@@ -39,7 +35,7 @@ def figure_pngs(figures: dict, dpi: int = DPI) -> dict:
     """name -> PNG bytes for name -> Figure, in the same order (module doc)."""
     names = list(figures)
     if len(names) < 2 or not _can_fork():
-        return {n: _png(figures[n], dpi) for n in names}
+        return {n: figure_png(figures[n], dpi) for n in names}
     far, near = names[::2], names[1::2]
     read, write = os.pipe()
     try:
@@ -47,12 +43,12 @@ def figure_pngs(figures: dict, dpi: int = DPI) -> dict:
     except OSError:
         os.close(read)
         os.close(write)
-        return {n: _png(figures[n], dpi) for n in names}
+        return {n: figure_png(figures[n], dpi) for n in names}
     if pid == 0:                      # the child: draw its share, send the bytes, leave at once
         code = 1
         try:
             os.close(read)
-            data = pickle.dumps({n: _png(figures[n], dpi) for n in far})
+            data = pickle.dumps({n: figure_png(figures[n], dpi) for n in far})
             with os.fdopen(write, "wb") as out:
                 out.write(data)
             code = 0
@@ -61,7 +57,7 @@ def figure_pngs(figures: dict, dpi: int = DPI) -> dict:
     os.close(write)
     status, data = 1, b""
     try:
-        drawn = {n: _png(figures[n], dpi) for n in near}
+        drawn = {n: figure_png(figures[n], dpi) for n in near}
         src, read = os.fdopen(read, "rb"), None        # the file object owns the descriptor now
         with src:
             data = src.read()
@@ -82,4 +78,4 @@ def figure_pngs(figures: dict, dpi: int = DPI) -> dict:
             child = pickle.loads(data)
         except (pickle.UnpicklingError, EOFError):
             child = {}
-    return {n: drawn[n] if n in drawn else child.get(n) or _png(figures[n], dpi) for n in names}
+    return {n: drawn[n] if n in drawn else child.get(n) or figure_png(figures[n], dpi) for n in names}

@@ -225,6 +225,7 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
         keep[s.index] = False
         score[s.index] = s.score
     n_preset = len(out)
+    protected = {int(x) for x in protect}
 
     def check(sub):
         return LooScores.at(sub, float(strength)) if fixed else averaged_loo(sub)
@@ -241,7 +242,7 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
         j = int(np.argmax(np.abs(sc.z)))
         if abs(sc.z[j]) <= t:
             break
-        if int(idx[j]) in set(int(x) for x in protect):
+        if int(idx[j]) in protected:
             # the worst reading is one the user vouches for: setting others aside in its place
             # would only make room for it
             warns.append(f"sensor {names[idx[j]]} is kept as asked (keep_sensors) although its score "

@@ -131,6 +131,11 @@ def zone_area(zone, face, cylinder, n=1024):
     return float(S.ravel() @ mask) * (2.0 * np.pi / n) * (span / n)
 
 
+def grid_position(grid, i) -> dict:
+    """{"r_m", "theta_rad", "z_m"} of row i of a face grid table (FitResult.grid) [m, rad]."""
+    return {key: float(grid[key].iat[i]) for key in ("r_m", "theta_rad", "z_m")}
+
+
 def _evaluated_once(builder, design, value=None):
     """The figure builder, its (F, k) at the fitted `design` computed once (or `value`) and
     reused; designs rebuilt at other calibrated parameters are evaluated afresh."""
@@ -291,9 +296,6 @@ class FitResult:
         mins, maxs = prof.min(axis=1), prof.max(axis=1)
         i_min, i_max = int(np.argmin(mean)), int(np.argmax(mean))
 
-        def where(i):
-            return {"r_m": float(pts.r[i]), "theta_rad": float(pts.theta[i]), "z_m": float(pts.z[i])}
-
         zones = _zone_entries(valid, names, f_mean, f_sd, face, cyl, quantity, warnings)
         for z in zones:
             z["deviation_from_face_mean"] = z["mean"] - float(f_mean[0])
@@ -308,8 +310,8 @@ class FitResult:
         summary = {
             "face": face, "quantity": quantity, "unit": unit,
             "mean": float(f_mean[0]), "mean_sd": float(f_sd[0]),
-            "min": float(mean[i_min]), "min_sd": float(mins.std(ddof=1)), "min_at": where(i_min),
-            "max": float(mean[i_max]), "max_sd": float(maxs.std(ddof=1)), "max_at": where(i_max),
+            "min": float(mean[i_min]), "min_sd": float(mins.std(ddof=1)), "min_at": grid_position(grid, i_min),
+            "max": float(mean[i_max]), "max_sd": float(maxs.std(ddof=1)), "max_at": grid_position(grid, i_max),
             "nonuniformity": float(mean[i_max] - mean[i_min]),
             "nonuniformity_sd": float((maxs - mins).std(ddof=1)),
             "total_power_W": float(f_mean[1]), "total_power_sd_W": float(f_sd[1]),

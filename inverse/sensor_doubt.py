@@ -53,8 +53,8 @@ from .bands import Z95
 from .contamination import fault_probability
 from .diagnostics import MIN_KEPT
 from .errors import InverseError
-from .result import zone_entry
-from .strength_average import answers_mixture, mixture_summary
+from .result import grid_position, zone_entry
+from .strength_average import answers_mixture, mixture_moments
 
 #: a kept sensor whose fault probability exceeds this is weighed: with the prior probability
 #: of a fault, contamination.EPSILON = 0.02, the readings then make a fault at least 5.4 times
@@ -82,17 +82,10 @@ def doubtful(table: pd.DataFrame) -> list[tuple[int, float]]:
     return [(int(j), float(p[j])) for j in rows[np.argsort(-p[rows], kind="stable")]]
 
 
-def most_doubtful(table: pd.DataFrame):
-    """(row, fault probability) of the most doubtful sensor (`doubtful`), or None."""
-    found = doubtful(table)
-    return found[0] if found else None
-
-
 def _scalar(w, pairs):
-    """Mixture mean and sd of scalars given as (mean, sd) per fit."""
-    m, s = (np.array([[x[i]] for x in pairs], float) for i in (0, 1))
-    mean, sd, _, _ = mixture_summary(w, m, s, scalar=True)
-    return mean, sd
+    """Mixture mean and sd of scalars given as (mean, sd) per fit (mixture_moments)."""
+    mean, sd = mixture_moments(w, *(np.array([[x[i]] for x in pairs], float) for i in (0, 1)))
+    return float(mean[0]), float(sd[0])
 
 
 def _answer(t):
@@ -123,8 +116,7 @@ def weighed(primary, broken, q: float, sensor: str, warnings, fault: float | Non
     for end, i in (("min", i_min), ("max", i_max)):
         summary[end] = float(mean[i])
         summary[f"{end}_sd"] = mix(end, f"{end}_sd")[1]
-        summary[f"{end}_at"] = {"r_m": float(grid["r_m"].iat[i]), "theta_rad": float(grid["theta_rad"].iat[i]),
-                                "z_m": float(grid["z_m"].iat[i])}
+        summary[f"{end}_at"] = grid_position(grid, i)
     summary["nonuniformity"] = float(mean[i_max] - mean[i_min])
     summary["nonuniformity_sd"] = mix("nonuniformity", "nonuniformity_sd")[1]
     other = {z["name"]: z for z in s2["zones"]}
@@ -194,7 +186,7 @@ def weigh_doubtful(result, refit, loss: str = "linear", keeping=None):
     readings cannot carry leaves `result` with a warning."""
     if loss != "linear":
         return result
-    vouched = set(getattr(result.options, "keep_sensors", ()) or ())      # known good: never weighed
+    vouched = set(result.options.keep_sensors)      # known good: never weighed
     found = [(j, p) for j, p in doubtful(result.sensors) if str(result.sensors.iloc[j]["sensor"]) not in vouched]
     if not found:
         back = set_aside_doubt(result.sensors) if keeping is not None else None

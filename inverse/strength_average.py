@@ -89,14 +89,20 @@ def mixture_band(weights, means, sds, level: float = 0.95):
     return np.minimum(lower, upper), np.maximum(lower, upper)
 
 
+def mixture_moments(weights, means, sds):
+    """Mean and sd (q,) of the Gaussian mixture (weights (m,), means and sds (m, q)):
+    sum_i w_i m_i and sqrt(sum_i w_i (sd_i^2 + (m_i - mean)^2)) (law of total variance)."""
+    mean = weights @ means
+    return mean, np.sqrt(weights @ (sds ** 2 + (means - mean) ** 2))
+
+
 def mixture_summary(weights, means, sds, level: float = 0.95, scalar: bool = False, extra_variance=None):
     """Mean, sd and the equal-tailed `level` band (lower, upper) of the Gaussian mixture
     (weights (m,), means and sds (m, q)): arrays (q,), or floats when `scalar` (q = 1).
     extra_variance (q,): an independent Gaussian term added to every component."""
     if extra_variance is not None:
         sds = np.sqrt(sds ** 2 + np.asarray(extra_variance, float))
-    mean = weights @ means
-    sd = np.sqrt(weights @ (sds ** 2 + (means - mean) ** 2))
+    mean, sd = mixture_moments(weights, means, sds)
     lower, upper = mixture_band(weights, means, sds, level)
     if scalar:
         return float(mean[0]), float(sd[0]), float(lower[0]), float(upper[0])
@@ -106,13 +112,12 @@ def mixture_summary(weights, means, sds, level: float = 0.95, scalar: bool = Fal
 def answers_mixture(weights, answers, level: float = 0.95):
     """Mean, sd, lower, upper (q,) of a mixture of answers given as their own (mean, sd,
     lower, upper) (q,) each, weights (m,): the mean and sd by the mixture's moments
-    (sum_i w_i m_i, sum_i w_i (sd_i^2 + (m_i - mean)^2)); the band from the mixture of
+    (mixture_moments); the band from the mixture of
     Gaussians centred on each answer's band with the sd its width implies, (upper - lower) /
     (2 z(level)), so that an answer of weight 1 keeps its own band."""
     w = np.asarray(weights, float)
     m, s, lo, hi = (np.array([np.asarray(a[i], float) for a in answers]) for i in range(4))
-    mean = w @ m
-    sd = np.sqrt(w @ (s ** 2 + (m - mean) ** 2))
+    mean, sd = mixture_moments(w, m, s)
     lower, upper = mixture_band(w, 0.5 * (lo + hi), (hi - lo) / (2.0 * z_factor(level)), level)
     return mean, sd, lower, upper
 

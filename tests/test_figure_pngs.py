@@ -54,13 +54,13 @@ def test_no_fork_while_other_threads_run(monkeypatch):
 
 def test_a_failing_child_leaves_the_drawing_to_this_process(monkeypatch):
     parent = os.getpid()
-    real = fp._png
+    real = fp.figure_png
 
     def png(fig, dpi):
         if os.getpid() != parent:
             raise RuntimeError("the child fails")
         return real(fig, dpi)
-    monkeypatch.setattr(fp, "_png", png)
+    monkeypatch.setattr(fp, "figure_png", png)
     figs = _figures(4)
     assert fp.figure_pngs(figs) == {n: figure_png(f) for n, f in figs.items()}
 
@@ -69,13 +69,13 @@ def test_a_failure_here_leaves_no_child_and_no_open_pipe(monkeypatch):
     if not fp._can_fork():       # asked when it runs: an earlier test may have left a thread behind
         pytest.skip("forks on Linux, with no other thread running, only")
     parent = os.getpid()
-    real = fp._png
+    real = fp.figure_png
 
     def png(fig, dpi):
         if os.getpid() == parent:
             raise RuntimeError("this process fails")
         return real(fig, dpi)
-    monkeypatch.setattr(fp, "_png", png)
+    monkeypatch.setattr(fp, "figure_png", png)
     children, fork = [], os.fork
 
     def recorded():

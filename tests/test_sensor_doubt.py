@@ -13,7 +13,7 @@ from test_inverse_diagnostics import layout, readings
 from heatsight.inverse.contamination import EPSILON, OUTLIER_SD, fault_probability
 from heatsight.inverse.diagnostics import averaged_loo
 from heatsight.inverse.linear_gaussian import LinearGaussianProblem
-from heatsight.inverse.sensor_doubt import DOUBT, doubtful, most_doubtful, weigh_doubtful
+from heatsight.inverse.sensor_doubt import DOUBT, doubtful, weigh_doubtful
 from heatsight.inverse.strength_average import answers_mixture
 
 
@@ -86,18 +86,18 @@ def test_the_doubtful_are_passed_sensors_beyond_the_cut():
 
     t = pd.DataFrame({"sensor": list("ABCDE"), "fault_probability": [0.2, 0.9, DOUBT / 2, 0.3, 0.01],
                       "flag": ["ok", "set aside", "ok", "ok", "ok"]})
-    assert doubtful(t) == [(3, 0.3), (0, 0.2)] and most_doubtful(t) == (3, 0.3)     # B is out
+    assert doubtful(t) == [(3, 0.3), (0, 0.2)]     # B is out; the most doubtful first
     t.loc[[0, 3], "fault_probability"] = DOUBT / 3
-    assert most_doubtful(t) is None
-    assert most_doubtful(t.drop(columns="fault_probability")) is None
+    assert doubtful(t) == []
+    assert doubtful(t.drop(columns="fault_probability")) == []
     # the screening blamed the model (a sensor kept but suspect): the contamination model,
     # which assumes the model right, weighs nothing
     blamed = t.assign(fault_probability=[0.2, 0.9, 0.01, 0.01, 0.6], flag=["ok", "set aside", "ok", "ok", "suspect"])
     assert doubtful(blamed) == []
     # weighing never leaves fewer than three sensors in a fit
     three = pd.DataFrame({"sensor": list("ABC"), "fault_probability": [0.4, 0.01, 0.01], "flag": ["ok"] * 3})
-    assert most_doubtful(three) is None
-    assert most_doubtful(pd.concat([three, three.iloc[:1].assign(sensor="D", fault_probability=0.01)])) == (0, 0.4)
+    assert doubtful(three) == []
+    assert doubtful(pd.concat([three, three.iloc[:1].assign(sensor="D", fault_probability=0.01)])) == [(0, 0.4)]
 
 
 @pytest.fixture(scope="module")
