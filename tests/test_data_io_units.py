@@ -98,3 +98,17 @@ def test_format_quantity():
     assert format_quantity(0.15, "length") == "150 mm"
     assert format_quantity(298.15, "temperature") == "25 degC"
     assert format_quantity(math.inf, "length") == "infinite"
+
+
+def test_the_registry_works_where_its_disk_cache_cannot_be_written():
+    # pint's disk cache of parsed definitions (cache_folder) lives in the user's cache folder;
+    # where that cannot be made (here under /proc) the registry is parsed afresh, same units
+    import subprocess
+    import sys
+
+    code = ("from heatsight.data_io.units import ureg, parse_quantity; "
+            "print(ureg._diskcache is None, parse_quantity('25 degC', 'temperature', 'test'))")
+    env = {**__import__("os").environ, "XDG_CACHE_HOME": "/proc/no-such-folder"}
+    out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, check=True)
+    uncached, value = out.stdout.split()
+    assert uncached == "True" and float(value) == 298.15
