@@ -31,6 +31,11 @@ Schema (design §3; every dimensional value is a string with its unit)::
     terms = 12                     # radial (end face) / axial (side) terms; default automatic
     harmonics = 6                  # angular harmonics m = 0..harmonics; default automatic
     model = "auto"                 # "auto" (default: the evidence chooses) | "smooth" | "zones" (a level per zone + smooth remainder)
+    prior = "learned"              # "learned" (default) | "fixed" (length scale = radius, order from smoothing)
+    keep_sensors = ["TC07"]        # known good: never set aside nor weighed (a gross fault still goes)
+    loss = "linear"                # "linear" (default) | "soft_l1" | "huber" (robust)
+    common_offset = "0.5 K"        # prior sd of an offset shared by every sensor
+    calibrate = ["top.h"]          # convection parameters fitted with the face (h, ambient)
 
     [[zones]]                      # optional, any number; regions of the unknown face
     name = "inner"                 # required, unique

@@ -72,7 +72,7 @@ def add_fit(sub, help) -> None:
     p = sub.add_parser(
         "fit", help=help,
         description="Fit the case's unknown face (temperature or heat flux) to a snapshot of "
-                    "readings and write estimate.csv, summary.json, figures and report.html "
+                    "readings and write estimate.csv, sensors.csv, summary.json, figures and report.html "
                     "(and points.csv with --at) into the output folder.",
         epilog="example:\n  heatsight fit platen.toml --readings shift2.csv --out platen-shift2\n"
                "  heatsight fit platen.toml --at probes.csv   # also the field at probes.csv points",

@@ -5,8 +5,9 @@ for a value that is not finite.
 
 Number rule, written once: a value has 3 significant digits, but its integer digits are never
 rounded away (11568 stays 11568, 817.7 -> 818, 9.6749 -> 9.67); a half-width or an sd has
-2 significant digits (22.1 -> 22, 1111 -> 1100).  Absolute temperatures in degC are a
-position on an offset scale, not a magnitude: they keep 2 decimals (0.01 K).
+2 significant digits (22.1 -> 22, 1111 -> 1100).  An absolute temperature in degC on its own
+is a position on an offset scale, not a magnitude: it keeps 2 decimals (0.01 K); with its "±"
+it is written as any value (pm95_of).
 """
 
 from __future__ import annotations
