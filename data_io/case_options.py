@@ -10,11 +10,12 @@ from typing import Any, Callable
 
 from ..forward.geometry import FACE_NAMES as ALL_FACES, Cylinder, is_wall
 from ..inverse.errors import InverseError
-from ..inverse.plan_rules import COVARIANCES, DRILL_FACES, PlanRules
+from ..inverse.plan_rules import COVARIANCES, DRILL_FACES, PlanRules, grid_size
 from ..inverse.problem import (CALIBRATABLE, LOSSES, MODELS, PRIORS, SMOOTHING_ORDER,
                                STRENGTH_METHODS, FitOptions, Zone, default_ranges)
 
 from .case_context import _Ctx, _show
+from .limits import MAX_CANDIDATES
 from .units import format_quantity, parse_quantity
 
 ZONE_KEYS = ("name", "face", "r", "theta", "z", "nominal", "edge")
@@ -340,4 +341,8 @@ def _parse_plan(ctx: _Ctx, table: dict | None, unknown: str | None) -> PlanOptio
             out[key] = value
     if "covariance" in table:
         out.update(_fit_choice(COVARIANCES, "covariance")(ctx, table["covariance"], "plan.covariance"))
-    return PlanOptions(PlanRules(**rules), **out)
+    plan_rules = PlanRules(**rules)
+    if grid_size(plan_rules) > MAX_CANDIDATES:
+        raise ctx.error("plan", f"positions x angles x depths makes {grid_size(plan_rules)} candidate positions, more "
+                                f"than {MAX_CANDIDATES}; lower plan.positions or plan.depths, or widen plan.angle_step")
+    return PlanOptions(plan_rules, **out)

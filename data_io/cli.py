@@ -150,6 +150,7 @@ def _run_check(args) -> int:
     from .console import current
     from .limits import check_case
     from .describe import describe_case, describe_readings, describe_sensors, layout_notes, sensor_depths
+    from .fit_steps import MIN_READINGS, check_keep_sensors, usable_readings
     from .tables import read_layout, read_snapshot, readings_form
 
     case = load_case(args.case)
@@ -161,6 +162,7 @@ def _run_check(args) -> int:
     layout = None
     if case.sensors.layout is not None:
         layout = read_layout(case.sensors.layout, case.cylinder)
+        check_keep_sensors(case, layout)
         warnings += layout.warnings
         lines += describe_sensors(layout)
         lines += sensor_depths(case, layout)
@@ -169,9 +171,14 @@ def _run_check(args) -> int:
         form = readings_form(case.sensors.readings)
         if form == "snapshot":
             readings = read_snapshot(case.sensors.readings, layout)
+            if case.unknown_face is not None:       # what fit refuses, check refuses
+                usable_readings(readings, case.sensors.readings)
         else:       # streamed, keeping counts: memory does not grow with the log
             from .logs import summarize_log
             readings = summarize_log(case.sensors.readings, layout)
+            if case.unknown_face is not None and len(readings.sensors) < MIN_READINGS:
+                raise InputError(f"the log has {len(readings.sensors)} sensor column(s) of the layout; trend's "
+                                 f"reference fit needs at least {MIN_READINGS}", file=case.sensors.readings)
         warnings += readings.warnings
         lines += describe_readings(readings)
     if layout is not None and case.unknown_face is not None:

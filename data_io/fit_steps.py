@@ -19,8 +19,7 @@ from ..inverse.errors import InverseError
 
 from .errors import InputError
 
-#: the fewest usable readings of a fit
-MIN_READINGS = 3
+from ..inverse.readings import MIN_READINGS
 
 
 def load_fit_case(case_path, readings=None, *, how_to_give="give --readings FILE"):
@@ -40,29 +39,52 @@ def load_fit_case(case_path, readings=None, *, how_to_give="give --readings FILE
     return case, readings_path
 
 
+def check_keep_sensors(case, layout) -> None:
+    """[fit] keep_sensors names sensors of the layout Table `layout` (InputError otherwise)."""
+    unknown = [n for n in case.fit.keep_sensors if n not in set(layout.frame.index.astype(str))]
+    if unknown:
+        raise InputError(f"names {', '.join(unknown)}, not in the sensor layout; expected sensor ids of the layout",
+                         file=case.path, where="fit.keep_sensors")
+
+
+def log_not_snapshot(path) -> str:
+    """Why fit and plan refuse a file that reads as a log, with its header as found."""
+    from .log_header import header_names
+
+    names = header_names(path)
+    return (f"reads as a log (its first column '{names[0]}' the time, then one column per sensor: "
+            f"{', '.join(names[1:4])}{', ...' if len(names) > 4 else ''}); fit and plan take a snapshot with "
+            f"columns sensor, temperature (follow a log with heatsight trend)")
+
+
+def usable_readings(snapshot, path):
+    """The snapshot Table's SensorReadings; InputError when fewer than MIN_READINGS are usable."""
+    from ..inverse import SensorReadings
+
+    rd = SensorReadings.from_frame(snapshot.frame)
+    if rd.n < MIN_READINGS:
+        raise InputError(f"only {rd.n} usable sensor reading(s); a fit needs at least {MIN_READINGS}", file=path)
+    return rd
+
+
 def fit_case(case, readings_path, *, at=None, **options):
     """Read the layout, the snapshot readings and the query points `at` (or None), and fit;
     the readers' warnings lead the result's.  options: those of ``heatsight.inverse.fit``.
     Returns (FitResult, points Table or None)."""
     from .. import inverse
-    from ..inverse import SensorReadings
 
     from .tables import read_layout, read_points, read_snapshot, readings_form
 
     layout = read_layout(case.sensors.layout, case.cylinder)
-    unknown = [n for n in case.fit.keep_sensors if n not in set(layout.frame.index.astype(str))]
-    if unknown:
-        raise InputError(f"names {', '.join(unknown)}, not in the sensor layout; expected sensor ids of the layout",
-                         file=case.path, where="fit.keep_sensors")
+    check_keep_sensors(case, layout)
+    if Path(readings_path).suffix.lower() == ".toml":
+        raise InputError("is a case file (TOML), not readings; give a snapshot table with columns sensor, "
+                         "temperature", file=readings_path)
     if readings_form(readings_path) == "log":
-        raise InputError("is a log (a time column, then one column per sensor); fit and plan take a snapshot "
-                         "with columns sensor, temperature (follow a log with heatsight trend)", file=readings_path)
+        raise InputError(log_not_snapshot(readings_path), file=readings_path)
     snapshot = read_snapshot(readings_path, layout)
     points = read_points(at, case.cylinder) if at else None
-    rd = SensorReadings.from_frame(snapshot.frame)
-    if rd.n < MIN_READINGS:
-        raise InputError(f"only {rd.n} usable sensor reading(s); a fit needs at least {MIN_READINGS}",
-                         file=readings_path)
+    rd = usable_readings(snapshot, readings_path)
     try:
         result = inverse.fit(case, rd, **options)
     except (InverseError, ForwardModelError) as exc:

@@ -13,6 +13,8 @@ from .errors import InputError
 
 #: a layout, snapshot, points or profile file above this size is refused (logs are streamed)
 MAX_TABLE_BYTES = 200_000_000
+#: most candidate positions a plan weighs at once (a candidates file's rows, or the [plan] grid)
+MAX_CANDIDATES = 200_000
 #: angular harmonics m = 0..MAX_HARMONICS of the unknown face
 MAX_HARMONICS = 48
 #: radial (end face) or axial (side) terms of the unknown face

@@ -235,10 +235,12 @@ class LogReader:
             if bad.any():
                 i = int(np.argmax(bad))
                 cell = series.iloc[i]
-                why = ("do not mix numbers and timestamps" if pd.notna(pd.to_datetime(str(cell), format="ISO8601",
+                if not isinstance(cell, str):     # read as a number already: too large or not finite
+                    raise self._error(f"{float(cell):g} is not a finite number of seconds", lines[i], 0)
+                why = ("do not mix numbers and timestamps" if pd.notna(pd.to_datetime(cell, format="ISO8601",
                                                                                       errors="coerce"))
                        else "this cell is neither a number of seconds nor an ISO 8601 timestamp")
-                raise self._error(f"{cell!r} is not a number of seconds (the log's first rows have numeric "
+                raise self._error(f"'{cell}' is not a number of seconds (the log's first rows have numeric "
                                   f"times; {why})", lines[i], 0)
             return t * (cols.time_scale or 1.0)
         return self._stamps(series.astype(str), lines)

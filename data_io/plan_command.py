@@ -19,14 +19,13 @@ from ..inverse.errors import InverseError
 
 from .arguments import whole
 from .errors import InputError
+from .limits import MAX_CANDIDATES
 
 #: expected variation of the unknown face when the case has no readings and [plan] gives none
 #: (common practice, no source): 5 K on a temperature face, 1 kW/m^2 on a heat-flux face
 DEFAULT_VARIATION = {"temperature": 5.0, "heat_flux": 1000.0}
 #: temperature at which a thermocouple class tolerance is evaluated when there are no readings [K]
 NO_READINGS_TEMPERATURE_K = 373.15
-#: most candidates a plan takes (a bound on the work, like data_io.limits)
-MAX_CANDIDATES = 200_000
 
 
 @dataclass

@@ -237,4 +237,21 @@ def load_profile(path, face: str, quantity: str, cylinder) -> TableProfile:
                 f2 = _scattered(pts, vals, raw)
                 desc = "interpolated over the face"
                 func = lambda rr, t: f2(rr * np.cos(t), rr * np.sin(t))  # noqa: E731
-    return TableProfile(path, face, quantity, int(keep.size), func, desc, vals)
+    return TableProfile(path, face, quantity, int(keep.size), func, desc + _coverage(face, cylinder, v, keep), vals)
+
+
+def _coverage(face, cylinder, v, keep) -> str:
+    """'' when the profile's points reach both ends of the face (along z on a wall, r on an
+    end face, within 1 % of its span), else where they stop: beyond them the nearest point's
+    value holds (interpolation does not extrapolate)."""
+    wall = is_wall(face)
+    if wall and (math.isinf(cylinder.height) or getattr(cylinder, "long", False)):
+        return ""
+    lo, hi = (0.0, cylinder.height) if wall else (cylinder.inner_radius, cylinder.radius)
+    x = (v["z"] if wall else v["r"])[keep]
+    slack = 0.01 * (hi - lo)
+    if x.min() <= lo + slack and x.max() >= hi - slack:
+        return ""
+    what = "z" if wall else "r"
+    return (f"; its points cover {what} = {x.min() * 1e3:.4g}-{x.max() * 1e3:.4g} mm of the face's "
+            f"{lo * 1e3:.4g}-{hi * 1e3:.4g} mm, and beyond them the nearest point's value holds")

@@ -147,14 +147,14 @@ def read_layout(path, cylinder) -> Table:
 
 
 def readings_form(path) -> str:
-    """"snapshot" when the file has sensor and temperature columns or starts with a sensor
-    column (a snapshot with a wrong second header is then told what a snapshot needs, not
-    that a log needs a time column), else "log" (from the header alone, so a large log is
-    not read here)."""
+    """"snapshot" when the file has a sensor or a temperature column (a log's columns are a
+    time and sensor ids, so a snapshot with one wrong header is then told what a snapshot
+    needs, not that a log needs a time column), else "log" (from the header alone, so a
+    large log is not read here)."""
     from .log_header import header_names
 
-    names = header_names(path)
-    return "snapshot" if {"sensor", "temperature"} <= set(names) or names[:1] == ["sensor"] else "log"
+    names = set(header_names(path))
+    return "snapshot" if "sensor" in names or "temperature" in names else "log"
 
 
 def _check_range(path, where_of, sensors, temps, layout_frame) -> None:

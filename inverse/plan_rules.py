@@ -64,6 +64,17 @@ class PlanRules:
     depths: int = DEFAULT_DEPTHS
 
 
+def angle_count(step: float) -> int:
+    """Angles of the candidate grid for an angular step [rad]: 2 pi / step rounded, at least 1."""
+    return max(1, int(round(2 * math.pi / step)))
+
+
+def grid_size(rules: PlanRules) -> int:
+    """The most candidates candidate_grid makes: positions along x angles x depths (fewer on
+    a long part, and before the drilling rules take some out)."""
+    return rules.along * angle_count(rules.angle_step) * rules.depths
+
+
 def default_drill_face(unknown_face: str, cylinder) -> str:
     """The face holes are drilled from when the case does not say: the end opposite an
     unknown end face (the side when that end does not exist), the top (bottom of a
@@ -270,7 +281,7 @@ def candidate_grid(rules: PlanRules, face: str, cylinder, existing=None):
         raise InverseError(f"no depth is allowed: the depth range ends at {dmax * 1e3:.3g} mm ({upper}), below "
                            f"{dmin * 1e3:.3g} mm ({lower})")
     depths = np.linspace(dmin, dmax, rules.depths) if rules.depths > 1 else np.array([0.5 * (dmin + dmax)])
-    n_theta = max(1, int(round(2 * math.pi / rules.angle_step)))
+    n_theta = angle_count(rules.angle_step)
     theta = 2 * math.pi * np.arange(n_theta) / n_theta
     S, TH, D = np.meshgrid(along, theta, depths, indexing="ij")
     S, TH, D = S.ravel(), TH.ravel(), D.ravel()

@@ -11,6 +11,8 @@ from .errors import InverseError
 #: Random standard deviation of a reading when no sigma is given [K] (common practice, no
 #: source); the one place this default lives (data_io.thermocouples uses it).
 DEFAULT_SIGMA_K = 0.5
+#: the fewest usable readings of a fit (a snapshot, or a trend's reference window)
+MIN_READINGS = 3
 
 
 @dataclass

@@ -39,7 +39,7 @@ from .bands import Z95
 from .batch import TREND_FAMILY_LEVEL, BatchSolver, change_threshold, solve_mixture, solve_weighted
 from .diagnostics import model_suspect
 from .errors import InverseError
-from .readings import SensorReadings
+from .readings import MIN_READINGS, SensorReadings
 from .steady import MIN_SAMPLES
 
 #: the reference is the first steady window whose largest drift is at most this fraction of
@@ -223,9 +223,9 @@ class TrendModel:
         ref_window = (float(stats.start[i]), float(stats.end[i]))
         valid, mean = stats.valid[i], stats.mean[i]
         sig = stats.sigma(floor)[i]
-        if valid.sum() < 3:
+        if valid.sum() < MIN_READINGS:
             raise TrendError(f"the reference window (t = {ref_window[0]:.6g} to {ref_window[1]:.6g} s) has only "
-                             f"{int(valid.sum())} sensor(s) with readings; a fit needs at least 3")
+                             f"{int(valid.sum())} sensor(s) with readings; a fit needs at least {MIN_READINGS}")
         level = np.where(valid, mean, np.nanmean(np.where(valid, mean, np.nan)))
         tau, notes = offset_sd(level)
         warnings.extend(notes)

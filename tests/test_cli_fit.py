@@ -144,7 +144,7 @@ LOG = "time [s],TC1,TC2,TC3\n0,85,80,40\n10,85.1,80.1,40.1\n"
 FIT_CASES = {
     "fit on a known case": (files(), ["fit", "case.toml", "--out", "res"], "fit needs one face"),
     "log readings to fit": (files(**{"case.toml": FIT, "readings.csv": LOG}), ["fit", "case.toml", "--out", "res"],
-                            "is a log"),
+                            "reads as a log"),
     "too few sensors": (files(**{"case.toml": FIT, "readings.csv": "sensor,temperature\nTC1,85\nTC2,80\n"}),
                         ["fit", "case.toml", "--out", "res"], "a fit needs at least 3"),
     "no readings named": (files(**{"case.toml": sub('readings = "readings.csv"\n', "", FIT)}),

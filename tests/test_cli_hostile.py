@@ -107,7 +107,7 @@ REFUSED = {
     # 8. a log named in the case: refused from its header, the body is not read
     "8 fit of a log named in the case": (dict(GOOD, **{"case.toml": LOG_FIT,
                                                        "log.csv": LOG + "30,garbage,x,y,z,w\n" * 5}), (),
-                                         ["fit", "case.toml", "--out", "o"], "log.csv: is a log"),
+                                         ["fit", "case.toml", "--out", "o"], "log.csv: reads as a log (its first column 'time'"),
     # 9. misleading refusals
     "9 sigma floor 0 names the option": (GOOD, (), ["trend", "case.toml", "--log", "readings.csv",
                                                     "--sigma-floor", "0"], "--sigma-floor: expected a positive"),
@@ -117,6 +117,25 @@ REFUSED = {
     "10 escape sequence in a log header": (dict(GOOD, **{"case.toml": LOG_FIT, "log.csv":
                                                          LOG.replace("TC3", "TC3\x07")}), (),
                                            ["check", "case.toml"], "holds the control character '\\x07'"),
+    # 11. a second audit (session 36): what fit or trend refuses, check refuses too
+    "11 keep_sensors names no sensor": (dict(GOOD, **{"case.toml": FIT + '[fit]\nkeep_sensors = ["TC99"]\n'}), (),
+                                        ["check", "case.toml"], "fit.keep_sensors: names TC99, not in the sensor layout"),
+    "11 two usable readings": (dict(GOOD, **{"readings.csv": "sensor,temperature [degC]\nTC1,60\nTC2,58\n"}), (),
+                               ["check", "case.toml"], "only 2 usable sensor reading(s); a fit needs at least 3"),
+    "11 a log of two sensors": (dict(GOOD, **{"case.toml": LOG_FIT, "log.csv": "time [s],TC1,TC2\n0,85,80\n10,85,80\n"}),
+                                (), ["check", "case.toml"], "the log has 2 sensor column(s) of the layout"),
+    "11 a plan grid of millions": (dict(GOOD, **{"case.toml": FIT + "[plan]\npositions = 100\ndepths = 100\n"
+                                                                    'angle_step = "1 deg"\n'}), (),
+                                   ["check", "case.toml"], "makes 3600000 candidate positions, more than 200000"),
+    "11 a snapshot whose first column is not sensor": (dict(GOOD, **{"readings.csv": "TC,temperature [degC]\nTC1,60\n"}),
+                                                       (), ["check", "case.toml"], "unknown column 'TC' in snapshot"),
+    "11 a two-column table that reads as a log": (dict(GOOD, **{"snap.csv": "id,temp [degC]\nTC1,60\n"}), (),
+                                                  ["fit", "case.toml", "--readings", "snap.csv", "--out", "o"],
+                                                  "reads as a log (its first column 'id' the time"),
+    "11 the case file as readings": (GOOD, (), ["fit", "case.toml", "--readings", "case.toml", "--out", "o"],
+                                     "case.toml: is a case file (TOML), not readings"),
+    "11 a time cell too large for a number": (dict(GOOD, **{"case.toml": LOG_FIT, "log.csv": LOG + "1e400,85,80,40\n"}),
+                                              (), ["check", "case.toml"], "inf is not a finite number of seconds"),
     "10 profile of 4.5e223 degC": (files(**{"case.toml": sub('value = "25 degC"\n[sensors]',
                                                              'profile = "side.csv"\n[sensors]'),
                                             "side.csv": "theta,z [mm],value [degC]\n0,0,25\n120,20,4.5e223\n"

@@ -136,3 +136,16 @@ def test_profile_refuses(tmp_path, face, text, fragment):
         load_profile(p, face, "temperature", CYL)
     msg = str(err.value)
     assert fragment in msg and str(p) in msg and "\n" not in msg
+
+
+def test_a_profile_that_stops_short_of_the_face_says_where(tmp_path):
+    # interpolation does not extrapolate: beyond the last point the nearest value holds, and
+    # the profile's description (shown by check) says where the points stop
+    cyl = Cylinder(0.08, 0.6, 45.0, inner_radius=0.05)
+    p = tmp_path / "side.csv"
+    p.write_text("theta [deg],z [mm],value [W/m^2]\n0,0,0\n0,78,0\n0,82,11000\n0,258,11000\n0,262,0\n")
+    prof = load_profile(p, "side", "heat_flux", cyl)
+    assert "cover z = 0-262 mm of the face's 0-600 mm" in prof.description
+    assert prof(np.array([0.0]), np.array([0.5]))[0] == 0.0        # the nearest point's value
+    p.write_text("theta [deg],z [mm],value [W/m^2]\n0,0,0\n0,300,10\n0,600,0\n")
+    assert "cover" not in load_profile(p, "side", "heat_flux", cyl).description
