@@ -104,16 +104,17 @@ r = ["0 mm", "50 mm"]
 
 def test_check_explains_case(tmp_path, capsys):
     (tmp_path / "case.toml").write_text(CHECK_CASE)
-    (tmp_path / "layout.csv").write_text("sensor,r [mm],theta [deg],z [mm],type\nA,20,30,20,K\nB,60,30,20,K\nC,120,30,20,K\n")
-    (tmp_path / "readings.csv").write_text("sensor,temperature\nA,80\nB,NaN\nC,60\n")
+    (tmp_path / "layout.csv").write_text("sensor,r [mm],theta [deg],z [mm],type\nA,20,30,20,K\nB,60,30,20,K\n"
+                                         "C,120,30,20,K\nD,90,30,20,K\n")
+    (tmp_path / "readings.csv").write_text("sensor,temperature\nA,80\nB,NaN\nC,60\nD,70\n")
     assert main(["check", str(tmp_path / "case.toml")]) == 0
     captured = capsys.readouterr()
     out = captured.out
     assert "radius 150 mm (0.15 m)" in out
     assert "bottom (z = 0): unknown-flux" in out
     assert "h = 12 W/(m^2*K), ambient = 25 degC (298.15 K)" in out
-    assert "sensors: 3 in" in out
-    assert "snapshot of 2 sensors" in out
+    assert "sensors: 4 in" in out
+    assert "snapshot of 3 sensors" in out
     assert "lie at one angle (theta = 30 deg)" in out
     assert "zone inner: bottom face" in out
     assert "ready for: fit (unknown face: bottom)" in out
