@@ -347,3 +347,16 @@ def test_a_zones_share_of_heat_out_in_words():
     assert flux_relation(1400.0, -7400.0) == ("19 %", "less heat out than")
     assert flux_relation(-1100.0, -7400.0) == ("15 %", "more heat out than")
     assert flux_relation(-1100.0, 7400.0) == ("15 %", "below")
+
+
+def test_the_widest_band_sentence_writes_its_plus_minus_as_1_96_sd(demo):
+    # the glossary's "±" (1.96 sd, report_text.GLOSSARY) holds in the verdict's sentence on the
+    # place the readings tell least too, though that place is found by its (mixture) band
+    res = demo.raw
+    g = res.grid
+    i = int(np.nanargmax(np.asarray(g["upper"], float) - np.asarray(g["lower"], float)))
+    fmt = verdict._Fmt(res)
+    text = verdict.unresolved_sentences(SimpleNamespace(summary={"warnings": []}, warnings=[], grid=g,
+                                                        face=res.face), fmt)[0]
+    want = f"± {verdict.sig(fmt.d.diff(1.959963984540054 * float(g['std'].iloc[i])), 2)} "
+    assert want in text, (want, text)
