@@ -98,14 +98,16 @@ def lead_tail_prior(model, tail_prior, zone_model):
 
 def answer_tails(model, columns, design, rd, kept, problem, tail_prior, zone_model, zones, steps=None):
     """The left-out modes and the unseen stretches' steps under the model that leads, given the
-    kept sensors' residual, for FitResult.build: (figure_tails, map_tail, point_tail, marginal).
+    kept sensors' residual, for FitResult.build: (figure_tails, map_tail, point_tail, marginal,
+    gradient_tail).
     figure_tails = (X, residual, {name: (h, variance)}): their share of the total power, the
     face mean and each zone mean (marginal_sets.MarginalSets.shares), value = k + f . c + h .
     (residual - X c) with the variance added; map_tail: points -> (dF, dk, variance), their
     part of the face map, k + dk + (F + dF) c with the variance added (truncation.face_tail);
     point_tail: points (r, theta, z) -> (dG, dt0, variance), their part of the temperature
     inside the part alike (MarginalSets.at_points); marginal: the marginal_sets.MarginalSets
-    (planning carries the steps in its state).
+    (planning carries the steps in its state); gradient_tail: points -> (dGg (3, Q, K), dg0
+    (3, Q)), their part of the temperature gradient (MarginalSets.gradient_at_points).
     zone_model: (the leading ZoneModel, the zone columns' field at the sensors (n, J'))."""
     idx = np.flatnonzero(kept)
     lin = problem if model == "smooth" else zone_model[0].smooth      # its readings, noise and columns
@@ -123,7 +125,11 @@ def answer_tails(model, columns, design, rd, kept, problem, tail_prior, zone_mod
     def at_points(points):
         H, variance = marginal.at_points(points.r, points.theta, points.z)
         return -H @ X, H @ residual, variance
-    return (X, residual, marginal.shares(zones)), on_face, at_points, marginal
+
+    def gradient_at(points):
+        Hg = marginal.gradient_at_points(points.r, points.theta, points.z)
+        return -Hg @ X, Hg @ residual
+    return (X, residual, marginal.shares(zones)), on_face, at_points, marginal, gradient_at
 
 
 def calibrated_tails(design, rd, kept, prior, steps=None):

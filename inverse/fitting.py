@@ -176,9 +176,9 @@ def _fit(spec, rd, step, progress, aside=None) -> FitResult:
         step.skip()
         warnings.append("Monte Carlo draws of sensor positions are not available with the zone model; "
                         "the bands are the zone model's posterior")
-    figure_tails = map_tail = point_tail = marginal = None
+    figure_tails = map_tail = point_tail = marginal = gradient_tail = None
     if tail_prior is not None and post.calibration is None and mc is None:
-        figure_tails, map_tail, point_tail, marginal = answer_tails(
+        figure_tails, map_tail, point_tail, marginal, gradient_tail = answer_tails(
             model_info["model"], columns, design, rd, screen.kept, problem, tail_prior, zone_model,
             valid_zones(spec.zones, face, spec.cylinder, []), steps)
     elif tail_prior is not None and mc is None:     # calibrated: the left-out modes' prior variance
@@ -191,7 +191,7 @@ def _fit(spec, rd, step, progress, aside=None) -> FitResult:
                            choice=screen.choice, posterior=post, sensors=sensors,
                            set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)),
                            monte_carlo=mc, extra=model_info, figure_tails=figure_tails, map_tail=map_tail,
-                           point_tail=point_tail,
+                           point_tail=point_tail, gradient_tail=gradient_tail,
                            marginal=marginal)
 
 

@@ -99,6 +99,26 @@ class MarginalSets:
         return dict(zip(names, functional_tails(self.left, left_rows, self.rd, self.prior, S, steps,
                                                 step_rows if with_steps else None)))
 
+    def gradient_at_points(self, r, theta, z) -> np.ndarray:
+        """Hg (3, Q, n): the sets' part of the temperature gradient at points given the residual
+        r_k at the kept readings, grad T = grad t0 + grad G c + Hg r_k (the conditional mean of
+        at_points with each set's gradient as its rows; heat flux -k grad T, predict_flux)."""
+        cols = [c for c in (self.left, self.steps) if c is not None]
+        r, theta, z = (np.atleast_1d(np.asarray(x, float)).ravel() for x in (r, theta, z))
+        q, rd = r.size, self.rd
+        out = np.zeros((3, q, rd.n))
+        if not cols:
+            return out
+        at_readings = [(self.step_fields if c is self.steps and self.step_fields is not None
+                        else c.fields(rd.r, rd.theta, rd.z), c.variances(self.prior)) for c in cols]
+        for lo in range(0, q, POINT_BLOCK):
+            sl = slice(lo, min(lo + POINT_BLOCK, q))
+            grads = [c.gradients(r[sl], theta[sl], z[sl]) for c in cols]
+            for d in range(3):
+                h, _ = conditional([(G, v, g[d]) for (G, v), g in zip(at_readings, grads)], self.S)
+                out[d, sl] = h.T
+        return out
+
     def at_points(self, r, theta, z):
         """(H (Q, n), variance (Q,)): the sets' part of the temperature at points (r, theta, z)
         [m, rad, m] given the residual r_k = d - t0 - X c at the kept readings, value = t0 + G c

@@ -239,6 +239,9 @@ class FitResult:
     #: (the fit with one doubtful sensor set aside (a FitResult), its weight): the answer is the
     #: mixture of this fit and that one (sensor_doubt.py), or None
     doubt: tuple | None = field(repr=False, default=None)
+    #: points with r, theta, z -> (dGg (3, Q, K), dg0 (3, Q)): the left-out modes' and steps'
+    #: part of the temperature gradient (build's gradient_tail; predict_flux), or None
+    gradient_tail: object = field(repr=False, default=None)
 
     @property
     def smooth_only(self) -> bool:
@@ -251,7 +254,7 @@ class FitResult:
     @classmethod
     def build(cls, *, spec, design, readings, kept, problem, choice, posterior, sensors,
               set_aside, warnings, monte_carlo, extra=None, figure_tails=None, map_tail=None, marginal=None,
-              point_tail=None):
+              point_tail=None, gradient_tail=None):
         """Derived figures of a fit.  spec: the inverse.problem.Problem; design: the model
         columns (design.Design or the zone model's); problem: the LinearGaussianProblem of
         the kept sensors; extra: further summary keys; figure_tails: (X, residual, {name: (h,
@@ -261,6 +264,7 @@ class FitResult:
         (dF, dk, variance), the left-out modes' part of the face map: k + dk + (F + dF) c with
         the variance (Q,) added to its bands (dF, dk None: variance only; truncation.face_tail);
         point_tail: the same for temperatures inside the part (predict; points with r, theta, z);
+        gradient_tail: their part of the temperature gradient there (predict_flux);
         marginal: the marginal_sets.MarginalSets behind them (kept for planning)."""
         cyl, opts = design.cylinder, spec.options
         face, quantity = design.face_name, design.quantity
@@ -332,7 +336,7 @@ class FitResult:
         return cls(face, quantity, unit, cyl, grid, pts.shape, summary, sens, curve, list(warnings),
                    posterior, design, problem, readings, kept, zones,
                    cal.info() if cal is not None else None, monte_carlo, cal, opts, figure_tails, marginal,
-                   map_tail, point_tail)
+                   map_tail, point_tail, gradient_tail=gradient_tail)
 
     # ------------------------------------------------------------------ queries
     def face_profile(self, u, v, level=0.95):
@@ -367,11 +371,17 @@ class FitResult:
         return answers_mixture(np.array([1.0 - p, p]), [own, query(other)], level)
 
     def predict_flux(self, r, theta, z):
-        """Heat-flux vector -k grad T [W/m^2] (3, P) at points (posterior mean)."""
+        """Heat-flux vector -k grad T [W/m^2] (3, P) at points (posterior mean), with the
+        marginalized sets' part given the kept readings (gradient_tail) where predict has theirs."""
         r, theta, z = (np.atleast_1d(np.asarray(x, float)) for x in (r, theta, z))
         _, _, ev, dG = self.design.at(r, theta, z, gradient=True)
         k = self.design.model.k
-        own = -k * (ev.gradient + np.einsum("dpk,k->dp", dG, self.posterior.c))
+        c = self.posterior.c
+        grad = ev.gradient + np.einsum("dpk,k->dp", dG, c)
+        if self.gradient_tail is not None:
+            dGg, dg0 = self.gradient_tail(SimpleNamespace(r=r, theta=theta, z=z))
+            grad = grad + np.einsum("dpk,k->dp", dGg, c) + dg0
+        own = -k * grad
         if self.doubt is None:
             return own
         other, p = self.doubt          # linear in the answer: the mixture's mean is the weighted sum

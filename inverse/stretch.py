@@ -89,6 +89,10 @@ class StretchSteps:
         """G_s (n, J) [K per face unit]: each step's field at the points."""
         return self.columns.sensors(r, theta, z)[0][:, -len(self.zones):]
 
+    def gradients(self, r, theta, z) -> np.ndarray:
+        """grad G_s (3, n, J) [K/m per face unit]: each step's temperature gradient at the points."""
+        return self.columns.at(r, theta, z, gradient=True)[3][:, :, -len(self.zones):]
+
     def face(self, u, v):
         u, v = (np.asarray(x, float).ravel() for x in (u, v))
         return self.columns._indicators(u, v), np.zeros(u.size)

@@ -151,6 +151,10 @@ class LeftOutColumns:
         """G_t (n, T) [K per unit coefficient]: every eigenfunction's field at the points."""
         return self.big.fields(r, theta, z)[0][:, :self.big.n_eigen]
 
+    def gradients(self, r, theta, z) -> np.ndarray:
+        """grad G_t (3, n, T) [K/m per unit coefficient] (r, theta / r, z components)."""
+        return self.big.fields(r, theta, z, gradient=True)[1][:, :, :self.big.n_eigen]
+
     def variances(self, prior) -> np.ndarray:
         """v (T,) [unit^2] under the learned prior `prior`, 0 on the kept modes."""
         return _masked_variances(self.big, self.mask, prior)
