@@ -36,6 +36,7 @@ from .fit_calibration import calibrated_design, step_screening
 from .fit_screening import screen_sensors, settled_screen
 from .fit_warnings import layout_warnings, misfit_warnings, truncation_warnings, unresolved_warnings
 from .hyperprior import LearnedPrior
+from .marginal_sets import prior_at_points
 from .monte_carlo import placement_draws
 from .pinned_edges import pinned_edge_notes
 from .problem import Problem
@@ -186,7 +187,7 @@ def _fit(spec, rd, step, progress, aside=None) -> FitResult:
                                                 lead_tail_prior(model_info["model"], tail_prior, zone_model), steps)
     step("bands, zones and power of the answer")
     sensors = _answer_residuals(screen.table, post, columns, rd, problem, zone_model, model_info["model"] == "zones",
-                                steps, screen.kept, point_tail)
+                                steps, screen.kept, point_tail, marginal)
     return FitResult.build(spec=spec, design=columns, readings=rd, kept=screen.kept, problem=screen.problem,
                            choice=screen.choice, posterior=post, sensors=sensors,
                            set_aside=screen.set_aside, warnings=list(dict.fromkeys(warnings)),
@@ -222,7 +223,7 @@ class _Steps:
 
 
 def _answer_residuals(table, post, columns, rd, problem, zone_model, zones_lead=False, steps=None, kept=None,
-                      point_tail=None):
+                      point_tail=None, marginal=None):
     """The sensor table with `fitted` the answer's own posterior mean at each sensor (every
     model it averages, its zone levels and calibrated parameters; the left-out modes are not
     in it), `residual` = measured - fitted and `standardized` = residual / the reading's sd
@@ -235,9 +236,11 @@ def _answer_residuals(table, post, columns, rd, problem, zone_model, zones_lead=
     their conditional mean given the residual at the sensors `kept`, G_s V G_s,k^T S_kk^-1 r_k;
     the reading's sd is its own (Whitener.own_sd), without the steps' shared variance.  With
     `point_tail` (answer_tails: the left-out modes' and the steps' part at points given the
-    kept residual) the fitted value is the one predict gives there, t0 + G c + H (r - X c), and
-    their conditional variance joins the reading's (the tube demo's sensors were 0.07-0.48 K
-    above predict's value at their own places with the steps' part alone)."""
+    kept residual) the fitted value is the one predict gives there, t0 + G c + H (r - X c)
+    (the tube demo's sensors were 0.07-0.48 K above predict's value at their own places with
+    the steps' part alone), and the reading's sd takes their conditional variance in place of
+    the left-out modes' prior variance, which the noise held (`marginal`: the sets,
+    marginal_sets.prior_at_points)."""
     if post.calibration is None:
         X = problem.G if zone_model is None else np.hstack([problem.G, zone_model[1]])
         mean = problem.t0 + X @ post.c
@@ -249,7 +252,8 @@ def _answer_residuals(table, post, columns, rd, problem, zone_model, zones_lead=
     if point_tail is not None and post.calibration is None:
         dG, dt0, v = point_tail(SimpleNamespace(r=rd.r, theta=rd.theta, z=rd.z))
         if dG is not None:
-            mean, reading_sd = mean + dG @ post.c + dt0, np.sqrt(reading_sd ** 2 + v)
+            left = 0.0 if marginal is None else prior_at_points((marginal.left,), marginal.prior, rd.r, rd.theta, rd.z)
+            mean, reading_sd = mean + dG @ post.c + dt0, np.sqrt(np.maximum(reading_sd ** 2 - left, 0.0) + v)
     elif steps is not None and kept is not None and post.calibration is None:
         m, v = steps_given_kept(steps, lin, kept, np.asarray(rd.temperature, float) - mean)
         mean, reading_sd = mean + m, np.sqrt(reading_sd ** 2 + v)

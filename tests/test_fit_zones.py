@@ -116,14 +116,14 @@ def test_zone_model_on_ring_heaters(readings):
         res = inverse.fit(case(), rd, model="zones", grid=(40, 72))
     cover, errs, p_err = _report(res, power)
     assert res.summary["model"] == "zones"
-    # the sensor table's fitted values are the answer's own columns at the sensors (zone levels
-    # included; the left-out modes, which predict adds given the residual, are in each reading's
-    # sd instead), and the healthy readings it kept lie within a few sd of it
+    # the sensor table's fitted values are the answer's prediction at the sensors (zone levels
+    # included, and the left-out modes' part given the residual, as predict has it), and the
+    # healthy readings it kept lie within a few sd of it
     t = res.sensors.set_index("sensor").loc[list(rd.names)]
     columns = res.posterior.figures(lambda d: d.sensors(rd.r, rd.theta, rd.z), res.design)[0]
-    np.testing.assert_allclose(t["fitted"].to_numpy(), columns, rtol=0, atol=1e-9)
-    # predict's share of the left-out modes at a kept sensor is small against its sd
     mean, sd, _, _ = res.predict(rd.r, rd.theta, rd.z)
+    np.testing.assert_allclose(t["fitted"].to_numpy(), mean, rtol=0, atol=1e-9)
+    # the left-out modes' share at a kept sensor is small against predict's sd
     assert np.max(np.abs(mean - columns) / sd) < 0.5
     kept = t["flag"].to_numpy() != "set aside"
     assert np.max(np.abs(t["standardized"].to_numpy()[kept])) < 4.0
