@@ -226,6 +226,11 @@ class Fit:
                 if key in POINT_UNITS:
                     # the header's unit checked as a CSV header's is (one message naming it)
                     column_unit(unit, _DIMENSIONS[key], f"column '{header}'")
+                    if unit is None and key in ("r", "z"):
+                        # a table written for the command line (m there) would be 1000x off
+                        import warnings
+                        warnings.warn(f"column '{header}' names no unit; read as {POINT_UNITS[key]} (write "
+                                      f"'{key} [mm]' or '{key} [m]' to say)", UserWarning, stacklevel=3)
                     cols[key] = convert(points[header].to_numpy(float), unit or POINT_UNITS[key], _DIMENSIONS[key])
             missing = [k for k in POINT_UNITS if k not in cols]
             if missing:

@@ -308,4 +308,12 @@ def read_points(path, cylinder) -> Table:
     _z_or_zero(v, len(raw.cells))
     check_inside(raw, v, cylinder, "point")
     frame = pd.DataFrame({"r": v["r"], "theta": v["theta"], "z": v["z"]})
-    return Table(path, frame, [], "points")
+    return Table(path, frame, unitless_lengths(raw, path, "m"), "points")
+
+
+def unitless_lengths(raw, path, unit: str) -> list[str]:
+    """A warning per length column (r, z) of a points table whose header names no unit: it is
+    read as `unit` (m at the command line, mm in Fit.predict), which a table written for the
+    other would miss by a factor of 1000."""
+    return [f"{path}: column '{raw.headers[i]}' names no unit; read as {unit} (write '{name} [mm]' or "
+            f"'{name} [m]' to say)" for i, name in enumerate(raw.names) if name in ("r", "z") and raw.units[i] is None]

@@ -73,8 +73,22 @@ def test_predict_takes_user_units(demo):
     np.testing.assert_allclose(fit.predict(np.c_[r_mm, th_deg, z_mm], return_std=False), mean, rtol=1e-12)
     with pytest.raises(InputError, match="point 1 .* lies outside the part"):
         fit.predict([200.0], [0.0], [10.0])
-    with pytest.raises(InputError, match="missing z"):
+    with pytest.raises(InputError, match="missing z"), pytest.warns(UserWarning, match="names no unit"):
         fit.predict(pd.DataFrame({"r": [0.0], "theta": [0.0]}))
+
+
+def test_a_points_table_without_length_units_says_how_it_is_read(demo, tmp_path, capsys):
+    # the same unit-less table is read as mm by Fit.predict and as m at the command line
+    # (both documented); each says so, since one written for the other is 1000x off
+    _, fit = demo
+    with pytest.warns(UserWarning, match=r"column 'r' names no unit; read as mm"):
+        fit.predict(pd.DataFrame({"r": [50.0], "theta [deg]": [0.0], "z [mm]": [20.0]}))
+    from heatsight.data_io.tables import read_points
+    p = tmp_path / "points.csv"
+    p.write_text("r,theta [deg],z [m]\n0.05,0,0.02\n")
+    table = read_points(p, fit.raw.cylinder)
+    assert table.warnings == [f"{p}: column 'r' names no unit; read as m (write 'r [mm]' or 'r [m]' to say)"]
+    assert table.frame["r"].iloc[0] == 0.05
 
 
 def test_figures_and_summary(demo):
