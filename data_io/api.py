@@ -229,8 +229,9 @@ class Fit:
                     if unit is None and key in ("r", "z"):
                         # a table written for the command line (m there) would be 1000x off
                         import warnings
-                        warnings.warn(f"column '{header}' names no unit; read as {POINT_UNITS[key]} (write "
-                                      f"'{key} [mm]' or '{key} [m]' to say)", UserWarning, stacklevel=3)
+
+                        from .tables import unitless_length
+                        warnings.warn(unitless_length(header, key, POINT_UNITS[key]), UserWarning, stacklevel=3)
                     cols[key] = convert(points[header].to_numpy(float), unit or POINT_UNITS[key], _DIMENSIONS[key])
             missing = [k for k in POINT_UNITS if k not in cols]
             if missing:

@@ -16,10 +16,9 @@ import pandas as pd
 
 from ..forward.errors import ForwardModelError
 from ..inverse.errors import InverseError
+from ..inverse.readings import MIN_READINGS
 
 from .errors import InputError
-
-from ..inverse.readings import MIN_READINGS
 
 
 def load_fit_case(case_path, readings=None, *, how_to_give="give --readings FILE"):

@@ -311,9 +311,14 @@ def read_points(path, cylinder) -> Table:
     return Table(path, frame, unitless_lengths(raw, path, "m"), "points")
 
 
+def unitless_length(header: str, name: str, unit: str) -> str:
+    """The warning on a points table's length column `name` (r or z) whose `header` names no
+    unit: it is read as `unit` (m at the command line, mm in Fit.predict), which a table
+    written for the other would miss by a factor of 1000."""
+    return f"column '{header}' names no unit; read as {unit} (write '{name} [mm]' or '{name} [m]' to say)"
+
+
 def unitless_lengths(raw, path, unit: str) -> list[str]:
-    """A warning per length column (r, z) of a points table whose header names no unit: it is
-    read as `unit` (m at the command line, mm in Fit.predict), which a table written for the
-    other would miss by a factor of 1000."""
-    return [f"{path}: column '{raw.headers[i]}' names no unit; read as {unit} (write '{name} [mm]' or "
-            f"'{name} [m]' to say)" for i, name in enumerate(raw.names) if name in ("r", "z") and raw.units[i] is None]
+    """unitless_length for each such column of a points file."""
+    return [f"{path}: {unitless_length(raw.headers[i], name, unit)}" for i, name in enumerate(raw.names)
+            if name in ("r", "z") and raw.units[i] is None]

@@ -148,7 +148,7 @@ def unresolved_sentences(result, fmt: _Fmt) -> list[str]:
     at = {"r_m": float(g["r_m"].iloc[i]), "theta_rad": float(g["theta_rad"].iloc[i]), "z_m": float(g["z_m"].iloc[i])}
     # the place by its band, the "±" as everywhere else: 1.96 sd (the glossary's; the band
     # of a mixture may sit unevenly about the estimate)
-    pm = half95(float(g["std"].iloc[i])) if "std" in g else half[i]
+    pm = half95(float(g["std"].iloc[i]))
     return [f"What these readings tell least: the estimate {_position(result.face, at)}, where the 95 % "
             f"interval is widest: ± {sig(fmt.d.diff(pm), 2)} {fmt.d.diff_symbol} (95 %); more sensors near "
             "there would narrow it (see the band-width map)."]

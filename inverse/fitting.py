@@ -225,17 +225,17 @@ class _Steps:
 def _answer_residuals(table, post, columns, rd, problem, zone_model, zones_lead=False, steps=None, kept=None,
                       point_tail=None, marginal=None):
     """The sensor table with `fitted` the answer's own posterior mean at each sensor (every
-    model it averages, its zone levels and calibrated parameters; the left-out modes are not
-    in it), `residual` = measured - fitted and `standardized` = residual / the reading's sd
+    model it averages, its zone levels and calibrated parameters; the left-out modes' part
+    as below), `residual` = measured - fitted and `standardized` = residual / the reading's sd
     (noise, offsets, placement and the left-out modes: the leading model's).  The
     screening's own problem may hold part of the model as noise (the zone model's levels,
     integrated out), whose fit alone left residuals of several kelvin at healthy sensors.
     The columns at the sensors are the ones already formed (`problem.G` and the zone columns
     of `zone_model`, (model, columns) or None): a hollow part's enlarged basis takes ~1 s to
-    evaluate again.  The unseen stretches' steps (`steps`, marginalized into the noise) add
-    their conditional mean given the residual at the sensors `kept`, G_s V G_s,k^T S_kk^-1 r_k;
-    the reading's sd is its own (Whitener.own_sd), without the steps' shared variance.  With
-    `point_tail` (answer_tails: the left-out modes' and the steps' part at points given the
+    evaluate again.  Without `point_tail` (Monte Carlo draws) the unseen stretches' steps
+    (`steps`, marginalized into the noise) add their conditional mean given the residual at the
+    sensors `kept`, G_s V G_s,k^T S_kk^-1 r_k, and the reading's sd is its own
+    (Whitener.own_sd), without the steps' shared variance.  With `point_tail` (answer_tails: the left-out modes' and the steps' part at points given the
     kept residual) the fitted value is the one predict gives there, t0 + G c + H (r - X c)
     (the tube demo's sensors were 0.07-0.48 K above predict's value at their own places with
     the steps' part alone), and the reading's sd takes their conditional variance in place of

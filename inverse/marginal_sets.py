@@ -99,39 +99,42 @@ class MarginalSets:
         return dict(zip(names, functional_tails(self.left, left_rows, self.rd, self.prior, S, steps,
                                                 step_rows if with_steps else None)))
 
+    def _columns_at_readings(self):
+        """(the sets, [(their fields at the kept readings (n, T), prior variances (T,))])."""
+        cols = [c for c in (self.left, self.steps) if c is not None]
+        rd = self.rd
+        return cols, [(self.step_fields if c is self.steps and self.step_fields is not None
+                       else c.fields(rd.r, rd.theta, rd.z), c.variances(self.prior)) for c in cols]
+
     def gradient_at_points(self, r, theta, z) -> np.ndarray:
         """Hg (3, Q, n): the sets' part of the temperature gradient at points given the residual
         r_k at the kept readings, grad T = grad t0 + grad G c + Hg r_k (the conditional mean of
         at_points with each set's gradient as its rows; heat flux -k grad T, predict_flux)."""
-        cols = [c for c in (self.left, self.steps) if c is not None]
         r, theta, z = (np.atleast_1d(np.asarray(x, float)).ravel() for x in (r, theta, z))
-        q, rd = r.size, self.rd
-        out = np.zeros((3, q, rd.n))
+        q, n = r.size, self.rd.n
+        out = np.zeros((3, q, n))
+        cols, at_readings = self._columns_at_readings()
         if not cols:
             return out
-        at_readings = [(self.step_fields if c is self.steps and self.step_fields is not None
-                        else c.fields(rd.r, rd.theta, rd.z), c.variances(self.prior)) for c in cols]
         for lo in range(0, q, POINT_BLOCK):
             sl = slice(lo, min(lo + POINT_BLOCK, q))
-            grads = [c.gradients(r[sl], theta[sl], z[sl]) for c in cols]
-            for d in range(3):
-                h, _ = conditional([(G, v, g[d]) for (G, v), g in zip(at_readings, grads)], self.S)
-                out[d, sl] = h.T
+            # the three components' rows at once: one solve with S per block
+            parts = [(G, v, c.gradients(r[sl], theta[sl], z[sl]).reshape(-1, v.size))
+                     for (G, v), c in zip(at_readings, cols)]
+            h, _ = conditional(parts, self.S)
+            out[:, sl] = h.T.reshape(3, -1, n)
         return out
 
     def at_points(self, r, theta, z):
         """(H (Q, n), variance (Q,)): the sets' part of the temperature at points (r, theta, z)
         [m, rad, m] given the residual r_k = d - t0 - X c at the kept readings, value = t0 + G c
         + H r_k + e (truncation.conditional with each set's fields at the points as its rows)."""
-        cols = [c for c in (self.left, self.steps) if c is not None]
         r, theta, z = (np.atleast_1d(np.asarray(x, float)).ravel() for x in (r, theta, z))
         q = r.size
+        cols, at_readings = self._columns_at_readings()
         if not cols:
             return np.zeros((q, self.rd.n)), np.zeros(q)
-        rd = self.rd
-        at_readings = [(self.step_fields if c is self.steps and self.step_fields is not None
-                        else c.fields(rd.r, rd.theta, rd.z), c.variances(self.prior)) for c in cols]
-        H, variance = np.zeros((q, rd.n)), np.zeros(q)
+        H, variance = np.zeros((q, self.rd.n)), np.zeros(q)
         # points in blocks: the enlarged basis has ~10x the fit's columns (a points table of
         # 5,000 rows took 500 MB at once)
         for lo in range(0, q, POINT_BLOCK):
