@@ -111,4 +111,4 @@ def test_the_registry_works_where_its_disk_cache_cannot_be_written():
     env = {**__import__("os").environ, "XDG_CACHE_HOME": "/proc/no-such-folder"}
     out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, check=True)
     uncached, value = out.stdout.split()
-    assert uncached == "True" and float(value) == 298.15
+    assert uncached == "True" and float(value) == 298.15   # definition of the Celsius scale: T/K = t/degC + 273.15

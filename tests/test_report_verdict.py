@@ -358,5 +358,6 @@ def test_the_widest_band_sentence_writes_its_plus_minus_as_1_96_sd(demo):
     fmt = verdict._Fmt(res)
     text = verdict.unresolved_sentences(SimpleNamespace(summary={"warnings": []}, warnings=[], grid=g,
                                                         face=res.face), fmt)[0]
-    want = f"± {verdict.sig(fmt.d.diff(1.959963984540054 * float(g['std'].iloc[i])), 2)} "
+    z95 = norm.ppf(0.975)           # the standard normal's 97.5 % point (scipy.stats, reference library)
+    want = f"± {verdict.sig(fmt.d.diff(z95 * float(g['std'].iloc[i])), 2)} "
     assert want in text, (want, text)
