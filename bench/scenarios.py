@@ -1,9 +1,10 @@
 """The independent scenario suite: how well does inverse.fit recover realistic unseen faces?
 
-    python bench/scenarios.py [--seeds N] [--only a,b] [--fit key=value ...] [--scale S]
-                              [--mesh-check]
+    python bench/scenarios.py [--seeds N] [--set suite|second|all] [--only a,b]
+                              [--fit key=value ...] [--scale S] [--mesh-check]
 
-Runs every scenario of tests/scenario_cases.py (readings from the scikit-fem solver, truths
+Runs every scenario of tests/scenario_cases.py, or with --set second the second set kept
+apart from it (tests/scenario_holdout.py: no default was chosen on it), or both (readings from the scikit-fem solver, truths
 that are heater patterns, not prior draws), prints one row per scenario (averaged over the
 seeds) and then each goal of issue 9 as MET / NOT MET.  Columns:
 
@@ -37,6 +38,7 @@ import numpy as np  # noqa: E402
 from threadpoolctl import threadpool_limits  # noqa: E402
 
 import scenario_cases as sc  # noqa: E402
+import scenario_holdout as holdout  # noqa: E402
 import scenario_metrics as sm  # noqa: E402
 
 
@@ -69,17 +71,22 @@ def fmt(x, spec=".2f"):
 def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--seeds", type=int, default=1, help="noise seeds per scenario (default 1)")
-    ap.add_argument("--only", default="", help="comma-separated scenario names (default: all)")
+    ap.add_argument("--only", default="", help="comma-separated scenario names (default: all of the set)")
+    ap.add_argument("--set", choices=("suite", "second", "all"), default="suite",
+                    help="the suite (tests/scenario_cases.py, default), the second set kept apart from it "
+                         "(tests/scenario_holdout.py), or both")
     ap.add_argument("--fit", action="append", metavar="KEY=VALUE", help="keyword passed to inverse.fit")
     ap.add_argument("--scale", type=float, default=1.0, help="FEM cell-count factor (default 1)")
     ap.add_argument("--mesh-check", action="store_true", help="also compare with a refined FEM solve")
     args = ap.parse_args(argv)
-    names = [n.strip() for n in args.only.split(",") if n.strip()] or list(sc.NAMES)
-    unknown = [n for n in names if n not in sc.SCENARIOS]
+    sets = {"suite": sc.NAMES, "second": holdout.NAMES, "all": sc.NAMES + holdout.NAMES}
+    known = sc.NAMES + holdout.NAMES
+    names = [n.strip() for n in args.only.split(",") if n.strip()] or list(sets[args.set])
+    unknown = [n for n in names if n not in known]
     if unknown:
-        raise SystemExit(f"unknown scenario(s) {unknown}; known: {', '.join(sc.NAMES)}")
+        raise SystemExit(f"unknown scenario(s) {unknown}; known: {', '.join(known)}")
     fit_kwargs = parse_fit(args.fit)
-    print(f"scenario suite: {len(names)} scenarios x {args.seeds} seed(s); fit keywords {fit_kwargs or 'defaults'}",
+    print(f"scenario {args.set}: {len(names)} scenarios x {args.seeds} seed(s); fit keywords {fit_kwargs or 'defaults'}",
           flush=True)
 
     scores, checks = [], {}

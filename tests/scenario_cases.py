@@ -462,9 +462,14 @@ NAMES = tuple(SCENARIOS)
 
 
 def make(name, seed=0, scale=1.0) -> Scenario:
-    """Scenario `name` with noise seed `seed`; scale multiplies the FEM cell counts."""
+    """Scenario `name` (the suite's, or the second set's: scenario_holdout.py) with noise seed
+    `seed`; scale multiplies the FEM cell counts."""
     if name not in SCENARIOS:
-        raise KeyError(f"unknown scenario {name!r}; known: {', '.join(NAMES)}")
+        import scenario_holdout
+
+        if name in scenario_holdout.SCENARIOS:
+            return scenario_holdout.make(name, seed=seed, scale=scale)
+        raise KeyError(f"unknown scenario {name!r}; known: {', '.join(NAMES + scenario_holdout.NAMES)}")
     return SCENARIOS[name](seed=seed, scale=scale)
 
 
@@ -472,10 +477,13 @@ def mesh_check(name, scale=1.0):
     """FEM convergence at the sensors: largest |T(level 2) - T(level 1)| [K] of the noise-free
     readings, level 2 having twice the cells in r and z and 1.5x the harmonics; with the
     smallest sensor sigma [K] and both levels' facts (including the heat in, "fem_heat_in")."""
+    import scenario_holdout
     import scenario_hollow
 
     if name in scenario_hollow.NAMES:
         return scenario_hollow.mesh_check(name, scale)
+    if name in scenario_holdout.NAMES:
+        return scenario_holdout.mesh_check(name, scale)
     if name == "tube_demo":
         scn = make(name)
         gen, coarse = _tube_demo_fem()
