@@ -172,6 +172,7 @@ def choose_model(opts, design, zone_models, zscreens, smooth, steps, post, u, pr
         return (columns, Posterior(c, C, post.alpha, mixture, calibrated), smooth, {"model": "smooth", **info},
                 zone_model)
     zf = fits[lead]
+    warnings.extend(zones_disputed(zscreens[lead], smooth))
     if design.quantity == "temperature" and any(z.edge <= 0 for z in columns.zones):
         warnings.append("sharp zone edges on a temperature face: the heat flux is singular at a "
                         "temperature step, so the total power is not defined; give the zones an edge width")
@@ -180,6 +181,22 @@ def choose_model(opts, design, zone_models, zscreens, smooth, steps, post, u, pr
         info["prior"] = zf.prior.description()
     return (columns, Posterior(c, C, zf.alpha, mixture, calibrated), zscreens[lead], {"model": "zones", **info},
             zone_model)
+
+
+def zones_disputed(zscreen, smooth) -> list[str]:
+    """A warning when the zone model, leading the answer, sets aside sensors that the smooth
+    model keeps: the readings that disprove a plateau over a declared zone look like faults to
+    the zone model alone.  Declared zones that are not heater footprints (zones for reporting:
+    a wedge over a lamp's spot, quadrants over a hot spot) do this, and the second scenario
+    set (tests/scenario_holdout.py: lamp_spot, vessel_hotspot) set aside two healthy sensors
+    in every seed that way; a faulty sensor is set aside by both models."""
+    only = [s.sensor for s in zscreen.set_aside if smooth.kept[s.index]]
+    if not only:
+        return []
+    names = ", ".join(only)
+    return [f"the zone model sets aside {names}, which the smooth model explains: if the declared zones "
+            f"are not separately heated areas (zones only for reporting), their levels may be wrong with "
+            f"confidence; fit with model = 'smooth' to compare, or check {names} in place"]
 
 
 def at_answer_prior(zscreen, zone_model, opts):

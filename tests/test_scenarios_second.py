@@ -36,3 +36,20 @@ def test_second_set_is_apart_from_the_suite():
     """No name of the second set shadows one of the suite, and make() reaches both."""
     assert not set(holdout.NAMES) & set(sc.SCENARIOS)
     assert sc.make("uniform_bath", seed=0, scale=SCALE).name == "uniform_bath"
+
+
+def test_zone_model_setting_aside_what_the_smooth_model_explains_is_named():
+    """lamp_spot declares reporting zones (a wedge over a Gaussian lamp spot, a centre disc
+    overlapping it): the zone model leads and sets aside the two healthy sensors beside the
+    wedge, which the smooth model keeps.  The fit says so, naming them (DEVELOPERS.md, the
+    second scenario set)."""
+    from threadpoolctl import threadpool_limits
+
+    from heatsight import inverse
+
+    scn = holdout.make("lamp_spot", seed=0, scale=SCALE)
+    with threadpool_limits(1):
+        res = inverse.fit(scn.case, scn.readings, **scn.fit_kwargs)
+    assert res.summary["model"] == "zones" and set(res.summary["set_aside"]) == {"TC02", "TC12"}
+    said = [w for w in res.warnings if w.startswith("the zone model sets aside")]
+    assert len(said) == 1 and "TC02" in said[0] and "TC12" in said[0] and "model = 'smooth'" in said[0]
