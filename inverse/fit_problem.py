@@ -69,7 +69,7 @@ def with_placement(problem, rd, ev, dG, P, u, ok, opts):
     return linear_problem(problem.G, problem.t0, var, rd, P, u, ok)
 
 
-def with_tail(problem, design, rd, P, u, ok, stretch=True):
+def with_tail(problem, design, rd, P, u, ok, stretch=True, zones=()):
     """(problem, prior, steps): the modes the basis leaves out and the steps (ramps on a
     temperature face) over an unseen edge stretch (stretch.py), marginalized into the noise
     (truncation.py), the modes' variance from a first learned prior on the readings `ok` (those
@@ -79,7 +79,7 @@ def with_tail(problem, design, rd, P, u, ok, stretch=True):
     (Whitener's shared_variance), so that a reading's own sd leaves it out."""
     first = learn_prior(problem.subset(np.flatnonzero(ok)), design.basis, nominal=u > 0,
                         nominal_factor=NOMINAL_PRECISION_FACTOR)
-    steps = (stretch_steps(design, rd.subset(np.flatnonzero(ok)), step_level(design, first.coefficients()))
+    steps = (stretch_steps(design, rd.subset(np.flatnonzero(ok)), step_level(design, first.coefficients()), zones)
              if stretch else None)
     S = problem.noise.covariance + tail_covariance(design, rd, first)
     shared = None

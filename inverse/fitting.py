@@ -117,7 +117,8 @@ def _fit(spec, rd, step, progress, aside=None) -> FitResult:
     # it) suspects: a broken sensor would otherwise widen it and hide itself; with calibrated
     # parameters, at the calibrated ones
     problem, tail_prior, steps = (with_tail(base, design, rd, P, u, screen_sensors(base, rd, opts, gross).kept,
-                                             stretch=not opts.calibrate)
+                                             stretch=not opts.calibrate,
+                                             zones=valid_zones(spec.zones, design.face_name, spec.cylinder, []))
                                   if opts.learned_prior else (base, None, None))
 
     smooth = screen_sensors(problem, rd, opts, gross)

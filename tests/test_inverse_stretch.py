@@ -51,6 +51,37 @@ def test_steps_lie_inside_the_unseen_stretch():
     assert stretch_zones("bottom", cyl, [0.05, 0.14], [0.01, 0.01]) == []
 
 
+def test_a_declared_zone_edge_inside_the_stretch_is_a_step_of_its_own():
+    """Where a declared zone (a heater) ends inside the unseen stretch, the readings cannot see
+    whether its heat stops there: a step begins there too, and the stretch's steps share the
+    level's variance (second scenario set, quadrant_chuck: heaters end at 95 mm, sensors reach
+    75 mm of 100)."""
+    from heatsight.inverse.problem import Zone
+    from heatsight.inverse.stretch import declared_edges
+
+    cyl = fw.Cylinder(A, L, K)
+    zones = [Zone("heater", "bottom", (0.0, math.pi / 2), r=(0.0, 0.125)),
+             Zone("top zone", "top", (0.0, 2 * math.pi), r=(0.0, 0.118)),      # another face: not counted
+             Zone("rim", "bottom", (0.0, 2 * math.pi), r=(0.13, 0.15))]        # 130 mm is an even step already
+    edges = declared_edges(zones, "bottom")
+    assert edges == pytest.approx([0.0, 0.125, 0.13, 0.15])
+    zs = stretch_zones("bottom", cyl, [0.05, 0.11], [0.01, 0.01], edges=edges)
+    assert [z.r[0] for z in zs] == pytest.approx([0.12, 0.125, 0.13, 0.14])
+    d, rd = chuck_design(), chuck_sensors()
+    steps = stretch_steps(d, rd, 4000.0, zones)
+    assert steps.v == pytest.approx([4000.0 ** 2 / 4] * 4)
+    assert steps.summary()["unseen_stretch_steps_m"] == pytest.approx([0.12, 0.125, 0.13, 0.14])
+    # a temperature face keeps its three ramps: its departure is continuous
+    faces = {"bottom": fw.UnknownTemperature(), "top": fw.Convection(300.0, 300.0), "side": fw.Insulated()}
+    ramps = stretch_steps(Design(cyl, faces, 1e-6, 6, 8), rd, 12.0, zones)
+    assert len(ramps.zones) == STEPS
+    # on a wall, the z of the zones; a stretch at each end keeps its own share
+    wall = fw.Cylinder(0.05, 0.40, K)
+    zs = stretch_zones("side", wall, [0.04, 0.04], [0.10, 0.30], edges=[0.06, 0.2, 0.39])
+    assert sorted(z.z for z in zs if z.z[0] == 0.0) == [pytest.approx((0.0, x)) for x in (0.025, 0.05, 0.06, 0.075)]
+    assert len(zs) == 4 + 4
+
+
 def test_steps_on_a_flux_face_need_a_level():
     d, rd = chuck_design(), chuck_sensors()
     assert stretch_steps(d, rd, 0.0) is None
