@@ -126,7 +126,7 @@ def declared_edges(zones, face) -> list:
     out = set()
     for zone in zones or ():
         if getattr(zone, "face", None) in (None, face):
-            span = zone.z if wall else zone.r
+            span = getattr(zone, "z" if wall else "r", None)
             out.update(float(x) for x in (span or ()))
     return sorted(out)
 
