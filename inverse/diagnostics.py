@@ -202,7 +202,8 @@ def model_suspect(count: int, n: int) -> bool:
 
 def screen_outliers(problem: LinearGaussianProblem, strength="evidence", threshold: float | None = None,
                     names=None, family_level: float = FAMILY_LEVEL, max_set_aside: int | None = None,
-                    min_kept: int = MIN_KEPT, preset=(), model_first: bool = False, protect=()) -> Screening:
+                    min_kept: int = MIN_KEPT, preset=(), model_first: bool = False, protect=(),
+                    spare=()) -> Screening:
     """Set aside outlying sensors one at a time, then fit with alpha chosen by `strength`.
 
     Repeat on the sensors still in: score every sensor by `averaged_loo` (for a fixed
@@ -213,6 +214,8 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
     preset: SetAside entries (gross faults) out from the start. model_first: see module doc.
     protect: indices of readings never set aside (their scores still reported and flagged);
     when the worst reading beyond the threshold is one of them the screening stops, with a warning.
+    spare: the same for readings another model explains (the caller says so): the screening
+    stops quietly when the worst is one of them, which stays in, flagged 'suspect'.
     """
     n = problem.n
     names = _names(names, n)
@@ -225,7 +228,7 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
         keep[s.index] = False
         score[s.index] = s.score
     n_preset = len(out)
-    protected = {int(x) for x in protect}
+    protected, spared = {int(x) for x in protect}, {int(x) for x in spare}
 
     def check(sub):
         return LooScores.at(sub, float(strength)) if fixed else averaged_loo(sub)
@@ -241,6 +244,8 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
         t = limit(sub.n)
         j = int(np.argmax(np.abs(sc.z)))
         if abs(sc.z[j]) <= t:
+            break
+        if int(idx[j]) in spared and int(idx[j]) not in protected:
             break
         if int(idx[j]) in protected:
             # the worst reading is one the user vouches for: setting others aside in its place

@@ -184,19 +184,22 @@ def choose_model(opts, design, zone_models, zscreens, smooth, steps, post, u, pr
 
 
 def zones_disputed(zscreen, smooth) -> list[str]:
-    """A warning when the zone model, leading the answer, sets aside sensors that the smooth
-    model keeps: the readings that disprove a plateau over a declared zone look like faults to
-    the zone model alone.  Declared zones that are not heater footprints (zones for reporting:
-    a wedge over a lamp's spot, quadrants over a hot spot) do this, and the second scenario
-    set (tests/scenario_holdout.py: lamp_spot, vessel_hotspot) set aside two healthy sensors
-    in every seed that way; a faulty sensor is set aside by both models."""
-    only = [s.sensor for s in zscreen.set_aside if smooth.kept[s.index]]
+    """A warning when the zone model leads the answer but fails on sensors that the smooth
+    model explains (flagged 'suspect' by the zone model's screening, 'ok' by the smooth
+    model's; the zone model never sets those aside: inverse.fitting's `spare`).  Declared
+    zones that are not heater footprints (zones for reporting: a wedge over a lamp's spot,
+    quadrants over a hot spot) do this: the readings beside a zone disprove a plateau over it
+    (the second scenario set, tests/scenario_holdout.py: lamp_spot, vessel_hotspot)."""
+    zflag = np.asarray(zscreen.table["flag"])
+    sflag = np.asarray(smooth.table["flag"])
+    only = [str(name) for name, z, s in zip(zscreen.table["sensor"], zflag, sflag) if z == "suspect" and s == "ok"]
     if not only:
         return []
     names = ", ".join(only)
-    return [f"the zone model sets aside {names}, which the smooth model explains: if the declared zones "
-            f"are not separately heated areas (zones only for reporting), their levels may be wrong with "
-            f"confidence; fit with model = 'smooth' to compare, or check {names} in place"]
+    they = "they stay" if len(only) > 1 else "it stays"
+    return [f"the zone model cannot explain {names}, which the smooth model explains, so {they} in: if "
+            f"the declared zones are not separately heated areas (zones only for reporting), their levels may "
+            f"be wrong; fit with model = 'smooth' to compare, or check {names} in place"]
 
 
 def at_answer_prior(zscreen, zone_model, opts):

@@ -220,6 +220,10 @@ def test_a_protected_reading_is_never_set_aside():
     # kept and flagged; the screening stops there rather than set others aside in its place
     assert kept.set_aside == [] and kept.kept[7] and kept.table["flag"].iat[7] == "suspect"
     assert any("kept as asked" in w for w in kept.warnings)
+    # a spared reading (one another model explains) alike, but quietly: the caller says why
+    spared = screen_outliers(prob, spare=[7])
+    assert spared.set_aside == [] and spared.kept[7] and spared.table["flag"].iat[7] == "suspect"
+    assert not any("TC" in w or "kept as asked" in w for w in spared.warnings)
 
 
 def _demo_with(tmp_path, sensor, shift):
