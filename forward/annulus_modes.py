@@ -50,7 +50,8 @@ class AnnulusEndModes(EndFaceModes):
 
     def radial_values(self, s, index=slice(None)):
         """R of the modes `index` at radii s [m], (S, K_index)."""
-        radial = self.radial if index == slice(None) else self._radial_of(index)
+        whole = isinstance(index, slice) and index == slice(None)
+        radial = self.radial if whole else self._radial_of(index)
         return radial.values(np.asarray(s, float).ravel())[0]
 
     def fields(self, r, theta, z, gradient=True):

@@ -219,3 +219,30 @@ def test_fit_marks_the_steps_as_shared_noise():
     out = summary_dict(res)
     assert out["unseen_stretch_steps_m"] == [pytest.approx(x) for x in (0.12, 0.13, 0.14)]
     assert out["unseen_stretch_level_sd"] == pytest.approx(res.summary["mean"], rel=0.1)
+
+
+def test_annular_end_face_with_unseen_stretches_fits():
+    """A hollow part's unknown end-face flux with no sensor near either wall: the steps over
+    both unseen stretches need the annulus modes' radial factors of a subset of modes, which
+    raised "truth value of an array is ambiguous" before (forward/annulus_modes.py)."""
+    from threadpoolctl import threadpool_limits
+
+    from heatsight import inverse
+
+    cyl = fw.Cylinder(0.15, 0.03, 30.0, inner_radius=0.03)
+    known = {"top": fw.Convection(300.0, 300.0), "side": fw.Insulated(), "bore": fw.Insulated()}
+    r = np.array([0.06] * 4 + [0.10] * 6)
+    th = np.linspace(0.0, 2.0 * np.pi, 10, endpoint=False)
+    z = np.full(10, 0.01)
+    # a uniform 5 kW/m^2 heater (invented); the series gives the readings
+    T = fw.CylinderModel(cyl, {**known, "bottom": fw.Flux(5000.0)}, tolerance=1e-7).evaluate(r, th, z).temperature
+    T = T + np.random.default_rng(0).normal(0.0, 0.05, T.size)
+    rd = SensorReadings([f"T{i}" for i in range(10)], r, th, z, T, 0.05, 0.0, 0.0)
+    case = types.SimpleNamespace(cylinder=cyl, faces={**known, "bottom": fw.UnknownFlux()}, zones=[])
+    with threadpool_limits(1):
+        res = inverse.fit(case, rd, grid=(9, 12))
+    starts = res.summary["unseen_stretch_steps_m"]
+    assert len(starts) == 2 * STEPS
+    assert sum(x < 0.06 for x in starts) == STEPS and sum(x > 0.10 for x in starts) == STEPS
+    area = math.pi * (0.15 ** 2 - 0.03 ** 2)
+    assert abs(res.summary["total_power_W"] - 5000.0 * area) <= 3.0 * res.summary["total_power_sd_W"]
