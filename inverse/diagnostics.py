@@ -214,8 +214,8 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
     preset: SetAside entries (gross faults) out from the start. model_first: see module doc.
     protect: indices of readings never set aside (their scores still reported and flagged);
     when the worst reading beyond the threshold is one of them the screening stops, with a warning.
-    spare: the same for readings another model explains (the caller says so): the screening
-    stops quietly when the worst is one of them, which stays in, flagged 'suspect'.
+    spare: indices of readings another model explains (the caller says so): never set aside,
+    flagged 'suspect' beyond the limit, and passed over: the worst of the others is judged.
     """
     n = problem.n
     names = _names(names, n)
@@ -242,10 +242,10 @@ def screen_outliers(problem: LinearGaussianProblem, strength="evidence", thresho
         sc = check(sub)
         score[idx] = sc.z
         t = limit(sub.n)
-        j = int(np.argmax(np.abs(sc.z)))
-        if abs(sc.z[j]) <= t:
-            break
-        if int(idx[j]) in spared and int(idx[j]) not in protected:
+        # the worst reading that is not spared (a spared one beyond the limit stays in, flagged)
+        order = np.argsort(-np.abs(sc.z), kind="stable")
+        j = next((int(k) for k in order if int(idx[k]) not in spared or int(idx[k]) in protected), None)
+        if j is None or abs(sc.z[j]) <= t:
             break
         if int(idx[j]) in protected:
             # the worst reading is one the user vouches for: setting others aside in its place

@@ -87,7 +87,7 @@ def zone_fit(opts, design, zone_model, zscreen, post, u, problem, steps=None):
     return zone_model.fit(zscreen.kept, alphas)
 
 
-def choose_model(opts, design, zone_models, zscreens, smooth, steps, post, u, problem, warnings):
+def choose_model(opts, design, zone_models, zscreens, smooth, steps, post, u, problem, warnings, spare=()):
     """(model columns, posterior, screening, summary keys, (leading zone model, zone columns
     at the sensors) or None): the smooth model, the zone model when asked (model = "zones"),
     or with "auto" both averaged with their posterior probabilities
@@ -172,7 +172,7 @@ def choose_model(opts, design, zone_models, zscreens, smooth, steps, post, u, pr
         return (columns, Posterior(c, C, post.alpha, mixture, calibrated), smooth, {"model": "smooth", **info},
                 zone_model)
     zf = fits[lead]
-    warnings.extend(zones_disputed(zscreens[lead], smooth))
+    warnings.extend(zones_disputed(zscreens[lead], spare))
     if design.quantity == "temperature" and any(z.edge <= 0 for z in columns.zones):
         warnings.append("sharp zone edges on a temperature face: the heat flux is singular at a "
                         "temperature step, so the total power is not defined; give the zones an edge width")
@@ -183,23 +183,24 @@ def choose_model(opts, design, zone_models, zscreens, smooth, steps, post, u, pr
             zone_model)
 
 
-def zones_disputed(zscreen, smooth) -> list[str]:
+def zones_disputed(zscreen, spare) -> list[str]:
     """A warning when the zone model leads the answer but fails on sensors that the smooth
-    model explains (flagged 'suspect' by the zone model's screening, 'ok' by the smooth
-    model's; the zone model never sets those aside: inverse.fitting's `spare`).  Declared
-    zones that are not heater footprints (zones for reporting: a wedge over a lamp's spot,
-    quadrants over a hot spot) do this: the readings beside a zone disprove a plateau over it
-    (the second scenario set, tests/scenario_holdout.py: lamp_spot, vessel_hotspot)."""
+    model finds unremarkable (`spare`, inverse.fitting.unremarkable: flagged 'suspect' by the
+    zone model's screening, which never sets those aside).  Declared zones that are not heater
+    footprints (zones for reporting: a wedge over a lamp's spot, quadrants over a hot spot) do
+    this: the readings beside a zone disprove a plateau over it (the second scenario set,
+    tests/scenario_holdout.py: lamp_spot, vessel_hotspot); so does a fault that the smooth
+    model's rough profiles absorb."""
     zflag = np.asarray(zscreen.table["flag"])
-    sflag = np.asarray(smooth.table["flag"])
-    only = [str(name) for name, z, s in zip(zscreen.table["sensor"], zflag, sflag) if z == "suspect" and s == "ok"]
+    names = list(zscreen.table["sensor"])
+    only = [str(names[i]) for i in sorted(int(x) for x in spare) if zflag[i] == "suspect"]
     if not only:
         return []
-    names = ", ".join(only)
-    they = "they stay" if len(only) > 1 else "it stays"
-    return [f"the zone model cannot explain {names}, which the smooth model explains, so {they} in: if "
-            f"the declared zones are not separately heated areas (zones only for reporting), their levels may "
-            f"be wrong; fit with model = 'smooth' to compare, or check {names} in place"]
+    listed = ", ".join(only)
+    they, them = ("they stay", "they read") if len(only) > 1 else ("it stays", "it reads")
+    return [f"the zone model cannot explain {listed}, which the smooth model explains, so {they} in: either the "
+            f"declared zones are not separately heated areas (zones only for reporting) and their levels may be "
+            f"wrong, or {them} wrong; fit with model = 'smooth' to compare, or check {listed} in place"]
 
 
 def at_answer_prior(zscreen, zone_model, opts):

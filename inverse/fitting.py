@@ -160,7 +160,7 @@ def _fit(spec, rd, step, progress, aside=None) -> FitResult:
             other.share_tail(first)
     zscreens = [settled_screen(zm, rd, opts, gross, leading, spare=spare) for zm in zone_models]
     columns, post, screen, model_info, zone_model = choose_model(opts, design, zone_models, zscreens, smooth, steps,
-                                                                  post, u, problem, warnings)
+                                                                  post, u, problem, warnings, spare)
     # the chosen model's screening notes lead; a learned prior's answer drops the fixed
     # prior's strength-grid notes
     learned = hasattr(post.averaged, "description") or "prior" in model_info

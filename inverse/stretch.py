@@ -7,11 +7,12 @@ large as the face's own level for improbable, so the fit carried a heater's powe
 rim it never reached (tests/scenario_cases.py chuck_calibrated: three of four zone means
 2.9-4.3 sd low).  Here the stretch may depart from the rest of the face by steps:
 
-    q(x) += sum_j s_j H_j(x),   s_j ~ N(0, level^2 / J),   j = 1..J = STEPS per stretch,
+    q(x) += sum_j s_j H_j(x),   s_j ~ N(0, level^2 / J),   j = 1..J per stretch,
 
-H_j the indicator of the part of the stretch beyond the j-th of J points evenly inside it
-(at (j / (J + 1)) of its length from the sensors' side: a step at the outermost sensor
-itself would be pinned by it), so that at the face's edge the steps add up to a prior sd of
+H_j the indicator of the part of the stretch beyond the j-th of STEPS points evenly inside it
+(at (j / (STEPS + 1)) of its length from the sensors' side: a step at the outermost sensor
+itself would be pinned by it) and, on a flux face, beyond each edge of a declared zone inside
+it (J = STEPS + those edges), so that at the face's edge the steps add up to a prior sd of
 `level` [face unit]: how far the face's own level is from zero.  The steps are marginalized
 into the readings' covariance, S += G_s diag(v) G_s^T, and, with the left-out modes
 (truncation.py), their conditional mean and variance given the residual reach the face map,
@@ -148,12 +149,16 @@ def stretch_zones(face, cylinder, r, z, pinned=(), ramps=False, edges=()) -> lis
         edge = hi_face if outward else lo_face
         if any(math.isclose(edge, x, rel_tol=1e-12, abs_tol=1e-12) for x in pinned):
             continue
-        even = [a + (b - a) * j / (STEPS + 1) if outward else b - (b - a) * j / (STEPS + 1)
-                for j in range(1, STEPS + 1)]
-        tol = 1e-9 * max(abs(hi_face), 1.0)
-        inside = [x for x in edges if a + tol < x < b - tol
-                  and not any(abs(x - y) <= tol for y in even)]
-        for x in sorted(even + inside, reverse=not outward):
+        spacing = (b - a) / (STEPS + 1)
+        points = [a + spacing * j if outward else b - spacing * j for j in range(1, STEPS + 1)]
+        # every declared edge inside adds a step, even one next to an evenly spaced point: letting
+        # it take that point's place put the second set's quadrant chuck back to 10/12 zone means
+        # within 2 sd (its heaters end at 95 mm, 1.25 mm past the point at 93.75 mm; 12/12 with both)
+        for x in edges:
+            if a + 1e-9 * spacing < x < b - 1e-9 * spacing and not any(abs(x - y) <= 1e-9 * spacing
+                                                                        for y in points):
+                points.append(x)
+        for x in sorted(points, reverse=not outward):
             inner = 0.5 * (x + edge) if ramps else x
             span = (inner, hi_face) if outward else (lo_face, inner)
             out.append(Zone(f"unseen stretch step {len(out) + 1}", face, (0.0, 2 * math.pi),

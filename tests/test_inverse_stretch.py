@@ -71,6 +71,9 @@ def test_a_declared_zone_edge_inside_the_stretch_is_a_step_of_its_own():
     steps = stretch_steps(d, rd, 4000.0, zones)
     assert steps.v == pytest.approx([4000.0 ** 2 / 4] * 4)
     assert steps.summary()["unseen_stretch_steps_m"] == pytest.approx([0.12, 0.125, 0.13, 0.14])
+    # an edge next to an even step is a step of its own; one on it is not repeated
+    zs = stretch_zones("bottom", cyl, [0.05, 0.11], [0.01, 0.01], edges=[0.1215, 0.14])
+    assert [z.r[0] for z in zs] == pytest.approx([0.12, 0.1215, 0.13, 0.14])
     # a temperature face keeps its three ramps: its departure is continuous
     faces = {"bottom": fw.UnknownTemperature(), "top": fw.Convection(300.0, 300.0), "side": fw.Insulated()}
     ramps = stretch_steps(Design(cyl, faces, 1e-6, 6, 8), rd, 12.0, zones)

@@ -220,10 +220,17 @@ def test_a_protected_reading_is_never_set_aside():
     # kept and flagged; the screening stops there rather than set others aside in its place
     assert kept.set_aside == [] and kept.kept[7] and kept.table["flag"].iat[7] == "suspect"
     assert any("kept as asked" in w for w in kept.warnings)
-    # a spared reading (one another model explains) alike, but quietly: the caller says why
-    spared = screen_outliers(prob, spare=[7])
-    assert spared.set_aside == [] and spared.kept[7] and spared.table["flag"].iat[7] == "suspect"
-    assert not any("TC" in w or "kept as asked" in w for w in spared.warnings)
+    # a spared reading (one another model explains) is kept and flagged too, quietly (the
+    # caller says why), and passed over: a fault among the readings not spared (as the fit
+    # spares every reading the smooth model finds unremarkable) is still set aside
+    d2 = d.copy()
+    d2[3] += 4.0
+    prob2 = LinearGaussianProblem(G, d2, 20.0, np.full(n, 0.25), p)
+    assert sorted(s.index for s in screen_outliers(prob2).set_aside) == [3, 7]
+    spared = screen_outliers(prob2, spare=[i for i in range(n) if i != 3])
+    assert [s.index for s in spared.set_aside] == [3]
+    assert spared.kept[7] and spared.table["flag"].iat[7] == "suspect"
+    assert not any("kept as asked" in w for w in spared.warnings)
 
 
 def _demo_with(tmp_path, sensor, shift):
