@@ -56,7 +56,8 @@ def settled_screen(zone_model, rd, opts, gross, leading, rounds=3, spare=()):
     own point (ZoneModel.learned_fit) without screening again: on the tube bore (seed 2) the
     choice there gave the cool streak's level an sd of 44 K, which explained the broken
     TC07's +6 K away, and screening again at it kept the sensor (zone 4.3 sd off).
-    spare: the readings the smooth model keeps (screen_sensors)."""
+    spare: the readings the smooth model finds unremarkable (fitting.unremarkable), never set
+    aside here (screen_sensors)."""
     screen = screen_sensors(zone_model.marginal, rd, opts, gross, spare)
     if leading is None:
         return screen

@@ -59,13 +59,12 @@ class StretchSteps:
         self.zones = list(zones)
         self.columns = ZoneDesign(design, self.zones, nearest)
         self.level = float(level)
-        # each stretch's steps share level^2 (STEPS, and one more per declared edge inside it)
-        _, hi = face_interval(design.face_name, design.cylinder)
-        outward = np.array([math.isclose((z.z if is_wall(design.face_name) else z.r)[1], hi,
-                                         rel_tol=1e-12, abs_tol=1e-12) for z in self.zones])
-        count = np.where(outward, outward.sum(), (~outward).sum())
-        self.v = self.level ** 2 / count
         self.face_name, self.quantity, self.cylinder = design.face_name, design.quantity, design.cylinder
+        # each stretch's steps share level^2 (STEPS, and one more per declared edge inside it);
+        # a step of the outer stretch reaches the face's outer end
+        _, hi = face_interval(self.face_name, self.cylinder)
+        outward = np.array([math.isclose(b, hi, rel_tol=1e-12, abs_tol=1e-12) for _, b in self._spans()])
+        self.v = self.level ** 2 / np.where(outward, outward.sum(), (~outward).sum())
         self.at_readings = None     # G_s (n, J) at the fit's readings (attach)
 
     def attach(self, rd) -> "StretchSteps":
@@ -86,10 +85,13 @@ class StretchSteps:
         """For summary.json: where each step (or ramp) begins [m] (r on an end face, z on a
         wall) and the prior sd the steps reach at the face's edge [face unit]."""
         _, hi = face_interval(self.face_name, self.cylinder)
-        spans = [(z.z if is_wall(self.face_name) else z.r, 0.5 * z.edge) for z in self.zones]
-        starts = [a - half if math.isclose(b, hi, rel_tol=1e-12, abs_tol=1e-12) else b + half
-                  for (a, b), half in spans]
+        starts = [a - 0.5 * z.edge if math.isclose(b, hi, rel_tol=1e-12, abs_tol=1e-12) else b + 0.5 * z.edge
+                  for (a, b), z in zip(self._spans(), self.zones)]
         return {"unseen_stretch_steps_m": [float(x) for x in starts], "unseen_stretch_level_sd": self.level}
+
+    def _spans(self) -> list:
+        """Each step's span along the face [m]: z on a wall, r on an end face."""
+        return [z.z if is_wall(self.face_name) else z.r for z in self.zones]
 
     def fields(self, r, theta, z) -> np.ndarray:
         """G_s (n, J) [K per face unit]: each step's field at the points."""

@@ -495,8 +495,5 @@ def mesh_check(name, scale=1.0):
         return diff, float(rd.sigma.min()), facts[0], facts[1]
     scn = make(name, scale=scale)
     truth, phys, pos = _PHYSICS[name]
-    lvl1 = fem_readings(name, truth, phys, pos, scale, level=1)
-    lvl2 = fem_readings(name, truth, phys, pos, scale, level=2)
-    diff = float(np.abs(lvl2.temperature - lvl1.temperature).max())
-    return (diff, float(scn.readings.sigma.min()), dict(lvl1.facts, fem_heat_in=lvl1.heat_in),
-            dict(lvl2.facts, fem_heat_in=lvl2.heat_in))
+    return sf.two_levels(lambda level: fem_readings(name, truth, phys, pos, scale, level=level),
+                         scn.readings.sigma.min())

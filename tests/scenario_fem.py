@@ -172,6 +172,16 @@ def solve(truth, phys: Physics, r, theta, z, level: int = 1, scale: float = 1.0)
     return FemReadings(T, heat, facts)
 
 
+def two_levels(readings_at, sigma) -> tuple:
+    """The mesh check of a scenario: (largest |T(level 2) - T(level 1)| [K] of the noise-free
+    readings, sigma [K], level 1's facts, level 2's facts, each with its FEM heat in);
+    readings_at(level) -> FemReadings (level 2: twice the cells in r and z, 1.5x the harmonics)."""
+    lvl1, lvl2 = readings_at(1), readings_at(2)
+    diff = float(np.abs(lvl2.temperature - lvl1.temperature).max())
+    return (diff, float(sigma), dict(lvl1.facts, fem_heat_in=lvl1.heat_in),
+            dict(lvl2.facts, fem_heat_in=lvl2.heat_in))
+
+
 def face_average(truth, face, radius, height, mask_fn=None, n=600, inner_radius=0.0):
     """Area average of the truth over the face, or over the part where mask_fn(u, v) holds:
     midpoint rule on n x 2n cells, weight r on end faces (dA = r dr dtheta over

@@ -319,14 +319,17 @@ def make(name, seed=0, scale=1.0):
     return SCENARIOS[name](seed=seed, scale=scale)
 
 
+def fem_of(name):
+    """(truth, physics, sensor positions, solve(name, truth, phys, pos, scale, level=)) of a
+    scenario of this set built in this process (the solid and hollow builders keep them apart)."""
+    if name in {f.__name__ for f in HOLLOW}:
+        return (*sh._PHYSICS[name], sh._fem)
+    return (*sc._PHYSICS[name], sc.fem_readings)
+
+
 def mesh_check(name, scale=1.0):
     """As scenario_cases.mesh_check: the largest change of a noise-free reading [K] with twice
     the cells and 1.5x the harmonics, the smallest sensor sigma [K] and both levels' facts."""
     scn = make(name, scale=scale)
-    hollow = name in {f.__name__ for f in HOLLOW}
-    registry, solve = (sh._PHYSICS, sh._fem) if hollow else (sc._PHYSICS, sc.fem_readings)
-    truth, phys, pos = registry[name]
-    lvl1, lvl2 = (solve(name, truth, phys, pos, scale, level=k) for k in (1, 2))
-    diff = float(np.abs(lvl2.temperature - lvl1.temperature).max())
-    return (diff, float(scn.readings.sigma.min()), dict(lvl1.facts, fem_heat_in=lvl1.heat_in),
-            dict(lvl2.facts, fem_heat_in=lvl2.heat_in))
+    truth, phys, pos, solve = fem_of(name)
+    return sf.two_levels(lambda level: solve(name, truth, phys, pos, scale, level=level), scn.readings.sigma.min())

@@ -257,8 +257,4 @@ def mesh_check(name, scale=1.0):
     and z, 1.5x the harmonics), the smallest sensor sigma [K] and both levels' facts."""
     scn = make(name, scale=scale)
     truth, phys, pos = _PHYSICS[name]
-    lvl1 = _fem(name, truth, phys, pos, scale, level=1)
-    lvl2 = _fem(name, truth, phys, pos, scale, level=2)
-    diff = float(np.abs(lvl2.temperature - lvl1.temperature).max())
-    return (diff, float(scn.readings.sigma.min()), dict(lvl1.facts, fem_heat_in=lvl1.heat_in),
-            dict(lvl2.facts, fem_heat_in=lvl2.heat_in))
+    return sf.two_levels(lambda level: _fem(name, truth, phys, pos, scale, level=level), scn.readings.sigma.min())
