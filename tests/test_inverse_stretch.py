@@ -247,5 +247,6 @@ def test_annular_end_face_with_unseen_stretches_fits():
     starts = res.summary["unseen_stretch_steps_m"]
     assert len(starts) == 2 * STEPS
     assert sum(x < 0.06 for x in starts) == STEPS and sum(x > 0.10 for x in starts) == STEPS
-    area = math.pi * (0.15 ** 2 - 0.03 ** 2)
+    area = math.pi * (0.15 ** 2 - 0.03 ** 2)        # annulus area (geometry)
+    # within 3 sd of the heater's power: common practice, no source
     assert abs(res.summary["total_power_W"] - 5000.0 * area) <= 3.0 * res.summary["total_power_sd_W"]
