@@ -7,8 +7,9 @@ Side:      g(theta, z) = sum_mn c_mn Theta_m(theta) Z_n(z),
 f_m, g_m are the azimuthal harmonic amplitudes (FFT on equally spaced angles); the
 radial / axial integrals use Gauss-Legendre rules with enough nodes to resolve the
 highest eigenfunction.  The number of terms doubles until the truncation estimate at
-the requested points (sum of the term bounds |c| |axial or radial factor| over the last
-half of the terms) is below tolerance x the data's temperature scale, or the cap is reached;
+the requested points, sum over the last half of the terms of |c| |radial factor(r)|
+|axial factor(z)| (the terms' own sizes at the point's radius and height, with
+|Theta_m| <= 1), is below tolerance x the data's temperature scale, or the cap is reached;
 harmonics below tolerance x the face's own largest datum are left out (both relative, so
 any data scale is served alike).
 `evaluate_grid` sums on a tensor grid of lines (forward/grid.py); `evaluate(...,
@@ -125,17 +126,15 @@ class KnownSeries:
         doubling refines only the new eigenvalues)."""
         n = min(n, self.n_cap)
         if not self.parities:
-            self.modes, self.coef, self.n_terms, self._blocks = None, np.zeros(0), n, []
+            self.modes, self.coef, self.n_terms = None, np.zeros(0), n
             return
         # Every build projects all n terms with one rule resolving the highest eigenfunction:
         # keeping the earlier terms' coefficients (projected with coarser rules) and summing
         # only the new terms was tried and raised the round-off of the field by ~30 % (see
         # DEVELOPERS.md), so the terms already summed are summed again.
-        have = 0
-        self._blocks = []
-        ms = np.repeat([p[0] for p in self.parities], n - have)
-        is_sin = np.repeat([p[1] for p in self.parities], n - have)
-        ev = np.concatenate([self._eigen(p[0], n)[have:] for p in self.parities])
+        ms = np.repeat([p[0] for p in self.parities], n)
+        is_sin = np.repeat([p[1] for p in self.parities], n)
+        ev = np.concatenate([self._eigen(p[0], n) for p in self.parities])
         modes = self._make_modes(ms, is_sin, ev)
         top_ev = float(ev.max())  # lambda (end faces) or mu (side), dimensionless
         nq = int(0.6 * top_ev + 16 * np.sqrt(top_ev + 1) + 80)
@@ -148,25 +147,15 @@ class KnownSeries:
             norm = modes.axial_norms()
         else:
             norm = modes.norms() / np.where(ms == 0, 2.0 * np.pi, np.pi)
-        size = n - have
         for g, (mg, sg) in enumerate(self.parities):
-            sl = slice(g * size, (g + 1) * size)
+            sl = slice(g * n, (g + 1) * n)
             amp = (amps_s if sg else amps_c)[:, mg]  # (nq,)
             if self.wall:
                 proj[sl] = (amp @ weights[:, sl]) / norm[sl]
             else:
                 proj[sl] = ((w * s * amp) @ modes.radial_values(s, sl)) / norm[sl]
-        n_index = np.tile(np.arange(have, n), len(self.parities))
-        self._blocks.append((modes, proj, n_index))
-        self.n_terms = n
-        if len(self._blocks) == 1:
-            self.modes, self.coef, self._n_index = modes, proj, n_index
-        else:
-            self._n_index = np.concatenate([b[2] for b in self._blocks])
-            self.coef = np.concatenate([b[1] for b in self._blocks])
-            self.modes = self._make_modes(np.concatenate([b[0].m for b in self._blocks]),
-                                          np.concatenate([b[0].is_sin for b in self._blocks]),
-                                          np.concatenate([self._ev(b[0]) for b in self._blocks]))
+        self.modes, self.coef, self.n_terms = modes, proj, n
+        self._n_index = np.tile(np.arange(n), len(self.parities))
 
     def _integral_of_data(self, panels=64, order=16):
         """integral of the (residual) data over the face [data unit * m^2]: the m = 0
@@ -190,39 +179,32 @@ class KnownSeries:
         return modes.mu if self.wall else modes.lam
 
     # --- evaluation ----------------------------------------------------------------------
-    def _bound_factors(self, modes, r, z):
-        """|radial or axial factor| per point (or grid line) and mode (|J Theta| <= 1,
-        |Z Theta| <= 1): a function of r alone (side data) or z alone (end-face data)."""
-        if self.wall:
-            q, _, _ = modes._radial(r)
-            return np.abs(q / modes.norm_b)
-        zh, _ = modes.axial(modes.zeta(z))
-        return np.abs(zh)
-
-    def _tail(self, r, z):
-        """Truncation estimate: sum over the last half of the terms of |c| |factor|, for
-        each point (or grid line) of r (side data) or z (end-face data), in chunks."""
-        x = r if self.wall else z
-        tail = np.zeros(x.size)
+    def _last_half(self, n_index):
+        """The terms whose bound is the truncation estimate: the last half of each harmonic's
+        terms; none when the terms carry the data exactly (families.complete_terms)."""
         complete = self.families.complete_terms(self.face)
         if complete is not None and self.n_terms >= complete:
-            return tail  # the terms carry the data exactly
-        for modes, coef, n_index in self._blocks:
-            last = n_index >= self.n_terms // 2
-            if not last.any():
-                continue
-            step = max(1, CHUNK // coef.size)
-            for i in range(0, x.size, step):
-                sl = slice(i, i + step)
-                part = (x[sl], None) if self.wall else (None, x[sl])
-                tail[sl] += self._bound_factors(modes, *part)[:, last] @ np.abs(coef[last])
-        return tail
+            return np.zeros(n_index.size, dtype=bool)
+        return n_index >= self.n_terms // 2
+
+    @staticmethod
+    def _tail_lines(rad, ax, coef, last):
+        """Truncation estimate on grid lines (R, Z): sum over the terms `last` of
+        |c| |radial factor(r)| |axial factor(z)| (|Theta| <= 1) [K]."""
+        if not last.any():
+            return np.zeros((rad.shape[0], ax.shape[0]))
+        return np.abs(rad[:, last]) @ (np.abs(coef[last])[:, None] * np.abs(ax[:, last]).T)
 
     def _block_points(self, block, r, theta, z, gradient):
-        modes, coef, _ = block
+        """Temperature (P,), gradient (3, P) and truncation estimate (P,) at points, in chunks;
+        the estimate from the radial and axial factors at each chunk's distinct radii and
+        heights."""
+        modes, coef, n_index = block
+        last = self._last_half(n_index)
         P = r.size
         t = np.zeros(P)
         g = np.zeros((3, P))
+        tail = np.zeros(P)
         step = max(1, CHUNK // max(coef.size, 1))
         for i in range(0, P, step):
             sl = slice(i, i + step)
@@ -230,26 +212,33 @@ class KnownSeries:
             t[sl] = cols @ coef
             if gradient:
                 g[:, sl] = grad @ coef
-        return t, g
+            if last.any():
+                radii, ri = np.unique(r[sl], return_inverse=True)
+                heights, zi = np.unique(z[sl], return_inverse=True)
+                rad, _, _, ax, _ = modes.grid_factors(radii, heights, False)
+                size = np.abs(rad[:, last])[ri.ravel()] * np.abs(ax[:, last])[zi.ravel()]
+                tail[sl] = size @ np.abs(coef[last])
+        return t, g, tail
 
     def _block_grid(self, block, r, theta, z, gradient):
-        modes, coef, _ = block
-        t, g = grid_field(coef, modes.m, modes.is_sin, modes.grid_factors(r, z, gradient),
-                          theta, gradient)
-        return t, (g if gradient else np.zeros((3,) + t.shape))
+        """The same on the grid lines r x theta x z: (R, T, Z), (3, R, T, Z) and the estimate
+        (R, 1, Z), from the factors the sum uses."""
+        modes, coef, n_index = block
+        factors = modes.grid_factors(r, z, gradient)
+        t, g = grid_field(coef, modes.m, modes.is_sin, factors, theta, gradient)
+        tail = self._tail_lines(factors[0], factors[3], coef, self._last_half(n_index))
+        return t, (g if gradient else np.zeros((3,) + t.shape)), tail[:, None, :]
 
-    def _grow_and_sum(self, block_sum, tail_of):
+    def _grow_and_sum(self, block_sum):
         """Sum the terms built so far, then double the terms (and sum again) until the
         truncation estimate meets the tolerance or the cap is reached."""
         # the terms summed so far in one pass (one dot product per point, not one per block)
-        t, g = block_sum((self.modes, self.coef, self._n_index))
         while True:
-            tail = tail_of()
+            t, g, tail = block_sum((self.modes, self.coef, self._n_index))
             if np.size(tail) == 0 or np.max(tail) <= self.tol * self.temperature_scale \
                     or self.n_terms >= self.n_cap:
                 return t, g, tail
             self._build(2 * self.n_terms)
-            t, g = block_sum((self.modes, self.coef, self._n_index))
 
     def evaluate(self, r, theta, z, gradient=True):
         """Temperature (P,), gradient (3, P) (zeros unless gradient) and truncation estimate
@@ -257,10 +246,7 @@ class KnownSeries:
         r, theta, z = (np.asarray(v, float).ravel() for v in (r, theta, z))
         if self.modes is None:
             return np.zeros(r.size), np.zeros((3, r.size)), np.zeros(r.size)
-        tail_r = r if self.wall else None
-        tail_z = None if self.wall else z
-        return self._grow_and_sum(lambda b: self._block_points(b, r, theta, z, gradient),
-                                  lambda: self._tail(tail_r, tail_z))
+        return self._grow_and_sum(lambda b: self._block_points(b, r, theta, z, gradient))
 
     def evaluate_grid(self, r, theta, z, gradient=False):
         """The same on the tensor grid of lines r x theta x z: temperature (R, T, Z),
@@ -270,13 +256,7 @@ class KnownSeries:
         shape = (r.size, theta.size, z.size)
         if self.modes is None:
             return np.zeros(shape), np.zeros((3,) + shape), np.zeros(shape)
-        if self.wall:
-            def tail_of():
-                return self._tail(r, None)[:, None, None]
-        else:
-            def tail_of():
-                return self._tail(None, z)[None, None, :]
-        t, g, tail = self._grow_and_sum(lambda b: self._block_grid(b, r, theta, z, gradient), tail_of)
+        t, g, tail = self._grow_and_sum(lambda b: self._block_grid(b, r, theta, z, gradient))
         return t, g, np.broadcast_to(tail, shape).copy()
 
     def powers(self):
