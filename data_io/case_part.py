@@ -15,11 +15,13 @@ end face on a long part, a top on a semi-infinite part).
 from __future__ import annotations
 
 import math
+import re
 
 from ..forward.errors import ForwardModelError
 from ..forward.geometry import Cylinder
 
 from .case_context import _Ctx
+from .limits import RADIUS_RANGE
 from .units import format_quantity, parse_quantity
 
 PART_KEYS = ("radius", "inner_radius", "height", "conductivity")
@@ -41,6 +43,14 @@ def parse_part(ctx: _Ctx, part: dict) -> tuple[Cylinder, dict[str, str]]:
     radius = _length(ctx, part, "radius")
     if not radius > 0:
         raise ctx.error("part.radius", f"the radius must be positive, got {part['radius']!r}")
+    lo, hi = RADIUS_RANGE
+    if not lo <= radius <= hi:
+        number = re.match(r"\s*([-+0-9.eE]+)", str(part["radius"]))
+        as_mm = float(number.group(1)) * 1e-3 if number else math.nan
+        hint = f": {as_mm * 1e3:g} mm would be" if lo <= as_mm <= hi else ""
+        raise ctx.error("part.radius", f"{part['radius']!r} is outside {format_quantity(lo, 'length')} to "
+                                       f"{format_quantity(hi, 'length', 'm')}, not a plausible part's radius "
+                                       f"(check the unit{hint})")
     inner = 0.0
     if "inner_radius" in part:
         inner = _length(ctx, part, "inner_radius")

@@ -17,9 +17,9 @@ import numpy as np
 import pandas as pd
 
 from .errors import InputError
-from .limits import MAX_TEMPERATURE_K
+from .limits import MAX_TEMPERATURE_K, implausible_mask
 from .plant_files import rows, table_text
-from .units import column_unit, convert, split_header, ureg
+from .units import column_unit, convert, plausibility, split_header, ureg
 
 # ---------------------------------------------------------------------------- results
 
@@ -208,6 +208,11 @@ def _numeric_column(raw: RawTable, c: Column) -> np.ndarray:
     res = out.copy()
     if np.any(ok):
         res[ok] = convert(out[ok], units, c.dimension)
+        bad = np.flatnonzero(ok & implausible_mask(res, c.dimension))
+        if bad.size:
+            i = int(bad[0])
+            raise InputError(f"{raw.cells[i][col]} {plausibility(float(res[i]), c.dimension)}", file=raw.path,
+                             where=raw.where(i, col))
     return res
 
 

@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+
 from .errors import InputError
 
 #: a layout, snapshot, points or profile file above this size is refused (logs are streamed)
@@ -30,6 +32,31 @@ MAX_MONTE_CARLO = 100_000
 MAX_EVERY = 10**12
 #: an absolute temperature above this is a logger code or a unit slip, not a reading [K]
 MAX_TEMPERATURE_K = 1e4
+#: plausible magnitudes of a value of each dimension in SI units, (smallest nonzero, largest):
+#: beyond them a number is a unit slip, a logger code or an overflow, and the series and the
+#: statistics would break down on it (common practice, no source).  Zero and signs are left to
+#: each key's own rule (a radius must be positive, a flux may be negative).  Lengths reach from
+#: a thermocouple's offset to a kilometre; conductivities from an aerogel's (~0.015 W/(m K),
+#: from memory) to diamond's (~2000, from memory); h below 0.01 W/(m^2 K) is an insulated face
+#: and above 1e7 a face held at the fluid's temperature; fluxes and powers up to a GW (per m^2).
+PLAUSIBLE = {
+    "length": (0.0, 1e3),
+    "angle": (0.0, 4.0 * math.pi),
+    "temperature_difference": (0.0, MAX_TEMPERATURE_K),
+    "conductivity": (1e-3, 1e4),
+    "heat_transfer_coefficient": (1e-2, 1e7),
+    "heat_flux": (0.0, 1e9),
+    "power": (0.0, 1e9),
+    "power_per_length": (0.0, 1e9),
+}
+#: what to write instead of a value beyond PLAUSIBLE, where something else is meant
+PLAUSIBLE_ADVICE = {
+    ("heat_transfer_coefficient", "below"): "with less, the face is insulated: write condition = \"insulated\"",
+    ("heat_transfer_coefficient", "above"): "with more, the face is at the fluid's temperature: write "
+                                            "condition = \"temperature\"",
+}
+#: a part's radius [m]: from a thin rod's to a large vessel's or kiln's (common practice, no source)
+RADIUS_RANGE = (5e-4, 10.0)
 #: zone names that are also names of whole-face figures (trend.csv columns, summary keys)
 RESERVED_ZONE_NAMES = ("mean", "min", "max", "nonuniformity", "total_power")
 
@@ -77,6 +104,32 @@ def check_case(case) -> None:
             raise InputError(f"zone names '{seen[key]}' and '{zone.name}' differ only in case or blanks; "
                              f"output columns would collide", file=case.path, where=f"zones[{i}].name")
         seen[key] = zone.name
+
+
+def _bounds(dimension: str) -> tuple[float, float] | None:
+    """(smallest nonzero, largest) plausible magnitude [SI] of `dimension`, or None (unbounded)."""
+    if dimension == "temperature":
+        return 0.0, MAX_TEMPERATURE_K
+    return PLAUSIBLE.get(dimension)
+
+
+def implausible_mask(values, dimension: str) -> np.ndarray:
+    """True where an SI value of `dimension` lies beyond its plausible magnitudes (PLAUSIBLE; a
+    temperature above MAX_TEMPERATURE_K); zero, NaN and unbounded dimensions are not judged."""
+    size = np.abs(np.asarray(values, dtype=float))
+    bounds = _bounds(dimension)
+    if bounds is None:
+        return np.zeros(size.shape, dtype=bool)
+    lo, hi = bounds
+    return (size > hi) | ((size < lo) & (size > 0))
+
+
+def implausible(value: float, dimension: str) -> tuple[str, float] | None:
+    """("above" or "below", the bound [SI]) where implausible_mask flags the value, else None."""
+    if not implausible_mask(value, dimension):
+        return None
+    lo, hi = _bounds(dimension)
+    return ("above", hi) if abs(value) > hi else ("below", lo)
 
 
 def check_temperature_k(value: float) -> bool:

@@ -17,6 +17,7 @@ import numpy as np
 import pint
 
 from .errors import InputError
+from .limits import PLAUSIBLE_ADVICE, implausible
 
 def _registry() -> pint.UnitRegistry:
     """pint's registry with its parsed definitions kept in the user's cache folder (pint's own
@@ -116,12 +117,39 @@ TEMPERATURE_ALIASES = {"c": "degC", "°c": "degC", "ºc": "degC", "deg c": "degC
                        "ºf": "degF", "deg f": "degF", "°k": "K"}
 
 
+#: how the trade writes conductivities and heat-transfer coefficients (blanks removed, lower
+#: case): "W/mK" is watts per metre kelvin there, never per millikelvin
+TRADE_ALIASES = {
+    "conductivity": {f"w/m{sep}k": "W/(m*K)" for sep in ("", "-", ".", "·", "*")} | {"w/(mk)": "W/(m*K)"},
+    "heat_transfer_coefficient": {f"w/m{sq}{sep}k": "W/(m^2*K)" for sq in ("2", "²", "^2")
+                                  for sep in ("", "-", ".", "·", "*")} | {"w/(m2k)": "W/(m^2*K)",
+                                                                         "w/(m²k)": "W/(m^2*K)"},
+}
+
+
 def _trade_unit(text: str, dimension: str) -> str:
-    """The pint name of a unit as written; temperature aliases (TEMPERATURE_ALIASES) resolved."""
+    """The pint name of a unit as written; the trade's spellings (TEMPERATURE_ALIASES,
+    TRADE_ALIASES) resolved."""
     text = str(text).strip()
     if dimension in ("temperature", "temperature_difference"):
         return TEMPERATURE_ALIASES.get(" ".join(text.lower().split()), text)
-    return text
+    return TRADE_ALIASES.get(dimension, {}).get("".join(text.lower().split()), text)
+
+
+def _case_hint(text: str, dimension: str) -> str:
+    """"; did you mean 'mm'?" when the unit written in another case measures `dimension`."""
+    dim = _dimension(dimension)
+    target = ureg.parse_units(dim.si_unit).dimensionality
+    for other in dict.fromkeys((text.lower(), text.upper(), text[:1].upper() + text[1:].lower())):
+        if other == text:
+            continue
+        try:
+            units = ureg.parse_units(_trade_unit(other, dimension))
+        except Exception:      # pint raises assorted errors on garbage  # noqa: BLE001
+            continue
+        if (_is_angle(units) if dimension == "angle" else units.dimensionality == target):
+            return f"; did you mean {other!r}?"
+    return ""
 
 
 def parse_unit(text: str, dimension: str, where: str, *, file=None):
@@ -136,7 +164,8 @@ def parse_unit(text: str, dimension: str, where: str, *, file=None):
     except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError,
             AttributeError, TypeError, ValueError, SyntaxError) as exc:
         raise InputError(f"unknown unit {str(text).strip()!r}; expected {dim.name} unit "
-                         f"such as {dim.example.split(' ', 1)[1]!r}", file=file, where=where) from exc
+                         f"such as {dim.example.split(' ', 1)[1]!r}{_case_hint(str(text).strip(), dimension)}",
+                         file=file, where=where) from exc
     except Exception as exc:  # pint raises assorted errors on garbage
         raise InputError(f"cannot read unit {str(text).strip()!r}; expected {dim.name} unit "
                          f"such as {dim.example.split(' ', 1)[1]!r}", file=file, where=where) from exc
@@ -147,7 +176,8 @@ def parse_unit(text: str, dimension: str, where: str, *, file=None):
         units.dimensionality == ureg.parse_units(dim.si_unit).dimensionality)
     if not ok:
         raise InputError(f"unit {str(text).strip()!r} is {_describe_units(units)}; expected "
-                         f"{dim.name} (e.g. {dim.example!r})", file=file, where=where)
+                         f"{dim.name} (e.g. {dim.example!r}){_case_hint(str(text).strip(), dimension)}",
+                         file=file, where=where)
     if dimension == "temperature" and _is_delta(units):
         raise InputError(f"unit {str(text).strip()!r} is a temperature difference; expected an "
                          f"absolute temperature such as 'degC', 'degF' or 'K'", file=file, where=where)
@@ -208,7 +238,31 @@ def parse_quantity(text, dimension: str, where: str, *, allow_infinite: bool = F
         raise InputError(f"{text!r} is not a finite value", file=file, where=where)
     if dimension == "temperature" and value <= 0.0:
         raise InputError(f"{text!r} is at or below absolute zero", file=file, where=where)
+    reason = plausibility(value, dimension, float(number))
+    if reason:
+        raise InputError(f"{text!r} {reason}", file=file, where=where)
     return value
+
+
+def plausibility(value_si: float, dimension: str, number: float | None = None) -> str | None:
+    """Why an SI value is not plausible for `dimension` (limits.implausible), in words with the
+    bound (in SI units, degrees for an angle) and, where the number as written would be
+    plausible in the dimension's display unit, a hint to that unit; None when it is plausible."""
+    found = implausible(value_si, dimension)
+    if found is None:
+        return None
+    side, bound = found
+    dim = _dimension(dimension)
+    unit = "deg" if dimension == "angle" else dim.si_unit
+    hint = ""
+    if number is not None and math.isfinite(number):
+        other = convert(number, ureg.parse_units(dim.display_unit), dimension)
+        if implausible(other, dimension) is None and other != value_si:
+            hint = f"; in {dim.display_unit} it would be plausible"
+    advice = PLAUSIBLE_ADVICE.get((dimension, side))
+    text = f"is {side} {format_quantity(bound, dimension, unit)}, not a plausible {dim.name.split(' ', 1)[1]} " \
+           + (f"({advice})" if advice else f"(check the unit{hint})")
+    return text
 
 
 def split_header(header: str) -> tuple[str, str | None]:

@@ -254,6 +254,10 @@ class LearnedPrior:
         K = problem.K
         nominal = np.zeros(K, dtype=bool) if nominal is None else np.asarray(nominal, dtype=bool)
         free = ~nominal
+        if not free.any():
+            raise InverseError("the unknown face's basis holds only its uniform level (fit.harmonics = 0 with "
+                               "fit.terms = 1), so the learned prior has no shape to weigh: give fit.terms of at "
+                               "least 2, or prior = \"fixed\" for a uniform level alone")
         ratios = AXISYMMETRIC_RATIOS if ratios is None else ratios
         dimensions = PROFILE_DIMENSIONS if dimensions is None else dimensions
         axis = axisymmetric_modes(basis)

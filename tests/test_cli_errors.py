@@ -114,6 +114,35 @@ CASES = {
     "bad tolerance": (files(), SIM + ["--tolerance", "-1"], "expected a positive number"),
     "unknown command": (files(), ["fitt", "case.toml"], "invalid choice"),
     "missing case file": (files(), ["check", "other.toml"], "other.toml: case file not found"),
+    "a basis of one uniform level": (files(**{"case.toml": sub('condition = "temperature"\nvalue = "25 degC"',
+                                                               'condition = "insulated"', FIT)
+                                              + "[fit]\nharmonics = 0\nterms = 1\n"}),
+                                     ["fit", "case.toml", "--out", "fitted"],
+                                     "holds only its uniform level (fit.harmonics = 0 with fit.terms = 1)"),
+    # values beyond plausible magnitudes (data_io.limits.PLAUSIBLE, common practice, no source):
+    # a unit slip or an overflow code, which the series and statistics would break down on
+    "radius in metres meant mm": (files(**{"case.toml": sub('"150 mm"', '"150 m"')}), SIM,
+                                  "part.radius: '150 m' is outside 0.5 mm to 10 m, not a plausible part's radius "
+                                  "(check the unit: 150 mm would be)"),
+    "huge height": (files(**{"case.toml": sub('"40 mm"', '"1e308 mm"')}), SIM,
+                    "part.height: '1e308 mm' is above 1000 m, not a plausible length"),
+    "huge conductivity": (files(**{"case.toml": sub('"16 W/(m*K)"', '"1e20 W/(m*K)"')}), SIM,
+                          "part.conductivity: '1e20 W/(m*K)' is above 10000 W/(m*K)"),
+    "tiny h": (files(**{"case.toml": sub('"12 W/(m^2*K)"', '"0.001 W/(m^2*K)"')}), SIM,
+               "faces.top.h: '0.001 W/(m^2*K)' is below 0.01 W/(m^2*K), not a plausible heat-transfer "
+               "coefficient (with less, the face is insulated"),
+    "overflow flux": (files(**{"case.toml": sub('"5 kW/m^2"', '"1e308 W/m^2"')}), SIM,
+                      "faces.bottom.value: '1e308 W/m^2' is above 1e+09 W/m^2"),
+    "hot ambient": (files(**{"case.toml": sub('ambient = "25 degC"', 'ambient = "1e5 degC"')}), SIM,
+                    "faces.top.ambient: '1e5 degC' is above 10000 K"),
+    "overflow in a profile": (files(**{"case.toml": sub('value = "25 degC"\n[sensors]', 'profile = "side.csv"\n[sensors]'),
+                                       "side.csv": PROFILE.replace("120,20,26", "120,20,1e308")}), SIM,
+                              "side.csv: line 3, column 'value [degC]': 1e308 is above 10000 K"),
+    "huge sigma": (files(**{"case.toml": FIT, "layout.csv": "sensor,r [mm],theta [deg],z [mm],sigma [K]\n"
+                                                            "TC1,0,0,10,0.1\nTC2,50,90,10,1e200\nTC3,100,180,5,0.1\n"}),
+                   CHECK, "layout.csv: line 3, column 'sigma [K]': 1e200 is above 10000 K"),
+    "angle of many turns": (files(**{"case.toml": FIT, "layout.csv": LAYOUT.replace("50,90,10", "50,3000,10")}), CHECK,
+                            "layout.csv: line 3, column 'theta [deg]': 3000 is above 720 deg"),
 }
 
 

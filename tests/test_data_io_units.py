@@ -29,6 +29,13 @@ from heatsight.data_io.units import column_unit, convert, format_quantity, parse
     ("-2.5e3 W/m^2", "heat_flux", -2500.0),
     ("120 deg", "angle", 2 * math.pi / 3),
     ("1.5 rad", "angle", 1.5),
+    # the trade's spellings: W/mK is watts per metre kelvin in a conductivity, not per millikelvin
+    ("16 W/mK", "conductivity", 16.0),
+    ("16 W/m-K", "conductivity", 16.0),
+    ("16 W/m·K", "conductivity", 16.0),
+    ("250 W/m²K", "heat_transfer_coefficient", 250.0),
+    ("250 W/m2K", "heat_transfer_coefficient", 250.0),
+    ("250 W/m^2-K", "heat_transfer_coefficient", 250.0),
 ])
 def test_parse_quantity_converts_to_si(text, dimension, expected):
     assert parse_quantity(text, dimension, "key") == pytest.approx(expected, rel=1e-12, abs=1e-12)
@@ -54,6 +61,17 @@ def test_infinite_height():
     ("infinite", "length", "cannot read"),
     (True, "length", "expected a length"),
     (["1 mm"], "length", "expected a length"),
+    # a unit in the wrong case: the right one named
+    ("313 k", "temperature", "did you mean 'K'?"),
+    ("150 MM", "length", "did you mean 'mm'?"),
+    # beyond plausible magnitudes (data_io.limits.PLAUSIBLE; common practice, no source)
+    ("1e308 mm", "length", "is above 1000 m, not a plausible length (check the unit)"),
+    ("1e-300 W/(m*K)", "conductivity", "is below 0.001 W/(m*K)"),
+    ("2e7 W/(m^2*K)", "heat_transfer_coefficient", "write condition = \"temperature\""),
+    ("1e300 W/m^2", "heat_flux", "is above 1e+09 W/m^2"),
+    ("1e5 degC", "temperature", "is above 10000 K"),
+    ("3000 deg", "angle", "is above 720 deg"),
+    ("5e9 W", "power", "is above 1e+09 W"),
 ])
 def test_parse_quantity_refuses(value, dimension, fragment):
     with pytest.raises(InputError) as err:
