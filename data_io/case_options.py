@@ -15,6 +15,7 @@ from ..inverse.problem import (CALIBRATABLE, LOSSES, MODELS, PRIORS, SMOOTHING_O
                                STRENGTH_METHODS, FitOptions, Zone, default_ranges)
 
 from .case_context import _Ctx, _show
+from .csv_in import check_printable
 from .limits import MAX_CANDIDATES
 from .units import format_quantity, parse_quantity
 
@@ -189,6 +190,7 @@ def _parse_zones(ctx: _Ctx, zones, cylinder: Cylinder, unknown: str | None) -> t
         name = ctx.text(zone, "name", f"{where}.name").strip()
         if not name:
             raise ctx.error(f"{where}.name", "empty zone name")
+        check_printable(name, ctx.path, f"{where}.name")      # it reaches the console, report and columns
         if name in names:
             raise ctx.error(f"{where}.name", f"zone name '{name}' is used twice")
         names.add(name)

@@ -186,6 +186,8 @@ def _run_check(args) -> int:
         if notes:
             lines.append("layout notes:")
             lines += [f"  - {n}" for n in notes]
+    if case.unknown_face is not None:
+        warnings += plan_and_zone_notes(case, layout)
     # the forward model's own set-up checks (well-posedness); a coarse tolerance keeps it quick
     try:
         case.build_model(CHECK_TOLERANCE)
@@ -210,6 +212,26 @@ def _run_check(args) -> int:
         _warn(w)
     current().answer("\n".join(lines), {"case": str(case.path), "lines": lines, "warnings": warnings})
     return 0
+
+
+def plan_and_zone_notes(case, layout) -> list[str]:
+    """What fit and plan would skip or refuse in a case that reads well: zones off the unknown
+    face or covering none of it (fit skips them), and [plan] rules that leave no position of
+    the candidate grid (plan refuses)."""
+    from ..inverse.errors import InverseError
+    from ..inverse.plan_rules import candidate_grid, drill_face
+    from ..inverse.result import valid_zones
+
+    notes: list[str] = []
+    valid_zones(case.zones, case.unknown_face, case.cylinder, notes)
+    f = None if layout is None else layout.frame
+    existing = None if f is None else tuple(f[k].to_numpy(float) for k in ("r", "theta", "z"))
+    try:
+        candidate_grid(case.plan.rules, drill_face(case.plan.rules, case.unknown_face, case.cylinder),
+                       case.cylinder, existing)
+    except InverseError as exc:
+        notes.append(f"{case.path}: plan would refuse: {exc}")
+    return notes
 
 
 def _add_check(sub, help) -> None:

@@ -52,6 +52,14 @@ EXAMPLES = 3
 _OFFSET = re.compile(r"(?:Z|[+-]\d\d(?::?\d\d)?)\s*$", re.IGNORECASE)
 
 
+def _who(names, every) -> str:
+    """"sensor 'A' has" / "3 sensors (A, B, C) have" / "all 20 sensors (A, ..., ...) have"."""
+    if len(names) == 1:
+        return f"sensor '{names[0]}' has"
+    return (f"{'all ' if len(names) == len(every) else ''}{len(names)} sensors "
+            f"({', '.join(names[:6])}{', ...' if len(names) > 6 else ''}) have")
+
+
 def _plural(n: int, word: str) -> str:
     return f"{n} {word}{'' if n == 1 else 's'}"
 
@@ -345,6 +353,7 @@ class LogReader:
         cols, out = self.cols, []
         path = cols.path if with_path else "the log"
         empty: dict = {}                    # (count, first line, last line) -> sensors
+        none: list = []                     # sensors without one valid reading
         for i, s in enumerate(cols.sensors):
             n_bad = int(self.out_of_range[i])
             if n_bad:
@@ -356,14 +365,14 @@ class LogReader:
                            f"treated as missing")
             n_missing = int(self.missing[i]) - n_bad
             if self.rows and int(self.missing[i]) == self.rows:
-                out.append(f"{path}: sensor '{s}' has no valid reading")
+                none.append(s)
             elif n_missing > 0:
                 empty.setdefault((n_missing, *map(int, self._empty_lines[i])), []).append(s)
+        if none:
+            out.append(f"{path}: {_who(none, cols.sensors)} no valid reading")
         for (n_missing, first, last), names in empty.items():
             where = f"line {first}" if first == last else f"lines {first} to {last}"
-            who = (f"sensor '{names[0]}' has" if len(names) == 1 else
-                   f"{'all ' if len(names) == len(cols.sensors) else ''}{len(names)} sensors "
-                   f"({', '.join(names[:6])}{', ...' if len(names) > 6 else ''}) have")
+            who = _who(names, cols.sensors)
             out.append(f"{path}: {who} {_plural(n_missing, 'empty, NaN or inf reading')}"
                        f"{' each' if len(names) > 1 else ''} ({where}; missing)")
         if self.gaps:

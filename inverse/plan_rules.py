@@ -291,5 +291,8 @@ def candidate_grid(rules: PlanRules, face: str, cylinder, existing=None):
         r, z = S, L - D
     else:
         r, z = S, D
-    ok, _ = admissible(rules, face, cylinder, r, TH, z, existing)
+    ok, why = admissible(rules, face, cylinder, r, TH, z, existing)
+    if not ok.any():
+        raise InverseError(f"none of the {ok.size} positions of the [plan] grid meets the [plan] rules "
+                           f"({'; '.join(sorted(set(why)))}): relax them")
     return r[ok], TH[ok], z[ok]

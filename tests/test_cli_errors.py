@@ -119,6 +119,8 @@ CASES = {
                                               + "[fit]\nharmonics = 0\nterms = 1\n"}),
                                      ["fit", "case.toml", "--out", "fitted"],
                                      "holds only its uniform level (fit.harmonics = 0 with fit.terms = 1)"),
+    "zone name with a newline": (files(**{"case.toml": FIT + '[[zones]]\nname = "mid\\ndle"\nr = ["0 mm", "50 mm"]\n'}),
+                                 CHECK, "zones[1].name: holds the control character '\\n'"),
     # values beyond plausible magnitudes (data_io.limits.PLAUSIBLE, common practice, no source):
     # a unit slip or an overflow code, which the series and statistics would break down on
     "radius in metres meant mm": (files(**{"case.toml": sub('"150 mm"', '"150 m"')}), SIM,

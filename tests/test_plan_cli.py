@@ -142,8 +142,11 @@ def test_bad_plan_table(tmp_path, capsys, monkeypatch):
                              "the depth range ends at 38 mm (the part's height less [plan] face_distance), below "
                              "50 mm ([plan] depth_min)"),
                             ('\n[plan]\nexpected_variation = "2 K"\n', "plan.expected_variation"),
-                            ('\n[plan]\nspacng = "5 mm"\n', "did you mean 'spacing'")):
-        folder = tmp_path / fragment.split("'")[0].strip().replace(" ", "_")
+                            ('\n[plan]\nspacng = "5 mm"\n', "did you mean 'spacing'"),
+                            ('\n[plan]\nexclude_theta = [["0 deg", "360 deg"]]\n',
+                             "none of the 1152 positions of the [plan] grid meets the [plan] rules (in an "
+                             "excluded angular range): relax them")):
+        folder = tmp_path / fragment.split("'")[0].strip().replace(" ", "_")[:40]
         folder.mkdir()
         make_folder(folder, plan=table)
         monkeypatch.chdir(folder)
@@ -151,6 +154,20 @@ def test_bad_plan_table(tmp_path, capsys, monkeypatch):
         err = capsys.readouterr().err
         assert code == 2 and fragment in err and err.count("\n") == 1, err
         assert not (folder / "out").exists()
+
+
+def test_check_says_what_fit_skips_and_plan_refuses(tmp_path, capsys, monkeypatch):
+    """A zone on a known face (fit skips it) and [plan] rules that leave no grid position (plan
+    refuses): check read both without a word and said the case was ready."""
+    folder = make_folder(tmp_path, plan='\n[plan]\nexclude_theta = [["0 deg", "360 deg"]]\n')
+    text = (folder / "platen.toml").read_text()
+    (folder / "platen.toml").write_text(text.replace("[[zones]]", '[[zones]]\nname = "lid"\nface = "top"\n'
+                                                                  'r = ["0 mm", "50 mm"]\n\n[[zones]]', 1))
+    monkeypatch.chdir(folder)
+    assert main(["check", "platen.toml"]) == 0
+    err = capsys.readouterr().err
+    assert "zone lid is on the top face, not the estimated bottom face; skipped" in err
+    assert "plan would refuse: none of the 1152 positions of the [plan] grid meets the [plan] rules" in err
 
 
 def test_holes_through_the_estimated_face_are_questioned(tmp_path, capsys, monkeypatch):

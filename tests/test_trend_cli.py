@@ -281,6 +281,23 @@ def test_extra_and_missing_columns_and_gaps_are_warnings(tmp_path, monkeypatch, 
     assert "warning: " in cap.err and "warning: " not in cap.out    # issue 10: warnings go to stderr
 
 
+def test_sensors_without_any_reading_are_one_warning(tmp_path, monkeypatch, capsys):
+    """Three columns that are empty from start to end: one line naming them (a log whose cells
+    were all empty gave one line per sensor, twenty on one line)."""
+    folder = make_folder(tmp_path)
+    _, lay, t_nom, _, _ = platen()
+    t = np.arange(0, 3600, DT)
+    rng = np.random.default_rng(4)
+    frame = pd.DataFrame(t_nom[None, :] - 273.15 + rng.normal(0, 0.05, (t.size, t_nom.size)), columns=list(lay.index))
+    frame[["TC03", "TC05", "TC11"]] = np.nan
+    frame.insert(0, "time [s]", t)
+    frame.to_csv(folder / "log.csv", index=False, float_format="%.4f")
+    code, cap = trend(folder, monkeypatch, capsys, "--log", "log.csv", "--out", "res")
+    assert code == 0, cap.err
+    warnings = json.loads((folder / "res" / "summary.json").read_text())["warnings"]
+    assert [w for w in warnings if "no valid reading" in w] == ["log.csv: 3 sensors (TC03, TC05, TC11) have no valid reading"]
+
+
 def test_refusals_before_reading(tmp_path, monkeypatch, capsys):
     folder = make_folder(tmp_path)
     code, cap = trend(folder, monkeypatch, capsys)                  # the case names a snapshot
