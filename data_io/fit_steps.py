@@ -50,7 +50,7 @@ def log_not_snapshot(path) -> str:
     """Why fit and plan refuse a file that reads as a log, with its header as found."""
     from .log_header import header_names
 
-    names = header_names(path)
+    names = header_names(path, as_written=True)
     return (f"reads as a log (its first column '{names[0]}' the time, then one column per sensor: "
             f"{', '.join(names[1:4])}{', ...' if len(names) > 4 else ''}); fit and plan take a snapshot with "
             f"columns sensor, temperature (follow a log with heatsight trend)")

@@ -73,15 +73,17 @@ def _header_line(path: Path) -> tuple[int, list[str], TextFormat]:
     raise InputError("the file is empty; expected a header line and rows", file=path)
 
 
-def header_names(path) -> list[str]:
-    """Lower-cased column names (units dropped) of a table's header line, read alone."""
+def header_names(path, as_written: bool = False) -> list[str]:
+    """Column names (units dropped) of a table's header line, read alone: lower-cased for
+    matching, or as written (for messages)."""
     _, cells, _ = _header_line(Path(path))
     out = []
     for cell in cells:
         try:
-            out.append(split_header(cell)[0].lower())
+            name = split_header(cell)[0]
         except ValueError:
-            out.append(cell.lower())
+            name = cell
+        out.append(name if as_written else name.lower())
     return out
 
 

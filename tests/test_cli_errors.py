@@ -119,6 +119,10 @@ CASES = {
                                               + "[fit]\nharmonics = 0\nterms = 1\n"}),
                                      ["fit", "case.toml", "--out", "fitted"],
                                      "holds only its uniform level (fit.harmonics = 0 with fit.terms = 1)"),
+    "a log given to fit": (files(**{"case.toml": FIT, "readings.csv": "time,TC1,TC2,TC3\n0,80,81,40\n1,80,81,40\n"}),
+                           ["fit", "case.toml", "--out", "fitted"],
+                           "reads as a log (its first column 'time' the time, then one column per sensor: TC1, TC2, "
+                           "TC3)"),
     "zone name with a newline": (files(**{"case.toml": FIT + '[[zones]]\nname = "mid\\ndle"\nr = ["0 mm", "50 mm"]\n'}),
                                  CHECK, "zones[1].name: holds the control character '\\n'"),
     # values beyond plausible magnitudes (data_io.limits.PLAUSIBLE, common practice, no source):

@@ -309,6 +309,10 @@ def test_refusals_before_reading(tmp_path, monkeypatch, capsys):
     assert code == 2 and "not empty" in cap.err and (folder / "busy" / "note.txt").read_text() == "keep me"
     code, cap = trend(folder, monkeypatch, capsys, "--log", "missing.csv")
     assert code == 2 and "missing.csv: file not found" in cap.err
+    (folder / "one.csv").write_text(LOG_HEAD + _rows(range(0, 10, 10)))     # one row: not a shorter window
+    for every in ([], ["--every", "1"]):
+        code, cap = trend(folder, monkeypatch, capsys, "--log", "one.csv", "--out", "one", *every)
+        assert code == 2 and "the log has 1 row; a trend needs at least 3 in one window" in cap.err, cap.err
 
 
 def test_every_nth_row_with_a_sensor_silent_in_the_reference_window(tmp_path):
