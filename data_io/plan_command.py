@@ -259,6 +259,9 @@ def _run_plan(args) -> int:
     check_case(case)
     targets = [t for group in (args.target or []) for t in group.split(",") if t.strip()]
     targets = [t.strip() for t in targets]
+    if args.target and not targets:
+        raise InputError("--target names nothing; give targets such as 'zones,power' (or leave it out for "
+                         "the default)")
     cand = Path(args.candidates) if args.candidates else None
     if cand is not None and not cand.is_file():
         raise InputError("candidates file not found", file=cand)

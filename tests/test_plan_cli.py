@@ -116,6 +116,7 @@ BAD = {
     "add zero": (["--add", "0"], "expected a whole number >= 1"),
     "add negative": (["--add", "-1"], "expected a whole number >= 1, got '-1'"),
     "unknown target zone": (["--target", "outer 90-120"], "unknown target 'outer 90-120'"),
+    "empty target": (["--target", " , "], "--target names nothing"),
 }
 
 
