@@ -144,10 +144,16 @@ def open_log(path, layout) -> LogColumns:
     if absent:
         warnings.append(f"{path}: no column for sensor{'s' if len(absent) > 1 else ''} {', '.join(absent)} "
                         f"of the layout; the trend uses the others")
-    from .log_parquet import is_parquet
+    from .log_parquet import boolean_columns, is_parquet
 
+    parquet = is_parquet(path)
+    flags = boolean_columns(path) & set(positions) if parquet else set()
+    if flags:
+        col = min(flags)
+        raise InputError(f"column '{headers[col]}' holds true/false values, not temperatures (a sensor of the "
+                         f"layout's name on an alarm or status channel?)", file=path, where=where)
     return LogColumns(path, number, headers, headers[0], time_scale, sensors, positions, np.array(scale),
-                      np.array(shift), ignored, absent, warnings, fmt, parquet=is_parquet(path))
+                      np.array(shift), ignored, absent, warnings, fmt, parquet=parquet)
 
 
 def _did_you_mean(name, known) -> str:

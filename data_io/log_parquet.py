@@ -43,6 +43,14 @@ def header(path) -> list[str]:
     return [str(n) for n in _open(path).schema_arrow.names]
 
 
+def boolean_columns(path) -> set[int]:
+    """Positions of the columns whose Parquet type is boolean (true/false flags, not numbers)."""
+    import pyarrow as pa
+
+    schema = _open(path).schema_arrow
+    return {i for i, f in enumerate(schema) if pa.types.is_boolean(f.type)}
+
+
 def row_count(path) -> int:
     """Rows of a Parquet log, from its footer."""
     return int(_open(path).metadata.num_rows)

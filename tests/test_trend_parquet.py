@@ -81,6 +81,25 @@ def test_parquet_timestamps_are_times(folder, tmp_path):
     assert rows["start_s"].iloc[0] >= 0 and len(rows) == s["trend_rows"]
 
 
+def test_a_boolean_sensor_column_is_refused_and_an_ignored_one_kept(folder, tmp_path):
+    """A Parquet column of true/false under a sensor's name was read as temperatures of 0 and
+    1 degC; a flag column that is not a sensor of the layout is ignored as before."""
+    frame = pd.read_csv(folder / "log.csv").head(400)
+    frame["alarm"] = frame["TC01"] > 1e9
+    pq.write_table(pa.Table.from_pandas(frame, preserve_index=False), tmp_path / "ok.parquet")
+    from heatsight.data_io.case import load_case
+    from heatsight.data_io.log_header import open_log
+    from heatsight.data_io.tables import read_layout
+
+    case = load_case(folder / "platen.toml", purpose="fit")
+    layout = read_layout(case.sensors.layout, case.cylinder)
+    assert "alarm" in open_log(tmp_path / "ok.parquet", layout).ignored
+    frame["TC03"] = frame["TC03"] > 100.0
+    pq.write_table(pa.Table.from_pandas(frame, preserve_index=False), tmp_path / "flags.parquet")
+    with pytest.raises(InputError, match="column 'TC03' holds true/false values, not temperatures"):
+        open_log(tmp_path / "flags.parquet", layout)
+
+
 def test_trend_parquet_output_holds_the_csv_rows(folder):
     run_trend(folder / "platen.toml", log=folder / "log.csv", out=folder / "c", progress=False, echo=_quiet)
     s, out = run_trend(folder / "platen.toml", log=folder / "log.csv", out=folder / "p", progress=False,
