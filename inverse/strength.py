@@ -61,6 +61,19 @@ def default_alphas(problem: LinearGaussianProblem, num: int = 200, margin: float
     return np.geomspace(smin**2 / margin, smax**2 * margin, int(num))
 
 
+def _fixed_notes(alpha: float, grid: np.ndarray) -> list[str]:
+    """A fixed strength beyond the range where it shapes the answer (`default_alphas`' grid:
+    below it the prior holds no mode back, above it the readings move none)."""
+    if alpha < grid[0]:
+        return [f"the fixed strength {alpha:.3g} is below {grid[0]:.3g}, where the prior still holds back any "
+                f"mode: the answer is not regularized (the readings' noise amplified, as its bands show); "
+                f"leave strength = \"auto\" for the evidence's choice"]
+    if alpha > grid[-1]:
+        return [f"the fixed strength {alpha:.3g} is above {grid[-1]:.3g}, where the readings still move any mode: "
+                f"the answer is the prior's mean; leave strength = \"auto\" for the evidence's choice"]
+    return []
+
+
 #: a leading singular value more than this factor above the next belongs to a nearly
 #: unregularized direction (e.g. the fit's nominal level, whose prior is nearly flat)
 FREE_GAP = 100.0
@@ -133,7 +146,7 @@ def choose_strength(problem: LinearGaussianProblem, method="evidence", alphas=No
         alpha = float(method)
         if not (np.isfinite(alpha) and alpha > 0):
             raise InverseError(f"a fixed smoothing strength must be a positive number, got {method!r}")
-        return pack(alpha, "fixed", "log_evidence", problem.log_evidence(grid))
+        return pack(alpha, "fixed", "log_evidence", problem.log_evidence(grid), warnings=_fixed_notes(alpha, grid))
     name = method.strip().lower()
     if name == "auto":
         name = "evidence"

@@ -114,6 +114,10 @@ def test_fixed_auto_unknown_and_grid_edge():
         choose_strength(prob, "bayes")
     with pytest.raises(InverseError, match="positive"):
         choose_strength(prob, -1.0)
+    grid = default_alphas(prob)       # a fixed strength beyond the range where it shapes the answer is said
+    low, high = choose_strength(prob, grid[0] * 1e-3), choose_strength(prob, grid[-1] * 1e3)
+    assert "the answer is not regularized" in low.warnings[0] and "the prior's mean" in high.warnings[0]
+    assert choose_strength(prob, float(np.sqrt(grid[0] * grid[-1]))).warnings == ()
     best = choose_strength(prob, "evidence").alpha
     edge = choose_strength(prob, "evidence", alphas=np.geomspace(best * 1e3, best * 1e5, 20))
     assert edge.alpha == pytest.approx(best * 1e3) and "smallest alpha" in edge.warnings[0]
