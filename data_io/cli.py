@@ -230,7 +230,7 @@ def plan_and_zone_notes(case, layout) -> list[str]:
         candidate_grid(case.plan.rules, drill_face(case.plan.rules, case.unknown_face, case.cylinder),
                        case.cylinder, existing)
     except InverseError as exc:
-        notes.append(f"{case.path}: plan would refuse: {exc}")
+        notes.append(f"{case.path}: plan's own grid (without --candidates) holds no position: {exc}")
     return notes
 
 

@@ -51,12 +51,13 @@ PLAUSIBLE = {
 }
 #: what to write instead of a value beyond PLAUSIBLE, where something else is meant
 PLAUSIBLE_ADVICE = {
-    ("heat_transfer_coefficient", "below"): "with less, the face is insulated: write condition = \"insulated\"",
+    ("heat_transfer_coefficient", "below"): "with less, the face is insulated: write condition = \"insulated\", "
+                                            "and let another face hold the temperature level",
     ("heat_transfer_coefficient", "above"): "with more, the face is at the fluid's temperature: write "
                                             "condition = \"temperature\"",
 }
-#: a part's radius [m]: from a thin rod's to a large vessel's or kiln's (common practice, no source)
-RADIUS_RANGE = (5e-4, 10.0)
+#: a part's radius [m]: from a thin rod's to a storage tank's floor (common practice, no source)
+RADIUS_RANGE = (5e-4, 100.0)
 #: zone names that are also names of whole-face figures (trend.csv columns, summary keys)
 RESERVED_ZONE_NAMES = ("mean", "min", "max", "nonuniformity", "total_power")
 

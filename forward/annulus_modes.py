@@ -54,6 +54,13 @@ class AnnulusEndModes(EndFaceModes):
         radial = self.radial if whole else self._radial_of(index)
         return radial.values(np.asarray(s, float).ravel())[0]
 
+    def tail_envelopes(self, r, z, index):
+        """Envelopes of the modes `index` ((R, K_i), (Z, K_i); see EndFaceModes): radial 1,
+        the bound the estimate has always taken for a wall-to-wall radial function; axial
+        |Zhat(zeta(z))|."""
+        zh, _ = self.axial(self.zeta(z))
+        return np.ones((np.size(r), np.size(self.m[index]))), np.abs(zh[:, index])
+
     def fields(self, r, theta, z, gradient=True):
         r = np.asarray(r, float).ravel()
         th, dth = _theta_parts(self.m, self.is_sin, np.asarray(theta, float).ravel())

@@ -224,3 +224,26 @@ def ive_orders(max_order: int, x) -> np.ndarray:
         for m in range(top + 1):
             out[m][weak] = special.ive(m, xs)
     return out
+
+
+#: |J_m(x)| <= LANDAU_B m^(-1/3) for every x >= 0 and order m >= 1 (Landau's bound, from
+#: memory; tests/test_forward_truncation.py checks it against scipy for m = 1..64)
+LANDAU_B = 0.674886
+
+
+def besselj_envelope(m, x) -> np.ndarray:
+    """An upper bound of sup_{x' >= x} |J_m(x')| for x > 0, non-increasing in x, for orders
+    m >= 0 and x >= 0 broadcast together (at x = 0, |J_m(0)|: a series' terms at r = 0 all
+    have x = 0): for x > m, sqrt(J_m^2 + x^2 J_m'^2 / (x^2 - m^2)), which
+    decreases on (m, inf) (Sonine's theorem for the Bessel equation) and equals |J_m| at its
+    maxima; elsewhere, and wherever it is larger, the bound of J_m's largest value, 1 (m = 0)
+    or LANDAU_B m^(-1/3)."""
+    m = np.asarray(m, dtype=np.intp)
+    x = np.asarray(x, dtype=float)
+    jm1, j, jp1 = besselj_triplet(m, x)
+    slope = 0.5 * (jm1 - jp1)
+    top = np.where(m == 0, 1.0, np.minimum(1.0, LANDAU_B / np.cbrt(np.maximum(m, 1))))
+    beyond = x > m
+    gain = np.where(beyond, x ** 2 / np.where(beyond, x ** 2 - m ** 2, 1.0), 0.0)
+    out = np.where(beyond, np.minimum(top, np.sqrt(j ** 2 + gain * slope ** 2)), top)
+    return np.where((x == 0) & (m > 0), 0.0, out)

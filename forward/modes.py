@@ -19,7 +19,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .bessel import besselj, besselj_triplet, ive_orders
+from .bessel import besselj, besselj_envelope, besselj_triplet, ive_orders
 from .errors import IllPosedError
 from .faces import EndCondition
 from .roots import pruefer_phase
@@ -162,6 +162,17 @@ class EndFaceModes:
     def radial_values(self, s, index=slice(None)):
         """Radial factors J_m(kappa r) of the modes `index` at radii s [m], (S, K_index)."""
         return besselj(self.m[index], np.multiply.outer(np.asarray(s, float), self.kappa[index]))
+
+    def tail_envelopes(self, r, z, index):
+        """Envelopes of the modes `index` at radii r and heights z, ((R, K_i), (Z, K_i)), each
+        at least the size of that factor for every later term at the same point (the
+        truncation estimate of series.KnownSeries sums them over a harmonic's last terms):
+        radial bessel.besselj_envelope(m, kappa r) (where |J_m| still grows along the terms,
+        near the axis, the bound of its largest value); axial |Zhat(zeta(z))|, which falls
+        with kappa at every z."""
+        radial = besselj_envelope(self.m[index], np.multiply.outer(np.asarray(r, float), self.kappa[index]))
+        zh, _ = self.axial(self.zeta(z))
+        return radial, np.abs(zh[:, index])
 
     def area_integrals(self):
         """integral over the face of Phi dA [m^2] (m = 0 cos only; zero otherwise):
@@ -332,6 +343,13 @@ class SideModes:
         if not gradient:
             return q / b, None, None, zz, None
         return q / b, dq / b, mq_r / b, zz, dzz
+
+    def tail_envelopes(self, r, z, index):
+        """Envelopes of the modes `index` ((R, K_i), (Z, K_i); see EndFaceModes): radial
+        |q(r) / B|, which falls with beta at every r inside the wall; axial 1 (|sin| <= 1: at a
+        height near a held end sin(mu z / L) still grows along the terms)."""
+        q, _, _ = self._radial(np.asarray(r, float))
+        return np.abs(q[:, index] / self.norm_b[index]), np.ones((np.size(z), np.size(self.m[index])))
 
     def axial_norms(self):
         """integral_0^L Z^2 dz = L [1/2 - (sin(2 mu + 2 phi) - sin(2 phi)) / (4 mu)] [m]."""

@@ -7,9 +7,10 @@ Side:      g(theta, z) = sum_mn c_mn Theta_m(theta) Z_n(z),
 f_m, g_m are the azimuthal harmonic amplitudes (FFT on equally spaced angles); the
 radial / axial integrals use Gauss-Legendre rules with enough nodes to resolve the
 highest eigenfunction.  The number of terms doubles until the truncation estimate at
-the requested points, sum over the last half of the terms of |c| |radial factor(r)|
-|axial factor(z)| (the terms' own sizes at the point's radius and height, with
-|Theta_m| <= 1), is below tolerance x the data's temperature scale, or the cap is reached;
+the requested points, sum over the last half of the terms of |c| x radial envelope(r) x
+axial envelope(z) (modes.tail_envelopes: at least the size of the factor for every later
+term at that point; |Theta_m| <= 1), is below tolerance x the data's temperature scale, or
+the cap is reached;
 harmonics below tolerance x the face's own largest datum are left out (both relative, so
 any data scale is served alike).
 `evaluate_grid` sums on a tensor grid of lines (forward/grid.py); `evaluate(...,
@@ -188,17 +189,18 @@ class KnownSeries:
         return n_index >= self.n_terms // 2
 
     @staticmethod
-    def _tail_lines(rad, ax, coef, last):
-        """Truncation estimate on grid lines (R, Z): sum over the terms `last` of
-        |c| |radial factor(r)| |axial factor(z)| (|Theta| <= 1) [K]."""
+    def _tail_lines(modes, coef, last, r, z):
+        """Truncation estimate on grid lines (R, Z) [K]: sum over the terms `last` of
+        |c| x the radial and axial envelopes (modes.tail_envelopes; |Theta| <= 1)."""
         if not last.any():
-            return np.zeros((rad.shape[0], ax.shape[0]))
-        return np.abs(rad[:, last]) @ (np.abs(coef[last])[:, None] * np.abs(ax[:, last]).T)
+            return np.zeros((np.size(r), np.size(z)))
+        index = np.flatnonzero(last)
+        rad, ax = modes.tail_envelopes(r, z, index)
+        return rad @ (np.abs(coef[index])[:, None] * ax.T)
 
     def _block_points(self, block, r, theta, z, gradient):
         """Temperature (P,), gradient (3, P) and truncation estimate (P,) at points, in chunks;
-        the estimate from the radial and axial factors at each chunk's distinct radii and
-        heights."""
+        the estimate from the envelopes at each chunk's distinct radii and heights."""
         modes, coef, n_index = block
         last = self._last_half(n_index)
         P = r.size
@@ -215,18 +217,16 @@ class KnownSeries:
             if last.any():
                 radii, ri = np.unique(r[sl], return_inverse=True)
                 heights, zi = np.unique(z[sl], return_inverse=True)
-                rad, _, _, ax, _ = modes.grid_factors(radii, heights, False)
-                size = np.abs(rad[:, last])[ri.ravel()] * np.abs(ax[:, last])[zi.ravel()]
-                tail[sl] = size @ np.abs(coef[last])
+                rad, ax = modes.tail_envelopes(radii, heights, np.flatnonzero(last))
+                tail[sl] = (rad[ri.ravel()] * ax[zi.ravel()]) @ np.abs(coef[last])
         return t, g, tail
 
     def _block_grid(self, block, r, theta, z, gradient):
         """The same on the grid lines r x theta x z: (R, T, Z), (3, R, T, Z) and the estimate
-        (R, 1, Z), from the factors the sum uses."""
+        (R, 1, Z), the envelopes once per line."""
         modes, coef, n_index = block
-        factors = modes.grid_factors(r, z, gradient)
-        t, g = grid_field(coef, modes.m, modes.is_sin, factors, theta, gradient)
-        tail = self._tail_lines(factors[0], factors[3], coef, self._last_half(n_index))
+        t, g = grid_field(coef, modes.m, modes.is_sin, modes.grid_factors(r, z, gradient), theta, gradient)
+        tail = self._tail_lines(modes, coef, self._last_half(n_index), r, z)
         return t, (g if gradient else np.zeros((3,) + t.shape)), tail[:, None, :]
 
     def _grow_and_sum(self, block_sum):

@@ -255,9 +255,9 @@ class LearnedPrior:
         nominal = np.zeros(K, dtype=bool) if nominal is None else np.asarray(nominal, dtype=bool)
         free = ~nominal
         if not free.any():
-            raise InverseError("the unknown face's basis holds only its uniform level (fit.harmonics = 0 with "
-                               "fit.terms = 1), so the learned prior has no shape to weigh: give fit.terms of at "
-                               "least 2, or prior = \"fixed\" for a uniform level alone")
+            raise InverseError("the unknown face's basis holds no mode beside its nominal level (as with "
+                               "fit.harmonics = 0 and fit.terms = 1), so the learned prior has no shape to weigh: "
+                               "give more fit.terms, or prior = \"fixed\" for the level alone")
         ratios = AXISYMMETRIC_RATIOS if ratios is None else ratios
         dimensions = PROFILE_DIMENSIONS if dimensions is None else dimensions
         axis = axisymmetric_modes(basis)

@@ -159,15 +159,15 @@ def no_steady_window(stats, drift_limit: float, window: float, names) -> TrendEr
         span = stats.end.max() - stats.start.min() if stats.size else 0
         rows = int(stats.n_rows.sum()) if stats.size else 0
         step = span / (rows - 1) if rows > 1 else math.inf
+        if rows < MIN_SAMPLES:
+            return TrendError(f"the log has {rows} row{'' if rows == 1 else 's'}; a trend needs at least "
+                              f"{MIN_SAMPLES} in one window of {window:g} s (its reference), and more after it "
+                              f"to follow (fit takes a single snapshot)")
         if span >= window and step > window / (MIN_SAMPLES - 1) / 1.001:
             # the rows lie too far apart for MIN_SAMPLES of them in one window
             longer = float(f"{MIN_SAMPLES * step:.2g}")
             return TrendError(f"the log's rows are about {step:.3g} s apart, too far apart for {MIN_SAMPLES} of them "
                               f"in a window of {window:g} s; give a longer --window (at least {longer:g} s)")
-        if rows < MIN_SAMPLES:
-            return TrendError(f"the log has {rows} row{'' if rows == 1 else 's'}; a trend needs at least "
-                              f"{MIN_SAMPLES} in one window of {window:g} s (its reference), and more after it "
-                              f"to follow (fit takes a single snapshot)")
         return TrendError(f"no complete window of {window:g} s in the log (it spans {span:.6g} s); "
                           f"give a shorter --window")
     md = np.where(complete, stats.max_drift(), np.inf)

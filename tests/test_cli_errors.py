@@ -118,7 +118,7 @@ CASES = {
                                                                'condition = "insulated"', FIT)
                                               + "[fit]\nharmonics = 0\nterms = 1\n"}),
                                      ["fit", "case.toml", "--out", "fitted"],
-                                     "holds only its uniform level (fit.harmonics = 0 with fit.terms = 1)"),
+                                     "holds no mode beside its nominal level (as with fit.harmonics = 0 and fit.terms = 1)"),
     "a log given to fit": (files(**{"case.toml": FIT, "readings.csv": "time,TC1,TC2,TC3\n0,80,81,40\n1,80,81,40\n"}),
                            ["fit", "case.toml", "--out", "fitted"],
                            "reads as a log (its first column 'time' the time, then one column per sensor: TC1, TC2, "
@@ -128,7 +128,7 @@ CASES = {
     # values beyond plausible magnitudes (data_io.limits.PLAUSIBLE, common practice, no source):
     # a unit slip or an overflow code, which the series and statistics would break down on
     "radius in metres meant mm": (files(**{"case.toml": sub('"150 mm"', '"150 m"')}), SIM,
-                                  "part.radius: '150 m' is outside 0.5 mm to 10 m, not a plausible part's radius "
+                                  "part.radius: '150 m' is outside 0.5 mm to 100 m, not a plausible part's radius "
                                   "(check the unit: 150 mm would be)"),
     "huge height": (files(**{"case.toml": sub('"40 mm"', '"1e308 mm"')}), SIM,
                     "part.height: '1e308 mm' is above 1000 m, not a plausible length"),

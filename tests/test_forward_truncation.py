@@ -12,8 +12,10 @@ what is checked), not an outside value.
 
 import numpy as np
 import pytest
+from scipy import special
 
 from heatsight.forward import Convection, Cylinder, CylinderModel, Flux, Insulated, Temperature
+from heatsight.forward.bessel import LANDAU_B, besselj_envelope
 from heatsight.forward.series import KnownSeries
 
 A, L, K = 0.1, 0.05, 20.0
@@ -71,12 +73,50 @@ def test_estimate_bounds_the_truncation_error(name):
         err = np.abs(t - t_ref)
         assert np.all(err <= estimate + 1e-10 * np.ptp(t_ref)), (tol, n)
         if face == "bottom":
-            # the bound it replaced took |J_m| <= 1: 13-30x looser here, and the series
-            # went on to its cap of 1024 terms at tol = 1e-4
+            # the bound it replaced took |J_m| <= 1: several times looser inside the face
             last = series._n_index >= n // 2
             _, _, _, ax, _ = series.modes.grid_factors(r, z, False)
             loose = np.abs(ax[:, last]) @ np.abs(series.coef[last])
-            assert estimate.max() <= 0.1 * loose.max(), (tol, n)
+            assert estimate.max() <= 0.5 * loose.max(), (tol, n)
+
+
+def test_estimate_holds_near_the_axis():
+    """On the data face within 10 um-1 mm of the axis, where |J_m| of every harmonic m >= 1
+    still grows along the terms, so the terms summed last are smaller than the ones left out
+    (the terms' own sizes understated the error there 2-3x, an independent review found):
+    the error against 8x the terms is below the estimate and, where the series stopped by
+    itself, below tolerance x scale."""
+    face, data, faces, scale = CASES["end-face flux, angular pattern up to the axis"]
+    kinds = {f: c.homogeneous for f, c in faces.items()}
+    args = (face, data, (A, L), kinds, K)
+    r = np.repeat(A * np.array([0.0, 1e-4, 3e-4, 1e-3, 1e-2]), 4)
+    th = np.tile(np.linspace(0.0, np.pi, 4), 5)
+    z = np.zeros(r.size)
+    series = KnownSeries(*args, tol=1e-3, scale=scale, n_cap=256)
+    t, _, estimate = series.evaluate(r, th, z, gradient=False)
+    n = series.n_terms
+    t_ref, _, _ = KnownSeries(*args, tol=1e-3, scale=scale, n_start=8 * n, n_cap=8 * n).evaluate(
+        r, th, z, gradient=False)
+    err = np.abs(t - t_ref)
+    assert np.all(err <= estimate + 1e-10 * np.ptp(t_ref)), (n, err / estimate)
+    if n < series.n_cap:
+        assert err.max() <= series.tol * series.temperature_scale
+
+
+@pytest.mark.parametrize("m", [0, 1, 2, 5, 10, 20, 40, 64])
+def test_bessel_envelope_bounds_every_later_value(m):
+    """besselj_envelope(m, x) >= max over x' >= x of |J_m(x')| (scipy.special.jv, reference
+    library), on a fine grid to x = 300, and the bound of the largest value (Landau's, from
+    memory) holds for m = 1..64."""
+    x = np.linspace(0.0, 300.0, 60001)
+    j = np.abs(special.jv(m, x))
+    later = np.maximum.accumulate(j[::-1])[::-1]
+    env = besselj_envelope(np.full(x.size, m), x)
+    assert np.all(env[1:] >= later[1:] - 1e-12) and env[0] == j[0]      # at x = 0 every term has x = 0
+    assert np.all(np.diff(env[x > m + 1]) <= 1e-12)       # non-increasing beyond the turning point
+    for order in range(1, 65):
+        top = np.abs(special.jv(order, np.linspace(order, order + 10 * order ** (1 / 3) + 10, 20001))).max()
+        assert top <= LANDAU_B * order ** (-1 / 3)
 
 
 def test_estimate_on_a_grid_is_the_pointwise_one():

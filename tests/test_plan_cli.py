@@ -168,7 +168,7 @@ def test_check_says_what_fit_skips_and_plan_refuses(tmp_path, capsys, monkeypatc
     assert main(["check", "platen.toml"]) == 0
     err = capsys.readouterr().err
     assert "zone lid is on the top face, not the estimated bottom face; skipped" in err
-    assert "plan would refuse: none of the 1152 positions of the [plan] grid meets the [plan] rules" in err
+    assert "plan's own grid (without --candidates) holds no position: none of the 1152 positions of the [plan] grid meets the [plan] rules" in err
 
 
 def test_holes_through_the_estimated_face_are_questioned(tmp_path, capsys, monkeypatch):

@@ -310,6 +310,9 @@ def test_refusals_before_reading(tmp_path, monkeypatch, capsys):
     code, cap = trend(folder, monkeypatch, capsys, "--log", "missing.csv")
     assert code == 2 and "missing.csv: file not found" in cap.err
     (folder / "one.csv").write_text(LOG_HEAD + _rows(range(0, 10, 10)))     # one row: not a shorter window
+    (folder / "two.csv").write_text(LOG_HEAD + _rows(range(0, 2000, 1000)))  # two rows far apart: not a longer one
+    code, cap = trend(folder, monkeypatch, capsys, "--log", "two.csv", "--out", "two", "--window", "60")
+    assert code == 2 and "the log has 2 rows; a trend needs at least 3" in cap.err, cap.err
     for every in ([], ["--every", "1"]):
         code, cap = trend(folder, monkeypatch, capsys, "--log", "one.csv", "--out", "one", *every)
         assert code == 2 and "the log has 1 row; a trend needs at least 3 in one window" in cap.err, cap.err
