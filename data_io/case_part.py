@@ -15,14 +15,13 @@ end face on a long part, a top on a semi-infinite part).
 from __future__ import annotations
 
 import math
-import re
 
 from ..forward.errors import ForwardModelError
 from ..forward.geometry import Cylinder
 
 from .case_context import _Ctx
 from .limits import RADIUS_RANGE
-from .units import format_quantity, parse_quantity
+from .units import format_quantity, in_display_unit, number_as_written, parse_quantity
 
 PART_KEYS = ("radius", "inner_radius", "height", "conductivity")
 LONG = "long"
@@ -45,9 +44,9 @@ def parse_part(ctx: _Ctx, part: dict) -> tuple[Cylinder, dict[str, str]]:
         raise ctx.error("part.radius", f"the radius must be positive, got {part['radius']!r}")
     lo, hi = RADIUS_RANGE
     if not lo <= radius <= hi:
-        number = re.match(r"\s*([-+0-9.eE]+)", str(part["radius"]))
-        as_mm = float(number.group(1)) * 1e-3 if number else math.nan
-        hint = f": {as_mm * 1e3:g} mm would be" if lo <= as_mm <= hi else ""
+        number = number_as_written(part["radius"])
+        meant = in_display_unit(number, "length") if number is not None else math.nan
+        hint = f": {number:g} mm would be" if lo <= meant <= hi else ""
         raise ctx.error("part.radius", f"{part['radius']!r} is outside {format_quantity(lo, 'length')} to "
                                        f"{format_quantity(hi, 'length', 'm')}, not a plausible part's radius "
                                        f"(check the unit{hint})")

@@ -196,7 +196,7 @@ def _numeric_column(raw: RawTable, c: Column) -> np.ndarray:
                 i = int(bad[0])
                 raise InputError(f"{raw.cells[i][col]} is at or below absolute zero "
                                  f"(check the unit in the header)", file=raw.path, where=raw.where(i, col))
-            over = np.flatnonzero(ok & (k > MAX_TEMPERATURE_K))
+            over = np.flatnonzero(ok & implausible_mask(k, "temperature"))
             if over.size and not c.nonfinite:     # readings: read_snapshot drops them with a warning
                 i = int(over[0])
                 raise InputError(f"{raw.cells[i][col]} is above {MAX_TEMPERATURE_K:g} K, not a plausible "

@@ -244,6 +244,18 @@ def parse_quantity(text, dimension: str, where: str, *, allow_infinite: bool = F
     return value
 
 
+def number_as_written(text) -> float | None:
+    """The number a quantity's text starts with (``"150 m"`` -> 150.0), or None."""
+    m = _NUMBER.match(str(text))
+    return float(m.group(1)) if m else None
+
+
+def in_display_unit(number: float, dimension: str) -> float:
+    """The SI value of `number` written in the dimension's display unit (the unit a slip most
+    often meant: mm for a length)."""
+    return convert(number, ureg.parse_units(_dimension(dimension).display_unit), dimension)
+
+
 def plausibility(value_si: float, dimension: str, number: float | None = None) -> str | None:
     """Why an SI value is not plausible for `dimension` (limits.implausible), in words with the
     bound (in SI units, degrees for an angle) and, where the number as written would be
@@ -256,7 +268,7 @@ def plausibility(value_si: float, dimension: str, number: float | None = None) -
     unit = "deg" if dimension == "angle" else dim.si_unit
     hint = ""
     if number is not None and math.isfinite(number):
-        other = convert(number, ureg.parse_units(dim.display_unit), dimension)
+        other = in_display_unit(number, dimension)
         if implausible(other, dimension) is None and other != value_si:
             hint = f"; in {dim.display_unit} it would be plausible"
     advice = PLAUSIBLE_ADVICE.get((dimension, side))
