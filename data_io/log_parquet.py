@@ -45,9 +45,9 @@ def header(path) -> list[str]:
 
 def boolean_columns(path) -> set[int]:
     """Positions of the columns whose Parquet type is boolean (true/false flags, not numbers)."""
+    schema = _open(path).schema_arrow      # first: it names the extra when pyarrow is missing
     import pyarrow as pa
 
-    schema = _open(path).schema_arrow
     return {i for i, f in enumerate(schema) if pa.types.is_boolean(f.type)}
 
 
