@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import os
 import sys
+from importlib.util import find_spec
 from pathlib import Path
 
 from .errors import InputError
@@ -35,14 +36,20 @@ CONNECT_TIMEOUT_S = 20
 #: mapped and unmapped afresh and the fits' many short-lived posterior arrays cost page faults
 #: (a part 8 -> 14 s, 6 s of it system time); None unsets it.  dask's sampling profiler of the
 #: task thread is off (no dashboard reads it).  The BLAS thread variables (one thread) stay.
+#: One BLAS thread per worker process (dask's own default, written here once: the fork server
+#: below starts with it before dask is imported); a variable the user has set wins, as in dask.
+WORKER_THREAD_ENV = {"OMP_NUM_THREADS": "1", "MKL_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1"}
 LOCAL_WORKER_CONFIG = {"distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOLD_": None,
+                       **{f"distributed.nanny.pre-spawn-environ.{k}": v for k, v in WORKER_THREAD_ENV.items()},
                        "distributed.worker.profile.enabled": False}
 #: how the local cluster starts its workers: on Linux from a fork server that has imported
 #: what a part needs (run_fleet's `preload`, e.g. trend_command.PART_MODULES), so that no worker
 #: imports the numerical stack again: bench/fleet.py, both ways in fresh processes, 8 two-hour
 #: parts on two workers 1.26x with dask's default (spawn), 1.48-1.57x this way, the same
 #: numbers.  The server is a fresh single-threaded process, so nothing forks a parent that
-#: runs dask's threads; it starts with the nannies' environment (BLAS on one thread).
+#: runs dask's threads; it starts with the workers' environment (WORKER_THREAD_ENV).  It is
+#: started first, before dask is imported, so that its imports (about 1.4 s) run on the second
+#: core while this process imports dask and starts the scheduler (`start_fork_server`).
 #: Elsewhere dask's default (spawn).
 LOCAL_START_METHOD = "forkserver" if sys.platform.startswith("linux") else None
 
@@ -88,11 +95,29 @@ def part_folders(parts, out) -> list[Path | None]:
     return folders
 
 
+def start_fork_server(modules) -> None:
+    """Start this process's multiprocessing fork server now, importing `modules`, with the
+    workers' environment (WORKER_THREAD_ENV unless set); returns at once while the server
+    imports.  A server already running is left as it is (one per process)."""
+    import multiprocessing.forkserver as forkserver
+
+    added = {k: v for k, v in WORKER_THREAD_ENV.items() if k not in os.environ}
+    os.environ.update(added)
+    try:
+        forkserver.set_forkserver_preload(list(modules))
+        forkserver.ensure_running()
+    finally:
+        for k in added:
+            os.environ.pop(k, None)
+
+
 def _client(scheduler, workers, preload=()):
     """A dask.distributed Client: of the cluster at `scheduler`, or of a new local cluster
     of `workers` processes with one thread each (closed with the client), its workers
     started with the modules `preload` imported (LOCAL_START_METHOD; the fork server is one
     per process: the first local cluster's list holds for the later ones)."""
+    if not scheduler and LOCAL_START_METHOD == "forkserver" and preload and find_spec("distributed"):
+        start_fork_server(["distributed", *preload])
     try:
         from dask.distributed import Client, LocalCluster
     except ImportError:
@@ -109,11 +134,6 @@ def _client(scheduler, workers, preload=()):
     config = dict(LOCAL_WORKER_CONFIG)
     if LOCAL_START_METHOD is not None:
         config["distributed.worker.multiprocessing-method"] = LOCAL_START_METHOD
-        if preload:
-            from distributed.utils import get_mp_context
-            with dask.config.set(config):
-                ctx = get_mp_context()          # dask sets its own list here first
-            ctx.set_forkserver_preload(["distributed", *preload])
     with dask.config.set(config):
         cluster = LocalCluster(n_workers=int(workers), threads_per_worker=1, processes=True, dashboard_address=None,
                                silence_logs=logging.ERROR)
