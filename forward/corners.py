@@ -160,6 +160,31 @@ class PolynomialLifting:
         dz = pw * d_poly_dzeta / (L if math.isfinite(L) else 1.0)
         return pw * poly, dr, dtheta, dz
 
+    def on_face(self, face, r, theta, z, value=True, normal=True):
+        """(w (P,) or None, dw/dn (P,) or None) at points of a face, dn along its outward
+        normal (bottom -z, top +z, side +r, bore -r) [K, K/m]: only what a face's operator
+        uses, with Theta_m alone (no d/dtheta, no gradient of three components)."""
+        if self.empty:
+            zero = np.zeros(np.asarray(r).shape)
+            return (zero if value else None), (zero if normal else None)
+        a, L = self.radius, self.height
+        rho, zeta, th, _ = self._parts(r, theta, z, gradient=False)
+        m, c, d = self.m, self._c(), self.delta
+        poly = (self.alpha + self.beta * zeta + self.gamma * (zeta ** 2 - c * rho ** 2)
+                + d * (zeta ** 3 - 3.0 * c * zeta * rho ** 2))
+        pw = rho ** m
+        w = np.einsum("pj,pj->p", pw * poly, th) if value else None
+        if not normal:
+            return w, None
+        if face in ("bottom", "top"):
+            d_dn = pw * (self.beta + 2.0 * self.gamma * zeta + 3.0 * d * (zeta ** 2 - c * rho ** 2))
+            d_dn = d_dn / (L if math.isfinite(L) else 1.0)
+        else:
+            pw1 = np.where(m >= 1, rho ** np.maximum(m - 1, 0), 0.0)
+            d_dn = (m * pw1 * poly - pw * (2.0 * c * self.gamma * rho + 6.0 * c * d * zeta * rho)) / a
+        sign = -1.0 if face in ("bottom", "bore") else 1.0
+        return w, sign * np.einsum("pj,pj->p", d_dn, th)
+
     def columns(self, r, theta, z, gradient=False):
         """Per-term temperature (P, J) and gradient (3, P, J) (d/dr, (1/r) d/dtheta, d/dz)."""
         rho, zeta, th, dth_m = self._parts(r, theta, z, gradient)

@@ -15,7 +15,7 @@ import numpy as np
 
 from .errors import ForwardModelError, IllPosedError
 from .faces import EndCondition, FaceCondition, Flux, Temperature
-from .geometry import Cylinder, is_wall, normal_component
+from .geometry import Cylinder, is_wall
 from .harmonics import harmonic_amplitudes, theta_nodes
 from .corners import PolynomialLifting, curvature_coefficient, end_rows, solve_rim
 from .families import families_for
@@ -295,19 +295,15 @@ class CylinderModel:
 
     def face_operator(self, field, face, condition, u, v):
         """B_F[field] on a face at face coordinates (u, v), by the face's condition (its
-        boundary operator); field: a PolynomialLifting (temperature, gradient, and both in one
-        pass: field_values)."""
+        boundary operator); field: a PolynomialLifting (its `on_face`: the value and the normal
+        derivative only where the operator uses them)."""
         r, th, z = self._face_points(face, u, v)
         shape = r.shape
-        r, th, z = r.ravel(), th.ravel(), z.ravel()
         # only what the operator uses: T ('D'), dT/dn ('N'), both in one pass ('R')
-        if condition.kind == "R":
-            w, g = field.field_values(r, th, z)
-            dn = normal_component(face, g)
-        else:
-            w = field.temperature(r, th, z) if condition.kind == "D" else np.zeros(r.size)
-            dn = normal_component(face, field.gradient(r, th, z)) if condition.kind == "N" else np.zeros(r.size)
-        return condition.operator(w, dn, self.k).reshape(shape)
+        kind = condition.kind
+        w, dn = field.on_face(face, r.ravel(), th.ravel(), z.ravel(), value=kind != "N", normal=kind != "D")
+        zero = np.zeros(r.size)
+        return condition.operator(zero if w is None else w, zero if dn is None else dn, self.k).reshape(shape)
 
     def _lifting_operator(self, face, cond, u, v):
         """B_F[w] of the lifting w on a face."""

@@ -165,3 +165,29 @@ def test_cubic_corner_term_is_harmonic_and_balanced():
     for face, ref in quad.items():
         assert w.power(face, K) == pytest.approx(ref, rel=1e-12), face
     assert abs(sum(w.power(f, K) for f in quad)) < 1e-12 * max(abs(v) for v in quad.values())
+
+
+def test_lifting_on_a_face_gives_the_value_and_the_outward_normal_derivative():
+    """PolynomialLifting.on_face (what a face's boundary operator uses, without the full
+    gradient) against central differences of the temperature along each face's outward
+    normal (bottom -z, top +z, side +r, bore -r) and against the full gradient."""
+    rng = np.random.default_rng(5)
+    terms = [(m, s, tuple(rng.normal(size=4))) for m in range(4) for s in (False, True) if not (m == 0 and s)]
+    w = PolynomialLifting.from_terms(A, L, terms)
+    n, h = 9, 1e-6
+    th = rng.uniform(0.0, 2 * math.pi, n)
+    r_in = rng.uniform(0.1 * A, 0.9 * A, n)
+    points = {"bottom": (r_in, np.zeros(n), (0.0, 0.0, 1.0)), "top": (r_in, np.full(n, L), (0.0, 0.0, -1.0)),
+              "side": (np.full(n, A), rng.uniform(0, L, n), (-1.0, 0.0, 0.0)),
+              "bore": (np.full(n, 0.3 * A), rng.uniform(0, L, n), (1.0, 0.0, 0.0))}
+    for face, (r, z, inward) in points.items():
+        value, dn = w.on_face(face, r, th, z)
+        dr, dz = inward[0] * h, inward[2] * h
+        fd = -(w.temperature(r + dr, th, z + dz) - w.temperature(r - dr, th, z - dz)) / (2 * h)
+        assert np.allclose(value, w.temperature(r, th, z), rtol=0, atol=1e-13), face
+        assert np.allclose(dn, fd, rtol=1e-6, atol=1e-6 * np.abs(fd).max()), face
+        g = w.gradient(r, th, z)
+        outward = {"bottom": -g[2], "top": g[2], "side": g[0], "bore": -g[0]}[face]
+        assert np.allclose(dn, outward, rtol=1e-12, atol=1e-12 * np.abs(outward).max()), face
+        only_normal = w.on_face(face, r, th, z, value=False)
+        assert only_normal[0] is None and np.array_equal(only_normal[1], dn)
