@@ -78,6 +78,7 @@ import numpy as np
 from numpy.polynomial import polynomial as npoly
 
 from .corners import PolynomialLifting, curvature_coefficient, end_rows, solve_rim
+from .face_data import OperatorData
 from .faces import EndCondition
 from .series import KnownSeries
 
@@ -133,9 +134,7 @@ def _fixes(model, w, faces, size, span=None):
     out = []
     for face in faces:
         cond = model.kinds[face]
-
-        def data(u, v, face=face, cond=cond):
-            return -model.face_operator(w, face, cond, u, v)
+        data = OperatorData(model, w, face, cond)
         span_f = span or (a if face != "side" else min(a, L))
         series = KnownSeries(face, data, (a, L), model.kinds, k, tol=model.tolerance,
                              scale=cond.datum_scale(k, span_f) * size, n_cap=model.max_terms,

@@ -160,6 +160,27 @@ class PolynomialLifting:
         dz = pw * d_poly_dzeta / (L if math.isfinite(L) else 1.0)
         return pw * poly, dr, dtheta, dz
 
+    def _face_factors(self, face, rho, zeta, value, normal):
+        """Per-term factors multiplying Theta_m on a face (rows: points or grid lines,
+        columns: terms): of w (rho^m P) when value, of dw/dn along the face's outward normal
+        when normal; None for what is not asked."""
+        a, L = self.radius, self.height
+        m, c, d = self.m, self._c(), self.delta
+        poly = (self.alpha + self.beta * zeta + self.gamma * (zeta ** 2 - c * rho ** 2)
+                + d * (zeta ** 3 - 3.0 * c * zeta * rho ** 2))
+        pw = rho ** m
+        if not normal:
+            return pw * poly, None
+        if face in ("bottom", "top"):
+            d_dn = pw * (self.beta + 2.0 * self.gamma * zeta + 3.0 * d * (zeta ** 2 - c * rho ** 2))
+            d_dn = d_dn / (L if math.isfinite(L) else 1.0)
+        else:
+            pw1 = np.where(m >= 1, rho ** np.maximum(m - 1, 0), 0.0)
+            d_dn = (m * pw1 * poly - pw * (2.0 * c * self.gamma * rho + 6.0 * c * d * zeta * rho)) / a
+        if face in ("bottom", "bore"):
+            d_dn = -d_dn
+        return (pw * poly if value else None), d_dn
+
     def on_face(self, face, r, theta, z, value=True, normal=True):
         """(w (P,) or None, dw/dn (P,) or None) at points of a face, dn along its outward
         normal (bottom -z, top +z, side +r, bore -r) [K, K/m]: only what a face's operator
@@ -167,23 +188,29 @@ class PolynomialLifting:
         if self.empty:
             zero = np.zeros(np.asarray(r).shape)
             return (zero if value else None), (zero if normal else None)
-        a, L = self.radius, self.height
         rho, zeta, th, _ = self._parts(r, theta, z, gradient=False)
-        m, c, d = self.m, self._c(), self.delta
-        poly = (self.alpha + self.beta * zeta + self.gamma * (zeta ** 2 - c * rho ** 2)
-                + d * (zeta ** 3 - 3.0 * c * zeta * rho ** 2))
-        pw = rho ** m
-        w = np.einsum("pj,pj->p", pw * poly, th) if value else None
-        if not normal:
-            return w, None
+        f = self._face_factors(face, rho, zeta, value, normal)
+        return tuple(None if x is None else np.einsum("pj,pj->p", x, th) for x in f)
+
+    def on_face_grid(self, face, s, theta, fixed, value=True, normal=True):
+        """`on_face` on the grid of lines s x theta of a face, each (S, T): s = r on an end
+        face (at z = fixed), z on a wall (at r = fixed) [m]; the factors once per s line, the
+        angle once per theta line."""
+        s, theta = np.asarray(s, float).ravel(), np.asarray(theta, float).ravel()
+        if self.empty:
+            zero = np.zeros((s.size, theta.size))
+            return (zero if value else None), (zero if normal else None)
+        a, L = self.radius, self.height
+        finite = math.isfinite(L)
         if face in ("bottom", "top"):
-            d_dn = pw * (self.beta + 2.0 * self.gamma * zeta + 3.0 * d * (zeta ** 2 - c * rho ** 2))
-            d_dn = d_dn / (L if math.isfinite(L) else 1.0)
+            rho = (s / a)[:, None]
+            zeta = np.full_like(rho, fixed / L if finite else 0.0)
         else:
-            pw1 = np.where(m >= 1, rho ** np.maximum(m - 1, 0), 0.0)
-            d_dn = (m * pw1 * poly - pw * (2.0 * c * self.gamma * rho + 6.0 * c * d * zeta * rho)) / a
-        sign = -1.0 if face in ("bottom", "bore") else 1.0
-        return w, sign * np.einsum("pj,pj->p", d_dn, th)
+            rho = np.full((s.size, 1), fixed / a)
+            zeta = (s / L if finite else np.zeros_like(s))[:, None]
+        th, _ = self._angles(theta, False)
+        f = self._face_factors(face, rho, zeta, value, normal)
+        return tuple(None if x is None else x @ th.T for x in f)
 
     def columns(self, r, theta, z, gradient=False):
         """Per-term temperature (P, J) and gradient (3, P, J) (d/dr, (1/r) d/dtheta, d/dz)."""

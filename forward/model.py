@@ -20,6 +20,7 @@ from .harmonics import harmonic_amplitudes, theta_nodes
 from .corners import PolynomialLifting, curvature_coefficient, end_rows, solve_rim
 from .families import families_for
 from .series import KnownSeries, _gauss
+from .face_data import OperatorData
 from .basis import UnknownBasis  # re-exported: forward.model.UnknownBasis
 
 
@@ -305,6 +306,16 @@ class CylinderModel:
         zero = np.zeros(r.size)
         return condition.operator(zero if w is None else w, zero if dn is None else dn, self.k).reshape(shape)
 
+    def face_operator_grid(self, field, face, condition, s, theta):
+        """`face_operator` on the grid of lines s x theta of a face, (S, T): s = r on an end
+        face, z on a wall [m] (the field's factors once per line: `on_face_grid`)."""
+        kind = condition.kind
+        cyl = self.cylinder
+        fixed = cyl.wall_radius(face) if is_wall(face) else (0.0 if face == "bottom" else cyl.height)
+        w, dn = field.on_face_grid(face, s, theta, fixed, value=kind != "N", normal=kind != "D")
+        zero = np.zeros((np.size(s), np.size(theta)))
+        return condition.operator(zero if w is None else w, zero if dn is None else dn, self.k)
+
     def _lifting_operator(self, face, cond, u, v):
         """B_F[w] of the lifting w on a face."""
         if self.lifting.empty:
@@ -312,9 +323,7 @@ class CylinderModel:
         return self.face_operator(self.lifting, face, cond, u, v)
 
     def _residual_data(self, face, cond):
-        def data(u, v):
-            return cond.data(u, v) - self._lifting_operator(face, cond, u, v)
-        return data
+        return OperatorData(self, self.lifting, face, cond, given=cond.data)
 
     # --- evaluation -------------------------------------------------------------------------
     def _check_points(self, r, theta, z):

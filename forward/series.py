@@ -91,7 +91,11 @@ class KnownSeries:
         return _gauss(n, hi - lo, lo)
 
     def _sample(self, s, theta):
-        """Data on a (s, theta) grid: s = r on end faces, z on the side; shape (len(s), len(theta))."""
+        """Data on a (s, theta) grid: s = r on end faces, z on the side; shape (len(s), len(theta))
+        (through the data's own `grid` when it has one: forward.face_data.OperatorData)."""
+        grid = getattr(self.data, "grid", None)
+        if grid is not None:
+            return np.asarray(grid(s, theta), float).reshape(len(s), len(theta))
         S, TH = np.meshgrid(s, theta, indexing="ij")
         if self.wall:
             return np.asarray(self.data(TH, S), float).reshape(S.shape)

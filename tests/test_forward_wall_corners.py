@@ -191,3 +191,31 @@ def test_lifting_on_a_face_gives_the_value_and_the_outward_normal_derivative():
         assert np.allclose(dn, outward, rtol=1e-12, atol=1e-12 * np.abs(outward).max()), face
         only_normal = w.on_face(face, r, th, z, value=False)
         assert only_normal[0] is None and np.array_equal(only_normal[1], dn)
+
+
+def test_face_data_on_grid_lines_equals_the_pointwise_data():
+    """OperatorData.grid (the lifting's operator once per grid line, what a known face's series
+    samples) against the same data point by point, on every face of a solid and a hollow part,
+    for each kind of condition."""
+    from heatsight.forward import Flux
+    from heatsight.forward.face_data import OperatorData
+
+    rng = np.random.default_rng(11)
+    terms = [(m, s, tuple(rng.normal(size=4))) for m in range(4) for s in (False, True) if not (m == 0 and s)]
+    given = lambda u, v: 3.0 + np.cos(u) * v  # noqa: E731
+    for inner in (0.0, 0.3 * A):
+        cyl = Cylinder(A, L, K, inner_radius=inner)
+        faces = {"bottom": Flux(500.0), "top": Convection(20.0, 300.0), "side": Temperature(350.0)}
+        if inner:
+            faces["bore"] = Insulated()
+        model = CylinderModel(cyl, faces)
+        w = PolynomialLifting.from_terms(A, L, terms)
+        for face, cond in faces.items():
+            wall = face in ("side", "bore")
+            s = rng.uniform(0.0, L, 5) if wall else rng.uniform(inner, A, 5)
+            th = rng.uniform(0.0, 2 * math.pi, 7)
+            for g in (None, given):
+                data = OperatorData(model, w, face, cond, given=g)
+                S, TH = np.meshgrid(s, th, indexing="ij")
+                pointwise = data(TH, S) if wall else data(S, TH)
+                assert np.allclose(data.grid(s, th), pointwise, rtol=1e-12, atol=1e-12 * np.abs(pointwise).max()), face
