@@ -98,6 +98,15 @@ class PolynomialLifting:
     def empty(self):
         return self.m.size == 0
 
+    def constant_value(self):
+        """The lifting's value when it is a constant (0.0 when empty) [K], else None."""
+        if self.empty:
+            return 0.0
+        if self.m.size == 1 and self.m[0] == 0 and not self.is_sin[0] and not (
+                self.beta[0] or self.gamma[0] or self.delta[0]):
+            return float(self.alpha[0])
+        return None
+
     def _c(self):
         return curvature_coefficient(self.m, self.radius, self.height)
 

@@ -247,6 +247,8 @@ class CylinderModel:
                 continue
             if face == "side" and cyl.semi_infinite:
                 continue  # carried exactly by the two-dimensional lifting
+            if self._residual_vanishes(cond):
+                continue  # no data beyond the lifting: no series (and no sampling to find that out)
             data = self._residual_data(face, cond)
             span = cyl.datum_span(face)
             # harmonics relative to this face's own data (a tiny flux beside a large ambient
@@ -258,6 +260,16 @@ class CylinderModel:
                             n_cap=n_cap, max_harmonic=self.max_harmonic)
             if s.modes is not None:
                 self.series.append(s)
+
+    def _residual_vanishes(self, cond) -> bool:
+        """True when a face's residual data B_F[T] - B_F[lifting] are zero by construction: a
+        uniform datum met exactly by a constant lifting (an insulated face, a convection face
+        whose ambient is the reference temperature)."""
+        const = self.lifting.constant_value()
+        if const is None or not cond.is_uniform:
+            return False
+        zero = np.zeros(1)
+        return bool(cond.data(zero, zero)[0] == cond.operator(const, 0.0, self.k))
 
     def _data_sizes(self):
         """Largest |data| of each known face on a coarse sample [data units: K, W/m^2]."""

@@ -42,6 +42,23 @@ def test_plane_wall_flux_bottom_convection_top(q, h, tamb):
     assert model.face_power("bottom") == pytest.approx(q * math.pi * A * A, rel=1e-9)
     assert model.face_power("top") == pytest.approx(-q * math.pi * A * A, rel=1e-9)
     assert abs(model.face_power("side")) < 1e-9 * abs(q) * math.pi * A * A
+    assert [s.face for s in model.series] == ["bottom"]
+
+
+def test_faces_the_lifting_meets_are_not_sampled(monkeypatch):
+    """An insulated side and a top at the reference ambient have no data beyond the constant
+    lifting: the model does not sample them for a series (a speed rule; the field is the
+    closed form above either way)."""
+    sampled = []
+    real = CylinderModel._residual_data
+    monkeypatch.setattr(CylinderModel, "_residual_data",
+                        lambda self, face, cond: sampled.append(face) or real(self, face, cond))
+    CylinderModel(Cylinder(A, L, K), {"bottom": Flux(5e4), "side": Insulated(), "top": Convection(250.0, 300.0)})
+    assert sampled == ["bottom"]
+    sampled.clear()
+    CylinderModel(Cylinder(A, L, K), {"bottom": Flux(5e4), "side": Insulated(), "top": Convection(250.0, lambda r, t: 300.0 + r)})
+    # a profile ambient: no reference lifting, the top sampled; the insulated side still not
+    assert sorted(sampled) == ["bottom", "top"]
 
 
 def test_plane_wall_two_temperatures_and_semi_infinite_constant():
