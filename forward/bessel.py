@@ -231,19 +231,21 @@ def ive_orders(max_order: int, x) -> np.ndarray:
 LANDAU_B = 0.674886
 
 
-def besselj_envelope(m, x) -> np.ndarray:
+def besselj_envelope(m, x, j=None) -> np.ndarray:
     """An upper bound of sup_{x' >= x} |J_m(x')| for x > 0, non-increasing in x, for orders
     m >= 0 and x >= 0 broadcast together (at x = 0, |J_m(0)|: a series' terms at r = 0 all
     have x = 0): for x > m, sqrt(J_m^2 + x^2 J_m'^2 / (x^2 - m^2)), which
     decreases on (m, inf) (Sonine's theorem for the Bessel equation) and equals |J_m| at its
     maxima; elsewhere, and wherever it is larger, the bound of J_m's largest value, 1 (m = 0)
-    or LANDAU_B m^(-1/3)."""
+    or LANDAU_B m^(-1/3).  J_m' = (m / x) J_m - J_{m+1} (x > m > = 0 there); j: J_m(x) when
+    the caller has it (the series' fields at the same points), else looked up."""
     m = np.asarray(m, dtype=np.intp)
     x = np.asarray(x, dtype=float)
-    jm1, j, jp1 = besselj_triplet(m, x)
-    slope = 0.5 * (jm1 - jp1)
-    top = np.where(m == 0, 1.0, np.minimum(1.0, LANDAU_B / np.cbrt(np.maximum(m, 1))))
+    j = besselj(m, x) if j is None else np.asarray(j, float)
     beyond = x > m
+    safe = np.where(beyond, x, 1.0)
+    slope = m / safe * j - besselj(m + 1, x)
+    top = np.where(m == 0, 1.0, np.minimum(1.0, LANDAU_B / np.cbrt(np.maximum(m, 1))))
     gain = np.where(beyond, x ** 2 / np.where(beyond, x ** 2 - m ** 2, 1.0), 0.0)
     out = np.where(beyond, np.minimum(top, np.sqrt(j ** 2 + gain * slope ** 2)), top)
     return np.where((x == 0) & (m > 0), 0.0, out)

@@ -280,6 +280,9 @@ class CylinderModel:
         for face, cond in self.faces.items():
             if cond.unknown:
                 continue
+            if cond.is_uniform:
+                sizes[face] = float(abs(cond.data(np.zeros(1), np.zeros(1))[0]))
+                continue
             wall = is_wall(face)
             s = (np.linspace(0.0, L if math.isfinite(L) else a, 9) if wall
                  else np.linspace(cyl.inner_radius, a, 9))

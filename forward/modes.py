@@ -52,7 +52,7 @@ class EndFaceModes:
     m: np.ndarray
     is_sin: np.ndarray
     lam: np.ndarray
-    _axial: dict = field(default_factory=dict, repr=False)
+    _radial_memo: tuple | None = field(default=None, repr=False)
 
     def __post_init__(self):
         self.m = np.asarray(self.m, dtype=np.intp)
@@ -124,7 +124,7 @@ class EndFaceModes:
         th, dth = _theta_parts(self.m, self.is_sin, np.asarray(theta, float))
         zh, dzh = self.axial(self.zeta(z))
         if not gradient:
-            return besselj(self.m, x)[back] * th * zh, None
+            return self._radial_at(radii)[back] * th * zh, None
         jm1, j, jp1 = (f[back] for f in besselj_triplet(self.m, x))
         t = j * th * zh
         sign = 1.0 if self.face == "bottom" else -1.0
@@ -170,9 +170,23 @@ class EndFaceModes:
         radial bessel.besselj_envelope(m, kappa r) (where |J_m| still grows along the terms,
         near the axis, the bound of its largest value); axial |Zhat(zeta(z))|, which falls
         with kappa at every z."""
-        radial = besselj_envelope(self.m[index], np.multiply.outer(np.asarray(r, float), self.kappa[index]))
+        r = np.asarray(r, float)
+        radial = besselj_envelope(self.m[index], np.multiply.outer(r, self.kappa[index]),
+                                  j=self._radial_at(r)[:, index])
         zh, _ = self.axial(self.zeta(z))
         return radial, np.abs(zh[:, index])
+
+    def _radial_at(self, radii):
+        """J_m(kappa r) at radii [m], (R, K).  The last call's values are kept: a chunk's
+        temperature and its truncation estimate ask for the same radii
+        (series.KnownSeries._block_points), so J_m is looked up once for both."""
+        radii = np.asarray(radii, float)
+        memo = self._radial_memo
+        if memo is not None and memo[0].shape == radii.shape and np.array_equal(memo[0], radii):
+            return memo[1]
+        j = besselj(self.m, np.multiply.outer(radii, self.kappa))
+        self._radial_memo = (radii.copy(), j)
+        return j
 
     def area_integrals(self):
         """integral over the face of Phi dA [m^2] (m = 0 cos only; zero otherwise):
@@ -186,9 +200,9 @@ class EndFaceModes:
     def norms(self):
         """integral over the face of Phi^2 dA [m^2] = a^2/2 [J_m'^2 + (1 - m^2/lambda^2) J_m^2] * (2 pi or pi)."""
         lam, m, a = self.lam, self.m, self.radius
-        jm1, j, jp1 = besselj_triplet(m, lam)
-        jp = 0.5 * (jm1 - jp1)
         safe = np.where(lam > 0, lam, 1.0)
+        j = besselj(m, lam)
+        jp = m / safe * j - besselj(m + 1, lam)     # J_m' = (m / x) J_m - J_{m+1}
         radial = 0.5 * a * a * np.where(lam > 0, jp ** 2 + (1.0 - (m / safe) ** 2) * j ** 2, 1.0)
         return radial * np.where(m == 0, 2.0 * np.pi, np.pi)
 

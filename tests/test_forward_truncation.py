@@ -129,3 +129,25 @@ def test_estimate_on_a_grid_is_the_pointwise_one():
     pts = model.evaluate(R, TH, Z, gradient=False)
     assert np.abs(grid.truncation_error - pts.truncation_error).max() <= 1e-12 * np.ptp(pts.temperature)
     assert np.abs(grid.temperature - pts.temperature).max() <= 1e-12 * np.ptp(pts.temperature)
+
+
+def test_terms_remembered_between_a_chunks_field_and_its_estimate_are_never_stale():
+    """EndFaceModes keeps the last radii's J_m for the estimate of the same chunk; asked for
+    other radii in any order (fields, envelopes, the grid's lines) it gives the values of a
+    fresh modes object, and the envelope fed those J_m equals the one that looks them up."""
+    model = CylinderModel(Cylinder(A, L, K), CASES["end-face flux, angular pattern up to the axis"][2],
+                          tolerance=1e-4)
+    series = model.series[0]
+    modes, fresh = series.modes, series._make_modes(series.modes.m, series.modes.is_sin, series.modes.lam)
+    idx = np.arange(modes.size // 2, modes.size)
+    rng = np.random.default_rng(4)
+    for _ in range(4):
+        r = np.unique(rng.uniform(0.0, A, rng.integers(3, 9)))
+        th, z = rng.uniform(0, 2 * np.pi, r.size), rng.uniform(0, L, r.size)
+        for call in (lambda md: md.fields(r, th, z, gradient=False)[0], lambda md: md.tail_envelopes(r, z, idx)[0],
+                     lambda md: md.radial_values(r)):
+            assert np.array_equal(call(modes), call(fresh))
+            fresh._radial_memo = None
+    x = np.multiply.outer(r, modes.kappa)
+    from heatsight.forward.bessel import besselj
+    assert np.array_equal(besselj_envelope(modes.m, x, j=besselj(modes.m, x)), besselj_envelope(modes.m, x))
