@@ -405,8 +405,8 @@ def _main(parser, argv) -> int:
         return int(args.run(args) or 0)
     except SystemExit as exc:        # --help, --version
         return int(exc.code or 0) if isinstance(exc.code, int) or exc.code is None else 2
-    except KeyboardInterrupt:
-        print(f"{PROG}: interrupted", file=sys.stderr)
+    except KeyboardInterrupt as exc:
+        print(f"{PROG}: interrupted" + (f"; {exc}" if str(exc) else ""), file=sys.stderr)
         return 130
     except Terminated as exc:
         print(f"{PROG}: stopped by signal {exc.signum}; no output was written", file=sys.stderr)

@@ -78,6 +78,26 @@ def own_outputs(folder: Path) -> set[str]:
     return {n for n in listed if isinstance(n, str) and n and "/" not in n and n not in (".", "..")}
 
 
+def staging_leftovers(folder: Path) -> list[Path]:
+    """Files an OutputSet staged in `folder` and never renamed into place because its process
+    was killed (a lost worker, SIGKILL): hidden '.NAME.XXXXXXXX.tmp' files of heatsight's
+    output names (OutputSet.stream).  They hold no output; a later run into the folder
+    treats them as absent and removes them when it commits."""
+    names = set(REMOVABLE_OUTPUTS) | {"summary.json"}
+    out = []
+    try:
+        entries = list(Path(folder).iterdir())
+    except OSError:
+        return []
+    for p in entries:
+        n = p.name
+        if n.startswith(".") and n.endswith(".tmp") and p.is_file() and not p.is_symlink():
+            stem = n[1:-4].rsplit(".", 1)[0]            # '.trend.csv.ab12cd34.tmp' -> 'trend.csv'
+            if stem in names or stem.endswith(".png"):
+                out.append(p)
+    return sorted(out)
+
+
 def stale_outputs(folder: Path, written) -> list[str]:
     """heatsight's earlier outputs in `folder` (own_outputs) that a run writing the names
     `written` leaves behind and removes: only names heatsight writes (REMOVABLE_OUTPUTS and
@@ -112,7 +132,8 @@ def output_folder(out, case, overwrite: bool, names=FIT_OUTPUT_NAMES, inputs=(),
         raise InputError(f"the folder {out.parent} does not exist", file=out)
     every_input = [Path(p) for p in list(case.input_files()) + [p for p in inputs if p is not None]]
     resolved = {p.resolve() for p in every_input}
-    existing = sorted(out.iterdir()) if out.is_dir() else []
+    leftovers = set(staging_leftovers(out)) if out.is_dir() else set()
+    existing = sorted(p for p in out.iterdir() if p not in leftovers) if out.is_dir() else []
     # heatsight's earlier outputs this run does not write go when it commits (OutputSet)
     earlier = [out / name for name in stale_outputs(out, names)]
     for target in [out / name for name in names] + [p for p in existing if p.suffix == ".png"] + earlier:
@@ -284,6 +305,8 @@ class OutputSet:
         done: list[Path] = []
         written = {name for name, _ in self._staged}
         stale = stale_outputs(self.folder, written) if "summary.json" in written else []
+        mine = {staged for _, staged in self._staged}
+        leftovers = [p for p in staging_leftovers(self.folder) if p not in mine]
         try:
             for name, staged in self._staged:
                 target = self.folder / name
@@ -329,6 +352,11 @@ class OutputSet:
                     keep.parent.rmdir()
                 except OSError:
                     pass
+        for p in leftovers:                        # a killed earlier run's staged files
+            try:
+                p.unlink()
+            except OSError:
+                pass
 
     def __exit__(self, exc_type, exc, tb):
         try:

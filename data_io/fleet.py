@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import os
 import sys
+import uuid
 from importlib.util import find_spec
 from pathlib import Path
 
@@ -54,6 +55,10 @@ LOCAL_WORKER_CONFIG = {"distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOL
 LOCAL_START_METHOD = "forkserver" if sys.platform.startswith("linux") else None
 
 
+class FleetInterrupted(KeyboardInterrupt):
+    """Ctrl-C during a fleet on an existing cluster; its text says what goes on there."""
+
+
 def fleet_parts(paths) -> list[Path]:
     """The case files of a fleet: each path a case file (.toml) or a folder (its *.toml
     files, sorted); InputError for a missing path, an empty folder or a repeated case."""
@@ -85,6 +90,8 @@ def part_folders(parts, out) -> list[Path | None]:
     out = Path(out)
     if out.exists() and not out.is_dir():
         raise InputError("exists and is not a folder; --out names the folder of the parts' output folders", file=out)
+    if not out.absolute().parent.is_dir():
+        raise InputError(f"the folder {out.absolute().parent} does not exist", file=out)
     folders = [out / f"{p.stem}-trend" for p in parts]
     names: dict = {}
     for p, f in zip(parts, folders):
@@ -127,6 +134,10 @@ def _client(scheduler, workers, preload=()):
             return Client(scheduler, timeout=CONNECT_TIMEOUT_S)
         except (OSError, TimeoutError, ValueError) as exc:
             raise InputError(f"--scheduler {scheduler}: cannot reach the scheduler ({exc})") from None
+        except (MemoryError, EOFError) as exc:     # something answered, not in dask's protocol
+            raise InputError(f"--scheduler {scheduler}: what answers there is not a dask scheduler "
+                             f"({type(exc).__name__}); give the scheduler's address (port 8786 by default, "
+                             f"not its dashboard's)") from None
     import logging
 
     import dask
@@ -155,38 +166,107 @@ def run_fleet(paths, task, *, out=None, scheduler=None, workers=None, options=No
     existing dask Client to use (else one is made from scheduler / workers and closed);
     preload: names of the modules the task needs, loaded in a local cluster's workers before
     they start (LOCAL_START_METHOD)."""
+    if scheduler is not None and not str(scheduler).strip():
+        raise InputError("--scheduler needs the scheduler's address, e.g. tcp://10.0.0.5:8786")
     parts = fleet_parts(paths)
     folders = part_folders(parts, out)
+    if scheduler and workers:
+        raise InputError("--workers sets the size of a local cluster; with --scheduler the cluster's own "
+                         "workers run the parts: leave --workers out")
     workers = int(workers or min(DEFAULT_WORKERS, os.cpu_count() or 1))
     if workers < 1:
         raise InputError(f"--workers needs a whole number >= 1, got {workers}")
     options = dict(options or {})
+    # workers open the files in their own working folder: absolute paths; the records name
+    # each case as it was given
+    cases = [str(p.absolute()) for p in parts]
+    targets = [None if f is None else str(f.absolute()) for f in folders]
+    out_dir = None if out is None else Path(out).absolute()
+    made_out = out_dir is not None and not out_dir.exists()
+    fresh = [f is not None and not Path(f).exists() for f in targets]
+    run_id = uuid.uuid4().hex[:12]               # task names unique to this run on a shared cluster
     own = client is None
-    if own:
-        client = _client(scheduler, workers, preload)
+    records: list = [None] * len(parts)
+    quiet = _quiet_dask_logs()
     try:
+        if own:
+            client = _client(scheduler, workers, preload)
         from dask.distributed import as_completed
 
-        futures = [client.submit(task, str(p), None if f is None else str(f), options, key=f"heatsight-part-{i}",
-                                 pure=False) for i, (p, f) in enumerate(zip(parts, folders))]
+        futures = [client.submit(task, c, f, options, key=f"heatsight-part-{run_id}-{i}", pure=False)
+                   for i, (c, f) in enumerate(zip(cases, targets))]
         index = {fut.key: i for i, fut in enumerate(futures)}
-        records: list = [None] * len(parts)
-        for done, fut in enumerate(as_completed(futures, loop=client.loop), 1):
-            i = index[fut.key]
-            try:
-                rec = fut.result()
-            except Exception as exc:  # noqa: BLE001 - a lost worker or a task that could not run
-                rec = {"case": str(parts[i]), "status": "failed", "error": f"{type(exc).__name__}: {exc}"}
-            records[i] = rec
-            if report is not None:
-                report(done, len(parts), rec)
+        try:
+            for done, fut in enumerate(as_completed(futures, loop=client.loop), 1):
+                i = index[fut.key]
+                try:
+                    rec = fut.result()
+                except Exception as exc:  # noqa: BLE001 - a lost worker or a task that could not run
+                    rec = {"status": "failed", "error": f"{type(exc).__name__}: {exc}"}
+                rec = {**rec, "case": str(parts[i])}
+                records[i] = rec
+                if report is not None:
+                    report(done, len(parts), rec)
+        except KeyboardInterrupt:
+            if scheduler:       # parts not started yet never start; running ones go on there
+                client.cancel([f for f, r in zip(futures, records) if r is None])
+                raise FleetInterrupted("parts already running on the cluster go on and write their outputs; "
+                                       "the others were cancelled") from None
+            raise
     finally:
-        if own:
-            cluster = getattr(client, "cluster", None)
-            client.close()
-            if cluster is not None:
-                cluster.close()
+        try:
+            if own:
+                cluster = getattr(client, "cluster", None)
+                if client is not None:
+                    client.close()
+                if cluster is not None:
+                    cluster.close()
+        finally:
+            quiet()
+            # what a part that did not finish left (its worker stopped or lost): folders this
+            # run made that hold nothing but staged files, and an --out folder left empty
+            for f, new, rec in zip(targets, fresh, records):
+                if new and not scheduler and (rec is None or rec["status"] != "done"):
+                    _remove_if_unfinished(Path(f))      # a local cluster's workers are stopped
+            if made_out:
+                try:
+                    out_dir.rmdir()
+                except OSError:
+                    pass
     return records, exit_status(records)
+
+
+def _quiet_dask_logs():
+    """Silence dask.distributed's own log lines (tracebacks of a lost scheduler or worker)
+    while a fleet runs: each part's fate is reported on its own line.  Returns the undo."""
+    import logging
+
+    loggers = [logging.getLogger(n) for n in ("distributed", "distributed.client", "distributed.worker",
+                                              "distributed.scheduler", "distributed.nanny", "tornado")]
+    levels = [lg.level for lg in loggers]
+    for lg in loggers:
+        lg.setLevel(logging.CRITICAL)
+
+    def undo():
+        for lg, level in zip(loggers, levels):
+            lg.setLevel(level)
+    return undo
+
+
+def _remove_if_unfinished(folder: Path) -> None:
+    """Remove a part's output folder that this run made when it holds only staged files of
+    an unfinished write (csv_out.staging_leftovers) or nothing."""
+    from .csv_out import staging_leftovers
+
+    try:
+        leftovers = set(staging_leftovers(folder))
+        if any(p not in leftovers for p in folder.iterdir()):
+            return
+        for p in leftovers:
+            p.unlink()
+        folder.rmdir()
+    except OSError:
+        pass
 
 
 def part_line(i: int, n: int, rec: dict) -> str:

@@ -180,8 +180,8 @@ def _fleet(args) -> int:
     from .fleet import part_line, run_fleet
 
     if args.log:
-        raise InputError("--log serves one part; with several parts each case reads its own log "
-                         "([sensors] readings)")
+        raise InputError("--log serves one part run here; with several parts or --scheduler each case reads "
+                         "its own log ([sensors] readings)")
     con = current()
 
     def report(i, n, rec):
@@ -205,7 +205,7 @@ def _fleet(args) -> int:
 
 
 def _run(args) -> int:
-    if len(args.case) > 1 or Path(args.case[0]).is_dir() or args.scheduler:
+    if len(args.case) > 1 or Path(args.case[0]).is_dir() or args.scheduler is not None:
         return _fleet(args)
     if args.workers:
         raise InputError("--workers serves several parts (case files or a folder of them); one case runs in "

@@ -215,3 +215,103 @@ def test_workers_with_one_case_is_refused_in_words(tmp_path, capsys):
     assert main(["trend", str(a), "--log", str(a.parent / "log.csv"), "--workers", "1"]) == 2
     err = capsys.readouterr().err
     assert "--workers serves several parts" in err and "--log serves one part" not in err
+
+
+def _fake_part(case, out, options):
+    """A stand-in task: what a worker received; a case named 'bad*' leaves a staged file in a
+    folder it made, as a killed write would, and fails."""
+    import os
+    from pathlib import Path as P
+
+    if P(case).stem.startswith("bad"):
+        P(out).mkdir(parents=True, exist_ok=True)
+        (P(out) / ".trend.csv.k1ll3d.tmp").write_text("partial")
+        return {"case": case, "status": "failed", "error": "worker lost"}
+    return {"case": case, "status": "done", "absolute": [os.path.isabs(case), os.path.isabs(out)]}
+
+
+def test_fleet_runs_keep_to_their_own_parts_paths_and_leftovers(tmp_path, monkeypatch):
+    """Task names are unique to each run (two runs on one cluster never take each other's
+    results); workers get absolute paths (a real cluster's workers start elsewhere) while the
+    records name each case as given; a part that did not finish leaves no folder made by this
+    run, and an --out folder left empty goes too."""
+    monkeypatch.chdir(tmp_path)
+    for name in ("a", "b", "bad"):
+        (tmp_path / f"{name}.toml").write_text("")
+    client = fleet._client(None, 1)
+    keys = []
+    submit = client.submit
+    monkeypatch.setattr(client, "submit", lambda *a, **k: keys.append(k["key"]) or submit(*a, **k))
+    try:
+        first, status = fleet.run_fleet(["a.toml", "b.toml"], _fake_part, out="o1", client=client)
+        assert status == 0 and [r["case"] for r in first] == ["a.toml", "b.toml"]
+        assert all(r["absolute"] == [True, True] for r in first)
+        second, status = fleet.run_fleet(["a.toml", "bad.toml"], _fake_part, out="o2", client=client)
+        assert status == 1 and [r["status"] for r in second] == ["done", "failed"]
+    finally:
+        client.close()
+        client.cluster.close()
+    assert len(set(keys)) == 4 and not set(keys[:2]) & set(keys[2:])
+    assert not (tmp_path / "o2").exists()          # bad-trend held only a staged file; o2 was empty
+
+
+def test_output_folder_with_only_a_killed_runs_staged_files(tmp_path):
+    """A staged '.NAME.XXXXXXXX.tmp' of heatsight's output names, left by a killed run, does not
+    make the folder 'not empty' and is removed when the next run commits; a hidden file of
+    anyone else's still does."""
+    import types
+
+    from heatsight.data_io.csv_out import OutputSet, output_folder, staging_leftovers
+
+    case = types.SimpleNamespace(input_files=lambda: [])
+    out = tmp_path / "run"
+    out.mkdir()
+    (out / ".trend.csv.ab12cd34.tmp").write_text("partial")
+    (out / ".summary.json.zz99.tmp").write_text("partial")
+    assert [p.name for p in staging_leftovers(out)] == [".summary.json.zz99.tmp", ".trend.csv.ab12cd34.tmp"]
+    folder, create = output_folder(out, case, overwrite=False, names=("trend.csv", "summary.json"))
+    assert folder == out and not create
+    with OutputSet(out) as outset:
+        outset.add("trend.csv", "t\n")
+    assert sorted(p.name for p in out.iterdir()) == ["trend.csv"]
+    other = tmp_path / "other"
+    other.mkdir()
+    (other / ".notes.tmp").write_text("mine")
+    with pytest.raises(InputError, match="not empty"):
+        output_folder(other, case, overwrite=False, names=("trend.csv",))
+
+
+def test_scheduler_and_out_options_refused_in_words(tmp_path):
+    """--scheduler '' and --workers beside --scheduler are refused before anything connects;
+    an --out whose parent is missing is refused as for one part; a port where something
+    other than a dask scheduler answers says so (not 'not enough memory')."""
+    import socket
+    import threading
+
+    a = tmp_path / "a.toml"
+    a.write_text("")
+    with pytest.raises(InputError, match="scheduler's address"):
+        fleet.run_fleet([a], _fake_part, scheduler=" ")
+    with pytest.raises(InputError, match="leave --workers out"):
+        fleet.run_fleet([a], _fake_part, scheduler="tcp://127.0.0.1:1", workers=2)
+    with pytest.raises(InputError, match="does not exist"):
+        fleet.run_fleet([a], _fake_part, out=tmp_path / "no" / "such")
+    srv = socket.socket()
+    srv.bind(("127.0.0.1", 0))
+    srv.listen(4)
+
+    def answer():                      # an HTTP server's reply to whatever arrives
+        for _ in range(4):
+            try:
+                conn, _ = srv.accept()
+            except OSError:
+                return
+            conn.recv(65536)
+            conn.sendall(b"HTTP/1.1 400 Bad Request\r\nContent-Length: 0\r\n\r\n" * 64)
+            conn.close()
+    threading.Thread(target=answer, daemon=True).start()
+    try:
+        with pytest.raises(InputError, match="not a dask scheduler"):
+            fleet.run_fleet([a], _fake_part, scheduler=f"tcp://127.0.0.1:{srv.getsockname()[1]}")
+    finally:
+        srv.close()
