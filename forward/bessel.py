@@ -3,7 +3,7 @@
 J_m(x) for many (order, argument) pairs at once comes from a table on a uniform grid
 x_i = i h (h = 1/20) built by backward recurrence in the order,
     J_{m-1}(x) = (2 m / x) J_m(x) - J_{m+1}(x),
-seeded with two exact top orders; between nodes a quintic Hermite interpolant uses
+over blocks of ORDER_BLOCK orders, each seeded with the two exact orders above it; between nodes a quintic Hermite interpolant uses
 J, J' = (J_{m-1} - J_{m+1}) / 2 and J'' = (J_{m-2} - 2 J_m + J_{m+2}) / 4, stored as its
 six power coefficients, one flat array per power (p(t) = sum_j c_j t^j, t = (x - x_i) / h),
 and evaluated by a Horner sum in blocks of a few thousand (order, argument) pairs so the
@@ -26,23 +26,34 @@ STEP = 1.0 / 20.0
 BLOCK = 8192  # (order, argument) pairs per evaluation block (measured best of 256..16384)
 
 
+#: orders per block of the backward recurrence: each block is seeded with exact values just
+#: above it, so an order's table values never depend on how many orders the table holds (a
+#: process that once needed more harmonics gives the same numbers as a fresh one)
+ORDER_BLOCK = 8
+
+
 def _node_values(max_order: int, x: np.ndarray):
     """J, h J' and h^2 J'' at nodes x (one row per order 0..max_order), each (orders, n)."""
     top = max_order + 2  # need J up to order max_order + 2 for J''
-    vals = np.empty((top + 1, x.size))
+    blocks = top // ORDER_BLOCK + 1
+    vals = np.empty((blocks * ORDER_BLOCK, x.size))
     pos = x > 0
     xs = x[pos]
-    vals[top, pos] = special.jv(top, xs)
-    vals[top - 1, pos] = special.jv(top - 1, xs)
-    for m in range(top - 1, 0, -1):
-        vals[m - 1, pos] = (2.0 * m / xs) * vals[m, pos] - vals[m + 1, pos]
-    # Where the top seeds underflow (small x, high order) the recurrence carries no
-    # information: evaluate those nodes order by order instead.
-    weak = np.flatnonzero(pos & (np.abs(vals[top - 1]) < 1e-250))
-    if weak.size:
-        xw = x[weak]
-        for m in range(top + 1):
-            vals[m, weak] = special.jv(m, xw)
+    for b in range(blocks):
+        lo, hi = b * ORDER_BLOCK, (b + 1) * ORDER_BLOCK   # orders lo .. hi - 1 from seeds hi, hi + 1
+        above, seed = special.jv(hi + 1, xs), special.jv(hi, xs)
+        cur = seed
+        for m in range(hi, lo, -1):
+            cur, above = (2.0 * m / xs) * cur - above, cur
+            vals[m - 1, pos] = cur
+        # where the seeds underflow (small x, high order) the recurrence carries no
+        # information: evaluate those nodes order by order instead
+        weak = np.flatnonzero(pos)[np.abs(seed) < 1e-250]
+        if weak.size:
+            xw = x[weak]
+            for m in range(lo, hi):
+                vals[m, weak] = special.jv(m, xw)
+    vals = vals[: top + 1]
     vals[:, ~pos] = 0.0
     vals[0, ~pos] = 1.0
 
