@@ -67,7 +67,10 @@ def fleet_parts(paths) -> list[Path]:
         if p.is_dir():
             found = sorted(q for q in p.glob("*.toml") if q.is_file())
             if not found:
-                raise InputError("the folder holds no case file (*.toml)", file=p)
+                below = sorted(q for q in p.glob("*/*.toml") if q.is_file())
+                hint = (f"; its subfolders hold {len(below)} (e.g. {below[0]}): give them, e.g. "
+                        f"{p / '*' / '*.toml'}" if below else "")
+                raise InputError(f"the folder holds no case file (*.toml){hint}", file=p)
             out += found
         elif p.is_file():
             out.append(p)

@@ -315,3 +315,12 @@ def test_scheduler_and_out_options_refused_in_words(tmp_path):
             fleet.run_fleet([a], _fake_part, scheduler=f"tcp://127.0.0.1:{srv.getsockname()[1]}")
     finally:
         srv.close()
+
+
+def test_folder_of_part_folders_is_named_in_the_message(tmp_path):
+    """A folder whose case files sit one level down (a folder per part) is refused with where
+    they are and how to give them."""
+    (tmp_path / "plant" / "press").mkdir(parents=True)
+    (tmp_path / "plant" / "press" / "press.toml").write_text("")
+    with pytest.raises(InputError, match=r"subfolders hold 1 .*plant/\*/\*\.toml"):
+        fleet.fleet_parts([tmp_path / "plant"])
