@@ -92,8 +92,8 @@ def parse_part(ctx: _Ctx, part: dict) -> tuple[Cylinder, dict[str, str]]:
 def absent_face(cylinder: Cylinder, name: str) -> str:
     """Why a known face name is not a face of this part (message for faces.<name>)."""
     if name == "bore":
-        return ("the part is solid (no part.inner_radius), so it has no bore; give inner_radius = "
-                "\"...\" in [part] for a hollow part, or remove [faces.bore]")
+        return ("the part is solid (part.inner_radius is absent or 0), so it has no bore; give a positive "
+                "inner_radius = \"...\" in [part] for a hollow part, or remove [faces.bore]")
     if cylinder.long:
         return (f"a long part (height = \"long\") has no end faces, only the side (outer wall) and "
                 f"the bore; remove [faces.{name}] or give a finite height")

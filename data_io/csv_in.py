@@ -328,7 +328,9 @@ def check_inside(raw: RawTable, cols: dict[str, np.ndarray], cylinder, what: str
                          f"{format_quantity(cylinder.radius, 'length')})", file=raw.path, where=raw.where(i, col))
     if r is not None and not (-1e-9 * cylinder.radius <= r_arr[i] <= cylinder.radius * (1 + 1e-9)):
         name = "r"
-        limit = f"0 <= r <= radius {format_quantity(cylinder.radius, 'length')}"
+        limit = (f"inner radius {format_quantity(a, 'length')} <= r <= radius "
+                 f"{format_quantity(cylinder.radius, 'length')}" if a > 0 else
+                 f"0 <= r <= radius {format_quantity(cylinder.radius, 'length')}")
     else:
         name = "z"
         limit = f"0 <= z <= height {height}" if not cylinder.semi_infinite else "z >= 0"

@@ -9,7 +9,9 @@ mean m, and more only where the estimate itself goes further:
     h  = median over the display grid of (upper - lower) / 2.
 
 The face is called uniform within its bands when the face mean lies inside every point's
-95 % band, |estimate - m| <= (upper - lower) / 2 everywhere; the map then says so.
+95 % band, |estimate - m| <= (upper - lower) / 2 everywhere, and inside every declared zone's
+95 % interval (`zone_holds_mean`: a zone's mean pins the face more tightly than its points
+do); the map and the report then say so.
 All values in one display unit (data_io.display).
 """
 
@@ -47,3 +49,13 @@ def colour_scale(estimate, lower, upper, mean) -> ColourScale:
         lo, hi = m - pad, m + pad
     uniform = bool(np.all(np.abs(est - m) <= half))
     return ColourScale(lo, hi, h, uniform)
+
+
+def zone_holds_mean(zone: dict, mean_si) -> bool:
+    """The face mean lies inside the zone's 95 % interval (summary zone: 'lower', 'upper', SI)."""
+    lo, hi = zone.get("lower"), zone.get("upper")
+    vals = [lo, hi, mean_si]
+    if not all(v is not None and np.isfinite(float(v)) for v in vals):
+        return False
+    return float(lo) <= float(mean_si) <= float(hi)
+

@@ -10,7 +10,8 @@ K), heat flux in W/m^2 or kW/m^2, lengths in mm, angles in degrees.
 
 End faces are drawn as seen from above (looking along -z), angle counter-clockwise from
 the x axis, a hollow part's bore as an empty disc ringed at the inner radius; walls (the
-side and the bore) are drawn unrolled, angle around the axis against height.  A long
+side and the bore) are drawn unrolled, angle around the axis against height, the side seen
+from outside (angle growing to the right) and the bore seen from the axis (to the left).  A long
 part's wall varies with theta only: its figures are theta curves with their bands
 (data_io.wall_curve).
 """
@@ -18,6 +19,7 @@ part's wall varies with theta only: its figures are theta curves with their band
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -28,7 +30,7 @@ from ..forward.geometry import is_wall
 from . import wall_curve
 from .csv_out import atomic_write_bytes
 from .display import display_for
-from .face_scale import colour_scale
+from .face_scale import colour_scale, zone_holds_mean
 from .figure_pngs import figure_png, figure_pngs  # noqa: F401 (figure_png re-exported)
 from .figure_style import DPI, FLAG_COLOUR, LINE_COLOURS, LITERAL, new_figure as _new_figure
 from .sensor_plot import _flags, sensor_health, sensor_threshold  # noqa: F401 (re-exported)
@@ -147,7 +149,9 @@ def _map(result, values, cmap, colourbar_label, title, vmin, vmax, zones=()):
         mesh = ax.pcolormesh(_deg(th), _mm(s), vals, cmap=cmap, vmin=lo, vmax=hi, shading="gouraud")
         _sensor_overlay(ax, result, polar=False)
         _draw_zones(ax, result, zones)
-        ax.set_xlim(0.0, 360.0)
+        # seen from outside the angle grows to the right; seen from the axis (the bore) to the
+        # left, as it does for someone looking at that wall from inside
+        ax.set_xlim(*((360.0, 0.0) if result.face == "bore" else (0.0, 360.0)))
         ax.set_ylim(0.0, float(_mm(result.cylinder.height)))
         ax.set_xticks(np.arange(0, 361, 45))
         ax.set_xlabel("angle around the axis θ [°]")
@@ -185,13 +189,18 @@ def _map(result, values, cmap, colourbar_label, title, vmin, vmax, zones=()):
 
 def map_scale(result):
     """The colour scale of the face map in display units (data_io.face_scale): at least the
-    typical 95 % half-width around the face mean; `uniform` when the mean is inside every band."""
+    typical 95 % half-width around the face mean; `uniform` when the mean is inside every band
+    and inside every zone's 95 % interval (face_scale.zone_holds_mean)."""
     d = display_for(result)
     g = result.grid
     mean = result.summary.get("mean")
-    return colour_scale(d.value(np.asarray(g["estimate"], float)), d.value(np.asarray(g["lower"], float)),
-                        d.value(np.asarray(g["upper"], float)),
-                        d.value(float(mean)) if mean is not None and np.isfinite(mean) else np.nan)
+    scale = colour_scale(d.value(np.asarray(g["estimate"], float)), d.value(np.asarray(g["lower"], float)),
+                         d.value(np.asarray(g["upper"], float)),
+                         d.value(float(mean)) if mean is not None and np.isfinite(mean) else np.nan)
+    zones = result.summary.get("zones") or ()
+    if scale.uniform and not all(zone_holds_mean(z, mean) for z in zones):
+        scale = replace(scale, uniform=False)
+    return scale
 
 
 def face_map(result, *, vmin=None, vmax=None, zones=()) -> Figure:

@@ -97,6 +97,10 @@ def pm95(value: str, sd_shown, unit: str) -> str:
     return f"{value} ± {sig(half95(sd_shown), SPREAD_DIGITS)} {unit} (95 %)".replace("  ", " ")
 
 
+#: a 95 % half-width below this fraction of its value is round-off, shown as ± 0
+EXACT_BELOW = 1e-9
+
+
 def pm95_of(x, sd, unit: str) -> str:
     """'11.57 ± 0.025 kW/m² (95 %)': x with eng's significant digits, or more decimals where
     its last digit would be coarser than the half-width (11.6 ± 0.025 would round the value
@@ -115,6 +119,10 @@ def pm95_of(x, sd, unit: str) -> str:
         have = len(text.split(".")[1]) if "." in text else 0
         if need > have:
             text = f"{float(x):.{need}f}"
+    if _finite(half) and float(x) != 0 and half < EXACT_BELOW * abs(float(x)):
+        # round-off of a figure the model fixes exactly (a long tube's heat through the bore
+        # is the heat the outer wall takes in): no band to speak of
+        return f"{text} ± 0 {unit} (95 %)".replace("  ", " ")
     return pm95(text, sd, unit)
 
 
@@ -223,11 +231,14 @@ def _deg(x, decimals=0) -> str:
     return f"{from_si(x, 'angle', 'deg') % 360.0:.{decimals}f}" if _finite(x) else "–"
 
 
-def _position(face, at) -> str:
-    """Where on the face a point lies, in words and user units."""
+def _position(face, at, long: bool = False) -> str:
+    """Where on the face a point lies, in words and user units (a long part's wall: its angle
+    alone, nothing varies along z)."""
     if not at:
         return ""
     if face in ("side", "bore"):
+        if long:
+            return f"at θ = {_deg(at.get('theta_rad'))}°"
         return f"at θ = {_deg(at.get('theta_rad'))}°, z = {_mm(at.get('z_m'))} mm"
     r = at.get("r_m")
     if _finite(r) and abs(float(r)) < 1e-9:

@@ -17,6 +17,7 @@ import math
 import numpy as np
 
 from .display import power_unit, power_words
+from .face_scale import zone_holds_mean
 from .report_format import _Fmt, _finite, _position, eng, flux_relation, half95, percent, power_pm, sig
 from .units import from_si
 
@@ -24,10 +25,7 @@ from .units import from_si
 UNRESOLVED_WORDS = ("cannot resolve", "unresolved", "not resolved", "cannot tell")
 
 
-def _inside(z, mean_si) -> bool:
-    """The face mean lies inside the zone's 95 % interval."""
-    lo, hi = z.get("lower"), z.get("upper")
-    return _finite(lo) and _finite(hi) and _finite(mean_si) and float(lo) <= float(mean_si) <= float(hi)
+_inside = zone_holds_mean     # the face mean lies inside the zone's 95 % interval
 
 
 def _zone_phrase(z, fmt: _Fmt, mean_si, distance: bool = True) -> str:
@@ -78,8 +76,9 @@ def zone_sentences(summary, fmt: _Fmt) -> list[str]:
 
 def extreme_sentence(result, fmt: _Fmt) -> str:
     s = result.summary
-    return (f"The lowest value is {fmt.pm(s.get('min'), s.get('min_sd'))} {_position(result.face, s.get('min_at'))}; "
-            f"the highest is {fmt.pm(s.get('max'), s.get('max_sd'))} {_position(result.face, s.get('max_at'))}.")
+    long = result.cylinder.long
+    return (f"The lowest value is {fmt.pm(s.get('min'), s.get('min_sd'))} {_position(result.face, s.get('min_at'), long)}; "
+            f"the highest is {fmt.pm(s.get('max'), s.get('max_sd'))} {_position(result.face, s.get('max_at'), long)}.")
 
 
 def level_sentence(result, fmt: _Fmt) -> str:
@@ -149,7 +148,7 @@ def unresolved_sentences(result, fmt: _Fmt) -> list[str]:
     # the place by its band, the "±" as everywhere else: 1.96 sd (the glossary's; the band
     # of a mixture may sit unevenly about the estimate)
     pm = half95(float(g["std"].iloc[i]))
-    return [f"What these readings tell least: the estimate {_position(result.face, at)}, where the 95 % "
+    return [f"What these readings tell least: the estimate {_position(result.face, at, result.cylinder.long)}, where the 95 % "
             f"interval is widest: ± {sig(fmt.d.diff(pm), 2)} {fmt.d.diff_symbol} (95 %); more sensors near "
             "there would narrow it (see the band-width map)."]
 

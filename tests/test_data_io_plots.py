@@ -256,3 +256,19 @@ def test_side_figures_render(side_result):
     figs = plots.all_figures(side_result, ("sensors", "strength"))
     for fig in figs.values():
         assert _png_size(plots.figure_png(fig, dpi=50))[0] > 100
+
+
+def test_face_called_uniform_only_when_every_zone_holds_the_face_mean(end_result):
+    """A face whose points' bands all hold the face mean is still not 'uniform within its
+    bands' when a declared zone's 95 % interval excludes that mean (a fouled zone 30 % off,
+    found by a review: the map and the report said 'uniform' beside that zone's figure)."""
+    g = end_result.grid.copy()
+    m = float(end_result.summary["mean"])
+    spread = float(np.nanmax(np.abs(np.asarray(g["estimate"], float) - m)))
+    g["lower"], g["upper"] = g["estimate"] - 2 * spread - 1.0, g["estimate"] + 2 * spread + 1.0
+    base = dataclasses.replace(end_result, grid=g, summary={**end_result.summary, "zones": []})
+    assert plots.map_scale(base).uniform
+    held = {"name": "inner", "mean": m, "lower": m - 10.0, "upper": m + 10.0}
+    assert plots.map_scale(dataclasses.replace(base, summary={**base.summary, "zones": [held]})).uniform
+    off = {"name": "outer", "mean": m - 0.3 * abs(m), "lower": m - 0.4 * abs(m), "upper": m - 0.2 * abs(m)}
+    assert not plots.map_scale(dataclasses.replace(base, summary={**base.summary, "zones": [held, off]})).uniform

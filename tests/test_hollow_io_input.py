@@ -73,7 +73,11 @@ CHECK = ["check", "case.toml"]
 # name -> (case text, extra files, argv, expected fragment of the one-line message)
 CASES = {
     "bore on a solid part": (SOLID + '[faces.bore]\ncondition = "insulated"\n', {}, SIM,
-                             "faces.bore: the part is solid (no part.inner_radius), so it has no bore"),
+                             "faces.bore: the part is solid (part.inner_radius is absent or 0), so it has no bore"),
+    "bore on a zero inner radius": (sub('inner_radius = "40 mm"', 'inner_radius = "0 mm"', TUBE), {}, SIM,
+                                    "faces.bore: the part is solid (part.inner_radius is absent or 0)"),
+    "sensor beyond the outer wall": (UNKNOWN_BORE, {"layout.csv": LAYOUT.replace("T2,55", "T2,65")}, CHECK,
+                                     "(inner radius 40 mm <= r <= radius 60 mm)"),
     "inner radius = radius": (sub('inner_radius = "40 mm"', 'inner_radius = "60 mm"', TUBE), {}, SIM,
                               "part.inner_radius: the inner radius '60 mm' must be below the radius '60 mm'"),
     "inner radius > radius": (sub('inner_radius = "40 mm"', 'inner_radius = "7 cm"', TUBE), {}, SIM,

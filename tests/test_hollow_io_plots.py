@@ -184,3 +184,27 @@ def test_a_long_parts_files_name_powers_per_metre(tmp_path):
     _fit(tmp_path, LONG_TUBE, sensors, tube)
     frame = picks_frame(compute_plan(load_case(tmp_path / "case.toml"), 1, targets=["power"]))
     assert "sd_total_power_W_per_m" in frame.columns
+
+
+def test_bore_map_is_drawn_as_seen_from_the_axis():
+    """Seen from the axis, the angle around a bore grows to the left (theta counter-clockwise
+    seen from above; an observer inside facing the wall has +theta on the left); the side,
+    seen from outside, grows to the right.  The bore's map draws it so (a review found it
+    mirrored under its 'seen from the axis' title)."""
+    from types import SimpleNamespace
+
+    from heatsight import inverse
+    from heatsight.forward import Convection, Cylinder, CylinderModel, Insulated, Temperature, UnknownTemperature
+
+    cyl = Cylinder(0.08, 0.2, 45.0, inner_radius=0.06)
+    known = {"bottom": Insulated(), "top": Insulated(), "side": Convection(15.0, 293.15)}
+    truth = CylinderModel(cyl, {**known, "bore": Temperature(lambda th, z: 400.0 + 10.0 * np.cos(th))})
+    th = np.repeat(np.radians(np.arange(0, 360, 45)), 2)
+    z = np.tile([0.06, 0.14], 8)
+    r = np.full(th.size, 0.07)
+    rd = inverse.SensorReadings([f"W{i}" for i in range(th.size)], r, th, z, truth.temperature(r, th, z),
+                                np.full(th.size, 0.1), np.zeros(th.size), np.zeros(th.size))
+    res = inverse.fit(SimpleNamespace(cylinder=cyl, faces={**known, "bore": UnknownTemperature()}, zones=[]), rd,
+                      prior="fixed", grid=(7, 16))
+    ax = plots.face_map(res).axes[0]
+    assert "seen from the axis" in ax.get_title() and ax.get_xlim() == (360.0, 0.0)

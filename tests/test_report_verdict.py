@@ -232,7 +232,7 @@ def test_pm95_writes_the_level():
     (817.7, 0.9, "818 ± 1.8 kW/m² (95 %)"),              # three digits hold the band
     (-4980.0, 148.0, "-4980 ± 290 kW/m² (95 %)"),
     (2.4e31, 1e30, "2.40e+31 ± 2.0e+30 kW/m² (95 %)"),   # no 31-digit integer
-    (-4189.301531715689, 3.6e-12, "-4189.302 ± 7.1e-12 kW/m² (95 %)"),   # known exactly: 7 digits at most
+    (-4189.301531715689, 3.6e-12, "-4189.302 ± 0 kW/m² (95 %)"),   # known exactly: 7 digits at most, no band
     (0.0, 1e-13, "0 ± 2.0e-13 kW/m² (95 %)"),
     (1.49e-07, 0.28, "0.0 ± 0.55 kW/m² (95 %)"),        # a value lost inside its band
 ])
@@ -357,7 +357,20 @@ def test_the_widest_band_sentence_writes_its_plus_minus_as_1_96_sd(demo):
     i = int(np.nanargmax(np.asarray(g["upper"], float) - np.asarray(g["lower"], float)))
     fmt = verdict._Fmt(res)
     text = verdict.unresolved_sentences(SimpleNamespace(summary={"warnings": []}, warnings=[], grid=g,
-                                                        face=res.face), fmt)[0]
+                                                        face=res.face, cylinder=res.cylinder), fmt)[0]
     z95 = norm.ppf(0.975)           # the standard normal's 97.5 % point (scipy.stats, reference library)
     want = f"± {verdict.sig(fmt.d.diff(z95 * float(g['std'].iloc[i])), 2)} "
     assert want in text, (want, text)
+
+
+def test_round_off_band_and_a_long_walls_position():
+    """A half-width below 1e-9 of its value is round-off (a long tube's heat through the bore
+    is fixed by the outer wall's): '± 0', never '± 2.2e-12'; a long part's wall point has an
+    angle and no height (a review found 'z = 0.0 mm' in a long tube's report)."""
+    from heatsight.data_io.report_format import _position, pm95_of
+
+    assert pm95_of(1884.956, 1.1e-12, "W/m") == "1884.956 ± 0 W/m (95 %)"
+    assert pm95_of(818.2, 0.8, "W") == "818 ± 1.6 W (95 %)"
+    at = {"theta_rad": math.radians(340.0), "z_m": 0.0}
+    assert _position("bore", at, long=True) == "at θ = 340°"
+    assert "z = " in _position("bore", at)
