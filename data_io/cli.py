@@ -216,14 +216,16 @@ def _run_check(args) -> int:
 
 def plan_and_zone_notes(case, layout) -> list[str]:
     """What fit and plan would skip or refuse in a case that reads well: zones off the unknown
-    face or covering none of it (fit skips them), and [plan] rules that leave no position of
-    the candidate grid (plan refuses)."""
+    face or covering none of it (fit skips them), and the case's own [plan] rules when they
+    leave no position of the candidate grid (plan refuses)."""
     from ..inverse.errors import InverseError
     from ..inverse.plan_rules import candidate_grid, drill_face
     from ..inverse.result import valid_zones
 
     notes: list[str] = []
     valid_zones(case.zones, case.unknown_face, case.cylinder, notes)
+    if case.plan.rules == type(case.plan.rules)():
+        return notes        # plan's default rules: `plan` itself says what they leave, if it is run
     f = None if layout is None else layout.frame
     existing = None if f is None else tuple(f[k].to_numpy(float) for k in ("r", "theta", "z"))
     try:

@@ -169,11 +169,15 @@ def sensor_depths(case: Case, layout) -> list[str]:
     cyl = case.cylinder
     if not cyl.hollow:
         return []
-    face = case.unknown_face if case.unknown_face in ("side", "bore") else "bore"
+    wall_unknown = case.unknown_face in ("side", "bore")
+    face = case.unknown_face if wall_unknown else "bore"
     origin = "the bore (inner wall)" if face == "bore" else "the outside (outer wall)"
     fr = layout.frame
     depth = cyl.depth(face, fr["r"].to_numpy(float), fr["z"].to_numpy(float))
-    lines = [f"sensor depth in the wall, from {origin}, as a fraction of the "
+    # an unknown end face is seen across z; the wall's radial position is then where the
+    # sensor sits across the face, not its depth under it
+    what = "sensor depth in the wall" if wall_unknown else "sensor position across the wall"
+    lines = [f"{what}, from {origin}, as a fraction of the "
              f"{format_quantity(cyl.thickness, 'length')} thickness:"]
     for name, d in zip(fr.index, depth):
         lines.append(f"  {name}: {format_quantity(float(d), 'length')} = {d / cyl.thickness:.2f}")

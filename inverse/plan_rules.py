@@ -278,8 +278,10 @@ def candidate_grid(rules: PlanRules, face: str, cylinder, existing=None):
         upper = ("[plan] depth_max" if rules.depth_max is not None and rules.depth_max <= deep else
                  f"the part's {'wall' if face == 'side' else 'height'} less [plan] face_distance")
         lower = "[plan] depth_min" if rules.depth_min >= g else "[plan] face_distance"
-        raise InverseError(f"no depth is allowed: the depth range ends at {dmax * 1e3:.3g} mm ({upper}), below "
-                           f"{dmin * 1e3:.3g} mm ({lower})")
+        top_mm = round(max(dmax, 0.0) * 1e3, 9)     # a thin wall less twice the distance: 0, not 1e-15
+        raise InverseError(f"no depth is allowed: the depth range ends at {top_mm:.3g} mm ({upper}), below "
+                           f"{dmin * 1e3:.3g} mm ({lower}); lower {lower}, or give the positions with "
+                           f"--candidates")
     depths = np.linspace(dmin, dmax, rules.depths) if rules.depths > 1 else np.array([0.5 * (dmin + dmax)])
     n_theta = angle_count(rules.angle_step)
     theta = 2 * math.pi * np.arange(n_theta) / n_theta

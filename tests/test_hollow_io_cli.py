@@ -222,3 +222,45 @@ def test_long_tube_fit_when_the_wall_heats_the_fluid(tmp_path, monkeypatch, caps
                     "pressure-equipment rules"):
         assert caution in report
     assert "nothing varies along a long part" in report     # the theta-curve captions
+
+
+def test_thin_walls_plan_grid_message_and_check_without_a_plan_table():
+    """A 2 mm wall leaves plan's default grid no depth: the message says 0 mm (not 1.7e-15) and
+    what to change; `check` of a case without a [plan] table does not warn about plan's grid
+    (plan says so itself when it is run).  A review found both."""
+    from types import SimpleNamespace
+
+    from heatsight.data_io.case_options import PlanOptions
+    from heatsight.data_io.cli import plan_and_zone_notes
+    from heatsight.forward import Cylinder
+    from heatsight.inverse.errors import InverseError
+    from heatsight.inverse.plan_rules import PlanRules, candidate_grid, drill_face
+
+    cyl = Cylinder(0.08, 0.4, 45.0, inner_radius=0.078)
+    rules = PlanRules()
+    with pytest.raises(InverseError) as err:
+        candidate_grid(rules, drill_face(rules, "bore", cyl), cyl, None)
+    text = str(err.value)
+    assert "ends at 0 mm" in text and "e-1" not in text and "--candidates" in text
+    case = SimpleNamespace(path="tube.toml", zones=[], unknown_face="bore", cylinder=cyl, plan=PlanOptions())
+    assert plan_and_zone_notes(case, None) == []
+    case.plan = PlanOptions(rules=PlanRules(spacing=0.01))
+    assert any("plan's own grid" in n for n in plan_and_zone_notes(case, None))
+
+
+def test_positions_across_the_wall_for_an_unknown_end_face():
+    """With an end face unknown, a hollow part's sensors are listed by where they sit across
+    the wall, not as a depth under the unknown face."""
+    from types import SimpleNamespace
+
+    import pandas as pd
+
+    from heatsight.data_io.describe import sensor_depths
+    from heatsight.forward import Cylinder
+
+    cyl = Cylinder(0.06, 0.03, 16.0, inner_radius=0.04)
+    layout = SimpleNamespace(frame=pd.DataFrame({"r": [0.045], "theta": [0.0], "z": [0.008]}, index=["E01"]))
+    end = sensor_depths(SimpleNamespace(cylinder=cyl, unknown_face="bottom"), layout)
+    bore = sensor_depths(SimpleNamespace(cylinder=cyl, unknown_face="bore"), layout)
+    assert end[0].startswith("sensor position across the wall, from the bore") and "E01: 5 mm = 0.25" in end[1]
+    assert bore[0].startswith("sensor depth in the wall, from the bore")
