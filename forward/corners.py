@@ -172,23 +172,12 @@ class PolynomialLifting:
     def _face_factors(self, face, rho, zeta, value, normal):
         """Per-term factors multiplying Theta_m on a face (rows: points or grid lines,
         columns: terms): of w (rho^m P) when value, of dw/dn along the face's outward normal
-        when normal; None for what is not asked."""
-        a, L = self.radius, self.height
-        m, c, d = self.m, self._c(), self.delta
-        poly = (self.alpha + self.beta * zeta + self.gamma * (zeta ** 2 - c * rho ** 2)
-                + d * (zeta ** 3 - 3.0 * c * zeta * rho ** 2))
-        pw = rho ** m
+        (bottom -z, top +z, side +r, bore -r) when normal; None for what is not asked."""
+        t, dr, _, dz = self._rz_factors(rho, zeta, normal)
         if not normal:
-            return pw * poly, None
-        if face in ("bottom", "top"):
-            d_dn = pw * (self.beta + 2.0 * self.gamma * zeta + 3.0 * d * (zeta ** 2 - c * rho ** 2))
-            d_dn = d_dn / (L if math.isfinite(L) else 1.0)
-        else:
-            pw1 = np.where(m >= 1, rho ** np.maximum(m - 1, 0), 0.0)
-            d_dn = (m * pw1 * poly - pw * (2.0 * c * self.gamma * rho + 6.0 * c * d * zeta * rho)) / a
-        if face in ("bottom", "bore"):
-            d_dn = -d_dn
-        return (pw * poly if value else None), d_dn
+            return t, None
+        d_dn = dz if face in ("bottom", "top") else dr
+        return (t if value else None), (-d_dn if face in ("bottom", "bore") else d_dn)
 
     def on_face(self, face, r, theta, z, value=True, normal=True):
         """(w (P,) or None, dw/dn (P,) or None) at points of a face, dn along its outward
