@@ -16,10 +16,13 @@ class OperatorData:
 
     def __init__(self, model, field, face, condition, given=None):
         self.model, self.field, self.face, self.condition, self.given = model, field, face, condition, given
+        # a constant field (or none) has the same operator everywhere: T ('D'), 0 ('N'), h T ('R')
+        const = field.constant_value()
+        self._uniform = None if const is None else float(condition.operator(const, 0.0, model.k))
 
     def _operator(self, u, v):
-        if self.field.empty:
-            return np.zeros(np.broadcast(np.asarray(u, float), np.asarray(v, float)).shape)
+        if self._uniform is not None:
+            return np.full(np.broadcast(np.asarray(u, float), np.asarray(v, float)).shape, self._uniform)
         return self.model.face_operator(self.field, self.face, self.condition, u, v)
 
     def __call__(self, u, v):
@@ -29,7 +32,7 @@ class OperatorData:
     def grid(self, s, theta):
         """The data on the grid of lines s x theta, (S, T): s = r on an end face, z on a wall."""
         s, theta = np.asarray(s, float).ravel(), np.asarray(theta, float).ravel()
-        out = (np.zeros((s.size, theta.size)) if self.field.empty else
+        out = (np.full((s.size, theta.size), -self._uniform) if self._uniform is not None else
                -self.model.face_operator_grid(self.field, self.face, self.condition, s, theta))
         if self.given is None:
             return out

@@ -219,3 +219,10 @@ def test_face_data_on_grid_lines_equals_the_pointwise_data():
                 S, TH = np.meshgrid(s, th, indexing="ij")
                 pointwise = data(TH, S) if wall else data(S, TH)
                 assert np.allclose(data.grid(s, th), pointwise, rtol=1e-12, atol=1e-12 * np.abs(pointwise).max()), face
+            # a constant field's operator is one number per face (T, 0 or h T): the same values
+            const = PolynomialLifting.from_terms(A, L, [(0, False, (310.0, 0.0, 0.0))])
+            S, TH = np.meshgrid(s, th, indexing="ij")
+            u, v = (TH, S) if wall else (S, TH)
+            direct = given(u, v) - model.face_operator(const, face, cond, u, v)
+            assert np.allclose(OperatorData(model, const, face, cond, given=given).grid(s, th), direct,
+                               rtol=1e-14, atol=1e-12), face
