@@ -50,6 +50,17 @@ def pinned_edges(design) -> list:
     return out
 
 
+def estimated_points(F, quantity: str) -> np.ndarray:
+    """Which rows of face values F (points x columns) the fit estimates: on a flux face not
+    those where every column vanishes (below PINNED of the largest value; a pinned edge,
+    whose value is fixed, not estimated); every row of a temperature face."""
+    F = np.asarray(F, float)
+    size = np.abs(F).max(axis=1) if F.size else np.zeros(F.shape[0])
+    if quantity == "temperature" or not size.size or size.max() == 0:
+        return np.ones(F.shape[0], dtype=bool)
+    return size > PINNED * size.max()
+
+
 def pinned_edge_notes(design) -> list[str]:
     """One sentence per pinned edge of an unknown flux face (pinned_edges)."""
     face = design.face_name

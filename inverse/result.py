@@ -18,6 +18,7 @@ from ..forward.geometry import is_wall
 from .face_grid import display_grid, face_interval, face_on, quadrature
 from .functionals import functional_matrix
 from .model_choice import ModelMixture, gaussian_draws
+from .pinned_edges import estimated_points
 from .strength_average import answers_mixture
 
 __all__ = ["Posterior", "FitResult", "Z95"]
@@ -295,10 +296,13 @@ class FitResult:
         on_quadrature = _evaluated_once(lambda d: functional_matrix(d, valid)[1:], design, (F, k))
         f_mean, f_sd, _, _ = posterior.figures(on_quadrature, design, extra_variance=extra_var)
 
-        # extremes and non-uniformity from posterior draws on the display grid
+        # extremes and non-uniformity from posterior draws on the display grid, over the
+        # points the fit estimates (not a pinned edge's, fixed at zero flux: pinned_edges)
         prof = posterior.draws(on_grid, design, 400, seed=1)
-        mins, maxs = prof.min(axis=1), prof.max(axis=1)
-        i_min, i_max = int(np.argmin(mean)), int(np.argmax(mean))
+        free = estimated_points(on_grid(design)[0], quantity)
+        mins, maxs = prof[:, free].min(axis=1), prof[:, free].max(axis=1)
+        where = np.flatnonzero(free)
+        i_min, i_max = int(where[np.argmin(mean[free])]), int(where[np.argmax(mean[free])])
 
         zones = _zone_entries(valid, names, f_mean, f_sd, face, cyl, quantity, warnings)
         for z in zones:
