@@ -161,14 +161,16 @@ def exit_status(records) -> int:
 
 
 def run_fleet(paths, task, *, out=None, scheduler=None, workers=None, options=None, report=None, client=None,
-              preload=()):
+              preload=(), started=None):
     """Run task(case path, output folder or None, options) -> record (a module-level
     function, data_io.trend_command.run_part) for every part; returns (records in the parts'
     order, exit status).
     report(i, n, record) is called as each part finishes (progress per part); `client`: an
     existing dask Client to use (else one is made from scheduler / workers and closed);
     preload: names of the modules the task needs, loaded in a local cluster's workers before
-    they start (LOCAL_START_METHOD)."""
+    they start (LOCAL_START_METHOD).
+    started(n, where) is called once the cluster answers, before the parts are submitted
+    (where: "a local cluster of 2 worker processes" or "the cluster at ADDRESS")"""
     if scheduler is not None and not str(scheduler).strip():
         raise InputError("--scheduler needs the scheduler's address, e.g. tcp://10.0.0.5:8786")
     parts = fleet_parts(paths)
@@ -195,6 +197,11 @@ def run_fleet(paths, task, *, out=None, scheduler=None, workers=None, options=No
         if own:
             client = _client(scheduler, workers, preload)
         from dask.distributed import as_completed
+
+        if started is not None:
+            where = (f"the cluster at {scheduler}" if scheduler else
+                     f"a local cluster of {workers} worker process{'es' if workers > 1 else ''}")
+            started(len(parts), where if own else "the given cluster")
 
         futures = [client.submit(task, c, f, options, key=f"heatsight-part-{run_id}-{i}", pure=False)
                    for i, (c, f) in enumerate(zip(cases, targets))]

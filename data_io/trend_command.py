@@ -197,8 +197,13 @@ def _fleet(args) -> int:
 
     options = dict(every=args.every, window=args.window, drift=args.drift, sigma_floor=args.sigma_floor,
                    overwrite=args.overwrite, tz=args.tz, fmt=args.format)
+    def started(n, where):
+        if not (con.quiet or con.json):
+            print(f"{n} parts on {where}; a line as each part finishes", file=con.stdout)
+            sys.stdout.flush()
+
     records, status = run_fleet(args.case, run_part, out=args.out, scheduler=args.scheduler, workers=args.workers,
-                                options=options, report=report, preload=PART_MODULES)
+                                options=options, report=report, preload=PART_MODULES, started=started)
     done = sum(r["status"] == "done" for r in records)
     con.answer(f"{done} of {len(records)} parts done", {"parts": records, "done": done, "exit_status": status})
     return status

@@ -40,6 +40,8 @@ def test_fleet_matches_one_by_one_and_goes_on_past_a_bad_part(tmp_path, capsys):
     assert code == 2                                       # a part had bad input; the others are written
     assert sorted(p.name for p in (tmp_path / "fleet").iterdir()) == ["a-trend", "b-trend"]
     assert out.count("done in") == 2 and "2 of 3 parts done" in out
+    # a fleet says what it runs before the first part's minutes pass (long work shows progress)
+    assert out.splitlines()[0] == "3 parts on a local cluster of 2 worker processes; a line as each part finishes"
     assert err.count("heatsight: error: ") == 1 and "c.toml" in err and "layout.csv" in err
     assert "Traceback" not in err
     for case in (a,):                                      # the same bytes as the part run alone
