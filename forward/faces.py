@@ -125,6 +125,11 @@ class FaceCondition:
     def is_uniform(self) -> bool:
         return True
 
+    @property
+    def uniform_datum(self) -> float | None:
+        """The datum when it is one number over the face (`data` anywhere), else None."""
+        return float(self.data(np.zeros(1), np.zeros(1))[0]) if self.is_uniform else None
+
 
 class _ValueCondition(FaceCondition):
     """A condition whose data is its `value` (uniform number or profile)."""

@@ -20,7 +20,7 @@ from .harmonics import harmonic_amplitudes, theta_nodes
 from .corners import PolynomialLifting, curvature_coefficient, end_rows, solve_rim
 from .families import families_for
 from .series import KnownSeries, _gauss
-from .face_data import OperatorData
+from .face_data import OperatorData, uniform_operator
 from .basis import UnknownBasis  # re-exported: forward.model.UnknownBasis
 
 
@@ -247,8 +247,11 @@ class CylinderModel:
                 continue
             if face == "side" and cyl.semi_infinite:
                 continue  # carried exactly by the two-dimensional lifting
-            if self._residual_vanishes(cond):
-                continue  # no data beyond the lifting: no series (and no sampling to find that out)
+            if cond.is_uniform and uniform_operator(self.lifting, cond, self.k) == cond.uniform_datum:
+                # a uniform datum the constant lifting meets exactly (an insulated face, a
+                # convection face at the reference ambient): no data beyond the lifting, no
+                # series, and no sampling to find that out
+                continue
             data = self._residual_data(face, cond)
             span = cyl.datum_span(face)
             # harmonics relative to this face's own data (a tiny flux beside a large ambient
@@ -261,16 +264,6 @@ class CylinderModel:
             if s.modes is not None:
                 self.series.append(s)
 
-    def _residual_vanishes(self, cond) -> bool:
-        """True when a face's residual data B_F[T] - B_F[lifting] are zero by construction: a
-        uniform datum met exactly by a constant lifting (an insulated face, a convection face
-        whose ambient is the reference temperature)."""
-        const = self.lifting.constant_value()
-        if const is None or not cond.is_uniform:
-            return False
-        zero = np.zeros(1)
-        return bool(cond.data(zero, zero)[0] == cond.operator(const, 0.0, self.k))
-
     def _data_sizes(self):
         """Largest |data| of each known face on a coarse sample [data units: K, W/m^2]."""
         cyl = self.cylinder
@@ -281,7 +274,7 @@ class CylinderModel:
             if cond.unknown:
                 continue
             if cond.is_uniform:
-                sizes[face] = float(abs(cond.data(np.zeros(1), np.zeros(1))[0]))
+                sizes[face] = abs(cond.uniform_datum)
                 continue
             wall = is_wall(face)
             s = (np.linspace(0.0, L if math.isfinite(L) else a, 9) if wall

@@ -125,7 +125,9 @@ class EndFaceModes:
         zh, dzh = self.axial(self.zeta(z))
         if not gradient:
             return self._radial_at(radii)[back] * th * zh, None
-        jm1, j, jp1 = (f[back] for f in besselj_triplet(self.m, x))
+        jm1, j, jp1 = besselj_triplet(self.m, x)
+        self._remember(radii, j)
+        jm1, j, jp1 = jm1[back], j[back], jp1[back]
         t = j * th * zh
         sign = 1.0 if self.face == "bottom" else -1.0
         grad = np.stack([
@@ -139,11 +141,12 @@ class EndFaceModes:
         """Separable factors on grid lines (forward/grid.py): J_m(kappa r) (R, K), its
         d/dr and m J_m / r = kappa (J_{m-1} + J_{m+1}) / 2 [1/m], Zhat(zeta(z)) (Z, K) and
         dZhat/dz [1/m] (None when not gradient)."""
-        x = np.multiply.outer(np.asarray(r, float), self.kappa)
+        r = np.asarray(r, float)
         zh, dzh = self.axial(self.zeta(z))
         if not gradient:
-            return besselj(self.m, x), None, None, zh, None
-        jm1, j, jp1 = besselj_triplet(self.m, x)
+            return self._radial_at(r), None, None, zh, None
+        jm1, j, jp1 = besselj_triplet(self.m, np.multiply.outer(r, self.kappa))
+        self._remember(r, j)
         sign = 1.0 if self.face == "bottom" else -1.0
         return (j, self.kappa * 0.5 * (jm1 - jp1), self.kappa * 0.5 * (jm1 + jp1), zh,
                 sign * dzh)
@@ -177,15 +180,18 @@ class EndFaceModes:
         return radial, np.abs(zh[:, index])
 
     def _radial_at(self, radii):
-        """J_m(kappa r) at radii [m], (R, K).  The last call's values are kept: a chunk's
-        temperature and its truncation estimate ask for the same radii
-        (series.KnownSeries._block_points), so J_m is looked up once for both."""
+        """J_m(kappa r) at radii [m], (R, K).  The last radii's values are kept (`_remember`):
+        a chunk's field (or a grid's factors) and its truncation estimate ask for the same
+        radii (series.KnownSeries), so J_m is looked up once for both."""
         radii = np.asarray(radii, float)
         memo = self._radial_memo
         if memo is not None and memo[0].shape == radii.shape and np.array_equal(memo[0], radii):
             return memo[1]
-        j = besselj(self.m, np.multiply.outer(radii, self.kappa))
-        self._radial_memo = (radii.copy(), j)
+        return self._remember(radii, besselj(self.m, np.multiply.outer(radii, self.kappa)))
+
+    def _remember(self, radii, j):
+        """Keep J_m(kappa r) at these radii for the next `_radial_at` (one tuple, replaced whole)."""
+        self._radial_memo = (np.array(radii, float, copy=True), j)
         return j
 
     def area_integrals(self):
