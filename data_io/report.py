@@ -110,9 +110,9 @@ def _numbers(result, fmt: _Fmt) -> str:
                       f"{fmt.band(mean - Z95 * mean_sd, mean + Z95 * mean_sd)}"
          if _finite(mean) and _finite(mean_sd) else fmt.value(mean)),
         ("minimum", f"{fmt.value(s.get('min'))} {_pm_sd(fmt, s.get('min_sd'))} "
-                    f"{_position(result.face, s.get('min_at'), result.cylinder.long)}"),
+                    f"{_position(result, s.get('min_at'))}"),
         ("maximum", f"{fmt.value(s.get('max'))} {_pm_sd(fmt, s.get('max_sd'))} "
-                    f"{_position(result.face, s.get('max_at'), result.cylinder.long)}"),
+                    f"{_position(result, s.get('max_at'))}"),
         ("spread over the face (maximum − minimum)",
          f"{fmt.diff(s.get('nonuniformity'))} {_pm_sd(fmt, s.get('nonuniformity_sd'))}"),
         ("heat into the part through this face" + (" (per metre of length)" if fmt_long(result) else ""),

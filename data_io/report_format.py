@@ -122,7 +122,7 @@ def pm95_of(x, sd, unit: str) -> str:
     if _finite(half) and float(x) != 0 and half < EXACT_BELOW * abs(float(x)):
         # round-off of a figure the model fixes exactly (a long tube's heat through the bore
         # is the heat the outer wall takes in): no band to speak of
-        return f"{text} ± 0 {unit} (95 %)".replace("  ", " ")
+        return pm95(text, 0.0, unit)
     return pm95(text, sd, unit)
 
 
@@ -231,13 +231,14 @@ def _deg(x, decimals=0) -> str:
     return f"{from_si(x, 'angle', 'deg') % 360.0:.{decimals}f}" if _finite(x) else "–"
 
 
-def _position(face, at, long: bool = False) -> str:
-    """Where on the face a point lies, in words and user units (a long part's wall: its angle
-    alone, nothing varies along z)."""
+def _position(result, at) -> str:
+    """Where on the result's face a point lies, in words and user units (a long part's wall:
+    its angle alone, nothing varies along z)."""
     if not at:
         return ""
+    face = result.face
     if face in ("side", "bore"):
-        if long:
+        if result.cylinder.long:
             return f"at θ = {_deg(at.get('theta_rad'))}°"
         return f"at θ = {_deg(at.get('theta_rad'))}°, z = {_mm(at.get('z_m'))} mm"
     r = at.get("r_m")

@@ -25,9 +25,6 @@ from .units import from_si
 UNRESOLVED_WORDS = ("cannot resolve", "unresolved", "not resolved", "cannot tell")
 
 
-_inside = zone_holds_mean     # the face mean lies inside the zone's 95 % interval
-
-
 def _zone_phrase(z, fmt: _Fmt, mean_si, distance: bool = True) -> str:
     """'outer 60-180, at 9.67 ± 0.15 kW/m² (95 %), 16 % below the face mean'."""
     temp = fmt.d.quantity == "temperature"
@@ -64,21 +61,20 @@ def zone_sentences(summary, fmt: _Fmt) -> list[str]:
         low, high = high, low
     if low is high:
         return [f"The one zone is {_zone_phrase(low, fmt, mean)}."]
-    if all(_inside(z, mean) for z in zones):
+    if all(zone_holds_mean(z, mean) for z in zones):
         return [f"No zone differs from the face mean beyond its 95 % interval (the {weak} is "
                 f"{_zone_phrase(low, fmt, mean, False)}; the {strong} is {_zone_phrase(high, fmt, mean, False)})."]
     out = []
     for z, word in ((low, weak), (high, strong)):
-        note = " (within its 95 % interval of the face mean)" if _inside(z, mean) else ""
+        note = " (within its 95 % interval of the face mean)" if zone_holds_mean(z, mean) else ""
         out.append(f"The {word} zone is {_zone_phrase(z, fmt, mean, not note)}{note}.")
     return out
 
 
 def extreme_sentence(result, fmt: _Fmt) -> str:
     s = result.summary
-    long = result.cylinder.long
-    return (f"The lowest value is {fmt.pm(s.get('min'), s.get('min_sd'))} {_position(result.face, s.get('min_at'), long)}; "
-            f"the highest is {fmt.pm(s.get('max'), s.get('max_sd'))} {_position(result.face, s.get('max_at'), long)}.")
+    return (f"The lowest value is {fmt.pm(s.get('min'), s.get('min_sd'))} {_position(result, s.get('min_at'))}; "
+            f"the highest is {fmt.pm(s.get('max'), s.get('max_sd'))} {_position(result, s.get('max_at'))}.")
 
 
 def level_sentence(result, fmt: _Fmt) -> str:
@@ -148,7 +144,7 @@ def unresolved_sentences(result, fmt: _Fmt) -> list[str]:
     # the place by its band, the "±" as everywhere else: 1.96 sd (the glossary's; the band
     # of a mixture may sit unevenly about the estimate)
     pm = half95(float(g["std"].iloc[i]))
-    return [f"What these readings tell least: the estimate {_position(result.face, at, result.cylinder.long)}, where the 95 % "
+    return [f"What these readings tell least: the estimate {_position(result, at)}, where the 95 % "
             f"interval is widest: ± {sig(fmt.d.diff(pm), 2)} {fmt.d.diff_symbol} (95 %); more sensors near "
             "there would narrow it (see the band-width map)."]
 

@@ -41,11 +41,12 @@ def pinned_edges(design) -> list:
     around = np.linspace(0.0, 2.0 * np.pi, 24, endpoint=False)
     wall = is_wall(face)
     pts = display_grid(face, cyl, 21, 24)
-    scale = float(np.abs(design.face(pts.u, pts.v)[0]).max())
+    rows = design.face(pts.u, pts.v)[0]
     out = []
     for neighbour, at in face_edges(face, cyl):
         u, v = (around, np.full(around.size, at)) if wall else (np.full(around.size, at), around)
-        if float(np.abs(design.face(u, v)[0]).max()) <= PINNED * scale:
+        edge = design.face(u, v)[0]
+        if not estimated_points(np.vstack([rows, edge]), design.quantity)[len(rows):].any():
             out.append((neighbour, at))
     return out
 

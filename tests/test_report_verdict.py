@@ -372,5 +372,7 @@ def test_round_off_band_and_a_long_walls_position():
     assert pm95_of(1884.956, 1.1e-12, "W/m") == "1884.956 ± 0 W/m (95 %)"
     assert pm95_of(818.2, 0.8, "W") == "818 ± 1.6 W (95 %)"
     at = {"theta_rad": math.radians(340.0), "z_m": 0.0}
-    assert _position("bore", at, long=True) == "at θ = 340°"
-    assert "z = " in _position("bore", at)
+    long_tube = SimpleNamespace(face="bore", cylinder=SimpleNamespace(long=True))
+    tube = SimpleNamespace(face="bore", cylinder=SimpleNamespace(long=False))
+    assert _position(long_tube, at) == "at θ = 340°"
+    assert "z = " in _position(tube, at)
