@@ -78,6 +78,10 @@ def own_outputs(folder: Path) -> set[str]:
     return {n for n in listed if isinstance(n, str) and n and "/" not in n and n not in (".", "..")}
 
 
+#: the end of a staged file's name: '.NAME.' + mkstemp's random part + this (OutputSet.stream)
+STAGED_SUFFIX = ".tmp"
+
+
 def staging_leftovers(folder: Path) -> list[Path]:
     """Files an OutputSet staged in `folder` and never renamed into place because its process
     was killed (a lost worker, SIGKILL): hidden '.NAME.XXXXXXXX.tmp' files of heatsight's
@@ -91,8 +95,8 @@ def staging_leftovers(folder: Path) -> list[Path]:
         return []
     for p in entries:
         n = p.name
-        if n.startswith(".") and n.endswith(".tmp") and p.is_file() and not p.is_symlink():
-            stem = n[1:-4].rsplit(".", 1)[0]            # '.trend.csv.ab12cd34.tmp' -> 'trend.csv'
+        if n.startswith(".") and n.endswith(STAGED_SUFFIX) and p.is_file() and not p.is_symlink():
+            stem = n[1:-len(STAGED_SUFFIX)].rsplit(".", 1)[0]     # '.trend.csv.ab12cd34.tmp' -> 'trend.csv'
             if stem in names or stem.endswith(".png"):
                 out.append(p)
     return sorted(out)
@@ -285,7 +289,7 @@ class OutputSet:
     def stream(self, name: str):
         """A binary file object writing into the staged temporary file of `name` (for
         outputs too large to hold in memory); the caller closes it."""
-        fd, tmp = tempfile.mkstemp(prefix=f".{name}.", suffix=".tmp", dir=self.folder)
+        fd, tmp = tempfile.mkstemp(prefix=f".{name}.", suffix=STAGED_SUFFIX, dir=self.folder)
         self._staged.append((name, Path(tmp)))
         os.fchmod(fd, _default_mode())
         return os.fdopen(fd, "wb")

@@ -30,16 +30,16 @@ from .errors import InputError
 DEFAULT_WORKERS = 2
 #: seconds to wait for a scheduler given with --scheduler
 CONNECT_TIMEOUT_S = 20
+#: One BLAS thread per worker process (dask's own default, written here once: the fork server
+#: below starts with it before dask is imported); a variable the user has set wins, as in dask.
+WORKER_THREAD_ENV = {"OMP_NUM_THREADS": "1", "MKL_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1"}
 #: dask settings of the local cluster's workers (the README gives them for a real cluster).
 #: dask's nannies start their workers with glibc's MALLOC_TRIM_THRESHOLD_ = 64 KiB; setting the
 #: trim threshold (like the mmap threshold, top pad or mmap max; mallopt(3), from memory)
 #: switches off glibc's adaptive mmap threshold, so every array above 128 KiB is
 #: mapped and unmapped afresh and the fits' many short-lived posterior arrays cost page faults
 #: (a part 8 -> 14 s, 6 s of it system time); None unsets it.  dask's sampling profiler of the
-#: task thread is off (no dashboard reads it).  The BLAS thread variables (one thread) stay.
-#: One BLAS thread per worker process (dask's own default, written here once: the fork server
-#: below starts with it before dask is imported); a variable the user has set wins, as in dask.
-WORKER_THREAD_ENV = {"OMP_NUM_THREADS": "1", "MKL_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1"}
+#: task thread is off (no dashboard reads it).  The BLAS thread variables stay at one thread.
 LOCAL_WORKER_CONFIG = {"distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOLD_": None,
                        **{f"distributed.nanny.pre-spawn-environ.{k}": v for k, v in WORKER_THREAD_ENV.items()},
                        "distributed.worker.profile.enabled": False}

@@ -3,8 +3,8 @@
 J_m(x) for many (order, argument) pairs at once comes from a table on a uniform grid
 x_i = i h (h = 1/20) built by backward recurrence in the order,
     J_{m-1}(x) = (2 m / x) J_m(x) - J_{m+1}(x),
-over blocks of ORDER_BLOCK orders, each seeded with the two exact orders above it; between nodes a quintic Hermite interpolant uses
-J, J' = (J_{m-1} - J_{m+1}) / 2 and J'' = (J_{m-2} - 2 J_m + J_{m+2}) / 4, stored as its
+over blocks of ORDER_BLOCK orders, each seeded with the two exact orders above it; between
+nodes a quintic Hermite interpolant uses J, J' = (J_{m-1} - J_{m+1}) / 2 and J'' = (J_{m-2} - 2 J_m + J_{m+2}) / 4, stored as its
 six power coefficients, one flat array per power (p(t) = sum_j c_j t^j, t = (x - x_i) / h),
 and evaluated by a Horner sum in blocks of a few thousand (order, argument) pairs so the
 gathers and temporaries stay in cache.  The interpolation error is at most
