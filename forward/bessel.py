@@ -4,8 +4,9 @@ J_m(x) for many (order, argument) pairs at once comes from a table on a uniform 
 x_i = i h (h = 1/20) built by backward recurrence in the order,
     J_{m-1}(x) = (2 m / x) J_m(x) - J_{m+1}(x),
 over blocks of ORDER_BLOCK orders, each seeded with the two exact orders above it; between
-nodes a quintic Hermite interpolant uses J, J' = (J_{m-1} - J_{m+1}) / 2 and J'' = (J_{m-2} - 2 J_m + J_{m+2}) / 4, stored as its
-six power coefficients, one flat array per power (p(t) = sum_j c_j t^j, t = (x - x_i) / h),
+nodes a quintic Hermite interpolant uses J, J' = (J_{m-1} - J_{m+1}) / 2 and
+J'' = (J_{m-2} - 2 J_m + J_{m+2}) / 4, stored as its six power coefficients, one flat array
+per power (p(t) = sum_j c_j t^j, t = (x - x_i) / h),
 and evaluated by a Horner sum in blocks of a few thousand (order, argument) pairs so the
 gathers and temporaries stay in cache.  The interpolation error is at most
 h^6 max|J^(6)| / 46080 < 4e-13 (|J^(k)| <= 1).  Each node's values depend on that node
